@@ -1,0 +1,10 @@
+"""sheetbuilder: marketplace sales and sponsored-ad exports in, a live, verified formula workbook out.
+
+The public surface is :func:`build` (read, plan, render atomically) and
+:func:`plan_workbook` (the plan without writing anything).
+"""
+__version__ = "0.1.0"
+
+from .build import BuildResult, build, plan_workbook  # noqa: E402
+
+__all__ = ["build", "plan_workbook", "BuildResult", "__version__"]

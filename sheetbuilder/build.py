@@ -1,0 +1,133 @@
+"""The pipeline: settings, then readers, then the planners, then the renderer, atomically."""
+from __future__ import annotations
+
+import datetime as dt
+import os
+import tempfile
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import pandas as pd
+
+from .columns import PlannedTable
+from .errors import ERROR, WARNING, InputProblems, OutputExists, Problem, SheetbuilderError, UnsafeOutput
+from .plan_guide import plan_guide
+from .plan_inputs import plan_input_sheets
+from .plan_profit import DEFS as PROFIT_DEFS, plan_profit
+from .plan_settings import plan_settings
+from .readers import Inputs, read_inputs
+from .render import Progress, render
+from .settings import Settings, load_settings
+from .spec import WorkbookSpec
+
+
+@dataclass
+class Plan:
+    """A planned workbook: the spec the renderer writes and the reference frames behind it."""
+
+    spec: WorkbookSpec
+    tables: dict[str, PlannedTable] = field(default_factory=dict)
+
+
+@dataclass
+class BuildResult:
+    """What a build wrote and what it noticed."""
+
+    output: Path
+    warnings: list[Problem]
+    plan: Plan
+    rows: dict[str, int]
+
+
+def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
+                  warnings: list[Problem] | None = None) -> Plan:
+    """Plan every sheet from validated inputs: pure, writes nothing.
+
+    Args:
+        inputs: the validated tables.
+        settings: the build's settings.
+        built_on: the build date (for the attribution-window warning).
+        warnings: problems of WARNING severity to list on the Guide.
+
+    Returns:
+        The plan: the workbook spec and each computed table's reference frame.
+    """
+    input_sheets, layouts = plan_input_sheets(inputs)
+    settings_sheet, names = plan_settings(settings, built_on)
+    profit_sheet, profit = plan_profit(inputs, layouts, settings, built_on)
+    sources = {k: v.name for k, v in inputs.sources.items()}
+    guide = plan_guide(settings, built_on, [("Profit columns", PROFIT_DEFS)], warnings or [],
+                       inputs.checksums, sources)
+    spec = WorkbookSpec([guide, settings_sheet, profit_sheet, *input_sheets], names, settings.currency_symbol)
+    return Plan(spec, {"Profit": profit})
+
+
+def load(folder: Path) -> tuple[Inputs, Settings, list[Problem]]:
+    """Read settings and inputs; raise InputProblems when any problem is an error."""
+    settings, problems = load_settings(Path(folder))
+    inputs, found = read_inputs(Path(folder), settings)
+    problems += found
+    if settings.thin_margin > settings.strong_margin:
+        problems.append(Problem("settings.toml", None, "thin_margin",
+                                f"the thin threshold ({settings.thin_margin:g}) is above the strong threshold "
+                                f"({settings.strong_margin:g}); expected thin <= strong"))
+    if any(p.severity == ERROR for p in problems):
+        raise InputProblems(problems)
+    return inputs, settings, problems
+
+
+def _check_output(output: Path, inputs_folder: Path, force: bool) -> None:
+    """Refuse to overwrite without force, to write over an input, or into a missing folder."""
+    if not output.parent.is_dir():
+        raise SheetbuilderError(f"the output folder {output.parent} does not exist")
+    if output.suffix.lower() != ".xlsx":
+        raise SheetbuilderError(f"the output {output.name} should end in .xlsx")
+    if Path(inputs_folder).is_dir():
+        for p in Path(inputs_folder).iterdir():
+            if p.exists() and output.exists() and os.path.samefile(p, output):
+                raise UnsafeOutput(f"{output} is one of the input files; choose another output name")
+    if output.exists() and not force:
+        raise OutputExists(f"{output} exists; add --force to overwrite it")
+
+
+def write_atomically(spec: WorkbookSpec, output: Path, progress: Progress | None = None) -> None:
+    """Render to a temporary file beside output, then rename it into place."""
+    fd, tmp = tempfile.mkstemp(prefix="." + output.stem + ".", suffix=".partial.xlsx", dir=output.parent)
+    os.close(fd)
+    try:
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(tmp, 0o666 & ~umask)
+        render(spec, Path(tmp), progress)
+        os.replace(tmp, output)
+    except BaseException:
+        Path(tmp).unlink(missing_ok=True)
+        raise
+
+
+def build(folder: Path, output: Path, force: bool = False, built_on: dt.date | None = None,
+          progress: Progress | None = None) -> BuildResult:
+    """Read the exports in folder and write the workbook to output.
+
+    Args:
+        folder: the input folder (CSV or .xlsx exports, optional settings.toml).
+        output: the .xlsx file to write.
+        force: overwrite output if it exists.
+        built_on: the build date; today when None.
+        progress: optional callback(sheet, rows written, rows in sheet).
+
+    Returns:
+        The output path, the warnings, the plan, and the rows per input table.
+
+    Raises:
+        InputProblems: the inputs have errors (nothing is written).
+        OutputExists: output exists and force is False.
+    """
+    folder, output = Path(folder), Path(output)
+    _check_output(output, folder, force)
+    inputs, settings, problems = load(folder)
+    warnings = [p for p in problems if p.severity == WARNING]
+    plan = plan_workbook(inputs, settings, built_on or dt.date.today(), warnings)
+    write_atomically(plan.spec, output, progress)
+    rows = {k: len(v) for k, v in inputs.tables.items() if isinstance(v, pd.DataFrame)}
+    return BuildResult(output, warnings, plan, rows)

@@ -1,0 +1,122 @@
+"""One place per computed column: header, formula template, reference computation, format.
+
+A planner lists ColumnDefs; :func:`plan_table` computes each reference column in
+order with pandas (the cached values), resolves each formula template against the
+sheet's layout, and returns spec Columns. Formula and reference sit side by side, so
+they cannot drift apart unnoticed, and adding a column is one entry.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any, Callable
+
+import numpy as np
+import pandas as pd
+
+from .formula import cell_ref, col_letter, resolve
+from .spec import DATA, FORMULA, Cell, Column
+
+Reference = Callable[[pd.DataFrame, Any], Any]
+
+
+@dataclass(frozen=True)
+class ColumnDef:
+    """A table column defined once.
+
+    Args:
+        key: the name formulas and the reference frame use for the column.
+        header: the header text on the sheet.
+        style: the body cells' style key.
+        help: one line for the Guide: what the column means.
+        formula: template with {c:key} (same-row cell), {rng:table.column} (a range of an
+            in_ sheet), {tot:key} (this column's totals-row cell); None for a data column.
+        reference: pandas computation of the column from the frame of earlier columns
+            and the planner's context; for data columns, the values themselves.
+        kind: DATA, INPUT or FORMULA.
+        total: template of the totals-row cell: {sum:key} is the sum of a column's body,
+            {t:key} another totals-row cell; None leaves it blank.
+        total_reference: pandas computation of the totals-row value.
+    """
+
+    key: str
+    header: str
+    style: str
+    help: str
+    reference: Reference
+    formula: str | None = None
+    kind: str = FORMULA
+    width: float = 12
+    hidden: bool = False
+    total: str | None = None
+    total_reference: Reference | None = None
+
+
+def blank_div(num: Any, den: Any) -> Any:
+    """num / den, NaN (a blank cell) where den is 0, as the formulas write IF(den=0,"",num/den)."""
+    if np.ndim(num) == 0 and np.ndim(den) == 0:
+        return float("nan") if float(den) == 0 or np.isnan(float(den)) else float(num) / float(den)
+    num_a = np.asarray(num, dtype=float)
+    den_a = np.asarray(den, dtype=float)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        out = np.where(den_a != 0, num_a / np.where(den_a != 0, den_a, 1.0), np.nan)
+    index = num.index if isinstance(num, pd.Series) else (den.index if isinstance(den, pd.Series) else None)
+    return pd.Series(out, index=index)
+
+
+def as_cell_values(series: pd.Series) -> list:
+    """A column's values as the renderer takes them (NaN stays NaN: a blank)."""
+    return series.tolist()
+
+
+@dataclass
+class PlannedTable:
+    """The result of planning a table: spec columns, totals cells and the reference frame."""
+
+    columns: list[Column]
+    totals: list[Cell | None] | None
+    frame: pd.DataFrame
+    totals_values: dict[str, Any]
+    letters: dict[str, str]
+
+
+def plan_table(defs: list[ColumnDef], base: pd.DataFrame, ctx: Any, first_body_row: int,
+               ranges: dict[str, str], with_totals: bool) -> PlannedTable:
+    """Compute references and resolve formulas for a table whose body starts at first_body_row (0-based)."""
+    frame = base.copy()
+    letters = {d.key: col_letter(i) for i, d in enumerate(defs)}
+    n = len(frame)
+    totals_row = first_body_row + n
+    lookup = {
+        "c": {k: f"{v}{{r}}" for k, v in letters.items()},
+        "rng": ranges,
+        "tot": {k: f"${v}${totals_row + 1}" for k, v in letters.items()},
+        "sum": {k: f"SUM({v}{first_body_row + 1}:{v}{max(totals_row, first_body_row + 1)})" for k, v in letters.items()},
+        "t": {k: f"{v}{totals_row + 1}" for k, v in letters.items()},
+    }
+    totals_values: dict[str, Any] = {}
+    ctx.totals = totals_values
+    # Totals that shares depend on are computed from data columns before formula columns.
+    columns: list[Column] = []
+    for d in defs:
+        values = d.reference(frame, ctx)
+        frame[d.key] = values if not np.isscalar(values) else [values] * n
+        if d.total_reference is not None:
+            totals_values[d.key] = d.total_reference(frame, ctx)
+    for d in defs:
+        formula = resolve(d.formula, lookup) if d.formula else None
+        columns.append(Column(d.header, d.style, d.kind if d.formula is None else FORMULA,
+                              as_cell_values(frame[d.key]), formula, d.width, d.hidden))
+    totals = None
+    if with_totals:
+        totals = []
+        for d in defs:
+            if d.total is None:
+                totals.append(None)
+            elif d.total.startswith("="):
+                totals.append(Cell(totals_values.get(d.key), resolve(d.total, lookup), d.style.split("_")[0] + "_total"))
+            else:
+                totals.append(Cell(d.total, None, "text_total"))
+    return PlannedTable(columns, totals, frame, totals_values, letters)
+
+
+__all__ = ["ColumnDef", "PlannedTable", "plan_table", "blank_div", "DATA", "FORMULA", "cell_ref"]

@@ -1,0 +1,75 @@
+"""Formula text helpers: addresses, template resolution and the portable-function whitelist."""
+from __future__ import annotations
+
+import re
+
+from .errors import FormulaNotPortable
+
+# Functions that compute the same in Excel 2010+, LibreOffice 7.4, Google Sheets and
+# the `formulas` library, as far as this project uses them.
+PORTABLE_FUNCTIONS = frozenset({
+    "SUM", "SUMIFS", "COUNTIFS", "SUMPRODUCT", "INDEX", "MATCH", "IF", "IFERROR", "AND", "OR", "NOT",
+    "MIN", "MAX", "ROUND", "ROUNDUP", "ROUNDDOWN", "ABS", "LN", "EXP", "CEILING", "FLOOR", "INT", "COUNT",
+    "COUNTA", "ISNUMBER", "ISBLANK", "LEN", "ROWS",
+})
+
+_FUNCTION = re.compile(r"([A-Z][A-Z0-9.]*)\(")
+_STRING = re.compile(r'"(?:[^"]|"")*"')
+_PLACEHOLDER = re.compile(r"\{(\w+):([\w.]+)\}")
+
+
+def col_letter(col: int) -> str:
+    """The letters of a 0-based column number: 0 -> A, 26 -> AA."""
+    letters = ""
+    col += 1
+    while col:
+        col, rem = divmod(col - 1, 26)
+        letters = chr(65 + rem) + letters
+    return letters
+
+
+def cell_ref(row: int, col: int, absolute: bool = False) -> str:
+    """A1-style address of a 0-based (row, col)."""
+    if absolute:
+        return f"${col_letter(col)}${row + 1}"
+    return f"{col_letter(col)}{row + 1}"
+
+
+def quote_sheet(name: str) -> str:
+    """A sheet name as a formula reference needs it."""
+    return name if re.fullmatch(r"[A-Za-z_][A-Za-z0-9_]*", name) else "'" + name.replace("'", "''") + "'"
+
+
+def range_ref(sheet: str, col: int, first_row: int, last_row: int) -> str:
+    """An absolute single-column range on sheet, 0-based rows inclusive."""
+    letter = col_letter(col)
+    return f"{quote_sheet(sheet)}!${letter}${first_row + 1}:${letter}${max(last_row, first_row) + 1}"
+
+
+def functions_in(formula: str) -> set[str]:
+    """The function names a formula calls (text inside string literals ignored)."""
+    return set(_FUNCTION.findall(_STRING.sub('""', formula)))
+
+
+def check_portable(formula: str) -> None:
+    """Raise FormulaNotPortable when formula calls a function outside the whitelist."""
+    bad = functions_in(formula) - PORTABLE_FUNCTIONS
+    if bad:
+        raise FormulaNotPortable(f"non-portable function(s) {sorted(bad)} in {formula}")
+
+
+def resolve(template: str, lookup: dict[str, dict[str, str]]) -> str:
+    """Replace {kind:key} placeholders by lookup[kind][key]; '{r}' is left for the row.
+
+    kinds used by the planners: 'c' a same-row cell ('D{r}'), 'rng' an absolute
+    range on another sheet, 'tot' an absolute cell of the totals row.
+    """
+    def sub(match: re.Match) -> str:
+        kind, key = match.group(1), match.group(2)
+        try:
+            return lookup[kind][key]
+        except KeyError:
+            raise KeyError(f"unknown placeholder {{{kind}:{key}}} in {template}") from None
+    out = _PLACEHOLDER.sub(sub, template)
+    check_portable(out)
+    return out

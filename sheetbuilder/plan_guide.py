@@ -1,0 +1,91 @@
+"""The Guide sheet: what the workbook is for, how to use it, what every column means,
+the palette legend, the method sources, the cautions and the build record."""
+from __future__ import annotations
+
+import datetime as dt
+
+from . import __version__
+from .columns import ColumnDef
+from .errors import Problem
+from .palette import STATES
+from .plan_profit import CAUTION, warning_formula, warning_value
+from .settings import Settings
+from .spec import INPUT, Cell, Sheet
+
+SHEET = "Guide"
+
+SHEETS_TEXT = [
+    ("Guide", "This page: how to use the workbook, what each column means, sources and cautions."),
+    ("Settings", "Thresholds and targets. Change a cream cell and every sheet updates."),
+    ("Profit", "Profit after advertising for every product: margin, TACoS, ACoS, net profit, status and "
+               "a direction for its ad spend."),
+    ("in_ sheets", "The rows of your exports as read, sorted by product. Catalog prices, costs, fees, "
+                   "margins and target ACoS are inputs you may correct there."),
+]
+
+STEPS = [
+    "1. Read the warning line above: if it shows, the last days' ad sales are still being credited.",
+    "2. On Profit, sort or filter by Status and Direction; loss and thin products come first to review.",
+    "3. Correct any unit cost, fee or price on in_catalog, or a threshold on Settings: everything recalculates.",
+    "4. Decide per product what to do with its ads; the proposals are starting points, not orders.",
+]
+
+SOURCES = [
+    "TACoS, ACoS, break-even ACoS, net margin after ads: definitions in common use in the trade (no single source).",
+    "Thin margin below 8% and strong margin from 20%: the trade's rules of thumb (common practice, no source); "
+    "change them on Settings.",
+    "Spend share against sales share: a product's part of the ad spend compared with its part of the sales; "
+    "above 1 it is given more than it brings.",
+    "Cell and sheet limits: Microsoft, 'Excel specifications and limits' (32,767 characters per cell, "
+    "1,048,576 rows per sheet).",
+]
+
+
+def _column_rows(title: str, defs: list[ColumnDef]) -> list[list[Cell | None]]:
+    """A section listing a sheet's visible columns and their meanings."""
+    rows: list[list[Cell | None]] = [[Cell(title, style="subtitle")]]
+    rows += [[Cell(d.header), Cell(d.help, style="wrap")] for d in defs if not d.hidden]
+    return rows + [[None]]
+
+
+def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tuple[str, list[ColumnDef]]],
+               warnings: list[Problem], checksums: dict[str, str], sources: dict[str, str]) -> Sheet:
+    """The Guide sheet."""
+    rows: list[list[Cell | None]] = [
+        [Cell("sheetbuilder: profit after ads, and where ad spend goes", style="title")],
+        [Cell("This workbook turns your store-sales and sponsored-ad exports and your unit costs into live "
+              "figures: which products lose money once ads are paid, and where spend is out of proportion "
+              "to the sales it brings. Every figure is a formula; change an input and it updates.", style="wrap")],
+        [Cell("Caution", style="warning"), Cell(CAUTION + " These are decision aids to review before anything "
+              "is changed in an ad account; check every proposal against what you know of your business.",
+              style="warning")],
+        [Cell("Data freshness", style="subtitle"),
+         Cell(warning_value(settings, built_on), warning_formula(), "warning")],
+        [None],
+        [Cell("How to use it", style="subtitle")],
+        *[[None, Cell(step, style="wrap")] for step in STEPS],
+        [None],
+        [Cell("Sheets", style="subtitle")],
+        *[[Cell(name), Cell(text, style="wrap")] for name, text in SHEETS_TEXT],
+        [None],
+    ]
+    for title, defs in column_sections:
+        rows += _column_rows(title, defs)
+    rows += [[Cell("Colours", style="subtitle"),
+              Cell("Colour never carries meaning alone: the Status and Direction words say the same.", style="note")]]
+    for state in STATES.values():
+        rows.append([Cell(state.name, style="state_" + state.name), Cell(state.meaning)])
+    rows.append([Cell(0, style="money_input", kind=INPUT), Cell("Cream with blue text: an input cell you may change.")])
+    rows += [[None], [Cell("Method and sources", style="subtitle")]]
+    rows += [[None, Cell(s, style="wrap")] for s in SOURCES]
+    if warnings:
+        rows += [[None], [Cell("Notes from reading the exports", style="subtitle")]]
+        rows += [[Cell(p.where()), Cell(p.message, style="wrap")] for p in warnings[:200]]
+        if len(warnings) > 200:
+            rows.append([None, Cell(f"... and {len(warnings) - 200} more (see the command's output).")])
+    rows += [[None], [Cell("Build record", style="subtitle")],
+             [Cell("Tool version"), Cell(f"sheetbuilder {__version__}")],
+             [Cell("Built on"), Cell(built_on.isoformat())]]
+    for table, digest in sorted(checksums.items()):
+        rows.append([Cell(f"Input: {table}"), Cell(f"{sources.get(table, '')}  sha256 {digest}")])
+    return Sheet(SHEET, above=rows, widths={0: 24, 1: 110}, landscape=False, tab_color="#3A2A78")

@@ -1,0 +1,277 @@
+"""The Profit sheet: profit after advertising, one row per product.
+
+Definitions (common practice in the trade, no single source): TACoS = ad spend /
+revenue; ACoS = ad spend / ad sales; margin before ads = (price - unit cost - fees per
+unit) / price, or the catalog's margin; break-even ACoS = margin before ads; net margin
+after ads = margin before ads - TACoS; net profit after ads = revenue x margin before
+ads - ad spend; the shares and their ratio compare each product's part of the spend
+with its part of the sales.
+
+Each product's rows on in_store_sales and in_ad_products form one contiguous block;
+its first and last positions are written as data in hidden columns and summed with
+SUM(INDEX(..):INDEX(..)), so the sheet's cost grows with rows, not rows x products.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from .columns import ColumnDef, PlannedTable, blank_div, plan_table
+from .plan_inputs import InputSheet
+from .readers import Inputs
+from .settings import Settings
+from .spec import DATA, Cell, Highlight, Sheet, Table
+from .palette import DIRECTION_STATES, STATUS_STATES
+
+SHEET = "Profit"
+HEADER_ROW = 4  # 0-based: title, caution, warning, blank, then the header
+ATTRIBUTION_WARNING = ("Warning: the period ended less than the attribution window before this workbook was "
+                       "built, so recent ad sales are still being credited; ACoS and profit after ads look "
+                       "worse than they will be.")
+CAUTION = ("Decision aid only: review before changing a live ad account. Not financial or tax advice.")
+
+
+@dataclass
+class ProfitContext:
+    """What the Profit columns' references read besides the frame."""
+
+    settings: Settings
+    catalog: pd.DataFrame | None
+    totals: dict[str, Any] = field(default_factory=dict)
+
+
+def _block(table: str, column: str) -> str:
+    """Formula summing one column over a product's block of rows on an in_ sheet."""
+    first, last = {"store_sales": ("sales_first", "sales_last"), "ad_products": ("ad_first", "ad_last")}[table]
+    rng = "{rng:%s.%s}" % (table, column)
+    return f'=IF({{c:{first}}}="",0,SUM(INDEX({rng},{{c:{first}}}):INDEX({rng},{{c:{last}}})))'
+
+
+def _cat(column: str) -> str:
+    """Formula text reading one catalog column at the product's catalog row."""
+    return "INDEX({rng:catalog.%s},{c:cat_row})" % column
+
+
+def _catalog_value(df: pd.DataFrame, ctx: ProfitContext, column: str) -> pd.Series:
+    """The catalog's value of column for each product (NaN where the product is not in it)."""
+    if ctx.catalog is None or not len(ctx.catalog):
+        return pd.Series(np.nan, index=df.index)
+    lookup = ctx.catalog.set_index("product_id")[column]
+    return df["product_id"].map(lookup).astype(float)
+
+
+def _margin(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
+    price = _catalog_value(df, ctx, "price")
+    computed = blank_div(price - _catalog_value(df, ctx, "unit_cost") - _catalog_value(df, ctx, "fees_per_unit"),
+                         price)
+    given = _catalog_value(df, ctx, "margin")
+    return given.where(given.notna(), computed)
+
+
+def _target(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
+    given = _catalog_value(df, ctx, "target_acos")
+    return given.where(given.notna(), ctx.settings.default_target_acos)
+
+
+def _status(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
+    s = ctx.settings
+    net = df["net_margin"]
+    return pd.Series(np.select(
+        [df["revenue"] == 0, df["margin"].isna(), net < 0, net < s.thin_margin, net >= s.strong_margin],
+        ["no sales", "no margin", "loss", "thin", "strong"], "healthy"), index=df.index, dtype=object)
+
+
+def _direction(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
+    ratio = df["ratio"]
+    weak = df["status"].isin(["loss", "thin"])
+    return pd.Series(np.select([ratio.isna(), weak & (ratio > 1), (df["status"] == "strong") & (ratio < 1)],
+                               ["hold", "cut", "grow"], "hold"), index=df.index, dtype=object)
+
+
+def _sum_of(key: str):
+    return lambda df, ctx: float(df[key].sum())
+
+
+def _ratio_total(num: str, den: str):
+    return lambda df, ctx: blank_div(ctx.totals[num], ctx.totals[den])
+
+
+def _rev_with_margin_total(df, ctx):
+    return float(df["rev_with_margin"].sum())
+
+
+DEFS: list[ColumnDef] = [
+    ColumnDef("product_id", "Product ID", "text", "The product's identifier, as in your exports.",
+              lambda df, ctx: df["product_id"], kind=DATA, width=12, total="Total"),
+    ColumnDef("product_name", "Product name", "text", "From the catalog.",
+              lambda df, ctx: df["product_name"], kind=DATA, width=30),
+    ColumnDef("units", "Units", "int", "Units sold in the period, with or without ads (store sales).",
+              lambda df, ctx: df["units"], _block("store_sales", "units"), width=9,
+              total="={sum:units}", total_reference=_sum_of("units")),
+    ColumnDef("revenue", "Revenue", "money", "All sales of the product in the period (store sales).",
+              lambda df, ctx: df["revenue"], _block("store_sales", "revenue"), width=13,
+              total="={sum:revenue}", total_reference=_sum_of("revenue")),
+    ColumnDef("ad_spend", "Ad spend", "money", "What the product's ads cost in the period.",
+              lambda df, ctx: df["ad_spend"], _block("ad_products", "spend"), width=12,
+              total="={sum:ad_spend}", total_reference=_sum_of("ad_spend")),
+    ColumnDef("ad_sales", "Ad sales", "money", "Sales the ad platform credits to the product's ads.",
+              lambda df, ctx: df["ad_sales"], _block("ad_products", "ad_sales"), width=12,
+              total="={sum:ad_sales}", total_reference=_sum_of("ad_sales")),
+    ColumnDef("tacos", "TACoS", "percent", "Total advertising cost of sales: ad spend / revenue.",
+              lambda df, ctx: blank_div(df["ad_spend"], df["revenue"]),
+              '=IF({c:revenue}=0,"",{c:ad_spend}/{c:revenue})', width=9,
+              total='=IF({t:revenue}=0,"",{t:ad_spend}/{t:revenue})', total_reference=_ratio_total("ad_spend", "revenue")),
+    ColumnDef("acos", "ACoS", "percent", "Advertising cost of sales: ad spend / ad sales.",
+              lambda df, ctx: blank_div(df["ad_spend"], df["ad_sales"]),
+              '=IF({c:ad_sales}=0,"",{c:ad_spend}/{c:ad_sales})', width=9,
+              total='=IF({t:ad_sales}=0,"",{t:ad_spend}/{t:ad_sales})', total_reference=_ratio_total("ad_spend", "ad_sales")),
+    ColumnDef("margin", "Margin before ads", "percent",
+              "(price - unit cost - fees per unit) / price, or the catalog's margin when given.",
+              _margin,
+              '=IF({c:cat_row}="","",IF(%s<>"",%s,IF(%s=0,"",(%s-%s-%s)/%s)))'
+              % (_cat("margin"), _cat("margin"), _cat("price"), _cat("price"), _cat("unit_cost"),
+                 _cat("fees_per_unit"), _cat("price")), width=10,
+              total='=IF({sum:rev_with_margin}=0,"",{sum:gross}/{sum:rev_with_margin})'),
+    ColumnDef("breakeven", "Break-even ACoS", "percent",
+              "The ACoS at which ads eat the whole margin: equal to the margin before ads.",
+              lambda df, ctx: df["margin"], "={c:margin}", width=10),
+    ColumnDef("target_acos", "Target ACoS", "percent",
+              "The catalog's target ACoS, or the default target from Settings.",
+              _target, '=IF({c:cat_row}="",default_target_acos,IF(%s<>"",%s,default_target_acos))'
+              % (_cat("target_acos"), _cat("target_acos")), width=9),
+    ColumnDef("net_margin", "Net margin after ads", "percent", "Margin before ads minus TACoS.",
+              lambda df, ctx: df["margin"] - df["tacos"],
+              '=IF(OR({c:margin}="",{c:tacos}=""),"",{c:margin}-{c:tacos})', width=10,
+              total='=IF({sum:rev_with_margin}=0,"",{t:net_profit}/{sum:rev_with_margin})'),
+    ColumnDef("net_profit", "Net profit after ads", "money", "Revenue x margin before ads, minus ad spend.",
+              lambda df, ctx: df["revenue"] * df["margin"] - df["ad_spend"],
+              '=IF({c:margin}="","",{c:revenue}*{c:margin}-{c:ad_spend})', width=13,
+              total="={sum:net_profit}", total_reference=_sum_of("net_profit")),
+    ColumnDef("sales_share", "Sales share", "percent", "The product's revenue / all products' revenue.",
+              lambda df, ctx: blank_div(df["revenue"], ctx.totals["revenue"]),
+              '=IF({tot:revenue}=0,"",{c:revenue}/{tot:revenue})', width=9,
+              total="={sum:sales_share}", total_reference=_sum_of("sales_share")),
+    ColumnDef("spend_share", "Spend share", "percent", "The product's ad spend / all ad spend.",
+              lambda df, ctx: blank_div(df["ad_spend"], ctx.totals["ad_spend"]),
+              '=IF({tot:ad_spend}=0,"",{c:ad_spend}/{tot:ad_spend})', width=9,
+              total="={sum:spend_share}", total_reference=_sum_of("spend_share")),
+    ColumnDef("ratio", "Spend-to-sales ratio", "ratio",
+              "Spend share / sales share: above 1, the product takes more of the spend than it brings of the sales.",
+              lambda df, ctx: blank_div(df["spend_share"], df["sales_share"].fillna(0)).where(df["spend_share"].notna()),
+              '=IF({c:sales_share}="","",IF({c:sales_share}=0,"",IF({c:spend_share}="","",{c:spend_share}/{c:sales_share})))',
+              width=10),
+    ColumnDef("status", "Status", "text",
+              "no sales (revenue 0), no margin (not in the catalog), loss (net margin below 0), thin (below the "
+              "thin threshold), strong (at or above the strong threshold), else healthy.",
+              _status,
+              '=IF({c:revenue}=0,"no sales",IF({c:margin}="","no margin",IF({c:net_margin}<0,"loss",'
+              'IF({c:net_margin}<thin_margin,"thin",IF({c:net_margin}>=strong_margin,"strong","healthy")))))',
+              width=10),
+    ColumnDef("direction", "Direction", "text",
+              "cut where the status is loss or thin and the spend-to-sales ratio is above 1; grow where it is "
+              "strong and the ratio is below 1; else hold.",
+              _direction,
+              '=IF({c:ratio}="","hold",IF(AND(OR({c:status}="loss",{c:status}="thin"),{c:ratio}>1),"cut",'
+              'IF(AND({c:status}="strong",{c:ratio}<1),"grow","hold")))', width=10),
+    # Helper columns: row positions written as data, and two sums for the margin totals.
+    ColumnDef("cat_row", "Catalog row", "int", "Helper: the product's position on in_catalog.",
+              lambda df, ctx: df["cat_row"], kind=DATA, width=8, hidden=True),
+    ColumnDef("sales_first", "Sales first row", "int", "Helper: first of the product's rows on in_store_sales.",
+              lambda df, ctx: df["sales_first"], kind=DATA, width=8, hidden=True),
+    ColumnDef("sales_last", "Sales last row", "int", "Helper: last of the product's rows on in_store_sales.",
+              lambda df, ctx: df["sales_last"], kind=DATA, width=8, hidden=True),
+    ColumnDef("ad_first", "Ad first row", "int", "Helper: first of the product's rows on in_ad_products.",
+              lambda df, ctx: df["ad_first"], kind=DATA, width=8, hidden=True),
+    ColumnDef("ad_last", "Ad last row", "int", "Helper: last of the product's rows on in_ad_products.",
+              lambda df, ctx: df["ad_last"], kind=DATA, width=8, hidden=True),
+    ColumnDef("gross", "Gross profit before ads", "money", "Helper: revenue x margin before ads.",
+              lambda df, ctx: df["revenue"] * df["margin"], '=IF({c:margin}="","",{c:revenue}*{c:margin})',
+              width=8, hidden=True, total="={sum:gross}", total_reference=_sum_of("gross")),
+    ColumnDef("rev_with_margin", "Revenue with a margin", "money", "Helper: revenue of products with a margin.",
+              lambda df, ctx: df["revenue"].where(df["margin"].notna(), 0.0),
+              '=IF({c:margin}="",0,{c:revenue})', width=8, hidden=True,
+              total="={sum:rev_with_margin}", total_reference=_rev_with_margin_total),
+]
+
+# Totals that need the whole frame are filled after the body (see _fill_totals).
+_LATE_TOTALS = {
+    "margin": lambda df: blank_div(float(df["gross"].sum()), float(df["rev_with_margin"].sum())),
+    "net_margin": lambda df: blank_div(float(df["net_profit"].sum()), float(df["rev_with_margin"].sum())),
+}
+
+
+def product_frame(inputs: Inputs, layouts: dict[str, InputSheet]) -> pd.DataFrame:
+    """One row per product found anywhere, with its block positions and block sums."""
+    catalog = inputs.get("catalog")
+    ids: set[str] = set()
+    for name in ("catalog", "store_sales", "ad_products"):
+        frame = inputs.get(name)
+        if frame is not None:
+            ids.update(frame["product_id"])
+    df = pd.DataFrame({"product_id": sorted(ids)}, dtype=object)
+    cat = layouts["catalog"].frame if "catalog" in layouts else None
+    if cat is not None and len(cat):
+        pos = pd.Series(range(1, len(cat) + 1), index=cat["product_id"].to_numpy())
+        df["cat_row"] = df["product_id"].map(pos).astype(float)
+        df["product_name"] = df["product_id"].map(cat.set_index("product_id")["product_name"]).fillna("")
+    else:
+        df["cat_row"] = np.nan
+        df["product_name"] = ""
+    df["product_name"] = df["product_name"].astype(object)
+    for table, first, last, sums in (("store_sales", "sales_first", "sales_last", {"units": "units", "revenue": "revenue"}),
+                                     ("ad_products", "ad_first", "ad_last", {"ad_spend": "spend", "ad_sales": "ad_sales"})):
+        layout = layouts.get(table)
+        if layout is None or not len(layout.frame):
+            df[first] = df[last] = np.nan
+            for key in sums:
+                df[key] = 0.0
+            continue
+        fl = layout.first_last()
+        df[first] = df["product_id"].map(fl["first"]).astype(float)
+        df[last] = df["product_id"].map(fl["last"]).astype(float)
+        grouped = layout.frame.groupby("product_id")
+        for key, column in sums.items():
+            df[key] = df["product_id"].map(grouped[column].sum()).fillna(0.0).astype(float)
+    return df
+
+
+def warning_formula() -> str:
+    """The live warning shown while ad sales may still be coming in."""
+    return f'=IF(period_end="","",IF(built_on-period_end<attribution_days,"{ATTRIBUTION_WARNING}",""))'
+
+
+def warning_value(settings: Settings, built_on) -> str:
+    """The warning's value as the formula computes it."""
+    if settings.period_end is None:
+        return ""
+    return ATTRIBUTION_WARNING if (built_on - settings.period_end).days < settings.attribution_days else ""
+
+
+def plan_profit(inputs: Inputs, layouts: dict[str, InputSheet], settings: Settings, built_on
+                ) -> tuple[Sheet, PlannedTable]:
+    """The Profit sheet and its reference frame."""
+    base = product_frame(inputs, layouts)
+    catalog = layouts["catalog"].frame if "catalog" in layouts else None
+    ctx = ProfitContext(settings, catalog)
+    ranges = {f"{t}.{col}": r for t, layout in layouts.items() for col, r in layout.ranges.items()}
+    planned = plan_table(DEFS, base, ctx, HEADER_ROW + 1, ranges, with_totals=True)
+    for key, compute in _LATE_TOTALS.items():
+        i = [d.key for d in DEFS].index(key)
+        value = compute(planned.frame)
+        planned.totals_values[key] = value
+        cell = planned.totals[i]
+        planned.totals[i] = Cell(value, cell.formula, cell.style)
+    keys = [d.key for d in DEFS]
+    highlights = [Highlight(keys.index("status"), word, state) for word, state in STATUS_STATES.items()]
+    highlights += [Highlight(keys.index("direction"), word, state) for word, state in DIRECTION_STATES.items()]
+    above = [
+        [Cell("Profit after ads, per product", style="title")],
+        [Cell(CAUTION, style="note")],
+        [Cell(warning_value(settings, built_on), warning_formula(), "warning")],
+    ]
+    sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, planned.columns, planned.totals, highlights),
+                  freeze=(HEADER_ROW + 1, 2), tab_color="#0B5C8A")
+    return sheet, planned

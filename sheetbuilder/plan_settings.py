@@ -1,0 +1,80 @@
+"""The Settings sheet: one named cell per setting, with validation and a one-line explanation."""
+from __future__ import annotations
+
+import datetime as dt
+
+from .settings import SETTINGS, Settings
+from .spec import DATA, INPUT, Cell, Sheet, Validation
+
+SHEET = "Settings"
+FIRST_ROW = 4  # 0-based row of the first setting
+_STYLE = {"percent": "percent", "number": "ratio", "int": "int", "date": "date", "text": "text", "bool": "text"}
+
+
+def _validation(spec) -> dict | None:
+    """Data validation options for a live setting's cell."""
+    message = {"error_title": "Not a valid value", "input_title": spec.label[:32],
+               "input_message": spec.help[:255]}
+    if spec.kind in ("percent", "number"):
+        return {"validate": "decimal", "criteria": "between", "minimum": spec.low, "maximum": spec.high,
+                "error_message": f"Enter a number from {spec.low} to {spec.high} (percentages as 8% or 0.08).",
+                **message}
+    if spec.kind == "int":
+        return {"validate": "integer", "criteria": "between", "minimum": int(spec.low), "maximum": int(spec.high),
+                "error_message": f"Enter a whole number from {int(spec.low)} to {int(spec.high)}.", **message}
+    if spec.kind == "date":
+        return {"validate": "date", "criteria": "between", "minimum": dt.datetime(2000, 1, 1),
+                "maximum": dt.datetime(2100, 12, 31), "error_message": "Enter a date, or leave it blank.",
+                "ignore_blank": True, **message}
+    return None
+
+
+def _shown(spec, value):
+    """A setting's value as its cell shows it."""
+    if spec.kind == "bool":
+        return "yes" if value else "no"
+    return value
+
+
+def plan_settings(settings: Settings, built_on: dt.date) -> tuple[Sheet, list[tuple[str, str]]]:
+    """The Settings sheet and the workbook names pointing at its cells."""
+    rows: list[list[Cell | None]] = [
+        [Cell("Settings", style="title")],
+        [Cell("Cream cells with blue text are inputs: change them and every sheet updates. "
+              "Grey-text rows were used while reading the exports; change settings.toml and rebuild.",
+              style="note")],
+        [None],
+        [Cell("Setting", style="header"), Cell("Value", style="header"), Cell("What it does", style="header"),
+         Cell("Name in formulas", style="header")],
+    ]
+    names: list[tuple[str, str]] = []
+    validations: list[Validation] = []
+    for i, spec in enumerate(SETTINGS):
+        row = FIRST_ROW + i
+        style = _STYLE[spec.kind]
+        value = _shown(spec, settings.value(spec.key))
+        if spec.live:
+            cell = Cell(value, style=style + "_input", kind=INPUT)
+            options = _validation(spec)
+            if options:
+                validations.append(Validation(row, 1, options))
+        else:
+            cell = Cell(value, style=style, kind=DATA)
+        rows.append([Cell(spec.label), cell, Cell(spec.help, style="text" if spec.live else "note"),
+                     Cell(spec.key, style="note")])
+        names.append((spec.key, f"=Settings!$B${row + 1}"))
+    built_row = FIRST_ROW + len(SETTINGS)
+    rows.append([Cell("Built on"), Cell(built_on, style="date"),
+                 Cell("The day this workbook was built (for the attribution-window warning).", style="note"),
+                 Cell("built_on", style="note")])
+    names.append(("built_on", f"=Settings!$B${built_row + 1}"))
+    mapped = [(table, canon, source) for table, cols in sorted(settings.columns.items())
+              for canon, source in sorted(cols.items())]
+    if mapped:
+        rows.append([None])
+        rows.append([Cell("Column mapping used when reading", style="subtitle")])
+        for table, canon, source in mapped:
+            rows.append([Cell(f"{table}.{canon}"), Cell(source), Cell("header in your file", style="note")])
+    sheet = Sheet(SHEET, above=rows, widths={0: 28, 1: 14, 2: 90, 3: 22}, validations=validations,
+                  freeze=(FIRST_ROW, 0), tab_color="#B08A1E", landscape=True)
+    return sheet, names

@@ -1,0 +1,286 @@
+"""Readers: a folder of CSV or .xlsx exports in, validated frames and problem records out.
+
+Every cell is read as text first, so that a bad cell is reported with its file, row
+and column instead of being silently coerced. Nothing here raises on bad data.
+"""
+from __future__ import annotations
+
+import csv
+import hashlib
+import io
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import pandas as pd
+
+from . import contract as c
+from .errors import ERROR, WARNING, Problem
+from .numbers import NotANumber, parse_number
+from .settings import Settings
+
+SUFFIXES = (".csv", ".tsv", ".txt", ".xlsx", ".xlsm")
+MAX_SHEET_ROWS = 1_048_576  # Microsoft, "Excel specifications and limits"
+
+
+@dataclass
+class Inputs:
+    """The validated input tables. Absent optional tables are None.
+
+    Each frame has the canonical columns and `_row`, the row number in the file.
+    """
+
+    tables: dict[str, pd.DataFrame | None]
+    sources: dict[str, Path] = field(default_factory=dict)
+    checksums: dict[str, str] = field(default_factory=dict)
+
+    def get(self, name: str) -> pd.DataFrame | None:
+        """The frame of table name, or None when the file was not given."""
+        return self.tables.get(name)
+
+
+def find_file(folder: Path, table: c.TableRule, settings: Settings) -> tuple[Path | None, Problem | None]:
+    """The file that holds table in folder (by settings [files] or by its name)."""
+    if table.name in settings.files:
+        path = folder / settings.files[table.name]
+        if not path.is_file():
+            return None, Problem(str(path.name), None, None,
+                                 f"settings.toml [files] names this file for '{table.name}' but it does not exist")
+        return path, None
+    want = c.file_key(table.name)
+    found = sorted(p for p in folder.iterdir()
+                   if p.is_file() and p.suffix.lower() in SUFFIXES and c.file_key(p.stem) == want)
+    if len(found) > 1:
+        names = ", ".join(p.name for p in found)
+        return None, Problem(folder.name, None, None,
+                             f"several files could hold '{table.name}': {names}; keep one or name it in [files]")
+    if not found:
+        if table.required:
+            return None, Problem(folder.name or str(folder), None, None,
+                                 f"missing file '{table.name}.csv' (or .xlsx): {table.label}")
+        return None, None
+    return found[0], None
+
+
+def _decode(data: bytes) -> str:
+    """Text of a CSV file: UTF-8 with or without BOM, else cp1252."""
+    try:
+        return data.decode("utf-8-sig")
+    except UnicodeDecodeError:
+        return data.decode("cp1252")
+
+
+def _cell_text(value: object) -> str:
+    """A spreadsheet cell's value as the text a CSV export would hold."""
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return ""
+    if isinstance(value, bool):
+        return "TRUE" if value else "FALSE"
+    if isinstance(value, float):
+        return str(int(value)) if value.is_integer() and abs(value) < 1e15 else repr(value)
+    if hasattr(value, "isoformat"):
+        return value.isoformat()
+    return str(value)
+
+
+def read_rows(path: Path) -> list[list[str]]:
+    """All rows of a CSV or .xlsx file as lists of text, header first; blank rows kept."""
+    if path.suffix.lower() in (".xlsx", ".xlsm"):
+        frame = pd.read_excel(path, engine="calamine", header=None, dtype=object)
+        return [[_cell_text(v) for v in row] for row in frame.itertuples(index=False)]
+    text = _decode(path.read_bytes())
+    first = next((line for line in text.splitlines() if line.strip()), "")
+    delimiter = max((",", ";", "\t"), key=first.count) if first else ","
+    return list(csv.reader(io.StringIO(text, newline=""), delimiter=delimiter))
+
+
+def map_headers(header: list[str], table: c.TableRule, settings: Settings, file: str
+                ) -> tuple[dict[str, int], list[Problem]]:
+    """Which file column holds each canonical column: explicit mapping, then name, then synonym."""
+    keys = [c.header_key(h) for h in header]
+    explicit = settings.columns.get(table.name, {})
+    found: dict[str, int] = {}
+    problems: list[Problem] = []
+    for rule in table.columns:
+        if rule.name in explicit:
+            want = c.header_key(explicit[rule.name])
+            if want in keys:
+                found[rule.name] = keys.index(want)
+            else:
+                problems.append(Problem(file, 1, explicit[rule.name],
+                                        f"settings.toml maps '{rule.name}' to this header, but the file has no such column"))
+            continue
+        own = c.header_key(rule.name)
+        if own in keys:
+            found[rule.name] = keys.index(own)
+            continue
+        hits = [i for i, k in enumerate(keys) if k in rule.synonyms and i not in found.values()]
+        if len(hits) == 1:
+            found[rule.name] = hits[0]
+        elif len(hits) > 1:
+            names = ", ".join(f"'{header[i]}'" for i in hits)
+            problems.append(Problem(file, 1, header[hits[0]],
+                                    f"several columns could be '{rule.name}' ({names}); map one in settings.toml "
+                                    f"[columns.{table.name}]"))
+        elif rule.required:
+            also = ", ".join(rule.synonyms[:5])
+            problems.append(Problem(file, 1, rule.name,
+                                    f"missing column '{rule.name}'" + (f" (also accepted: {also})" if also else "")
+                                    + f"; or map it in settings.toml [columns.{table.name}]"))
+    return found, problems
+
+
+_NON_BLANK = {"product_id", "campaign", "target", "search_term", "term", "match_type", "state"}
+
+
+def _parse_cell(rule: c.ColumnRule, text: str, settings: Settings) -> tuple[object, str | None]:
+    """The value of one cell, or an error message saying what was expected."""
+    t = text.strip()
+    if rule.kind == c.TEXT:
+        if not t and rule.name in _NON_BLANK:
+            return "", "is blank; expected a value"
+        return (t if rule.name in ("product_id", "campaign", "ad_group") else text), None
+    if rule.kind in c.CHOICES:
+        synonyms, expected = c.CHOICES[rule.kind]
+        value = synonyms.get(c.header_key(t)) if t != "-" else synonyms.get("-")
+        if value is None:
+            return "", f"'{text}' is not one of {expected}"
+        return value, None
+    if not t:
+        if rule.kind in (c.COUNT, c.MONEY):
+            return 0.0, None
+        if rule.name == "bid":
+            return math.nan, "is blank; expected the current bid"
+        return math.nan, None
+    try:
+        value, had_percent = parse_number(t, settings.decimal_comma)
+    except NotANumber:
+        expected = {c.COUNT: "a whole number", c.MONEY: "an amount such as 1234.56",
+                    c.PERCENT: "a percentage such as 30% or 0.30", c.AMOUNT: "an amount such as 0.85"}[rule.kind]
+        return math.nan, f"'{text}' is not a number; expected {expected}"
+    if value < 0:
+        return value, f"'{text}' is negative; expected zero or more"
+    if rule.kind == c.COUNT and not float(value).is_integer():
+        return value, f"'{text}' is not a whole number"
+    if rule.kind == c.PERCENT and not had_percent and value > 1:
+        value = value / 100  # a bare 30 in a percent column means 30%
+    return value, None
+
+
+def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.DataFrame | None, list[Problem]]:
+    """Read and validate one table's file."""
+    file = path.name
+    try:
+        rows = read_rows(path)
+    except UnicodeDecodeError:
+        return None, [Problem(file, None, None, "cannot be read as UTF-8 or cp1252 text")]
+    except csv.Error as exc:
+        return None, [Problem(file, None, None, f"not a readable CSV file: {exc}")]
+    except Exception as exc:  # calamine raises its own types for broken workbooks
+        return None, [Problem(file, None, None, f"not a readable spreadsheet: {exc}")]
+    start = next((i for i, r in enumerate(rows) if any(x.strip() for x in r)), None)
+    if start is None:
+        return None, [Problem(file, None, None, "the file is empty; expected a header row and data rows")]
+    header = rows[start]
+    found, problems = map_headers(header, table, settings, file)
+    if any(p.severity == ERROR for p in problems):
+        return None, problems
+    if len(rows) - start > MAX_SHEET_ROWS:
+        return None, [Problem(file, None, None, f"has {len(rows) - start - 1} rows; a sheet holds at most "
+                                                f"{MAX_SHEET_ROWS - 1} data rows")]
+    records: list[dict] = []
+    for i in range(start + 1, len(rows)):
+        row = rows[i]
+        if not any(x.strip() for x in row):
+            continue
+        record: dict[str, object] = {"_row": i + 1}
+        for rule in table.columns:
+            col = found.get(rule.name)
+            text = row[col] if col is not None and col < len(row) else ""
+            value, message = _parse_cell(rule, text, settings)
+            if message:
+                problems.append(Problem(file, i + 1, header[col] if col is not None else rule.name, message))
+            record[rule.name] = value
+        records.append(record)
+    names = ["_row"] + [r.name for r in table.columns]
+    frame = pd.DataFrame.from_records(records, columns=names)
+    for rule in table.columns:
+        if rule.kind in c.NUMERIC_KINDS:
+            frame[rule.name] = frame[rule.name].astype(float)
+        else:
+            frame[rule.name] = frame[rule.name].astype(object)
+    frame["_row"] = frame["_row"].astype(int)
+    header_of = {rule.name: (header[found[rule.name]] if rule.name in found else rule.name) for rule in table.columns}
+    frame.attrs["headers"] = header_of
+    frame.attrs["file"] = file
+    return frame, problems
+
+
+def _row_checks(name: str, frame: pd.DataFrame) -> list[Problem]:
+    """Checks across the cells of a row, and across rows, within one table."""
+    problems: list[Problem] = []
+    file, headers = frame.attrs["file"], frame.attrs["headers"]
+    if "orders" in frame and "clicks" in frame:
+        for r in frame.loc[frame["orders"] > frame["clicks"]].itertuples():
+            problems.append(Problem(file, r._1, headers["orders"],
+                                    f"orders ({r.orders:g}) are more than clicks ({r.clicks:g}); "
+                                    "expected at most one order per click"))
+    if name == "catalog":
+        dup = frame[frame["product_id"].duplicated(keep=False) & (frame["product_id"] != "")]
+        for pid, group in dup.groupby("product_id", sort=True):
+            rows = ", ".join(str(x) for x in group["_row"])
+            for r in group["_row"].iloc[1:]:
+                problems.append(Problem(file, int(r), headers["product_id"],
+                                        f"product '{pid}' appears more than once (rows {rows}); "
+                                        "expected one row per product"))
+    return problems
+
+
+def _cross_checks(tables: dict[str, pd.DataFrame | None]) -> list[Problem]:
+    """Checks between tables: products the catalog lacks."""
+    problems: list[Problem] = []
+    catalog = tables.get("catalog")
+    if catalog is None:
+        return problems
+    known = set(catalog["product_id"])
+    for name in ("store_sales", "ad_products"):
+        frame = tables.get(name)
+        if frame is None:
+            continue
+        missing = frame.loc[~frame["product_id"].isin(known)]
+        for pid, group in missing.groupby("product_id", sort=True):
+            problems.append(Problem(frame.attrs["file"], int(group["_row"].iloc[0]), frame.attrs["headers"]["product_id"],
+                                    f"product '{pid}' is not in the catalog; it is built with its margin blank "
+                                    "(add it to the catalog to see its profit)", WARNING))
+    return problems
+
+
+def read_inputs(folder: Path, settings: Settings) -> tuple[Inputs, list[Problem]]:
+    """Read every table of the contract from folder.
+
+    Returns:
+        The inputs (tables that could not be read are None) and all problems found.
+    """
+    folder = Path(folder)
+    if not folder.is_dir():
+        return Inputs({}), [Problem(str(folder), None, None, "the input folder does not exist")]
+    tables: dict[str, pd.DataFrame | None] = {}
+    sources: dict[str, Path] = {}
+    checksums: dict[str, str] = {}
+    problems: list[Problem] = []
+    for table in c.TABLES:
+        path, problem = find_file(folder, table, settings)
+        if problem:
+            problems.append(problem)
+        if path is None:
+            tables[table.name] = None
+            continue
+        sources[table.name] = path
+        checksums[table.name] = hashlib.sha256(path.read_bytes()).hexdigest()
+        frame, found = read_table(path, table, settings)
+        problems.extend(found)
+        if frame is not None:
+            problems.extend(_row_checks(table.name, frame))
+        tables[table.name] = frame
+    problems.extend(_cross_checks(tables))
+    return Inputs(tables, sources, checksums), problems

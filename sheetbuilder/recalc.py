@@ -1,0 +1,106 @@
+"""Recalculating a workbook outside Excel: LibreOffice Calc headless and the `formulas` library.
+
+Used by the tests (three-way truth), the benchmark, and later by commands that read
+workbooks a user saved. LibreOffice is forced to recalculate on load with a private
+profile whose registrymodifications.xcu sets OOXMLRecalcMode to 0 ("always").
+"""
+from __future__ import annotations
+
+import os
+import shutil
+import subprocess
+import tempfile
+from pathlib import Path
+from typing import Any
+
+from .errors import SheetbuilderError
+
+_RECALC_PROFILE = """<?xml version="1.0" encoding="UTF-8"?>
+<oor:items xmlns:oor="http://openoffice.org/2001/registry" xmlns:xs="http://www.w3.org/2001/XMLSchema" \
+xmlns:xsi="http://www.w3.org/2001/XMLSchema-instance">
+<item oor:path="/org.openoffice.Office.Calc/Formula/Load"><prop oor:name="OOXMLRecalcMode" oor:op="fuse">\
+<value>0</value></prop></item>
+<item oor:path="/org.openoffice.Office.Calc/Formula/Load"><prop oor:name="ODFRecalcMode" oor:op="fuse">\
+<value>0</value></prop></item>
+</oor:items>
+"""
+
+
+class RecalcUnavailable(SheetbuilderError):
+    """The spreadsheet program or library needed to recalculate is not installed."""
+
+
+def soffice_path() -> str | None:
+    """The LibreOffice executable, or None."""
+    return shutil.which("soffice") or shutil.which("libreoffice")
+
+
+def make_profile(folder: Path) -> Path:
+    """A LibreOffice user profile that recalculates every formula on load."""
+    user = folder / "user"
+    user.mkdir(parents=True, exist_ok=True)
+    (user / "registrymodifications.xcu").write_text(_RECALC_PROFILE, encoding="utf-8")
+    return folder
+
+
+def libreoffice_convert(paths: list[Path], outdir: Path, target: str = "xlsx", timeout: int = 1800) -> list[Path]:
+    """Open each file in LibreOffice (recalculating on load) and save it as target into outdir.
+
+    One soffice call converts all the files, to spread its start-up.
+
+    Args:
+        paths: the workbooks to recalculate.
+        outdir: where the converted files go (same stem, new suffix).
+        target: 'xlsx' (recalculated values) or 'pdf' (for renders).
+
+    Returns:
+        The converted files, in the order of paths.
+    """
+    exe = soffice_path()
+    if exe is None:
+        raise RecalcUnavailable("LibreOffice (soffice) is not installed")
+    outdir.mkdir(parents=True, exist_ok=True)
+    with tempfile.TemporaryDirectory(prefix="sb-lo-") as tmp:
+        profile = make_profile(Path(tmp))
+        filt = 'xlsx:Calc MS Excel 2007 XML' if target == "xlsx" else "pdf:calc_pdf_Export"
+        cmd = [exe, f"-env:UserInstallation=file://{profile}", "--headless", "--norestore", "--nologo",
+               "--convert-to", filt, "--outdir", str(outdir), *[str(p) for p in paths]]
+        env = {**os.environ, "HOME": tmp}
+        done = subprocess.run(cmd, capture_output=True, text=True, timeout=timeout, env=env)
+    outs = [outdir / (Path(p).stem + "." + target) for p in paths]
+    missing = [o for o in outs if not o.exists()]
+    if missing:
+        raise SheetbuilderError(f"LibreOffice did not write {missing[0]}: {done.stdout} {done.stderr}")
+    return outs
+
+
+def formulas_values(path: Path) -> dict[tuple[str, str], Any]:
+    """Recalculate path with the `formulas` library; {(sheet, 'A1'): value} for every formula cell."""
+    try:
+        import formulas
+    except ImportError as exc:  # pragma: no cover - the test extra installs it
+        raise RecalcUnavailable("the formulas library is not installed") from exc
+    model = formulas.ExcelModel().loads(str(path)).finish()
+    solution = model.calculate()
+    out: dict[tuple[str, str], Any] = {}
+    for key, value in solution.items():
+        key = str(key)
+        if "!" not in key or ":" in key.split("!")[1]:
+            continue
+        sheet, cell = key.rsplit("!", 1)
+        sheet = sheet.strip("'").split("]", 1)[-1]
+        raw = value.value[0, 0] if hasattr(value, "value") else value
+        out[(sheet.upper(), cell.upper())] = _plain(raw)
+    return out
+
+
+def _plain(value: Any) -> Any:
+    """A formulas-library result as a plain Python value ('' for empty)."""
+    if hasattr(value, "item"):
+        value = value.item()
+    text = str(value)
+    if text in ("empty", "None"):
+        return ""
+    if isinstance(value, (bool, int, float, str)):
+        return value
+    return text  # error values such as #VALUE!

@@ -1,0 +1,204 @@
+"""The renderer: the only module that touches the workbook writer.
+
+It takes a WorkbookSpec and writes it, row by row in xlsxwriter's constant_memory
+mode, with every formula's cached value. Formulas go through a narrow fast path (see
+:func:`put_formula`) because every formula this project writes has been checked
+against the portable-function whitelist, which excludes every function that
+xlsxwriter's stock write_formula would rewrite.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import math
+from pathlib import Path
+from typing import Any, Callable
+
+import xlsxwriter
+from xlsxwriter.worksheet import CellFormulaTuple
+
+from .formula import check_portable
+from .palette import STATES, STYLES, style_properties
+from .spec import FORMULA, Cell, Sheet, WorkbookSpec
+
+CELL_TEXT_LIMIT = 32_767  # Microsoft, "Excel specifications and limits": characters in a cell
+TRUNCATION_MARK = " [cut: longer than a cell holds]"
+
+Progress = Callable[[str, int, int], None]
+
+
+def workbook_options() -> dict:
+    """The writer's options: text stays text, no URL or number guessing, lean memory."""
+    return {"constant_memory": True, "strings_to_formulas": False, "strings_to_numbers": False,
+            "strings_to_urls": False, "use_future_functions": False}
+
+
+def _utf16_len(text: str) -> int:
+    """Length of text in UTF-16 units, as spreadsheets count it."""
+    return len(text.encode("utf-16-le")) // 2
+
+
+def fit_text(text: str) -> str:
+    """text unchanged if a cell can hold it, else cut with a visible mark."""
+    if len(text) <= CELL_TEXT_LIMIT // 2 or _utf16_len(text) <= CELL_TEXT_LIMIT:
+        return text
+    room = CELL_TEXT_LIMIT - _utf16_len(TRUNCATION_MARK)
+    out, used = [], 0
+    for ch in text:
+        size = 2 if ord(ch) > 0xFFFF else 1
+        if used + size > room:
+            break
+        out.append(ch)
+        used += size
+    return "".join(out) + TRUNCATION_MARK
+
+
+def put_formula(ws, row: int, col: int, formula: str, fmt, value: Any) -> None:
+    """Store a whitelisted formula as write_formula would, minus its function rewriting.
+
+    Equivalent to Worksheet.write_formula for formulas that call none of the functions
+    xlsxwriter expands (dynamic arrays, newer functions) and are not array formulas;
+    tests check the sheet XML is byte-identical to the stock method's.
+    """
+    if ws._check_dimensions(row, col):
+        raise ValueError(f"cell {row},{col} is outside the sheet")
+    if ws.constant_memory and row > ws.previous_row:
+        ws._write_single_row(row)
+    ws.table[row][col] = CellFormulaTuple(formula[1:] if formula.startswith("=") else formula, fmt, value)
+
+
+def _cached(value: Any) -> Any:
+    """A cached result as the file stores it: NaN and None become blank text."""
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return ""
+    if isinstance(value, (dt.date, dt.datetime)):
+        return (dt.datetime.combine(value, dt.time()) - dt.datetime(1899, 12, 30)).days
+    if hasattr(value, "item"):  # numpy scalars
+        return value.item()
+    return value
+
+
+def put_value(ws, row: int, col: int, value: Any, fmt) -> None:
+    """Write a plain value: text always as text, numbers, dates, or a formatted blank."""
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        ws.write_blank(row, col, None, fmt)
+    elif isinstance(value, str):
+        ws.write_string(row, col, fit_text(value), fmt)
+    elif isinstance(value, bool):
+        ws.write_boolean(row, col, value, fmt)
+    elif isinstance(value, (dt.date, dt.datetime)):
+        ws.write_datetime(row, col, value if isinstance(value, dt.datetime) else
+                          dt.datetime.combine(value, dt.time()), fmt)
+    else:
+        ws.write_number(row, col, float(value), fmt)
+
+
+def _put_cell(ws, row: int, col: int, cell: Cell | None, formats: dict) -> None:
+    """Write one free-standing cell."""
+    if cell is None:
+        return
+    fmt = formats[cell.style]
+    if cell.formula is not None:
+        check_portable(cell.formula)
+        put_formula(ws, row, col, cell.formula, fmt, _cached(cell.value))
+    else:
+        put_value(ws, row, col, cell.value, fmt)
+
+
+def _write_rows(ws, first: int, rows: list[list[Cell | None]], formats: dict) -> int:
+    """Write rows of cells from row first; return the next free row."""
+    for i, cells in enumerate(rows):
+        for col, cell in enumerate(cells):
+            _put_cell(ws, first + i, col, cell, formats)
+    return first + len(rows)
+
+
+def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress: Progress | None) -> None:
+    """Write one sheet: widths, rows above, the table, rows below, then its settings."""
+    ws = wb.add_worksheet(sheet.name)
+    table = sheet.table
+    widths = dict(sheet.widths)
+    hidden: set[int] = set()
+    if table:
+        for i, column in enumerate(table.columns):
+            widths.setdefault(i, column.width)
+            if column.hidden:
+                hidden.add(i)
+    for col, width in sorted(widths.items()):
+        ws.set_column(col, col, width, None, {"hidden": col in hidden})
+    row = _write_rows(ws, 0, sheet.above, formats)
+    if table:
+        row = max(row, table.first_row)
+        header_fmt = formats["header"]
+        for col, column in enumerate(table.columns):
+            ws.write_string(row, col, column.header, header_fmt)
+        ws.set_row(row, 30)
+        row += 1
+        columns = [(col, c, formats[c.style], c.formula, c.values) for col, c in enumerate(table.columns)]
+        for _, c, _, formula, _ in columns:
+            if formula:
+                check_portable(formula)
+        n = table.n_rows
+        step = max(1, n // 50)
+        for i in range(n):
+            r = row + i
+            rs = str(r + 1)
+            for col, c, fmt, formula, values in columns:
+                if c.kind == FORMULA:
+                    put_formula(ws, r, col, formula.replace("{r}", rs), fmt, _cached(values[i]))
+                else:
+                    put_value(ws, r, col, values[i], fmt)
+            if progress and (i % step == 0 or i == n - 1):
+                progress(sheet.name, i + 1, n)
+        if table.autofilter:
+            ws.autofilter(table.first_row, 0, table.first_row + max(n, 1), len(table.columns) - 1)
+        for h in table.highlights:
+            if n:
+                ws.conditional_format(row, h.column, row + n - 1, h.column,
+                                      {"type": "cell", "criteria": "==", "value": '"' + h.text + '"',
+                                       "format": state_formats[h.state]})
+        row += n
+        if table.totals:
+            for col, cell in enumerate(table.totals):
+                _put_cell(ws, row, col, cell, formats)
+            row += 1
+        ws.repeat_rows(table.first_row)
+    _write_rows(ws, row, sheet.below, formats)
+    for v in sheet.validations:
+        ws.data_validation(v.row, v.col, v.row, v.col, dict(v.options))
+    if sheet.freeze:
+        ws.freeze_panes(*sheet.freeze)
+    if sheet.landscape:
+        ws.set_landscape()
+    ws.set_paper(9)
+    ws.fit_to_pages(1, 0)
+    ws.set_margins(0.4, 0.4, 0.5, 0.5)
+    ws.set_footer("&L&A&RPage &P of &N")
+    if sheet.tab_color:
+        ws.set_tab_color(sheet.tab_color)
+    if sheet.hidden:
+        ws.hide()
+    ws.protect("", {"autofilter": True, "sort": True, "format_columns": True, "format_rows": True,
+                    "select_locked_cells": True, "select_unlocked_cells": True})
+
+
+def render(spec: WorkbookSpec, path: Path, progress: Progress | None = None) -> None:
+    """Write spec to path (the caller handles temporary names and renaming).
+
+    Args:
+        spec: the planned workbook.
+        path: where to write the .xlsx file.
+        progress: optional callback(sheet name, rows written, rows in the sheet).
+    """
+    wb = xlsxwriter.Workbook(str(path), workbook_options())
+    formats = {key: wb.add_format(style_properties(key, spec.currency_symbol)) for key in STYLES}
+    state_formats = {name: wb.add_format({"bg_color": s.fill, "font_color": s.font})
+                     for name, s in STATES.items()}
+    for sheet in spec.sheets:
+        _write_sheet(wb, sheet, formats, state_formats, progress)
+    visible = [ws for ws, sheet in zip(wb.worksheets(), spec.sheets) if not sheet.hidden]
+    if visible:
+        visible[0].activate()
+    for name, ref in spec.names:
+        wb.define_name(name, ref)
+    wb.set_properties({"title": "sheetbuilder workbook", "author": "sheetbuilder", **spec.properties})
+    wb.close()

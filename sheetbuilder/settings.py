@@ -1,0 +1,168 @@
+"""Settings: every value has an embedded default; settings.toml in the input folder overrides.
+
+Each setting is declared once in SETTINGS (key, default, kind, bounds, one-line help).
+The Settings sheet, the defined names the formulas use and the TOML reader all come
+from that one list, so adding a setting is one entry.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import tomllib
+from dataclasses import dataclass, field, fields
+from pathlib import Path
+from types import MappingProxyType
+from typing import Any
+
+from .errors import Problem
+
+SETTINGS_FILE = "settings.toml"
+
+
+@dataclass(frozen=True)
+class SettingSpec:
+    """One setting: its key (also the workbook's defined name), default, kind and help.
+
+    kind is one of 'percent', 'number', 'int', 'date', 'text', 'bool'.
+    live settings are cells the formulas read; the others are used while reading
+    the exports and are shown on the Settings sheet for the record.
+    """
+
+    key: str
+    label: str
+    default: Any
+    kind: str
+    help: str
+    low: float | None = None
+    high: float | None = None
+    live: bool = True
+
+
+SETTINGS: tuple[SettingSpec, ...] = (
+    SettingSpec("thin_margin", "Thin-margin threshold", 0.08, "percent",
+                "A product whose net margin after ads is below this is 'thin' (common practice: 8%).",
+                -1.0, 1.0),
+    SettingSpec("strong_margin", "Strong-margin threshold", 0.20, "percent",
+                "A product whose net margin after ads is at or above this is 'strong' (common practice: 20%).",
+                -1.0, 1.0),
+    SettingSpec("default_target_acos", "Default target ACoS", 0.30, "percent",
+                "Target ACoS for products whose catalog row gives none.", 0.0, 5.0),
+    SettingSpec("period_days", "Period length (days)", 30, "int",
+                "How many days the exports cover.", 1, 3660),
+    SettingSpec("period_end", "Period end date", None, "date",
+                "Last day the exports cover; blank if unknown.", None, None),
+    SettingSpec("attribution_days", "Attribution window (days)", 7, "int",
+                "Days after a click in which the ad platform still credits a sale to it.", 0, 90),
+    SettingSpec("currency_symbol", "Currency symbol", "$", "text",
+                "Shown in money formats (used when building).", live=False),
+    SettingSpec("decimal_comma", "Decimal comma", False, "bool",
+                "Read 1.234,56 as one thousand two hundred and thirty-four point five six (used when reading).",
+                live=False),
+)
+
+SPEC_BY_KEY = MappingProxyType({s.key: s for s in SETTINGS})
+
+
+@dataclass(frozen=True)
+class Settings:
+    """The settings of one build. Frozen; made by :func:`load_settings` or directly in tests."""
+
+    thin_margin: float = 0.08
+    strong_margin: float = 0.20
+    default_target_acos: float = 0.30
+    period_days: int = 30
+    period_end: dt.date | None = None
+    attribution_days: int = 7
+    currency_symbol: str = "$"
+    decimal_comma: bool = False
+    columns: MappingProxyType = field(default_factory=lambda: MappingProxyType({}))
+    files: MappingProxyType = field(default_factory=lambda: MappingProxyType({}))
+
+    def value(self, key: str) -> Any:
+        """The value of the setting named key."""
+        return getattr(self, key)
+
+    def replace(self, **changes: Any) -> "Settings":
+        """A copy with some values changed."""
+        values = {f.name: getattr(self, f.name) for f in fields(self)}
+        values.update(changes)
+        return Settings(**values)
+
+
+def _coerce(spec: SettingSpec, raw: Any, file: str) -> tuple[Any, Problem | None]:
+    """The TOML value raw as the setting's kind, or a problem saying what was expected."""
+    def bad(expected: str) -> tuple[Any, Problem]:
+        return spec.default, Problem(file, None, spec.key, f"expected {expected}, got {raw!r}")
+
+    if spec.kind in ("percent", "number", "int"):
+        if isinstance(raw, str) and spec.kind == "percent" and raw.strip().endswith("%"):
+            try:
+                raw = float(raw.strip()[:-1]) / 100
+            except ValueError:
+                return bad("a percentage such as 8% or 0.08")
+        if isinstance(raw, bool) or not isinstance(raw, (int, float)):
+            return bad("a number")
+        if spec.kind == "int" and int(raw) != raw:
+            return bad("a whole number")
+        value = int(raw) if spec.kind == "int" else float(raw)
+        if (spec.low is not None and value < spec.low) or (spec.high is not None and value > spec.high):
+            return bad(f"a value from {spec.low} to {spec.high}")
+        return value, None
+    if spec.kind == "date":
+        if isinstance(raw, dt.datetime):
+            return raw.date(), None
+        if isinstance(raw, dt.date):
+            return raw, None
+        if isinstance(raw, str):
+            try:
+                return dt.date.fromisoformat(raw.strip()), None
+            except ValueError:
+                pass
+        return bad("a date written as 2026-11-29")
+    if spec.kind == "bool":
+        if isinstance(raw, bool):
+            return raw, None
+        return bad("true or false")
+    if not isinstance(raw, str):
+        return bad("text")
+    return raw, None
+
+
+def load_settings(folder: Path) -> tuple[Settings, list[Problem]]:
+    """Read settings.toml from folder if present; defaults otherwise.
+
+    Returns:
+        The settings and the problems found (unknown keys, wrong types, bad tables).
+    """
+    path = Path(folder) / SETTINGS_FILE
+    if not path.exists():
+        return Settings(), []
+    try:
+        data = tomllib.loads(path.read_bytes().decode("utf-8-sig"))
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        return Settings(), [Problem(SETTINGS_FILE, None, None, f"not valid TOML: {exc}")]
+    problems: list[Problem] = []
+    values: dict[str, Any] = {}
+    for key, raw in data.items():
+        if key in ("columns", "files"):
+            continue
+        spec = SPEC_BY_KEY.get(key)
+        if spec is None:
+            known = ", ".join(s.key for s in SETTINGS)
+            problems.append(Problem(SETTINGS_FILE, None, key, f"unknown setting; known settings: {known}, [columns], [files]"))
+            continue
+        value, problem = _coerce(spec, raw, SETTINGS_FILE)
+        if problem:
+            problems.append(problem)
+        else:
+            values[key] = value
+    columns = data.get("columns", {})
+    files = data.get("files", {})
+    if not isinstance(columns, dict) or not all(isinstance(v, dict) for v in columns.values()):
+        problems.append(Problem(SETTINGS_FILE, None, "columns",
+                                "expected tables such as [columns.ad_products] with spend = \"Cost (USD)\""))
+        columns = {}
+    if not isinstance(files, dict) or not all(isinstance(v, str) for v in files.values()):
+        problems.append(Problem(SETTINGS_FILE, None, "files", "expected [files] with catalog = \"my products.csv\""))
+        files = {}
+    mapping = {table: MappingProxyType({str(k): str(v) for k, v in cols.items()}) for table, cols in columns.items()}
+    return Settings(**values, columns=MappingProxyType(mapping), files=MappingProxyType(dict(files))), problems

@@ -1,0 +1,115 @@
+"""The sheet specification: what the planning layer hands the renderer.
+
+Plain data only: no workbook objects. Row and column numbers are 0-based here, as
+the renderer writes them; formula text uses spreadsheet (1-based) addresses.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any, Sequence
+
+DATA = "data"        # imported or computed-in-Python values, locked
+INPUT = "input"      # values the user may edit: unlocked and styled as inputs
+FORMULA = "formula"  # live formula with its cached value
+
+
+@dataclass(frozen=True)
+class Cell:
+    """One cell outside a table: a value, or a formula with its cached value."""
+
+    value: Any = None
+    formula: str | None = None
+    style: str = "text"
+    kind: str = DATA
+
+
+@dataclass
+class Column:
+    """One column of a table.
+
+    Args:
+        header: the header text.
+        style: the style key of the body cells (see palette.STYLES).
+        kind: DATA, INPUT or FORMULA.
+        values: one value per row (the cached result for a formula column).
+        formula: for FORMULA columns, the formula with '{r}' standing for the row number.
+        width: column width in characters.
+        hidden: hide the column (helper columns holding row indexes).
+    """
+
+    header: str
+    style: str
+    kind: str
+    values: Sequence[Any]
+    formula: str | None = None
+    width: float = 12
+    hidden: bool = False
+
+
+@dataclass(frozen=True)
+class Highlight:
+    """Colour a column's cells by their text: state is a palette state name."""
+
+    column: int
+    text: str
+    state: str
+
+
+@dataclass(frozen=True)
+class Validation:
+    """Data validation on one cell (xlsxwriter's options dict, kept as plain data)."""
+
+    row: int
+    col: int
+    options: dict
+
+
+@dataclass
+class Table:
+    """A header row, body rows and an optional totals row, written from first_row down."""
+
+    first_row: int
+    columns: list[Column]
+    totals: list[Cell | None] | None = None
+    highlights: list[Highlight] = field(default_factory=list)
+    autofilter: bool = True
+
+    @property
+    def n_rows(self) -> int:
+        """The number of body rows."""
+        return len(self.columns[0].values) if self.columns else 0
+
+    @property
+    def last_row(self) -> int:
+        """The 0-based row of the last body row (the header row when there is none)."""
+        return self.first_row + self.n_rows
+
+
+@dataclass
+class Sheet:
+    """One worksheet: rows of cells above the table, the table, rows below it."""
+
+    name: str
+    above: list[list[Cell | None]] = field(default_factory=list)
+    table: Table | None = None
+    below: list[list[Cell | None]] = field(default_factory=list)
+    widths: dict[int, float] = field(default_factory=dict)
+    freeze: tuple[int, int] | None = None
+    validations: list[Validation] = field(default_factory=list)
+    landscape: bool = True
+    tab_color: str | None = None
+    hidden: bool = False
+
+
+@dataclass
+class WorkbookSpec:
+    """Everything the renderer needs: sheets in order and the workbook's defined names."""
+
+    sheets: list[Sheet]
+    names: list[tuple[str, str]] = field(default_factory=list)
+    currency_symbol: str = "$"
+    properties: dict = field(default_factory=dict)
+
+    def sheet(self, name: str) -> Sheet:
+        """The sheet called name."""
+        return next(s for s in self.sheets if s.name == name)

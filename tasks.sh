@@ -1,0 +1,64 @@
+#!/usr/bin/env bash
+# The project's two commands, for a fresh Debian machine with Python 3.11:
+#   ./tasks.sh demo   make .venv, install sheetbuilder, build the demo workbook (demo_workbook.xlsx)
+#   ./tasks.sh test   the same install with the test tools, LibreOffice Calc if missing, then every test
+# Also: ./tasks.sh samples (PNG renders into output_samples/), ./tasks.sh bench (the benchmark).
+set -euo pipefail
+cd "$(dirname "$0")"
+PY=${PYTHON:-python3}
+VENV=.venv
+
+as_root() { if [ "$(id -u)" = 0 ]; then "$@"; elif command -v sudo >/dev/null; then sudo "$@"; else return 1; fi; }
+
+apt_install() {
+  as_root apt-get update -qq && DEBIAN_FRONTEND=noninteractive as_root apt-get install -y -qq --no-install-recommends "$@"
+}
+
+venv() {
+  local extra=$1
+  if [ ! -x "$VENV/bin/python" ]; then
+    "$PY" -m venv "$VENV" 2>/dev/null || { apt_install python3-venv && "$PY" -m venv "$VENV"; }
+  fi
+  local stamp="$VENV/.installed-$extra"
+  if [ ! -f "$stamp" ] || [ pyproject.toml -nt "$stamp" ]; then
+    "$VENV/bin/python" -m pip install -q --disable-pip-version-check -e ".[$extra]"
+    touch "$stamp"
+  fi
+}
+
+libreoffice() {
+  if ! command -v soffice >/dev/null; then
+    echo "Installing LibreOffice Calc (headless) for the recalculation tests..."
+    apt_install libreoffice-calc-nogui poppler-utils fonts-dejavu-core \
+      || apt_install libreoffice-calc poppler-utils fonts-dejavu-core \
+      || { echo "LibreOffice Calc is missing and could not be installed: apt-get install libreoffice-calc"; exit 1; }
+  fi
+  if ! command -v pdftoppm >/dev/null; then apt_install poppler-utils || true; fi
+}
+
+case "${1:-}" in
+  demo)
+    venv run
+    "$VENV/bin/sheetbuilder" build demo_inputs -o demo_workbook.xlsx --force
+    ;;
+  test)
+    venv test
+    libreoffice
+    shift
+    "$VENV/bin/python" -m pytest -q -p no:cacheprovider "$@"
+    ;;
+  samples)
+    venv test
+    libreoffice
+    "$VENV/bin/python" tools/render_samples.py demo_inputs output_samples
+    ;;
+  bench)
+    venv test
+    libreoffice
+    shift
+    "$VENV/bin/python" -m sheetbuilder.bench "$@"
+    ;;
+  *)
+    echo "usage: ./tasks.sh demo | test | samples | bench"; exit 2
+    ;;
+esac
