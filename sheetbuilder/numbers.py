@@ -3,22 +3,48 @@ from __future__ import annotations
 
 import math
 import re
+import unicodedata
 from decimal import ROUND_HALF_UP, Decimal
 
 _SPACES = re.compile(r"[\s\u00a0\u202f']+")
-_CURRENCY = re.compile(r"^[^\d\-+.,(]*|[^\d%.,)]*$")
-_PLAIN = re.compile(r"^[+-]?(\d+(\.\d*)?|\.\d+)([eE][+-]?\d+)?$")
+_SHAPE = re.compile(r"(?P<sign1>[-+]?)(?P<pre>[^\d.,+\-%]*)(?P<sign2>[-+]?)(?P<body>[\d.,]+)"
+                    r"(?P<exp>[eE][+-]?\d+)?(?P<pct>%?)(?P<post>[^\d.,+\-%]*)")
+_POINT_BODY = re.compile(r"(?:\d{1,3}(?:,\d{3})+|\d+)(?:\.\d*)?|\.\d+")   # 1,234.56
+_COMMA_BODY = re.compile(r"(?:\d{1,3}(?:\.\d{3})+|\d+)(?:,\d*)?|,\d+")     # 1.234,56
+# Currency words written beside amounts besides ISO codes (USD) and symbols ($, €, R$).
+_CURRENCY_WORDS = {"kr", "zł", "zl", "kč", "kc", "ft", "rs", "fr", "lei", "rm"}
 
 
 class NotANumber(ValueError):
-    """The text is not a number in any form the readers accept."""
+    """The text is not a number in any form the readers accept.
+
+    hint, when not empty, says in plain English what would make it read (for example
+    the decimal_comma setting).
+    """
+
+    def __init__(self, text: str, hint: str = ""):
+        super().__init__(text)
+        self.hint = hint
+
+
+def _is_currency(affix: str) -> bool:
+    """Whether text written before or after an amount is a currency mark (or nothing)."""
+    rest = "".join(ch for ch in affix if unicodedata.category(ch) != "Sc")
+    if not rest:
+        return True
+    if rest.isascii() and rest.isalpha() and rest.isupper() and len(rest) <= 3:
+        return True  # USD, EUR, and the R of R$, the US of US$
+    return rest.casefold().rstrip(".") in _CURRENCY_WORDS
 
 
 def parse_number(text: str, decimal_comma: bool = False) -> tuple[float, bool]:
     """Read a number written as an export writes it.
 
-    Accepts 1234.56, $1,234.56, 36%, (12.50) for minus 12.50, -€3, 1.234,56 with
-    decimal_comma, and scientific notation. Blank text must be handled by the caller.
+    Accepts 1234.56, $1,234.56, 12.50 USD, 36%, (12.50) for minus 12.50, -€3, $-3,
+    1.234,56 with decimal_comma, and scientific notation. A comma (a point with
+    decimal_comma) must group thousands in threes, so 12,50 is not read as 1250.
+    Text beside the amount must be a currency mark: 12abc and 5 kg are not numbers.
+    Blank text must be handled by the caller.
 
     Returns:
         (value, had_percent_sign). A percent sign divides the value by 100.
@@ -30,26 +56,25 @@ def parse_number(text: str, decimal_comma: bool = False) -> tuple[float, bool]:
     negative = False
     if s.startswith("(") and s.endswith(")"):
         negative, s = True, s[1:-1]
-    if s.startswith("-"):
-        negative, s = not negative, s[1:]
-    elif s.startswith("+"):
-        s = s[1:]
-    signed = negative
-    s = _CURRENCY.sub("", s)
-    if s.startswith("-") and not signed:  # $-12.00
-        negative, s = True, s[1:]
-    percent = s.endswith("%")
-    if percent:
-        s = s[:-1]
-    if decimal_comma:
-        s = s.replace(".", "").replace(",", ".")
-    else:
-        s = s.replace(",", "")
-    if not _PLAIN.match(s):
+    m = _SHAPE.fullmatch(s)
+    if m is None or (m["sign1"] and m["sign2"]) or not (_is_currency(m["pre"]) and _is_currency(m["post"])):
         raise NotANumber(text)
-    value = float(s)
+    if "-" in (m["sign1"], m["sign2"]):
+        negative = not negative
+    body, point = m["body"], (_COMMA_BODY if decimal_comma else _POINT_BODY)
+    if not point.fullmatch(body):
+        other = _POINT_BODY if decimal_comma else _COMMA_BODY
+        hint = ""
+        if other.fullmatch(body):
+            hint = ("settings.toml has decimal_comma = true, so a point only groups thousands"
+                    if decimal_comma else "if the file writes decimals with a comma, set decimal_comma = true "
+                                          "in settings.toml")
+        raise NotANumber(text, hint)
+    plain = body.replace(".", "").replace(",", ".") if decimal_comma else body.replace(",", "")
+    value = float(plain + (m["exp"] or ""))
     if not math.isfinite(value):
         raise NotANumber(text)
+    percent = bool(m["pct"])
     if percent:
         value /= 100
     return (-value if negative else value), percent

@@ -23,7 +23,7 @@ from .columns import ColumnDef, PlannedTable, blank_div, plan_table
 from .plan_inputs import InputSheet
 from .readers import Inputs
 from .settings import Settings
-from .spec import DATA, Cell, Highlight, Sheet, Table
+from .spec import DATA, INPUT, Cell, Highlight, Sheet, Table
 from .palette import DIRECTION_STATES, STATUS_STATES
 
 SHEET = "Profit"
@@ -73,7 +73,8 @@ def _margin(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
 
 def _target(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
     given = _catalog_value(df, ctx, "target_acos")
-    return given.where(given.notna(), ctx.settings.default_target_acos)
+    target = given.where(given.notna(), ctx.settings.default_target_acos)
+    return df["target_override"].where(df["target_override"].notna(), target)
 
 
 def _status(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
@@ -89,6 +90,26 @@ def _direction(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
     weak = df["status"].isin(["loss", "thin"])
     return pd.Series(np.select([ratio.isna(), weak & (ratio > 1), (df["status"] == "strong") & (ratio < 1)],
                                ["hold", "cut", "grow"], "hold"), index=df.index, dtype=object)
+
+
+def _account_cvr(df: pd.DataFrame, ctx: ProfitContext) -> float:
+    clicks, orders = float(df["ad_clicks"].sum()), float(df["ad_orders"].sum())
+    return 0.0 if clicks == 0 else orders / clicks
+
+
+def _account_aov(df: pd.DataFrame, ctx: ProfitContext) -> float:
+    orders = float(df["ad_orders"].sum())
+    return 0.0 if orders == 0 else float(df["ad_sales"].sum()) / orders
+
+
+def _product_cvr(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
+    own = blank_div(df["ad_orders"], df["ad_clicks"])
+    return own.where((df["ad_clicks"] != 0) & (df["ad_orders"] != 0), _account_cvr(df, ctx))
+
+
+def _product_aov(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
+    own = blank_div(df["ad_sales"], df["ad_orders"])
+    return own.where(df["ad_orders"] != 0, _account_aov(df, ctx))
 
 
 def _sum_of(key: str):
@@ -139,9 +160,9 @@ DEFS: list[ColumnDef] = [
               "The ACoS at which ads eat the whole margin: equal to the margin before ads.",
               lambda df, ctx: df["margin"], "={c:margin}", width=10),
     ColumnDef("target_acos", "Target ACoS", "percent",
-              "The catalog's target ACoS, or the default target from Settings.",
-              _target, '=IF({c:cat_row}="",default_target_acos,IF(%s<>"",%s,default_target_acos))'
-              % (_cat("target_acos"), _cat("target_acos")), width=9),
+              "Your target ACoS (last column) if typed, else the catalog's, else the default target from Settings.",
+              _target, '=IF({c:target_override}<>"",{c:target_override},IF({c:cat_row}="",default_target_acos,'
+              'IF(%s<>"",%s,default_target_acos)))' % (_cat("target_acos"), _cat("target_acos")), width=9),
     ColumnDef("net_margin", "Net margin after ads", "percent", "Margin before ads minus TACoS.",
               lambda df, ctx: df["margin"] - df["tacos"],
               '=IF(OR({c:margin}="",{c:tacos}=""),"",{c:margin}-{c:tacos})', width=10,
@@ -176,6 +197,9 @@ DEFS: list[ColumnDef] = [
               _direction,
               '=IF({c:ratio}="","hold",IF(AND(OR({c:status}="loss",{c:status}="thin"),{c:ratio}>1),"cut",'
               'IF(AND({c:status}="strong",{c:ratio}<1),"grow","hold")))', width=10),
+    ColumnDef("target_override", "Your target ACoS", "percent_input",
+              "Input: type a target ACoS for the product to override the catalog and the default; its bids follow.",
+              lambda df, ctx: df["target_override"], kind=INPUT, width=10),
     # Helper columns: row positions written as data, and two sums for the margin totals.
     ColumnDef("cat_row", "Catalog row", "int", "Helper: the product's position on in_catalog.",
               lambda df, ctx: df["cat_row"], kind=DATA, width=8, hidden=True),
@@ -187,6 +211,22 @@ DEFS: list[ColumnDef] = [
               lambda df, ctx: df["ad_first"], kind=DATA, width=8, hidden=True),
     ColumnDef("ad_last", "Ad last row", "int", "Helper: last of the product's rows on in_ad_products.",
               lambda df, ctx: df["ad_last"], kind=DATA, width=8, hidden=True),
+    ColumnDef("ad_clicks", "Ad clicks", "int", "Helper: clicks on the product's ads.",
+              lambda df, ctx: df["ad_clicks"], _block("ad_products", "clicks"), width=8, hidden=True,
+              total="={sum:ad_clicks}", total_reference=_sum_of("ad_clicks")),
+    ColumnDef("ad_orders", "Ad orders", "int", "Helper: orders from the product's ads.",
+              lambda df, ctx: df["ad_orders"], _block("ad_products", "orders"), width=8, hidden=True,
+              total="={sum:ad_orders}", total_reference=_sum_of("ad_orders")),
+    ColumnDef("prod_cvr", "Product CVR", "percent",
+              "Helper: the product's ad orders / ad clicks; the account's rate where it has no clicks or orders.",
+              _product_cvr, '=IF(OR({c:ad_clicks}=0,{c:ad_orders}=0),{tot:prod_cvr},{c:ad_orders}/{c:ad_clicks})',
+              width=8, hidden=True, total='=IF({t:ad_clicks}=0,0,{t:ad_orders}/{t:ad_clicks})',
+              total_reference=_account_cvr),
+    ColumnDef("prod_aov", "Product order value", "money",
+              "Helper: the product's ad sales / ad orders; the account's where it has no orders.",
+              _product_aov, '=IF({c:ad_orders}=0,{tot:prod_aov},{c:ad_sales}/{c:ad_orders})',
+              width=8, hidden=True, total='=IF({t:ad_orders}=0,0,{t:ad_sales}/{t:ad_orders})',
+              total_reference=_account_aov),
     ColumnDef("gross", "Gross profit before ads", "money", "Helper: revenue x margin before ads.",
               lambda df, ctx: df["revenue"] * df["margin"], '=IF({c:margin}="","",{c:revenue}*{c:margin})',
               width=8, hidden=True, total="={sum:gross}", total_reference=_sum_of("gross")),
@@ -222,7 +262,8 @@ def product_frame(inputs: Inputs, layouts: dict[str, InputSheet]) -> pd.DataFram
         df["product_name"] = ""
     df["product_name"] = df["product_name"].astype(object)
     for table, first, last, sums in (("store_sales", "sales_first", "sales_last", {"units": "units", "revenue": "revenue"}),
-                                     ("ad_products", "ad_first", "ad_last", {"ad_spend": "spend", "ad_sales": "ad_sales"})):
+                                     ("ad_products", "ad_first", "ad_last", {"ad_spend": "spend", "ad_sales": "ad_sales",
+                                                                            "ad_clicks": "clicks", "ad_orders": "orders"})):
         layout = layouts.get(table)
         if layout is None or not len(layout.frame):
             df[first] = df[last] = np.nan
@@ -235,6 +276,7 @@ def product_frame(inputs: Inputs, layouts: dict[str, InputSheet]) -> pd.DataFram
         grouped = layout.frame.groupby("product_id")
         for key, column in sums.items():
             df[key] = df["product_id"].map(grouped[column].sum()).fillna(0.0).astype(float)
+    df["target_override"] = np.nan
     return df
 
 

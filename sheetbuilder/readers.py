@@ -70,6 +70,13 @@ def _decode(data: bytes) -> str:
         return data.decode("cp1252")
 
 
+class CellNumber(str):
+    """The text of a spreadsheet cell that holds a number (not text that looks like one).
+
+    Such text is always written with a decimal point, whatever decimal_comma says.
+    """
+
+
 def _cell_text(value: object) -> str:
     """A spreadsheet cell's value as the text a CSV export would hold."""
     if value is None or (isinstance(value, float) and math.isnan(value)):
@@ -77,7 +84,9 @@ def _cell_text(value: object) -> str:
     if isinstance(value, bool):
         return "TRUE" if value else "FALSE"
     if isinstance(value, float):
-        return str(int(value)) if value.is_integer() and abs(value) < 1e15 else repr(value)
+        return CellNumber(str(int(value)) if value.is_integer() and abs(value) < 1e15 else repr(value))
+    if isinstance(value, int):
+        return CellNumber(value)
     if hasattr(value, "isoformat"):
         return value.isoformat()
     return str(value)
@@ -113,6 +122,11 @@ def map_headers(header: list[str], table: c.TableRule, settings: Settings, file:
         own = c.header_key(rule.name)
         if own in keys:
             found[rule.name] = keys.index(own)
+            if keys.count(own) > 1:
+                names = ", ".join(f"'{header[i]}'" for i, k in enumerate(keys) if k == own)
+                problems.append(Problem(file, 1, header[found[rule.name]],
+                                        f"several columns could be '{rule.name}' ({names}); keep one, or map one in "
+                                        f"settings.toml [columns.{table.name}]"))
             continue
         hits = [i for i, k in enumerate(keys) if k in rule.synonyms and i not in found.values()]
         if len(hits) == 1:
@@ -130,6 +144,7 @@ def map_headers(header: list[str], table: c.TableRule, settings: Settings, file:
     return found, problems
 
 
+_SIGNED = {"margin"}  # a product sold below its costs has a negative margin before ads
 _NON_BLANK = {"product_id", "campaign", "target", "search_term", "term", "match_type", "state"}
 
 
@@ -139,7 +154,7 @@ def _parse_cell(rule: c.ColumnRule, text: str, settings: Settings) -> tuple[obje
     if rule.kind == c.TEXT:
         if not t and rule.name in _NON_BLANK:
             return "", "is blank; expected a value"
-        return (t if rule.name in ("product_id", "campaign", "ad_group") else text), None
+        return (t if rule.name in ("product_id", "campaign", "ad_group") else str(text)), None
     if rule.kind in c.CHOICES:
         synonyms, expected = c.CHOICES[rule.kind]
         value = synonyms.get(c.header_key(t)) if t != "-" else synonyms.get("-")
@@ -153,16 +168,16 @@ def _parse_cell(rule: c.ColumnRule, text: str, settings: Settings) -> tuple[obje
             return math.nan, "is blank; expected the current bid"
         return math.nan, None
     try:
-        value, had_percent = parse_number(t, settings.decimal_comma)
-    except NotANumber:
+        value, had_percent = parse_number(t, settings.decimal_comma and not isinstance(text, CellNumber))
+    except NotANumber as exc:
         expected = {c.COUNT: "a whole number", c.MONEY: "an amount such as 1234.56",
                     c.PERCENT: "a percentage such as 30% or 0.30", c.AMOUNT: "an amount such as 0.85"}[rule.kind]
-        return math.nan, f"'{text}' is not a number; expected {expected}"
-    if value < 0:
+        return math.nan, f"'{text}' is not a number; expected {expected}" + (f" ({exc.hint})" if exc.hint else "")
+    if value < 0 and rule.name not in _SIGNED:
         return value, f"'{text}' is negative; expected zero or more"
     if rule.kind == c.COUNT and not float(value).is_integer():
         return value, f"'{text}' is not a whole number"
-    if rule.kind == c.PERCENT and not had_percent and value > 1:
+    if rule.kind == c.PERCENT and not had_percent and abs(value) > 1:
         value = value / 100  # a bare 30 in a percent column means 30%
     return value, None
 
@@ -221,9 +236,10 @@ def _row_checks(name: str, frame: pd.DataFrame) -> list[Problem]:
     problems: list[Problem] = []
     file, headers = frame.attrs["file"], frame.attrs["headers"]
     if "orders" in frame and "clicks" in frame:
-        for r in frame.loc[frame["orders"] > frame["clicks"]].itertuples():
-            problems.append(Problem(file, r._1, headers["orders"],
-                                    f"orders ({r.orders:g}) are more than clicks ({r.clicks:g}); "
+        over = frame.loc[frame["orders"] > frame["clicks"]]
+        for row, orders, clicks in zip(over["_row"], over["orders"], over["clicks"]):
+            problems.append(Problem(file, int(row), headers["orders"],
+                                    f"orders ({orders:g}) are more than clicks ({clicks:g}); "
                                     "expected at most one order per click"))
     if name == "catalog":
         dup = frame[frame["product_id"].duplicated(keep=False) & (frame["product_id"] != "")]
@@ -247,7 +263,7 @@ def _cross_checks(tables: dict[str, pd.DataFrame | None]) -> list[Problem]:
         frame = tables.get(name)
         if frame is None:
             continue
-        missing = frame.loc[~frame["product_id"].isin(known)]
+        missing = frame.loc[~frame["product_id"].isin(known) & (frame["product_id"] != "")]
         for pid, group in missing.groupby("product_id", sort=True):
             problems.append(Problem(frame.attrs["file"], int(group["_row"].iloc[0]), frame.attrs["headers"]["product_id"],
                                     f"product '{pid}' is not in the catalog; it is built with its margin blank "

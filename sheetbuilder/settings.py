@@ -13,6 +13,7 @@ from pathlib import Path
 from types import MappingProxyType
 from typing import Any
 
+from .contract import TABLE_BY_NAME
 from .errors import Problem
 
 SETTINGS_FILE = "settings.toml"
@@ -105,7 +106,9 @@ def _coerce(spec: SettingSpec, raw: Any, file: str) -> tuple[Any, Problem | None
             return bad("a whole number")
         value = int(raw) if spec.kind == "int" else float(raw)
         if (spec.low is not None and value < spec.low) or (spec.high is not None and value > spec.high):
-            return bad(f"a value from {spec.low} to {spec.high}")
+            if spec.kind == "percent":
+                return bad(f"a percentage from {spec.low:.0%} to {spec.high:.0%}, written as 8% or 0.08")
+            return bad(f"a value from {spec.low:g} to {spec.high:g}")
         return value, None
     if spec.kind == "date":
         if isinstance(raw, dt.datetime):
@@ -125,6 +128,37 @@ def _coerce(spec: SettingSpec, raw: Any, file: str) -> tuple[Any, Problem | None
     if not isinstance(raw, str):
         return bad("text")
     return raw, None
+
+
+def _known_tables(columns: dict, files: dict, problems: list[Problem]) -> tuple[dict, dict]:
+    """[columns] and [files] without the tables and columns the contract does not know (each reported)."""
+    tables = ", ".join(TABLE_BY_NAME)
+    kept_columns: dict = {}
+    for table, cols in columns.items():
+        rule = TABLE_BY_NAME.get(table)
+        if rule is None:
+            problems.append(Problem(SETTINGS_FILE, None, f"columns.{table}",
+                                    f"unknown table; expected one of {tables}"))
+            continue
+        names = [col.name for col in rule.columns]
+        kept_columns[table] = {}
+        for name, header in cols.items():
+            if name not in names:
+                problems.append(Problem(SETTINGS_FILE, None, f"columns.{table}.{name}",
+                                        f"unknown column of {table}; expected one of {', '.join(names)}"))
+            elif not isinstance(header, str):
+                problems.append(Problem(SETTINGS_FILE, None, f"columns.{table}.{name}",
+                                        f"expected the header as text, such as {name} = \"My header\", "
+                                        f"got {header!r}"))
+            else:
+                kept_columns[table][name] = header
+    kept_files: dict = {}
+    for table, name in files.items():
+        if table not in TABLE_BY_NAME:
+            problems.append(Problem(SETTINGS_FILE, None, f"files.{table}", f"unknown table; expected one of {tables}"))
+        else:
+            kept_files[table] = name
+    return kept_columns, kept_files
 
 
 def load_settings(folder: Path) -> tuple[Settings, list[Problem]]:
@@ -164,5 +198,6 @@ def load_settings(folder: Path) -> tuple[Settings, list[Problem]]:
     if not isinstance(files, dict) or not all(isinstance(v, str) for v in files.values()):
         problems.append(Problem(SETTINGS_FILE, None, "files", "expected [files] with catalog = \"my products.csv\""))
         files = {}
+    columns, files = _known_tables(columns, files, problems)
     mapping = {table: MappingProxyType({str(k): str(v) for k, v in cols.items()}) for table, cols in columns.items()}
     return Settings(**values, columns=MappingProxyType(mapping), files=MappingProxyType(dict(files))), problems

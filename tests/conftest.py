@@ -1,0 +1,80 @@
+"""Shared fixtures: the demo workbook, generated accounts, and one batched LibreOffice run.
+
+LibreOffice is started once per session for every workbook the tests recalculate
+(its start-up costs seconds). Under CI=true a missing LibreOffice fails the run.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import os
+import shutil
+import sys
+from pathlib import Path
+
+import openpyxl
+import pytest
+
+sys.path.insert(0, str(Path(__file__).parent))
+
+from accounts import draw_accounts, write_account  # noqa: E402
+from sheetbuilder.build import build  # noqa: E402
+from sheetbuilder.recalc import libreoffice_convert, soffice_path  # noqa: E402
+
+ROOT = Path(__file__).resolve().parent.parent
+DEMO = ROOT / "demo_inputs"
+BUILT_ON = dt.date(2026, 12, 2)
+GENERATED = 6
+
+
+def require_libreoffice():
+    """Skip without LibreOffice on a developer machine; fail under CI."""
+    if soffice_path() is None:
+        if os.environ.get("CI") == "true":
+            pytest.fail("LibreOffice (soffice) is required under CI=true; ./tasks.sh test installs it")
+        pytest.skip("LibreOffice is not installed")
+
+
+@pytest.fixture(scope="session")
+def work(tmp_path_factory) -> Path:
+    return tmp_path_factory.mktemp("work")
+
+
+@pytest.fixture(scope="session")
+def demo_build(work):
+    """The demo workbook as built, with its build result (the plan and reference frames)."""
+    return build(DEMO, work / "demo.xlsx", built_on=BUILT_ON)
+
+
+@pytest.fixture(scope="session")
+def generated(work):
+    """Accounts drawn from the hypothesis strategy, each built: [(account, BuildResult)]."""
+    out = []
+    for i, account in enumerate(draw_accounts(GENERATED)):
+        folder = write_account(account, work / f"gen{i}")
+        out.append((account, build(folder, work / f"gen{i}.xlsx", built_on=BUILT_ON)))
+    return out
+
+
+def edit_workbook(src: Path, dst: Path, changes: list[tuple[str, str, object]]) -> Path:
+    """Copy src to dst with cells changed as a user would: [(sheet, 'A1', value)]."""
+    wb = openpyxl.load_workbook(src)
+    for sheet, coord, value in changes:
+        wb[sheet][coord].value = value
+    wb.save(dst)
+    return dst
+
+
+@pytest.fixture(scope="session")
+def libreoffice(work, demo_build, generated, live_edits):
+    """{stem: path of the LibreOffice-recalculated copy} for every workbook the tests need."""
+    require_libreoffice()
+    files = [demo_build.output] + [r.output for _, r in generated] + list(live_edits.values())
+    outs = libreoffice_convert(files, work / "lo")
+    return {Path(f).stem: o for f, o in zip(files, outs)}
+
+
+@pytest.fixture(scope="session")
+def live_edits(work, demo_build):
+    """Edited copies of the demo workbook, made by the live-edit test module's plan."""
+    from test_live_edit import make_edits  # the edits are defined beside their assertions
+    return make_edits(demo_build, work)
