@@ -17,7 +17,7 @@ from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
 from rich.table import Table
 
 from . import __version__
-from .build import build
+from .pipeline import build
 from .errors import ERROR, InputProblems, Problem, SheetbuilderError
 
 EXIT_INPUT = 2

@@ -10,10 +10,10 @@ from .errors import FormulaNotPortable
 PORTABLE_FUNCTIONS = frozenset({
     "SUM", "SUMIFS", "COUNTIFS", "SUMPRODUCT", "INDEX", "MATCH", "IF", "IFERROR", "AND", "OR", "NOT",
     "MIN", "MAX", "ROUND", "ROUNDUP", "ROUNDDOWN", "ABS", "LN", "EXP", "CEILING", "FLOOR", "INT", "COUNT",
-    "COUNTA", "ISNUMBER", "ISBLANK", "LEN", "ROWS",
+    "COUNTA", "ISNUMBER", "ISBLANK", "LEN", "ROWS", "CHOOSE",
 })
 
-_FUNCTION = re.compile(r"([A-Z][A-Z0-9.]*)\(")
+_FUNCTION = re.compile(r"([A-Za-z_][A-Za-z0-9._]*)\(")
 _STRING = re.compile(r'"(?:[^"]|"")*"')
 _PLACEHOLDER = re.compile(r"\{(\w+):([\w.]+)\}")
 
@@ -48,11 +48,13 @@ def range_ref(sheet: str, col: int, first_row: int, last_row: int) -> str:
 
 def functions_in(formula: str) -> set[str]:
     """The function names a formula calls (text inside string literals ignored)."""
-    return set(_FUNCTION.findall(_STRING.sub('""', formula)))
+    return {name.upper() for name in _FUNCTION.findall(_STRING.sub('""', formula))}
 
 
 def check_portable(formula: str) -> None:
     """Raise FormulaNotPortable when formula calls a function outside the whitelist."""
+    if formula.lstrip("=").startswith("{"):
+        raise FormulaNotPortable(f"array formulas are not used: {formula}")
     bad = functions_in(formula) - PORTABLE_FUNCTIONS
     if bad:
         raise FormulaNotPortable(f"non-portable function(s) {sorted(bad)} in {formula}")

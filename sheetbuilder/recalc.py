@@ -60,6 +60,11 @@ def libreoffice_convert(paths: list[Path], outdir: Path, target: str = "xlsx", t
     if exe is None:
         raise RecalcUnavailable("LibreOffice (soffice) is not installed")
     outdir.mkdir(parents=True, exist_ok=True)
+    outs = [outdir / (Path(p).stem + "." + target) for p in paths]
+    for src, out in zip(paths, outs):
+        if out.exists() and out.resolve() == Path(src).resolve():
+            raise SheetbuilderError(f"converting {src} into {outdir} would overwrite it; choose another folder")
+        out.unlink(missing_ok=True)
     with tempfile.TemporaryDirectory(prefix="sb-lo-") as tmp:
         profile = make_profile(Path(tmp))
         filt = 'xlsx:Calc MS Excel 2007 XML' if target == "xlsx" else "pdf:calc_pdf_Export"
@@ -67,10 +72,10 @@ def libreoffice_convert(paths: list[Path], outdir: Path, target: str = "xlsx", t
                "--convert-to", filt, "--outdir", str(outdir), *[str(p) for p in paths]]
         env = {**os.environ, "HOME": tmp}
         done = subprocess.run(cmd, capture_output=True, text=True, timeout=timeout, env=env)
-    outs = [outdir / (Path(p).stem + "." + target) for p in paths]
     missing = [o for o in outs if not o.exists()]
-    if missing:
-        raise SheetbuilderError(f"LibreOffice did not write {missing[0]}: {done.stdout} {done.stderr}")
+    if done.returncode != 0 or missing:
+        raise SheetbuilderError(f"LibreOffice failed (exit {done.returncode}); missing {missing}: "
+                                f"{done.stdout} {done.stderr}")
     return outs
 
 

@@ -13,6 +13,7 @@ import math
 from pathlib import Path
 from typing import Any, Callable
 
+import pandas as pd
 import xlsxwriter
 from xlsxwriter.worksheet import CellFormulaTuple
 
@@ -68,10 +69,12 @@ def put_formula(ws, row: int, col: int, formula: str, fmt, value: Any) -> None:
 
 def _cached(value: Any) -> Any:
     """A cached result as the file stores it: NaN and None become blank text."""
-    if value is None or (isinstance(value, float) and math.isnan(value)):
+    if value is None or value is pd.NA or (isinstance(value, float) and math.isnan(value)):
         return ""
-    if isinstance(value, (dt.date, dt.datetime)):
-        return (dt.datetime.combine(value, dt.time()) - dt.datetime(1899, 12, 30)).days
+    if isinstance(value, dt.datetime):
+        return (value - dt.datetime(1899, 12, 30)).total_seconds() / 86400
+    if isinstance(value, dt.date):
+        return (value - dt.date(1899, 12, 30)).days
     if hasattr(value, "item"):  # numpy scalars
         return value.item()
     return value
@@ -79,7 +82,7 @@ def _cached(value: Any) -> Any:
 
 def put_value(ws, row: int, col: int, value: Any, fmt) -> None:
     """Write a plain value: text always as text, numbers, dates, or a formatted blank."""
-    if value is None or (isinstance(value, float) and math.isnan(value)):
+    if value is None or value is pd.NA or (isinstance(value, float) and math.isnan(value)):
         ws.write_blank(row, col, None, fmt)
     elif isinstance(value, str):
         ws.write_string(row, col, fit_text(value), fmt)

@@ -17,7 +17,7 @@ import pytest
 sys.path.insert(0, str(Path(__file__).parent))
 
 from accounts import draw_accounts, write_account  # noqa: E402
-from sheetbuilder.build import build  # noqa: E402
+from sheetbuilder.pipeline import build  # noqa: E402
 from sheetbuilder.recalc import libreoffice_convert, soffice_path  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent

@@ -5,7 +5,7 @@ from pathlib import Path
 
 from oracle import profit_oracle
 from workbook_io import open_values, read_table
-from sheetbuilder.build import load
+from sheetbuilder.pipeline import load
 
 PROFIT_HEADERS = ["Product ID", "Product name", "Units", "Revenue", "Ad spend", "Ad sales", "TACoS", "ACoS",
                   "Margin before ads", "Break-even ACoS", "Target ACoS", "Net margin after ads",

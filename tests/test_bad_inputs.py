@@ -8,12 +8,12 @@ from pathlib import Path
 import openpyxl
 import pytest
 
-from sheetbuilder.build import build, load
+from sheetbuilder.pipeline import build, load
 from sheetbuilder.cli import main
 from sheetbuilder.errors import ERROR, WARNING, InputProblems, OutputExists
 
 # The package's `build` attribute is the function, which shadows the module of the same name.
-build_module = importlib.import_module("sheetbuilder.build")
+build_module = importlib.import_module("sheetbuilder.pipeline")
 
 CATALOG = """product_id,product_name,price,unit_cost,fees_per_unit
 P1,Widget,20.00,8.00,2.00

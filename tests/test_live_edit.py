@@ -15,7 +15,7 @@ import pytest
 from conftest import DEMO, edit_workbook
 from profit_io import PROFIT_HEADERS, oracle_for, profit_table
 from workbook_io import mismatches
-from sheetbuilder.build import load, write_atomically
+from sheetbuilder.pipeline import load, write_atomically
 from sheetbuilder.spec import FORMULA
 
 COST_PRODUCT = "LF-1012"  # strong with a spend-to-sales ratio above 1 in the demo

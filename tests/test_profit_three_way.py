@@ -16,7 +16,7 @@ from accounts import accounts, write_account
 from conftest import BUILT_ON, DEMO
 from profit_io import HEADER_ROW, PROFIT_HEADERS, oracle_for, profit_table
 from workbook_io import engine_disagreements, mismatches, open_values
-from sheetbuilder.build import build
+from sheetbuilder.pipeline import build
 from sheetbuilder.recalc import formulas_values
 
 TOTAL_HEADERS = ["Units", "Revenue", "Ad spend", "Ad sales", "TACoS", "ACoS", "Margin before ads",

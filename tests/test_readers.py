@@ -8,7 +8,7 @@ import openpyxl
 import pandas as pd
 import pytest
 
-from sheetbuilder.build import build, load
+from sheetbuilder.pipeline import build, load
 from sheetbuilder.errors import InputProblems
 
 CATALOG = """product_id,product_name,price,unit_cost,fees_per_unit,target_acos

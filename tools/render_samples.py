@@ -16,7 +16,7 @@ import sys
 import tempfile
 from pathlib import Path
 
-from sheetbuilder.build import load, plan_workbook, write_atomically
+from sheetbuilder.pipeline import load, plan_workbook, write_atomically
 from sheetbuilder.errors import WARNING
 from sheetbuilder.recalc import libreoffice_convert
 
