@@ -60,14 +60,18 @@ def make_account(folder: Path, n: int, seed: int = 20261202) -> None:
     ad_group = pd.Series(rng.integers(0, 8, n)).map(lambda g: f"Group {g}").to_numpy()
     pd.DataFrame({"campaign": campaign, "ad_group": ad_group, "product_id": ids[rng.integers(0, n_products, n)],
                   "ad_type": "product ads", **metrics(n)}).to_csv(folder / "ad_products.csv", index=False)
-    m = max(10, n // 20)
+    m = n  # as many keyword and product targets as ad rows: 100k targets at the largest size
     words = np.array(["cedar bed", "raised planter", "hose reel", "garden gloves", "pruning shears", "seed tray"])
-    camp_m = campaign[rng.integers(0, n, m)]
-    pd.DataFrame({"campaign": camp_m, "ad_group": "Group 1", "target": words[rng.integers(0, len(words), m)],
-                  "match_type": np.array(["exact", "phrase", "broad"])[rng.integers(0, 3, m)],
-                  "state": "enabled", "bid": np.round(rng.uniform(0.2, 2, m), 2), **metrics(m)}).to_csv(
+    pick = rng.integers(0, n, m)  # each target sits in an ad group that advertises products
+    camp_m = campaign[pick]
+    pd.DataFrame({"campaign": camp_m, "ad_group": ad_group[pick],
+                  "target": [f"{words[i % len(words)]} {i}" for i in range(m)],
+                  "match_type": np.array(["exact", "phrase", "broad", "product"])[rng.integers(0, 4, m)],
+                  "state": np.where(rng.random(m) < 0.9, "enabled", "paused"),
+                  "bid": np.round(rng.uniform(0.2, 2, m), 2), **metrics(m)}).to_csv(
         folder / "targets.csv", index=False)
-    pd.DataFrame({"campaign": camp_m, "ad_group": "Group 1", "target": words[rng.integers(0, len(words), m)],
+    m = max(10, n // 20)
+    pd.DataFrame({"campaign": campaign[rng.integers(0, n, m)], "ad_group": "Group 1", "target": words[rng.integers(0, len(words), m)],
                   "match_type": "broad", "search_term": [f"term {i}" for i in range(m)], **metrics(m)}).to_csv(
         folder / "search_terms.csv", index=False)
     (folder / "settings.toml").write_text('currency_symbol = "$"\nperiod_days = 30\nperiod_end = 2026-11-29\n')

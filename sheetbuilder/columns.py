@@ -7,13 +7,14 @@ they cannot drift apart unnoticed, and adding a column is one entry.
 """
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 from typing import Any, Callable
 
 import numpy as np
 import pandas as pd
 
-from .formula import cell_ref, col_letter, resolve
+from .formula import cell_ref, col_letter, quote_sheet, resolve
 from .spec import DATA, FORMULA, Cell, Column
 
 Reference = Callable[[pd.DataFrame, Any], Any]
@@ -68,6 +69,30 @@ def as_cell_values(series: pd.Series) -> list:
     return series.tolist()
 
 
+_READS = re.compile(r"\{(?:c|tot):(\w+)\}")
+
+
+def compute_order(defs: list[ColumnDef]) -> list[ColumnDef]:
+    """The defs in an order where each comes after the columns its body formula reads (stable).
+
+    Totals-row templates are not followed: a total is computed right after its column.
+    """
+    keys = {d.key for d in defs}
+    needs = {d.key: {k for k in _READS.findall(d.formula or "") if k in keys and k != d.key}
+             for d in defs}
+    done: set[str] = set()
+    order: list[ColumnDef] = []
+    while len(order) < len(defs):
+        ready = [d for d in defs if d.key not in done and needs[d.key] <= done]
+        if not ready:
+            stuck = sorted(k for k in keys if k not in done)
+            raise ValueError(f"columns depend on each other in a circle: {stuck}")
+        for d in ready:
+            order.append(d)
+            done.add(d.key)
+    return order
+
+
 @dataclass
 class PlannedTable:
     """The result of planning a table: spec columns, totals cells and the reference frame."""
@@ -77,6 +102,18 @@ class PlannedTable:
     frame: pd.DataFrame
     totals_values: dict[str, Any]
     letters: dict[str, str]
+    first_body_row: int = 0
+
+    def ranges(self, sheet: str, prefix: str) -> dict[str, str]:
+        """{'prefix.key': absolute body range} and {'prefix_total.key': totals cell} for other sheets' formulas."""
+        n = len(self.frame)
+        last = self.first_body_row + max(n, 1)
+        sheet_ref = quote_sheet(sheet)
+        out = {f"{prefix}.{k}": f"{sheet_ref}!${v}${self.first_body_row + 1}:${v}${last}"
+               for k, v in self.letters.items()}
+        out.update({f"{prefix}_total.{k}": f"{sheet_ref}!${v}${self.first_body_row + n + 1}"
+                    for k, v in self.letters.items()})
+        return out
 
 
 def plan_table(defs: list[ColumnDef], base: pd.DataFrame, ctx: Any, first_body_row: int,
@@ -97,7 +134,7 @@ def plan_table(defs: list[ColumnDef], base: pd.DataFrame, ctx: Any, first_body_r
     ctx.totals = totals_values
     # Totals that shares depend on are computed from data columns before formula columns.
     columns: list[Column] = []
-    for d in defs:
+    for d in compute_order(defs):
         values = d.reference(frame, ctx)
         frame[d.key] = values if not np.isscalar(values) else [values] * n
         if d.total_reference is not None:
@@ -116,7 +153,7 @@ def plan_table(defs: list[ColumnDef], base: pd.DataFrame, ctx: Any, first_body_r
                 totals.append(Cell(totals_values.get(d.key), resolve(d.total, lookup), d.style.split("_")[0] + "_total"))
             else:
                 totals.append(Cell(d.total, None, "text_total"))
-    return PlannedTable(columns, totals, frame, totals_values, letters)
+    return PlannedTable(columns, totals, frame, totals_values, letters, first_body_row)
 
 
 __all__ = ["ColumnDef", "PlannedTable", "plan_table", "blank_div", "DATA", "FORMULA", "cell_ref"]

@@ -81,9 +81,16 @@ def parse_number(text: str, decimal_comma: bool = False) -> tuple[float, bool]:
 
 
 def round_half_away(value: float, digits: int = 2) -> float:
-    """Round as Excel and LibreOffice do: half away from zero on the decimal value."""
+    """Round as Excel and LibreOffice do: half away from zero on the value's 15-digit decimal form."""
     if value is None or (isinstance(value, float) and math.isnan(value)):
         return value
     quantum = Decimal(1).scaleb(-digits)
-    d = Decimal(repr(float(value))).quantize(quantum, rounding=ROUND_HALF_UP)
+    d = Decimal(format(float(value), ".15g")).quantize(quantum, rounding=ROUND_HALF_UP)
     return float(d)
+
+
+# Added before rounding a bid to the cent, in the formula and in its reference alike, so that
+# a half cent whose binary value sits just below the half (0.15 x 0.7) rounds up in every
+# spreadsheet program: the `formulas` library rounds the binary value, Excel and LibreOffice
+# the decimal one.
+ROUNDING_NUDGE = 1e-9

@@ -11,6 +11,8 @@ import pandas as pd
 
 from .columns import PlannedTable
 from .errors import ERROR, WARNING, InputProblems, OutputExists, Problem, SheetbuilderError, UnsafeOutput
+from .plan_bids import DEFS as BIDS_DEFS, plan_bids
+from .plan_groups import DEFS as GROUPS_DEFS, plan_groups
 from .plan_guide import plan_guide
 from .plan_inputs import plan_input_sheets
 from .plan_profit import DEFS as PROFIT_DEFS, plan_profit
@@ -55,11 +57,22 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
     input_sheets, layouts = plan_input_sheets(inputs)
     settings_sheet, names = plan_settings(settings, built_on)
     profit_sheet, profit = plan_profit(inputs, layouts, settings, built_on)
+    tables = {"Profit": profit}
+    sheets = [settings_sheet, profit_sheet]
+    sections = [("Profit columns", PROFIT_DEFS)]
+    if "targets" in layouts:
+        ranges = {f"{t}.{col}": r for t, layout in layouts.items() for col, r in layout.ranges.items()}
+        ranges.update(profit.ranges(profit_sheet.name, "profit"))
+        groups_sheet, groups = plan_groups(layouts.get("ad_products"), profit, ranges)
+        ranges.update(groups.ranges(groups_sheet.name, "groups"))
+        bids_sheet, bids = plan_bids(layouts["targets"], inputs.get("campaigns"), groups, profit, settings, ranges)
+        sheets += [bids_sheet, groups_sheet]
+        tables.update({"Bids": bids, "Groups": groups})
+        sections += [("Bids columns", BIDS_DEFS), ("Groups columns", GROUPS_DEFS)]
     sources = {k: v.name for k, v in inputs.sources.items()}
-    guide = plan_guide(settings, built_on, [("Profit columns", PROFIT_DEFS)], warnings or [],
-                       inputs.checksums, sources)
-    spec = WorkbookSpec([guide, settings_sheet, profit_sheet, *input_sheets], names, settings.currency_symbol)
-    return Plan(spec, {"Profit": profit})
+    guide = plan_guide(settings, built_on, sections, warnings or [], inputs.checksums, sources)
+    spec = WorkbookSpec([guide, *sheets, *input_sheets], names, settings.currency_symbol)
+    return Plan(spec, tables)
 
 
 def load(folder: Path) -> tuple[Inputs, Settings, list[Problem]]:
@@ -71,6 +84,10 @@ def load(folder: Path) -> tuple[Inputs, Settings, list[Problem]]:
         problems.append(Problem("settings.toml", None, "thin_margin",
                                 f"the thin threshold ({settings.thin_margin:g}) is above the strong threshold "
                                 f"({settings.strong_margin:g}); expected thin <= strong"))
+    if settings.bid_floor > settings.bid_ceiling:
+        problems.append(Problem("settings.toml", None, "bid_floor",
+                                f"the bid floor ({settings.bid_floor:g}) is above the bid ceiling "
+                                f"({settings.bid_ceiling:g}); expected floor <= ceiling"))
     if any(p.severity == ERROR for p in problems):
         raise InputProblems(problems)
     return inputs, settings, problems

@@ -19,6 +19,9 @@ SHEETS_TEXT = [
     ("Settings", "Thresholds and targets. Change a cream cell and every sheet updates."),
     ("Profit", "Profit after advertising for every product: margin, TACoS, ACoS, net profit, status and "
                "a direction for its ad spend."),
+    ("Bids", "A proposed bid for every enabled keyword and product target in an enabled campaign, grouped by "
+             "product, with the rule that decided it. Type a bid or 'keep' in Decision; Final bid applies it."),
+    ("Groups", "Which products each ad group advertises, and the spend weights used where it advertises several."),
     ("in_ sheets", "The rows of your exports as read, sorted by product. Catalog prices, costs, fees, "
                    "margins and target ACoS are inputs you may correct there."),
 ]
@@ -27,7 +30,28 @@ STEPS = [
     "1. Read the warning line above: if it shows, the last days' ad sales are still being credited.",
     "2. On Profit, sort or filter by Status and Direction; loss and thin products come first to review.",
     "3. Correct any unit cost, fee or price on in_catalog, or a threshold on Settings: everything recalculates.",
-    "4. Decide per product what to do with its ads; the proposals are starting points, not orders.",
+    "4. On Bids, review the proposed bids; type a bid or 'keep' in Decision where you disagree.",
+    "5. Raise or lower a product's target ACoS in 'Your target ACoS' on Profit: its bids follow.",
+    "6. The proposals are starting points, not orders: check them before changing your ad account.",
+]
+
+BID_METHOD = [
+    "Value per click: a click is worth its conversion rate x the average order value; the bid that meets the "
+    "target ACoS is target ACoS x that value. Because a target's cost per click usually sits below its bid, the "
+    "workbook applies it as a ratio: value bid = current bid x target ACoS / smoothed ACoS, where smoothed ACoS "
+    "= CPC / (smoothed CVR x order value).",
+    "Small samples: a target's conversion rate is shrunk toward its product's, as if it had k more clicks at the "
+    "product's rate (k = Smoothing weight on Settings): smoothed CVR = (orders + k x product CVR) / (clicks + k).",
+    "Order value: the target's ad sales / orders when it has orders, else its product's.",
+    "Steps, not jumps: the proposal moves from the current bid toward the value bid and never past it, by at "
+    "most the maximum cut or raise, rounded to the cent; a raise stops at the bid ceiling and a cut at the floor.",
+    "Data guards: no clicks, or fewer than the minimum clicks with no orders, hold the bid. No orders after "
+    "n = ceil(ln(1 - confidence) / ln(1 - product CVR)) clicks (the clicks after which zero orders would be "
+    "unlikely) cuts by the maximum cut. A target with no orders is never raised.",
+    "Shared ad groups: where an ad group advertises several products, their target ACoS, conversion rate and "
+    "order value are blended, weighted by each product's ad spend in the group (see Groups).",
+    "Working columns: unhide the columns right of Final bid on Bids to see each step (product CVR, smoothed "
+    "CVR and ACoS, the zero-order clicks, the rule number 1-10 and the unrounded bid).",
 ]
 
 SOURCES = [
@@ -36,6 +60,12 @@ SOURCES = [
     "change them on Settings.",
     "Spend share against sales share: a product's part of the ad spend compared with its part of the sales; "
     "above 1 it is given more than it brings.",
+    "Value-per-click bidding: H. R. Varian, 'Position auctions', International Journal of Industrial "
+    "Organization 25 (2007).",
+    "Smoothing: a Beta prior worth k clicks, the empirical-Bayes shrinkage used for rare-event click and "
+    "conversion rates; its posterior mean is (orders + k p) / (clicks + k).",
+    "Zero-order threshold: the binomial chance of no orders in n clicks, (1 - p)^n; at 95% it is close to the "
+    "rule of three, n = 3 / p (J. A. Hanley and A. Lippman-Hand, JAMA 249, 1983).",
     "Cell and sheet limits: Microsoft, 'Excel specifications and limits' (32,767 characters per cell, "
     "1,048,576 rows per sheet).",
 ]
@@ -52,7 +82,7 @@ def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tupl
                warnings: list[Problem], checksums: dict[str, str], sources: dict[str, str]) -> Sheet:
     """The Guide sheet."""
     rows: list[list[Cell | None]] = [
-        [Cell("sheetbuilder: profit after ads, and where ad spend goes", style="title")],
+        [Cell("sheetbuilder: profit after ads, bids, and where ad spend goes", style="title")],
         [Cell("This workbook turns your store-sales and sponsored-ad exports and your unit costs into live "
               "figures: which products lose money once ads are paid, and where spend is out of proportion "
               "to the sales it brings. Every figure is a formula; change an input and it updates.", style="wrap")],
@@ -76,6 +106,8 @@ def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tupl
     for state in STATES.values():
         rows.append([Cell(state.name, style="state_" + state.name), Cell(state.meaning)])
     rows.append([Cell(0, style="money_input", kind=INPUT), Cell("Cream with blue text: an input cell you may change.")])
+    rows += [[None], [Cell("How the bid plan works", style="subtitle")]]
+    rows += [[None, Cell(line, style="wrap")] for line in BID_METHOD]
     rows += [[None], [Cell("Method and sources", style="subtitle")]]
     rows += [[None, Cell(s, style="wrap")] for s in SOURCES]
     if warnings:

@@ -8,14 +8,14 @@ from .spec import DATA, INPUT, Cell, Sheet, Validation
 
 SHEET = "Settings"
 FIRST_ROW = 4  # 0-based row of the first setting
-_STYLE = {"percent": "percent", "number": "ratio", "int": "int", "date": "date", "text": "text", "bool": "text"}
+_STYLE = {"percent": "percent", "number": "ratio", "money": "money", "int": "int", "date": "date", "text": "text", "bool": "text"}
 
 
 def _validation(spec) -> dict | None:
     """Data validation options for a live setting's cell."""
     message = {"error_title": "Not a valid value", "input_title": spec.label[:32],
                "input_message": spec.help[:255]}
-    if spec.kind in ("percent", "number"):
+    if spec.kind in ("percent", "number", "money"):
         return {"validate": "decimal", "criteria": "between", "minimum": spec.low, "maximum": spec.high,
                 "error_message": f"Enter a number from {spec.low} to {spec.high} (percentages as 8% or 0.08).",
                 **message}

@@ -156,9 +156,10 @@ def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress:
             ws.autofilter(table.first_row, 0, table.first_row + max(n, 1), len(table.columns) - 1)
         for h in table.highlights:
             if n:
+                rule = ({"type": "text", "criteria": "begins with", "value": h.text} if h.begins else
+                        {"type": "cell", "criteria": "==", "value": '"' + h.text + '"'})
                 ws.conditional_format(row, h.column, row + n - 1, h.column,
-                                      {"type": "cell", "criteria": "==", "value": '"' + h.text + '"',
-                                       "format": state_formats[h.state]})
+                                      {**rule, "format": state_formats[h.state]})
         row += n
         if table.totals:
             for col, cell in enumerate(table.totals):
@@ -167,7 +168,7 @@ def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress:
         ws.repeat_rows(table.first_row)
     _write_rows(ws, row, sheet.below, formats)
     for v in sheet.validations:
-        ws.data_validation(v.row, v.col, v.row, v.col, dict(v.options))
+        ws.data_validation(v.row, v.col, v.row if v.last_row is None else v.last_row, v.col, dict(v.options))
     if sheet.freeze:
         ws.freeze_panes(*sheet.freeze)
     if sheet.landscape:

@@ -23,7 +23,7 @@ SETTINGS_FILE = "settings.toml"
 class SettingSpec:
     """One setting: its key (also the workbook's defined name), default, kind and help.
 
-    kind is one of 'percent', 'number', 'int', 'date', 'text', 'bool'.
+    kind is one of 'percent', 'number', 'money', 'int', 'date', 'text', 'bool'.
     live settings are cells the formulas read; the others are used while reading
     the exports and are shown on the Settings sheet for the record.
     """
@@ -53,6 +53,22 @@ SETTINGS: tuple[SettingSpec, ...] = (
                 "Last day the exports cover; blank if unknown.", None, None),
     SettingSpec("attribution_days", "Attribution window (days)", 7, "int",
                 "Days after a click in which the ad platform still credits a sale to it.", 0, 90),
+    SettingSpec("prior_clicks", "Smoothing weight (clicks)", 20, "int",
+                "A target's conversion rate is shrunk toward its product's, as if it had this many more clicks "
+                "at the product's rate (Beta prior).", 0, 10000),
+    SettingSpec("min_clicks", "Minimum clicks", 10, "int",
+                "A target with fewer clicks than this and no orders is held: not enough data.", 0, 100000),
+    SettingSpec("zero_order_confidence", "Zero-order confidence", 0.90, "percent",
+                "How sure zero orders must be unlikely at the product's conversion rate before a bid is cut "
+                "for having no orders.", 0.5, 0.999),
+    SettingSpec("max_bid_cut", "Maximum bid cut", 0.30, "percent",
+                "The most a bid is lowered in one run.", 0.0, 0.95),
+    SettingSpec("max_bid_raise", "Maximum bid raise", 0.20, "percent",
+                "The most a bid is raised in one run.", 0.0, 5.0),
+    SettingSpec("bid_floor", "Bid floor", 0.10, "money",
+                "No proposed bid goes below this.", 0.0, 1000.0),
+    SettingSpec("bid_ceiling", "Bid ceiling", 5.00, "money",
+                "No proposed bid goes above this.", 0.01, 10000.0),
     SettingSpec("currency_symbol", "Currency symbol", "$", "text",
                 "Shown in money formats (used when building).", live=False),
     SettingSpec("decimal_comma", "Decimal comma", False, "bool",
@@ -73,6 +89,13 @@ class Settings:
     period_days: int = 30
     period_end: dt.date | None = None
     attribution_days: int = 7
+    prior_clicks: int = 20
+    min_clicks: int = 10
+    zero_order_confidence: float = 0.90
+    max_bid_cut: float = 0.30
+    max_bid_raise: float = 0.20
+    bid_floor: float = 0.10
+    bid_ceiling: float = 5.00
     currency_symbol: str = "$"
     decimal_comma: bool = False
     columns: MappingProxyType = field(default_factory=lambda: MappingProxyType({}))
@@ -94,7 +117,7 @@ def _coerce(spec: SettingSpec, raw: Any, file: str) -> tuple[Any, Problem | None
     def bad(expected: str) -> tuple[Any, Problem]:
         return spec.default, Problem(file, None, spec.key, f"expected {expected}, got {raw!r}")
 
-    if spec.kind in ("percent", "number", "int"):
+    if spec.kind in ("percent", "number", "money", "int"):
         if isinstance(raw, str) and spec.kind == "percent" and raw.strip().endswith("%"):
             try:
                 raw = float(raw.strip()[:-1]) / 100

@@ -53,15 +53,17 @@ class Highlight:
     column: int
     text: str
     state: str
+    begins: bool = False
 
 
 @dataclass(frozen=True)
 class Validation:
-    """Data validation on one cell (xlsxwriter's options dict, kept as plain data)."""
+    """Data validation on one cell, or a column of cells down to last_row (xlsxwriter's options dict)."""
 
     row: int
     col: int
     options: dict
+    last_row: int | None = None
 
 
 @dataclass

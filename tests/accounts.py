@@ -10,7 +10,7 @@ cents = st.integers(0, 60000).map(lambda c: c / 100)
 
 
 @st.composite
-def accounts(draw, max_products: int = 8, max_ad_rows: int = 18):
+def accounts(draw, max_products: int = 8, max_ad_rows: int = 18, max_targets: int = 12):
     """A dict of table name -> list of row dicts, plus 'settings' (a TOML text)."""
     n = draw(st.integers(1, max_products))
     ids = [f"P{i:03d}" for i in range(1, n + 1)]
@@ -37,14 +37,41 @@ def accounts(draw, max_products: int = 8, max_ad_rows: int = 18):
                     "spend": 0.0 if clicks == 0 else draw(cents),
                     "ad_sales": 0.0 if clicks == 0 else draw(st.integers(0, 300000).map(lambda c: c / 100)),
                     "orders": 0 if clicks == 0 else draw(st.integers(0, clicks))})
+    groups = sorted({(a["campaign"], a["ad_group"]) for a in ads}) or [("C1", "G1")]
+    targets = []
+    for i in range(draw(st.integers(0, max_targets))):
+        campaign, group = draw(st.sampled_from(groups)) if draw(st.integers(0, 9)) else ("C9", "G9")
+        clicks = draw(st.integers(0, 120))
+        orders = 0 if clicks == 0 or draw(st.booleans()) else draw(st.integers(0, clicks))
+        targets.append({"campaign": campaign, "ad_group": group, "target": f"kw {i}",
+                        "match_type": draw(st.sampled_from(["exact", "phrase", "broad", "product", "auto"])),
+                        "state": draw(st.sampled_from(["enabled"] * 6 + ["paused", "archived"])),
+                        "bid": draw(st.integers(5, 600)) / 100, "impressions": clicks * draw(st.integers(1, 40)),
+                        "clicks": clicks, "spend": 0.0 if clicks == 0 else draw(st.integers(0, 40000)) / 100,
+                        "ad_sales": 0.0 if orders == 0 else draw(st.integers(0, 200000)) / 100, "orders": orders})
+    campaigns = [{"campaign": f"C{i}", "ad_type": "product ads",
+                  "state": draw(st.sampled_from(["enabled", "enabled", "paused"])),
+                  "daily_budget": draw(st.integers(100, 10000)) / 100, "targeting": "manual"} for i in range(1, 5)]
+    bid_settings = {
+        "prior_clicks": draw(st.integers(0, 40)), "min_clicks": draw(st.integers(0, 20)),
+        "zero_order_confidence": draw(st.integers(80, 99)) / 100, "max_bid_cut": draw(st.integers(5, 60)) / 100,
+        "max_bid_raise": draw(st.integers(5, 60)) / 100, "bid_floor": draw(st.integers(5, 40)) / 100,
+        "bid_ceiling": draw(st.integers(150, 600)) / 100,
+    }
     thin = draw(st.integers(0, 15)) / 100
     strong = thin + draw(st.integers(0, 30)) / 100
     default_target = draw(st.integers(5, 60)) / 100
     settings = f"thin_margin = {thin}\nstrong_margin = {strong}\ndefault_target_acos = {default_target}\n"
+    settings += "".join(f"{k} = {v}\n" for k, v in bid_settings.items())
     if not catalog:
         catalog.append({"product_id": ids[0], "product_name": "Only", "price": 10.0, "unit_cost": 2.0,
                         "fees_per_unit": 1.0, "target_acos": "", "margin": ""})
-    return {"catalog": catalog, "store_sales": sales, "ad_products": ads, "settings": settings}
+    account = {"catalog": catalog, "store_sales": sales, "ad_products": ads, "settings": settings}
+    if targets:
+        account["targets"] = targets
+        if draw(st.booleans()):
+            account["campaigns"] = campaigns
+    return account
 
 
 COLUMNS = {
@@ -52,6 +79,9 @@ COLUMNS = {
     "store_sales": ["product_id", "units", "revenue"],
     "ad_products": ["campaign", "ad_group", "product_id", "ad_type", "impressions", "clicks", "spend",
                     "ad_sales", "orders"],
+    "targets": ["campaign", "ad_group", "target", "match_type", "state", "bid", "impressions", "clicks", "spend",
+                "ad_sales", "orders"],
+    "campaigns": ["campaign", "ad_type", "state", "daily_budget", "targeting"],
 }
 
 
@@ -59,6 +89,8 @@ def write_account(account: dict, folder: Path) -> Path:
     """Write an account from the strategy as CSV files plus settings.toml into folder."""
     folder.mkdir(parents=True, exist_ok=True)
     for table, columns in COLUMNS.items():
+        if table not in account:
+            continue
         with open(folder / f"{table}.csv", "w", newline="", encoding="utf-8") as fh:
             w = csv.DictWriter(fh, fieldnames=columns)
             w.writeheader()

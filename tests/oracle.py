@@ -19,11 +19,12 @@ def _div(a, b):
     return a / b
 
 
-def profit_oracle(tables, settings, catalog_edits=None):
+def profit_oracle(tables, settings, catalog_edits=None, target_overrides=None):
     """{product_id: {header: value}} and the totals row {header: value}.
 
     catalog_edits: {(product_id, column): value} applied to the catalog first, as a user
-    typing into in_catalog would.
+    typing into in_catalog would. target_overrides: {product_id: target ACoS} typed into
+    Profit's 'Your target ACoS' column.
     """
     catalog = {}
     if tables.get("catalog") is not None:
@@ -57,6 +58,8 @@ def profit_oracle(tables, settings, catalog_edits=None):
             t = cat.get("target_acos")
             if t is not None and not (isinstance(t, float) and math.isnan(t)):
                 target = t
+        if pid in (target_overrides or {}):
+            target = target_overrides[pid]
         rev, sp = revenue[pid], spend[pid]
         tacos = _div(sp, rev)
         net_margin = BLANK if margin is BLANK or tacos is BLANK else margin - tacos
@@ -108,3 +111,131 @@ def profit_oracle(tables, settings, catalog_edits=None):
     }
     totals["Net margin after ads"] = _div(totals["Net profit after ads"], rev_m)
     return out, totals
+
+
+def _half_away(x, digits=2):
+    """Round half away from zero on the 15-significant-digit decimal value, as Excel and
+    LibreOffice do (from memory of their documented behaviour: ROUND(2.675, 2) = 2.68)."""
+    from decimal import ROUND_HALF_UP, Decimal
+    return float(Decimal(f"{x:.15g}").quantize(Decimal(1).scaleb(-digits), rounding=ROUND_HALF_UP))
+
+
+def bids_oracle(tables, settings, profit_rows, decisions=None):
+    """{target row on in_targets (1-based): {header: value}} for every live target.
+
+    Written from the method in the README: value per click (Varian 2007) applied as a
+    ratio to the current bid, CVR shrunk by a Beta prior worth k clicks, the zero-order
+    click threshold n = ceil(ln(1 - confidence) / ln(1 - CVR)), steps capped per run.
+    profit_rows: the Profit oracle's rows (for each product's target ACoS).
+    decisions: {target row: typed Decision}.
+    """
+    s = settings
+    ads = tables["ad_products"].to_dict("records")
+    clicks_p, orders_p, sales_p = defaultdict(float), defaultdict(float), defaultdict(float)
+    group_spend = defaultdict(lambda: defaultdict(float))
+    for r in ads:
+        clicks_p[r["product_id"]] += r["clicks"]
+        orders_p[r["product_id"]] += r["orders"]
+        sales_p[r["product_id"]] += r["ad_sales"]
+        group_spend[(r["campaign"], r["ad_group"])][r["product_id"]] += r["spend"]
+    all_clicks, all_orders = sum(clicks_p.values()), sum(orders_p.values())
+    account_cvr = all_orders / all_clicks if all_clicks else 0.0
+    account_aov = sum(sales_p.values()) / all_orders if all_orders else 0.0
+
+    def product_cvr(p):
+        return orders_p[p] / clicks_p[p] if clicks_p[p] and orders_p[p] else account_cvr
+
+    def product_aov(p):
+        return sales_p[p] / orders_p[p] if orders_p[p] else account_aov
+
+    campaign_state = {}
+    if tables.get("campaigns") is not None:
+        for r in tables["campaigns"].to_dict("records"):
+            campaign_state.setdefault(r["campaign"], r["state"])
+    out = {}
+    for i, t in enumerate(tables["targets"].to_dict("records"), start=1):
+        if t["state"] != "enabled" or campaign_state.get(t["campaign"], "enabled") != "enabled":
+            continue
+        weights = group_spend.get((t["campaign"], t["ad_group"]), {})
+        products = sorted(weights)
+        if not products:
+            target, cvr_p, aov_p = s.default_target_acos, account_cvr, account_aov
+        else:
+            total = sum(weights.values())
+            w = {p: (weights[p] / total if total else 1 / len(products)) for p in products}
+            if total:
+                target = sum(weights[p] * profit_rows[p]["Target ACoS"] for p in products) / total
+                cvr_p = sum(weights[p] * product_cvr(p) for p in products) / total
+                aov_p = sum(weights[p] * product_aov(p) for p in products) / total
+            else:
+                target = sum(profit_rows[p]["Target ACoS"] for p in products) / len(products)
+                cvr_p = sum(product_cvr(p) for p in products) / len(products)
+                aov_p = sum(product_aov(p) for p in products) / len(products)
+            del w
+        clicks, orders, spend, sales, bid = t["clicks"], t["orders"], t["spend"], t["ad_sales"], t["bid"]
+        cpc = spend / clicks if clicks else BLANK
+        order_value = sales / orders if orders > 0 else aov_p
+        k = s.prior_clicks
+        s_cvr = (orders + k * cvr_p) / (clicks + k) if clicks + k else BLANK
+        if cpc is BLANK or s_cvr is BLANK or s_cvr * order_value == 0:
+            s_acos = BLANK
+        else:
+            s_acos = cpc / (s_cvr * order_value)
+        value = BLANK if s_acos is BLANK or s_acos == 0 else bid * target / s_acos
+        n = math.ceil(math.log(1 - s.zero_order_confidence) / math.log(1 - cvr_p)) if 0 < cvr_p < 1 else BLANK
+        cut_to, raise_to = bid * (1 - s.max_bid_cut), bid * (1 + s.max_bid_raise)
+        moved = None  # the unrounded new bid where a rule moves it
+        if clicks == 0:
+            reason = "no clicks"
+        elif orders == 0 and clicks < s.min_clicks:
+            reason = "not enough data"
+        elif orders == 0 and n is not BLANK and clicks >= n:
+            reason, moved = f"no orders after {n} clicks", cut_to
+        elif value is BLANK:
+            reason = "no order value yet"
+        elif value < bid:
+            if value < cut_to:
+                reason, moved = "lower, capped at maximum cut", cut_to
+            else:
+                reason, moved = "lower to value bid", value
+        elif orders == 0:
+            reason = "no orders yet: not raised"
+        elif value > bid:
+            if value > raise_to:
+                reason, moved = "raise, capped at maximum raise", raise_to
+            else:
+                reason, moved = "raise to value bid", value
+        else:
+            reason = "at value bid"
+        if moved is None:
+            proposed = bid
+        else:
+            rounded = _half_away(moved)
+            if reason.startswith("raise"):  # a raise stops at the ceiling (or at the bid, if already above it)
+                proposed = max(s.bid_floor, min(rounded, max(s.bid_ceiling, bid)))
+            else:  # a cut stops at the floor (or at the bid, if already below it)
+                proposed = min(s.bid_ceiling, max(rounded, min(s.bid_floor, bid)))
+            if proposed != rounded:
+                reason = "held at bid ceiling" if rounded > proposed else "held at bid floor"
+        decision = (decisions or {}).get(i)
+        if decision is None or decision == "":
+            final = proposed
+        elif isinstance(decision, (int, float)):
+            final = float(decision)
+        elif str(decision).lower() == "keep":
+            final = bid
+        else:
+            final = proposed
+        out[i] = {
+            "Campaign": t["campaign"], "Ad group": t["ad_group"], "Target": t["target"],
+            "Match type": t["match_type"],
+            "Product ID": "" if not products else (products[0] if len(products) == 1
+                                                   else "shared: " + ", ".join(products)),
+            "Impressions": t["impressions"], "Clicks": clicks, "Spend": spend, "Ad sales": sales, "Orders": orders,
+            "CPC": cpc, "CVR": orders / clicks if clicks else BLANK, "ACoS": spend / sales if sales else BLANK,
+            "Target ACoS": target, "Current bid": bid, "Value bid": value, "Proposed bid": proposed,
+            "Change": proposed / bid - 1 if bid else BLANK, "Reason": reason, "Final bid": final,
+            "Smoothed CVR": s_cvr, "Smoothed ACoS": s_acos, "Zero-order clicks": n, "Product CVR": cvr_p,
+            "Target row": i,
+        }
+    return out

@@ -13,13 +13,16 @@ import openpyxl
 import pytest
 
 from conftest import DEMO, edit_workbook
-from profit_io import PROFIT_HEADERS, oracle_for, profit_table
+from bids_io import CHECKED as BIDS_CHECKED, HEADER_ROW as BIDS_HEADER_ROW, bids_oracle_for, bids_table
+from profit_io import HEADER_ROW as PROFIT_HEADER_ROW, PROFIT_HEADERS, oracle_for, profit_table
 from workbook_io import mismatches
 from sheetbuilder.pipeline import load, write_atomically
 from sheetbuilder.spec import FORMULA
 
 COST_PRODUCT = "LF-1012"  # strong with a spend-to-sales ratio above 1 in the demo
 NEW_THIN = 0.19
+TARGET_PRODUCT, NEW_TARGET = "LF-1007", 0.45  # its demo target is the default 30%
+TYPED = {"keep": "keep", "bid": 0.55}
 
 
 def _catalog_cell(path, product, column):
@@ -29,6 +32,23 @@ def _catalog_cell(path, product, column):
         if row[0].value == product:
             return row[headers.index(column)].coordinate
     raise KeyError(product)
+
+
+def _cell_in_row(path, sheet, header_row, key_header, key, column):
+    """The coordinate of column in the row whose key_header cell is key."""
+    ws = openpyxl.load_workbook(path)[sheet]
+    headers = [c.value for c in ws[header_row]]
+    for row in ws.iter_rows(min_row=header_row + 1):
+        if row[headers.index(key_header)].value == key:
+            return row[headers.index(column)].coordinate
+    raise KeyError(key)
+
+
+def _decision_rows(demo_build):
+    """Two target rows (in_targets positions) whose proposal moves the bid: for 'keep' and a typed bid."""
+    frame = demo_build.plan.tables["Bids"].frame
+    moving = frame[frame["proposed"] != frame["bid"]]
+    return int(moving["trow"].iloc[0]), int(moving["trow"].iloc[1])
 
 
 def _named_cell(path, name):
@@ -57,6 +77,13 @@ def make_edits(demo_build, work):
                                    [("in_catalog", _catalog_cell(src, COST_PRODUCT, "unit_cost"), cost)]),
         "edit_thin": edit_workbook(src, work / "edit_thin.xlsx", [(*_named_cell(src, "thin_margin"), NEW_THIN)]),
     }
+    keep_row, bid_row = _decision_rows(demo_build)
+    out["edit_target"] = edit_workbook(src, work / "edit_target.xlsx", [
+        ("Profit", _cell_in_row(src, "Profit", PROFIT_HEADER_ROW, "Product ID", TARGET_PRODUCT, "Your target ACoS"),
+         NEW_TARGET)])
+    out["edit_decision"] = edit_workbook(src, work / "edit_decision.xlsx", [
+        ("Bids", _cell_in_row(src, "Bids", BIDS_HEADER_ROW, "Target row", keep_row, "Decision"), TYPED["keep"]),
+        ("Bids", _cell_in_row(src, "Bids", BIDS_HEADER_ROW, "Target row", bid_row, "Decision"), TYPED["bid"])])
     spec = copy.deepcopy(demo_build.plan.spec)
     for column in spec.sheet("Profit").table.columns:
         if column.kind == FORMULA:
@@ -94,3 +121,26 @@ def test_libreoffice_replaces_wrong_cached_values(libreoffice, demo_build):
     assert 12345.0 == canary[COST_PRODUCT]["Revenue"]
     rows, _, _ = profit_table(libreoffice["canary"])
     assert [] == mismatches(expected, rows, PROFIT_HEADERS, "canary")
+
+
+@pytest.mark.libreoffice
+def test_raising_a_products_target_acos_raises_only_its_bids(libreoffice):
+    before = bids_oracle_for(DEMO)
+    expected = bids_oracle_for(DEMO, target_overrides={TARGET_PRODUCT: NEW_TARGET})
+    rows, _ = bids_table(libreoffice["edit_target"])
+    assert [] == mismatches(expected, rows, BIDS_CHECKED, "after target edit")
+    mine = [k for k, r in rows.items() if TARGET_PRODUCT in r["Product ID"]]
+    assert all(rows[k]["Proposed bid"] >= before[k]["Proposed bid"] for k in mine)
+    assert any(rows[k]["Proposed bid"] > before[k]["Proposed bid"] for k in mine)
+    others = [k for k in rows if k not in mine]
+    assert [before[k]["Proposed bid"] for k in others] == [rows[k]["Proposed bid"] for k in others]
+
+
+@pytest.mark.libreoffice
+def test_typed_decisions_set_the_final_bid(libreoffice, demo_build):
+    keep_row, bid_row = _decision_rows(demo_build)
+    expected = bids_oracle_for(DEMO, decisions={keep_row: TYPED["keep"], bid_row: TYPED["bid"]})
+    rows, _ = bids_table(libreoffice["edit_decision"])
+    assert [] == mismatches(expected, rows, BIDS_CHECKED, "after decisions")
+    assert rows[keep_row]["Current bid"] == rows[keep_row]["Final bid"] != rows[keep_row]["Proposed bid"]
+    assert TYPED["bid"] == rows[bid_row]["Final bid"]

@@ -43,7 +43,7 @@ def main(argv: list[str]) -> int:
         pdfs = libreoffice_convert(files, tmp / "pdf", target="pdf")
         for name, pdf in zip(sheets, pdfs):
             stem = out / f"{name.lower()}"
-            subprocess.run(["pdftoppm", "-png", "-r", "80", "-f", "1", "-l", "1", "-singlefile", str(pdf), str(stem)],
+            subprocess.run(["pdftoppm", "-png", "-r", "130", "-f", "1", "-l", "1", "-singlefile", str(pdf), str(stem)],
                            check=True)
             print(f"wrote {stem}.png")
     return 0

@@ -1,0 +1,348 @@
+"""The Bids sheet: a proposed bid for every live keyword and product target.
+
+Method (sources on the Guide):
+- Value per click: a click is worth CVR x order value; the bid that meets the target
+  ACoS is target ACoS x that value (H. R. Varian, "Position auctions", 2007). Applied
+  as a ratio that keeps the bid-to-CPC relation: value bid = current bid x target ACoS /
+  smoothed ACoS, where smoothed ACoS = CPC / (smoothed CVR x order value).
+- Small samples: smoothed CVR = (orders + k x product CVR) / (clicks + k), a Beta prior
+  worth k clicks (empirical-Bayes smoothing of rare-event rates).
+- Steps, not jumps: the proposal moves toward the value bid, never past it, by at most
+  the maximum cut or raise, rounded to the cent; a raise stops at the bid ceiling and a
+  cut at the bid floor (a bid already beyond one is not pushed the other way).
+- Data guards: no clicks, or fewer than the minimum clicks with no orders, hold; zero
+  orders after n = ceil(ln(1 - confidence) / ln(1 - product CVR)) clicks (and at least
+  the minimum) cuts by the maximum cut; a row with no orders never rises.
+
+Each target's product values come from its ad group's block of rows on the Groups
+sheet (first and last positions written as data), so the sheet stays linear in rows.
+"""
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from .columns import ColumnDef, PlannedTable, blank_div, plan_table
+from .numbers import ROUNDING_NUDGE, round_half_away
+from .plan_inputs import InputSheet
+from .settings import Settings
+from .spec import DATA, INPUT, Cell, Highlight, Sheet, Table, Validation
+
+SHEET = "Bids"
+HEADER_ROW = 3
+MOVING_RULES = (2, 6, 7, 9, 10)
+RAISING_RULES = (6, 9)
+REASONS = {
+    1: "no clicks", 2: "no orders after {n} clicks", 3: "not enough data", 4: "no order value yet",
+    5: "no orders yet: not raised", 6: "raise to value bid", 7: "lower to value bid", 8: "at value bid",
+    9: "raise, capped at maximum raise", 10: "lower, capped at maximum cut",
+}
+
+
+@dataclass
+class BidsContext:
+    """What the Bids columns' references read besides the frame."""
+
+    settings: Settings
+    groups: pd.DataFrame
+    account_cvr: float
+    account_aov: float
+    totals: dict[str, Any] = field(default_factory=dict)
+
+
+def _in(column: str) -> str:
+    return "=INDEX({rng:targets.%s},{c:trow})" % column
+
+
+def _block_sum(column: str) -> str:
+    return "SUM(INDEX({rng:groups.%s},{c:gfirst}):INDEX({rng:groups.%s},{c:glast}))" % (column, column)
+
+
+def _blend_formula(plain: str, weighted: str, fallback: str) -> str:
+    """Spend-weighted blend over the ad group's products; equal weights when it has no spend."""
+    return ('=IF({c:gfirst}="",%s,IF({c:g_spend}=0,%s/({c:glast}-{c:gfirst}+1),%s/{c:g_spend}))'
+            % (fallback, _block_sum(plain), _block_sum(weighted)))
+
+
+def _block_sums(df: pd.DataFrame, ctx: BidsContext, column: str) -> pd.Series:
+    """Per target, the sum of column over its ad group's block on Groups (NaN without one)."""
+    g = ctx.groups
+    if not len(g):
+        return pd.Series(np.nan, index=df.index)
+    block = g.groupby([g["campaign"], g["ad_group"]], sort=False)
+    first = block.cumcount().eq(0)
+    starts = pd.Series(np.arange(1, len(g) + 1, dtype=float)[first.to_numpy()],
+                       index=pd.MultiIndex.from_frame(g.loc[first, ["campaign", "ad_group"]]))
+    sums = block[column].sum()
+    by_first = pd.Series(sums.reindex(starts.index).to_numpy(), index=starts.to_numpy())
+    return df["gfirst"].map(by_first)
+
+
+def _blend(plain: str, weighted: str, fallback):
+    """Reference of _blend_formula: the same blend computed per ad group with pandas."""
+    def compute(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+        count = df["glast"] - df["gfirst"] + 1
+        equal = _block_sums(df, ctx, plain) / count
+        weighted_mean = _block_sums(df, ctx, weighted) / df["g_spend"].where(df["g_spend"] != 0)
+        out = weighted_mean.where(df["g_spend"] != 0, equal)
+        return out.where(df["gfirst"].notna(), fallback(ctx)).astype(float)
+    return compute
+
+
+def _g_spend(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    return _block_sums(df, ctx, "spend").fillna(0.0)
+
+
+def _s_cvr(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    k = ctx.settings.prior_clicks
+    return blank_div(df["orders"] + k * df["p_cvr"], df["clicks"] + k)
+
+
+def _s_acos(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    value = df["s_cvr"] * df["order_value"]
+    out = blank_div(df["cpc"], value)
+    return out.where(df["cpc"].notna() & df["s_cvr"].notna())
+
+
+def _n_zero(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    conf = ctx.settings.zero_order_confidence
+    return pd.Series([math.ceil(math.log(1 - conf) / math.log(1 - p)) if 0 < p < 1 else np.nan
+                      for p in df["p_cvr"]], index=df.index, dtype=float)
+
+
+def _value_bid(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    s = df["s_acos"]
+    return (df["bid"] * df["target_acos"] / s).where(s.notna() & (s != 0))
+
+
+def _rule(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    s = ctx.settings
+    out = []
+    for clicks, orders, n, value, bid in zip(df["clicks"], df["orders"], df["n_zero"], df["value_bid"], df["bid"]):
+        lower = 10 if not pd.isna(value) and value < bid * (1 - s.max_bid_cut) else 7
+        if clicks == 0:
+            rule = 1
+        elif orders == 0:
+            if clicks < s.min_clicks:
+                rule = 3
+            elif not pd.isna(n) and clicks >= n:
+                rule = 2
+            elif pd.isna(value):
+                rule = 4
+            else:
+                rule = lower if value < bid else 5
+        elif pd.isna(value):
+            rule = 4
+        elif value > bid:
+            rule = 9 if value > bid * (1 + s.max_bid_raise) else 6
+        elif value < bid:
+            rule = lower
+        else:
+            rule = 8
+        out.append(rule)
+    return pd.Series(out, index=df.index, dtype=float)
+
+
+def _raw(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    s = ctx.settings
+    bid, value, rule = df["bid"], df["value_bid"], df["rule"]
+    cut, raise_ = bid * (1 - s.max_bid_cut), bid * (1 + s.max_bid_raise)
+    out = np.select([rule.isin([2, 10]), rule.isin([6, 7]), rule == 9], [cut, value, raise_], bid)
+    return pd.Series(out, index=df.index, dtype=float)
+
+
+def _proposed(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    s = ctx.settings
+    rounded = df["raw"].map(lambda v: round_half_away(v + ROUNDING_NUDGE, 2))
+    raising = df["rule"].isin(RAISING_RULES)
+    low = np.where(raising, s.bid_floor, np.minimum(s.bid_floor, df["bid"]))
+    high = np.where(raising, np.maximum(s.bid_ceiling, df["bid"]), s.bid_ceiling)
+    clamped = np.minimum(high, np.maximum(low, rounded))
+    return pd.Series(np.where(df["rule"].isin(MOVING_RULES), clamped, df["bid"]), index=df.index)
+
+
+def _reason(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    out = []
+    for rule, raw, proposed, n in zip(df["rule"], df["raw"], df["proposed"], df["n_zero"]):
+        rounded = round_half_away(raw + ROUNDING_NUDGE, 2)
+        if rule in MOVING_RULES and proposed != rounded:
+            out.append("held at bid ceiling" if rounded > proposed else "held at bid floor")
+        else:
+            out.append(REASONS[int(rule)].format(n="" if pd.isna(n) else int(n)))
+    return pd.Series(out, index=df.index, dtype=object)
+
+
+def _final(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    out = []
+    for decision, proposed, bid in zip(df["decision"], df["proposed"], df["bid"]):
+        if decision is None or (isinstance(decision, float) and math.isnan(decision)) or decision == "":
+            out.append(proposed)
+        elif isinstance(decision, (int, float)):
+            out.append(float(decision))
+        elif str(decision).strip().lower() == "keep":
+            out.append(bid)
+        else:
+            out.append(proposed)
+    return pd.Series(out, index=df.index, dtype=float)
+
+
+_RULE = ('=IF({c:clicks}=0,1,IF({c:orders}=0,IF({c:clicks}<min_clicks,3,'
+         'IF(IF({c:n_zero}="",FALSE,{c:clicks}>={c:n_zero}),2,IF({c:value_bid}="",4,IF({c:value_bid}<{c:bid},%s,5)))),'
+         'IF({c:value_bid}="",4,IF({c:value_bid}>{c:bid},IF({c:value_bid}>{c:bid}*(1+max_bid_raise),9,6),'
+         'IF({c:value_bid}<{c:bid},%s,8)))))')
+_LOWER = "IF({c:value_bid}<{c:bid}*(1-max_bid_cut),10,7)"
+_MOVING = "OR({c:rule}=2,{c:rule}=6,{c:rule}=7,{c:rule}=9,{c:rule}=10)"
+_RAISING = "OR({c:rule}=6,{c:rule}=9)"
+_REASON_CHOICES = ",".join('"' + REASONS[i].replace("{n}", '"&{c:n_zero}&"') + '"' for i in range(1, 11))
+
+DEFS: list[ColumnDef] = [
+    ColumnDef("campaign", "Campaign", "text", "The campaign.", lambda df, ctx: df["campaign"], kind=DATA, width=22),
+    ColumnDef("ad_group", "Ad group", "text", "The ad group.", lambda df, ctx: df["ad_group"], kind=DATA, width=18),
+    ColumnDef("target", "Target", "text", "The keyword or product target.",
+              lambda df, ctx: df["target"], kind=DATA, width=26),
+    ColumnDef("match_type", "Match type", "text", "exact, phrase, broad, product or auto.",
+              lambda df, ctx: df["match_type"], kind=DATA, width=9),
+    ColumnDef("product_id", "Product ID", "text",
+              "The product the ad group advertises; 'shared: ...' where it advertises several (their blend is used).",
+              lambda df, ctx: df["product_label"], kind=DATA, width=14),
+    ColumnDef("impressions", "Impressions", "int", "From in_targets.", lambda df, ctx: df["impressions"],
+              _in("impressions"), width=10),
+    ColumnDef("clicks", "Clicks", "int", "From in_targets.", lambda df, ctx: df["clicks"], _in("clicks"), width=8),
+    ColumnDef("spend", "Spend", "money", "From in_targets.", lambda df, ctx: df["spend"], _in("spend"), width=10),
+    ColumnDef("ad_sales", "Ad sales", "money", "From in_targets.", lambda df, ctx: df["ad_sales"],
+              _in("ad_sales"), width=10),
+    ColumnDef("orders", "Orders", "int", "From in_targets.", lambda df, ctx: df["orders"], _in("orders"), width=8),
+    ColumnDef("cpc", "CPC", "money", "Cost per click: spend / clicks.",
+              lambda df, ctx: blank_div(df["spend"], df["clicks"]), '=IF({c:clicks}=0,"",{c:spend}/{c:clicks})',
+              width=8),
+    ColumnDef("cvr", "CVR", "percent", "Conversion rate: orders / clicks.",
+              lambda df, ctx: blank_div(df["orders"], df["clicks"]), '=IF({c:clicks}=0,"",{c:orders}/{c:clicks})',
+              width=8),
+    ColumnDef("acos", "ACoS", "percent", "Spend / ad sales.",
+              lambda df, ctx: blank_div(df["spend"], df["ad_sales"]), '=IF({c:ad_sales}=0,"",{c:spend}/{c:ad_sales})',
+              width=8),
+    ColumnDef("target_acos", "Target ACoS", "percent",
+              "The product's target ACoS (Profit), or the ad group's spend-weighted blend.",
+              _blend("target_acos", "w_target", lambda ctx: ctx.settings.default_target_acos),
+              _blend_formula("target_acos", "w_target", "default_target_acos"), width=9),
+    ColumnDef("bid", "Current bid", "money", "The bid now (in_targets).", lambda df, ctx: df["bid"], _in("bid"),
+              width=9),
+    ColumnDef("value_bid", "Value bid", "money",
+              "Current bid x target ACoS / smoothed ACoS: the bid at which a click costs what it is worth.",
+              _value_bid, '=IF(OR({c:s_acos}="",{c:s_acos}=0),"",{c:bid}*{c:target_acos}/{c:s_acos})', width=9),
+    ColumnDef("proposed", "Proposed bid", "money",
+              "A step from the current bid toward the value bid, within the caps, floor and ceiling; or the "
+              "zero-order cut; or the current bid when held.",
+              _proposed, '=IF(%s,MIN(IF(%s,MAX(bid_ceiling,{c:bid}),bid_ceiling),MAX(IF(%s,bid_floor,'
+                         'MIN(bid_floor,{c:bid})),ROUND({c:raw}+0.000000001,2))),{c:bid})'
+              % (_MOVING, _RAISING, _RAISING), width=9),
+    ColumnDef("change", "Change", "percent", "Proposed bid / current bid - 1.",
+              lambda df, ctx: blank_div(df["proposed"], df["bid"]) - 1,
+              '=IF({c:bid}=0,"",{c:proposed}/{c:bid}-1)', width=8),
+    ColumnDef("reason", "Reason", "text", "Which rule decided the row.", _reason,
+              '=IF(AND(%s,{c:proposed}<>ROUND({c:raw}+0.000000001,2)),IF(ROUND({c:raw}+0.000000001,2)>{c:proposed},"held at bid ceiling",'
+              '"held at bid floor"),CHOOSE({c:rule},%s))' % (_MOVING, _REASON_CHOICES), width=26),
+    ColumnDef("decision", "Decision", "text_input",
+              "Input: leave blank to follow the proposal, type a bid to use it, or 'keep' to keep the current bid.",
+              lambda df, ctx: df["decision"], kind=INPUT, width=10),
+    ColumnDef("final", "Final bid", "money", "The bid to apply: the Decision if given, else the proposal.", _final,
+              '=IF({c:decision}="",{c:proposed},IF(ISNUMBER({c:decision}),{c:decision},'
+              'IF({c:decision}="keep",{c:bid},{c:proposed})))', width=9),
+    # Working columns, hidden: row positions as data, then the steps of the method.
+    ColumnDef("trow", "Target row", "int", "Helper: the target's position on in_targets.",
+              lambda df, ctx: df["trow"], kind=DATA, width=8, hidden=True),
+    ColumnDef("gfirst", "Group first row", "int", "Helper: first of the ad group's rows on Groups.",
+              lambda df, ctx: df["gfirst"], kind=DATA, width=8, hidden=True),
+    ColumnDef("glast", "Group last row", "int", "Helper: last of the ad group's rows on Groups.",
+              lambda df, ctx: df["glast"], kind=DATA, width=8, hidden=True),
+    ColumnDef("g_spend", "Group spend", "money", "Working: the ad group's ad spend (the blend's weights).",
+              _g_spend, '=IF({c:gfirst}="",0,%s)' % _block_sum("spend"), width=9, hidden=True),
+    ColumnDef("p_cvr", "Product CVR", "percent", "Working: the product's (or blend's) ad conversion rate.",
+              _blend("cvr", "w_cvr", lambda ctx: ctx.account_cvr),
+              _blend_formula("cvr", "w_cvr", "{rng:profit_total.prod_cvr}"), width=9, hidden=True),
+    ColumnDef("p_aov", "Product order value", "money", "Working: the product's (or blend's) ad sales per order.",
+              _blend("aov", "w_aov", lambda ctx: ctx.account_aov),
+              _blend_formula("aov", "w_aov", "{rng:profit_total.prod_aov}"), width=9, hidden=True),
+    ColumnDef("order_value", "Order value", "money",
+              "Working: the target's ad sales / orders, or the product's order value when it has no orders.",
+              lambda df, ctx: blank_div(df["ad_sales"], df["orders"]).where(df["orders"] > 0, df["p_aov"]),
+              '=IF({c:orders}>0,{c:ad_sales}/{c:orders},{c:p_aov})', width=9, hidden=True),
+    ColumnDef("s_cvr", "Smoothed CVR", "percent", "Working: (orders + k x product CVR) / (clicks + k).",
+              _s_cvr, '=IF({c:clicks}+prior_clicks=0,"",({c:orders}+prior_clicks*{c:p_cvr})/({c:clicks}+prior_clicks))',
+              width=9, hidden=True),
+    ColumnDef("s_acos", "Smoothed ACoS", "percent", "Working: CPC / (smoothed CVR x order value).",
+              _s_acos, '=IF(OR({c:cpc}="",{c:s_cvr}=""),"",IF({c:s_cvr}*{c:order_value}=0,"",'
+                       '{c:cpc}/({c:s_cvr}*{c:order_value})))', width=9, hidden=True),
+    ColumnDef("n_zero", "Zero-order clicks", "int",
+              "Working: clicks after which zero orders are unlikely at the product's CVR.",
+              _n_zero, '=IF(OR({c:p_cvr}<=0,{c:p_cvr}>=1),"",'
+                       'ROUNDUP(LN(1-zero_order_confidence)/LN(1-{c:p_cvr}),0))', width=9, hidden=True),
+    ColumnDef("rule", "Rule", "int", "Working: which rule decided the row (1 to 10, see the Guide).",
+              _rule, _RULE % (_LOWER, _LOWER), width=6, hidden=True),
+    ColumnDef("raw", "Unrounded bid", "money", "Working: the proposal before rounding, floor and ceiling.",
+              _raw, '=CHOOSE({c:rule},{c:bid},{c:bid}*(1-max_bid_cut),{c:bid},{c:bid},{c:bid},{c:value_bid},'
+                    '{c:value_bid},{c:bid},{c:bid}*(1+max_bid_raise),{c:bid}*(1-max_bid_cut))', width=9, hidden=True),
+]
+
+
+def target_frame(targets: InputSheet, campaigns: pd.DataFrame | None, groups: pd.DataFrame) -> pd.DataFrame:
+    """The live targets, one row each, grouped by product, with their row positions."""
+    frame = targets.frame.copy()
+    frame["trow"] = np.arange(1, len(frame) + 1, dtype=float)
+    live = frame["state"] == "enabled"
+    if campaigns is not None and len(campaigns):
+        state = campaigns.drop_duplicates("campaign").set_index("campaign")["state"]
+        live &= frame["campaign"].map(state).fillna("enabled") == "enabled"
+    frame = frame.loc[live].copy()
+    pos = pd.Series(np.arange(1, len(groups) + 1, dtype=float), index=groups.index)
+    blocks = pd.DataFrame({"campaign": groups["campaign"], "ad_group": groups["ad_group"], "pos": pos,
+                           "product_id": groups["product_id"]})
+    agg = blocks.groupby(["campaign", "ad_group"], sort=False).agg(
+        gfirst=("pos", "min"), glast=("pos", "max"), products=("product_id", list))
+    frame = frame.join(agg, on=["campaign", "ad_group"])
+    frame["products"] = frame["products"].map(lambda p: p if isinstance(p, list) else [])
+    frame["product_label"] = frame["products"].map(
+        lambda p: "" if not p else (p[0] if len(p) == 1 else "shared: " + ", ".join(p)))
+    frame["sort_product"] = frame["products"].map(lambda p: p[0] if p else "\uffff")
+    frame["shared"] = frame["products"].map(len) > 1
+    frame = frame.sort_values(["sort_product", "shared", "campaign", "ad_group", "trow"], kind="stable")
+    frame["decision"] = None
+    return frame.reset_index(drop=True)
+
+
+def plan_bids(targets: InputSheet, campaigns: pd.DataFrame | None, groups: PlannedTable, profit: PlannedTable,
+              settings: Settings, ranges: dict[str, str]) -> tuple[Sheet, PlannedTable]:
+    """The Bids sheet and its reference frame."""
+    base = target_frame(targets, campaigns, groups.frame)
+    ctx = BidsContext(settings, groups.frame, float(profit.totals_values["prod_cvr"]),
+                      float(profit.totals_values["prod_aov"]))
+    planned = plan_table(DEFS, base, ctx, HEADER_ROW + 1, ranges, with_totals=False)
+    keys = [d.key for d in DEFS]
+    n = len(base)
+    decision_col = keys.index("decision")
+    first = HEADER_ROW + 1
+    letter = planned.letters["decision"]
+    validations = []
+    if n:
+        validations.append(Validation(first, decision_col, {
+            "validate": "custom", "value": f'=OR(ISNUMBER({letter}{first + 1}),{letter}{first + 1}="keep")',
+            "ignore_blank": True, "error_title": "Not a decision",
+            "error_message": "Leave blank to follow the proposal, type a bid such as 0.85, or type keep.",
+            "input_title": "Decision", "input_message": "Blank = follow the proposal; a bid; or keep."},
+            last_row=first + n - 1))
+    highlights = [Highlight(keys.index("reason"), text, state) for text, state in (
+        ("lower to value bid", "Lavender"), ("lower, capped at maximum cut", "Lavender"),
+        ("raise to value bid", "Ocean"), ("raise, capped at maximum raise", "Ocean"),
+        ("not enough data", "Stone"), ("no clicks", "Stone"))]
+    highlights.append(Highlight(keys.index("reason"), "no orders after", "Plum", begins=True))
+    above = [[Cell("Bid plan: a proposed bid for every live keyword and product target", style="title")],
+             [Cell("Decision aid only: review before changing a live ad account. Type a bid or 'keep' in Decision "
+                   "to override a proposal; the working columns to the right of Final bid are hidden.",
+                   style="note")]]
+    sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, planned.columns, highlights=highlights),
+                  freeze=(HEADER_ROW + 1, 3), validations=validations, tab_color="#063F63")
+    return sheet, planned

@@ -1,0 +1,30 @@
+"""The Bids sheet's layout as the tests read it, and the oracle for a built account."""
+from __future__ import annotations
+
+from pathlib import Path
+
+from oracle import bids_oracle, profit_oracle
+from workbook_io import open_values, read_table
+from sheetbuilder.pipeline import load
+
+BIDS_HEADERS = ["Campaign", "Ad group", "Target", "Match type", "Product ID", "Impressions", "Clicks", "Spend",
+                "Ad sales", "Orders", "CPC", "CVR", "ACoS", "Target ACoS", "Current bid", "Value bid",
+                "Proposed bid", "Change", "Reason", "Decision", "Final bid"]
+CHECKED = [h for h in BIDS_HEADERS if h != "Decision"] + ["Smoothed CVR", "Smoothed ACoS", "Zero-order clicks",
+                                                          "Product CVR"]
+HEADER_ROW = 4  # 1-based: title, note, blank, header
+
+
+def bids_table(path: Path):
+    """(rows by their in_targets position, coordinates) of the Bids sheet's stored values."""
+    rows, _, coords = read_table(open_values(path)["Bids"], HEADER_ROW, "Target row", stop=None)
+    return rows, coords
+
+
+def bids_oracle_for(folder: Path, settings_changes=None, target_overrides=None, decisions=None):
+    """The oracle's Bids rows for the account in folder."""
+    inputs, settings, _ = load(folder)
+    if settings_changes:
+        settings = settings.replace(**settings_changes)
+    profit, _ = profit_oracle(inputs.tables, settings, target_overrides=target_overrides)
+    return bids_oracle(inputs.tables, settings, profit, decisions)

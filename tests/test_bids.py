@@ -1,0 +1,193 @@
+"""The Bids sheet: three-way truth, the method's properties, and outside checks.
+
+Outside references named beside each check:
+- value-per-click bidding, H. R. Varian, "Position auctions", International Journal of
+  Industrial Organization 25 (2007): the bid that meets a target ACoS is target x CVR x
+  order value; the two worked examples below come from that rule.
+- the Beta prior's posterior mean, against scipy.stats.beta;
+- the zero-order click threshold, against scipy.stats.binom and the rule of three
+  (J. A. Hanley and A. Lippman-Hand, JAMA 249, 1983: at 95%, n is about 3 / p).
+"""
+from __future__ import annotations
+
+import math
+import textwrap
+
+import pytest
+from hypothesis import HealthCheck, given, settings
+from scipy import stats
+
+from accounts import accounts, write_account
+from bids_io import BIDS_HEADERS, CHECKED, HEADER_ROW, bids_oracle_for, bids_table
+from conftest import BUILT_ON, DEMO
+from workbook_io import mismatches, open_values
+from sheetbuilder.pipeline import build, load, plan_workbook
+from sheetbuilder.recalc import formulas_values
+
+CENT = 0.005 + 1e-9  # a proposal is rounded to the cent, so it may sit half a cent past a bound
+
+
+def _check(path, folder, label):
+    rows, _ = bids_table(path)
+    expected = bids_oracle_for(folder)
+    assert sorted(expected) == sorted(rows), label
+    assert [] == mismatches(expected, rows, CHECKED, label)
+
+
+def test_bids_headers_are_the_documented_ones(demo_build):
+    ws = open_values(demo_build.output)["Bids"]
+    assert BIDS_HEADERS == [c.value for c in ws[HEADER_ROW]][: len(BIDS_HEADERS)]
+
+
+def test_demo_bids_cached_values_equal_reference(demo_build):
+    _check(demo_build.output, DEMO, "demo cached")
+
+
+def test_demo_bids_cover_every_rule(demo_build):
+    reasons = {r["Reason"].split(" after ")[0] for r in bids_table(demo_build.output)[0].values()}
+    assert {"no clicks", "not enough data", "no orders", "lower to value bid", "lower, capped at maximum cut",
+            "raise, capped at maximum raise"} <= reasons
+
+
+def test_demo_bids_only_live_targets_in_live_campaigns(demo_build):
+    inputs, _, _ = load(DEMO)
+    t, c = inputs.tables["targets"], inputs.tables["campaigns"]
+    paused = set(c.loc[c.state != "enabled", "campaign"])
+    live = t[(t.state == "enabled") & ~t.campaign.isin(paused)]
+    assert len(live) == len(bids_table(demo_build.output)[0])
+
+
+@pytest.mark.libreoffice
+def test_demo_bids_libreoffice_equals_reference(libreoffice):
+    _check(libreoffice["demo"], DEMO, "demo LibreOffice")
+
+
+def test_generated_bids_cached_values_equal_reference(generated, work):
+    with_targets = 0
+    for i, (account, result) in enumerate(generated):
+        if "targets" in account:
+            with_targets += 1
+            _check(result.output, work / f"gen{i}", f"generated {i} cached")
+    assert with_targets >= 3
+
+
+@pytest.mark.libreoffice
+def test_generated_bids_libreoffice_equals_reference(libreoffice, generated, work):
+    for i, (account, result) in enumerate(generated):
+        if "targets" in account:
+            _check(libreoffice[result.output.stem], work / f"gen{i}", f"generated {i} LibreOffice")
+
+
+@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(account=accounts(max_targets=20))
+def test_proposals_keep_the_method_properties(account, tmp_path_factory):
+    folder = write_account(account, tmp_path_factory.mktemp("bids"))
+    inputs, s, _ = load(folder)
+    plan = plan_workbook(inputs, s, BUILT_ON)
+    if "Bids" not in plan.tables:
+        return
+    for r in plan.tables["Bids"].frame.to_dict("records"):
+        bid, value, proposed, rule = r["bid"], r["value_bid"], r["proposed"], r["rule"]
+        assert proposed == r["final"]  # Decision blank: Final bid = Proposed bid
+        if rule in (1, 3, 4, 5, 8):  # held: no clicks, not enough data, no value, no orders yet
+            assert bid == proposed
+            continue
+        raising = rule in (6, 9)
+        # a raise stops at the ceiling and a cut at the floor; a bid already beyond one stays put
+        low = s.bid_floor if raising else min(s.bid_floor, bid)
+        high = max(s.bid_ceiling, bid) if raising else s.bid_ceiling
+        assert low - CENT <= proposed <= high + CENT
+        at_bound = abs(proposed - low) < CENT or abs(proposed - high) < CENT
+        if rule == 2:  # the zero-order cut: the one move not toward the value bid
+            assert r["orders"] == 0 and proposed <= bid
+            assert min(high, max(low, bid * (1 - s.max_bid_cut))) == pytest.approx(proposed, abs=CENT)
+            continue
+        between = min(bid, value) - CENT <= proposed <= max(bid, value) + CENT
+        assert between or at_bound, r
+        within_caps = bid * (1 - s.max_bid_cut) - CENT <= proposed <= bid * (1 + s.max_bid_raise) + CENT
+        assert within_caps or at_bound, r
+        if r["orders"] == 0:
+            assert proposed <= bid  # a row with no orders never rises
+        if r["s_acos"] > r["target_acos"]:
+            assert proposed <= bid
+        if r["s_acos"] < r["target_acos"]:
+            assert proposed >= bid
+
+
+def _tiny_account(tmp_path, target_row, settings_text, ad_row="P1,100,10,100,250"):
+    """One product, one ad row (clicks, orders, spend, sales), one target."""
+    folder = tmp_path / "tiny"
+    folder.mkdir()
+    (folder / "catalog.csv").write_text("product_id,product_name,price,unit_cost,fees_per_unit,target_acos\n"
+                                        "P1,Widget,25,5,5,30%\n")
+    (folder / "store_sales.csv").write_text("product_id,units,revenue\nP1,40,1000\n")
+    pid, clicks, orders, spend, sales = ad_row.split(",")
+    (folder / "ad_products.csv").write_text(
+        "campaign,ad_group,product_id,ad_type,impressions,clicks,spend,ad_sales,orders\n"
+        f"C1,G1,{pid},product ads,5000,{clicks},{spend},{sales},{orders}\n")
+    (folder / "targets.csv").write_text(
+        "campaign,ad_group,target,match_type,state,bid,impressions,clicks,spend,ad_sales,orders\n"
+        f"C1,G1,{target_row}\n")
+    (folder / "settings.toml").write_text(textwrap.dedent(settings_text))
+    return folder
+
+
+def _only_bid_row(folder, tmp_path):
+    result = build(folder, tmp_path / "tiny.xlsx", built_on=BUILT_ON)
+    rows, coords = bids_table(result.output)
+    (key,) = rows
+    recalculated = formulas_values(result.output)
+    return rows[key], {h: recalculated.get(("BIDS", c)) for h, c in coords[key].items()}
+
+
+def test_worked_example_value_bid_is_target_times_cvr_times_order_value(tmp_path):
+    # Varian (2007), value per click: CVR 10%, order value 25.00, target 30%, CPC = bid = 1.00 -> 0.75.
+    folder = _tiny_account(tmp_path, "widget,exact,enabled,1.00,5000,100,100,250,10", "")
+    cached, recalculated = _only_bid_row(folder, tmp_path)
+    assert 0.75 == pytest.approx(cached["Value bid"], abs=1e-12)
+    assert 0.75 == pytest.approx(recalculated["Value bid"], abs=1e-12)
+
+
+def test_worked_example_bid_scales_by_target_over_acos(tmp_path):
+    # With k = 0 (no smoothing), bid 1.20 at ACoS 40% and target 30% -> 1.20 x 0.30 / 0.40 = 0.90.
+    folder = _tiny_account(tmp_path, "widget,exact,enabled,1.20,5000,50,50,125,5", "prior_clicks = 0\n")
+    cached, recalculated = _only_bid_row(folder, tmp_path)
+    assert 0.40 == pytest.approx(cached["ACoS"])
+    assert 0.90 == pytest.approx(cached["Value bid"], abs=1e-12)
+    assert 0.90 == pytest.approx(recalculated["Proposed bid"], abs=1e-12)
+
+
+def test_smoothed_cvr_is_the_beta_posterior_mean(demo_build):
+    # Beta(k p, k (1 - p)) prior updated with orders successes in clicks trials: the posterior
+    # mean from scipy.stats.beta must equal the workbook's smoothed CVR.
+    _, s, _ = load(DEMO)
+    rows, _ = bids_table(demo_build.output)
+    checked = 0
+    for r in rows.values():
+        p, k = r["Product CVR"], s.prior_clicks
+        if 0 < p < 1 and k > 0:
+            a, b = k * p, k * (1 - p)
+            posterior = stats.beta(a + r["Orders"], b + r["Clicks"] - r["Orders"]).mean()
+            assert posterior == pytest.approx(r["Smoothed CVR"], rel=1e-12)
+            checked += 1
+    assert checked > 50
+
+
+def test_zero_order_threshold_matches_the_binomial(demo_build):
+    # scipy.stats.binom: zero orders in n clicks has probability at most 1 - confidence; in n - 1, more.
+    _, s, _ = load(DEMO)
+    rows, _ = bids_table(demo_build.output)
+    for r in rows.values():
+        n, p = r["Zero-order clicks"], r["Product CVR"]
+        assert stats.binom.pmf(0, n, p) <= 1 - s.zero_order_confidence + 1e-12
+        assert stats.binom.pmf(0, n - 1, p) > 1 - s.zero_order_confidence
+
+
+def test_zero_order_threshold_agrees_with_the_rule_of_three(tmp_path):
+    # Hanley and Lippman-Hand (1983): at 95% confidence, n is about 3 / p; at p = 10%, about 30.
+    folder = _tiny_account(tmp_path, "widget,exact,enabled,1.00,5000,40,30,0,0", "zero_order_confidence = 0.95\n")
+    cached, recalculated = _only_bid_row(folder, tmp_path)
+    assert 29 == cached["Zero-order clicks"] == recalculated["Zero-order clicks"]
+    assert abs(cached["Zero-order clicks"] - 3 / 0.10) / (3 / 0.10) < 0.05
+    assert "no orders after 29 clicks" == cached["Reason"]
+    assert 0.70 == pytest.approx(cached["Proposed bid"])  # cut by the default maximum cut, 30%

@@ -1,0 +1,47 @@
+"""The Settings sheet: one named, validated cell per setting, and defaults declared once."""
+from __future__ import annotations
+
+import openpyxl
+
+from sheetbuilder.settings import SETTINGS, Settings
+
+
+def test_every_declared_default_is_the_settings_default():
+    defaults = Settings()
+    assert {s.key: s.default for s in SETTINGS} == {s.key: defaults.value(s.key) for s in SETTINGS}
+
+
+def test_every_setting_is_a_named_cell_holding_its_value(demo_build):
+    wb = openpyxl.load_workbook(demo_build.output)
+    for spec in SETTINGS:
+        sheet, coord = wb.defined_names[spec.key].attr_text.split("!")
+        assert "Settings" == sheet
+        cell = wb[sheet][coord.replace("$", "")]
+        label = wb[sheet].cell(cell.row, 1).value
+        assert spec.label == label
+
+
+def test_every_live_setting_cell_is_an_unlocked_validated_input(demo_build):
+    wb = openpyxl.load_workbook(demo_build.output)
+    ws = wb["Settings"]
+    validated = set()
+    for dv in ws.data_validations.dataValidation:
+        for rng in dv.sqref.ranges:
+            validated.add(rng.coord)
+    for spec in SETTINGS:
+        coord = wb.defined_names[spec.key].attr_text.split("!")[1].replace("$", "")
+        cell = ws[coord]
+        if spec.live:
+            assert cell.protection.locked is False, spec.key
+            if spec.kind != "text":
+                assert coord in validated, spec.key
+        else:
+            assert cell.protection.locked is not False, spec.key
+
+
+def test_sheets_are_protected_and_formula_cells_locked(demo_build):
+    wb = openpyxl.load_workbook(demo_build.output)
+    for ws in wb.worksheets:
+        assert ws.protection.sheet, ws.title
+    profit = wb["Profit"]
+    assert profit["G6"].value.startswith("=") and profit["G6"].protection.locked is not False
