@@ -69,7 +69,7 @@ def as_cell_values(series: pd.Series) -> list:
     return series.tolist()
 
 
-_READS = re.compile(r"\{(?:c|tot):(\w+)\}")
+_READS = re.compile(r"\{(?:c|tot|cp):(\w+)\}")
 
 
 def compute_order(defs: list[ColumnDef]) -> list[ColumnDef]:
@@ -113,6 +113,8 @@ class PlannedTable:
                for k, v in self.letters.items()}
         out.update({f"{prefix}_total.{k}": f"{sheet_ref}!${v}${self.first_body_row + n + 1}"
                     for k, v in self.letters.items()})
+        out.update({f"{prefix}_last.{k}": f"{sheet_ref}!${v}${self.first_body_row + max(n, 1)}"
+                    for k, v in self.letters.items()})
         return out
 
 
@@ -129,6 +131,7 @@ def plan_table(defs: list[ColumnDef], base: pd.DataFrame, ctx: Any, first_body_r
         "tot": {k: f"${v}${totals_row + 1}" for k, v in letters.items()},
         "sum": {k: f"SUM({v}{first_body_row + 1}:{v}{max(totals_row, first_body_row + 1)})" for k, v in letters.items()},
         "t": {k: f"{v}{totals_row + 1}" for k, v in letters.items()},
+        "cp": {k: f"{v}{{p}}" for k, v in letters.items()},
     }
     totals_values: dict[str, Any] = {}
     ctx.totals = totals_values

@@ -10,7 +10,7 @@ from .errors import FormulaNotPortable
 PORTABLE_FUNCTIONS = frozenset({
     "SUM", "SUMIFS", "COUNTIFS", "SUMPRODUCT", "INDEX", "MATCH", "IF", "IFERROR", "AND", "OR", "NOT",
     "MIN", "MAX", "ROUND", "ROUNDUP", "ROUNDDOWN", "ABS", "LN", "EXP", "CEILING", "FLOOR", "INT", "COUNT",
-    "COUNTA", "ISNUMBER", "ISBLANK", "LEN", "ROWS", "CHOOSE",
+    "COUNTA", "ISNUMBER", "ISBLANK", "LEN", "ROWS", "CHOOSE", "LOWER",
 })
 
 _FUNCTION = re.compile(r"([A-Za-z_][A-Za-z0-9._]*)\(")

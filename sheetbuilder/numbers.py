@@ -15,6 +15,10 @@ _COMMA_BODY = re.compile(r"(?:\d{1,3}(?:\.\d{3})+|\d+)(?:,\d*)?|,\d+")     # 1.2
 _CURRENCY_WORDS = {"kr", "zł", "zl", "kč", "kc", "ft", "rs", "fr", "lei", "rm"}
 
 
+# Spreadsheets keep 15 significant digits; the readers refuse amounts and counts this large.
+MAX_MAGNITUDE = 1e15
+
+
 class NotANumber(ValueError):
     """The text is not a number in any form the readers accept.
 
@@ -81,8 +85,14 @@ def parse_number(text: str, decimal_comma: bool = False) -> tuple[float, bool]:
 
 
 def round_half_away(value: float, digits: int = 2) -> float:
-    """Round as Excel and LibreOffice do: half away from zero on the value's 15-digit decimal form."""
+    """Round as Excel and LibreOffice do: half away from zero on the value's 15-digit decimal form.
+
+    A value of 1e15 or more has no digits after the point in that form and is returned as
+    it is (Decimal's 28-digit context cannot quantize 1e308 to cents); so are infinities.
+    """
     if value is None or (isinstance(value, float) and math.isnan(value)):
+        return value
+    if not math.isfinite(value) or abs(value) >= MAX_MAGNITUDE:
         return value
     quantum = Decimal(1).scaleb(-digits)
     d = Decimal(format(float(value), ".15g")).quantize(quantum, rounding=ROUND_HALF_UP)

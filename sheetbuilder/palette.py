@@ -54,7 +54,9 @@ STYLES: dict[str, dict] = {
     "warning": {"bold": True, "font_color": "#5A3A00", "bg_color": WARNING_FILL},
     "header": {"bold": True, "bg_color": HEADER_FILL, "bottom": 1, "text_wrap": True, "valign": "bottom"},
     "legend_header": {"bold": True},
+    "label": {"indent": 1},
 }
+STYLES["header_num"] = {**STYLES["header"], "align": "right"}
 for _name, _fmt in NUMBER_FORMATS.items():
     _num = {"num_format": _fmt} if _fmt else {}
     STYLES[_name] = dict(_num)

@@ -14,6 +14,8 @@ from .errors import ERROR, WARNING, InputProblems, OutputExists, Problem, Sheetb
 from .plan_bids import DEFS as BIDS_DEFS, plan_bids
 from .plan_groups import DEFS as GROUPS_DEFS, plan_groups
 from .plan_guide import plan_guide
+from .plan_lists import HARVEST, NEGATIVES, plan_list
+from .plan_terms import _defs as TERMS_DEFS, plan_terms
 from .plan_inputs import plan_input_sheets
 from .plan_profit import DEFS as PROFIT_DEFS, plan_profit
 from .plan_settings import plan_settings
@@ -54,21 +56,41 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
     Returns:
         The plan: the workbook spec and each computed table's reference frame.
     """
-    input_sheets, layouts = plan_input_sheets(inputs)
+    input_sheets, layouts = plan_input_sheets(inputs, settings.fold_plurals)
     settings_sheet, names = plan_settings(settings, built_on)
     profit_sheet, profit = plan_profit(inputs, layouts, settings, built_on)
     tables = {"Profit": profit}
     sheets = [settings_sheet, profit_sheet]
     sections = [("Profit columns", PROFIT_DEFS)]
+    ranges = {f"{t}.{col}": r for t, layout in layouts.items() for col, r in layout.ranges.items()}
+    ranges.update(profit.ranges(profit_sheet.name, "profit"))
+    groups_sheet, groups = plan_groups(layouts.get("ad_products"), profit, ranges)
+    ranges.update(groups.ranges(groups_sheet.name, "groups"))
+    after: list = []
     if "targets" in layouts:
-        ranges = {f"{t}.{col}": r for t, layout in layouts.items() for col, r in layout.ranges.items()}
-        ranges.update(profit.ranges(profit_sheet.name, "profit"))
-        groups_sheet, groups = plan_groups(layouts.get("ad_products"), profit, ranges)
-        ranges.update(groups.ranges(groups_sheet.name, "groups"))
         bids_sheet, bids = plan_bids(layouts["targets"], inputs.get("campaigns"), groups, profit, settings, ranges)
-        sheets += [bids_sheet, groups_sheet]
-        tables.update({"Bids": bids, "Groups": groups})
-        sections += [("Bids columns", BIDS_DEFS), ("Groups columns", GROUPS_DEFS)]
+        sheets.append(bids_sheet)
+        tables["Bids"] = bids
+        sections.append(("Bids columns", BIDS_DEFS))
+    if "search_terms" in layouts and len(layouts["search_terms"].frame):
+        terms_sheet, terms, keys_sheet, _ = plan_terms(layouts["search_terms"], groups, profit, inputs.get("targets"),
+                                                       inputs.get("campaigns"), inputs.get("negatives"), settings,
+                                                       ranges)
+        ranges.update(terms.ranges(terms_sheet.name, "terms"))
+        sheets.append(terms_sheet)
+        tables["Terms"] = terms
+        for spec in (HARVEST, NEGATIVES):
+            list_sheet, planned = plan_list(spec, terms, settings, ranges)
+            sheets.append(list_sheet)
+            tables[spec.sheet] = planned
+            sections.append((f"{spec.sheet} columns", spec.defs))
+        sections.insert(-2, ("Terms columns", TERMS_DEFS(0)))
+        after.append(keys_sheet)
+    if "targets" in layouts or "search_terms" in layouts:
+        sheets.append(groups_sheet)
+        tables["Groups"] = groups
+        sections.append(("Groups columns", GROUPS_DEFS))
+    sheets += after
     sources = {k: v.name for k, v in inputs.sources.items()}
     guide = plan_guide(settings, built_on, sections, warnings or [], inputs.checksums, sources)
     spec = WorkbookSpec([guide, *sheets, *input_sheets], names, settings.currency_symbol)

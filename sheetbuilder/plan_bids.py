@@ -26,6 +26,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from .blends import attach_groups, group_columns, target_acos_column, zero_order_column
 from .columns import ColumnDef, PlannedTable, blank_div, plan_table
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
@@ -58,45 +59,6 @@ def _in(column: str) -> str:
     return "=INDEX({rng:targets.%s},{c:trow})" % column
 
 
-def _block_sum(column: str) -> str:
-    return "SUM(INDEX({rng:groups.%s},{c:gfirst}):INDEX({rng:groups.%s},{c:glast}))" % (column, column)
-
-
-def _blend_formula(plain: str, weighted: str, fallback: str) -> str:
-    """Spend-weighted blend over the ad group's products; equal weights when it has no spend."""
-    return ('=IF({c:gfirst}="",%s,IF({c:g_spend}=0,%s/({c:glast}-{c:gfirst}+1),%s/{c:g_spend}))'
-            % (fallback, _block_sum(plain), _block_sum(weighted)))
-
-
-def _block_sums(df: pd.DataFrame, ctx: BidsContext, column: str) -> pd.Series:
-    """Per target, the sum of column over its ad group's block on Groups (NaN without one)."""
-    g = ctx.groups
-    if not len(g):
-        return pd.Series(np.nan, index=df.index)
-    block = g.groupby([g["campaign"], g["ad_group"]], sort=False)
-    first = block.cumcount().eq(0)
-    starts = pd.Series(np.arange(1, len(g) + 1, dtype=float)[first.to_numpy()],
-                       index=pd.MultiIndex.from_frame(g.loc[first, ["campaign", "ad_group"]]))
-    sums = block[column].sum()
-    by_first = pd.Series(sums.reindex(starts.index).to_numpy(), index=starts.to_numpy())
-    return df["gfirst"].map(by_first)
-
-
-def _blend(plain: str, weighted: str, fallback):
-    """Reference of _blend_formula: the same blend computed per ad group with pandas."""
-    def compute(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
-        count = df["glast"] - df["gfirst"] + 1
-        equal = _block_sums(df, ctx, plain) / count
-        weighted_mean = _block_sums(df, ctx, weighted) / df["g_spend"].where(df["g_spend"] != 0)
-        out = weighted_mean.where(df["g_spend"] != 0, equal)
-        return out.where(df["gfirst"].notna(), fallback(ctx)).astype(float)
-    return compute
-
-
-def _g_spend(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
-    return _block_sums(df, ctx, "spend").fillna(0.0)
-
-
 def _s_cvr(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     k = ctx.settings.prior_clicks
     return blank_div(df["orders"] + k * df["p_cvr"], df["clicks"] + k)
@@ -106,12 +68,6 @@ def _s_acos(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     value = df["s_cvr"] * df["order_value"]
     out = blank_div(df["cpc"], value)
     return out.where(df["cpc"].notna() & df["s_cvr"].notna())
-
-
-def _n_zero(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
-    conf = ctx.settings.zero_order_confidence
-    return pd.Series([math.ceil(math.log(1 - conf) / math.log(1 - p)) if 0 < p < 1 else np.nan
-                      for p in df["p_cvr"]], index=df.index, dtype=float)
 
 
 def _value_bid(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
@@ -208,7 +164,7 @@ DEFS: list[ColumnDef] = [
               lambda df, ctx: df["match_type"], kind=DATA, width=9),
     ColumnDef("product_id", "Product ID", "text",
               "The product the ad group advertises; 'shared: ...' where it advertises several (their blend is used).",
-              lambda df, ctx: df["product_label"], kind=DATA, width=14),
+              lambda df, ctx: df["product_label"], kind=DATA, width=24),
     ColumnDef("impressions", "Impressions", "int", "From in_targets.", lambda df, ctx: df["impressions"],
               _in("impressions"), width=10),
     ColumnDef("clicks", "Clicks", "int", "From in_targets.", lambda df, ctx: df["clicks"], _in("clicks"), width=8),
@@ -225,10 +181,7 @@ DEFS: list[ColumnDef] = [
     ColumnDef("acos", "ACoS", "percent", "Spend / ad sales.",
               lambda df, ctx: blank_div(df["spend"], df["ad_sales"]), '=IF({c:ad_sales}=0,"",{c:spend}/{c:ad_sales})',
               width=8),
-    ColumnDef("target_acos", "Target ACoS", "percent",
-              "The product's target ACoS (Profit), or the ad group's spend-weighted blend.",
-              _blend("target_acos", "w_target", lambda ctx: ctx.settings.default_target_acos),
-              _blend_formula("target_acos", "w_target", "default_target_acos"), width=9),
+    target_acos_column(visible=True),
     ColumnDef("bid", "Current bid", "money", "The bid now (in_targets).", lambda df, ctx: df["bid"], _in("bid"),
               width=9),
     ColumnDef("value_bid", "Value bid", "money",
@@ -243,9 +196,9 @@ DEFS: list[ColumnDef] = [
     ColumnDef("change", "Change", "percent", "Proposed bid / current bid - 1.",
               lambda df, ctx: blank_div(df["proposed"], df["bid"]) - 1,
               '=IF({c:bid}=0,"",{c:proposed}/{c:bid}-1)', width=8),
-    ColumnDef("reason", "Reason", "text", "Which rule decided the row.", _reason,
+    ColumnDef("reason", "Reason", "label", "Which rule decided the row.", _reason,
               '=IF(AND(%s,{c:proposed}<>ROUND({c:raw}+0.000000001,2)),IF(ROUND({c:raw}+0.000000001,2)>{c:proposed},"held at bid ceiling",'
-              '"held at bid floor"),CHOOSE({c:rule},%s))' % (_MOVING, _REASON_CHOICES), width=26),
+              '"held at bid floor"),CHOOSE({c:rule},%s))' % (_MOVING, _REASON_CHOICES), width=30),
     ColumnDef("decision", "Decision", "text_input",
               "Input: leave blank to follow the proposal, type a bid to use it, or 'keep' to keep the current bid.",
               lambda df, ctx: df["decision"], kind=INPUT, width=10),
@@ -255,18 +208,7 @@ DEFS: list[ColumnDef] = [
     # Working columns, hidden: row positions as data, then the steps of the method.
     ColumnDef("trow", "Target row", "int", "Helper: the target's position on in_targets.",
               lambda df, ctx: df["trow"], kind=DATA, width=8, hidden=True),
-    ColumnDef("gfirst", "Group first row", "int", "Helper: first of the ad group's rows on Groups.",
-              lambda df, ctx: df["gfirst"], kind=DATA, width=8, hidden=True),
-    ColumnDef("glast", "Group last row", "int", "Helper: last of the ad group's rows on Groups.",
-              lambda df, ctx: df["glast"], kind=DATA, width=8, hidden=True),
-    ColumnDef("g_spend", "Group spend", "money", "Working: the ad group's ad spend (the blend's weights).",
-              _g_spend, '=IF({c:gfirst}="",0,%s)' % _block_sum("spend"), width=9, hidden=True),
-    ColumnDef("p_cvr", "Product CVR", "percent", "Working: the product's (or blend's) ad conversion rate.",
-              _blend("cvr", "w_cvr", lambda ctx: ctx.account_cvr),
-              _blend_formula("cvr", "w_cvr", "{rng:profit_total.prod_cvr}"), width=9, hidden=True),
-    ColumnDef("p_aov", "Product order value", "money", "Working: the product's (or blend's) ad sales per order.",
-              _blend("aov", "w_aov", lambda ctx: ctx.account_aov),
-              _blend_formula("aov", "w_aov", "{rng:profit_total.prod_aov}"), width=9, hidden=True),
+    *group_columns(),
     ColumnDef("order_value", "Order value", "money",
               "Working: the target's ad sales / orders, or the product's order value when it has no orders.",
               lambda df, ctx: blank_div(df["ad_sales"], df["orders"]).where(df["orders"] > 0, df["p_aov"]),
@@ -277,10 +219,7 @@ DEFS: list[ColumnDef] = [
     ColumnDef("s_acos", "Smoothed ACoS", "percent", "Working: CPC / (smoothed CVR x order value).",
               _s_acos, '=IF(OR({c:cpc}="",{c:s_cvr}=""),"",IF({c:s_cvr}*{c:order_value}=0,"",'
                        '{c:cpc}/({c:s_cvr}*{c:order_value})))', width=9, hidden=True),
-    ColumnDef("n_zero", "Zero-order clicks", "int",
-              "Working: clicks after which zero orders are unlikely at the product's CVR.",
-              _n_zero, '=IF(OR({c:p_cvr}<=0,{c:p_cvr}>=1),"",'
-                       'ROUNDUP(LN(1-zero_order_confidence)/LN(1-{c:p_cvr}),0))', width=9, hidden=True),
+    zero_order_column(),
     ColumnDef("rule", "Rule", "int", "Working: which rule decided the row (1 to 10, see the Guide).",
               _rule, _RULE % (_LOWER, _LOWER), width=6, hidden=True),
     ColumnDef("raw", "Unrounded bid", "money", "Working: the proposal before rounding, floor and ceiling.",
@@ -297,18 +236,7 @@ def target_frame(targets: InputSheet, campaigns: pd.DataFrame | None, groups: pd
     if campaigns is not None and len(campaigns):
         state = campaigns.drop_duplicates("campaign").set_index("campaign")["state"]
         live &= frame["campaign"].map(state).fillna("enabled") == "enabled"
-    frame = frame.loc[live].copy()
-    pos = pd.Series(np.arange(1, len(groups) + 1, dtype=float), index=groups.index)
-    blocks = pd.DataFrame({"campaign": groups["campaign"], "ad_group": groups["ad_group"], "pos": pos,
-                           "product_id": groups["product_id"]})
-    agg = blocks.groupby(["campaign", "ad_group"], sort=False).agg(
-        gfirst=("pos", "min"), glast=("pos", "max"), products=("product_id", list))
-    frame = frame.join(agg, on=["campaign", "ad_group"])
-    frame["products"] = frame["products"].map(lambda p: p if isinstance(p, list) else [])
-    frame["product_label"] = frame["products"].map(
-        lambda p: "" if not p else (p[0] if len(p) == 1 else "shared: " + ", ".join(p)))
-    frame["sort_product"] = frame["products"].map(lambda p: p[0] if p else "\uffff")
-    frame["shared"] = frame["products"].map(len) > 1
+    frame = attach_groups(frame.loc[live].copy(), groups)
     frame = frame.sort_values(["sort_product", "shared", "campaign", "ad_group", "trow"], kind="stable")
     frame["decision"] = None
     return frame.reset_index(drop=True)

@@ -11,6 +11,7 @@ import pandas as pd
 
 from . import contract as c
 from .formula import range_ref
+from .normalise import normalise
 from .readers import Inputs
 from .spec import DATA, INPUT, Column, Sheet, Table
 
@@ -20,6 +21,7 @@ SORT_KEYS = {
     "catalog": ["product_id"],
     "store_sales": ["product_id", "_row"],
     "ad_products": ["product_id", "campaign", "ad_group", "_row"],
+    "search_terms": ["campaign", "ad_group", "_term_key", "_row"],
 }
 _STYLE = {c.TEXT: "text", c.COUNT: "int", c.MONEY: "money", c.PERCENT: "percent", c.AMOUNT: "money"}
 _WIDTH = {c.TEXT: 18, c.COUNT: 11, c.MONEY: 12, c.PERCENT: 11, c.AMOUNT: 11}
@@ -52,14 +54,20 @@ def sorted_rows(table: str, frame: pd.DataFrame) -> pd.DataFrame:
     return frame.sort_values(keys, kind="stable").reset_index(drop=True)
 
 
-def plan_input_sheets(inputs: Inputs) -> tuple[list[Sheet], dict[str, InputSheet]]:
-    """The in_ sheets for every table that was given, and their layouts for formulas."""
+def plan_input_sheets(inputs: Inputs, fold_plurals: bool = False) -> tuple[list[Sheet], dict[str, InputSheet]]:
+    """The in_ sheets for every table that was given, and their layouts for formulas.
+
+    Search terms are sorted by campaign, ad group and normalised term, so that each term's
+    rows in an ad group form one block (kept in the layout frame as _term_key).
+    """
     sheets: list[Sheet] = []
     layouts: dict[str, InputSheet] = {}
     for rule in c.TABLES:
         frame = inputs.get(rule.name)
         if frame is None:
             continue
+        if rule.name == "search_terms":
+            frame = frame.assign(_term_key=[normalise(t, fold_plurals) for t in frame["search_term"]])
         frame = sorted_rows(rule.name, frame)
         name = sheet_name(rule.name)
         editable = EDITABLE.get(rule.name, set())

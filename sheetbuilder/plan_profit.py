@@ -112,6 +112,11 @@ def _product_aov(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
     return own.where(df["ad_orders"] != 0, _account_aov(df, ctx))
 
 
+def _product_price(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
+    price = _catalog_value(df, ctx, "price")
+    return price.where(price > 0, df["prod_aov"])
+
+
 def _sum_of(key: str):
     return lambda df, ctx: float(df[key].sum())
 
@@ -184,14 +189,14 @@ DEFS: list[ColumnDef] = [
               lambda df, ctx: blank_div(df["spend_share"], df["sales_share"].fillna(0)).where(df["spend_share"].notna()),
               '=IF({c:sales_share}="","",IF({c:sales_share}=0,"",IF({c:spend_share}="","",{c:spend_share}/{c:sales_share})))',
               width=10),
-    ColumnDef("status", "Status", "text",
+    ColumnDef("status", "Status", "label",
               "no sales (revenue 0), no margin (not in the catalog), loss (net margin below 0), thin (below the "
               "thin threshold), strong (at or above the strong threshold), else healthy.",
               _status,
               '=IF({c:revenue}=0,"no sales",IF({c:margin}="","no margin",IF({c:net_margin}<0,"loss",'
               'IF({c:net_margin}<thin_margin,"thin",IF({c:net_margin}>=strong_margin,"strong","healthy")))))',
               width=10),
-    ColumnDef("direction", "Direction", "text",
+    ColumnDef("direction", "Direction", "label",
               "cut where the status is loss or thin and the spend-to-sales ratio is above 1; grow where it is "
               "strong and the ratio is below 1; else hold.",
               _direction,
@@ -227,6 +232,10 @@ DEFS: list[ColumnDef] = [
               _product_aov, '=IF({c:ad_orders}=0,{tot:prod_aov},{c:ad_sales}/{c:ad_orders})',
               width=8, hidden=True, total='=IF({t:ad_orders}=0,0,{t:ad_sales}/{t:ad_orders})',
               total_reference=_account_aov),
+    ColumnDef("prod_price", "Product price", "money",
+              "Helper: the catalog price; the product's order value where the catalog gives none.",
+              _product_price, '=IF({c:cat_row}="",{c:prod_aov},IF(%s>0,%s,{c:prod_aov}))' % (_cat("price"), _cat("price")),
+              width=8, hidden=True),
     ColumnDef("gross", "Gross profit before ads", "money", "Helper: revenue x margin before ads.",
               lambda df, ctx: df["revenue"] * df["margin"], '=IF({c:margin}="","",{c:revenue}*{c:margin})',
               width=8, hidden=True, total="={sum:gross}", total_reference=_sum_of("gross")),
@@ -312,7 +321,8 @@ def plan_profit(inputs: Inputs, layouts: dict[str, InputSheet], settings: Settin
     above = [
         [Cell("Profit after ads, per product", style="title")],
         [Cell(CAUTION, style="note")],
-        [Cell(warning_value(settings, built_on), warning_formula(), "warning")],
+        [Cell(warning_value(settings, built_on), warning_formula(), "warning"),
+         *[Cell(None, style="warning") for _ in range(17)]],
     ]
     sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, planned.columns, planned.totals, highlights),
                   freeze=(HEADER_ROW + 1, 2), tab_color="#0B5C8A")

@@ -8,7 +8,7 @@ from .spec import DATA, INPUT, Cell, Sheet, Validation
 
 SHEET = "Settings"
 FIRST_ROW = 4  # 0-based row of the first setting
-_STYLE = {"percent": "percent", "number": "ratio", "money": "money", "int": "int", "date": "date", "text": "text", "bool": "text"}
+_STYLE = {"percent": "percent", "number": "ratio", "money": "money", "choice": "text", "int": "int", "date": "date", "text": "text", "bool": "text"}
 
 
 def _validation(spec) -> dict | None:
@@ -22,6 +22,9 @@ def _validation(spec) -> dict | None:
     if spec.kind == "int":
         return {"validate": "integer", "criteria": "between", "minimum": int(spec.low), "maximum": int(spec.high),
                 "error_message": f"Enter a whole number from {int(spec.low)} to {int(spec.high)}.", **message}
+    if spec.kind == "choice":
+        return {"validate": "list", "source": list(spec.choices), **message,
+                "error_message": "Choose one of: " + ", ".join(spec.choices)}
     if spec.kind == "date":
         return {"validate": "date", "criteria": "between", "minimum": dt.datetime(2000, 1, 1),
                 "maximum": dt.datetime(2100, 12, 31), "error_message": "Enter a date, or leave it blank.",

@@ -9,6 +9,8 @@ import csv
 import hashlib
 import io
 import math
+import re
+import zipfile
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -16,11 +18,23 @@ import pandas as pd
 
 from . import contract as c
 from .errors import ERROR, WARNING, Problem
-from .numbers import NotANumber, parse_number
+from .numbers import MAX_MAGNITUDE, NotANumber, parse_number
 from .settings import Settings
 
 SUFFIXES = (".csv", ".tsv", ".txt", ".xlsx", ".xlsm")
-MAX_SHEET_ROWS = 1_048_576  # Microsoft, "Excel specifications and limits"
+MAX_SHEET_ROWS = 1_048_576  # Microsoft, "Excel specifications and limits"; the header takes one
+
+# A workbook is a zip; these limits refuse a zip bomb before calamine inflates it.
+# Module constants so tests can make them small.
+MAX_ZIP_TOTAL = 512 * 1024 * 1024   # bytes, all entries uncompressed
+MAX_ZIP_RATIO = 100                 # uncompressed / compressed, for an entry of RATIO_ENTRY_MIN or more
+RATIO_ENTRY_MIN = 16 * 1024 * 1024  # bytes uncompressed: smaller entries may compress as well as they like
+MAX_ZIP_ENTRIES = 10_000
+MAX_RELS_BYTES = 4 * 1024 * 1024    # a relationships part larger than this is not a workbook's
+
+# search_terms rows repeating these are merged when the table is longer than a sheet.
+SEARCH_TERM_KEYS = ("campaign", "ad_group", "target", "match_type", "search_term")
+SEARCH_TERM_SUMS = ("impressions", "clicks", "spend", "ad_sales", "orders")
 
 
 @dataclass
@@ -62,12 +76,89 @@ def find_file(folder: Path, table: c.TableRule, settings: Settings) -> tuple[Pat
     return found[0], None
 
 
+_BOMS = ((b"\xff\xfe\x00\x00", "utf-32"), (b"\x00\x00\xfe\xff", "utf-32"),
+         (b"\xff\xfe", "utf-16"), (b"\xfe\xff", "utf-16"))
+
+
 def _decode(data: bytes) -> str:
-    """Text of a CSV file: UTF-8 with or without BOM, else cp1252."""
+    """Text of a CSV file: UTF-16/32 with a BOM, UTF-8 with or without BOM, else cp1252.
+
+    Raises:
+        UnicodeDecodeError: none of these reads the bytes.
+        NotText: the bytes decode but hold NUL characters.
+    """
+    for bom, codec in _BOMS:
+        if data.startswith(bom):
+            return data.decode(codec)  # the codec reads and drops its BOM
     try:
-        return data.decode("utf-8-sig")
+        text = data.decode("utf-8-sig")
     except UnicodeDecodeError:
-        return data.decode("cp1252")
+        text = data.decode("cp1252")
+    if "\x00" in text:
+        raise NotText("holds NUL characters, so it is not a text export (UTF-16 without a byte-order mark, or "
+                      "a binary file); save it as a UTF-8 CSV")
+    return text
+
+
+class NotText(ValueError):
+    """A CSV file whose bytes are not text in any encoding the readers accept."""
+
+
+class UnsafeWorkbook(ValueError):
+    """An .xlsx that is refused before it is opened: a zip bomb, external links, not a zip."""
+
+
+_EXTERNAL = re.compile(rb"""TargetMode\s*=\s*["']External["']""", re.IGNORECASE)
+
+
+def check_workbook_zip(path: Path) -> None:
+    """Refuse a workbook that is not a zip, would inflate too far, or links to other files.
+
+    Reads only the zip's central directory and the small relationship parts, so that
+    nothing is inflated before the limits are checked.
+
+    Raises:
+        UnsafeWorkbook: saying what is wrong.
+    """
+    try:
+        archive = zipfile.ZipFile(path)
+    except (zipfile.BadZipFile, OSError, ValueError, EOFError) as exc:
+        raise UnsafeWorkbook(f"not a readable spreadsheet: not an .xlsx workbook (a zip file): {exc}") from None
+    with archive:
+        entries = archive.infolist()
+        if len(entries) > MAX_ZIP_ENTRIES:
+            raise UnsafeWorkbook(f"refused: the workbook holds {len(entries)} parts, more than {MAX_ZIP_ENTRIES}; "
+                                 "it may be a zip bomb. Save it again from the spreadsheet program, or export CSV")
+        total = sum(e.file_size for e in entries)
+        if total > MAX_ZIP_TOTAL:
+            raise UnsafeWorkbook(f"refused: the workbook would unpack to {total / 2**20:,.0f} MiB, more than "
+                                 f"{MAX_ZIP_TOTAL / 2**20:,.0f} MiB; it may be a zip bomb. Export it as CSV instead")
+        for e in entries:
+            if e.file_size >= RATIO_ENTRY_MIN and e.file_size > MAX_ZIP_RATIO * max(e.compress_size, 1):
+                raise UnsafeWorkbook(f"refused: the part '{e.filename}' unpacks {e.file_size / max(e.compress_size, 1):,.0f} "
+                                     f"times larger than it is stored, more than {MAX_ZIP_RATIO}; it may be a zip "
+                                     "bomb. Export it as CSV instead")
+        names = {e.filename for e in entries}
+        if "xl/workbook.xml" not in names and "xl/workbook.bin" not in names:
+            raise UnsafeWorkbook("not a readable spreadsheet: a zip file without a workbook (no xl/workbook.xml)")
+        links = sorted(n for n in names if n.lower().startswith("xl/externallinks/"))
+        if links:
+            raise UnsafeWorkbook(f"refused: the workbook has external links ({links[0]}); links to other files are not "
+                                 "read. Break the links (Data > Edit Links > Break Link) or export CSV")
+        for e in entries:
+            low = e.filename.lower()
+            if not (low.startswith("xl/") and low.endswith(".rels")):
+                continue
+            if e.file_size > MAX_RELS_BYTES:
+                raise UnsafeWorkbook(f"refused: the part '{e.filename}' is {e.file_size:,} bytes, too large for a "
+                                     "relationships part")
+            try:
+                data = archive.read(e)
+            except (zipfile.BadZipFile, OSError, ValueError, EOFError, NotImplementedError, RuntimeError) as exc:
+                raise UnsafeWorkbook(f"not a readable spreadsheet: the part '{e.filename}' is broken: {exc}") from None
+            if _EXTERNAL.search(data):
+                raise UnsafeWorkbook(f"refused: the workbook links to an external target in '{e.filename}'; links to "
+                                     "other files are not read. Break the links or export CSV")
 
 
 class CellNumber(str):
@@ -95,6 +186,7 @@ def _cell_text(value: object) -> str:
 def read_rows(path: Path) -> list[list[str]]:
     """All rows of a CSV or .xlsx file as lists of text, header first; blank rows kept."""
     if path.suffix.lower() in (".xlsx", ".xlsm"):
+        check_workbook_zip(path)
         frame = pd.read_excel(path, engine="calamine", header=None, dtype=object)
         return [[_cell_text(v) for v in row] for row in frame.itertuples(index=False)]
     text = _decode(path.read_bytes())
@@ -173,6 +265,9 @@ def _parse_cell(rule: c.ColumnRule, text: str, settings: Settings) -> tuple[obje
         expected = {c.COUNT: "a whole number", c.MONEY: "an amount such as 1234.56",
                     c.PERCENT: "a percentage such as 30% or 0.30", c.AMOUNT: "an amount such as 0.85"}[rule.kind]
         return math.nan, f"'{text}' is not a number; expected {expected}" + (f" ({exc.hint})" if exc.hint else "")
+    if abs(value) >= MAX_MAGNITUDE:
+        return math.nan, (f"'{text}' is too large; expected less than {MAX_MAGNITUDE:,.0f} "
+                          "(a spreadsheet keeps 15 digits)")
     if value < 0 and rule.name not in _SIGNED:
         return value, f"'{text}' is negative; expected zero or more"
     if rule.kind == c.COUNT and not float(value).is_integer():
@@ -188,7 +283,12 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
     try:
         rows = read_rows(path)
     except UnicodeDecodeError:
-        return None, [Problem(file, None, None, "cannot be read as UTF-8 or cp1252 text")]
+        return None, [Problem(file, None, None, "cannot be read as text: not UTF-8, UTF-16 with a byte-order mark, "
+                                                "or cp1252; save it as a UTF-8 CSV")]
+    except NotText as exc:
+        return None, [Problem(file, None, None, str(exc))]
+    except UnsafeWorkbook as exc:
+        return None, [Problem(file, None, None, str(exc))]
     except csv.Error as exc:
         return None, [Problem(file, None, None, f"not a readable CSV file: {exc}")]
     except Exception as exc:  # calamine raises its own types for broken workbooks
@@ -200,9 +300,12 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
     found, problems = map_headers(header, table, settings, file)
     if any(p.severity == ERROR for p in problems):
         return None, problems
-    if len(rows) - start > MAX_SHEET_ROWS:
-        return None, [Problem(file, None, None, f"has {len(rows) - start - 1} rows; a sheet holds at most "
-                                                f"{MAX_SHEET_ROWS - 1} data rows")]
+    data_rows = sum(1 for r in rows[start + 1:] if any(x.strip() for x in r))
+    too_long = data_rows > MAX_SHEET_ROWS - 1
+    if too_long and table.name != "search_terms":
+        return None, [Problem(file, None, None, f"has {data_rows:,} data rows; a sheet holds at most "
+                                                f"{MAX_SHEET_ROWS - 1:,} below its header, so the workbook cannot "
+                                                "hold this table. Export a shorter period")]
     records: list[dict] = []
     for i in range(start + 1, len(rows)):
         row = rows[i]
@@ -228,7 +331,48 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
     header_of = {rule.name: (header[found[rule.name]] if rule.name in found else rule.name) for rule in table.columns}
     frame.attrs["headers"] = header_of
     frame.attrs["file"] = file
+    if too_long:
+        # Check the rows as written before merging, which could hide a row's orders > clicks.
+        problems.extend(_row_checks(table.name, frame))
+        if any(p.severity == ERROR for p in problems):
+            return None, problems
+        frame, problem = _merge_search_terms(frame, file, data_rows)
+        frame.attrs.update(headers=header_of, file=file)
+        problems.append(problem)
+        if problem.severity == ERROR:
+            return None, problems
     return frame, problems
+
+
+def _merge_search_terms(frame: pd.DataFrame, file: str, data_rows: int) -> tuple[pd.DataFrame, Problem]:
+    """search_terms longer than a sheet: rows repeating campaign, ad group, target, match type and
+    search term become one, their metrics summed (nothing is dropped).
+
+    Returns:
+        The merged frame (each row keeps the first source row of its group) and a WARNING
+        saying how many rows were merged, or an ERROR when even merged it does not fit.
+    """
+    keys = list(SEARCH_TERM_KEYS)
+    grouped = frame.groupby(keys, sort=False, dropna=False)
+    merged = grouped[list(SEARCH_TERM_SUMS)].sum()
+    merged["_row"] = grouped["_row"].min()
+    merged = merged.reset_index().sort_values("_row", kind="stable").reset_index(drop=True)
+    for name in ("spend", "ad_sales"):
+        merged[name] = merged[name].round(9)  # the float noise of summing cents, not the cents
+    merged = merged[list(frame.columns)]
+    for name in frame.columns:
+        merged[name] = merged[name].astype(frame[name].dtype)
+    limit = MAX_SHEET_ROWS - 1
+    if len(merged) > limit:
+        return merged, Problem(file, None, None,
+                               f"has {data_rows:,} data rows, {len(merged):,} even after merging rows that repeat "
+                               f"the same campaign, ad group, target, match type and search term; a sheet holds at "
+                               f"most {limit:,} below its header. Export a shorter period")
+    return merged, Problem(file, None, None,
+                           f"has {data_rows:,} data rows, more than a sheet holds ({limit:,}); merged "
+                           f"{data_rows - len(merged):,} rows that repeat the same campaign, ad group, target, match "
+                           f"type and search term into {len(merged):,} rows, summing impressions, clicks, spend, "
+                           "ad sales and orders", WARNING)
 
 
 def _row_checks(name: str, frame: pd.DataFrame) -> list[Problem]:

@@ -15,7 +15,8 @@ from typing import Any, Callable
 
 import pandas as pd
 import xlsxwriter
-from xlsxwriter.worksheet import CellFormulaTuple
+from xlsxwriter.worksheet import CellFormulaTuple, CellRichStringTuple
+from xlsxwriter.xmlwriter import XMLwriter
 
 from .formula import check_portable
 from .palette import STATES, STYLES, style_properties
@@ -77,6 +78,8 @@ def _cached(value: Any) -> Any:
         return (value - dt.date(1899, 12, 30)).days
     if hasattr(value, "item"):  # numpy scalars
         return value.item()
+    if isinstance(value, str):  # a formula's text result: escaped as xlsxwriter escapes cell text
+        return XMLwriter._escape_control_characters(fit_text(value))
     return value
 
 
@@ -85,7 +88,20 @@ def put_value(ws, row: int, col: int, value: Any, fmt) -> None:
     if value is None or value is pd.NA or (isinstance(value, float) and math.isnan(value)):
         ws.write_blank(row, col, None, fmt)
     elif isinstance(value, str):
-        ws.write_string(row, col, fit_text(value), fmt)
+        text = fit_text(value)
+        if text.startswith("<r>") and text.endswith("</r>"):
+            # xlsxwriter copies a string shaped like "<r>...</r>" into the XML unescaped, as a
+            # rich-text run (both inline and shared strings): store it as one escaped run instead.
+            if ws._check_dimensions(row, col):
+                raise ValueError(f"cell {row},{col} is outside the sheet")
+            run = ('<r><t xml:space="preserve">' + text.replace("&", "&amp;").replace("<", "&lt;")
+                   .replace(">", "&gt;") + "</t></r>")
+            if ws.constant_memory and row > ws.previous_row:
+                ws._write_single_row(row)
+            ws.table[row][col] = CellRichStringTuple(
+                run if ws.constant_memory else ws.str_table._get_shared_string_index(run), fmt, text)
+        else:
+            ws.write_string(row, col, text, fmt)
     elif isinstance(value, bool):
         ws.write_boolean(row, col, value, fmt)
     elif isinstance(value, (dt.date, dt.datetime)):
@@ -131,9 +147,9 @@ def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress:
     row = _write_rows(ws, 0, sheet.above, formats)
     if table:
         row = max(row, table.first_row)
-        header_fmt = formats["header"]
         for col, column in enumerate(table.columns):
-            ws.write_string(row, col, column.header, header_fmt)
+            numeric = column.style.split("_")[0] in ("int", "money", "percent", "ratio")
+            ws.write_string(row, col, column.header, formats["header_num" if numeric else "header"])
         ws.set_row(row, 30)
         row += 1
         columns = [(col, c, formats[c.style], c.formula, c.values) for col, c in enumerate(table.columns)]
@@ -144,10 +160,13 @@ def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress:
         step = max(1, n // 50)
         for i in range(n):
             r = row + i
-            rs = str(r + 1)
+            rs, ps = str(r + 1), str(r)
             for col, c, fmt, formula, values in columns:
                 if c.kind == FORMULA:
-                    put_formula(ws, r, col, formula.replace("{r}", rs), fmt, _cached(values[i]))
+                    text = formula.replace("{r}", rs)
+                    if "{p}" in text:  # the previous row, for running counts
+                        text = text.replace("{p}", ps)
+                    put_formula(ws, r, col, text, fmt, _cached(values[i]))
                 else:
                     put_value(ws, r, col, values[i], fmt)
             if progress and (i % step == 0 or i == n - 1):

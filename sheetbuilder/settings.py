@@ -7,6 +7,7 @@ from that one list, so adding a setting is one entry.
 from __future__ import annotations
 
 import datetime as dt
+import re
 import tomllib
 from dataclasses import dataclass, field, fields
 from pathlib import Path
@@ -23,7 +24,7 @@ SETTINGS_FILE = "settings.toml"
 class SettingSpec:
     """One setting: its key (also the workbook's defined name), default, kind and help.
 
-    kind is one of 'percent', 'number', 'money', 'int', 'date', 'text', 'bool'.
+    kind is one of 'percent', 'number', 'money', 'int', 'date', 'text', 'bool', 'choice' (one of choices).
     live settings are cells the formulas read; the others are used while reading
     the exports and are shown on the Settings sheet for the record.
     """
@@ -36,6 +37,7 @@ class SettingSpec:
     low: float | None = None
     high: float | None = None
     live: bool = True
+    choices: tuple[str, ...] = ()
 
 
 SETTINGS: tuple[SettingSpec, ...] = (
@@ -69,6 +71,34 @@ SETTINGS: tuple[SettingSpec, ...] = (
                 "No proposed bid goes below this.", 0.0, 1000.0),
     SettingSpec("bid_ceiling", "Bid ceiling", 5.00, "money",
                 "No proposed bid goes above this.", 0.01, 10000.0),
+    SettingSpec("min_promote_orders", "Orders to promote a term", 1, "int",
+                "A search term with at least this many orders, not yet an exact keyword, is proposed for promotion.",
+                1, 100000),
+    SettingSpec("block_spend_multiple", "Block after spend of price x", 1.0, "number",
+                "A term with no orders that has spent this many times its product's price is proposed as a negative "
+                "(common practice: 1.0).", 0.0, 100.0),
+    SettingSpec("harvest_match_type", "Match type for promoted terms", "exact", "choice",
+                "The match type a promoted search term is added with.", choices=("exact", "phrase")),
+    SettingSpec("starting_bid", "Starting bid of a promoted term", "lower", "choice",
+                "lower: the lower of the term's CPC and its value bid; cpc: its CPC; value: its value bid.",
+                choices=("lower", "cpc", "value")),
+    SettingSpec("source_negative", "Negate promoted terms at the source", "yes", "choice",
+                "yes: also propose a negative exact in the source ad group (broad, phrase and auto sources), so "
+                "the new keyword does not compete with the one the term came from.", choices=("yes", "no")),
+    SettingSpec("negative_level", "Level of new negatives", "ad group", "choice",
+                "Add new negatives to the term's ad group, or to its whole campaign.",
+                choices=("ad group", "campaign")),
+    SettingSpec("phrase_below_words", "Negative phrase below (words)", 0, "int",
+                "Terms with fewer words than this are blocked as negative phrase, others as negative exact "
+                "(0: always negative exact).", 0, 20),
+    SettingSpec("product_id_pattern", "Product identifier pattern", r"[a-z]{1,4}-?\d{3,}|item=.+", "text",
+                "A search term matching this regular expression is proposed as a product target, not a keyword "
+                "(used when building).", live=False),
+    SettingSpec("fold_plurals", "Fold plurals", False, "bool",
+                "Compare terms with simple English plurals folded (pots = pot) (used when building).", live=False),
+    SettingSpec("list_cap", "Rows in each list", 2000, "int",
+                "The most rows the Harvest and Negatives lists hold; the sheet says when more qualify "
+                "(used when building).", 1, 1000000, live=False),
     SettingSpec("currency_symbol", "Currency symbol", "$", "text",
                 "Shown in money formats (used when building).", live=False),
     SettingSpec("decimal_comma", "Decimal comma", False, "bool",
@@ -96,10 +126,21 @@ class Settings:
     max_bid_raise: float = 0.20
     bid_floor: float = 0.10
     bid_ceiling: float = 5.00
+    min_promote_orders: int = 1
+    block_spend_multiple: float = 1.0
+    harvest_match_type: str = "exact"
+    starting_bid: str = "lower"
+    source_negative: str = "yes"
+    negative_level: str = "ad group"
+    phrase_below_words: int = 0
+    product_id_pattern: str = r"[a-z]{1,4}-?\d{3,}|item=.+"
+    fold_plurals: bool = False
+    list_cap: int = 2000
     currency_symbol: str = "$"
     decimal_comma: bool = False
     columns: MappingProxyType = field(default_factory=lambda: MappingProxyType({}))
     files: MappingProxyType = field(default_factory=lambda: MappingProxyType({}))
+    destinations: MappingProxyType = field(default_factory=lambda: MappingProxyType({}))
 
     def value(self, key: str) -> Any:
         """The value of the setting named key."""
@@ -150,6 +191,11 @@ def _coerce(spec: SettingSpec, raw: Any, file: str) -> tuple[Any, Problem | None
         return bad("true or false")
     if not isinstance(raw, str):
         return bad("text")
+    if spec.kind == "choice":
+        value = " ".join(raw.strip().lower().split())
+        if value not in spec.choices:
+            return bad(" or ".join(spec.choices))
+        return value, None
     return raw, None
 
 
@@ -200,12 +246,12 @@ def load_settings(folder: Path) -> tuple[Settings, list[Problem]]:
     problems: list[Problem] = []
     values: dict[str, Any] = {}
     for key, raw in data.items():
-        if key in ("columns", "files"):
+        if key in ("columns", "files", "destinations"):
             continue
         spec = SPEC_BY_KEY.get(key)
         if spec is None:
             known = ", ".join(s.key for s in SETTINGS)
-            problems.append(Problem(SETTINGS_FILE, None, key, f"unknown setting; known settings: {known}, [columns], [files]"))
+            problems.append(Problem(SETTINGS_FILE, None, key, f"unknown setting; known settings: {known}, [columns], [files], [destinations]"))
             continue
         value, problem = _coerce(spec, raw, SETTINGS_FILE)
         if problem:
@@ -223,4 +269,28 @@ def load_settings(folder: Path) -> tuple[Settings, list[Problem]]:
         files = {}
     columns, files = _known_tables(columns, files, problems)
     mapping = {table: MappingProxyType({str(k): str(v) for k, v in cols.items()}) for table, cols in columns.items()}
-    return Settings(**values, columns=MappingProxyType(mapping), files=MappingProxyType(dict(files))), problems
+    destinations = _destinations(data.get("destinations", {}), problems)
+    if "product_id_pattern" in values:
+        try:
+            re.compile(values["product_id_pattern"])
+        except re.error as exc:
+            problems.append(Problem(SETTINGS_FILE, None, "product_id_pattern", f"not a valid regular expression: {exc}"))
+    return Settings(**values, columns=MappingProxyType(mapping), files=MappingProxyType(dict(files)),
+                    destinations=MappingProxyType(destinations)), problems
+
+
+def _destinations(raw: Any, problems: list[Problem]) -> dict[str, tuple[str, str]]:
+    """[destinations]: product_id = { campaign = "...", ad_group = "..." }, where promoted terms go."""
+    out: dict[str, tuple[str, str]] = {}
+    if not isinstance(raw, dict):
+        problems.append(Problem(SETTINGS_FILE, None, "destinations",
+                                'expected [destinations] with LF-1001 = { campaign = "...", ad_group = "..." }'))
+        return out
+    for product, where in raw.items():
+        if (not isinstance(where, dict) or not isinstance(where.get("campaign"), str)
+                or not isinstance(where.get("ad_group"), str)):
+            problems.append(Problem(SETTINGS_FILE, None, f"destinations.{product}",
+                                    'expected { campaign = "...", ad_group = "..." }'))
+            continue
+        out[str(product)] = (where["campaign"].strip(), where["ad_group"].strip())
+    return out

@@ -10,7 +10,7 @@ cents = st.integers(0, 60000).map(lambda c: c / 100)
 
 
 @st.composite
-def accounts(draw, max_products: int = 8, max_ad_rows: int = 18, max_targets: int = 12):
+def accounts(draw, max_products: int = 8, max_ad_rows: int = 18, max_targets: int = 12, max_terms: int = 14):
     """A dict of table name -> list of row dicts, plus 'settings' (a TOML text)."""
     n = draw(st.integers(1, max_products))
     ids = [f"P{i:03d}" for i in range(1, n + 1)]
@@ -66,7 +66,33 @@ def accounts(draw, max_products: int = 8, max_ad_rows: int = 18, max_targets: in
     if not catalog:
         catalog.append({"product_id": ids[0], "product_name": "Only", "price": 10.0, "unit_cost": 2.0,
                         "fees_per_unit": 1.0, "target_acos": "", "margin": ""})
+    vocabulary = ["pot", "plant pot", "Plant  Pot", "big plant pot", "free pot", "seed tray", "p002", "hose*", "tray?"]
+    terms = []
+    for _ in range(draw(st.integers(0, max_terms))):
+        campaign, group = draw(st.sampled_from(groups))
+        clicks = draw(st.integers(0, 80))
+        orders = 0 if clicks == 0 or draw(st.booleans()) else draw(st.integers(0, min(clicks, 5)))
+        terms.append({"campaign": campaign, "ad_group": group, "target": draw(st.sampled_from(["pot", "kw 0", "auto"])),
+                      "match_type": draw(st.sampled_from(["exact", "phrase", "broad", "auto"])),
+                      "search_term": draw(st.sampled_from(vocabulary)), "impressions": clicks * 10, "clicks": clicks,
+                      "spend": 0.0 if clicks == 0 else draw(st.integers(0, 9000)) / 100,
+                      "ad_sales": 0.0 if orders == 0 else draw(st.integers(100, 20000)) / 100, "orders": orders})
+    negatives = [{"campaign": c, "ad_group": draw(st.sampled_from(["", g])), "term": draw(st.sampled_from(vocabulary)),
+                  "match_type": draw(st.sampled_from(["negative exact", "negative phrase"]))}
+                 for c, g in draw(st.lists(st.sampled_from(groups), max_size=3))]
+    term_settings = {"min_promote_orders": draw(st.integers(1, 3)),
+                     "block_spend_multiple": draw(st.integers(0, 20)) / 10,
+                     "phrase_below_words": draw(st.integers(0, 3)),
+                     "negative_level": draw(st.sampled_from(["ad group", "campaign"])),
+                     "starting_bid": draw(st.sampled_from(["lower", "cpc", "value"])),
+                     "source_negative": draw(st.sampled_from(["yes", "no"]))}
+    settings += "".join(f"{k} = {v!r}\n" if isinstance(v, str) else f"{k} = {v}\n"
+                        for k, v in term_settings.items()).replace("'", '"')
     account = {"catalog": catalog, "store_sales": sales, "ad_products": ads, "settings": settings}
+    if terms:
+        account["search_terms"] = terms
+        if negatives:
+            account["negatives"] = negatives
     if targets:
         account["targets"] = targets
         if draw(st.booleans()):
@@ -82,6 +108,9 @@ COLUMNS = {
     "targets": ["campaign", "ad_group", "target", "match_type", "state", "bid", "impressions", "clicks", "spend",
                 "ad_sales", "orders"],
     "campaigns": ["campaign", "ad_type", "state", "daily_budget", "targeting"],
+    "search_terms": ["campaign", "ad_group", "target", "match_type", "search_term", "impressions", "clicks", "spend",
+                     "ad_sales", "orders"],
+    "negatives": ["campaign", "ad_group", "term", "match_type"],
 }
 
 

@@ -14,6 +14,8 @@ import pytest
 
 from conftest import DEMO, edit_workbook
 from bids_io import CHECKED as BIDS_CHECKED, HEADER_ROW as BIDS_HEADER_ROW, bids_oracle_for, bids_table
+from terms_io import (HARVEST_HEADERS, NEGATIVE_HEADERS, TERMS_CHECKED, TERMS_HEADER_ROW, list_table,
+                      terms_oracle_for, terms_table)
 from profit_io import HEADER_ROW as PROFIT_HEADER_ROW, PROFIT_HEADERS, oracle_for, profit_table
 from workbook_io import mismatches
 from sheetbuilder.pipeline import load, write_atomically
@@ -23,6 +25,7 @@ COST_PRODUCT = "LF-1012"  # strong with a spend-to-sales ratio above 1 in the de
 NEW_THIN = 0.19
 TARGET_PRODUCT, NEW_TARGET = "LF-1007", 0.45  # its demo target is the default 30%
 TYPED = {"keep": "keep", "bid": 0.55}
+NEW_MULTIPLE = 0.5  # the demo uses the default 1.0
 
 
 def _catalog_cell(path, product, column):
@@ -49,6 +52,11 @@ def _decision_rows(demo_build):
     frame = demo_build.plan.tables["Bids"].frame
     moving = frame[frame["proposed"] != frame["bid"]]
     return int(moving["trow"].iloc[0]), int(moving["trow"].iloc[1])
+
+
+def _first_promote(demo_build):
+    frame = demo_build.plan.tables["Terms"].frame
+    return int(frame.loc[frame["verdict"] == "promote", "pos"].iloc[0])
 
 
 def _named_cell(path, name):
@@ -84,6 +92,11 @@ def make_edits(demo_build, work):
     out["edit_decision"] = edit_workbook(src, work / "edit_decision.xlsx", [
         ("Bids", _cell_in_row(src, "Bids", BIDS_HEADER_ROW, "Target row", keep_row, "Decision"), TYPED["keep"]),
         ("Bids", _cell_in_row(src, "Bids", BIDS_HEADER_ROW, "Target row", bid_row, "Decision"), TYPED["bid"])])
+    out["edit_multiple"] = edit_workbook(src, work / "edit_multiple.xlsx",
+                                         [(*_named_cell(src, "block_spend_multiple"), NEW_MULTIPLE)])
+    out["edit_skip"] = edit_workbook(src, work / "edit_skip.xlsx", [
+        ("Terms", _cell_in_row(src, "Terms", TERMS_HEADER_ROW, "Position", _first_promote(demo_build), "Decision"),
+         "skip")])
     spec = copy.deepcopy(demo_build.plan.spec)
     for column in spec.sheet("Profit").table.columns:
         if column.kind == FORMULA:
@@ -144,3 +157,29 @@ def test_typed_decisions_set_the_final_bid(libreoffice, demo_build):
     assert [] == mismatches(expected, rows, BIDS_CHECKED, "after decisions")
     assert rows[keep_row]["Current bid"] == rows[keep_row]["Final bid"] != rows[keep_row]["Proposed bid"]
     assert TYPED["bid"] == rows[bid_row]["Final bid"]
+
+
+@pytest.mark.libreoffice
+def test_lowering_the_spend_multiple_grows_the_negatives_list_in_order(libreoffice):
+    _, _, before = terms_oracle_for(DEMO)
+    _, _, expected = terms_oracle_for(DEMO, settings_changes={"block_spend_multiple": NEW_MULTIPLE})
+    assert len(expected) > len(before)
+    got = list_table(libreoffice["edit_multiple"], "Negatives")
+    assert [] == mismatches(expected, got, NEGATIVE_HEADERS, "after multiple edit")
+    assert len(expected) == len(got)
+    terms_after = [r["Search term"] for _, r in sorted(got.items())]
+    kept = [t for t in terms_after if t in {r["Search term"] for r in before.values()}]
+    assert [r["Search term"] for _, r in sorted(before.items())] == kept  # the old entries keep their order
+
+
+@pytest.mark.libreoffice
+def test_typing_skip_takes_a_term_off_the_harvest_list(libreoffice, demo_build):
+    position = _first_promote(demo_build)
+    _, before, _ = terms_oracle_for(DEMO)
+    terms, expected, _ = terms_oracle_for(DEMO, decisions={position: "skip"})
+    got = list_table(libreoffice["edit_skip"], "Harvest")
+    assert len(before) - 1 == len(got)
+    assert [] == mismatches(expected, got, HARVEST_HEADERS, "after skip")
+    rows, _ = terms_table(libreoffice["edit_skip"])
+    assert "skip" == rows[position]["Final"]
+    assert [] == mismatches(terms, rows, TERMS_CHECKED, "Terms after skip")

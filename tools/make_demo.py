@@ -334,6 +334,10 @@ def plant_odd_terms(terms):
     w = r["search_term"].split()
     r["search_term"] = w[0].capitalize() + "  " + " ".join(w[1:-1]) + "  " + w[-1].upper()
     pick(lambda r: r["ad_group"] in ("Ceramic Pots", "Planter Auto"))["search_term"] = "crème ceramic planter"
+    # Terms that negatives already in place block: a campaign-level phrase and an ad-group exact.
+    pick(lambda r: r["campaign"] == "LF - Garden Beds - Manual" and r["orders"] == 0)["search_term"] = \
+        "free garden hose nozzle"
+    pick(lambda r: r["ad_group"] == "Hoses" and r["orders"] == 0)["search_term"] = "Hose Reel Cart"
 
 
 def write(path, header, rows):

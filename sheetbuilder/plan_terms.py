@@ -1,0 +1,405 @@
+"""The Terms sheet: every customer search term per campaign and ad group, with a live verdict.
+
+Verdicts (the thresholds are settings):
+- promote: at least the minimum orders, not yet an exact keyword for its product, and not
+  the very exact keyword it came from;
+- block: no orders, and either spend of at least the product's price x the multiple (the
+  trade's rule of thumb: a term that spent the product's price without a sale is suspect;
+  common practice, no source) or at least the zero-order clicks;
+- watch: no orders, under both thresholds (or selling, below the minimum orders);
+- keep: selling and already targeted, or already negated.
+
+Terms are compared after normalisation (NFKC, case folding, trimmed and collapsed
+whitespace). "Already targeted" and "Already negated" are lookups: each term's key is a
+number written as data, looked up by binary-search MATCH in the sorted Keys sheet, so the
+cost grows with terms x log(keys), never terms x targets. No term text is ever used as a
+criterion (MATCH, COUNTIFS and SUMIFS read * ? ~ in text as wildcards).
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from .blends import attach_groups, group_columns, target_acos_column, zero_order_column
+from .columns import ColumnDef, PlannedTable, blank_div, plan_table
+from .normalise import contains_phrase, looks_like_product_id, normalise, words
+from .numbers import ROUNDING_NUDGE, round_half_away
+from .plan_inputs import InputSheet
+from .settings import Settings
+from .spec import DATA, INPUT, Cell, Highlight, Sheet, Table, Validation
+
+SHEET = "Terms"
+KEYS_SHEET = "Keys"
+HEADER_ROW = 3
+VERDICTS = ("promote", "block", "watch", "keep")
+DECISIONS = VERDICTS + ("skip",)
+
+
+@dataclass
+class TermsContext:
+    """What the Terms columns' references read besides the frame."""
+
+    settings: Settings
+    groups: pd.DataFrame
+    account_cvr: float
+    account_aov: float
+    lookup: dict[float, str]
+    totals: dict[str, Any] = field(default_factory=dict)
+
+
+def _block(column: str) -> str:
+    rng = "{rng:search_terms.%s}" % column
+    return f"=SUM(INDEX({rng},{{c:first}}):INDEX({rng},{{c:last}}))"
+
+
+def _found(key: str, pos: str):
+    """Formula and reference of a lookup column: the Keys sheet's text where the key is found."""
+    formula = '=IF({c:%s}=0,"",IF(INDEX({rng:keys.key},{c:%s})={c:%s},INDEX({rng:keys.found},{c:%s}),""))' % (
+        pos, pos, key, pos)
+
+    def compute(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+        return df[key].map(lambda k: ctx.lookup.get(k, "")).astype(object)
+    return formula, compute
+
+
+def _position(key: str):
+    """Formula and reference of a MATCH position on the sorted Keys sheet (0 when below every key)."""
+    formula = '=IF({c:%s}="",0,IFERROR(MATCH({c:%s},{rng:keys.key},1),0))' % (key, key)
+
+    def compute(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+        keys = np.array(sorted(ctx.lookup), dtype=float)
+        values = df[key].to_numpy(dtype=float)
+        pos = np.searchsorted(keys, values, side="right").astype(float)
+        return pd.Series(np.where(np.isnan(values), 0.0, pos), index=df.index)
+    return formula, compute
+
+
+def _verdict(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+    s = ctx.settings
+    out = []
+    for r in df[["orders", "targeted", "self", "negated", "spend", "p_price", "n_zero", "clicks"]].itertuples():
+        if r.orders >= s.min_promote_orders and r.targeted == "" and r.self == 0:
+            out.append("promote")
+        elif r.orders > 0:
+            out.append("keep" if r.targeted != "" or r.self == 1 else "watch")
+        elif r.negated != "":
+            out.append("keep")
+        elif r.spend >= r.p_price * s.block_spend_multiple or (not pd.isna(r.n_zero) and r.clicks >= r.n_zero):
+            out.append("block")
+        else:
+            out.append("watch")
+    return pd.Series(out, index=df.index, dtype=object)
+
+
+def _final(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+    decision = df["decision"].map(lambda d: "" if d is None or (isinstance(d, float) and np.isnan(d)) else str(d))
+    return df["verdict"].where(decision == "", decision.str.lower()).astype(object)
+
+
+def _running(word: str):
+    """Running count of rows whose Final is word, and the strictly increasing helper key for MATCH."""
+    def count(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+        return (df["final"] == word).astype(float).cumsum()
+
+    def helper(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+        cnt = df[f"{word[0]}_cnt"]
+        frac = df["pos"] / (len(df) + 1)
+        return cnt + frac.where(df["final"] != word, 0.0)
+    return count, helper
+
+
+def _start_bid(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+    s = ctx.settings
+    cpc, value = df["cpc"], df["value_bid"]
+    base = {"cpc": cpc, "value": value}.get(s.starting_bid, np.minimum(cpc, value))
+    rounded = base.map(lambda v: round_half_away(v + ROUNDING_NUDGE, 2) if not pd.isna(v) else np.nan)
+    out = rounded.clip(lower=s.bid_floor).clip(upper=s.bid_ceiling)
+    return out.where(cpc.notna() & value.notna())
+
+
+def _block_rule(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+    s = ctx.settings
+    spent = df["spend"] >= df["p_price"] * s.block_spend_multiple
+    text = np.where(spent, "spend reached price x multiple",
+                    ["no orders after " + ("" if pd.isna(n) else str(int(n))) + " clicks" for n in df["n_zero"]])
+    return pd.Series(np.where(df["verdict"] == "block", text, "your decision"), index=df.index, dtype=object)
+
+
+def _block_threshold(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+    s = ctx.settings
+    spent = df["spend"] >= df["p_price"] * s.block_spend_multiple
+    out = pd.Series(np.where(spent, df["p_price"] * s.block_spend_multiple, df["n_zero"]), index=df.index)
+    return out.where(df["verdict"] == "block")
+
+
+_TPOS, _TPOS_REF = _position("tkey")
+_NPOS, _NPOS_REF = _position("nkey")
+_TARGETED, _TARGETED_REF = _found("tkey", "tpos")
+_NEGATED, _NEGATED_REF = _found("nkey", "npos")
+_P_CNT, _P_KEY = _running("promote")
+_B_CNT, _B_KEY = _running("block")
+
+
+def _defs(n_rows: int) -> list[ColumnDef]:
+    """The Terms columns; the helper keys divide by the row count + 1, a constant of the build."""
+    frac = f"{{c:pos}}/{n_rows + 1}"
+    return [
+        ColumnDef("campaign", "Campaign", "text", "The campaign.", lambda df, ctx: df["campaign"], kind=DATA, width=22),
+        ColumnDef("ad_group", "Ad group", "text", "The ad group.", lambda df, ctx: df["ad_group"], kind=DATA,
+                  width=16),
+        ColumnDef("from_target", "From target", "text",
+                  "The keyword or target the term came through (the one with most clicks, if several).",
+                  lambda df, ctx: df["from_target"], kind=DATA, width=20),
+        ColumnDef("from_match", "From match type", "text", "Its match type.", lambda df, ctx: df["from_match"],
+                  kind=DATA, width=9),
+        ColumnDef("term", "Search term", "text", "What the customer typed (as first seen in the export).",
+                  lambda df, ctx: df["term"], kind=DATA, width=28),
+        ColumnDef("product_id", "Product ID", "text", "The product the ad group advertises ('shared: ...' if several).",
+                  lambda df, ctx: df["product_label"], kind=DATA, width=14),
+        *[ColumnDef(k, h, st, f"Summed over the term's rows on in_search_terms.", (lambda key: lambda df, ctx: df[key])(k),
+                    _block(k), width=w) for k, h, st, w in (
+            ("impressions", "Impressions", "int", 10), ("clicks", "Clicks", "int", 8), ("spend", "Spend", "money", 10),
+            ("ad_sales", "Ad sales", "money", 10), ("orders", "Orders", "int", 8))],
+        ColumnDef("cpc", "CPC", "money", "Spend / clicks.", lambda df, ctx: blank_div(df["spend"], df["clicks"]),
+                  '=IF({c:clicks}=0,"",{c:spend}/{c:clicks})', width=8),
+        ColumnDef("cvr", "CVR", "percent", "Orders / clicks.", lambda df, ctx: blank_div(df["orders"], df["clicks"]),
+                  '=IF({c:clicks}=0,"",{c:orders}/{c:clicks})', width=8),
+        ColumnDef("acos", "ACoS", "percent", "Spend / ad sales.",
+                  lambda df, ctx: blank_div(df["spend"], df["ad_sales"]),
+                  '=IF({c:ad_sales}=0,"",{c:spend}/{c:ad_sales})', width=8),
+        ColumnDef("targeted", "Already targeted", "text",
+                  "Where the term already runs as an exact keyword for the same product (campaign / ad group).",
+                  _TARGETED_REF, _TARGETED, width=22),
+        ColumnDef("negated", "Already negated", "text", "The negative that already blocks the term here, if any.",
+                  _NEGATED_REF, _NEGATED, width=18),
+        ColumnDef("verdict", "Verdict", "label", "promote, block, watch or keep (see the Guide).", _verdict,
+                  '=IF(AND({c:orders}>=min_promote_orders,{c:targeted}="",{c:self}=0),"promote",'
+                  'IF({c:orders}>0,IF(OR({c:targeted}<>"",{c:self}=1),"keep","watch"),IF({c:negated}<>"","keep",'
+                  'IF(OR({c:spend}>={c:p_price}*block_spend_multiple,IF({c:n_zero}="",FALSE,{c:clicks}>={c:n_zero})),'
+                  '"block","watch"))))', width=9),
+        ColumnDef("decision", "Decision", "text_input",
+                  "Input: blank follows the verdict; or type promote, block, watch, keep or skip.",
+                  lambda df, ctx: df["decision"], kind=INPUT, width=9),
+        ColumnDef("final", "Final", "label", "The Decision if typed, else the verdict.", _final,
+                  '=IF({c:decision}="",{c:verdict},LOWER({c:decision}))', width=9),
+        # Working columns, hidden.
+        ColumnDef("first", "Term first row", "int", "Helper: first of the term's rows on in_search_terms.",
+                  lambda df, ctx: df["first"], kind=DATA, width=8, hidden=True),
+        ColumnDef("last", "Term last row", "int", "Helper: last of the term's rows on in_search_terms.",
+                  lambda df, ctx: df["last"], kind=DATA, width=8, hidden=True),
+        ColumnDef("pos", "Position", "int", "Helper: the row's position on this sheet.",
+                  lambda df, ctx: df["pos"], kind=DATA, width=8, hidden=True),
+        ColumnDef("self", "Is its own keyword", "int", "Helper: 1 where the term is the exact keyword it came from.",
+                  lambda df, ctx: df["self"], kind=DATA, width=8, hidden=True),
+        ColumnDef("pid_like", "Looks like a product ID", "int",
+                  "Helper: 1 where the term matches the product identifier pattern.",
+                  lambda df, ctx: df["pid_like"], kind=DATA, width=8, hidden=True),
+        ColumnDef("words", "Words", "int", "Helper: words in the normalised term.", lambda df, ctx: df["words"],
+                  kind=DATA, width=8, hidden=True),
+        ColumnDef("dest_campaign", "Destination campaign", "text", "Helper: where a promoted term goes.",
+                  lambda df, ctx: df["dest_campaign"], kind=DATA, width=12, hidden=True),
+        ColumnDef("dest_ad_group", "Destination ad group", "text", "Helper: where a promoted term goes.",
+                  lambda df, ctx: df["dest_ad_group"], kind=DATA, width=12, hidden=True),
+        ColumnDef("tkey", "Targeted key", "int", "Helper: the number standing for (product, term) on Keys.",
+                  lambda df, ctx: df["tkey"], kind=DATA, width=8, hidden=True),
+        ColumnDef("tpos", "Targeted position", "int", "Working: MATCH of the targeted key on Keys.",
+                  _TPOS_REF, _TPOS, width=8, hidden=True),
+        ColumnDef("nkey", "Negated key", "int", "Helper: the number standing for the negative that applies, on Keys.",
+                  lambda df, ctx: df["nkey"], kind=DATA, width=8, hidden=True),
+        ColumnDef("npos", "Negated position", "int", "Working: MATCH of the negated key on Keys.",
+                  _NPOS_REF, _NPOS, width=8, hidden=True),
+        *group_columns(),
+        target_acos_column(visible=False),
+        ColumnDef("p_price", "Product price", "money", "Working: the product's (or blend's) price.",
+                  *_price_blend()),
+        zero_order_column(),
+        ColumnDef("order_value", "Order value", "money", "Working: ad sales / orders, or the product's order value.",
+                  lambda df, ctx: blank_div(df["ad_sales"], df["orders"]).where(df["orders"] > 0, df["p_aov"]),
+                  '=IF({c:orders}>0,{c:ad_sales}/{c:orders},{c:p_aov})', width=9, hidden=True),
+        ColumnDef("value_bid", "Value bid", "money",
+                  "Working: target ACoS x smoothed CVR x order value, what a click on the term is worth.",
+                  lambda df, ctx: df["target_acos"] * (df["orders"] + ctx.settings.prior_clicks * df["p_cvr"])
+                  / (df["clicks"] + ctx.settings.prior_clicks).where(df["clicks"] + ctx.settings.prior_clicks != 0)
+                  * df["order_value"],
+                  '=IF({c:clicks}+prior_clicks=0,"",{c:target_acos}*({c:orders}+prior_clicks*{c:p_cvr})/'
+                  '({c:clicks}+prior_clicks)*{c:order_value})', width=9, hidden=True),
+        ColumnDef("start_bid", "Starting bid", "money", "Working: the bid a promoted term starts at.",
+                  _start_bid, '=IF(OR({c:cpc}="",{c:value_bid}=""),"",MIN(bid_ceiling,MAX(bid_floor,ROUND('
+                  'IF(starting_bid="cpc",{c:cpc},IF(starting_bid="value",{c:value_bid},MIN({c:cpc},{c:value_bid})))'
+                  '+0.000000001,2))))', width=9, hidden=True),
+        ColumnDef("block_rule", "Block rule", "text", "Working: the rule that proposes blocking the term.",
+                  _block_rule, '=IF({c:verdict}<>"block","your decision",IF({c:spend}>={c:p_price}*'
+                               'block_spend_multiple,"spend reached price x multiple","no orders after "&{c:n_zero}'
+                               '&" clicks"))', width=12, hidden=True),
+        ColumnDef("block_threshold", "Block threshold", "ratio", "Working: the threshold of that rule.",
+                  _block_threshold, '=IF({c:verdict}<>"block","",IF({c:spend}>={c:p_price}*block_spend_multiple,'
+                                    '{c:p_price}*block_spend_multiple,{c:n_zero}))', width=9, hidden=True),
+        ColumnDef("p_cnt", "Promote count", "int", "Working: running count of promoted terms.",
+                  _P_CNT, '=SUM({cp:p_cnt})+IF({c:final}="promote",1,0)', width=8, hidden=True),
+        ColumnDef("p_key", "Promote key", "ratio", "Working: strictly increasing key; MATCH(k) finds the k-th.",
+                  _P_KEY, '={c:p_cnt}+IF({c:final}="promote",0,%s)' % frac, width=8, hidden=True),
+        ColumnDef("b_cnt", "Block count", "int", "Working: running count of blocked terms.",
+                  _B_CNT, '=SUM({cp:b_cnt})+IF({c:final}="block",1,0)', width=8, hidden=True),
+        ColumnDef("b_key", "Block key", "ratio", "Working: strictly increasing key; MATCH(k) finds the k-th.",
+                  _B_KEY, '={c:b_cnt}+IF({c:final}="block",0,%s)' % frac, width=8, hidden=True),
+    ]
+
+
+def _price_blend():
+    """Reference and formula of the blended product price (the block rule's yardstick)."""
+    from .blends import blend, blend_formula
+    return (blend("price", "w_price", lambda ctx: ctx.account_aov),
+            blend_formula("price", "w_price", "{rng:profit_total.prod_aov}"))
+
+
+def _norm_or_blank(value: Any, fold: bool) -> str:
+    return normalise(value, fold) if isinstance(value, str) else ""
+
+
+@dataclass
+class KeyTable:
+    """The numbers standing for (product, term) and negative keys, and what each found key says."""
+
+    ids: dict[tuple, float]
+    found: dict[float, str]
+
+
+def build_keys(terms: pd.DataFrame, targets: pd.DataFrame | None, negatives: pd.DataFrame | None,
+               groups: pd.DataFrame, settings: Settings) -> KeyTable:
+    """Number every key, and record which exist as exact keywords or negatives."""
+    fold = settings.fold_plurals
+    entries: dict[tuple, str] = {}
+    if targets is not None and len(targets):
+        products = groups.groupby(["campaign", "ad_group"])["product_id"].apply(list).to_dict() if len(groups) else {}
+        for t in targets.itertuples():
+            if t.match_type != "exact" or t.state == "archived":
+                continue
+            for product in products.get((t.campaign, t.ad_group), []):
+                entries.setdefault(("T", product, _norm_or_blank(t.target, fold)), f"{t.campaign} / {t.ad_group}")
+    if negatives is not None and len(negatives):
+        for n in negatives.itertuples():
+            level = "ad group" if n.ad_group else "campaign"
+            kind = "NP" if n.match_type == "negative phrase" else "N"
+            text = f"{n.match_type}, {level}" + (f": {n.term}" if kind == "NP" else "")
+            entries.setdefault((kind, n.campaign, n.ad_group or "", _norm_or_blank(n.term, fold)), text)
+    used = set(entries) | set(terms["tkey_t"].dropna()) | set(terms["nkey_t"].dropna())
+    ids = {key: float(i) for i, key in enumerate(sorted(used, key=repr), start=1)}
+    return KeyTable(ids, {ids[k]: v for k, v in entries.items()})
+
+
+def _negative_key(row, phrases: dict, exact: set) -> tuple:
+    """The key of the negative that blocks the term in its ad group, else its ad-group exact key."""
+    for key in (("N", row.campaign, row.ad_group, row.term_key), ("N", row.campaign, "", row.term_key)):
+        if key in exact:
+            return key
+    for scope in ((row.campaign, row.ad_group), (row.campaign, "")):
+        for phrase in phrases.get(scope, ()):
+            if contains_phrase(row.term_key, phrase):
+                return ("NP", scope[0], scope[1], phrase)
+    return ("N", row.campaign, row.ad_group, row.term_key)
+
+
+def term_frame(layout: InputSheet, groups: pd.DataFrame, campaigns: pd.DataFrame | None,
+               negatives: pd.DataFrame | None, settings: Settings) -> pd.DataFrame:
+    """One row per (campaign, ad group, normalised term), with its block on in_search_terms."""
+    st = layout.frame
+    if not len(st):
+        return pd.DataFrame(columns=["campaign", "ad_group", "term_key"])
+    pos = pd.Series(np.arange(1, len(st) + 1, dtype=float), index=st.index)
+    work = st.assign(_pos=pos)
+    g = work.groupby(["campaign", "ad_group", "_term_key"], sort=False)
+    top = work.loc[g["clicks"].idxmax()]  # the row with most clicks (first on ties) names the source
+    frame = pd.DataFrame({
+        "campaign": top["campaign"].to_numpy(), "ad_group": top["ad_group"].to_numpy(),
+        "term_key": top["_term_key"].to_numpy(), "from_target": top["target"].to_numpy(),
+        "from_match": top["match_type"].to_numpy(),
+        "term": g["search_term"].first().to_numpy(), "first": g["_pos"].min().to_numpy(),
+        "last": g["_pos"].max().to_numpy(),
+        **{k: g[k].sum().to_numpy() for k in ("impressions", "clicks", "spend", "ad_sales", "orders")},
+    })
+    for c in ("campaign", "ad_group", "term_key", "from_target", "from_match", "term"):
+        frame[c] = frame[c].astype(object)
+    frame = attach_groups(frame, groups)
+    fold = settings.fold_plurals
+    frame["pos"] = np.arange(1, len(frame) + 1, dtype=float)
+    frame["self"] = [1.0 if m == "exact" and _norm_or_blank(t, fold) == k else 0.0
+                     for m, t, k in zip(frame["from_match"], frame["from_target"], frame["term_key"])]
+    frame["pid_like"] = [1.0 if looks_like_product_id(t, settings.product_id_pattern) else 0.0 for t in frame["term"]]
+    frame["words"] = [float(words(t)) for t in frame["term"]]
+    automatic = set()
+    if campaigns is not None and len(campaigns):
+        automatic = set(campaigns.loc[campaigns["targeting"] == "automatic", "campaign"])
+    dest_c, dest_g = [], []
+    for r in frame.itertuples():
+        product = r.products[0] if r.products else None
+        if product in settings.destinations:
+            c, a = settings.destinations[product]
+        elif r.campaign in automatic or r.from_match == "auto":
+            c, a = "", ""
+        else:
+            c, a = r.campaign, r.ad_group
+        dest_c.append(c)
+        dest_g.append(a)
+    frame["dest_campaign"], frame["dest_ad_group"] = dest_c, dest_g
+    frame["tkey_t"] = [("T", p[0], k) if p else None for p, k in zip(frame["products"], frame["term_key"])]
+    phrases: dict = {}
+    exact: set = set()
+    if negatives is not None and len(negatives):
+        for n in negatives.itertuples():
+            norm = _norm_or_blank(n.term, fold)
+            if n.match_type == "negative phrase":
+                phrases.setdefault((n.campaign, n.ad_group or ""), []).append(norm)
+            else:
+                exact.add(("N", n.campaign, n.ad_group or "", norm))
+    frame["nkey_t"] = [_negative_key(r, phrases, exact) for r in frame.itertuples()]
+    frame["decision"] = None
+    return frame
+
+
+def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, targets: pd.DataFrame | None,
+               campaigns: pd.DataFrame | None, negatives: pd.DataFrame | None, settings: Settings,
+               ranges: dict[str, str]) -> tuple[Sheet, PlannedTable, Sheet, KeyTable]:
+    """The Terms sheet, its reference frame, and the Keys sheet its lookups read."""
+    base = term_frame(layout, groups.frame, campaigns, negatives, settings)
+    keys = build_keys(base, targets, negatives, groups.frame, settings)
+    keys_sheet, key_ranges = plan_keys(keys)
+    base["tkey"] = base["tkey_t"].map(lambda k: keys.ids.get(k, np.nan) if k else np.nan)
+    base["nkey"] = base["nkey_t"].map(lambda k: keys.ids.get(k, np.nan))
+    ctx = TermsContext(settings, groups.frame, float(profit.totals_values["prod_cvr"]),
+                       float(profit.totals_values["prod_aov"]), keys.found)
+    planned = plan_table(_defs(len(base)), base, ctx, HEADER_ROW + 1, {**ranges, **key_ranges}, with_totals=False)
+    keys_list = [d.key for d in _defs(len(base))]
+    n = len(base)
+    first = HEADER_ROW + 1
+    validations = []
+    if n:
+        validations.append(Validation(first, keys_list.index("decision"), {
+            "validate": "list", "source": list(DECISIONS), "ignore_blank": True, "error_title": "Not a decision",
+            "error_message": "Leave blank to follow the verdict, or choose " + ", ".join(DECISIONS) + ".",
+            "input_title": "Decision", "input_message": "Blank = follow the verdict."}, last_row=first + n - 1))
+    col = keys_list.index("verdict")
+    highlights = [Highlight(col, "promote", "Ocean"), Highlight(col, "block", "Plum"), Highlight(col, "watch", "Stone")]
+    col = keys_list.index("final")
+    highlights += [Highlight(col, "promote", "Ocean"), Highlight(col, "block", "Plum")]
+    above = [[Cell("Customer search terms: what to promote, what to block", style="title")],
+             [Cell("Decision aid only: review before changing a live ad account. Type a Decision to override a "
+                   "verdict; the Harvest and Negatives lists follow the Final column.", style="note")]]
+    sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, planned.columns, highlights=highlights),
+                  freeze=(HEADER_ROW + 1, 5), validations=validations, tab_color="#3A2A78")
+    return sheet, planned, keys_sheet, keys
+
+
+def plan_keys(keys: KeyTable) -> tuple[Sheet, dict[str, str]]:
+    """The Keys sheet: found keys sorted by number, with what each says (a lookup table)."""
+    from .formula import range_ref
+    from .spec import Column
+    numbers = sorted(keys.found)
+    columns = [Column("Key", "int", DATA, numbers, width=10),
+               Column("Found", "text", DATA, [keys.found[k] for k in numbers], width=40)]
+    sheet = Sheet(KEYS_SHEET, above=[[Cell("Lookup keys: existing exact keywords and negatives, by number", style="title")]],
+                  table=Table(2, columns), freeze=(3, 0), tab_color="#8C8C8C")
+    first, last = 3, 2 + max(len(numbers), 1)
+    return sheet, {"keys.key": range_ref(KEYS_SHEET, 0, first, last), "keys.found": range_ref(KEYS_SHEET, 1, first, last)}

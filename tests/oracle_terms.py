@@ -1,0 +1,175 @@
+"""An independent reference for the Terms, Harvest and Negatives sheets, written from the
+rules in the README in plain Python loops over the input rows.
+
+It shares with sheetbuilder only the readers' frames and the normalisation functions
+(tested on their own against named examples).
+"""
+from __future__ import annotations
+
+import math
+from collections import defaultdict
+from decimal import ROUND_HALF_UP, Decimal
+
+from sheetbuilder.normalise import contains_phrase, looks_like_product_id, normalise, words
+
+BLANK = None
+
+
+def _round_cents(x):
+    return float(Decimal(f"{x:.15g}").quantize(Decimal("0.01"), rounding=ROUND_HALF_UP))
+
+
+def _account(ads):
+    clicks, orders, sales = defaultdict(float), defaultdict(float), defaultdict(float)
+    for r in ads:
+        clicks[r["product_id"]] += r["clicks"]
+        orders[r["product_id"]] += r["orders"]
+        sales[r["product_id"]] += r["ad_sales"]
+    c, o = sum(clicks.values()), sum(orders.values())
+    cvr = o / c if c else 0.0
+    aov = sum(sales.values()) / o if o else 0.0
+    product_cvr = {p: (orders[p] / clicks[p] if clicks[p] and orders[p] else cvr) for p in clicks}
+    product_aov = {p: (sales[p] / orders[p] if orders[p] else aov) for p in clicks}
+    return cvr, aov, product_cvr, product_aov
+
+
+def terms_oracle(tables, settings, profit_rows, decisions=None):
+    """(terms rows in sheet order, harvest rows, negatives rows); decisions: {position: typed}."""
+    s, fold = settings, settings.fold_plurals
+    ads = tables["ad_products"].to_dict("records")
+    account_cvr, account_aov, p_cvr, p_aov = _account(ads)
+    catalog = {r["product_id"]: r for r in tables["catalog"].to_dict("records")}
+    weights = defaultdict(lambda: defaultdict(float))
+    for r in ads:
+        weights[(r["campaign"], r["ad_group"])][r["product_id"]] += r["spend"]
+
+    def price(p):
+        c = catalog.get(p)
+        return c["price"] if c is not None and c["price"] > 0 else p_aov[p]
+
+    def blend(group, value, fallback):
+        w = weights.get(group)
+        if not w:
+            return fallback
+        total = sum(w.values())
+        if total == 0:
+            return sum(value(p) for p in w) / len(w)
+        return sum(w[p] * value(p) for p in w) / total
+
+    exact_kw = {}
+    targets = tables.get("targets")
+    for t in ([] if targets is None else targets.to_dict("records")):
+        if t["match_type"] == "exact" and t["state"] != "archived":
+            for p in sorted(weights.get((t["campaign"], t["ad_group"]), {})):
+                exact_kw.setdefault((p, normalise(t["target"], fold)), f"{t['campaign']} / {t['ad_group']}")
+    negatives = tables.get("negatives")
+    negs = [] if negatives is None else negatives.to_dict("records")
+    automatic = set()
+    if tables.get("campaigns") is not None:
+        automatic = {c["campaign"] for c in tables["campaigns"].to_dict("records") if c["targeting"] == "automatic"}
+
+    agg = {}
+    for r in tables["search_terms"].to_dict("records"):
+        key = (r["campaign"], r["ad_group"], normalise(r["search_term"], fold))
+        a = agg.setdefault(key, {"term": r["search_term"], "rows": []})
+        a["rows"].append(r)
+    rows = []
+    for pos, key in enumerate(sorted(agg), start=1):
+        campaign, ad_group, norm = key
+        a = agg[key]
+        m = {k: sum(r[k] for r in a["rows"]) for k in ("impressions", "clicks", "spend", "ad_sales", "orders")}
+        top = max(a["rows"], key=lambda r: r["clicks"])  # max keeps the first of equals
+        group = (campaign, ad_group)
+        products = sorted(weights.get(group, {}))
+        label = "" if not products else (products[0] if len(products) == 1 else "shared: " + ", ".join(products))
+        targeted = exact_kw.get((products[0], norm), "") if products else ""
+        negated = ""
+        for n in negs:
+            if n["campaign"] != campaign or n["match_type"] != "negative exact" or n["ad_group"] not in ("", ad_group):
+                continue
+            if normalise(n["term"], fold) == norm:
+                candidate = "negative exact, " + ("ad group" if n["ad_group"] else "campaign")
+                if not negated or n["ad_group"]:
+                    negated = candidate
+        if not negated:
+            for scope in (ad_group, ""):
+                for n in negs:
+                    if (n["campaign"] == campaign and n["match_type"] == "negative phrase" and n["ad_group"] == scope
+                            and contains_phrase(norm, normalise(n["term"], fold))):
+                        negated = f"negative phrase, {'ad group' if scope else 'campaign'}: {n['term']}"
+                        break
+                if negated:
+                    break
+        cvr_p = blend(group, lambda p: p_cvr[p], account_cvr)
+        aov_p = blend(group, lambda p: p_aov[p], account_aov)
+        price_p = blend(group, price, account_aov)
+        target = blend(group, lambda p: profit_rows[p]["Target ACoS"], s.default_target_acos)
+        n0 = (math.ceil(math.log(1 - s.zero_order_confidence) / math.log(1 - cvr_p)) if 0 < cvr_p < 1 else BLANK)
+        own_exact = top["match_type"] == "exact" and normalise(top["target"], fold) == norm
+        spent = m["spend"] >= price_p * s.block_spend_multiple
+        if m["orders"] >= s.min_promote_orders and not targeted and not own_exact:
+            verdict = "promote"
+        elif m["orders"] > 0:
+            verdict = "keep" if targeted or own_exact else "watch"
+        elif negated:
+            verdict = "keep"
+        elif spent or (n0 is not BLANK and m["clicks"] >= n0):
+            verdict = "block"
+        else:
+            verdict = "watch"
+        typed = (decisions or {}).get(pos)
+        final = verdict if not typed else typed.lower()
+        cpc = m["spend"] / m["clicks"] if m["clicks"] else BLANK
+        k = s.prior_clicks
+        order_value = m["ad_sales"] / m["orders"] if m["orders"] > 0 else aov_p
+        value = BLANK if m["clicks"] + k == 0 else target * (m["orders"] + k * cvr_p) / (m["clicks"] + k) * order_value
+        start = BLANK
+        if cpc is not BLANK and value is not BLANK:
+            base = {"cpc": cpc, "value": value}.get(s.starting_bid, min(cpc, value))
+            start = min(s.bid_ceiling, max(s.bid_floor, _round_cents(base)))
+        if campaign in automatic or top["match_type"] == "auto":
+            dest = ("", "")
+        else:
+            dest = (campaign, ad_group)
+        if products and products[0] in s.destinations:
+            dest = s.destinations[products[0]]
+        rows.append({
+            "Campaign": campaign, "Ad group": ad_group, "From target": top["target"],
+            "From match type": top["match_type"], "Search term": a["term"], "Product ID": label, **{
+                "Impressions": m["impressions"], "Clicks": m["clicks"], "Spend": m["spend"],
+                "Ad sales": m["ad_sales"], "Orders": m["orders"]},
+            "CPC": cpc, "CVR": m["orders"] / m["clicks"] if m["clicks"] else BLANK,
+            "ACoS": m["spend"] / m["ad_sales"] if m["ad_sales"] else BLANK,
+            "Already targeted": targeted, "Already negated": negated, "Verdict": verdict, "Final": final,
+            "Position": pos, "Starting bid": start, "Zero-order clicks": n0, "Product price": price_p,
+            "_dest": dest, "_pid_like": looks_like_product_id(a["term"], s.product_id_pattern),
+            "_words": words(a["term"]), "_spent": spent,
+        })
+    harvest, blocked = [], []
+    for r in rows:
+        if r["Final"] == "promote":
+            kind = "product target" if r["_pid_like"] else "keyword"
+            harvest.append({
+                "Number": len(harvest) + 1, "Search term": r["Search term"], "Kind": kind,
+                "Match type": "product" if kind == "product target" else s.harvest_match_type,
+                "Destination campaign": r["_dest"][0], "Destination ad group": r["_dest"][1],
+                "Starting bid": r["Starting bid"],
+                "Negative in source": "negative exact" if s.source_negative == "yes" and r["From match type"] in (
+                    "broad", "phrase", "auto") else "",
+                "Source campaign": r["Campaign"], "Source ad group": r["Ad group"], "Product ID": r["Product ID"],
+                "Orders": r["Orders"], "ACoS": r["ACoS"],
+                "Reason": "choose destination" if not r["_dest"][0] else ""})
+        if r["Final"] == "block":
+            if r["Verdict"] != "block":
+                rule, threshold = "your decision", BLANK
+            elif r["_spent"]:
+                rule, threshold = "spend reached price x multiple", r["Product price"] * s.block_spend_multiple
+            else:
+                rule, threshold = f"no orders after {r['Zero-order clicks']} clicks", r["Zero-order clicks"]
+            blocked.append({
+                "Number": len(blocked) + 1, "Search term": r["Search term"], "Campaign": r["Campaign"],
+                "Ad group": "" if s.negative_level == "campaign" else r["Ad group"], "Level": s.negative_level,
+                "Negative match type": "negative phrase" if r["_words"] < s.phrase_below_words else "negative exact",
+                "Rule": rule, "Threshold": threshold, "Spend": r["Spend"], "Clicks": r["Clicks"],
+                "Product ID": r["Product ID"]})
+    return rows, harvest, blocked
