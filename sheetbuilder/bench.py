@@ -1,8 +1,9 @@
 """Benchmark (not a test): build time, memory and LibreOffice recalculation on synthetic accounts.
 
-    python -m sheetbuilder.bench [--sizes 1000,10000,100000] [--no-libreoffice]
+    python -m sheetbuilder.bench [--sizes 1000,10000,100000] [--terms-ratio 2] [--no-libreoffice]
 
-For each size N (ad rows) it writes a synthetic account as CSV files, then in fresh
+For each size N (ad rows) it writes a synthetic account as CSV files (N ad rows, ~N targets,
+terms-ratio x N search-term rows, a few negatives), then in fresh
 subprocesses (so peak memory is each step's own) times the real build, and a baseline
 that writes the same cells as plain values; then LibreOffice's load-recalculate-save
 of both files. Figures are printed as a table and written to bench_results.json.
@@ -25,10 +26,94 @@ import pandas as pd
 AIMS = ("aims: build <= 2.5x plain write; recalc <= 1.5x values-only load; "
         "10x rows <= 11x time")
 BUILT_ON = dt.date(2026, 12, 2)
+TERMS_RATIO = 2.0  # search-term rows per ad row: 200k at 100k ad rows
+_MOD_BEFORE = np.array(["", "", "", "", "black", "large", "small", "wooden", "metal", "green", "heavy duty", "xl"],
+                       dtype=object)
+_MOD_AFTER = np.array(["", "", "", "", "for garden", "set of 2", "outdoor", "cheap", "free shipping", "with lid",
+                       "kit", "replacement", "near me", "2 pack"], dtype=object)
 
 
-def make_account(folder: Path, n: int, seed: int = 20261202) -> None:
-    """Write a synthetic account of n ad rows (and ~n/20 products) as CSV files into folder."""
+def make_terms(rng, targets: pd.DataFrame, ids: np.ndarray, n_rows: int, metrics
+               ) -> tuple[pd.DataFrame, pd.DataFrame, pd.DataFrame]:
+    """Search-term rows, negatives and a few extra exact targets, all vectorised.
+
+    About 60% of the rows are distinct (campaign, ad group, term); the rest repeat a term
+    of the same ad group, through the same target or another target of that ad group, so
+    rows aggregate. Each term comes through a target of targets (so its ad group advertises
+    products). Keyword terms are the target's text with modifiers (exact targets' terms are
+    often the keyword itself); product-target terms are product IDs. About 7% of rows have
+    orders (~10% of terms), about 4% have no orders and a high spend. The negatives hit
+    some terms (exact, ad group and campaign level; phrase on modifier words), and a few
+    extra exact targets repeat a term's text in its own ad group (Already targeted).
+    """
+    n_rows = max(n_rows, 10)
+    m = len(targets)
+    t_campaign, t_group = targets["campaign"].to_numpy(), targets["ad_group"].to_numpy()
+    t_text, t_match = targets["target"].to_numpy(dtype=object), targets["match_type"].to_numpy(dtype=object)
+    n_slots = max(1, int(round(0.6 * n_rows)))  # the distinct terms
+    slot_t = rng.integers(0, m, n_slots)
+    match = t_match[slot_t]
+    before = _MOD_BEFORE[rng.integers(0, len(_MOD_BEFORE), n_slots)]
+    after = _MOD_AFTER[rng.integers(0, len(_MOD_AFTER), n_slots)]
+    keyword_itself = (match == "exact") & (rng.random(n_slots) < 0.5)
+    before, after = np.where(keyword_itself, "", before), np.where(keyword_itself, "", after)
+    text = pd.Series(before) + " " + pd.Series(t_text[slot_t]) + " " + pd.Series(after)
+    text = text.str.strip().str.replace("  ", " ", regex=False).to_numpy(dtype=object)
+    product_term = np.char.lower(ids[rng.integers(0, len(ids), n_slots)].astype(str)).astype(object)
+    slot_text = np.where(match == "product", product_term, text)
+    # rows: every slot once, then repeats of random slots
+    slot = np.concatenate([np.arange(n_slots), rng.integers(0, n_slots, n_rows - n_slots)])
+    row_t = slot_t[slot]
+    repeat = np.arange(n_rows) >= n_slots
+    codes, _ = pd.factorize(pd.Series(t_campaign) + "\x1f" + pd.Series(t_group))
+    order = np.argsort(codes, kind="stable")
+    counts = np.bincount(codes)
+    starts = np.concatenate([[0], np.cumsum(counts)[:-1]])
+    g = codes[row_t]
+    other = order[starts[g] + (rng.random(n_rows) * counts[g]).astype(int)]  # a target of the same ad group
+    row_t = np.where(repeat & (rng.random(n_rows) < 0.5), other, row_t)
+    u = rng.random(n_rows)
+    sells, costly = u < 0.07, (u >= 0.07) & (u < 0.11)
+    clicks = rng.geometric(0.25, n_rows) - 1
+    orders = np.where(sells, 1 + rng.poisson(0.6, n_rows), 0)
+    clicks = np.where(costly, rng.integers(30, 150, n_rows), np.maximum(clicks, orders))
+    spend = np.round(clicks * np.where(costly, rng.uniform(0.8, 1.6, n_rows), rng.uniform(0.2, 1.5, n_rows)), 2)
+    terms = pd.DataFrame({
+        "campaign": t_campaign[row_t], "ad_group": t_group[row_t], "target": t_text[row_t],
+        "match_type": t_match[row_t], "search_term": slot_text[slot],
+        "impressions": clicks * rng.integers(20, 400, n_rows) + rng.integers(0, 50, n_rows), "clicks": clicks,
+        "spend": spend, "ad_sales": np.round(orders * rng.uniform(8, 120, n_rows), 2), "orders": orders})
+    terms = terms.iloc[rng.permutation(n_rows)].reset_index(drop=True)  # exports are not sorted by term
+    s_campaign, s_group = t_campaign[slot_t], t_group[slot_t]
+    k = max(3, n_slots // 300)
+    exact = rng.choice(n_slots, k, replace=False)
+    camp_exact = rng.choice(n_slots, max(2, k // 3), replace=False)
+    campaigns = pd.unique(t_campaign)
+    phrase_camps = rng.choice(campaigns, max(2, len(campaigns) // 5), replace=False)
+    phrase_words = np.array(["cheap", "free shipping", "near me", "replacement"], dtype=object)
+    phrase_slots = rng.choice(n_slots, max(2, k // 2), replace=False)  # ad-group level phrases
+    negatives = pd.concat([
+        pd.DataFrame({"campaign": s_campaign[exact], "ad_group": s_group[exact], "term": slot_text[exact],
+                      "match_type": "negative exact"}),
+        pd.DataFrame({"campaign": s_campaign[camp_exact], "ad_group": "", "term": slot_text[camp_exact],
+                      "match_type": "negative exact"}),
+        pd.DataFrame({"campaign": phrase_camps, "ad_group": "",
+                      "term": phrase_words[rng.integers(0, len(phrase_words), len(phrase_camps))],
+                      "match_type": "negative phrase"}),
+        pd.DataFrame({"campaign": s_campaign[phrase_slots], "ad_group": s_group[phrase_slots],
+                      "term": _MOD_AFTER[4:][rng.integers(0, len(_MOD_AFTER) - 4, len(phrase_slots))],
+                      "match_type": "negative phrase"}),
+    ], ignore_index=True)
+    keyword_slots = np.flatnonzero((match != "product") & ~keyword_itself)
+    few = rng.choice(keyword_slots, min(len(keyword_slots), max(2, m // 100)), replace=False)
+    extra = pd.DataFrame({"campaign": s_campaign[few], "ad_group": s_group[few], "target": slot_text[few],
+                          "match_type": "exact", "state": "enabled",
+                          "bid": np.round(rng.uniform(0.2, 2, len(few)), 2), **metrics(len(few))})
+    return terms, negatives, extra
+
+
+def make_account(folder: Path, n: int, seed: int = 20261202, terms_ratio: float = TERMS_RATIO) -> None:
+    """Write a synthetic account of n ad rows (~n/20 products, ~n targets, terms_ratio x n search-term rows)."""
     rng = np.random.default_rng(seed)
     folder.mkdir(parents=True, exist_ok=True)
     n_products = max(20, n // 20)
@@ -63,17 +148,15 @@ def make_account(folder: Path, n: int, seed: int = 20261202) -> None:
     m = n  # as many keyword and product targets as ad rows: 100k targets at the largest size
     words = np.array(["cedar bed", "raised planter", "hose reel", "garden gloves", "pruning shears", "seed tray"])
     pick = rng.integers(0, n, m)  # each target sits in an ad group that advertises products
-    camp_m = campaign[pick]
-    pd.DataFrame({"campaign": camp_m, "ad_group": ad_group[pick],
-                  "target": [f"{words[i % len(words)]} {i}" for i in range(m)],
-                  "match_type": np.array(["exact", "phrase", "broad", "product"])[rng.integers(0, 4, m)],
-                  "state": np.where(rng.random(m) < 0.9, "enabled", "paused"),
-                  "bid": np.round(rng.uniform(0.2, 2, m), 2), **metrics(m)}).to_csv(
-        folder / "targets.csv", index=False)
-    m = max(10, n // 20)
-    pd.DataFrame({"campaign": campaign[rng.integers(0, n, m)], "ad_group": "Group 1", "target": words[rng.integers(0, len(words), m)],
-                  "match_type": "broad", "search_term": [f"term {i}" for i in range(m)], **metrics(m)}).to_csv(
-        folder / "search_terms.csv", index=False)
+    targets = pd.DataFrame({"campaign": campaign[pick], "ad_group": ad_group[pick],
+                            "target": [f"{words[i % len(words)]} {i}" for i in range(m)],
+                            "match_type": np.array(["exact", "phrase", "broad", "product"])[rng.integers(0, 4, m)],
+                            "state": np.where(rng.random(m) < 0.9, "enabled", "paused"),
+                            "bid": np.round(rng.uniform(0.2, 2, m), 2), **metrics(m)})
+    terms, negatives, extra = make_terms(rng, targets, ids, int(round(terms_ratio * n)), metrics)
+    pd.concat([targets, extra], ignore_index=True).to_csv(folder / "targets.csv", index=False)
+    terms.to_csv(folder / "search_terms.csv", index=False)
+    negatives.to_csv(folder / "negatives.csv", index=False)
     (folder / "settings.toml").write_text('currency_symbol = "$"\nperiod_days = 30\nperiod_end = 2026-11-29\n')
 
 
@@ -122,8 +205,10 @@ def child_plain(folder: Path, out: Path) -> dict:
     from .palette import STYLES, style_properties
     from .spec import FORMULA
     inputs, settings, problems = load(folder)
-    spec = plan_workbook(inputs, settings, BUILT_ON).spec
+    plan = plan_workbook(inputs, settings, BUILT_ON)
+    spec = plan.spec
     n_formulas = 0
+    by_sheet: dict[str, int] = {}
     t = time.perf_counter()
     wb = xlsxwriter.Workbook(str(out), {"constant_memory": True, "strings_to_formulas": False,
                                         "strings_to_numbers": False, "strings_to_urls": False})
@@ -131,6 +216,7 @@ def child_plain(folder: Path, out: Path) -> dict:
     for sheet in spec.sheets:
         ws = wb.add_worksheet(sheet.name)
         write = _value_writer(ws, formats)
+        before = n_formulas
         table = sheet.table
         if table:
             for i, column in enumerate(table.columns):
@@ -160,9 +246,27 @@ def child_plain(folder: Path, out: Path) -> dict:
             if table.totals:
                 row = rows(row, [table.totals])
         rows(row, sheet.below)
+        by_sheet[sheet.name] = n_formulas - before
     wb.close()
     return {"plain_s": time.perf_counter() - t, "formula_cells": n_formulas,
-            "plain_mb": out.stat().st_size / 2 ** 20, "plain_peak_mb": _peak_mb()}
+            "plain_mb": out.stat().st_size / 2 ** 20, "plain_peak_mb": _peak_mb(),
+            "formulas_by_sheet": {k: v for k, v in by_sheet.items() if v}, **_terms_stats(inputs, plan, settings)}
+
+
+def _terms_stats(inputs, plan, settings) -> dict:
+    """Rows of the search-terms input, the Terms sheet, the lists, and the verdict mix."""
+    st = inputs.get("search_terms")
+    out = {"st_rows": 0 if st is None else len(st), "list_cap": settings.list_cap}
+    for name in ("Terms", "Harvest", "Negatives", "Bids", "Profit", "Groups"):
+        if name in plan.tables:
+            out[f"{name.lower()}_rows"] = len(plan.tables[name].frame)
+    if "Terms" in plan.tables:
+        frame = plan.tables["Terms"].frame
+        out["terms_final"] = {k: int(v) for k, v in frame["final"].value_counts().items()}
+        out["terms_targeted"] = int((frame["targeted"] != "").sum())
+        out["terms_negated"] = int((frame["negated"] != "").sum())
+        out["terms_with_orders"] = int((frame["orders"] > 0).sum())
+    return out
 
 
 def child_micro(n: int) -> dict:
@@ -212,13 +316,13 @@ def _ratio(a, b):
     return a / b if a is not None and b else None
 
 
-def run(sizes: list[int], libreoffice: bool) -> list[dict]:
+def run(sizes: list[int], libreoffice: bool, terms_ratio: float = TERMS_RATIO) -> list[dict]:
     results = []
     with tempfile.TemporaryDirectory(prefix="sb-bench-") as tmp:
         for n in sizes:
             base = Path(tmp) / str(n)
             t = time.perf_counter()
-            make_account(base / "inputs", n)
+            make_account(base / "inputs", n, terms_ratio=terms_ratio)
             row = {"size": n, "generate_s": time.perf_counter() - t}
             formula_xlsx, plain_xlsx = base / "formulas.xlsx", base / "values.xlsx"
             row.update(_child(["build", str(base / "inputs"), str(formula_xlsx)]))
@@ -241,7 +345,8 @@ def _fmt(value, spec: str) -> str:
     return "-" if value is None else format(value, spec)
 
 
-COLUMNS = [("size", "size", "d"), ("formula cells", "formula_cells", "d"), ("build s", "build_s", ".2f"),
+COLUMNS = [("size", "size", "d"), ("term rows", "st_rows", "d"), ("Terms rows", "terms_rows", "d"),
+           ("formula cells", "formula_cells", "d"), ("build s", "build_s", ".2f"),
            ("render s", "render_s", ".2f"), ("plain write s", "plain_s", ".2f"),
            ("build/plain", "build_plain_ratio", ".2f"), ("render/plain", "render_plain_ratio", ".2f"),
            ("peak MB", "peak_mb", ".0f"), ("LO recalc s", "lo_recalc_s", ".2f"),
@@ -251,7 +356,7 @@ COLUMNS = [("size", "size", "d"), ("formula cells", "formula_cells", "d"), ("bui
 
 def report(results: list[dict], micro: dict | None) -> dict:
     """Print the table, the scaling ratios and the micro-benchmark; the JSON document."""
-    table = [[h for h, _, _ in COLUMNS]] + [[_fmt(r[k], s) for _, k, s in COLUMNS] for r in results]
+    table = [[h for h, _, _ in COLUMNS]] + [[_fmt(r.get(k), s) for _, k, s in COLUMNS] for r in results]
     widths = [max(len(line[i]) for line in table) for i in range(len(COLUMNS))]
     for line in table:
         print("  ".join(cell.rjust(w) for cell, w in zip(line, widths)))
@@ -266,6 +371,21 @@ def report(results: list[dict], micro: dict | None) -> dict:
             scaling.append(s)
             print(f"time({big['size']})/time({r['size']}): build {_fmt(s['build'], '.2f')}x, "
                   f"render {_fmt(s['render'], '.2f')}x, LO recalc {_fmt(s['recalc'], '.2f')}x")
+    sheets = list(dict.fromkeys(k for r in results for k in r.get("formulas_by_sheet", {})))
+    if sheets:
+        print("formula cells per sheet:")
+        lines = [["size", *sheets]] + [[str(r["size"]), *(str(r["formulas_by_sheet"].get(k, 0)) for k in sheets)]
+                                       for r in results]
+        widths = [max(len(line[i]) for line in lines) for i in range(len(lines[0]))]
+        for line in lines:
+            print("  " + "  ".join(cell.rjust(w) for cell, w in zip(line, widths)))
+    for r in results:
+        if "terms_rows" in r:
+            print(f"size {r['size']}: {r['st_rows']} search-term rows -> {r['terms_rows']} Terms rows "
+                  f"({r['terms_rows'] / max(r['st_rows'], 1):.0%}); Harvest {r.get('harvest_rows')} and Negatives "
+                  f"{r.get('negatives_rows')} rows (list_cap {r['list_cap']}); final {r['terms_final']}; "
+                  f"with orders {r['terms_with_orders']}, targeted {r['terms_targeted']}, "
+                  f"negated {r['terms_negated']}")
     print(AIMS)
     if micro:
         print(f"formula cells/s at {micro['cells']}: put_formula {micro['put_formula']:,.0f}, "
@@ -278,6 +398,8 @@ def report(results: list[dict], micro: dict | None) -> dict:
 def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser(prog="python -m sheetbuilder.bench", description=__doc__.splitlines()[0])
     ap.add_argument("--sizes", default="1000,10000,100000", help="ad-row counts, comma separated")
+    ap.add_argument("--terms-ratio", type=float, default=TERMS_RATIO,
+                    help="search-term rows per ad row (default %(default)g: 200k at 100k ad rows)")
     ap.add_argument("--no-libreoffice", action="store_true", help="skip the LibreOffice timings")
     ap.add_argument("--micro-cells", type=int, default=200_000, help="formulas in the write-rate micro-benchmark")
     ap.add_argument("--child", nargs="+", help=argparse.SUPPRESS)
@@ -297,7 +419,7 @@ def main(argv: list[str] | None = None) -> int:
         if soffice_path() is None:
             print("LibreOffice not found: skipping its timings", file=sys.stderr)
             libreoffice = False
-    results = run(sizes, libreoffice)
+    results = run(sizes, libreoffice, args.terms_ratio)
     micro = None
     if args.micro_cells > 0:
         micro = {"cells": args.micro_cells, **_child(["micro", str(args.micro_cells)])}

@@ -1,13 +1,16 @@
 """The command line: a thin layer over the library.
 
-    sheetbuilder build INPUTS -o WORKBOOK.xlsx [--force]
+    sheetbuilder build INPUTS -o WORKBOOK.xlsx [--force] [--previous OLD.xlsx]
+    sheetbuilder changes WORKBOOK.xlsx -o changes.csv [--format csv|xlsx] [--force]
 
-Exit codes: 0 built; 2 the inputs have problems (all listed); 1 any other refusal
-(output exists without --force, output would overwrite an input).
+Exit codes: 0 built or written; 2 the inputs have problems (all listed); 1 any other refusal
+(output exists without --force, output would overwrite an input, no Actions sheet);
+3 (changes) some changes were refused and listed, the valid ones were written.
 """
 from __future__ import annotations
 
 import argparse
+import inspect
 import sys
 import time
 from pathlib import Path
@@ -17,11 +20,24 @@ from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
 from rich.table import Table
 
 from . import __version__
+from .carry import carried_summary
+from .changes import export_changes
 from .pipeline import build
 from .errors import ERROR, InputProblems, Problem, SheetbuilderError
 
 EXIT_INPUT = 2
 EXIT_REFUSED = 1
+EXIT_SOME_REFUSED = 3
+
+
+def _run_build(args: argparse.Namespace, progress) -> object:
+    """build(...), passing --previous through when given."""
+    extra = {}
+    if getattr(args, "previous", None) is not None:
+        if "previous" not in inspect.signature(build).parameters:
+            raise SheetbuilderError("--previous is not supported by this version of the build yet")
+        extra["previous"] = args.previous
+    return build(args.inputs, args.output, force=args.force, progress=progress, **extra)
 
 
 def print_problems(console: Console, problems: list[Problem]) -> None:
@@ -47,7 +63,7 @@ def _build(args: argparse.Namespace, console: Console) -> int:
                     tasks[sheet] = bar.add_task(f"writing {sheet}", total=total)
                 bar.update(tasks[sheet], completed=done)
 
-            result = build(args.inputs, args.output, force=args.force, progress=progress)
+            result = _run_build(args, progress)
     else:
         last = {"t": 0.0}
 
@@ -57,14 +73,30 @@ def _build(args: argparse.Namespace, console: Console) -> int:
                 last["t"] = now
                 console.print(f"writing {sheet}: {done}/{total} rows")
 
-        result = build(args.inputs, args.output, force=args.force, progress=progress)
+        result = _run_build(args, progress)
     if result.warnings and not args.quiet:
         print_problems(console, result.warnings)
     if not args.quiet:
         rows = ", ".join(f"{k} {v}" for k, v in result.rows.items())
         console.print(f"wrote {result.output} ({rows} rows) in {time.perf_counter() - started:.1f} s")
         console.print("Decision aid only: review before changing a live ad account. Not financial or tax advice.")
+    carry = getattr(result, "carry", None)  # the CarryResult when --previous was given
+    if carry is not None and not args.quiet:
+        console.print(carried_summary(carry))
     return 0
+
+
+def _changes(args: argparse.Namespace, console: Console) -> int:
+    """Export the Actions sheet's changes; list every refused one with its row."""
+    result = export_changes(args.workbook, args.output, fmt=args.format, force=args.force)
+    if result.recalculated:
+        console.print(f"{args.workbook} held no formula values (saved by a program that does not store them); "
+                      "recalculated them with the formulas library")
+    if result.problems:
+        console.print(f"[bold]{len(result.refused)} change(s) refused, not written:[/bold]")
+        print_problems(console, result.problems)
+    console.print(f"wrote {result.written} change(s) to {result.output}")
+    return EXIT_SOME_REFUSED if result.problems else 0
 
 
 def parser() -> argparse.ArgumentParser:
@@ -80,7 +112,24 @@ def parser() -> argparse.ArgumentParser:
     b.add_argument("-o", "--output", type=Path, required=True, help="the .xlsx file to write")
     b.add_argument("--force", action="store_true", help="overwrite the output if it exists")
     b.add_argument("-q", "--quiet", action="store_true", help="print only problems")
+    b.add_argument("--previous", type=Path, default=None, metavar="OLD.xlsx",
+                   help="last week's workbook: carry its settings, costs, targets and Decisions into this one "
+                        "(it is only read); edits that no longer match a row are listed on an Unmatched edits sheet")
     b.set_defaults(run=_build)
+    ch = sub.add_parser("changes", help="export the changes on a workbook's Actions sheet as CSV or .xlsx",
+                        description="Read WORKBOOK (edited and saved by you) and write one row per change on its "
+                                    "Actions sheet: kind, campaign, ad_group, target_or_term, match_type, current, "
+                                    "new, reason. Inconsistent changes (a bid outside the bid floor and ceiling, a "
+                                    "New that is not a positive number, an added keyword without a destination or "
+                                    "in an unknown campaign) are listed with their row and not written. Exit codes: "
+                                    "0 every change written; 3 some refused (the valid ones are written); 1 nothing "
+                                    "written (missing workbook, no Actions sheet, output exists without --force).")
+    ch.add_argument("workbook", type=Path, help="the edited .xlsx workbook")
+    ch.add_argument("-o", "--output", type=Path, required=True, help="the file to write (.csv, or .xlsx with --format xlsx)")
+    ch.add_argument("--format", choices=("csv", "xlsx"), default="csv", help="csv (default; text escaped against "
+                    "formula injection) or xlsx (text written as text)")
+    ch.add_argument("--force", action="store_true", help="overwrite the output if it exists")
+    ch.set_defaults(run=_changes)
     return p
 
 

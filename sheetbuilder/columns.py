@@ -93,6 +93,22 @@ def compute_order(defs: list[ColumnDef]) -> list[ColumnDef]:
     return order
 
 
+_ROW_VALUE = re.compile(r"\{row:(\w+)\}")
+
+
+def _per_row(formula: str, frame: pd.DataFrame) -> list[str]:
+    """One formula per row, each {row:key} replaced by that row's whole number from the frame."""
+    keys = _ROW_VALUE.findall(formula)
+    columns = {k: frame[k].to_numpy() for k in keys}
+    out = []
+    for i in range(len(frame)):
+        text = formula
+        for k in keys:
+            text = text.replace("{row:%s}" % k, str(int(columns[k][i])))
+        out.append(text)
+    return out
+
+
 @dataclass
 class PlannedTable:
     """The result of planning a table: spec columns, totals cells and the reference frame."""
@@ -129,7 +145,7 @@ def plan_table(defs: list[ColumnDef], base: pd.DataFrame, ctx: Any, first_body_r
         "c": {k: f"{v}{{r}}" for k, v in letters.items()},
         "rng": ranges,
         "tot": {k: f"${v}${totals_row + 1}" for k, v in letters.items()},
-        "sum": {k: f"SUM({v}{first_body_row + 1}:{v}{max(totals_row, first_body_row + 1)})" for k, v in letters.items()},
+        "sum": {k: (f"SUM({v}{first_body_row + 1}:{v}{totals_row})" if n else "0") for k, v in letters.items()},
         "t": {k: f"{v}{totals_row + 1}" for k, v in letters.items()},
         "cp": {k: f"{v}{{p}}" for k, v in letters.items()},
     }
@@ -144,6 +160,8 @@ def plan_table(defs: list[ColumnDef], base: pd.DataFrame, ctx: Any, first_body_r
             totals_values[d.key] = d.total_reference(frame, ctx)
     for d in defs:
         formula = resolve(d.formula, lookup) if d.formula else None
+        if formula and "{row:" in formula:  # per-row numbers written into the formula (a direct reference)
+            formula = _per_row(formula, frame)
         columns.append(Column(d.header, d.style, d.kind if d.formula is None else FORMULA,
                               as_cell_values(frame[d.key]), formula, d.width, d.hidden))
     totals = None

@@ -68,6 +68,8 @@ def resolve(template: str, lookup: dict[str, dict[str, str]]) -> str:
     """
     def sub(match: re.Match) -> str:
         kind, key = match.group(1), match.group(2)
+        if kind == "row":  # filled per row by the planner
+            return match.group(0)
         try:
             return lookup[kind][key]
         except KeyError:

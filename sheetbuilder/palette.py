@@ -52,6 +52,7 @@ STYLES: dict[str, dict] = {
     "note": {"italic": True, "font_color": "#4D4D4D", "text_wrap": False},
     "wrap": {"text_wrap": True},
     "warning": {"bold": True, "font_color": "#5A3A00", "bg_color": WARNING_FILL},
+    "alert": {"bold": True, "font_color": "#7A3E00"},
     "header": {"bold": True, "bg_color": HEADER_FILL, "bottom": 1, "text_wrap": True, "valign": "bottom"},
     "legend_header": {"bold": True},
     "label": {"indent": 1},
@@ -62,6 +63,7 @@ for _name, _fmt in NUMBER_FORMATS.items():
     STYLES[_name] = dict(_num)
     STYLES[_name + "_input"] = {**_num, **_INPUT}
     STYLES[_name + "_total"] = {**_num, **_TOTAL}
+    STYLES[_name + "_left"] = {**_num, "align": "left", "bold": True}
 for _state in STATES.values():
     STYLES["state_" + _state.name] = {"bg_color": _state.fill, "font_color": _state.font}
 

@@ -13,8 +13,11 @@ from .columns import PlannedTable
 from .errors import ERROR, WARNING, InputProblems, OutputExists, Problem, SheetbuilderError, UnsafeOutput
 from .plan_bids import DEFS as BIDS_DEFS, plan_bids
 from .plan_groups import DEFS as GROUPS_DEFS, plan_groups
+from .plan_dashboard import dashboard
 from .plan_guide import plan_guide
+from .plan_budget import CAMPAIGN_DEFS, PRODUCT_DEFS as BUDGET_DEFS, plan_budget
 from .plan_lists import HARVEST, NEGATIVES, plan_list
+from .plan_mix import MATCH_DEFS, TYPE_DEFS as MIX_DEFS, plan_mix
 from .plan_terms import _defs as TERMS_DEFS, plan_terms
 from .plan_inputs import plan_input_sheets
 from .plan_profit import DEFS as PROFIT_DEFS, plan_profit
@@ -86,13 +89,27 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
             sections.append((f"{spec.sheet} columns", spec.defs))
         sections.insert(-2, ("Terms columns", TERMS_DEFS(0)))
         after.append(keys_sheet)
+    mix_sheet, mix_tables = plan_mix(layouts.get("ad_products"), layouts.get("targets"), profit, settings, ranges)
+    sheets.append(mix_sheet)
+    tables.update(mix_tables)
+    sections.append(("Mix columns", MIX_DEFS + [d for d in MATCH_DEFS if d.key not in {x.key for x in MIX_DEFS}]))
+    budget_sheet, budget_tables = plan_budget(profit, layouts.get("campaigns"), layouts.get("ad_products"), settings,
+                                              ranges)
+    sheets.append(budget_sheet)
+    tables.update(budget_tables)
+    sections.append(("Budget columns", BUDGET_DEFS + [d for d in CAMPAIGN_DEFS if d.key not in
+                                                      {x.key for x in BUDGET_DEFS}]))
     if "targets" in layouts or "search_terms" in layouts:
         sheets.append(groups_sheet)
         tables["Groups"] = groups
         sections.append(("Groups columns", GROUPS_DEFS))
     sheets += after
+    if "Bids" in tables:
+        ranges.update(tables["Bids"].ranges("Bids", "bids"))
+    shifted = budget_sheet.above[2][1]
+    figures = dashboard(tables, ranges, ("Budget!$B$3", shifted.value))
     sources = {k: v.name for k, v in inputs.sources.items()}
-    guide = plan_guide(settings, built_on, sections, warnings or [], inputs.checksums, sources)
+    guide = plan_guide(settings, built_on, sections, warnings or [], inputs.checksums, sources, figures)
     spec = WorkbookSpec([guide, *sheets, *input_sheets], names, settings.currency_symbol)
     return Plan(spec, tables)
 

@@ -206,6 +206,9 @@ DEFS: list[ColumnDef] = [
               '=IF({c:decision}="",{c:proposed},IF(ISNUMBER({c:decision}),{c:decision},'
               'IF({c:decision}="keep",{c:bid},{c:proposed})))', width=9),
     # Working columns, hidden: row positions as data, then the steps of the method.
+    ColumnDef("moves", "Moves", "int", "Working: 1 where the proposal changes the bid (for the dashboard).",
+              lambda df, ctx: (df["proposed"] != df["bid"]).astype(float), '=IF({c:proposed}<>{c:bid},1,0)',
+              width=6, hidden=True),
     ColumnDef("trow", "Target row", "int", "Helper: the target's position on in_targets.",
               lambda df, ctx: df["trow"], kind=DATA, width=8, hidden=True),
     *group_columns(),

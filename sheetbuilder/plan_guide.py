@@ -21,7 +21,12 @@ SHEETS_TEXT = [
                "a direction for its ad spend."),
     ("Bids", "A proposed bid for every enabled keyword and product target in an enabled campaign, grouped by "
              "product, with the rule that decided it. Type a bid or 'keep' in Decision; Final bid applies it."),
+    ("Terms", "Every customer search term per campaign and ad group, with a live verdict: promote, block, watch "
+              "or keep. Type a Decision (promote, block, watch, keep or skip) to override it."),
+    ("Harvest", "The terms whose Final is promote: what to add, as which match type, where, at what starting bid."),
+    ("Negatives", "The terms whose Final is block: the negative to add, its level and match type, and the rule."),
     ("Groups", "Which products each ad group advertises, and the spend weights used where it advertises several."),
+    ("Keys", "A lookup table: existing exact keywords and negatives, by number (the Terms sheet looks them up)."),
     ("in_ sheets", "The rows of your exports as read, sorted by product. Catalog prices, costs, fees, "
                    "margins and target ACoS are inputs you may correct there."),
 ]
@@ -32,7 +37,8 @@ STEPS = [
     "3. Correct any unit cost, fee or price on in_catalog, or a threshold on Settings: everything recalculates.",
     "4. On Bids, review the proposed bids; type a bid or 'keep' in Decision where you disagree.",
     "5. Raise or lower a product's target ACoS in 'Your target ACoS' on Profit: its bids follow.",
-    "6. The proposals are starting points, not orders: check them before changing your ad account.",
+    "6. On Terms, check the verdicts; Harvest lists the terms to add, Negatives the terms to block.",
+    "7. The proposals are starting points, not orders: check them before changing your ad account.",
 ]
 
 BID_METHOD = [
@@ -54,6 +60,22 @@ BID_METHOD = [
     "CVR and ACoS, the zero-order clicks, the rule number 1-10 and the unrounded bid).",
 ]
 
+TERMS_METHOD = [
+    "Terms are compared after Unicode NFKC normalisation, case folding, trimming and collapsing whitespace "
+    "(plural folding is an option in settings.toml).",
+    "promote: at least the minimum orders (Settings), not yet an exact keyword for the same product, and not "
+    "the very exact keyword it came from.",
+    "block: no orders, and spend of at least the product's price x the multiple on Settings (the trade's rule "
+    "of thumb: a term that spent the price of the product without a sale is suspect; common practice), or at "
+    "least the zero-order clicks of the bid plan.",
+    "watch: no orders under both thresholds, or orders below the minimum. keep: selling and already an exact "
+    "keyword, or already negated.",
+    "Harvest and Negatives are live lists: change a threshold or type a Decision and they re-fill themselves, "
+    "in Terms order. A term that looks like a product identifier (the pattern in settings.toml) is proposed as "
+    "a product target. Promoted terms from automatic campaigns need a destination: name one per product under "
+    "[destinations] in settings.toml, or choose one.",
+]
+
 SOURCES = [
     "TACoS, ACoS, break-even ACoS, net margin after ads: definitions in common use in the trade (no single source).",
     "Thin margin below 8% and strong margin from 20%: the trade's rules of thumb (common practice, no source); "
@@ -66,6 +88,9 @@ SOURCES = [
     "conversion rates; its posterior mean is (orders + k p) / (clicks + k).",
     "Zero-order threshold: the binomial chance of no orders in n clicks, (1 - p)^n; at 95% it is close to the "
     "rule of three, n = 3 / p (J. A. Hanley and A. Lippman-Hand, JAMA 249, 1983).",
+    "Text normalisation: Unicode Standard Annex #15 (NFKC) and Unicode default case folding.",
+    "Text is data: imported text is always written as text, never as a formula; CSV files sheetbuilder writes "
+    "escape cells that begin with = + - @, tab or carriage return (OWASP, 'CSV Injection').",
     "Cell and sheet limits: Microsoft, 'Excel specifications and limits' (32,767 characters per cell, "
     "1,048,576 rows per sheet).",
 ]
@@ -79,8 +104,9 @@ def _column_rows(title: str, defs: list[ColumnDef]) -> list[list[Cell | None]]:
 
 
 def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tuple[str, list[ColumnDef]]],
-               warnings: list[Problem], checksums: dict[str, str], sources: dict[str, str]) -> Sheet:
-    """The Guide sheet."""
+               warnings: list[Problem], checksums: dict[str, str], sources: dict[str, str],
+               figures: list | None = None) -> Sheet:
+    """The Guide sheet, with the dashboard's live figures at the top."""
     rows: list[list[Cell | None]] = [
         [Cell("sheetbuilder: profit after ads, bids, and where ad spend goes", style="title")],
         [Cell("This workbook turns your store-sales and sponsored-ad exports and your unit costs into live "
@@ -90,7 +116,10 @@ def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tupl
               "is changed in an ad account; check every proposal against what you know of your business.",
               style="warning")],
         [Cell("Data freshness", style="subtitle"),
-         Cell(warning_value(settings, built_on), warning_formula(), "warning")],
+         Cell(warning_value(settings, built_on), warning_formula(), "alert")],
+        [None],
+        [Cell("Key figures", style="subtitle"), Cell("Live: they follow every change you make.", style="note")],
+        *[[Cell(f.label), Cell(f.value, f.formula, f.style + "_left")] for f in (figures or [])],
         [None],
         [Cell("How to use it", style="subtitle")],
         *[[None, Cell(step, style="wrap")] for step in STEPS],
@@ -108,6 +137,8 @@ def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tupl
     rows.append([Cell(0, style="money_input", kind=INPUT), Cell("Cream with blue text: an input cell you may change.")])
     rows += [[None], [Cell("How the bid plan works", style="subtitle")]]
     rows += [[None, Cell(line, style="wrap")] for line in BID_METHOD]
+    rows += [[None], [Cell("How search terms are judged", style="subtitle")]]
+    rows += [[None, Cell(line, style="wrap")] for line in TERMS_METHOD]
     rows += [[None], [Cell("Method and sources", style="subtitle")]]
     rows += [[None, Cell(s, style="wrap")] for s in SOURCES]
     if warnings:

@@ -22,7 +22,46 @@ SORT_KEYS = {
     "store_sales": ["product_id", "_row"],
     "ad_products": ["product_id", "campaign", "ad_group", "_row"],
     "search_terms": ["campaign", "ad_group", "_term_key", "_row"],
+    "targets": ["_product", "_match_order", "campaign", "ad_group", "_row"],
 }
+MATCH_ORDER = {m: i for i, m in enumerate(c.MATCH_TYPES)}
+# Derived columns written after the imported ones: (table, column, header, what it holds).
+DERIVED = {
+    "ad_products": [("_type_code", "ad_type_code", "Helper: a number per ad type, for the Mix sheet's sums.")],
+    "targets": [("_live", "live", "Helper: 1 where the target and its campaign are enabled."),
+                ("_product", "product", "Helper: the first product its ad group advertises.")],
+}
+
+
+def ad_type_codes(ad_products: pd.DataFrame | None) -> dict[str, int]:
+    """A number per ad type label (folded for case and spacing), in label order."""
+    if ad_products is None:
+        return {}
+    labels = sorted({c.header_key(t) for t in ad_products["ad_type"]})
+    return {label: i for i, label in enumerate(labels, start=1)}
+
+
+def _derive(name: str, frame: pd.DataFrame, inputs: Inputs, fold_plurals: bool) -> pd.DataFrame:
+    """The frame with the helper columns its sheet and the planners need."""
+    if name == "search_terms":
+        return frame.assign(_term_key=[normalise(t, fold_plurals) for t in frame["search_term"]])
+    if name == "ad_products":
+        codes = ad_type_codes(frame)
+        return frame.assign(_type_code=[float(codes[c.header_key(t)]) for t in frame["ad_type"]])
+    if name == "targets":
+        ads = inputs.get("ad_products")
+        first: dict = {}
+        if ads is not None and len(ads):
+            first = ads.groupby(["campaign", "ad_group"])["product_id"].min().to_dict()
+        live = frame["state"] == "enabled"
+        campaigns = inputs.get("campaigns")
+        if campaigns is not None and len(campaigns):
+            state = campaigns.drop_duplicates("campaign").set_index("campaign")["state"]
+            live &= frame["campaign"].map(state).fillna("enabled") == "enabled"
+        return frame.assign(
+            _product=[first.get((a, b), "") for a, b in zip(frame["campaign"], frame["ad_group"])],
+            _match_order=frame["match_type"].map(MATCH_ORDER), _live=live.astype(float))
+    return frame
 _STYLE = {c.TEXT: "text", c.COUNT: "int", c.MONEY: "money", c.PERCENT: "percent", c.AMOUNT: "money"}
 _WIDTH = {c.TEXT: 18, c.COUNT: 11, c.MONEY: 12, c.PERCENT: 11, c.AMOUNT: 11}
 
@@ -66,9 +105,7 @@ def plan_input_sheets(inputs: Inputs, fold_plurals: bool = False) -> tuple[list[
         frame = inputs.get(rule.name)
         if frame is None:
             continue
-        if rule.name == "search_terms":
-            frame = frame.assign(_term_key=[normalise(t, fold_plurals) for t in frame["search_term"]])
-        frame = sorted_rows(rule.name, frame)
+        frame = sorted_rows(rule.name, _derive(rule.name, frame, inputs, fold_plurals))
         name = sheet_name(rule.name)
         editable = EDITABLE.get(rule.name, set())
         columns = []
@@ -81,6 +118,10 @@ def plan_input_sheets(inputs: Inputs, fold_plurals: bool = False) -> tuple[list[
             values = frame[col.name].tolist()
             columns.append(Column(col.name, style, kind, values, width=_WIDTH.get(col.kind, 14)))
             ranges[col.name] = range_ref(name, i, HEADER_ROW + 1, HEADER_ROW + len(frame))
+        for column, header, _ in DERIVED.get(rule.name, []):
+            ranges[header] = range_ref(name, len(columns), HEADER_ROW + 1, HEADER_ROW + len(frame))
+            style = "text" if frame[column].dtype == object else "int"
+            columns.append(Column(header, style, DATA, frame[column].tolist(), width=10))
         columns.append(Column("source_row", "int", DATA, frame["_row"].tolist(), width=10))
         sheets.append(Sheet(name, table=Table(HEADER_ROW, columns), freeze=(1, 0), tab_color="#8C8C8C"))
         layouts[rule.name] = InputSheet(rule.name, name, frame, ranges)

@@ -70,7 +70,7 @@ def _pos_column(word: str) -> ColumnDef:
 
 def _k_column() -> ColumnDef:
     return ColumnDef("k", "Number", "int", "The row's number in the list.", lambda df, ctx: df["k"], kind=DATA,
-                     width=6)
+                     width=8)
 
 
 def _kind(r, s):
@@ -103,7 +103,7 @@ HARVEST_DEFS: list[ColumnDef] = [
     ColumnDef("dest_ad_group", "Destination ad group", "text", "As the destination campaign.",
               *reversed(_pick("dest_ad_group", text=True)), width=16),
     ColumnDef("start_bid", "Starting bid", "money", "The lower of the term's CPC and its value bid (Settings).",
-              *reversed(_pick("start_bid")), width=9),
+              *reversed(_pick("start_bid")), width=10),
     ColumnDef("source_negative", "Negative in source", "text",
               "A negative exact to add in the source ad group so the new keyword does not compete with it.",
               *_derived(_source_negative, '=IF({c:pos}="","",IF(AND(source_negative="yes",OR({c:src_match}="broad",'
@@ -189,7 +189,7 @@ def plan_list(spec: ListSpec, terms: PlannedTable, settings: Settings, ranges: d
     note_formula = (f'=IF({total_ref}>{n_rows},"Showing the first {n_rows} of "&{total_ref}&" {spec.noun}; '
                     f'raise list_cap in settings.toml and rebuild to see them all.","")')
     above = [[Cell(spec.title, style="title")],
-             [Cell(note, note_formula, "warning")]]
+             [Cell(note, note_formula, "alert")]]
     sheet = Sheet(spec.sheet, above=above, table=Table(HEADER_ROW, planned.columns), freeze=(HEADER_ROW + 1, 2),
                   tab_color="#063F63" if spec.word == "promote" else "#5E1F4E")
     return sheet, planned

@@ -321,8 +321,7 @@ def plan_profit(inputs: Inputs, layouts: dict[str, InputSheet], settings: Settin
     above = [
         [Cell("Profit after ads, per product", style="title")],
         [Cell(CAUTION, style="note")],
-        [Cell(warning_value(settings, built_on), warning_formula(), "warning"),
-         *[Cell(None, style="warning") for _ in range(17)]],
+        [Cell(warning_value(settings, built_on), warning_formula(), "alert")],
     ]
     sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, planned.columns, planned.totals, highlights),
                   freeze=(HEADER_ROW + 1, 2), tab_color="#0B5C8A")

@@ -20,7 +20,7 @@ from xlsxwriter.xmlwriter import XMLwriter
 
 from .formula import check_portable
 from .palette import STATES, STYLES, style_properties
-from .spec import FORMULA, Cell, Sheet, WorkbookSpec
+from .spec import FORMULA, Cell, Chart, Sheet, Table, WorkbookSpec
 
 CELL_TEXT_LIMIT = 32_767  # Microsoft, "Excel specifications and limits": characters in a cell
 TRUNCATION_MARK = " [cut: longer than a cell holds]"
@@ -131,61 +131,103 @@ def _write_rows(ws, first: int, rows: list[list[Cell | None]], formats: dict) ->
     return first + len(rows)
 
 
-def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress: Progress | None) -> None:
-    """Write one sheet: widths, rows above, the table, rows below, then its settings."""
-    ws = wb.add_worksheet(sheet.name)
-    table = sheet.table
+def _write_table(ws, table: Table, row: int, formats: dict, state_formats: dict, progress: Progress | None,
+                 sheet_name: str, first: bool) -> int:
+    """Write a table's title, header, body and totals from its first row; return the next free row."""
+    row = max(row, table.first_row)
+    if table.title:
+        ws.write_string(row - 1, 0, table.title, formats["subtitle"])
+    for col, column in enumerate(table.columns):
+        numeric = column.style.split("_")[0] in ("int", "money", "percent", "ratio")
+        ws.write_string(row, col, column.header, formats["header_num" if numeric else "header"])
+    ws.set_row(row, 30)
+    row += 1
+    columns = [(col, c, formats[c.style], c.formula, c.values) for col, c in enumerate(table.columns)]
+    for _, c, _, formula, _ in columns:
+        for text in ([formula] if isinstance(formula, str) else formula or []):
+            check_portable(text)
+    n = table.n_rows
+    step = max(1, n // 50)
+    for i in range(n):
+        r = row + i
+        rs, ps = str(r + 1), str(r)
+        for col, c, fmt, formula, values in columns:
+            if c.kind == FORMULA:
+                text = (formula[i] if isinstance(formula, list) else formula).replace("{r}", rs)
+                if "{p}" in text:  # the previous row, for running counts
+                    text = text.replace("{p}", ps)
+                put_formula(ws, r, col, text, fmt, _cached(values[i]))
+            else:
+                put_value(ws, r, col, values[i], fmt)
+        if progress and (i % step == 0 or i == n - 1):
+            progress(sheet_name, i + 1, n)
+    if table.autofilter and first:
+        ws.autofilter(table.first_row, 0, table.first_row + max(n, 1), len(table.columns) - 1)
+    for h in table.highlights:
+        if n:
+            rule = ({"type": "text", "criteria": "begins with", "value": h.text} if h.begins else
+                    {"type": "cell", "criteria": "==", "value": '"' + h.text + '"'})
+            ws.conditional_format(row, h.column, row + n - 1, h.column, {**rule, "format": state_formats[h.state]})
+    row += n
+    if table.totals:
+        for col, cell in enumerate(table.totals):
+            _put_cell(ws, row, col, cell, formats)
+        row += 1
+    return row
+
+
+def _widths(sheet: Sheet) -> tuple[dict[int, float], set[int]]:
+    """Column widths (the widest any table asks for) and the columns every table hides."""
     widths = dict(sheet.widths)
+    tables = [t for t in [sheet.table, *sheet.more] if t]
+    asked: dict[int, float] = {}
+    shown: set[int] = set()
     hidden: set[int] = set()
-    if table:
-        for i, column in enumerate(table.columns):
-            widths.setdefault(i, column.width)
-            if column.hidden:
-                hidden.add(i)
+    for t in tables:
+        for i, column in enumerate(t.columns):
+            asked[i] = max(asked.get(i, 0), column.width)
+            (hidden if column.hidden else shown).add(i)
+    for i, w in asked.items():
+        widths.setdefault(i, w)
+    return widths, hidden - shown
+
+
+def _add_chart(wb, ws, chart: Chart) -> None:
+    """Insert one native chart built from its spec."""
+    c = wb.add_chart({"type": chart.kind})
+    for s in chart.series:
+        c.add_series({"name": s.name, "categories": s.categories, "values": s.values,
+                      "fill": {"color": s.color}, "border": {"color": s.color}, "gap": 80})
+    c.set_title({"name": chart.title, "name_font": {"size": 11, "bold": True}})
+    value_axis = {"name": chart.y_title, "num_format": "0%" if chart.percent else "General",
+                  "major_gridlines": {"visible": True, "line": {"color": "#D9D9D9"}}}
+    category_axis = {"name": chart.x_title}
+    if chart.kind == "bar":  # horizontal bars: the value axis is x
+        c.set_x_axis({**value_axis, "name": chart.x_title})
+        c.set_y_axis({**category_axis, "name": chart.y_title, "reverse": True})
+    else:
+        c.set_x_axis(category_axis)
+        c.set_y_axis(value_axis)
+    c.set_legend({"position": "bottom"})
+    c.set_size({"width": chart.size[0], "height": chart.size[1]})
+    ws.insert_chart(chart.anchor[0], chart.anchor[1], c, {"object_position": 1})
+
+
+def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress: Progress | None) -> None:
+    """Write one sheet: widths, rows above, its tables, rows below, charts, then its settings."""
+    ws = wb.add_worksheet(sheet.name)
+    widths, hidden = _widths(sheet)
     for col, width in sorted(widths.items()):
         ws.set_column(col, col, width, None, {"hidden": col in hidden})
     row = _write_rows(ws, 0, sheet.above, formats)
-    if table:
-        row = max(row, table.first_row)
-        for col, column in enumerate(table.columns):
-            numeric = column.style.split("_")[0] in ("int", "money", "percent", "ratio")
-            ws.write_string(row, col, column.header, formats["header_num" if numeric else "header"])
-        ws.set_row(row, 30)
-        row += 1
-        columns = [(col, c, formats[c.style], c.formula, c.values) for col, c in enumerate(table.columns)]
-        for _, c, _, formula, _ in columns:
-            if formula:
-                check_portable(formula)
-        n = table.n_rows
-        step = max(1, n // 50)
-        for i in range(n):
-            r = row + i
-            rs, ps = str(r + 1), str(r)
-            for col, c, fmt, formula, values in columns:
-                if c.kind == FORMULA:
-                    text = formula.replace("{r}", rs)
-                    if "{p}" in text:  # the previous row, for running counts
-                        text = text.replace("{p}", ps)
-                    put_formula(ws, r, col, text, fmt, _cached(values[i]))
-                else:
-                    put_value(ws, r, col, values[i], fmt)
-            if progress and (i % step == 0 or i == n - 1):
-                progress(sheet.name, i + 1, n)
-        if table.autofilter:
-            ws.autofilter(table.first_row, 0, table.first_row + max(n, 1), len(table.columns) - 1)
-        for h in table.highlights:
-            if n:
-                rule = ({"type": "text", "criteria": "begins with", "value": h.text} if h.begins else
-                        {"type": "cell", "criteria": "==", "value": '"' + h.text + '"'})
-                ws.conditional_format(row, h.column, row + n - 1, h.column,
-                                      {**rule, "format": state_formats[h.state]})
-        row += n
-        if table.totals:
-            for col, cell in enumerate(table.totals):
-                _put_cell(ws, row, col, cell, formats)
-            row += 1
-        ws.repeat_rows(table.first_row)
+    if sheet.table:
+        row = _write_table(ws, sheet.table, row, formats, state_formats, progress, sheet.name, True)
+        ws.repeat_rows(sheet.table.first_row)
+    for table in sheet.more:
+        row = _write_table(ws, table, row, formats, state_formats, progress, sheet.name, False)
     _write_rows(ws, row, sheet.below, formats)
+    for chart in sheet.charts:
+        _add_chart(wb, ws, chart)
     for v in sheet.validations:
         ws.data_validation(v.row, v.col, v.row if v.last_row is None else v.last_row, v.col, dict(v.options))
     if sheet.freeze:
@@ -201,7 +243,7 @@ def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress:
     if sheet.hidden:
         ws.hide()
     ws.protect("", {"autofilter": True, "sort": True, "format_columns": True, "format_rows": True,
-                    "select_locked_cells": True, "select_unlocked_cells": True})
+                    "select_locked_cells": True, "select_unlocked_cells": True, "objects": True})
 
 
 def render(spec: WorkbookSpec, path: Path, progress: Progress | None = None) -> None:

@@ -91,6 +91,13 @@ SETTINGS: tuple[SettingSpec, ...] = (
     SettingSpec("phrase_below_words", "Negative phrase below (words)", 0, "int",
                 "Terms with fewer words than this are blocked as negative phrase, others as negative exact "
                 "(0: always negative exact).", 0, 20),
+    SettingSpec("mix_margin", "Match-type margin (points)", 0.05, "percent",
+                "A match type whose ACoS is this far above (or below) the product's other match types reads trim "
+                "(or expand).", 0.0, 1.0),
+    SettingSpec("budget_shift_share", "Budget shift share", 0.25, "percent",
+                "The share of the spend of products to cut that moves to products to grow.", 0.0, 1.0),
+    SettingSpec("max_budget_change", "Maximum budget change", 0.30, "percent",
+                "The most a campaign's daily budget changes in one run.", 0.0, 5.0),
     SettingSpec("product_id_pattern", "Product identifier pattern", r"[a-z]{1,4}-?\d{3,}|item=.+", "text",
                 "A search term matching this regular expression is proposed as a product target, not a keyword "
                 "(used when building).", live=False),
@@ -133,6 +140,9 @@ class Settings:
     source_negative: str = "yes"
     negative_level: str = "ad group"
     phrase_below_words: int = 0
+    mix_margin: float = 0.05
+    budget_shift_share: float = 0.25
+    max_budget_change: float = 0.30
     product_id_pattern: str = r"[a-z]{1,4}-?\d{3,}|item=.+"
     fold_plurals: bool = False
     list_cap: int = 2000
@@ -141,6 +151,8 @@ class Settings:
     columns: MappingProxyType = field(default_factory=lambda: MappingProxyType({}))
     files: MappingProxyType = field(default_factory=lambda: MappingProxyType({}))
     destinations: MappingProxyType = field(default_factory=lambda: MappingProxyType({}))
+    ad_type_benchmarks: MappingProxyType = field(default_factory=lambda: MappingProxyType(
+        {"product ads": 0.85, "brand ads": 0.10, "display ads": 0.05}))
 
     def value(self, key: str) -> Any:
         """The value of the setting named key."""
@@ -246,12 +258,12 @@ def load_settings(folder: Path) -> tuple[Settings, list[Problem]]:
     problems: list[Problem] = []
     values: dict[str, Any] = {}
     for key, raw in data.items():
-        if key in ("columns", "files", "destinations"):
+        if key in ("columns", "files", "destinations", "ad_type_benchmarks"):
             continue
         spec = SPEC_BY_KEY.get(key)
         if spec is None:
             known = ", ".join(s.key for s in SETTINGS)
-            problems.append(Problem(SETTINGS_FILE, None, key, f"unknown setting; known settings: {known}, [columns], [files], [destinations]"))
+            problems.append(Problem(SETTINGS_FILE, None, key, f"unknown setting; known settings: {known}, [columns], [files], [destinations], [ad_type_benchmarks]"))
             continue
         value, problem = _coerce(spec, raw, SETTINGS_FILE)
         if problem:
@@ -270,6 +282,14 @@ def load_settings(folder: Path) -> tuple[Settings, list[Problem]]:
     columns, files = _known_tables(columns, files, problems)
     mapping = {table: MappingProxyType({str(k): str(v) for k, v in cols.items()}) for table, cols in columns.items()}
     destinations = _destinations(data.get("destinations", {}), problems)
+    benchmarks = data.get("ad_type_benchmarks")
+    if benchmarks is not None:
+        if (not isinstance(benchmarks, dict) or not all(isinstance(v, (int, float)) and not isinstance(v, bool)
+                                                        and 0 <= v <= 1 for v in benchmarks.values())):
+            problems.append(Problem(SETTINGS_FILE, None, "ad_type_benchmarks",
+                                    'expected [ad_type_benchmarks] with "product ads" = 0.85 and the like (0 to 1)'))
+        else:
+            values["ad_type_benchmarks"] = MappingProxyType({str(k): float(v) for k, v in benchmarks.items()})
     if "product_id_pattern" in values:
         try:
             re.compile(values["product_id_pattern"])

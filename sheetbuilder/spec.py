@@ -32,7 +32,8 @@ class Column:
         style: the style key of the body cells (see palette.STYLES).
         kind: DATA, INPUT or FORMULA.
         values: one value per row (the cached result for a formula column).
-        formula: for FORMULA columns, the formula with '{r}' standing for the row number.
+        formula: for FORMULA columns, the formula with '{r}' standing for the row number (and '{p}'
+            for the previous row); or a list of one formula per row.
         width: column width in characters.
         hidden: hide the column (helper columns holding row indexes).
     """
@@ -41,7 +42,7 @@ class Column:
     style: str
     kind: str
     values: Sequence[Any]
-    formula: str | None = None
+    formula: str | list[str] | None = None
     width: float = 12
     hidden: bool = False
 
@@ -75,6 +76,7 @@ class Table:
     totals: list[Cell | None] | None = None
     highlights: list[Highlight] = field(default_factory=list)
     autofilter: bool = True
+    title: str | None = None  # written in the row above the header (for tables after the first)
 
     @property
     def n_rows(self) -> int:
@@ -87,14 +89,40 @@ class Table:
         return self.first_row + self.n_rows
 
 
+@dataclass(frozen=True)
+class Series:
+    """One chart series: its name and the ranges of its categories and values (formula text)."""
+
+    name: str
+    categories: str
+    values: str
+    color: str
+
+
+@dataclass(frozen=True)
+class Chart:
+    """A native chart, live with the cells it plots, anchored at a cell of its sheet."""
+
+    kind: str  # 'bar' or 'column'
+    title: str
+    series: tuple[Series, ...]
+    anchor: tuple[int, int]
+    x_title: str = ""
+    y_title: str = ""
+    percent: bool = True
+    size: tuple[int, int] = (520, 300)
+
+
 @dataclass
 class Sheet:
-    """One worksheet: rows of cells above the table, the table, rows below it."""
+    """One worksheet: rows of cells above the table, the table, more tables, rows below, charts."""
 
     name: str
     above: list[list[Cell | None]] = field(default_factory=list)
     table: Table | None = None
+    more: list[Table] = field(default_factory=list)
     below: list[list[Cell | None]] = field(default_factory=list)
+    charts: list[Chart] = field(default_factory=list)
     widths: dict[int, float] = field(default_factory=dict)
     freeze: tuple[int, int] | None = None
     validations: list[Validation] = field(default_factory=list)

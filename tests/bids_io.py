@@ -16,9 +16,12 @@ HEADER_ROW = 4  # 1-based: title, note, blank, header
 
 
 def bids_table(path: Path):
-    """(rows by their in_targets position, coordinates) of the Bids sheet's stored values."""
-    rows, _, coords = read_table(open_values(path)["Bids"], HEADER_ROW, "Target row", stop=None)
-    return rows, coords
+    """(rows by their target's row in targets.csv, coordinates) of the Bids sheet's stored values."""
+    wb = open_values(path)
+    rows, _, coords = read_table(wb["Bids"], HEADER_ROW, "Target row", stop=None)
+    source, _, _ = read_table(wb["in_targets"], 1, "source_row", stop=None)
+    position = {i: row for i, row in enumerate(source, start=1)}  # in_targets position -> file row
+    return ({position[k]: r for k, r in rows.items()}, {position[k]: c for k, c in coords.items()})
 
 
 def bids_oracle_for(folder: Path, settings_changes=None, target_overrides=None, decisions=None):

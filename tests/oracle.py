@@ -121,13 +121,13 @@ def _half_away(x, digits=2):
 
 
 def bids_oracle(tables, settings, profit_rows, decisions=None):
-    """{target row on in_targets (1-based): {header: value}} for every live target.
+    """{target's row in targets.csv: {header: value}} for every live target.
 
     Written from the method in the README: value per click (Varian 2007) applied as a
     ratio to the current bid, CVR shrunk by a Beta prior worth k clicks, the zero-order
     click threshold n = ceil(ln(1 - confidence) / ln(1 - CVR)), steps capped per run.
     profit_rows: the Profit oracle's rows (for each product's target ACoS).
-    decisions: {target row: typed Decision}.
+    decisions: {target's row in targets.csv: typed Decision}.
     """
     s = settings
     ads = tables["ad_products"].to_dict("records")
@@ -153,7 +153,8 @@ def bids_oracle(tables, settings, profit_rows, decisions=None):
         for r in tables["campaigns"].to_dict("records"):
             campaign_state.setdefault(r["campaign"], r["state"])
     out = {}
-    for i, t in enumerate(tables["targets"].to_dict("records"), start=1):
+    for t in tables["targets"].to_dict("records"):
+        i = t["_row"]
         if t["state"] != "enabled" or campaign_state.get(t["campaign"], "enabled") != "enabled":
             continue
         weights = group_spend.get((t["campaign"], t["ad_group"]), {})
@@ -236,6 +237,6 @@ def bids_oracle(tables, settings, profit_rows, decisions=None):
             "Target ACoS": target, "Current bid": bid, "Value bid": value, "Proposed bid": proposed,
             "Change": proposed / bid - 1 if bid else BLANK, "Reason": reason, "Final bid": final,
             "Smoothed CVR": s_cvr, "Smoothed ACoS": s_acos, "Zero-order clicks": n, "Product CVR": cvr_p,
-            "Target row": i,
+
         }
     return out

@@ -48,10 +48,19 @@ def _cell_in_row(path, sheet, header_row, key_header, key, column):
 
 
 def _decision_rows(demo_build):
-    """Two target rows (in_targets positions) whose proposal moves the bid: for 'keep' and a typed bid."""
+    """Two targets (their rows in targets.csv) whose proposal moves the bid: for 'keep' and a typed bid."""
     frame = demo_build.plan.tables["Bids"].frame
     moving = frame[frame["proposed"] != frame["bid"]]
-    return int(moving["trow"].iloc[0]), int(moving["trow"].iloc[1])
+    return int(moving["_row"].iloc[0]), int(moving["_row"].iloc[1])
+
+
+def _bids_decision_cell(src, file_row):
+    """The Decision cell of the Bids row for the target in file_row of targets.csv."""
+    ws = openpyxl.load_workbook(src)["in_targets"]
+    headers = [c.value for c in ws[1]]
+    position = next(i for i, row in enumerate(ws.iter_rows(min_row=2, values_only=True), start=1)
+                    if row[headers.index("source_row")] == file_row)
+    return _cell_in_row(src, "Bids", BIDS_HEADER_ROW, "Target row", position, "Decision")
 
 
 def _first_promote(demo_build):
@@ -90,8 +99,8 @@ def make_edits(demo_build, work):
         ("Profit", _cell_in_row(src, "Profit", PROFIT_HEADER_ROW, "Product ID", TARGET_PRODUCT, "Your target ACoS"),
          NEW_TARGET)])
     out["edit_decision"] = edit_workbook(src, work / "edit_decision.xlsx", [
-        ("Bids", _cell_in_row(src, "Bids", BIDS_HEADER_ROW, "Target row", keep_row, "Decision"), TYPED["keep"]),
-        ("Bids", _cell_in_row(src, "Bids", BIDS_HEADER_ROW, "Target row", bid_row, "Decision"), TYPED["bid"])])
+        ("Bids", _bids_decision_cell(src, keep_row), TYPED["keep"]),
+        ("Bids", _bids_decision_cell(src, bid_row), TYPED["bid"])])
     out["edit_multiple"] = edit_workbook(src, work / "edit_multiple.xlsx",
                                          [(*_named_cell(src, "block_spend_multiple"), NEW_MULTIPLE)])
     out["edit_skip"] = edit_workbook(src, work / "edit_skip.xlsx", [

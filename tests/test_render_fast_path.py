@@ -38,11 +38,14 @@ def all_formulas(plan) -> list[str]:
     out = []
     for sheet in plan.spec.sheets:
         rows = [*sheet.above, *sheet.below]
-        if sheet.table and sheet.table.totals:
-            rows.append(sheet.table.totals)
+        tables = [t for t in [sheet.table, *sheet.more] if t]
+        rows += [t.totals for t in tables if t.totals]
         out += [cell.formula for cells in rows for cell in cells if cell is not None and cell.formula]
-        if sheet.table:
-            out += [c.formula.replace("{r}", "6") for c in sheet.table.columns if c.kind == FORMULA]
+        for table in tables:
+            for c in table.columns:
+                if c.kind == FORMULA:
+                    texts = c.formula if isinstance(c.formula, list) else [c.formula]
+                    out += [t.replace("{r}", "6").replace("{p}", "5") for t in texts[:3]]
     return out
 
 

@@ -1,0 +1,187 @@
+"""Carrying edits from last week's workbook: read what a user typed, match it to the new inputs."""
+from __future__ import annotations
+
+import csv
+import hashlib
+import shutil
+from pathlib import Path
+
+import openpyxl
+import pytest
+
+from conftest import BUILT_ON, DEMO
+from sheetbuilder.carry import (CarryRecord, Edits, PreviousWorkbookUnreadable, apply_edits, carried_catalog,
+                                carried_summary, decision_column, read_edits, unmatched_sheet_rows)
+from sheetbuilder.normalise import normalise
+from sheetbuilder.pipeline import build, load
+
+PRODUCT = "LF-1007"
+NEW_COST, NEW_TARGET, NEW_THIN = 3.21, 0.45, 0.12
+BID_DECISION, TERM_DECISION = "keep", "block"
+
+
+def _header(ws, row):
+    return [c.value for c in ws[row]]
+
+
+def _find_row(ws, header_row, key_header, key):
+    headers = _header(ws, header_row)
+    for row in ws.iter_rows(min_row=header_row + 1):
+        if row[headers.index(key_header)].value == key:
+            return row
+    raise KeyError(key)
+
+
+@pytest.fixture(scope="module")
+def edited(tmp_path_factory):
+    """The demo built, then edited as a user would with openpyxl; (path, what was typed)."""
+    folder = tmp_path_factory.mktemp("carry")
+    built = build(DEMO, folder / "demo.xlsx", built_on=BUILT_ON)
+    wb = openpyxl.load_workbook(built.output)
+    ws = wb["in_catalog"]
+    row = _find_row(ws, 1, "product_id", PRODUCT)
+    row[_header(ws, 1).index("unit_cost")].value = NEW_COST
+    ws = wb["Profit"]
+    row = _find_row(ws, 5, "Product ID", PRODUCT)
+    row[_header(ws, 5).index("Your target ACoS")].value = NEW_TARGET
+    sheet, coord = next(iter(wb.defined_names["thin_margin"].destinations))
+    wb[sheet][coord.replace("$", "")].value = NEW_THIN
+    ws = wb["Bids"]
+    h = _header(ws, 4)
+    bids_row = [c.value for c in ws[5]]
+    ws.cell(5, h.index("Decision") + 1).value = BID_DECISION
+    bid_key = tuple(bids_row[h.index(x)] for x in ("Campaign", "Ad group", "Target", "Match type"))
+    ws = wb["Terms"]
+    h = _header(ws, 4)
+    terms_row = [c.value for c in ws[5]]
+    ws.cell(5, h.index("Decision") + 1).value = TERM_DECISION
+    term_key = tuple(terms_row[h.index(x)] for x in ("Campaign", "Ad group", "Search term"))
+    path = folder / "edited.xlsx"
+    wb.save(path)
+    return path, bid_key, term_key
+
+
+def _sha(path: Path) -> str:
+    return hashlib.sha256(path.read_bytes()).hexdigest()
+
+
+def test_read_edits_finds_what_was_typed_and_leaves_the_file_unchanged(edited):
+    path, bid_key, term_key = edited
+    before = _sha(path)
+    edits = read_edits(path)
+    assert _sha(path) == before
+    assert isinstance(edits, Edits)
+    assert edits.settings["thin_margin"] == NEW_THIN
+    assert edits.catalog[(PRODUCT, "unit_cost")] == NEW_COST
+    assert edits.targets == {PRODUCT: NEW_TARGET}
+    assert edits.decisions["Bids"] == {bid_key: BID_DECISION}
+    assert edits.decisions["Terms"] == {term_key: TERM_DECISION}
+
+
+def test_an_unedited_workbook_carries_nothing(tmp_path):
+    built = build(DEMO, tmp_path / "demo.xlsx", built_on=BUILT_ON)
+    inputs, settings, _ = load(DEMO)
+    result = apply_edits(read_edits(built.output), inputs.tables, settings)
+    assert result.carried == [] and result.unmatched == []
+    assert result.settings == settings and result.catalog == {} and result.targets == {}
+
+
+def test_apply_edits_against_the_same_inputs_carries_every_edit(edited):
+    path, bid_key, term_key = edited
+    inputs, settings, _ = load(DEMO)
+    result = apply_edits(read_edits(path), inputs.tables, settings)
+    assert result.unmatched == []
+    assert result.settings.thin_margin == NEW_THIN
+    assert result.settings_changed == {"thin_margin": (settings.thin_margin, NEW_THIN)}
+    assert result.catalog == {(PRODUCT, "unit_cost"): NEW_COST}
+    assert result.targets == {PRODUCT: NEW_TARGET}
+    sheets = sorted(r.sheet for r in result.carried)
+    assert sheets == ["Bids", "Profit", "Settings", "Terms", "in_catalog"]
+    assert decision_column(result, "Bids", [bid_key, ("x", "y", "z", "exact")]) == [BID_DECISION, None]
+    shouty = (term_key[0], term_key[1], "  " + term_key[2].upper() + " ")
+    assert decision_column(result, "Terms", [shouty]) == [TERM_DECISION]
+    catalog = carried_catalog(inputs.tables["catalog"], result)
+    assert catalog.set_index("product_id").loc[PRODUCT, "unit_cost"] == NEW_COST
+    assert inputs.tables["catalog"].set_index("product_id").loc[PRODUCT, "unit_cost"] != NEW_COST
+    text = carried_summary(result)
+    assert "Carried 5 edit(s)" in text and "thin_margin" in text
+
+
+def _drop_rows(src: Path, dst: Path, drop) -> None:
+    with open(src, encoding="utf-8-sig", newline="") as fh:
+        rows = list(csv.reader(fh))
+    kept = [rows[0]] + [r for r in rows[1:] if not drop(r)]
+    with open(dst, "w", encoding="utf-8", newline="") as fh:
+        csv.writer(fh).writerows(kept)
+
+
+def test_edits_whose_rows_are_gone_are_unmatched(edited, tmp_path):
+    path, bid_key, term_key = edited
+    folder = tmp_path / "inputs"
+    shutil.copytree(DEMO, folder)
+    for name in ("catalog.csv", "store_sales.csv", "ad_products.csv"):
+        _drop_rows(DEMO / name, folder / name, lambda r: PRODUCT in r)
+    _drop_rows(DEMO / "targets.csv", folder / "targets.csv", lambda r: tuple(r[:4]) == bid_key)
+    _drop_rows(DEMO / "search_terms.csv", folder / "search_terms.csv",
+               lambda r: (r[0], r[1], normalise(r[4])) == (term_key[0], term_key[1], normalise(term_key[2])))
+    inputs, settings, _ = load(folder)
+    result = apply_edits(read_edits(path), inputs.tables, settings)
+    gone = {(r.sheet, r.column) for r in result.unmatched}
+    assert gone == {("in_catalog", "catalog inputs"), ("Profit", "Your target ACoS"), ("Bids", "Decision"),
+                    ("Terms", "Decision")}
+    assert len(result.unmatched) == 4
+    catalog = next(r for r in result.unmatched if r.sheet == "in_catalog")
+    assert catalog.key == PRODUCT and f"unit_cost {NEW_COST:g}" in catalog.value
+    assert all(r.key == PRODUCT for r in result.unmatched if r.sheet in ("in_catalog", "Profit"))
+    assert [r.sheet for r in result.carried] == ["Settings"]
+    assert result.catalog == {} and result.targets == {} and result.decisions == {}
+    rows = unmatched_sheet_rows(result)
+    assert rows[0] == ["Sheet", "Key", "Column", "Value", "Why"]
+    assert len(rows) == 1 + len(result.unmatched)
+    assert "could not be carried" in carried_summary(result)
+
+
+def test_invalid_values_are_unmatched_with_the_reason():
+    edits = Edits("x.xlsx", settings={"thin_margin": "lots", "bid_floor": 9.0, "period_end": None},
+                  catalog={("P1", "unit_cost"): "cheap", ("P1", "price"): -4.0},
+                  targets={"P1": 7.0})
+    import pandas as pd
+    from sheetbuilder.settings import Settings
+    tables = {"catalog": pd.DataFrame({"product_id": ["P1"], "price": [10.0], "unit_cost": [4.0],
+                                       "fees_per_unit": [1.0], "target_acos": [float("nan")],
+                                       "margin": [float("nan")]})}
+    result = apply_edits(edits, tables, Settings())
+    why = {(r.key, r.column): r.why for r in result.unmatched}
+    assert why[("thin_margin", "Value")].startswith("expected a number")
+    assert "above bid_ceiling" in why[("bid_floor", "Value")]
+    assert why[("P1", "unit_cost")] == "not a number"
+    assert "negative" in why[("P1", "price")]
+    assert "target ACoS" in why[("P1", "Your target ACoS")]
+    assert result.settings == Settings()
+    assert isinstance(result.unmatched[0], CarryRecord)
+
+
+def test_a_missing_or_unreadable_previous_workbook_is_refused(tmp_path):
+    with pytest.raises(PreviousWorkbookUnreadable):
+        read_edits(tmp_path / "nope.xlsx")
+    bad = tmp_path / "bad.xlsx"
+    bad.write_text("not a workbook")
+    with pytest.raises(PreviousWorkbookUnreadable):
+        read_edits(bad)
+
+
+def test_header_rows_are_found_by_scanning(tmp_path):
+    """A Decision sheet whose header moved down a row still reads."""
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "Bids"
+    ws.append(["Bids"])
+    ws.append(["note"])
+    ws.append([])
+    ws.append([])
+    ws.append(["Campaign", "Ad group", "Target", "Match type", "Decision"])
+    ws.append(["C1", "G1", "kw", "exact", 0.5])
+    ws.append(["C1", "G1", "kw2", "exact", None])
+    path = tmp_path / "moved.xlsx"
+    wb.save(path)
+    assert read_edits(path).decisions == {"Bids": {("C1", "G1", "kw", "exact"): 0.5}}

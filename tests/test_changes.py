@@ -1,0 +1,200 @@
+"""Exporting the Actions sheet's changes: escaped CSV or text-safe xlsx, checks, recalculation, CLI."""
+from __future__ import annotations
+
+from pathlib import Path
+
+import openpyxl
+import pytest
+import xlsxwriter
+
+from sheetbuilder.changes import (COLUMNS, HEADERS, NoActionsSheet, NotAWorkbook, WorkbookNotFound,
+                                  export_changes)
+from sheetbuilder.cli import main
+from sheetbuilder.csv_safe import read_csv_rows
+from sheetbuilder.errors import OutputExists
+
+HOSTILE = ['=HYPERLINK("http://x","y")', "+1+2", "-2+3", "@SUM(A1)", "\tleading tab"]
+CAMPAIGN, GROUP = "C1 - Manual", "G1"
+# (kind, campaign, ad group, term, match type, current, new, reason); new may be ("=formula", cached value)
+GOOD = [
+    ("bid", CAMPAIGN, GROUP, HOSTILE[0], "exact", 0.5, ("=ROUND(0.5*1.1,2)", 0.55), "raise to value bid"),
+    ("add keyword", CAMPAIGN, GROUP, HOSTILE[1], "exact", None, 0.4, "promote"),
+    ("add product target", CAMPAIGN, GROUP, HOSTILE[2], "product", None, 0.3, HOSTILE[3]),
+    ("add negative", CAMPAIGN, GROUP, HOSTILE[3], "negative exact", None, None, "block"),
+    ("budget", CAMPAIGN, "", "", "", 20, 25, HOSTILE[4]),
+]
+BAD = [
+    ("bid", CAMPAIGN, GROUP, "cheap kw", "exact", 0.5, 0.05, "below floor"),  # floor is 0.10
+    ("add keyword", "", "", "no home", "exact", None, 0.4, "promote"),  # no destination
+    ("add keyword", "Nowhere", "G9", "lost", "exact", None, 0.4, "promote"),  # unknown campaign
+    ("budget", CAMPAIGN, "", "", "", 20, -3, "negative"),
+]
+FIRST = 5
+
+
+def make_actions(path: Path, rows=GOOD + BAD, blank_rows: int = 3) -> Path:
+    """An Actions-shaped workbook with cached formula values, plus Settings names and in_ sheets."""
+    book = xlsxwriter.Workbook(str(path), {"strings_to_formulas": False, "strings_to_urls": False})
+    ws = book.add_worksheet("Actions")
+    ws.write_string(0, 0, "Actions")
+    ws.write_formula(1, 0, f'="{len(rows)} changes"', None, f"{len(rows)} changes")
+    for c, h in enumerate(HEADERS):
+        ws.write_string(3, c, h)
+    for r, row in enumerate(rows, start=FIRST - 1):
+        for c, v in enumerate(row):
+            if isinstance(v, tuple):
+                ws.write_formula(r, c, v[0], None, v[1])
+            elif isinstance(v, str):
+                ws.write_string(r, c, v)
+            elif v is not None:
+                ws.write_number(r, c, v)
+    for r in range(FIRST - 1 + len(rows), FIRST - 1 + len(rows) + blank_rows):
+        ws.write_formula(r, 0, '=""', None, "")  # an empty list row: blank Kind
+    settings = book.add_worksheet("Settings")
+    settings.write_number(0, 1, 0.10)
+    settings.write_number(1, 1, 5.0)
+    book.define_name("bid_floor", "=Settings!$B$1")
+    book.define_name("bid_ceiling", "=Settings!$B$2")
+    camp = book.add_worksheet("in_campaigns")
+    camp.write_row(0, 0, ["campaign", "state"])
+    camp.write_row(1, 0, [CAMPAIGN, "enabled"])
+    ads = book.add_worksheet("in_ad_products")
+    ads.write_row(0, 0, ["campaign", "ad_group", "product_id"])
+    ads.write_row(1, 0, ["Auto only", "G2", "P1"])
+    book.close()
+    return path
+
+
+def expected_rows():
+    out = []
+    for row in GOOD:
+        out.append([v[1] if isinstance(v, tuple) else v for v in row])
+    return out
+
+
+def _as_text(v):
+    if v is None:
+        return ""
+    if isinstance(v, float):
+        return repr(v)
+    return str(v)
+
+
+def test_csv_holds_exactly_the_valid_rows_escaped_and_reads_back(tmp_path):
+    book = make_actions(tmp_path / "book.xlsx")
+    out = tmp_path / "changes.csv"
+    result = export_changes(book, out)
+    assert result.recalculated is False
+    assert result.written == len(GOOD)
+    rows = read_csv_rows(out)
+    assert rows[0] == list(COLUMNS)
+    assert rows[1:] == [[_as_text(v) for v in r] for r in expected_rows()]
+    raw = out.read_text(encoding="utf-8-sig")
+    for text in HOSTILE:
+        quoted = text.replace('"', '""')
+        assert f'"\'{quoted}"' in raw  # escaped with a leading quote inside a quoted cell
+    assert '"=HYPERLINK' not in raw
+
+
+def test_inconsistent_changes_are_reported_with_their_row_and_not_written(tmp_path):
+    book = make_actions(tmp_path / "book.xlsx")
+    result = export_changes(book, tmp_path / "changes.csv")
+    bad_rows = [FIRST + len(GOOD) + i for i in range(len(BAD))]
+    assert result.refused == bad_rows
+    by_row = {p.row: p for p in result.problems}
+    assert "below the bid floor" in by_row[bad_rows[0]].message
+    assert "no destination" in by_row[bad_rows[1]].message
+    assert "not in the exports" in by_row[bad_rows[2]].message
+    assert "positive number" in by_row[bad_rows[3]].message
+    written = [r[3] for r in read_csv_rows(tmp_path / "changes.csv")[1:]]
+    assert not {"cheap kw", "no home", "lost"} & set(written)
+
+
+def test_a_workbook_without_cached_values_is_recalculated(tmp_path):
+    book = make_actions(tmp_path / "book.xlsx")
+    resaved = tmp_path / "resaved.xlsx"
+    wb = openpyxl.load_workbook(book)
+    wb.save(resaved)  # openpyxl stores no formula values
+    assert openpyxl.load_workbook(resaved, data_only=True)["Actions"]["G5"].value is None
+    result = export_changes(resaved, tmp_path / "changes.csv")
+    assert result.recalculated is True
+    assert result.rows == export_changes(book, tmp_path / "c2.csv").rows
+    assert result.rows[0][6] == pytest.approx(0.55)
+
+
+def test_xlsx_format_writes_text_as_text(tmp_path):
+    book = make_actions(tmp_path / "book.xlsx")
+    out = tmp_path / "changes.xlsx"
+    result = export_changes(book, out, fmt="xlsx")
+    assert result.written == len(GOOD)
+    ws = openpyxl.load_workbook(out)["changes"]
+    rows = [[c.value for c in row] for row in ws.iter_rows()]
+    assert rows[0] == list(COLUMNS)
+    assert [r[3] for r in rows[1:]] == [r[3] or None for r in GOOD]
+    for row in ws.iter_rows(min_row=2):
+        for cell in row:
+            assert cell.data_type != "f"
+    assert ws["G2"].value == pytest.approx(0.55)
+
+
+def test_refuses_to_overwrite_without_force(tmp_path):
+    book = make_actions(tmp_path / "book.xlsx")
+    out = tmp_path / "changes.csv"
+    out.write_text("keep me")
+    with pytest.raises(OutputExists):
+        export_changes(book, out)
+    assert out.read_text() == "keep me"
+    export_changes(book, out, force=True)
+    assert read_csv_rows(out)[0] == list(COLUMNS)
+
+
+def test_refusals_for_missing_file_and_missing_actions_sheet(tmp_path):
+    with pytest.raises(WorkbookNotFound):
+        export_changes(tmp_path / "nope.xlsx", tmp_path / "c.csv")
+    other = tmp_path / "other.xlsx"
+    wb = openpyxl.Workbook()
+    wb.active.title = "Profit"
+    wb.save(other)
+    with pytest.raises(NoActionsSheet):
+        export_changes(other, tmp_path / "c.csv")
+    junk = tmp_path / "junk.xlsx"
+    junk.write_text("no")
+    with pytest.raises(NotAWorkbook):
+        export_changes(junk, tmp_path / "c.csv")
+    assert not (tmp_path / "c.csv").exists()
+
+
+def test_cli_exit_codes(tmp_path, capsys):
+    good = make_actions(tmp_path / "good.xlsx", rows=GOOD)
+    mixed = make_actions(tmp_path / "mixed.xlsx")
+    assert main(["changes", str(good), "-o", str(tmp_path / "a.csv")]) == 0
+    assert main(["changes", str(mixed), "-o", str(tmp_path / "b.csv")]) == 3
+    err = capsys.readouterr().err
+    assert "4 change(s) refused" in err and "below the bid floor" in err
+    assert main(["changes", str(good), "-o", str(tmp_path / "a.csv")]) == 1  # exists, no --force
+    assert main(["changes", str(good), "-o", str(tmp_path / "a.csv"), "--force"]) == 0
+    assert main(["changes", str(good), "-o", str(tmp_path / "c.xlsx"), "--format", "xlsx"]) == 0
+    assert main(["changes", str(tmp_path / "missing.xlsx"), "-o", str(tmp_path / "d.csv")]) == 1
+
+
+def test_cli_build_passes_previous_through(tmp_path):
+    import inspect
+    from sheetbuilder.pipeline import build
+    if "previous" not in inspect.signature(build).parameters:
+        pytest.skip("pipeline.build has no 'previous' parameter yet (the lead wires apply_edits into it)")
+    from conftest import DEMO
+    old = tmp_path / "old.xlsx"
+    assert main(["build", str(DEMO), "-o", str(old), "-q"]) == 0
+    assert main(["build", str(DEMO), "-o", str(tmp_path / "new.xlsx"), "--previous", str(old), "-q"]) == 0
+
+
+def test_cli_build_without_previous_support_is_a_clear_refusal(tmp_path, monkeypatch, capsys):
+    import sheetbuilder.cli as cli
+
+    def old_build(folder, output, force=False, built_on=None, progress=None):
+        raise AssertionError("should not be called")
+
+    monkeypatch.setattr(cli, "build", old_build)
+    from conftest import DEMO
+    assert main(["build", str(DEMO), "-o", str(tmp_path / "n.xlsx"), "--previous", str(tmp_path / "o.xlsx")]) == 1
+    assert "--previous is not supported" in capsys.readouterr().err
