@@ -85,6 +85,12 @@ class EditSheet:
     tables: tuple[str, ...]
     value_header: str = "Decision"
     scan_rows: int = SCAN_ROWS
+    block: str = ""  # names a second block of the same sheet, e.g. "campaigns"
+
+    @property
+    def label(self) -> str:
+        """The name edits of this block are kept under: the sheet, and the block if any."""
+        return f"{self.sheet} {self.block}" if self.block else self.sheet
 
     def key_of(self, parts: Sequence[Any], fold_plurals: bool) -> tuple[str, ...]:
         """The compared key of raw key values (in key order)."""
@@ -100,6 +106,9 @@ _PRODUCT = Key("Product ID", "product_id")
 DECISION_SHEETS: tuple[EditSheet, ...] = (
     EditSheet("Bids", (_CAMPAIGN, _GROUP, Key("Target", "target"), Key("Match type", "match_type")), ("targets",)),
     EditSheet("Terms", (_CAMPAIGN, _GROUP, Key("Search term", "search_term", _term)), ("search_terms",)),
+    EditSheet("Budget", (_PRODUCT,), ("catalog", "store_sales", "ad_products"), value_header="Decision"),
+    EditSheet("Budget", (_CAMPAIGN,), ("campaigns",), value_header="Decision", block="campaigns",
+              scan_rows=100_000),
 )
 PROFIT_TARGET = EditSheet("Profit", (_PRODUCT,), ("catalog", "store_sales", "ad_products"),
                           value_header="Your target ACoS")
@@ -214,6 +223,14 @@ def _read_block(rows: list[list[Any]], entry: EditSheet, keep_blank: bool = Fals
     return out
 
 
+EXPORTED = "exported_"  # in_catalog keeps each editable value as exported, in a hidden column
+AS_BUILT_COLUMN = 4    # Settings keeps each value as built in its fifth column, headed "As built"
+
+
+def _has_as_built(rows: list[list[Any]]) -> bool:
+    return any(len(r) > AS_BUILT_COLUMN and r[AS_BUILT_COLUMN] == "As built" for r in rows[:SCAN_ROWS])
+
+
 def _settings_cells(wb, rows_of: Callable[[str], list[list[Any]]]) -> dict[str, Any]:
     """{key: value} of every live setting whose defined name points at a cell."""
     out: dict[str, Any] = {}
@@ -226,6 +243,9 @@ def _settings_cells(wb, rows_of: Callable[[str], list[list[Any]]]) -> dict[str, 
             r, c = coordinate_to_tuple(coord.replace("$", ""))
             rows = rows_of(sheet)
             value = rows[r - 1][c - 1] if r <= len(rows) and c <= len(rows[r - 1]) else None
+            built = rows[r - 1][AS_BUILT_COLUMN] if r <= len(rows) and AS_BUILT_COLUMN < len(rows[r - 1]) else None
+            if _has_as_built(rows) and _same(value, built):
+                break  # not typed by the user: this week's settings.toml decides
             out[spec.key] = value
             break
     return out
@@ -266,18 +286,21 @@ def read_edits(path: Path) -> Edits:
         if at is not None:
             texts = [_text(v) for v in rows[at]]
             cols = {c: texts.index(c) for c in CATALOG_COLUMNS if c in texts}
+            exported = {c: texts.index(EXPORTED + c) for c in CATALOG_COLUMNS if EXPORTED + c in texts}
             pid = texts.index("product_id")
             for row in rows[at + 1:]:
                 if _blank(row[pid]):
                     break
                 for column, i in cols.items():
+                    if column in exported and _same(row[i], row[exported[column]]):
+                        continue  # as exported: this week's export decides
                     catalog[(_text(row[pid]), column)] = None if _blank(row[i]) else row[i]
         targets = {_text(k[0]): v for k, v in _read_block(rows_of(PROFIT_TARGET.sheet), PROFIT_TARGET).items()}
         decisions: dict[str, dict] = {}
         for entry in DECISION_SHEETS:
             found = _read_block(rows_of(entry.sheet), entry)
             if found:
-                decisions.setdefault(entry.sheet, {}).update(found)
+                decisions.setdefault(entry.label, {}).update(found)
         return Edits(str(path), settings, catalog, targets, decisions)
     finally:
         wb.close()
@@ -410,7 +433,7 @@ def _carry_targets(edits: Edits, tables, fold: bool, carried: list, unmatched: l
 def _carry_decisions(edits: Edits, tables, fold: bool, carried: list, unmatched: list) -> dict:
     out: dict[str, dict] = {}
     for entry in DECISION_SHEETS:
-        typed = edits.decisions.get(entry.sheet)
+        typed = edits.decisions.get(entry.label)
         if not typed:
             continue
         existing = _existing(entry, tables, fold)
@@ -424,10 +447,10 @@ def _carry_decisions(edits: Edits, tables, fold: bool, carried: list, unmatched:
             elif key not in existing:
                 why = f"no longer in the {' or '.join(entry.tables)} export"
             else:
-                out.setdefault(entry.sheet, {})[key] = value
-                carried.append(CarryRecord(entry.sheet, text, entry.value_header, value, "typed last time"))
+                out.setdefault(entry.label, {})[key] = value
+                carried.append(CarryRecord(entry.label, text, entry.value_header, value, "typed last time"))
                 continue
-            unmatched.append(CarryRecord(entry.sheet, text, entry.value_header, value, why))
+            unmatched.append(CarryRecord(entry.label, text, entry.value_header, value, why))
     return out
 
 
@@ -459,7 +482,7 @@ def apply_edits(edits: Edits, inputs_tables: Any, settings: Settings) -> CarryRe
 def entry_for(sheet: str) -> EditSheet:
     """The DECISION_SHEETS entry of sheet."""
     for entry in DECISION_SHEETS:
-        if entry.sheet == sheet:
+        if entry.label == sheet:
             return entry
     raise KeyError(sheet)
 

@@ -13,7 +13,10 @@ from .columns import PlannedTable
 from .errors import ERROR, WARNING, InputProblems, OutputExists, Problem, SheetbuilderError, UnsafeOutput
 from .plan_bids import DEFS as BIDS_DEFS, plan_bids
 from .plan_groups import DEFS as GROUPS_DEFS, plan_groups
-from .plan_dashboard import dashboard
+from .carry import CarryResult, apply_edits, carried_catalog, decision_column, read_edits
+from .plan_actions import defs as ACTION_DEFS, plan_actions
+from .plan_dashboard import Figure, dashboard
+from .plan_unmatched import plan_unmatched
 from .plan_guide import plan_guide
 from .plan_budget import CAMPAIGN_DEFS, PRODUCT_DEFS as BUDGET_DEFS, plan_budget
 from .plan_lists import HARVEST, NEGATIVES, plan_list
@@ -44,10 +47,11 @@ class BuildResult:
     warnings: list[Problem]
     plan: Plan
     rows: dict[str, int]
+    carry: CarryResult | None = None
 
 
 def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
-                  warnings: list[Problem] | None = None) -> Plan:
+                  warnings: list[Problem] | None = None, carry: CarryResult | None = None) -> Plan:
     """Plan every sheet from validated inputs: pure, writes nothing.
 
     Args:
@@ -55,13 +59,15 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
         settings: the build's settings.
         built_on: the build date (for the attribution-window warning).
         warnings: problems of WARNING severity to list on the Guide.
+        carry: edits carried from last week's workbook (decisions and target overrides).
 
     Returns:
         The plan: the workbook spec and each computed table's reference frame.
     """
     input_sheets, layouts = plan_input_sheets(inputs, settings.fold_plurals)
     settings_sheet, names = plan_settings(settings, built_on)
-    profit_sheet, profit = plan_profit(inputs, layouts, settings, built_on)
+    decide = Decisions(carry)
+    profit_sheet, profit = plan_profit(inputs, layouts, settings, built_on, decide.targets)
     tables = {"Profit": profit}
     sheets = [settings_sheet, profit_sheet]
     sections = [("Profit columns", PROFIT_DEFS)]
@@ -71,14 +77,15 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
     ranges.update(groups.ranges(groups_sheet.name, "groups"))
     after: list = []
     if "targets" in layouts:
-        bids_sheet, bids = plan_bids(layouts["targets"], inputs.get("campaigns"), groups, profit, settings, ranges)
+        bids_sheet, bids = plan_bids(layouts["targets"], inputs.get("campaigns"), groups, profit, settings, ranges,
+                                     decide.column)
         sheets.append(bids_sheet)
         tables["Bids"] = bids
         sections.append(("Bids columns", BIDS_DEFS))
     if "search_terms" in layouts and len(layouts["search_terms"].frame):
         terms_sheet, terms, keys_sheet, _ = plan_terms(layouts["search_terms"], groups, profit, inputs.get("targets"),
                                                        inputs.get("campaigns"), inputs.get("negatives"), settings,
-                                                       ranges)
+                                                       ranges, decide.column)
         ranges.update(terms.ranges(terms_sheet.name, "terms"))
         sheets.append(terms_sheet)
         tables["Terms"] = terms
@@ -94,7 +101,7 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
     tables.update(mix_tables)
     sections.append(("Mix columns", MIX_DEFS + [d for d in MATCH_DEFS if d.key not in {x.key for x in MIX_DEFS}]))
     budget_sheet, budget_tables = plan_budget(profit, layouts.get("campaigns"), layouts.get("ad_products"), settings,
-                                              ranges)
+                                              ranges, decide.column)
     sheets.append(budget_sheet)
     tables.update(budget_tables)
     sections.append(("Budget columns", BUDGET_DEFS + [d for d in CAMPAIGN_DEFS if d.key not in
@@ -106,12 +113,41 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
     sheets += after
     if "Bids" in tables:
         ranges.update(tables["Bids"].ranges("Bids", "bids"))
+    for name, sheet, prefix in (("Harvest", "Harvest", "harvest"), ("Negatives", "Negatives", "negatives"),
+                                ("Budget campaigns", "Budget", "budget_campaigns")):
+        if name in tables:
+            ranges.update(tables[name].ranges(sheet, prefix))
+    sizes = {name: len(tables[name].frame) for name in ("Bids", "Harvest", "Negatives", "Budget campaigns")
+             if name in tables}
+    sizes["Source negatives"] = sizes.get("Harvest", 0)
+    actions_sheet, actions, action_counts = plan_actions(tables, ranges, settings, sizes)
+    tables["Actions"] = actions
+    sheets.insert(sheets.index(budget_sheet) + 1, actions_sheet)
+    sections.append(("Actions columns", ACTION_DEFS(["0"] * 5)))
     shifted = budget_sheet.above[2][1]
     figures = dashboard(tables, ranges, ("Budget!$B$3", shifted.value))
+    figures.append(Figure("Changes in the Actions list", "=" + "+".join(
+        f"Actions!${c}$2" for c in ("B", "D", "F", "H", "J")), float(sum(action_counts)), "int"))
     sources = {k: v.name for k, v in inputs.sources.items()}
     guide = plan_guide(settings, built_on, sections, warnings or [], inputs.checksums, sources, figures)
+    if carry is not None and carry.unmatched:
+        sheets.append(plan_unmatched(carry))
     spec = WorkbookSpec([guide, *sheets, *input_sheets], names, settings.currency_symbol)
     return Plan(spec, tables)
+
+
+class Decisions:
+    """What the planners take from carried edits: typed Decisions and target overrides (none without)."""
+
+    def __init__(self, carry: CarryResult | None):
+        self.carry = carry
+        self.targets = dict(carry.targets) if carry else {}
+
+    def column(self, sheet: str, rows) -> list:
+        """The carried Decision of each row (None where none was typed)."""
+        if self.carry is None:
+            return [None for _ in rows]
+        return decision_column(self.carry, sheet, rows)
 
 
 def load(folder: Path) -> tuple[Inputs, Settings, list[Problem]]:
@@ -162,7 +198,7 @@ def write_atomically(spec: WorkbookSpec, output: Path, progress: Progress | None
 
 
 def build(folder: Path, output: Path, force: bool = False, built_on: dt.date | None = None,
-          progress: Progress | None = None) -> BuildResult:
+          progress: Progress | None = None, previous: Path | None = None) -> BuildResult:
     """Read the exports in folder and write the workbook to output.
 
     Args:
@@ -171,6 +207,7 @@ def build(folder: Path, output: Path, force: bool = False, built_on: dt.date | N
         force: overwrite output if it exists.
         built_on: the build date; today when None.
         progress: optional callback(sheet, rows written, rows in sheet).
+        previous: last week's workbook, whose typed values are carried into this one (only read).
 
     Returns:
         The output path, the warnings, the plan, and the rows per input table.
@@ -181,9 +218,16 @@ def build(folder: Path, output: Path, force: bool = False, built_on: dt.date | N
     """
     folder, output = Path(folder), Path(output)
     _check_output(output, folder, force)
+    if previous is not None and output.exists() and Path(previous).exists() and os.path.samefile(previous, output):
+        raise UnsafeOutput(f"{output} is the previous workbook; write the new one under another name")
     inputs, settings, problems = load(folder)
+    carry = None
+    if previous is not None:
+        carry = apply_edits(read_edits(Path(previous)), inputs.tables, settings)
+        settings = carry.settings
+        inputs.tables["catalog"] = carried_catalog(inputs.tables["catalog"], carry)
     warnings = [p for p in problems if p.severity == WARNING]
-    plan = plan_workbook(inputs, settings, built_on or dt.date.today(), warnings)
+    plan = plan_workbook(inputs, settings, built_on or dt.date.today(), warnings, carry)
     write_atomically(plan.spec, output, progress)
     rows = {k: len(v) for k, v in inputs.tables.items() if isinstance(v, pd.DataFrame)}
-    return BuildResult(output, warnings, plan, rows)
+    return BuildResult(output, warnings, plan, rows, carry)

@@ -206,6 +206,14 @@ DEFS: list[ColumnDef] = [
               '=IF({c:decision}="",{c:proposed},IF(ISNUMBER({c:decision}),{c:decision},'
               'IF({c:decision}="keep",{c:bid},{c:proposed})))', width=9),
     # Working columns, hidden: row positions as data, then the steps of the method.
+    ColumnDef("pos", "Position", "int", "Helper: the row's position on this sheet.", lambda df, ctx: df["pos"],
+              kind=DATA, width=6, hidden=True),
+    ColumnDef("a_cnt", "Change count", "int", "Working: running count of rows whose Final bid differs from the bid.",
+              lambda df, ctx: (df["final"] != df["bid"]).astype(float).cumsum(),
+              '=SUM({cp:a_cnt})+IF({c:final}<>{c:bid},1,0)', width=6, hidden=True),
+    ColumnDef("a_key", "Change key", "ratio", "Working: strictly increasing key; MATCH(k) finds the k-th change.",
+              lambda df, ctx: df["a_cnt"] + (df["pos"] / (len(df) + 1)).where(df["final"] == df["bid"], 0.0),
+              '={c:a_cnt}+IF({c:final}<>{c:bid},0,{c:pos}/{row:n_plus})', width=6, hidden=True),
     ColumnDef("moves", "Moves", "int", "Working: 1 where the proposal changes the bid (for the dashboard).",
               lambda df, ctx: (df["proposed"] != df["bid"]).astype(float), '=IF({c:proposed}<>{c:bid},1,0)',
               width=6, hidden=True),
@@ -242,13 +250,19 @@ def target_frame(targets: InputSheet, campaigns: pd.DataFrame | None, groups: pd
     frame = attach_groups(frame.loc[live].copy(), groups)
     frame = frame.sort_values(["sort_product", "shared", "campaign", "ad_group", "trow"], kind="stable")
     frame["decision"] = None
-    return frame.reset_index(drop=True)
+    frame = frame.reset_index(drop=True)
+    frame["pos"] = np.arange(1, len(frame) + 1, dtype=float)
+    frame["n_plus"] = float(len(frame) + 1)
+    return frame
 
 
 def plan_bids(targets: InputSheet, campaigns: pd.DataFrame | None, groups: PlannedTable, profit: PlannedTable,
-              settings: Settings, ranges: dict[str, str]) -> tuple[Sheet, PlannedTable]:
-    """The Bids sheet and its reference frame."""
+              settings: Settings, ranges: dict[str, str], decide=None) -> tuple[Sheet, PlannedTable]:
+    """The Bids sheet and its reference frame; decide(sheet, keys) gives carried Decisions."""
     base = target_frame(targets, campaigns, groups.frame)
+    if decide is not None:
+        base["decision"] = decide("Bids", list(zip(base["campaign"], base["ad_group"], base["target"],
+                                                   base["match_type"])))
     ctx = BidsContext(settings, groups.frame, float(profit.totals_values["prod_cvr"]),
                       float(profit.totals_values["prod_aov"]))
     planned = plan_table(DEFS, base, ctx, HEADER_ROW + 1, ranges, with_totals=False)

@@ -160,6 +160,12 @@ CAMPAIGN_DEFS: list[ColumnDef] = [
     ColumnDef("final", "Final budget", "money", "The Decision if given, else the proposal.",
               lambda df, ctx: _decided(df, "proposed", "budget"), _DECISION_FORMULA % ("proposed", "budget", "proposed"),
               width=11),
+    ColumnDef("c_cnt", "Change count", "int", "Working: running count of budgets that change.",
+              lambda df, ctx: (df["final"] != df["budget"]).astype(float).cumsum(),
+              '=SUM({cp:c_cnt})+IF({c:final}<>{c:budget},1,0)', width=6, hidden=True),
+    ColumnDef("c_key", "Change key", "ratio", "Working: strictly increasing key; MATCH(k) finds the k-th change.",
+              lambda df, ctx: df["c_cnt"] + (df["cpos"] / (len(df) + 1)).where(df["final"] == df["budget"], 0.0),
+              '={c:c_cnt}+IF({c:final}<>{c:budget},0,{row:cpos}/{row:n_plus})', width=6, hidden=True),
 ]
 
 LINK_DEFS: list[ColumnDef] = [
@@ -201,12 +207,14 @@ def _links(ad_layout: InputSheet | None, profit: pd.DataFrame) -> pd.DataFrame:
 
 
 def plan_budget(profit: PlannedTable, campaigns: InputSheet | None, ad_layout: InputSheet | None,
-                settings: Settings, ranges: dict[str, str]) -> tuple[Sheet, dict[str, PlannedTable]]:
+                settings: Settings, ranges: dict[str, str], decide=None) -> tuple[Sheet, dict[str, PlannedTable]]:
     """The Budget sheet: products, then campaigns and the campaign-product links they blend."""
     ctx = BudgetContext(settings, profit.frame)
     n = len(profit.frame)
     base = pd.DataFrame({"product_id": profit.frame["product_id"].astype(object).to_numpy(),
                          "prow": np.arange(1, n + 1, dtype=float), "decision": [None] * n})
+    if decide is not None:
+        base["decision"] = decide("Budget", [(p,) for p in base["product_id"]])
     first = HEADER_ROW + 1
     own = _ranges(PRODUCT_DEFS, "self", first, n)
     products = plan_table(PRODUCT_DEFS, base, ctx, first, {**ranges, **own}, with_totals=True)
@@ -238,7 +246,9 @@ def plan_budget(profit: PlannedTable, campaigns: InputSheet | None, ad_layout: I
         cbase["llast"] = cbase["campaign"].map(blocks.max())
         cbase = cbase.loc[cbase["lfirst"].notna()].reset_index(drop=True)  # campaigns with no ad rows: nothing to follow
         cbase["c_spend"] = cbase["campaign"].map(links.groupby("campaign")["spend"].sum()).fillna(0.0)
-        cbase["decision"] = None
+        cbase["decision"] = decide("Budget campaigns", [(c,) for c in cbase["campaign"]]) if decide else None
+        cbase["cpos"] = np.arange(1, len(cbase) + 1, dtype=float)
+        cbase["n_plus"] = float(len(cbase) + 1)
         c_first = first + n + 1 + 4
         l_first = c_first + 1 + len(cbase) + 4
         link_ranges = _ranges(LINK_DEFS, "links", l_first + 1, len(links))

@@ -118,6 +118,11 @@ def plan_input_sheets(inputs: Inputs, fold_plurals: bool = False) -> tuple[list[
             values = frame[col.name].tolist()
             columns.append(Column(col.name, style, kind, values, width=_WIDTH.get(col.kind, 14)))
             ranges[col.name] = range_ref(name, i, HEADER_ROW + 1, HEADER_ROW + len(frame))
+        if rule.name == "catalog":  # the values as exported, so next week's build carries only real edits
+            for col in rule.columns:
+                if col.name in editable:
+                    columns.append(Column("exported_" + col.name, _STYLE.get(col.kind, "text"), DATA,
+                                          frame[col.name].tolist(), width=8, hidden=True))
         for column, header, _ in DERIVED.get(rule.name, []):
             ranges[header] = range_ref(name, len(columns), HEADER_ROW + 1, HEADER_ROW + len(frame))
             style = "text" if frame[column].dtype == object else "int"

@@ -109,6 +109,12 @@ HARVEST_DEFS: list[ColumnDef] = [
               *_derived(_source_negative, '=IF({c:pos}="","",IF(AND(source_negative="yes",OR({c:src_match}="broad",'
                                           '{c:src_match}="phrase",{c:src_match}="auto")),"negative exact",""))'),
               width=14),
+    ColumnDef("n_cnt", "Source negative count", "int", "Working: running count of source negatives to add.",
+              lambda df, ctx: (df["source_negative"] != "").astype(float).cumsum(),
+              '=SUM({cp:n_cnt})+IF({c:source_negative}<>"",1,0)', width=6, hidden=True),
+    ColumnDef("n_key", "Source negative key", "ratio", "Working: strictly increasing key for the Actions list.",
+              lambda df, ctx: df["n_cnt"] + (df["k"] / (len(df) + 1)).where(df["source_negative"] == "", 0.0),
+              '={c:n_cnt}+IF({c:source_negative}<>"",0,{c:k}/{row:n_plus})', width=6, hidden=True),
     ColumnDef("campaign", "Source campaign", "text", "Where the term was found.",
               *reversed(_pick("campaign", text=True)), width=22),
     ColumnDef("ad_group", "Source ad group", "text", "Where the term was found.",
@@ -178,7 +184,7 @@ def plan_list(spec: ListSpec, terms: PlannedTable, settings: Settings, ranges: d
               ) -> tuple[Sheet, PlannedTable]:
     """A live list sheet sized to the number of terms, capped by list_cap."""
     n_rows = min(len(terms.frame), settings.list_cap)
-    base = pd.DataFrame({"k": np.arange(1, n_rows + 1, dtype=float)})
+    base = pd.DataFrame({"k": np.arange(1, n_rows + 1, dtype=float), "n_plus": float(n_rows + 1)})
     ctx = ListContext(terms.frame, settings)
     planned = plan_table(spec.defs, base, ctx, HEADER_ROW + 1, ranges, with_totals=False)
     cnt = f"{spec.word[0]}_cnt"

@@ -301,10 +301,12 @@ def warning_value(settings: Settings, built_on) -> str:
     return ATTRIBUTION_WARNING if (built_on - settings.period_end).days < settings.attribution_days else ""
 
 
-def plan_profit(inputs: Inputs, layouts: dict[str, InputSheet], settings: Settings, built_on
-                ) -> tuple[Sheet, PlannedTable]:
-    """The Profit sheet and its reference frame."""
+def plan_profit(inputs: Inputs, layouts: dict[str, InputSheet], settings: Settings, built_on,
+                target_overrides: dict | None = None) -> tuple[Sheet, PlannedTable]:
+    """The Profit sheet and its reference frame; target_overrides are carried 'Your target ACoS' values."""
     base = product_frame(inputs, layouts)
+    if target_overrides:
+        base["target_override"] = base["product_id"].map(target_overrides).astype(float)
     catalog = layouts["catalog"].frame if "catalog" in layouts else None
     ctx = ProfitContext(settings, catalog)
     ranges = {f"{t}.{col}": r for t, layout in layouts.items() for col, r in layout.ranges.items()}

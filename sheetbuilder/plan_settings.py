@@ -48,7 +48,7 @@ def plan_settings(settings: Settings, built_on: dt.date) -> tuple[Sheet, list[tu
               style="note")],
         [None],
         [Cell("Setting", style="header"), Cell("Value", style="header"), Cell("What it does", style="header"),
-         Cell("Name in formulas", style="header")],
+         Cell("Name in formulas", style="header"), Cell("As built", style="header")],
     ]
     names: list[tuple[str, str]] = []
     validations: list[Validation] = []
@@ -64,7 +64,7 @@ def plan_settings(settings: Settings, built_on: dt.date) -> tuple[Sheet, list[tu
         else:
             cell = Cell(value, style=style, kind=DATA)
         rows.append([Cell(spec.label), cell, Cell(spec.help, style="text" if spec.live else "note"),
-                     Cell(spec.key, style="note")])
+                     Cell(spec.key, style="note"), Cell(value, style=style)])
         names.append((spec.key, f"=Settings!$B${row + 1}"))
     built_row = FIRST_ROW + len(SETTINGS)
     rows.append([Cell("Built on"), Cell(built_on, style="date"),
@@ -78,6 +78,6 @@ def plan_settings(settings: Settings, built_on: dt.date) -> tuple[Sheet, list[tu
         rows.append([Cell("Column mapping used when reading", style="subtitle")])
         for table, canon, source in mapped:
             rows.append([Cell(f"{table}.{canon}"), Cell(source), Cell("header in your file", style="note")])
-    sheet = Sheet(SHEET, above=rows, widths={0: 28, 1: 14, 2: 90, 3: 22}, validations=validations,
+    sheet = Sheet(SHEET, above=rows, widths={0: 28, 1: 14, 2: 90, 3: 22, 4: 12}, validations=validations,
                   freeze=(FIRST_ROW, 0), tab_color="#B08A1E", landscape=True)
     return sheet, names

@@ -361,9 +361,11 @@ def term_frame(layout: InputSheet, groups: pd.DataFrame, campaigns: pd.DataFrame
 
 def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, targets: pd.DataFrame | None,
                campaigns: pd.DataFrame | None, negatives: pd.DataFrame | None, settings: Settings,
-               ranges: dict[str, str]) -> tuple[Sheet, PlannedTable, Sheet, KeyTable]:
+               ranges: dict[str, str], decide=None) -> tuple[Sheet, PlannedTable, Sheet, KeyTable]:
     """The Terms sheet, its reference frame, and the Keys sheet its lookups read."""
     base = term_frame(layout, groups.frame, campaigns, negatives, settings)
+    if decide is not None and len(base):
+        base["decision"] = decide("Terms", list(zip(base["campaign"], base["ad_group"], base["term"])))
     keys = build_keys(base, targets, negatives, groups.frame, settings)
     keys_sheet, key_ranges = plan_keys(keys)
     base["tkey"] = base["tkey_t"].map(lambda k: keys.ids.get(k, np.nan) if k else np.nan)

@@ -106,6 +106,9 @@ SETTINGS: tuple[SettingSpec, ...] = (
     SettingSpec("list_cap", "Rows in each list", 2000, "int",
                 "The most rows the Harvest and Negatives lists hold; the sheet says when more qualify "
                 "(used when building).", 1, 1000000, live=False),
+    SettingSpec("actions_cap", "Rows in the Actions list", 20000, "int",
+                "The most rows the Actions list holds; the sheet says when more changes qualify (used when building).",
+                1, 1000000, live=False),
     SettingSpec("currency_symbol", "Currency symbol", "$", "text",
                 "Shown in money formats (used when building).", live=False),
     SettingSpec("decimal_comma", "Decimal comma", False, "bool",
@@ -146,6 +149,7 @@ class Settings:
     product_id_pattern: str = r"[a-z]{1,4}-?\d{3,}|item=.+"
     fold_plurals: bool = False
     list_cap: int = 2000
+    actions_cap: int = 20000
     currency_symbol: str = "$"
     decimal_comma: bool = False
     columns: MappingProxyType = field(default_factory=lambda: MappingProxyType({}))

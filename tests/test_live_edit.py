@@ -106,6 +106,7 @@ def make_edits(demo_build, work):
     out["edit_skip"] = edit_workbook(src, work / "edit_skip.xlsx", [
         ("Terms", _cell_in_row(src, "Terms", TERMS_HEADER_ROW, "Position", _first_promote(demo_build), "Decision"),
          "skip")])
+    out["edit_shift"] = edit_workbook(src, work / "edit_shift.xlsx", [(*_named_cell(src, "budget_shift_share"), 0)])
     spec = copy.deepcopy(demo_build.plan.spec)
     for column in spec.sheet("Profit").table.columns:
         if column.kind == FORMULA:

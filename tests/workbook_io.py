@@ -10,7 +10,9 @@ REL = 1e-9
 
 def same(expected, actual, rel: float = REL) -> bool:
     """Equal as spreadsheet values: blanks alike, numbers within rel, text exactly."""
-    if expected in (None, "") and actual in (None, ""):
+    def blank(v):
+        return v is None or v == "" or (isinstance(v, float) and math.isnan(v))
+    if blank(expected) and blank(actual):
         return True
     if isinstance(expected, bool) or isinstance(actual, bool):
         return expected == actual

@@ -1,0 +1,212 @@
+"""The Actions sheet: one live list of every change whose Final value differs from today.
+
+Five kinds of change, in this order: bid changes (Bids, Final bid different from the bid),
+keywords and product targets to add (Harvest), negatives to add in the source ad groups of
+promoted terms (Harvest), negatives to add (Negatives), daily budget changes (Budget).
+The k-th row finds its kind from the running totals, then its row on the source sheet:
+directly for the Harvest and Negatives lists (their k-th rows), or by MATCH on the source
+sheet's strictly increasing helper key (the same macro-free method as those lists). The
+`changes` command exports this sheet as CSV.
+"""
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from .columns import ColumnDef, PlannedTable, plan_table
+from .settings import Settings
+from .spec import DATA, Cell, Sheet, Table
+
+SHEET = "Actions"
+HEADER_ROW = 3  # 0-based: title, counts, blank, header (the layout the changes command reads)
+HEADERS = ("Kind", "Campaign", "Ad group", "Target or term", "Match type", "Current", "New", "Reason")
+SEGMENTS = ("bid", "add", "source negative", "negative", "budget")
+
+
+@dataclass
+class Segment:
+    """One source of changes: its total cell, and how its fields read on its sheet."""
+
+    name: str
+    total: str            # formula text of the source's count of changes
+    count: int            # its value
+    rows: list[dict]      # the changes, in order, as the reference computes them
+
+
+@dataclass
+class ActionsContext:
+    """What the Actions columns' references read: the changes in order."""
+
+    changes: list[dict]
+    totals: dict[str, Any] = field(default_factory=dict)
+
+
+def _blank_safe(ref: str) -> str:
+    return f'IF({ref}="","",{ref})'
+
+
+def _field(parts: dict[int, str]) -> str:
+    """A formula choosing, by the row's segment (1-5), one of parts; blank for other segments."""
+    out = '""'
+    for seg in sorted(parts, reverse=True):
+        out = f"IF({{c:seg}}={seg},{parts[seg]},{out})"
+    return f'=IF({{c:seg}}=0,"",{out})'
+
+
+def _idx(rng: str) -> str:
+    return _blank_safe(f"INDEX({{rng:{rng}}},{{c:pos}})")
+
+
+def _ref(key: str):
+    def compute(df: pd.DataFrame, ctx: ActionsContext) -> pd.Series:
+        values = [ctx.changes[int(k) - 1].get(key, "") if k <= len(ctx.changes) else "" for k in df["k"]]
+        return pd.Series(values, index=df.index, dtype=object)
+    return compute
+
+
+def _num(key: str):
+    def compute(df: pd.DataFrame, ctx: ActionsContext) -> pd.Series:
+        values = [ctx.changes[int(k) - 1].get(key, np.nan) if k <= len(ctx.changes) else np.nan for k in df["k"]]
+        return pd.Series([np.nan if v == "" else v for v in values], index=df.index, dtype=float)
+    return compute
+
+
+def defs(totals: list[str]) -> list[ColumnDef]:
+    """The Actions columns, given the five segments' count formulas (absolute references)."""
+    t = totals
+    cum = [t[0], f"{t[0]}+{t[1]}", f"{t[0]}+{t[1]}+{t[2]}", f"{t[0]}+{t[1]}+{t[2]}+{t[3]}",
+           f"{t[0]}+{t[1]}+{t[2]}+{t[3]}+{t[4]}"]
+    seg = "=" + "".join(f"IF({{c:k}}<={c},{i + 1}," for i, c in enumerate(cum)) + "0" + ")" * 5
+    local = "={c:k}-IF({c:seg}<=1,0,IF({c:seg}=2,%s,IF({c:seg}=3,%s,IF({c:seg}=4,%s,%s))))" % tuple(cum[:4])
+    pos = ('=IF({c:seg}=0,"",IF({c:seg}=1,MATCH({c:j},{rng:bids.a_key},1),IF({c:seg}=2,{c:j},'
+           'IF({c:seg}=3,MATCH({c:j},{rng:harvest.n_key},1),IF({c:seg}=4,{c:j},'
+           'MATCH({c:j},{rng:budget_campaigns.c_key},1))))))')
+    kind = ('=IF({c:seg}=0,"",IF({c:seg}=1,"bid",IF({c:seg}=2,IF(INDEX({rng:harvest.kind},{c:pos})="product target",'
+            '"add product target","add keyword"),IF({c:seg}=5,"budget","add negative"))))')
+    return [
+        ColumnDef("kind", "Kind", "text", "bid, add keyword, add product target, add negative or budget.",
+                  _ref("Kind"), kind, width=16),
+        ColumnDef("campaign", "Campaign", "text", "Where the change goes.", _ref("Campaign"), _field({
+            1: _idx("bids.campaign"), 2: _idx("harvest.dest_campaign"), 3: _idx("harvest.campaign"),
+            4: _idx("negatives.campaign"), 5: _idx("budget_campaigns.campaign")}), width=26),
+        ColumnDef("ad_group", "Ad group", "text", "Blank for a campaign-level change.", _ref("Ad group"), _field({
+            1: _idx("bids.ad_group"), 2: _idx("harvest.dest_ad_group"), 3: _idx("harvest.ad_group"),
+            4: _idx("negatives.ad_group")}), width=18),
+        ColumnDef("target", "Target or term", "text", "The keyword, target or search term.", _ref("Target or term"),
+                  _field({1: _idx("bids.target"), 2: _idx("harvest.term"), 3: _idx("harvest.term"),
+                          4: _idx("negatives.term")}), width=28),
+        ColumnDef("match_type", "Match type", "text", "The match type to use.", _ref("Match type"), _field({
+            1: _idx("bids.match_type"), 2: _idx("harvest.match"), 3: '"negative exact"',
+            4: _idx("negatives.neg_match")}), width=15),
+        ColumnDef("current", "Current", "money", "The bid or daily budget now.", _num("Current"), _field({
+            1: "INDEX({rng:bids.bid},{c:pos})", 5: "INDEX({rng:budget_campaigns.budget},{c:pos})"}), width=10),
+        ColumnDef("new", "New", "money", "The new bid, starting bid or daily budget.", _num("New"), _field({
+            1: "INDEX({rng:bids.final},{c:pos})", 2: "INDEX({rng:harvest.start_bid},{c:pos})",
+            5: "INDEX({rng:budget_campaigns.final},{c:pos})"}), width=10),
+        ColumnDef("reason", "Reason", "label", "Why: the rule, or your decision.", _ref("Reason"), _field({
+            1: 'IF(INDEX({rng:bids.decision},{c:pos})="",INDEX({rng:bids.reason},{c:pos}),"your decision")',
+            2: '"search term that sells"', 3: '"so the new keyword does not compete with its source"',
+            4: _idx("negatives.rule"),
+            5: 'IF(INDEX({rng:budget_campaigns.decision},{c:pos})="","follows its products\' spend","your decision")'}),
+                  width=34),
+        ColumnDef("k", "Number", "int", "Helper: the row's number.", lambda df, ctx: df["k"], kind=DATA, width=6,
+                  hidden=True),
+        ColumnDef("seg", "Segment", "int", "Working: which kind of change (1 to 5).",
+                  lambda df, ctx: pd.Series([ctx.changes[int(k) - 1]["_seg"] if k <= len(ctx.changes) else 0
+                                             for k in df["k"]], index=df.index, dtype=float), seg, width=6,
+                  hidden=True),
+        ColumnDef("j", "Number in its kind", "int", "Working: the change's number within its kind.",
+                  lambda df, ctx: pd.Series([ctx.changes[int(k) - 1]["_j"] if k <= len(ctx.changes) else k
+                                             for k in df["k"]], index=df.index, dtype=float),
+                  local, width=6, hidden=True),
+        ColumnDef("pos", "Source row", "int", "Working: the change's row on its source sheet.",
+                  _num("_pos"), pos, width=6, hidden=True),
+    ]
+
+
+def _untyped(decision: Any) -> bool:
+    """Whether a Decision cell is blank (None, NaN or empty text)."""
+    return decision is None or decision == "" or (isinstance(decision, float) and np.isnan(decision))
+
+
+def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
+    """The changes in list order as the reference computes them, and the count of each segment."""
+    out: list[dict] = []
+    counts = [0] * 5
+    if "Bids" in tables:
+        b = tables["Bids"].frame
+        for r in b.loc[b["final"] != b["bid"]].to_dict("records"):
+            counts[0] += 1
+            out.append({"_seg": 1, "_j": counts[0], "_pos": r["pos"], "Kind": "bid", "Campaign": r["campaign"],
+                        "Ad group": r["ad_group"], "Target or term": r["target"], "Match type": r["match_type"],
+                        "Current": r["bid"], "New": r["final"],
+                        "Reason": r["reason"] if _untyped(r["decision"]) else "your decision"})
+    if "Harvest" in tables:
+        h = tables["Harvest"].frame
+        filled = h.loc[h["pos"].notna()]
+        for r in filled.to_dict("records"):
+            counts[1] += 1
+            out.append({"_seg": 2, "_j": counts[1], "_pos": r["k"],
+                        "Kind": "add product target" if r["kind"] == "product target" else "add keyword",
+                        "Campaign": r["dest_campaign"], "Ad group": r["dest_ad_group"], "Target or term": r["term"],
+                        "Match type": r["match"], "New": r["start_bid"], "Reason": "search term that sells"})
+        for r in filled.loc[filled["source_negative"] != ""].to_dict("records"):
+            counts[2] += 1
+            out.append({"_seg": 3, "_j": counts[2], "_pos": r["k"], "Kind": "add negative",
+                        "Campaign": r["campaign"], "Ad group": r["ad_group"], "Target or term": r["term"],
+                        "Match type": "negative exact",
+                        "Reason": "so the new keyword does not compete with its source"})
+    if "Negatives" in tables:
+        n = tables["Negatives"].frame
+        for r in n.loc[n["pos"].notna()].to_dict("records"):
+            counts[3] += 1
+            out.append({"_seg": 4, "_j": counts[3], "_pos": r["k"], "Kind": "add negative", "Campaign": r["campaign"],
+                        "Ad group": r["ad_group"], "Target or term": r["term"], "Match type": r["neg_match"],
+                        "Reason": r["rule"]})
+    if "Budget campaigns" in tables:
+        c = tables["Budget campaigns"].frame
+        for r in c.loc[c["final"] != c["budget"]].to_dict("records"):
+            counts[4] += 1
+            out.append({"_seg": 5, "_j": counts[4], "_pos": r["cpos"], "Kind": "budget", "Campaign": r["campaign"],
+                        "Current": r["budget"], "New": r["final"],
+                        "Reason": "follows its products' spend" if _untyped(r["decision"]) else "your decision"})
+    return out, counts
+
+
+def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settings: Settings,
+                 sizes: dict[str, int]) -> tuple[Sheet, PlannedTable, list[int]]:
+    """The Actions sheet, its reference frame, and the count of changes of each kind."""
+    changes, counts = _changes(tables)
+    count_cells = []
+    count_values = []
+    totals = []
+    def capped(word: str, table: str) -> str:
+        return f"MIN({ranges[f'terms_last.{word}_cnt']},{len(tables[table].frame)})"
+    sources = [("Bids", lambda: ranges["bids_last.a_cnt"]), ("Harvest", lambda: capped("p", "Harvest")),
+               ("Harvest", lambda: ranges["harvest_last.n_cnt"]), ("Negatives", lambda: capped("b", "Negatives")),
+               ("Budget campaigns", lambda: ranges["budget_campaigns_last.c_cnt"])]
+    for table, total in sources:
+        totals.append(total() if table in tables and len(tables[table].frame) else "0")
+    labels = ["Bid changes", "Keywords and targets to add", "Source negatives", "Negatives to add", "Budget changes"]
+    for label, total, value in zip(labels, totals, counts):
+        count_cells += [Cell(label, style="note"), Cell(float(value), "=" + total if total != "0" else "=0", "int_left")]
+    rows = sum(sizes.values())
+    n_rows = min(max(rows, 0), settings.actions_cap)
+    base = pd.DataFrame({"k": np.arange(1, n_rows + 1, dtype=float)})
+    ctx = ActionsContext(changes)
+    columns = defs(totals)
+    needed = {m for d in columns for m in re.findall(r"\{rng:([\w.]+)\}", d.formula or "")}
+    # A source this workbook lacks has a count of 0, so its branch is never taken; point it at blank cells.
+    filled = {**{k: "Guide!$ZZ$1:$ZZ$2" for k in needed}, **ranges}
+    planned = plan_table(columns, base, ctx, HEADER_ROW + 1, filled, with_totals=False)
+    above = [[Cell("Actions: every change whose final value differs from today", style="title")],
+             count_cells,
+             [Cell("Decision aid only: review every change before applying it to a live ad account. "
+                   "Export this list with: sheetbuilder changes WORKBOOK -o changes.csv", style="note")]]
+    sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, planned.columns), freeze=(HEADER_ROW + 1, 1),
+                  tab_color="#0B5C8A")
+    return sheet, planned, counts
