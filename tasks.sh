@@ -57,6 +57,7 @@ case "${1:-}" in
     libreoffice
     shift
     "$VENV/bin/python" -m sheetbuilder.bench "$@"
+    "$VENV/bin/python" -m sheetbuilder.soak
     ;;
   *)
     echo "usage: ./tasks.sh demo | test | samples | bench"; exit 2

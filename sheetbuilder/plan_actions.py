@@ -191,13 +191,20 @@ def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settin
                ("Budget campaigns", lambda: ranges["budget_campaigns_last.c_cnt"])]
     for table, total in sources:
         totals.append(total() if table in tables and len(tables[table].frame) else "0")
-    labels = ["Bid changes", "Keywords and targets to add", "Source negatives", "Negatives to add", "Budget changes"]
+    labels = ["Bid changes", "To add", "Source negatives", "Negatives", "Budgets"]
     for label, total, value in zip(labels, totals, counts):
         count_cells += [Cell(label, style="note"), Cell(float(value), "=" + total if total != "0" else "=0", "int_left")]
     rows = sum(sizes.values())
+    static = ("Decision aid only: review every change before applying it to a live ad account. "
+              "Export this list with: sheetbuilder changes WORKBOOK -o changes.csv")
     n_rows = min(max(rows, 0), settings.actions_cap)
     base = pd.DataFrame({"k": np.arange(1, n_rows + 1, dtype=float)})
     ctx = ActionsContext(changes)
+    total = "+".join(totals)
+    note_formula = (f'=IF({total}>{n_rows},"Showing the first {n_rows} of "&({total})&" changes; raise actions_cap '
+                    f'in settings.toml and rebuild to see them all.","{static}")')
+    note_value = (f"Showing the first {n_rows} of {len(changes)} changes; raise actions_cap in settings.toml and "
+                  "rebuild to see them all." if len(changes) > n_rows else static)
     columns = defs(totals)
     needed = {m for d in columns for m in re.findall(r"\{rng:([\w.]+)\}", d.formula or "")}
     # A source this workbook lacks has a count of 0, so its branch is never taken; point it at blank cells.
@@ -205,8 +212,7 @@ def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settin
     planned = plan_table(columns, base, ctx, HEADER_ROW + 1, filled, with_totals=False)
     above = [[Cell("Actions: every change whose final value differs from today", style="title")],
              count_cells,
-             [Cell("Decision aid only: review every change before applying it to a live ad account. "
-                   "Export this list with: sheetbuilder changes WORKBOOK -o changes.csv", style="note")]]
+             [Cell(note_value, note_formula, "alert" if len(changes) > n_rows else "note")]]
     sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, planned.columns), freeze=(HEADER_ROW + 1, 1),
                   tab_color="#0B5C8A")
     return sheet, planned, counts

@@ -30,7 +30,10 @@ class GroupsContext:
 
 
 def _profit_value(key: str):
-    return lambda df, ctx: df["prow"].map(lambda r: ctx.profit[key].iloc[int(r) - 1]).astype(float)
+    def compute(df: pd.DataFrame, ctx: GroupsContext) -> pd.Series:
+        values = ctx.profit[key].to_numpy(dtype=float)
+        return pd.Series(values[df["prow"].to_numpy(dtype=int) - 1] if len(df) else [], index=df.index, dtype=float)
+    return compute
 
 
 def _profit_index(key: str) -> str:

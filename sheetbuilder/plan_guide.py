@@ -25,6 +25,12 @@ SHEETS_TEXT = [
               "or keep. Type a Decision (promote, block, watch, keep or skip) to override it."),
     ("Harvest", "The terms whose Final is promote: what to add, as which match type, where, at what starting bid."),
     ("Negatives", "The terms whose Final is block: the negative to add, its level and match type, and the rule."),
+    ("Mix", "Where the money goes: spend by ad type against a benchmark share, by product and match type with "
+            "trim and expand signals, and charts."),
+    ("Budget", "A budget-neutral shift of spend from products to cut to products to grow, and each campaign's "
+               "daily budget scaled to follow its products."),
+    ("Actions", "Every change whose final value differs from today: bids, keywords and targets to add, "
+                "negatives, budgets. Export it with: sheetbuilder changes WORKBOOK -o changes.csv"),
     ("Groups", "Which products each ad group advertises, and the spend weights used where it advertises several."),
     ("Keys", "A lookup table: existing exact keywords and negatives, by number (the Terms sheet looks them up)."),
     ("in_ sheets", "The rows of your exports as read, sorted by product. Catalog prices, costs, fees, "
@@ -38,7 +44,10 @@ STEPS = [
     "4. On Bids, review the proposed bids; type a bid or 'keep' in Decision where you disagree.",
     "5. Raise or lower a product's target ACoS in 'Your target ACoS' on Profit: its bids follow.",
     "6. On Terms, check the verdicts; Harvest lists the terms to add, Negatives the terms to block.",
-    "7. The proposals are starting points, not orders: check them before changing your ad account.",
+    "7. On Mix and Budget, see where spend goes and the proposed shift; type a Decision where you disagree.",
+    "8. Actions lists every change you have settled on; export it with the changes command and apply it.",
+    "9. Next week, build from the new exports with --previous this workbook: your edits come along.",
+    "10. The proposals are starting points, not orders: check them before changing your ad account.",
 ]
 
 BID_METHOD = [
@@ -99,7 +108,7 @@ SOURCES = [
 def _column_rows(title: str, defs: list[ColumnDef]) -> list[list[Cell | None]]:
     """A section listing a sheet's visible columns and their meanings."""
     rows: list[list[Cell | None]] = [[Cell(title, style="subtitle")]]
-    rows += [[Cell(d.header), Cell(d.help, style="wrap")] for d in defs if not d.hidden]
+    rows += [[Cell(d.header), Cell(d.help, style="text")] for d in defs if not d.hidden]
     return rows + [[None]]
 
 
@@ -109,9 +118,13 @@ def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tupl
     """The Guide sheet, with the dashboard's live figures at the top."""
     rows: list[list[Cell | None]] = [
         [Cell("sheetbuilder: profit after ads, bids, and where ad spend goes", style="title")],
-        [Cell("This workbook turns your store-sales and sponsored-ad exports and your unit costs into live "
-              "figures: which products lose money once ads are paid, and where spend is out of proportion "
-              "to the sales it brings. Every figure is a formula; change an input and it updates.", style="wrap")],
+        [Cell("What it is for", style="subtitle"), Cell("This workbook turns your store-sales and sponsored-ad exports and your unit costs into live "
+              "figures: which products lose money once ads are paid, where spend is out of proportion to sales,",
+              style="text")],
+        [None, Cell("which bids to move toward each product's target ACoS, which search terms to promote or block, "
+                    "how spend splits across ad and match types, and how budget should shift.", style="text")],
+        [None, Cell("Every figure is a formula: change an input and everything updates. The Actions sheet lists the "
+                    "changes you settle on.", style="text")],
         [Cell("Caution", style="warning"), Cell(CAUTION + " These are decision aids to review before anything "
               "is changed in an ad account; check every proposal against what you know of your business.",
               style="warning")],
@@ -122,10 +135,10 @@ def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tupl
         *[[Cell(f.label), Cell(f.value, f.formula, f.style + "_left")] for f in (figures or [])],
         [None],
         [Cell("How to use it", style="subtitle")],
-        *[[None, Cell(step, style="wrap")] for step in STEPS],
+        *[[None, Cell(step, style="text")] for step in STEPS],
         [None],
         [Cell("Sheets", style="subtitle")],
-        *[[Cell(name), Cell(text, style="wrap")] for name, text in SHEETS_TEXT],
+        *[[Cell(name), Cell(text, style="text")] for name, text in SHEETS_TEXT],
         [None],
     ]
     for title, defs in column_sections:
@@ -136,14 +149,14 @@ def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tupl
         rows.append([Cell(state.name, style="state_" + state.name), Cell(state.meaning)])
     rows.append([Cell(0, style="money_input", kind=INPUT), Cell("Cream with blue text: an input cell you may change.")])
     rows += [[None], [Cell("How the bid plan works", style="subtitle")]]
-    rows += [[None, Cell(line, style="wrap")] for line in BID_METHOD]
+    rows += [[None, Cell(line, style="text")] for line in BID_METHOD]
     rows += [[None], [Cell("How search terms are judged", style="subtitle")]]
-    rows += [[None, Cell(line, style="wrap")] for line in TERMS_METHOD]
+    rows += [[None, Cell(line, style="text")] for line in TERMS_METHOD]
     rows += [[None], [Cell("Method and sources", style="subtitle")]]
-    rows += [[None, Cell(s, style="wrap")] for s in SOURCES]
+    rows += [[None, Cell(s, style="text")] for s in SOURCES]
     if warnings:
         rows += [[None], [Cell("Notes from reading the exports", style="subtitle")]]
-        rows += [[Cell(p.where()), Cell(p.message, style="wrap")] for p in warnings[:200]]
+        rows += [[Cell(p.where()), Cell(p.message, style="text")] for p in warnings[:200]]
         if len(warnings) > 200:
             rows.append([None, Cell(f"... and {len(warnings) - 200} more (see the command's output).")])
     rows += [[None], [Cell("Build record", style="subtitle")],

@@ -25,7 +25,7 @@ DEMO_DATE = dt.date(2026, 12, 2)
 
 def main(argv: list[str]) -> int:
     folder, out = Path(argv[0]), Path(argv[1])
-    sheets = argv[2:] or ["Guide", "Settings", "Profit", "Bids", "Terms", "Harvest", "Negatives", "Mix", "Budget", "Groups"]
+    sheets = argv[2:] or ["Guide", "Settings", "Profit", "Bids", "Terms", "Harvest", "Negatives", "Mix", "Budget", "Actions", "Groups"]
     out.mkdir(parents=True, exist_ok=True)
     inputs, settings, problems = load(folder)
     plan = plan_workbook(inputs, settings, DEMO_DATE, [p for p in problems if p.severity == WARNING])
