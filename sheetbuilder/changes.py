@@ -16,12 +16,13 @@ from __future__ import annotations
 import math
 import numbers
 import os
-import tempfile
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 from .csv_safe import write_csv
+from .atomic import atomic_output
+from .render import render_rows
 from .errors import OutputExists, Problem, SheetbuilderError, UnsafeOutput
 
 SHEET = "Actions"
@@ -213,27 +214,9 @@ def _check_output(workbook: Path, output: Path, fmt: str, force: bool) -> None:
 
 def write_xlsx(path: Path, header: list[str], rows: list[list[Any]]) -> Path:
     """Write header and rows to path as one sheet, text always as text, atomically."""
-    import xlsxwriter
-    fd, tmp = tempfile.mkstemp(prefix="." + path.stem + ".", suffix=".partial.xlsx", dir=path.parent)
-    os.close(fd)
-    try:
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)
-        book = xlsxwriter.Workbook(tmp, {"strings_to_formulas": False, "strings_to_urls": False,
-                                         "strings_to_numbers": False})
-        ws = book.add_worksheet("changes")
-        for r, row in enumerate([header, *rows]):
-            for c, v in enumerate(row):
-                if _is_number(v):
-                    ws.write_number(r, c, float(v))
-                elif not _blank(v):
-                    ws.write_string(r, c, str(v))
-        book.close()
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
+    cells = [[float(v) if _is_number(v) else (None if _blank(v) else str(v)) for v in row] for row in rows]
+    with atomic_output(path, ".xlsx") as tmp:
+        render_rows(tmp, "changes", header, cells)
     return path
 
 

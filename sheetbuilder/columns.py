@@ -64,6 +64,31 @@ def blank_div(num: Any, den: Any) -> Any:
     return pd.Series(out, index=index)
 
 
+def apply_decision(df: pd.DataFrame, proposed: str, current: str) -> pd.Series:
+    """Reference of a Final column: blank Decision follows proposed, a number is used, 'keep' keeps current.
+
+    The formula it mirrors: IF(decision="",proposed,IF(ISNUMBER(decision),decision,
+    IF(decision="keep",current,proposed))).
+    """
+    out = []
+    for d, p, c in zip(df["decision"], df[proposed], df[current]):
+        if d is None or (isinstance(d, float) and np.isnan(d)) or d == "":
+            out.append(p)
+        elif isinstance(d, (int, float)) and not isinstance(d, bool):
+            out.append(float(d))
+        elif str(d).strip().lower() == "keep":
+            out.append(c)
+        else:
+            out.append(p)
+    return pd.Series(out, index=df.index, dtype=float)
+
+
+def decision_formula(proposed: str, current: str) -> str:
+    """The formula of a Final column (see apply_decision)."""
+    return ('=IF({c:decision}="",{c:%s},IF(ISNUMBER({c:decision}),{c:decision},IF({c:decision}="keep",{c:%s},'
+            '{c:%s})))' % (proposed, current, proposed))
+
+
 def as_cell_values(series: pd.Series) -> list:
     """A column's values as the renderer takes them (NaN stays NaN: a blank)."""
     return series.tolist()

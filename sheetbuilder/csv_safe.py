@@ -15,11 +15,10 @@ from __future__ import annotations
 import csv
 import math
 import numbers
-import os
-import tempfile
 from pathlib import Path
 from typing import Any, Iterable, Sequence
 
+from .atomic import atomic_output
 from .errors import OutputExists
 
 DANGEROUS_FIRST = ("=", "+", "-", "@", "\t", "\r")  # OWASP, "CSV Injection"
@@ -96,20 +95,12 @@ def write_csv(path: Path, header: Sequence[Any], rows: Iterable[Sequence[Any]], 
     path = Path(path)
     if path.exists() and not force:
         raise OutputExists(f"{path} exists; add --force to overwrite it")
-    fd, tmp = tempfile.mkstemp(prefix="." + path.stem + ".", suffix=".partial.csv", dir=path.parent)
-    try:
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)
-        with open(fd, "w", encoding="utf-8-sig", newline="") as fh:
+    with atomic_output(path, ".csv") as tmp:
+        with open(tmp, "w", encoding="utf-8-sig", newline="") as fh:
             writer = csv.writer(fh, quoting=csv.QUOTE_NONNUMERIC)
             writer.writerow([escape_cell(h) for h in header])
             for row in rows:
                 writer.writerow([_cell(v) for v in row])
-        os.replace(tmp, path)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
     return path
 
 

@@ -3,7 +3,6 @@ from __future__ import annotations
 
 import datetime as dt
 import os
-import tempfile
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -13,6 +12,7 @@ from .columns import PlannedTable
 from .errors import ERROR, WARNING, InputProblems, OutputExists, Problem, SheetbuilderError, UnsafeOutput
 from .plan_bids import DEFS as BIDS_DEFS, plan_bids
 from .plan_groups import DEFS as GROUPS_DEFS, plan_groups
+from .atomic import atomic_output
 from .carry import CarryResult, apply_edits, carried_catalog, decision_column, read_edits
 from .plan_actions import defs as ACTION_DEFS, plan_actions
 from .plan_dashboard import Figure, dashboard
@@ -184,17 +184,8 @@ def _check_output(output: Path, inputs_folder: Path, force: bool) -> None:
 
 def write_atomically(spec: WorkbookSpec, output: Path, progress: Progress | None = None) -> None:
     """Render to a temporary file beside output, then rename it into place."""
-    fd, tmp = tempfile.mkstemp(prefix="." + output.stem + ".", suffix=".partial.xlsx", dir=output.parent)
-    os.close(fd)
-    try:
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(tmp, 0o666 & ~umask)
-        render(spec, Path(tmp), progress)
-        os.replace(tmp, output)
-    except BaseException:
-        Path(tmp).unlink(missing_ok=True)
-        raise
+    with atomic_output(output, ".xlsx") as tmp:
+        render(spec, tmp, progress)
 
 
 def build(folder: Path, output: Path, force: bool = False, built_on: dt.date | None = None,

@@ -182,7 +182,6 @@ def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settin
     """The Actions sheet, its reference frame, and the count of changes of each kind."""
     changes, counts = _changes(tables)
     count_cells = []
-    count_values = []
     totals = []
     def capped(word: str, table: str) -> str:
         return f"MIN({ranges[f'terms_last.{word}_cnt']},{len(tables[table].frame)})"

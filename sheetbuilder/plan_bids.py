@@ -19,7 +19,6 @@ sheet (first and last positions written as data), so the sheet stays linear in r
 """
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -27,7 +26,7 @@ import numpy as np
 import pandas as pd
 
 from .blends import attach_groups, group_columns, target_acos_column, zero_order_column
-from .columns import ColumnDef, PlannedTable, blank_div, plan_table
+from .columns import ColumnDef, PlannedTable, apply_decision, blank_div, decision_formula, plan_table
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
 from .settings import Settings
@@ -132,20 +131,6 @@ def _reason(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     return pd.Series(out, index=df.index, dtype=object)
 
 
-def _final(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
-    out = []
-    for decision, proposed, bid in zip(df["decision"], df["proposed"], df["bid"]):
-        if decision is None or (isinstance(decision, float) and math.isnan(decision)) or decision == "":
-            out.append(proposed)
-        elif isinstance(decision, (int, float)):
-            out.append(float(decision))
-        elif str(decision).strip().lower() == "keep":
-            out.append(bid)
-        else:
-            out.append(proposed)
-    return pd.Series(out, index=df.index, dtype=float)
-
-
 _RULE = ('=IF({c:clicks}=0,1,IF({c:orders}=0,IF({c:clicks}<min_clicks,3,'
          'IF(IF({c:n_zero}="",FALSE,{c:clicks}>={c:n_zero}),2,IF({c:value_bid}="",4,IF({c:value_bid}<{c:bid},%s,5)))),'
          'IF({c:value_bid}="",4,IF({c:value_bid}>{c:bid},IF({c:value_bid}>{c:bid}*(1+max_bid_raise),9,6),'
@@ -202,9 +187,8 @@ DEFS: list[ColumnDef] = [
     ColumnDef("decision", "Decision", "text_input",
               "Input: leave blank to follow the proposal, type a bid to use it, or 'keep' to keep the current bid.",
               lambda df, ctx: df["decision"], kind=INPUT, width=10),
-    ColumnDef("final", "Final bid", "money", "The bid to apply: the Decision if given, else the proposal.", _final,
-              '=IF({c:decision}="",{c:proposed},IF(ISNUMBER({c:decision}),{c:decision},'
-              'IF({c:decision}="keep",{c:bid},{c:proposed})))', width=9),
+    ColumnDef("final", "Final bid", "money", "The bid to apply: the Decision if given, else the proposal.",
+              lambda df, ctx: apply_decision(df, "proposed", "bid"), decision_formula("proposed", "bid"), width=9),
     # Working columns, hidden: row positions as data, then the steps of the method.
     ColumnDef("pos", "Position", "int", "Helper: the row's position on this sheet.", lambda df, ctx: df["pos"],
               kind=DATA, width=6, hidden=True),

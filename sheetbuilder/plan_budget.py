@@ -17,7 +17,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .columns import ColumnDef, PlannedTable, plan_table
+from .columns import ColumnDef, PlannedTable, apply_decision, decision_formula, plan_table
 from .formula import col_letter, quote_sheet
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
@@ -43,20 +43,6 @@ def _from_profit(key: str):
     return lambda df, ctx: df["prow"].map(lambda r: ctx.profit[key].iloc[int(r) - 1])
 
 
-def _decided(df: pd.DataFrame, proposed: str, current: str) -> pd.Series:
-    out = []
-    for d, p, c in zip(df["decision"], df[proposed], df[current]):
-        if d is None or (isinstance(d, float) and np.isnan(d)) or d == "":
-            out.append(p)
-        elif isinstance(d, (int, float)):
-            out.append(float(d))
-        elif str(d).strip().lower() == "keep":
-            out.append(c)
-        else:
-            out.append(p)
-    return pd.Series(out, index=df.index, dtype=float)
-
-
 def _proposed_spend(df: pd.DataFrame, ctx: BudgetContext) -> pd.Series:
     share = ctx.settings.budget_shift_share
     cut, grow = float(df["cut_spend"].sum()), float(df["grow_rev"].sum())
@@ -67,8 +53,6 @@ def _proposed_spend(df: pd.DataFrame, ctx: BudgetContext) -> pd.Series:
     return pd.Series(out, index=df.index, dtype=float)
 
 
-_DECISION_FORMULA = ('=IF({c:decision}="",{c:%s},IF(ISNUMBER({c:decision}),{c:decision},'
-                     'IF({c:decision}="keep",{c:%s},{c:%s})))')
 
 PRODUCT_DEFS: list[ColumnDef] = [
     ColumnDef("product_id", "Product ID", "text", "The product (as on Profit).", lambda df, ctx: df["product_id"],
@@ -97,7 +81,7 @@ PRODUCT_DEFS: list[ColumnDef] = [
               "Input: blank follows the proposal; type a spend to use it, or keep.",
               lambda df, ctx: df["decision"], kind=INPUT, width=10),
     ColumnDef("final", "Final spend", "money", "The Decision if given, else the proposal.",
-              lambda df, ctx: _decided(df, "proposed", "spend"), _DECISION_FORMULA % ("proposed", "spend", "proposed"),
+              lambda df, ctx: apply_decision(df, "proposed", "spend"), decision_formula("proposed", "spend"),
               width=12, total="={sum:final}", total_reference=lambda df, ctx: float(df["final"].sum())),
     ColumnDef("cut_spend", "Spend to cut", "money", "Helper: the spend of a product to cut.",
               lambda df, ctx: df["spend"].where(df["direction"] == "cut", 0.0),
@@ -158,7 +142,7 @@ CAMPAIGN_DEFS: list[ColumnDef] = [
     ColumnDef("decision", "Decision", "text_input", "Input: blank follows the proposal; a budget; or keep.",
               lambda df, ctx: df["decision"], kind=INPUT, width=10),
     ColumnDef("final", "Final budget", "money", "The Decision if given, else the proposal.",
-              lambda df, ctx: _decided(df, "proposed", "budget"), _DECISION_FORMULA % ("proposed", "budget", "proposed"),
+              lambda df, ctx: apply_decision(df, "proposed", "budget"), decision_formula("proposed", "budget"),
               width=11),
     ColumnDef("c_cnt", "Change count", "int", "Working: running count of budgets that change.",
               lambda df, ctx: (df["final"] != df["budget"]).astype(float).cumsum(),

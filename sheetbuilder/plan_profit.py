@@ -254,7 +254,6 @@ _LATE_TOTALS = {
 
 def product_frame(inputs: Inputs, layouts: dict[str, InputSheet]) -> pd.DataFrame:
     """One row per product found anywhere, with its block positions and block sums."""
-    catalog = inputs.get("catalog")
     ids: set[str] = set()
     for name in ("catalog", "store_sales", "ad_products"):
         frame = inputs.get(name)

@@ -267,3 +267,17 @@ def render(spec: WorkbookSpec, path: Path, progress: Progress | None = None) -> 
         wb.define_name(name, ref)
     wb.set_properties({"title": "sheetbuilder workbook", "author": "sheetbuilder", **spec.properties})
     wb.close()
+
+
+def render_rows(path: Path, sheet: str, header: list[str], rows: list[list[Any]]) -> None:
+    """Write one plain sheet: a header and rows of values, text always as text (for exports)."""
+    wb = xlsxwriter.Workbook(str(path), workbook_options())
+    ws = wb.add_worksheet(sheet)
+    bold = wb.add_format({"bold": True})
+    for c, h in enumerate(header):
+        ws.write_string(0, c, h, bold)
+    for r, row in enumerate(rows, start=1):
+        for c, v in enumerate(row):
+            if v is not None:
+                put_value(ws, r, c, v, None)
+    wb.close()

@@ -7,7 +7,6 @@ from __future__ import annotations
 
 import datetime as dt
 import os
-import shutil
 import sys
 from pathlib import Path
 

@@ -10,7 +10,6 @@ Outside references named beside each check:
 """
 from __future__ import annotations
 
-import math
 import textwrap
 
 import pytest

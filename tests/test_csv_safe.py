@@ -9,7 +9,7 @@ import csv
 
 import pytest
 
-from sheetbuilder import csv_safe
+from sheetbuilder import atomic, csv_safe
 from sheetbuilder.csv_safe import escape_cell, read_csv_rows, unescape_cell, write_csv
 from sheetbuilder.errors import OutputExists
 
@@ -110,7 +110,7 @@ def test_an_error_while_overwriting_keeps_the_previous_file(tmp_path, monkeypatc
     def failing_replace(src, dst):
         raise OSError("disk full")
 
-    monkeypatch.setattr(csv_safe.os, "replace", failing_replace)
+    monkeypatch.setattr(atomic.os, "replace", failing_replace)
     with pytest.raises(OSError, match="disk full"):
         write_csv(path, ["term"], [["pot"]], force=True)
     assert b"previous" == path.read_bytes()

@@ -13,7 +13,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 
 from accounts import accounts, write_account
-from conftest import BUILT_ON, DEMO, edit_workbook
+from conftest import BUILT_ON, DEMO
 from oracle import profit_oracle
 from oracle_mix import budget_oracle, mix_oracle
 from workbook_io import mismatches, open_values

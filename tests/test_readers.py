@@ -1,6 +1,8 @@
 """Readers: header matching, numbers as exports write them, encodings, delimiters and .xlsx."""
 from __future__ import annotations
 
+import minimal
+
 import math
 from pathlib import Path
 
@@ -27,19 +29,9 @@ C1,G1,P2,product ads,500,20,10.00,30.00,2
 
 
 def write_account(folder: Path, files: dict[str, str | bytes | None] | None = None) -> Path:
-    """Write a minimal valid account into folder; files overrides a file's text (None leaves it out)."""
-    folder.mkdir(parents=True, exist_ok=True)
-    texts: dict[str, str | bytes | None] = {"catalog.csv": CATALOG, "store_sales.csv": STORE_SALES,
-                                            "ad_products.csv": AD_PRODUCTS}
-    texts.update(files or {})
-    for name, text in texts.items():
-        if text is None:
-            continue
-        if isinstance(text, bytes):
-            (folder / name).write_bytes(text)
-        else:
-            (folder / name).write_text(text, encoding="utf-8")
-    return folder
+    """The minimal account with this module's catalog and ad rows; files overrides a file's text."""
+    return minimal.write_account(folder, {"catalog.csv": CATALOG, "store_sales.csv": STORE_SALES,
+                                          "ad_products.csv": AD_PRODUCTS, **(files or {})})
 
 
 def table(folder: Path, name: str) -> pd.DataFrame:

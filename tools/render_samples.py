@@ -10,7 +10,6 @@ from __future__ import annotations
 
 import copy
 import datetime as dt
-import shutil
 import subprocess
 import sys
 import tempfile
