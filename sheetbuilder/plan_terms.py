@@ -172,9 +172,9 @@ def _defs(n_rows: int) -> list[ColumnDef]:
                   '=IF({c:ad_sales}=0,"",{c:spend}/{c:ad_sales})', width=8),
         ColumnDef("targeted", "Already targeted", "text",
                   "Where the term already runs as an exact keyword for the same product (campaign / ad group).",
-                  _TARGETED_REF, _TARGETED, width=22),
+                  _TARGETED_REF, _TARGETED, width=30),
         ColumnDef("negated", "Already negated", "text", "The negative that already blocks the term here, if any.",
-                  _NEGATED_REF, _NEGATED, width=18),
+                  _NEGATED_REF, _NEGATED, width=30),
         ColumnDef("verdict", "Verdict", "label", "promote, block, watch or keep (see the Guide).", _verdict,
                   '=IF(AND({c:orders}>=min_promote_orders,{c:targeted}="",{c:self}=0),"promote",'
                   'IF({c:orders}>0,IF(OR({c:targeted}<>"",{c:self}=1),"keep","watch"),IF({c:negated}<>"","keep",'
@@ -214,7 +214,7 @@ def _defs(n_rows: int) -> list[ColumnDef]:
         *group_columns(),
         target_acos_column(visible=False),
         ColumnDef("p_price", "Product price", "money", "Working: the product's (or blend's) price.",
-                  *_price_blend()),
+                  *_price_blend(), width=9, hidden=True),
         zero_order_column(),
         ColumnDef("order_value", "Order value", "money", "Working: ad sales / orders, or the product's order value.",
                   lambda df, ctx: blank_div(df["ad_sales"], df["orders"]).where(df["orders"] > 0, df["p_aov"]),
