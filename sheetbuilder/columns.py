@@ -89,6 +89,31 @@ def decision_formula(proposed: str, current: str) -> str:
             '{c:%s})))' % (proposed, current, proposed))
 
 
+def running_key(prefix: str, what: str, condition: str, qualifies: Callable[[pd.DataFrame], pd.Series],
+                position: str = "pos") -> list[ColumnDef]:
+    """The two hidden columns of the macro-free live list: a running count and a strictly increasing key.
+
+    A qualifying row's key is its running count k exactly; any other row's key is its count plus
+    position / (rows + 1), a fraction that grows with the row. So MATCH(k, key, 1), a binary search,
+    lands on the k-th qualifying row. condition is the formula test of a qualifying row, qualifies
+    its pandas twin; position names the frame column holding the row's 1-based position, and the
+    frame's n_plus column holds rows + 1 (both written into the formula per row).
+    """
+    cnt, key = f"{prefix}_cnt", f"{prefix}_key"
+
+    def count(df: pd.DataFrame, ctx: Any) -> pd.Series:
+        return qualifies(df).astype(float).cumsum()
+
+    def helper(df: pd.DataFrame, ctx: Any) -> pd.Series:
+        return df[cnt] + (df[position] / (len(df) + 1)).where(~qualifies(df), 0.0)
+    return [
+        ColumnDef(cnt, f"{what} count", "int", f"Working: running count of {what.lower()}.", count,
+                  "=SUM({cp:%s})+IF(%s,1,0)" % (cnt, condition), width=6, hidden=True),
+        ColumnDef(key, f"{what} key", "ratio", "Working: strictly increasing key; MATCH(k) finds the k-th.", helper,
+                  "={c:%s}+IF(%s,0,{row:%s}/{row:n_plus})" % (cnt, condition, position), width=6, hidden=True),
+    ]
+
+
 def as_cell_values(series: pd.Series) -> list:
     """A column's values as the renderer takes them (NaN stays NaN: a blank)."""
     return series.tolist()

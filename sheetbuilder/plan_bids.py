@@ -26,7 +26,8 @@ import numpy as np
 import pandas as pd
 
 from .blends import attach_groups, group_columns, target_acos_column, zero_order_column
-from .columns import ColumnDef, PlannedTable, apply_decision, blank_div, decision_formula, plan_table
+from .columns import (ColumnDef, PlannedTable, apply_decision, blank_div, decision_formula, plan_table,
+                      running_key)
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
 from .settings import Settings
@@ -192,12 +193,7 @@ DEFS: list[ColumnDef] = [
     # Working columns, hidden: row positions as data, then the steps of the method.
     ColumnDef("pos", "Position", "int", "Helper: the row's position on this sheet.", lambda df, ctx: df["pos"],
               kind=DATA, width=6, hidden=True),
-    ColumnDef("a_cnt", "Change count", "int", "Working: running count of rows whose Final bid differs from the bid.",
-              lambda df, ctx: (df["final"] != df["bid"]).astype(float).cumsum(),
-              '=SUM({cp:a_cnt})+IF({c:final}<>{c:bid},1,0)', width=6, hidden=True),
-    ColumnDef("a_key", "Change key", "ratio", "Working: strictly increasing key; MATCH(k) finds the k-th change.",
-              lambda df, ctx: df["a_cnt"] + (df["pos"] / (len(df) + 1)).where(df["final"] == df["bid"], 0.0),
-              '={c:a_cnt}+IF({c:final}<>{c:bid},0,{c:pos}/{row:n_plus})', width=6, hidden=True),
+    *running_key("a", "Changes", "{c:final}<>{c:bid}", lambda df: df["final"] != df["bid"]),
     ColumnDef("moves", "Moves", "int", "Working: 1 where the proposal changes the bid (for the dashboard).",
               lambda df, ctx: (df["proposed"] != df["bid"]).astype(float), '=IF({c:proposed}<>{c:bid},1,0)',
               width=6, hidden=True),

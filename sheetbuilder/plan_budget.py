@@ -17,7 +17,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .columns import ColumnDef, PlannedTable, apply_decision, decision_formula, plan_table
+from .columns import ColumnDef, PlannedTable, apply_decision, decision_formula, plan_table, running_key
 from .formula import col_letter, quote_sheet
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
@@ -144,12 +144,7 @@ CAMPAIGN_DEFS: list[ColumnDef] = [
     ColumnDef("final", "Final budget", "money", "The Decision if given, else the proposal.",
               lambda df, ctx: apply_decision(df, "proposed", "budget"), decision_formula("proposed", "budget"),
               width=11),
-    ColumnDef("c_cnt", "Change count", "int", "Working: running count of budgets that change.",
-              lambda df, ctx: (df["final"] != df["budget"]).astype(float).cumsum(),
-              '=SUM({cp:c_cnt})+IF({c:final}<>{c:budget},1,0)', width=6, hidden=True),
-    ColumnDef("c_key", "Change key", "ratio", "Working: strictly increasing key; MATCH(k) finds the k-th change.",
-              lambda df, ctx: df["c_cnt"] + (df["cpos"] / (len(df) + 1)).where(df["final"] == df["budget"], 0.0),
-              '={c:c_cnt}+IF({c:final}<>{c:budget},0,{row:cpos}/{row:n_plus})', width=6, hidden=True),
+    *running_key("c", "Changes", "{c:final}<>{c:budget}", lambda df: df["final"] != df["budget"], "cpos"),
 ]
 
 LINK_DEFS: list[ColumnDef] = [

@@ -16,7 +16,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .columns import ColumnDef, PlannedTable, plan_table
+from .columns import ColumnDef, PlannedTable, plan_table, running_key
 from .settings import Settings
 from .spec import DATA, Cell, Sheet, Table
 
@@ -109,12 +109,7 @@ HARVEST_DEFS: list[ColumnDef] = [
               *_derived(_source_negative, '=IF({c:pos}="","",IF(AND(source_negative="yes",OR({c:src_match}="broad",'
                                           '{c:src_match}="phrase",{c:src_match}="auto")),"negative exact",""))'),
               width=14),
-    ColumnDef("n_cnt", "Source negative count", "int", "Working: running count of source negatives to add.",
-              lambda df, ctx: (df["source_negative"] != "").astype(float).cumsum(),
-              '=SUM({cp:n_cnt})+IF({c:source_negative}<>"",1,0)', width=6, hidden=True),
-    ColumnDef("n_key", "Source negative key", "ratio", "Working: strictly increasing key for the Actions list.",
-              lambda df, ctx: df["n_cnt"] + (df["k"] / (len(df) + 1)).where(df["source_negative"] == "", 0.0),
-              '={c:n_cnt}+IF({c:source_negative}<>"",0,{c:k}/{row:n_plus})', width=6, hidden=True),
+    *running_key("n", "Source negatives", '{c:source_negative}<>""', lambda df: df["source_negative"] != "", "k"),
     ColumnDef("campaign", "Source campaign", "text", "Where the term was found.",
               *reversed(_pick("campaign", text=True)), width=22),
     ColumnDef("ad_group", "Source ad group", "text", "Where the term was found.",

@@ -24,7 +24,7 @@ import numpy as np
 import pandas as pd
 
 from .blends import attach_groups, group_columns, target_acos_column, zero_order_column
-from .columns import ColumnDef, PlannedTable, blank_div, plan_table
+from .columns import ColumnDef, PlannedTable, blank_div, plan_table, running_key
 from .normalise import contains_phrase, looks_like_product_id, normalise, words
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
@@ -99,18 +99,6 @@ def _final(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
     return df["verdict"].where(decision == "", decision.str.lower()).astype(object)
 
 
-def _running(word: str):
-    """Running count of rows whose Final is word, and the strictly increasing helper key for MATCH."""
-    def count(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
-        return (df["final"] == word).astype(float).cumsum()
-
-    def helper(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
-        cnt = df[f"{word[0]}_cnt"]
-        frac = df["pos"] / (len(df) + 1)
-        return cnt + frac.where(df["final"] != word, 0.0)
-    return count, helper
-
-
 def _start_bid(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
     s = ctx.settings
     cpc, value = df["cpc"], df["value_bid"]
@@ -139,13 +127,10 @@ _TPOS, _TPOS_REF = _position("tkey")
 _NPOS, _NPOS_REF = _position("nkey")
 _TARGETED, _TARGETED_REF = _found("tkey", "tpos")
 _NEGATED, _NEGATED_REF = _found("nkey", "npos")
-_P_CNT, _P_KEY = _running("promote")
-_B_CNT, _B_KEY = _running("block")
 
 
 def _defs(n_rows: int) -> list[ColumnDef]:
-    """The Terms columns; the helper keys divide by the row count + 1, a constant of the build."""
-    frac = f"{{c:pos}}/{n_rows + 1}"
+    """The Terms columns."""
     return [
         ColumnDef("campaign", "Campaign", "text", "The campaign.", lambda df, ctx: df["campaign"], kind=DATA, width=22),
         ColumnDef("ad_group", "Ad group", "text", "The ad group.", lambda df, ctx: df["ad_group"], kind=DATA,
@@ -237,14 +222,8 @@ def _defs(n_rows: int) -> list[ColumnDef]:
         ColumnDef("block_threshold", "Block threshold", "ratio", "Working: the threshold of that rule.",
                   _block_threshold, '=IF({c:verdict}<>"block","",IF({c:spend}>={c:p_price}*block_spend_multiple,'
                                     '{c:p_price}*block_spend_multiple,{c:n_zero}))', width=9, hidden=True),
-        ColumnDef("p_cnt", "Promote count", "int", "Working: running count of promoted terms.",
-                  _P_CNT, '=SUM({cp:p_cnt})+IF({c:final}="promote",1,0)', width=8, hidden=True),
-        ColumnDef("p_key", "Promote key", "ratio", "Working: strictly increasing key; MATCH(k) finds the k-th.",
-                  _P_KEY, '={c:p_cnt}+IF({c:final}="promote",0,%s)' % frac, width=8, hidden=True),
-        ColumnDef("b_cnt", "Block count", "int", "Working: running count of blocked terms.",
-                  _B_CNT, '=SUM({cp:b_cnt})+IF({c:final}="block",1,0)', width=8, hidden=True),
-        ColumnDef("b_key", "Block key", "ratio", "Working: strictly increasing key; MATCH(k) finds the k-th.",
-                  _B_KEY, '={c:b_cnt}+IF({c:final}="block",0,%s)' % frac, width=8, hidden=True),
+        *running_key("p", "Promoted terms", '{c:final}="promote"', lambda df: df["final"] == "promote"),
+        *running_key("b", "Blocked terms", '{c:final}="block"', lambda df: df["final"] == "block"),
     ]
 
 
@@ -325,6 +304,7 @@ def term_frame(layout: InputSheet, groups: pd.DataFrame, campaigns: pd.DataFrame
     frame = attach_groups(frame, groups)
     fold = settings.fold_plurals
     frame["pos"] = np.arange(1, len(frame) + 1, dtype=float)
+    frame["n_plus"] = float(len(frame) + 1)
     frame["self"] = [1.0 if m == "exact" and _norm_or_blank(t, fold) == k else 0.0
                      for m, t, k in zip(frame["from_match"], frame["from_target"], frame["term_key"])]
     frame["pid_like"] = [1.0 if looks_like_product_id(t, settings.product_id_pattern) else 0.0 for t in frame["term"]]

@@ -9,7 +9,7 @@ import csv
 
 import pytest
 
-from sheetbuilder import atomic, csv_safe
+from sheetbuilder import atomic
 from sheetbuilder.csv_safe import escape_cell, read_csv_rows, unescape_cell, write_csv
 from sheetbuilder.errors import OutputExists
 
