@@ -22,13 +22,13 @@ from typing import Any
 
 from .csv_safe import write_csv
 from .atomic import atomic_output
+from .plan_actions import HEADER_ROW as ACTIONS_HEADER_ROW, HEADERS
 from .render import render_rows
 from .errors import OutputExists, Problem, SheetbuilderError, UnsafeOutput
 
 SHEET = "Actions"
-HEADER_ROW = 4  # 1-based, as a spreadsheet shows it
+HEADER_ROW = ACTIONS_HEADER_ROW + 1  # 1-based, as a spreadsheet shows it
 FIRST_ROW = 5
-HEADERS = ("Kind", "Campaign", "Ad group", "Target or term", "Match type", "Current", "New", "Reason")
 COLUMNS = ("kind", "campaign", "ad_group", "target_or_term", "match_type", "current", "new", "reason")
 KINDS = ("bid", "add keyword", "add product target", "add negative", "budget")
 ADDS = ("add keyword", "add product target")

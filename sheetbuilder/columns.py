@@ -14,8 +14,8 @@ from typing import Any, Callable
 import numpy as np
 import pandas as pd
 
-from .formula import cell_ref, col_letter, quote_sheet, resolve
-from .spec import DATA, FORMULA, Cell, Column
+from .formula import col_letter, quote_sheet, resolve
+from .spec import FORMULA, Cell, Column
 
 Reference = Callable[[pd.DataFrame, Any], Any]
 
@@ -226,5 +226,3 @@ def plan_table(defs: list[ColumnDef], base: pd.DataFrame, ctx: Any, first_body_r
                 totals.append(Cell(d.total, None, "text_total"))
     return PlannedTable(columns, totals, frame, totals_values, letters, first_body_row)
 
-
-__all__ = ["ColumnDef", "PlannedTable", "plan_table", "blank_div", "DATA", "FORMULA", "cell_ref"]

@@ -22,21 +22,8 @@ from .settings import Settings
 from .spec import DATA, Cell, Sheet, Table
 
 SHEET = "Actions"
-HEADER_ROW = 3  # 0-based: title, counts, blank, header (the layout the changes command reads)
+HEADER_ROW = 3  # 0-based: title, counts, a note, then the header (the layout the changes command reads)
 HEADERS = ("Kind", "Campaign", "Ad group", "Target or term", "Match type", "Current", "New", "Reason")
-SEGMENTS = ("bid", "add", "source negative", "negative", "budget")
-
-
-@dataclass
-class Segment:
-    """One source of changes: its total cell, and how its fields read on its sheet."""
-
-    name: str
-    total: str            # formula text of the source's count of changes
-    count: int            # its value
-    rows: list[dict]      # the changes, in order, as the reference computes them
-
-
 @dataclass
 class ActionsContext:
     """What the Actions columns' references read: the changes in order."""

@@ -178,21 +178,24 @@ BY_MATCH_DEFS: list[ColumnDef] = [
               '=IF({c:ad_sales}=0,"",{c:spend}/{c:ad_sales})', width=8),
 ]
 
+def _top_share(key: str, header: str, total: str) -> ColumnDef:
+    """A top product's share from Profit; the totals row holds all other products' share."""
+    def compute(df: pd.DataFrame, ctx: MixContext) -> pd.Series:
+        values = ctx.profit[key].to_numpy(dtype=float)
+        return pd.Series(values[df["prow"].to_numpy(dtype=int) - 1] if len(df) else [], index=df.index, dtype=float)
+
+    def others(df: pd.DataFrame, ctx: MixContext) -> float:
+        return np.nan if ctx.profit[total].sum() == 0 else 1 - float(df[key].sum())
+    return ColumnDef(key, header, "percent", "From Profit.", compute, "=INDEX({rng:profit.%s},{row:prow})" % key,
+                     width=10, total='=IF({rng:profit_total.%s}=0,"",1-{sum:%s})' % (total, key),
+                     total_reference=others)
+
+
 TOP_DEFS: list[ColumnDef] = [
     ColumnDef("product_id", "Product", "text", "The products with the most ad spend, the rest grouped.",
               lambda df, ctx: df["product_id"], kind=DATA, width=14, total="All others"),
-    ColumnDef("spend_share", "Spend share", "percent", "From Profit.",
-              lambda df, ctx: df["prow"].map(lambda r: ctx.profit["spend_share"].iloc[int(r) - 1]).astype(float),
-              '=INDEX({rng:profit.spend_share},{row:prow})', width=10,
-              total='=IF({rng:profit_total.ad_spend}=0,"",1-{sum:spend_share})',
-              total_reference=lambda df, ctx: (np.nan if ctx.profit["ad_spend"].sum() == 0
-                                               else 1 - float(df["spend_share"].sum()))),
-    ColumnDef("sales_share", "Sales share", "percent", "From Profit.",
-              lambda df, ctx: df["prow"].map(lambda r: ctx.profit["sales_share"].iloc[int(r) - 1]).astype(float),
-              '=INDEX({rng:profit.sales_share},{row:prow})', width=10,
-              total='=IF({rng:profit_total.revenue}=0,"",1-{sum:sales_share})',
-              total_reference=lambda df, ctx: (np.nan if ctx.profit["revenue"].sum() == 0
-                                               else 1 - float(df["sales_share"].sum()))),
+    _top_share("spend_share", "Spend share", "ad_spend"),
+    _top_share("sales_share", "Sales share", "revenue"),
 ]
 
 

@@ -198,3 +198,8 @@ def test_cli_build_without_previous_support_is_a_clear_refusal(tmp_path, monkeyp
     from conftest import DEMO
     assert main(["build", str(DEMO), "-o", str(tmp_path / "n.xlsx"), "--previous", str(tmp_path / "o.xlsx")]) == 1
     assert "--previous is not supported" in capsys.readouterr().err
+
+
+def test_the_actions_sheet_has_the_layout_changes_reads():
+    from sheetbuilder.plan_actions import HEADERS, defs
+    assert list(HEADERS) == [d.header for d in defs(["0"] * 5) if not d.hidden]
