@@ -29,7 +29,7 @@ from openpyxl.utils.cell import coordinate_to_tuple
 
 from .errors import SheetbuilderError
 from .normalise import normalise
-from .plan_inputs import EDITABLE
+from .plan_inputs import EDITABLE, EXPORTED
 from .settings import SETTINGS, Settings, _coerce
 
 SCAN_ROWS = 10  # header rows are looked for in the first rows of a sheet
@@ -158,6 +158,8 @@ class CarryResult:
         decisions: {sheet: {compared key: value}} (keys as :meth:`EditSheet.key_of` makes them).
         carried: every edit that changes something in the new build.
         unmatched: every edit that could not be carried, with why.
+        as_built: the settings from settings.toml and the defaults, before carrying.
+        exported: {table: frame as the export held it} for tables whose values were carried over.
     """
 
     settings: Settings
@@ -167,6 +169,8 @@ class CarryResult:
     decisions: dict = field(default_factory=dict)
     carried: list = field(default_factory=list)
     unmatched: list = field(default_factory=list)
+    as_built: Settings | None = None
+    exported: dict = field(default_factory=dict)
 
 
 # ---------------------------------------------------------------------------------------------- reading
@@ -223,7 +227,6 @@ def _read_block(rows: list[list[Any]], entry: EditSheet, keep_blank: bool = Fals
     return out
 
 
-EXPORTED = "exported_"  # in_catalog keeps each editable value as exported, in a hidden column
 AS_BUILT_COLUMN = 4    # Settings keeps each value as built in its fifth column, headed "As built"
 
 
@@ -474,7 +477,7 @@ def apply_edits(edits: Edits, inputs_tables: Any, settings: Settings) -> CarryRe
     catalog = _carry_catalog(edits, tables, carried, unmatched)
     targets = _carry_targets(edits, tables, fold, carried, unmatched)
     decisions = _carry_decisions(edits, tables, fold, carried, unmatched)
-    return CarryResult(new_settings, changed, catalog, targets, decisions, carried, unmatched)
+    return CarryResult(new_settings, changed, catalog, targets, decisions, carried, unmatched, settings)
 
 
 # ------------------------------------------------------------------------------------ helpers for the build

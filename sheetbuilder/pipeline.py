@@ -64,8 +64,9 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
     Returns:
         The plan: the workbook spec and each computed table's reference frame.
     """
-    input_sheets, layouts = plan_input_sheets(inputs, settings.fold_plurals)
-    settings_sheet, names = plan_settings(settings, built_on)
+    exported = carry.exported if carry is not None else {}
+    input_sheets, layouts = plan_input_sheets(inputs, settings.fold_plurals, exported)
+    settings_sheet, names = plan_settings(settings, built_on, carry.as_built if carry is not None else None)
     decide = Decisions(carry)
     profit_sheet, profit = plan_profit(inputs, layouts, settings, built_on, decide.targets)
     tables = {"Profit": profit}
@@ -216,6 +217,7 @@ def build(folder: Path, output: Path, force: bool = False, built_on: dt.date | N
     if previous is not None:
         carry = apply_edits(read_edits(Path(previous)), inputs.tables, settings)
         settings = carry.settings
+        carry.exported["catalog"] = inputs.tables["catalog"]  # in_catalog records the export, not the carry
         inputs.tables["catalog"] = carried_catalog(inputs.tables["catalog"], carry)
     warnings = [p for p in problems if p.severity == WARNING]
     plan = plan_workbook(inputs, settings, built_on or dt.date.today(), warnings, carry)

@@ -39,8 +39,15 @@ def _shown(spec, value):
     return value
 
 
-def plan_settings(settings: Settings, built_on: dt.date) -> tuple[Sheet, list[tuple[str, str]]]:
-    """The Settings sheet and the workbook names pointing at its cells."""
+def plan_settings(settings: Settings, built_on: dt.date,
+                  as_built: Settings | None = None) -> tuple[Sheet, list[tuple[str, str]]]:
+    """The Settings sheet and the workbook names pointing at its cells.
+
+    as_built holds the values from settings.toml or the defaults when settings carries
+    last week's typed values; the "As built" column records those, so a typed value is
+    told apart from the built one in every later week.
+    """
+    as_built = settings if as_built is None else as_built
     rows: list[list[Cell | None]] = [
         [Cell("Settings", style="title")],
         [Cell("Cream cells with blue text are inputs: change them and every sheet updates. "
@@ -64,7 +71,7 @@ def plan_settings(settings: Settings, built_on: dt.date) -> tuple[Sheet, list[tu
         else:
             cell = Cell(value, style=style, kind=DATA)
         rows.append([Cell(spec.label), cell, Cell(spec.help, style="text" if spec.live else "note"),
-                     Cell(spec.key, style="note"), Cell(value, style=style)])
+                     Cell(spec.key, style="note"), Cell(_shown(spec, as_built.value(spec.key)), style=style)])
         names.append((spec.key, f"=Settings!$B${row + 1}"))
     built_row = FIRST_ROW + len(SETTINGS)
     rows.append([Cell("Built on"), Cell(built_on, style="date"),
