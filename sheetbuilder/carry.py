@@ -3,23 +3,25 @@
 Two steps, kept apart so that the second is pure:
 
 1. :func:`read_edits` opens the OLD workbook read-only (it is never written) and
-   collects every cell a user types: the live settings (by their defined names), the
-   catalog's input cells on ``in_catalog``, Profit's "Your target ACoS", and the
-   "Decision" column of every sheet listed in :data:`DECISION_SHEETS`.
+   collects every cell a user types: the live settings, the catalog's input cells on
+   ``in_catalog``, Profit's "Your target ACoS", and the typed column of every table in
+   :data:`sheetbuilder.saved.DECISION_TABLES`.
 2. :func:`apply_edits` matches them against the NEW inputs: an edit whose row still
    exists is carried, one whose product, target or term is gone is *unmatched*, and an
    edit that is not a valid value (text in a cost, a setting out of bounds) is
    unmatched too, with the reason.
 
-Header rows are found by scanning the first rows of each sheet for the expected
-headers, so a layout that gains a title line still reads. Adding a sheet with a
-"Decision" column is one :class:`EditSheet` entry in :data:`DECISION_SHEETS`.
+Every column is found by its workbook-level defined name (see :mod:`sheetbuilder.saved`),
+so a renamed header, an inserted column or sorted rows still read. Without the names (an
+older workbook), header rows are found by scanning the first rows of each sheet for the
+headers the planners declare. A typed column found by neither is reported, never skipped.
+Adding a sheet with a typed column is one ``EDITABLE_COLUMNS`` declaration in its planner
+and one entry in :data:`sheetbuilder.saved.DECISION_TABLES`.
 """
 from __future__ import annotations
 
 import math
 import numbers
-import zipfile
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, Callable, Iterable, Mapping, Sequence
@@ -27,9 +29,10 @@ from typing import Any, Callable, Iterable, Mapping, Sequence
 import pandas as pd
 from openpyxl.utils.cell import coordinate_to_tuple
 
-from .errors import SheetbuilderError
+from .columns import EditableColumns
 from .normalise import normalise
-from .plan_inputs import EDITABLE, EXPORTED
+from .plan_inputs import CATALOG_NAME, EDITABLE, EXPORTED
+from .saved import BUDGET_CAMPAIGNS, DECISION_TABLES, PROFIT, SavedWorkbookUnreadable, named_columns, open_workbook
 from .settings import SETTINGS, Settings, _coerce
 
 SCAN_ROWS = 10  # header rows are looked for in the first rows of a sheet
@@ -39,10 +42,7 @@ CATALOG_COLUMNS = tuple(sorted(EDITABLE["catalog"]))
 MONEY_COLUMNS = ("price", "unit_cost", "fees_per_unit")  # blank money is read as 0
 PERCENT_COLUMNS = ("target_acos", "margin")  # blank means "not given"
 TARGET_BOUNDS = (0.0, 5.0)  # as default_target_acos
-
-
-class PreviousWorkbookUnreadable(SheetbuilderError):
-    """The previous workbook is missing or is not an .xlsx file openpyxl can read."""
+PreviousWorkbookUnreadable = SavedWorkbookUnreadable  # the previous workbook is missing or unreadable
 
 
 def _text(value: Any, fold_plurals: bool = False) -> str:
@@ -70,49 +70,53 @@ class Key:
 
 @dataclass(frozen=True)
 class EditSheet:
-    """A sheet (or a block of one) whose typed column is carried, keyed by some of its columns.
+    """A table whose typed column is carried, as its planner declares it, with how its keys compare.
 
     Args:
-        sheet: the sheet's name.
+        decl: the planner's declaration (label, sheet, names, keys, typed column, input tables).
         keys: the key columns, in key order.
-        tables: the input tables whose rows make a key exist in the new build (any of them).
-        value_header: the typed column (the one nearest right of the last key column).
-        scan_rows: how many top rows to scan for the header row.
+        scan_rows: how many top rows to scan for the header row when the defined names are gone.
     """
 
-    sheet: str
+    decl: EditableColumns
     keys: tuple[Key, ...]
-    tables: tuple[str, ...]
-    value_header: str = "Decision"
     scan_rows: int = SCAN_ROWS
-    block: str = ""  # names a second block of the same sheet, e.g. "campaigns"
 
     @property
     def label(self) -> str:
-        """The name edits of this block are kept under: the sheet, and the block if any."""
-        return f"{self.sheet} {self.block}" if self.block else self.sheet
+        """The name edits of this table are kept under."""
+        return self.decl.label
+
+    @property
+    def sheet(self) -> str:
+        """The sheet it is on."""
+        return self.decl.sheet
+
+    @property
+    def tables(self) -> tuple[str, ...]:
+        """The input tables whose rows make a key exist."""
+        return self.decl.inputs
+
+    @property
+    def value_header(self) -> str:
+        """The typed column's header as built."""
+        return self.decl.headers[self.decl.value]
 
     def key_of(self, parts: Sequence[Any], fold_plurals: bool) -> tuple[str, ...]:
         """The compared key of raw key values (in key order)."""
         return tuple(k.norm(v, fold_plurals) for k, v in zip(self.keys, parts))
 
 
-_CAMPAIGN, _GROUP = Key("Campaign", "campaign"), Key("Ad group", "ad_group")
-_PRODUCT = Key("Product ID", "product_id")
+def edit_sheet(decl: EditableColumns, scan_rows: int = SCAN_ROWS) -> EditSheet:
+    """The EditSheet of a planner's declaration."""
+    keys = tuple(Key(decl.headers[k], column, _term if k in decl.normalised else _text)
+                 for k, column in zip(decl.keys, decl.input_columns))
+    return EditSheet(decl, keys, scan_rows)
 
-# Sheets with a "Decision" column. A new one is one line, e.g.
-#   EditSheet("Budget", (_PRODUCT,), ("catalog", "store_sales", "ad_products")),
-#   EditSheet("Budget", (_CAMPAIGN,), ("campaigns", "ad_products")),   # its "Budget campaigns" block
-DECISION_SHEETS: tuple[EditSheet, ...] = (
-    EditSheet("Bids", (_CAMPAIGN, _GROUP, Key("Target", "target"), Key("Match type", "match_type")), ("targets",)),
-    EditSheet("Terms", (_CAMPAIGN, _GROUP, Key("Search term", "search_term", _term)), ("search_terms",)),
-    EditSheet("Budget", (_PRODUCT,), ("catalog", "store_sales", "ad_products"), value_header="Decision"),
-    EditSheet("Budget", (_CAMPAIGN,), ("campaigns",), value_header="Decision", block="campaigns",
-              scan_rows=100_000),
-)
-PROFIT_TARGET = EditSheet("Profit", (_PRODUCT,), ("catalog", "store_sales", "ad_products"),
-                          value_header="Your target ACoS")
-CATALOG = EditSheet(CATALOG_SHEET, (Key("product_id", "product_id"),), ("catalog",), value_header="price")
+
+DECISION_SHEETS: tuple[EditSheet, ...] = tuple(
+    edit_sheet(d, 100_000 if d is BUDGET_CAMPAIGNS else SCAN_ROWS) for d in DECISION_TABLES)
+PROFIT_TARGET = edit_sheet(PROFIT)
 
 
 @dataclass(frozen=True)
@@ -124,8 +128,10 @@ class Edits:
         settings: {setting key: cell value} for every live setting found by its defined name.
         catalog: {(product_id, column): cell value} for every in_catalog input cell (blank as None).
         targets: {product_id: value} for every non-blank Profit "Your target ACoS".
-        decisions: {sheet: {raw key tuple: value}} for every non-blank Decision, per
-            :data:`DECISION_SHEETS` entry (sheet names as in the entries).
+        decisions: {label: {raw key tuple: value}} for every non-blank typed cell, per
+            :data:`DECISION_SHEETS` entry.
+        lost: (label, why) of every typed column the workbook has the sheet of but that could
+            not be found (neither its defined name nor its header).
     """
 
     source: str
@@ -133,6 +139,7 @@ class Edits:
     catalog: dict = field(default_factory=dict)
     targets: dict = field(default_factory=dict)
     decisions: dict = field(default_factory=dict)
+    lost: list = field(default_factory=list)
 
 
 @dataclass(frozen=True)
@@ -160,6 +167,7 @@ class CarryResult:
         unmatched: every edit that could not be carried, with why.
         as_built: the settings from settings.toml and the defaults, before carrying.
         exported: {table: frame as the export held it} for tables whose values were carried over.
+        source: the previous workbook's path.
     """
 
     settings: Settings
@@ -171,6 +179,7 @@ class CarryResult:
     unmatched: list = field(default_factory=list)
     as_built: Settings | None = None
     exported: dict = field(default_factory=dict)
+    source: str = ""
 
 
 # ---------------------------------------------------------------------------------------------- reading
@@ -207,23 +216,50 @@ def _value_column(header: list[Any], key_cols: list[int], value_header: str) -> 
     return right[0] if right else texts.index(value_header)
 
 
-def _read_block(rows: list[list[Any]], entry: EditSheet, keep_blank: bool = False) -> dict[tuple, Any]:
-    """{raw key tuple: value} of one block: from its header row down to the first row with a blank key."""
-    wanted = [k.header for k in entry.keys] + [entry.value_header]
-    at = _header_index(rows, wanted, entry.scan_rows)
+def _cell(row: list[Any], col: int) -> Any:
+    return row[col] if col < len(row) else None
+
+
+def _located(wb, rows_of: Callable[[str], list[list[Any]]], names: dict[str, str], headers: dict[str, str],
+             sheet: str, scan: int, value_key: str) -> tuple[list[list[Any]], dict[str, int]] | None:
+    """(body rows, {key: column}) of a table: by its defined names, else by its header row; None when neither."""
+    areas = named_columns(wb, names)
+    if areas is not None:
+        area = next(iter(areas.values()))
+        return rows_of(area.sheet)[area.first_row:area.last_row + 1], {k: a.first_col for k, a in areas.items()}
+    rows = rows_of(sheet)
+    at = _header_index(rows, list(headers.values()), scan)
     if at is None:
-        return {}
+        return None
     texts = [_text(v) for v in rows[at]]
-    key_cols = [texts.index(k.header) for k in entry.keys]
-    value_col = _value_column(rows[at], key_cols, entry.value_header)
-    out: dict[tuple, Any] = {}
-    for row in rows[at + 1:]:
-        parts = tuple(row[c] for c in key_cols)
-        if all(_blank(p) for p in parts):
+    cols = {k: texts.index(h) for k, h in headers.items() if k != value_key}
+    if value_key in headers:
+        cols[value_key] = _value_column(rows[at], list(cols.values()), headers[value_key])
+    body = []
+    for row in rows[at + 1:]:  # a block ends at its first row with blank keys
+        if all(_blank(_cell(row, c)) for k, c in cols.items() if k != value_key):
             break
-        value = row[value_col]
-        if keep_blank or not _blank(value):
-            out[parts] = value
+        body.append(row)
+    return body, cols
+
+
+def _read_block(wb, rows_of, entry: EditSheet) -> dict[tuple, Any] | None:
+    """{raw key tuple: value} of every non-blank typed cell of a table; None when the table was not found."""
+    decl = entry.decl
+    wanted = (*decl.keys, decl.value)
+    names = {k: decl.name_of(k) for k in wanted}
+    headers = {k: decl.headers[k] for k in wanted}
+    found = _located(wb, rows_of, names, headers, decl.sheet, entry.scan_rows, decl.value)
+    if found is None:
+        return None
+    body, cols = found
+    out: dict[tuple, Any] = {}
+    for row in body:
+        parts = tuple(_cell(row, cols[k]) for k in decl.keys)
+        value = _cell(row, cols[decl.value])
+        if all(_blank(p) for p in parts) or _blank(value):
+            continue
+        out[parts] = value
     return out
 
 
@@ -254,17 +290,37 @@ def _settings_cells(wb, rows_of: Callable[[str], list[list[Any]]]) -> dict[str, 
     return out
 
 
-def open_workbook(path: Path, data_only: bool = True):
-    """The workbook at path opened read-only, or PreviousWorkbookUnreadable saying why not."""
-    import openpyxl
-    from openpyxl.utils.exceptions import InvalidFileException
-    path = Path(path)
-    if not path.is_file():
-        raise PreviousWorkbookUnreadable(f"the workbook {path} does not exist")
-    try:
-        return openpyxl.load_workbook(path, read_only=True, data_only=data_only)
-    except (zipfile.BadZipFile, InvalidFileException, KeyError, OSError, ValueError) as exc:
-        raise PreviousWorkbookUnreadable(f"{path} is not an .xlsx workbook that can be read: {exc}") from None
+def _catalog_cells(wb, rows_of) -> dict[tuple[str, str], Any]:
+    """{(product_id, column): value} of every in_catalog input cell that differs from its exported_ twin."""
+    wanted = ("product_id", *CATALOG_COLUMNS, *(EXPORTED + c for c in CATALOG_COLUMNS))
+    areas = named_columns(wb, {c: f"{CATALOG_NAME}_{c}" for c in wanted})
+    if areas is not None:
+        area = areas["product_id"]
+        body, cols = rows_of(area.sheet)[area.first_row:area.last_row + 1], {k: a.first_col for k, a in areas.items()}
+    else:  # no names: by header text; an older layout without exported_ columns compares with the export
+        rows = rows_of(CATALOG_SHEET)
+        at = _header_index(rows, ["product_id"], SCAN_ROWS)
+        if at is None:
+            return {}
+        texts = [_text(v) for v in rows[at]]
+        cols = {c: texts.index(c) for c in wanted if c in texts}
+        body = rows[at + 1:]
+    out: dict[tuple[str, str], Any] = {}
+    for row in body:
+        pid = _cell(row, cols["product_id"])
+        if _blank(pid):
+            if areas is None:
+                break
+            continue
+        for column in CATALOG_COLUMNS:
+            if column not in cols:
+                continue
+            value = _cell(row, cols[column])
+            twin = cols.get(EXPORTED + column)
+            if twin is not None and _same(value, _cell(row, twin)):
+                continue  # as exported: this week's export decides
+            out[(_text(pid), column)] = None if _blank(value) else value
+    return out
 
 
 def read_edits(path: Path) -> Edits:
@@ -283,28 +339,23 @@ def read_edits(path: Path) -> Edits:
             return cache[sheet]
 
         settings = _settings_cells(wb, rows_of)
-        catalog: dict[tuple[str, str], Any] = {}
-        rows = rows_of(CATALOG_SHEET)
-        at = _header_index(rows, ["product_id"], SCAN_ROWS)
-        if at is not None:
-            texts = [_text(v) for v in rows[at]]
-            cols = {c: texts.index(c) for c in CATALOG_COLUMNS if c in texts}
-            exported = {c: texts.index(EXPORTED + c) for c in CATALOG_COLUMNS if EXPORTED + c in texts}
-            pid = texts.index("product_id")
-            for row in rows[at + 1:]:
-                if _blank(row[pid]):
-                    break
-                for column, i in cols.items():
-                    if column in exported and _same(row[i], row[exported[column]]):
-                        continue  # as exported: this week's export decides
-                    catalog[(_text(row[pid]), column)] = None if _blank(row[i]) else row[i]
-        targets = {_text(k[0]): v for k, v in _read_block(rows_of(PROFIT_TARGET.sheet), PROFIT_TARGET).items()}
+        catalog = _catalog_cells(wb, rows_of)
+        lost: list[tuple[str, str]] = []
         decisions: dict[str, dict] = {}
-        for entry in DECISION_SHEETS:
-            found = _read_block(rows_of(entry.sheet), entry)
-            if found:
+        targets: dict[str, Any] = {}
+        for entry in (*DECISION_SHEETS, PROFIT_TARGET):
+            found = _read_block(wb, rows_of, entry)
+            if found is None:
+                if entry.sheet in wb.sheetnames:
+                    lost.append((entry.label, f"its {entry.value_header!r} column was not found: the workbook "
+                                              f"has no defined name {entry.decl.name_of(entry.decl.value)} and no "
+                                              f"header row reading {', '.join(entry.decl.headers.values())}"))
+                continue
+            if entry is PROFIT_TARGET:
+                targets = {_text(k[0]): v for k, v in found.items()}
+            elif found:
                 decisions.setdefault(entry.label, {}).update(found)
-        return Edits(str(path), settings, catalog, targets, decisions)
+        return Edits(str(path), settings, catalog, targets, decisions, lost)
     finally:
         wb.close()
 
@@ -477,7 +528,10 @@ def apply_edits(edits: Edits, inputs_tables: Any, settings: Settings) -> CarryRe
     catalog = _carry_catalog(edits, tables, carried, unmatched)
     targets = _carry_targets(edits, tables, fold, carried, unmatched)
     decisions = _carry_decisions(edits, tables, fold, carried, unmatched)
-    return CarryResult(new_settings, changed, catalog, targets, decisions, carried, unmatched, settings)
+    for label, why in edits.lost:
+        unmatched.append(CarryRecord(label, "(the whole column)", "", None, why))
+    return CarryResult(new_settings, changed, catalog, targets, decisions, carried, unmatched, settings,
+                       source=edits.source)
 
 
 # ------------------------------------------------------------------------------------ helpers for the build

@@ -52,6 +52,64 @@ class ColumnDef:
     total_reference: Reference | None = None
 
 
+@dataclass(frozen=True)
+class EditableColumns:
+    """A table's typed column and the key columns that identify its rows: declared once, by its planner.
+
+    ``carry`` (--previous), ``changes`` and the tests read a saved workbook through this
+    declaration: each column is found by the workbook-level defined name ``<name>_<key>``
+    over its body (spreadsheet programs keep a name on its cells when a header is renamed,
+    a column inserted or the rows sorted), and by its header text only when the name is gone.
+
+    Args:
+        label: what its edits are kept under (a sheet, or a sheet and its block).
+        sheet: the sheet the table is on.
+        table: the table's key in the plan's tables.
+        name: prefix of the defined names over its columns.
+        keys: the column keys identifying a row, in key order.
+        value: the typed column's key.
+        headers: {key: header text as built} for keys and value.
+        inputs: the input tables whose rows make a key exist (any of them).
+        input_columns: those tables' columns matching keys, in key order.
+        normalised: keys compared as the sheet compares search terms (normalise()).
+        numeric: what a typed number means ('bid', 'spend', 'budget', 'target'); '' when only words are valid.
+        words: the valid typed words ('keep', 'skip', ...).
+        current: the planned frame's column holding today's value a typed number replaces.
+    """
+
+    label: str
+    sheet: str
+    table: str
+    name: str
+    keys: tuple[str, ...]
+    value: str
+    headers: dict
+    inputs: tuple[str, ...]
+    input_columns: tuple[str, ...]
+    normalised: tuple[str, ...] = ()
+    numeric: str = ""
+    words: tuple[str, ...] = ()
+    current: str = ""
+
+    def name_of(self, key: str) -> str:
+        """The defined name over a column's body."""
+        return f"{self.name}_{key}"
+
+    def defined_names(self, planned: "PlannedTable") -> list[tuple[str, str]]:
+        """(defined name, '=range') over each key column and the typed column of the planned table."""
+        ranges = planned.ranges(self.sheet, self.name)
+        return [(self.name_of(k), "=" + ranges[f"{self.name}.{k}"]) for k in (*self.keys, self.value)]
+
+
+def editable(defs: list["ColumnDef"], label: str, sheet: str, name: str, keys: tuple[str, ...], value: str,
+             inputs: tuple[str, ...], input_columns: tuple[str, ...] | None = None, table: str | None = None,
+             **options: Any) -> EditableColumns:
+    """The EditableColumns of a table planned from defs (headers taken from the defs)."""
+    headers = {d.key: d.header for d in defs if d.key in (*keys, value)}
+    return EditableColumns(label, sheet, table or label, name, tuple(keys), value, headers, tuple(inputs),
+                           tuple(input_columns or keys), **options)
+
+
 def blank_div(num: Any, den: Any) -> Any:
     """num / den, NaN (a blank cell) where den is 0, as the formulas write IF(den=0,"",num/den)."""
     if np.ndim(num) == 0 and np.ndim(den) == 0:
@@ -169,6 +227,12 @@ class PlannedTable:
     totals_values: dict[str, Any]
     letters: dict[str, str]
     first_body_row: int = 0
+
+    def body_range(self, sheet: str) -> str:
+        """The absolute range of the whole body, every column (one row when it has none)."""
+        last = self.first_body_row + max(len(self.frame), 1)
+        letters = list(self.letters.values())
+        return f"{quote_sheet(sheet)}!${letters[0]}${self.first_body_row + 1}:${letters[-1]}${last}"
 
     def ranges(self, sheet: str, prefix: str) -> dict[str, str]:
         """{'prefix.key': absolute body range} and {'prefix_total.key': totals cell} for other sheets' formulas."""

@@ -22,11 +22,12 @@ from .plan_budget import CAMPAIGN_DEFS, PRODUCT_DEFS as BUDGET_DEFS, plan_budget
 from .plan_lists import HARVEST, NEGATIVES, plan_list
 from .plan_mix import MATCH_DEFS, TYPE_DEFS as MIX_DEFS, plan_mix
 from .plan_terms import _defs as TERMS_DEFS, plan_terms
-from .plan_inputs import plan_input_sheets
+from .plan_inputs import catalog_names, plan_input_sheets
 from .plan_profit import DEFS as PROFIT_DEFS, plan_profit
 from .plan_settings import plan_settings
 from .readers import Inputs, read_inputs
 from .render import Progress, render
+from .saved import ACTIONS_NAME, EDITABLE_TABLES
 from .settings import Settings, load_settings
 from .spec import WorkbookSpec
 
@@ -133,8 +134,17 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
     guide = plan_guide(settings, built_on, sections, warnings or [], inputs.checksums, sources, figures)
     if carry is not None and carry.unmatched:
         sheets.append(plan_unmatched(carry))
+    names = [*names, *catalog_names(layouts), *edit_names(tables)]
     spec = WorkbookSpec([guide, *sheets, *input_sheets], names, settings.currency_symbol)
     return Plan(spec, tables)
+
+
+def edit_names(tables: dict[str, PlannedTable]) -> list[tuple[str, str]]:
+    """Defined names over every typed column and its keys, and over the Actions list (see saved.py)."""
+    out = [n for decl in EDITABLE_TABLES if decl.table in tables for n in decl.defined_names(tables[decl.table])]
+    if "Actions" in tables:
+        out.append((ACTIONS_NAME, "=" + tables["Actions"].body_range("Actions")))
+    return out
 
 
 class Decisions:

@@ -17,7 +17,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .columns import ColumnDef, PlannedTable, apply_decision, decision_formula, plan_table, running_key
+from .columns import ColumnDef, PlannedTable, apply_decision, decision_formula, editable, plan_table, running_key
 from .formula import col_letter, quote_sheet
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
@@ -161,6 +161,13 @@ LINK_DEFS: list[ColumnDef] = [
     ColumnDef("weighted", "Spend x change", "ratio", "Ad spend x spend change.",
               lambda df, ctx: df["spend"] * df["ratio"], "={c:spend}*{c:ratio}", width=10),
 ]
+
+# What a user types on Budget (products, then campaigns) and the keys that find its row again.
+EDITABLE_COLUMNS = editable(PRODUCT_DEFS, "Budget", SHEET, "sb_budget", ("product_id",), "decision",
+                            ("catalog", "store_sales", "ad_products"), table="Budget products", numeric="spend",
+                            words=("keep",), current="spend")
+CAMPAIGN_EDITABLE_COLUMNS = editable(CAMPAIGN_DEFS, "Budget campaigns", SHEET, "sb_budget_campaigns", ("campaign",),
+                                     "decision", ("campaigns",), numeric="budget", words=("keep",), current="budget")
 
 
 def _ranges(defs: list[ColumnDef], prefix: str, first_body_row: int, n: int) -> dict[str, str]:

@@ -16,6 +16,7 @@ from .readers import Inputs
 from .spec import DATA, INPUT, Column, Sheet, Table
 
 HEADER_ROW = 0  # in_ sheets: the header in row 1, data from row 2
+CATALOG_NAME = "sb_catalog"  # defined names <this>_<column> over product_id, each editable column and its exported_ twin
 EXPORTED = "exported_"  # prefix of the hidden columns holding an editable column as exported
 EDITABLE = {"catalog": {"price", "unit_cost", "fees_per_unit", "target_acos", "margin"}}
 SORT_KEYS = {
@@ -129,6 +130,7 @@ def plan_input_sheets(inputs: Inputs, fold_plurals: bool = False,
                 source = sorted_rows(rule.name, exported[rule.name])
             for col in rule.columns:
                 if col.name in editable:
+                    ranges[EXPORTED + col.name] = range_ref(name, len(columns), HEADER_ROW + 1, HEADER_ROW + len(frame))
                     columns.append(Column(EXPORTED + col.name, _STYLE.get(col.kind, "text"), DATA,
                                           source[col.name].tolist(), width=8, hidden=True))
         for column, header, _ in DERIVED.get(rule.name, []):
@@ -139,3 +141,12 @@ def plan_input_sheets(inputs: Inputs, fold_plurals: bool = False,
         sheets.append(Sheet(name, table=Table(HEADER_ROW, columns), freeze=(1, 0), tab_color="#8C8C8C"))
         layouts[rule.name] = InputSheet(rule.name, name, frame, ranges)
     return sheets, layouts
+
+
+def catalog_names(layouts: dict[str, InputSheet]) -> list[tuple[str, str]]:
+    """The defined names over in_catalog's product_id, editable and exported_ columns (none without a catalog)."""
+    layout = layouts.get("catalog")
+    if layout is None:
+        return []
+    wanted = ["product_id", *sorted(EDITABLE["catalog"]), *(EXPORTED + c for c in sorted(EDITABLE["catalog"]))]
+    return [(f"{CATALOG_NAME}_{c}", "=" + layout.ranges[c]) for c in wanted if c in layout.ranges]

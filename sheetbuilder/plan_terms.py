@@ -24,7 +24,7 @@ import numpy as np
 import pandas as pd
 
 from .blends import attach_groups, group_columns, target_acos_column, zero_order_column
-from .columns import ColumnDef, PlannedTable, blank_div, plan_table, running_key
+from .columns import ColumnDef, PlannedTable, blank_div, editable, plan_table, running_key
 from .normalise import contains_phrase, looks_like_product_id, normalise, words
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
@@ -279,6 +279,11 @@ def _negative_key(row, phrases: dict, exact: set) -> tuple:
             if contains_phrase(row.term_key, phrase):
                 return ("NP", scope[0], scope[1], phrase)
     return ("N", row.campaign, row.ad_group, row.term_key)
+
+# What a user types on Terms and the keys that find its row again (carry, changes and the tests read these).
+EDITABLE_COLUMNS = editable(_defs(0), "Terms", SHEET, "sb_terms", ("campaign", "ad_group", "term"), "decision",
+                            ("search_terms",), ("campaign", "ad_group", "search_term"), normalised=("term",),
+                            words=DECISIONS)
 
 
 def term_frame(layout: InputSheet, groups: pd.DataFrame, campaigns: pd.DataFrame | None,
