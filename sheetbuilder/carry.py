@@ -168,6 +168,7 @@ class CarryResult:
         as_built: the settings from settings.toml and the defaults, before carrying.
         exported: {table: frame as the export held it} for tables whose values were carried over.
         source: the previous workbook's path.
+        applied: every typed number this week's export shows applied (it expires: the cell is left blank).
     """
 
     settings: Settings
@@ -180,6 +181,7 @@ class CarryResult:
     as_built: Settings | None = None
     exported: dict = field(default_factory=dict)
     source: str = ""
+    applied: list = field(default_factory=list)
 
 
 # ---------------------------------------------------------------------------------------------- reading
@@ -484,25 +486,57 @@ def _carry_targets(edits: Edits, tables, fold: bool, carried: list, unmatched: l
     return out
 
 
-def _carry_decisions(edits: Edits, tables, fold: bool, carried: list, unmatched: list) -> dict:
+def _current_values(entry: EditSheet, tables, fold: bool) -> dict[tuple, float]:
+    """{compared key: today's value a typed number replaces (summed over the key's rows)} from the new inputs."""
+    column = entry.decl.input_current
+    columns = [k.column for k in entry.keys]
+    for name in entry.tables:
+        frame = tables.get(name)
+        if not column or frame is None or column not in frame.columns or not all(c in frame.columns for c in columns):
+            continue
+        out: dict[tuple, float] = {}
+        for *parts, value in frame[[*columns, column]].itertuples(index=False, name=None):
+            key = entry.key_of(parts, fold)
+            out[key] = out.get(key, 0.0) + (0.0 if _blank(value) else float(value))
+        return out
+    return {}
+
+
+def _applied(typed: Any, current: float | None) -> bool:
+    """Whether this week's export shows a typed number applied: the current value equals it to the cent."""
+    return current is not None and _is_number(typed) and round(float(typed) * 100) == round(float(current) * 100)
+
+
+def _carry_decisions(edits: Edits, tables, fold: bool, carried: list, unmatched: list, applied: list) -> dict:
     out: dict[str, dict] = {}
     for entry in DECISION_SHEETS:
         typed = edits.decisions.get(entry.label)
         if not typed:
             continue
         existing = _existing(entry, tables, fold)
+        current = _current_values(entry, tables, fold)
         for parts, value in typed.items():
             if len(parts) != len(entry.keys):
                 continue  # another block of the same sheet
             key = entry.key_of(parts, fold)
             text = _key_text(parts)
-            if existing is None:
+            problem = entry.decl.problem(value)
+            if problem is not None:
+                why = problem
+            elif existing is None:
                 why = f"the new exports have no {' or '.join(entry.tables)} table"
             elif key not in existing:
                 why = f"no longer in the {' or '.join(entry.tables)} export"
+            elif _is_number(value) and _applied(value, current.get(key)):
+                applied.append(CarryRecord(entry.label, text, entry.value_header, value,
+                                           f"applied: this export's {entry.decl.numeric} is {_shown(current[key])}"))
+                continue
             else:
                 out.setdefault(entry.label, {})[key] = value
-                carried.append(CarryRecord(entry.label, text, entry.value_header, value, "typed last time"))
+                why = ("typed last time; not yet applied (this export's {} is {})".format(
+                    entry.decl.numeric, _shown(current[key])) if _is_number(value) and key in current
+                       else "typed last time")
+                carried.append(CarryRecord(entry.label, text, entry.value_header, value, why))
                 continue
             unmatched.append(CarryRecord(entry.label, text, entry.value_header, value, why))
     return out
@@ -527,11 +561,12 @@ def apply_edits(edits: Edits, inputs_tables: Any, settings: Settings) -> CarryRe
     fold = new_settings.fold_plurals
     catalog = _carry_catalog(edits, tables, carried, unmatched)
     targets = _carry_targets(edits, tables, fold, carried, unmatched)
-    decisions = _carry_decisions(edits, tables, fold, carried, unmatched)
+    applied: list[CarryRecord] = []
+    decisions = _carry_decisions(edits, tables, fold, carried, unmatched, applied)
     for label, why in edits.lost:
         unmatched.append(CarryRecord(label, "(the whole column)", "", None, why))
     return CarryResult(new_settings, changed, catalog, targets, decisions, carried, unmatched, settings,
-                       source=edits.source)
+                       source=edits.source, applied=applied)
 
 
 # ------------------------------------------------------------------------------------ helpers for the build
@@ -576,17 +611,19 @@ def unmatched_sheet_rows(result: CarryResult) -> list[list[Any]]:
 
 
 def carried_summary(result: CarryResult) -> str:
-    """One paragraph for the command line: what was carried and what was not."""
+    """One paragraph for the command line: how many edits were carried, expired as applied, and not matched."""
     counts: dict[str, int] = {}
     for r in result.carried:
         counts[r.sheet] = counts.get(r.sheet, 0) + 1
     parts = [f"{n} on {sheet}" for sheet, n in counts.items()]
     text = f"Carried {len(result.carried)} edit(s) from the previous workbook"
     text += f" ({', '.join(parts)})." if parts else "."
+    text += (f" {len(result.applied)} typed number(s) expired: this week's export shows them applied." if result.applied
+             else " 0 typed numbers expired as applied.")
     if result.settings_changed:
         text += " Settings that now differ from settings.toml: " + ", ".join(
             f"{k} {_shown(old)} -> {_shown(new)}" for k, (old, new) in result.settings_changed.items()) + "."
-    if result.unmatched:
-        text += (f" {len(result.unmatched)} edit(s) could not be carried (their product, target or term is gone, "
-                 "or the value is not valid); they are listed on the Unmatched edits sheet.")
+    text += (f" {len(result.unmatched)} edit(s) could not be carried (their product, target or term is gone, "
+             "or the value is not valid); they are listed on the Unmatched edits sheet." if result.unmatched
+             else " 0 edits could not be matched.")
     return text

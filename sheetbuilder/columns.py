@@ -75,6 +75,7 @@ class EditableColumns:
         numeric: what a typed number means ('bid', 'spend', 'budget', 'target'); '' when only words are valid.
         words: the valid typed words ('keep', 'skip', ...).
         current: the planned frame's column holding today's value a typed number replaces.
+        input_current: the input tables' column holding that value (summed over a key's rows).
     """
 
     label: str
@@ -90,6 +91,11 @@ class EditableColumns:
     numeric: str = ""
     words: tuple[str, ...] = ()
     current: str = ""
+    input_current: str = ""
+
+    def problem(self, value: Any) -> str | None:
+        """Why a typed value is not valid here (None when it is, or is blank)."""
+        return decision_problem(value, self.words, bool(self.numeric))
 
     def name_of(self, key: str) -> str:
         """The defined name over a column's body."""
@@ -122,29 +128,101 @@ def blank_div(num: Any, den: Any) -> Any:
     return pd.Series(out, index=index)
 
 
+INVALID = "invalid"  # what a Final column shows for a Decision that is not a valid word or number
+# Error values as a spreadsheet program saves them in a cell (openpyxl reads them as this text).
+ERROR_TEXTS = frozenset({"#NULL!", "#DIV/0!", "#VALUE!", "#REF!", "#NAME?", "#NUM!", "#N/A", "#GETTING_DATA"})
+
+
+class NoSavedValue:
+    """A typed cell holding a formula whose value the file does not store (saved by a program that drops them)."""
+
+    def __repr__(self) -> str:
+        return "a formula with no saved value"
+
+
+NO_SAVED_VALUE = NoSavedValue()
+
+
+def is_blank(value: Any) -> bool:
+    """Whether a cell value is blank: None, NaN or empty text."""
+    return value is None or (isinstance(value, str) and value == "") or (isinstance(value, float) and np.isnan(value))
+
+
+def is_number(value: Any) -> bool:
+    """Whether a cell value is a number (not a bool, not NaN)."""
+    return isinstance(value, (int, float, np.integer, np.floating)) and not isinstance(value, bool) and not np.isnan(value)
+
+
+def decision_problem(value: Any, words: tuple[str, ...], numeric: bool) -> str | None:
+    """Why a typed Decision is not valid (None when it is, or is blank).
+
+    Valid: one of words (case ignored, as spreadsheet comparison ignores it), or any number
+    when numeric. Never valid: a formula error, a formula with no saved value, other text.
+    """
+    if is_blank(value):
+        return None
+    if value is NO_SAVED_VALUE:
+        return "the cell holds a formula with no saved value; type the value itself"
+    if isinstance(value, str) and value.strip() in ERROR_TEXTS:
+        return f"the cell holds a formula error ({value.strip()}); type the value itself"
+    if is_number(value):
+        return None if numeric else f"a number is not a decision here; expected one of {', '.join(words)}"
+    if isinstance(value, str) and value.lower() in words:
+        return None
+    expected = ("a number or " if numeric else "") + " or ".join(repr(w) for w in words)
+    return f"{str(value)!r} is not a valid decision; expected {expected}"
+
+
 def apply_decision(df: pd.DataFrame, proposed: str, current: str) -> pd.Series:
     """Reference of a Final column: blank Decision follows proposed, a number is used, 'keep' keeps current.
 
-    The formula it mirrors: IF(decision="",proposed,IF(ISNUMBER(decision),decision,
-    IF(decision="keep",current,proposed))).
+    Anything else (other text, a formula error) is shown as 'invalid', never as the proposal.
+    The formula it mirrors: see :func:`decision_formula`.
     """
     out = []
     for d, p, c in zip(df["decision"], df[proposed], df[current]):
-        if d is None or (isinstance(d, float) and np.isnan(d)) or d == "":
-            out.append(p)
-        elif isinstance(d, (int, float)) and not isinstance(d, bool):
+        if is_blank(d):
+            out.append(float(p))
+        elif decision_problem(d, ("keep",), True) is not None:
+            out.append(INVALID)
+        elif is_number(d):
             out.append(float(d))
-        elif str(d).strip().lower() == "keep":
-            out.append(c)
         else:
-            out.append(p)
-    return pd.Series(out, index=df.index, dtype=float)
+            out.append(float(c))
+    return pd.Series(out, index=df.index, dtype=object if INVALID in out else float)
+
+
+# LEN of an error value is an error, so IFERROR(LEN(d),-1)=-1 is true exactly when the Decision holds one.
+_ERROR_TEST = "IFERROR(LEN({c:decision}),-1)=-1"
 
 
 def decision_formula(proposed: str, current: str) -> str:
     """The formula of a Final column (see apply_decision)."""
-    return ('=IF({c:decision}="",{c:%s},IF(ISNUMBER({c:decision}),{c:decision},IF({c:decision}="keep",{c:%s},'
-            '{c:%s})))' % (proposed, current, proposed))
+    return ('=IF(%s,"%s",IF({c:decision}="",{c:%s},IF(ISNUMBER({c:decision}),{c:decision},'
+            'IF({c:decision}="keep",{c:%s},"%s"))))' % (_ERROR_TEST, INVALID, proposed, current, INVALID))
+
+
+def apply_word_decision(df: pd.DataFrame, fallback: str, words: tuple[str, ...]) -> pd.Series:
+    """Reference of a Final column of words: blank Decision follows fallback, a valid word is used (lower case).
+
+    Anything else shows 'invalid'. The formula it mirrors: :func:`word_decision_formula`.
+    """
+    out = []
+    for d, f in zip(df["decision"], df[fallback]):
+        if is_blank(d):
+            out.append(f)
+        elif decision_problem(d, words, False) is not None:
+            out.append(INVALID)
+        else:
+            out.append(str(d).lower())
+    return pd.Series(out, index=df.index, dtype=object)
+
+
+def word_decision_formula(fallback: str, words: tuple[str, ...]) -> str:
+    """The formula of a Final column of words (see apply_word_decision)."""
+    valid = ",".join('{c:decision}="%s"' % w for w in words)
+    return ('=IF(%s,"%s",IF({c:decision}="",{c:%s},IF(ISNUMBER({c:decision}),"%s",IF(OR(%s),LOWER({c:decision}),'
+            '"%s"))))' % (_ERROR_TEST, INVALID, fallback, INVALID, valid, INVALID))
 
 
 def running_key(prefix: str, what: str, condition: str, qualifies: Callable[[pd.DataFrame], pd.Series],

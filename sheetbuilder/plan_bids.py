@@ -220,7 +220,8 @@ DEFS: list[ColumnDef] = [
 
 # What a user types on Bids and the keys that find its row again (carry, changes and the tests read these).
 EDITABLE_COLUMNS = editable(DEFS, "Bids", SHEET, "sb_bids", ("campaign", "ad_group", "target", "match_type"),
-                            "decision", ("targets",), numeric="bid", words=("keep",), current="bid")
+                            "decision", ("targets",), numeric="bid", words=("keep",), current="bid",
+                            input_current="bid")
 
 
 def target_frame(targets: InputSheet, campaigns: pd.DataFrame | None, groups: pd.DataFrame) -> pd.DataFrame:

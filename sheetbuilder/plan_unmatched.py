@@ -5,6 +5,8 @@ here with the reason, as plain text.
 """
 from __future__ import annotations
 
+from pathlib import Path
+
 from .carry import CarryResult, unmatched_sheet_rows
 from .spec import DATA, Cell, Column, Sheet, Table
 
@@ -24,4 +26,4 @@ def plan_unmatched(carry: CarryResult) -> Sheet:
 
 def carry_source(carry: CarryResult) -> str:
     """The previous workbook's file name, as the edits record it."""
-    return getattr(carry, "source", "") or "the previous workbook"
+    return Path(carry.source).name if carry.source else "the previous workbook"

@@ -185,3 +185,24 @@ def test_header_rows_are_found_by_scanning(tmp_path):
     path = tmp_path / "moved.xlsx"
     wb.save(path)
     assert read_edits(path).decisions == {"Bids": {("C1", "G1", "kw", "exact"): 0.5}}
+
+
+def test_decisions_that_are_not_a_valid_word_or_number_are_unmatched_with_the_reason():
+    """Text in a numeric Decision, an unknown word and a saved formula error are never carried or ignored."""
+    from sheetbuilder.columns import NO_SAVED_VALUE
+    inputs, settings, _ = load(DEMO)
+    t = inputs.tables["targets"].iloc[0]
+    s = inputs.tables["search_terms"].iloc[0]
+    c = inputs.tables["campaigns"].iloc[0]
+    bid_key = (t["campaign"], t["ad_group"], t["target"], t["match_type"])
+    term_key = (s["campaign"], s["ad_group"], s["search_term"])
+    edits = Edits("x.xlsx", decisions={"Bids": {bid_key: "about 0.40"}, "Terms": {term_key: "#DIV/0!"},
+                                       "Budget campaigns": {(c["campaign"],): "lots"},
+                                       "Budget": {("LF-1001",): NO_SAVED_VALUE}})
+    result = apply_edits(edits, inputs.tables, settings)
+    why = {r.sheet: r.why for r in result.unmatched}
+    assert {} == result.decisions and [] == result.carried
+    assert "'about 0.40' is not a valid decision; expected a number or 'keep'" == why["Bids"]
+    assert "'lots' is not a valid decision; expected a number or 'keep'" == why["Budget campaigns"]
+    assert "formula error (#DIV/0!)" in why["Terms"]
+    assert "formula with no saved value" in why["Budget"]

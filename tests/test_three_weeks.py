@@ -15,6 +15,7 @@ import openpyxl
 import pytest
 
 from conftest import BUILT_ON, DEMO, require_libreoffice
+from sheetbuilder.carry import carried_summary
 from sheetbuilder.pipeline import build
 from sheetbuilder.recalc import libreoffice_convert
 
@@ -117,3 +118,23 @@ def test_a_target_override_a_term_decision_and_a_bid_keep_are_still_there_in_wee
     assert NEW_TARGET == _cell(wb["Profit"], 5, {"Product ID": PRODUCT_TARGET}, "Your target ACoS").value
     assert "skip" == _cell(wb["Terms"], 4, {"Position": weeks["skipped"]["pos"]}, "Decision").value
     assert "keep" == _cell(wb["Bids"], 4, _bid_key(weeks["kept"]), "Decision").value
+
+
+@pytest.mark.libreoffice
+def test_a_typed_bid_the_export_shows_applied_expires_and_is_listed_as_applied(weeks):
+    key = tuple(_bid_key(weeks["applied"]).values())
+    second = weeks["second"]
+    assert [(key, weeks["applied_bid"])] == [(tuple(r.key.split(" / ")), r.value) for r in second.carry.applied]
+    assert "1 typed number(s) expired" in carried_summary(second.carry)
+    for week in ("second", "third"):
+        wb = openpyxl.load_workbook(weeks[week].output)
+        assert _cell(wb["Bids"], 4, _bid_key(weeks["applied"]), "Decision").value is None  # left blank
+
+
+@pytest.mark.libreoffice
+def test_a_typed_bid_not_yet_applied_is_still_carried_and_flagged_in_week_three(weeks):
+    wb = openpyxl.load_workbook(weeks["third"].output)
+    assert weeks["pending_bid"] == _cell(wb["Bids"], 4, _bid_key(weeks["pending"]), "Decision").value
+    key = " / ".join(_bid_key(weeks["pending"]).values())
+    record = next(r for r in weeks["third"].carry.carried if r.sheet == "Bids" and r.key == key)
+    assert "not yet applied" in record.why
