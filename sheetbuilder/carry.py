@@ -32,7 +32,7 @@ from openpyxl.utils.cell import coordinate_to_tuple
 from .columns import EditableColumns
 from .normalise import normalise
 from .plan_inputs import CATALOG_NAME, EDITABLE, EXPORTED
-from .saved import BUDGET_CAMPAIGNS, DECISION_TABLES, PROFIT, SavedWorkbookUnreadable, named_columns, open_workbook
+from .saved import BUDGET_CAMPAIGNS, DECISION_TABLES, PROFIT, SavedBook, SavedWorkbookUnreadable, named_columns
 from .settings import SETTINGS, Settings, _coerce
 
 SCAN_ROWS = 10  # header rows are looked for in the first rows of a sheet
@@ -186,17 +186,6 @@ class CarryResult:
 
 # ---------------------------------------------------------------------------------------------- reading
 
-def _rows(ws) -> list[list[Any]]:
-    """Every row of a read-only sheet as a list of values (padded to one width)."""
-    try:
-        ws.reset_dimensions()  # some programs store a wrong dimension; read every row
-    except AttributeError:  # pragma: no cover - not a read-only sheet
-        pass
-    rows = [list(r) for r in ws.iter_rows(values_only=True)]
-    width = max((len(r) for r in rows), default=0)
-    return [r + [None] * (width - len(r)) for r in rows]
-
-
 def _blank(value: Any) -> bool:
     return value is None or (isinstance(value, str) and value.strip() == "") or (
         isinstance(value, float) and math.isnan(value))
@@ -331,35 +320,31 @@ def read_edits(path: Path) -> Edits:
     Raises:
         PreviousWorkbookUnreadable: path is missing or not a readable .xlsx file.
     """
-    wb = open_workbook(path)
-    try:
-        cache: dict[str, list[list[Any]]] = {}
+    with SavedBook(path) as book:
+        return edits_in(book)
 
-        def rows_of(sheet: str) -> list[list[Any]]:
-            if sheet not in cache:
-                cache[sheet] = _rows(wb[sheet]) if sheet in wb.sheetnames else []
-            return cache[sheet]
 
-        settings = _settings_cells(wb, rows_of)
-        catalog = _catalog_cells(wb, rows_of)
-        lost: list[tuple[str, str]] = []
-        decisions: dict[str, dict] = {}
-        targets: dict[str, Any] = {}
-        for entry in (*DECISION_SHEETS, PROFIT_TARGET):
-            found = _read_block(wb, rows_of, entry)
-            if found is None:
-                if entry.sheet in wb.sheetnames:
-                    lost.append((entry.label, f"its {entry.value_header!r} column was not found: the workbook "
-                                              f"has no defined name {entry.decl.name_of(entry.decl.value)} and no "
-                                              f"header row reading {', '.join(entry.decl.headers.values())}"))
-                continue
-            if entry is PROFIT_TARGET:
-                targets = {_text(k[0]): v for k, v in found.items()}
-            elif found:
-                decisions.setdefault(entry.label, {}).update(found)
-        return Edits(str(path), settings, catalog, targets, decisions, lost)
-    finally:
-        wb.close()
+def edits_in(book: SavedBook) -> Edits:
+    """Everything a user typed in an opened saved workbook (see :func:`read_edits`)."""
+    wb, rows_of = book.wb, book.rows
+    settings = _settings_cells(wb, rows_of)
+    catalog = _catalog_cells(wb, rows_of)
+    lost: list[tuple[str, str]] = []
+    decisions: dict[str, dict] = {}
+    targets: dict[str, Any] = {}
+    for entry in (*DECISION_SHEETS, PROFIT_TARGET):
+        found = _read_block(wb, rows_of, entry)
+        if found is None:
+            if entry.sheet in wb.sheetnames:
+                lost.append((entry.label, f"its {entry.value_header!r} column was not found: the workbook "
+                                          f"has no defined name {entry.decl.name_of(entry.decl.value)} and no "
+                                          f"header row reading {', '.join(entry.decl.headers.values())}"))
+            continue
+        if entry is PROFIT_TARGET:
+            targets = {_text(k[0]): v for k, v in found.items()}
+        elif found:
+            decisions.setdefault(entry.label, {}).update(found)
+    return Edits(str(book.path), settings, catalog, targets, decisions, lost)
 
 
 # --------------------------------------------------------------------------------------------- applying

@@ -97,3 +97,134 @@ def named_columns(wb: Any, names: dict[str, str]) -> dict[str, Area] | None:
         return None
     bounds = {(a.sheet, a.first_row, a.last_row) for a in areas.values()}
     return areas if len(bounds) == 1 else None
+
+
+class SavedBook:
+    """A saved workbook opened by :func:`open_workbook`, with each sheet's rows read once."""
+
+    def __init__(self, path: Path):
+        self.path = Path(path)
+        self.wb = open_workbook(self.path)
+        self._rows: dict[str, list[list[Any]]] = {}
+
+    def rows(self, sheet: str) -> list[list[Any]]:
+        """Every row of sheet as a list of values (padded to one width); none when the sheet is absent."""
+        if sheet not in self._rows:
+            out: list[list[Any]] = []
+            if sheet in self.wb.sheetnames:
+                ws = self.wb[sheet]
+                try:
+                    ws.reset_dimensions()  # some programs store a wrong dimension; read every row
+                except AttributeError:  # pragma: no cover - not a read-only sheet
+                    pass
+                out = [list(r) for r in ws.iter_rows(values_only=True)]
+                width = max((len(r) for r in out), default=0)
+                out = [r + [None] * (width - len(r)) for r in out]
+            self._rows[sheet] = out
+        return self._rows[sheet]
+
+    def named_value(self, name: str) -> Any:
+        """The value of the single cell a defined name points at, or None."""
+        area = named_area(self.wb, name)
+        if area is None:
+            return None
+        rows = self.rows(area.sheet)
+        if area.first_row >= len(rows) or area.first_col >= len(rows[area.first_row]):
+            return None
+        return rows[area.first_row][area.first_col]
+
+    def close(self) -> None:
+        """Close the file."""
+        self.wb.close()
+
+    def __enter__(self) -> "SavedBook":
+        return self
+
+    def __exit__(self, *exc: Any) -> None:
+        self.close()
+
+
+def saved_inputs(book: SavedBook) -> tuple[dict[str, Any], list]:
+    """The input tables as the workbook's in_ sheets hold them (corrections included), in export order.
+
+    Returns:
+        ({table: frame or None}, problems): a Problem for every cell of a number column
+        that does not hold a number (a correction typed as text).
+    """
+    import math
+
+    import pandas as pd
+
+    from . import contract as c
+    from .errors import Problem
+    from .plan_inputs import sheet_name
+
+    tables: dict[str, Any] = {}
+    problems: list = []
+    for rule in c.TABLES:
+        sheet = sheet_name(rule.name)
+        rows = book.rows(sheet)
+        if sheet not in book.wb.sheetnames or not rows:
+            tables[rule.name] = None
+            continue
+        header = ["" if v is None else str(v) for v in rows[0]]
+        at = {h: i for i, h in enumerate(header) if h}
+        body = [r for r in rows[1:] if any(v is not None and v != "" for v in r)]
+        data: dict[str, list] = {"_row": [int(r[at["source_row"]]) for r in body]}
+        for col in rule.columns:
+            i = at.get(col.name)
+            values = [None if i is None else r[i] for r in body]
+            if col.kind in c.NUMERIC_KINDS:
+                blank = 0.0 if col.kind in (c.COUNT, c.MONEY) else math.nan
+                out = []
+                for n, v in enumerate(values):
+                    if v is None or v == "":
+                        out.append(blank)
+                    elif isinstance(v, (int, float)) and not isinstance(v, bool):
+                        out.append(float(v))
+                    else:
+                        problems.append(Problem(sheet, n + 2, col.name, f"holds {v!r}; expected a number"))
+                        out.append(math.nan)
+                data[col.name] = out
+            else:
+                data[col.name] = ["" if v is None else (v if isinstance(v, str) else _as_text(v)) for v in values]
+        frame = pd.DataFrame(data).sort_values("_row", kind="stable").reset_index(drop=True)
+        for col in rule.columns:
+            frame[col.name] = frame[col.name].astype(float if col.kind in c.NUMERIC_KINDS else object)
+        tables[rule.name] = frame
+    return tables, problems
+
+
+def _as_text(value: Any) -> str:
+    """A number a spreadsheet program stored in a text column, as text (12.0 as '12')."""
+    if isinstance(value, float) and value.is_integer():
+        return str(int(value))
+    return str(value)
+
+
+def saved_settings(book: SavedBook):
+    """(Settings, built_on, problems): every setting as the Settings sheet holds it (typed values included)."""
+    import datetime as dt
+
+    from .settings import SETTINGS, Settings, _coerce
+
+    values: dict[str, Any] = {}
+    problems: list = []
+    for spec in SETTINGS:
+        raw = book.named_value(spec.key)
+        if spec.kind == "bool" and isinstance(raw, str):
+            raw = {"yes": True, "no": False}.get(raw.strip().lower(), raw)
+        if raw is None and spec.kind == "date":
+            values[spec.key] = None
+            continue
+        if raw is None:
+            continue
+        value, problem = _coerce(spec, raw, "Settings")
+        if problem is not None:
+            problems.append(problem)
+            continue
+        values[spec.key] = value
+    built = book.named_value("built_on")
+    built_on = built.date() if isinstance(built, dt.datetime) else (built if isinstance(built, dt.date) else
+                                                                    dt.date.today())
+    return Settings().replace(**values), built_on, problems

@@ -15,6 +15,7 @@ from openpyxl.utils import get_column_letter
 
 from conftest import BUILT_ON, DEMO, require_libreoffice
 from sheetbuilder.carry import read_edits
+from sheetbuilder.changes import export_changes
 from sheetbuilder.pipeline import build
 from sheetbuilder.plan_bids import EDITABLE_COLUMNS as BIDS
 from sheetbuilder.plan_budget import CAMPAIGN_EDITABLE_COLUMNS as CAMPAIGNS
@@ -113,6 +114,24 @@ def test_decisions_under_renamed_headers_are_carried_into_next_week(rearranged):
     frame = result.plan.tables["Terms"].frame
     got = {tuple(r[k] for k in TERMS.keys): r["decision"] for _, r in frame.iterrows() if _typed(r["decision"])}
     assert rearranged["terms"] == got
+
+
+@pytest.mark.libreoffice
+def test_decisions_under_renamed_headers_and_sorted_rows_are_exported(rearranged):
+    result = export_changes(rearranged["saved"], rearranged["work"] / "changes.csv")
+    assert result.computed
+    bids = {(r[1], r[2], r[3], r[4]): r[6] for r in result.rows if r[0] == "bid"}
+    for key, value in rearranged["bids"].items():
+        if value != "keep":
+            assert value == bids[key]
+    budgets = {(r[1],): r[6] for r in result.rows if r[0] == "budget"}
+    assert rearranged["campaigns"] == {k: budgets[k] for k in rearranged["campaigns"]}
+    adds = {(r[1], r[2], r[3]) for r in result.rows if r[0] in ("add keyword", "add product target")}
+    negatives = {(r[1], r[2], r[3]) for r in result.rows if r[0] == "add negative"}
+    for key, value in rearranged["terms"].items():
+        assert key not in adds  # skip: never added; block: negated where it ran
+        if value == "block":
+            assert key in negatives
 
 
 @pytest.mark.libreoffice
