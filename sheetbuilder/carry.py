@@ -22,7 +22,8 @@ from __future__ import annotations
 
 import math
 import numbers
-from dataclasses import dataclass, field
+import datetime as dt
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any, Callable, Iterable, Mapping, Sequence
 
@@ -32,7 +33,7 @@ from openpyxl.utils.cell import coordinate_to_tuple
 from .columns import EditableColumns
 from .normalise import normalise
 from .plan_inputs import CATALOG_NAME, EDITABLE, EXPORTED
-from .saved import BUDGET_CAMPAIGNS, DECISION_TABLES, PROFIT, SavedBook, SavedWorkbookUnreadable, named_columns
+from .saved import BUDGET_CAMPAIGNS, CARRIED_NAME, DECISION_TABLES, PROFIT, SavedBook, SavedWorkbookUnreadable, named_columns
 from .settings import SETTINGS, Settings, _coerce
 
 SCAN_ROWS = 10  # header rows are looked for in the first rows of a sheet
@@ -132,6 +133,8 @@ class Edits:
             :data:`DECISION_SHEETS` entry.
         lost: (label, why) of every typed column the workbook has the sheet of but that could
             not be found (neither its defined name nor its header).
+        first_typed: {(sheet, key, column): date} from the workbook's Carried edits sheet.
+        built_on: the workbook's build date (the week an edit not yet on Carried edits was typed).
     """
 
     source: str
@@ -140,17 +143,26 @@ class Edits:
     targets: dict = field(default_factory=dict)
     decisions: dict = field(default_factory=dict)
     lost: list = field(default_factory=list)
+    first_typed: dict = field(default_factory=dict)
+    built_on: Any = None
 
 
 @dataclass(frozen=True)
 class CarryRecord:
-    """One edit carried or not: sheet, key as text, column, value, and why."""
+    """One edit carried or not: sheet, key as text, column, value, and why.
+
+    Carried and applied edits also hold the value the export (or settings.toml) gives,
+    the build date of the week it was first typed, and the compared key of its row.
+    """
 
     sheet: str
     key: str
     column: str
     value: Any
     why: str
+    exported: Any = None
+    first_typed: Any = None
+    compared: tuple = ()
 
 
 @dataclass(frozen=True)
@@ -344,7 +356,24 @@ def edits_in(book: SavedBook) -> Edits:
             targets = {_text(k[0]): v for k, v in found.items()}
         elif found:
             decisions.setdefault(entry.label, {}).update(found)
-    return Edits(str(book.path), settings, catalog, targets, decisions, lost)
+    built = book.named_value("built_on")
+    return Edits(str(book.path), settings, catalog, targets, decisions, lost, _first_typed(book),
+                 built.date() if isinstance(built, dt.datetime) else built)
+
+
+def _first_typed(book: SavedBook) -> dict[tuple[str, str, str], Any]:
+    """{(sheet, key, column): date first typed} from the Carried edits sheet, found by its defined names."""
+    keys = ("sheet", "key", "column", "first_typed")
+    areas = named_columns(book.wb, {k: f"{CARRIED_NAME}_{k}" for k in keys})
+    if areas is None:
+        return {}
+    area = areas["sheet"]
+    out = {}
+    for row in book.rows(area.sheet)[area.first_row:area.last_row + 1]:
+        sheet, key, column, first = (_cell(row, areas[k].first_col) for k in keys)
+        if not _blank(sheet):
+            out[(_text(sheet), _text(key), _text(column))] = first.date() if isinstance(first, dt.datetime) else first
+    return out
 
 
 # --------------------------------------------------------------------------------------------- applying
@@ -417,7 +446,7 @@ def _carry_settings(edits: Edits, settings: Settings, carried: list, unmatched: 
     changed = {k: (settings.value(k), v) for k, v in values.items()}
     for key, (old, new) in changed.items():
         carried.append(CarryRecord(SETTINGS_SHEET, key, "Value", new,
-                                   f"replaces {_shown(old)} from settings.toml or the default"))
+                                   f"replaces {_shown(old)} from settings.toml or the default", old))
     return settings.replace(**values), changed
 
 
@@ -447,7 +476,7 @@ def _carry_catalog(edits: Edits, tables, carried: list, unmatched: list) -> dict
         value = None if _blank(value) else float(value)
         out[(pid, column)] = value
         carried.append(CarryRecord(CATALOG_SHEET, pid, column, value,
-                                   f"differs from this export's {_shown(new)}"))
+                                   f"differs from this export's {_shown(new)}", exported=new))
     for pid, cells in gone.items():  # one record per product: the old cells cannot tell typed from exported
         unmatched.append(CarryRecord(CATALOG_SHEET, pid, "catalog inputs", "; ".join(cells),
                                      "the product is no longer in the catalog"))
@@ -467,7 +496,8 @@ def _carry_targets(edits: Edits, tables, fold: bool, carried: list, unmatched: l
                                          f"expected a target ACoS from {low:.0%} to {high:.0%}"))
         else:
             out[pid] = float(value)
-            carried.append(CarryRecord(PROFIT_TARGET.sheet, pid, column, float(value), "typed last time"))
+            carried.append(CarryRecord(PROFIT_TARGET.sheet, pid, column, float(value), "typed last time",
+                                       compared=(pid,)))
     return out
 
 
@@ -514,14 +544,16 @@ def _carry_decisions(edits: Edits, tables, fold: bool, carried: list, unmatched:
                 why = f"no longer in the {' or '.join(entry.tables)} export"
             elif _is_number(value) and _applied(value, current.get(key)):
                 applied.append(CarryRecord(entry.label, text, entry.value_header, value,
-                                           f"applied: this export's {entry.decl.numeric} is {_shown(current[key])}"))
+                                           f"applied: this export's {entry.decl.numeric} is {_shown(current[key])}",
+                                           current[key], compared=key))
                 continue
             else:
                 out.setdefault(entry.label, {})[key] = value
                 why = ("typed last time; not yet applied (this export's {} is {})".format(
                     entry.decl.numeric, _shown(current[key])) if _is_number(value) and key in current
                        else "typed last time")
-                carried.append(CarryRecord(entry.label, text, entry.value_header, value, why))
+                carried.append(CarryRecord(entry.label, text, entry.value_header, value, why,
+                                           current.get(key), compared=key))
                 continue
             unmatched.append(CarryRecord(entry.label, text, entry.value_header, value, why))
     return out
@@ -550,8 +582,11 @@ def apply_edits(edits: Edits, inputs_tables: Any, settings: Settings) -> CarryRe
     decisions = _carry_decisions(edits, tables, fold, carried, unmatched, applied)
     for label, why in edits.lost:
         unmatched.append(CarryRecord(label, "(the whole column)", "", None, why))
-    return CarryResult(new_settings, changed, catalog, targets, decisions, carried, unmatched, settings,
-                       source=edits.source, applied=applied)
+    def dated(records: list[CarryRecord]) -> list[CarryRecord]:
+        return [replace(r, first_typed=edits.first_typed.get((r.sheet, r.key, r.column), edits.built_on))
+                for r in records]
+    return CarryResult(new_settings, changed, catalog, targets, decisions, dated(carried), unmatched, settings,
+                       source=edits.source, applied=dated(applied))
 
 
 # ------------------------------------------------------------------------------------ helpers for the build

@@ -63,7 +63,15 @@ def plan_settings(settings: Settings, built_on: dt.date,
         row = FIRST_ROW + i
         style = _STYLE[spec.kind]
         value = _shown(spec, settings.value(spec.key))
-        if spec.live:
+        built = _shown(spec, as_built.value(spec.key))
+        if spec.live and value != built:  # carried from last week's workbook: shaded apart, with a note
+            cell = Cell(value, style=style + "_carried", kind=INPUT,
+                        note=f"Carried from last week's workbook; settings.toml or the default gives {built}. "
+                             "Type that value back to follow settings.toml again.")
+            options = _validation(spec)
+            if options:
+                validations.append(Validation(row, 1, options))
+        elif spec.live:
             cell = Cell(value, style=style + "_input", kind=INPUT)
             options = _validation(spec)
             if options:
@@ -71,7 +79,7 @@ def plan_settings(settings: Settings, built_on: dt.date,
         else:
             cell = Cell(value, style=style, kind=DATA)
         rows.append([Cell(spec.label), cell, Cell(spec.help, style="text" if spec.live else "note"),
-                     Cell(spec.key, style="note"), Cell(_shown(spec, as_built.value(spec.key)), style=style)])
+                     Cell(spec.key, style="note"), Cell(built, style=style)])
         names.append((spec.key, f"=Settings!$B${row + 1}"))
     built_row = FIRST_ROW + len(SETTINGS)
     rows.append([Cell("Built on"), Cell(built_on, style="date"),

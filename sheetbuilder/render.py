@@ -121,6 +121,8 @@ def _put_cell(ws, row: int, col: int, cell: Cell | None, formats: dict) -> None:
         put_formula(ws, row, col, cell.formula, fmt, _cached(cell.value))
     else:
         put_value(ws, row, col, cell.value, fmt)
+    if cell.note:
+        ws.write_comment(row, col, cell.note)
 
 
 def _write_rows(ws, first: int, rows: list[list[Cell | None]], formats: dict) -> int:
@@ -148,6 +150,7 @@ def _write_table(ws, table: Table, row: int, formats: dict, state_formats: dict,
             check_portable(text)
     n = table.n_rows
     step = max(1, n // 50)
+    marked = [(col, c) for col, c in enumerate(table.columns) if c.kind != FORMULA and (c.cell_styles or c.notes)]
     for i in range(n):
         r = row + i
         rs, ps = str(r + 1), str(r)
@@ -159,6 +162,11 @@ def _write_table(ws, table: Table, row: int, formats: dict, state_formats: dict,
                 put_formula(ws, r, col, text, fmt, _cached(values[i]))
             else:
                 put_value(ws, r, col, values[i], fmt)
+        for col, c in marked:  # cells styled apart (carried values) and their notes, rewritten in the same row
+            if i in c.cell_styles:
+                put_value(ws, r, col, c.values[i], formats[c.cell_styles[i]])
+            if i in c.notes:
+                ws.write_comment(r, col, c.notes[i])
         if progress and (i % step == 0 or i == n - 1):
             progress(sheet_name, i + 1, n)
     if table.autofilter and first:

@@ -28,6 +28,7 @@ from .plan_terms import EDITABLE_COLUMNS as TERMS
 DECISION_TABLES: tuple[EditableColumns, ...] = (BIDS, TERMS, BUDGET, BUDGET_CAMPAIGNS)
 EDITABLE_TABLES: tuple[EditableColumns, ...] = (*DECISION_TABLES, PROFIT)
 ACTIONS_NAME = "sb_actions"  # the defined name over the Actions list's body
+CARRIED_NAME = "sb_carried"  # defined names <this>_<column> over the Carried edits table (its first-typed dates)
 
 
 class SavedWorkbookUnreadable(SheetbuilderError):

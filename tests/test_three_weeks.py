@@ -9,6 +9,7 @@ exports with --previous week 2: every standing edit must still be there.
 from __future__ import annotations
 
 import csv
+import datetime as dt
 import shutil
 
 import openpyxl
@@ -87,9 +88,9 @@ def weeks(tmp_path_factory):
     exports = work / "exports2"
     shutil.copytree(DEMO, exports)
     _apply_bid_in_export(exports, _bid_key(applied), applied_bid)
-    second = build(exports, work / "week2.xlsx", built_on=BUILT_ON, previous=saved1)
+    second = build(exports, work / "week2.xlsx", built_on=BUILT_ON + dt.timedelta(days=7), previous=saved1)
     saved2 = libreoffice_convert([second.output], work / "saved2")[0]
-    third = build(exports, work / "week3.xlsx", built_on=BUILT_ON, previous=saved2)
+    third = build(exports, work / "week3.xlsx", built_on=BUILT_ON + dt.timedelta(days=14), previous=saved2)
     return {"first": first, "second": second, "third": third, "applied": applied, "applied_bid": applied_bid,
             "pending": pending, "pending_bid": pending_bid, "kept": kept, "skipped": skipped}
 
@@ -138,3 +139,33 @@ def test_a_typed_bid_not_yet_applied_is_still_carried_and_flagged_in_week_three(
     key = " / ".join(_bid_key(weeks["pending"]).values())
     record = next(r for r in weeks["third"].carry.carried if r.sheet == "Bids" and r.key == key)
     assert "not yet applied" in record.why
+
+
+@pytest.mark.libreoffice
+def test_carried_edits_lists_each_carried_value_with_the_week_it_was_first_typed(weeks):
+    wb = openpyxl.load_workbook(weeks["third"].output)
+    ws = wb["Carried edits"]
+    header = [c.value for c in ws[4]]
+    rows = [dict(zip(header, [c.value for c in row])) for row in ws.iter_rows(min_row=5) if row[0].value]
+    listed = {(r["Sheet"], r["Key"], r["Column"]): r for r in rows}
+    pending = " / ".join(_bid_key(weeks["pending"]).values())
+    cost = listed[("in_catalog", PRODUCT_COST, "unit_cost")]
+    assert NEW_COST == cost["Typed value"]
+    assert ("Settings", "thin_margin", "Value") in listed and ("Bids", pending, "Decision") in listed
+    assert 0.08 == listed[("Settings", "thin_margin", "Value")]["Export value"]
+    assert {dt.datetime.combine(BUILT_ON, dt.time())} == {r["First typed"] for r in rows}  # typed in week 1
+
+
+@pytest.mark.libreoffice
+def test_every_carried_cell_is_shaded_apart_and_has_a_note(weeks):
+    from sheetbuilder.palette import CARRIED_FILL
+    wb = openpyxl.load_workbook(weeks["third"].output)
+    cells = [_cell(wb["Bids"], 4, _bid_key(weeks["pending"]), "Decision"),
+             _cell(wb["Bids"], 4, _bid_key(weeks["kept"]), "Decision"),
+             _cell(wb["in_catalog"], 1, {"product_id": PRODUCT_COST}, "unit_cost"),
+             _cell(wb["Profit"], 5, {"Product ID": PRODUCT_TARGET}, "Your target ACoS"),
+             _cell(wb["Terms"], 4, {"Position": weeks["skipped"]["pos"]}, "Decision"),
+             _setting_cell(wb, "thin_margin")]
+    for cell in cells:
+        assert CARRIED_FILL.lstrip("#").upper() in str(cell.fill.fgColor.rgb).upper(), cell.coordinate
+        assert "Carried from" in cell.comment.text, cell.coordinate
