@@ -227,9 +227,10 @@ def _located(wb, rows_of: Callable[[str], list[list[Any]]], names: dict[str, str
              sheet: str, scan: int, value_key: str) -> tuple[list[list[Any]], dict[str, int]] | None:
     """(body rows, {key: column}) of a table: by its defined names, else by its header row; None when neither."""
     areas = named_columns(wb, names)
-    if areas is not None:
+    if areas is not None:  # only these columns are read; a formula with no saved value is told from a blank
         area = next(iter(areas.values()))
-        return rows_of(area.sheet)[area.first_row:area.last_row + 1], {k: a.first_col for k, a in areas.items()}
+        cols = {k: a.first_col for k, a in areas.items()}
+        return rows_of(area.sheet, frozenset(cols.values()), True)[area.first_row:area.last_row + 1], cols
     rows = rows_of(sheet)
     at = _header_index(rows, list(headers.values()), scan)
     if at is None:
@@ -299,7 +300,8 @@ def _catalog_cells(wb, rows_of) -> dict[tuple[str, str], Any]:
     areas = named_columns(wb, {c: f"{CATALOG_NAME}_{c}" for c in wanted})
     if areas is not None:
         area = areas["product_id"]
-        body, cols = rows_of(area.sheet)[area.first_row:area.last_row + 1], {k: a.first_col for k, a in areas.items()}
+        cols = {k: a.first_col for k, a in areas.items()}
+        body = rows_of(area.sheet, frozenset(cols.values()))[area.first_row:area.last_row + 1]
     else:  # no names: by header text; an older layout without exported_ columns compares with the export
         rows = rows_of(CATALOG_SHEET)
         at = _header_index(rows, ["product_id"], SCAN_ROWS)

@@ -108,8 +108,8 @@ def _context(book: SavedBook) -> dict[str, Any]:
 def _saved_actions(book: SavedBook) -> list[tuple[int, list[Any]]]:
     """[(sheet row, visible values)] of the Actions list as the file saved it (blank Kind = an empty row)."""
     area = named_area(book.wb, ACTIONS_NAME)
-    rows = book.rows(area.sheet if area else SHEET)
     first_col = area.first_col if area else 0
+    rows = book.rows(area.sheet if area else SHEET, frozenset(range(first_col, first_col + len(HEADERS))))
     first_row = area.first_row if area else FIRST_ROW - 1
     width = len(HEADERS)
     header = [rows[first_row - 1][first_col + i] if first_row - 1 < len(rows) and first_col + i < len(

@@ -10,6 +10,8 @@ would not. Header text is the fallback for a workbook without the names.
 """
 from __future__ import annotations
 
+import html
+import re
 import zipfile
 from dataclasses import dataclass
 from pathlib import Path
@@ -100,29 +102,91 @@ def named_columns(wb: Any, names: dict[str, str]) -> dict[str, Area] | None:
     return areas if len(bounds) == 1 else None
 
 
+_CELL = re.compile(r'<c r="([A-Z]+)(\d+)"([^>]*?)(?:/>|>(.*?)</c>)', re.S)
+_VALUE = re.compile(r"<v>(.*?)</v>", re.S)
+_TEXT = re.compile(r"<t(?: [^>]*)?>(.*?)</t>|<t(?: [^>]*)?/>", re.S)
+_PHONETIC = re.compile(r"<rPh\b.*?</rPh>", re.S)
+_TYPE = re.compile(r'\bt="(\w+)"')
+_STYLE = re.compile(r'\bs="(\d+)"')
+
+
+def _column_index(letters: str) -> int:
+    """0-based column of spreadsheet column letters."""
+    n = 0
+    for ch in letters:
+        n = n * 26 + ord(ch) - 64
+    return n - 1
+
+
+def _number(text: str) -> int | float:
+    """A stored number as openpyxl reads it: int when written without a point or exponent."""
+    return float(text) if any(ch in text for ch in ".eE") or text in ("inf", "-inf", "nan") else int(text)
+
+
 class SavedBook:
-    """A saved workbook opened by :func:`open_workbook`, with each sheet's rows read once."""
+    """A saved workbook opened by :func:`open_workbook`, each sheet's cells read once, fast.
+
+    Cells are read with a narrow scan of the sheet's XML (values as openpyxl gives them in
+    read-only, values-only mode: shared, inline and formula strings, numbers, booleans,
+    error text, dates by their number format), only for the columns a caller asks for, so
+    a wide sheet costs what its wanted columns cost. A formula cell with no saved value
+    reads as :data:`sheetbuilder.columns.NO_SAVED_VALUE` when ``formulas`` is asked for.
+    """
 
     def __init__(self, path: Path):
         self.path = Path(path)
         self.wb = open_workbook(self.path)
-        self._rows: dict[str, list[list[Any]]] = {}
+        self._cache: dict[tuple, list[list[Any]]] = {}
 
-    def rows(self, sheet: str) -> list[list[Any]]:
-        """Every row of sheet as a list of values (padded to one width); none when the sheet is absent."""
-        if sheet not in self._rows:
-            out: list[list[Any]] = []
-            if sheet in self.wb.sheetnames:
-                ws = self.wb[sheet]
-                try:
-                    ws.reset_dimensions()  # some programs store a wrong dimension; read every row
-                except AttributeError:  # pragma: no cover - not a read-only sheet
-                    pass
-                out = [list(r) for r in ws.iter_rows(values_only=True)]
-                width = max((len(r) for r in out), default=0)
-                out = [r + [None] * (width - len(r)) for r in out]
-            self._rows[sheet] = out
-        return self._rows[sheet]
+    def rows(self, sheet: str, columns: frozenset[int] | None = None, formulas: bool = False) -> list[list[Any]]:
+        """The rows of sheet as lists of values (padded to one width); only columns when given; none if absent."""
+        key = (sheet, columns, formulas)
+        if key not in self._cache:
+            self._cache[key] = self._read(sheet, columns, formulas) if sheet in self.wb.sheetnames else []
+        return self._cache[key]
+
+    def _read(self, sheet: str, columns: frozenset[int] | None, formulas: bool) -> list[list[Any]]:
+        from openpyxl.utils.datetime import from_excel
+
+        from .columns import NO_SAVED_VALUE
+        ws = self.wb[sheet]
+        with self.wb._archive.open(ws._worksheet_path) as fh:  # openpyxl's own handle on the file
+            xml = fh.read().decode("utf-8")
+        strings, dates, epoch = ws._shared_strings, self.wb._date_formats, self.wb.epoch
+        found: dict[int, dict[int, Any]] = {}
+        width = 0
+        for m in _CELL.finditer(xml):
+            col = _column_index(m.group(1))
+            if columns is not None and col not in columns:
+                continue
+            attrs, body = m.group(3), m.group(4) or ""
+            kind = _TYPE.search(attrs)
+            kind = kind.group(1) if kind else "n"
+            v = _VALUE.search(body)
+            text = html.unescape(v.group(1)) if v and v.group(1) != "" else None
+            if kind == "inlineStr":
+                value: Any = "".join(html.unescape(t or "") for t in _TEXT.findall(_PHONETIC.sub("", body)))
+            elif text is None:
+                value = NO_SAVED_VALUE if formulas and "<f" in body else None
+            elif kind == "s":
+                value = strings[int(text)]
+            elif kind == "b":
+                value = bool(int(text))
+            elif kind in ("str", "e"):
+                value = text
+            else:
+                value = _number(text)
+                style = _STYLE.search(attrs)
+                if style and int(style.group(1)) in dates:
+                    try:
+                        value = from_excel(value, epoch)
+                    except (OverflowError, ValueError):
+                        value = "#VALUE!"
+            found.setdefault(int(m.group(2)) - 1, {})[col] = value
+            width = max(width, col + 1)
+        last = max(found, default=-1)
+        empty: dict[int, Any] = {}
+        return [[found.get(r, empty).get(c) for c in range(width)] for r in range(last + 1)]
 
     def named_value(self, name: str) -> Any:
         """The value of the single cell a defined name points at, or None."""
