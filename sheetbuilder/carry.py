@@ -33,6 +33,7 @@ from openpyxl.utils.cell import coordinate_to_tuple
 from .columns import EditableColumns
 from .normalise import normalise
 from .plan_inputs import CATALOG_NAME, EDITABLE, EXPORTED
+from .render import stored_text
 from .saved import BUDGET_CAMPAIGNS, CARRIED_NAME, DECISION_TABLES, PROFIT, SavedBook, SavedWorkbookUnreadable, named_columns
 from .settings import SETTINGS, Settings, _coerce
 
@@ -104,8 +105,13 @@ class EditSheet:
         return self.decl.headers[self.decl.value]
 
     def key_of(self, parts: Sequence[Any], fold_plurals: bool) -> tuple[str, ...]:
-        """The compared key of raw key values (in key order)."""
+        """The compared key of key values as a saved workbook gives them back (in key order)."""
         return tuple(k.norm(v, fold_plurals) for k, v in zip(self.keys, parts))
+
+    def export_key(self, parts: Sequence[Any], fold_plurals: bool) -> tuple[str, ...]:
+        """The compared key of key values as an export gives them: first put in the form a cell stores
+        (cut to 32,767 characters with a mark, control characters escaped), as the workbook held them."""
+        return self.key_of([stored_text(v) if isinstance(v, str) else v for v in parts], fold_plurals)
 
 
 def edit_sheet(decl: EditableColumns, scan_rows: int = SCAN_ROWS) -> EditSheet:
@@ -181,6 +187,8 @@ class CarryResult:
         exported: {table: frame as the export held it} for tables whose values were carried over.
         source: the previous workbook's path.
         applied: every typed number this week's export shows applied (it expires: the cell is left blank).
+        inputs_as_saved: the planned inputs were read back from a saved workbook (their text already in
+            the form a cell stores), not from exports.
     """
 
     settings: Settings
@@ -194,6 +202,7 @@ class CarryResult:
     exported: dict = field(default_factory=dict)
     source: str = ""
     applied: list = field(default_factory=list)
+    inputs_as_saved: bool = False
 
 
 # ---------------------------------------------------------------------------------------------- reading
@@ -338,6 +347,16 @@ def read_edits(path: Path) -> Edits:
         return edits_in(book)
 
 
+def _was_built(wb, rows_of, entry: EditSheet) -> bool:
+    """Whether a typed column that could not be found was in the workbook (its name exists but is broken,
+    or a header row holds its key headers): a table the build did not write (no rows) is not lost."""
+    if entry.decl.name_of(entry.decl.value) in wb.defined_names:
+        return True
+    if entry.sheet not in wb.sheetnames:
+        return False
+    return _header_index(rows_of(entry.sheet), [k.header for k in entry.keys], entry.scan_rows) is not None
+
+
 def edits_in(book: SavedBook) -> Edits:
     """Everything a user typed in an opened saved workbook (see :func:`read_edits`)."""
     wb, rows_of = book.wb, book.rows
@@ -349,7 +368,7 @@ def edits_in(book: SavedBook) -> Edits:
     for entry in (*DECISION_SHEETS, PROFIT_TARGET):
         found = _read_block(wb, rows_of, entry)
         if found is None:
-            if entry.sheet in wb.sheetnames:
+            if _was_built(wb, rows_of, entry):
                 lost.append((entry.label, f"its {entry.value_header!r} column was not found: the workbook "
                                           f"has no defined name {entry.decl.name_of(entry.decl.value)} and no "
                                           f"header row reading {', '.join(entry.decl.headers.values())}"))
@@ -414,7 +433,7 @@ def _existing(entry: EditSheet, tables: Mapping[str, pd.DataFrame | None], fold:
         columns = [k.column for k in entry.keys]
         if not all(c in frame.columns for c in columns):
             continue
-        found.update(entry.key_of(parts, fold) for parts in frame[columns].itertuples(index=False, name=None))
+        found.update(entry.export_key(parts, fold) for parts in frame[columns].itertuples(index=False, name=None))
     return found
 
 
@@ -513,7 +532,7 @@ def _current_values(entry: EditSheet, tables, fold: bool) -> dict[tuple, float]:
             continue
         out: dict[tuple, float] = {}
         for *parts, value in frame[[*columns, column]].itertuples(index=False, name=None):
-            key = entry.key_of(parts, fold)
+            key = entry.export_key(parts, fold)
             out[key] = out.get(key, 0.0) + (0.0 if _blank(value) else float(value))
         return out
     return {}
@@ -609,7 +628,8 @@ def decision_column(result: CarryResult, sheet: str, rows: Iterable[Sequence[Any
     entry = entry_for(sheet)
     typed = result.decisions.get(sheet, {})
     fold = result.settings.fold_plurals
-    return [typed.get(entry.key_of(parts, fold)) for parts in rows]
+    key_of = entry.key_of if result.inputs_as_saved else entry.export_key
+    return [typed.get(key_of(parts, fold)) for parts in rows]
 
 
 def carried_catalog(frame: pd.DataFrame, result: CarryResult) -> pd.DataFrame:

@@ -153,7 +153,7 @@ def _computed_actions(book: SavedBook) -> tuple[list[tuple[int, list[Any]]], lis
                                     f"{pid}: {value!r} is not a target ACoS; the product's other target is used"))
     for label, why in edits.lost:
         problems.append(Problem(label, None, "Decision", why))
-    carry = CarryResult(settings, targets=targets, decisions=decisions, source=str(book.path))
+    carry = CarryResult(settings, targets=targets, decisions=decisions, source=str(book.path), inputs_as_saved=True)
     inputs = Inputs(dict(tables))
     plan = plan_workbook(inputs, settings, built_on, [], carry)
     frame = plan.tables["Actions"].frame

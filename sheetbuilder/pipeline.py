@@ -164,7 +164,7 @@ def mark_carried(carry: CarryResult, tables: dict[str, PlannedTable], input_shee
         entry = entry_for(decl.label) if decl.label != PROFIT.label else PROFIT_TARGET
         keys = planned.frame[list(decl.keys)].itertuples(index=False, name=None)
         for i, parts in enumerate(keys):
-            record = records.get((decl.label, entry.key_of(parts, fold)))
+            record = records.get((decl.label, entry.export_key(parts, fold)))
             if record is not None:
                 column.cell_styles[i] = column.style.split("_")[0] + "_carried"
                 column.notes[i] = _note(record, source)

@@ -54,6 +54,11 @@ def fit_text(text: str) -> str:
     return "".join(out) + TRUNCATION_MARK
 
 
+def stored_text(text: str) -> str:
+    """Text as a cell of ours stores it and a reader gives it back: cut to fit, control characters escaped."""
+    return XMLwriter._escape_control_characters(fit_text(text))
+
+
 def put_formula(ws, row: int, col: int, formula: str, fmt, value: Any) -> None:
     """Store a whitelisted formula as write_formula would, minus its function rewriting.
 
