@@ -17,7 +17,7 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from openpyxl.utils.cell import range_boundaries
+from openpyxl.utils.cell import get_column_letter, range_boundaries
 
 from .columns import EditableColumns
 from .errors import SheetbuilderError
@@ -155,10 +155,12 @@ class SavedBook:
         strings, dates, epoch = ws._shared_strings, self.wb._date_formats, self.wb.epoch
         found: dict[int, dict[int, Any]] = {}
         width = 0
-        for m in _CELL.finditer(xml):
+        pattern = _CELL
+        if columns is not None:  # only the wanted columns' cells are matched: the others are skipped in the scan
+            letters = "|".join(get_column_letter(c + 1) for c in sorted(columns))
+            pattern = re.compile(_CELL.pattern.replace("([A-Z]+)", f"({letters})", 1), re.S)
+        for m in pattern.finditer(xml):
             col = _column_index(m.group(1))
-            if columns is not None and col not in columns:
-                continue
             attrs, body = m.group(3), m.group(4) or ""
             kind = _TYPE.search(attrs)
             kind = kind.group(1) if kind else "n"
