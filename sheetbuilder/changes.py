@@ -28,7 +28,11 @@ from .csv_safe import write_csv
 from .errors import OutputExists, Problem, SheetbuilderError, UnsafeOutput
 from .plan_actions import HEADER_ROW as ACTIONS_HEADER_ROW, HEADERS, defs as action_defs
 from .render import render_rows
-from .saved import ACTIONS_NAME, NotAWorkbook, SavedBook, WorkbookNotFound, named_area
+from .carry import DECISION_SHEETS, PROFIT_TARGET, CarryResult, _text, edits_in
+from .pipeline import plan_workbook
+from .readers import Inputs
+from .saved import (ACTIONS_NAME, NotAWorkbook, SavedBook, WorkbookNotFound, named_area,  # noqa: F401 (re-exported)
+                    saved_inputs, saved_settings)
 
 SHEET = "Actions"
 HEADER_ROW = ACTIONS_HEADER_ROW + 1  # 1-based, as a spreadsheet shows it
@@ -125,12 +129,6 @@ def _saved_actions(book: SavedBook) -> list[tuple[int, list[Any]]]:
 
 def _computed_actions(book: SavedBook) -> tuple[list[tuple[int, list[Any]]], list[Problem]]:
     """[(sheet row, visible values)] of the change list computed from the workbook's inputs, and input problems."""
-
-    from .carry import CarryResult, DECISION_SHEETS, PROFIT_TARGET, _text, edits_in
-    from .pipeline import plan_workbook
-    from .readers import Inputs
-    from .saved import saved_inputs, saved_settings
-
     tables, problems = saved_inputs(book)
     settings, built_on, setting_problems = saved_settings(book)
     problems += [Problem("Settings", None, p.column, p.message) for p in setting_problems]

@@ -10,17 +10,24 @@ would not. Header text is the fallback for a workbook without the names.
 """
 from __future__ import annotations
 
+import datetime as dt
 import html
+import math
 import re
 import zipfile
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
+import pandas as pd
 from openpyxl.utils.cell import get_column_letter, range_boundaries
+from openpyxl.utils.datetime import from_excel
 
-from .columns import EditableColumns
-from .errors import SheetbuilderError
+from . import contract as c
+from .columns import NO_SAVED_VALUE, EditableColumns
+from .errors import Problem, SheetbuilderError
+from .plan_inputs import sheet_name
+from .settings import SETTINGS, Settings, _coerce
 from .plan_bids import EDITABLE_COLUMNS as BIDS
 from .plan_budget import CAMPAIGN_EDITABLE_COLUMNS as BUDGET_CAMPAIGNS, EDITABLE_COLUMNS as BUDGET
 from .plan_profit import EDITABLE_COLUMNS as PROFIT
@@ -146,9 +153,6 @@ class SavedBook:
         return self._cache[key]
 
     def _read(self, sheet: str, columns: frozenset[int] | None, formulas: bool) -> list[list[Any]]:
-        from openpyxl.utils.datetime import from_excel
-
-        from .columns import NO_SAVED_VALUE
         ws = self.wb[sheet]
         with self.wb._archive.open(ws._worksheet_path) as fh:  # openpyxl's own handle on the file
             xml = fh.read().decode("utf-8")
@@ -218,14 +222,6 @@ def saved_inputs(book: SavedBook) -> tuple[dict[str, Any], list]:
         ({table: frame or None}, problems): a Problem for every cell of a number column
         that does not hold a number (a correction typed as text).
     """
-    import math
-
-    import pandas as pd
-
-    from . import contract as c
-    from .errors import Problem
-    from .plan_inputs import sheet_name
-
     tables: dict[str, Any] = {}
     problems: list = []
     for rule in c.TABLES:
@@ -271,10 +267,6 @@ def _as_text(value: Any) -> str:
 
 def saved_settings(book: SavedBook):
     """(Settings, built_on, problems): every setting as the Settings sheet holds it (typed values included)."""
-    import datetime as dt
-
-    from .settings import SETTINGS, Settings, _coerce
-
     values: dict[str, Any] = {}
     problems: list = []
     for spec in SETTINGS:
