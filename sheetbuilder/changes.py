@@ -32,7 +32,7 @@ from .carry import DECISION_SHEETS, PROFIT_TARGET, CarryResult, _text, edits_in
 from .pipeline import plan_workbook
 from .readers import Inputs
 from .saved import (ACTIONS_NAME, NotAWorkbook, SavedBook, WorkbookNotFound, named_area,  # noqa: F401 (re-exported)
-                    saved_inputs, saved_settings)
+                    named_columns, saved_inputs, saved_settings)
 
 SHEET = "Actions"
 HEADER_ROW = ACTIONS_HEADER_ROW + 1  # 1-based, as a spreadsheet shows it
@@ -159,7 +159,33 @@ def _computed_actions(book: SavedBook) -> tuple[list[tuple[int, list[Any]]], lis
     for i, record in enumerate(frame[list(KEYS)].itertuples(index=False, name=None)):
         if not _blank(record[0]):
             rows.append((FIRST_ROW + i, list(record)))
-    return rows, problems
+    return rows, problems, plan.tables, fold
+
+
+def _overwritten_results(book: SavedBook, tables: dict, fold: bool) -> list[Problem]:
+    """A Problem per Final cell on Bids, Terms or Budget whose saved value is not what its formula gives."""
+    out = []
+    for entry in DECISION_SHEETS:
+        decl = entry.decl
+        planned = tables.get(decl.table)
+        wanted = (*decl.keys, decl.result)
+        areas = named_columns(book.wb, {k: decl.name_of(k) for k in wanted}) if decl.result else None
+        if planned is None or areas is None:
+            continue
+        computed = {entry.key_of(parts, fold): value for *parts, value in
+                    planned.frame[list(wanted)].itertuples(index=False, name=None)}
+        first = next(iter(areas.values())).first_row
+        rows = book.rows(areas[decl.result].sheet, frozenset(a.first_col for a in areas.values()))
+        for r in range(first, min(areas[decl.result].last_row, len(rows) - 1) + 1):
+            parts = [rows[r][areas[k].first_col] for k in decl.keys]
+            got = rows[r][areas[decl.result].first_col]
+            key = entry.key_of(parts, fold)
+            if key in computed and not _blank(got) and not _same_value(computed[key], got):
+                out.append(Problem(decl.sheet, r + 1, decl.result_header or decl.result,
+                                   f"holds {got!r} where its formula gives {computed[key]!r}: a formula was typed "
+                                   "over by hand; the exported list uses the formula's value (type your decision "
+                                   "in Decision instead)"))
+    return out
 
 
 def _same_value(a: Any, b: Any) -> bool:
@@ -202,12 +228,12 @@ def read_actions(workbook: Path) -> tuple[list[tuple[int, list[Any]]], dict[str,
                 raise NoActionsSheet(f"{book.path.name} stores no values on {SHEET} and holds no inputs to "
                                      "compute them from; open and save it in a spreadsheet program first")
             return [(r, v) for r, v in saved if not _blank(v[0])], context, notes
-        computed, problems = _computed_actions(book)
+        computed, problems, tables, fold = _computed_actions(book)
         notes.update(computed=True, problems=problems)
         if all(_blank(values[0]) for _, values in saved):
             notes["unchecked"] = bool(computed)  # no saved values: a program that drops them saved it
         else:
-            notes["overwritten"] = _overwritten(saved, computed)
+            notes["overwritten"] = _overwritten(saved, computed) + _overwritten_results(book, tables, fold)
         return computed, context, notes
 
 

@@ -8,7 +8,7 @@ they cannot drift apart unnoticed, and adding a column is one entry.
 from __future__ import annotations
 
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any, Callable
 
 import numpy as np
@@ -76,6 +76,8 @@ class EditableColumns:
         words: the valid typed words ('keep', 'skip', ...).
         current: the planned frame's column holding today's value a typed number replaces.
         input_current: the input tables' column holding that value (summed over a key's rows).
+        result: the formula column showing what the typed value decides ('' when none); named too, so
+            ``changes`` can report a result typed over by hand.
     """
 
     label: str
@@ -92,6 +94,8 @@ class EditableColumns:
     words: tuple[str, ...] = ()
     current: str = ""
     input_current: str = ""
+    result: str = "final"
+    result_header: str = ""
 
     def problem(self, value: Any) -> str | None:
         """Why a typed value is not valid here (None when it is, or is blank)."""
@@ -104,16 +108,19 @@ class EditableColumns:
     def defined_names(self, planned: "PlannedTable") -> list[tuple[str, str]]:
         """(defined name, '=range') over each key column and the typed column of the planned table."""
         ranges = planned.ranges(self.sheet, self.name)
-        return [(self.name_of(k), "=" + ranges[f"{self.name}.{k}"]) for k in (*self.keys, self.value)]
+        named = (*self.keys, self.value, *((self.result,) if self.result else ()))
+        return [(self.name_of(k), "=" + ranges[f"{self.name}.{k}"]) for k in named]
 
 
 def editable(defs: list["ColumnDef"], label: str, sheet: str, name: str, keys: tuple[str, ...], value: str,
              inputs: tuple[str, ...], input_columns: tuple[str, ...] | None = None, table: str | None = None,
              **options: Any) -> EditableColumns:
     """The EditableColumns of a table planned from defs (headers taken from the defs)."""
-    headers = {d.key: d.header for d in defs if d.key in (*keys, value)}
-    return EditableColumns(label, sheet, table or label, name, tuple(keys), value, headers, tuple(inputs),
+    headers = {d.key: d.header for d in defs if d.key in (*keys, value)}  # the typed column and its keys
+    results = {d.key: d.header for d in defs if d.key == options.get("result", "final")}
+    decl = EditableColumns(label, sheet, table or label, name, tuple(keys), value, headers, tuple(inputs),
                            tuple(input_columns or keys), **options)
+    return replace(decl, result_header=results.get(decl.result, ""))
 
 
 def blank_div(num: Any, den: Any) -> Any:

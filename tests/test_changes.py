@@ -219,3 +219,26 @@ def test_cli_build_without_previous_support_is_a_clear_refusal(tmp_path, monkeyp
 def test_the_actions_sheet_has_the_layout_changes_reads():
     from sheetbuilder.plan_actions import HEADERS, defs
     assert list(HEADERS) == [d.header for d in defs(["0"] * 5) if not d.hidden]
+
+
+def test_a_final_bid_typed_over_by_hand_is_reported_and_the_formula_value_exported(tmp_path):
+    """Typed over the Final bid formula instead of in Decision: reported with its row; the list keeps the formula's value."""
+    from conftest import BUILT_ON, DEMO
+    from sheetbuilder.pipeline import build
+    from sheetbuilder.plan_bids import EDITABLE_COLUMNS as BIDS
+    from sheetbuilder.saved import named_area
+    built = build(DEMO, tmp_path / "demo.xlsx", built_on=BUILT_ON)
+    original = export_changes(built.output, tmp_path / "c1.csv")
+    wb = openpyxl.load_workbook(built.output)
+    area = named_area(wb, BIDS.name_of(BIDS.result))
+    wb[area.sheet].cell(area.first_row + 1, area.first_col + 1).value = 9.99  # a formula replaced by a number
+    edited = tmp_path / "edited.xlsx"
+    wb.save(edited)
+    from sheetbuilder.recalc import libreoffice_convert
+    from conftest import require_libreoffice
+    require_libreoffice()
+    saved = libreoffice_convert([edited], tmp_path / "saved")[0]
+    result = export_changes(saved, tmp_path / "c2.csv")
+    assert [(BIDS.sheet, area.first_row + 1, "Final bid")] == [(p.file, p.row, p.column) for p in result.overwritten
+                                                                if p.file == BIDS.sheet]
+    assert original.rows == result.rows
