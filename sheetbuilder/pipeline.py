@@ -18,6 +18,8 @@ from .plan_actions import defs as ACTION_DEFS, plan_actions
 from .plan_dashboard import Figure, dashboard
 from .plan_unmatched import plan_carried, plan_unmatched
 from .plan_guide import plan_guide
+from .followup import Followup, read_followup
+from .plan_followup import CHANGE_DEFS as FOLLOWUP_DEFS, plan_followup
 from .plan_budget import CAMPAIGN_DEFS, PRODUCT_DEFS as BUDGET_DEFS, plan_budget
 from .plan_lists import HARVEST, NEGATIVES, plan_list
 from .plan_mix import MATCH_DEFS, TYPE_DEFS as MIX_DEFS, plan_mix
@@ -52,7 +54,8 @@ class BuildResult:
 
 
 def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
-                  warnings: list[Problem] | None = None, carry: CarryResult | None = None) -> Plan:
+                  warnings: list[Problem] | None = None, carry: CarryResult | None = None,
+                  followup: Followup | None = None) -> Plan:
     """Plan every sheet from validated inputs: pure, writes nothing.
 
     Args:
@@ -61,6 +64,7 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
         built_on: the build date (for the attribution-window warning).
         warnings: problems of WARNING severity to list on the Guide.
         carry: edits carried from last week's workbook (decisions and target overrides).
+        followup: last week's changes looked up in this week's exports (a Follow-up sheet after Actions).
 
     Returns:
         The plan: the workbook spec and each computed table's reference frame.
@@ -130,6 +134,13 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
     figures = dashboard(tables, ranges, ("Budget!$B$3", shifted.value))
     figures.append(Figure("Changes in the Actions list", "=" + "+".join(
         f"Actions!${c}$2" for c in ("B", "D", "F", "H", "J")), float(sum(action_counts)), "int"))
+    if followup is not None:
+        followup_sheet, tables["Follow-up"], tables["Follow-up products"], summary = plan_followup(
+            followup, profit, ranges)
+        sheets.insert(sheets.index(actions_sheet) + 1, followup_sheet)
+        sections.append(("Follow-up columns", FOLLOWUP_DEFS))
+        figures += [Figure(f"Follow-up: {label[0].lower()}{label[1:]}", "=" + ref, value,
+                           "int" if i < 4 else "money") for i, (label, (ref, value)) in enumerate(summary.items())]
     sources = {k: v.name for k, v in inputs.sources.items()}
     guide = plan_guide(settings, built_on, sections, warnings or [], inputs.checksums, sources, figures)
     if carry is not None and carry.unmatched:
@@ -265,13 +276,18 @@ def build(folder: Path, output: Path, force: bool = False, built_on: dt.date | N
         raise UnsafeOutput(f"{output} is the previous workbook; write the new one under another name")
     inputs, settings, problems = load(folder)
     carry = None
+    exported_tables = dict(inputs.tables)  # as exported, before any carried correction
     if previous is not None:
         carry = apply_edits(read_edits(Path(previous)), inputs.tables, settings)
         settings = carry.settings
         carry.exported["catalog"] = inputs.tables["catalog"]  # in_catalog records the export, not the carry
         inputs.tables["catalog"] = carried_catalog(inputs.tables["catalog"], carry)
+    followup = None
+    if previous is not None:
+        followup, skipped = read_followup(Path(previous), exported_tables, settings, getattr(inputs, "period", None))
+        problems += skipped
     warnings = [p for p in problems if p.severity == WARNING]
-    plan = plan_workbook(inputs, settings, built_on or dt.date.today(), warnings, carry)
+    plan = plan_workbook(inputs, settings, built_on or dt.date.today(), warnings, carry, followup)
     write_atomically(plan.spec, output, progress)
     rows = {k: len(v) for k, v in inputs.tables.items() if isinstance(v, pd.DataFrame)}
     return BuildResult(output, warnings, plan, rows, carry)
