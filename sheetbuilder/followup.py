@@ -250,10 +250,15 @@ def followup_rows(changes: list[dict], before: dict, now: dict, targets: dict[st
 
 
 def _previous_changes(book: SavedBook) -> tuple[list[dict], dict, Settings]:
-    """Last week's final change list, computed from its own inputs and decisions, and its planned tables."""
-    from .changes import KEYS, _computed_actions  # changes imports the pipeline, which imports this module
+    """Last week's final change list (the rows `changes` exports), computed from its own inputs and decisions.
+
+    Returns the list, the planned tables and the workbook's settings.
+    """
+    from .changes import KEYS, _computed_actions, _context, check_change  # changes imports the pipeline
     rows, _, planned, _ = _computed_actions(book)
-    named = [dict(zip(KEYS, values)) for _, values in rows]
+    context = _context(book)
+    # The rows `changes` writes: a row it refuses (no destination, an invalid Decision) was never applicable.
+    named = [dict(zip(KEYS, values)) for r, values in rows if not check_change(r, values, context)]
     bids = planned.get("Bids")
     product_of = {}
     if bids is not None and "product_id" in bids.frame:

@@ -1,0 +1,192 @@
+"""The Follow-up sheet over a generated two-week scenario (issue 12).
+
+Week 1 is the demo. Week 2's exports are made from week 1's by tools/make_week2.py with a
+chosen part of week 1's change list applied (every second bid to its planned value, one bid
+to another value, two keywords and two negatives added, one budget changed) and the metrics
+moved (clicks up on every target, the negated terms' spend gone). Week 2 is built with
+--previous week 1. Every Applied must equal the scenario's truth, and every figure must equal
+the independent reference (tests/oracle_followup.py) as cached and after LibreOffice
+recalculates the file.
+"""
+from __future__ import annotations
+
+import csv
+import datetime as dt
+import shutil
+import sys
+
+import openpyxl
+import pytest
+
+from conftest import BUILT_ON, DEMO, ROOT, require_libreoffice
+from oracle_followup import expected_row
+from workbook_io import same
+from sheetbuilder.changes import export_changes
+from sheetbuilder.followup import Span
+from sheetbuilder.pipeline import build
+from sheetbuilder.plan_followup import FIRST_TABLE_ROW, SHEET, period_lines
+from sheetbuilder.recalc import libreoffice_convert
+
+sys.path.insert(0, str(ROOT / "tools"))
+from make_week2 import choose, make_week2  # noqa: E402
+
+KEY = ("Kind", "Campaign", "Ad group", "Target or term", "Match type")
+FIGURES = ("Applied", "Clicks before", "Clicks now", "CPC before", "CPC now", "Spend before", "Spend now",
+           "Orders before", "Orders now", "ACoS before", "ACoS now", "Outcome")
+MIN_CLICKS = 10  # the demo's settings.toml leaves min_clicks at its default
+
+
+def _key(change: dict) -> tuple:
+    return (change["kind"], change["campaign"], change["ad_group"] or "", change["target_or_term"] or "",
+            change["match_type"] or "")
+
+
+def followup_rows(path) -> list[dict]:
+    """The Last week's changes rows of a workbook's Follow-up sheet, by header (values as saved)."""
+    ws = openpyxl.load_workbook(path, data_only=True)[SHEET]
+    header_row = FIRST_TABLE_ROW + 1
+    headers = [c.value for c in ws[header_row]]
+    out = []
+    for row in ws.iter_rows(min_row=header_row + 1, values_only=True):
+        if row[0] in (None, ""):
+            break
+        out.append({h: ("" if v is None else v) for h, v in zip(headers, row) if h})
+    return out
+
+
+def _summary(path) -> dict:
+    ws = openpyxl.load_workbook(path, data_only=True)[SHEET]
+    return {ws.cell(r, 1).value: ws.cell(r, 2).value for r in range(7, 15)}
+
+
+@pytest.fixture(scope="module")
+def scenario(tmp_path_factory):
+    work = tmp_path_factory.mktemp("followup")
+    week1 = build(DEMO, work / "week1.xlsx", built_on=BUILT_ON)
+    export_changes(week1.output, work / "changes1.csv")
+    with (work / "changes1.csv").open(newline="", encoding="utf-8-sig") as f:
+        changes = list(csv.DictReader(f))
+    applied, elsewhere = choose(changes)
+    exports2 = make_week2(DEMO, work / "exports2", applied, elsewhere)
+    week2 = build(exports2, work / "week2.xlsx", built_on=BUILT_ON + dt.timedelta(days=7), previous=week1.output)
+    blind = work / "exports2_blind"  # no negatives or campaigns export this week
+    shutil.copytree(exports2, blind)
+    (blind / "negatives.csv").unlink()
+    (blind / "campaigns.csv").unlink()
+    week2_blind = build(blind, work / "week2_blind.xlsx", built_on=BUILT_ON + dt.timedelta(days=7),
+                        previous=week1.output)
+    profit = week1.plan.tables["Profit"].frame
+    return {"work": work, "week1": week1, "week2": week2, "blind": week2_blind, "changes": changes,
+            "applied": {_key(c) for c in applied}, "exports2": exports2,
+            "targets": dict(zip(profit["product_id"], profit["target_acos"]))}
+
+
+def _change(row: dict, changes_by_key: dict) -> dict:
+    ch = changes_by_key[tuple(row[k] for k in KEY)]
+    return {"kind": ch["kind"], "campaign": ch["campaign"], "ad_group": ch["ad_group"],
+            "target": ch["target_or_term"], "match_type": ch["match_type"],
+            "planned": float(ch["new"]) if ch["new"] else None, "was": float(ch["current"]) if ch["current"] else None}
+
+
+def test_the_follow_up_lists_exactly_last_weeks_exported_change_list_in_order(scenario):
+    rows = followup_rows(scenario["week2"].output)
+    assert [_key(c) for c in scenario["changes"]] == [tuple(r[k] for k in KEY) for r in rows]
+    assert len(rows) > 20  # the demo's list is long enough for every kind to appear
+    assert {"bid", "add keyword", "add negative", "budget"} <= {r["Kind"] for r in rows}
+
+
+def test_every_applied_equals_the_scenarios_truth(scenario):
+    rows = followup_rows(scenario["week2"].output)
+    truth = ["yes" if tuple(r[k] for k in KEY) in scenario["applied"] else "no" for r in rows]
+    assert truth == [r["Applied"] for r in rows]
+    assert 7 <= truth.count("yes")
+
+
+def test_negatives_and_budgets_cannot_be_told_without_their_exports(scenario):
+    rows = followup_rows(scenario["blind"].output)
+    for r in rows:
+        if r["Kind"] in ("add negative", "budget"):
+            assert "cannot tell" == r["Applied"], r
+
+
+def _check_against_oracle(path, scenario) -> list[str]:
+    by_key = {_key(c): c for c in scenario["changes"]}
+    out = []
+    for row in followup_rows(path):
+        change = _change(row, by_key)
+        target = scenario["targets"].get(row["Product ID"], "")
+        want = expected_row(DEMO, scenario["exports2"], change, MIN_CLICKS, target)
+        for h in FIGURES:
+            if not same(want[h], row[h]):
+                out.append(f"{tuple(row[k] for k in KEY)} / {h}: expected {want[h]!r}, got {row[h]!r}")
+    return out
+
+
+def test_every_figure_as_cached_equals_the_independent_reference(scenario):
+    assert [] == _check_against_oracle(scenario["week2"].output, scenario)
+
+
+@pytest.mark.libreoffice
+def test_every_figure_recalculated_by_libreoffice_equals_the_independent_reference(scenario):
+    require_libreoffice()
+    (lo,) = libreoffice_convert([scenario["week2"].output], scenario["work"] / "lo")
+    assert [] == _check_against_oracle(lo, scenario)
+    assert _summary(scenario["week2"].output) == _summary(lo)
+
+
+def test_the_summary_counts_and_sums_the_rows_below(scenario):
+    rows = followup_rows(scenario["week2"].output)
+    summary = _summary(scenario["week2"].output)
+    assert len(rows) == summary["Changes planned last week"]
+    assert sum(r["Applied"] == "yes" for r in rows) == summary["Applied"]
+    assert sum(r["Applied"] == "no" for r in rows) == summary["Not applied"]
+    assert 0 == summary["Cannot tell"]
+    negated = [r for r in rows if r["Kind"] == "add negative"]
+    assert same(sum(r["Spend before"] for r in negated), summary["Spend on negated terms, last period"])
+    assert same(sum(r["Spend now"] for r in negated), summary["Spend on negated terms, this period"])
+    week1_profit = scenario["week1"].plan.tables["Profit"].totals_values["net_profit"]
+    assert same(week1_profit, summary["Net profit after ads, last period"])
+
+
+def test_products_then_are_last_weeks_profit_figures_and_now_this_weeks(scenario):
+    wb = openpyxl.load_workbook(scenario["week2"].output, data_only=True)
+    ws = wb[SHEET]
+    start = next(r for r in range(1, ws.max_row + 1) if ws.cell(r, 1).value == "Products then and now") + 1
+    headers = [c.value for c in ws[start]]
+    then = scenario["week1"].plan.tables["Profit"].frame.set_index("product_id")
+    now = scenario["week2"].plan.tables["Profit"].frame.set_index("product_id")
+    checked = 0
+    for row in ws.iter_rows(min_row=start + 1, values_only=True):
+        if row[0] in (None, ""):
+            break
+        got = dict(zip(headers, row))
+        pid = got["Product ID"]
+        assert same(float(then.loc[pid, "net_profit"]), got["Net profit after ads then"]), pid
+        assert same(float(now.loc[pid, "net_profit"]), got["Net profit after ads now"]), pid
+        assert same(float(now.loc[pid, "net_profit"]) - float(then.loc[pid, "net_profit"]),
+                    got["Net profit after ads change"]), pid
+        assert now.loc[pid, "status"] == got["Status now"]
+        checked += 1
+    assert len(now) == checked
+
+
+def test_the_guide_dashboard_shows_the_follow_up_summary(scenario):
+    ws = openpyxl.load_workbook(scenario["week2"].output, data_only=True)["Guide"]
+    labels = {ws.cell(r, 1).value: ws.cell(r, 2).value for r in range(1, 40)}
+    assert _summary(scenario["week2"].output)["Applied"] == labels["Follow-up: applied"]
+
+
+def test_a_rebuild_from_the_same_exports_says_so_and_writes_no_follow_up(scenario):
+    again = build(scenario["exports2"], scenario["work"] / "again.xlsx", built_on=BUILT_ON + dt.timedelta(days=8),
+                  previous=scenario["week2"].output)
+    assert SHEET not in openpyxl.load_workbook(again.output, read_only=True).sheetnames
+    assert any("same exports" in w.message for w in again.warnings)
+
+
+def test_two_30_day_periods_a_week_apart_are_stated_as_sharing_23_days():
+    from sheetbuilder.followup import Followup
+    last = Span(dt.date(2026, 10, 27), dt.date(2026, 11, 25))
+    this = Span(dt.date(2026, 11, 3), dt.date(2026, 12, 2))
+    lines = period_lines(Followup([], {}, last, this, "w1.xlsx"))
+    assert "Last period: 2026-10-27 to 2026-11-25 (30 days). This period: 2026-11-03 to 2026-12-02 (30 days)." == lines[0]
+    assert lines[1].startswith("The periods overlap by 23 days")
