@@ -131,7 +131,8 @@ def test_every_figure_recalculated_by_libreoffice_equals_the_independent_referen
     require_libreoffice()
     (lo,) = libreoffice_convert([scenario["week2"].output], scenario["work"] / "lo")
     assert [] == _check_against_oracle(lo, scenario)
-    assert _summary(scenario["week2"].output) == _summary(lo)
+    cached, recalculated = _summary(scenario["week2"].output), _summary(lo)
+    assert [] == [k for k in cached if not same(cached[k], recalculated[k])]
 
 
 def test_the_summary_counts_and_sums_the_rows_below(scenario):

@@ -9,7 +9,7 @@ second bid change, the first two keywords, the first two negatives and the first
 change are applied; one more bid is moved to another value than planned (so it reads as
 not applied). Clicks on every keyword or target rise by a fifth plus one (spend unchanged,
 so cost per click falls), an applied negative's search terms stop spending, an added
-keyword gets its first clicks and orders. Files are written as the exports arrive (CSV,
+keyword gets its first clicks and orders, and every product's revenue rises by a tenth. Files are written as the exports arrive (CSV,
 same headers); the source folder is only read.
 """
 from __future__ import annotations
@@ -93,6 +93,10 @@ def make_week2(src: Path, dst: Path, applied: list[dict], elsewhere: list[dict])
             if any(_stopped(row, c) for c in negatives):
                 row.update(impressions="0", clicks="0", spend="0.00", ad_sales="0.00", orders="0")
         _write(dst / "search_terms.csv", header, terms)
+    header, sales = _read(dst / "store_sales.csv")
+    for row in sales:
+        row["revenue"] = f"{float(row['revenue'] or 0) * 1.1:.2f}"
+    _write(dst / "store_sales.csv", header, sales)
     budgets = {c["campaign"]: c["new"] for c in applied if c["kind"] == "budget"}
     if budgets:
         header, rows = _read(dst / "campaigns.csv")
