@@ -31,6 +31,8 @@ SHEETS_TEXT = [
                "daily budget scaled to follow its products."),
     ("Actions", "Every change whose final value differs from today: bids, keywords and targets to add, "
                 "negatives, budgets. Export it with: sheetbuilder changes WORKBOOK -o changes.csv"),
+    ("Follow-up", "Built with --previous: what became of last week's changes (applied or not, each target's or "
+                  "term's figures in both periods, the outcome in words) and how each product moved since."),
     ("Groups", "Which products each ad group advertises, and the spend weights used where it advertises several."),
     ("Keys", "A lookup table: existing exact keywords and negatives, by number (the Terms sheet looks them up)."),
     ("in_ sheets", "The rows of your exports as read, sorted by product. Catalog prices, costs, fees, "
@@ -40,6 +42,23 @@ SHEETS_TEXT = [
                       "expired because the export shows it applied."),
     ("Unmatched edits", "Built with --previous: every value typed last week that could not be carried (its row "
                         "is gone, or it is not a valid word or number), with the reason."),
+]
+
+FOLLOWUP_TEXT = [
+    "Built with --previous, the Follow-up sheet takes last week's final change list (the rows `changes` would "
+    "export, computed from last week's own exports and decisions) and looks each change up in this week's exports.",
+    "Applied: a bid when this week's export shows the planned bid to the cent; a keyword or product target when "
+    "it exists in that ad group with that match type; a negative when it is in this week's negatives export; a "
+    "budget when the campaign's daily budget equals the planned one. Without a negatives or campaigns export, "
+    "those rows read 'cannot tell'.",
+    "Outcome compares the move with its intent: a bid cut hopes for lower CPC and ACoS; a raise for more clicks "
+    "with ACoS at or under the target; a negative for no spend on the term; a new keyword for its first clicks and "
+    "orders. 'as intended' means both hoped-for effects happened, 'mixed' one, 'not as intended' neither; 'too "
+    "few clicks' where either period has fewer than min_clicks.",
+    "Compare periods that do not overlap: weekly 7-day exports. Two 30-day exports a week apart share 23 days, "
+    "so most of each figure is the same days counted twice; the sheet states the overlap.",
+    "A before-and-after comparison is observational: seasonality, competitors, prices and stock move too. "
+    "Treat an Outcome as a signal to look closer, not as proof.",
 ]
 
 DECISIONS_TEXT = [
@@ -172,6 +191,8 @@ def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tupl
                  Cell("Shaded orange, in italics, with a note: a value carried from last week's workbook.")])
     rows += [[None], [Cell("Decisions and carried edits", style="subtitle")]]
     rows += [[None, Cell(line, style="text")] for line in DECISIONS_TEXT]
+    rows += [[None], [Cell("Following up last week's changes", style="subtitle")]]
+    rows += [[None, Cell(line, style="text")] for line in FOLLOWUP_TEXT]
     rows += [[None], [Cell("How the bid plan works", style="subtitle")]]
     rows += [[None, Cell(line, style="text")] for line in BID_METHOD]
     rows += [[None], [Cell("How search terms are judged", style="subtitle")]]
