@@ -19,6 +19,7 @@ from .plan_dashboard import Figure, dashboard
 from .plan_unmatched import plan_carried, plan_unmatched
 from .plan_guide import plan_guide
 from .followup import Followup, read_followup
+from .history import applied_rows, plan_history, read_history
 from .plan_followup import CHANGE_DEFS as FOLLOWUP_DEFS, plan_followup
 from .plan_budget import CAMPAIGN_DEFS, PRODUCT_DEFS as BUDGET_DEFS, plan_budget
 from .plan_lists import HARVEST, NEGATIVES, plan_list
@@ -55,7 +56,7 @@ class BuildResult:
 
 def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
                   warnings: list[Problem] | None = None, carry: CarryResult | None = None,
-                  followup: Followup | None = None) -> Plan:
+                  followup: Followup | None = None, history: list[dict] | None = None) -> Plan:
     """Plan every sheet from validated inputs: pure, writes nothing.
 
     Args:
@@ -65,6 +66,7 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
         warnings: problems of WARNING severity to list on the Guide.
         carry: edits carried from last week's workbook (decisions and target overrides).
         followup: last week's changes looked up in this week's exports (a Follow-up sheet after Actions).
+        history: the History rows carried from the previous workbook (a History sheet; None: no sheet).
 
     Returns:
         The plan: the workbook spec and each computed table's reference frame.
@@ -139,6 +141,11 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
             followup, profit, ranges)
         sheets.insert(sheets.index(actions_sheet) + 1, followup_sheet)
         sections.append(("Follow-up columns", FOLLOWUP_DEFS))
+    if history is not None:
+        rows = history + (applied_rows(followup.rows, built_on) if followup is not None else [])
+        history_sheet, history_names = plan_history(rows)
+        sheets.insert(sheets.index(actions_sheet) + (2 if followup is not None else 1), history_sheet)
+        names = [*names, *history_names]
         figures += [Figure(f"Follow-up: {label[0].lower()}{label[1:]}", "=" + ref, value,
                            "int" if i < 4 else "money") for i, (label, (ref, value)) in enumerate(summary.items())]
     sources = {k: v.name for k, v in inputs.sources.items()}
@@ -282,12 +289,13 @@ def build(folder: Path, output: Path, force: bool = False, built_on: dt.date | N
         settings = carry.settings
         carry.exported["catalog"] = inputs.tables["catalog"]  # in_catalog records the export, not the carry
         inputs.tables["catalog"] = carried_catalog(inputs.tables["catalog"], carry)
-    followup = None
+    followup, history = None, None
     if previous is not None:
         followup, skipped = read_followup(Path(previous), exported_tables, settings, getattr(inputs, "period", None))
-        problems += skipped
+        history, unread = read_history(Path(previous))
+        problems += skipped + unread
     warnings = [p for p in problems if p.severity == WARNING]
-    plan = plan_workbook(inputs, settings, built_on or dt.date.today(), warnings, carry, followup)
+    plan = plan_workbook(inputs, settings, built_on or dt.date.today(), warnings, carry, followup, history)
     write_atomically(plan.spec, output, progress)
     rows = {k: len(v) for k, v in inputs.tables.items() if isinstance(v, pd.DataFrame)}
     return BuildResult(output, warnings, plan, rows, carry)

@@ -191,3 +191,36 @@ def test_two_30_day_periods_a_week_apart_are_stated_as_sharing_23_days():
     lines = period_lines(Followup([], {}, last, this, "w1.xlsx"))
     assert "Last period: 2026-10-27 to 2026-11-25 (30 days). This period: 2026-11-03 to 2026-12-02 (30 days)." == lines[0]
     assert lines[1].startswith("The periods overlap by 23 days")
+
+
+def _history(path) -> list[tuple]:
+    ws = openpyxl.load_workbook(path, data_only=True)["History"]
+    out = []
+    for row in ws.iter_rows(min_row=5, values_only=True):
+        if row[0] in (None, ""):
+            break
+        out.append(tuple("" if v is None else v for v in row[:6]))
+    return out
+
+
+def _truth(keys: list[tuple], week: dt.date) -> list[tuple]:
+    return [(week.isoformat(), *k) for k in keys]
+
+
+@pytest.mark.libreoffice
+def test_history_after_weeks_two_and_three_holds_exactly_the_applied_changes(scenario):
+    require_libreoffice()
+    work = scenario["work"]
+    week2 = BUILT_ON + dt.timedelta(days=7)
+    week3 = BUILT_ON + dt.timedelta(days=14)
+    applied2 = [_key(c) for c in scenario["changes"] if _key(c) in scenario["applied"]]
+    assert _truth(applied2, week2) == _history(scenario["week2"].output)
+    (saved2,) = libreoffice_convert([scenario["week2"].output], work / "saved2")  # as a user's program saves it
+    export_changes(saved2, work / "changes2.csv")
+    with (work / "changes2.csv").open(newline="", encoding="utf-8-sig") as f:
+        changes2 = list(csv.DictReader(f))
+    applied, elsewhere = choose(changes2)
+    exports3 = make_week2(scenario["exports2"], work / "exports3", applied, elsewhere)
+    third = build(exports3, work / "week3.xlsx", built_on=week3, previous=saved2)
+    applied3 = [_key(c) for c in changes2 if _key(c) in {_key(a) for a in applied}]
+    assert _truth(applied2, week2) + _truth(applied3, week3) == _history(third.output)
