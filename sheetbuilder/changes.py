@@ -299,7 +299,39 @@ def write_xlsx(path: Path, header: list[str], rows: list[list[Any]]) -> Path:
     return path
 
 
-def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool = False) -> ChangesResult:
+UNAPPLIED_REASON = "last week's change, not yet applied"
+
+
+def unapplied_rows(workbook: Path, present: set[tuple]) -> list[tuple[int, list[Any]]]:
+    """[(Follow-up row, values as KEYS)] of last week's changes the Follow-up reads as not applied.
+
+    A change whose kind and keys are already in this week's list (present) is left out: this
+    week's proposal or decision replaces it. None without a Follow-up sheet.
+    """
+    from .plan_followup import CHANGE_DEFS, NAME, SHEET as FOLLOWUP  # the sheet's layout, declared once there
+    visible = [d.key for d in CHANGE_DEFS]
+    with SavedBook(Path(workbook)) as book:
+        area = named_area(book.wb, NAME)
+        if area is None:
+            return []
+        rows = book.rows(area.sheet, frozenset(range(area.first_col, area.first_col + len(visible))))
+        out = []
+        for r in range(area.first_row, min(area.last_row, len(rows) - 1) + 1):
+            got = dict(zip(visible, rows[r][area.first_col:area.first_col + len(visible)]))
+            if got.get("applied") != "no":
+                continue
+            named = {"kind": got["kind"], "campaign": got["campaign"], "ad_group": got["ad_group"],
+                     "target": got["target"], "match_type": got["match_type"], "product_id": got["product_id"],
+                     "current": got["now"], "new": got["planned"], "reason": UNAPPLIED_REASON}
+            key = tuple("" if _blank(named[k]) else named[k] for k in ("kind", "campaign", "ad_group", "target",
+                                                                          "match_type"))
+            if key not in present:
+                out.append((r + 1, [named.get(k) for k in KEYS]))
+        return out
+
+
+def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool = False,
+                   include_unapplied: bool = False) -> ChangesResult:
     """Write the valid changes of the workbook's Actions sheet to output; report the others.
 
     Args:
@@ -307,6 +339,9 @@ def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool =
         output: the .csv or .xlsx file to write.
         fmt: 'csv' or 'xlsx'.
         force: overwrite output if it exists.
+        include_unapplied: also write last week's changes that its Follow-up sheet reads as not
+            applied (and that this week's list does not change again), reason "last week's change,
+            not yet applied".
 
     Returns:
         The rows written, the problems (with their Actions row), and whether the workbook
@@ -319,6 +354,9 @@ def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool =
     workbook, output = Path(workbook), Path(output)
     _check_output(workbook, output, fmt, force)
     rows, context, notes = read_actions(workbook)
+    if include_unapplied:
+        present = {tuple("" if _blank(v) else v for v in values[:5]) for _, values in rows}
+        rows = rows + unapplied_rows(workbook, present)
     problems: list[Problem] = list(notes["problems"]) + list(notes["overwritten"])
     refused: list[int] = []
     kept: list[list[Any]] = []

@@ -88,7 +88,8 @@ def _build(args: argparse.Namespace, console: Console) -> int:
 
 def _changes(args: argparse.Namespace, console: Console) -> int:
     """Export the Actions sheet's changes; list every refused one with its row."""
-    result = export_changes(args.workbook, args.output, fmt=args.format, force=args.force)
+    result = export_changes(args.workbook, args.output, fmt=args.format, force=args.force,
+                            include_unapplied=args.include_unapplied)
     if result.unchecked:
         console.print(f"{args.workbook} stores no formula values (saved by a program that does not store them): "
                       "the change list was computed from its inputs, but cells typed over a formula could not "
@@ -131,6 +132,8 @@ def parser() -> argparse.ArgumentParser:
     ch.add_argument("--format", choices=("csv", "xlsx"), default="csv", help="csv (default; text escaped against "
                     "formula injection) or xlsx (text written as text)")
     ch.add_argument("--force", action="store_true", help="overwrite the output if it exists")
+    ch.add_argument("--include-unapplied", action="store_true",
+                    help="also write last week's changes the Follow-up sheet reads as not applied")
     ch.set_defaults(run=_changes)
     return p
 

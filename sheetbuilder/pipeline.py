@@ -20,7 +20,7 @@ from .plan_unmatched import plan_carried, plan_unmatched
 from .plan_guide import plan_guide
 from .followup import Followup, read_followup
 from .history import applied_rows, plan_history, read_history
-from .plan_followup import CHANGE_DEFS as FOLLOWUP_DEFS, plan_followup
+from .plan_followup import CHANGE_DEFS as FOLLOWUP_DEFS, NAME as FOLLOWUP_NAME, SHEET as FOLLOWUP_SHEET, plan_followup
 from .plan_budget import CAMPAIGN_DEFS, PRODUCT_DEFS as BUDGET_DEFS, plan_budget
 from .plan_lists import HARVEST, NEGATIVES, plan_list
 from .plan_mix import MATCH_DEFS, TYPE_DEFS as MIX_DEFS, plan_mix
@@ -137,7 +137,7 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
     figures.append(Figure("Changes in the Actions list", "=" + "+".join(
         f"Actions!${c}$2" for c in ("B", "D", "F", "H", "J")), float(sum(action_counts)), "int"))
     if followup is not None:
-        followup_sheet, tables["Follow-up"], tables["Follow-up products"], summary = plan_followup(
+        followup_sheet, tables[FOLLOWUP_SHEET], tables["Follow-up products"], summary = plan_followup(
             followup, profit, ranges)
         sheets.insert(sheets.index(actions_sheet) + 1, followup_sheet)
         sections.append(("Follow-up columns", FOLLOWUP_DEFS))
@@ -203,6 +203,8 @@ def edit_names(tables: dict[str, PlannedTable]) -> list[tuple[str, str]]:
     out = [n for decl in EDITABLE_TABLES if decl.table in tables for n in decl.defined_names(tables[decl.table])]
     if "Actions" in tables:
         out.append((ACTIONS_NAME, "=" + tables["Actions"].body_range("Actions")))
+    if "Follow-up" in tables:
+        out.append((FOLLOWUP_NAME, "=" + tables["Follow-up"].body_range(FOLLOWUP_SHEET)))
     return out
 
 

@@ -26,6 +26,7 @@ from .palette import DIRECTION_STATES
 from .spec import DATA, Cell, Highlight, Sheet, Table
 
 SHEET = "Follow-up"
+NAME = "sb_followup"  # the defined name over the Last week's changes body (changes --include-unapplied reads it)
 CAUTION = ("A before-and-after comparison is observational: seasonality, competitors, prices and stock all move "
            "too. Treat each Outcome as a signal to look closer, not as proof that a change worked.")
 FIRST_TABLE_ROW = 17  # 0-based header row of Last week's changes (the summary above has fixed height)

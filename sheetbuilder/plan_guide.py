@@ -33,6 +33,8 @@ SHEETS_TEXT = [
                 "negatives, budgets. Export it with: sheetbuilder changes WORKBOOK -o changes.csv"),
     ("Follow-up", "Built with --previous: what became of last week's changes (applied or not, each target's or "
                   "term's figures in both periods, the outcome in words) and how each product moved since."),
+    ("History", "Built with --previous: every change found applied, week by week (week, kind, keys, from, to), "
+                "carried into every rebuild and never dropped."),
     ("Groups", "Which products each ad group advertises, and the spend weights used where it advertises several."),
     ("Keys", "A lookup table: existing exact keywords and negatives, by number (the Terms sheet looks them up)."),
     ("in_ sheets", "The rows of your exports as read, sorted by product. Catalog prices, costs, fees, "

@@ -21,7 +21,7 @@ import pytest
 from conftest import BUILT_ON, DEMO, ROOT, require_libreoffice
 from oracle_followup import expected_row
 from workbook_io import same
-from sheetbuilder.changes import export_changes
+from sheetbuilder.changes import COLUMNS, export_changes
 from sheetbuilder.followup import Span
 from sheetbuilder.pipeline import build
 from sheetbuilder.plan_followup import FIRST_TABLE_ROW, SHEET, period_lines
@@ -224,3 +224,17 @@ def test_history_after_weeks_two_and_three_holds_exactly_the_applied_changes(sce
     third = build(exports3, work / "week3.xlsx", built_on=week3, previous=saved2)
     applied3 = [_key(c) for c in changes2 if _key(c) in {_key(a) for a in applied}]
     assert _truth(applied2, week2) + _truth(applied3, week3) == _history(third.output)
+
+
+def test_changes_include_unapplied_writes_last_weeks_unapplied_rows_this_week_does_not_change_again(scenario):
+    work = scenario["work"]
+    plain = export_changes(scenario["week2"].output, work / "changes2_plain.csv")
+    both = export_changes(scenario["week2"].output, work / "changes2_all.csv", include_unapplied=True)
+    this_week = {tuple("" if v is None else v for v in row[:5]) for row in plain.rows}
+    not_applied = [tuple(r[k] for k in KEY) for r in followup_rows(scenario["week2"].output) if r["Applied"] == "no"]
+    expected = [k for k in not_applied if k not in this_week]
+    added = [tuple("" if v is None else v for v in row[:5]) for row in both.rows
+             if row[COLUMNS.index("reason")] == "last week's change, not yet applied"]
+    assert expected == added
+    assert plain.rows == both.rows[:len(plain.rows)]
+    assert 0 < len(added)
