@@ -141,13 +141,13 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
             followup, profit, ranges)
         sheets.insert(sheets.index(actions_sheet) + 1, followup_sheet)
         sections.append(("Follow-up columns", FOLLOWUP_DEFS))
+        figures += [Figure(f"Follow-up: {label[0].lower()}{label[1:]}", "=" + ref, value,
+                           "int" if i < 4 else "money") for i, (label, (ref, value)) in enumerate(summary.items())]
     if history is not None:
         rows = history + (applied_rows(followup.rows, built_on) if followup is not None else [])
         history_sheet, history_names = plan_history(rows)
         sheets.insert(sheets.index(actions_sheet) + (2 if followup is not None else 1), history_sheet)
         names = [*names, *history_names]
-        figures += [Figure(f"Follow-up: {label[0].lower()}{label[1:]}", "=" + ref, value,
-                           "int" if i < 4 else "money") for i, (label, (ref, value)) in enumerate(summary.items())]
     sources = {k: v.name for k, v in inputs.sources.items()}
     guide = plan_guide(settings, built_on, sections, warnings or [], inputs.checksums, sources, figures)
     if carry is not None and carry.unmatched:

@@ -238,3 +238,18 @@ def test_changes_include_unapplied_writes_last_weeks_unapplied_rows_this_week_do
     assert expected == added
     assert plain.rows == both.rows[:len(plain.rows)]
     assert 0 < len(added)
+
+
+def test_periods_a_week_apart_are_both_stated_with_their_overlap(scenario):
+    ws = openpyxl.load_workbook(scenario["week2"].output, data_only=True)[SHEET]
+    # the demo's settings.toml: period_end 2026-11-29, 30 days; make_week2 moves the end on by 7 days
+    assert ("Last period: 2026-10-31 to 2026-11-29 (30 days). This period: 2026-11-07 to 2026-12-06 (30 days)."
+            == ws["A2"].value)
+    assert ws["A3"].value.startswith("The periods overlap by 23 days, so each comparison is diluted")
+
+
+def test_a_previous_workbook_of_a_later_period_says_so_and_writes_no_follow_up(scenario):
+    later = build(scenario["exports2"], scenario["work"] / "later.xlsx", built_on=BUILT_ON)
+    out = build(DEMO, scenario["work"] / "earlier.xlsx", built_on=BUILT_ON, previous=later.output)
+    assert SHEET not in openpyxl.load_workbook(out.output, read_only=True).sheetnames
+    assert any("is later than this one's" in w.message for w in out.warnings)

@@ -9,12 +9,15 @@ second bid change, the first two keywords, the first two negatives and the first
 change are applied; one more bid is moved to another value than planned (so it reads as
 not applied). Clicks on every keyword or target rise by a fifth plus one (spend unchanged,
 so cost per click falls), an applied negative's search terms stop spending, an added
-keyword gets its first clicks and orders, and every product's revenue rises by a tenth. Files are written as the exports arrive (CSV,
+keyword gets its first clicks and orders, every product's revenue rises by a tenth,
+and settings.toml's period_end moves on by seven days. Files are written as the exports arrive (CSV,
 same headers); the source folder is only read.
 """
 from __future__ import annotations
 
 import csv
+import datetime as dt
+import re
 import shutil
 import sys
 from pathlib import Path
@@ -97,6 +100,12 @@ def make_week2(src: Path, dst: Path, applied: list[dict], elsewhere: list[dict])
     for row in sales:
         row["revenue"] = f"{float(row['revenue'] or 0) * 1.1:.2f}"
     _write(dst / "store_sales.csv", header, sales)
+    settings = dst / "settings.toml"
+    if settings.exists():  # the period moves on by a week
+        text = settings.read_text(encoding="utf-8")
+        text = re.sub(r"^(period_end\s*=\s*)(\d{4}-\d{2}-\d{2})", lambda m: m[1] + (
+            dt.date.fromisoformat(m[2]) + dt.timedelta(days=7)).isoformat(), text, flags=re.M)
+        settings.write_text(text, encoding="utf-8")
     budgets = {c["campaign"]: c["new"] for c in applied if c["kind"] == "budget"}
     if budgets:
         header, rows = _read(dst / "campaigns.csv")
