@@ -4,7 +4,9 @@ Usage: python tools/render_samples.py DEMO_INPUTS OUTPUT_DIR [SHEET ...]
 
 For each sheet, a copy of the workbook with every other sheet hidden is converted to PDF
 by LibreOffice (headless, recalculating on load) and its first page turned into a PNG
-by pdftoppm. Also writes OUTPUT_DIR/demo.xlsx, the demo workbook itself.
+by pdftoppm. Also writes OUTPUT_DIR/demo.xlsx, the demo workbook itself. The Follow-up
+sheet is rendered from next week's demo exports (demo_inputs_week2 beside DEMO_INPUTS, made
+by tools/make_week2.py) built with --previous the demo workbook.
 """
 from __future__ import annotations
 
@@ -20,6 +22,15 @@ from sheetbuilder.errors import WARNING
 from sheetbuilder.recalc import libreoffice_convert
 
 DEMO_DATE = dt.date(2026, 12, 2)
+WEEK2 = "demo_inputs_week2"
+
+
+def week2_plan(folder: Path, out: Path):
+    """The plan of next week's demo workbook, built with --previous this week's (out/demo.xlsx)."""
+    from sheetbuilder.pipeline import build
+    result = build(folder.parent / WEEK2, out / "demo_week2.xlsx", force=True,
+                   built_on=DEMO_DATE + dt.timedelta(days=7), previous=out / "demo.xlsx")
+    return result.plan
 
 
 def main(argv: list[str]) -> int:
@@ -29,11 +40,14 @@ def main(argv: list[str]) -> int:
     inputs, settings, problems = load(folder)
     plan = plan_workbook(inputs, settings, DEMO_DATE, [p for p in problems if p.severity == WARNING])
     write_atomically(plan.spec, out / "demo.xlsx")
+    plans = {name: plan for name in sheets}
+    if "Follow-up" in sheets:
+        plans["Follow-up"] = week2_plan(folder, out)
     with tempfile.TemporaryDirectory() as tmp:
         tmp = Path(tmp)
         files = []
         for name in sheets:
-            spec = copy.deepcopy(plan.spec)
+            spec = copy.deepcopy(plans[name].spec)
             for sheet in spec.sheets:
                 sheet.hidden = sheet.name != name
             path = tmp / f"{name.lower()}.xlsx"
