@@ -260,5 +260,6 @@ def plan_followup(followup: Followup, profit: PlannedTable, ranges: dict[str, st
                   Highlight(19, AGAINST, bad), Highlight(19, NOT_APPLIED, bad)]
     table = Table(FIRST_TABLE_ROW, changes.columns, highlights=highlights, title="Last week's changes")
     more = [Table(products_first, products.columns, autofilter=False, title="Products then and now")]
-    sheet = Sheet(SHEET, above=above, table=table, more=more, freeze=(FIRST_TABLE_ROW + 1, 1), tab_color="#3B7A57")
+    sheet = Sheet(SHEET, above=above, table=table, more=more, freeze=(FIRST_TABLE_ROW + 1, 1), tab_color="#3B7A57",
+                  widths={0: 34})  # wide enough for the summary's labels
     return sheet, changes, products, figures
