@@ -35,7 +35,7 @@ def week2_plan(folder: Path, out: Path):
 
 def main(argv: list[str]) -> int:
     folder, out = Path(argv[0]), Path(argv[1])
-    sheets = argv[2:] or ["Guide", "Settings", "Profit", "Bids", "Terms", "Harvest", "Negatives", "Mix", "Budget", "Actions", "Groups"]
+    sheets = argv[2:] or ["Guide", "Settings", "Profit", "Bids", "Terms", "Harvest", "Negatives", "Mix", "Budget", "Actions", "Follow-up", "Groups"]
     out.mkdir(parents=True, exist_ok=True)
     inputs, settings, problems = load(folder)
     plan = plan_workbook(inputs, settings, DEMO_DATE, [p for p in problems if p.severity == WARNING])
