@@ -138,7 +138,7 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
         f"Actions!${c}$2" for c in ("B", "D", "F", "H", "J")), float(sum(action_counts)), "int"))
     if followup is not None:
         followup_sheet, tables[FOLLOWUP_SHEET], tables["Follow-up products"], summary = plan_followup(
-            followup, profit, ranges)
+            followup, profit, ranges, layouts["targets"].frame if "targets" in layouts else None)
         sheets.insert(sheets.index(actions_sheet) + 1, followup_sheet)
         sections.append(("Follow-up columns", FOLLOWUP_DEFS))
         figures += [Figure(f"Follow-up: {label[0].lower()}{label[1:]}", "=" + ref, value,

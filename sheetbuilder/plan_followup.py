@@ -8,7 +8,9 @@ in words), and "Products then and now" (last period's figures beside live refere
 period's Profit rows, with the change).
 
 Last period's figures are values (they come from last week's workbook, not this one's inputs);
-Applied is a value read from this week's exports; CPC, ACoS, Outcome, the products' current
+Applied is a value read from this week's exports; this period's clicks, spend, orders and ad
+sales of a bid or added target are live from its in_targets row (a negative's term and a
+budget's campaign sum several rows: values as read); CPC, ACoS, Outcome, the products' current
 figures, their changes and the Summary are live formulas.
 """
 from __future__ import annotations
@@ -20,7 +22,7 @@ import numpy as np
 import pandas as pd
 
 from .columns import ColumnDef, PlannedTable, plan_table
-from .followup import CANNOT_TELL, NO, YES, Followup
+from .followup import CANNOT_TELL, NO, YES, Followup, fold
 from .formula import quote_sheet
 from .palette import DIRECTION_STATES
 from .spec import DATA, Cell, Highlight, Sheet, Table
@@ -46,6 +48,32 @@ def _data(key: str, header: str, style: str, help_: str, width: float = 11, hidd
 def _rate(key: str, header: str, num: str, den: str, help_: str, style: str) -> ColumnDef:
     return ColumnDef(key, header, style, help_, lambda df, ctx: _div(df[num], df[den]),
                      '=IF({c:%s}=0,"",{c:%s}/{c:%s})' % (den, num, den), width=9)
+
+
+NOW_METRICS = ("clicks", "spend", "orders", "ad_sales")
+TARGET_KINDS = ("bid", "add keyword", "add product target")
+
+
+def _live_now(metric: str, header: str, style: str, help_: str, hidden: bool = False) -> ColumnDef:
+    """A this-period figure: live from its in_targets row when the change has exactly one, else as read."""
+    return ColumnDef(f"{metric}_n", header, style, help_, lambda df, ctx: df[f"{metric}_nx"],
+                     '=IF({row:tpos}=0,{c:%s_nx},INDEX({rng:targets.%s},{row:tpos}))' % (metric, metric),
+                     width=11, hidden=hidden)
+
+
+def target_positions(rows: list[dict], targets: pd.DataFrame | None) -> list[int]:
+    """Each change's 1-based row on in_targets when it is a target change with exactly one row there, else 0."""
+    if targets is None or not len(targets):
+        return [0] * len(rows)
+    where: dict[tuple, list[int]] = {}
+    for i, key in enumerate(targets[["campaign", "ad_group", "target", "match_type"]].itertuples(index=False,
+                                                                                               name=None)):
+        where.setdefault((key[0], key[1], fold(key[2]), key[3]), []).append(i + 1)
+    out = []
+    for r in rows:
+        found = where.get((r["campaign"], r["ad_group"], fold(r["target"]), r["match_type"]), [])
+        out.append(found[0] if r["kind"] in TARGET_KINDS and len(found) == 1 else 0)
+    return out
 
 
 def _score(row: dict) -> int:
@@ -111,22 +139,24 @@ CHANGE_DEFS = [
     _data("now", "Now", "money", "The bid or daily budget this week's exports show.", 9),
     _data("applied", "Applied", "label", "yes, no or cannot tell (see the Guide).", 11),
     _data("clicks_b", "Clicks before", "int", "Clicks last period."),
-    _data("clicks_n", "Clicks now", "int", "Clicks this period."),
+    _live_now("clicks", "Clicks now", "int", "Clicks this period."),
     _rate("cpc_b", "CPC before", "spend_b", "clicks_b", "Spend / clicks last period.", "money"),
     _rate("cpc_n", "CPC now", "spend_n", "clicks_n", "Spend / clicks this period.", "money"),
     _data("spend_b", "Spend before", "money", "Spend last period."),
-    _data("spend_n", "Spend now", "money", "Spend this period."),
+    _live_now("spend", "Spend now", "money", "Spend this period."),
     _data("orders_b", "Orders before", "int", "Orders last period."),
-    _data("orders_n", "Orders now", "int", "Orders this period."),
+    _live_now("orders", "Orders now", "int", "Orders this period."),
     _rate("acos_b", "ACoS before", "spend_b", "ad_sales_b", "Spend / ad sales last period.", "percent"),
     _rate("acos_n", "ACoS now", "spend_n", "ad_sales_n", "Spend / ad sales this period.", "percent"),
     ColumnDef("outcome", "Outcome", "label", "The move compared with its intent, in words (see the Guide).",
               _outcomes, OUTCOME, width=22),
     _data("ad_sales_b", "Ad sales before", "money", "Working: ad sales last period.", hidden=True),
-    _data("ad_sales_n", "Ad sales now", "money", "Working: ad sales this period.", hidden=True),
+    _live_now("ad_sales", "Ad sales now", "money", "Working: ad sales this period.", hidden=True),
     _data("was", "Was", "money", "Working: the bid or budget when last week's list was made.", hidden=True),
     _data("target_acos", "Target ACoS then", "percent", "Working: the product's target ACoS last week.",
           hidden=True),
+    *[_data(f"{m}_nx", f"{m} now as read", "int", "Working: the figure this period as read from the exports.",
+            hidden=True) for m in NOW_METRICS],
 ]
 
 _PRODUCT_FIGURES = (("revenue", "Revenue", "money"), ("ad_spend", "Ad spend", "money"), ("tacos", "TACoS", "percent"),
@@ -211,14 +241,21 @@ def period_lines(followup: Followup) -> list[str]:
     return lines
 
 
-def plan_followup(followup: Followup, profit: PlannedTable, ranges: dict[str, str]
+def plan_followup(followup: Followup, profit: PlannedTable, ranges: dict[str, str], targets: pd.DataFrame | None
                   ) -> tuple[Sheet, PlannedTable, PlannedTable, dict[str, tuple[str, Any]]]:
-    """The Follow-up sheet, its two tables, and the summary figures {label: (cell reference, value)}."""
+    """The Follow-up sheet, its two tables, and the summary figures {label: (cell reference, value)}.
+
+    targets is this week's in_targets rows in sheet order (None without a targets export).
+    """
     ctx = _Ctx(followup.min_clicks)
-    base = pd.DataFrame(followup.rows, columns=[d.key for d in CHANGE_DEFS if d.formula is None] or None)
-    if not len(base):
-        base = pd.DataFrame({d.key: pd.Series(dtype=object) for d in CHANGE_DEFS if d.formula is None})
-    changes = plan_table(CHANGE_DEFS, base, ctx, FIRST_TABLE_ROW + 1, ranges, with_totals=False)
+    rows = [{**{k: v for k, v in r.items() if k not in {f"{m}_n" for m in NOW_METRICS}},
+             **{f"{m}_nx": r[f"{m}_n"] for m in NOW_METRICS}} for r in followup.rows]
+    data_keys = [d.key for d in CHANGE_DEFS if d.formula is None]
+    base = pd.DataFrame(rows, columns=data_keys) if rows else pd.DataFrame(
+        {k: pd.Series(dtype=object) for k in data_keys})
+    base["tpos"] = target_positions(followup.rows, targets)
+    filled = {**{f"targets.{m}": "Guide!$ZZ$1:$ZZ$2" for m in NOW_METRICS}, **ranges}  # never read without targets
+    changes = plan_table(CHANGE_DEFS, base, ctx, FIRST_TABLE_ROW + 1, filled, with_totals=False)
     c_rng = changes.ranges(SHEET, "fu")
     products_first = FIRST_TABLE_ROW + 1 + max(len(base), 1) + 2
     products = plan_table(product_defs(), _products_frame(followup, profit), ctx, products_first + 1, ranges,
