@@ -253,3 +253,44 @@ def test_a_previous_workbook_of_a_later_period_says_so_and_writes_no_follow_up(s
     out = build(DEMO, scenario["work"] / "earlier.xlsx", built_on=BUILT_ON, previous=later.output)
     assert SHEET not in openpyxl.load_workbook(out.output, read_only=True).sheetnames
     assert any("is later than this one's" in w.message for w in out.warnings)
+
+
+def _tiny_week1(folder):
+    """A one-product account whose change list holds a bid cut, a raise, a negative and a budget change."""
+    folder.mkdir()
+    files = {
+        "catalog.csv": "product_id,product_name,price,unit_cost,fees_per_unit,target_acos\nP1,Widget,25,5,5,30%\n",
+        "store_sales.csv": "product_id,units,revenue\nP1,80,2000\n",
+        "ad_products.csv": "campaign,ad_group,product_id,ad_type,impressions,clicks,spend,ad_sales,orders\n"
+                           "C1,G1,P1,product ads,9000,160,200,500,20\n",
+        "targets.csv": "campaign,ad_group,target,match_type,state,bid,impressions,clicks,spend,ad_sales,orders\n"
+                       "C1,G1,widget,exact,enabled,1.50,5000,100,150,250,10\n"
+                       "C1,G1,blue widget,phrase,enabled,0.40,3000,60,24,250,10\n",
+        "search_terms.csv": "campaign,ad_group,target,match_type,search_term,impressions,clicks,spend,ad_sales,orders\n"
+                            "C1,G1,blue widget,phrase,blue widget cheap,900,30,12,0,0\n"
+                            "C1,G1,blue widget,phrase,blue widget,2100,30,12,250,10\n",
+        "campaigns.csv": "campaign,ad_type,state,daily_budget,targeting\nC1,product ads,enabled,10.00,manual\n",
+        "negatives.csv": "campaign,ad_group,term,match_type\nC1,,free,negative phrase\n",
+        "settings.toml": "period_days = 7\nperiod_end = 2026-11-29\n",
+    }
+    for name, text in files.items():
+        (folder / name).write_text(text, encoding="utf-8")
+    return folder
+
+
+def test_follow_up_formulas_recalculated_by_the_formulas_library_equal_the_cached_values(tmp_path):
+    from sheetbuilder.recalc import formulas_values
+    from workbook_io import engine_disagreements
+    week1 = build(_tiny_week1(tmp_path / "w1"), tmp_path / "w1.xlsx", built_on=BUILT_ON)
+    export_changes(week1.output, tmp_path / "c1.csv")
+    with (tmp_path / "c1.csv").open(newline="", encoding="utf-8-sig") as f:
+        changes = list(csv.DictReader(f))
+    assert {"bid", "add negative"} <= {c["kind"] for c in changes}
+    applied, elsewhere = choose(changes)
+    week2 = build(make_week2(tmp_path / "w1", tmp_path / "w2", applied, elsewhere), tmp_path / "w2.xlsx",
+                  built_on=BUILT_ON + dt.timedelta(days=7), previous=week1.output)
+    recalculated = {k: v for k, v in formulas_values(week2.output).items() if k[0] == SHEET.upper()}
+    wrong, checked = engine_disagreements(week2.output, recalculated)
+    assert [] == [w for w in wrong if w.startswith(SHEET.upper())]
+    assert 40 <= len(recalculated)
+    assert "The periods do not overlap." == openpyxl.load_workbook(week2.output, data_only=True)[SHEET]["A3"].value
