@@ -18,7 +18,7 @@ import pandas as pd
 
 from . import contract as c
 from .errors import ERROR, WARNING, Problem
-from .numbers import MAX_MAGNITUDE, NotANumber, parse_number
+from .numbers import MAX_MAGNITUDE, NotANumber, parse_count, parse_number
 from .settings import Settings
 
 SUFFIXES = (".csv", ".tsv", ".txt", ".xlsx", ".xlsm")
@@ -259,10 +259,18 @@ def _parse_cell(rule: c.ColumnRule, text: str, settings: Settings) -> tuple[obje
         if rule.name == "bid":
             return math.nan, "is blank; expected the current bid"
         return math.nan, None
+    comma = settings.decimal_comma and not isinstance(text, CellNumber)
     try:
-        value, had_percent = parse_number(t, settings.decimal_comma and not isinstance(text, CellNumber))
+        if rule.kind == c.COUNT:
+            value, had_percent = (float(t) if isinstance(text, CellNumber) else parse_count(t, comma)), False
+        else:
+            value, had_percent = parse_number(t, comma, money=rule.kind != c.PERCENT)
     except NotANumber as exc:
-        expected = {c.COUNT: "a whole number", c.MONEY: "an amount such as 1234.56",
+        if rule.kind == c.COUNT:
+            return math.nan, (f"'{text}' is not a whole number; expected a count such as 1234 or 1,234"
+                              + (f" ({exc.hint})" if exc.hint else ""))
+        expected = {c.MONEY: "an amount such as 1234.56 (a currency sign or code such as $ or USD may stand "
+                             "before or after it)",
                     c.PERCENT: "a percentage such as 30% or 0.30", c.AMOUNT: "an amount such as 0.85"}[rule.kind]
         return math.nan, f"'{text}' is not a number; expected {expected}" + (f" ({exc.hint})" if exc.hint else "")
     if abs(value) >= MAX_MAGNITUDE:
