@@ -128,7 +128,8 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
     figures = dashboard(tables, ranges, ("Budget!$B$3", shifted.value))
     figures.append(Figure("Changes in the Actions list", "=" + "+".join(
         f"Actions!${c}$2" for c in ("B", "D", "F", "H", "J")), float(sum(action_counts)), "int"))
-    sources = {k: v.name for k, v in inputs.sources.items()}
+    sources = {k: v.name + (f" ({inputs.encodings[k]})" if k in inputs.encodings else "")
+               for k, v in inputs.sources.items()}
     guide = plan_guide(settings, built_on, sections, warnings or [], inputs.checksums, sources, figures)
     if carry is not None and carry.unmatched:
         sheets.append(plan_unmatched(carry))

@@ -17,6 +17,7 @@ from pathlib import Path
 import pandas as pd
 
 from . import contract as c
+from .encodings import NotText, decode, is_legacy
 from .errors import ERROR, WARNING, Problem
 from .numbers import MAX_MAGNITUDE, NotANumber, parse_count, parse_number
 from .settings import Settings
@@ -47,6 +48,7 @@ class Inputs:
     tables: dict[str, pd.DataFrame | None]
     sources: dict[str, Path] = field(default_factory=dict)
     checksums: dict[str, str] = field(default_factory=dict)
+    encodings: dict[str, str] = field(default_factory=dict)
 
     def get(self, name: str) -> pd.DataFrame | None:
         """The frame of table name, or None when the file was not given."""
@@ -74,34 +76,6 @@ def find_file(folder: Path, table: c.TableRule, settings: Settings) -> tuple[Pat
                                  f"missing file '{table.name}.csv' (or .xlsx): {table.label}")
         return None, None
     return found[0], None
-
-
-_BOMS = ((b"\xff\xfe\x00\x00", "utf-32"), (b"\x00\x00\xfe\xff", "utf-32"),
-         (b"\xff\xfe", "utf-16"), (b"\xfe\xff", "utf-16"))
-
-
-def _decode(data: bytes) -> str:
-    """Text of a CSV file: UTF-16/32 with a BOM, UTF-8 with or without BOM, else cp1252.
-
-    Raises:
-        UnicodeDecodeError: none of these reads the bytes.
-        NotText: the bytes decode but hold NUL characters.
-    """
-    for bom, codec in _BOMS:
-        if data.startswith(bom):
-            return data.decode(codec)  # the codec reads and drops its BOM
-    try:
-        text = data.decode("utf-8-sig")
-    except UnicodeDecodeError:
-        text = data.decode("cp1252")
-    if "\x00" in text:
-        raise NotText("holds NUL characters, so it is not a text export (UTF-16 without a byte-order mark, or "
-                      "a binary file); save it as a UTF-8 CSV")
-    return text
-
-
-class NotText(ValueError):
-    """A CSV file whose bytes are not text in any encoding the readers accept."""
 
 
 class UnsafeWorkbook(ValueError):
@@ -183,16 +157,28 @@ def _cell_text(value: object) -> str:
     return str(value)
 
 
-def read_rows(path: Path) -> list[list[str]]:
-    """All rows of a CSV or .xlsx file as lists of text, header first; blank rows kept."""
+def read_rows(path: Path) -> tuple[list[list[str]], str]:
+    """All rows of a CSV or spreadsheet file as lists of text, header first; blank rows kept.
+
+    Returns:
+        The rows and the file's encoding ("spreadsheet" for a workbook).
+
+    Raises:
+        NotText: a CSV not decodable by encodings.decode, or a NUL character in any cell (with its row).
+    """
     if path.suffix.lower() in (".xlsx", ".xlsm"):
         check_workbook_zip(path)
         frame = pd.read_excel(path, engine="calamine", header=None, dtype=object)
-        return [[_cell_text(v) for v in row] for row in frame.itertuples(index=False)]
-    text = _decode(path.read_bytes())
+        rows = [[_cell_text(v) for v in row] for row in frame.itertuples(index=False)]
+        for i, row in enumerate(rows):
+            if any("\x00" in x for x in row):
+                raise NotText("holds a NUL character in a cell; remove it and save again", i + 1)
+        return rows, "spreadsheet"
+    decoded = decode(path.read_bytes())
+    text = decoded.text
     first = next((line for line in text.splitlines() if line.strip()), "")
     delimiter = max((",", ";", "\t"), key=first.count) if first else ","
-    return list(csv.reader(io.StringIO(text, newline=""), delimiter=delimiter))
+    return list(csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)), decoded.encoding
 
 
 def map_headers(header: list[str], table: c.TableRule, settings: Settings, file: str
@@ -289,12 +275,9 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
     """Read and validate one table's file."""
     file = path.name
     try:
-        rows = read_rows(path)
-    except UnicodeDecodeError:
-        return None, [Problem(file, None, None, "cannot be read as text: not UTF-8, UTF-16 with a byte-order mark, "
-                                                "or cp1252; save it as a UTF-8 CSV")]
+        rows, encoding = read_rows(path)
     except NotText as exc:
-        return None, [Problem(file, None, None, str(exc))]
+        return None, [Problem(file, exc.row, None, str(exc))]
     except UnsafeWorkbook as exc:
         return None, [Problem(file, None, None, str(exc))]
     except csv.Error as exc:
@@ -339,13 +322,18 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
     header_of = {rule.name: (header[found[rule.name]] if rule.name in found else rule.name) for rule in table.columns}
     frame.attrs["headers"] = header_of
     frame.attrs["file"] = file
+    frame.attrs["encoding"] = encoding
+    if is_legacy(encoding):
+        problems.append(Problem(file, None, None, f"read as {encoding}: the file is not valid UTF-8 and holds no "
+                                                  "UTF-8 text, so it was saved by an older Windows program; check "
+                                                  "its accented text", WARNING))
     if too_long:
         # Check the rows as written before merging, which could hide a row's orders > clicks.
         problems.extend(_row_checks(table.name, frame))
         if any(p.severity == ERROR for p in problems):
             return None, problems
         frame, problem = _merge_search_terms(frame, file, data_rows)
-        frame.attrs.update(headers=header_of, file=file)
+        frame.attrs.update(headers=header_of, file=file, encoding=encoding)
         problems.append(problem)
         if problem.severity == ERROR:
             return None, problems
@@ -435,6 +423,7 @@ def read_inputs(folder: Path, settings: Settings) -> tuple[Inputs, list[Problem]
     tables: dict[str, pd.DataFrame | None] = {}
     sources: dict[str, Path] = {}
     checksums: dict[str, str] = {}
+    encodings: dict[str, str] = {}
     problems: list[Problem] = []
     for table in c.TABLES:
         path, problem = find_file(folder, table, settings)
@@ -449,6 +438,7 @@ def read_inputs(folder: Path, settings: Settings) -> tuple[Inputs, list[Problem]
         problems.extend(found)
         if frame is not None:
             problems.extend(_row_checks(table.name, frame))
+            encodings[table.name] = frame.attrs["encoding"]
         tables[table.name] = frame
     problems.extend(_cross_checks(tables))
-    return Inputs(tables, sources, checksums), problems
+    return Inputs(tables, sources, checksums, encodings), problems

@@ -61,7 +61,7 @@ def test_utf16_without_a_bom_is_one_problem_saying_so(tmp_path):
     write_case(tmp_path / "in", {"catalog.csv": BASE["catalog.csv"].encode("utf-16-le")})
     with pytest.raises(InputProblems) as caught:
         load(tmp_path / "in")
-    assert [("catalog.csv", None, None)] == [(p.file, p.row, p.column) for p in caught.value.problems]
+    assert [("catalog.csv", 1, None)] == [(p.file, p.row, p.column) for p in caught.value.problems]
     assert "NUL characters" in caught.value.problems[0].message
 
 
