@@ -25,6 +25,7 @@ from .plan_terms import _defs as TERMS_DEFS, plan_terms
 from .plan_inputs import plan_input_sheets
 from .plan_profit import DEFS as PROFIT_DEFS, plan_profit
 from .plan_settings import plan_settings
+from .periods import apply_period
 from .readers import Inputs, read_inputs
 from .render import Progress, render
 from .settings import Settings, load_settings
@@ -65,7 +66,7 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
         The plan: the workbook spec and each computed table's reference frame.
     """
     input_sheets, layouts = plan_input_sheets(inputs, settings.fold_plurals)
-    settings_sheet, names = plan_settings(settings, built_on)
+    settings_sheet, names = plan_settings(settings, built_on, inputs.period)
     decide = Decisions(carry)
     profit_sheet, profit = plan_profit(inputs, layouts, settings, built_on, decide.targets)
     tables = {"Profit": profit}
@@ -156,6 +157,10 @@ def load(folder: Path) -> tuple[Inputs, Settings, list[Problem]]:
     settings, problems = load_settings(Path(folder))
     inputs, found = read_inputs(Path(folder), settings)
     problems += found
+    dated = sorted(inputs.sources[n].name for n, f in inputs.tables.items()
+                   if f is not None and f.attrs.get("period") is not None)
+    settings, notes = apply_period(settings, inputs.period, settings.given, dated)
+    problems += notes
     if settings.thin_margin > settings.strong_margin:
         problems.append(Problem("settings.toml", None, "thin_margin",
                                 f"the thin threshold ({settings.thin_margin:g}) is above the strong threshold "

@@ -39,8 +39,11 @@ def _shown(spec, value):
     return value
 
 
-def plan_settings(settings: Settings, built_on: dt.date) -> tuple[Sheet, list[tuple[str, str]]]:
-    """The Settings sheet and the workbook names pointing at its cells."""
+def plan_settings(settings: Settings, built_on: dt.date, period=None) -> tuple[Sheet, list[tuple[str, str]]]:
+    """The Settings sheet and the workbook names pointing at its cells.
+
+    period, when the exports carry dates, is the periods.Period read from them; a row says so.
+    """
     rows: list[list[Cell | None]] = [
         [Cell("Settings", style="title")],
         [Cell("Cream cells with blue text are inputs: change them and every sheet updates. "
@@ -71,6 +74,11 @@ def plan_settings(settings: Settings, built_on: dt.date) -> tuple[Sheet, list[tu
                  Cell("The day this workbook was built (for the attribution-window warning).", style="note"),
                  Cell("built_on", style="note")])
     names.append(("built_on", f"=Settings!$B${built_row + 1}"))
+    if period is not None:
+        used = [k for k in ("period_days", "period_end") if k not in settings.given]
+        rows.append([Cell("Period in the exports"), Cell(str(period), style="text"),
+                     Cell("Read from the exports' dates; " + (f"used for {' and '.join(used)}." if used else
+                          "settings.toml sets the period, so it was not used."), style="note")])
     mapped = [(table, canon, source) for table, cols in sorted(settings.columns.items())
               for canon, source in sorted(cols.items())]
     if mapped:

@@ -20,6 +20,7 @@ from . import contract as c
 from .encodings import NotText, decode, is_legacy
 from .errors import ERROR, WARNING, Problem
 from .numbers import MAX_MAGNITUDE, NotANumber, parse_count, parse_number
+from .periods import DATE_RULES, DATED_TABLES, Period, combine_repeats, overall_period, parse_dates, table_period
 from .settings import Settings
 
 SUFFIXES = (".csv", ".tsv", ".txt", ".xlsx", ".xlsm")
@@ -49,6 +50,7 @@ class Inputs:
     sources: dict[str, Path] = field(default_factory=dict)
     checksums: dict[str, str] = field(default_factory=dict)
     encodings: dict[str, str] = field(default_factory=dict)
+    period: Period | None = None  # the days the dated exports cover, when they carry dates
 
     def get(self, name: str) -> pd.DataFrame | None:
         """The frame of table name, or None when the file was not given."""
@@ -271,6 +273,30 @@ def _parse_cell(rule: c.ColumnRule, text: str, settings: Settings) -> tuple[obje
     return value, None
 
 
+def with_dates(table: c.TableRule) -> c.TableRule:
+    """The table's rule with the optional date columns its exports may carry."""
+    extra = tuple(r for r in DATE_RULES if r.name in DATED_TABLES.get(table.name, ()))
+    return c.TableRule(table.name, table.columns + extra, table.required, table.label) if extra else table
+
+
+def _read_dates(frame: pd.DataFrame, texts: dict[str, list[str]], headers: dict[str, str]) -> list[Problem]:
+    """Add _start and _end (each row's first and last day) to frame from its date columns' texts."""
+    names = list(texts)
+    n = len(frame)
+    every, bad = parse_dates([t for name in names for t in texts[name]])  # one day/month order per file
+    parsed = {name: every[k * n:(k + 1) * n] for k, name in enumerate(names)}
+    problems = [Problem(frame.attrs["file"], int(frame["_row"].iloc[i % n]), headers[names[i // n]], message)
+                for i, message in bad]
+    first = parsed.get("date") or parsed.get("start_date") or parsed.get("end_date")
+    last = parsed.get("date") or parsed.get("end_date") or first
+    frame["_start"], frame["_end"] = pd.Series(first, dtype=object), pd.Series(last, dtype=object)
+    for row, start, end in zip(frame["_row"], frame["_start"], frame["_end"]):
+        if start is not None and end is not None and end < start:
+            problems.append(Problem(frame.attrs["file"], int(row), headers.get("end_date"),
+                                    f"the end date {end} is before the start date {start}"))
+    return problems
+
+
 def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.DataFrame | None, list[Problem]]:
     """Read and validate one table's file."""
     file = path.name
@@ -288,7 +314,8 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
     if start is None:
         return None, [Problem(file, None, None, "the file is empty; expected a header row and data rows")]
     header = rows[start]
-    found, problems = map_headers(header, table, settings, file)
+    found, problems = map_headers(header, with_dates(table), settings, file)
+    dates = {n: found.pop(n) for n in [r.name for r in DATE_RULES] if n in found}
     if any(p.severity == ERROR for p in problems):
         return None, problems
     data_rows = sum(1 for r in rows[start + 1:] if any(x.strip() for x in r))
@@ -298,6 +325,7 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
                                                 f"{MAX_SHEET_ROWS - 1:,} below its header, so the workbook cannot "
                                                 "hold this table. Export a shorter period")]
     records: list[dict] = []
+    date_texts: dict[str, list[str]] = {n: [] for n in dates}
     for i in range(start + 1, len(rows)):
         row = rows[i]
         if not any(x.strip() for x in row):
@@ -310,6 +338,8 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
             if message:
                 problems.append(Problem(file, i + 1, header[col] if col is not None else rule.name, message))
             record[rule.name] = value
+        for name, col in dates.items():
+            date_texts[name].append(row[col] if col < len(row) else "")
         records.append(record)
     names = ["_row"] + [r.name for r in table.columns]
     frame = pd.DataFrame.from_records(records, columns=names)
@@ -323,6 +353,16 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
     frame.attrs["headers"] = header_of
     frame.attrs["file"] = file
     frame.attrs["encoding"] = encoding
+    if dates:
+        problems.extend(_read_dates(frame, date_texts, {n: header[i] for n, i in dates.items()}))
+    frame.attrs["period"] = None
+    if not any(p.severity == ERROR for p in problems):  # a bad cell would make the sums meaningless
+        frame, repeats = combine_repeats(table.name, frame, bool(dates))
+        problems.extend(repeats)
+        if any(p.severity == ERROR for p in repeats):
+            return None, problems
+        frame.attrs["period"] = table_period(frame)
+    frame = frame.drop(columns=[n for n in ("_start", "_end") if n in frame])
     if is_legacy(encoding):
         problems.append(Problem(file, None, None, f"read as {encoding}: the file is not valid UTF-8 and holds no "
                                                   "UTF-8 text, so it was saved by an older Windows program; check "
@@ -441,4 +481,8 @@ def read_inputs(folder: Path, settings: Settings) -> tuple[Inputs, list[Problem]
             encodings[table.name] = frame.attrs["encoding"]
         tables[table.name] = frame
     problems.extend(_cross_checks(tables))
-    return Inputs(tables, sources, checksums, encodings), problems
+    periods = {sources[n].name: f.attrs["period"] for n, f in tables.items()
+               if f is not None and f.attrs.get("period") is not None}
+    period, found = overall_period(periods)
+    problems.extend(found)
+    return Inputs(tables, sources, checksums, encodings, period), problems

@@ -157,6 +157,7 @@ class Settings:
     destinations: MappingProxyType = field(default_factory=lambda: MappingProxyType({}))
     ad_type_benchmarks: MappingProxyType = field(default_factory=lambda: MappingProxyType(
         {"product ads": 0.85, "brand ads": 0.10, "display ads": 0.05}))
+    given: frozenset = frozenset()  # the settings settings.toml sets (a period read from dates yields to them)
 
     def value(self, key: str) -> Any:
         """The value of the setting named key."""
@@ -300,7 +301,7 @@ def load_settings(folder: Path) -> tuple[Settings, list[Problem]]:
         except re.error as exc:
             problems.append(Problem(SETTINGS_FILE, None, "product_id_pattern", f"not a valid regular expression: {exc}"))
     return Settings(**values, columns=MappingProxyType(mapping), files=MappingProxyType(dict(files)),
-                    destinations=MappingProxyType(destinations)), problems
+                    destinations=MappingProxyType(destinations), given=frozenset(values)), problems
 
 
 def _destinations(raw: Any, problems: list[Problem]) -> dict[str, tuple[str, str]]:
