@@ -19,11 +19,15 @@ import pandas as pd
 from . import contract as c
 from .encodings import NotText, decode, is_legacy
 from .errors import ERROR, WARNING, Problem
+from .headers import currency_warnings, find_header, map_headers
 from .numbers import MAX_MAGNITUDE, NotANumber, parse_count, parse_number
 from .periods import DATE_RULES, DATED_TABLES, Period, combine_repeats, overall_period, parse_dates, table_period
 from .settings import Settings
+from .totals import RunningSums, totals_label
 
-SUFFIXES = (".csv", ".tsv", ".txt", ".xlsx", ".xlsm")
+SPREADSHEETS = (".xlsx", ".xlsm", ".xls", ".xlsb", ".ods")
+SUFFIXES = (".csv", ".tsv", ".txt", ".xlsx", ".xlsm", ".xls", ".xlsb", ".ods")
+ZIPPED = (".xlsx", ".xlsm", ".xlsb")  # Office Open XML workbooks, checked before they are opened
 MAX_SHEET_ROWS = 1_048_576  # Microsoft, "Excel specifications and limits"; the header takes one
 
 # A workbook is a zip; these limits refuse a zip bomb before calamine inflates it.
@@ -159,69 +163,46 @@ def _cell_text(value: object) -> str:
     return str(value)
 
 
-def read_rows(path: Path) -> tuple[list[list[str]], str]:
-    """All rows of a CSV or spreadsheet file as lists of text, header first; blank rows kept.
+def read_sheets(path: Path) -> tuple[list[tuple[str, list[list[str]]]], str]:
+    """Every sheet of a CSV or spreadsheet file as (sheet name, rows of text); blank rows kept.
+
+    A CSV is one sheet named "". Spreadsheets (.xlsx .xlsm .xls .xlsb .ods) are read by calamine.
 
     Returns:
-        The rows and the file's encoding ("spreadsheet" for a workbook).
+        The sheets and the file's encoding ("spreadsheet" for a workbook).
 
     Raises:
         NotText: a CSV not decodable by encodings.decode, or a NUL character in any cell (with its row).
     """
-    if path.suffix.lower() in (".xlsx", ".xlsm"):
-        check_workbook_zip(path)
-        frame = pd.read_excel(path, engine="calamine", header=None, dtype=object)
-        rows = [[_cell_text(v) for v in row] for row in frame.itertuples(index=False)]
-        for i, row in enumerate(rows):
-            if any("\x00" in x for x in row):
-                raise NotText("holds a NUL character in a cell; remove it and save again", i + 1)
-        return rows, "spreadsheet"
+    if path.suffix.lower() in SPREADSHEETS:
+        if path.suffix.lower() in ZIPPED:
+            check_workbook_zip(path)
+        frames = pd.read_excel(path, engine="calamine", header=None, dtype=object, sheet_name=None)
+        sheets = []
+        for name, frame in frames.items():
+            rows = [[_cell_text(v) for v in row] for row in frame.itertuples(index=False)]
+            for i, row in enumerate(rows):
+                if any("\x00" in x for x in row):
+                    raise NotText("holds a NUL character in a cell; remove it and save again", i + 1)
+            sheets.append((str(name), rows))
+        return sheets, "spreadsheet"
     decoded = decode(path.read_bytes())
     text = decoded.text
     first = next((line for line in text.splitlines() if line.strip()), "")
-    delimiter = max((",", ";", "\t"), key=first.count) if first else ","
-    return list(csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)), decoded.encoding
+    delimiter = max((",", ";", "\t", "|"), key=first.count) if first else ","
+    return [("", list(csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)))], decoded.encoding
 
 
-def map_headers(header: list[str], table: c.TableRule, settings: Settings, file: str
-                ) -> tuple[dict[str, int], list[Problem]]:
-    """Which file column holds each canonical column: explicit mapping, then name, then synonym."""
-    keys = [c.header_key(h) for h in header]
-    explicit = settings.columns.get(table.name, {})
-    found: dict[str, int] = {}
-    problems: list[Problem] = []
-    for rule in table.columns:
-        if rule.name in explicit:
-            want = c.header_key(explicit[rule.name])
-            if want in keys:
-                found[rule.name] = keys.index(want)
-            else:
-                problems.append(Problem(file, 1, explicit[rule.name],
-                                        f"settings.toml maps '{rule.name}' to this header, but the file has no such column"))
-            continue
-        own = c.header_key(rule.name)
-        if own in keys:
-            found[rule.name] = keys.index(own)
-            if keys.count(own) > 1:
-                names = ", ".join(f"'{header[i]}'" for i, k in enumerate(keys) if k == own)
-                problems.append(Problem(file, 1, header[found[rule.name]],
-                                        f"several columns could be '{rule.name}' ({names}); keep one, or map one in "
-                                        f"settings.toml [columns.{table.name}]"))
-            continue
-        hits = [i for i, k in enumerate(keys) if k in rule.synonyms and i not in found.values()]
-        if len(hits) == 1:
-            found[rule.name] = hits[0]
-        elif len(hits) > 1:
-            names = ", ".join(f"'{header[i]}'" for i in hits)
-            problems.append(Problem(file, 1, header[hits[0]],
-                                    f"several columns could be '{rule.name}' ({names}); map one in settings.toml "
-                                    f"[columns.{table.name}]"))
-        elif rule.required:
-            also = ", ".join(rule.synonyms[:5])
-            problems.append(Problem(file, 1, rule.name,
-                                    f"missing column '{rule.name}'" + (f" (also accepted: {also})" if also else "")
-                                    + f"; or map it in settings.toml [columns.{table.name}]"))
-    return found, problems
+def pick_sheet(sheets: list[tuple[str, list[list[str]]]], table: c.TableRule, settings: Settings
+               ) -> tuple[str, list[list[str]], int | None]:
+    """The sheet that holds table (the one whose header matches most required columns; the first on a
+    tie) and its header row's 0-based index (None when every sheet is empty)."""
+    best = (sheets[0][0], sheets[0][1], None, -1) if sheets else ("", [], None, -1)
+    for name, rows in sheets:
+        start, score = find_header(rows, table, settings)
+        if start is not None and score > best[3]:
+            best = (name, rows, start, score)
+    return best[0], best[1], best[2]
 
 
 _SIGNED = {"margin"}  # a product sold below its costs has a negative margin before ads
@@ -297,11 +278,24 @@ def _read_dates(frame: pd.DataFrame, texts: dict[str, list[str]], headers: dict[
     return problems
 
 
+def _layout_notes(file: str, sheets: list, sheet: str, rows: list[list[str]], start: int) -> list[Problem]:
+    """Notes saying which sheet was read and which row held the header, when not the obvious ones."""
+    notes = []
+    if len(sheets) > 1:
+        notes.append(Problem(file, None, None, f"read the sheet '{sheet}', the one holding this table's columns "
+                                               f"(the file has {len(sheets)} sheets)", WARNING))
+    first = next(i for i, r in enumerate(rows) if any(x.strip() for x in r))
+    if start != first:
+        notes.append(Problem(file, start + 1, None, f"the header is row {start + 1}; rows {first + 1} to {start} "
+                                                    "above it were skipped as a title or notes block", WARNING))
+    return notes
+
+
 def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.DataFrame | None, list[Problem]]:
     """Read and validate one table's file."""
     file = path.name
     try:
-        rows, encoding = read_rows(path)
+        sheets, encoding = read_sheets(path)
     except NotText as exc:
         return None, [Problem(file, exc.row, None, str(exc))]
     except UnsafeWorkbook as exc:
@@ -310,14 +304,16 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
         return None, [Problem(file, None, None, f"not a readable CSV file: {exc}")]
     except Exception as exc:  # calamine raises its own types for broken workbooks
         return None, [Problem(file, None, None, f"not a readable spreadsheet: {exc}")]
-    start = next((i for i, r in enumerate(rows) if any(x.strip() for x in r)), None)
+    sheet, rows, start = pick_sheet(sheets, with_dates(table), settings)
     if start is None:
         return None, [Problem(file, None, None, "the file is empty; expected a header row and data rows")]
     header = rows[start]
-    found, problems = map_headers(header, with_dates(table), settings, file)
+    found, problems = map_headers(header, with_dates(table), settings, file, start + 1)
+    problems = _layout_notes(file, sheets, sheet, rows, start) + problems
     dates = {n: found.pop(n) for n in [r.name for r in DATE_RULES] if n in found}
     if any(p.severity == ERROR for p in problems):
         return None, problems
+    problems += currency_warnings(header, found, table, settings, file, start + 1)
     data_rows = sum(1 for r in rows[start + 1:] if any(x.strip() for x in r))
     too_long = data_rows > MAX_SHEET_ROWS - 1
     if too_long and table.name != "search_terms":
@@ -326,21 +322,40 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
                                                 "hold this table. Export a shorter period")]
     records: list[dict] = []
     date_texts: dict[str, list[str]] = {n: [] for n in dates}
+    running, skipped = RunningSums(table, found), []
     for i in range(start + 1, len(rows)):
         row = rows[i]
         if not any(x.strip() for x in row):
             continue
         record: dict[str, object] = {"_row": i + 1}
+        cell_problems = []
         for rule in table.columns:
             col = found.get(rule.name)
             text = row[col] if col is not None and col < len(row) else ""
             value, message = _parse_cell(rule, text, settings)
             if message:
-                problems.append(Problem(file, i + 1, header[col] if col is not None else rule.name, message))
+                cell_problems.append(Problem(file, i + 1, header[col] if col is not None else rule.name, message))
             record[rule.name] = value
+        label = totals_label(row, table, found)
+        if label is not None:
+            differs = running.mismatch(record, row, found)
+            if differs is None:
+                skipped.append(i + 1)
+                continue
+            if label == "total":
+                problems.append(Problem(file, i + 1, None, f"the row says total but is not the sum of the rows "
+                                                           f"above it ({differs}); read as data it would be "
+                                                           "counted twice. Remove it"))
+                continue
+        problems.extend(cell_problems)
+        running.add(record)
         for name, col in dates.items():
             date_texts[name].append(row[col] if col < len(row) else "")
         records.append(record)
+    if skipped:
+        problems.append(Problem(file, skipped[0], None, f"skipped {len(skipped)} totals row(s) (row "
+                                + ", ".join(map(str, skipped)) + "): each is the sum of the rows above it",
+                                WARNING))
     names = ["_row"] + [r.name for r in table.columns]
     frame = pd.DataFrame.from_records(records, columns=names)
     for rule in table.columns:
@@ -352,7 +367,8 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
     header_of = {rule.name: (header[found[rule.name]] if rule.name in found else rule.name) for rule in table.columns}
     frame.attrs["headers"] = header_of
     frame.attrs["file"] = file
-    frame.attrs["encoding"] = encoding
+    frame.attrs.update(encoding=encoding, header_row=start + 1, sheet=sheet, totals=len(skipped),
+                       columns={n: header[i] for n, i in {**found, **dates}.items()})
     if dates:
         problems.extend(_read_dates(frame, date_texts, {n: header[i] for n, i in dates.items()}))
     frame.attrs["period"] = None
@@ -372,8 +388,9 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
         problems.extend(_row_checks(table.name, frame))
         if any(p.severity == ERROR for p in problems):
             return None, problems
+        attrs = dict(frame.attrs)
         frame, problem = _merge_search_terms(frame, file, data_rows)
-        frame.attrs.update(headers=header_of, file=file, encoding=encoding)
+        frame.attrs.update(attrs)
         problems.append(problem)
         if problem.severity == ERROR:
             return None, problems
