@@ -468,6 +468,27 @@ def _cross_checks(tables: dict[str, pd.DataFrame | None]) -> list[Problem]:
     return problems
 
 
+def _unmatched_files(folder: Path, used: set[Path], settings: Settings) -> list[Problem]:
+    """A note for each export-like file in folder that no table read, naming the table it most resembles."""
+    notes = []
+    for path in sorted(p for p in folder.iterdir() if p.is_file() and p.suffix.lower() in SUFFIXES and p not in used):
+        try:
+            sheets, _ = read_sheets(path)
+        except Exception:  # an unreadable stray file is only worth its name
+            sheets = []
+        best, score = None, 0
+        for table in c.TABLES:
+            for _, rows in sheets:
+                s = find_header(rows, table, settings)[1]
+                if s > score:
+                    best, score = table, s
+        guess = (f"; it looks most like '{best.name}' ({best.label}: {score} of "
+                 f"{sum(r.required for r in best.columns)} required columns). Name it {best.name}{path.suffix} "
+                 f"or add to settings.toml: [files] {best.name} = \"{path.name}\"") if best else ""
+        notes.append(Problem(path.name, None, None, "was not read: its name matches no table" + guess, WARNING))
+    return notes
+
+
 def read_inputs(folder: Path, settings: Settings) -> tuple[Inputs, list[Problem]]:
     """Read every table of the contract from folder.
 
@@ -498,6 +519,7 @@ def read_inputs(folder: Path, settings: Settings) -> tuple[Inputs, list[Problem]
             encodings[table.name] = frame.attrs["encoding"]
         tables[table.name] = frame
     problems.extend(_cross_checks(tables))
+    problems.extend(_unmatched_files(folder, set(sources.values()), settings))
     periods = {sources[n].name: f.attrs["period"] for n, f in tables.items()
                if f is not None and f.attrs.get("period") is not None}
     period, found = overall_period(periods)
