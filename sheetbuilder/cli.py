@@ -2,6 +2,7 @@
 
     sheetbuilder build INPUTS -o WORKBOOK.xlsx [--force] [--previous OLD.xlsx]
     sheetbuilder changes WORKBOOK.xlsx -o changes.csv [--format csv|xlsx] [--force]
+    sheetbuilder inspect INPUTS
 
 Exit codes: 0 built or written; 2 the inputs have problems (all listed); 1 any other refusal
 (output exists without --force, output would overwrite an input, no Actions sheet);
@@ -16,12 +17,14 @@ import time
 from pathlib import Path
 
 from rich.console import Console
+from rich.markup import escape
 from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
 from rich.table import Table
 
 from . import __version__
 from .carry import carried_summary
 from .changes import export_changes
+from .inspection import inspect_exports, report_lines
 from .pipeline import build
 from .errors import ERROR, InputProblems, Problem, SheetbuilderError
 
@@ -46,7 +49,8 @@ def print_problems(console: Console, problems: list[Problem]) -> None:
     for name in ("", "file", "row", "column", "problem"):
         table.add_column(name, overflow="fold")
     for p in problems:
-        table.add_row(p.severity, p.file, "" if p.row is None else str(p.row), p.column or "", p.message)
+        table.add_row(*(escape(x) for x in (p.severity, p.file, "" if p.row is None else str(p.row), p.column or "",
+                                            p.message)))  # every character printed: [files] is not markup
     console.print(table)
 
 
@@ -99,6 +103,16 @@ def _changes(args: argparse.Namespace, console: Console) -> int:
     return EXIT_SOME_REFUSED if result.problems else 0
 
 
+def _inspect(args: argparse.Namespace, console: Console) -> int:
+    """Read the exports as build would and print what was read; exit 2 when a problem is an error."""
+    result = inspect_exports(args.inputs)
+    for line in report_lines(result):
+        console.print(line, markup=False, soft_wrap=True)
+    if result.problems:
+        print_problems(console, result.problems)
+    return EXIT_INPUT if result.has_errors else 0
+
+
 def parser() -> argparse.ArgumentParser:
     """The argument parser; each command's help is its documentation."""
     p = argparse.ArgumentParser(prog="sheetbuilder",
@@ -130,6 +144,14 @@ def parser() -> argparse.ArgumentParser:
                     "formula injection) or xlsx (text written as text)")
     ch.add_argument("--force", action="store_true", help="overwrite the output if it exists")
     ch.set_defaults(run=_changes)
+    ins = sub.add_parser("inspect", help="read a folder of exports and say what was read, building nothing",
+                         description="Read the exports in INPUTS exactly as build does and print, for each file, the "
+                                     "table it was matched to, the sheet and header row used, each column's mapping "
+                                     "(canonical name <- header text), the rows read, summed, skipped as totals and "
+                                     "refused, the period found in the dates, and every problem. Writes nothing. "
+                                     "Exit codes: 0 the exports would build; 2 they have errors.")
+    ins.add_argument("inputs", type=Path, help="the folder holding the exports")
+    ins.set_defaults(run=_inspect)
     return p
 
 
@@ -145,7 +167,7 @@ def main(argv: list[str] | None = None) -> int:
         print_problems(console, exc.problems)
         return EXIT_INPUT
     except SheetbuilderError as exc:
-        console.print(f"sheetbuilder: {exc}")
+        console.print(f"sheetbuilder: {escape(str(exc))}")
         return EXIT_REFUSED
 
 

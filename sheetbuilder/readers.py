@@ -367,7 +367,7 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
     header_of = {rule.name: (header[found[rule.name]] if rule.name in found else rule.name) for rule in table.columns}
     frame.attrs["headers"] = header_of
     frame.attrs["file"] = file
-    frame.attrs.update(encoding=encoding, header_row=start + 1, sheet=sheet, totals=len(skipped),
+    frame.attrs.update(encoding=encoding, header_row=start + 1, sheet=sheet, totals=len(skipped), rows_read=len(records),
                        columns={n: header[i] for n, i in {**found, **dates}.items()})
     if dates:
         problems.extend(_read_dates(frame, date_texts, {n: header[i] for n, i in dates.items()}))

@@ -7,6 +7,7 @@ from that one list, so adding a setting is one entry.
 from __future__ import annotations
 
 import datetime as dt
+import difflib
 import re
 import tomllib
 from dataclasses import dataclass, field, fields
@@ -170,6 +171,9 @@ class Settings:
         return Settings(**values)
 
 
+YES_NO = {"true": True, "yes": True, "false": False, "no": False}
+
+
 def _coerce(spec: SettingSpec, raw: Any, file: str) -> tuple[Any, Problem | None]:
     """The TOML value raw as the setting's kind, or a problem saying what was expected."""
     def bad(expected: str) -> tuple[Any, Problem]:
@@ -205,7 +209,11 @@ def _coerce(spec: SettingSpec, raw: Any, file: str) -> tuple[Any, Problem | None
     if spec.kind == "bool":
         if isinstance(raw, bool):
             return raw, None
-        return bad("true or false")
+        if isinstance(raw, str) and raw.strip().lower() in YES_NO:
+            return YES_NO[raw.strip().lower()], None
+        return bad("true or false (yes or no)")
+    if isinstance(raw, bool) and spec.choices == ("yes", "no"):
+        return ("yes" if raw else "no"), None  # one style of yes/no everywhere: true/false, yes/no accepted
     if not isinstance(raw, str):
         return bad("text")
     if spec.kind == "choice":
@@ -268,7 +276,9 @@ def load_settings(folder: Path) -> tuple[Settings, list[Problem]]:
         spec = SPEC_BY_KEY.get(key)
         if spec is None:
             known = ", ".join(s.key for s in SETTINGS)
-            problems.append(Problem(SETTINGS_FILE, None, key, f"unknown setting; known settings: {known}, [columns], [files], [destinations], [ad_type_benchmarks]"))
+            close = difflib.get_close_matches(str(key).lower(), [s.key for s in SETTINGS], n=1, cutoff=0.5)
+            hint = f"did you mean {close[0]}? " if close else ""
+            problems.append(Problem(SETTINGS_FILE, None, key, f"unknown setting; {hint}known settings: {known}, [columns], [files], [destinations], [ad_type_benchmarks]"))
             continue
         value, problem = _coerce(spec, raw, SETTINGS_FILE)
         if problem:
