@@ -28,6 +28,7 @@ from .totals import RunningSums, totals_label
 SPREADSHEETS = (".xlsx", ".xlsm", ".xls", ".xlsb", ".ods")
 SUFFIXES = (".csv", ".tsv", ".txt", ".xlsx", ".xlsm", ".xls", ".xlsb", ".ods")
 ZIPPED = (".xlsx", ".xlsm", ".xlsb")  # Office Open XML workbooks, checked before they are opened
+MAX_STRAY_BYTES = 20 * 1024 * 1024  # a file matching no table larger than this is named, not read
 MAX_SHEET_ROWS = 1_048_576  # Microsoft, "Excel specifications and limits"; the header takes one
 
 # A workbook is a zip; these limits refuse a zip bomb before calamine inflates it.
@@ -473,7 +474,7 @@ def _unmatched_files(folder: Path, used: set[Path], settings: Settings) -> list[
     notes = []
     for path in sorted(p for p in folder.iterdir() if p.is_file() and p.suffix.lower() in SUFFIXES and p not in used):
         try:
-            sheets, _ = read_sheets(path)
+            sheets = read_sheets(path)[0] if path.stat().st_size <= MAX_STRAY_BYTES else []
         except Exception:  # an unreadable stray file is only worth its name
             sheets = []
         best, score = None, 0

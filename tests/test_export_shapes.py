@@ -17,11 +17,13 @@ import minimal
 import openpyxl
 import pytest
 
+from bids_io import CHECKED, bids_oracle_for, bids_table
 from conftest import BUILT_ON, require_libreoffice
+from workbook_io import engine_disagreements, mismatches, open_values
 from same_cells import computed_differences
 from sheetbuilder.errors import ERROR, WARNING, InputProblems
 from sheetbuilder.pipeline import build, load
-from sheetbuilder.recalc import make_profile, soffice_path
+from sheetbuilder.recalc import formulas_values, libreoffice_convert, make_profile, soffice_path
 
 CANONICAL = {"targets.csv": minimal.TARGETS}
 
@@ -52,6 +54,26 @@ def canonical(tmp_path_factory) -> Path:
     root = tmp_path_factory.mktemp("canonical")
     folder = minimal.write_account(root / "in", CANONICAL)
     return build(folder, root / "canonical.xlsx", built_on=BUILT_ON).output
+
+
+def test_the_canonical_build_equals_the_reference_and_its_recalculation(canonical, tmp_path):
+    """The workbook every shape is compared with, checked three ways (reference, cached, recalculated)."""
+    folder = canonical.parent / "in"
+    expected = bids_oracle_for(folder)
+    rows, _ = bids_table(canonical)
+    assert sorted(expected) == sorted(rows)
+    assert [] == mismatches(expected, rows, CHECKED, "canonical")
+    problems, checked = engine_disagreements(canonical, formulas_values(canonical))
+    assert [] == problems and checked > 100
+
+
+@pytest.mark.libreoffice
+def test_the_canonical_build_equals_its_libreoffice_recalculation(canonical, tmp_path):
+    require_libreoffice()
+    wb = open_values(libreoffice_convert([canonical], tmp_path / "lo")[0])
+    values = {(ws.title.upper(), c.coordinate): c.value for ws in wb.worksheets for row in ws.iter_rows() for c in row}
+    problems, checked = engine_disagreements(canonical, values)
+    assert [] == problems and checked > 100
 
 
 def _same_as_canonical(folder: Path, canonical: Path, tmp_path: Path) -> list:
