@@ -8,7 +8,7 @@ from pathlib import Path
 
 from . import contract as c
 from .errors import ERROR, Problem
-from .periods import Period, apply_period
+from .periods import Period, settings_for_inputs
 from .readers import read_inputs
 from .settings import load_settings
 
@@ -57,9 +57,7 @@ def inspect_exports(folder: Path) -> Inspection:
     settings, problems = load_settings(folder)
     inputs, found = read_inputs(folder, settings)
     problems += found
-    dated = sorted(inputs.sources[n].name for n, f in inputs.tables.items()
-                   if f is not None and f.attrs.get("period") is not None)
-    problems += apply_period(settings, inputs.period, settings.given, dated)[1]
+    problems += settings_for_inputs(settings, inputs)[1]
     files = []
     for table in c.TABLES:
         path = inputs.sources.get(table.name)

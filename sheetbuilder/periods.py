@@ -236,3 +236,10 @@ def apply_period(settings, period: Period | None, given: frozenset[str], files: 
     note = Problem(", ".join(files), None, None,
                    f"period read from the dates: {period}; used for {used}", WARNING)
     return (settings.replace(**changes) if changes else settings), [note]
+
+
+def settings_for_inputs(settings, inputs):
+    """apply_period for read inputs: (settings with the period of their dates, the note saying so)."""
+    dated = sorted(inputs.sources[n].name for n, f in inputs.tables.items()
+                   if f is not None and f.attrs.get("period") is not None)
+    return apply_period(settings, inputs.period, settings.given, dated)

@@ -25,7 +25,7 @@ from .plan_terms import _defs as TERMS_DEFS, plan_terms
 from .plan_inputs import plan_input_sheets
 from .plan_profit import DEFS as PROFIT_DEFS, plan_profit
 from .plan_settings import plan_settings
-from .periods import apply_period
+from .periods import settings_for_inputs
 from .readers import Inputs, read_inputs
 from .render import Progress, render
 from .settings import Settings, load_settings
@@ -157,9 +157,7 @@ def load(folder: Path) -> tuple[Inputs, Settings, list[Problem]]:
     settings, problems = load_settings(Path(folder))
     inputs, found = read_inputs(Path(folder), settings)
     problems += found
-    dated = sorted(inputs.sources[n].name for n, f in inputs.tables.items()
-                   if f is not None and f.attrs.get("period") is not None)
-    settings, notes = apply_period(settings, inputs.period, settings.given, dated)
+    settings, notes = settings_for_inputs(settings, inputs)
     problems += notes
     if settings.thin_margin > settings.strong_margin:
         problems.append(Problem("settings.toml", None, "thin_margin",

@@ -16,6 +16,7 @@ from types import MappingProxyType
 from typing import Any
 
 from .contract import TABLE_BY_NAME
+from .periods import DATED_TABLES
 from .errors import Problem
 
 SETTINGS_FILE = "settings.toml"
@@ -234,7 +235,7 @@ def _known_tables(columns: dict, files: dict, problems: list[Problem]) -> tuple[
             problems.append(Problem(SETTINGS_FILE, None, f"columns.{table}",
                                     f"unknown table; expected one of {tables}"))
             continue
-        names = [col.name for col in rule.columns]
+        names = [col.name for col in rule.columns] + list(DATED_TABLES.get(table, ()))
         kept_columns[table] = {}
         for name, header in cols.items():
             if name not in names:

@@ -229,3 +229,11 @@ def test_a_date_that_is_not_a_date_is_an_error_naming_file_row_and_column(tmp_pa
         load(minimal.write_account(tmp_path, {"targets.csv": rows}))
     errors = [(p.file, p.row, p.column) for p in caught.value.problems if p.severity == ERROR]
     assert [("targets.csv", 8, "Date")] == errors
+
+
+def test_a_date_column_can_be_mapped_in_settings(tmp_path):
+    folder = minimal.write_account(tmp_path, {"targets.csv": _csv(_daily_targets(), TARGET_COLUMNS, "Report Day"),
+                                              "settings.toml": '[columns.targets]\ndate = "Report Day"\n'})
+    inputs, settings, _ = load(folder)
+    assert 3 == len(inputs.get("targets"))
+    assert (7, dt.date(2026, 11, 29)) == (settings.period_days, settings.period_end)
