@@ -42,11 +42,6 @@ MAX_ZIP_ENTRIES = 10_000
 MAX_RELS_BYTES = 4 * 1024 * 1024    # a relationships part larger than this is not a workbook's
 MAX_FILE_BYTES = 512 * 1024 * 1024  # a workbook or CSV file on disk
 
-# Saved workbooks (changes, --previous) are read whole by openpyxl, which holds several
-# times the XML's size in memory: the inflated total is kept to what that reads within
-# a few hundred MB. A workbook built from 100,000 search-term rows unpacks to about 90 MB.
-MAX_SAVED_TOTAL = 160 * 1024 * 1024
-
 MAX_CSV_ROWS = 4_000_000            # rows of a text export (a sheet holds 1,048,576; search terms may merge)
 MAX_CSV_COLUMNS = 1_000             # cells in one row
 MAX_CSV_FIELD = 1024 * 1024         # characters in one cell (the csv module's own limit is 131,072)
@@ -78,12 +73,6 @@ class Limits:
 def input_limits() -> Limits:
     """The limits for .xlsx exports read by the build."""
     return Limits(MAX_FILE_BYTES, MAX_ZIP_TOTAL, MAX_ZIP_RATIO, RATIO_ENTRY_MIN, MAX_ZIP_ENTRIES, MAX_RELS_BYTES)
-
-
-def saved_limits() -> Limits:
-    """The limits for workbooks the tool wrote and a person saved (changes, --previous)."""
-    return Limits(MAX_FILE_BYTES, min(MAX_SAVED_TOTAL, MAX_ZIP_TOTAL), MAX_ZIP_RATIO, RATIO_ENTRY_MIN,
-                  MAX_ZIP_ENTRIES, MAX_RELS_BYTES)
 
 
 def _mib(n: float) -> str:
@@ -232,19 +221,19 @@ def check_workbook(path: Path, limits: Limits | None = None) -> None:
                                      "export CSV")
 
 
-def guard_saved_workbook(path: Path) -> None:
+def guard_saved_workbook(path: Path, error: type[SheetbuilderError] = UnsafeWorkbook) -> None:
     """Refuse a saved workbook (changes, --previous) the guard finds unsafe, naming its path.
 
     Raises:
-        UnsafeWorkbook: '<path>: <what is wrong>'.
+        error: '<path>: <what is wrong>' (the caller's own "cannot read the workbook" error).
     """
     path = Path(path)
     if not path.is_file():
         return  # the opener reports a missing file in its own words
     try:
-        check_workbook(path, saved_limits())
+        check_workbook(path)
     except UnsafeWorkbook as exc:
-        raise UnsafeWorkbook(f"{path}: {exc}") from None
+        raise error(f"{path}: {exc}") from None
 
 
 @contextmanager

@@ -28,10 +28,17 @@ TRUNCATION_MARK = " [cut: longer than a cell holds]"
 Progress = Callable[[str, int, int], None]
 
 
-def workbook_options() -> dict:
-    """The writer's options: text stays text, no URL or number guessing, lean memory."""
-    return {"constant_memory": True, "strings_to_formulas": False, "strings_to_numbers": False,
-            "strings_to_urls": False, "use_future_functions": False}
+def workbook_options(tmpdir: Path | None = None) -> dict:
+    """The writer's options: text stays text, no URL or number guessing, lean memory.
+
+    tmpdir is where the writer keeps its temporary files (constant_memory writes each
+    sheet to one); None leaves them in the system temporary folder.
+    """
+    options = {"constant_memory": True, "strings_to_formulas": False, "strings_to_numbers": False,
+               "strings_to_urls": False, "use_future_functions": False}
+    if tmpdir is not None:
+        options["tmpdir"] = str(tmpdir)
+    return options
 
 
 def _utf16_len(text: str) -> int:
@@ -246,15 +253,16 @@ def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress:
                     "select_locked_cells": True, "select_unlocked_cells": True, "objects": True})
 
 
-def render(spec: WorkbookSpec, path: Path, progress: Progress | None = None) -> None:
+def render(spec: WorkbookSpec, path: Path, progress: Progress | None = None, tmpdir: Path | None = None) -> None:
     """Write spec to path (the caller handles temporary names and renaming).
 
     Args:
         spec: the planned workbook.
         path: where to write the .xlsx file.
         progress: optional callback(sheet name, rows written, rows in the sheet).
+        tmpdir: the folder for the writer's temporary files; path's own folder when None.
     """
-    wb = xlsxwriter.Workbook(str(path), workbook_options())
+    wb = xlsxwriter.Workbook(str(path), workbook_options(tmpdir or Path(path).parent))
     formats = {key: wb.add_format(style_properties(key, spec.currency_symbol)) for key in STYLES}
     state_formats = {name: wb.add_format({"bg_color": s.fill, "font_color": s.font})
                      for name, s in STATES.items()}
@@ -269,9 +277,12 @@ def render(spec: WorkbookSpec, path: Path, progress: Progress | None = None) -> 
     wb.close()
 
 
-def render_rows(path: Path, sheet: str, header: list[str], rows: list[list[Any]]) -> None:
-    """Write one plain sheet: a header and rows of values, text always as text (for exports)."""
-    wb = xlsxwriter.Workbook(str(path), workbook_options())
+def render_rows(path: Path, sheet: str, header: list[str], rows: list[list[Any]], tmpdir: Path | None = None) -> None:
+    """Write one plain sheet: a header and rows of values, text always as text (for exports).
+
+    tmpdir is the folder for the writer's temporary files; path's own folder when None.
+    """
+    wb = xlsxwriter.Workbook(str(path), workbook_options(tmpdir or Path(path).parent))
     ws = wb.add_worksheet(sheet)
     bold = wb.add_format({"bold": True})
     for c, h in enumerate(header):
