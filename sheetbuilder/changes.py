@@ -25,7 +25,7 @@ from .atomic import atomic_output, scratch_dir
 from .plan_actions import HEADER_ROW as ACTIONS_HEADER_ROW, HEADERS
 from .render import render_rows
 from .errors import OutputExists, Problem, SheetbuilderError, UnsafeOutput
-from .guard import guard_saved_workbook, reading
+from .guard import guard_saved_workbook, reading, text_problem
 
 SHEET = "Actions"
 HEADER_ROW = ACTIONS_HEADER_ROW + 1  # 1-based, as a spreadsheet shows it
@@ -247,7 +247,8 @@ def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool =
     refused: list[int] = []
     kept: list[list[Any]] = []
     for r, values in rows:
-        found = check_change(r, values, context)
+        found = check_change(r, values, context) + [
+            Problem(SHEET, r, h, m) for h, v in zip(HEADERS, values) if isinstance(v, str) and (m := text_problem(v))]
         if found:
             problems += found
             refused.append(r)

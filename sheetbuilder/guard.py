@@ -22,6 +22,7 @@ from __future__ import annotations
 import csv
 import io
 import os
+import re
 import zipfile
 from contextlib import contextmanager
 from dataclasses import dataclass
@@ -286,3 +287,32 @@ def read_delimited(text: str, delimiter: str) -> list[list[str]]:
     finally:
         csv.field_size_limit(old)
     return rows
+
+
+# ---- text ------------------------------------------------------------------------------------------
+# A workbook stores text as XML 1.0, which cannot hold most control characters, U+FFFE,
+# U+FFFF or lone surrogates; the writer escapes control characters as _xHHHH_ (ECMA-376
+# Part 1, 22.9.2.19, ST_Xstring) and literal _xHHHH_ text as _x005F_xHHHH_, and programs
+# read those escapes back differently (openpyxl leaves them, LibreOffice decodes them in
+# cells but not in a formula's stored result). Text holding any of these is refused on
+# input, so that every string the tool writes reads back exactly everywhere.
+_XSTRING = re.compile(r"_x[0-9A-Fa-f]{4}_")
+_UNSAFE_CHAR = re.compile(r"[\x00-\x08\x0b-\x1f\ufffe\uffff\ud800-\udfff]")
+_SETTING_CHAR = re.compile(r"[\x00-\x1f\x7f\ufffe\uffff\ud800-\udfff]")
+
+
+def text_problem(text: str, setting: bool = False) -> str | None:
+    """Why text cannot be written to a workbook and read back exactly, or None when it can.
+
+    Tab and line feed are kept in cells; a setting may hold no control character at all.
+    """
+    bad = (_SETTING_CHAR if setting else _UNSAFE_CHAR).search(text)
+    if bad:
+        ch = bad.group()
+        return (f"holds the control character U+{ord(ch):04X} at position {bad.start() + 1}, which a workbook "
+                "cannot keep exactly; remove it")
+    look = _XSTRING.search(text)
+    if look:
+        return (f"holds {look.group()!r}, which spreadsheet programs read as an escaped character, so it would "
+                "not come back as written; change it")
+    return None

@@ -15,7 +15,7 @@ import pandas as pd
 
 from . import contract as c
 from .errors import ERROR, WARNING, Problem
-from .guard import UnsafeWorkbook, check_csv, check_workbook, read_delimited
+from .guard import UnsafeWorkbook, check_csv, check_workbook, read_delimited, text_problem
 from .numbers import MAX_MAGNITUDE, NotANumber, parse_number
 from .settings import Settings
 
@@ -180,6 +180,8 @@ def _parse_cell(rule: c.ColumnRule, text: str, settings: Settings) -> tuple[obje
     if rule.kind == c.TEXT:
         if not t and rule.name in _NON_BLANK:
             return "", "is blank; expected a value"
+        if (problem := text_problem(text)) is not None:
+            return "", problem
         return (t if rule.name in ("product_id", "campaign", "ad_group") else str(text)), None
     if rule.kind in c.CHOICES:
         synonyms, expected = c.CHOICES[rule.kind]

@@ -15,6 +15,7 @@ from typing import Any, Callable
 
 import pandas as pd
 import xlsxwriter
+from xlsxwriter.exceptions import FileCreateError
 from xlsxwriter.worksheet import CellFormulaTuple, CellRichStringTuple
 from xlsxwriter.xmlwriter import XMLwriter
 
@@ -86,8 +87,27 @@ def _cached(value: Any) -> Any:
     if hasattr(value, "item"):  # numpy scalars
         return value.item()
     if isinstance(value, str):  # a formula's text result: escaped as xlsxwriter escapes cell text
-        return XMLwriter._escape_control_characters(fit_text(value))
+        text = XMLwriter._escape_control_characters(fit_text(value))
+        return CachedText(text) if text in ERROR_TEXTS else text
     return value
+
+
+# The writer stores a formula's cached text that equals one of these as an error value
+# (t="e"); imported text such as a search term "#N/A" must stay text (t="str").
+ERROR_TEXTS = frozenset(("#DIV/0!", "#N/A", "#NAME?", "#NULL!", "#NUM!", "#REF!", "#VALUE!"))
+
+
+class CachedText(str):
+    """A formula's cached text that reads like an error value: compares unequal to the plain error
+    names, so that the writer's error test (``value in error_codes``) fails and it types the cell t="str".
+    """
+
+    def __eq__(self, other: object) -> bool:
+        if type(other) is str and other in ERROR_TEXTS:
+            return False
+        return str.__eq__(self, other)
+
+    __hash__ = str.__hash__
 
 
 def put_value(ws, row: int, col: int, value: Any, fmt) -> None:
@@ -253,6 +273,16 @@ def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress:
                     "select_locked_cells": True, "select_unlocked_cells": True, "objects": True})
 
 
+def _close(wb) -> None:
+    """Close (write) the workbook; the writer's wrapped operating-system error is raised as itself."""
+    try:
+        wb.close()
+    except FileCreateError as exc:
+        if exc.args and isinstance(exc.args[0], OSError):
+            raise exc.args[0] from None
+        raise
+
+
 def render(spec: WorkbookSpec, path: Path, progress: Progress | None = None, tmpdir: Path | None = None) -> None:
     """Write spec to path (the caller handles temporary names and renaming).
 
@@ -274,7 +304,7 @@ def render(spec: WorkbookSpec, path: Path, progress: Progress | None = None, tmp
     for name, ref in spec.names:
         wb.define_name(name, ref)
     wb.set_properties({"title": "sheetbuilder workbook", "author": "sheetbuilder", **spec.properties})
-    wb.close()
+    _close(wb)
 
 
 def render_rows(path: Path, sheet: str, header: list[str], rows: list[list[Any]], tmpdir: Path | None = None) -> None:
@@ -291,4 +321,4 @@ def render_rows(path: Path, sheet: str, header: list[str], rows: list[list[Any]]
         for c, v in enumerate(row):
             if v is not None:
                 put_value(ws, r, c, v, None)
-    wb.close()
+    _close(wb)
