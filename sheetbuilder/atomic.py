@@ -74,7 +74,7 @@ def _remove(p: Path) -> None:
 
 def scratch_dir(tmp: Path) -> Path:
     """The scratch folder belonging to the temporary file tmp (created by atomic_output)."""
-    return tmp.with_name(tmp.name + SCRATCH)
+    return tmp.with_name(tmp.name[:tmp.name.rindex(PARTIAL)] + PARTIAL + SCRATCH)
 
 
 def _publish(tmp: Path, path: Path, force: bool) -> None:

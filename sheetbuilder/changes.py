@@ -204,6 +204,8 @@ def _check_output(workbook: Path, output: Path, fmt: str, force: bool) -> None:
         raise SheetbuilderError(f"unknown format {fmt!r}; expected csv or xlsx")
     if not output.parent.is_dir():
         raise SheetbuilderError(f"the output folder {output.parent} does not exist")
+    if output.is_dir():
+        raise SheetbuilderError(f"the output {output} is a folder; give a file name such as {output / 'changes.csv'}")
     if fmt == "xlsx" and output.suffix.lower() != ".xlsx":
         raise SheetbuilderError(f"the output {output.name} should end in .xlsx for --format xlsx")
     if fmt == "csv" and output.suffix.lower() in (".xlsx", ".xlsm", ".xls"):

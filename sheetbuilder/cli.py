@@ -206,7 +206,7 @@ def _run(args: argparse.Namespace, console: Console, debug: bool) -> int:
     def say(message: str, code: int) -> int:
         if debug:
             console.print(traceback.format_exc(), markup=False, highlight=False)
-        console.print(f"sheetbuilder: {message}", markup=False, highlight=False)
+        console.print(f"sheetbuilder: {message}", markup=False, highlight=False, soft_wrap=True)
         return code
 
     try:

@@ -10,8 +10,9 @@ from __future__ import annotations
 
 import datetime as dt
 import math
+from contextlib import contextmanager
 from pathlib import Path
-from typing import Any, Callable
+from typing import Any, Callable, Iterator
 
 import pandas as pd
 import xlsxwriter
@@ -273,12 +274,21 @@ def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress:
                     "select_locked_cells": True, "select_unlocked_cells": True, "objects": True})
 
 
-def _close(wb) -> None:
-    """Close (write) the workbook; the writer's wrapped operating-system error is raised as itself."""
+@contextmanager
+def _workbook(path: Path, tmpdir: Path | None) -> Iterator[xlsxwriter.Workbook]:
+    """A writer for path, closed (written) when the block succeeds; on any failure its temporary
+    files are closed and the writer is dropped, and the operating-system error it wrapped is raised as itself.
+    """
+    wb = xlsxwriter.Workbook(str(path), workbook_options(tmpdir or Path(path).parent))
     try:
+        yield wb
         wb.close()
-    except FileCreateError as exc:
-        if exc.args and isinstance(exc.args[0], OSError):
+    except BaseException as exc:
+        for ws in wb.worksheets():
+            if getattr(ws, "row_data_fh", None) is not None and not ws.row_data_fh.closed:
+                ws.row_data_fh.close()
+        wb.fileclosed = True  # nothing to close any more: the caller deletes the partial file
+        if isinstance(exc, FileCreateError) and exc.args and isinstance(exc.args[0], OSError):
             raise exc.args[0] from None
         raise
 
@@ -292,19 +302,18 @@ def render(spec: WorkbookSpec, path: Path, progress: Progress | None = None, tmp
         progress: optional callback(sheet name, rows written, rows in the sheet).
         tmpdir: the folder for the writer's temporary files; path's own folder when None.
     """
-    wb = xlsxwriter.Workbook(str(path), workbook_options(tmpdir or Path(path).parent))
-    formats = {key: wb.add_format(style_properties(key, spec.currency_symbol)) for key in STYLES}
-    state_formats = {name: wb.add_format({"bg_color": s.fill, "font_color": s.font})
-                     for name, s in STATES.items()}
-    for sheet in spec.sheets:
-        _write_sheet(wb, sheet, formats, state_formats, progress)
-    visible = [ws for ws, sheet in zip(wb.worksheets(), spec.sheets) if not sheet.hidden]
-    if visible:
-        visible[0].activate()
-    for name, ref in spec.names:
-        wb.define_name(name, ref)
-    wb.set_properties({"title": "sheetbuilder workbook", "author": "sheetbuilder", **spec.properties})
-    _close(wb)
+    with _workbook(path, tmpdir) as wb:
+        formats = {key: wb.add_format(style_properties(key, spec.currency_symbol)) for key in STYLES}
+        state_formats = {name: wb.add_format({"bg_color": s.fill, "font_color": s.font})
+                         for name, s in STATES.items()}
+        for sheet in spec.sheets:
+            _write_sheet(wb, sheet, formats, state_formats, progress)
+        visible = [ws for ws, sheet in zip(wb.worksheets(), spec.sheets) if not sheet.hidden]
+        if visible:
+            visible[0].activate()
+        for name, ref in spec.names:
+            wb.define_name(name, ref)
+        wb.set_properties({"title": "sheetbuilder workbook", "author": "sheetbuilder", **spec.properties})
 
 
 def render_rows(path: Path, sheet: str, header: list[str], rows: list[list[Any]], tmpdir: Path | None = None) -> None:
@@ -312,13 +321,12 @@ def render_rows(path: Path, sheet: str, header: list[str], rows: list[list[Any]]
 
     tmpdir is the folder for the writer's temporary files; path's own folder when None.
     """
-    wb = xlsxwriter.Workbook(str(path), workbook_options(tmpdir or Path(path).parent))
-    ws = wb.add_worksheet(sheet)
-    bold = wb.add_format({"bold": True})
-    for c, h in enumerate(header):
-        ws.write_string(0, c, h, bold)
-    for r, row in enumerate(rows, start=1):
-        for c, v in enumerate(row):
-            if v is not None:
-                put_value(ws, r, c, v, None)
-    _close(wb)
+    with _workbook(path, tmpdir) as wb:
+        ws = wb.add_worksheet(sheet)
+        bold = wb.add_format({"bold": True})
+        for c, h in enumerate(header):
+            ws.write_string(0, c, h, bold)
+        for r, row in enumerate(rows, start=1):
+            for c, v in enumerate(row):
+                if v is not None:
+                    put_value(ws, r, c, v, None)
