@@ -6,7 +6,8 @@ the system temporary folder) and are named ``.<stem>.<host>-<pid>.<token>.partia
 and ``....partial.d``. They are removed on every exit path that runs Python code (an
 error, SIGINT, and SIGTERM or SIGHUP once the command line turns those into an
 exception). After a kill -9, the next write to the same output recognises them by name
-(same host, a process id that no longer runs) and removes them.
+(same host, a process id that no longer runs) and removes them, as well as the
+``.<stem>.<8 characters>.partial<suffix>`` files of earlier versions once an hour old.
 
 Without force, the final step is a hard link (or an exclusive create where the file
 system has no hard links), so that a file that appeared at the output path while the
@@ -20,6 +21,7 @@ import re
 import secrets
 import shutil
 import socket
+import time
 from contextlib import contextmanager
 from pathlib import Path
 from typing import Iterator
@@ -28,6 +30,7 @@ from .errors import OutputExists
 
 PARTIAL = ".partial"
 SCRATCH = ".d"
+OLD_STYLE_AGE = 3600  # seconds
 
 
 def _host() -> str:
@@ -51,6 +54,9 @@ def stale_partials(path: Path) -> list[Path]:
     path = Path(path)
     pattern = re.compile(r"\." + re.escape(path.stem) + r"\.(?P<host>[A-Za-z0-9]+)-(?P<pid>\d+)\.[A-Za-z0-9_-]+"
                          + re.escape(PARTIAL) + r"(?:" + re.escape(path.suffix) + "|" + re.escape(SCRATCH) + r")")
+    # Earlier versions of this module named them .<stem>.<8 random characters>.partial<suffix>, without a
+    # process id: those are taken as stale once untouched for OLD_STYLE_AGE seconds.
+    old_style = re.compile(r"\." + re.escape(path.stem) + r"\.[a-z0-9_]{8}" + re.escape(PARTIAL + path.suffix))
     host = _host()
     stale = []
     try:
@@ -61,7 +67,17 @@ def stale_partials(path: Path) -> list[Path]:
         m = pattern.fullmatch(name)
         if m and m["host"] == host and int(m["pid"]) != os.getpid() and not _alive(int(m["pid"])):
             stale.append(path.parent / name)
+        elif old_style.fullmatch(name) and _age(path.parent / name) > OLD_STYLE_AGE:
+            stale.append(path.parent / name)
     return sorted(stale)
+
+
+def _age(p: Path) -> float:
+    """Seconds since p was last modified (0 when it is gone)."""
+    try:
+        return time.time() - p.stat().st_mtime
+    except OSError:
+        return 0.0
 
 
 def _remove(p: Path) -> None:

@@ -228,6 +228,23 @@ def test_the_partials_of_a_killed_build_are_removed_by_the_next_run(tmp_path, bi
     assert sorted(["book.xlsx", other.name]) == sorted(p.name for p in out_dir.iterdir())
 
 
+def test_stale_partials_are_recognised_by_name_and_live_ones_kept(tmp_path):
+    dead = subprocess.run([sys.executable, "-c", "import os; print(os.getpid())"], capture_output=True, text=True)
+    pid = int(dead.stdout)  # a process that has ended
+    host = atomic._host()
+    names = {f".book.{host}-{pid}.ab12.partial.xlsx": True, f".book.{host}-{pid}.ab12.partial.d": True,
+             f".book.{host}-{os.getpid()}.cd34.partial.xlsx": False,  # this process: still writing
+             f".book.otherhost-{pid}.ef56.partial.xlsx": False,  # another machine's write on a shared folder
+             ".book.k3j_x9q2.partial.xlsx": True,  # an earlier version's, hours old
+             ".book.zz11yy22.partial.xlsx": False,  # an earlier version's, just written
+             ".other.x.partial.xlsx": False}
+    for name in names:
+        (tmp_path / name).mkdir() if name.endswith(".d") else (tmp_path / name).write_bytes(b"")
+    hours_ago = time.time() - 3 * 3600
+    os.utime(tmp_path / ".book.k3j_x9q2.partial.xlsx", (hours_ago, hours_ago))
+    assert sorted(tmp_path / n for n, stale in names.items() if stale) == atomic.stale_partials(tmp_path / "book.xlsx")
+
+
 def test_a_changes_export_writes_nothing_in_the_system_temp_folder(tmp_path, hostile_book):
     systmp = tmp_path / "systmp"
     systmp.mkdir()
