@@ -28,6 +28,7 @@ import pandas as pd
 from openpyxl.utils.cell import coordinate_to_tuple
 
 from .errors import SheetbuilderError
+from .guard import guard_saved_workbook
 from .normalise import normalise
 from .plan_inputs import EDITABLE
 from .settings import SETTINGS, Settings, _coerce
@@ -258,6 +259,7 @@ def open_workbook(path: Path, data_only: bool = True):
     path = Path(path)
     if not path.is_file():
         raise PreviousWorkbookUnreadable(f"the workbook {path} does not exist")
+    guard_saved_workbook(path, PreviousWorkbookUnreadable)
     try:
         return openpyxl.load_workbook(path, read_only=True, data_only=data_only)
     except (zipfile.BadZipFile, InvalidFileException, KeyError, OSError, ValueError) as exc:

@@ -21,10 +21,11 @@ from pathlib import Path
 from typing import Any
 
 from .csv_safe import write_csv
-from .atomic import atomic_output
+from .atomic import atomic_output, scratch_dir
 from .plan_actions import HEADER_ROW as ACTIONS_HEADER_ROW, HEADERS
 from .render import render_rows
 from .errors import OutputExists, Problem, SheetbuilderError, UnsafeOutput
+from .guard import guard_saved_workbook, reading, text_problem
 
 SHEET = "Actions"
 HEADER_ROW = ACTIONS_HEADER_ROW + 1  # 1-based, as a spreadsheet shows it
@@ -119,6 +120,7 @@ def read_actions(workbook: Path) -> tuple[list[tuple[int, list[Any]]], dict[str,
     workbook = Path(workbook)
     if not workbook.is_file():
         raise WorkbookNotFound(f"the workbook {workbook} does not exist")
+    guard_saved_workbook(workbook, NotAWorkbook)
     formulas_wb = _load(workbook, data_only=False)
     if SHEET not in formulas_wb.sheetnames:
         raise NoActionsSheet(f"{workbook.name} has no {SHEET} sheet; build it with a sheetbuilder that writes one")
@@ -202,6 +204,8 @@ def _check_output(workbook: Path, output: Path, fmt: str, force: bool) -> None:
         raise SheetbuilderError(f"unknown format {fmt!r}; expected csv or xlsx")
     if not output.parent.is_dir():
         raise SheetbuilderError(f"the output folder {output.parent} does not exist")
+    if output.is_dir():
+        raise SheetbuilderError(f"the output {output} is a folder; give a file name such as {output / 'changes.csv'}")
     if fmt == "xlsx" and output.suffix.lower() != ".xlsx":
         raise SheetbuilderError(f"the output {output.name} should end in .xlsx for --format xlsx")
     if fmt == "csv" and output.suffix.lower() in (".xlsx", ".xlsm", ".xls"):
@@ -212,11 +216,11 @@ def _check_output(workbook: Path, output: Path, fmt: str, force: bool) -> None:
         raise OutputExists(f"{output} exists; add --force to overwrite it")
 
 
-def write_xlsx(path: Path, header: list[str], rows: list[list[Any]]) -> Path:
+def write_xlsx(path: Path, header: list[str], rows: list[list[Any]], force: bool = False) -> Path:
     """Write header and rows to path as one sheet, text always as text, atomically."""
     cells = [[float(v) if _is_number(v) else (None if _blank(v) else str(v)) for v in row] for row in rows]
-    with atomic_output(path, ".xlsx") as tmp:
-        render_rows(tmp, "changes", header, cells)
+    with atomic_output(path, ".xlsx", force) as tmp:
+        render_rows(tmp, "changes", header, cells, scratch_dir(tmp))
     return path
 
 
@@ -239,12 +243,14 @@ def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool =
     """
     workbook, output = Path(workbook), Path(output)
     _check_output(workbook, output, fmt, force)
-    rows, context, recalculated = read_actions(workbook)
+    with reading(workbook, NotAWorkbook):
+        rows, context, recalculated = read_actions(workbook)
     problems: list[Problem] = []
     refused: list[int] = []
     kept: list[list[Any]] = []
     for r, values in rows:
-        found = check_change(r, values, context)
+        found = check_change(r, values, context) + [
+            Problem(SHEET, r, h, m) for h, v in zip(HEADERS, values) if isinstance(v, str) and (m := text_problem(v))]
         if found:
             problems += found
             refused.append(r)
@@ -255,5 +261,5 @@ def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool =
     if fmt == "csv":
         write_csv(output, COLUMNS, kept, force=force)
     else:
-        write_xlsx(output, list(COLUMNS), kept)
+        write_xlsx(output, list(COLUMNS), kept, force=force)
     return ChangesResult(output, len(kept), problems, recalculated, refused, kept)

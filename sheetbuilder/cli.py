@@ -5,15 +5,23 @@
     sheetbuilder inspect INPUTS
 
 Exit codes: 0 built or written; 2 the inputs have problems (all listed); 1 any other refusal
-(output exists without --force, output would overwrite an input, no Actions sheet);
-3 (changes) some changes were refused and listed, the valid ones were written.
+(output exists without --force, output would overwrite an input, no Actions sheet, a workbook
+that cannot be read); 3 (changes) some changes were refused and listed, the valid ones were
+written; 4 the operating system refused a read or write (no space, read-only, permission, a
+folder where a file was expected, a file gone); 70 an internal error (a bug: run again with
+--debug and report the traceback); 130 interrupted (Ctrl-C, SIGTERM, SIGHUP). Every failure
+is one message naming the path; a traceback is shown only with --debug. Nothing is left
+behind: temporary files are removed on every one of these exits.
 """
 from __future__ import annotations
 
 import argparse
+import errno
 import inspect
+import signal
 import sys
 import time
+import traceback
 from pathlib import Path
 
 from rich.console import Console
@@ -31,6 +39,45 @@ from .errors import ERROR, InputProblems, Problem, SheetbuilderError
 EXIT_INPUT = 2
 EXIT_REFUSED = 1
 EXIT_SOME_REFUSED = 3
+EXIT_SYSTEM = 4
+EXIT_BUG = 70        # EX_SOFTWARE in sysexits.h
+EXIT_INTERRUPTED = 130  # 128 + SIGINT, as shells report Ctrl-C
+STOP_SIGNALS = tuple(getattr(signal, n) for n in ("SIGINT", "SIGTERM", "SIGHUP") if hasattr(signal, n))
+
+_ADVICE = {
+    errno.ENOSPC: "no space left on the disk; free some space or write the output to another disk",
+    errno.EDQUOT: "the disk quota is used up; free some space or write the output elsewhere",
+    errno.EROFS: "the folder is read-only; write the output to a folder you can write to",
+    errno.EACCES: "permission denied; write to a folder you own, or check the file's permissions",
+    errno.EPERM: "the operation is not permitted; write to a folder you own",
+    errno.EISDIR: "this is a folder; give a file name (such as workbook.xlsx)",
+    errno.ENOTDIR: "a part of this path is not a folder; check the path",
+    errno.ENOENT: "no such file or folder (it may have been moved or deleted while running); check the path",
+    errno.ENAMETOOLONG: "the name is too long; choose a shorter one",
+    errno.EMFILE: "too many files are open; close other programs and run again",
+}
+
+
+class Interrupted(KeyboardInterrupt):
+    """A stop signal (SIGTERM, SIGHUP, or SIGINT) turned into an exception so that cleanup code runs."""
+
+    def __init__(self, signum: int):
+        super().__init__(signum)
+        self.signum = signum
+
+
+def _stop(signum: int, frame) -> None:
+    """Signal handler: ignore further stop signals (cleanup must finish), then raise Interrupted."""
+    for sig in STOP_SIGNALS:
+        signal.signal(sig, signal.SIG_IGN)
+    raise Interrupted(signum)
+
+
+def os_error_message(exc: OSError, fallback: Path | None) -> str:
+    """One line naming the path the operating system refused and what to do."""
+    path = exc.filename or fallback
+    advice = _ADVICE.get(exc.errno or 0, f"{exc.strerror or exc}; check the path and run again")
+    return f"cannot use {path}: {advice}. Nothing was written"
 
 
 def _run_build(args: argparse.Namespace, progress) -> object:
@@ -126,6 +173,7 @@ def parser() -> argparse.ArgumentParser:
     b.add_argument("-o", "--output", type=Path, required=True, help="the .xlsx file to write")
     b.add_argument("--force", action="store_true", help="overwrite the output if it exists")
     b.add_argument("-q", "--quiet", action="store_true", help="print only problems")
+    b.add_argument("--debug", action="store_true", help="show the traceback of any failure")
     b.add_argument("--previous", type=Path, default=None, metavar="OLD.xlsx",
                    help="last week's workbook: carry its settings, costs, targets and Decisions into this one "
                         "(it is only read); edits that no longer match a row are listed on an Unmatched edits sheet")
@@ -137,12 +185,14 @@ def parser() -> argparse.ArgumentParser:
                                     "New that is not a positive number, an added keyword without a destination or "
                                     "in an unknown campaign) are listed with their row and not written. Exit codes: "
                                     "0 every change written; 3 some refused (the valid ones are written); 1 nothing "
-                                    "written (missing workbook, no Actions sheet, output exists without --force).")
+                                    "written (missing workbook, no Actions sheet, output exists without --force); "
+                                    "4 the system refused a read or write; 130 interrupted.")
     ch.add_argument("workbook", type=Path, help="the edited .xlsx workbook")
     ch.add_argument("-o", "--output", type=Path, required=True, help="the file to write (.csv, or .xlsx with --format xlsx)")
     ch.add_argument("--format", choices=("csv", "xlsx"), default="csv", help="csv (default; text escaped against "
                     "formula injection) or xlsx (text written as text)")
     ch.add_argument("--force", action="store_true", help="overwrite the output if it exists")
+    ch.add_argument("--debug", action="store_true", help="show the traceback of any failure")
     ch.set_defaults(run=_changes)
     ins = sub.add_parser("inspect", help="read a folder of exports and say what was read, building nothing",
                          description="Read the exports in INPUTS exactly as build does and print, for each file, the "
@@ -159,6 +209,28 @@ def main(argv: list[str] | None = None) -> int:
     """Entry point of the sheetbuilder command."""
     args = parser().parse_args(argv)
     console = Console(stderr=True, highlight=False)
+    debug = getattr(args, "debug", False)
+    handlers = {}
+    try:
+        for sig in STOP_SIGNALS:
+            handlers[sig] = signal.signal(sig, _stop)
+    except ValueError:  # not the main thread: signals stay as they are
+        pass
+    try:
+        return _run(args, console, debug)
+    finally:
+        for sig, old in handlers.items():
+            signal.signal(sig, old)
+
+
+def _run(args: argparse.Namespace, console: Console, debug: bool) -> int:
+    """Run the command; every failure becomes one message and its exit code."""
+    def say(message: str, code: int) -> int:
+        if debug:
+            console.print(traceback.format_exc(), markup=False, highlight=False)
+        console.print(f"sheetbuilder: {message}", markup=False, highlight=False, soft_wrap=True)
+        return code
+
     try:
         return args.run(args, console)
     except InputProblems as exc:
@@ -167,8 +239,19 @@ def main(argv: list[str] | None = None) -> int:
         print_problems(console, exc.problems)
         return EXIT_INPUT
     except SheetbuilderError as exc:
-        console.print(f"sheetbuilder: {escape(str(exc))}")
-        return EXIT_REFUSED
+        return say(str(exc), EXIT_REFUSED)
+    except OSError as exc:
+        return say(os_error_message(exc, getattr(args, "output", None)), EXIT_SYSTEM)
+    except KeyboardInterrupt as exc:
+        name = signal.Signals(exc.signum).name if isinstance(exc, Interrupted) else "SIGINT (Ctrl-C)"
+        return say(f"interrupted by {name}; temporary files were removed and {getattr(args, 'output', 'the output')} "
+                   "was not replaced. Run the command again to finish", EXIT_INTERRUPTED)
+    except MemoryError:
+        return say("not enough memory to finish; close other programs, or build from a shorter period",
+                   EXIT_SYSTEM)
+    except Exception as exc:  # a bug: one line, the details with --debug
+        return say(f"internal error ({type(exc).__name__}: {exc}); nothing was written. Run again with --debug "
+                   "and report the traceback", EXIT_BUG)
 
 
 if __name__ == "__main__":

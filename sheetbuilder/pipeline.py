@@ -12,8 +12,9 @@ from .columns import PlannedTable
 from .errors import ERROR, WARNING, InputProblems, OutputExists, Problem, SheetbuilderError, UnsafeOutput
 from .plan_bids import DEFS as BIDS_DEFS, plan_bids
 from .plan_groups import DEFS as GROUPS_DEFS, plan_groups
-from .atomic import atomic_output
-from .carry import CarryResult, apply_edits, carried_catalog, decision_column, read_edits
+from .atomic import atomic_output, refuse_input_as_output, scratch_dir
+from .guard import reading
+from .carry import CarryResult, PreviousWorkbookUnreadable, apply_edits, carried_catalog, decision_column, read_edits
 from .plan_actions import defs as ACTION_DEFS, plan_actions
 from .plan_dashboard import Figure, dashboard
 from .plan_unmatched import plan_unmatched
@@ -28,7 +29,7 @@ from .plan_settings import plan_settings
 from .periods import settings_for_inputs
 from .readers import Inputs, read_inputs
 from .render import Progress, render
-from .settings import Settings, load_settings
+from .settings import SETTINGS_FILE, Settings, load_settings
 from .spec import WorkbookSpec
 
 
@@ -176,6 +177,8 @@ def _check_output(output: Path, inputs_folder: Path, force: bool) -> None:
     """Refuse to overwrite without force, to write over an input, or into a missing folder."""
     if not output.parent.is_dir():
         raise SheetbuilderError(f"the output folder {output.parent} does not exist")
+    if output.is_dir():
+        raise SheetbuilderError(f"the output {output} is a folder; give a file name such as {output / 'workbook.xlsx'}")
     if output.suffix.lower() != ".xlsx":
         raise SheetbuilderError(f"the output {output.name} should end in .xlsx")
     if Path(inputs_folder).is_dir():
@@ -186,10 +189,10 @@ def _check_output(output: Path, inputs_folder: Path, force: bool) -> None:
         raise OutputExists(f"{output} exists; add --force to overwrite it")
 
 
-def write_atomically(spec: WorkbookSpec, output: Path, progress: Progress | None = None) -> None:
-    """Render to a temporary file beside output, then rename it into place."""
-    with atomic_output(output, ".xlsx") as tmp:
-        render(spec, tmp, progress)
+def write_atomically(spec: WorkbookSpec, output: Path, progress: Progress | None = None, force: bool = False) -> None:
+    """Render to a temporary file beside output, then move it into place (replacing only with force)."""
+    with atomic_output(output, ".xlsx", force) as tmp:
+        render(spec, tmp, progress, scratch_dir(tmp))
 
 
 def build(folder: Path, output: Path, force: bool = False, built_on: dt.date | None = None,
@@ -216,13 +219,20 @@ def build(folder: Path, output: Path, force: bool = False, built_on: dt.date | N
     if previous is not None and output.exists() and Path(previous).exists() and os.path.samefile(previous, output):
         raise UnsafeOutput(f"{output} is the previous workbook; write the new one under another name")
     inputs, settings, problems = load(folder)
+    read = {f"the input file for {name}": path for name, path in inputs.sources.items()}
+    read["the settings file"] = folder / SETTINGS_FILE
+    if previous is not None:
+        read["the previous workbook"] = Path(previous)
+    refuse_input_as_output(output, read)
     carry = None
     if previous is not None:
-        carry = apply_edits(read_edits(Path(previous)), inputs.tables, settings)
+        with reading(previous, PreviousWorkbookUnreadable):
+            edits = read_edits(Path(previous))
+        carry = apply_edits(edits, inputs.tables, settings)
         settings = carry.settings
         inputs.tables["catalog"] = carried_catalog(inputs.tables["catalog"], carry)
     warnings = [p for p in problems if p.severity == WARNING]
     plan = plan_workbook(inputs, settings, built_on or dt.date.today(), warnings, carry)
-    write_atomically(plan.spec, output, progress)
+    write_atomically(plan.spec, output, progress, force)
     rows = {k: len(v) for k, v in inputs.tables.items() if isinstance(v, pd.DataFrame)}
     return BuildResult(output, warnings, plan, rows, carry)

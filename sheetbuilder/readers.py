@@ -7,10 +7,7 @@ from __future__ import annotations
 
 import csv
 import hashlib
-import io
 import math
-import re
-import zipfile
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -19,6 +16,7 @@ import pandas as pd
 from . import contract as c
 from .encodings import NotText, decode, is_legacy
 from .errors import ERROR, WARNING, Problem
+from .guard import UnsafeWorkbook, check_csv, check_workbook, read_delimited, text_problem
 from .headers import currency_warnings, find_header, map_headers
 from .numbers import MAX_MAGNITUDE, NotANumber, parse_count, parse_number
 from .periods import DATE_RULES, DATED_TABLES, Period, combine_repeats, overall_period, parse_dates, table_period
@@ -30,14 +28,6 @@ SUFFIXES = (".csv", ".tsv", ".txt", ".xlsx", ".xlsm", ".xls", ".xlsb", ".ods")
 ZIPPED = (".xlsx", ".xlsm", ".xlsb")  # Office Open XML workbooks, checked before they are opened
 MAX_STRAY_BYTES = 20 * 1024 * 1024  # a file matching no table larger than this is named, not read
 MAX_SHEET_ROWS = 1_048_576  # Microsoft, "Excel specifications and limits"; the header takes one
-
-# A workbook is a zip; these limits refuse a zip bomb before calamine inflates it.
-# Module constants so tests can make them small.
-MAX_ZIP_TOTAL = 512 * 1024 * 1024   # bytes, all entries uncompressed
-MAX_ZIP_RATIO = 100                 # uncompressed / compressed, for an entry of RATIO_ENTRY_MIN or more
-RATIO_ENTRY_MIN = 16 * 1024 * 1024  # bytes uncompressed: smaller entries may compress as well as they like
-MAX_ZIP_ENTRIES = 10_000
-MAX_RELS_BYTES = 4 * 1024 * 1024    # a relationships part larger than this is not a workbook's
 
 # search_terms rows repeating these are merged when the table is longer than a sheet.
 SEARCH_TERM_KEYS = ("campaign", "ad_group", "target", "match_type", "search_term")
@@ -85,61 +75,6 @@ def find_file(folder: Path, table: c.TableRule, settings: Settings) -> tuple[Pat
     return found[0], None
 
 
-class UnsafeWorkbook(ValueError):
-    """An .xlsx that is refused before it is opened: a zip bomb, external links, not a zip."""
-
-
-_EXTERNAL = re.compile(rb"""TargetMode\s*=\s*["']External["']""", re.IGNORECASE)
-
-
-def check_workbook_zip(path: Path) -> None:
-    """Refuse a workbook that is not a zip, would inflate too far, or links to other files.
-
-    Reads only the zip's central directory and the small relationship parts, so that
-    nothing is inflated before the limits are checked.
-
-    Raises:
-        UnsafeWorkbook: saying what is wrong.
-    """
-    try:
-        archive = zipfile.ZipFile(path)
-    except (zipfile.BadZipFile, OSError, ValueError, EOFError) as exc:
-        raise UnsafeWorkbook(f"not a readable spreadsheet: not an .xlsx workbook (a zip file): {exc}") from None
-    with archive:
-        entries = archive.infolist()
-        if len(entries) > MAX_ZIP_ENTRIES:
-            raise UnsafeWorkbook(f"refused: the workbook holds {len(entries)} parts, more than {MAX_ZIP_ENTRIES}; "
-                                 "it may be a zip bomb. Save it again from the spreadsheet program, or export CSV")
-        total = sum(e.file_size for e in entries)
-        if total > MAX_ZIP_TOTAL:
-            raise UnsafeWorkbook(f"refused: the workbook would unpack to {total / 2**20:,.0f} MiB, more than "
-                                 f"{MAX_ZIP_TOTAL / 2**20:,.0f} MiB; it may be a zip bomb. Export it as CSV instead")
-        for e in entries:
-            if e.file_size >= RATIO_ENTRY_MIN and e.file_size > MAX_ZIP_RATIO * max(e.compress_size, 1):
-                raise UnsafeWorkbook(f"refused: the part '{e.filename}' unpacks {e.file_size / max(e.compress_size, 1):,.0f} "
-                                     f"times larger than it is stored, more than {MAX_ZIP_RATIO}; it may be a zip "
-                                     "bomb. Export it as CSV instead")
-        names = {e.filename for e in entries}
-        if "xl/workbook.xml" not in names and "xl/workbook.bin" not in names:
-            raise UnsafeWorkbook("not a readable spreadsheet: a zip file without a workbook (no xl/workbook.xml)")
-        links = sorted(n for n in names if n.lower().startswith("xl/externallinks/"))
-        if links:
-            raise UnsafeWorkbook(f"refused: the workbook has external links ({links[0]}); links to other files are not "
-                                 "read. Break the links (Data > Edit Links > Break Link) or export CSV")
-        for e in entries:
-            low = e.filename.lower()
-            if not (low.startswith("xl/") and low.endswith(".rels")):
-                continue
-            if e.file_size > MAX_RELS_BYTES:
-                raise UnsafeWorkbook(f"refused: the part '{e.filename}' is {e.file_size:,} bytes, too large for a "
-                                     "relationships part")
-            try:
-                data = archive.read(e)
-            except (zipfile.BadZipFile, OSError, ValueError, EOFError, NotImplementedError, RuntimeError) as exc:
-                raise UnsafeWorkbook(f"not a readable spreadsheet: the part '{e.filename}' is broken: {exc}") from None
-            if _EXTERNAL.search(data):
-                raise UnsafeWorkbook(f"refused: the workbook links to an external target in '{e.filename}'; links to "
-                                     "other files are not read. Break the links or export CSV")
 
 
 class CellNumber(str):
@@ -176,8 +111,10 @@ def read_sheets(path: Path) -> tuple[list[tuple[str, list[list[str]]]], str]:
         NotText: a CSV not decodable by encodings.decode, or a NUL character in any cell (with its row).
     """
     if path.suffix.lower() in SPREADSHEETS:
-        if path.suffix.lower() in ZIPPED:
-            check_workbook_zip(path)
+        if path.suffix.lower() in ZIPPED + (".ods",):
+            check_workbook(path)
+        else:
+            check_csv(path)  # .xls is not a zip: its size is what can be checked before reading
         frames = pd.read_excel(path, engine="calamine", header=None, dtype=object, sheet_name=None)
         sheets = []
         for name, frame in frames.items():
@@ -187,11 +124,12 @@ def read_sheets(path: Path) -> tuple[list[tuple[str, list[list[str]]]], str]:
                     raise NotText("holds a NUL character in a cell; remove it and save again", i + 1)
             sheets.append((str(name), rows))
         return sheets, "spreadsheet"
+    check_csv(path)
     decoded = decode(path.read_bytes())
     text = decoded.text
     first = next((line for line in text.splitlines() if line.strip()), "")
     delimiter = max((",", ";", "\t", "|"), key=first.count) if first else ","
-    return [("", list(csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)))], decoded.encoding
+    return [("", read_delimited(text, delimiter))], decoded.encoding
 
 
 def pick_sheet(sheets: list[tuple[str, list[list[str]]]], table: c.TableRule, settings: Settings
@@ -216,6 +154,8 @@ def _parse_cell(rule: c.ColumnRule, text: str, settings: Settings) -> tuple[obje
     if rule.kind == c.TEXT:
         if not t and rule.name in _NON_BLANK:
             return "", "is blank; expected a value"
+        if (problem := text_problem(text)) is not None:
+            return "", problem
         return (t if rule.name in ("product_id", "campaign", "ad_group") else str(text)), None
     if rule.kind in c.CHOICES:
         synonyms, expected = c.CHOICES[rule.kind]
@@ -303,6 +243,8 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
         return None, [Problem(file, None, None, str(exc))]
     except csv.Error as exc:
         return None, [Problem(file, None, None, f"not a readable CSV file: {exc}")]
+    except MemoryError:
+        return None, [Problem(file, None, None, "not enough memory to read it; export a shorter period")]
     except Exception as exc:  # calamine raises its own types for broken workbooks
         return None, [Problem(file, None, None, f"not a readable spreadsheet: {exc}")]
     sheet, rows, start = pick_sheet(sheets, with_dates(table), settings)
@@ -512,7 +454,8 @@ def read_inputs(folder: Path, settings: Settings) -> tuple[Inputs, list[Problem]
             tables[table.name] = None
             continue
         sources[table.name] = path
-        checksums[table.name] = hashlib.sha256(path.read_bytes()).hexdigest()
+        with open(path, "rb") as fh:
+            checksums[table.name] = hashlib.file_digest(fh, "sha256").hexdigest()
         frame, found = read_table(path, table, settings)
         problems.extend(found)
         if frame is not None:

@@ -18,6 +18,7 @@ from typing import Any
 from .contract import TABLE_BY_NAME
 from .periods import DATED_TABLES
 from .errors import Problem
+from .guard import text_problem
 
 SETTINGS_FILE = "settings.toml"
 
@@ -217,6 +218,8 @@ def _coerce(spec: SettingSpec, raw: Any, file: str) -> tuple[Any, Problem | None
         return ("yes" if raw else "no"), None  # one style of yes/no everywhere: true/false, yes/no accepted
     if not isinstance(raw, str):
         return bad("text")
+    if (problem := text_problem(raw, setting=True)) is not None:
+        return spec.default, Problem(file, None, spec.key, f"{problem}, got {raw!r}")
     if spec.kind == "choice":
         value = " ".join(raw.strip().lower().split())
         if value not in spec.choices:
@@ -245,12 +248,16 @@ def _known_tables(columns: dict, files: dict, problems: list[Problem]) -> tuple[
                 problems.append(Problem(SETTINGS_FILE, None, f"columns.{table}.{name}",
                                         f"expected the header as text, such as {name} = \"My header\", "
                                         f"got {header!r}"))
+            elif (problem := text_problem(header, setting=True)) is not None:
+                problems.append(Problem(SETTINGS_FILE, None, f"columns.{table}.{name}", problem))
             else:
                 kept_columns[table][name] = header
     kept_files: dict = {}
     for table, name in files.items():
         if table not in TABLE_BY_NAME:
             problems.append(Problem(SETTINGS_FILE, None, f"files.{table}", f"unknown table; expected one of {tables}"))
+        elif (problem := text_problem(name, setting=True)) is not None:
+            problems.append(Problem(SETTINGS_FILE, None, f"files.{table}", problem))
         else:
             kept_files[table] = name
     return kept_columns, kept_files
@@ -304,6 +311,10 @@ def load_settings(folder: Path) -> tuple[Settings, list[Problem]]:
                                                         and 0 <= v <= 1 for v in benchmarks.values())):
             problems.append(Problem(SETTINGS_FILE, None, "ad_type_benchmarks",
                                     'expected [ad_type_benchmarks] with "product ads" = 0.85 and the like (0 to 1)'))
+        elif any(text_problem(str(k), setting=True) for k in benchmarks):
+            key = next(str(k) for k in benchmarks if text_problem(str(k), setting=True))
+            problems.append(Problem(SETTINGS_FILE, None, f"ad_type_benchmarks.{key!r}",
+                                    str(text_problem(key, setting=True))))
         else:
             values["ad_type_benchmarks"] = MappingProxyType({str(k): float(v) for k, v in benchmarks.items()})
     if "product_id_pattern" in values:
@@ -327,6 +338,12 @@ def _destinations(raw: Any, problems: list[Problem]) -> dict[str, tuple[str, str
                 or not isinstance(where.get("ad_group"), str)):
             problems.append(Problem(SETTINGS_FILE, None, f"destinations.{product}",
                                     'expected { campaign = "...", ad_group = "..." }'))
+            continue
+        found = [(key, text_problem(text, setting=True)) for key, text in
+                 (("", str(product)), (".campaign", where["campaign"]), (".ad_group", where["ad_group"]))]
+        if any(problem for _, problem in found):
+            key, problem = next((k, p) for k, p in found if p)
+            problems.append(Problem(SETTINGS_FILE, None, f"destinations.{product}{key}", problem))
             continue
         out[str(product)] = (where["campaign"].strip(), where["ad_group"].strip())
     return out

@@ -28,7 +28,7 @@ def main(argv: list[str]) -> int:
     out.mkdir(parents=True, exist_ok=True)
     inputs, settings, problems = load(folder)
     plan = plan_workbook(inputs, settings, DEMO_DATE, [p for p in problems if p.severity == WARNING])
-    write_atomically(plan.spec, out / "demo.xlsx")
+    write_atomically(plan.spec, out / "demo.xlsx", force=True)
     with tempfile.TemporaryDirectory() as tmp:
         tmp = Path(tmp)
         files = []
@@ -37,7 +37,7 @@ def main(argv: list[str]) -> int:
             for sheet in spec.sheets:
                 sheet.hidden = sheet.name != name
             path = tmp / f"{name.lower()}.xlsx"
-            write_atomically(spec, path)
+            write_atomically(spec, path, force=True)
             files.append(path)
         pdfs = libreoffice_convert(files, tmp / "pdf", target="pdf")
         for name, pdf in zip(sheets, pdfs):
