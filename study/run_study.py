@@ -174,6 +174,7 @@ def main(argv: list[str] | None = None) -> int:
              f"zero. Weeks to half in band is {args.weeks + 1} when never reached (censored).", ""]
     lines += comparison_table(results)
     lines += ["## Aims", ""] + aims(results) + [""]
+    args.out.write_text("\n".join(lines) + "\n", encoding="utf-8")  # the comparison, before the long sweep
     if args.sweep_seeds:
         lines += ["## Defaults sweep", "",
                   f"The method with one setting changed, against the method with the defaults, on the first "
