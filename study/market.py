@@ -15,6 +15,9 @@ Model (every assumption is a parameter of :class:`Scenario`):
 - Cost per click below the bid, as in a second-price auction: CPC = bid x d, rounded to the
   cent, with the discount d ~ Beta(``discount_a``, ``discount_b``) drawn once per keyword.
 - Orders ~ Binomial(clicks, q); ad sales = orders x the keyword's order value.
+- Target ACoS: ``target_acos`` for every product, or with ``target_at_optimum`` each product's
+  profit-maximising ACoS under this click response, e x margin / (1 + e) (maximising
+  clicks x (q x order value x margin - CPC) over the bid when clicks grow as bid ^ e).
 - Not modelled: competitors reacting, seasonality, attribution delay, budget caps, impressions
   (written as a fixed multiple of clicks), organic sales changing with ads.
 
@@ -52,6 +55,7 @@ class Scenario:
     discount_b: float = 3.0
     start_spread: float = 0.5
     target_acos: float = 0.30
+    target_at_optimum: bool = False
     organic_units: int = 40
 
     def but(self, **changes) -> "Scenario":
@@ -65,6 +69,9 @@ SCENARIOS = {
     "low CVR": Scenario("low CVR", cvr=0.04),
     "high CVR": Scenario("high CVR", cvr=0.15),
 }
+EXTRA_SCENARIOS = {
+    "profit-optimal target": Scenario("profit-optimal target", target_at_optimum=True),
+}
 
 
 @dataclass
@@ -77,6 +84,7 @@ class Market:
     unit_cost: np.ndarray
     fees: np.ndarray
     margin: np.ndarray
+    target: np.ndarray
     product_cvr: np.ndarray
     product: np.ndarray
     cvr: np.ndarray
@@ -106,10 +114,14 @@ class Market:
         with np.errstate(divide="ignore"):
             return np.where(value > 0, self.cpc(bid) / np.where(value > 0, value, 1.0), np.inf)
 
+    def keyword_target(self) -> np.ndarray:
+        """Each keyword's target ACoS (its product's)."""
+        return self.target[self.product]
+
     def target_bid(self) -> np.ndarray:
         """The bid at which each keyword's true ACoS meets the target (nan if it never converts)."""
         value = self.cvr * self.order_value
-        return np.where(value > 0, self.scenario.target_acos * value / self.discount, np.nan)
+        return np.where(value > 0, self.keyword_target() * value / self.discount, np.nan)
 
     def week(self, week: int, bid: np.ndarray) -> dict[str, np.ndarray]:
         """One week's results at the given bids: clicks, spend, orders, ad sales per keyword."""
@@ -136,6 +148,8 @@ def draw_market(scenario: Scenario, seed: int) -> Market:
     unit_cost = np.round(price * (1 - margin) * 0.6, 2)
     fees = np.round(price * (1 - margin) * 0.4, 2)
     margin = (price - unit_cost - fees) / price
+    optimum = np.round(s.elasticity * margin / (1 + s.elasticity), 4)
+    target = optimum if s.target_at_optimum else np.full(n_p, s.target_acos)
     product_cvr = np.clip(s.cvr * rng.lognormal(0.0, 0.3, n_p), 0.002, 0.9)
     product = np.repeat(np.arange(n_p), n_k)
     c = product_cvr[product]
@@ -145,9 +159,9 @@ def draw_market(scenario: Scenario, seed: int) -> Market:
     base_clicks = s.clicks_per_week * rng.lognormal(-s.clicks_sd ** 2 / 2, s.clicks_sd, len(cvr))
     discount = rng.beta(s.discount_a, s.discount_b, len(cvr))
     mean_discount = s.discount_a / (s.discount_a + s.discount_b)
-    product_bid = s.target_acos * product_cvr * price / mean_discount
+    product_bid = target * product_cvr * price / mean_discount
     start_bid = np.clip(np.round(product_bid[product] * rng.lognormal(0.0, s.start_spread, len(cvr)), 2), 0.10, 5.0)
     names = [(f"Study P{p + 1:02d} - Manual", f"Group P{p + 1:02d}", f"term {p + 1} {k + 1}", MATCH_TYPES[k % 3])
              for p in range(n_p) for k in range(n_k)]
-    return Market(s, seed, price, unit_cost, fees, margin, product_cvr, product, cvr, order_value, base_clicks,
+    return Market(s, seed, price, unit_cost, fees, margin, target, product_cvr, product, cvr, order_value, base_clicks,
                   start_bid.copy(), discount, start_bid, names)

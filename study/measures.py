@@ -9,6 +9,8 @@ bids. Measures, per run:
   between the bid floor and ceiling (the others cannot be brought into the band by any bid).
 - ``weeks_to_half``: the first week after whose decision at least half of the reachable
   keywords are in the band (0: already at the start; ``weeks + 1`` when never, a censored value).
+- ``acos_gap``: the median distance of a reachable keyword's true ACoS at its final bid from its
+  target, in points (shows progress that the narrow band hides).
 - ``profit``: net profit after ads over the weeks, ad sales x pre-ad margin - ad spend
   (organic sales are the same under every policy and left out).
 - ``dead_spend``: spend on keywords whose true conversion rate is zero.
@@ -25,7 +27,7 @@ from sheetbuilder.settings import Settings
 from .market import Market
 from .policies import Window
 
-MEASURES = ("in_band", "weeks_to_half", "profit", "dead_spend", "bid_change")
+MEASURES = ("in_band", "weeks_to_half", "acos_gap", "profit", "dead_spend", "bid_change")
 BAND = 0.05
 
 
@@ -66,8 +68,15 @@ def reachable(market: Market, settings: Settings = Settings()) -> np.ndarray:
 def in_band(market: Market, bids: np.ndarray, settings: Settings = Settings()) -> float:
     """The share of reachable keywords whose true ACoS at bids is within the band around the target."""
     ok = reachable(market, settings)
-    near = np.abs(market.true_acos(bids) - market.scenario.target_acos) <= BAND + 1e-9
+    near = np.abs(market.true_acos(bids) - market.keyword_target()) <= BAND + 1e-9
     return float(np.mean(near[ok])) if ok.any() else float("nan")
+
+
+def acos_gap(market: Market, bids: np.ndarray, settings: Settings = Settings()) -> float:
+    """The median distance (points) of reachable keywords' true ACoS at bids from their target."""
+    ok = reachable(market, settings)
+    gap = np.abs(market.true_acos(bids) - market.keyword_target()) * 100
+    return float(np.median(gap[ok])) if ok.any() else float("nan")
 
 
 def measure(market: Market, run: Run, settings: Settings = Settings()) -> dict[str, float]:
@@ -80,6 +89,7 @@ def measure(market: Market, run: Run, settings: Settings = Settings()) -> dict[s
     return {
         "in_band": shares[-1],
         "weeks_to_half": float(half),
+        "acos_gap": acos_gap(market, run.bids[-1], settings),
         "profit": float(np.sum(run.sales * margin - run.spend)),
         "dead_spend": float(np.sum(run.spend[:, market.cvr == 0])),
         "bid_change": float(np.mean(np.abs(new - old) / old) * 100),

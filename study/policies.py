@@ -63,7 +63,7 @@ def write_exports(folder: Path, market: Market, window: Window, settings: dict |
     ids = [f"SIM-{p + 1:03d}" for p in range(n_p)]
     _write(folder / "catalog.csv", ["product_id", "product_name", "price", "unit_cost", "fees_per_unit", "target_acos"],
            [[ids[p], f"Study product {p + 1}", f"{market.price[p]:.2f}", f"{market.unit_cost[p]:.2f}",
-             f"{market.fees[p]:.2f}", f"{market.scenario.target_acos:.4f}"] for p in range(n_p)])
+             f"{market.fees[p]:.2f}", f"{market.target[p]:.4f}"] for p in range(n_p)])
     by_product = {key: np.bincount(market.product, weights=getattr(window, key), minlength=n_p)
                   for key in ("clicks", "orders", "spend", "sales")}
     organic = market.scenario.organic_units * window.weeks
@@ -114,7 +114,7 @@ class WorkbookMethod:
 def manual_rule(market: Market, window: Window, settings: Settings = Settings()) -> np.ndarray:
     """The seller's rule by hand (common practice, no source): step by the ACoS gap, rounded to 10 points."""
     bids = window.bids
-    target = market.scenario.target_acos
+    target = market.keyword_target()
     with np.errstate(divide="ignore", invalid="ignore"):
         acos = np.where(window.sales > 0, window.spend / np.where(window.sales > 0, window.sales, 1.0), np.inf)
     gap = np.where(np.isfinite(acos), acos - target, MANUAL_STEP_CAP)

@@ -18,7 +18,7 @@ import numpy as np
 
 from sheetbuilder.settings import Settings
 
-from .market import SCENARIOS, draw_market
+from .market import EXTRA_SCENARIOS, SCENARIOS, draw_market
 from .measures import MEASURES, measure, paired_bootstrap, simulate
 from .policies import WorkbookMethod, hold, manual_rule
 
@@ -28,9 +28,9 @@ POLICIES = {
     "no smoothing": WorkbookMethod({"prior_clicks": 0}),
     "hold": hold,
 }
-LABELS = {"in_band": "in band at the last week", "weeks_to_half": "weeks to half in band", "profit": "net profit after ads",
+LABELS = {"in_band": "in band at the last week", "weeks_to_half": "weeks to half in band",
+          "acos_gap": "median ACoS gap, points", "profit": "net profit after ads",
           "dead_spend": "spend on never-converting", "bid_change": "mean abs bid change %/week"}
-HIGHER_IS_BETTER = {"in_band": True, "weeks_to_half": False, "profit": True, "dead_spend": False, "bid_change": False}
 SWEEP = {
     "prior_clicks": (0, 5, 10, 20, 40),
     "max_bid_cut": (0.2, 0.3, 0.5),
@@ -166,7 +166,7 @@ def main(argv: list[str] | None = None) -> int:
     def log(text: str) -> None:
         print(f"{dt.datetime.now():%H:%M:%S} {text}", file=sys.stderr, flush=True)
 
-    results = run_policies(POLICIES, range(1, args.seeds + 1), args.weeks, log=log)
+    results = run_policies(POLICIES, range(1, args.seeds + 1), args.weeks, {**SCENARIOS, **EXTRA_SCENARIOS}, log)
     lines = ["# Simulated accounts: the bid method against the manual rule", "",
              f"Written by `python -m study.run_study --seeds {args.seeds} --sweep-seeds {args.sweep_seeds} "
              f"--weeks {args.weeks}`. Means per policy over seeds; differences are paired by seed with 95% "

@@ -21,7 +21,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 from sheetbuilder.pipeline import build  # noqa: E402
 from sheetbuilder.settings import Settings  # noqa: E402
 from study.market import Scenario, draw_market  # noqa: E402
-from study.measures import MEASURES, in_band, measure, paired_bootstrap, simulate  # noqa: E402
+from study.measures import MEASURES, acos_gap, in_band, reachable, measure, paired_bootstrap, simulate  # noqa: E402
 from study.policies import Window, WorkbookMethod, hold, manual_rule, period_end, planned_final_bids, \
     write_exports  # noqa: E402
 from study.run_study import aims, comparison_table, run_policies  # noqa: E402
@@ -122,6 +122,22 @@ def test_clicks_rise_with_the_bid_with_diminishing_returns():
     assert np.all(np.diff(steps) < 0)
 
 
+def test_the_profit_optimal_target_is_the_acos_at_the_most_profitable_bid():
+    # Checked numerically with scipy.optimize.minimize_scalar (scipy documentation), not from the formula.
+    from scipy.optimize import minimize_scalar
+    market = draw_market(Scenario("opt", products=2, keywords_per_product=3, dead_share=0.0, target_at_optimum=True), 9)
+    for i in range(market.size):
+        value = market.cvr[i] * market.order_value[i] * market.margin[market.product[i]]
+
+        def loss(bid):
+            clicks = market.base_clicks[i] * (bid / market.ref_bid[i]) ** market.scenario.elasticity
+            return -clicks * (value - bid * market.discount[i])
+
+        best = minimize_scalar(loss, bounds=(0.001, 50.0), method="bounded", options={"xatol": 1e-9}).x
+        acos = best * market.discount[i] / (market.cvr[i] * market.order_value[i])
+        assert market.keyword_target()[i] == pytest.approx(acos, abs=1e-4)
+
+
 def _window(bid: float, clicks: int, spend: float, sales: float) -> Window:
     return Window(1, 1, np.array([clicks]), np.array([1]), np.array([spend]), np.array([sales]), np.array([bid]))
 
@@ -149,6 +165,9 @@ def test_bids_at_the_target_bid_are_all_in_the_band():
     bids = np.where(np.isfinite(market.target_bid()), np.round(market.target_bid(), 2), 1.0)
     assert 1.0 == in_band(market, bids)
     assert 0.0 == in_band(market, bids * 3)
+    assert acos_gap(market, bids) < 0.5  # cents rounding only
+    ok = reachable(market)
+    assert np.median(market.keyword_target()[ok] * 200) == pytest.approx(acos_gap(market, bids * 3), rel=0.05)
 
 
 def test_paired_bootstrap_of_a_constant_difference_is_that_constant():
