@@ -70,7 +70,7 @@ def _interval(diffs: np.ndarray, measure_key: str) -> str:
     mean, low, high = paired_bootstrap(diffs)
     scale = 100 if measure_key == "in_band" else 1
     unit = " pts" if measure_key == "in_band" else ""
-    mark = " *" if low > 0 or high < 0 else ""
+    mark = " *" if len(diffs) > 1 and (low > 0 or high < 0) else ""
     return f"{mean * scale:+,.1f} [{low * scale:+,.1f}, {high * scale:+,.1f}]{unit}{mark}"
 
 
@@ -153,6 +153,21 @@ def sweep(seeds: range, weeks: int, base: dict, log=None) -> list[str]:
     return lines + [""] + verdicts
 
 
+def confirm(key: str, value: float, seeds: range, weeks: int, log=None) -> list[str]:
+    """The method with one setting changed against the defaults on every scenario, every measure, paired."""
+    scenarios = {**SCENARIOS, **EXTRA_SCENARIOS}
+    found = run_policies({"default": WorkbookMethod(), "variant": WorkbookMethod({key: value})}, seeds, weeks,
+                         scenarios, log)
+    lines = [f"The method with `{key} = {value:g}` against the defaults, {len(seeds)} seeds per scenario "
+             "(variant - default, mean [95% paired bootstrap interval]).", "",
+             "| scenario | " + " | ".join(LABELS[m] for m in MEASURES) + " |",
+             "| --- |" + " ---: |" * len(MEASURES)]
+    for name, by_policy in found.items():
+        diff = by_policy["variant"] - by_policy["default"]
+        lines.append(f"| {name} | " + " | ".join(_interval(diff[:, j], m) for j, m in enumerate(MEASURES)) + " |")
+    return lines
+
+
 def main(argv: list[str] | None = None) -> int:
     """Run the study and write its Markdown table."""
     parser = argparse.ArgumentParser(prog="python -m study.run_study", description=__doc__.splitlines()[0])
@@ -161,11 +176,19 @@ def main(argv: list[str] | None = None) -> int:
                         "(0: no sweep)")
     parser.add_argument("--weeks", type=int, default=12)
     parser.add_argument("--out", type=Path, default=Path(__file__).with_name("results.md"))
+    parser.add_argument("--confirm", metavar="KEY=VALUE", help="instead of the study, compare the method with one "
+                        "setting changed against the defaults on every scenario (--seeds seeds)")
     args = parser.parse_args(argv)
 
     def log(text: str) -> None:
         print(f"{dt.datetime.now():%H:%M:%S} {text}", file=sys.stderr, flush=True)
 
+    if args.confirm:
+        key, value = args.confirm.split("=")
+        lines = confirm(key.strip(), float(value), range(1, args.seeds + 1), args.weeks, log)
+        args.out.write_text("\n".join(lines) + "\n", encoding="utf-8")
+        print("\n".join(lines))
+        return 0
     results = run_policies(POLICIES, range(1, args.seeds + 1), args.weeks, {**SCENARIOS, **EXTRA_SCENARIOS}, log)
     lines = ["# Simulated accounts: the bid method against the manual rule", "",
              f"Written by `python -m study.run_study --seeds {args.seeds} --sweep-seeds {args.sweep_seeds} "

@@ -24,7 +24,7 @@ from study.market import Scenario, draw_market  # noqa: E402
 from study.measures import MEASURES, acos_gap, in_band, reachable, measure, paired_bootstrap, simulate  # noqa: E402
 from study.policies import Window, WorkbookMethod, hold, manual_rule, period_end, planned_final_bids, \
     write_exports  # noqa: E402
-from study.run_study import aims, comparison_table, run_policies  # noqa: E402
+from study.run_study import aims, comparison_table, confirm, run_policies  # noqa: E402
 
 ALPHA = 0.001  # goodness-of-fit tests fail only when the draws are very unlikely under the stated law
 ONE_PRODUCT = Scenario("one product", products=1, keywords_per_product=20000, dead_share=0.0)
@@ -260,3 +260,12 @@ def test_measures_of_a_run_follow_their_definitions(small_runs):
     assert float(run.spend[:, market.cvr == 0].sum()) == pytest.approx(found["dead_spend"])
     assert 0.0 == found["bid_change"]
     assert in_band(market, market.start_bid) == found["in_band"]
+
+
+def test_the_method_with_its_own_default_spelled_out_differs_by_nothing():
+    lines = confirm("max_bid_raise", Settings().max_bid_raise, range(1, 2), 2)
+    rows = [line for line in lines if line.startswith("| ") and "---" not in line][1:]
+    assert 5 == len(rows)  # the four default scenarios and the profit-optimal target
+    for row in rows:
+        cells = row.strip("| ").split(" | ")[1:]
+        assert all(cell.startswith("+0.0 [+0.0, +0.0]") for cell in cells), row
