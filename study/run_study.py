@@ -1,7 +1,7 @@
 """The study: every policy on the same simulated accounts, paired by seed, and a sweep of the
 bid method's defaults; writes a Markdown table (study/results.md by default).
 
-    python -m study.run_study [--seeds 16] [--sweep-seeds 6] [--weeks 12] [--out study/results.md]
+    python -m study.run_study [--seeds 16] [--sweep-seeds 5] [--weeks 12] [--out study/results.md]
 
 Policies: the workbook's method (sheetbuilder's own planning code on weekly exports), the
 manual rule (common practice, no source), no smoothing (the method with prior_clicks = 0) and
@@ -172,7 +172,7 @@ def main(argv: list[str] | None = None) -> int:
     """Run the study and write its Markdown table."""
     parser = argparse.ArgumentParser(prog="python -m study.run_study", description=__doc__.splitlines()[0])
     parser.add_argument("--seeds", type=int, default=16, help="seeds per scenario for the policy comparison")
-    parser.add_argument("--sweep-seeds", type=int, default=6, help="seeds per scenario for the defaults sweep "
+    parser.add_argument("--sweep-seeds", type=int, default=5, help="seeds per scenario for the defaults sweep "
                         "(0: no sweep)")
     parser.add_argument("--weeks", type=int, default=12)
     parser.add_argument("--out", type=Path, default=Path(__file__).with_name("results.md"))
