@@ -5,7 +5,8 @@
 For each size N (ad rows) it writes a synthetic account as CSV files (N ad rows, ~N targets,
 terms-ratio x N search-term rows, a few negatives), then in fresh
 subprocesses (so peak memory is each step's own) times the real build, and a baseline
-that writes the same cells as plain values; then LibreOffice's load-recalculate-save
+that writes the same cells as plain values, a rebuild with --previous and the changes
+command (on the file as built and saved without formula values); then LibreOffice's load-recalculate-save
 of both files. Figures are printed as a table and written to bench_results.json.
 """
 from __future__ import annotations
@@ -24,7 +25,7 @@ import numpy as np
 import pandas as pd
 
 AIMS = ("aims: build <= 2.5x plain write; recalc <= 1.5x values-only load; "
-        "10x rows <= 11x time")
+        "10x rows <= 11x time; --previous <= 1.2x build; changes < 5 s at 10k")
 BUILT_ON = dt.date(2026, 12, 2)
 TERMS_RATIO = 2.0  # search-term rows per ad row: 200k at 100k ad rows
 _MOD_BEFORE = np.array(["", "", "", "", "black", "large", "small", "wooden", "metal", "green", "heavy duty", "xl"],
@@ -182,6 +183,30 @@ def child_build(folder: Path, out: Path) -> dict:
             "file_mb": out.stat().st_size / 2 ** 20}
 
 
+def child_previous(folder: Path, old: Path) -> dict:
+    """Time a build with --previous (the old workbook read, its edits matched and carried)."""
+    from .pipeline import build
+    out = old.with_name(old.stem + "_next.xlsx")
+    t = time.perf_counter()
+    build(folder, out, force=True, built_on=BUILT_ON, previous=old)
+    return {"previous_s": time.perf_counter() - t}
+
+
+def child_changes(workbook: Path, csv_out: Path) -> dict:
+    """Time the changes command on a built workbook, and on the same file saved without formula values."""
+    import openpyxl
+
+    from .changes import export_changes
+    t = time.perf_counter()
+    export_changes(workbook, csv_out, force=True)
+    cached = time.perf_counter() - t
+    bare = workbook.with_name(workbook.stem + "_no_values.xlsx")
+    openpyxl.load_workbook(workbook).save(bare)  # openpyxl stores no formula values
+    t = time.perf_counter()
+    export_changes(bare, csv_out, force=True)
+    return {"changes_s": cached, "changes_no_values_s": time.perf_counter() - t}
+
+
 def _value_writer(ws, formats):
     from .render import _cached, put_value
 
@@ -327,6 +352,9 @@ def run(sizes: list[int], libreoffice: bool, terms_ratio: float = TERMS_RATIO) -
             formula_xlsx, plain_xlsx = base / "formulas.xlsx", base / "values.xlsx"
             row.update(_child(["build", str(base / "inputs"), str(formula_xlsx)]))
             row.update(_child(["plain", str(base / "inputs"), str(plain_xlsx)]))
+            row.update(_child(["previous", str(base / "inputs"), str(formula_xlsx)]))
+            row.update(_child(["changes", str(formula_xlsx), str(base / "changes.csv")]))
+            row["previous_build_ratio"] = _ratio(row["previous_s"], row["build_s"])
             row["build_plain_ratio"] = _ratio(row["build_s"], row["plain_s"])
             row["render_plain_ratio"] = _ratio(row["render_s"], row["plain_s"])
             row["lo_recalc_s"] = row["lo_values_s"] = None
@@ -351,7 +379,9 @@ COLUMNS = [("size", "size", "d"), ("term rows", "st_rows", "d"), ("Terms rows", 
            ("build/plain", "build_plain_ratio", ".2f"), ("render/plain", "render_plain_ratio", ".2f"),
            ("peak MB", "peak_mb", ".0f"), ("LO recalc s", "lo_recalc_s", ".2f"),
            ("LO values-only s", "lo_values_s", ".2f"), ("recalc/values", "recalc_values_ratio", ".2f"),
-           ("file MB", "file_mb", ".2f")]
+           ("file MB", "file_mb", ".2f"), ("--previous s", "previous_s", ".2f"),
+           ("previous/build", "previous_build_ratio", ".2f"), ("changes s", "changes_s", ".2f"),
+           ("changes no values s", "changes_no_values_s", ".2f")]
 
 
 def report(results: list[dict], micro: dict | None) -> dict:
@@ -409,7 +439,8 @@ def main(argv: list[str] | None = None) -> int:
         if kind == "micro":
             out = child_micro(int(rest[0]))
         else:
-            out = {"build": child_build, "plain": child_plain}[kind](Path(rest[0]), Path(rest[1]))
+            out = {"build": child_build, "plain": child_plain, "previous": child_previous,
+                   "changes": child_changes}[kind](Path(rest[0]), Path(rest[1]))
         print(json.dumps(out))
         return 0
     sizes = sorted(int(s) for s in args.sizes.split(",") if s.strip())

@@ -1,15 +1,17 @@
-"""Exporting the changes a user settled on: the Actions sheet of an edited workbook, as rows.
+"""Exporting the changes a user settled on: the Actions list of an edited workbook, as rows.
 
-:func:`export_changes` reads the workbook the user edited and saved, takes the Actions
-sheet (title in row 1, counts in row 2, header in row 4, one change a row from row 5,
-blank Kind = an empty list row), checks each change, and writes the valid ones as CSV
-(every text cell escaped against formula injection, :mod:`sheetbuilder.csv_safe`) or as
-.xlsx (text always written as text). Inconsistent changes are reported with their
-Actions row, not written.
+:func:`export_changes` reads the workbook the user edited and saved and computes its change
+list from the inputs the workbook holds (the ``in_`` sheets with any corrections, the
+Settings, the typed Decisions and target ACoS overrides) with the same planning code that
+builds the workbook (:func:`sheetbuilder.pipeline.plan_workbook`): no formula engine, so a
+file saved without formula values reads as fast as one with them. The values the file saved
+are used only to find cells a user overwrote by hand (a formula on Actions replaced by a
+typed value), which are reported. Each change is checked and the valid ones are written as
+CSV (every text cell escaped against formula injection, :mod:`sheetbuilder.csv_safe`) or
+as .xlsx (text always written as text). Inconsistent changes and invalid Decisions are
+reported with their row, not written.
 
-The formulas' values are the ones the file stores. A file saved by a program that
-stores none (openpyxl, some converters) is recalculated with the `formulas` library,
-and the result says so.
+A workbook without our inputs (an Actions-shaped sheet alone) is read from its saved values.
 """
 from __future__ import annotations
 
@@ -20,28 +22,28 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from .csv_safe import write_csv
 from .atomic import atomic_output, scratch_dir
-from .plan_actions import HEADER_ROW as ACTIONS_HEADER_ROW, HEADERS
-from .render import render_rows
+from .columns import INVALID, NO_SAVED_VALUE
+from .csv_safe import write_csv
 from .errors import OutputExists, Problem, SheetbuilderError, UnsafeOutput
-from .guard import guard_saved_workbook, reading, text_problem
+from .guard import reading, text_problem
+from .plan_actions import HEADER_ROW as ACTIONS_HEADER_ROW, HEADERS, defs as action_defs
+from .render import render_rows
+from .carry import DECISION_SHEETS, PROFIT_TARGET, CarryResult, _text, edits_in
+from .pipeline import plan_workbook
+from .readers import Inputs
+from .saved import (ACTIONS_NAME, NotAWorkbook, SavedBook, WorkbookNotFound, named_area,  # noqa: F401 (re-exported)
+                    named_columns, saved_inputs, saved_settings)
 
 SHEET = "Actions"
 HEADER_ROW = ACTIONS_HEADER_ROW + 1  # 1-based, as a spreadsheet shows it
-FIRST_ROW = 5
-COLUMNS = ("kind", "campaign", "ad_group", "target_or_term", "match_type", "current", "new", "reason")
+FIRST_ROW = HEADER_ROW + 1
+# The CSV layout is the Actions list's visible columns, as plan_actions declares them.
+KEYS = tuple(d.key for d in action_defs(["0"] * 5) if not d.hidden)
+COLUMNS = tuple({"target": "target_or_term"}.get(k, k) for k in KEYS)
 KINDS = ("bid", "add keyword", "add product target", "add negative", "budget")
 ADDS = ("add keyword", "add product target")
 FORMATS = ("csv", "xlsx")
-
-
-class WorkbookNotFound(SheetbuilderError):
-    """The workbook to read does not exist."""
-
-
-class NotAWorkbook(SheetbuilderError):
-    """The file is not an .xlsx workbook that can be read."""
 
 
 class NoActionsSheet(SheetbuilderError):
@@ -56,9 +58,12 @@ class ChangesResult:
         output: the file written.
         written: the number of changes written.
         problems: one Problem per inconsistency (file 'Actions', its row, its column).
-        recalculated: True when the file held no formula values and was recalculated.
+        recalculated: always False: no formula engine is used (kept for callers that report it).
         refused: the Actions rows not written.
         rows: the rows written (columns as COLUMNS).
+        computed: True when the list was computed from the workbook's inputs (False: read from saved values).
+        overwritten: one Problem per Actions cell whose saved value differs from the computed one.
+        unchecked: True when the file stores no formula values, so overwritten cells could not be looked for.
     """
 
     output: Path
@@ -67,6 +72,9 @@ class ChangesResult:
     recalculated: bool = False
     refused: list[int] = field(default_factory=list)
     rows: list[list[Any]] = field(default_factory=list)
+    computed: bool = False
+    overwritten: list[Problem] = field(default_factory=list)
+    unchecked: bool = False
 
 
 def _is_number(value: Any) -> bool:
@@ -79,94 +87,174 @@ def _blank(value: Any) -> bool:
         isinstance(value, float) and math.isnan(value))
 
 
-def _load(path: Path, data_only: bool):
-    import openpyxl
-    import zipfile
-    from openpyxl.utils.exceptions import InvalidFileException
-    try:
-        return openpyxl.load_workbook(path, data_only=data_only)
-    except (zipfile.BadZipFile, InvalidFileException, KeyError, OSError, ValueError) as exc:
-        raise NotAWorkbook(f"{path} is not an .xlsx workbook that can be read: {exc}") from None
-
-
-def _named_value(wb, values, name: str) -> Any:
-    """The value of the cell a defined name points at, or None."""
-    if name not in wb.defined_names:
-        return None
-    for sheet, coord in wb.defined_names[name].destinations:
-        if sheet in wb.sheetnames:
-            return values(sheet, coord.replace("$", ""))
-    return None
-
-
-def _column_values(wb, sheet: str, header: str) -> set[str]:
+def _column_values(book: SavedBook, sheet: str, header: str) -> set[str]:
     """The texts of the column headed header (row 1) of sheet, or empty when absent."""
-    if sheet not in wb.sheetnames:
+    rows = book.rows(sheet)
+    if not rows:
         return set()
-    rows = wb[sheet].iter_rows(values_only=True)
-    head = [str(v).strip() if v is not None else "" for v in next(rows, ())]
+    head = [str(v).strip() if v is not None else "" for v in rows[0]]
     if header not in head:
         return set()
     i = head.index(header)
-    return {str(r[i]).strip() for r in rows if i < len(r) and not _blank(r[i])}
+    return {str(r[i]).strip() for r in rows[1:] if not _blank(r[i])}
 
 
-def read_actions(workbook: Path) -> tuple[list[tuple[int, list[Any]]], dict[str, Any], bool]:
-    """The Actions rows [(sheet row, 8 values)], the context for checks, and whether it was recalculated.
+def _context(book: SavedBook) -> dict[str, Any]:
+    """What the checks read besides a change: bid floor and ceiling, the campaigns in the exports."""
+    sheets = book.wb.sheetnames
+    return {
+        "bid_floor": book.named_value("bid_floor"),
+        "bid_ceiling": book.named_value("bid_ceiling"),
+        "campaigns": _column_values(book, "in_campaigns", "campaign") | _column_values(book, "in_ad_products", "campaign"),
+        "has_campaign_sheets": "in_campaigns" in sheets or "in_ad_products" in sheets,
+    }
+
+
+def _saved_actions(book: SavedBook, formulas: bool = False) -> list[tuple[int, list[Any]]]:
+    """[(sheet row, visible values)] of the Actions list as the file saved it (blank Kind = an empty row).
+
+    With formulas, a formula cell that stores no value reads as NO_SAVED_VALUE (a typed value reads as itself).
+    """
+    area = named_area(book.wb, ACTIONS_NAME)
+    first_col = area.first_col if area else 0
+    rows = book.rows(area.sheet if area else SHEET, frozenset(range(first_col, first_col + len(HEADERS))), formulas)
+    first_row = area.first_row if area else FIRST_ROW - 1
+    width = len(HEADERS)
+    header = [rows[first_row - 1][first_col + i] if first_row - 1 < len(rows) and first_col + i < len(
+        rows[first_row - 1]) else None for i in range(width)]
+    got = tuple("" if h is None else str(h).strip() for h in header)
+    if area is None and got != HEADERS:
+        raise NoActionsSheet(f"{book.path.name}: the {SHEET} sheet's row {HEADER_ROW} should read "
+                             f"{', '.join(HEADERS)}; it reads {', '.join(got)}")
+    last = area.last_row if area else len(rows) - 1
+    return [(r + 1, [rows[r][first_col + i] if first_col + i < len(rows[r]) else None for i in range(width)])
+            for r in range(first_row, min(last, len(rows) - 1) + 1)]
+
+
+def _computed_actions(book: SavedBook) -> tuple[list[tuple[int, list[Any]]], list[Problem]]:
+    """[(sheet row, visible values)] of the change list computed from the workbook's inputs, and input problems."""
+    tables, problems = saved_inputs(book)
+    settings, built_on, setting_problems = saved_settings(book)
+    problems += [Problem("Settings", None, p.column, p.message) for p in setting_problems]
+    edits = edits_in(book)
+    fold = settings.fold_plurals
+    decisions: dict[str, dict] = {}
+    for entry in DECISION_SHEETS:
+        for parts, value in edits.decisions.get(entry.label, {}).items():
+            decisions.setdefault(entry.label, {})[entry.key_of(parts, fold)] = value
+            why = entry.decl.problem(value)
+            if why is not None:
+                problems.append(Problem(entry.sheet, None, entry.value_header,
+                                        f"{' / '.join(_text(p) for p in parts)}: {why}; the change is not written"))
+    targets: dict[str, float] = {}
+    for pid, value in edits.targets.items():
+        if isinstance(value, numbers.Real) and not isinstance(value, bool):
+            targets[pid] = float(value)
+        else:
+            problems.append(Problem(PROFIT_TARGET.sheet, None, PROFIT_TARGET.value_header,
+                                    f"{pid}: {value!r} is not a target ACoS; the product's other target is used"))
+    for label, why in edits.lost:
+        problems.append(Problem(label, None, "Decision", why))
+    carry = CarryResult(settings, targets=targets, decisions=decisions, source=str(book.path), inputs_as_saved=True)
+    inputs = Inputs(dict(tables))
+    plan = plan_workbook(inputs, settings, built_on, [], carry)
+    frame = plan.tables["Actions"].frame
+    rows = []
+    for i, record in enumerate(frame[list(KEYS)].itertuples(index=False, name=None)):
+        if not _blank(record[0]):
+            rows.append((FIRST_ROW + i, list(record)))
+    return rows, problems, plan.tables, fold
+
+
+def _overwritten_results(book: SavedBook, tables: dict, fold: bool) -> list[Problem]:
+    """A Problem per Final cell on Bids, Terms or Budget whose saved value is not what its formula gives."""
+    out = []
+    for entry in DECISION_SHEETS:
+        decl = entry.decl
+        planned = tables.get(decl.table)
+        wanted = (*decl.keys, decl.result)
+        areas = named_columns(book.wb, {k: decl.name_of(k) for k in wanted}) if decl.result else None
+        if planned is None or areas is None:
+            continue
+        computed = {entry.key_of(parts, fold): value for *parts, value in
+                    planned.frame[list(wanted)].itertuples(index=False, name=None)}
+        first = next(iter(areas.values())).first_row
+        rows = book.rows(areas[decl.result].sheet, frozenset(a.first_col for a in areas.values()))
+        for r in range(first, min(areas[decl.result].last_row, len(rows) - 1) + 1):
+            parts = [rows[r][areas[k].first_col] for k in decl.keys]
+            got = rows[r][areas[decl.result].first_col]
+            key = entry.key_of(parts, fold)
+            if key in computed and not _blank(got) and not _same_value(computed[key], got):
+                out.append(Problem(decl.sheet, r + 1, decl.result_header or decl.result,
+                                   f"holds {got!r} where its formula gives {computed[key]!r}: a formula was typed "
+                                   "over by hand; the exported list uses the formula's value (type your decision "
+                                   "in Decision instead)"))
+    return out
+
+
+def _same_value(a: Any, b: Any) -> bool:
+    if _blank(a) and _blank(b):
+        return True
+    if _is_number(a) and _is_number(b):
+        return math.isclose(float(a), float(b), rel_tol=1e-9, abs_tol=1e-9)
+    return a == b
+
+
+def _overwritten(saved: list[tuple[int, list[Any]]], computed: list[tuple[int, list[Any]]]) -> list[Problem]:
+    """A Problem per saved Actions cell whose value is not the computed one (a formula typed over by hand)."""
+    want = dict(computed)
+    out = []
+    for r, values in saved:
+        expected = want.get(r, [None] * len(values))
+        for header, got, exp in zip(HEADERS, values, expected):
+            if not _same_value(exp, got):
+                out.append(Problem(SHEET, r, header, f"holds {got!r} where the workbook's own change list has "
+                                                     f"{'blank' if _blank(exp) else repr(exp)}: a formula was "
+                                                     "overwritten by hand; the exported list uses the computed "
+                                                     "change (type your decision in a Decision column instead)"))
+    return out
+
+
+def _typed_over(saved: list[tuple[int, list[Any]]]) -> list[Problem]:
+    """A Problem per Actions cell holding a typed value where the build wrote a formula (a file with no saved values)."""
+    return [Problem(SHEET, r, header, f"holds {got!r} where the workbook has a formula: it was typed over by hand; "
+                                      "the exported list uses the computed change (type your decision in a Decision "
+                                      "column instead)")
+            for r, values in saved for header, got in zip(HEADERS, values)
+            if got is not NO_SAVED_VALUE and not _blank(got)]
+
+
+def read_actions(workbook: Path) -> tuple[list[tuple[int, list[Any]]], dict[str, Any], dict[str, Any]]:
+    """The change rows [(sheet row, visible values)], the context for checks, and what was noticed.
 
     Raises:
         WorkbookNotFound, NotAWorkbook, NoActionsSheet.
     """
-    workbook = Path(workbook)
-    if not workbook.is_file():
-        raise WorkbookNotFound(f"the workbook {workbook} does not exist")
-    guard_saved_workbook(workbook, NotAWorkbook)
-    formulas_wb = _load(workbook, data_only=False)
-    if SHEET not in formulas_wb.sheetnames:
-        raise NoActionsSheet(f"{workbook.name} has no {SHEET} sheet; build it with a sheetbuilder that writes one")
-    cached_wb = _load(workbook, data_only=True)
-    ws, cached = formulas_wb[SHEET], cached_wb[SHEET]
-    formula_cells = [c.coordinate for row in ws.iter_rows() for c in row if c.data_type == "f"]
-    has_cache = any(cached[c].value is not None for c in formula_cells)
-    recalculated = bool(formula_cells) and not has_cache
-    solved: dict = {}
-    if recalculated:
-        from .recalc import formulas_values
-        solved = formulas_values(workbook)
-
-    def value(sheet: str, coord: str) -> Any:
-        cell = formulas_wb[sheet][coord]
-        if cell.data_type != "f":
-            return cell.value
-        if recalculated:
-            v = solved.get((sheet.upper(), coord.upper()), "")
-            return None if v == "" else v
-        return cached_wb[sheet][coord].value
-
-    header = [value(SHEET, f"{chr(65 + i)}{HEADER_ROW}") for i in range(len(HEADERS))]
-    got = tuple("" if h is None else str(h).strip() for h in header)
-    if got != HEADERS:
-        raise NoActionsSheet(f"{workbook.name}: the {SHEET} sheet's row {HEADER_ROW} should read "
-                             f"{', '.join(HEADERS)}; it reads {', '.join(got)}")
-    rows = []
-    for r in range(FIRST_ROW, ws.max_row + 1):
-        values = [value(SHEET, f"{chr(65 + i)}{r}") for i in range(len(HEADERS))]
-        if _blank(values[0]):
-            continue
-        rows.append((r, values))
-    context = {
-        "bid_floor": _named_value(formulas_wb, value, "bid_floor"),
-        "bid_ceiling": _named_value(formulas_wb, value, "bid_ceiling"),
-        "campaigns": _column_values(formulas_wb, "in_campaigns", "campaign")
-        | _column_values(formulas_wb, "in_ad_products", "campaign"),
-        "has_campaign_sheets": "in_campaigns" in formulas_wb.sheetnames or "in_ad_products" in formulas_wb.sheetnames,
-    }
-    return rows, context, recalculated
+    with SavedBook(Path(workbook)) as book:
+        if SHEET not in book.wb.sheetnames:
+            raise NoActionsSheet(f"{book.path.name} has no {SHEET} sheet; build it with a sheetbuilder that writes one")
+        context = _context(book)
+        saved = _saved_actions(book)
+        notes: dict[str, Any] = {"computed": False, "problems": [], "overwritten": [], "unchecked": False}
+        if "in_catalog" not in book.wb.sheetnames or "Settings" not in book.wb.sheetnames:
+            if saved and all(_blank(v) for _, values in saved for v in values):
+                raise NoActionsSheet(f"{book.path.name} stores no values on {SHEET} and holds no inputs to "
+                                     "compute them from; open and save it in a spreadsheet program first")
+            return [(r, v) for r, v in saved if not _blank(v[0])], context, notes
+        computed, problems, tables, fold = _computed_actions(book)
+        notes.update(computed=True, problems=problems)
+        if all(_blank(values[0]) for _, values in saved):
+            notes["unchecked"] = bool(computed)  # no saved values: a program that drops them saved it
+            notes["overwritten"] = _typed_over(_saved_actions(book, formulas=True))
+        else:
+            notes["overwritten"] = _overwritten(saved, computed) + _overwritten_results(book, tables, fold)
+        return computed, context, notes
 
 
 def check_change(row: int, values: list[Any], context: dict[str, Any]) -> list[Problem]:
     """The problems of one change (none when it can be written)."""
-    kind, campaign, group, term, _match, _current, new, _reason = values
+    named = dict(zip(KEYS, values))
+    kind, campaign, group, term, new = (named.get(k) for k in ("kind", "campaign", "ad_group", "target", "new"))
     kind = str(kind).strip().lower()
     out: list[Problem] = []
 
@@ -177,7 +265,10 @@ def check_change(row: int, values: list[Any], context: dict[str, Any]) -> list[P
         bad("Kind", f"unknown kind {values[0]!r}; expected one of {', '.join(KINDS)}")
         return out
     if kind in ("bid", "budget"):
-        if not _is_number(new) or new <= 0:
+        if new == INVALID:
+            bad("New", f"the {kind}'s Decision is not a valid word or number (its Final shows {INVALID}); "
+                       "correct or clear it")
+        elif not _is_number(new) or new <= 0:
             bad("New", f"a {kind} needs a positive number in New, got {'blank' if _blank(new) else repr(new)}")
         elif kind == "bid":
             floor, ceiling = context.get("bid_floor"), context.get("bid_ceiling")
@@ -244,8 +335,8 @@ def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool =
     workbook, output = Path(workbook), Path(output)
     _check_output(workbook, output, fmt, force)
     with reading(workbook, NotAWorkbook):
-        rows, context, recalculated = read_actions(workbook)
-    problems: list[Problem] = []
+        rows, context, notes = read_actions(workbook)
+    problems: list[Problem] = list(notes["problems"]) + list(notes["overwritten"])
     refused: list[int] = []
     kept: list[list[Any]] = []
     for r, values in rows:
@@ -262,4 +353,5 @@ def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool =
         write_csv(output, COLUMNS, kept, force=force)
     else:
         write_xlsx(output, list(COLUMNS), kept, force=force)
-    return ChangesResult(output, len(kept), problems, recalculated, refused, kept)
+    return ChangesResult(output, len(kept), problems, False, refused, kept, notes["computed"],
+                         notes["overwritten"], notes["unchecked"])

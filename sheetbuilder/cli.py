@@ -140,11 +140,13 @@ def _build(args: argparse.Namespace, console: Console) -> int:
 def _changes(args: argparse.Namespace, console: Console) -> int:
     """Export the Actions sheet's changes; list every refused one with its row."""
     result = export_changes(args.workbook, args.output, fmt=args.format, force=args.force)
-    if result.recalculated:
-        console.print(f"{args.workbook} held no formula values (saved by a program that does not store them); "
-                      "recalculated them with the formulas library")
+    if result.unchecked:
+        console.print(f"{args.workbook} stores no formula values (saved by a program that does not store them): "
+                      "the change list was computed from its inputs, but cells typed over a formula could not "
+                      "be looked for")
     if result.problems:
-        console.print(f"[bold]{len(result.refused)} change(s) refused, not written:[/bold]")
+        console.print(f"[bold]{len(result.refused)} change(s) refused, not written; "
+                      f"{len(result.overwritten)} cell(s) typed over a formula; other problems below:[/bold]")
         print_problems(console, result.problems)
     console.print(f"wrote {result.written} change(s) to {result.output}")
     return EXIT_SOME_REFUSED if result.problems else 0

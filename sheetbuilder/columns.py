@@ -8,7 +8,7 @@ they cannot drift apart unnoticed, and adding a column is one entry.
 from __future__ import annotations
 
 import re
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any, Callable
 
 import numpy as np
@@ -52,6 +52,77 @@ class ColumnDef:
     total_reference: Reference | None = None
 
 
+@dataclass(frozen=True)
+class EditableColumns:
+    """A table's typed column and the key columns that identify its rows: declared once, by its planner.
+
+    ``carry`` (--previous), ``changes`` and the tests read a saved workbook through this
+    declaration: each column is found by the workbook-level defined name ``<name>_<key>``
+    over its body (spreadsheet programs keep a name on its cells when a header is renamed,
+    a column inserted or the rows sorted), and by its header text only when the name is gone.
+
+    Args:
+        label: what its edits are kept under (a sheet, or a sheet and its block).
+        sheet: the sheet the table is on.
+        table: the table's key in the plan's tables.
+        name: prefix of the defined names over its columns.
+        keys: the column keys identifying a row, in key order.
+        value: the typed column's key.
+        headers: {key: header text as built} for keys and value.
+        inputs: the input tables whose rows make a key exist (any of them).
+        input_columns: those tables' columns matching keys, in key order.
+        normalised: keys compared as the sheet compares search terms (normalise()).
+        numeric: what a typed number means ('bid', 'spend', 'budget', 'target'); '' when only words are valid.
+        words: the valid typed words ('keep', 'skip', ...).
+        current: the planned frame's column holding today's value a typed number replaces.
+        input_current: the input tables' column holding that value (summed over a key's rows).
+        result: the formula column showing what the typed value decides ('' when none); named too, so
+            ``changes`` can report a result typed over by hand.
+    """
+
+    label: str
+    sheet: str
+    table: str
+    name: str
+    keys: tuple[str, ...]
+    value: str
+    headers: dict
+    inputs: tuple[str, ...]
+    input_columns: tuple[str, ...]
+    normalised: tuple[str, ...] = ()
+    numeric: str = ""
+    words: tuple[str, ...] = ()
+    current: str = ""
+    input_current: str = ""
+    result: str = "final"
+    result_header: str = ""
+
+    def problem(self, value: Any) -> str | None:
+        """Why a typed value is not valid here (None when it is, or is blank)."""
+        return decision_problem(value, self.words, bool(self.numeric))
+
+    def name_of(self, key: str) -> str:
+        """The defined name over a column's body."""
+        return f"{self.name}_{key}"
+
+    def defined_names(self, planned: "PlannedTable") -> list[tuple[str, str]]:
+        """(defined name, '=range') over each key column and the typed column of the planned table."""
+        ranges = planned.ranges(self.sheet, self.name)
+        named = (*self.keys, self.value, *((self.result,) if self.result else ()))
+        return [(self.name_of(k), "=" + ranges[f"{self.name}.{k}"]) for k in named]
+
+
+def editable(defs: list["ColumnDef"], label: str, sheet: str, name: str, keys: tuple[str, ...], value: str,
+             inputs: tuple[str, ...], input_columns: tuple[str, ...] | None = None, table: str | None = None,
+             **options: Any) -> EditableColumns:
+    """The EditableColumns of a table planned from defs (headers taken from the defs)."""
+    headers = {d.key: d.header for d in defs if d.key in (*keys, value)}  # the typed column and its keys
+    results = {d.key: d.header for d in defs if d.key == options.get("result", "final")}
+    decl = EditableColumns(label, sheet, table or label, name, tuple(keys), value, headers, tuple(inputs),
+                           tuple(input_columns or keys), **options)
+    return replace(decl, result_header=results.get(decl.result, ""))
+
+
 def blank_div(num: Any, den: Any) -> Any:
     """num / den, NaN (a blank cell) where den is 0, as the formulas write IF(den=0,"",num/den)."""
     if np.ndim(num) == 0 and np.ndim(den) == 0:
@@ -64,29 +135,101 @@ def blank_div(num: Any, den: Any) -> Any:
     return pd.Series(out, index=index)
 
 
+INVALID = "invalid"  # what a Final column shows for a Decision that is not a valid word or number
+# Error values as a spreadsheet program saves them in a cell (openpyxl reads them as this text).
+ERROR_TEXTS = frozenset({"#NULL!", "#DIV/0!", "#VALUE!", "#REF!", "#NAME?", "#NUM!", "#N/A", "#GETTING_DATA"})
+
+
+class NoSavedValue:
+    """A typed cell holding a formula whose value the file does not store (saved by a program that drops them)."""
+
+    def __repr__(self) -> str:
+        return "a formula with no saved value"
+
+
+NO_SAVED_VALUE = NoSavedValue()
+
+
+def is_blank(value: Any) -> bool:
+    """Whether a cell value is blank: None, NaN or empty text."""
+    return value is None or (isinstance(value, str) and value == "") or (isinstance(value, float) and np.isnan(value))
+
+
+def is_number(value: Any) -> bool:
+    """Whether a cell value is a number (not a bool, not NaN)."""
+    return isinstance(value, (int, float, np.integer, np.floating)) and not isinstance(value, bool) and not np.isnan(value)
+
+
+def decision_problem(value: Any, words: tuple[str, ...], numeric: bool) -> str | None:
+    """Why a typed Decision is not valid (None when it is, or is blank).
+
+    Valid: one of words (case ignored, as spreadsheet comparison ignores it), or any number
+    when numeric. Never valid: a formula error, a formula with no saved value, other text.
+    """
+    if is_blank(value):
+        return None
+    if value is NO_SAVED_VALUE:
+        return "the cell holds a formula with no saved value; type the value itself"
+    if isinstance(value, str) and value.strip() in ERROR_TEXTS:
+        return f"the cell holds a formula error ({value.strip()}); type the value itself"
+    if is_number(value):
+        return None if numeric else f"a number is not a decision here; expected one of {', '.join(words)}"
+    if isinstance(value, str) and value.lower() in words:
+        return None
+    expected = ("a number or " if numeric else "") + " or ".join(repr(w) for w in words)
+    return f"{str(value)!r} is not a valid decision; expected {expected}"
+
+
 def apply_decision(df: pd.DataFrame, proposed: str, current: str) -> pd.Series:
     """Reference of a Final column: blank Decision follows proposed, a number is used, 'keep' keeps current.
 
-    The formula it mirrors: IF(decision="",proposed,IF(ISNUMBER(decision),decision,
-    IF(decision="keep",current,proposed))).
+    Anything else (other text, a formula error) is shown as 'invalid', never as the proposal.
+    The formula it mirrors: see :func:`decision_formula`.
     """
     out = []
     for d, p, c in zip(df["decision"], df[proposed], df[current]):
-        if d is None or (isinstance(d, float) and np.isnan(d)) or d == "":
-            out.append(p)
-        elif isinstance(d, (int, float)) and not isinstance(d, bool):
+        if is_blank(d):
+            out.append(float(p))
+        elif decision_problem(d, ("keep",), True) is not None:
+            out.append(INVALID)
+        elif is_number(d):
             out.append(float(d))
-        elif str(d).strip().lower() == "keep":
-            out.append(c)
         else:
-            out.append(p)
-    return pd.Series(out, index=df.index, dtype=float)
+            out.append(float(c))
+    return pd.Series(out, index=df.index, dtype=object if INVALID in out else float)
+
+
+# LEN of an error value is an error, so IFERROR(LEN(d),-1)=-1 is true exactly when the Decision holds one.
+_ERROR_TEST = "IFERROR(LEN({c:decision}),-1)=-1"
 
 
 def decision_formula(proposed: str, current: str) -> str:
     """The formula of a Final column (see apply_decision)."""
-    return ('=IF({c:decision}="",{c:%s},IF(ISNUMBER({c:decision}),{c:decision},IF({c:decision}="keep",{c:%s},'
-            '{c:%s})))' % (proposed, current, proposed))
+    return ('=IF(%s,"%s",IF({c:decision}="",{c:%s},IF(ISNUMBER({c:decision}),{c:decision},'
+            'IF({c:decision}="keep",{c:%s},"%s"))))' % (_ERROR_TEST, INVALID, proposed, current, INVALID))
+
+
+def apply_word_decision(df: pd.DataFrame, fallback: str, words: tuple[str, ...]) -> pd.Series:
+    """Reference of a Final column of words: blank Decision follows fallback, a valid word is used (lower case).
+
+    Anything else shows 'invalid'. The formula it mirrors: :func:`word_decision_formula`.
+    """
+    out = []
+    for d, f in zip(df["decision"], df[fallback]):
+        if is_blank(d):
+            out.append(f)
+        elif decision_problem(d, words, False) is not None:
+            out.append(INVALID)
+        else:
+            out.append(str(d).lower())
+    return pd.Series(out, index=df.index, dtype=object)
+
+
+def word_decision_formula(fallback: str, words: tuple[str, ...]) -> str:
+    """The formula of a Final column of words (see apply_word_decision)."""
+    valid = ",".join('{c:decision}="%s"' % w for w in words)
+    return ('=IF(%s,"%s",IF({c:decision}="",{c:%s},IF(ISNUMBER({c:decision}),"%s",IF(OR(%s),LOWER({c:decision}),'
+            '"%s"))))' % (_ERROR_TEST, INVALID, fallback, INVALID, valid, INVALID))
 
 
 def running_key(prefix: str, what: str, condition: str, qualifies: Callable[[pd.DataFrame], pd.Series],
@@ -169,6 +312,12 @@ class PlannedTable:
     totals_values: dict[str, Any]
     letters: dict[str, str]
     first_body_row: int = 0
+
+    def body_range(self, sheet: str) -> str:
+        """The absolute range of the whole body, every column (one row when it has none)."""
+        last = self.first_body_row + max(len(self.frame), 1)
+        letters = list(self.letters.values())
+        return f"{quote_sheet(sheet)}!${letters[0]}${self.first_body_row + 1}:${letters[-1]}${last}"
 
     def ranges(self, sheet: str, prefix: str) -> dict[str, str]:
         """{'prefix.key': absolute body range} and {'prefix_total.key': totals cell} for other sheets' formulas."""

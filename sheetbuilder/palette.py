@@ -36,6 +36,8 @@ _BASE = {"font_name": "Arial", "font_size": 10, "valign": "top"}
 _INPUT = {"bg_color": INPUT_FILL, "font_color": INPUT_FONT, "border": 4, "border_color": "#A08A4A",
           "locked": False}
 _TOTAL = {"bold": True, "top": 1}
+CARRIED_FILL = "#F8D7B0"  # an input carried from last week's workbook: its own fill, so it is seen
+_CARRIED = {**_INPUT, "bg_color": CARRIED_FILL, "italic": True}
 
 NUMBER_FORMATS = {
     "text": None,
@@ -62,6 +64,7 @@ for _name, _fmt in NUMBER_FORMATS.items():
     _num = {"num_format": _fmt} if _fmt else {}
     STYLES[_name] = dict(_num)
     STYLES[_name + "_input"] = {**_num, **_INPUT}
+    STYLES[_name + "_carried"] = {**_num, **_CARRIED}
     STYLES[_name + "_total"] = {**_num, **_TOTAL}
     STYLES[_name + "_left"] = {**_num, "align": "left", "bold": True}
 for _state in STATES.values():

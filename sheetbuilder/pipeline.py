@@ -14,21 +14,23 @@ from .plan_bids import DEFS as BIDS_DEFS, plan_bids
 from .plan_groups import DEFS as GROUPS_DEFS, plan_groups
 from .atomic import atomic_output, refuse_input_as_output, scratch_dir
 from .guard import reading
-from .carry import CarryResult, PreviousWorkbookUnreadable, apply_edits, carried_catalog, decision_column, read_edits
+from .carry import (PROFIT_TARGET, CarryResult, PreviousWorkbookUnreadable, apply_edits, carried_catalog,
+                    decision_column, entry_for, read_edits)
 from .plan_actions import defs as ACTION_DEFS, plan_actions
 from .plan_dashboard import Figure, dashboard
-from .plan_unmatched import plan_unmatched
+from .plan_unmatched import plan_carried, plan_unmatched
 from .plan_guide import plan_guide
 from .plan_budget import CAMPAIGN_DEFS, PRODUCT_DEFS as BUDGET_DEFS, plan_budget
 from .plan_lists import HARVEST, NEGATIVES, plan_list
 from .plan_mix import MATCH_DEFS, TYPE_DEFS as MIX_DEFS, plan_mix
 from .plan_terms import _defs as TERMS_DEFS, plan_terms
-from .plan_inputs import plan_input_sheets
+from .plan_inputs import catalog_names, plan_input_sheets
 from .plan_profit import DEFS as PROFIT_DEFS, plan_profit
 from .plan_settings import plan_settings
 from .periods import settings_for_inputs
 from .readers import Inputs, read_inputs
 from .render import Progress, render
+from .saved import ACTIONS_NAME, EDITABLE_TABLES, PROFIT
 from .settings import SETTINGS_FILE, Settings, load_settings
 from .spec import WorkbookSpec
 
@@ -66,8 +68,10 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
     Returns:
         The plan: the workbook spec and each computed table's reference frame.
     """
-    input_sheets, layouts = plan_input_sheets(inputs, settings.fold_plurals)
-    settings_sheet, names = plan_settings(settings, built_on, inputs.period)
+    exported = carry.exported if carry is not None else {}
+    input_sheets, layouts = plan_input_sheets(inputs, settings.fold_plurals, exported)
+    settings_sheet, names = plan_settings(settings, built_on, inputs.period,
+                                          carry.as_built if carry is not None else None)
     decide = Decisions(carry)
     profit_sheet, profit = plan_profit(inputs, layouts, settings, built_on, decide.targets)
     tables = {"Profit": profit}
@@ -135,8 +139,58 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
     guide = plan_guide(settings, built_on, sections, warnings or [], inputs.checksums, sources, figures)
     if carry is not None and carry.unmatched:
         sheets.append(plan_unmatched(carry))
+    if carry is not None and (carry.carried or carry.applied):
+        carried_sheet, carried_names = plan_carried(carry)
+        sheets.append(carried_sheet)
+        names = [*names, *carried_names]
+        mark_carried(carry, tables, input_sheets, layouts)
+    names = [*names, *catalog_names(layouts), *edit_names(tables)]
     spec = WorkbookSpec([guide, *sheets, *input_sheets], names, settings.currency_symbol)
     return Plan(spec, tables)
+
+
+def _note(record, source: str) -> str:
+    """The note on a carried cell: where it came from and when it was first typed."""
+    first = f"; first typed in the workbook built {record.first_typed}" if record.first_typed else ""
+    return (f"Carried from {source}{first}. A word stays until you clear it; a typed number expires once "
+            "the export shows it applied.")
+
+
+def mark_carried(carry: CarryResult, tables: dict[str, PlannedTable], input_sheets: list, layouts: dict) -> None:
+    """Shade every carried cell with its own input style and give it a note (typed columns and in_catalog)."""
+    source = Path(carry.source).name if carry.source else "the previous workbook"
+    records = {(r.sheet, r.compared): r for r in carry.carried if r.compared}
+    fold = carry.settings.fold_plurals
+    for decl in EDITABLE_TABLES:
+        planned = tables.get(decl.table)
+        if planned is None:
+            continue
+        column = planned.columns[list(planned.letters).index(decl.value)]
+        entry = entry_for(decl.label) if decl.label != PROFIT.label else PROFIT_TARGET
+        keys = planned.frame[list(decl.keys)].itertuples(index=False, name=None)
+        for i, parts in enumerate(keys):
+            record = records.get((decl.label, entry.export_key(parts, fold)))
+            if record is not None:
+                column.cell_styles[i] = column.style.split("_")[0] + "_carried"
+                column.notes[i] = _note(record, source)
+    catalog = next((s for s in input_sheets if s.name == "in_catalog"), None)
+    if catalog is None or "catalog" not in layouts:
+        return
+    row_of = {str(p): i for i, p in enumerate(layouts["catalog"].frame["product_id"])}
+    by_header = {c.header: c for c in catalog.table.columns}
+    for r in carry.carried:
+        if r.sheet == "in_catalog" and r.key in row_of and r.column in by_header:
+            column = by_header[r.column]
+            column.cell_styles[row_of[r.key]] = column.style.split("_")[0] + "_carried"
+            column.notes[row_of[r.key]] = _note(r, source)
+
+
+def edit_names(tables: dict[str, PlannedTable]) -> list[tuple[str, str]]:
+    """Defined names over every typed column and its keys, and over the Actions list (see saved.py)."""
+    out = [n for decl in EDITABLE_TABLES if decl.table in tables for n in decl.defined_names(tables[decl.table])]
+    if "Actions" in tables:
+        out.append((ACTIONS_NAME, "=" + tables["Actions"].body_range("Actions")))
+    return out
 
 
 class Decisions:
@@ -230,6 +284,7 @@ def build(folder: Path, output: Path, force: bool = False, built_on: dt.date | N
             edits = read_edits(Path(previous))
         carry = apply_edits(edits, inputs.tables, settings)
         settings = carry.settings
+        carry.exported["catalog"] = inputs.tables["catalog"]  # in_catalog records the export, not the carry
         inputs.tables["catalog"] = carried_catalog(inputs.tables["catalog"], carry)
     warnings = [p for p in problems if p.severity == WARNING]
     plan = plan_workbook(inputs, settings, built_on or dt.date.today(), warnings, carry)

@@ -58,7 +58,8 @@ def _ref(key: str):
 def _num(key: str):
     def compute(df: pd.DataFrame, ctx: ActionsContext) -> pd.Series:
         values = [ctx.changes[int(k) - 1].get(key, np.nan) if k <= len(ctx.changes) else np.nan for k in df["k"]]
-        return pd.Series([np.nan if v == "" else v for v in values], index=df.index, dtype=float)
+        values = [np.nan if v == "" else v for v in values]  # text only where a Final shows 'invalid'
+        return pd.Series(values, index=df.index, dtype=object if any(isinstance(v, str) for v in values) else float)
     return compute
 
 

@@ -26,7 +26,7 @@ import numpy as np
 import pandas as pd
 
 from .blends import attach_groups, group_columns, target_acos_column, zero_order_column
-from .columns import (ColumnDef, PlannedTable, apply_decision, blank_div, decision_formula, plan_table,
+from .columns import (ColumnDef, PlannedTable, apply_decision, blank_div, decision_formula, editable, plan_table,
                       running_key)
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
@@ -217,6 +217,11 @@ DEFS: list[ColumnDef] = [
               _raw, '=CHOOSE({c:rule},{c:bid},{c:bid}*(1-max_bid_cut),{c:bid},{c:bid},{c:bid},{c:value_bid},'
                     '{c:value_bid},{c:bid},{c:bid}*(1+max_bid_raise),{c:bid}*(1-max_bid_cut))', width=9, hidden=True),
 ]
+
+# What a user types on Bids and the keys that find its row again (carry, changes and the tests read these).
+EDITABLE_COLUMNS = editable(DEFS, "Bids", SHEET, "sb_bids", ("campaign", "ad_group", "target", "match_type"),
+                            "decision", ("targets",), numeric="bid", words=("keep",), current="bid",
+                            input_current="bid")
 
 
 def target_frame(targets: InputSheet, campaigns: pd.DataFrame | None, groups: pd.DataFrame) -> pd.DataFrame:

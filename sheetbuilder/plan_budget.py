@@ -17,7 +17,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .columns import ColumnDef, PlannedTable, apply_decision, decision_formula, plan_table, running_key
+from .columns import ColumnDef, PlannedTable, apply_decision, decision_formula, editable, plan_table, running_key
 from .formula import col_letter, quote_sheet
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
@@ -82,7 +82,8 @@ PRODUCT_DEFS: list[ColumnDef] = [
               lambda df, ctx: df["decision"], kind=INPUT, width=10),
     ColumnDef("final", "Final spend", "money", "The Decision if given, else the proposal.",
               lambda df, ctx: apply_decision(df, "proposed", "spend"), decision_formula("proposed", "spend"),
-              width=12, total="={sum:final}", total_reference=lambda df, ctx: float(df["final"].sum())),
+              width=12, total="={sum:final}",
+              total_reference=lambda df, ctx: float(pd.to_numeric(df["final"], errors="coerce").sum())),
     ColumnDef("cut_spend", "Spend to cut", "money", "Helper: the spend of a product to cut.",
               lambda df, ctx: df["spend"].where(df["direction"] == "cut", 0.0),
               '=IF({c:direction}="cut",{c:spend},0)', width=8, hidden=True, total="={sum:cut_spend}",
@@ -92,8 +93,8 @@ PRODUCT_DEFS: list[ColumnDef] = [
               '=IF({c:direction}="grow",{c:revenue},0)', width=8, hidden=True, total="={sum:grow_rev}",
               total_reference=lambda df, ctx: float(df["grow_rev"].sum())),
     ColumnDef("ratio", "Final / current", "ratio", "Working: the spend change campaigns follow (1 without spend).",
-              lambda df, ctx: (df["final"] / df["spend"].where(df["spend"] != 0)).fillna(1.0),
-              '=IF({c:spend}=0,1,{c:final}/{c:spend})', width=8, hidden=True),
+              lambda df, ctx: (pd.to_numeric(df["final"], errors="coerce") / df["spend"].where(df["spend"] != 0))
+              .fillna(1.0), '=IF({c:spend}=0,1,IF(ISNUMBER({c:final}),{c:final}/{c:spend},1))', width=8, hidden=True),
     ColumnDef("prow", "Profit row", "int", "Helper: the product's position on Profit.", lambda df, ctx: df["prow"],
               kind=DATA, width=6, hidden=True),
 ]
@@ -161,6 +162,14 @@ LINK_DEFS: list[ColumnDef] = [
     ColumnDef("weighted", "Spend x change", "ratio", "Ad spend x spend change.",
               lambda df, ctx: df["spend"] * df["ratio"], "={c:spend}*{c:ratio}", width=10),
 ]
+
+# What a user types on Budget (products, then campaigns) and the keys that find its row again.
+EDITABLE_COLUMNS = editable(PRODUCT_DEFS, "Budget", SHEET, "sb_budget", ("product_id",), "decision",
+                            ("catalog", "store_sales", "ad_products"), table="Budget products", numeric="spend",
+                            words=("keep",), current="spend", input_current="spend")
+CAMPAIGN_EDITABLE_COLUMNS = editable(CAMPAIGN_DEFS, "Budget campaigns", SHEET, "sb_budget_campaigns", ("campaign",),
+                                     "decision", ("campaigns",), numeric="budget", words=("keep",), current="budget",
+                                     input_current="daily_budget")
 
 
 def _ranges(defs: list[ColumnDef], prefix: str, first_body_row: int, n: int) -> dict[str, str]:

@@ -35,6 +35,25 @@ SHEETS_TEXT = [
     ("Keys", "A lookup table: existing exact keywords and negatives, by number (the Terms sheet looks them up)."),
     ("in_ sheets", "The rows of your exports as read, sorted by product. Catalog prices, costs, fees, "
                    "margins and target ACoS are inputs you may correct there."),
+    ("Carried edits", "Built with --previous: every value carried from last week's workbook (sheet, key, the "
+                      "export's value, your value, the week you first typed it) and every typed number that "
+                      "expired because the export shows it applied."),
+    ("Unmatched edits", "Built with --previous: every value typed last week that could not be carried (its row "
+                        "is gone, or it is not a valid word or number), with the reason."),
+]
+
+DECISIONS_TEXT = [
+    "Words (keep, skip, promote, block, watch) are standing instructions: they are carried into every "
+    "rebuild with --previous until you clear the cell.",
+    "A typed number (a bid, a spend, a budget) is a one-off: once a week's export shows it applied (the current "
+    "value equals it to the cent) it expires, the cell is left blank and Carried edits lists it as applied; "
+    "until then it is carried and its note says so.",
+    "A corrected cost on in_catalog, a changed setting and 'Your target ACoS' are carried until you type the "
+    "export's (or settings.toml's) value back, or the export itself changes to your value.",
+    "Carried cells are shaded orange, in italics, with a note saying where they came from.",
+    "A Decision that is not a valid word or number (other text, a formula error) shows 'invalid' in its Final "
+    "column and is never replaced by the proposal; the changes command refuses it with the reason and "
+    "--previous lists it on Unmatched edits.",
 ]
 
 STEPS = [
@@ -46,7 +65,8 @@ STEPS = [
     "6. On Terms, check the verdicts; Harvest lists the terms to add, Negatives the terms to block.",
     "7. On Mix and Budget, see where spend goes and the proposed shift; type a Decision where you disagree.",
     "8. Actions lists every change you have settled on; export it with the changes command and apply it.",
-    "9. Next week, build from the new exports with --previous this workbook: your edits come along.",
+    "9. Next week, build from the new exports with --previous this workbook: your edits come along "
+    "(see 'Decisions and carried edits' below).",
     "10. The proposals are starting points, not orders: check them before changing your ad account.",
 ]
 
@@ -149,6 +169,10 @@ def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tupl
     for state in STATES.values():
         rows.append([Cell(state.name, style="state_" + state.name), Cell(state.meaning)])
     rows.append([Cell(0, style="money_input", kind=INPUT), Cell("Cream with blue text: an input cell you may change.")])
+    rows.append([Cell(0, style="money_carried", kind=INPUT),
+                 Cell("Shaded orange, in italics, with a note: a value carried from last week's workbook.")])
+    rows += [[None], [Cell("Decisions and carried edits", style="subtitle")]]
+    rows += [[None, Cell(line, style="text")] for line in DECISIONS_TEXT]
     rows += [[None], [Cell("How the bid plan works", style="subtitle")]]
     rows += [[None, Cell(line, style="text")] for line in BID_METHOD]
     rows += [[None], [Cell("How search terms are judged", style="subtitle")]]

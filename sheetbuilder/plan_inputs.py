@@ -16,6 +16,8 @@ from .readers import Inputs
 from .spec import DATA, INPUT, Column, Sheet, Table
 
 HEADER_ROW = 0  # in_ sheets: the header in row 1, data from row 2
+CATALOG_NAME = "sb_catalog"  # defined names <this>_<column> over product_id, each editable column and its exported_ twin
+EXPORTED = "exported_"  # prefix of the hidden columns holding an editable column as exported
 EDITABLE = {"catalog": {"price", "unit_cost", "fees_per_unit", "target_acos", "margin"}}
 SORT_KEYS = {
     "catalog": ["product_id"],
@@ -93,11 +95,15 @@ def sorted_rows(table: str, frame: pd.DataFrame) -> pd.DataFrame:
     return frame.sort_values(keys, kind="stable").reset_index(drop=True)
 
 
-def plan_input_sheets(inputs: Inputs, fold_plurals: bool = False) -> tuple[list[Sheet], dict[str, InputSheet]]:
+def plan_input_sheets(inputs: Inputs, fold_plurals: bool = False,
+                      exported: dict[str, pd.DataFrame] | None = None) -> tuple[list[Sheet], dict[str, InputSheet]]:
     """The in_ sheets for every table that was given, and their layouts for formulas.
 
     Search terms are sorted by campaign, ad group and normalised term, so that each term's
-    rows in an ad group form one block (kept in the layout frame as _term_key).
+    rows in an ad group form one block (kept in the layout frame as _term_key). exported
+    gives a table's frame as the export held it, when the inputs carry last week's edits:
+    its editable values fill the hidden exported_ columns, so a correction is told apart
+    from the export in every later week.
     """
     sheets: list[Sheet] = []
     layouts: dict[str, InputSheet] = {}
@@ -118,11 +124,15 @@ def plan_input_sheets(inputs: Inputs, fold_plurals: bool = False) -> tuple[list[
             values = frame[col.name].tolist()
             columns.append(Column(col.name, style, kind, values, width=_WIDTH.get(col.kind, 14)))
             ranges[col.name] = range_ref(name, i, HEADER_ROW + 1, HEADER_ROW + len(frame))
-        if rule.name == "catalog":  # the values as exported, so next week's build carries only real edits
+        if editable:  # the values as exported, so next week's build carries only real edits
+            source = frame
+            if exported and exported.get(rule.name) is not None:
+                source = sorted_rows(rule.name, exported[rule.name])
             for col in rule.columns:
                 if col.name in editable:
-                    columns.append(Column("exported_" + col.name, _STYLE.get(col.kind, "text"), DATA,
-                                          frame[col.name].tolist(), width=8, hidden=True))
+                    ranges[EXPORTED + col.name] = range_ref(name, len(columns), HEADER_ROW + 1, HEADER_ROW + len(frame))
+                    columns.append(Column(EXPORTED + col.name, _STYLE.get(col.kind, "text"), DATA,
+                                          source[col.name].tolist(), width=8, hidden=True))
         for column, header, _ in DERIVED.get(rule.name, []):
             ranges[header] = range_ref(name, len(columns), HEADER_ROW + 1, HEADER_ROW + len(frame))
             style = "text" if frame[column].dtype == object else "int"
@@ -131,3 +141,12 @@ def plan_input_sheets(inputs: Inputs, fold_plurals: bool = False) -> tuple[list[
         sheets.append(Sheet(name, table=Table(HEADER_ROW, columns), freeze=(1, 0), tab_color="#8C8C8C"))
         layouts[rule.name] = InputSheet(rule.name, name, frame, ranges)
     return sheets, layouts
+
+
+def catalog_names(layouts: dict[str, InputSheet]) -> list[tuple[str, str]]:
+    """The defined names over in_catalog's product_id, editable and exported_ columns (none without a catalog)."""
+    layout = layouts.get("catalog")
+    if layout is None:
+        return []
+    wanted = ["product_id", *sorted(EDITABLE["catalog"]), *(EXPORTED + c for c in sorted(EDITABLE["catalog"]))]
+    return [(f"{CATALOG_NAME}_{c}", "=" + layout.ranges[c]) for c in wanted if c in layout.ranges]

@@ -19,7 +19,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .columns import ColumnDef, PlannedTable, blank_div, plan_table
+from .columns import ColumnDef, PlannedTable, blank_div, editable, plan_table
 from .plan_inputs import InputSheet
 from .readers import Inputs
 from .settings import Settings
@@ -244,6 +244,10 @@ DEFS: list[ColumnDef] = [
               '=IF({c:margin}="",0,{c:revenue})', width=8, hidden=True,
               total="={sum:rev_with_margin}", total_reference=_rev_with_margin_total),
 ]
+
+# What a user types on Profit (a product's own target ACoS) and the key that finds its row again.
+EDITABLE_COLUMNS = editable(DEFS, "Profit", SHEET, "sb_profit", ("product_id",), "target_override",
+                            ("catalog", "store_sales", "ad_products"), numeric="target", result="")
 
 # Totals that need the whole frame are filled after the body (see _fill_totals).
 _LATE_TOTALS = {

@@ -39,11 +39,16 @@ def _shown(spec, value):
     return value
 
 
-def plan_settings(settings: Settings, built_on: dt.date, period=None) -> tuple[Sheet, list[tuple[str, str]]]:
+def plan_settings(settings: Settings, built_on: dt.date, period=None,
+                  as_built: Settings | None = None) -> tuple[Sheet, list[tuple[str, str]]]:
     """The Settings sheet and the workbook names pointing at its cells.
 
     period, when the exports carry dates, is the periods.Period read from them; a row says so.
+    as_built holds the values from settings.toml or the defaults when settings carries
+    last week's typed values; the "As built" column records those, so a typed value is
+    told apart from the built one in every later week.
     """
+    as_built = settings if as_built is None else as_built
     rows: list[list[Cell | None]] = [
         [Cell("Settings", style="title")],
         [Cell("Cream cells with blue text are inputs: change them and every sheet updates. "
@@ -59,7 +64,15 @@ def plan_settings(settings: Settings, built_on: dt.date, period=None) -> tuple[S
         row = FIRST_ROW + i
         style = _STYLE[spec.kind]
         value = _shown(spec, settings.value(spec.key))
-        if spec.live:
+        built = _shown(spec, as_built.value(spec.key))
+        if spec.live and value != built:  # carried from last week's workbook: shaded apart, with a note
+            cell = Cell(value, style=style + "_carried", kind=INPUT,
+                        note=f"Carried from last week's workbook; settings.toml or the default gives {built}. "
+                             "Type that value back to follow settings.toml again.")
+            options = _validation(spec)
+            if options:
+                validations.append(Validation(row, 1, options))
+        elif spec.live:
             cell = Cell(value, style=style + "_input", kind=INPUT)
             options = _validation(spec)
             if options:
@@ -67,7 +80,7 @@ def plan_settings(settings: Settings, built_on: dt.date, period=None) -> tuple[S
         else:
             cell = Cell(value, style=style, kind=DATA)
         rows.append([Cell(spec.label), cell, Cell(spec.help, style="text" if spec.live else "note"),
-                     Cell(spec.key, style="note"), Cell(value, style=style)])
+                     Cell(spec.key, style="note"), Cell(built, style=style)])
         names.append((spec.key, f"=Settings!$B${row + 1}"))
     built_row = FIRST_ROW + len(SETTINGS)
     rows.append([Cell("Built on"), Cell(built_on, style="date"),

@@ -24,7 +24,8 @@ import numpy as np
 import pandas as pd
 
 from .blends import attach_groups, group_columns, target_acos_column, zero_order_column
-from .columns import ColumnDef, PlannedTable, blank_div, plan_table, running_key
+from .columns import (ColumnDef, PlannedTable, apply_word_decision, blank_div, editable, plan_table, running_key,
+                      word_decision_formula)
 from .normalise import contains_phrase, looks_like_product_id, normalise, words
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
@@ -95,8 +96,7 @@ def _verdict(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
 
 
 def _final(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
-    decision = df["decision"].map(lambda d: "" if d is None or (isinstance(d, float) and np.isnan(d)) else str(d))
-    return df["verdict"].where(decision == "", decision.str.lower()).astype(object)
+    return apply_word_decision(df, "verdict", DECISIONS)
 
 
 def _start_bid(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
@@ -168,8 +168,8 @@ def _defs(n_rows: int) -> list[ColumnDef]:
         ColumnDef("decision", "Decision", "text_input",
                   "Input: blank follows the verdict; or type promote, block, watch, keep or skip.",
                   lambda df, ctx: df["decision"], kind=INPUT, width=9),
-        ColumnDef("final", "Final", "label", "The Decision if typed, else the verdict.", _final,
-                  '=IF({c:decision}="",{c:verdict},LOWER({c:decision}))', width=9),
+        ColumnDef("final", "Final", "label", "The Decision if typed, else the verdict; 'invalid' for any other text.",
+                  _final, word_decision_formula("verdict", DECISIONS), width=9),
         # Working columns, hidden.
         ColumnDef("first", "Term first row", "int", "Helper: first of the term's rows on in_search_terms.",
                   lambda df, ctx: df["first"], kind=DATA, width=8, hidden=True),
@@ -279,6 +279,11 @@ def _negative_key(row, phrases: dict, exact: set) -> tuple:
             if contains_phrase(row.term_key, phrase):
                 return ("NP", scope[0], scope[1], phrase)
     return ("N", row.campaign, row.ad_group, row.term_key)
+
+# What a user types on Terms and the keys that find its row again (carry, changes and the tests read these).
+EDITABLE_COLUMNS = editable(_defs(0), "Terms", SHEET, "sb_terms", ("campaign", "ad_group", "term"), "decision",
+                            ("search_terms",), ("campaign", "ad_group", "search_term"), normalised=("term",),
+                            words=DECISIONS)
 
 
 def term_frame(layout: InputSheet, groups: pd.DataFrame, campaigns: pd.DataFrame | None,

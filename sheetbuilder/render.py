@@ -63,6 +63,11 @@ def fit_text(text: str) -> str:
     return "".join(out) + TRUNCATION_MARK
 
 
+def stored_text(text: str) -> str:
+    """Text as a cell of ours stores it and a reader gives it back: cut to fit, control characters escaped."""
+    return XMLwriter._escape_control_characters(fit_text(text))
+
+
 def put_formula(ws, row: int, col: int, formula: str, fmt, value: Any) -> None:
     """Store a whitelisted formula as write_formula would, minus its function rewriting.
 
@@ -149,6 +154,8 @@ def _put_cell(ws, row: int, col: int, cell: Cell | None, formats: dict) -> None:
         put_formula(ws, row, col, cell.formula, fmt, _cached(cell.value))
     else:
         put_value(ws, row, col, cell.value, fmt)
+    if cell.note:
+        ws.write_comment(row, col, cell.note)
 
 
 def _write_rows(ws, first: int, rows: list[list[Cell | None]], formats: dict) -> int:
@@ -176,6 +183,7 @@ def _write_table(ws, table: Table, row: int, formats: dict, state_formats: dict,
             check_portable(text)
     n = table.n_rows
     step = max(1, n // 50)
+    marked = [(col, c) for col, c in enumerate(table.columns) if c.kind != FORMULA and (c.cell_styles or c.notes)]
     for i in range(n):
         r = row + i
         rs, ps = str(r + 1), str(r)
@@ -187,6 +195,11 @@ def _write_table(ws, table: Table, row: int, formats: dict, state_formats: dict,
                 put_formula(ws, r, col, text, fmt, _cached(values[i]))
             else:
                 put_value(ws, r, col, values[i], fmt)
+        for col, c in marked:  # cells styled apart (carried values) and their notes, rewritten in the same row
+            if i in c.cell_styles:
+                put_value(ws, r, col, c.values[i], formats[c.cell_styles[i]])
+            if i in c.notes:
+                ws.write_comment(r, col, c.notes[i])
         if progress and (i % step == 0 or i == n - 1):
             progress(sheet_name, i + 1, n)
     if table.autofilter and first:

@@ -21,6 +21,7 @@ class Cell:
     formula: str | None = None
     style: str = "text"
     kind: str = DATA
+    note: str | None = None  # a cell note (comment), e.g. where a carried value came from
 
 
 @dataclass
@@ -36,6 +37,8 @@ class Column:
             for the previous row); or a list of one formula per row.
         width: column width in characters.
         hidden: hide the column (helper columns holding row indexes).
+        cell_styles: {row index: style key} for body cells styled apart (a value carried from last week).
+        notes: {row index: text} of cell notes (comments) on body cells.
     """
 
     header: str
@@ -45,6 +48,8 @@ class Column:
     formula: str | list[str] | None = None
     width: float = 12
     hidden: bool = False
+    cell_styles: dict = field(default_factory=dict)
+    notes: dict = field(default_factory=dict)
 
 
 @dataclass(frozen=True)

@@ -221,12 +221,12 @@ def bids_oracle(tables, settings, profit_rows, decisions=None):
         decision = (decisions or {}).get(i)
         if decision is None or decision == "":
             final = proposed
-        elif isinstance(decision, (int, float)):
+        elif isinstance(decision, (int, float)) and not isinstance(decision, bool):
             final = float(decision)
-        elif str(decision).lower() == "keep":
+        elif isinstance(decision, str) and decision.lower() == "keep":
             final = bid
         else:
-            final = proposed
+            final = "invalid"  # any other typed value is shown as invalid, never as the proposal
         out[i] = {
             "Campaign": t["campaign"], "Ad group": t["ad_group"], "Target": t["target"],
             "Match type": t["match_type"],

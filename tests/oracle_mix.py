@@ -124,10 +124,15 @@ def budget_oracle(tables, settings, profit_rows, product_decisions=None):
         else:
             proposed = spend + share * cut * r["Revenue"] / grow
         typed = (product_decisions or {}).get(pid)
-        final = proposed if typed in (None, "") else (spend if typed == "keep" else float(typed))
+        if typed in (None, ""):
+            final = proposed
+        elif isinstance(typed, str):  # any text other than keep is shown as invalid
+            final = spend if typed.lower() == "keep" else "invalid"
+        else:
+            final = float(typed)
         products[pid] = {"Direction": r["Direction"], "Revenue": r["Revenue"], "Current spend": spend,
                          "Proposed spend": proposed, "Change": proposed - spend, "Final spend": final,
-                         "_ratio": 1.0 if spend == 0 else final / spend}
+                         "_ratio": 1.0 if spend == 0 or final == "invalid" else final / spend}
     campaigns = {}
     if tables.get("campaigns") is not None:
         links = defaultdict(lambda: defaultdict(float))

@@ -118,7 +118,9 @@ def terms_oracle(tables, settings, profit_rows, decisions=None):
         else:
             verdict = "watch"
         typed = (decisions or {}).get(pos)
-        final = verdict if not typed else typed.lower()
+        valid = ("promote", "block", "watch", "keep", "skip")  # any other typed value is shown as invalid
+        final = verdict if typed in (None, "") else (
+            typed.lower() if isinstance(typed, str) and typed.lower() in valid else "invalid")
         cpc = m["spend"] / m["clicks"] if m["clicks"] else BLANK
         k = s.prior_clicks
         order_value = m["ad_sales"] / m["orders"] if m["orders"] > 0 else aov_p

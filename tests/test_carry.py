@@ -185,3 +185,51 @@ def test_header_rows_are_found_by_scanning(tmp_path):
     path = tmp_path / "moved.xlsx"
     wb.save(path)
     assert read_edits(path).decisions == {"Bids": {("C1", "G1", "kw", "exact"): 0.5}}
+
+
+def test_decisions_that_are_not_a_valid_word_or_number_are_unmatched_with_the_reason():
+    """Text in a numeric Decision, an unknown word and a saved formula error are never carried or ignored."""
+    from sheetbuilder.columns import NO_SAVED_VALUE
+    inputs, settings, _ = load(DEMO)
+    t = inputs.tables["targets"].iloc[0]
+    s = inputs.tables["search_terms"].iloc[0]
+    c = inputs.tables["campaigns"].iloc[0]
+    bid_key = (t["campaign"], t["ad_group"], t["target"], t["match_type"])
+    term_key = (s["campaign"], s["ad_group"], s["search_term"])
+    edits = Edits("x.xlsx", decisions={"Bids": {bid_key: "about 0.40"}, "Terms": {term_key: "#DIV/0!"},
+                                       "Budget campaigns": {(c["campaign"],): "lots"},
+                                       "Budget": {("LF-1001",): NO_SAVED_VALUE}})
+    result = apply_edits(edits, inputs.tables, settings)
+    why = {r.sheet: r.why for r in result.unmatched}
+    assert {} == result.decisions and [] == result.carried
+    assert "'about 0.40' is not a valid decision; expected a number or 'keep'" == why["Bids"]
+    assert "'lots' is not a valid decision; expected a number or 'keep'" == why["Budget campaigns"]
+    assert "formula error (#DIV/0!)" in why["Terms"]
+    assert "formula with no saved value" in why["Budget"]
+
+
+def test_keys_with_a_tab_or_longer_than_a_cell_still_match_their_rows(tmp_path):
+    """A target holding a tab and one longer than a cell (cut with a mark when written:
+    Microsoft, "Excel specifications and limits", 32,767 characters) are carried, not reported as gone.
+    (Other control characters are refused on input: a workbook cannot keep them exactly.)"""
+    import csv as _csv
+    from minimal import TARGETS, write_account
+    from sheetbuilder.plan_bids import EDITABLE_COLUMNS as BIDS
+    from sheetbuilder.saved import named_area
+    control, long = "tab\tkw", "w" * 40_000
+    rows = TARGETS + "".join(f'C1,G1,"{t}",exact,enabled,0.40,100,10,5.00,20.00,1\n' for t in (control, long))
+    folder = write_account(tmp_path / "acct", {"targets.csv": rows})
+    built = build(folder, tmp_path / "w1.xlsx", built_on=BUILT_ON)
+    wb = openpyxl.load_workbook(built.output)
+    target = named_area(wb, BIDS.name_of("target"))
+    value = named_area(wb, BIDS.name_of("decision"))
+    ws = wb[target.sheet]
+    for r in range(target.first_row + 1, target.last_row + 2):
+        ws.cell(r, value.first_col + 1).value = 0.33
+    wb.save(tmp_path / "edited.xlsx")
+    inputs, settings, _ = load(folder)
+    result = apply_edits(read_edits(tmp_path / "edited.xlsx"), inputs.tables, settings)
+    assert [] == result.unmatched
+    assert 3 == len(result.carried)
+    frame = build(folder, tmp_path / "w2.xlsx", built_on=BUILT_ON, previous=tmp_path / "edited.xlsx").plan.tables["Bids"].frame
+    assert [0.33, 0.33, 0.33] == frame["decision"].tolist()

@@ -110,16 +110,32 @@ def test_inconsistent_changes_are_reported_with_their_row_and_not_written(tmp_pa
     assert not {"cheap kw", "no home", "lost"} & set(written)
 
 
-def test_a_workbook_without_cached_values_is_recalculated(tmp_path):
+def test_a_built_workbook_without_saved_values_gives_the_same_list_computed_from_its_inputs(tmp_path):
+    """No formula engine: the list is computed from the in_ sheets, Settings and Decisions the file holds."""
+    from conftest import BUILT_ON, DEMO
+    from sheetbuilder.pipeline import build
+    built = build(DEMO, tmp_path / "demo.xlsx", built_on=BUILT_ON)
+    resaved = tmp_path / "resaved.xlsx"
+    openpyxl.load_workbook(built.output).save(resaved)  # openpyxl stores no formula values
+    assert openpyxl.load_workbook(resaved, data_only=True)["Actions"]["A5"].value is None
+    result = export_changes(resaved, tmp_path / "changes.csv")
+    assert (True, False, True) == (result.computed, result.recalculated, result.unchecked)
+    original = export_changes(built.output, tmp_path / "c2.csv")
+    assert original.rows == result.rows
+    assert [] == original.overwritten and original.unchecked is False
+    expected = [list(r) for r in built.plan.tables["Actions"].frame[["kind", "campaign", "ad_group", "target",
+                                                                      "match_type", "current", "new", "reason"]]
+                .itertuples(index=False, name=None) if r[0]]
+    assert len(expected) - len(original.refused) == original.written
+
+
+def test_an_actions_sheet_alone_without_saved_values_refuses_the_rows_it_cannot_read(tmp_path):
     book = make_actions(tmp_path / "book.xlsx")
     resaved = tmp_path / "resaved.xlsx"
-    wb = openpyxl.load_workbook(book)
-    wb.save(resaved)  # openpyxl stores no formula values
-    assert openpyxl.load_workbook(resaved, data_only=True)["Actions"]["G5"].value is None
+    openpyxl.load_workbook(book).save(resaved)  # the formula in G5 (a bid's New) has no saved value now
     result = export_changes(resaved, tmp_path / "changes.csv")
-    assert result.recalculated is True
-    assert result.rows == export_changes(book, tmp_path / "c2.csv").rows
-    assert result.rows[0][6] == pytest.approx(0.55)
+    assert FIRST in result.refused
+    assert "positive number in New, got blank" in next(p.message for p in result.problems if p.row == FIRST)
 
 
 def test_xlsx_format_writes_text_as_text(tmp_path):
@@ -203,3 +219,26 @@ def test_cli_build_without_previous_support_is_a_clear_refusal(tmp_path, monkeyp
 def test_the_actions_sheet_has_the_layout_changes_reads():
     from sheetbuilder.plan_actions import HEADERS, defs
     assert list(HEADERS) == [d.header for d in defs(["0"] * 5) if not d.hidden]
+
+
+def test_a_final_bid_typed_over_by_hand_is_reported_and_the_formula_value_exported(tmp_path):
+    """Typed over the Final bid formula instead of in Decision: reported with its row; the list keeps the formula's value."""
+    from conftest import BUILT_ON, DEMO
+    from sheetbuilder.pipeline import build
+    from sheetbuilder.plan_bids import EDITABLE_COLUMNS as BIDS
+    from sheetbuilder.saved import named_area
+    built = build(DEMO, tmp_path / "demo.xlsx", built_on=BUILT_ON)
+    original = export_changes(built.output, tmp_path / "c1.csv")
+    wb = openpyxl.load_workbook(built.output)
+    area = named_area(wb, BIDS.name_of(BIDS.result))
+    wb[area.sheet].cell(area.first_row + 1, area.first_col + 1).value = 9.99  # a formula replaced by a number
+    edited = tmp_path / "edited.xlsx"
+    wb.save(edited)
+    from sheetbuilder.recalc import libreoffice_convert
+    from conftest import require_libreoffice
+    require_libreoffice()
+    saved = libreoffice_convert([edited], tmp_path / "saved")[0]
+    result = export_changes(saved, tmp_path / "c2.csv")
+    assert [(BIDS.sheet, area.first_row + 1, "Final bid")] == [(p.file, p.row, p.column) for p in result.overwritten
+                                                                if p.file == BIDS.sheet]
+    assert original.rows == result.rows
