@@ -1,6 +1,9 @@
 """python -m sheetbuilder: the command line."""
 import sys
 
-from .cli import main
+try:
+    from .cli import main
+except KeyboardInterrupt:  # Ctrl-C while the libraries load: nothing has started yet
+    sys.exit(130)
 
 sys.exit(main())

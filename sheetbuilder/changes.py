@@ -22,10 +22,11 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from .atomic import atomic_output
-from .columns import INVALID
+from .atomic import atomic_output, scratch_dir
+from .columns import INVALID, NO_SAVED_VALUE
 from .csv_safe import write_csv
 from .errors import OutputExists, Problem, SheetbuilderError, UnsafeOutput
+from .guard import reading, text_problem
 from .plan_actions import HEADER_ROW as ACTIONS_HEADER_ROW, HEADERS, defs as action_defs
 from .render import render_rows
 from .carry import DECISION_SHEETS, PROFIT_TARGET, CarryResult, _text, edits_in
@@ -109,11 +110,14 @@ def _context(book: SavedBook) -> dict[str, Any]:
     }
 
 
-def _saved_actions(book: SavedBook) -> list[tuple[int, list[Any]]]:
-    """[(sheet row, visible values)] of the Actions list as the file saved it (blank Kind = an empty row)."""
+def _saved_actions(book: SavedBook, formulas: bool = False) -> list[tuple[int, list[Any]]]:
+    """[(sheet row, visible values)] of the Actions list as the file saved it (blank Kind = an empty row).
+
+    With formulas, a formula cell that stores no value reads as NO_SAVED_VALUE (a typed value reads as itself).
+    """
     area = named_area(book.wb, ACTIONS_NAME)
     first_col = area.first_col if area else 0
-    rows = book.rows(area.sheet if area else SHEET, frozenset(range(first_col, first_col + len(HEADERS))))
+    rows = book.rows(area.sheet if area else SHEET, frozenset(range(first_col, first_col + len(HEADERS))), formulas)
     first_row = area.first_row if area else FIRST_ROW - 1
     width = len(HEADERS)
     header = [rows[first_row - 1][first_col + i] if first_row - 1 < len(rows) and first_col + i < len(
@@ -211,6 +215,15 @@ def _overwritten(saved: list[tuple[int, list[Any]]], computed: list[tuple[int, l
     return out
 
 
+def _typed_over(saved: list[tuple[int, list[Any]]]) -> list[Problem]:
+    """A Problem per Actions cell holding a typed value where the build wrote a formula (a file with no saved values)."""
+    return [Problem(SHEET, r, header, f"holds {got!r} where the workbook has a formula: it was typed over by hand; "
+                                      "the exported list uses the computed change (type your decision in a Decision "
+                                      "column instead)")
+            for r, values in saved for header, got in zip(HEADERS, values)
+            if got is not NO_SAVED_VALUE and not _blank(got)]
+
+
 def read_actions(workbook: Path) -> tuple[list[tuple[int, list[Any]]], dict[str, Any], dict[str, Any]]:
     """The change rows [(sheet row, visible values)], the context for checks, and what was noticed.
 
@@ -232,6 +245,7 @@ def read_actions(workbook: Path) -> tuple[list[tuple[int, list[Any]]], dict[str,
         notes.update(computed=True, problems=problems)
         if all(_blank(values[0]) for _, values in saved):
             notes["unchecked"] = bool(computed)  # no saved values: a program that drops them saved it
+            notes["overwritten"] = _typed_over(_saved_actions(book, formulas=True))
         else:
             notes["overwritten"] = _overwritten(saved, computed) + _overwritten_results(book, tables, fold)
         return computed, context, notes
@@ -281,6 +295,8 @@ def _check_output(workbook: Path, output: Path, fmt: str, force: bool) -> None:
         raise SheetbuilderError(f"unknown format {fmt!r}; expected csv or xlsx")
     if not output.parent.is_dir():
         raise SheetbuilderError(f"the output folder {output.parent} does not exist")
+    if output.is_dir():
+        raise SheetbuilderError(f"the output {output} is a folder; give a file name such as {output / 'changes.csv'}")
     if fmt == "xlsx" and output.suffix.lower() != ".xlsx":
         raise SheetbuilderError(f"the output {output.name} should end in .xlsx for --format xlsx")
     if fmt == "csv" and output.suffix.lower() in (".xlsx", ".xlsm", ".xls"):
@@ -291,11 +307,11 @@ def _check_output(workbook: Path, output: Path, fmt: str, force: bool) -> None:
         raise OutputExists(f"{output} exists; add --force to overwrite it")
 
 
-def write_xlsx(path: Path, header: list[str], rows: list[list[Any]]) -> Path:
+def write_xlsx(path: Path, header: list[str], rows: list[list[Any]], force: bool = False) -> Path:
     """Write header and rows to path as one sheet, text always as text, atomically."""
     cells = [[float(v) if _is_number(v) else (None if _blank(v) else str(v)) for v in row] for row in rows]
-    with atomic_output(path, ".xlsx") as tmp:
-        render_rows(tmp, "changes", header, cells)
+    with atomic_output(path, ".xlsx", force) as tmp:
+        render_rows(tmp, "changes", header, cells, scratch_dir(tmp))
     return path
 
 
@@ -353,15 +369,17 @@ def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool =
     """
     workbook, output = Path(workbook), Path(output)
     _check_output(workbook, output, fmt, force)
-    rows, context, notes = read_actions(workbook)
-    if include_unapplied:
-        present = {tuple("" if _blank(v) else v for v in values[:5]) for _, values in rows}
-        rows = rows + unapplied_rows(workbook, present)
+    with reading(workbook, NotAWorkbook):
+        rows, context, notes = read_actions(workbook)
+        if include_unapplied:
+            present = {tuple("" if _blank(v) else v for v in values[:5]) for _, values in rows}
+            rows = rows + unapplied_rows(workbook, present)
     problems: list[Problem] = list(notes["problems"]) + list(notes["overwritten"])
     refused: list[int] = []
     kept: list[list[Any]] = []
     for r, values in rows:
-        found = check_change(r, values, context)
+        found = check_change(r, values, context) + [
+            Problem(SHEET, r, h, m) for h, v in zip(HEADERS, values) if isinstance(v, str) and (m := text_problem(v))]
         if found:
             problems += found
             refused.append(r)
@@ -372,6 +390,6 @@ def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool =
     if fmt == "csv":
         write_csv(output, COLUMNS, kept, force=force)
     else:
-        write_xlsx(output, list(COLUMNS), kept)
+        write_xlsx(output, list(COLUMNS), kept, force=force)
     return ChangesResult(output, len(kept), problems, False, refused, kept, notes["computed"],
                          notes["overwritten"], notes["unchecked"])

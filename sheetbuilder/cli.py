@@ -2,32 +2,82 @@
 
     sheetbuilder build INPUTS -o WORKBOOK.xlsx [--force] [--previous OLD.xlsx]
     sheetbuilder changes WORKBOOK.xlsx -o changes.csv [--format csv|xlsx] [--force]
+    sheetbuilder inspect INPUTS
 
 Exit codes: 0 built or written; 2 the inputs have problems (all listed); 1 any other refusal
-(output exists without --force, output would overwrite an input, no Actions sheet);
-3 (changes) some changes were refused and listed, the valid ones were written.
+(output exists without --force, output would overwrite an input, no Actions sheet, a workbook
+that cannot be read); 3 (changes) some changes were refused and listed, the valid ones were
+written; 4 the operating system refused a read or write (no space, read-only, permission, a
+folder where a file was expected, a file gone); 70 an internal error (a bug: run again with
+--debug and report the traceback); 130 interrupted (Ctrl-C, SIGTERM, SIGHUP). Every failure
+is one message naming the path; a traceback is shown only with --debug. Nothing is left
+behind: temporary files are removed on every one of these exits.
 """
 from __future__ import annotations
 
 import argparse
+import errno
 import inspect
+import signal
 import sys
 import time
+import traceback
 from pathlib import Path
 
 from rich.console import Console
+from rich.markup import escape
 from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
 from rich.table import Table
 
 from . import __version__
 from .carry import carried_summary
 from .changes import export_changes
+from .inspection import inspect_exports, report_lines
 from .pipeline import build
 from .errors import ERROR, InputProblems, Problem, SheetbuilderError
 
 EXIT_INPUT = 2
 EXIT_REFUSED = 1
 EXIT_SOME_REFUSED = 3
+EXIT_SYSTEM = 4
+EXIT_BUG = 70        # EX_SOFTWARE in sysexits.h
+EXIT_INTERRUPTED = 130  # 128 + SIGINT, as shells report Ctrl-C
+STOP_SIGNALS = tuple(getattr(signal, n) for n in ("SIGINT", "SIGTERM", "SIGHUP") if hasattr(signal, n))
+
+_ADVICE = {
+    errno.ENOSPC: "no space left on the disk; free some space or write the output to another disk",
+    errno.EDQUOT: "the disk quota is used up; free some space or write the output elsewhere",
+    errno.EROFS: "the folder is read-only; write the output to a folder you can write to",
+    errno.EACCES: "permission denied; write to a folder you own, or check the file's permissions",
+    errno.EPERM: "the operation is not permitted; write to a folder you own",
+    errno.EISDIR: "this is a folder; give a file name (such as workbook.xlsx)",
+    errno.ENOTDIR: "a part of this path is not a folder; check the path",
+    errno.ENOENT: "no such file or folder (it may have been moved or deleted while running); check the path",
+    errno.ENAMETOOLONG: "the name is too long; choose a shorter one",
+    errno.EMFILE: "too many files are open; close other programs and run again",
+}
+
+
+class Interrupted(KeyboardInterrupt):
+    """A stop signal (SIGTERM, SIGHUP, or SIGINT) turned into an exception so that cleanup code runs."""
+
+    def __init__(self, signum: int):
+        super().__init__(signum)
+        self.signum = signum
+
+
+def _stop(signum: int, frame) -> None:
+    """Signal handler: ignore further stop signals (cleanup must finish), then raise Interrupted."""
+    for sig in STOP_SIGNALS:
+        signal.signal(sig, signal.SIG_IGN)
+    raise Interrupted(signum)
+
+
+def os_error_message(exc: OSError, fallback: Path | None) -> str:
+    """One line naming the path the operating system refused and what to do."""
+    path = exc.filename or fallback
+    advice = _ADVICE.get(exc.errno or 0, f"{exc.strerror or exc}; check the path and run again")
+    return f"cannot use {path}: {advice}. Nothing was written"
 
 
 def _run_build(args: argparse.Namespace, progress) -> object:
@@ -46,7 +96,8 @@ def print_problems(console: Console, problems: list[Problem]) -> None:
     for name in ("", "file", "row", "column", "problem"):
         table.add_column(name, overflow="fold")
     for p in problems:
-        table.add_row(p.severity, p.file, "" if p.row is None else str(p.row), p.column or "", p.message)
+        table.add_row(*(escape(x) for x in (p.severity, p.file, "" if p.row is None else str(p.row), p.column or "",
+                                            p.message)))  # every character printed: [files] is not markup
     console.print(table)
 
 
@@ -102,6 +153,16 @@ def _changes(args: argparse.Namespace, console: Console) -> int:
     return EXIT_SOME_REFUSED if result.problems else 0
 
 
+def _inspect(args: argparse.Namespace, console: Console) -> int:
+    """Read the exports as build would and print what was read; exit 2 when a problem is an error."""
+    result = inspect_exports(args.inputs)
+    for line in report_lines(result):
+        console.print(line, markup=False, soft_wrap=True)
+    if result.problems:
+        print_problems(console, result.problems)
+    return EXIT_INPUT if result.has_errors else 0
+
+
 def parser() -> argparse.ArgumentParser:
     """The argument parser; each command's help is its documentation."""
     p = argparse.ArgumentParser(prog="sheetbuilder",
@@ -115,6 +176,7 @@ def parser() -> argparse.ArgumentParser:
     b.add_argument("-o", "--output", type=Path, required=True, help="the .xlsx file to write")
     b.add_argument("--force", action="store_true", help="overwrite the output if it exists")
     b.add_argument("-q", "--quiet", action="store_true", help="print only problems")
+    b.add_argument("--debug", action="store_true", help="show the traceback of any failure")
     b.add_argument("--previous", type=Path, default=None, metavar="OLD.xlsx",
                    help="last week's workbook: carry its settings, costs, targets and Decisions into this one "
                         "(it is only read); edits that no longer match a row are listed on an Unmatched edits sheet")
@@ -126,7 +188,8 @@ def parser() -> argparse.ArgumentParser:
                                     "New that is not a positive number, an added keyword without a destination or "
                                     "in an unknown campaign) are listed with their row and not written. Exit codes: "
                                     "0 every change written; 3 some refused (the valid ones are written); 1 nothing "
-                                    "written (missing workbook, no Actions sheet, output exists without --force).")
+                                    "written (missing workbook, no Actions sheet, output exists without --force); "
+                                    "4 the system refused a read or write; 130 interrupted.")
     ch.add_argument("workbook", type=Path, help="the edited .xlsx workbook")
     ch.add_argument("-o", "--output", type=Path, required=True, help="the file to write (.csv, or .xlsx with --format xlsx)")
     ch.add_argument("--format", choices=("csv", "xlsx"), default="csv", help="csv (default; text escaped against "
@@ -134,7 +197,16 @@ def parser() -> argparse.ArgumentParser:
     ch.add_argument("--force", action="store_true", help="overwrite the output if it exists")
     ch.add_argument("--include-unapplied", action="store_true",
                     help="also write last week's changes the Follow-up sheet reads as not applied")
+    ch.add_argument("--debug", action="store_true", help="show the traceback of any failure")
     ch.set_defaults(run=_changes)
+    ins = sub.add_parser("inspect", help="read a folder of exports and say what was read, building nothing",
+                         description="Read the exports in INPUTS exactly as build does and print, for each file, the "
+                                     "table it was matched to, the sheet and header row used, each column's mapping "
+                                     "(canonical name <- header text), the rows read, summed, skipped as totals and "
+                                     "refused, the period found in the dates, and every problem. Writes nothing. "
+                                     "Exit codes: 0 the exports would build; 2 they have errors.")
+    ins.add_argument("inputs", type=Path, help="the folder holding the exports")
+    ins.set_defaults(run=_inspect)
     return p
 
 
@@ -142,6 +214,28 @@ def main(argv: list[str] | None = None) -> int:
     """Entry point of the sheetbuilder command."""
     args = parser().parse_args(argv)
     console = Console(stderr=True, highlight=False)
+    debug = getattr(args, "debug", False)
+    handlers = {}
+    try:
+        for sig in STOP_SIGNALS:
+            handlers[sig] = signal.signal(sig, _stop)
+    except ValueError:  # not the main thread: signals stay as they are
+        pass
+    try:
+        return _run(args, console, debug)
+    finally:
+        for sig, old in handlers.items():
+            signal.signal(sig, old)
+
+
+def _run(args: argparse.Namespace, console: Console, debug: bool) -> int:
+    """Run the command; every failure becomes one message and its exit code."""
+    def say(message: str, code: int) -> int:
+        if debug:
+            console.print(traceback.format_exc(), markup=False, highlight=False)
+        console.print(f"sheetbuilder: {message}", markup=False, highlight=False, soft_wrap=True)
+        return code
+
     try:
         return args.run(args, console)
     except InputProblems as exc:
@@ -150,8 +244,19 @@ def main(argv: list[str] | None = None) -> int:
         print_problems(console, exc.problems)
         return EXIT_INPUT
     except SheetbuilderError as exc:
-        console.print(f"sheetbuilder: {exc}")
-        return EXIT_REFUSED
+        return say(str(exc), EXIT_REFUSED)
+    except OSError as exc:
+        return say(os_error_message(exc, getattr(args, "output", None)), EXIT_SYSTEM)
+    except KeyboardInterrupt as exc:
+        name = signal.Signals(exc.signum).name if isinstance(exc, Interrupted) else "SIGINT (Ctrl-C)"
+        return say(f"interrupted by {name}; temporary files were removed and {getattr(args, 'output', 'the output')} "
+                   "was not replaced. Run the command again to finish", EXIT_INTERRUPTED)
+    except MemoryError:
+        return say("not enough memory to finish; close other programs, or build from a shorter period",
+                   EXIT_SYSTEM)
+    except Exception as exc:  # a bug: one line, the details with --debug
+        return say(f"internal error ({type(exc).__name__}: {exc}); nothing was written. Run again with --debug "
+                   "and report the traceback", EXIT_BUG)
 
 
 if __name__ == "__main__":

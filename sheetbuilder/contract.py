@@ -52,7 +52,8 @@ def _c(name: str, kind: str, *synonyms: str, required: bool = True) -> ColumnRul
 
 _CAMPAIGN = _c("campaign", TEXT, "campaignname", "campaigntitle")
 _AD_GROUP = _c("ad_group", TEXT, "adgroupname", "adset", "group")
-_PRODUCT = _c("product_id", TEXT, "sku", "productcode", "itemid", "item", "productsku", "listingid", "product")
+_PRODUCT = _c("product_id", TEXT, "sku", "productcode", "itemid", "item", "productsku", "listingid", "product",
+              "advertisedsku", "advertisedproduct", "advertisedproductid")
 _IMPRESSIONS = _c("impressions", COUNT, "impr", "views", "impression")
 _CLICKS = _c("clicks", COUNT, "click")
 _SPEND = _c("spend", MONEY, "cost", "adspend", "adcost", "totalspend", "spent", "amountspent")

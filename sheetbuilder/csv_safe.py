@@ -95,7 +95,7 @@ def write_csv(path: Path, header: Sequence[Any], rows: Iterable[Sequence[Any]], 
     path = Path(path)
     if path.exists() and not force:
         raise OutputExists(f"{path} exists; add --force to overwrite it")
-    with atomic_output(path, ".csv") as tmp:
+    with atomic_output(path, ".csv", force) as tmp:
         with open(tmp, "w", encoding="utf-8-sig", newline="") as fh:
             writer = csv.writer(fh, quoting=csv.QUOTE_NONNUMERIC)
             writer.writerow([escape_cell(h) for h in header])

@@ -13,6 +13,24 @@ _POINT_BODY = re.compile(r"(?:\d{1,3}(?:,\d{3})+|\d+)(?:\.\d*)?|\.\d+")   # 1,23
 _COMMA_BODY = re.compile(r"(?:\d{1,3}(?:\.\d{3})+|\d+)(?:,\d*)?|,\d+")     # 1.234,56
 # Currency words written beside amounts besides ISO codes (USD) and symbols ($, €, R$).
 _CURRENCY_WORDS = {"kr", "zł", "zl", "kč", "kc", "ft", "rs", "fr", "lei", "rm"}
+# The letters written before a dollar or other currency sign: US$, R$, A$, C$, NZ$, HK$, S$, MX$, NT$.
+_SIGN_PREFIXES = {"US", "R", "A", "AU", "C", "CA", "NZ", "HK", "S", "SG", "MX", "NT", "Z"}
+# ISO 4217 active alphabetic codes (ISO 4217:2015, list one, as published by the maintenance agency).
+ISO_4217 = frozenset("""
+AED AFN ALL AMD ANG AOA ARS AUD AWG AZN BAM BBD BDT BGN BHD BIF BMD BND BOB BOV BRL BSD BTN BWP BYN BZD
+CAD CDF CHE CHF CHW CLF CLP CNY COP COU CRC CUC CUP CVE CZK DJF DKK DOP DZD EGP ERN ETB EUR FJD FKP GBP
+GEL GHS GIP GMD GNF GTQ GYD HKD HNL HTG HUF IDR ILS INR IQD IRR ISK JMD JOD JPY KES KGS KHR KMF KPW KRW
+KWD KYD KZT LAK LBP LKR LRD LSL LYD MAD MDL MGA MKD MMK MNT MOP MRU MUR MVR MWK MXN MXV MYR MZN NAD NGN
+NIO NOK NPR NZD OMR PAB PEN PGK PHP PKR PLN PYG QAR RON RSD RUB RWF SAR SBD SCR SDG SEK SGD SHP SLE SLL
+SOS SRD SSP STN SVC SYP SZL THB TJS TMT TND TOP TRY TTD TWD TZS UAH UGX USD USN UYI UYU UYW UZS VED VES
+VND VUV WST XAF XCD XOF XPF YER ZAR ZMW ZWL
+""".split())
+# Digits separated by spaces or apostrophes must group thousands in threes.
+_SPACED_RUN = re.compile(r"\d+(?:[\s\u00a0\u202f']+\d+)+")
+_SPACED_GROUPS = re.compile(r"\d{1,3}(?:[\s\u00a0\u202f']\d{3})+")
+# What may group thousands in a count besides the comma (or the point with decimal_comma).
+_COUNT = re.compile(r"(?P<sign>[-+]?)(?P<body>\d+|\d{1,3}(?:(?P<sep>[,.\s\u00a0\u202f'])\d{3})"
+                    r"(?:(?P=sep)\d{3})*)(?P<frac>[.,]0{1,2})?")
 
 
 # Spreadsheets keep 15 significant digits; the readers refuse amounts and counts this large.
@@ -31,24 +49,64 @@ class NotANumber(ValueError):
         self.hint = hint
 
 
-def _is_currency(affix: str) -> bool:
-    """Whether text written before or after an amount is a currency mark (or nothing)."""
+def is_currency(affix: str) -> bool:
+    """Whether text written before or after an amount is a currency mark (or nothing).
+
+    A currency mark is a currency sign ($, €, ₹), a sign with the letters that name its
+    country (US$, R$, NZ$), an ISO 4217 code in capitals (USD, EUR) or one of a few currency
+    words (kr, zł, Ft). Anything else (12K, 1.5M, 10 PCS, the letter O in 12O) is not.
+    """
     rest = "".join(ch for ch in affix if unicodedata.category(ch) != "Sc")
     if not rest:
         return True
-    if rest.isascii() and rest.isalpha() and rest.isupper() and len(rest) <= 3:
-        return True  # USD, EUR, and the R of R$, the US of US$
+    if rest != affix:
+        return rest in _SIGN_PREFIXES
+    if rest in ISO_4217:
+        return True
     return rest.casefold().rstrip(".") in _CURRENCY_WORDS
 
 
-def parse_number(text: str, decimal_comma: bool = False) -> tuple[float, bool]:
+def parse_count(text: str, decimal_comma: bool = False) -> float:
+    """Read a count (impressions, clicks, orders, units): a whole number, nothing else.
+
+    Accepts 1234, 1,234 (1.234 with decimal_comma), thousands grouped by a space, a
+    no-break space or an apostrophe (1 234, 1'234), and a whole number written with one
+    or two zero decimals (12.0, 12.00). A sign is read (the caller refuses negatives).
+    Refuses letters (12O, 12K, 1.5M, 10 PCS), currency marks, percent signs, exponents,
+    and 1.000 without decimal_comma (it may mean one thousand).
+
+    Raises:
+        NotANumber: the text is not a whole number so written.
+    """
+    s = str(text).strip()
+    m = _COUNT.fullmatch(s)
+    group, point = (".", ",") if decimal_comma else (",", ".")
+    if m is None or (m["sep"] == point) or (m["frac"] and m["frac"][0] != point):
+        hint = ""
+        if re.fullmatch(r"[-+]?\d+[.,]\d+", s):
+            hint = "a count is a whole number"
+            if re.fullmatch(r"[-+]?\d{1,3}[.,]\d{3}", s):
+                hint = ("a count is a whole number; if the file groups thousands with a point, set "
+                        "decimal_comma = true in settings.toml" if not decimal_comma else
+                        "a count is a whole number; settings.toml has decimal_comma = true, so a comma "
+                        "marks decimals")
+        raise NotANumber(text, hint)
+    digits = re.sub(r"\D", "", m["body"])
+    value = float(digits)
+    if not math.isfinite(value):
+        raise NotANumber(text)
+    return -value if m["sign"] == "-" else value
+
+
+def parse_number(text: str, decimal_comma: bool = False, money: bool | None = None) -> tuple[float, bool]:
     """Read a number written as an export writes it.
 
     Accepts 1234.56, $1,234.56, 12.50 USD, 36%, (12.50) for minus 12.50, -€3, $-3,
     1.234,56 with decimal_comma, and scientific notation. A comma (a point with
     decimal_comma) must group thousands in threes, so 12,50 is not read as 1250.
     Text beside the amount must be a currency mark: 12abc and 5 kg are not numbers.
-    Blank text must be handled by the caller.
+    Blank text must be handled by the caller. money=True refuses a percent sign, money=False
+    refuses a currency mark; None (the default) accepts either.
 
     Returns:
         (value, had_percent_sign). A percent sign divides the value by 100.
@@ -56,12 +114,17 @@ def parse_number(text: str, decimal_comma: bool = False) -> tuple[float, bool]:
     Raises:
         NotANumber: the text is not a number.
     """
+    for run in _SPACED_RUN.findall(str(text)):
+        if not _SPACED_GROUPS.fullmatch(run.strip()):
+            raise NotANumber(text)  # 12 34 is not twelve hundred and thirty-four
     s = _SPACES.sub("", str(text))
     negative = False
     if s.startswith("(") and s.endswith(")"):
         negative, s = True, s[1:-1]
     m = _SHAPE.fullmatch(s)
-    if m is None or (m["sign1"] and m["sign2"]) or not (_is_currency(m["pre"]) and _is_currency(m["post"])):
+    if m is None or (m["sign1"] and m["sign2"]) or not (is_currency(m["pre"]) and is_currency(m["post"])):
+        raise NotANumber(text)
+    if (money is True and m["pct"]) or (money is False and (m["pre"] or m["post"])):
         raise NotANumber(text)
     if "-" in (m["sign1"], m["sign2"]):
         negative = not negative

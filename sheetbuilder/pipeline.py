@@ -12,8 +12,10 @@ from .columns import PlannedTable
 from .errors import ERROR, WARNING, InputProblems, OutputExists, Problem, SheetbuilderError, UnsafeOutput
 from .plan_bids import DEFS as BIDS_DEFS, plan_bids
 from .plan_groups import DEFS as GROUPS_DEFS, plan_groups
-from .atomic import atomic_output
-from .carry import PROFIT_TARGET, CarryResult, apply_edits, carried_catalog, decision_column, entry_for, read_edits
+from .atomic import atomic_output, refuse_input_as_output, scratch_dir
+from .guard import reading
+from .carry import (PROFIT_TARGET, CarryResult, PreviousWorkbookUnreadable, apply_edits, carried_catalog,
+                    decision_column, entry_for, read_edits)
 from .plan_actions import defs as ACTION_DEFS, plan_actions
 from .plan_dashboard import Figure, dashboard
 from .plan_unmatched import plan_carried, plan_unmatched
@@ -28,10 +30,11 @@ from .plan_terms import _defs as TERMS_DEFS, plan_terms
 from .plan_inputs import catalog_names, plan_input_sheets
 from .plan_profit import DEFS as PROFIT_DEFS, plan_profit
 from .plan_settings import plan_settings
+from .periods import settings_for_inputs
 from .readers import Inputs, read_inputs
 from .render import Progress, render
 from .saved import ACTIONS_NAME, EDITABLE_TABLES, PROFIT
-from .settings import Settings, load_settings
+from .settings import SETTINGS_FILE, Settings, load_settings
 from .spec import WorkbookSpec
 
 
@@ -73,7 +76,8 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
     """
     exported = carry.exported if carry is not None else {}
     input_sheets, layouts = plan_input_sheets(inputs, settings.fold_plurals, exported)
-    settings_sheet, names = plan_settings(settings, built_on, carry.as_built if carry is not None else None)
+    settings_sheet, names = plan_settings(settings, built_on, inputs.period,
+                                          carry.as_built if carry is not None else None)
     decide = Decisions(carry)
     profit_sheet, profit = plan_profit(inputs, layouts, settings, built_on, decide.targets)
     tables = {"Profit": profit}
@@ -148,7 +152,8 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
         history_sheet, history_names = plan_history(rows)
         sheets.insert(sheets.index(actions_sheet) + (2 if followup is not None else 1), history_sheet)
         names = [*names, *history_names]
-    sources = {k: v.name for k, v in inputs.sources.items()}
+    sources = {k: v.name + (f" ({inputs.encodings[k]})" if k in inputs.encodings else "")
+               for k, v in inputs.sources.items()}
     guide = plan_guide(settings, built_on, sections, warnings or [], inputs.checksums, sources, figures)
     if carry is not None and carry.unmatched:
         sheets.append(plan_unmatched(carry))
@@ -227,6 +232,8 @@ def load(folder: Path) -> tuple[Inputs, Settings, list[Problem]]:
     settings, problems = load_settings(Path(folder))
     inputs, found = read_inputs(Path(folder), settings)
     problems += found
+    settings, notes = settings_for_inputs(settings, inputs)
+    problems += notes
     if settings.thin_margin > settings.strong_margin:
         problems.append(Problem("settings.toml", None, "thin_margin",
                                 f"the thin threshold ({settings.thin_margin:g}) is above the strong threshold "
@@ -244,6 +251,8 @@ def _check_output(output: Path, inputs_folder: Path, force: bool) -> None:
     """Refuse to overwrite without force, to write over an input, or into a missing folder."""
     if not output.parent.is_dir():
         raise SheetbuilderError(f"the output folder {output.parent} does not exist")
+    if output.is_dir():
+        raise SheetbuilderError(f"the output {output} is a folder; give a file name such as {output / 'workbook.xlsx'}")
     if output.suffix.lower() != ".xlsx":
         raise SheetbuilderError(f"the output {output.name} should end in .xlsx")
     if Path(inputs_folder).is_dir():
@@ -254,10 +263,10 @@ def _check_output(output: Path, inputs_folder: Path, force: bool) -> None:
         raise OutputExists(f"{output} exists; add --force to overwrite it")
 
 
-def write_atomically(spec: WorkbookSpec, output: Path, progress: Progress | None = None) -> None:
-    """Render to a temporary file beside output, then rename it into place."""
-    with atomic_output(output, ".xlsx") as tmp:
-        render(spec, tmp, progress)
+def write_atomically(spec: WorkbookSpec, output: Path, progress: Progress | None = None, force: bool = False) -> None:
+    """Render to a temporary file beside output, then move it into place (replacing only with force)."""
+    with atomic_output(output, ".xlsx", force) as tmp:
+        render(spec, tmp, progress, scratch_dir(tmp))
 
 
 def build(folder: Path, output: Path, force: bool = False, built_on: dt.date | None = None,
@@ -284,20 +293,28 @@ def build(folder: Path, output: Path, force: bool = False, built_on: dt.date | N
     if previous is not None and output.exists() and Path(previous).exists() and os.path.samefile(previous, output):
         raise UnsafeOutput(f"{output} is the previous workbook; write the new one under another name")
     inputs, settings, problems = load(folder)
+    read = {f"the input file for {name}": path for name, path in inputs.sources.items()}
+    read["the settings file"] = folder / SETTINGS_FILE
+    if previous is not None:
+        read["the previous workbook"] = Path(previous)
+    refuse_input_as_output(output, read)
     carry = None
     exported_tables = dict(inputs.tables)  # as exported, before any carried correction
     if previous is not None:
-        carry = apply_edits(read_edits(Path(previous)), inputs.tables, settings)
+        with reading(previous, PreviousWorkbookUnreadable):
+            edits = read_edits(Path(previous))
+        carry = apply_edits(edits, inputs.tables, settings)
         settings = carry.settings
         carry.exported["catalog"] = inputs.tables["catalog"]  # in_catalog records the export, not the carry
         inputs.tables["catalog"] = carried_catalog(inputs.tables["catalog"], carry)
     followup, history = None, None
     if previous is not None:
-        followup, skipped = read_followup(Path(previous), exported_tables, settings, getattr(inputs, "period", None))
-        history, unread = read_history(Path(previous))
+        with reading(previous, PreviousWorkbookUnreadable):
+            followup, skipped = read_followup(Path(previous), exported_tables, settings, inputs.period)
+            history, unread = read_history(Path(previous))
         problems += skipped + unread
     warnings = [p for p in problems if p.severity == WARNING]
     plan = plan_workbook(inputs, settings, built_on or dt.date.today(), warnings, carry, followup, history)
-    write_atomically(plan.spec, output, progress)
+    write_atomically(plan.spec, output, progress, force)
     rows = {k: len(v) for k, v in inputs.tables.items() if isinstance(v, pd.DataFrame)}
     return BuildResult(output, warnings, plan, rows, carry)

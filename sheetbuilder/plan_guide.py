@@ -108,6 +108,7 @@ BID_METHOD = [
     "order value are blended, weighted by each product's ad spend in the group (see Groups).",
     "Working columns: unhide the columns right of Final bid on Bids to see each step (product CVR, smoothed "
     "CVR and ACoS, the zero-order clicks, the rule number 1-10 and the unrounded bid).",
+    "Evidence: README, 'How well the method works on simulated accounts' (results, assumptions and limits).",
 ]
 
 TERMS_METHOD = [

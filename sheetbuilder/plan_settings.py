@@ -39,10 +39,11 @@ def _shown(spec, value):
     return value
 
 
-def plan_settings(settings: Settings, built_on: dt.date,
+def plan_settings(settings: Settings, built_on: dt.date, period=None,
                   as_built: Settings | None = None) -> tuple[Sheet, list[tuple[str, str]]]:
     """The Settings sheet and the workbook names pointing at its cells.
 
+    period, when the exports carry dates, is the periods.Period read from them; a row says so.
     as_built holds the values from settings.toml or the defaults when settings carries
     last week's typed values; the "As built" column records those, so a typed value is
     told apart from the built one in every later week.
@@ -86,6 +87,11 @@ def plan_settings(settings: Settings, built_on: dt.date,
                  Cell("The day this workbook was built (for the attribution-window warning).", style="note"),
                  Cell("built_on", style="note")])
     names.append(("built_on", f"=Settings!$B${built_row + 1}"))
+    if period is not None:
+        used = [k for k in ("period_days", "period_end") if k not in settings.given]
+        rows.append([Cell("Period in the exports"), Cell(str(period), style="text"),
+                     Cell("Read from the exports' dates; " + (f"used for {' and '.join(used)}." if used else
+                          "settings.toml sets the period, so it was not used."), style="note")])
     mapped = [(table, canon, source) for table, cols in sorted(settings.columns.items())
               for canon, source in sorted(cols.items())]
     if mapped:

@@ -7,30 +7,27 @@ from __future__ import annotations
 
 import csv
 import hashlib
-import io
 import math
-import re
-import zipfile
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import pandas as pd
 
 from . import contract as c
+from .encodings import NotText, decode, is_legacy
 from .errors import ERROR, WARNING, Problem
-from .numbers import MAX_MAGNITUDE, NotANumber, parse_number
+from .guard import UnsafeWorkbook, check_csv, check_workbook, read_delimited, text_problem
+from .headers import currency_warnings, find_header, map_headers
+from .numbers import MAX_MAGNITUDE, NotANumber, parse_count, parse_number
+from .periods import DATE_RULES, DATED_TABLES, Period, combine_repeats, overall_period, parse_dates, table_period
 from .settings import Settings
+from .totals import RunningSums, totals_label
 
-SUFFIXES = (".csv", ".tsv", ".txt", ".xlsx", ".xlsm")
+SPREADSHEETS = (".xlsx", ".xlsm", ".xls", ".xlsb", ".ods")
+SUFFIXES = (".csv", ".tsv", ".txt", ".xlsx", ".xlsm", ".xls", ".xlsb", ".ods")
+ZIPPED = (".xlsx", ".xlsm", ".xlsb")  # Office Open XML workbooks, checked before they are opened
+MAX_STRAY_BYTES = 20 * 1024 * 1024  # a file matching no table larger than this is named, not read
 MAX_SHEET_ROWS = 1_048_576  # Microsoft, "Excel specifications and limits"; the header takes one
-
-# A workbook is a zip; these limits refuse a zip bomb before calamine inflates it.
-# Module constants so tests can make them small.
-MAX_ZIP_TOTAL = 512 * 1024 * 1024   # bytes, all entries uncompressed
-MAX_ZIP_RATIO = 100                 # uncompressed / compressed, for an entry of RATIO_ENTRY_MIN or more
-RATIO_ENTRY_MIN = 16 * 1024 * 1024  # bytes uncompressed: smaller entries may compress as well as they like
-MAX_ZIP_ENTRIES = 10_000
-MAX_RELS_BYTES = 4 * 1024 * 1024    # a relationships part larger than this is not a workbook's
 
 # search_terms rows repeating these are merged when the table is longer than a sheet.
 SEARCH_TERM_KEYS = ("campaign", "ad_group", "target", "match_type", "search_term")
@@ -47,6 +44,8 @@ class Inputs:
     tables: dict[str, pd.DataFrame | None]
     sources: dict[str, Path] = field(default_factory=dict)
     checksums: dict[str, str] = field(default_factory=dict)
+    encodings: dict[str, str] = field(default_factory=dict)
+    period: Period | None = None  # the days the dated exports cover, when they carry dates
 
     def get(self, name: str) -> pd.DataFrame | None:
         """The frame of table name, or None when the file was not given."""
@@ -76,89 +75,6 @@ def find_file(folder: Path, table: c.TableRule, settings: Settings) -> tuple[Pat
     return found[0], None
 
 
-_BOMS = ((b"\xff\xfe\x00\x00", "utf-32"), (b"\x00\x00\xfe\xff", "utf-32"),
-         (b"\xff\xfe", "utf-16"), (b"\xfe\xff", "utf-16"))
-
-
-def _decode(data: bytes) -> str:
-    """Text of a CSV file: UTF-16/32 with a BOM, UTF-8 with or without BOM, else cp1252.
-
-    Raises:
-        UnicodeDecodeError: none of these reads the bytes.
-        NotText: the bytes decode but hold NUL characters.
-    """
-    for bom, codec in _BOMS:
-        if data.startswith(bom):
-            return data.decode(codec)  # the codec reads and drops its BOM
-    try:
-        text = data.decode("utf-8-sig")
-    except UnicodeDecodeError:
-        text = data.decode("cp1252")
-    if "\x00" in text:
-        raise NotText("holds NUL characters, so it is not a text export (UTF-16 without a byte-order mark, or "
-                      "a binary file); save it as a UTF-8 CSV")
-    return text
-
-
-class NotText(ValueError):
-    """A CSV file whose bytes are not text in any encoding the readers accept."""
-
-
-class UnsafeWorkbook(ValueError):
-    """An .xlsx that is refused before it is opened: a zip bomb, external links, not a zip."""
-
-
-_EXTERNAL = re.compile(rb"""TargetMode\s*=\s*["']External["']""", re.IGNORECASE)
-
-
-def check_workbook_zip(path: Path) -> None:
-    """Refuse a workbook that is not a zip, would inflate too far, or links to other files.
-
-    Reads only the zip's central directory and the small relationship parts, so that
-    nothing is inflated before the limits are checked.
-
-    Raises:
-        UnsafeWorkbook: saying what is wrong.
-    """
-    try:
-        archive = zipfile.ZipFile(path)
-    except (zipfile.BadZipFile, OSError, ValueError, EOFError) as exc:
-        raise UnsafeWorkbook(f"not a readable spreadsheet: not an .xlsx workbook (a zip file): {exc}") from None
-    with archive:
-        entries = archive.infolist()
-        if len(entries) > MAX_ZIP_ENTRIES:
-            raise UnsafeWorkbook(f"refused: the workbook holds {len(entries)} parts, more than {MAX_ZIP_ENTRIES}; "
-                                 "it may be a zip bomb. Save it again from the spreadsheet program, or export CSV")
-        total = sum(e.file_size for e in entries)
-        if total > MAX_ZIP_TOTAL:
-            raise UnsafeWorkbook(f"refused: the workbook would unpack to {total / 2**20:,.0f} MiB, more than "
-                                 f"{MAX_ZIP_TOTAL / 2**20:,.0f} MiB; it may be a zip bomb. Export it as CSV instead")
-        for e in entries:
-            if e.file_size >= RATIO_ENTRY_MIN and e.file_size > MAX_ZIP_RATIO * max(e.compress_size, 1):
-                raise UnsafeWorkbook(f"refused: the part '{e.filename}' unpacks {e.file_size / max(e.compress_size, 1):,.0f} "
-                                     f"times larger than it is stored, more than {MAX_ZIP_RATIO}; it may be a zip "
-                                     "bomb. Export it as CSV instead")
-        names = {e.filename for e in entries}
-        if "xl/workbook.xml" not in names and "xl/workbook.bin" not in names:
-            raise UnsafeWorkbook("not a readable spreadsheet: a zip file without a workbook (no xl/workbook.xml)")
-        links = sorted(n for n in names if n.lower().startswith("xl/externallinks/"))
-        if links:
-            raise UnsafeWorkbook(f"refused: the workbook has external links ({links[0]}); links to other files are not "
-                                 "read. Break the links (Data > Edit Links > Break Link) or export CSV")
-        for e in entries:
-            low = e.filename.lower()
-            if not (low.startswith("xl/") and low.endswith(".rels")):
-                continue
-            if e.file_size > MAX_RELS_BYTES:
-                raise UnsafeWorkbook(f"refused: the part '{e.filename}' is {e.file_size:,} bytes, too large for a "
-                                     "relationships part")
-            try:
-                data = archive.read(e)
-            except (zipfile.BadZipFile, OSError, ValueError, EOFError, NotImplementedError, RuntimeError) as exc:
-                raise UnsafeWorkbook(f"not a readable spreadsheet: the part '{e.filename}' is broken: {exc}") from None
-            if _EXTERNAL.search(data):
-                raise UnsafeWorkbook(f"refused: the workbook links to an external target in '{e.filename}'; links to "
-                                     "other files are not read. Break the links or export CSV")
 
 
 class CellNumber(str):
@@ -183,57 +99,49 @@ def _cell_text(value: object) -> str:
     return str(value)
 
 
-def read_rows(path: Path) -> list[list[str]]:
-    """All rows of a CSV or .xlsx file as lists of text, header first; blank rows kept."""
-    if path.suffix.lower() in (".xlsx", ".xlsm"):
-        check_workbook_zip(path)
-        frame = pd.read_excel(path, engine="calamine", header=None, dtype=object)
-        return [[_cell_text(v) for v in row] for row in frame.itertuples(index=False)]
-    text = _decode(path.read_bytes())
+def read_sheets(path: Path) -> tuple[list[tuple[str, list[list[str]]]], str]:
+    """Every sheet of a CSV or spreadsheet file as (sheet name, rows of text); blank rows kept.
+
+    A CSV is one sheet named "". Spreadsheets (.xlsx .xlsm .xls .xlsb .ods) are read by calamine.
+
+    Returns:
+        The sheets and the file's encoding ("spreadsheet" for a workbook).
+
+    Raises:
+        NotText: a CSV not decodable by encodings.decode, or a NUL character in any cell (with its row).
+    """
+    if path.suffix.lower() in SPREADSHEETS:
+        if path.suffix.lower() in ZIPPED + (".ods",):
+            check_workbook(path)
+        else:
+            check_csv(path)  # .xls is not a zip: its size is what can be checked before reading
+        frames = pd.read_excel(path, engine="calamine", header=None, dtype=object, sheet_name=None)
+        sheets = []
+        for name, frame in frames.items():
+            rows = [[_cell_text(v) for v in row] for row in frame.itertuples(index=False)]
+            for i, row in enumerate(rows):
+                if any("\x00" in x for x in row):
+                    raise NotText("holds a NUL character in a cell; remove it and save again", i + 1)
+            sheets.append((str(name), rows))
+        return sheets, "spreadsheet"
+    check_csv(path)
+    decoded = decode(path.read_bytes())
+    text = decoded.text
     first = next((line for line in text.splitlines() if line.strip()), "")
-    delimiter = max((",", ";", "\t"), key=first.count) if first else ","
-    return list(csv.reader(io.StringIO(text, newline=""), delimiter=delimiter))
+    delimiter = max((",", ";", "\t", "|"), key=first.count) if first else ","
+    return [("", read_delimited(text, delimiter))], decoded.encoding
 
 
-def map_headers(header: list[str], table: c.TableRule, settings: Settings, file: str
-                ) -> tuple[dict[str, int], list[Problem]]:
-    """Which file column holds each canonical column: explicit mapping, then name, then synonym."""
-    keys = [c.header_key(h) for h in header]
-    explicit = settings.columns.get(table.name, {})
-    found: dict[str, int] = {}
-    problems: list[Problem] = []
-    for rule in table.columns:
-        if rule.name in explicit:
-            want = c.header_key(explicit[rule.name])
-            if want in keys:
-                found[rule.name] = keys.index(want)
-            else:
-                problems.append(Problem(file, 1, explicit[rule.name],
-                                        f"settings.toml maps '{rule.name}' to this header, but the file has no such column"))
-            continue
-        own = c.header_key(rule.name)
-        if own in keys:
-            found[rule.name] = keys.index(own)
-            if keys.count(own) > 1:
-                names = ", ".join(f"'{header[i]}'" for i, k in enumerate(keys) if k == own)
-                problems.append(Problem(file, 1, header[found[rule.name]],
-                                        f"several columns could be '{rule.name}' ({names}); keep one, or map one in "
-                                        f"settings.toml [columns.{table.name}]"))
-            continue
-        hits = [i for i, k in enumerate(keys) if k in rule.synonyms and i not in found.values()]
-        if len(hits) == 1:
-            found[rule.name] = hits[0]
-        elif len(hits) > 1:
-            names = ", ".join(f"'{header[i]}'" for i in hits)
-            problems.append(Problem(file, 1, header[hits[0]],
-                                    f"several columns could be '{rule.name}' ({names}); map one in settings.toml "
-                                    f"[columns.{table.name}]"))
-        elif rule.required:
-            also = ", ".join(rule.synonyms[:5])
-            problems.append(Problem(file, 1, rule.name,
-                                    f"missing column '{rule.name}'" + (f" (also accepted: {also})" if also else "")
-                                    + f"; or map it in settings.toml [columns.{table.name}]"))
-    return found, problems
+def pick_sheet(sheets: list[tuple[str, list[list[str]]]], table: c.TableRule, settings: Settings
+               ) -> tuple[str, list[list[str]], int | None]:
+    """The sheet that holds table (the one whose header matches most required columns; the first on a
+    tie) and its header row's 0-based index (None when every sheet is empty)."""
+    best = (sheets[0][0], sheets[0][1], None, -1) if sheets else ("", [], None, -1)
+    for name, rows in sheets:
+        start, score = find_header(rows, table, settings)
+        if start is not None and score > best[3]:
+            best = (name, rows, start, score)
+    return best[0], best[1], best[2]
 
 
 _SIGNED = {"margin"}  # a product sold below its costs has a negative margin before ads
@@ -246,6 +154,8 @@ def _parse_cell(rule: c.ColumnRule, text: str, settings: Settings) -> tuple[obje
     if rule.kind == c.TEXT:
         if not t and rule.name in _NON_BLANK:
             return "", "is blank; expected a value"
+        if (problem := text_problem(text)) is not None:
+            return "", problem
         return (t if rule.name in ("product_id", "campaign", "ad_group") else str(text)), None
     if rule.kind in c.CHOICES:
         synonyms, expected = c.CHOICES[rule.kind]
@@ -259,10 +169,18 @@ def _parse_cell(rule: c.ColumnRule, text: str, settings: Settings) -> tuple[obje
         if rule.name == "bid":
             return math.nan, "is blank; expected the current bid"
         return math.nan, None
+    comma = settings.decimal_comma and not isinstance(text, CellNumber)
     try:
-        value, had_percent = parse_number(t, settings.decimal_comma and not isinstance(text, CellNumber))
+        if rule.kind == c.COUNT:
+            value, had_percent = (float(t) if isinstance(text, CellNumber) else parse_count(t, comma)), False
+        else:
+            value, had_percent = parse_number(t, comma, money=rule.kind != c.PERCENT)
     except NotANumber as exc:
-        expected = {c.COUNT: "a whole number", c.MONEY: "an amount such as 1234.56",
+        if rule.kind == c.COUNT:
+            return math.nan, (f"'{text}' is not a whole number; expected a count such as 1234 or 1,234"
+                              + (f" ({exc.hint})" if exc.hint else ""))
+        expected = {c.MONEY: "an amount such as 1234.56 (a currency sign or code such as $ or USD may stand "
+                             "before or after it)",
                     c.PERCENT: "a percentage such as 30% or 0.30", c.AMOUNT: "an amount such as 0.85"}[rule.kind]
         return math.nan, f"'{text}' is not a number; expected {expected}" + (f" ({exc.hint})" if exc.hint else "")
     if abs(value) >= MAX_MAGNITUDE:
@@ -277,29 +195,68 @@ def _parse_cell(rule: c.ColumnRule, text: str, settings: Settings) -> tuple[obje
     return value, None
 
 
+def with_dates(table: c.TableRule) -> c.TableRule:
+    """The table's rule with the optional date columns its exports may carry."""
+    extra = tuple(r for r in DATE_RULES if r.name in DATED_TABLES.get(table.name, ()))
+    return c.TableRule(table.name, table.columns + extra, table.required, table.label) if extra else table
+
+
+def _read_dates(frame: pd.DataFrame, texts: dict[str, list[str]], headers: dict[str, str]) -> list[Problem]:
+    """Add _start and _end (each row's first and last day) to frame from its date columns' texts."""
+    names = list(texts)
+    n = len(frame)
+    every, bad = parse_dates([t for name in names for t in texts[name]])  # one day/month order per file
+    parsed = {name: every[k * n:(k + 1) * n] for k, name in enumerate(names)}
+    problems = [Problem(frame.attrs["file"], int(frame["_row"].iloc[i % n]), headers[names[i // n]], message)
+                for i, message in bad]
+    first = parsed.get("date") or parsed.get("start_date") or parsed.get("end_date")
+    last = parsed.get("date") or parsed.get("end_date") or first
+    frame["_start"], frame["_end"] = pd.Series(first, dtype=object), pd.Series(last, dtype=object)
+    for row, start, end in zip(frame["_row"], frame["_start"], frame["_end"]):
+        if start is not None and end is not None and end < start:
+            problems.append(Problem(frame.attrs["file"], int(row), headers.get("end_date"),
+                                    f"the end date {end} is before the start date {start}"))
+    return problems
+
+
+def _layout_notes(file: str, sheets: list, sheet: str, rows: list[list[str]], start: int) -> list[Problem]:
+    """Notes saying which sheet was read and which row held the header, when not the obvious ones."""
+    notes = []
+    if len(sheets) > 1:
+        notes.append(Problem(file, None, None, f"read the sheet '{sheet}', the one holding this table's columns "
+                                               f"(the file has {len(sheets)} sheets)", WARNING))
+    first = next(i for i, r in enumerate(rows) if any(x.strip() for x in r))
+    if start != first:
+        notes.append(Problem(file, start + 1, None, f"the header is row {start + 1}; rows {first + 1} to {start} "
+                                                    "above it were skipped as a title or notes block", WARNING))
+    return notes
+
+
 def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.DataFrame | None, list[Problem]]:
     """Read and validate one table's file."""
     file = path.name
     try:
-        rows = read_rows(path)
-    except UnicodeDecodeError:
-        return None, [Problem(file, None, None, "cannot be read as text: not UTF-8, UTF-16 with a byte-order mark, "
-                                                "or cp1252; save it as a UTF-8 CSV")]
+        sheets, encoding = read_sheets(path)
     except NotText as exc:
-        return None, [Problem(file, None, None, str(exc))]
+        return None, [Problem(file, exc.row, None, str(exc))]
     except UnsafeWorkbook as exc:
         return None, [Problem(file, None, None, str(exc))]
     except csv.Error as exc:
         return None, [Problem(file, None, None, f"not a readable CSV file: {exc}")]
+    except MemoryError:
+        return None, [Problem(file, None, None, "not enough memory to read it; export a shorter period")]
     except Exception as exc:  # calamine raises its own types for broken workbooks
         return None, [Problem(file, None, None, f"not a readable spreadsheet: {exc}")]
-    start = next((i for i, r in enumerate(rows) if any(x.strip() for x in r)), None)
+    sheet, rows, start = pick_sheet(sheets, with_dates(table), settings)
     if start is None:
         return None, [Problem(file, None, None, "the file is empty; expected a header row and data rows")]
     header = rows[start]
-    found, problems = map_headers(header, table, settings, file)
+    found, problems = map_headers(header, with_dates(table), settings, file, start + 1)
+    problems = _layout_notes(file, sheets, sheet, rows, start) + problems
+    dates = {n: found.pop(n) for n in [r.name for r in DATE_RULES] if n in found}
     if any(p.severity == ERROR for p in problems):
         return None, problems
+    problems += currency_warnings(header, found, table, settings, file, start + 1)
     data_rows = sum(1 for r in rows[start + 1:] if any(x.strip() for x in r))
     too_long = data_rows > MAX_SHEET_ROWS - 1
     if too_long and table.name != "search_terms":
@@ -307,19 +264,41 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
                                                 f"{MAX_SHEET_ROWS - 1:,} below its header, so the workbook cannot "
                                                 "hold this table. Export a shorter period")]
     records: list[dict] = []
+    date_texts: dict[str, list[str]] = {n: [] for n in dates}
+    running, skipped = RunningSums(table, found), []
     for i in range(start + 1, len(rows)):
         row = rows[i]
         if not any(x.strip() for x in row):
             continue
         record: dict[str, object] = {"_row": i + 1}
+        cell_problems = []
         for rule in table.columns:
             col = found.get(rule.name)
             text = row[col] if col is not None and col < len(row) else ""
             value, message = _parse_cell(rule, text, settings)
             if message:
-                problems.append(Problem(file, i + 1, header[col] if col is not None else rule.name, message))
+                cell_problems.append(Problem(file, i + 1, header[col] if col is not None else rule.name, message))
             record[rule.name] = value
+        label = totals_label(row, table, found)
+        if label is not None:
+            differs = running.mismatch(record, row, found)
+            if differs is None:
+                skipped.append(i + 1)
+                continue
+            if label == "total":
+                problems.append(Problem(file, i + 1, None, f"the row says total but is not the sum of the rows "
+                                                           f"above it ({differs}); read as data it would be "
+                                                           "counted twice. Remove it"))
+                continue
+        problems.extend(cell_problems)
+        running.add(record)
+        for name, col in dates.items():
+            date_texts[name].append(row[col] if col < len(row) else "")
         records.append(record)
+    if skipped:
+        problems.append(Problem(file, skipped[0], None, f"skipped {len(skipped)} totals row(s) (row "
+                                + ", ".join(map(str, skipped)) + "): each is the sum of the rows above it",
+                                WARNING))
     names = ["_row"] + [r.name for r in table.columns]
     frame = pd.DataFrame.from_records(records, columns=names)
     for rule in table.columns:
@@ -331,13 +310,30 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
     header_of = {rule.name: (header[found[rule.name]] if rule.name in found else rule.name) for rule in table.columns}
     frame.attrs["headers"] = header_of
     frame.attrs["file"] = file
+    frame.attrs.update(encoding=encoding, header_row=start + 1, sheet=sheet, totals=len(skipped), rows_read=len(records),
+                       columns={n: header[i] for n, i in {**found, **dates}.items()})
+    if dates:
+        problems.extend(_read_dates(frame, date_texts, {n: header[i] for n, i in dates.items()}))
+    frame.attrs["period"] = None
+    if not any(p.severity == ERROR for p in problems):  # a bad cell would make the sums meaningless
+        frame, repeats = combine_repeats(table.name, frame, bool(dates))
+        problems.extend(repeats)
+        if any(p.severity == ERROR for p in repeats):
+            return None, problems
+        frame.attrs["period"] = table_period(frame)
+    frame = frame.drop(columns=[n for n in ("_start", "_end") if n in frame])
+    if is_legacy(encoding):
+        problems.append(Problem(file, None, None, f"read as {encoding}: the file is not valid UTF-8 and holds no "
+                                                  "UTF-8 text, so it was saved by an older Windows program; check "
+                                                  "its accented text", WARNING))
     if too_long:
         # Check the rows as written before merging, which could hide a row's orders > clicks.
         problems.extend(_row_checks(table.name, frame))
         if any(p.severity == ERROR for p in problems):
             return None, problems
+        attrs = dict(frame.attrs)
         frame, problem = _merge_search_terms(frame, file, data_rows)
-        frame.attrs.update(headers=header_of, file=file)
+        frame.attrs.update(attrs)
         problems.append(problem)
         if problem.severity == ERROR:
             return None, problems
@@ -415,6 +411,27 @@ def _cross_checks(tables: dict[str, pd.DataFrame | None]) -> list[Problem]:
     return problems
 
 
+def _unmatched_files(folder: Path, used: set[Path], settings: Settings) -> list[Problem]:
+    """A note for each export-like file in folder that no table read, naming the table it most resembles."""
+    notes = []
+    for path in sorted(p for p in folder.iterdir() if p.is_file() and p.suffix.lower() in SUFFIXES and p not in used):
+        try:
+            sheets = read_sheets(path)[0] if path.stat().st_size <= MAX_STRAY_BYTES else []
+        except Exception:  # an unreadable stray file is only worth its name
+            sheets = []
+        best, score = None, 0
+        for table in c.TABLES:
+            for _, rows in sheets:
+                s = find_header(rows, table, settings)[1]
+                if s > score:
+                    best, score = table, s
+        guess = (f"; it looks most like '{best.name}' ({best.label}: {score} of "
+                 f"{sum(r.required for r in best.columns)} required columns). Name it {best.name}{path.suffix} "
+                 f"or add to settings.toml: [files] {best.name} = \"{path.name}\"") if best else ""
+        notes.append(Problem(path.name, None, None, "was not read: its name matches no table" + guess, WARNING))
+    return notes
+
+
 def read_inputs(folder: Path, settings: Settings) -> tuple[Inputs, list[Problem]]:
     """Read every table of the contract from folder.
 
@@ -427,6 +444,7 @@ def read_inputs(folder: Path, settings: Settings) -> tuple[Inputs, list[Problem]
     tables: dict[str, pd.DataFrame | None] = {}
     sources: dict[str, Path] = {}
     checksums: dict[str, str] = {}
+    encodings: dict[str, str] = {}
     problems: list[Problem] = []
     for table in c.TABLES:
         path, problem = find_file(folder, table, settings)
@@ -436,11 +454,18 @@ def read_inputs(folder: Path, settings: Settings) -> tuple[Inputs, list[Problem]
             tables[table.name] = None
             continue
         sources[table.name] = path
-        checksums[table.name] = hashlib.sha256(path.read_bytes()).hexdigest()
+        with open(path, "rb") as fh:
+            checksums[table.name] = hashlib.file_digest(fh, "sha256").hexdigest()
         frame, found = read_table(path, table, settings)
         problems.extend(found)
         if frame is not None:
             problems.extend(_row_checks(table.name, frame))
+            encodings[table.name] = frame.attrs["encoding"]
         tables[table.name] = frame
     problems.extend(_cross_checks(tables))
-    return Inputs(tables, sources, checksums), problems
+    problems.extend(_unmatched_files(folder, set(sources.values()), settings))
+    periods = {sources[n].name: f.attrs["period"] for n, f in tables.items()
+               if f is not None and f.attrs.get("period") is not None}
+    period, found = overall_period(periods)
+    problems.extend(found)
+    return Inputs(tables, sources, checksums, encodings, period), problems

@@ -10,11 +10,13 @@ from __future__ import annotations
 
 import datetime as dt
 import math
+from contextlib import contextmanager
 from pathlib import Path
-from typing import Any, Callable
+from typing import Any, Callable, Iterator
 
 import pandas as pd
 import xlsxwriter
+from xlsxwriter.exceptions import FileCreateError
 from xlsxwriter.worksheet import CellFormulaTuple, CellRichStringTuple
 from xlsxwriter.xmlwriter import XMLwriter
 
@@ -28,10 +30,17 @@ TRUNCATION_MARK = " [cut: longer than a cell holds]"
 Progress = Callable[[str, int, int], None]
 
 
-def workbook_options() -> dict:
-    """The writer's options: text stays text, no URL or number guessing, lean memory."""
-    return {"constant_memory": True, "strings_to_formulas": False, "strings_to_numbers": False,
-            "strings_to_urls": False, "use_future_functions": False}
+def workbook_options(tmpdir: Path | None = None) -> dict:
+    """The writer's options: text stays text, no URL or number guessing, lean memory.
+
+    tmpdir is where the writer keeps its temporary files (constant_memory writes each
+    sheet to one); None leaves them in the system temporary folder.
+    """
+    options = {"constant_memory": True, "strings_to_formulas": False, "strings_to_numbers": False,
+               "strings_to_urls": False, "use_future_functions": False}
+    if tmpdir is not None:
+        options["tmpdir"] = str(tmpdir)
+    return options
 
 
 def _utf16_len(text: str) -> int:
@@ -84,8 +93,27 @@ def _cached(value: Any) -> Any:
     if hasattr(value, "item"):  # numpy scalars
         return value.item()
     if isinstance(value, str):  # a formula's text result: escaped as xlsxwriter escapes cell text
-        return XMLwriter._escape_control_characters(fit_text(value))
+        text = XMLwriter._escape_control_characters(fit_text(value))
+        return CachedText(text) if text in ERROR_TEXTS else text
     return value
+
+
+# The writer stores a formula's cached text that equals one of these as an error value
+# (t="e"); imported text such as a search term "#N/A" must stay text (t="str").
+ERROR_TEXTS = frozenset(("#DIV/0!", "#N/A", "#NAME?", "#NULL!", "#NUM!", "#REF!", "#VALUE!"))
+
+
+class CachedText(str):
+    """A formula's cached text that reads like an error value: compares unequal to the plain error
+    names, so that the writer's error test (``value in error_codes``) fails and it types the cell t="str".
+    """
+
+    def __eq__(self, other: object) -> bool:
+        if type(other) is str and other in ERROR_TEXTS:
+            return False
+        return str.__eq__(self, other)
+
+    __hash__ = str.__hash__
 
 
 def put_value(ws, row: int, col: int, value: Any, fmt) -> None:
@@ -259,38 +287,59 @@ def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress:
                     "select_locked_cells": True, "select_unlocked_cells": True, "objects": True})
 
 
-def render(spec: WorkbookSpec, path: Path, progress: Progress | None = None) -> None:
+@contextmanager
+def _workbook(path: Path, tmpdir: Path | None) -> Iterator[xlsxwriter.Workbook]:
+    """A writer for path, closed (written) when the block succeeds; on any failure its temporary
+    files are closed and the writer is dropped, and the operating-system error it wrapped is raised as itself.
+    """
+    wb = xlsxwriter.Workbook(str(path), workbook_options(tmpdir or Path(path).parent))
+    try:
+        yield wb
+        wb.close()
+    except BaseException as exc:
+        for ws in wb.worksheets():
+            if getattr(ws, "row_data_fh", None) is not None and not ws.row_data_fh.closed:
+                ws.row_data_fh.close()
+        wb.fileclosed = True  # nothing to close any more: the caller deletes the partial file
+        if isinstance(exc, FileCreateError) and exc.args and isinstance(exc.args[0], OSError):
+            raise exc.args[0] from None
+        raise
+
+
+def render(spec: WorkbookSpec, path: Path, progress: Progress | None = None, tmpdir: Path | None = None) -> None:
     """Write spec to path (the caller handles temporary names and renaming).
 
     Args:
         spec: the planned workbook.
         path: where to write the .xlsx file.
         progress: optional callback(sheet name, rows written, rows in the sheet).
+        tmpdir: the folder for the writer's temporary files; path's own folder when None.
     """
-    wb = xlsxwriter.Workbook(str(path), workbook_options())
-    formats = {key: wb.add_format(style_properties(key, spec.currency_symbol)) for key in STYLES}
-    state_formats = {name: wb.add_format({"bg_color": s.fill, "font_color": s.font})
-                     for name, s in STATES.items()}
-    for sheet in spec.sheets:
-        _write_sheet(wb, sheet, formats, state_formats, progress)
-    visible = [ws for ws, sheet in zip(wb.worksheets(), spec.sheets) if not sheet.hidden]
-    if visible:
-        visible[0].activate()
-    for name, ref in spec.names:
-        wb.define_name(name, ref)
-    wb.set_properties({"title": "sheetbuilder workbook", "author": "sheetbuilder", **spec.properties})
-    wb.close()
+    with _workbook(path, tmpdir) as wb:
+        formats = {key: wb.add_format(style_properties(key, spec.currency_symbol)) for key in STYLES}
+        state_formats = {name: wb.add_format({"bg_color": s.fill, "font_color": s.font})
+                         for name, s in STATES.items()}
+        for sheet in spec.sheets:
+            _write_sheet(wb, sheet, formats, state_formats, progress)
+        visible = [ws for ws, sheet in zip(wb.worksheets(), spec.sheets) if not sheet.hidden]
+        if visible:
+            visible[0].activate()
+        for name, ref in spec.names:
+            wb.define_name(name, ref)
+        wb.set_properties({"title": "sheetbuilder workbook", "author": "sheetbuilder", **spec.properties})
 
 
-def render_rows(path: Path, sheet: str, header: list[str], rows: list[list[Any]]) -> None:
-    """Write one plain sheet: a header and rows of values, text always as text (for exports)."""
-    wb = xlsxwriter.Workbook(str(path), workbook_options())
-    ws = wb.add_worksheet(sheet)
-    bold = wb.add_format({"bold": True})
-    for c, h in enumerate(header):
-        ws.write_string(0, c, h, bold)
-    for r, row in enumerate(rows, start=1):
-        for c, v in enumerate(row):
-            if v is not None:
-                put_value(ws, r, c, v, None)
-    wb.close()
+def render_rows(path: Path, sheet: str, header: list[str], rows: list[list[Any]], tmpdir: Path | None = None) -> None:
+    """Write one plain sheet: a header and rows of values, text always as text (for exports).
+
+    tmpdir is the folder for the writer's temporary files; path's own folder when None.
+    """
+    with _workbook(path, tmpdir) as wb:
+        ws = wb.add_worksheet(sheet)
+        bold = wb.add_format({"bold": True})
+        for c, h in enumerate(header):
+            ws.write_string(0, c, h, bold)
+        for r, row in enumerate(rows, start=1):
+            for c, v in enumerate(row):
+                if v is not None:
+                    put_value(ws, r, c, v, None)

@@ -18,6 +18,7 @@ import zipfile
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
+from xml.parsers import expat
 
 import pandas as pd
 from openpyxl.utils.cell import get_column_letter, range_boundaries
@@ -25,6 +26,7 @@ from openpyxl.utils.datetime import from_excel
 
 from . import contract as c
 from .columns import NO_SAVED_VALUE, EditableColumns
+from .guard import guard_saved_workbook
 from .errors import Problem, SheetbuilderError
 from .plan_inputs import sheet_name
 from .settings import SETTINGS, Settings, _coerce
@@ -62,6 +64,7 @@ def open_workbook(path: Path, data_only: bool = True):
     path = Path(path)
     if not path.is_file():
         raise WorkbookNotFound(f"the workbook {path} does not exist")
+    guard_saved_workbook(path, NotAWorkbook)  # zip, XML and link limits before openpyxl inflates anything
     try:
         return openpyxl.load_workbook(path, read_only=True, data_only=data_only)
     except (zipfile.BadZipFile, InvalidFileException, KeyError, OSError, ValueError) as exc:
@@ -155,7 +158,13 @@ class SavedBook:
     def _read(self, sheet: str, columns: frozenset[int] | None, formulas: bool) -> list[list[Any]]:
         ws = self.wb[sheet]
         with self.wb._archive.open(ws._worksheet_path) as fh:  # openpyxl's own handle on the file
-            xml = fh.read().decode("utf-8")
+            data = fh.read()
+        try:  # the scan below would read a truncated sheet's first rows silently: check the whole is well formed
+            expat.ParserCreate().Parse(data, True)
+        except expat.ExpatError as exc:
+            raise NotAWorkbook(f"{self.path} is not a workbook that can be read: its sheet '{sheet}' is damaged "
+                               f"({exc}); open it in a spreadsheet program and save it again") from None
+        xml = data.decode("utf-8")
         strings, dates, epoch = ws._shared_strings, self.wb._date_formats, self.wb.epoch
         found: dict[int, dict[int, Any]] = {}
         width = 0

@@ -7,6 +7,7 @@ from that one list, so adding a setting is one entry.
 from __future__ import annotations
 
 import datetime as dt
+import difflib
 import re
 import tomllib
 from dataclasses import dataclass, field, fields
@@ -15,7 +16,9 @@ from types import MappingProxyType
 from typing import Any
 
 from .contract import TABLE_BY_NAME
+from .periods import DATED_TABLES
 from .errors import Problem
+from .guard import text_problem
 
 SETTINGS_FILE = "settings.toml"
 
@@ -157,6 +160,7 @@ class Settings:
     destinations: MappingProxyType = field(default_factory=lambda: MappingProxyType({}))
     ad_type_benchmarks: MappingProxyType = field(default_factory=lambda: MappingProxyType(
         {"product ads": 0.85, "brand ads": 0.10, "display ads": 0.05}))
+    given: frozenset = frozenset()  # the settings settings.toml sets (a period read from dates yields to them)
 
     def value(self, key: str) -> Any:
         """The value of the setting named key."""
@@ -167,6 +171,9 @@ class Settings:
         values = {f.name: getattr(self, f.name) for f in fields(self)}
         values.update(changes)
         return Settings(**values)
+
+
+YES_NO = {"true": True, "yes": True, "false": False, "no": False}
 
 
 def _coerce(spec: SettingSpec, raw: Any, file: str) -> tuple[Any, Problem | None]:
@@ -204,9 +211,15 @@ def _coerce(spec: SettingSpec, raw: Any, file: str) -> tuple[Any, Problem | None
     if spec.kind == "bool":
         if isinstance(raw, bool):
             return raw, None
-        return bad("true or false")
+        if isinstance(raw, str) and raw.strip().lower() in YES_NO:
+            return YES_NO[raw.strip().lower()], None
+        return bad("true or false (yes or no)")
+    if isinstance(raw, bool) and spec.choices == ("yes", "no"):
+        return ("yes" if raw else "no"), None  # one style of yes/no everywhere: true/false, yes/no accepted
     if not isinstance(raw, str):
         return bad("text")
+    if (problem := text_problem(raw, setting=True)) is not None:
+        return spec.default, Problem(file, None, spec.key, f"{problem}, got {raw!r}")
     if spec.kind == "choice":
         value = " ".join(raw.strip().lower().split())
         if value not in spec.choices:
@@ -225,7 +238,7 @@ def _known_tables(columns: dict, files: dict, problems: list[Problem]) -> tuple[
             problems.append(Problem(SETTINGS_FILE, None, f"columns.{table}",
                                     f"unknown table; expected one of {tables}"))
             continue
-        names = [col.name for col in rule.columns]
+        names = [col.name for col in rule.columns] + list(DATED_TABLES.get(table, ()))
         kept_columns[table] = {}
         for name, header in cols.items():
             if name not in names:
@@ -235,12 +248,16 @@ def _known_tables(columns: dict, files: dict, problems: list[Problem]) -> tuple[
                 problems.append(Problem(SETTINGS_FILE, None, f"columns.{table}.{name}",
                                         f"expected the header as text, such as {name} = \"My header\", "
                                         f"got {header!r}"))
+            elif (problem := text_problem(header, setting=True)) is not None:
+                problems.append(Problem(SETTINGS_FILE, None, f"columns.{table}.{name}", problem))
             else:
                 kept_columns[table][name] = header
     kept_files: dict = {}
     for table, name in files.items():
         if table not in TABLE_BY_NAME:
             problems.append(Problem(SETTINGS_FILE, None, f"files.{table}", f"unknown table; expected one of {tables}"))
+        elif (problem := text_problem(name, setting=True)) is not None:
+            problems.append(Problem(SETTINGS_FILE, None, f"files.{table}", problem))
         else:
             kept_files[table] = name
     return kept_columns, kept_files
@@ -267,7 +284,9 @@ def load_settings(folder: Path) -> tuple[Settings, list[Problem]]:
         spec = SPEC_BY_KEY.get(key)
         if spec is None:
             known = ", ".join(s.key for s in SETTINGS)
-            problems.append(Problem(SETTINGS_FILE, None, key, f"unknown setting; known settings: {known}, [columns], [files], [destinations], [ad_type_benchmarks]"))
+            close = difflib.get_close_matches(str(key).lower(), [s.key for s in SETTINGS], n=1, cutoff=0.5)
+            hint = f"did you mean {close[0]}? " if close else ""
+            problems.append(Problem(SETTINGS_FILE, None, key, f"unknown setting; {hint}known settings: {known}, [columns], [files], [destinations], [ad_type_benchmarks]"))
             continue
         value, problem = _coerce(spec, raw, SETTINGS_FILE)
         if problem:
@@ -292,6 +311,10 @@ def load_settings(folder: Path) -> tuple[Settings, list[Problem]]:
                                                         and 0 <= v <= 1 for v in benchmarks.values())):
             problems.append(Problem(SETTINGS_FILE, None, "ad_type_benchmarks",
                                     'expected [ad_type_benchmarks] with "product ads" = 0.85 and the like (0 to 1)'))
+        elif any(text_problem(str(k), setting=True) for k in benchmarks):
+            key = next(str(k) for k in benchmarks if text_problem(str(k), setting=True))
+            problems.append(Problem(SETTINGS_FILE, None, f"ad_type_benchmarks.{key!r}",
+                                    str(text_problem(key, setting=True))))
         else:
             values["ad_type_benchmarks"] = MappingProxyType({str(k): float(v) for k, v in benchmarks.items()})
     if "product_id_pattern" in values:
@@ -300,7 +323,7 @@ def load_settings(folder: Path) -> tuple[Settings, list[Problem]]:
         except re.error as exc:
             problems.append(Problem(SETTINGS_FILE, None, "product_id_pattern", f"not a valid regular expression: {exc}"))
     return Settings(**values, columns=MappingProxyType(mapping), files=MappingProxyType(dict(files)),
-                    destinations=MappingProxyType(destinations)), problems
+                    destinations=MappingProxyType(destinations), given=frozenset(values)), problems
 
 
 def _destinations(raw: Any, problems: list[Problem]) -> dict[str, tuple[str, str]]:
@@ -315,6 +338,12 @@ def _destinations(raw: Any, problems: list[Problem]) -> dict[str, tuple[str, str
                 or not isinstance(where.get("ad_group"), str)):
             problems.append(Problem(SETTINGS_FILE, None, f"destinations.{product}",
                                     'expected { campaign = "...", ad_group = "..." }'))
+            continue
+        found = [(key, text_problem(text, setting=True)) for key, text in
+                 (("", str(product)), (".campaign", where["campaign"]), (".ad_group", where["ad_group"]))]
+        if any(problem for _, problem in found):
+            key, problem = next((k, p) for k, p in found if p)
+            problems.append(Problem(SETTINGS_FILE, None, f"destinations.{product}{key}", problem))
             continue
         out[str(product)] = (where["campaign"].strip(), where["ad_group"].strip())
     return out

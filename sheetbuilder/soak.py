@@ -6,7 +6,10 @@ property: `build` either writes a workbook openpyxl opens, or raises a Sheetbuil
 (InputProblems with every problem naming a file) and leaves nothing at the output path,
 and no *.partial.xlsx beside it.
 
-tests/test_fuzz_inputs.py runs these strategies with few examples in CI. The soak runs
+The workbook-reading fuzz (`damaged_saved`) does the same for `changes` and `--previous`:
+a built workbook with damaged parts is exported or carried, or refused with a message.
+
+tests/test_fuzz_inputs.py and tests/test_hardened.py run these strategies with few examples in CI. The soak runs
 them with many more, for the benchmark script (not in CI; needs the test extra):
 
     python -m sheetbuilder.soak [--examples N]
@@ -16,6 +19,7 @@ from __future__ import annotations
 import argparse
 import csv
 import datetime as dt
+import functools
 import io
 import sys
 import tempfile
@@ -315,19 +319,105 @@ STRATEGIES: dict[str, st.SearchStrategy[Case]] = {
 }
 
 
+# ---- saved workbooks: changes and --previous ---------------------------------------------
+# Each example starts from a workbook built from BASE (with hostile texts) and damages its
+# package: a part deleted, truncated, or overwritten with bytes, two sheets swapped, a huge
+# cell. The property: `changes` writes its file or raises a SheetbuilderError, and a build
+# with --previous writes a workbook (listing edits it cannot match) or raises a
+# SheetbuilderError; a refusal leaves nothing behind; no other exception escapes.
+
+@functools.lru_cache(maxsize=1)
+def built_workbook() -> bytes:
+    """The bytes of the workbook built from the base account (built once per process)."""
+    with tempfile.TemporaryDirectory(prefix="sheetbuilder-fuzz-") as tmp:
+        write_case(Path(tmp) / "in", {})
+        out = Path(tmp) / "book.xlsx"
+        build(Path(tmp) / "in", out, built_on=BUILT_ON)
+        return out.read_bytes()
+
+
+def _parts() -> dict[str, bytes]:
+    with zipfile.ZipFile(io.BytesIO(built_workbook())) as z:
+        return {name: z.read(name) for name in z.namelist()}
+
+
+def _sheet_parts() -> list[str]:
+    return sorted(n for n in _parts() if n.startswith("xl/worksheets/sheet"))
+
+
+@st.composite
+def damaged_workbooks(draw) -> bytes:
+    """A built workbook with one to three parts damaged."""
+    parts = _parts()
+    names = sorted(parts)
+    for _ in range(draw(st.integers(1, 3))):
+        how = draw(st.sampled_from(("delete", "truncate", "bytes", "swap", "huge_cell", "bad_xml")))
+        name = draw(st.sampled_from(sorted(parts) or names))
+        if how == "delete":
+            parts.pop(name, None)
+        elif how == "truncate" and name in parts:
+            parts[name] = parts[name][:draw(st.integers(0, max(len(parts[name]) - 1, 0)))]
+        elif how == "bytes" and name in parts:
+            at = draw(st.integers(0, len(parts[name])))
+            parts[name] = parts[name][:at] + draw(st.binary(min_size=1, max_size=40)) + parts[name][at + 1:]
+        elif how == "swap":
+            a, b = draw(st.sampled_from(_sheet_parts())), draw(st.sampled_from(_sheet_parts()))
+            if a in parts and b in parts:
+                parts[a], parts[b] = parts[b], parts[a]
+        elif how == "huge_cell":
+            sheet = draw(st.sampled_from(_sheet_parts()))
+            if sheet in parts:
+                size = draw(st.sampled_from((32_768, 200_000, 2_000_000)))
+                parts[sheet] = parts[sheet].replace(b"<v>", b"<v>" + b"9" * size, 1).replace(
+                    b"<t>", b"<t>" + b"x" * size, 1)
+        elif how == "bad_xml" and name in parts:
+            parts[name] = parts[name].replace(b">", b"", 1)
+    return zip_bytes(parts)
+
+
+def check_saved_case(data: bytes) -> str:
+    """Run changes and a build with --previous on the damaged workbook; assert the property."""
+    from .changes import export_changes  # noqa: PLC0415 (keeps the readers' fuzz free of openpyxl)
+
+    with tempfile.TemporaryDirectory(prefix="sheetbuilder-fuzz-") as tmp:
+        folder, out_dir = Path(tmp) / "in", Path(tmp) / "out"
+        write_case(folder, {})
+        out_dir.mkdir()
+        saved = Path(tmp) / "saved.xlsx"
+        saved.write_bytes(data)
+        outcomes = []
+        for run, out in ((lambda o: export_changes(saved, o), out_dir / "changes.csv"),
+                         (lambda o: build(folder, o, built_on=BUILT_ON, previous=saved), out_dir / "book.xlsx")):
+            try:
+                run(out)
+                outcomes.append("written")
+                assert out.is_file(), f"{out.name} was not written"
+                out.unlink()
+            except SheetbuilderError as exc:
+                assert str(exc).strip(), "a refusal without a message"
+                outcomes.append("refused")
+            left = sorted(x.name for x in out_dir.iterdir())
+            assert [] == left, f"left {left}"
+        return "/".join(outcomes)
+
+
+SAVED_STRATEGIES: dict[str, st.SearchStrategy[bytes]] = {"damaged_saved": damaged_workbooks()}
+
+
 # ---- the soak ---------------------------------------------------------------------------
 
 def soak(examples: int, names: list[str] | None = None, seed: int | None = None) -> int:
     """Run every strategy with `examples` examples; print timings. Returns a process exit code."""
     failed = 0
-    for name in names or list(STRATEGIES):
+    for name in names or [*STRATEGIES, *SAVED_STRATEGIES]:
         outcomes: dict[str, int] = {}
+        check = check_saved_case if name in SAVED_STRATEGIES else check_case
 
         @settings(max_examples=examples, deadline=None, database=None, derandomize=seed is not None,
                   suppress_health_check=list(HealthCheck))
-        @given(STRATEGIES[name])
-        def run(case: Case) -> None:
-            outcome = check_case(case)
+        @given({**STRATEGIES, **SAVED_STRATEGIES}[name])
+        def run(case) -> None:
+            outcome = check(case)
             outcomes[outcome] = outcomes.get(outcome, 0) + 1
 
         start = time.perf_counter()
@@ -346,7 +436,8 @@ def soak(examples: int, names: list[str] | None = None, seed: int | None = None)
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(prog="python -m sheetbuilder.soak", description=__doc__.split("\n\n")[0])
     parser.add_argument("--examples", type=int, default=2000, help="examples per strategy (default 2000)")
-    parser.add_argument("--only", action="append", choices=sorted(STRATEGIES), help="run only this strategy")
+    parser.add_argument("--only", action="append", choices=sorted([*STRATEGIES, *SAVED_STRATEGIES]),
+                        help="run only this strategy")
     parser.add_argument("--derandomize", action="store_true", help="the same examples every run")
     args = parser.parse_args(argv)
     return soak(args.examples, args.only, 0 if args.derandomize else None)

@@ -201,7 +201,7 @@ def test_output_that_exists_without_force_raises_and_keeps_its_bytes(tmp_path):
 
 
 def test_crash_mid_render_leaves_no_partial_file(tmp_path, monkeypatch):
-    def crashing_render(spec, path, progress=None):
+    def crashing_render(spec, path, progress=None, tmpdir=None):
         Path(path).write_bytes(b"PK half a workbook")
         raise RuntimeError("disk on fire")
 
@@ -215,7 +215,7 @@ def test_crash_mid_render_leaves_no_partial_file(tmp_path, monkeypatch):
 
 
 def test_crash_mid_render_with_force_keeps_the_previous_output(tmp_path, monkeypatch):
-    def crashing_render(spec, path, progress=None):
+    def crashing_render(spec, path, progress=None, tmpdir=None):
         Path(path).write_bytes(b"PK half a workbook")
         raise RuntimeError("disk on fire")
 

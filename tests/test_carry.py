@@ -208,14 +208,15 @@ def test_decisions_that_are_not_a_valid_word_or_number_are_unmatched_with_the_re
     assert "formula with no saved value" in why["Budget"]
 
 
-def test_keys_with_a_control_character_or_longer_than_a_cell_still_match_their_rows(tmp_path):
-    """A target with a control character and one longer than a cell (cut with a mark when written:
-    Microsoft, "Excel specifications and limits", 32,767 characters) are carried, not reported as gone."""
+def test_keys_with_a_tab_or_longer_than_a_cell_still_match_their_rows(tmp_path):
+    """A target holding a tab and one longer than a cell (cut with a mark when written:
+    Microsoft, "Excel specifications and limits", 32,767 characters) are carried, not reported as gone.
+    (Other control characters are refused on input: a workbook cannot keep them exactly.)"""
     import csv as _csv
     from minimal import TARGETS, write_account
     from sheetbuilder.plan_bids import EDITABLE_COLUMNS as BIDS
     from sheetbuilder.saved import named_area
-    control, long = "bell\x07kw", "w" * 40_000
+    control, long = "tab\tkw", "w" * 40_000
     rows = TARGETS + "".join(f'C1,G1,"{t}",exact,enabled,0.40,100,10,5.00,20.00,1\n' for t in (control, long))
     folder = write_account(tmp_path / "acct", {"targets.csv": rows})
     built = build(folder, tmp_path / "w1.xlsx", built_on=BUILT_ON)

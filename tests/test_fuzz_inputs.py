@@ -15,7 +15,7 @@ from pathlib import Path
 import pytest
 from hypothesis import HealthCheck, given, settings
 
-from sheetbuilder import readers
+from sheetbuilder import guard, readers
 from sheetbuilder.errors import ERROR, WARNING, InputProblems
 from sheetbuilder.pipeline import build, load
 from sheetbuilder.soak import BASE, STRATEGIES, base_rows, check_case, to_csv, valid_xlsx, write_case, zip_bytes
@@ -61,7 +61,7 @@ def test_utf16_without_a_bom_is_one_problem_saying_so(tmp_path):
     write_case(tmp_path / "in", {"catalog.csv": BASE["catalog.csv"].encode("utf-16-le")})
     with pytest.raises(InputProblems) as caught:
         load(tmp_path / "in")
-    assert [("catalog.csv", None, None)] == [(p.file, p.row, p.column) for p in caught.value.problems]
+    assert [("catalog.csv", 1, None)] == [(p.file, p.row, p.column) for p in caught.value.problems]
     assert "NUL characters" in caught.value.problems[0].message
 
 
@@ -90,7 +90,7 @@ def test_a_valid_xlsx_passes_the_zip_checks(tmp_path):
 
 
 def test_xlsx_that_unpacks_beyond_the_total_limit_is_refused_as_a_zip_bomb(tmp_path, monkeypatch):
-    monkeypatch.setattr(readers, "MAX_ZIP_TOTAL", 1024 * 1024)
+    monkeypatch.setattr(guard, "MAX_ZIP_TOTAL", 1024 * 1024)
     entries = _workbook_entries()
     entries["xl/media/zeros.bin"] = bytes(2 * 1024 * 1024)
     message = _xlsx_problem(tmp_path, zip_bytes(entries))
@@ -98,15 +98,27 @@ def test_xlsx_that_unpacks_beyond_the_total_limit_is_refused_as_a_zip_bomb(tmp_p
 
 
 def test_xlsx_with_a_part_compressed_too_well_is_refused_as_a_zip_bomb(tmp_path, monkeypatch):
-    monkeypatch.setattr(readers, "RATIO_ENTRY_MIN", 1024 * 1024)
+    monkeypatch.setattr(guard, "RATIO_ENTRY_MIN", 1024 * 1024)
     entries = _workbook_entries()
     entries["xl/worksheets/sheet1.xml"] = entries["xl/worksheets/sheet1.xml"] + b" " * (2 * 1024 * 1024)
     message = _xlsx_problem(tmp_path, zip_bytes(entries))
     assert "'xl/worksheets/sheet1.xml' unpacks" in message and "it may be a zip bomb" in message
 
 
+def test_ods_with_a_part_compressed_too_well_is_refused_as_a_zip_bomb(tmp_path, monkeypatch):
+    # An .ods is a zip too (OpenDocument v1.2, part 3: packages); the same limits apply before calamine opens it.
+    monkeypatch.setattr(guard, "RATIO_ENTRY_MIN", 1024 * 1024)
+    entries = {"mimetype": b"application/vnd.oasis.opendocument.spreadsheet",
+               "content.xml": b"<office:document-content/>" + b" " * (2 * 1024 * 1024)}
+    write_case(tmp_path / "in", {"catalog.csv": None, "catalog.ods": zip_bytes(entries)})
+    with pytest.raises(InputProblems) as caught:
+        load(tmp_path / "in")
+    assert [("catalog.ods", None, None)] == [(p.file, p.row, p.column) for p in caught.value.problems]
+    assert "'content.xml' unpacks" in caught.value.problems[0].message
+
+
 def test_xlsx_with_too_many_parts_is_refused(tmp_path, monkeypatch):
-    monkeypatch.setattr(readers, "MAX_ZIP_ENTRIES", 20)
+    monkeypatch.setattr(guard, "MAX_ZIP_ENTRIES", 20)
     entries = _workbook_entries()
     entries.update({f"xl/media/x{i}.bin": b"x" for i in range(20)})
     assert "more than 20; it may be a zip bomb" in _xlsx_problem(tmp_path, zip_bytes(entries))

@@ -37,16 +37,16 @@ HOSTILE = {
     "minus": "-2+3",
     "at": "@SUM(A1)",
     "tab": "\tTAB leading",
-    "cr": "\rCR leading",
+    "newline": "two\nlines",
     "long": LONG,
     "emoji": "🌱 seed tray 🌼",
     "hebrew": "עציץ",
     "arabic": "وعاء",
     "wildcards": "pots * ? ~ mix",
-    "control": "bell\x07here",
-    "xstring_lookalike": "_x0041_ stays as written",
     "rich_text_lookalike": "<r>pots & trays</r>",
 }
+# Control characters other than tab and line feed, and _xHHHH_ look-alikes, are refused on
+# input (tests/test_hardened.py): programs read their escapes back differently.
 NAMES = list(HOSTILE)
 TEXT_COLUMNS = {  # sheet: columns that hold hostile text
     "in_catalog": ["product_name"],

@@ -39,7 +39,7 @@ def main(argv: list[str]) -> int:
     out.mkdir(parents=True, exist_ok=True)
     inputs, settings, problems = load(folder)
     plan = plan_workbook(inputs, settings, DEMO_DATE, [p for p in problems if p.severity == WARNING])
-    write_atomically(plan.spec, out / "demo.xlsx")
+    write_atomically(plan.spec, out / "demo.xlsx", force=True)
     plans = {name: plan for name in sheets}
     if "Follow-up" in sheets:
         plans["Follow-up"] = week2_plan(folder, out)
@@ -51,7 +51,7 @@ def main(argv: list[str]) -> int:
             for sheet in spec.sheets:
                 sheet.hidden = sheet.name != name
             path = tmp / f"{name.lower()}.xlsx"
-            write_atomically(spec, path)
+            write_atomically(spec, path, force=True)
             files.append(path)
         pdfs = libreoffice_convert(files, tmp / "pdf", target="pdf")
         for name, pdf in zip(sheets, pdfs):

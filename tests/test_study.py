@@ -1,0 +1,271 @@
+"""The simulated-market study: its draws against scipy.stats, the manual rule from its definition,
+and a small, fast run checking what must hold in any honest run (paired markets, hold holds, the
+method's proposals are what `build` writes).
+
+Outside source for the distribution checks: scipy.stats documentation (scipy.stats.poisson,
+binom, beta, lognorm; scipy.stats.chisquare and kstest for goodness of fit).
+"""
+from __future__ import annotations
+
+import datetime as dt
+import sys
+from pathlib import Path
+
+import numpy as np
+import openpyxl
+import pytest
+from scipy import stats
+
+sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
+
+from sheetbuilder.pipeline import build  # noqa: E402
+from sheetbuilder.settings import Settings  # noqa: E402
+from study.market import Scenario, draw_market  # noqa: E402
+from study.measures import MEASURES, acos_gap, in_band, reachable, measure, paired_bootstrap, simulate  # noqa: E402
+from study.policies import Window, WorkbookMethod, hold, manual_rule, period_end, planned_final_bids, \
+    write_exports  # noqa: E402
+from study.run_study import aims, comparison_table, confirm, run_policies  # noqa: E402
+
+ALPHA = 0.001  # goodness-of-fit tests fail only when the draws are very unlikely under the stated law
+ONE_PRODUCT = Scenario("one product", products=1, keywords_per_product=20000, dead_share=0.0)
+SMALL = Scenario("tiny", products=2, keywords_per_product=6, clicks_per_week=15.0)
+
+
+def _within_se(expected: float, sample: np.ndarray, sd: float) -> None:
+    """The sample mean lies within 4 standard errors of the expected mean."""
+    assert abs(expected - sample.mean()) <= 4 * sd / np.sqrt(len(sample))
+
+
+@pytest.fixture(scope="module")
+def big():
+    return draw_market(ONE_PRODUCT, 11)
+
+
+def test_keyword_conversion_rates_follow_the_stated_beta(big):
+    c, s = big.product_cvr[0], ONE_PRODUCT.cvr_concentration
+    law = stats.beta(c * s, (1 - c) * s)
+    mean, var = law.stats(moments="mv")
+    _within_se(float(mean), big.cvr, float(np.sqrt(var)))
+    assert float(var) == pytest.approx(big.cvr.var(), rel=0.1)
+    assert stats.kstest(big.cvr, law.cdf).pvalue > ALPHA
+
+
+def test_a_share_of_keywords_never_converts():
+    market = draw_market(ONE_PRODUCT.but(dead_share=0.15), 12)
+    dead = int((market.cvr == 0).sum())
+    assert stats.binomtest(dead, market.size, 0.15).pvalue > ALPHA
+
+
+def test_cost_per_click_discount_follows_the_stated_beta(big):
+    law = stats.beta(ONE_PRODUCT.discount_a, ONE_PRODUCT.discount_b)
+    _within_se(float(law.mean()), big.discount, float(law.std()))
+    assert stats.kstest(big.discount, law.cdf).pvalue > ALPHA
+    assert np.all(big.cpc(big.start_bid) <= big.start_bid)
+
+
+def test_clicks_at_the_reference_bid_follow_a_lognormal_with_the_stated_mean(big):
+    sd = ONE_PRODUCT.clicks_sd
+    law = stats.lognorm(s=sd, scale=ONE_PRODUCT.clicks_per_week * np.exp(-sd ** 2 / 2))
+    assert ONE_PRODUCT.clicks_per_week == pytest.approx(float(law.mean()))
+    _within_se(float(law.mean()), big.base_clicks, float(law.std()))
+    assert stats.kstest(big.base_clicks, law.cdf).pvalue > ALPHA
+
+
+def test_order_values_sit_around_the_price(big):
+    law = stats.lognorm(s=ONE_PRODUCT.order_value_sd, scale=big.price[0])
+    assert stats.kstest(big.order_value, law.cdf).pvalue > ALPHA
+
+
+def _weekly_draws(weeks: int = 3000):
+    """One keyword's clicks and orders over many weeks at a fixed bid (each week its own stream)."""
+    market = draw_market(Scenario("one", products=1, keywords_per_product=1, dead_share=0.0, cvr=0.2), 5)
+    draws = [market.week(w, market.start_bid) for w in range(1, weeks + 1)]
+    clicks = np.array([d["clicks"][0] for d in draws])
+    orders = np.array([d["orders"][0] for d in draws])
+    return market, clicks, orders
+
+
+def _chisquare(sample: np.ndarray, law) -> float:
+    """Pearson's chi-square p-value of integer draws against a discrete law, the tails pooled."""
+    low, high = int(law.ppf(0.005)), int(law.ppf(0.995))
+    observed = [np.sum(sample <= low)] + [np.sum(sample == k) for k in range(low + 1, high)] + [np.sum(sample >= high)]
+    expected = [law.cdf(low)] + [law.pmf(k) for k in range(low + 1, high)] + [law.sf(high - 1)]
+    expected = np.array(expected) * len(sample) / np.sum(expected)
+    return float(stats.chisquare(observed, expected).pvalue)
+
+
+def test_weekly_clicks_are_poisson_with_the_bids_mean():
+    market, clicks, _ = _weekly_draws()
+    law = stats.poisson(float(market.mean_clicks(market.start_bid)[0]))
+    mean, var = law.stats(moments="mv")
+    _within_se(float(mean), clicks, float(np.sqrt(var)))
+    assert float(var) == pytest.approx(clicks.var(), rel=0.1)
+    assert _chisquare(clicks, law) > ALPHA
+
+
+def test_orders_are_binomial_in_clicks():
+    market, clicks, orders = _weekly_draws()
+    q = float(market.cvr[0])
+    common = np.bincount(clicks).argmax()
+    given = orders[clicks == common]
+    assert _chisquare(given, stats.binom(int(common), q)) > ALPHA
+    # Thinning: Poisson clicks each converting with probability q give Poisson(lambda q) orders.
+    assert _chisquare(orders, stats.poisson(float(market.mean_clicks(market.start_bid)[0]) * q)) > ALPHA
+
+
+def test_clicks_rise_with_the_bid_with_diminishing_returns():
+    market = draw_market(SMALL, 3)
+    bids = np.array([0.5, 1.0, 1.5, 2.0])
+    lam = [market.mean_clicks(np.full(market.size, b))[0] for b in bids]
+    steps = np.diff(lam)
+    assert np.all(steps > 0)
+    assert np.all(np.diff(steps) < 0)
+
+
+def test_the_profit_optimal_target_is_the_acos_at_the_most_profitable_bid():
+    # Checked numerically with scipy.optimize.minimize_scalar (scipy documentation), not from the formula.
+    from scipy.optimize import minimize_scalar
+    market = draw_market(Scenario("opt", products=2, keywords_per_product=3, dead_share=0.0, target_at_optimum=True), 9)
+    for i in range(market.size):
+        value = market.cvr[i] * market.order_value[i] * market.margin[market.product[i]]
+
+        def loss(bid):
+            clicks = market.base_clicks[i] * (bid / market.ref_bid[i]) ** market.scenario.elasticity
+            return -clicks * (value - bid * market.discount[i])
+
+        best = minimize_scalar(loss, bounds=(0.001, 50.0), method="bounded", options={"xatol": 1e-9}).x
+        acos = best * market.discount[i] / (market.cvr[i] * market.order_value[i])
+        assert market.keyword_target()[i] == pytest.approx(acos, abs=1e-4)
+
+
+def _window(bid: float, clicks: int, spend: float, sales: float) -> Window:
+    return Window(1, 1, np.array([clicks]), np.array([1]), np.array([spend]), np.array([sales]), np.array([bid]))
+
+
+@pytest.mark.parametrize("clicks, spend, sales, expected", [
+    (20, 46.0, 100.0, 0.80),    # 46% against 30%: 16 points, cut 20% (the issue's example)
+    (20, 20.0, 100.0, 1.10),    # 20% against 30%: raise 10%
+    (20, 31.0, 100.0, 1.00),    # 1 point: rounds to no change
+    (20, 130.0, 100.0, 0.50),   # 100 points over: the 50% step cap
+    (20, 12.0, 0.0, 0.50),      # no sales: the largest cut
+    (9, 46.0, 100.0, 1.00),     # below min_clicks (10): held
+])
+def test_manual_rule_steps_by_the_acos_gap_rounded_to_ten_points(clicks, spend, sales, expected):
+    market = draw_market(Scenario("one", products=1, keywords_per_product=1), 1)
+    assert expected == pytest.approx(manual_rule(market, _window(1.00, clicks, spend, sales))[0])
+
+
+def test_manual_rule_stops_at_the_bid_floor():
+    market = draw_market(Scenario("one", products=1, keywords_per_product=1), 1)
+    assert 0.10 == pytest.approx(manual_rule(market, _window(0.15, 30, 9.0, 0.0))[0])
+
+
+def test_bids_at_the_target_bid_are_all_in_the_band():
+    market = draw_market(SMALL, 4)
+    bids = np.where(np.isfinite(market.target_bid()), np.round(market.target_bid(), 2), 1.0)
+    assert 1.0 == in_band(market, bids)
+    assert 0.0 == in_band(market, bids * 3)
+    assert acos_gap(market, bids) < 0.5  # cents rounding only
+    ok = reachable(market)
+    assert np.median(market.keyword_target()[ok] * 200) == pytest.approx(acos_gap(market, bids * 3), rel=0.05)
+
+
+def test_paired_bootstrap_of_a_constant_difference_is_that_constant():
+    assert (2.5, 2.5, 2.5) == pytest.approx(paired_bootstrap(np.full(10, 2.5)))
+    mean, low, high = paired_bootstrap(np.arange(20.0))
+    assert low < mean < high
+
+
+def test_the_same_seed_draws_the_same_market_and_another_seed_another():
+    a, b, c = draw_market(SMALL, 7), draw_market(SMALL, 7), draw_market(SMALL, 8)
+    for key in ("price", "margin", "cvr", "order_value", "base_clicks", "discount", "start_bid"):
+        assert getattr(a, key).tolist() == getattr(b, key).tolist()
+        assert getattr(a, key).tolist() != getattr(c, key).tolist()
+
+
+@pytest.fixture(scope="module")
+def small_runs():
+    """Each policy for four weeks on one small market (the workbook policies planned by sheetbuilder)."""
+    market = draw_market(SMALL, 21)
+    policies = {"method": WorkbookMethod(), "manual": manual_rule, "hold": hold}
+    return market, {name: simulate(market, policy, weeks=4) for name, policy in policies.items()}
+
+
+def test_hold_never_changes_a_bid(small_runs):
+    market, runs = small_runs
+    assert np.all(runs["hold"].bids == market.start_bid)
+
+
+def test_paired_policies_see_identical_weeks_where_their_bids_agree(small_runs):
+    market, runs = small_runs
+    agree = runs["method"].bids[:-1] == runs["hold"].bids[:-1]
+    assert agree.any() and not agree.all()  # the check below compares something and not everything
+    for key in ("clicks", "orders", "spend", "sales"):
+        assert getattr(runs["hold"], key)[agree].tolist() == getattr(runs["method"], key)[agree].tolist()
+    # Week one runs at the shared starting bids: identical for every policy.
+    assert runs["manual"].clicks[0].tolist() == runs["hold"].clicks[0].tolist()
+
+
+def test_the_method_moves_bids_and_stays_within_floor_ceiling_and_caps(small_runs):
+    _, runs = small_runs
+    bids = runs["method"].bids
+    s = Settings()
+    assert np.any(bids[1:] != bids[:-1])
+    old, new = bids[:-1], bids[1:]
+    moved = new != old
+    assert np.all(new[moved] >= s.bid_floor) and np.all(new[moved] <= s.bid_ceiling)
+    assert np.all(new <= np.round(old * (1 + s.max_bid_raise), 2) + 0.005)
+    assert np.all(new >= np.round(old * (1 - s.max_bid_cut), 2) - 0.005)
+
+
+def test_the_planned_final_bids_are_what_build_writes_in_the_workbook(tmp_path):
+    market = draw_market(SMALL, 31)
+    first = market.week(1, market.start_bid)
+    second = market.week(2, market.start_bid)
+    sums = {k: first[k] + second[k] for k in ("clicks", "orders", "spend", "sales")}
+    window = Window(2, 2, sums["clicks"], sums["orders"], sums["spend"], sums["sales"], market.start_bid)
+    folder = tmp_path / "exports"
+    folder.mkdir()
+    write_exports(folder, market, window)
+    planned = planned_final_bids(folder, market, 2)
+    built = build(folder, tmp_path / "week2.xlsx", built_on=period_end(2) + dt.timedelta(days=10))
+    sheet = openpyxl.load_workbook(built.output, data_only=True, read_only=True)["Bids"]
+    rows = list(sheet.iter_rows(min_row=4, values_only=True))  # title, note, blank, header
+    header = list(rows[0])
+    at = {name: header.index(name) for name in ("Campaign", "Ad group", "Target", "Match type", "Final bid")}
+    cached = {(r[at["Campaign"]], r[at["Ad group"]], r[at["Target"]], r[at["Match type"]]): r[at["Final bid"]]
+              for r in rows[1:] if r[at["Campaign"]]}
+    assert len(market.names) == len(cached)
+    assert [cached[name] for name in market.names] == pytest.approx(planned.tolist(), abs=1e-9)
+    assert np.any(planned != market.start_bid)  # some proposal moves, so the comparison is not trivial
+
+
+def test_a_small_study_writes_a_row_per_measure_and_an_aim_per_scenario():
+    results = run_policies({"method": WorkbookMethod(), "manual rule": manual_rule, "no smoothing": hold,
+                            "hold": hold}, range(1, 3), 2, {"tiny": SMALL})
+    table = comparison_table(results)
+    assert len(MEASURES) == sum(1 for line in table if line.startswith("| ") and "---" not in line) - 1
+    rows = aims(results)[2:]
+    assert 4 == len(rows)
+    assert all(row.count("met") == 1 for row in rows)  # one verdict per scenario (one scenario here)
+    assert (2, len(MEASURES)) == results["tiny"]["method"].shape
+
+
+def test_measures_of_a_run_follow_their_definitions(small_runs):
+    market, runs = small_runs
+    run = runs["hold"]
+    found = measure(market, run)
+    margin = market.margin[market.product]
+    assert float(np.sum(run.sales * margin - run.spend)) == pytest.approx(found["profit"])
+    assert float(run.spend[:, market.cvr == 0].sum()) == pytest.approx(found["dead_spend"])
+    assert 0.0 == found["bid_change"]
+    assert in_band(market, market.start_bid) == found["in_band"]
+
+
+def test_the_method_with_its_own_default_spelled_out_differs_by_nothing():
+    lines = confirm("max_bid_raise", Settings().max_bid_raise, range(1, 2), 2)
+    rows = [line for line in lines if line.startswith("| ") and "---" not in line][1:]
+    assert 5 == len(rows)  # the four default scenarios and the profit-optimal target
+    for row in rows:
+        cells = row.strip("| ").split(" | ")[1:]
+        assert all(cell.startswith("+0.0 [+0.0, +0.0]") for cell in cells), row
