@@ -294,3 +294,23 @@ def test_follow_up_formulas_recalculated_by_the_formulas_library_equal_the_cache
     assert [] == [w for w in wrong if w.startswith(SHEET.upper())]
     assert 40 <= len(recalculated)
     assert "The periods do not overlap." == openpyxl.load_workbook(week2.output, data_only=True)[SHEET]["A3"].value
+
+
+def test_the_periods_come_from_the_exports_dates_when_they_carry_them(tmp_path):
+    folder = _tiny_week1(tmp_path / "w1")
+    (folder / "settings.toml").write_text("", encoding="utf-8")  # no period in the settings
+    for name in ("store_sales.csv", "ad_products.csv", "targets.csv", "search_terms.csv"):
+        lines = (folder / name).read_text(encoding="utf-8").splitlines()
+        dated = [lines[0] + ",start_date,end_date"] + [line + ",2026-11-23,2026-11-29" for line in lines[1:]]
+        (folder / name).write_text("\n".join(dated) + "\n", encoding="utf-8")
+    week1 = build(folder, tmp_path / "w1.xlsx", built_on=BUILT_ON)
+    export_changes(week1.output, tmp_path / "c1.csv")
+    with (tmp_path / "c1.csv").open(newline="", encoding="utf-8-sig") as f:
+        applied, elsewhere = choose(list(csv.DictReader(f)))
+    # next week's exports made without moving their dates: the same 7 days, shared in full
+    week2 = build(make_week2(folder, tmp_path / "w2", applied, elsewhere), tmp_path / "w2.xlsx",
+                  built_on=BUILT_ON + dt.timedelta(days=7), previous=week1.output)
+    ws = openpyxl.load_workbook(week2.output, data_only=True)[SHEET]
+    assert ("Last period: 2026-11-23 to 2026-11-29 (7 days). This period: 2026-11-23 to 2026-11-29 (7 days)."
+            == ws["A2"].value)
+    assert ws["A3"].value.startswith("The periods overlap by 7 days")

@@ -81,7 +81,8 @@ def make_week2(src: Path, dst: Path, applied: list[dict], elsewhere: list[dict])
                 row["bid"] = f"{bid:.2f}"
     for ch in applied:
         if ch["kind"] in ("add keyword", "add product target"):
-            targets.append({**{h: "" for h in header}, **NEW_KEYWORD, "campaign": ch["campaign"],
+            like = {h: (targets[0][h] if targets else "") for h in header}  # dates and other columns as its rows have
+            targets.append({**like, **NEW_KEYWORD, "campaign": ch["campaign"],
                             "ad_group": ch["ad_group"], "target": ch["target_or_term"],
                             "match_type": ch["match_type"], "bid": f"{float(ch['new']):.2f}"})
     _write(dst / "targets.csv", header, targets)
