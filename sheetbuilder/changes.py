@@ -29,7 +29,9 @@ from .errors import OutputExists, Problem, SheetbuilderError, UnsafeOutput
 SHEET = "Actions"
 HEADER_ROW = ACTIONS_HEADER_ROW + 1  # 1-based, as a spreadsheet shows it
 FIRST_ROW = 5
-COLUMNS = ("kind", "campaign", "ad_group", "target_or_term", "match_type", "current", "new", "reason")
+COLUMNS = ("kind", "campaign", "ad_group", "target_or_term", "match_type", "current", "new", "reason", "product_id",
+           "money_at_stake")
+MONEY = ("current", "new", "money_at_stake")  # written with two decimals, however the workbook stored them
 KINDS = ("bid", "add keyword", "add product target", "add negative", "budget")
 ADDS = ("add keyword", "add product target")
 FORMATS = ("csv", "xlsx")
@@ -164,7 +166,7 @@ def read_actions(workbook: Path) -> tuple[list[tuple[int, list[Any]]], dict[str,
 
 def check_change(row: int, values: list[Any], context: dict[str, Any]) -> list[Problem]:
     """The problems of one change (none when it can be written)."""
-    kind, campaign, group, term, _match, _current, new, _reason = values
+    kind, campaign, group, term, _match, _current, new = values[:7]
     kind = str(kind).strip().lower()
     out: list[Problem] = []
 
@@ -195,6 +197,18 @@ def check_change(row: int, values: list[Any], context: dict[str, Any]) -> list[P
         if kind == "add negative" and _blank(campaign):
             bad("Campaign", "a negative needs its campaign")
     return out
+
+
+def _money(value: Any) -> Any:
+    """A money cell rounded to the cent (however the workbook stored it); blank stays blank."""
+    if not _is_number(value):
+        return None if _blank(value) else value
+    return round(float(value), 2) + 0.0
+
+
+def _cents_text(row: list[Any]) -> list[Any]:
+    """The row as CSV writes it: money with exactly two decimals."""
+    return [f"{v:.2f}" if c in MONEY and _is_number(v) else v for c, v in zip(COLUMNS, row)]
 
 
 def _check_output(workbook: Path, output: Path, fmt: str, force: bool) -> None:
@@ -251,9 +265,10 @@ def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool =
             continue
         values = list(values)
         values[0] = str(values[0]).strip().lower()
-        kept.append([None if v == "" or (_blank(v) and not isinstance(v, str)) else v for v in values])
+        kept.append([_money(v) if c in MONEY else None if v == "" or (_blank(v) and not isinstance(v, str)) else v
+                     for c, v in zip(COLUMNS, values)])
     if fmt == "csv":
-        write_csv(output, COLUMNS, kept, force=force)
+        write_csv(output, COLUMNS, [_cents_text(r) for r in kept], force=force)
     else:
         write_xlsx(output, list(COLUMNS), kept)
     return ChangesResult(output, len(kept), problems, recalculated, refused, kept)
