@@ -15,10 +15,12 @@ import math
 from collections import defaultdict
 
 import openpyxl
+import pytest
 from hypothesis import HealthCheck, given, settings as hsettings
 
 from accounts import accounts, write_account
-from conftest import BUILT_ON, DEMO
+from conftest import BUILT_ON, DEMO, require_libreoffice
+from oracle_actions import actions_oracle
 from sheetbuilder.normalise import contains_phrase, normalise
 from sheetbuilder.pipeline import build, load
 from sheetbuilder.plan_actions import HEADER_ROW, HEADERS
@@ -26,7 +28,8 @@ from sheetbuilder.plan_actions import HEADER_ROW, HEADERS
 ADDS = ("add keyword", "add product target")
 KEYS = {"Kind": "kind", "Campaign": "campaign", "Ad group": "ad_group", "Target or term": "target",
         "Match type": "match_type", "Current": "current", "New": "new", "Reason": "reason",
-        "Product ID": "product_id", "Money at stake": "money"}
+        "Product ID": "product_id", "Money at stake": "money", "Segment": "seg"}
+GROUPS = {1: "bid", 2: "add", 3: "source negative", 4: "add negative", 5: "budget"}
 
 
 def _text(v) -> str:
@@ -102,10 +105,46 @@ def violations(actions: list[dict], tables: dict, fold: bool) -> list[str]:
     return out
 
 
+def _plain(v):
+    if v is None or v == "" or (isinstance(v, float) and math.isnan(v)):
+        return None
+    return round(float(v), 6) if isinstance(v, (int, float)) else v
+
+
+def reference_mismatches(actions: list[dict], folder) -> list[str]:
+    """Where the Actions rows differ from tests/oracle_actions.py, kind by kind, and where a kind is out of order."""
+    inputs, s, _ = load(folder)
+    expected = actions_oracle(inputs.tables, s)
+    got = defaultdict(list)
+    for a in actions:
+        got[GROUPS[int(a["seg"])]].append(a)
+    out = []
+    for group in GROUPS.values():
+        rows = [tuple(_plain(a[k]) for k in ("kind", "campaign", "ad_group", "target", "match_type", "current", "new",
+                                               "reason", "product_id", "money")) for a in got[group]]
+        want = [tuple(_plain(v) for v in row) for row in expected.get(group, [])]
+        if sorted(want, key=repr) != sorted(rows, key=repr):
+            out.append(f"{group}: expected {sorted(want, key=repr)}, got {sorted(rows, key=repr)}")
+        money = [round(r[-1], 2) for r in rows]
+        if money != sorted(money, reverse=True):
+            out.append(f"{group}: not largest money first: {money}")
+    return out
+
+
 def _check(result, folder) -> None:
     inputs, s, _ = load(folder)
     assert [] == violations(frame_actions(result), inputs.tables, s.fold_plurals), "reference frame"
-    assert [] == violations(workbook_actions(result.output), inputs.tables, s.fold_plurals), "cached values"
+    cached = workbook_actions(result.output)
+    assert [] == violations(cached, inputs.tables, s.fold_plurals), "cached values"
+    assert [] == reference_mismatches(cached, folder), "cached values against the reference"
+
+
+@pytest.mark.libreoffice
+def test_demo_and_generated_actions_libreoffice_equal_reference(libreoffice, demo_build, generated, work):
+    require_libreoffice()
+    assert [] == reference_mismatches(workbook_actions(libreoffice["demo"]), DEMO), "demo LibreOffice"
+    for i, (_, result) in enumerate(generated):
+        assert [] == reference_mismatches(workbook_actions(libreoffice[result.output.stem]), work / f"gen{i}"), i
 
 
 @hsettings(max_examples=30, deadline=None, suppress_health_check=list(HealthCheck))
@@ -128,6 +167,11 @@ def test_the_check_finds_a_self_blocking_negative():
     found = violations([adds, neg, campaign_phrase, paused], tables, False)
     assert 3 == len(found), found
     assert any("paused" in f for f in found)
+
+
+def test_generated_actions_cached_values_equal_reference(generated, work):
+    for i, (_, result) in enumerate(generated):
+        _check(result, work / f"gen{i}")
 
 
 def test_the_demo_change_list_blocks_nothing_it_adds(demo_build):
@@ -160,3 +204,37 @@ def test_a_promoted_term_without_a_live_destination_is_not_negated_and_says_so(d
     for a in homeless:
         assert a["reason"].startswith("choose destination"), a
         assert a["target"] not in negated, a
+
+
+TERMS_CLASH = """campaign,ad_group,target,match_type,search_term,impressions,clicks,spend,ad_sales,orders
+C1,G1,pot,broad,red pot,900,60,45.00,0.00,0
+C1,G2,pot,broad,red pot,50,3,1.50,0.00,0
+"""
+
+
+@pytest.mark.libreoffice
+def test_a_typed_promotion_takes_a_clashing_campaign_negative_off_the_list_live(tmp_path):
+    """Typing promote on a term in a built file, saved through LibreOffice: the campaign-level
+    negative that would block the new keyword leaves the Negatives and Actions lists."""
+    require_libreoffice()
+    from minimal import write_account as write_minimal
+    from sheetbuilder.recalc import libreoffice_convert
+    folder = write_minimal(tmp_path / "acct", {"search_terms.csv": TERMS_CLASH,
+                                                "settings.toml": 'negative_level = "campaign"\n'})
+    result = build(folder, tmp_path / "book.xlsx", built_on=BUILT_ON)
+    before = frame_actions(result)
+    assert [("add negative", "C1", "", "red pot")] == [(a["kind"], a["campaign"], a["ad_group"], a["target"])
+                                                       for a in before if a["kind"] != "bid"]
+    wb = openpyxl.load_workbook(result.output)
+    ws = wb["Terms"]
+    header = [c.value for c in ws[4]]
+    for row in ws.iter_rows(min_row=5):
+        if [row[header.index(h)].value for h in ("Campaign", "Ad group", "Search term")] == ["C1", "G2", "red pot"]:
+            row[header.index("Decision")].value = "promote"
+    wb.save(tmp_path / "edited.xlsx")
+    saved = libreoffice_convert([tmp_path / "edited.xlsx"], tmp_path / "saved")[0]
+    after = [(a["kind"], a["campaign"], a["ad_group"], a["target"]) for a in workbook_actions(saved)
+             if a["kind"] != "bid"]
+    assert [("add keyword", "C1", "G2", "red pot")] == after
+    inputs, s, _ = load(folder)
+    assert [] == violations(workbook_actions(saved), inputs.tables, s.fold_plurals)

@@ -65,16 +65,18 @@ def routine(tmp_path_factory):
 def test_changes_exports_exactly_the_reference_change_list(routine):
     result = export_changes(routine["saved"], routine["work"] / "changes.csv")
     header, *rows = read_csv_rows(routine["work"] / "changes.csv")
-    assert ["kind", "campaign", "ad_group", "target_or_term", "match_type", "current", "new", "reason"] == header
+    assert ["kind", "campaign", "ad_group", "target_or_term", "match_type", "current", "new", "reason", "product_id",
+            "money_at_stake"] == header
     expected = [c for c in routine["second"].plan.tables["Actions"].frame.to_dict("records") if c["kind"]]
     refused = set(result.refused)
     kept = [e for i, e in enumerate(expected, start=5) if i not in refused]
     assert len(kept) == len(rows)
     for exp, got in zip(kept, rows):
         for key, value in zip(header, got):
-            want = exp["target" if key == "target_or_term" else key]
-            if key in ("current", "new"):
-                assert same(want, float(value) if value else None), (exp, got)
+            want = exp[{"target_or_term": "target", "money_at_stake": "money"}.get(key, key)]
+            if key in ("current", "new", "money_at_stake"):
+                assert value == "" or value == f"{float(value):.2f}", (exp, got)  # money with two decimals
+                assert same(None if want is None else round(want, 2), float(value) if value else None), (exp, got)
             else:
                 assert ("" if want is None else want) == value, (exp, got)
     assert not result.recalculated  # LibreOffice saved the values
