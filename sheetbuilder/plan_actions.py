@@ -7,6 +7,11 @@ The k-th row finds its kind from the running totals, then its row on the source 
 directly for the Harvest and Negatives lists (their k-th rows), or by MATCH on the source
 sheet's strictly increasing helper key (the same macro-free method as those lists). The
 `changes` command exports this sheet as CSV.
+
+Every row carries its product and the money at stake (the target's or term's spend, or the
+size of the budget change). Within a kind the rows follow their source sheets, which are
+sorted by that money when building (Bids and Terms by spend, budgets by the proposed
+change): a Decision typed later changes which rows are listed, not their order.
 """
 from __future__ import annotations
 

@@ -14,6 +14,14 @@ whitespace). "Already targeted" and "Already negated" are lookups: each term's k
 number written as data, looked up by binary-search MATCH in the sorted Keys sheet, so the
 cost grows with terms x log(keys), never terms x targets. No term text is ever used as a
 criterion (MATCH, COUNTIFS and SUMIFS read * ? ~ in text as wildcards).
+
+Rows come largest spend first (as built), so the lists and Actions show the most money at
+stake first. The lists only take what is safe to apply: a promoted term that is new for its
+product and its destination (never a paused or archived campaign); a source negative only
+where the keyword goes to another ad group; no negative in a paused campaign, where one
+already blocks the term, or where it would block a keyword the list adds or a term that
+sells. Those last pairs are found through a word index when building and written on the
+Keys sheet's Clashes table, whose Blocks column is live.
 """
 from __future__ import annotations
 
