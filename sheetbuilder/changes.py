@@ -40,7 +40,8 @@ HEADER_ROW = ACTIONS_HEADER_ROW + 1  # 1-based, as a spreadsheet shows it
 FIRST_ROW = HEADER_ROW + 1
 # The CSV layout is the Actions list's visible columns, as plan_actions declares them.
 KEYS = tuple(d.key for d in action_defs(["0"] * 5) if not d.hidden)
-COLUMNS = tuple({"target": "target_or_term"}.get(k, k) for k in KEYS)
+COLUMNS = tuple({"target": "target_or_term", "money": "money_at_stake"}.get(k, k) for k in KEYS)
+MONEY = ("current", "new", "money_at_stake")  # written with two decimals, however the workbook stored them
 KINDS = ("bid", "add keyword", "add product target", "add negative", "budget")
 ADDS = ("add keyword", "add product target")
 FORMATS = ("csv", "xlsx")
@@ -290,6 +291,18 @@ def check_change(row: int, values: list[Any], context: dict[str, Any]) -> list[P
     return out
 
 
+def _money(value: Any) -> Any:
+    """A money cell rounded to the cent (however the workbook stored it); blank stays blank."""
+    if not _is_number(value):
+        return None if _blank(value) else value
+    return round(float(value), 2) + 0.0
+
+
+def _cents_text(row: list[Any]) -> list[Any]:
+    """The row as CSV writes it: money with exactly two decimals."""
+    return [f"{v:.2f}" if c in MONEY and _is_number(v) else v for c, v in zip(COLUMNS, row)]
+
+
 def _check_output(workbook: Path, output: Path, fmt: str, force: bool) -> None:
     if fmt not in FORMATS:
         raise SheetbuilderError(f"unknown format {fmt!r}; expected csv or xlsx")
@@ -348,9 +361,10 @@ def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool =
             continue
         values = list(values)
         values[0] = str(values[0]).strip().lower()
-        kept.append([None if v == "" or (_blank(v) and not isinstance(v, str)) else v for v in values])
+        kept.append([_money(v) if c in MONEY else None if v == "" or (_blank(v) and not isinstance(v, str)) else v
+                     for c, v in zip(COLUMNS, values)])
     if fmt == "csv":
-        write_csv(output, COLUMNS, kept, force=force)
+        write_csv(output, COLUMNS, [_cents_text(r) for r in kept], force=force)
     else:
         write_xlsx(output, list(COLUMNS), kept, force=force)
     return ChangesResult(output, len(kept), problems, False, refused, kept, notes["computed"],

@@ -117,7 +117,7 @@ def budget_oracle(tables, settings, profit_rows, product_decisions=None):
     products = {}
     for pid, r in profit_rows.items():
         spend = r["Ad spend"]
-        if cut == 0 or grow == 0 or r["Direction"] == "hold":
+        if cut == 0 or grow == 0 or r["Direction"] not in ("cut", "grow"):  # hold, and no ads: nothing moves
             proposed = spend
         elif r["Direction"] == "cut":
             proposed = spend * (1 - share)
