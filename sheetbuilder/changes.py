@@ -201,12 +201,21 @@ def _same_value(a: Any, b: Any) -> bool:
     return a == b
 
 
+def _change_key(values: list[Any]) -> tuple:
+    """What a change row changes: kind, campaign, ad group, target or term, match type (as compared text)."""
+    return tuple("" if _blank(v) else str(v).strip() for v in values[:5])
+
+
 def _overwritten(saved: list[tuple[int, list[Any]]], computed: list[tuple[int, list[Any]]]) -> list[Problem]:
     """A Problem per saved Actions cell whose value is not the computed one (a formula typed over by hand)."""
     want = dict(computed)
+    by_change: dict[tuple, list[list[Any]]] = {}  # the saved list may order a kind differently (money at build time)
+    for _, values in computed:
+        by_change.setdefault(_change_key(values), []).append(values)
     out = []
     for r, values in saved:
-        expected = want.get(r, [None] * len(values))
+        same_change = by_change.get(_change_key(values))
+        expected = same_change.pop(0) if same_change else want.get(r, [None] * len(values))
         for header, got, exp in zip(HEADERS, values, expected):
             if not _same_value(exp, got):
                 out.append(Problem(SHEET, r, header, f"holds {got!r} where the workbook's own change list has "

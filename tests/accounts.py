@@ -38,7 +38,7 @@ def accounts(draw, max_products: int = 8, max_ad_rows: int = 18, max_targets: in
                     "ad_sales": 0.0 if clicks == 0 else draw(st.integers(0, 300000).map(lambda c: c / 100)),
                     "orders": 0 if clicks == 0 else draw(st.integers(0, clicks))})
     groups = sorted({(a["campaign"], a["ad_group"]) for a in ads}) or [("C1", "G1")]
-    targets = []
+    targets, seen = [], set()
     for i in range(draw(st.integers(0, max_targets))):
         campaign, group = draw(st.sampled_from(groups)) if draw(st.integers(0, 9)) else ("C9", "G9")
         clicks = draw(st.integers(0, 120))
@@ -50,6 +50,10 @@ def accounts(draw, max_products: int = 8, max_ad_rows: int = 18, max_targets: in
                         "bid": draw(st.integers(5, 600)) / 100, "impressions": clicks * draw(st.integers(1, 40)),
                         "clicks": clicks, "spend": 0.0 if clicks == 0 else draw(st.integers(0, 40000)) / 100,
                         "ad_sales": 0.0 if orders == 0 else draw(st.integers(0, 200000)) / 100, "orders": orders})
+        key = tuple(targets[-1][k] for k in ("campaign", "ad_group", "target", "match_type"))
+        if key in seen:  # one row per keyword: a repeat without dates is refused by the readers
+            targets.pop()
+        seen.add(key)
     campaigns = [{"campaign": f"C{i}", "ad_type": "product ads",
                   "state": draw(st.sampled_from(["enabled", "enabled", "paused", "archived"])),
                   "daily_budget": draw(st.integers(100, 10000)) / 100,
