@@ -27,6 +27,16 @@ BUILT_ON = dt.date(2026, 12, 2)
 GENERATED = 6
 
 
+SLOW_MARKERS = ("libreoffice", "gnumeric")  # tier 3: an outside engine recalculates whole workbooks
+
+
+def pytest_collection_modifyitems(items):
+    """Mark every test that recalculates with LibreOffice or Gnumeric as slow (left out of the fast lane)."""
+    for item in items:
+        if any(item.get_closest_marker(m) for m in SLOW_MARKERS) or set(SLOW_MARKERS) & set(item.fixturenames):
+            item.add_marker(pytest.mark.slow)
+
+
 def require_libreoffice():
     """Skip without LibreOffice on a developer machine; fail under CI."""
     if soffice_path() is None:
