@@ -111,6 +111,7 @@ def test_generated_mix_and_budget_libreoffice_equal_reference(libreoffice, gener
         _check(libreoffice[result.output.stem], work / f"gen{i}", f"generated {i} LibreOffice")
 
 
+@pytest.mark.slow
 @settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(account=accounts())
 def test_the_budget_shift_keeps_total_spend_and_moves_the_right_way(account, tmp_path_factory):

@@ -26,12 +26,14 @@ def _stored_values(path):
 _libreoffice_values = _stored_values
 
 
+@pytest.mark.slow
 def test_demo_formulas_engine_equals_cached_values(demo_build):
     problems, checked = engine_disagreements(demo_build.output, formulas_values(demo_build.output))
     assert [] == problems
     assert checked > 2000
 
 
+@pytest.mark.slow
 def test_generated_formulas_engine_equals_cached_values(generated):
     for i, (_, result) in enumerate(generated):
         problems, checked = engine_disagreements(result.output, formulas_values(result.output))
