@@ -85,6 +85,7 @@ def test_generated_libreoffice_recalculation_equals_reference(libreoffice, gener
         _check_against_oracle(libreoffice[result.output.stem], work / f"gen{i}", f"generated {i} LibreOffice")
 
 
+@pytest.mark.slow
 @settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(account=accounts())
 def test_any_generated_account_caches_the_reference_values(account, tmp_path_factory):
