@@ -35,38 +35,43 @@ def _block(first: str, last: str, rng: str) -> str:
 
 
 def _cat(letter: str) -> str:
-    """The product's value in one in_catalog column (its catalog position is in column T)."""
-    return f"INDEX(in_catalog!${letter}$2:${letter}$3,T6)"
+    """The product's value in one in_catalog column (its catalog position is in column V)."""
+    return f"INDEX(in_catalog!${letter}$2:${letter}$3,V6)"
 
 
-# Profit, body row 6: {header: formula}. Columns A Product ID ... S Your target ACoS, then the hidden
-# helpers T catalog row, U/V store-sales block, W/X ad block, Y ad clicks ... AE revenue with a margin.
+# Profit, body row 6: {header: formula}. Columns A Product ID ... S Your target ACoS, T Target check, U Bid target
+# ACoS, then the hidden helpers V catalog row, W/X store-sales block, Y/Z ad block, AA ad clicks ... AG revenue with a margin.
 PROFIT_ROW_1 = {
-    "Units": _block("U", "V", "in_store_sales!$B$2:$B$4"),
-    "Revenue": _block("U", "V", "in_store_sales!$C$2:$C$4"),
-    "Ad spend": _block("W", "X", "in_ad_products!$G$2:$G$3"),
-    "Ad sales": _block("W", "X", "in_ad_products!$H$2:$H$3"),
+    "Units": _block("W", "X", "in_store_sales!$B$2:$B$4"),
+    "Revenue": _block("W", "X", "in_store_sales!$C$2:$C$4"),
+    "Ad spend": _block("Y", "Z", "in_ad_products!$G$2:$G$3"),
+    "Ad sales": _block("Y", "Z", "in_ad_products!$H$2:$H$3"),
     "TACoS": '=IF(D6=0,"",E6/D6)',
     "ACoS": '=IF(F6=0,"",E6/F6)',
-    "Margin before ads": f'=IF(T6="","",IF({_cat("G")}<>"",{_cat("G")},IF({_cat("C")}=0,"",'
+    "Margin before ads": f'=IF(V6="","",IF({_cat("G")}<>"",{_cat("G")},IF({_cat("C")}=0,"",'
                          f'({_cat("C")}-{_cat("D")}-{_cat("E")})/{_cat("C")})))',
     "Break-even ACoS": "=I6",
-    "Target ACoS": f'=IF(S6<>"",S6,IF(T6="",default_target_acos,IF({_cat("F")}<>"",{_cat("F")},'
+    "Target ACoS": f'=IF(S6<>"",S6,IF(V6="",default_target_acos,IF({_cat("F")}<>"",{_cat("F")},'
                    'default_target_acos)))',
     "Net margin after ads": '=IF(OR(I6="",G6=""),"",I6-G6)',
     "Net profit after ads": '=IF(I6="","",D6*I6-E6)',
     "Sales share": '=IF($D$8=0,"",D6/$D$8)',
     "Spend share": '=IF($E$8=0,"",E6/$E$8)',
     "Spend-to-sales ratio": '=IF(N6="","",IF(N6=0,"",IF(O6="","",O6/N6)))',
-    "Status": '=IF(D6=0,"no sales",IF(I6="","no margin",IF(L6<0,"loss",IF(L6<thin_margin,"thin",'
-              'IF(L6>=strong_margin,"strong","healthy")))))',
-    "Direction": '=IF(P6="","hold",IF(AND(OR(Q6="loss",Q6="thin"),P6>1),"cut",IF(AND(Q6="strong",P6<1),"grow",'
-                 '"hold")))',
-    "Ad clicks": _block("W", "X", "in_ad_products!$F$2:$F$3"),
-    "Ad orders": _block("W", "X", "in_ad_products!$I$2:$I$3"),
-    "Product CVR": "=IF(OR(Y6=0,Z6=0),$AA$8,Z6/Y6)",
-    "Product order value": "=IF(Z6=0,$AB$8,F6/Z6)",
-    "Product price": f'=IF(T6="",AB6,IF({_cat("C")}>0,{_cat("C")},AB6))',
+    # Ad spend with no sales is a loss (issue 9); a product with no ad spend reads "no ads"; no sales with spend is cut.
+    "Status": '=IF(AND(D6=0,E6>0),"loss",IF(D6=0,"no sales",IF(I6="","no margin",IF(L6<0,"loss",'
+              'IF(L6<thin_margin,"thin",IF(L6>=strong_margin,"strong","healthy"))))))',
+    "Direction": '=IF(E6=0,"no ads",IF(D6=0,"cut",IF(P6="","hold",IF(AND(OR(Q6="loss",Q6="thin"),P6>1),"cut",'
+                 'IF(AND(Q6="strong",P6<1),"grow","hold")))))',
+    # T and U: a target above break-even (K > I) is flagged, and with the cap on the bids aim at break-even.
+    "Target check": '=IF(I6="","",IF(K6>I6,IF(cap_target_at_break_even="yes","above break-even: bids use '
+                    'break-even","above break-even: each ad sale loses money"),""))',
+    "Bid target ACoS": '=IF(AND(cap_target_at_break_even="yes",I6<>""),IF(K6>I6,MAX(0,I6),K6),K6)',
+    "Ad clicks": _block("Y", "Z", "in_ad_products!$F$2:$F$3"),
+    "Ad orders": _block("Y", "Z", "in_ad_products!$I$2:$I$3"),
+    "Product CVR": "=IF(OR(AA6=0,AB6=0),$AC$8,AB6/AA6)",
+    "Product order value": "=IF(AB6=0,$AD$8,F6/AB6)",
+    "Product price": f'=IF(V6="",AD6,IF({_cat("C")}>0,{_cat("C")},AD6))',
     "Gross profit before ads": '=IF(I6="","",D6*I6)',
     "Revenue with a margin": '=IF(I6="",0,D6)',
 }
@@ -74,12 +79,12 @@ PROFIT_ROW_1 = {
 PROFIT_TOTALS = {
     "Units": "=SUM(C6:C7)", "Revenue": "=SUM(D6:D7)", "Ad spend": "=SUM(E6:E7)", "Ad sales": "=SUM(F6:F7)",
     "TACoS": '=IF(D8=0,"",E8/D8)', "ACoS": '=IF(F8=0,"",E8/F8)',
-    "Margin before ads": '=IF(SUM(AE6:AE7)=0,"",SUM(AD6:AD7)/SUM(AE6:AE7))',
-    "Net margin after ads": '=IF(SUM(AE6:AE7)=0,"",M8/SUM(AE6:AE7))',
+    "Margin before ads": '=IF(SUM(AG6:AG7)=0,"",SUM(AF6:AF7)/SUM(AG6:AG7))',
+    "Net margin after ads": '=IF(SUM(AG6:AG7)=0,"",M8/SUM(AG6:AG7))',
     "Net profit after ads": "=SUM(M6:M7)", "Sales share": "=SUM(N6:N7)", "Spend share": "=SUM(O6:O7)",
-    "Ad clicks": "=SUM(Y6:Y7)", "Ad orders": "=SUM(Z6:Z7)",
-    "Product CVR": "=IF(Y8=0,0,Z8/Y8)", "Product order value": "=IF(Z8=0,0,F8/Z8)",
-    "Gross profit before ads": "=SUM(AD6:AD7)", "Revenue with a margin": "=SUM(AE6:AE7)",
+    "Ad clicks": "=SUM(AA6:AA7)", "Ad orders": "=SUM(AB6:AB7)",
+    "Product CVR": "=IF(AA8=0,0,AB8/AA8)", "Product order value": "=IF(AB8=0,0,F8/AB8)",
+    "Gross profit before ads": "=SUM(AF6:AF7)", "Revenue with a margin": "=SUM(AG6:AG7)",
 }
 
 
