@@ -1,7 +1,7 @@
 #!/usr/bin/env bash
 # The project's two commands, for a fresh Debian machine with Python 3.11:
 #   ./tasks.sh demo   make .venv, install sheetbuilder, build the demo workbook (demo_workbook.xlsx)
-#   ./tasks.sh test   the same install with the test tools, LibreOffice Calc if missing, then every test
+#   ./tasks.sh test   the same install with the test tools, LibreOffice Calc and Gnumeric if missing, then every test
 # Also: ./tasks.sh samples (PNG renders into output_samples/), ./tasks.sh bench (the benchmark),
 #       ./tasks.sh study (the simulated-market study of the bid method; writes study/results.md).
 set -euo pipefail
@@ -37,6 +37,14 @@ libreoffice() {
   if ! command -v pdftoppm >/dev/null; then apt_install poppler-utils || true; fi
 }
 
+gnumeric() {
+  if ! command -v ssconvert >/dev/null; then
+    echo "Installing Gnumeric (ssconvert) for the third recalculation engine..."
+    apt_install gnumeric \
+      || { echo "Gnumeric is missing and could not be installed: apt-get install gnumeric"; exit 1; }
+  fi
+}
+
 case "${1:-}" in
   demo)
     venv run
@@ -45,6 +53,7 @@ case "${1:-}" in
   test)
     venv test
     libreoffice
+    gnumeric
     shift
     "$VENV/bin/python" -m pytest -q -p no:cacheprovider "$@"
     ;;

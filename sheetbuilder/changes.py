@@ -40,7 +40,8 @@ HEADER_ROW = ACTIONS_HEADER_ROW + 1  # 1-based, as a spreadsheet shows it
 FIRST_ROW = HEADER_ROW + 1
 # The CSV layout is the Actions list's visible columns, as plan_actions declares them.
 KEYS = tuple(d.key for d in action_defs(["0"] * 5) if not d.hidden)
-COLUMNS = tuple({"target": "target_or_term"}.get(k, k) for k in KEYS)
+COLUMNS = tuple({"target": "target_or_term", "money": "money_at_stake"}.get(k, k) for k in KEYS)
+MONEY = ("current", "new", "money_at_stake")  # written with two decimals, however the workbook stored them
 KINDS = ("bid", "add keyword", "add product target", "add negative", "budget")
 ADDS = ("add keyword", "add product target")
 FORMATS = ("csv", "xlsx")
@@ -200,12 +201,21 @@ def _same_value(a: Any, b: Any) -> bool:
     return a == b
 
 
+def _change_key(values: list[Any]) -> tuple:
+    """What a change row changes: kind, campaign, ad group, target or term, match type (as compared text)."""
+    return tuple("" if _blank(v) else str(v).strip() for v in values[:5])
+
+
 def _overwritten(saved: list[tuple[int, list[Any]]], computed: list[tuple[int, list[Any]]]) -> list[Problem]:
     """A Problem per saved Actions cell whose value is not the computed one (a formula typed over by hand)."""
     want = dict(computed)
+    by_change: dict[tuple, list[list[Any]]] = {}  # the saved list may order a kind differently (money at build time)
+    for _, values in computed:
+        by_change.setdefault(_change_key(values), []).append(values)
     out = []
     for r, values in saved:
-        expected = want.get(r, [None] * len(values))
+        same_change = by_change.get(_change_key(values))
+        expected = same_change.pop(0) if same_change else want.get(r, [None] * len(values))
         for header, got, exp in zip(HEADERS, values, expected):
             if not _same_value(exp, got):
                 out.append(Problem(SHEET, r, header, f"holds {got!r} where the workbook's own change list has "
@@ -288,6 +298,18 @@ def check_change(row: int, values: list[Any], context: dict[str, Any]) -> list[P
         if kind == "add negative" and _blank(campaign):
             bad("Campaign", "a negative needs its campaign")
     return out
+
+
+def _money(value: Any) -> Any:
+    """A money cell rounded to the cent (however the workbook stored it); blank stays blank."""
+    if not _is_number(value):
+        return None if _blank(value) else value
+    return round(float(value), 2) + 0.0
+
+
+def _cents_text(row: list[Any]) -> list[Any]:
+    """The row as CSV writes it: money with exactly two decimals."""
+    return [f"{v:.2f}" if c in MONEY and _is_number(v) else v for c, v in zip(COLUMNS, row)]
 
 
 def _check_output(workbook: Path, output: Path, fmt: str, force: bool) -> None:
@@ -386,9 +408,10 @@ def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool =
             continue
         values = list(values)
         values[0] = str(values[0]).strip().lower()
-        kept.append([None if v == "" or (_blank(v) and not isinstance(v, str)) else v for v in values])
+        kept.append([_money(v) if c in MONEY else None if v == "" or (_blank(v) and not isinstance(v, str)) else v
+                     for c, v in zip(COLUMNS, values)])
     if fmt == "csv":
-        write_csv(output, COLUMNS, kept, force=force)
+        write_csv(output, COLUMNS, [_cents_text(r) for r in kept], force=force)
     else:
         write_xlsx(output, list(COLUMNS), kept, force=force)
     return ChangesResult(output, len(kept), problems, False, refused, kept, notes["computed"],

@@ -7,6 +7,11 @@ The k-th row finds its kind from the running totals, then its row on the source 
 directly for the Harvest and Negatives lists (their k-th rows), or by MATCH on the source
 sheet's strictly increasing helper key (the same macro-free method as those lists). The
 `changes` command exports this sheet as CSV.
+
+Every row carries its product and the money at stake (the target's or term's spend, or the
+size of the budget change). Within a kind the rows follow their source sheets, which are
+sorted by that money when building (Bids and Terms by spend, budgets by the proposed
+change): a Decision typed later changes which rows are listed, not their order.
 """
 from __future__ import annotations
 
@@ -23,7 +28,9 @@ from .spec import DATA, Cell, Sheet, Table
 
 SHEET = "Actions"
 HEADER_ROW = 3  # 0-based: title, counts, a note, then the header (the layout the changes command reads)
-HEADERS = ("Kind", "Campaign", "Ad group", "Target or term", "Match type", "Current", "New", "Reason")
+HEADERS = ("Kind", "Campaign", "Ad group", "Target or term", "Match type", "Current", "New", "Reason", "Product ID",
+           "Money at stake")
+NO_DESTINATION = "choose destination: a live campaign and ad group for this product"
 @dataclass
 class ActionsContext:
     """What the Actions columns' references read: the changes in order."""
@@ -97,10 +104,21 @@ def defs(totals: list[str]) -> list[ColumnDef]:
             5: "INDEX({rng:budget_campaigns.final},{c:pos})"}), width=10),
         ColumnDef("reason", "Reason", "label", "Why: the rule, or your decision.", _ref("Reason"), _field({
             1: 'IF(INDEX({rng:bids.decision},{c:pos})="",INDEX({rng:bids.reason},{c:pos}),"your decision")',
-            2: '"search term that sells"', 3: '"so the new keyword does not compete with its source"',
+            2: 'IF(INDEX({rng:harvest.dest_campaign},{c:pos})="","%s","search term that sells")' % NO_DESTINATION,
+            3: '"so the new keyword does not compete with its source"',
             4: _idx("negatives.rule"),
             5: 'IF(INDEX({rng:budget_campaigns.decision},{c:pos})="","follows its products\' spend","your decision")'}),
                   width=34),
+        ColumnDef("product_id", "Product ID", "text", "The product (or the campaign's products) the change is for.",
+                  _ref("Product ID"), _field({
+                      1: _idx("bids.product_id"), 2: _idx("harvest.product_id"), 3: _idx("harvest.product_id"),
+                      4: _idx("negatives.product_id"), 5: _idx("budget_campaigns.products")}), width=16),
+        ColumnDef("money", "Money at stake", "money",
+                  "Last period's spend of the target or term, or the size of the budget change.", _num("Money at stake"),
+                  _field({1: "INDEX({rng:bids.spend},{c:pos})", 2: "INDEX({rng:harvest.spend},{c:pos})",
+                          3: "INDEX({rng:harvest.spend},{c:pos})", 4: "INDEX({rng:negatives.spend},{c:pos})",
+                          5: "ABS(INDEX({rng:budget_campaigns.final},{c:pos})-INDEX({rng:budget_campaigns.budget},"
+                             "{c:pos}))"}), width=11),
         ColumnDef("k", "Number", "int", "Helper: the row's number.", lambda df, ctx: df["k"], kind=DATA, width=6,
                   hidden=True),
         ColumnDef("seg", "Segment", "int", "Working: which kind of change (1 to 5).",
@@ -131,7 +149,8 @@ def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
             counts[0] += 1
             out.append({"_seg": 1, "_j": counts[0], "_pos": r["pos"], "Kind": "bid", "Campaign": r["campaign"],
                         "Ad group": r["ad_group"], "Target or term": r["target"], "Match type": r["match_type"],
-                        "Current": r["bid"], "New": r["final"],
+                        "Current": r["bid"], "New": r["final"], "Product ID": r["product_id"],
+                        "Money at stake": r["spend"],
                         "Reason": r["reason"] if _untyped(r["decision"]) else "your decision"})
     if "Harvest" in tables:
         h = tables["Harvest"].frame
@@ -141,12 +160,14 @@ def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
             out.append({"_seg": 2, "_j": counts[1], "_pos": r["k"],
                         "Kind": "add product target" if r["kind"] == "product target" else "add keyword",
                         "Campaign": r["dest_campaign"], "Ad group": r["dest_ad_group"], "Target or term": r["term"],
-                        "Match type": r["match"], "New": r["start_bid"], "Reason": "search term that sells"})
+                        "Match type": r["match"], "New": r["start_bid"], "Product ID": r["product_id"],
+                        "Money at stake": r["spend"],
+                        "Reason": NO_DESTINATION if r["dest_campaign"] == "" else "search term that sells"})
         for r in filled.loc[filled["source_negative"] != ""].to_dict("records"):
             counts[2] += 1
             out.append({"_seg": 3, "_j": counts[2], "_pos": r["k"], "Kind": "add negative",
                         "Campaign": r["campaign"], "Ad group": r["ad_group"], "Target or term": r["term"],
-                        "Match type": "negative exact",
+                        "Match type": "negative exact", "Product ID": r["product_id"], "Money at stake": r["spend"],
                         "Reason": "so the new keyword does not compete with its source"})
     if "Negatives" in tables:
         n = tables["Negatives"].frame
@@ -154,13 +175,14 @@ def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
             counts[3] += 1
             out.append({"_seg": 4, "_j": counts[3], "_pos": r["k"], "Kind": "add negative", "Campaign": r["campaign"],
                         "Ad group": r["ad_group"], "Target or term": r["term"], "Match type": r["neg_match"],
-                        "Reason": r["rule"]})
+                        "Product ID": r["product_id"], "Money at stake": r["spend"], "Reason": r["rule"]})
     if "Budget campaigns" in tables:
         c = tables["Budget campaigns"].frame
-        for r in c.loc[c["final"] != c["budget"]].to_dict("records"):
+        for r in c.loc[(c["final"] != c["budget"]) & (c["state"] == "enabled")].to_dict("records"):
             counts[4] += 1
             out.append({"_seg": 5, "_j": counts[4], "_pos": r["cpos"], "Kind": "budget", "Campaign": r["campaign"],
-                        "Current": r["budget"], "New": r["final"],
+                        "Current": r["budget"], "New": r["final"], "Product ID": r["products"],
+                        "Money at stake": abs(r["final"] - r["budget"]),
                         "Reason": "follows its products' spend" if _untyped(r["decision"]) else "your decision"})
     return out, counts
 

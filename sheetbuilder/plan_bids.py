@@ -25,7 +25,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .blends import attach_groups, group_columns, target_acos_column, zero_order_column
+from .blends import attach_groups, block_sum, block_sums, group_columns, target_acos_column, zero_order_column
 from .columns import (ColumnDef, PlannedTable, apply_decision, blank_div, decision_formula, editable, plan_table,
                       running_key)
 from .numbers import ROUNDING_NUDGE, round_half_away
@@ -132,6 +132,13 @@ def _reason(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     return pd.Series(out, index=df.index, dtype=object)
 
 
+def _target_check(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    above = block_sums(df, ctx.groups, "above").fillna(0.0) > 0
+    text = "target capped at break-even" if ctx.settings.cap_target_at_break_even == "yes" else \
+        "target above break-even"
+    return pd.Series(np.where(above, text, ""), index=df.index, dtype=object)
+
+
 _RULE = ('=IF({c:clicks}=0,1,IF({c:orders}=0,IF({c:clicks}<min_clicks,3,'
          'IF(IF({c:n_zero}="",FALSE,{c:clicks}>={c:n_zero}),2,IF({c:value_bid}="",4,IF({c:value_bid}<{c:bid},%s,5)))),'
          'IF({c:value_bid}="",4,IF({c:value_bid}>{c:bid},IF({c:value_bid}>{c:bid}*(1+max_bid_raise),9,6),'
@@ -190,6 +197,11 @@ DEFS: list[ColumnDef] = [
               lambda df, ctx: df["decision"], kind=INPUT, width=10),
     ColumnDef("final", "Final bid", "money", "The bid to apply: the Decision if given, else the proposal.",
               lambda df, ctx: apply_decision(df, "proposed", "bid"), decision_formula("proposed", "bid"), width=9),
+    ColumnDef("target_check", "Target check", "label",
+              "Where a product of the ad group has a target ACoS above its break-even ACoS (see Profit).",
+              _target_check, '=IF({c:gfirst}="","",IF(%s>0,IF(cap_target_at_break_even="yes",'
+                             '"target capped at break-even","target above break-even"),""))' % block_sum("above"),
+              width=22),
     # Working columns, hidden: row positions as data, then the steps of the method.
     ColumnDef("pos", "Position", "int", "Helper: the row's position on this sheet.", lambda df, ctx: df["pos"],
               kind=DATA, width=6, hidden=True),
@@ -225,7 +237,7 @@ EDITABLE_COLUMNS = editable(DEFS, "Bids", SHEET, "sb_bids", ("campaign", "ad_gro
 
 
 def target_frame(targets: InputSheet, campaigns: pd.DataFrame | None, groups: pd.DataFrame) -> pd.DataFrame:
-    """The live targets, one row each, grouped by product, with their row positions."""
+    """The live targets, one row each, largest spend first, with their row positions."""
     frame = targets.frame.copy()
     frame["trow"] = np.arange(1, len(frame) + 1, dtype=float)
     live = frame["state"] == "enabled"
@@ -233,7 +245,9 @@ def target_frame(targets: InputSheet, campaigns: pd.DataFrame | None, groups: pd
         state = campaigns.drop_duplicates("campaign").set_index("campaign")["state"]
         live &= frame["campaign"].map(state).fillna("enabled") == "enabled"
     frame = attach_groups(frame.loc[live].copy(), groups)
-    frame = frame.sort_values(["sort_product", "shared", "campaign", "ad_group", "trow"], kind="stable")
+    # Largest spend first (to the cent), so Bids and the Actions list show the most money at stake first.
+    frame = frame.assign(_money=-frame["spend"].round(2)).sort_values(
+        ["_money", "sort_product", "shared", "campaign", "ad_group", "trow"], kind="stable").drop(columns="_money")
     frame["decision"] = None
     frame = frame.reset_index(drop=True)
     frame["pos"] = np.arange(1, len(frame) + 1, dtype=float)

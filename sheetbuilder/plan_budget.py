@@ -145,7 +145,10 @@ CAMPAIGN_DEFS: list[ColumnDef] = [
     ColumnDef("final", "Final budget", "money", "The Decision if given, else the proposal.",
               lambda df, ctx: apply_decision(df, "proposed", "budget"), decision_formula("proposed", "budget"),
               width=11),
-    *running_key("c", "Changes", "{c:final}<>{c:budget}", lambda df: df["final"] != df["budget"], "cpos"),
+    ColumnDef("products", "Products", "text", "The products the campaign advertises (in_ad_products).",
+              lambda df, ctx: df["products"], kind=DATA, width=18),
+    *running_key("c", "Changes", 'AND({c:final}<>{c:budget},{c:state}="enabled")',
+                 lambda df: (df["final"] != df["budget"]) & (df["state"] == "enabled"), "cpos"),
 ]
 
 LINK_DEFS: list[ColumnDef] = [
@@ -234,6 +237,8 @@ def plan_budget(profit: PlannedTable, campaigns: InputSheet | None, ad_layout: I
         cbase["llast"] = cbase["campaign"].map(blocks.max())
         cbase = cbase.loc[cbase["lfirst"].notna()].reset_index(drop=True)  # campaigns with no ad rows: nothing to follow
         cbase["c_spend"] = cbase["campaign"].map(links.groupby("campaign")["spend"].sum()).fillna(0.0)
+        cbase["products"] = cbase["campaign"].map(links.groupby("campaign")["product_id"].agg(", ".join)).astype(
+            object)
         cbase["decision"] = decide("Budget campaigns", [(c,) for c in cbase["campaign"]]) if decide else None
         cbase["cpos"] = np.arange(1, len(cbase) + 1, dtype=float)
         cbase["n_plus"] = float(len(cbase) + 1)
@@ -242,6 +247,11 @@ def plan_budget(profit: PlannedTable, campaigns: InputSheet | None, ad_layout: I
         link_ranges = _ranges(LINK_DEFS, "links", l_first + 1, len(links))
         link_table = plan_table(LINK_DEFS, links, ctx, l_first + 1, {**ranges, **own}, with_totals=False)
         ctx.links = link_table.frame
+        camp = plan_table(CAMPAIGN_DEFS, cbase, ctx, c_first + 1, {**ranges, **link_ranges}, with_totals=False)
+        # Largest build-time change first (the money at stake), then as in in_campaigns; planned again in that order.
+        order = (-camp.frame["change"].abs().round(2)).sort_values(kind="stable").index
+        cbase = cbase.loc[order].reset_index(drop=True)
+        cbase["cpos"] = np.arange(1, len(cbase) + 1, dtype=float)
         camp = plan_table(CAMPAIGN_DEFS, cbase, ctx, c_first + 1, {**ranges, **link_ranges}, with_totals=False)
         more = [Table(c_first, camp.columns, autofilter=False, title="Campaign daily budgets"),
                 Table(l_first, link_table.columns, autofilter=False,

@@ -19,8 +19,8 @@ SHEETS_TEXT = [
     ("Settings", "Thresholds and targets. Change a cream cell and every sheet updates."),
     ("Profit", "Profit after advertising for every product: margin, TACoS, ACoS, net profit, status and "
                "a direction for its ad spend."),
-    ("Bids", "A proposed bid for every enabled keyword and product target in an enabled campaign, grouped by "
-             "product, with the rule that decided it. Type a bid or 'keep' in Decision; Final bid applies it."),
+    ("Bids", "A proposed bid for every enabled keyword and product target in an enabled campaign, largest "
+             "spend first, with the rule that decided it. Type a bid or 'keep' in Decision; Final bid applies it."),
     ("Terms", "Every customer search term per campaign and ad group, with a live verdict: promote, block, watch "
               "or keep. Type a Decision (promote, block, watch, keep or skip) to override it."),
     ("Harvest", "The terms whose Final is promote: what to add, as which match type, where, at what starting bid."),
@@ -36,7 +36,8 @@ SHEETS_TEXT = [
     ("History", "Built with --previous: every change found applied, week by week (week, kind, keys, from, to), "
                 "carried into every rebuild and never dropped."),
     ("Groups", "Which products each ad group advertises, and the spend weights used where it advertises several."),
-    ("Keys", "A lookup table: existing exact keywords and negatives, by number (the Terms sheet looks them up)."),
+    ("Keys", "A lookup table: existing exact keywords and negatives, by number (the Terms sheet looks them up), "
+             "and the Clashes table: where a new negative would block a keyword the list adds or a term that sells."),
     ("in_ sheets", "The rows of your exports as read, sorted by product. Catalog prices, costs, fees, "
                    "margins and target ACoS are inputs you may correct there."),
     ("Carried edits", "Built with --previous: every value carried from last week's workbook (sheet, key, the "
@@ -104,6 +105,10 @@ BID_METHOD = [
     "Data guards: no clicks, or fewer than the minimum clicks with no orders, hold the bid. No orders after "
     "n = ceil(ln(1 - confidence) / ln(1 - product CVR)) clicks (the clicks after which zero orders would be "
     "unlikely) cuts by the maximum cut. A target with no orders is never raised.",
+    "Target above break-even: break-even ACoS equals the margin before ads; above it, each ad-driven sale "
+    "loses money before any other cost (common practice in the trade, no single source). Profit and Bids say so "
+    "in Target check, and while cap_target_at_break_even is yes (Settings) the bids aim at the lower of the two "
+    "(Profit's Bid target ACoS).",
     "Shared ad groups: where an ad group advertises several products, their target ACoS, conversion rate and "
     "order value are blended, weighted by each product's ad spend in the group (see Groups).",
     "Working columns: unhide the columns right of Final bid on Bids to see each step (product CVR, smoothed "
@@ -122,9 +127,16 @@ TERMS_METHOD = [
     "watch: no orders under both thresholds, or orders below the minimum. keep: selling and already an exact "
     "keyword, or already negated.",
     "Harvest and Negatives are live lists: change a threshold or type a Decision and they re-fill themselves, "
-    "in Terms order. A term that looks like a product identifier (the pattern in settings.toml) is proposed as "
-    "a product target. Promoted terms from automatic campaigns need a destination: name one per product under "
-    "[destinations] in settings.toml, or choose one.",
+    "in Terms order (largest spend first, as built). A term that looks like a product identifier (the pattern "
+    "in settings.toml) is proposed as a product target. Promoted terms from automatic, paused or archived "
+    "campaigns need a destination in a live campaign: name one per product under [destinations] in "
+    "settings.toml, or choose one.",
+    "A change list safe to apply: a promoted term already an exact keyword for its product, or at its "
+    "destination, is not added again. The negative in the source ad group is proposed only when the keyword goes "
+    "to another ad group of a live campaign. No negative is proposed in a paused or archived campaign, where a "
+    "negative already blocks the term, or where it would block a keyword the same list adds or a term that sells "
+    "(the Clashes table on Keys). Actions lists each kind largest money at stake first, by the build's figures: "
+    "a Decision typed later changes which rows are listed, not their order.",
 ]
 
 SOURCES = [

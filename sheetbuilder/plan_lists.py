@@ -60,7 +60,8 @@ def _pos_column(word: str) -> ColumnDef:
     cnt, key = f"{word[0]}_cnt", f"{word[0]}_key"
 
     def compute(df: pd.DataFrame, ctx: ListContext) -> pd.Series:
-        hits = np.flatnonzero(ctx.terms["final"].to_numpy() == word) + 1
+        counts = ctx.terms[cnt].to_numpy(dtype=float)
+        hits = np.flatnonzero(np.diff(counts, prepend=0.0) > 0) + 1  # the rows the running count counts
         return pd.Series([float(hits[int(k) - 1]) if k <= len(hits) else np.nan for k in df["k"]],
                          index=df.index, dtype=float)
     return ColumnDef("pos", "Terms row", "int", "Working: the position on Terms of the k-th qualifying term.",
@@ -79,10 +80,6 @@ def _kind(r, s):
 
 def _match(r, s):
     return "product" if r["kind"] == "product target" else s.harvest_match_type
-
-
-def _source_negative(r, s):
-    return "negative exact" if s.source_negative == "yes" and r["src_match"] in ("broad", "phrase", "auto") else ""
 
 
 HARVEST_DEFS: list[ColumnDef] = [
@@ -105,10 +102,9 @@ HARVEST_DEFS: list[ColumnDef] = [
     ColumnDef("start_bid", "Starting bid", "money", "The lower of the term's CPC and its value bid (Settings).",
               *reversed(_pick("start_bid")), width=10),
     ColumnDef("source_negative", "Negative in source", "text",
-              "A negative exact to add in the source ad group so the new keyword does not compete with it.",
-              *_derived(_source_negative, '=IF({c:pos}="","",IF(AND(source_negative="yes",OR({c:src_match}="broad",'
-                                          '{c:src_match}="phrase",{c:src_match}="auto")),"negative exact",""))'),
-              width=14),
+              "A negative exact to add in the source ad group so the new keyword does not compete with it: only "
+              "where the keyword goes to another ad group of a live campaign and nothing there blocks the term yet.",
+              *reversed(_pick("src_neg", text=True)), width=14),
     *running_key("n", "Source negatives", '{c:source_negative}<>""', lambda df: df["source_negative"] != "", "k"),
     ColumnDef("campaign", "Source campaign", "text", "Where the term was found.",
               *reversed(_pick("campaign", text=True)), width=22),
@@ -117,6 +113,7 @@ HARVEST_DEFS: list[ColumnDef] = [
     ColumnDef("product_id", "Product ID", "text", "The product.", *reversed(_pick("product_id", text=True)),
               width=12),
     ColumnDef("orders", "Orders", "int", "The term's orders.", *reversed(_pick("orders")), width=7),
+    ColumnDef("spend", "Spend", "money", "The term's spend: the money at stake.", *reversed(_pick("spend")), width=9),
     ColumnDef("acos", "ACoS", "percent", "The term's ACoS.", *reversed(_pick("acos")), width=8),
     ColumnDef("reason", "Reason", "label", "choose destination, where none could be proposed.",
               *_derived(lambda r, s: "choose destination" if r["dest_campaign"] == "" else "",

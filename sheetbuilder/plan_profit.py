@@ -81,15 +81,32 @@ def _status(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
     s = ctx.settings
     net = df["net_margin"]
     return pd.Series(np.select(
-        [df["revenue"] == 0, df["margin"].isna(), net < 0, net < s.thin_margin, net >= s.strong_margin],
-        ["no sales", "no margin", "loss", "thin", "strong"], "healthy"), index=df.index, dtype=object)
+        [(df["revenue"] == 0) & (df["ad_spend"] > 0), df["revenue"] == 0, df["margin"].isna(), net < 0, net < s.thin_margin, net >= s.strong_margin],
+        ["loss", "no sales", "no margin", "loss", "thin", "strong"], "healthy"), index=df.index, dtype=object)
 
 
 def _direction(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
     ratio = df["ratio"]
     weak = df["status"].isin(["loss", "thin"])
-    return pd.Series(np.select([ratio.isna(), weak & (ratio > 1), (df["status"] == "strong") & (ratio < 1)],
-                               ["hold", "cut", "grow"], "hold"), index=df.index, dtype=object)
+    return pd.Series(np.select([df["ad_spend"] == 0, df["revenue"] == 0, ratio.isna(), weak & (ratio > 1),
+                                (df["status"] == "strong") & (ratio < 1)],
+                               ["no ads", "cut", "hold", "cut", "grow"], "hold"), index=df.index, dtype=object)
+
+
+def _bid_target(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
+    above = df["margin"].notna() & (df["target_acos"] > df["margin"])
+    capped = above & (ctx.settings.cap_target_at_break_even == "yes")
+    return df["target_acos"].where(~capped, df["margin"].clip(lower=0.0)).astype(float)
+
+
+def _target_check(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
+    above = df["margin"].notna() & (df["target_acos"] > df["margin"])
+    text = ABOVE_CAPPED if ctx.settings.cap_target_at_break_even == "yes" else ABOVE_UNCAPPED
+    return pd.Series(np.where(above, text, ""), index=df.index, dtype=object)
+
+
+ABOVE_CAPPED = "above break-even: bids use break-even"
+ABOVE_UNCAPPED = "above break-even: each ad sale loses money"
 
 
 def _account_cvr(df: pd.DataFrame, ctx: ProfitContext) -> float:
@@ -190,21 +207,33 @@ DEFS: list[ColumnDef] = [
               '=IF({c:sales_share}="","",IF({c:sales_share}=0,"",IF({c:spend_share}="","",{c:spend_share}/{c:sales_share})))',
               width=10),
     ColumnDef("status", "Status", "label",
-              "no sales (revenue 0), no margin (not in the catalog), loss (net margin below 0), thin (below the "
-              "thin threshold), strong (at or above the strong threshold), else healthy.",
+              "loss (ad spend with no sales, or net margin below 0), no sales (revenue 0, no ad spend), no margin "
+              "(not in the catalog), thin (below the thin threshold), strong (at or above the strong threshold), "
+              "else healthy.",
               _status,
-              '=IF({c:revenue}=0,"no sales",IF({c:margin}="","no margin",IF({c:net_margin}<0,"loss",'
-              'IF({c:net_margin}<thin_margin,"thin",IF({c:net_margin}>=strong_margin,"strong","healthy")))))',
+              '=IF(AND({c:revenue}=0,{c:ad_spend}>0),"loss",IF({c:revenue}=0,"no sales",IF({c:margin}="","no margin",IF({c:net_margin}<0,"loss",'
+              'IF({c:net_margin}<thin_margin,"thin",IF({c:net_margin}>=strong_margin,"strong","healthy"))))))',
               width=10),
     ColumnDef("direction", "Direction", "label",
-              "cut where the status is loss or thin and the spend-to-sales ratio is above 1; grow where it is "
-              "strong and the ratio is below 1; else hold.",
+              "no ads where the product has no ad spend (worth launching when its margin is strong); cut where "
+              "it spends with no sales, or the status is loss or thin and the spend-to-sales ratio is above 1; "
+              "grow where it is strong and the ratio is below 1; else hold.",
               _direction,
-              '=IF({c:ratio}="","hold",IF(AND(OR({c:status}="loss",{c:status}="thin"),{c:ratio}>1),"cut",'
-              'IF(AND({c:status}="strong",{c:ratio}<1),"grow","hold")))', width=10),
+              '=IF({c:ad_spend}=0,"no ads",IF({c:revenue}=0,"cut",IF({c:ratio}="","hold",IF(AND(OR('
+              '{c:status}="loss",{c:status}="thin"),{c:ratio}>1),"cut",IF(AND({c:status}="strong",{c:ratio}<1),'
+              '"grow","hold")))))', width=10),
     ColumnDef("target_override", "Your target ACoS", "percent_input",
               "Input: type a target ACoS for the product to override the catalog and the default; its bids follow.",
               lambda df, ctx: df["target_override"], kind=INPUT, width=10),
+    ColumnDef("target_check", "Target check", "label",
+              "Where the target ACoS is above break-even, each ad-driven sale loses money before any other cost.",
+              _target_check, '=IF({c:margin}="","",IF({c:target_acos}>{c:margin},IF(cap_target_at_break_even="yes",'
+              '"%s","%s"),""))' % (ABOVE_CAPPED, ABOVE_UNCAPPED), width=24),
+    ColumnDef("bid_target", "Bid target ACoS", "percent",
+              "The target the bids aim at: the lower of target and break-even ACoS (never below 0) when "
+              "cap_target_at_break_even is yes, else the target.", _bid_target,
+              '=IF(AND(cap_target_at_break_even="yes",{c:margin}<>""),IF({c:target_acos}>{c:margin},'
+              'MAX(0,{c:margin}),{c:target_acos}),{c:target_acos})', width=9),
     # Helper columns: row positions written as data, and two sums for the margin totals.
     ColumnDef("cat_row", "Catalog row", "int", "Helper: the product's position on in_catalog.",
               lambda df, ctx: df["cat_row"], kind=DATA, width=8, hidden=True),

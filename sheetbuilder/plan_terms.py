@@ -14,6 +14,14 @@ whitespace). "Already targeted" and "Already negated" are lookups: each term's k
 number written as data, looked up by binary-search MATCH in the sorted Keys sheet, so the
 cost grows with terms x log(keys), never terms x targets. No term text is ever used as a
 criterion (MATCH, COUNTIFS and SUMIFS read * ? ~ in text as wildcards).
+
+Rows come largest spend first (as built), so the lists and Actions show the most money at
+stake first. The lists only take what is safe to apply: a promoted term that is new for its
+product and its destination (never a paused or archived campaign); a source negative only
+where the keyword goes to another ad group; no negative in a paused campaign, where one
+already blocks the term, or where it would block a keyword the list adds or a term that
+sells. Those last pairs are found through a word index when building and written on the
+Keys sheet's Clashes table, whose Blocks column is live.
 """
 from __future__ import annotations
 
@@ -30,6 +38,7 @@ from .normalise import contains_phrase, looks_like_product_id, normalise, words
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
 from .settings import Settings
+from .formula import range_ref
 from .spec import DATA, INPUT, Cell, Highlight, Sheet, Table, Validation
 
 SHEET = "Terms"
@@ -48,6 +57,7 @@ class TermsContext:
     account_cvr: float
     account_aov: float
     lookup: dict[float, str]
+    clashes: pd.DataFrame = field(default_factory=pd.DataFrame)
     totals: dict[str, Any] = field(default_factory=dict)
 
 
@@ -222,9 +232,90 @@ def _defs(n_rows: int) -> list[ColumnDef]:
         ColumnDef("block_threshold", "Block threshold", "ratio", "Working: the threshold of that rule.",
                   _block_threshold, '=IF({c:verdict}<>"block","",IF({c:spend}>={c:p_price}*block_spend_multiple,'
                                     '{c:p_price}*block_spend_multiple,{c:n_zero}))', width=9, hidden=True),
-        *running_key("p", "Promoted terms", '{c:final}="promote"', lambda df: df["final"] == "promote"),
-        *running_key("b", "Blocked terms", '{c:final}="block"', lambda df: df["final"] == "block"),
+        ColumnDef("live", "Campaign live", "int", "Helper: 1 where the term's campaign is enabled (in_campaigns).",
+                  lambda df, ctx: df["live"], kind=DATA, width=8, hidden=True),
+        ColumnDef("at_dest", "Keyword at destination", "int",
+                  "Helper: 1 where the destination ad group already has the term as an exact keyword (in_targets).",
+                  lambda df, ctx: df["at_dest"], kind=DATA, width=8, hidden=True),
+        ColumnDef("moved", "Goes elsewhere", "int",
+                  "Helper: 1 where the destination is another ad group than the source.",
+                  lambda df, ctx: df["moved"], kind=DATA, width=8, hidden=True),
+        ColumnDef("adds", "Adds a keyword", "int",
+                  "Working: 1 where the term is promoted to a destination, new for its product.", _adds,
+                  '=IF(AND({c:final}="promote",{c:targeted}="",{c:self}=0,{c:at_dest}=0,{c:dest_campaign}<>""),1,0)',
+                  width=8, hidden=True),
+        ColumnDef("cfirst", "Clash first row", "int", "Helper: first of the term's rows on Clashes.",
+                  lambda df, ctx: df["cfirst"], kind=DATA, width=8, hidden=True),
+        ColumnDef("clast", "Clash last row", "int", "Helper: last of the term's rows on Clashes.",
+                  lambda df, ctx: df["clast"], kind=DATA, width=8, hidden=True),
+        ColumnDef("clash", "Would block another term", "int",
+                  "Working: how many keywords the list adds, or terms that sell, this term's negative would block.",
+                  _clash,
+                  '=IF(OR({c:cfirst}="",AND({c:final}<>"block",{c:adds}=0)),0,'
+                  'SUM(INDEX({rng:clashes.hit},{c:cfirst}):INDEX({rng:clashes.hit},{c:clast})))',
+                  width=8, hidden=True),
+        ColumnDef("src_neg", "Negative in source", "text",
+                  "Working: negative exact where a promoted term goes to another ad group of a live campaign, its "
+                  "source is broad, phrase or automatic, and no negative there blocks it yet.", _src_neg,
+                  '=IF(AND({c:adds}=1,source_negative="yes",OR({c:from_match}="broad",{c:from_match}="phrase",'
+                  '{c:from_match}="auto"),{c:moved}=1,{c:live}=1,{c:negated}="",{c:clash}=0),"negative exact","")',
+                  width=8, hidden=True),
+        *running_key("p", "Promoted terms", 'AND({c:final}="promote",{c:targeted}="",{c:self}=0,{c:at_dest}=0)',
+                     _promoted),
+        *running_key("b", "Blocked terms", 'AND({c:final}="block",{c:live}=1,{c:negated}="",{c:clash}=0)', _blocked),
     ]
+
+
+def _promoted(df: pd.DataFrame) -> pd.Series:
+    """Rows the Harvest list shows: promoted, and not a keyword the product already has."""
+    return (df["final"] == "promote") & (df["targeted"] == "") & (df["self"] == 0) & (df["at_dest"] == 0)
+
+
+def _blocked(df: pd.DataFrame) -> pd.Series:
+    """Rows the Negatives list shows: blocked in a live campaign, not yet negated, blocking no added keyword."""
+    return (df["final"] == "block") & (df["live"] == 1) & (df["negated"] == "") & (df["clash"] == 0)
+
+
+def _adds(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+    return (_promoted(df) & (df["dest_campaign"] != "")).astype(float)
+
+
+def _clash(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+    hits = clash_hits(ctx.clashes, df, ctx.settings)
+    per_row = pd.Series(hits, dtype=float).groupby(ctx.clashes["i"].to_numpy()).sum() if len(hits) else pd.Series(
+        dtype=float)
+    out = df["pos"].map(per_row).fillna(0.0).astype(float)
+    return out.where((df["final"] == "block") | (df["adds"] == 1), 0.0)
+
+
+def _src_neg(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+    ok = ((df["adds"] == 1) & (ctx.settings.source_negative == "yes") & df["from_match"].isin(["broad", "phrase", "auto"])
+          & (df["moved"] == 1) & (df["live"] == 1) & (df["negated"] == "") & (df["clash"] == 0))
+    return pd.Series(np.where(ok, "negative exact", ""), index=df.index, dtype=object)
+
+
+def clash_hits(pairs: pd.DataFrame, terms: pd.DataFrame, settings: Settings) -> list[float]:
+    """Per Clashes row, 1 where the negative term i would propose blocks term j.
+
+    Term i blocked: its negative (in its ad group, or the whole campaign; exact, or phrase
+    below phrase_below_words words) blocks the keyword j adds there, or j where it sells.
+    Term i promoted: its source negative (exact, in its own ad group) blocks the keyword j adds there.
+    """
+    if not len(pairs):
+        return []
+    final, adds, nwords, orders = (terms[k].to_numpy() for k in ("final", "adds", "words", "orders"))
+    wide = settings.negative_level == "campaign"
+    out = []
+    for p in pairs.itertuples():
+        i, j = int(p.i) - 1, int(p.j) - 1
+        if final[i] == "block":
+            matches = p.same_term == 1 or nwords[i] < settings.phrase_below_words
+            keyword = adds[j] == 1 and p.kw_in == 1 and (wide or p.kw_group == 1)
+            sold = orders[j] > 0 and p.src_in == 1 and (wide or p.src_group == 1)
+            out.append(1.0 if matches and (keyword or sold) else 0.0)
+        else:
+            out.append(1.0 if final[i] == "promote" and adds[j] == 1 and p.kw_group == 1 and p.same_term == 1 else 0.0)
+    return out
 
 
 def _price_blend():
@@ -306,6 +397,9 @@ def term_frame(layout: InputSheet, groups: pd.DataFrame, campaigns: pd.DataFrame
     })
     for c in ("campaign", "ad_group", "term_key", "from_target", "from_match", "term"):
         frame[c] = frame[c].astype(object)
+    # Largest spend first (to the cent, stable), so the lists and Actions show the most money at stake first.
+    frame = frame.assign(_money=-frame["spend"].round(2)).sort_values("_money", kind="stable").drop(
+        columns="_money").reset_index(drop=True)
     frame = attach_groups(frame, groups)
     fold = settings.fold_plurals
     frame["pos"] = np.arange(1, len(frame) + 1, dtype=float)
@@ -314,9 +408,11 @@ def term_frame(layout: InputSheet, groups: pd.DataFrame, campaigns: pd.DataFrame
                      for m, t, k in zip(frame["from_match"], frame["from_target"], frame["term_key"])]
     frame["pid_like"] = [1.0 if looks_like_product_id(t, settings.product_id_pattern) else 0.0 for t in frame["term"]]
     frame["words"] = [float(words(t)) for t in frame["term"]]
-    automatic = set()
+    automatic, paused = set(), set()
     if campaigns is not None and len(campaigns):
         automatic = set(campaigns.loc[campaigns["targeting"] == "automatic", "campaign"])
+        states = campaigns.drop_duplicates("campaign").set_index("campaign")["state"]
+        paused = set(states.index[states != "enabled"])
     dest_c, dest_g = [], []
     for r in frame.itertuples():
         product = r.products[0] if r.products else None
@@ -326,9 +422,14 @@ def term_frame(layout: InputSheet, groups: pd.DataFrame, campaigns: pd.DataFrame
             c, a = "", ""
         else:
             c, a = r.campaign, r.ad_group
+        if c in paused:  # nothing is added to a paused or archived campaign: choose a live one
+            c, a = "", ""
         dest_c.append(c)
         dest_g.append(a)
     frame["dest_campaign"], frame["dest_ad_group"] = dest_c, dest_g
+    frame["live"] = [0.0 if c in paused else 1.0 for c in frame["campaign"]]
+    frame["moved"] = [1.0 if dc != "" and (dc, dg) != (c, g) else 0.0 for c, g, dc, dg in
+                      zip(frame["campaign"], frame["ad_group"], frame["dest_campaign"], frame["dest_ad_group"])]
     frame["tkey_t"] = [("T", p[0], k) if p else None for p, k in zip(frame["products"], frame["term_key"])]
     phrases: dict = {}
     exact: set = set()
@@ -341,7 +442,40 @@ def term_frame(layout: InputSheet, groups: pd.DataFrame, campaigns: pd.DataFrame
                 exact.add(("N", n.campaign, n.ad_group or "", norm))
     frame["nkey_t"] = [_negative_key(r, phrases, exact) for r in frame.itertuples()]
     frame["decision"] = None
+    frame["cfirst"], frame["clast"] = np.nan, np.nan
     return frame
+
+
+def clash_pairs(frame: pd.DataFrame) -> pd.DataFrame:
+    """Every (i, j) where a negative from term i could block term j: the keyword j adds, or j where it sells.
+
+    i's words appear in j's, in order (so an exact or phrase negative of i, at ad-group or
+    campaign level, might block j), and either j's destination is in i's campaign, or j is
+    in i's campaign and sold in the period. Whether it does block is decided live on the
+    Clashes sheet. Sorted by i, so each term's pairs are one block; candidates come from a
+    word index, never term x term.
+    """
+    columns = ["i", "j", "kw_in", "kw_group", "src_in", "src_group", "same_term"]
+    if not len(frame):
+        return pd.DataFrame(columns=columns, dtype=float)
+    index: dict[tuple, set] = {}
+    for j, c, dc, key, orders in zip(frame["pos"], frame["campaign"], frame["dest_campaign"], frame["term_key"],
+                                     frame["orders"]):
+        for campaign in {dc} - {""} | ({c} if orders > 0 else set()):
+            for w in set(key.split(" ")):
+                index.setdefault((campaign, w), set()).add(int(j))
+    c_, g_, dc_, dg_, k_, o_ = (frame[k].to_numpy() for k in ("campaign", "ad_group", "dest_campaign",
+                                                              "dest_ad_group", "term_key", "orders"))
+    rows = []
+    for i, (c, g, key) in enumerate(zip(c_, g_, k_)):
+        first = key.split(" ")[0] if key else ""
+        for j in sorted(index.get((c, first), ())):
+            j -= 1
+            if j != i and contains_phrase(k_[j], key):
+                kw_in = dc_[j] == c
+                rows.append((i + 1.0, j + 1.0, float(kw_in), float(kw_in and dg_[j] == g),
+                             float(c_[j] == c and o_[j] > 0), float(c_[j] == c and g_[j] == g), float(k_[j] == key)))
+    return pd.DataFrame(rows, columns=columns, dtype=float)
 
 
 def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, targets: pd.DataFrame | None,
@@ -352,12 +486,28 @@ def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, t
     if decide is not None and len(base):
         base["decision"] = decide("Terms", list(zip(base["campaign"], base["ad_group"], base["term"])))
     keys = build_keys(base, targets, negatives, groups.frame, settings)
-    keys_sheet, key_ranges = plan_keys(keys)
+    existing = set()
+    if targets is not None and len(targets):
+        live = targets.loc[(targets["match_type"] == "exact") & (targets["state"] != "archived")]
+        existing = {(c, g, _norm_or_blank(t, settings.fold_plurals))
+                    for c, g, t in zip(live["campaign"], live["ad_group"], live["target"])}
+    base["at_dest"] = [1.0 if (c, g, k) in existing else 0.0
+                       for c, g, k in zip(base["dest_campaign"], base["dest_ad_group"], base["term_key"])]
+    pairs = clash_pairs(base)
+    if len(pairs):
+        block = pd.DataFrame({"i": pairs["i"], "at": np.arange(1, len(pairs) + 1, dtype=float)}).groupby("i")["at"]
+        base["cfirst"], base["clast"] = base["pos"].map(block.min()), base["pos"].map(block.max())
+    clash_first = 2 + max(len(keys.found), 1) + 3  # the Clashes table's header row on the Keys sheet
+    key_ranges = {**plan_keys(keys)[1], "clashes.hit": range_ref(
+        KEYS_SHEET, [d.key for d in CLASH_DEFS].index("hit"), clash_first + 1, clash_first + len(pairs))}
     base["tkey"] = base["tkey_t"].map(lambda k: keys.ids.get(k, np.nan) if k else np.nan)
     base["nkey"] = base["nkey_t"].map(lambda k: keys.ids.get(k, np.nan))
     ctx = TermsContext(settings, groups.frame, float(profit.totals_values["prod_cvr"]),
-                       float(profit.totals_values["prod_aov"]), keys.found)
+                       float(profit.totals_values["prod_aov"]), keys.found, pairs)
     planned = plan_table(_defs(len(base)), base, ctx, HEADER_ROW + 1, {**ranges, **key_ranges}, with_totals=False)
+    clashes = plan_table(CLASH_DEFS, pairs, ClashContext(planned.frame, settings), clash_first + 1,
+                         planned.ranges(SHEET, "terms"), with_totals=False)
+    keys_sheet, _ = plan_keys(keys, Table(clash_first, clashes.columns, autofilter=False, title=CLASH_TITLE))
     keys_list = [d.key for d in _defs(len(base))]
     n = len(base)
     first = HEADER_ROW + 1
@@ -379,14 +529,46 @@ def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, t
     return sheet, planned, keys_sheet, keys
 
 
-def plan_keys(keys: KeyTable) -> tuple[Sheet, dict[str, str]]:
-    """The Keys sheet: found keys sorted by number, with what each says (a lookup table)."""
-    from .formula import range_ref
+@dataclass
+class ClashContext:
+    """What the Clashes columns read: the planned Terms frame and the settings."""
+
+    terms: pd.DataFrame
+    settings: Settings
+    totals: dict[str, Any] = field(default_factory=dict)
+
+
+CLASH_TITLE = ("Clashes: where a negative from one term (left) could block the keyword another term adds, or "
+               "another term where it sells; Blocks = 1 keeps that negative off the lists")
+_FINAL_I = "INDEX({rng:terms.final},{c:i})"
+_ADDS_J = "INDEX({rng:terms.adds},{c:j})"
+CLASH_DEFS: list[ColumnDef] = [
+    ColumnDef("i", "Negative from term", "int", "The Terms position of the term whose negative could block.",
+              lambda df, ctx: df["i"], kind=DATA, width=10),
+    ColumnDef("j", "Blocked term", "int", "The Terms position of the term it could block.",
+              lambda df, ctx: df["j"], kind=DATA, width=10),
+    *[ColumnDef(k, h, "int", text, (lambda key: lambda df, ctx: df[key])(k), kind=DATA, width=8) for k, h, text in (
+        ("kw_in", "Keyword in its campaign", "1 where the keyword j adds goes to i's campaign."),
+        ("kw_group", "Keyword in its ad group", "1 where the keyword j adds goes to i's ad group."),
+        ("src_in", "Sells in its campaign", "1 where j is in i's campaign and sold in the period."),
+        ("src_group", "In its ad group", "1 where j is in i's campaign and ad group."),
+        ("same_term", "Same term", "1 where both terms are the same after normalisation."))],
+    ColumnDef("hit", "Blocks", "int", "1 where, with today's Finals and settings, the negative blocks j.",
+              lambda df, ctx: pd.Series(clash_hits(df, ctx.terms, ctx.settings), index=df.index, dtype=float),
+              '=IF(%s="block",IF(AND(OR({c:same_term}=1,INDEX({rng:terms.words},{c:i})<phrase_below_words),'
+              'OR(AND(%s=1,{c:kw_in}=1,OR(negative_level="campaign",{c:kw_group}=1)),AND(INDEX({rng:terms.orders},'
+              '{c:j})>0,{c:src_in}=1,OR(negative_level="campaign",{c:src_group}=1)))),1,0),IF(AND(%s="promote",'
+              '%s=1,{c:kw_group}=1,{c:same_term}=1),1,0))' % (_FINAL_I, _ADDS_J, _FINAL_I, _ADDS_J), width=8),
+]
+
+
+def plan_keys(keys: KeyTable, clashes: Table | None = None) -> tuple[Sheet, dict[str, str]]:
+    """The Keys sheet: found keys sorted by number, with what each says (a lookup table), then the clashes."""
     from .spec import Column
     numbers = sorted(keys.found)
     columns = [Column("Key", "int", DATA, numbers, width=10),
                Column("Found", "text", DATA, [keys.found[k] for k in numbers], width=40)]
     sheet = Sheet(KEYS_SHEET, above=[[Cell("Lookup keys: existing exact keywords and negatives, by number", style="title")]],
-                  table=Table(2, columns), freeze=(3, 0), tab_color="#8C8C8C")
+                  table=Table(2, columns), freeze=(3, 0), tab_color="#8C8C8C", more=[clashes] if clashes else [])
     first, last = 3, 2 + max(len(numbers), 1)
     return sheet, {"keys.key": range_ref(KEYS_SHEET, 0, first, last), "keys.found": range_ref(KEYS_SHEET, 1, first, last)}

@@ -1,8 +1,9 @@
-"""Recalculating a workbook outside Excel: LibreOffice Calc headless and the `formulas` library.
+"""Recalculating a workbook outside Excel: LibreOffice Calc headless, Gnumeric and the `formulas` library.
 
 Used by the tests (three-way truth), the benchmark, and later by commands that read
 workbooks a user saved. LibreOffice is forced to recalculate on load with a private
-profile whose registrymodifications.xcu sets OOXMLRecalcMode to 0 ("always").
+profile whose registrymodifications.xcu sets OOXMLRecalcMode to 0 ("always"); Gnumeric's
+`ssconvert --recalc` recalculates every cell before writing.
 """
 from __future__ import annotations
 
@@ -76,6 +77,41 @@ def libreoffice_convert(paths: list[Path], outdir: Path, target: str = "xlsx", t
     if done.returncode != 0 or missing:
         raise SheetbuilderError(f"LibreOffice failed (exit {done.returncode}); missing {missing}: "
                                 f"{done.stdout} {done.stderr}")
+    return outs
+
+
+def ssconvert_path() -> str | None:
+    """Gnumeric's command-line converter (Debian package gnumeric), or None."""
+    return shutil.which("ssconvert")
+
+
+def gnumeric_convert(paths: list[Path], outdir: Path, timeout: int = 900) -> list[Path]:
+    """Recalculate each workbook with Gnumeric (`ssconvert --recalc`) and save it as .xlsx into outdir.
+
+    Args:
+        paths: the workbooks to recalculate.
+        outdir: where the recalculated copies go (same file name).
+
+    Returns:
+        The recalculated files, in the order of paths.
+    """
+    exe = ssconvert_path()
+    if exe is None:
+        raise RecalcUnavailable("Gnumeric (ssconvert) is not installed")
+    outdir.mkdir(parents=True, exist_ok=True)
+    outs = []
+    with tempfile.TemporaryDirectory(prefix="sb-gnumeric-") as tmp:
+        env = {**os.environ, "HOME": tmp}
+        for src in paths:
+            out = outdir / (Path(src).stem + ".xlsx")
+            if out.exists() and out.resolve() == Path(src).resolve():
+                raise SheetbuilderError(f"converting {src} into {outdir} would overwrite it; choose another folder")
+            out.unlink(missing_ok=True)
+            cmd = [exe, "--recalc", "--export-type=Gnumeric_Excel:xlsx2", str(src), str(out)]
+            done = subprocess.run(cmd, capture_output=True, text=True, timeout=timeout, env=env)
+            if done.returncode != 0 or not out.exists():
+                raise SheetbuilderError(f"Gnumeric failed on {src} (exit {done.returncode}): {done.stdout} {done.stderr}")
+            outs.append(out)
     return outs
 
 

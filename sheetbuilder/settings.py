@@ -52,6 +52,10 @@ SETTINGS: tuple[SettingSpec, ...] = (
                 -1.0, 1.0),
     SettingSpec("default_target_acos", "Default target ACoS", 0.30, "percent",
                 "Target ACoS for products whose catalog row gives none.", 0.0, 5.0),
+    SettingSpec("cap_target_at_break_even", "Cap target ACoS at break-even", "yes", "choice",
+                "yes: bids aim at the lower of a product's target ACoS and its break-even ACoS (above break-even, "
+                "each ad-driven sale loses money before any other cost); no: at the target as given.",
+                choices=("yes", "no")),
     SettingSpec("period_days", "Period length (days)", 30, "int",
                 "How many days the exports cover.", 1, 3660),
     SettingSpec("period_end", "Period end date", None, "date",
@@ -129,6 +133,7 @@ class Settings:
     thin_margin: float = 0.08
     strong_margin: float = 0.20
     default_target_acos: float = 0.30
+    cap_target_at_break_even: str = "yes"
     period_days: int = 30
     period_end: dt.date | None = None
     attribution_days: int = 7

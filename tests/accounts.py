@@ -38,20 +38,26 @@ def accounts(draw, max_products: int = 8, max_ad_rows: int = 18, max_targets: in
                     "ad_sales": 0.0 if clicks == 0 else draw(st.integers(0, 300000).map(lambda c: c / 100)),
                     "orders": 0 if clicks == 0 else draw(st.integers(0, clicks))})
     groups = sorted({(a["campaign"], a["ad_group"]) for a in ads}) or [("C1", "G1")]
-    targets = []
+    targets, seen = [], set()
     for i in range(draw(st.integers(0, max_targets))):
         campaign, group = draw(st.sampled_from(groups)) if draw(st.integers(0, 9)) else ("C9", "G9")
         clicks = draw(st.integers(0, 120))
         orders = 0 if clicks == 0 or draw(st.booleans()) else draw(st.integers(0, clicks))
-        targets.append({"campaign": campaign, "ad_group": group, "target": f"kw {i}",
+        text = draw(st.sampled_from([f"kw {i}", f"kw {i}", "pot", "plant pot", "seed tray", "big plant pot"]))
+        targets.append({"campaign": campaign, "ad_group": group, "target": text,  # some already run as keywords
                         "match_type": draw(st.sampled_from(["exact", "phrase", "broad", "product", "auto"])),
                         "state": draw(st.sampled_from(["enabled"] * 6 + ["paused", "archived"])),
                         "bid": draw(st.integers(5, 600)) / 100, "impressions": clicks * draw(st.integers(1, 40)),
                         "clicks": clicks, "spend": 0.0 if clicks == 0 else draw(st.integers(0, 40000)) / 100,
                         "ad_sales": 0.0 if orders == 0 else draw(st.integers(0, 200000)) / 100, "orders": orders})
+        key = tuple(targets[-1][k] for k in ("campaign", "ad_group", "target", "match_type"))
+        if key in seen:  # one row per keyword: a repeat without dates is refused by the readers
+            targets.pop()
+        seen.add(key)
     campaigns = [{"campaign": f"C{i}", "ad_type": "product ads",
-                  "state": draw(st.sampled_from(["enabled", "enabled", "paused"])),
-                  "daily_budget": draw(st.integers(100, 10000)) / 100, "targeting": "manual"} for i in range(1, 5)]
+                  "state": draw(st.sampled_from(["enabled", "enabled", "paused", "archived"])),
+                  "daily_budget": draw(st.integers(100, 10000)) / 100,
+                  "targeting": draw(st.sampled_from(["manual", "manual", "automatic"]))} for i in range(1, 5)]
     bid_settings = {
         "prior_clicks": draw(st.integers(0, 40)), "min_clicks": draw(st.integers(0, 20)),
         "zero_order_confidence": draw(st.integers(80, 99)) / 100, "max_bid_cut": draw(st.integers(5, 60)) / 100,
@@ -66,7 +72,8 @@ def accounts(draw, max_products: int = 8, max_ad_rows: int = 18, max_targets: in
     if not catalog:
         catalog.append({"product_id": ids[0], "product_name": "Only", "price": 10.0, "unit_cost": 2.0,
                         "fees_per_unit": 1.0, "target_acos": "", "margin": ""})
-    vocabulary = ["pot", "plant pot", "Plant  Pot", "big plant pot", "free pot", "seed tray", "p002", "hose*", "tray?"]
+    vocabulary = ["pot", "plant pot", "Plant  Pot", "big plant pot", "free pot", "seed tray", "p002", "hose*", "tray?",
+                  "big pot"]
     terms = []
     for _ in range(draw(st.integers(0, max_terms))):
         campaign, group = draw(st.sampled_from(groups))
@@ -88,6 +95,11 @@ def accounts(draw, max_products: int = 8, max_ad_rows: int = 18, max_targets: in
                      "source_negative": draw(st.sampled_from(["yes", "no"]))}
     settings += "".join(f"{k} = {v!r}\n" if isinstance(v, str) else f"{k} = {v}\n"
                         for k, v in term_settings.items()).replace("'", '"')
+    # Where some products' promoted terms go (another ad group, sometimes in a paused campaign).
+    destinations = {p: draw(st.sampled_from(groups)) for p in draw(st.lists(st.sampled_from(ids), max_size=3))}
+    if destinations:
+        settings += "[destinations]\n" + "".join(f'{p} = {{ campaign = "{c}", ad_group = "{g}" }}\n'
+                                                 for p, (c, g) in destinations.items())
     account = {"catalog": catalog, "store_sales": sales, "ad_products": ads, "settings": settings}
     if terms:
         account["search_terms"] = terms
@@ -95,8 +107,8 @@ def accounts(draw, max_products: int = 8, max_ad_rows: int = 18, max_targets: in
             account["negatives"] = negatives
     if targets:
         account["targets"] = targets
-        if draw(st.booleans()):
-            account["campaigns"] = campaigns
+    if (targets or terms) and draw(st.integers(0, 3)):
+        account["campaigns"] = campaigns  # with paused and archived campaigns, and automatic ones
     return account
 
 

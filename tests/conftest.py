@@ -1,7 +1,9 @@
-"""Shared fixtures: the demo workbook, generated accounts, and one batched LibreOffice run.
+"""Shared fixtures: the demo workbook, generated accounts, one batched LibreOffice run and one Gnumeric run.
 
 LibreOffice is started once per session for every workbook the tests recalculate
-(its start-up costs seconds). Under CI=true a missing LibreOffice fails the run.
+(its start-up costs seconds); Gnumeric (`ssconvert --recalc`) recalculates the demo and
+the generated accounts once per session. Under CI=true a missing LibreOffice or Gnumeric
+fails the run.
 """
 from __future__ import annotations
 
@@ -17,12 +19,22 @@ sys.path.insert(0, str(Path(__file__).parent))
 
 from accounts import draw_accounts, write_account  # noqa: E402
 from sheetbuilder.pipeline import build  # noqa: E402
-from sheetbuilder.recalc import libreoffice_convert, soffice_path  # noqa: E402
+from sheetbuilder.recalc import gnumeric_convert, libreoffice_convert, soffice_path, ssconvert_path  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
 DEMO = ROOT / "demo_inputs"
 BUILT_ON = dt.date(2026, 12, 2)
 GENERATED = 6
+
+
+SLOW_MARKERS = ("libreoffice", "gnumeric")  # tier 3: an outside engine recalculates whole workbooks
+
+
+def pytest_collection_modifyitems(items):
+    """Mark every test that recalculates with LibreOffice or Gnumeric as slow (left out of the fast lane)."""
+    for item in items:
+        if any(item.get_closest_marker(m) for m in SLOW_MARKERS) or set(SLOW_MARKERS) & set(item.fixturenames):
+            item.add_marker(pytest.mark.slow)
 
 
 def require_libreoffice():
@@ -31,6 +43,14 @@ def require_libreoffice():
         if os.environ.get("CI") == "true":
             pytest.fail("LibreOffice (soffice) is required under CI=true; ./tasks.sh test installs it")
         pytest.skip("LibreOffice is not installed")
+
+
+def require_gnumeric():
+    """Skip without Gnumeric's ssconvert on a developer machine; fail under CI."""
+    if ssconvert_path() is None:
+        if os.environ.get("CI") == "true":
+            pytest.fail("Gnumeric (ssconvert) is required under CI=true; ./tasks.sh test installs it")
+        pytest.skip("Gnumeric (ssconvert) is not installed")
 
 
 @pytest.fixture(scope="session")
@@ -69,6 +89,15 @@ def libreoffice(work, demo_build, generated, live_edits):
     require_libreoffice()
     files = [demo_build.output] + [r.output for _, r in generated] + list(live_edits.values())
     outs = libreoffice_convert(files, work / "lo")
+    return {Path(f).stem: o for f, o in zip(files, outs)}
+
+
+@pytest.fixture(scope="session")
+def gnumeric(work, demo_build, generated):
+    """{stem: path of the Gnumeric-recalculated copy} of the demo and the generated accounts."""
+    require_gnumeric()
+    files = [demo_build.output] + [r.output for _, r in generated]
+    outs = gnumeric_convert(files, work / "gnumeric")
     return {Path(f).stem: o for f, o in zip(files, outs)}
 
 

@@ -66,7 +66,9 @@ def profit_oracle(tables, settings, catalog_edits=None, target_overrides=None):
         sales_share = _div(rev, total_revenue)
         spend_share = _div(sp, total_spend)
         ratio = _div(spend_share, sales_share)
-        if rev == 0:
+        if rev == 0 and sp > 0:  # ad spend with no sales is the clearest loss there is
+            status = "loss"
+        elif rev == 0:
             status = "no sales"
         elif margin is BLANK:
             status = "no margin"
@@ -78,7 +80,11 @@ def profit_oracle(tables, settings, catalog_edits=None, target_overrides=None):
             status = "strong"
         else:
             status = "healthy"
-        if ratio is not BLANK and status in ("loss", "thin") and ratio > 1:
+        if sp == 0:  # nothing to cut or to grow: a product to consider launching
+            direction = "no ads"
+        elif rev == 0:
+            direction = "cut"
+        elif ratio is not BLANK and status in ("loss", "thin") and ratio > 1:
             direction = "cut"
         elif ratio is not BLANK and status == "strong" and ratio < 1:
             direction = "grow"
@@ -94,6 +100,13 @@ def profit_oracle(tables, settings, catalog_edits=None, target_overrides=None):
             "Net profit after ads": BLANK if margin is BLANK else rev * margin - sp,
             "Sales share": sales_share, "Spend share": spend_share, "Spend-to-sales ratio": ratio,
             "Status": status, "Direction": direction,
+            # Break-even rule, common practice in the trade (no single source): above a target ACoS equal to
+            # the margin before ads, each ad-driven sale loses money before any other cost.
+            "Target check": "" if margin is BLANK or target <= margin else (
+                "above break-even: bids use break-even" if settings.cap_target_at_break_even == "yes"
+                else "above break-even: each ad sale loses money"),
+            "Bid target ACoS": max(0.0, margin) if (settings.cap_target_at_break_even == "yes" and margin is not BLANK
+                                                    and target > margin) else target,
         }
     with_margin = [r for r in out.values() if r["Margin before ads"] is not BLANK]
     rev_m = sum(r["Revenue"] for r in with_margin)
@@ -165,11 +178,11 @@ def bids_oracle(tables, settings, profit_rows, decisions=None):
             total = sum(weights.values())
             w = {p: (weights[p] / total if total else 1 / len(products)) for p in products}
             if total:
-                target = sum(weights[p] * profit_rows[p]["Target ACoS"] for p in products) / total
+                target = sum(weights[p] * profit_rows[p]["Bid target ACoS"] for p in products) / total
                 cvr_p = sum(weights[p] * product_cvr(p) for p in products) / total
                 aov_p = sum(weights[p] * product_aov(p) for p in products) / total
             else:
-                target = sum(profit_rows[p]["Target ACoS"] for p in products) / len(products)
+                target = sum(profit_rows[p]["Bid target ACoS"] for p in products) / len(products)
                 cvr_p = sum(product_cvr(p) for p in products) / len(products)
                 aov_p = sum(product_aov(p) for p in products) / len(products)
             del w
@@ -236,6 +249,8 @@ def bids_oracle(tables, settings, profit_rows, decisions=None):
             "CPC": cpc, "CVR": orders / clicks if clicks else BLANK, "ACoS": spend / sales if sales else BLANK,
             "Target ACoS": target, "Current bid": bid, "Value bid": value, "Proposed bid": proposed,
             "Change": proposed / bid - 1 if bid else BLANK, "Reason": reason, "Final bid": final,
+            "Target check": "" if not any(profit_rows[p]["Target check"] for p in products) else (
+                "target capped at break-even" if s.cap_target_at_break_even == "yes" else "target above break-even"),
             "Smoothed CVR": s_cvr, "Smoothed ACoS": s_acos, "Zero-order clicks": n, "Product CVR": cvr_p,
 
         }

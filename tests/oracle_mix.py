@@ -32,6 +32,9 @@ def mix_oracle(tables, settings, profit_rows):
             t[k] += r[k]
     total = sum(t["spend"] for t in types.values())
     bench = {header_key(k): (k, v) for k, v in settings.ad_type_benchmarks.items()}
+    for key, (label, _) in bench.items():  # a benchmark type that does not run: every sum is 0
+        if key not in types:
+            types[key], labels[key] = defaultdict(float), label
     out_types = {}
     for key in sorted(types):
         t = types[key]
@@ -43,10 +46,6 @@ def mix_oracle(tables, settings, profit_rows):
                                   "Share of spend": share, "Benchmark share": b,
                                   "Gap": BLANK if share is BLANK or b is BLANK else share - b,
                                   "Note": "not running" if t["spend"] == 0 else ""}
-    for key, (label, b) in bench.items():
-        if key not in types:
-            out_types[label] = {"Spend": 0.0, "Share of spend": _div(0.0, total), "Benchmark share": b,
-                                "Note": "not running"}
     first_product = {}
     for r in ads:
         g = (r["campaign"], r["ad_group"])
@@ -117,7 +116,7 @@ def budget_oracle(tables, settings, profit_rows, product_decisions=None):
     products = {}
     for pid, r in profit_rows.items():
         spend = r["Ad spend"]
-        if cut == 0 or grow == 0 or r["Direction"] == "hold":
+        if cut == 0 or grow == 0 or r["Direction"] not in ("cut", "grow"):  # hold, and no ads: nothing moves
             proposed = spend
         elif r["Direction"] == "cut":
             proposed = spend * (1 - share)

@@ -56,17 +56,23 @@ def terms_oracle(tables, settings, profit_rows, decisions=None):
             return sum(value(p) for p in w) / len(w)
         return sum(w[p] * value(p) for p in w) / total
 
-    exact_kw = {}
+    exact_kw, exact_at = {}, set()
     targets = tables.get("targets")
     for t in ([] if targets is None else targets.to_dict("records")):
         if t["match_type"] == "exact" and t["state"] != "archived":
+            exact_at.add((t["campaign"], t["ad_group"], normalise(t["target"], fold)))
             for p in sorted(weights.get((t["campaign"], t["ad_group"]), {})):
                 exact_kw.setdefault((p, normalise(t["target"], fold)), f"{t['campaign']} / {t['ad_group']}")
     negatives = tables.get("negatives")
     negs = [] if negatives is None else negatives.to_dict("records")
-    automatic = set()
+    automatic, state = set(), {}
     if tables.get("campaigns") is not None:
         automatic = {c["campaign"] for c in tables["campaigns"].to_dict("records") if c["targeting"] == "automatic"}
+        for c in tables["campaigns"].to_dict("records"):
+            state.setdefault(c["campaign"], c["state"])
+
+    def live(campaign):
+        return state.get(campaign, "enabled") == "enabled"
 
     agg = {}
     for r in tables["search_terms"].to_dict("records"):
@@ -74,10 +80,13 @@ def terms_oracle(tables, settings, profit_rows, decisions=None):
         a = agg.setdefault(key, {"term": r["search_term"], "rows": []})
         a["rows"].append(r)
     rows = []
-    for pos, key in enumerate(sorted(agg), start=1):
+    sums = {key: {k: sum(r[k] for r in agg[key]["rows"]) for k in ("impressions", "clicks", "spend", "ad_sales", "orders")}
+            for key in agg}
+    # Largest spend first (to the cent), then by campaign, ad group and term.
+    for pos, key in enumerate(sorted(sorted(agg), key=lambda k: -round(sums[k]["spend"], 2)), start=1):
         campaign, ad_group, norm = key
         a = agg[key]
-        m = {k: sum(r[k] for r in a["rows"]) for k in ("impressions", "clicks", "spend", "ad_sales", "orders")}
+        m = sums[key]
         top = max(a["rows"], key=lambda r: r["clicks"])  # max keeps the first of equals
         group = (campaign, ad_group)
         products = sorted(weights.get(group, {}))
@@ -103,7 +112,7 @@ def terms_oracle(tables, settings, profit_rows, decisions=None):
         cvr_p = blend(group, lambda p: p_cvr[p], account_cvr)
         aov_p = blend(group, lambda p: p_aov[p], account_aov)
         price_p = blend(group, price, account_aov)
-        target = blend(group, lambda p: profit_rows[p]["Target ACoS"], s.default_target_acos)
+        target = blend(group, lambda p: profit_rows[p]["Bid target ACoS"], s.default_target_acos)
         n0 = (math.ceil(math.log(1 - s.zero_order_confidence) / math.log(1 - cvr_p)) if 0 < cvr_p < 1 else BLANK)
         own_exact = top["match_type"] == "exact" and normalise(top["target"], fold) == norm
         spent = m["spend"] >= price_p * s.block_spend_multiple
@@ -135,6 +144,8 @@ def terms_oracle(tables, settings, profit_rows, decisions=None):
             dest = (campaign, ad_group)
         if products and products[0] in s.destinations:
             dest = s.destinations[products[0]]
+        if dest[0] and not live(dest[0]):  # nothing goes into a paused or archived campaign
+            dest = ("", "")
         rows.append({
             "Campaign": campaign, "Ad group": ad_group, "From target": top["target"],
             "From match type": top["match_type"], "Search term": a["term"], "Product ID": label, **{
@@ -145,23 +156,43 @@ def terms_oracle(tables, settings, profit_rows, decisions=None):
             "Already targeted": targeted, "Already negated": negated, "Verdict": verdict, "Final": final,
             "Position": pos, "Starting bid": start, "Zero-order clicks": n0, "Product price": price_p,
             "_dest": dest, "_pid_like": looks_like_product_id(a["term"], s.product_id_pattern),
-            "_words": words(a["term"]), "_spent": spent,
+            "_words": words(a["term"]), "_spent": spent, "_norm": norm, "_live": live(campaign),
+            "_new": not targeted and not own_exact and (dest[0], dest[1], norm) not in exact_at,
         })
+    # The keywords the list adds: promoted, new for the product, with a destination.
+    added = [(r["_dest"][0], r["_dest"][1], r["_norm"], r["Position"]) for r in rows
+             if r["Final"] == "promote" and r["_new"] and r["_dest"][0]]
+
+    # The terms that sold: a new negative must not cut them off where they sell.
+    sold = [(r["Campaign"], r["Ad group"], r["_norm"], r["Position"]) for r in rows if r["Orders"] > 0]
+
+    def blocks_added(campaign, ad_group, norm, phrase, skip, selling=False):
+        """Whether a negative (ad_group '' = campaign level) blocks a keyword the list adds (or a term that sells)."""
+        return any(c == campaign and (ad_group == "" or g == ad_group) and p != skip
+                   and (contains_phrase(k, norm) if phrase else k == norm)
+                   for c, g, k, p in added + (sold if selling else []))
+
     harvest, blocked = [], []
     for r in rows:
-        if r["Final"] == "promote":
+        if r["Final"] == "promote" and r["_new"]:
             kind = "product target" if r["_pid_like"] else "keyword"
+            source_negative = (s.source_negative == "yes" and r["From match type"] in ("broad", "phrase", "auto")
+                               and r["_dest"][0] != "" and r["_dest"] != (r["Campaign"], r["Ad group"])
+                               and r["_live"] and not r["Already negated"]
+                               and not blocks_added(r["Campaign"], r["Ad group"], r["_norm"], False, r["Position"]))
             harvest.append({
                 "Number": len(harvest) + 1, "Search term": r["Search term"], "Kind": kind,
                 "Match type": "product" if kind == "product target" else s.harvest_match_type,
                 "Destination campaign": r["_dest"][0], "Destination ad group": r["_dest"][1],
                 "Starting bid": r["Starting bid"],
-                "Negative in source": "negative exact" if s.source_negative == "yes" and r["From match type"] in (
-                    "broad", "phrase", "auto") else "",
+                "Negative in source": "negative exact" if source_negative else "", "Spend": r["Spend"],
                 "Source campaign": r["Campaign"], "Source ad group": r["Ad group"], "Product ID": r["Product ID"],
                 "Orders": r["Orders"], "ACoS": r["ACoS"],
                 "Reason": "choose destination" if not r["_dest"][0] else ""})
-        if r["Final"] == "block":
+        level_group = "" if s.negative_level == "campaign" else r["Ad group"]
+        phrase = r["_words"] < s.phrase_below_words
+        if (r["Final"] == "block" and r["_live"] and not r["Already negated"]
+                and not blocks_added(r["Campaign"], level_group, r["_norm"], phrase, r["Position"], selling=True)):
             if r["Verdict"] != "block":
                 rule, threshold = "your decision", BLANK
             elif r["_spent"]:
@@ -170,8 +201,8 @@ def terms_oracle(tables, settings, profit_rows, decisions=None):
                 rule, threshold = f"no orders after {r['Zero-order clicks']} clicks", r["Zero-order clicks"]
             blocked.append({
                 "Number": len(blocked) + 1, "Search term": r["Search term"], "Campaign": r["Campaign"],
-                "Ad group": "" if s.negative_level == "campaign" else r["Ad group"], "Level": s.negative_level,
-                "Negative match type": "negative phrase" if r["_words"] < s.phrase_below_words else "negative exact",
+                "Ad group": level_group, "Level": s.negative_level,
+                "Negative match type": "negative phrase" if phrase else "negative exact",
                 "Rule": rule, "Threshold": threshold, "Spend": r["Spend"], "Clicks": r["Clicks"],
                 "Product ID": r["Product ID"]})
     return rows, harvest, blocked

@@ -11,6 +11,7 @@ PROFIT_HEADERS = ["Product ID", "Product name", "Units", "Revenue", "Ad spend", 
                   "Margin before ads", "Break-even ACoS", "Target ACoS", "Net margin after ads",
                   "Net profit after ads", "Sales share", "Spend share", "Spend-to-sales ratio", "Status",
                   "Direction"]
+PROFIT_CHECKED = PROFIT_HEADERS + ["Target check", "Bid target ACoS"]
 HEADER_ROW = 5  # 1-based: title, caution, warning, blank, header
 
 

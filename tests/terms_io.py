@@ -14,7 +14,7 @@ TERMS_HEADERS = ["Campaign", "Ad group", "From target", "From match type", "Sear
 TERMS_CHECKED = [h for h in TERMS_HEADERS if h != "Decision"] + ["Starting bid", "Zero-order clicks", "Product price"]
 HARVEST_HEADERS = ["Number", "Search term", "Kind", "Match type", "Destination campaign", "Destination ad group",
                    "Starting bid", "Negative in source", "Source campaign", "Source ad group", "Product ID", "Orders",
-                   "ACoS", "Reason"]
+                   "Spend", "ACoS", "Reason"]
 NEGATIVE_HEADERS = ["Number", "Search term", "Campaign", "Ad group", "Level", "Negative match type", "Rule",
                     "Threshold", "Spend", "Clicks", "Product ID"]
 TERMS_HEADER_ROW = 4

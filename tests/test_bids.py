@@ -77,6 +77,7 @@ def test_generated_bids_libreoffice_equals_reference(libreoffice, generated, wor
             _check(libreoffice[result.output.stem], work / f"gen{i}", f"generated {i} LibreOffice")
 
 
+@pytest.mark.slow
 @settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(account=accounts(max_targets=20))
 def test_proposals_keep_the_method_properties(account, tmp_path_factory):

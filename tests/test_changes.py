@@ -15,14 +15,17 @@ from sheetbuilder.errors import OutputExists
 
 HOSTILE = ['=HYPERLINK("http://x","y")', "+1+2", "-2+3", "@SUM(A1)", "\tleading tab"]
 CAMPAIGN, GROUP = "C1 - Manual", "G1"
-# (kind, campaign, ad group, term, match type, current, new, reason); new may be ("=formula", cached value)
+# (kind, campaign, ad group, term, match type, current, new, reason, product ID, money at stake);
+# new may be ("=formula", cached value)
 GOOD = [
-    ("bid", CAMPAIGN, GROUP, HOSTILE[0], "exact", 0.5, ("=ROUND(0.5*1.1,2)", 0.55), "raise to value bid"),
-    ("add keyword", CAMPAIGN, GROUP, HOSTILE[1], "exact", None, 0.4, "promote"),
-    ("add product target", CAMPAIGN, GROUP, HOSTILE[2], "product", None, 0.3, HOSTILE[3]),
-    ("add negative", CAMPAIGN, GROUP, HOSTILE[3], "negative exact", None, None, "block"),
-    ("budget", CAMPAIGN, "", "", "", 20, 25, HOSTILE[4]),
+    ("bid", CAMPAIGN, GROUP, HOSTILE[0], "exact", 0.5, ("=ROUND(0.5*1.1,2)", 0.55), "raise to value bid", "P1",
+     ("=0.1+0.2", 0.30000000000000004)),
+    ("add keyword", CAMPAIGN, GROUP, HOSTILE[1], "exact", None, 0.4, "promote", "P1", 12.5),
+    ("add product target", CAMPAIGN, GROUP, HOSTILE[2], "product", None, 0.3, HOSTILE[3], "P2", 3),
+    ("add negative", CAMPAIGN, GROUP, HOSTILE[3], "negative exact", None, None, "block", "", 7.456),
+    ("budget", CAMPAIGN, "", "", "", 20, 25, HOSTILE[4], "P1, P2", 5),
 ]
+MONEY_AT = (5, 6, 9)  # current, new, money at stake: written with two decimals (cents)
 BAD = [
     ("bid", CAMPAIGN, GROUP, "cheap kw", "exact", 0.5, 0.05, "below floor"),  # floor is 0.10
     ("add keyword", "", "", "no home", "exact", None, 0.4, "promote"),  # no destination
@@ -68,15 +71,14 @@ def make_actions(path: Path, rows=GOOD + BAD, blank_rows: int = 3) -> Path:
 def expected_rows():
     out = []
     for row in GOOD:
-        out.append([v[1] if isinstance(v, tuple) else v for v in row])
+        values = [v[1] if isinstance(v, tuple) else v for v in row]
+        out.append([f"{v:.2f}" if i in MONEY_AT and v is not None else v for i, v in enumerate(values)])
     return out
 
 
 def _as_text(v):
     if v is None:
         return ""
-    if isinstance(v, float):
-        return repr(v)
     return str(v)
 
 

@@ -11,6 +11,8 @@ from __future__ import annotations
 
 import datetime as dt
 
+import pytest
+
 from conftest import BUILT_ON, DEMO, ROOT
 from same_cells import computed_cells, computed_differences
 from sheetbuilder.cli import main
@@ -41,6 +43,7 @@ def test_the_period_comes_from_the_dates(tmp_path):
     assert (dt.date(2026, 10, 31), dt.date(2026, 11, 29)) == (inputs.period.start, inputs.period.end)
 
 
+@pytest.mark.slow
 def test_the_raw_demo_builds_a_workbook_whose_every_computed_cell_equals_the_canonical_demo(demo_build, tmp_path):
     raw = build(RAW, tmp_path / "raw.xlsx", built_on=BUILT_ON).output
     assert len(computed_cells(demo_build.output)) > 2000

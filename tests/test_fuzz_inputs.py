@@ -20,6 +20,7 @@ from sheetbuilder.errors import ERROR, WARNING, InputProblems
 from sheetbuilder.pipeline import build, load
 from sheetbuilder.soak import BASE, STRATEGIES, base_rows, check_case, to_csv, valid_xlsx, write_case, zip_bytes
 
+pytestmark = pytest.mark.slow  # each strategy builds dozens of fuzzed folders
 FUZZ = settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow,
                                                                       HealthCheck.data_too_large])
 

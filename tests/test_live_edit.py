@@ -23,7 +23,7 @@ from sheetbuilder.spec import FORMULA
 
 COST_PRODUCT = "LF-1012"  # strong with a spend-to-sales ratio above 1 in the demo
 NEW_THIN = 0.19
-TARGET_PRODUCT, NEW_TARGET = "LF-1007", 0.45  # its demo target is the default 30%
+TARGET_PRODUCT, NEW_TARGET = "LF-1012", 0.45  # its catalog target is 35%, its break-even 48% (so not capped)
 TYPED = {"keep": "keep", "bid": 0.55}
 NEW_MULTIPLE = 0.5  # the demo uses the default 1.0
 

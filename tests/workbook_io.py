@@ -50,7 +50,7 @@ def read_table(ws, header_row: int, key: str, stop: str | None = "Total"):
 
 
 def mismatches(expected: dict, actual: dict, headers, label: str):
-    """Lines describing every (row, header) whose values differ."""
+    """Lines describing every (row, header) whose values differ, or that the reference does not compute."""
     out = []
     for key, exp_row in expected.items():
         act_row = actual.get(key)
@@ -58,7 +58,9 @@ def mismatches(expected: dict, actual: dict, headers, label: str):
             out.append(f"{label}: row {key} missing")
             continue
         for h in headers:
-            if h in exp_row and not same(exp_row[h], act_row.get(h)):
+            if h not in exp_row:
+                out.append(f"{label}: {key} / {h}: the reference has no value for this column")
+            elif not same(exp_row[h], act_row.get(h)):
                 out.append(f"{label}: {key} / {h}: expected {exp_row[h]!r}, got {act_row.get(h)!r}")
     return out
 

@@ -1,0 +1,71 @@
+"""Which planned columns the three-way tests compare with the independent reference, in one place.
+
+The three-way tests take their column lists from here (Profit, Bids, Terms, Harvest and
+Negatives through their *_io modules). tests/test_reference_coverage.py fails when a planned
+formula column is in no list and not named in UNCOVERED with its reason, and
+workbook_io.mismatches fails when the reference has no value for a listed column, so a
+column without a reference check can no longer be skipped in silence.
+"""
+from __future__ import annotations
+
+from bids_io import CHECKED as BIDS_CHECKED
+from profit_io import PROFIT_CHECKED
+from terms_io import HARVEST_HEADERS, NEGATIVE_HEADERS, TERMS_CHECKED
+
+MIX_TYPES = ["Spend", "Ad sales", "Orders", "Clicks", "ACoS", "CPC", "CVR", "Share of spend", "Benchmark share", "Gap",
+             "Note"]
+MIX_TOP = ["Spend share", "Sales share"]
+MIX_BY_MATCH = ["Spend", "Ad sales", "ACoS"]
+MIX_PRODUCTS = ["Targets (enabled)", "Spend", "Ad sales", "Orders", "Clicks", "ACoS", "CPC", "CVR",
+                "Share of product spend", "Others' ACoS", "Signal", "Keywords to add"]
+BUDGET_PRODUCTS = ["Direction", "Revenue", "Current spend", "Proposed spend", "Change", "Final spend"]
+BUDGET_CAMPAIGNS = ["Daily budget", "Ad spend", "Spend change", "Proposed budget", "Change", "Final budget"]
+
+# {planned table (Plan.tables' name): headers compared with the reference on the demo and generated accounts}
+COMPARED = {
+    "Profit": PROFIT_CHECKED, "Bids": BIDS_CHECKED, "Terms": TERMS_CHECKED, "Harvest": HARVEST_HEADERS,
+    "Negatives": NEGATIVE_HEADERS, "Mix ad types": MIX_TYPES, "Mix top products": MIX_TOP,
+    "Mix match types": MIX_BY_MATCH, "Mix products": MIX_PRODUCTS, "Budget products": BUDGET_PRODUCTS,
+    "Budget campaigns": BUDGET_CAMPAIGNS,
+}
+
+_HELPER = ("hidden working column; its value reaches a compared column (the engines check its cached value "
+           "against `formulas`, LibreOffice and Gnumeric, but no reference computes it on its own)")
+_LIST_KEY = ("hidden running count or binary-search key of a live list; what it selects is compared row by row "
+             "(the list's rows and their order equal the reference's)")
+_NO_ORACLE = "no independent reference exists for this table yet; only the planner's pandas twin and the engines check it"
+
+# {(planned table, header): why no reference compares it today}. Shrink this list by adding references.
+UNCOVERED = {
+    **{("Profit", h): _HELPER for h in ("Ad clicks", "Ad orders", "Product CVR", "Product order value",
+                                        "Product price", "Gross profit before ads", "Revenue with a margin")},
+    **{("Bids", h): _HELPER for h in ("Group spend", "Product order value", "Order value", "Rule", "Unrounded bid",
+                                      "Moves")},
+    **{("Bids", h): _LIST_KEY for h in ("Changes count", "Changes key")},
+    **{("Terms", h): _HELPER for h in ("Targeted position", "Negated position", "Group spend", "Product CVR",
+                                       "Product order value", "Target ACoS", "Order value", "Value bid",
+                                       "Block rule", "Block threshold")},
+    **{("Terms", h): _LIST_KEY for h in ("Promoted terms count", "Promoted terms key", "Blocked terms count",
+                                         "Blocked terms key")},
+    **{("Harvest", h): _HELPER for h in ("Looks like a product ID", "Source match type", "Terms row")},
+    **{("Harvest", h): _LIST_KEY for h in ("Source negatives count", "Source negatives key")},
+    **{("Negatives", h): _HELPER for h in ("Source ad group", "Words", "Terms row")},
+    **{("Mix products", h): _HELPER for h in ("Product spend", "Product sales")},
+    ("Budget products", "Change %"): "shown beside Change; the reference does not compute the percentage yet",
+    **{("Budget products", h): _HELPER for h in ("Spend to cut", "Revenue to grow", "Final / current")},
+    **{("Budget campaigns", h): _LIST_KEY for h in ("Changes count", "Changes key")},
+    **{("Budget links", h): _NO_ORACLE for h in ("Ad spend", "Spend change", "Spend x change")},
+    **{("Groups", h): _NO_ORACLE for h in ("Ad spend", "Target ACoS", "Product CVR", "Product order value",
+                                           "Product price", "Spend x target ACoS", "Spend x CVR",
+                                           "Spend x order value", "Spend x price")},
+    **{("Actions", h): "compared with the independent tests/oracle_actions.py in tests/test_change_list.py "
+                       "(cached and LibreOffice values, rows matched by the change they make)"
+       for h in ("Kind", "Campaign", "Ad group", "Target or term", "Match type", "Current", "New", "Reason",
+                 "Product ID", "Money at stake", "Segment", "Number in its kind", "Source row")},
+    ("Groups", "Above break-even"): _NO_ORACLE,
+    **{("Terms", h): "working column of the safe-change rules; checked through the Harvest, Negatives and "
+                     "Actions lists it feeds (oracle_terms, oracle_actions) and the change-list properties"
+       for h in ("Adds a keyword", "Negative in source", "Would block another term")},
+    ("Keys table 2 (not in Plan.tables)", "Blocks"): "the Clashes table: checked through the Terms columns and "
+                                                     "lists it feeds and the change-list properties",
+}

@@ -1,0 +1,135 @@
+"""Tier 1: the exact formula text each planned column writes, on a two-product account written here.
+
+The account is small enough to lay out by hand: in_catalog rows 2-3 (P1, P2), in_store_sales
+rows 2-4 (P1 twice, then P2), in_ad_products rows 2-3 (P1, P2). Profit's header is row 5, so
+its first body row is 6 and its totals row 8. Each expected formula below is written from
+that layout and the column's rule (DEVELOPERS.md, "Rules for formula text"), not copied
+from the planner, so a changed formula fails here with the column named.
+"""
+from __future__ import annotations
+
+import datetime as dt
+
+import pytest
+
+from sheetbuilder.pipeline import load, plan_workbook
+
+CATALOG = """product_id,product_name,price,unit_cost,fees_per_unit,target_acos,margin
+P1,Widget,20.00,8.00,2.00,30%,
+P2,Gadget,10.00,4.00,1.00,,
+"""
+STORE_SALES = """product_id,units,revenue
+P1,4,80.00
+P1,6,120.00
+P2,5,50.00
+"""
+AD_PRODUCTS = """campaign,ad_group,product_id,ad_type,impressions,clicks,spend,ad_sales,orders
+C1,G1,P1,product ads,1000,50,25.00,100.00,5
+C1,G1,P2,product ads,500,20,10.00,30.00,2
+"""
+
+
+def _block(first: str, last: str, rng: str) -> str:
+    """A product's block sum as DEVELOPERS.md describes it: positions written as data, summed between INDEXes."""
+    return f'=IF({first}6="",0,SUM(INDEX({rng},{first}6):INDEX({rng},{last}6)))'
+
+
+def _cat(letter: str) -> str:
+    """The product's value in one in_catalog column (its catalog position is in column V)."""
+    return f"INDEX(in_catalog!${letter}$2:${letter}$3,V6)"
+
+
+# Profit, body row 6: {header: formula}. Columns A Product ID ... S Your target ACoS, T Target check, U Bid target
+# ACoS, then the hidden helpers V catalog row, W/X store-sales block, Y/Z ad block, AA ad clicks ... AG revenue with a margin.
+PROFIT_ROW_1 = {
+    "Units": _block("W", "X", "in_store_sales!$B$2:$B$4"),
+    "Revenue": _block("W", "X", "in_store_sales!$C$2:$C$4"),
+    "Ad spend": _block("Y", "Z", "in_ad_products!$G$2:$G$3"),
+    "Ad sales": _block("Y", "Z", "in_ad_products!$H$2:$H$3"),
+    "TACoS": '=IF(D6=0,"",E6/D6)',
+    "ACoS": '=IF(F6=0,"",E6/F6)',
+    "Margin before ads": f'=IF(V6="","",IF({_cat("G")}<>"",{_cat("G")},IF({_cat("C")}=0,"",'
+                         f'({_cat("C")}-{_cat("D")}-{_cat("E")})/{_cat("C")})))',
+    "Break-even ACoS": "=I6",
+    "Target ACoS": f'=IF(S6<>"",S6,IF(V6="",default_target_acos,IF({_cat("F")}<>"",{_cat("F")},'
+                   'default_target_acos)))',
+    "Net margin after ads": '=IF(OR(I6="",G6=""),"",I6-G6)',
+    "Net profit after ads": '=IF(I6="","",D6*I6-E6)',
+    "Sales share": '=IF($D$8=0,"",D6/$D$8)',
+    "Spend share": '=IF($E$8=0,"",E6/$E$8)',
+    "Spend-to-sales ratio": '=IF(N6="","",IF(N6=0,"",IF(O6="","",O6/N6)))',
+    # Ad spend with no sales is a loss (issue 9); a product with no ad spend reads "no ads"; no sales with spend is cut.
+    "Status": '=IF(AND(D6=0,E6>0),"loss",IF(D6=0,"no sales",IF(I6="","no margin",IF(L6<0,"loss",'
+              'IF(L6<thin_margin,"thin",IF(L6>=strong_margin,"strong","healthy"))))))',
+    "Direction": '=IF(E6=0,"no ads",IF(D6=0,"cut",IF(P6="","hold",IF(AND(OR(Q6="loss",Q6="thin"),P6>1),"cut",'
+                 'IF(AND(Q6="strong",P6<1),"grow","hold")))))',
+    # T and U: a target above break-even (K > I) is flagged, and with the cap on the bids aim at break-even.
+    "Target check": '=IF(I6="","",IF(K6>I6,IF(cap_target_at_break_even="yes","above break-even: bids use '
+                    'break-even","above break-even: each ad sale loses money"),""))',
+    "Bid target ACoS": '=IF(AND(cap_target_at_break_even="yes",I6<>""),IF(K6>I6,MAX(0,I6),K6),K6)',
+    "Ad clicks": _block("Y", "Z", "in_ad_products!$F$2:$F$3"),
+    "Ad orders": _block("Y", "Z", "in_ad_products!$I$2:$I$3"),
+    "Product CVR": "=IF(OR(AA6=0,AB6=0),$AC$8,AB6/AA6)",
+    "Product order value": "=IF(AB6=0,$AD$8,F6/AB6)",
+    "Product price": f'=IF(V6="",AD6,IF({_cat("C")}>0,{_cat("C")},AD6))',
+    "Gross profit before ads": '=IF(I6="","",D6*I6)',
+    "Revenue with a margin": '=IF(I6="",0,D6)',
+}
+# Profit's totals row 8: {header: formula} of every column with a formula total.
+PROFIT_TOTALS = {
+    "Units": "=SUM(C6:C7)", "Revenue": "=SUM(D6:D7)", "Ad spend": "=SUM(E6:E7)", "Ad sales": "=SUM(F6:F7)",
+    "TACoS": '=IF(D8=0,"",E8/D8)', "ACoS": '=IF(F8=0,"",E8/F8)',
+    "Margin before ads": '=IF(SUM(AG6:AG7)=0,"",SUM(AF6:AF7)/SUM(AG6:AG7))',
+    "Net margin after ads": '=IF(SUM(AG6:AG7)=0,"",M8/SUM(AG6:AG7))',
+    "Net profit after ads": "=SUM(M6:M7)", "Sales share": "=SUM(N6:N7)", "Spend share": "=SUM(O6:O7)",
+    "Ad clicks": "=SUM(AA6:AA7)", "Ad orders": "=SUM(AB6:AB7)",
+    "Product CVR": "=IF(AA8=0,0,AB8/AA8)", "Product order value": "=IF(AB8=0,0,F8/AB8)",
+    "Gross profit before ads": "=SUM(AF6:AF7)", "Revenue with a margin": "=SUM(AG6:AG7)",
+}
+
+
+@pytest.fixture(scope="module")
+def two_products(tmp_path_factory):
+    """The plan of the two-product account (planned only: nothing is rendered)."""
+    folder = tmp_path_factory.mktemp("two")
+    for name, text in (("catalog.csv", CATALOG), ("store_sales.csv", STORE_SALES),
+                       ("ad_products.csv", AD_PRODUCTS)):
+        (folder / name).write_text(text, encoding="utf-8")
+    inputs, settings, _ = load(folder)
+    return plan_workbook(inputs, settings, dt.date(2026, 12, 2))
+
+
+def _row_1(column) -> str | None:
+    """The formula a column writes in its first body row (row 6 on Profit), or None for a value column."""
+    if column.formula is None:
+        return None
+    text = column.formula[0] if isinstance(column.formula, list) else column.formula
+    return text.replace("{r}", "6").replace("{p}", "5")
+
+
+def test_profit_columns_write_the_documented_formula_in_their_first_row(two_products):
+    table = two_products.spec.sheet("Profit").table
+    assert 5 - 1 == table.first_row
+    written = {c.header: _row_1(c) for c in table.columns if c.formula is not None}
+    assert PROFIT_ROW_1 == written
+
+
+def test_profit_value_columns_hold_no_formula(two_products):
+    table = two_products.spec.sheet("Profit").table
+    assert ["Product ID", "Product name", "Your target ACoS", "Catalog row", "Sales first row", "Sales last row",
+            "Ad first row", "Ad last row"] == [c.header for c in table.columns if c.formula is None]
+
+
+def test_profit_totals_row_writes_the_documented_formulas(two_products):
+    table = two_products.spec.sheet("Profit").table
+    written = {c.header: t.formula for c, t in zip(table.columns, table.totals) if t is not None and t.formula}
+    assert PROFIT_TOTALS == written
+
+
+def test_profit_block_positions_are_the_hand_counted_rows(two_products):
+    # The rows the block sums read: P1 owns in_store_sales positions 1-2 and in_ad_products 1; P2 the next.
+    table = two_products.spec.sheet("Profit").table
+    values = {c.header: list(c.values) for c in table.columns}
+    assert [1, 2] == values["Catalog row"]
+    assert ([1, 3], [2, 3]) == (values["Sales first row"], values["Sales last row"])
+    assert ([1, 2], [1, 2]) == (values["Ad first row"], values["Ad last row"])
