@@ -54,5 +54,7 @@ def actions_oracle(tables, settings) -> dict[str, list[tuple]]:
             if state[name] == "enabled" and c["Final budget"] != c["Daily budget"]:
                 out["budget"].append(("budget", name, None, None, None, c["Daily budget"], c["Final budget"],
                                       "follows its products' spend", ", ".join(sorted(products[name])),
-                                      abs(c["Final budget"] - c["Daily budget"])))
+                                      # no money at stake where the Final is not a number (an invalid Decision)
+                                      abs(c["Final budget"] - c["Daily budget"])
+                                      if isinstance(c["Final budget"], (int, float)) else None))
     return out
