@@ -2,6 +2,9 @@
 from __future__ import annotations
 
 import csv
+import json
+import subprocess
+import sys
 from pathlib import Path
 
 from hypothesis import strategies as st
@@ -141,7 +144,27 @@ def write_account(account: dict, folder: Path) -> Path:
 
 
 def draw_accounts(count: int, **kwargs) -> list[dict]:
-    """count accounts drawn deterministically from the strategy (for batch recalculation)."""
+    """count accounts drawn deterministically from the strategy (for batch recalculation).
+
+    The draw runs in a fresh Python process that imports nothing of ours but this module.
+    Hypothesis (6.131 and later) mixes the literals of every local module already imported
+    into the values it draws, so drawn here, inside pytest, "generated account 3" would
+    change with every edited constant in the package and with which test files were
+    collected; a failure on it could then not be reproduced. Test files are not mined, and
+    the child process imports no other local module, so the accounts depend only on this
+    file and the hypothesis version. To look at one: python tests/accounts.py 3 some/folder
+    """
+    code = ("import json, sys; sys.path.insert(0, sys.argv[1]); import accounts; "
+            "print(json.dumps(accounts._draw_here(int(sys.argv[2]), json.loads(sys.argv[3]))))")
+    done = subprocess.run([sys.executable, "-c", code, str(Path(__file__).parent), str(count), json.dumps(kwargs)],
+                          capture_output=True, text=True, check=False)
+    if done.returncode != 0:
+        raise RuntimeError(f"drawing the generated accounts failed: {done.stderr}")
+    return json.loads(done.stdout)
+
+
+def _draw_here(count: int, kwargs: dict) -> list[dict]:
+    """count accounts drawn in this process (its imported local modules shape the draw; see draw_accounts)."""
     from hypothesis import given, settings, HealthCheck
 
     drawn: list[dict] = []
@@ -154,3 +177,8 @@ def draw_accounts(count: int, **kwargs) -> list[dict]:
 
     collect()
     return drawn[:count]
+
+
+if __name__ == "__main__":  # python tests/accounts.py INDEX FOLDER: write one generated account's exports
+    index, folder = int(sys.argv[1]), Path(sys.argv[2])
+    print(write_account(draw_accounts(index + 1)[index], folder))
