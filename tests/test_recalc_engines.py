@@ -71,10 +71,14 @@ def test_gnumeric_recalculates_instead_of_keeping_cached_values(tmp_path):
 
 
 def _gnumeric_disagreements(path, recalculated_path):
-    """Disagreements with Gnumeric, less its known #REF! on INDEX over a one-cell range (engine_defects.py)."""
+    """Disagreements with Gnumeric, less the cells its known #REF! on INDEX over a one-cell range feeds.
+
+    Whatever Gnumeric computes from that #REF! is excused, not only a #REF!: CHOOSE turns it
+    into #VALUE!, and COUNTIFS skips it, giving a plain wrong count (engine_defects.py).
+    """
     problems, checked = engine_disagreements(path, _stored_values(recalculated_path))
     excused = {f"{sheet}!{coord}:" for sheet, coord in one_cell_index_cells(path)}
-    kept = [p for p in problems if not (p.split(" ", 1)[0] in excused and p.endswith("recalculated '#REF!'"))]
+    kept = [p for p in problems if p.split(" ", 1)[0] not in excused]
     return kept, checked, len(problems) - len(kept)
 
 
@@ -91,6 +95,30 @@ def test_gnumeric_index_over_a_one_cell_range_is_its_known_defect(tmp_path):
     wb.close()
     values = _stored_values(gnumeric_convert([tmp_path / "one_cell.xlsx"], tmp_path / "gnumeric")[0])
     assert ("#REF!", 0.3) == (values[("DATA", "B1")], values[("DATA", "C1")])
+
+
+@pytest.mark.gnumeric
+def test_gnumeric_count_of_a_one_cell_index_result_is_excused_with_the_defect(tmp_path):
+    # Gnumeric's #REF! reaches a COUNTIFS, which skips errors and returns a wrong 0 instead of an
+    # error, and a CHOOSE whose index it feeds returns #VALUE!; a cell reading no such INDEX is still
+    # compared. Generated accounts with one catalog row hit the first case on the Guide's loss count.
+    # F1 reads the INDEX's result through a defined name, as formulas read settings.
+    require_gnumeric()
+    path = tmp_path / "counted.xlsx"
+    wb = xlsxwriter.Workbook(str(path))
+    ws = wb.add_worksheet("Data")
+    ws.write_number("A2", 0.3)
+    ws.write_number("A3", 0.4)
+    ws.write_formula("B1", '=IF(INDEX($A$2:$A$2,1)>0,"loss","fine")', None, "loss")
+    ws.write_formula("C1", '=COUNTIFS(B1:B1,"loss")', None, 1)
+    ws.write_formula("D1", "=CHOOSE(IF(ISERROR(B1),9,1),A2,A3)", None, 0.3)
+    ws.write_formula("E1", "=A3*2", None, 0.7)  # wrong on purpose: Gnumeric recomputes 0.8
+    wb.define_name("status_cell", "=Data!$B$1")
+    ws.write_formula("F1", '=COUNTIFS(status_cell,"loss")', None, 1)  # reached through a defined name
+    wb.close()
+    recalculated = gnumeric_convert([path], tmp_path / "gnumeric")[0]
+    problems, checked, excused = _gnumeric_disagreements(path, recalculated)
+    assert (["DATA!E1: cached 0.7, recalculated 0.8"], 5, 4) == (problems, checked, excused)
 
 
 @pytest.mark.gnumeric
