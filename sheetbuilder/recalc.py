@@ -57,15 +57,8 @@ def libreoffice_convert(paths: list[Path], outdir: Path, target: str = "xlsx", t
     Returns:
         The converted files, in the order of paths.
     """
-    exe = soffice_path()
-    if exe is None:
-        raise RecalcUnavailable("LibreOffice (soffice) is not installed")
-    outdir.mkdir(parents=True, exist_ok=True)
-    outs = [outdir / (Path(p).stem + "." + target) for p in paths]
-    for src, out in zip(paths, outs):
-        if out.exists() and out.resolve() == Path(src).resolve():
-            raise SheetbuilderError(f"converting {src} into {outdir} would overwrite it; choose another folder")
-        out.unlink(missing_ok=True)
+    exe = _program(soffice_path(), "LibreOffice (soffice)")
+    outs = _outputs(paths, outdir, target)
     with tempfile.TemporaryDirectory(prefix="sb-lo-") as tmp:
         profile = make_profile(Path(tmp))
         filt = 'xlsx:Calc MS Excel 2007 XML' if target == "xlsx" else "pdf:calc_pdf_Export"
@@ -95,23 +88,40 @@ def gnumeric_convert(paths: list[Path], outdir: Path, timeout: int = 900) -> lis
     Returns:
         The recalculated files, in the order of paths.
     """
-    exe = ssconvert_path()
-    if exe is None:
-        raise RecalcUnavailable("Gnumeric (ssconvert) is not installed")
-    outdir.mkdir(parents=True, exist_ok=True)
-    outs = []
+    exe = _program(ssconvert_path(), "Gnumeric (ssconvert)")
+    outs = _outputs(paths, outdir, "xlsx")
     with tempfile.TemporaryDirectory(prefix="sb-gnumeric-") as tmp:
         env = {**os.environ, "HOME": tmp}
-        for src in paths:
-            out = outdir / (Path(src).stem + ".xlsx")
-            if out.exists() and out.resolve() == Path(src).resolve():
-                raise SheetbuilderError(f"converting {src} into {outdir} would overwrite it; choose another folder")
-            out.unlink(missing_ok=True)
+        for src, out in zip(paths, outs):
             cmd = [exe, "--recalc", "--export-type=Gnumeric_Excel:xlsx2", str(src), str(out)]
             done = subprocess.run(cmd, capture_output=True, text=True, timeout=timeout, env=env)
             if done.returncode != 0 or not out.exists():
                 raise SheetbuilderError(f"Gnumeric failed on {src} (exit {done.returncode}): {done.stdout} {done.stderr}")
-            outs.append(out)
+    return outs
+
+
+def _program(path: str | None, name: str) -> str:
+    """The converter's executable, or RecalcUnavailable naming it."""
+    if path is None:
+        raise RecalcUnavailable(f"{name} is not installed")
+    return path
+
+
+def _outputs(paths: list[Path], outdir: Path, suffix: str) -> list[Path]:
+    """Where each converted file goes (outdir / stem.suffix), made ready: outdir exists, no stale copy left.
+
+    Refuses a conversion that would overwrite a source, and two sources with one stem (the
+    second copy would silently replace the first).
+    """
+    outdir.mkdir(parents=True, exist_ok=True)
+    outs = [outdir / (Path(p).stem + "." + suffix) for p in paths]
+    if len(set(outs)) != len(outs):
+        raise SheetbuilderError(f"two files to convert share a name, so their copies in {outdir} would collide: "
+                                f"{[str(p) for p in paths]}")
+    for src, out in zip(paths, outs):
+        if out.exists() and out.resolve() == Path(src).resolve():
+            raise SheetbuilderError(f"converting {src} into {outdir} would overwrite it; choose another folder")
+        out.unlink(missing_ok=True)
     return outs
 
 

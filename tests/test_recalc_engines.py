@@ -12,10 +12,25 @@ from __future__ import annotations
 import pytest
 import xlsxwriter
 
-from conftest import require_gnumeric
+from conftest import require_gnumeric, require_libreoffice
 from engine_defects import one_cell_index_cells
 from workbook_io import engine_disagreements, open_values
-from sheetbuilder.recalc import formulas_values, gnumeric_convert
+from sheetbuilder.errors import SheetbuilderError
+from sheetbuilder.recalc import formulas_values, gnumeric_convert, libreoffice_convert
+
+
+def _data_workbook(path, numbers: dict, formulas: list, names: dict | None = None):
+    """A one-sheet workbook ("Data") of numbers and formulas [(cell, formula, cached value)], for canaries."""
+    wb = xlsxwriter.Workbook(str(path))
+    ws = wb.add_worksheet("Data")
+    for cell, number in numbers.items():
+        ws.write_number(cell, number)
+    for name, ref in (names or {}).items():
+        wb.define_name(name, ref)
+    for cell, formula, cached in formulas:
+        ws.write_formula(cell, formula, None, cached)
+    wb.close()
+    return path
 
 
 def _stored_values(path):
@@ -24,6 +39,30 @@ def _stored_values(path):
 
 
 _libreoffice_values = _stored_values
+
+CONVERTERS = [pytest.param(libreoffice_convert, require_libreoffice, id="libreoffice"),
+              pytest.param(gnumeric_convert, require_gnumeric, id="gnumeric")]
+
+
+@pytest.mark.parametrize("convert, require", CONVERTERS)
+def test_converting_two_files_of_one_name_into_one_folder_is_refused(convert, require, tmp_path):
+    # The second copy would replace the first, and the caller would compare one file with the other's values.
+    require()
+    for folder in ("a", "b"):
+        (tmp_path / folder).mkdir()
+        (tmp_path / folder / "week.xlsx").write_bytes(b"")
+    with pytest.raises(SheetbuilderError, match="share a name"):
+        convert([tmp_path / "a" / "week.xlsx", tmp_path / "b" / "week.xlsx"], tmp_path / "out")
+    assert [] == list((tmp_path / "out").iterdir())
+
+
+@pytest.mark.parametrize("convert, require", CONVERTERS)
+def test_converting_a_file_into_its_own_folder_is_refused(convert, require, tmp_path):
+    require()
+    (tmp_path / "week.xlsx").write_bytes(b"kept")
+    with pytest.raises(SheetbuilderError, match="would overwrite it"):
+        convert([tmp_path / "week.xlsx"], tmp_path)
+    assert b"kept" == (tmp_path / "week.xlsx").read_bytes()
 
 
 @pytest.mark.slow
@@ -59,14 +98,9 @@ def test_generated_libreoffice_equals_cached_values(libreoffice, generated):
 def test_gnumeric_recalculates_instead_of_keeping_cached_values(tmp_path):
     # A canary: cached values written wrong on purpose must come back recalculated.
     require_gnumeric()
-    wb = xlsxwriter.Workbook(str(tmp_path / "canary.xlsx"))
-    ws = wb.add_worksheet("Data")
-    ws.write_number("A1", 2)
-    ws.write_formula("B1", "=A1*3", None, 999)
-    ws.write_formula("C1", '=IF(A1=0,"",B1/A1)', None, "stale")
-    wb.close()
-    out = gnumeric_convert([tmp_path / "canary.xlsx"], tmp_path / "gnumeric")[0]
-    values = _stored_values(out)
+    canary = _data_workbook(tmp_path / "canary.xlsx", {"A1": 2},
+                            [("B1", "=A1*3", 999), ("C1", '=IF(A1=0,"",B1/A1)', "stale")])
+    values = _stored_values(gnumeric_convert([canary], tmp_path / "gnumeric")[0])
     assert (6, 3) == (values[("DATA", "B1")], values[("DATA", "C1")])
 
 
@@ -86,14 +120,9 @@ def _gnumeric_disagreements(path, recalculated_path):
 def test_gnumeric_index_over_a_one_cell_range_is_its_known_defect(tmp_path):
     # Pins the defect excused below: when Gnumeric returns the cell, drop the allowance.
     require_gnumeric()
-    wb = xlsxwriter.Workbook(str(tmp_path / "one_cell.xlsx"))
-    ws = wb.add_worksheet("Data")
-    ws.write_number("A2", 0.3)
-    ws.write_number("A3", 0.4)
-    ws.write_formula("B1", "=INDEX($A$2:$A$2,1)", None, 0.3)
-    ws.write_formula("C1", "=INDEX($A$2:$A$3,1)", None, 0.3)
-    wb.close()
-    values = _stored_values(gnumeric_convert([tmp_path / "one_cell.xlsx"], tmp_path / "gnumeric")[0])
+    one_cell = _data_workbook(tmp_path / "one_cell.xlsx", {"A2": 0.3, "A3": 0.4},
+                              [("B1", "=INDEX($A$2:$A$2,1)", 0.3), ("C1", "=INDEX($A$2:$A$3,1)", 0.3)])
+    values = _stored_values(gnumeric_convert([one_cell], tmp_path / "gnumeric")[0])
     assert ("#REF!", 0.3) == (values[("DATA", "B1")], values[("DATA", "C1")])
 
 
@@ -104,18 +133,13 @@ def test_gnumeric_count_of_a_one_cell_index_result_is_excused_with_the_defect(tm
     # compared. Generated accounts with one catalog row hit the first case on the Guide's loss count.
     # F1 reads the INDEX's result through a defined name, as formulas read settings.
     require_gnumeric()
-    path = tmp_path / "counted.xlsx"
-    wb = xlsxwriter.Workbook(str(path))
-    ws = wb.add_worksheet("Data")
-    ws.write_number("A2", 0.3)
-    ws.write_number("A3", 0.4)
-    ws.write_formula("B1", '=IF(INDEX($A$2:$A$2,1)>0,"loss","fine")', None, "loss")
-    ws.write_formula("C1", '=COUNTIFS(B1:B1,"loss")', None, 1)
-    ws.write_formula("D1", "=CHOOSE(IF(ISERROR(B1),9,1),A2,A3)", None, 0.3)
-    ws.write_formula("E1", "=A3*2", None, 0.7)  # wrong on purpose: Gnumeric recomputes 0.8
-    wb.define_name("status_cell", "=Data!$B$1")
-    ws.write_formula("F1", '=COUNTIFS(status_cell,"loss")', None, 1)  # reached through a defined name
-    wb.close()
+    path = _data_workbook(tmp_path / "counted.xlsx", {"A2": 0.3, "A3": 0.4}, [
+        ("B1", '=IF(INDEX($A$2:$A$2,1)>0,"loss","fine")', "loss"),
+        ("C1", '=COUNTIFS(B1:B1,"loss")', 1),
+        ("D1", "=CHOOSE(IF(ISERROR(B1),9,1),A2,A3)", 0.3),
+        ("E1", "=A3*2", 0.7),  # wrong on purpose: Gnumeric recomputes 0.8
+        ("F1", '=COUNTIFS(status_cell,"loss")', 1),  # reached through a defined name
+    ], names={"status_cell": "=Data!$B$1"})
     recalculated = gnumeric_convert([path], tmp_path / "gnumeric")[0]
     problems, checked, excused = _gnumeric_disagreements(path, recalculated)
     assert (["DATA!E1: cached 0.7, recalculated 0.8"], 5, 4) == (problems, checked, excused)
