@@ -147,6 +147,7 @@ def test_demo_and_generated_actions_libreoffice_equal_reference(libreoffice, dem
         assert [] == reference_mismatches(workbook_actions(libreoffice[result.output.stem]), work / f"gen{i}"), i
 
 
+@pytest.mark.slow  # builds 30 workbooks; the fast lane checks the same on the generated accounts (below)
 @hsettings(max_examples=30, deadline=None, suppress_health_check=list(HealthCheck))
 @given(account=accounts())
 def test_any_generated_change_list_is_safe_to_apply(account, tmp_path_factory):

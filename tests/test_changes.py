@@ -223,6 +223,7 @@ def test_the_actions_sheet_has_the_layout_changes_reads():
     assert list(HEADERS) == [d.header for d in defs(["0"] * 5) if not d.hidden]
 
 
+@pytest.mark.libreoffice  # saved by LibreOffice, as a user's program would
 def test_a_final_bid_typed_over_by_hand_is_reported_and_the_formula_value_exported(tmp_path):
     """Typed over the Final bid formula instead of in Decision: reported with its row; the list keeps the formula's value."""
     from conftest import BUILT_ON, DEMO
