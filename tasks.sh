@@ -2,7 +2,9 @@
 # The project's two commands, for a fresh Debian machine with Python 3.11:
 #   ./tasks.sh demo   make .venv, install sheetbuilder, build the demo workbook (demo_workbook.xlsx)
 #   ./tasks.sh test   the same install with the test tools, LibreOffice Calc and Gnumeric if missing, then every test
-# Also: ./tasks.sh samples (PNG renders into output_samples/), ./tasks.sh bench (the benchmark),
+# Also: ./tasks.sh samples (PNG renders and the demo workbook into output_samples/),
+#       ./tasks.sh golden (output_samples/demo.xlsx only, the golden file of tests/test_golden_demo.py),
+#       ./tasks.sh bench (the benchmark),
 #       ./tasks.sh study (the simulated-market study of the bid method; writes study/results.md).
 set -euo pipefail
 cd "$(dirname "$0")"
@@ -62,6 +64,10 @@ case "${1:-}" in
     libreoffice
     "$VENV/bin/python" tools/render_samples.py demo_inputs output_samples
     ;;
+  golden)
+    venv test
+    "$VENV/bin/python" tools/render_samples.py demo_inputs output_samples --workbook-only
+    ;;
   bench)
     venv test
     libreoffice
@@ -75,6 +81,6 @@ case "${1:-}" in
     "$VENV/bin/python" -m study.run_study "$@"
     ;;
   *)
-    echo "usage: ./tasks.sh demo | test | samples | bench | study"; exit 2
+    echo "usage: ./tasks.sh demo | test | samples | golden | bench | study"; exit 2
     ;;
 esac
