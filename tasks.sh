@@ -51,6 +51,22 @@ case "${1:-}" in
   demo)
     venv run
     "$VENV/bin/sheetbuilder" build demo_inputs -o demo_workbook.xlsx --force
+    here=$(printf '%q' "$(pwd)")
+    cat <<EOF
+
+The demo workbook is $here/demo_workbook.xlsx: open it in any spreadsheet program.
+
+To build a workbook from your own exports, put them in one folder and run
+(YOUR_EXPORTS_FOLDER is that folder's path):
+  $here/$VENV/bin/sheetbuilder inspect YOUR_EXPORTS_FOLDER
+  $here/$VENV/bin/sheetbuilder build YOUR_EXPORTS_FOLDER -o my_workbook.xlsx
+
+To type just "sheetbuilder" instead of the full path, either put it on your PATH
+(add the line to ~/.bashrc to keep it):
+  export PATH="$here/$VENV/bin:\$PATH"
+or install it for your user with pipx:
+  pipx install $here
+EOF
     ;;
   test)
     venv test
