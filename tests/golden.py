@@ -3,7 +3,9 @@
 `snapshot(path)` reads a workbook with openpyxl into plain data, per sheet: each non-empty
 cell's formula (or constant) and cached value, each cell's number format, the column widths
 and hidden columns, the merged ranges, the data validations (type, ranges, formula, list),
-and the workbook's sheet order and defined names. `normalise` then replaces what legitimately
+the conditional formats, the freeze panes, print area and print titles, the sheet's state;
+and the workbook's sheet order and defined names. Not compared: charts, cell styles other
+than the number format, comments, protection. `normalise` then replaces what legitimately
 changes between two builds of the same inputs with a fixed token, so that only an unintended
 change in the output remains. Found by building the demo on different `built_on` dates
 (2026-11-30, 2026-12-02, 2027-03-15) and with another `__version__`: only these differ.
@@ -63,6 +65,17 @@ def _validations(ws) -> list[tuple]:
                   for v in ws.data_validations.dataValidation)
 
 
+def _conditional_formats(ws) -> list[tuple]:
+    return sorted((str(cf.sqref), r.type or "", r.operator or "", tuple(r.formula or ()), r.priority or 0)
+                  for cf in ws.conditional_formatting for r in cf.rules)
+
+
+def _layout(ws) -> dict[str, str]:
+    """Freeze panes, print area and print titles: what a reader sees first and what prints."""
+    return {"freeze panes": str(ws.freeze_panes), "print area": str(ws.print_area),
+            "print title rows": str(ws.print_title_rows), "print title columns": str(ws.print_title_cols)}
+
+
 def _columns(ws) -> dict[str, tuple]:
     out = {}
     for key, dim in ws.column_dimensions.items():
@@ -87,6 +100,8 @@ def snapshot(path: Path) -> dict:
                 "columns": _columns(ws),
                 "merged": sorted(str(r) for r in ws.merged_cells.ranges),
                 "validations": _validations(ws),
+                "conditional formats": _conditional_formats(ws),
+                "layout": _layout(ws),
                 "state": ws.sheet_state,
             }
         return snap
@@ -157,6 +172,12 @@ def differences(expected: dict, got: dict) -> list[str]:
         for v in sorted(set(e["validations"]) ^ set(g["validations"])):
             side = "expected only" if v in e["validations"] else "got only"
             out.append(f"{sheet} data validation {side}: {v}")
+        for v in sorted(set(e["conditional formats"]) ^ set(g["conditional formats"])):
+            side = "expected only" if v in e["conditional formats"] else "got only"
+            out.append(f"{sheet} conditional format {side}: {v}")
+        for key in e["layout"]:
+            if e["layout"][key] != g["layout"][key]:
+                out.append(f"{sheet} {key}: expected {e['layout'][key]!r} got {g['layout'][key]!r}")
     return out
 
 
