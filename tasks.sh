@@ -1,6 +1,7 @@
 #!/usr/bin/env bash
 # The project's two commands, for a fresh Debian machine with Python 3.11:
-#   ./tasks.sh demo   make .venv, install sheetbuilder, build the demo workbook (demo_workbook.xlsx)
+#   ./tasks.sh demo   make .venv, install sheetbuilder, build the demo workbook (demo_workbook.xlsx),
+#                     then print the commands to run on your own exports
 #   ./tasks.sh test   the same install with the test tools, LibreOffice Calc and Gnumeric if missing, then every test
 # Also: ./tasks.sh samples (PNG renders and the demo workbook into output_samples/),
 #       ./tasks.sh golden (output_samples/demo.xlsx only, the golden file of tests/test_golden_demo.py),
