@@ -82,7 +82,7 @@ EOF
     "$VENV/bin/python" tools/render_samples.py demo_inputs output_samples
     ;;
   golden)
-    venv test
+    venv run
     "$VENV/bin/python" tools/render_samples.py demo_inputs output_samples --workbook-only
     ;;
   bench)
