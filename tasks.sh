@@ -1,8 +1,11 @@
 #!/usr/bin/env bash
 # The project's two commands, for a fresh Debian machine with Python 3.11:
-#   ./tasks.sh demo   make .venv, install sheetbuilder, build the demo workbook (demo_workbook.xlsx)
+#   ./tasks.sh demo   make .venv, install sheetbuilder, build the demo workbook (demo_workbook.xlsx),
+#                     then print the commands to run on your own exports
 #   ./tasks.sh test   the same install with the test tools, LibreOffice Calc and Gnumeric if missing, then every test
-# Also: ./tasks.sh samples (PNG renders into output_samples/), ./tasks.sh bench (the benchmark),
+# Also: ./tasks.sh samples (PNG renders and the demo workbook into output_samples/),
+#       ./tasks.sh golden (output_samples/demo.xlsx only, the golden file of tests/test_golden_demo.py),
+#       ./tasks.sh bench (the benchmark),
 #       ./tasks.sh study (the simulated-market study of the bid method; writes study/results.md).
 set -euo pipefail
 cd "$(dirname "$0")"
@@ -49,6 +52,22 @@ case "${1:-}" in
   demo)
     venv run
     "$VENV/bin/sheetbuilder" build demo_inputs -o demo_workbook.xlsx --force
+    here=$(printf '%q' "$(pwd)")
+    cat <<EOF
+
+The demo workbook is $here/demo_workbook.xlsx: open it in any spreadsheet program.
+
+To build a workbook from your own exports, put them in one folder and run
+(YOUR_EXPORTS_FOLDER is that folder's path):
+  $here/$VENV/bin/sheetbuilder inspect YOUR_EXPORTS_FOLDER
+  $here/$VENV/bin/sheetbuilder build YOUR_EXPORTS_FOLDER -o my_workbook.xlsx
+
+To type just "sheetbuilder" instead of the full path, either put it on your PATH
+(add the line to ~/.bashrc to keep it):
+  export PATH="$here/$VENV/bin:\$PATH"
+or install it for your user with pipx:
+  pipx install $here
+EOF
     ;;
   test)
     venv test
@@ -61,6 +80,10 @@ case "${1:-}" in
     venv test
     libreoffice
     "$VENV/bin/python" tools/render_samples.py demo_inputs output_samples
+    ;;
+  golden)
+    venv run
+    "$VENV/bin/python" tools/render_samples.py demo_inputs output_samples --workbook-only
     ;;
   bench)
     venv test
@@ -75,6 +98,6 @@ case "${1:-}" in
     "$VENV/bin/python" -m study.run_study "$@"
     ;;
   *)
-    echo "usage: ./tasks.sh demo | test | samples | bench | study"; exit 2
+    echo "usage: ./tasks.sh demo | test | samples | golden | bench | study"; exit 2
     ;;
 esac

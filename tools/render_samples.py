@@ -1,12 +1,18 @@
 """Render PNG pictures of chosen sheets of the demo workbook, as LibreOffice prints them.
 
 Usage: python tools/render_samples.py DEMO_INPUTS OUTPUT_DIR [SHEET ...]
+       python tools/render_samples.py DEMO_INPUTS OUTPUT_DIR --workbook-only
+
 
 For each sheet, a copy of the workbook with every other sheet hidden is converted to PDF
 by LibreOffice (headless, recalculating on load) and its first page turned into a PNG
 by pdftoppm. Also writes OUTPUT_DIR/demo.xlsx, the demo workbook itself. The Follow-up
 sheet is rendered from next week's demo exports (demo_inputs_week2 beside DEMO_INPUTS, made
 by tools/make_week2.py) built with --previous the demo workbook.
+
+OUTPUT_DIR/demo.xlsx is the golden file of tests/test_golden_demo.py; `--workbook-only`
+(`./tasks.sh golden`) writes it alone, without LibreOffice. It is built exactly as the tests
+build the demo (`pipeline.build` on DEMO_DATE).
 """
 from __future__ import annotations
 
@@ -17,8 +23,7 @@ import sys
 import tempfile
 from pathlib import Path
 
-from sheetbuilder.pipeline import load, plan_workbook, write_atomically
-from sheetbuilder.errors import WARNING
+from sheetbuilder.pipeline import build, write_atomically
 from sheetbuilder.recalc import libreoffice_convert
 
 DEMO_DATE = dt.date(2026, 12, 2)
@@ -27,7 +32,6 @@ WEEK2 = "demo_inputs_week2"
 
 def week2_plan(folder: Path, out: Path):
     """The plan of next week's demo workbook, built with --previous this week's (out/demo.xlsx)."""
-    from sheetbuilder.pipeline import build
     result = build(folder.parent / WEEK2, out / "demo_week2.xlsx", force=True,
                    built_on=DEMO_DATE + dt.timedelta(days=7), previous=out / "demo.xlsx")
     return result.plan
@@ -35,11 +39,12 @@ def week2_plan(folder: Path, out: Path):
 
 def main(argv: list[str]) -> int:
     folder, out = Path(argv[0]), Path(argv[1])
-    sheets = argv[2:] or ["Guide", "Settings", "Profit", "Bids", "Terms", "Harvest", "Negatives", "Mix", "Budget", "Actions", "Follow-up", "Groups"]
     out.mkdir(parents=True, exist_ok=True)
-    inputs, settings, problems = load(folder)
-    plan = plan_workbook(inputs, settings, DEMO_DATE, [p for p in problems if p.severity == WARNING])
-    write_atomically(plan.spec, out / "demo.xlsx", force=True)
+    plan = build(folder, out / "demo.xlsx", force=True, built_on=DEMO_DATE).plan
+    print(f"wrote {out / 'demo.xlsx'}")
+    if argv[2:] == ["--workbook-only"]:
+        return 0
+    sheets = argv[2:] or ["Guide", "Settings", "Profit", "Bids", "Terms", "Harvest", "Negatives", "Mix", "Budget", "Actions", "Follow-up", "Groups"]
     plans = {name: plan for name in sheets}
     if "Follow-up" in sheets:
         plans["Follow-up"] = week2_plan(folder, out)
