@@ -257,11 +257,17 @@ def rewrite_imports(text: str, rel: str, layout: Layout, notes: list[str]) -> st
             old = source[start:end].decode("utf-8")
             simple = (len(groups) == 1 and groups[0][1] == [f"{a.name} as {a.asname}" if a.asname else a.name
                                                              for a in node.names])
-            if simple:  # only the module changes: keep the statement's own wrapping and comments
+            line_start = source[starts[node.lineno - 1]:start].decode("utf-8")
+            indent = line_start if line_start.strip() == "" else None
+            if simple and "#" in old:  # only the module changes: keep the wrapping and the comments
+                prefix = re.match(r"from\s+[.\w]+", old).group(0)
+                head = f"from {groups[0][0]}"
+                new = head + old[len(prefix):]
+                shift = len(head) - len(prefix)
+                new = re.sub(r"\n( *)", lambda m: "\n" + " " * max(len(m.group(1)) + shift, 0), new)
+            elif simple and indent is None:
                 new = re.sub(r"^from\s+[.\w]+", f"from {groups[0][0]}", old, count=1)
             else:
-                line_start = source[starts[node.lineno - 1]:start].decode("utf-8")
-                indent = line_start if line_start.strip() == "" else None
                 if "#" in old:
                     notes.append(f"{rel}:{node.lineno}: a comment inside a split import was dropped; check it")
                 new = _from_lines(groups, indent) if indent is not None else "; ".join(
