@@ -35,6 +35,7 @@ import ast
 import re
 import subprocess
 import sys
+import textwrap
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -85,6 +86,7 @@ MAPPING = {
     "plan_unmatched": "sheetbuilder.sheets.unmatched",
     "plan_dashboard": "sheetbuilder.sheets.dashboard",
     "plan_guide": "sheetbuilder.sheets.guide",
+    "anchors": "sheetbuilder.sheets.anchors",  # the names one planner provides and others read (issue 14, glue)
     # workbook/: the specification, formula text, styles, the renderer, safe writing
     "spec": "sheetbuilder.workbook.spec",
     "formula": "sheetbuilder.workbook.formula",
@@ -97,13 +99,14 @@ MAPPING = {
     "saved": "sheetbuilder.weekly.saved",
     "carry": "sheetbuilder.weekly.carry",
     "followup": "sheetbuilder.weekly.followup",
+    "change_list": "sheetbuilder.weekly.change_list",  # a saved workbook's change list (issue 14, glue)
     "changes": "sheetbuilder.weekly.changes",
     # out of the library (issue 14: "the benchmark and the soak moved out ... into their own top-level folder")
     "bench": "benchmarks.bench",
     "soak": "benchmarks.soak",
 }
 # Modules that stay at the top of the package: the facade, the pipeline, the one error hierarchy, the CLI.
-STAYS = ("__init__", "__main__", "errors", "pipeline", "recalc", "cli")
+STAYS = ("__init__", "__main__", "errors", "pipeline", "assemble", "recalc", "cli")
 TOP_LEVEL_TEXT = "The facade, the one exception hierarchy, the pipeline, recalculation and the command line."
 
 SUFFIXES = {".py", ".md", ".toml", ".sh", ".cfg", ".ini", ".txt", ".yml", ".yaml"}
@@ -406,8 +409,10 @@ def rewrite_pyproject(text: str, layout: Layout, root: Path) -> str:
 
 
 def _docstring_line(path: Path) -> str:
+    """The docstring's first paragraph as a table cell, written like the rows around it (lower case, no period)."""
     doc = ast.get_docstring(ast.parse(path.read_text(encoding="utf-8"))) or ""
-    return " ".join(doc.split("\n\n")[0].split()).replace("|", "\\|")
+    line = " ".join(doc.split("\n\n")[0].split()).replace("|", "\\|").rstrip(".")
+    return line[:1].lower() + line[1:] if line[1:2].islower() or line[1:2] == " " else line
 
 
 def rewrite_module_table(text: str, root: Path, layout: Layout, notes: list[str]) -> str:
@@ -497,7 +502,7 @@ def relayout(root: Path, layout: Layout, dry_run: bool = False, say=print) -> di
     for pkg, what in layout.packages.items():
         init = root / pkg.replace(".", "/") / "__init__.py"
         if init.parent.exists() and not init.exists() and not dry_run:
-            init.write_text(f'"""{what}"""\n', encoding="utf-8")
+            init.write_text('"""' + textwrap.fill(what, 100) + '\n"""\n', encoding="utf-8")
             git(root, "add", str(init.relative_to(root)))
             changed.append(str(init.relative_to(root)))
     dev = root / "DEVELOPERS.md"
@@ -512,13 +517,17 @@ def relayout(root: Path, layout: Layout, dry_run: bool = False, say=print) -> di
 
 
 def leftovers(root: Path, layout: Layout) -> list[str]:
-    """Lines still naming a renamed module as a file: prose to read again by hand."""
+    """Lines still naming a renamed module as a file (anywhere) or as a word (in Markdown): prose to
+    read again by hand. In Python a bare word is left alone: a planner function often bears its module's name."""
     renamed = [old for old, new in layout.mapping.items() if new.rpartition(".")[2] != old]
     if not renamed:
         return []
-    pattern = re.compile(rf"(?<![\w/])({'|'.join(map(re.escape, renamed))})\.py\b")
+    names = "|".join(map(re.escape, renamed))
+    as_file = re.compile(rf"(?<![\w/])({names})\.py\b")
+    as_word = re.compile(rf"(?<![\w/.])({names})(?!\w)")
     out = []
     for rel in text_files(root):
+        pattern = as_word if rel.endswith(".md") else as_file
         for n, line in enumerate((root / rel).read_text(encoding="utf-8").splitlines(), 1):
             if pattern.search(line):
                 out.append(f"{rel}:{n}: {line.strip()[:100]}")
