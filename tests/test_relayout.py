@@ -28,7 +28,8 @@ FILES = {
     "tests/test_x.py": ("from sheetbuilder import errors, plan_a\nimport sheetbuilder.contract\n\n"
                         'PATCHED = "sheetbuilder.plan_a.plan_a"\nRUN = "python -m sheetbuilder.bench"\n'),
     "DEVELOPERS.md": ("# Guide\n\n| module | holds |\n| --- | --- |\n| `contract.py` | the contract |\n"
-                      "| `plan_*.py` | one module per sheet |\n\nSee `plan_a.plan_a` and `plan_a.py`.\n"),
+                      "| `plan_*.py` | one module per sheet |\n| `bench.py` | the benchmark |\n\n"
+                      "See `plan_a.plan_a` and `plan_a.py`.\n"),
 }
 LAYOUT = relayout.Layout(
     mapping={"contract": "sheetbuilder.reading.contract", "plan_a": "sheetbuilder.sheets.a",
@@ -65,7 +66,8 @@ def test_modules_move_and_every_import_form_is_rewritten(repo):
             "import sheetbuilder.reading.contract\n\n"
             'PATCHED = "sheetbuilder.sheets.a.plan_a"\nRUN = "python -m benchmarks.bench"\n'
             ) == (repo / "tests/test_x.py").read_text()
-    assert "from sheetbuilder.pipeline import build\n\nprint(build())\n" == (repo / "benchmarks/bench.py").read_text()
+    assert ("from sheetbuilder.pipeline import build\n\nprint(build())\n"
+            == (repo / "benchmarks/bench.py").read_text())
     assert "skipped gone: neither sheetbuilder/gone.py nor sheetbuilder/sheets/gone.py is in the tree" in result["notes"]
 
 
@@ -84,7 +86,7 @@ def test_the_module_table_is_grouped_by_package_and_prose_follows(repo):
             "| `sheetbuilder/pipeline.py` |  |\n"
             "| **`sheetbuilder/reading/`** | Reading. |\n| `sheetbuilder/reading/contract.py` | the contract |\n"
             "| **`sheetbuilder/sheets/`** | Sheets. |\n| `sheetbuilder/sheets/a.py` | the A sheet |\n"
-            "| **`benchmarks/`** | Tools. |\n| `benchmarks/bench.py` |  |\n\n"
+            "| **`benchmarks/`** | Tools. |\n| `benchmarks/bench.py` | the benchmark |\n\n"
             "See `sheets.a.plan_a` and `sheets/a.py`.\n") == text.split("\n\n", 1)[1]
 
 

@@ -321,8 +321,12 @@ def text_rewriter(root: Path, layout: Layout):
     alternatives = "|".join(sorted(map(re.escape, moved), key=len, reverse=True))
     dotted = re.compile(rf"(?<![\w.]){PACKAGE}\.({alternatives})(?!\w)")
     paths = re.compile(rf"(?<![\w/]){PACKAGE}/({alternatives})\.py(?!\w)")
-    quoted_file = re.compile(rf"`({alternatives})\.py`")
-    quoted_attr = re.compile(rf"`({alternatives})\.(\w+)")
+    # Prose names a module by its file name only inside the package ("`plan_guide.py`"); a module that leaves
+    # the package keeps its file name in the prose of its new folder (benchmarks/: "`bench.py`").
+    inside = "|".join(sorted((re.escape(o) for o, n in moved.items() if n.startswith(PACKAGE + ".")), key=len,
+                             reverse=True)) or "(?!)"
+    quoted_file = re.compile(rf"`({inside})\.py`")
+    quoted_attr = re.compile(rf"`({inside})\.(\w+)")
     names = {old: defined_names(root, old, layout) for old in moved}
 
     def attr(m: re.Match) -> str:
@@ -445,6 +449,8 @@ def rewrite_module_table(text: str, root: Path, layout: Layout, notes: list[str]
     for pkg in order:
         present = [(old, layout.path(layout.mapping.get(old, f"{PACKAGE}.{old}"))) for old in groups[pkg]]
         present = [(old, rel) for old, rel in present if (root / rel).exists()]
+        if not pkg.startswith(PACKAGE):  # outside the package: listed only where the table listed it before
+            present = [(old, rel) for old, rel in present if old in rows]
         if not present:
             continue
         what = TOP_LEVEL_TEXT if pkg == PACKAGE else layout.packages.get(pkg, "")
