@@ -68,7 +68,8 @@ def test_modules_move_and_every_import_form_is_rewritten(repo):
             ) == (repo / "tests/test_x.py").read_text()
     assert ("from sheetbuilder.pipeline import build\n\nprint(build())\n"
             == (repo / "benchmarks/bench.py").read_text())
-    assert "skipped gone: neither sheetbuilder/gone.py nor sheetbuilder/sheets/gone.py is in the tree" in result["notes"]
+    assert ["skipped gone: neither sheetbuilder/gone.py nor sheetbuilder/sheets/gone.py is in the tree"
+            ] == result["notes"]
 
 
 def test_the_relaid_package_imports_and_runs(repo):
