@@ -15,7 +15,7 @@ import numpy as np
 import pandas as pd
 
 from .formula import col_letter, quote_sheet, resolve
-from .spec import FORMULA, Cell, Column
+from .spec import DATA, FORMULA, Cell, Column
 
 Reference = Callable[[pd.DataFrame, Any], Any]
 
@@ -37,6 +37,9 @@ class ColumnDef:
         total: template of the totals-row cell: {sum:key} is the sum of a column's body,
             {t:key} another totals-row cell; None leaves it blank.
         total_reference: pandas computation of the totals-row value.
+        export: the column's value is copied from the exports (or computed only from such copies), so no
+            input cell can change it: it is written as a plain value in the grey export style and the
+            formula stays here only as the method's statement (see :func:`exports_only`).
     """
 
     key: str
@@ -50,6 +53,23 @@ class ColumnDef:
     hidden: bool = False
     total: str | None = None
     total_reference: Reference | None = None
+    export: bool = False
+
+
+def exports_only(defs: list[ColumnDef], keys: tuple[str, ...] | list[str]) -> list[ColumnDef]:
+    """defs with the columns named in keys marked export: values no input cell can change.
+
+    The rule: a column is export-only when its reference reads nothing but exported figures copied
+    one-to-one (or summed over a block of one key's rows) from an in_ sheet, or other export-only
+    columns. A cost, price, fee, target, threshold, setting or Decision reaching it keeps it live.
+    """
+    unknown = set(keys) - {d.key for d in defs}
+    if unknown:
+        raise ValueError(f"exports_only names columns the table does not have: {sorted(unknown)}")
+    return [replace(d, export=True) if d.key in keys else d for d in defs]
+
+
+EXPORT_STYLE = "_export"  # the style suffix of export-only cells (palette: grey text)
 
 
 @dataclass(frozen=True)
@@ -358,6 +378,10 @@ def plan_table(defs: list[ColumnDef], base: pd.DataFrame, ctx: Any, first_body_r
         if d.total_reference is not None:
             totals_values[d.key] = d.total_reference(frame, ctx)
     for d in defs:
+        if d.export:  # a value no input can change: written as data, in the export style
+            columns.append(Column(d.header, d.style.split("_")[0] + EXPORT_STYLE, DATA, as_cell_values(frame[d.key]),
+                                  None, d.width, d.hidden))
+            continue
         formula = resolve(d.formula, lookup) if d.formula else None
         if formula and "{row:" in formula:  # per-row numbers written into the formula (a direct reference)
             formula = _per_row(formula, frame)

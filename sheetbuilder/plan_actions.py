@@ -23,6 +23,7 @@ import numpy as np
 import pandas as pd
 
 from .columns import ColumnDef, PlannedTable, plan_table
+from .plan_lists import SPARE_ROWS
 from .settings import Settings
 from .spec import DATA, Cell, Sheet, Table
 
@@ -207,14 +208,18 @@ def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settin
     rows = sum(sizes.values())
     static = ("Decision aid only: review every change before applying it to a live ad account. "
               "Export this list with: sheetbuilder changes WORKBOOK -o changes.csv")
-    n_rows = min(max(rows, 0), settings.actions_cap)
+    # Sized to the changes at build plus SPARE_ROWS of room (a Decision or threshold changed later), within
+    # every candidate row and actions_cap; the note says when more changes qualify than the list holds.
+    n_rows = max(0, min(rows, settings.actions_cap, len(changes) + SPARE_ROWS))
     base = pd.DataFrame({"k": np.arange(1, n_rows + 1, dtype=float)})
     ctx = ActionsContext(changes)
     total = "+".join(totals)
-    note_formula = (f'=IF({total}>{n_rows},"Showing the first {n_rows} of "&({total})&" changes; raise actions_cap '
-                    f'in settings.toml and rebuild to see them all.","{static}")')
-    note_value = (f"Showing the first {n_rows} of {len(changes)} changes; raise actions_cap in settings.toml and "
-                  "rebuild to see them all." if len(changes) > n_rows else static)
+    how = "raise actions_cap in settings.toml and rebuild" if n_rows >= settings.actions_cap else \
+        "rebuild the workbook"
+    note_formula = (f'=IF({total}>{n_rows},"Showing the first {n_rows} of "&({total})&" changes; {how} '
+                    f'to see them all.","{static}")')
+    note_value = (f"Showing the first {n_rows} of {len(changes)} changes; {how} to see them all."
+                  if len(changes) > n_rows else static)
     columns = defs(totals)
     needed = {m for d in columns for m in re.findall(r"\{rng:([\w.]+)\}", d.formula or "")}
     # A source this workbook lacks has a count of 0, so its branch is never taken; point it at blank cells.

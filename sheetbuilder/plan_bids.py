@@ -26,8 +26,8 @@ import numpy as np
 import pandas as pd
 
 from .blends import attach_groups, block_sum, block_sums, group_columns, target_acos_column, zero_order_column
-from .columns import (ColumnDef, PlannedTable, apply_decision, blank_div, decision_formula, editable, plan_table,
-                      running_key)
+from .columns import (ColumnDef, PlannedTable, apply_decision, blank_div, decision_formula, editable, exports_only,
+                      plan_table, running_key)
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
 from .settings import Settings
@@ -209,8 +209,9 @@ DEFS: list[ColumnDef] = [
     ColumnDef("moves", "Moves", "int", "Working: 1 where the proposal changes the bid (for the dashboard).",
               lambda df, ctx: (df["proposed"] != df["bid"]).astype(float), '=IF({c:proposed}<>{c:bid},1,0)',
               width=6, hidden=True),
-    ColumnDef("trow", "Target row", "int", "Helper: the target's position on in_targets.",
-              lambda df, ctx: df["trow"], kind=DATA, width=8, hidden=True),
+    ColumnDef("trow", "Target row", "int",
+              "The target's row number among in_targets' data rows: where its grey figures were copied from.",
+              lambda df, ctx: df["trow"], kind=DATA, width=8),
     *group_columns(),
     ColumnDef("order_value", "Order value", "money",
               "Working: the target's ad sales / orders, or the product's order value when it has no orders.",
@@ -229,6 +230,9 @@ DEFS: list[ColumnDef] = [
               _raw, '=CHOOSE({c:rule},{c:bid},{c:bid}*(1-max_bid_cut),{c:bid},{c:bid},{c:bid},{c:value_bid},'
                     '{c:value_bid},{c:bid},{c:bid}*(1+max_bid_raise),{c:bid}*(1-max_bid_cut))', width=9, hidden=True),
 ]
+# Copied one-to-one from the target's in_targets row, or computed only from such copies: plain values.
+EXPORTS = ("impressions", "clicks", "spend", "ad_sales", "orders", "cpc", "cvr", "acos", "bid")
+DEFS = exports_only(DEFS, EXPORTS)
 
 # What a user types on Bids and the keys that find its row again (carry, changes and the tests read these).
 EDITABLE_COLUMNS = editable(DEFS, "Bids", SHEET, "sb_bids", ("campaign", "ad_group", "target", "match_type"),

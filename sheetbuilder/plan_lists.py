@@ -5,8 +5,9 @@ a helper column is strictly increasing: a qualifying row carries its running cou
 exactly, any other row its running count plus a fraction that grows with the row. So
 MATCH(k, helper, 1), a binary search, lands on the k-th qualifying row, and each list
 row costs log(terms). Change a threshold or a Decision and the lists re-fill themselves.
-The lists have as many rows as there are terms, capped by list_cap; a line above each
-says when the cap hides rows.
+Each list holds the rows that qualify at build plus SPARE_ROWS of room (never more than
+the terms, nor list_cap): a threshold or Decision changed later re-fills it within that
+room, and a line above each says when more qualify than it holds (rebuild to see them).
 """
 from __future__ import annotations
 
@@ -21,6 +22,7 @@ from .settings import Settings
 from .spec import DATA, Cell, Sheet, Table
 
 HEADER_ROW = 3
+SPARE_ROWS = 100  # list rows beyond what qualifies at build: room for thresholds and Decisions changed later
 
 
 @dataclass
@@ -172,22 +174,32 @@ NEGATIVES = ListSpec("Negatives", "block", "Search terms to block as negative ke
                      NEGATIVE_DEFS)
 
 
+def list_rows(qualifying: int, candidates: int, cap: int) -> int:
+    """A list's capacity: what qualifies at build plus SPARE_ROWS of room, within the candidates and the cap."""
+    return max(0, min(candidates, cap, qualifying + SPARE_ROWS))
+
+
 def plan_list(spec: ListSpec, terms: PlannedTable, settings: Settings, ranges: dict[str, str]
               ) -> tuple[Sheet, PlannedTable]:
-    """A live list sheet sized to the number of terms, capped by list_cap."""
-    n_rows = min(len(terms.frame), settings.list_cap)
+    """A live list sheet sized to what qualifies at build plus SPARE_ROWS, within the terms and list_cap."""
+    cnt = f"{spec.word[0]}_cnt"
+    total = int(terms.frame[cnt].iloc[-1]) if len(terms.frame) else 0
+    n_rows = list_rows(total, len(terms.frame), settings.list_cap)
     base = pd.DataFrame({"k": np.arange(1, n_rows + 1, dtype=float), "n_plus": float(n_rows + 1)})
     ctx = ListContext(terms.frame, settings)
     planned = plan_table(spec.defs, base, ctx, HEADER_ROW + 1, ranges, with_totals=False)
-    cnt = f"{spec.word[0]}_cnt"
     total_ref = ranges[f"terms_last.{cnt}"]
-    total = int(terms.frame[cnt].iloc[-1]) if len(terms.frame) else 0
-    note = (f"Showing the first {n_rows} of {total} {spec.noun}; raise list_cap in settings.toml and rebuild to "
-            "see them all.") if total > n_rows else ""
+    how = ("raise list_cap in settings.toml and rebuild" if n_rows >= settings.list_cap
+           else "rebuild the workbook")
+    note = f"Showing the first {n_rows} of {total} {spec.noun}; {how} to see them all." if total > n_rows else ""
     note_formula = (f'=IF({total_ref}>{n_rows},"Showing the first {n_rows} of "&{total_ref}&" {spec.noun}; '
-                    f'raise list_cap in settings.toml and rebuild to see them all.","")')
+                    f'{how} to see them all.","")')
+    room = (f"Live: a changed threshold or Decision re-fills this list. It has {n_rows} rows: the {total} "
+            f"{spec.noun} at build and room for up to {SPARE_ROWS} more (at most list_cap); the line above says "
+            "when more qualify than it holds.")
     above = [[Cell(spec.title, style="title")],
-             [Cell(note, note_formula, "alert")]]
+             [Cell(note, note_formula, "alert")],
+             [Cell(room, style="note")]]
     sheet = Sheet(spec.sheet, above=above, table=Table(HEADER_ROW, planned.columns), freeze=(HEADER_ROW + 1, 2),
                   tab_color="#063F63" if spec.word == "promote" else "#5E1F4E")
     return sheet, planned

@@ -32,8 +32,8 @@ import numpy as np
 import pandas as pd
 
 from .blends import attach_groups, group_columns, target_acos_column, zero_order_column
-from .columns import (ColumnDef, PlannedTable, apply_word_decision, blank_div, editable, plan_table, running_key,
-                      word_decision_formula)
+from .columns import (ColumnDef, PlannedTable, apply_word_decision, blank_div, editable, exports_only, plan_table,
+                      running_key, word_decision_formula)
 from .normalise import contains_phrase, looks_like_product_id, normalise, words
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
@@ -139,8 +139,19 @@ _TARGETED, _TARGETED_REF = _found("tkey", "tpos")
 _NEGATED, _NEGATED_REF = _found("nkey", "npos")
 
 
+# Summed from the term's in_search_terms rows, computed only from such sums, or looked up on Keys (built from
+# the exports): plain values, since no input can change them.
+EXPORTS = ("impressions", "clicks", "spend", "ad_sales", "orders", "cpc", "cvr", "acos", "targeted", "negated",
+           "tpos", "npos")
+
+
 def _defs(n_rows: int) -> list[ColumnDef]:
     """The Terms columns."""
+    return exports_only(_all_defs(n_rows), EXPORTS)
+
+
+def _all_defs(n_rows: int) -> list[ColumnDef]:
+    """The Terms columns, every one with its formula (the method as written)."""
     return [
         ColumnDef("campaign", "Campaign", "text", "The campaign.", lambda df, ctx: df["campaign"], kind=DATA, width=22),
         ColumnDef("ad_group", "Ad group", "text", "The ad group.", lambda df, ctx: df["ad_group"], kind=DATA,
@@ -181,10 +192,11 @@ def _defs(n_rows: int) -> list[ColumnDef]:
         ColumnDef("final", "Final", "label", "The Decision if typed, else the verdict; 'invalid' for any other text.",
                   _final, word_decision_formula("verdict", DECISIONS), width=9),
         # Working columns, hidden.
-        ColumnDef("first", "Term first row", "int", "Helper: first of the term's rows on in_search_terms.",
-                  lambda df, ctx: df["first"], kind=DATA, width=8, hidden=True),
-        ColumnDef("last", "Term last row", "int", "Helper: last of the term's rows on in_search_terms.",
-                  lambda df, ctx: df["last"], kind=DATA, width=8, hidden=True),
+        ColumnDef("first", "Term first row", "int",
+                  "First of the term's data rows on in_search_terms: its grey figures are summed from these rows.",
+                  lambda df, ctx: df["first"], kind=DATA, width=8),
+        ColumnDef("last", "Term last row", "int", "Last of the term's data rows on in_search_terms.",
+                  lambda df, ctx: df["last"], kind=DATA, width=8),
         ColumnDef("pos", "Position", "int", "Helper: the row's position on this sheet.",
                   lambda df, ctx: df["pos"], kind=DATA, width=8, hidden=True),
         ColumnDef("self", "Is its own keyword", "int", "Helper: 1 where the term is the exact keyword it came from.",
