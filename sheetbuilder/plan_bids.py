@@ -25,7 +25,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .blends import attach_groups, block_sum, block_sums, group_columns, target_acos_column, zero_order_column
+from .blends import attach_groups, blends_row_column, fetch
 from .columns import (ColumnDef, PlannedTable, apply_decision, blank_div, decision_formula, editable, exports_only,
                       plan_table, running_key)
 from .numbers import ROUNDING_NUDGE, round_half_away
@@ -49,9 +49,7 @@ class BidsContext:
     """What the Bids columns' references read besides the frame."""
 
     settings: Settings
-    groups: pd.DataFrame
-    account_cvr: float
-    account_aov: float
+    blends: pd.DataFrame
     totals: dict[str, Any] = field(default_factory=dict)
 
 
@@ -132,13 +130,6 @@ def _reason(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     return pd.Series(out, index=df.index, dtype=object)
 
 
-def _target_check(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
-    above = block_sums(df, ctx.groups, "above").fillna(0.0) > 0
-    text = "target capped at break-even" if ctx.settings.cap_target_at_break_even == "yes" else \
-        "target above break-even"
-    return pd.Series(np.where(above, text, ""), index=df.index, dtype=object)
-
-
 _RULE = ('=IF({c:clicks}=0,1,IF({c:orders}=0,IF({c:clicks}<min_clicks,3,'
          'IF(IF({c:n_zero}="",FALSE,{c:clicks}>={c:n_zero}),2,IF({c:value_bid}="",4,IF({c:value_bid}<{c:bid},%s,5)))),'
          'IF({c:value_bid}="",4,IF({c:value_bid}>{c:bid},IF({c:value_bid}>{c:bid}*(1+max_bid_raise),9,6),'
@@ -174,7 +165,9 @@ DEFS: list[ColumnDef] = [
     ColumnDef("acos", "ACoS", "percent", "Spend / ad sales.",
               lambda df, ctx: blank_div(df["spend"], df["ad_sales"]), '=IF({c:ad_sales}=0,"",{c:spend}/{c:ad_sales})',
               width=8),
-    target_acos_column(visible=True),
+    fetch("target_acos", "Target ACoS", "percent",
+          "The product's target ACoS (Profit), or the ad group's spend-weighted blend (from Groups' blends).",
+          hidden=False),
     ColumnDef("bid", "Current bid", "money", "The bid now (in_targets).", lambda df, ctx: df["bid"], _in("bid"),
               width=9),
     ColumnDef("value_bid", "Value bid", "money",
@@ -197,11 +190,9 @@ DEFS: list[ColumnDef] = [
               lambda df, ctx: df["decision"], kind=INPUT, width=10),
     ColumnDef("final", "Final bid", "money", "The bid to apply: the Decision if given, else the proposal.",
               lambda df, ctx: apply_decision(df, "proposed", "bid"), decision_formula("proposed", "bid"), width=9),
-    ColumnDef("target_check", "Target check", "label",
-              "Where a product of the ad group has a target ACoS above its break-even ACoS (see Profit).",
-              _target_check, '=IF({c:gfirst}="","",IF(%s>0,IF(cap_target_at_break_even="yes",'
-                             '"target capped at break-even","target above break-even"),""))' % block_sum("above"),
-              width=22),
+    fetch("target_check", "Target check", "label",
+          "Where a product of the ad group has a target ACoS above its break-even ACoS (see Profit).", hidden=False,
+          width=22),
     # Working columns, hidden: row positions as data, then the steps of the method.
     ColumnDef("pos", "Position", "int", "Helper: the row's position on this sheet.", lambda df, ctx: df["pos"],
               kind=DATA, width=6, hidden=True),
@@ -212,18 +203,21 @@ DEFS: list[ColumnDef] = [
     ColumnDef("trow", "Target row", "int",
               "The target's row number among in_targets' data rows: where its grey figures were copied from.",
               lambda df, ctx: df["trow"], kind=DATA, width=8),
-    *group_columns(),
+    blends_row_column(),
+    fetch("p_cvr", "Product CVR", "percent", "Working: the product's (or blend's) ad conversion rate."),
     ColumnDef("order_value", "Order value", "money",
               "Working: the target's ad sales / orders, or the product's order value when it has no orders.",
-              lambda df, ctx: blank_div(df["ad_sales"], df["orders"]).where(df["orders"] > 0, df["p_aov"]),
-              '=IF({c:orders}>0,{c:ad_sales}/{c:orders},{c:p_aov})', width=9, hidden=True),
+              lambda df, ctx: blank_div(df["ad_sales"], df["orders"]).where(
+                  df["orders"] > 0, ctx.blends["p_aov"].to_numpy(dtype=float)[df["brow"].to_numpy(dtype=int) - 1]),
+              '=IF({c:orders}>0,{c:ad_sales}/{c:orders},INDEX({rng:blends.p_aov},{c:brow}))', width=9, hidden=True),
     ColumnDef("s_cvr", "Smoothed CVR", "percent", "Working: (orders + k x product CVR) / (clicks + k).",
               _s_cvr, '=IF({c:clicks}+prior_clicks=0,"",({c:orders}+prior_clicks*{c:p_cvr})/({c:clicks}+prior_clicks))',
               width=9, hidden=True),
     ColumnDef("s_acos", "Smoothed ACoS", "percent", "Working: CPC / (smoothed CVR x order value).",
               _s_acos, '=IF(OR({c:cpc}="",{c:s_cvr}=""),"",IF({c:s_cvr}*{c:order_value}=0,"",'
                        '{c:cpc}/({c:s_cvr}*{c:order_value})))', width=9, hidden=True),
-    zero_order_column(),
+    fetch("n_zero", "Zero-order clicks", "int",
+          "Working: clicks after which zero orders are unlikely at the product's CVR."),
     ColumnDef("rule", "Rule", "int", "Working: which rule decided the row (1 to 10, see the Guide).",
               _rule, _RULE % (_LOWER, _LOWER), width=6, hidden=True),
     ColumnDef("raw", "Unrounded bid", "money", "Working: the proposal before rounding, floor and ceiling.",
@@ -260,14 +254,14 @@ def target_frame(targets: InputSheet, campaigns: pd.DataFrame | None, groups: pd
 
 
 def plan_bids(targets: InputSheet, campaigns: pd.DataFrame | None, groups: PlannedTable, profit: PlannedTable,
-              settings: Settings, ranges: dict[str, str], decide=None) -> tuple[Sheet, PlannedTable]:
-    """The Bids sheet and its reference frame; decide(sheet, keys) gives carried Decisions."""
+              settings: Settings, ranges: dict[str, str], decide=None, blends: PlannedTable | None = None
+              ) -> tuple[Sheet, PlannedTable]:
+    """The Bids sheet and its reference frame; decide(sheet, keys) gives carried Decisions; blends: Groups' blends."""
     base = target_frame(targets, campaigns, groups.frame)
     if decide is not None:
         base["decision"] = decide("Bids", list(zip(base["campaign"], base["ad_group"], base["target"],
                                                    base["match_type"])))
-    ctx = BidsContext(settings, groups.frame, float(profit.totals_values["prod_cvr"]),
-                      float(profit.totals_values["prod_aov"]))
+    ctx = BidsContext(settings, blends.frame)
     planned = plan_table(DEFS, base, ctx, HEADER_ROW + 1, ranges, with_totals=False)
     keys = [d.key for d in DEFS]
     n = len(base)

@@ -13,8 +13,10 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from .blends import BLEND_TITLE, BlendContext, blend_columns, blend_frame
 from .columns import ColumnDef, PlannedTable, plan_table
 from .plan_inputs import InputSheet
+from .settings import Settings
 from .spec import DATA, Cell, Sheet, Table
 
 SHEET = "Groups"
@@ -47,7 +49,8 @@ DEFS: list[ColumnDef] = [
               lambda df, ctx: df["product_id"], kind=DATA, width=12),
     ColumnDef("spend", "Ad spend", "money", "The product's ad spend in this ad group: its weight in the blend.",
               lambda df, ctx: df["spend"],
-              "=SUM(INDEX({rng:ad_products.spend},{c:ad_first}):INDEX({rng:ad_products.spend},{c:ad_last}))", width=12),
+              "=SUM(INDEX({rng:ad_products.spend},{c:ad_first}):INDEX({rng:ad_products.spend},{c:ad_last}))", width=12,
+              export=True),
     ColumnDef("target_acos", "Target ACoS", "percent",
               "The target ACoS the product's bids aim at (Profit's Bid target ACoS).",
               _profit_value("bid_target"), _profit_index("bid_target"), width=10),
@@ -78,6 +81,9 @@ DEFS: list[ColumnDef] = [
 ]
 
 
+BLEND_DEFS: list[ColumnDef] = blend_columns()
+
+
 def group_frame(ad_layout: InputSheet | None, profit: pd.DataFrame) -> pd.DataFrame:
     """One row per (campaign, ad group, product), sorted by campaign and ad group."""
     columns = ["campaign", "ad_group", "product_id", "spend", "prow", "ad_first", "ad_last"]
@@ -97,14 +103,19 @@ def group_frame(ad_layout: InputSheet | None, profit: pd.DataFrame) -> pd.DataFr
     return out[columns].astype({"campaign": object, "ad_group": object, "product_id": object})
 
 
-def plan_groups(ad_layout: InputSheet | None, profit: PlannedTable, ranges: dict[str, str]
-                ) -> tuple[Sheet, PlannedTable]:
-    """The Groups sheet and its reference frame."""
+def plan_groups(ad_layout: InputSheet | None, profit: PlannedTable, ranges: dict[str, str], settings: Settings
+                ) -> tuple[Sheet, PlannedTable, PlannedTable]:
+    """The Groups sheet, its reference frame, and its ad-group blends table (below it) that Bids and Terms read."""
     base = group_frame(ad_layout, profit.frame)
     planned = plan_table(DEFS, base, GroupsContext(profit.frame), HEADER_ROW + 1, ranges, with_totals=False)
+    blend_first = HEADER_ROW + max(len(base), 1) + 3  # a blank row and the title between the two tables
+    ctx = BlendContext(planned.frame, settings, float(profit.totals_values["prod_cvr"]),
+                       float(profit.totals_values["prod_aov"]))
+    blends = plan_table(BLEND_DEFS, blend_frame(planned.frame), ctx, blend_first + 1,
+                        {**ranges, **planned.ranges(SHEET, "groups")}, with_totals=False)
     above = [[Cell("Ad groups and the products they advertise", style="title")],
              [Cell("A target in an ad group with several products uses their blend, weighted by ad spend "
                    "(equal weights where the group has no spend).", style="note")]]
     sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, planned.columns), freeze=(HEADER_ROW + 1, 3),
-                  tab_color="#5B6F80")
-    return sheet, planned
+                  tab_color="#5B6F80", more=[Table(blend_first, blends.columns, autofilter=False, title=BLEND_TITLE)])
+    return sheet, planned, blends

@@ -31,7 +31,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .blends import attach_groups, group_columns, target_acos_column, zero_order_column
+from .blends import attach_groups, blends_row_column, fetch
 from .columns import (ColumnDef, PlannedTable, apply_word_decision, blank_div, editable, exports_only, plan_table,
                       running_key, word_decision_formula)
 from .normalise import contains_phrase, looks_like_product_id, normalise, words
@@ -53,9 +53,7 @@ class TermsContext:
     """What the Terms columns' references read besides the frame."""
 
     settings: Settings
-    groups: pd.DataFrame
-    account_cvr: float
-    account_aov: float
+    blends: pd.DataFrame
     lookup: dict[float, str]
     clashes: pd.DataFrame = field(default_factory=pd.DataFrame)
     totals: dict[str, Any] = field(default_factory=dict)
@@ -103,6 +101,14 @@ def _verdict(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
         else:
             out.append("watch")
     return pd.Series(out, index=df.index, dtype=object)
+
+
+def _value_bid(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+    at = df["brow"].to_numpy(dtype=int) - 1
+    target, cvr, aov = (ctx.blends[k].to_numpy(dtype=float)[at] for k in ("target_acos", "p_cvr", "p_aov"))
+    k = ctx.settings.prior_clicks
+    order_value = blank_div(df["ad_sales"], df["orders"]).where(df["orders"] > 0, pd.Series(aov, index=df.index))
+    return target * (df["orders"] + k * cvr) / (df["clicks"] + k).where(df["clicks"] + k != 0) * order_value
 
 
 def _final(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
@@ -218,21 +224,17 @@ def _all_defs(n_rows: int) -> list[ColumnDef]:
                   lambda df, ctx: df["nkey"], kind=DATA, width=8, hidden=True),
         ColumnDef("npos", "Negated position", "int", "Working: MATCH of the negated key on Keys.",
                   _NPOS_REF, _NPOS, width=8, hidden=True),
-        *group_columns(),
-        target_acos_column(visible=False),
-        ColumnDef("p_price", "Product price", "money", "Working: the product's (or blend's) price.",
-                  *_price_blend(), width=9, hidden=True),
-        zero_order_column(),
-        ColumnDef("order_value", "Order value", "money", "Working: ad sales / orders, or the product's order value.",
-                  lambda df, ctx: blank_div(df["ad_sales"], df["orders"]).where(df["orders"] > 0, df["p_aov"]),
-                  '=IF({c:orders}>0,{c:ad_sales}/{c:orders},{c:p_aov})', width=9, hidden=True),
+        blends_row_column(),
+        fetch("p_price", "Product price", "money", "Working: the product's (or blend's) price."),
+        fetch("n_zero", "Zero-order clicks", "int",
+              "Working: clicks after which zero orders are unlikely at the product's CVR."),
         ColumnDef("value_bid", "Value bid", "money",
-                  "Working: target ACoS x smoothed CVR x order value, what a click on the term is worth.",
-                  lambda df, ctx: df["target_acos"] * (df["orders"] + ctx.settings.prior_clicks * df["p_cvr"])
-                  / (df["clicks"] + ctx.settings.prior_clicks).where(df["clicks"] + ctx.settings.prior_clicks != 0)
-                  * df["order_value"],
-                  '=IF({c:clicks}+prior_clicks=0,"",{c:target_acos}*({c:orders}+prior_clicks*{c:p_cvr})/'
-                  '({c:clicks}+prior_clicks)*{c:order_value})', width=9, hidden=True),
+                  "Working: target ACoS x smoothed CVR x order value, what a click on the term is worth (the ad "
+                  "group's blends from Groups; the order value is the term's own where it has orders).",
+                  _value_bid,
+                  '=IF({c:clicks}+prior_clicks=0,"",INDEX({rng:blends.target_acos},{c:brow})*({c:orders}+prior_clicks*'
+                  'INDEX({rng:blends.p_cvr},{c:brow}))/({c:clicks}+prior_clicks)*IF({c:orders}>0,'
+                  '{c:ad_sales}/{c:orders},INDEX({rng:blends.p_aov},{c:brow})))', width=9, hidden=True),
         ColumnDef("start_bid", "Starting bid", "money", "Working: the bid a promoted term starts at.",
                   _start_bid, '=IF(OR({c:cpc}="",{c:value_bid}=""),"",MIN(bid_ceiling,MAX(bid_floor,ROUND('
                   'IF(starting_bid="cpc",{c:cpc},IF(starting_bid="value",{c:value_bid},MIN({c:cpc},{c:value_bid})))'
@@ -328,13 +330,6 @@ def clash_hits(pairs: pd.DataFrame, terms: pd.DataFrame, settings: Settings) -> 
         else:
             out.append(1.0 if final[i] == "promote" and adds[j] == 1 and p.kw_group == 1 and p.same_term == 1 else 0.0)
     return out
-
-
-def _price_blend():
-    """Reference and formula of the blended product price (the block rule's yardstick)."""
-    from .blends import blend, blend_formula
-    return (blend("price", "w_price", lambda ctx: ctx.account_aov),
-            blend_formula("price", "w_price", "{rng:profit_total.prod_aov}"))
 
 
 def _norm_or_blank(value: Any, fold: bool) -> str:
@@ -492,8 +487,9 @@ def clash_pairs(frame: pd.DataFrame) -> pd.DataFrame:
 
 def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, targets: pd.DataFrame | None,
                campaigns: pd.DataFrame | None, negatives: pd.DataFrame | None, settings: Settings,
-               ranges: dict[str, str], decide=None) -> tuple[Sheet, PlannedTable, Sheet, KeyTable]:
-    """The Terms sheet, its reference frame, and the Keys sheet its lookups read."""
+               ranges: dict[str, str], decide=None, blends: PlannedTable | None = None
+               ) -> tuple[Sheet, PlannedTable, Sheet, KeyTable]:
+    """The Terms sheet, its reference frame, and the Keys sheet its lookups read (blends: Groups' blends)."""
     base = term_frame(layout, groups.frame, campaigns, negatives, settings)
     if decide is not None and len(base):
         base["decision"] = decide("Terms", list(zip(base["campaign"], base["ad_group"], base["term"])))
@@ -514,8 +510,7 @@ def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, t
         KEYS_SHEET, [d.key for d in CLASH_DEFS].index("hit"), clash_first + 1, clash_first + len(pairs))}
     base["tkey"] = base["tkey_t"].map(lambda k: keys.ids.get(k, np.nan) if k else np.nan)
     base["nkey"] = base["nkey_t"].map(lambda k: keys.ids.get(k, np.nan))
-    ctx = TermsContext(settings, groups.frame, float(profit.totals_values["prod_cvr"]),
-                       float(profit.totals_values["prod_aov"]), keys.found, pairs)
+    ctx = TermsContext(settings, blends.frame, keys.found, pairs)
     planned = plan_table(_defs(len(base)), base, ctx, HEADER_ROW + 1, {**ranges, **key_ranges}, with_totals=False)
     clashes = plan_table(CLASH_DEFS, pairs, ClashContext(planned.frame, settings), clash_first + 1,
                          planned.ranges(SHEET, "terms"), with_totals=False)
