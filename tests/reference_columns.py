@@ -33,18 +33,24 @@ _HELPER = ("hidden working column; its value reaches a compared column (the engi
            "against `formulas`, LibreOffice and Gnumeric, but no reference computes it on its own)")
 _LIST_KEY = ("hidden running count or binary-search key of a live list; what it selects is compared row by row "
              "(the list's rows and their order equal the reference's)")
+_EXPORT_HELPER = ("hidden export-only position (a value written when building); the Already targeted and Already "
+                  "negated columns it finds are compared")
+_BLENDS = ("the ad-group blends table, computed once per ad group; compared through every Bids and Terms row that "
+           "fetches it (Target ACoS, Product CVR, Zero-order clicks, Target check, Product price) or uses it "
+           "(Value bid, Starting bid)")
 _NO_ORACLE = "no independent reference exists for this table yet; only the planner's pandas twin and the engines check it"
 
 # {(planned table, header): why no reference compares it today}. Shrink this list by adding references.
 UNCOVERED = {
     **{("Profit", h): _HELPER for h in ("Ad clicks", "Ad orders", "Product CVR", "Product order value",
                                         "Product price", "Gross profit before ads", "Revenue with a margin")},
-    **{("Bids", h): _HELPER for h in ("Group spend", "Product order value", "Order value", "Rule", "Unrounded bid",
-                                      "Moves")},
+    **{("Bids", h): _HELPER for h in ("Order value", "Rule", "Unrounded bid", "Moves")},
     **{("Bids", h): _LIST_KEY for h in ("Changes count", "Changes key")},
-    **{("Terms", h): _HELPER for h in ("Targeted position", "Negated position", "Group spend", "Product CVR",
-                                       "Product order value", "Target ACoS", "Order value", "Value bid",
-                                       "Block rule", "Block threshold")},
+    **{("Terms", h): _HELPER for h in ("Value bid", "Block rule", "Block threshold")},
+    **{("Terms", h): _EXPORT_HELPER for h in ("Targeted position", "Negated position")},
+    **{("Blends", h): _BLENDS for h in ("Target ACoS", "Product CVR", "Product order value", "Product price",
+                                        "Zero-order clicks", "Target check")},
+    ("Blends", "Group spend"): _NO_ORACLE,
     **{("Terms", h): _LIST_KEY for h in ("Promoted terms count", "Promoted terms key", "Blocked terms count",
                                          "Blocked terms key")},
     **{("Harvest", h): _HELPER for h in ("Looks like a product ID", "Source match type", "Terms row")},
