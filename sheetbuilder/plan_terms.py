@@ -139,6 +139,11 @@ def _block_threshold(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
     return out.where(df["verdict"] == "block")
 
 
+# Working values only a list shows (Harvest: value and starting bid; Negatives: the block rule and its
+# threshold): the lists compute them live on their own rows; Terms keeps them in its reference frame only.
+LIST_WORKING = (("value_bid", _value_bid), ("start_bid", _start_bid), ("block_rule", _block_rule),
+                ("block_threshold", _block_threshold))
+
 _TPOS, _TPOS_REF = _position("tkey")
 _NPOS, _NPOS_REF = _position("nkey")
 _TARGETED, _TARGETED_REF = _found("tkey", "tpos")
@@ -228,24 +233,6 @@ def _all_defs(n_rows: int) -> list[ColumnDef]:
         fetch("p_price", "Product price", "money", "Working: the product's (or blend's) price."),
         fetch("n_zero", "Zero-order clicks", "int",
               "Working: clicks after which zero orders are unlikely at the product's CVR."),
-        ColumnDef("value_bid", "Value bid", "money",
-                  "Working: target ACoS x smoothed CVR x order value, what a click on the term is worth (the ad "
-                  "group's blends from Groups; the order value is the term's own where it has orders).",
-                  _value_bid,
-                  '=IF({c:clicks}+prior_clicks=0,"",INDEX({rng:blends.target_acos},{c:brow})*({c:orders}+prior_clicks*'
-                  'INDEX({rng:blends.p_cvr},{c:brow}))/({c:clicks}+prior_clicks)*IF({c:orders}>0,'
-                  '{c:ad_sales}/{c:orders},INDEX({rng:blends.p_aov},{c:brow})))', width=9, hidden=True),
-        ColumnDef("start_bid", "Starting bid", "money", "Working: the bid a promoted term starts at.",
-                  _start_bid, '=IF(OR({c:cpc}="",{c:value_bid}=""),"",MIN(bid_ceiling,MAX(bid_floor,ROUND('
-                  'IF(starting_bid="cpc",{c:cpc},IF(starting_bid="value",{c:value_bid},MIN({c:cpc},{c:value_bid})))'
-                  '+0.000000001,2))))', width=9, hidden=True),
-        ColumnDef("block_rule", "Block rule", "text", "Working: the rule that proposes blocking the term.",
-                  _block_rule, '=IF({c:verdict}<>"block","your decision",IF({c:spend}>={c:p_price}*'
-                               'block_spend_multiple,"spend reached price x multiple","no orders after "&{c:n_zero}'
-                               '&" clicks"))', width=12, hidden=True),
-        ColumnDef("block_threshold", "Block threshold", "ratio", "Working: the threshold of that rule.",
-                  _block_threshold, '=IF({c:verdict}<>"block","",IF({c:spend}>={c:p_price}*block_spend_multiple,'
-                                    '{c:p_price}*block_spend_multiple,{c:n_zero}))', width=9, hidden=True),
         ColumnDef("live", "Campaign live", "int", "Helper: 1 where the term's campaign is enabled (in_campaigns).",
                   lambda df, ctx: df["live"], kind=DATA, width=8, hidden=True),
         ColumnDef("at_dest", "Keyword at destination", "int",
@@ -512,6 +499,8 @@ def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, t
     base["nkey"] = base["nkey_t"].map(lambda k: keys.ids.get(k, np.nan))
     ctx = TermsContext(settings, blends.frame, keys.found, pairs)
     planned = plan_table(_defs(len(base)), base, ctx, HEADER_ROW + 1, {**ranges, **key_ranges}, with_totals=False)
+    for key, compute in LIST_WORKING:  # computed live on the list rows that show them, not on every term
+        planned.frame[key] = compute(planned.frame, ctx)
     clashes = plan_table(CLASH_DEFS, pairs, ClashContext(planned.frame, settings), clash_first + 1,
                          planned.ranges(SHEET, "terms"), with_totals=False)
     keys_sheet, _ = plan_keys(keys, Table(clash_first, clashes.columns, autofilter=False, title=CLASH_TITLE))
