@@ -30,10 +30,9 @@ def block_sum(column: str) -> str:
     return "SUM(INDEX({rng:groups.%s},{c:gfirst}):INDEX({rng:groups.%s},{c:glast}))" % (column, column)
 
 
-def blend_formula(plain: str, weighted: str, fallback: str) -> str:
-    """Spend-weighted blend over the ad group's products; equal weights when it has no spend."""
-    return ('=IF({c:gfirst}="",%s,IF({c:g_spend}=0,%s/({c:glast}-{c:gfirst}+1),%s/{c:g_spend}))'
-            % (fallback, block_sum(plain), block_sum(weighted)))
+def blend_formula(weighted: str, fallback: str) -> str:
+    """The blend over the ad group's products, weighted by the Groups weights (the account's value without one)."""
+    return '=IF({c:gfirst}="",%s,%s/{c:g_weight})' % (fallback, block_sum(weighted))
 
 
 def block_sums(df: pd.DataFrame, groups: pd.DataFrame, column: str) -> pd.Series:
@@ -48,13 +47,10 @@ def block_sums(df: pd.DataFrame, groups: pd.DataFrame, column: str) -> pd.Series
     return df["gfirst"].map(by_first)
 
 
-def blend(plain: str, weighted: str, fallback: Callable[[Any], float]):
+def blend(weighted: str, fallback: Callable[[Any], float]):
     """Reference of blend_formula, computed per ad group with pandas."""
     def compute(df: pd.DataFrame, ctx: Any) -> pd.Series:
-        count = df["glast"] - df["gfirst"] + 1
-        equal = block_sums(df, ctx.groups, plain) / count
-        weighted_mean = block_sums(df, ctx.groups, weighted) / df["g_spend"].where(df["g_spend"] != 0)
-        out = weighted_mean.where(df["g_spend"] != 0, equal)
+        out = block_sums(df, ctx.groups, weighted) / df["g_weight"]
         return out.where(df["gfirst"].notna(), fallback(ctx)).astype(float)
     return compute
 
@@ -121,19 +117,20 @@ def blend_columns() -> list[ColumnDef]:
                   lambda df, ctx: df["gfirst"], kind=DATA, width=8),
         ColumnDef("glast", "Group last row", "int", "Last of the ad group's rows in the table above.",
                   lambda df, ctx: df["glast"], kind=DATA, width=8),
-        ColumnDef("g_spend", "Group spend", "money", "The ad group's ad spend (the blend's weights), from the exports.",
-                  lambda df, ctx: block_sums(df, ctx.groups, "spend").fillna(0.0),
-                  '=IF({c:gfirst}="",0,%s)' % block_sum("spend"), width=12, export=True),
+        ColumnDef("g_weight", "Group weight", "money",
+                  "The sum of the ad group's blend weights (its ad spend, or its count of products without spend).",
+                  lambda df, ctx: block_sums(df, ctx.groups, "weight").fillna(0.0),
+                  '=IF({c:gfirst}="",0,%s)' % block_sum("weight"), width=12, export=True),
         target_acos_column(),
         ColumnDef("p_cvr", "Product CVR", "percent", "The product's (or blend's) ad conversion rate.",
-                  blend("cvr", "w_cvr", lambda ctx: ctx.account_cvr),
-                  blend_formula("cvr", "w_cvr", "{rng:profit_total.prod_cvr}"), width=10),
+                  blend("w_cvr", lambda ctx: ctx.account_cvr),
+                  blend_formula("w_cvr", "{rng:profit_total.prod_cvr}"), width=10),
         ColumnDef("p_aov", "Product order value", "money", "The product's (or blend's) ad sales per order.",
-                  blend("aov", "w_aov", lambda ctx: ctx.account_aov),
-                  blend_formula("aov", "w_aov", "{rng:profit_total.prod_aov}"), width=12),
+                  blend("w_aov", lambda ctx: ctx.account_aov),
+                  blend_formula("w_aov", "{rng:profit_total.prod_aov}"), width=12),
         ColumnDef("p_price", "Product price", "money", "The product's (or blend's) price: the block rule's yardstick.",
-                  blend("price", "w_price", lambda ctx: ctx.account_aov),
-                  blend_formula("price", "w_price", "{rng:profit_total.prod_aov}"), width=10),
+                  blend("w_price", lambda ctx: ctx.account_aov),
+                  blend_formula("w_price", "{rng:profit_total.prod_aov}"), width=10),
         zero_order_column(),
         ColumnDef("target_check", "Target check", "label",
                   "Where a product of the ad group has a target ACoS above its break-even ACoS (see Profit).",
@@ -163,8 +160,8 @@ def target_acos_column() -> ColumnDef:
     """The blended target ACoS of an ad group."""
     return ColumnDef("target_acos", "Target ACoS", "percent",
                      "The product's target ACoS (Profit), or the ad group's spend-weighted blend.",
-                     blend("target_acos", "w_target", lambda ctx: ctx.settings.default_target_acos),
-                     blend_formula("target_acos", "w_target", "default_target_acos"), width=10)
+                     blend("w_target", lambda ctx: ctx.settings.default_target_acos),
+                     blend_formula("w_target", "default_target_acos"), width=10)
 
 
 def zero_order_column() -> ColumnDef:

@@ -2,8 +2,9 @@
 
 One row per campaign, ad group and product (from in_ad_products), sorted so each ad
 group's products form one block. A target in an ad group that advertises several
-products uses their spend-weighted blend of target ACoS, conversion rate and order
-value; the weighted columns here are what the Bids sheet sums over the block.
+products uses their spend-weighted blend of target ACoS, conversion rate, order value
+and price (equal weights where the ad group has no spend); the weighted columns here are
+what the ad-group blends table below sums over each block, once per ad group.
 """
 from __future__ import annotations
 
@@ -38,8 +39,12 @@ def _profit_value(key: str):
     return compute
 
 
-def _profit_index(key: str) -> str:
-    return "=INDEX({rng:profit.%s},{c:prow})" % key
+def _weighted(key: str, header: str, profit_key: str, help: str) -> ColumnDef:
+    """A product's blend weight times one of its Profit values: what its ad group's blend sums."""
+    def compute(df: pd.DataFrame, ctx: GroupsContext) -> pd.Series:
+        return df["weight"] * _profit_value(profit_key)(df, ctx)
+    return ColumnDef(key, header, "ratio", help, compute, "={c:weight}*INDEX({rng:profit.%s},{c:prow})" % profit_key,
+                     width=11)
 
 
 DEFS: list[ColumnDef] = [
@@ -51,27 +56,19 @@ DEFS: list[ColumnDef] = [
               lambda df, ctx: df["spend"],
               "=SUM(INDEX({rng:ad_products.spend},{c:ad_first}):INDEX({rng:ad_products.spend},{c:ad_last}))", width=12,
               export=True),
-    ColumnDef("target_acos", "Target ACoS", "percent",
-              "The target ACoS the product's bids aim at (Profit's Bid target ACoS).",
-              _profit_value("bid_target"), _profit_index("bid_target"), width=10),
+    ColumnDef("weight", "Blend weight", "money",
+              "The product's weight in its ad group's blend: its ad spend, or 1 each where the ad group has no spend "
+              "(equal weights).", lambda df, ctx: df["weight"], kind=DATA, width=10, export=True),
+    _weighted("w_target", "Weight x target ACoS", "bid_target",
+              "Blend weight x the product's target ACoS (Profit's Bid target ACoS, live)."),
     ColumnDef("above", "Above break-even", "int", "1 where the product's target ACoS is above its break-even ACoS.",
               lambda df, ctx: pd.Series([1.0 if ctx.profit["target_check"].iloc[int(r) - 1] else 0.0
                                          for r in df["prow"]], index=df.index, dtype=float),
               '=IF(INDEX({rng:profit.target_check},{c:prow})<>"",1,0)', width=8),
-    ColumnDef("cvr", "Product CVR", "percent", "The product's ad conversion rate (from Profit's working columns).",
-              _profit_value("prod_cvr"), _profit_index("prod_cvr"), width=10),
-    ColumnDef("aov", "Product order value", "money", "The product's ad sales per order (from Profit's working columns).",
-              _profit_value("prod_aov"), _profit_index("prod_aov"), width=12),
-    ColumnDef("price", "Product price", "money", "The product's catalog price (its order value without one).",
-              _profit_value("prod_price"), _profit_index("prod_price"), width=10),
-    ColumnDef("w_target", "Spend x target ACoS", "ratio", "Ad spend x target ACoS, summed per ad group for the blend.",
-              lambda df, ctx: df["spend"] * df["target_acos"], "={c:spend}*{c:target_acos}", width=11),
-    ColumnDef("w_cvr", "Spend x CVR", "ratio", "Ad spend x product CVR.",
-              lambda df, ctx: df["spend"] * df["cvr"], "={c:spend}*{c:cvr}", width=11),
-    ColumnDef("w_aov", "Spend x order value", "ratio", "Ad spend x product order value.",
-              lambda df, ctx: df["spend"] * df["aov"], "={c:spend}*{c:aov}", width=11),
-    ColumnDef("w_price", "Spend x price", "ratio", "Ad spend x product price.",
-              lambda df, ctx: df["spend"] * df["price"], "={c:spend}*{c:price}", width=11),
+    _weighted("w_cvr", "Weight x CVR", "prod_cvr", "Blend weight x the product's ad conversion rate (Profit)."),
+    _weighted("w_aov", "Weight x order value", "prod_aov", "Blend weight x the product's ad sales per order (Profit)."),
+    _weighted("w_price", "Weight x price", "prod_price",
+              "Blend weight x the product's price (its order value without one) (Profit)."),
     ColumnDef("prow", "Profit row", "int", "Helper: the product's position on Profit.",
               lambda df, ctx: df["prow"], kind=DATA, width=8, hidden=True),
     ColumnDef("ad_first", "Ad first row", "int", "Helper: first of the rows on in_ad_products.",
@@ -86,7 +83,7 @@ BLEND_DEFS: list[ColumnDef] = blend_columns()
 
 def group_frame(ad_layout: InputSheet | None, profit: pd.DataFrame) -> pd.DataFrame:
     """One row per (campaign, ad group, product), sorted by campaign and ad group."""
-    columns = ["campaign", "ad_group", "product_id", "spend", "prow", "ad_first", "ad_last"]
+    columns = ["campaign", "ad_group", "product_id", "spend", "weight", "prow", "ad_first", "ad_last"]
     if ad_layout is None or not len(ad_layout.frame):
         return pd.DataFrame(columns=columns)
     frame = ad_layout.frame
@@ -100,6 +97,8 @@ def group_frame(ad_layout: InputSheet | None, profit: pd.DataFrame) -> pd.DataFr
     out["prow"] = out["product_id"].map(prow)
     for c in ("ad_first", "ad_last", "prow"):
         out[c] = out[c].astype(float)
+    group_spend = out.groupby(["campaign", "ad_group"])["spend"].transform("sum")
+    out["weight"] = out["spend"].where(group_spend != 0, 1.0).astype(float)
     return out[columns].astype({"campaign": object, "ad_group": object, "product_id": object})
 
 

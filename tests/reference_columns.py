@@ -49,7 +49,7 @@ UNCOVERED = {
     **{("Terms", h): _EXPORT_HELPER for h in ("Targeted position", "Negated position")},
     **{("Blends", h): _BLENDS for h in ("Target ACoS", "Product CVR", "Product order value", "Product price",
                                         "Zero-order clicks", "Target check")},
-    ("Blends", "Group spend"): _NO_ORACLE,
+    ("Blends", "Group weight"): _NO_ORACLE,
     **{("Terms", h): _LIST_KEY for h in ("Promoted terms key", "Blocked terms key")},
     **{("Harvest", h): _HELPER for h in ("Value bid", "Terms row")},
     ("Harvest", "Source negatives key"): _LIST_KEY,
@@ -59,9 +59,8 @@ UNCOVERED = {
     **{("Budget products", h): _HELPER for h in ("Spend to cut", "Revenue to grow", "Final / current")},
     ("Budget campaigns", "Changes key"): _LIST_KEY,
     **{("Budget links", h): _NO_ORACLE for h in ("Ad spend", "Spend change", "Spend x change")},
-    **{("Groups", h): _NO_ORACLE for h in ("Ad spend", "Target ACoS", "Product CVR", "Product order value",
-                                           "Product price", "Spend x target ACoS", "Spend x CVR",
-                                           "Spend x order value", "Spend x price")},
+    **{("Groups", h): _NO_ORACLE for h in ("Ad spend", "Blend weight", "Weight x target ACoS", "Weight x CVR",
+                                           "Weight x order value", "Weight x price")},
     **{("Actions", h): "compared with the independent tests/oracle_actions.py in tests/test_change_list.py "
                        "(cached and LibreOffice values, rows matched by the change they make)"
        for h in ("Kind", "Campaign", "Ad group", "Target or term", "Match type", "Current", "New", "Reason",
