@@ -62,8 +62,13 @@ def _s_cvr(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     return blank_div(df["orders"] + k * df["p_cvr"], df["clicks"] + k)
 
 
+def _order_value(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    blend = ctx.blends["p_aov"].to_numpy(dtype=float)[df["brow"].to_numpy(dtype=int) - 1]
+    return blank_div(df["ad_sales"], df["orders"]).where(df["orders"] > 0, pd.Series(blend, index=df.index))
+
+
 def _s_acos(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
-    value = df["s_cvr"] * df["order_value"]
+    value = df["s_cvr"] * _order_value(df, ctx)
     out = blank_div(df["cpc"], value)
     return out.where(df["cpc"].notna() & df["s_cvr"].notna())
 
@@ -111,7 +116,7 @@ def _raw(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
 
 def _proposed(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     s = ctx.settings
-    rounded = df["raw"].map(lambda v: round_half_away(v + ROUNDING_NUDGE, 2))
+    rounded = _raw(df, ctx).map(lambda v: round_half_away(v + ROUNDING_NUDGE, 2))
     raising = df["rule"].isin(RAISING_RULES)
     low = np.where(raising, s.bid_floor, np.minimum(s.bid_floor, df["bid"]))
     high = np.where(raising, np.maximum(s.bid_ceiling, df["bid"]), s.bid_ceiling)
@@ -121,7 +126,7 @@ def _proposed(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
 
 def _reason(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     out = []
-    for rule, raw, proposed, n in zip(df["rule"], df["raw"], df["proposed"], df["n_zero"]):
+    for rule, raw, proposed, n in zip(df["rule"], _raw(df, ctx), df["proposed"], df["n_zero"]):
         rounded = round_half_away(raw + ROUNDING_NUDGE, 2)
         if rule in MOVING_RULES and proposed != rounded:
             out.append("held at bid ceiling" if rounded > proposed else "held at bid floor")
@@ -135,6 +140,12 @@ _RULE = ('=IF({c:clicks}=0,1,IF({c:orders}=0,IF({c:clicks}<min_clicks,3,'
          'IF({c:value_bid}="",4,IF({c:value_bid}>{c:bid},IF({c:value_bid}>{c:bid}*(1+max_bid_raise),9,6),'
          'IF({c:value_bid}<{c:bid},%s,8)))))')
 _LOWER = "IF({c:value_bid}<{c:bid}*(1-max_bid_cut),10,7)"
+# The proposal before rounding, floor and ceiling, by rule (written inside the formulas that round it).
+_RAW = ('CHOOSE({c:rule},{c:bid},{c:bid}*(1-max_bid_cut),{c:bid},{c:bid},{c:bid},{c:value_bid},'
+        '{c:value_bid},{c:bid},{c:bid}*(1+max_bid_raise),{c:bid}*(1-max_bid_cut))')
+_ROUNDED = "ROUND(%s+0.000000001,2)" % _RAW
+# The target's order value: its own ad sales per order, or its ad group's blend when it has no orders.
+_ORDER_VALUE = "IF({c:orders}>0,{c:ad_sales}/{c:orders},INDEX({rng:blends.p_aov},{c:brow}))"
 _MOVING = "OR({c:rule}=2,{c:rule}=6,{c:rule}=7,{c:rule}=9,{c:rule}=10)"
 _RAISING = "OR({c:rule}=6,{c:rule}=9)"
 _REASON_CHOICES = ",".join('"' + REASONS[i].replace("{n}", '"&{c:n_zero}&"') + '"' for i in range(1, 11))
@@ -177,14 +188,14 @@ DEFS: list[ColumnDef] = [
               "A step from the current bid toward the value bid, within the caps, floor and ceiling; or the "
               "zero-order cut; or the current bid when held.",
               _proposed, '=IF(%s,MIN(IF(%s,MAX(bid_ceiling,{c:bid}),bid_ceiling),MAX(IF(%s,bid_floor,'
-                         'MIN(bid_floor,{c:bid})),ROUND({c:raw}+0.000000001,2))),{c:bid})'
-              % (_MOVING, _RAISING, _RAISING), width=9),
+                         'MIN(bid_floor,{c:bid})),%s)),{c:bid})'
+              % (_MOVING, _RAISING, _RAISING, _ROUNDED), width=9),
     ColumnDef("change", "Change", "percent", "Proposed bid / current bid - 1.",
               lambda df, ctx: blank_div(df["proposed"], df["bid"]) - 1,
               '=IF({c:bid}=0,"",{c:proposed}/{c:bid}-1)', width=8),
     ColumnDef("reason", "Reason", "label", "Which rule decided the row.", _reason,
-              '=IF(AND(%s,{c:proposed}<>ROUND({c:raw}+0.000000001,2)),IF(ROUND({c:raw}+0.000000001,2)>{c:proposed},"held at bid ceiling",'
-              '"held at bid floor"),CHOOSE({c:rule},%s))' % (_MOVING, _REASON_CHOICES), width=30),
+              '=IF(AND(%s,{c:proposed}<>%s),IF(%s>{c:proposed},"held at bid ceiling",'
+              '"held at bid floor"),CHOOSE({c:rule},%s))' % (_MOVING, _ROUNDED, _ROUNDED, _REASON_CHOICES), width=30),
     ColumnDef("decision", "Decision", "text_input",
               "Input: leave blank to follow the proposal, type a bid to use it, or 'keep' to keep the current bid.",
               lambda df, ctx: df["decision"], kind=INPUT, width=10),
@@ -205,24 +216,18 @@ DEFS: list[ColumnDef] = [
               lambda df, ctx: df["trow"], kind=DATA, width=8),
     blends_row_column(),
     fetch("p_cvr", "Product CVR", "percent", "Working: the product's (or blend's) ad conversion rate."),
-    ColumnDef("order_value", "Order value", "money",
-              "Working: the target's ad sales / orders, or the product's order value when it has no orders.",
-              lambda df, ctx: blank_div(df["ad_sales"], df["orders"]).where(
-                  df["orders"] > 0, ctx.blends["p_aov"].to_numpy(dtype=float)[df["brow"].to_numpy(dtype=int) - 1]),
-              '=IF({c:orders}>0,{c:ad_sales}/{c:orders},INDEX({rng:blends.p_aov},{c:brow}))', width=9, hidden=True),
     ColumnDef("s_cvr", "Smoothed CVR", "percent", "Working: (orders + k x product CVR) / (clicks + k).",
               _s_cvr, '=IF({c:clicks}+prior_clicks=0,"",({c:orders}+prior_clicks*{c:p_cvr})/({c:clicks}+prior_clicks))',
               width=9, hidden=True),
-    ColumnDef("s_acos", "Smoothed ACoS", "percent", "Working: CPC / (smoothed CVR x order value).",
-              _s_acos, '=IF(OR({c:cpc}="",{c:s_cvr}=""),"",IF({c:s_cvr}*{c:order_value}=0,"",'
-                       '{c:cpc}/({c:s_cvr}*{c:order_value})))', width=9, hidden=True),
+    ColumnDef("s_acos", "Smoothed ACoS", "percent",
+              "Working: CPC / (smoothed CVR x order value); the order value is the target's own ad sales per order, "
+              "or its ad group's blend when it has no orders.",
+              _s_acos, '=IF(OR({c:cpc}="",{c:s_cvr}=""),"",IF({c:s_cvr}*%s=0,"",{c:cpc}/({c:s_cvr}*%s)))'
+              % (_ORDER_VALUE, _ORDER_VALUE), width=9, hidden=True),
     fetch("n_zero", "Zero-order clicks", "int",
           "Working: clicks after which zero orders are unlikely at the product's CVR."),
     ColumnDef("rule", "Rule", "int", "Working: which rule decided the row (1 to 10, see the Guide).",
               _rule, _RULE % (_LOWER, _LOWER), width=6, hidden=True),
-    ColumnDef("raw", "Unrounded bid", "money", "Working: the proposal before rounding, floor and ceiling.",
-              _raw, '=CHOOSE({c:rule},{c:bid},{c:bid}*(1-max_bid_cut),{c:bid},{c:bid},{c:bid},{c:value_bid},'
-                    '{c:value_bid},{c:bid},{c:bid}*(1+max_bid_raise),{c:bid}*(1-max_bid_cut))', width=9, hidden=True),
 ]
 # Copied one-to-one from the target's in_targets row, or computed only from such copies: plain values.
 EXPORTS = ("impressions", "clicks", "spend", "ad_sales", "orders", "cpc", "cvr", "acos", "bid")

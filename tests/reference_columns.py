@@ -44,7 +44,7 @@ _NO_ORACLE = "no independent reference exists for this table yet; only the plann
 UNCOVERED = {
     **{("Profit", h): _HELPER for h in ("Ad clicks", "Ad orders", "Product CVR", "Product order value",
                                         "Product price", "Gross profit before ads", "Revenue with a margin")},
-    **{("Bids", h): _HELPER for h in ("Order value", "Rule", "Unrounded bid", "Moves")},
+    **{("Bids", h): _HELPER for h in ("Rule", "Moves")},
     ("Bids", "Changes key"): _LIST_KEY,
     **{("Terms", h): _EXPORT_HELPER for h in ("Targeted position", "Negated position")},
     **{("Blends", h): _BLENDS for h in ("Target ACoS", "Product CVR", "Product order value", "Product price",
