@@ -288,8 +288,8 @@ def plan_bids(targets: InputSheet, campaigns: pd.DataFrame | None, groups: Plann
     highlights.append(Highlight(keys.index("reason"), "no orders after", "Plum", begins=True))
     above = [[Cell("Bid plan: a proposed bid for every live keyword and product target", style="title")],
              [Cell("Decision aid only: review before changing a live ad account. Type a bid or 'keep' in Decision "
-                   "to override a proposal; the working columns to the right of Final bid are hidden.",
-                   style="note")]]
+                   "to override a proposal. Grey figures are copied from in_targets (Target row); black ones follow "
+                   "your inputs. The working columns to the right are hidden.", style="note")]]
     sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, planned.columns, highlights=highlights),
                   freeze=(HEADER_ROW + 1, 3), validations=validations, tab_color="#063F63")
     return sheet, planned

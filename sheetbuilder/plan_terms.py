@@ -519,7 +519,9 @@ def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, t
     highlights += [Highlight(col, "promote", "Ocean"), Highlight(col, "block", "Plum")]
     above = [[Cell("Customer search terms: what to promote, what to block", style="title")],
              [Cell("Decision aid only: review before changing a live ad account. Type a Decision to override a "
-                   "verdict; the Harvest and Negatives lists follow the Final column.", style="note")]]
+                   "verdict; the Harvest and Negatives lists follow the Final column. Grey figures are summed from the "
+                   "term's rows on in_search_terms (Term first row to Term last row); black ones follow your inputs.",
+                   style="note")]]
     sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, planned.columns, highlights=highlights),
                   freeze=(HEADER_ROW + 1, 5), validations=validations, tab_color="#3A2A78")
     return sheet, planned, keys_sheet, keys
