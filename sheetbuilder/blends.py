@@ -1,4 +1,10 @@
-"""Ad-group blends shared by the Bids and Terms sheets.
+"""Ad-group blends shared by the Bids and Terms sheets, computed once per ad group.
+
+The blends table on the Groups sheet holds one row per ad group (after a first row with
+the account's values): its block of product rows on Groups, its spend, and the blended
+target ACoS, CVR, order value, price, zero-order clicks and target check. A Bids or Terms
+row fetches what it needs with one INDEX on its blends row, written as data, so no blend
+is recomputed per keyword or per search term.
 
 A row that belongs to an ad group (a target, a search term) takes its product's values
 from that ad group's block of rows on the Groups sheet: the first and last positions
@@ -9,6 +15,7 @@ the account's values stand in.
 """
 from __future__ import annotations
 
+from dataclasses import dataclass, field
 from typing import Any, Callable
 
 import numpy as np
@@ -23,10 +30,9 @@ def block_sum(column: str) -> str:
     return "SUM(INDEX({rng:groups.%s},{c:gfirst}):INDEX({rng:groups.%s},{c:glast}))" % (column, column)
 
 
-def blend_formula(plain: str, weighted: str, fallback: str) -> str:
-    """Spend-weighted blend over the ad group's products; equal weights when it has no spend."""
-    return ('=IF({c:gfirst}="",%s,IF({c:g_spend}=0,%s/({c:glast}-{c:gfirst}+1),%s/{c:g_spend}))'
-            % (fallback, block_sum(plain), block_sum(weighted)))
+def blend_formula(weighted: str, fallback: str) -> str:
+    """The blend over the ad group's products, weighted by the Groups weights (the account's value without one)."""
+    return '=IF({c:gfirst}="",%s,%s/{c:g_weight})' % (fallback, block_sum(weighted))
 
 
 def block_sums(df: pd.DataFrame, groups: pd.DataFrame, column: str) -> pd.Series:
@@ -41,13 +47,10 @@ def block_sums(df: pd.DataFrame, groups: pd.DataFrame, column: str) -> pd.Series
     return df["gfirst"].map(by_first)
 
 
-def blend(plain: str, weighted: str, fallback: Callable[[Any], float]):
+def blend(weighted: str, fallback: Callable[[Any], float]):
     """Reference of blend_formula, computed per ad group with pandas."""
     def compute(df: pd.DataFrame, ctx: Any) -> pd.Series:
-        count = df["glast"] - df["gfirst"] + 1
-        equal = block_sums(df, ctx.groups, plain) / count
-        weighted_mean = block_sums(df, ctx.groups, weighted) / df["g_spend"].where(df["g_spend"] != 0)
-        out = weighted_mean.where(df["g_spend"] != 0, equal)
+        out = block_sums(df, ctx.groups, weighted) / df["g_weight"]
         return out.where(df["gfirst"].notna(), fallback(ctx)).astype(float)
     return compute
 
@@ -59,7 +62,9 @@ def attach_groups(frame: pd.DataFrame, groups: pd.DataFrame) -> pd.DataFrame:
                            "product_id": groups["product_id"]})
     agg = blocks.groupby(["campaign", "ad_group"], sort=False).agg(
         gfirst=("pos", "min"), glast=("pos", "max"), products=("product_id", list))
+    agg["brow"] = np.arange(2, len(agg) + 2, dtype=float)  # row 1 of the blends table holds the account's values
     out = frame.join(agg, on=["campaign", "ad_group"])
+    out["brow"] = out["brow"].fillna(1.0)
     out["products"] = out["products"].map(lambda p: p if isinstance(p, list) else [])
     out["product_label"] = out["products"].map(
         lambda p: "" if not p else (p[0] if len(p) == 1 else "shared: " + ", ".join(p)))
@@ -68,31 +73,95 @@ def attach_groups(frame: pd.DataFrame, groups: pd.DataFrame) -> pd.DataFrame:
     return out
 
 
-def group_columns() -> list[ColumnDef]:
-    """The hidden working columns every ad-group row carries: block positions and blends."""
+BLEND_TITLE = ("Ad-group blends: each ad group's values computed once, blended by its products' ad spend "
+               "(row 1: the account's values, for targets whose ad group advertises no product)")
+
+
+@dataclass
+class BlendContext:
+    """What the blends table's references read: the Groups frame, the settings and the account's values."""
+
+    groups: pd.DataFrame
+    settings: Any
+    account_cvr: float
+    account_aov: float
+    totals: dict[str, Any] = field(default_factory=dict)
+
+
+def blend_frame(groups: pd.DataFrame) -> pd.DataFrame:
+    """One row per ad group of the Groups sheet (its block's first and last rows), after the account's row."""
+    pos = np.arange(1, len(groups) + 1, dtype=float)
+    blocks = pd.DataFrame({"campaign": groups["campaign"].to_numpy(), "ad_group": groups["ad_group"].to_numpy(),
+                           "pos": pos})
+    agg = blocks.groupby(["campaign", "ad_group"], sort=False).agg(gfirst=("pos", "min"), glast=("pos", "max"))
+    agg = agg.reset_index()
+    account = pd.DataFrame({"campaign": ["(account)"], "ad_group": ["(no products)"], "gfirst": [np.nan],
+                            "glast": [np.nan]})
+    out = pd.concat([account, agg], ignore_index=True)
+    return out.astype({"campaign": object, "ad_group": object, "gfirst": float, "glast": float})
+
+
+def _target_check(df: pd.DataFrame, ctx: Any) -> pd.Series:
+    above = block_sums(df, ctx.groups, "above").fillna(0.0) > 0
+    text = "target capped at break-even" if ctx.settings.cap_target_at_break_even == "yes" else \
+        "target above break-even"
+    return pd.Series(np.where(above, text, ""), index=df.index, dtype=object)
+
+
+def blend_columns() -> list[ColumnDef]:
+    """The blends table: per ad group, its block on Groups, its spend and the blended values, computed once."""
     return [
-        ColumnDef("gfirst", "Group first row", "int", "Helper: first of the ad group's rows on Groups.",
-                  lambda df, ctx: df["gfirst"], kind=DATA, width=8, hidden=True),
-        ColumnDef("glast", "Group last row", "int", "Helper: last of the ad group's rows on Groups.",
-                  lambda df, ctx: df["glast"], kind=DATA, width=8, hidden=True),
-        ColumnDef("g_spend", "Group spend", "money", "Working: the ad group's ad spend (the blend's weights).",
-                  lambda df, ctx: block_sums(df, ctx.groups, "spend").fillna(0.0),
-                  '=IF({c:gfirst}="",0,%s)' % block_sum("spend"), width=9, hidden=True),
-        ColumnDef("p_cvr", "Product CVR", "percent", "Working: the product's (or blend's) ad conversion rate.",
-                  blend("cvr", "w_cvr", lambda ctx: ctx.account_cvr),
-                  blend_formula("cvr", "w_cvr", "{rng:profit_total.prod_cvr}"), width=9, hidden=True),
-        ColumnDef("p_aov", "Product order value", "money", "Working: the product's (or blend's) ad sales per order.",
-                  blend("aov", "w_aov", lambda ctx: ctx.account_aov),
-                  blend_formula("aov", "w_aov", "{rng:profit_total.prod_aov}"), width=9, hidden=True),
+        ColumnDef("campaign", "Campaign", "text", "The campaign.", lambda df, ctx: df["campaign"], kind=DATA, width=24),
+        ColumnDef("ad_group", "Ad group", "text", "The ad group.", lambda df, ctx: df["ad_group"], kind=DATA, width=22),
+        ColumnDef("gfirst", "Group first row", "int", "First of the ad group's rows in the table above.",
+                  lambda df, ctx: df["gfirst"], kind=DATA, width=8),
+        ColumnDef("glast", "Group last row", "int", "Last of the ad group's rows in the table above.",
+                  lambda df, ctx: df["glast"], kind=DATA, width=8),
+        ColumnDef("g_weight", "Group weight", "money",
+                  "The sum of the ad group's blend weights (its ad spend, or its count of products without spend).",
+                  lambda df, ctx: block_sums(df, ctx.groups, "weight").fillna(0.0),
+                  '=IF({c:gfirst}="",0,%s)' % block_sum("weight"), width=12, export=True),
+        target_acos_column(),
+        ColumnDef("p_cvr", "Product CVR", "percent", "The product's (or blend's) ad conversion rate.",
+                  blend("w_cvr", lambda ctx: ctx.account_cvr),
+                  blend_formula("w_cvr", "{rng:profit_total.prod_cvr}"), width=10),
+        ColumnDef("p_aov", "Product order value", "money", "The product's (or blend's) ad sales per order.",
+                  blend("w_aov", lambda ctx: ctx.account_aov),
+                  blend_formula("w_aov", "{rng:profit_total.prod_aov}"), width=12),
+        ColumnDef("p_price", "Product price", "money", "The product's (or blend's) price: the block rule's yardstick.",
+                  blend("w_price", lambda ctx: ctx.account_aov),
+                  blend_formula("w_price", "{rng:profit_total.prod_aov}"), width=10),
+        zero_order_column(),
+        ColumnDef("target_check", "Target check", "label",
+                  "Where a product of the ad group has a target ACoS above its break-even ACoS (see Profit).",
+                  _target_check, '=IF({c:gfirst}="","",IF(%s>0,IF(cap_target_at_break_even="yes",'
+                                 '"target capped at break-even","target above break-even"),""))' % block_sum("above"),
+                  width=22),
     ]
 
 
-def target_acos_column(visible: bool) -> ColumnDef:
-    """The blended target ACoS column (visible on Bids, a working column on Terms)."""
+def fetch(key: str, header: str, style: str, help: str, hidden: bool = True, width: float = 9) -> ColumnDef:
+    """A Bids or Terms column fetching its ad group's blended value: one INDEX on the row's blends row."""
+    def compute(df: pd.DataFrame, ctx: Any) -> pd.Series:
+        values = ctx.blends[key].to_numpy(dtype=object)
+        out = values[df["brow"].to_numpy(dtype=int) - 1] if len(df) else []
+        return pd.Series(out, index=df.index, dtype=object if style == "label" else float)
+    return ColumnDef(key, header, style, help, compute, "=INDEX({rng:blends.%s},{c:brow})" % key, width=width,
+                     hidden=hidden)
+
+
+def blends_row_column() -> ColumnDef:
+    """The row's position on the blends table (data): where its ad group's blended values are."""
+    return ColumnDef("brow", "Blends row", "int", "Helper: the ad group's row in the ad-group blends table on Groups.",
+                     lambda df, ctx: df["brow"], kind=DATA, width=8, hidden=True)
+
+
+def target_acos_column() -> ColumnDef:
+    """The blended target ACoS of an ad group."""
     return ColumnDef("target_acos", "Target ACoS", "percent",
                      "The product's target ACoS (Profit), or the ad group's spend-weighted blend.",
-                     blend("target_acos", "w_target", lambda ctx: ctx.settings.default_target_acos),
-                     blend_formula("target_acos", "w_target", "default_target_acos"), width=9, hidden=not visible)
+                     blend("w_target", lambda ctx: ctx.settings.default_target_acos),
+                     blend_formula("w_target", "default_target_acos"), width=10)
 
 
 def zero_order_column() -> ColumnDef:

@@ -15,7 +15,7 @@ import numpy as np
 import pandas as pd
 
 from .formula import col_letter, quote_sheet, resolve
-from .spec import FORMULA, Cell, Column
+from .spec import DATA, FORMULA, Cell, Column
 
 Reference = Callable[[pd.DataFrame, Any], Any]
 
@@ -37,6 +37,9 @@ class ColumnDef:
         total: template of the totals-row cell: {sum:key} is the sum of a column's body,
             {t:key} another totals-row cell; None leaves it blank.
         total_reference: pandas computation of the totals-row value.
+        export: the column's value is copied from the exports (or computed only from such copies), so no
+            input cell can change it: it is written as a plain value in the grey export style and the
+            formula stays here only as the method's statement (see :func:`exports_only`).
     """
 
     key: str
@@ -50,6 +53,23 @@ class ColumnDef:
     hidden: bool = False
     total: str | None = None
     total_reference: Reference | None = None
+    export: bool = False
+
+
+def exports_only(defs: list[ColumnDef], keys: tuple[str, ...] | list[str]) -> list[ColumnDef]:
+    """defs with the columns named in keys marked export: values no input cell can change.
+
+    The rule: a column is export-only when its reference reads nothing but exported figures copied
+    one-to-one (or summed over a block of one key's rows) from an in_ sheet, or other export-only
+    columns. A cost, price, fee, target, threshold, setting or Decision reaching it keeps it live.
+    """
+    unknown = set(keys) - {d.key for d in defs}
+    if unknown:
+        raise ValueError(f"exports_only names columns the table does not have: {sorted(unknown)}")
+    return [replace(d, export=True) if d.key in keys else d for d in defs]
+
+
+EXPORT_STYLE = "_export"  # the style suffix of export-only cells (palette: grey text)
 
 
 @dataclass(frozen=True)
@@ -234,27 +254,38 @@ def word_decision_formula(fallback: str, words: tuple[str, ...]) -> str:
 
 def running_key(prefix: str, what: str, condition: str, qualifies: Callable[[pd.DataFrame], pd.Series],
                 position: str = "pos") -> list[ColumnDef]:
-    """The two hidden columns of the macro-free live list: a running count and a strictly increasing key.
+    """The one hidden column of the macro-free live list: a strictly increasing key holding the running count.
 
     A qualifying row's key is its running count k exactly; any other row's key is its count plus
-    position / (rows + 1), a fraction that grows with the row. So MATCH(k, key, 1), a binary search,
-    lands on the k-th qualifying row. condition is the formula test of a qualifying row, qualifies
-    its pandas twin; position names the frame column holding the row's 1-based position, and the
-    frame's n_plus column holds rows + 1 (both written into the formula per row).
+    position / (rows + 1), a fraction below 1 that grows with the row. So the running count is
+    INT of the key (INT of the previous row's key, plus 1 on a qualifying row), and MATCH(k, key, 1),
+    a binary search, lands on the k-th qualifying row. condition is the formula test of a qualifying
+    row, qualifies its pandas twin; position names the frame column holding the row's 1-based
+    position, and the frame's n_plus column holds rows + 1 (both written into the formula per row).
+    The count of qualifying rows is INT of the last key (:func:`count_formula`, :func:`count_of`).
     """
-    cnt, key = f"{prefix}_cnt", f"{prefix}_key"
-
-    def count(df: pd.DataFrame, ctx: Any) -> pd.Series:
-        return qualifies(df).astype(float).cumsum()
+    key = f"{prefix}_key"
 
     def helper(df: pd.DataFrame, ctx: Any) -> pd.Series:
-        return df[cnt] + (df[position] / (len(df) + 1)).where(~qualifies(df), 0.0)
+        hit = qualifies(df)
+        return hit.astype(float).cumsum() + (df[position] / (len(df) + 1)).where(~hit, 0.0)
     return [
-        ColumnDef(cnt, f"{what} count", "int", f"Working: running count of {what.lower()}.", count,
-                  "=SUM({cp:%s})+IF(%s,1,0)" % (cnt, condition), width=6, hidden=True),
-        ColumnDef(key, f"{what} key", "ratio", "Working: strictly increasing key; MATCH(k) finds the k-th.", helper,
-                  "={c:%s}+IF(%s,0,{row:%s}/{row:n_plus})" % (cnt, condition, position), width=6, hidden=True),
+        ColumnDef(key, f"{what} key", "ratio",
+                  f"Working: running count of {what.lower()} (whole part); a strictly increasing key, so "
+                  "MATCH(k) finds the k-th.", helper,
+                  "=INT(SUM({cp:%s}))+IF(%s,1,{row:%s}/{row:n_plus})" % (key, condition, position), width=6,
+                  hidden=True),
     ]
+
+
+def count_of(frame: pd.DataFrame, prefix: str) -> float:
+    """How many rows of a planned table qualify for its running key (0 for an empty table)."""
+    return float(np.floor(frame[f"{prefix}_key"].iloc[-1])) if len(frame) else 0.0
+
+
+def count_formula(ranges: dict[str, str], table: str, prefix: str) -> str:
+    """Formula text (no '=') of that count: INT of the table's last key."""
+    return f"INT({ranges[f'{table}_last.{prefix}_key']})"
 
 
 def as_cell_values(series: pd.Series) -> list:
@@ -358,6 +389,10 @@ def plan_table(defs: list[ColumnDef], base: pd.DataFrame, ctx: Any, first_body_r
         if d.total_reference is not None:
             totals_values[d.key] = d.total_reference(frame, ctx)
     for d in defs:
+        if d.export:  # a value no input can change: written as data, in the export style
+            columns.append(Column(d.header, d.style.split("_")[0] + EXPORT_STYLE, DATA, as_cell_values(frame[d.key]),
+                                  None, d.width, d.hidden))
+            continue
         formula = resolve(d.formula, lookup) if d.formula else None
         if formula and "{row:" in formula:  # per-row numbers written into the formula (a direct reference)
             formula = _per_row(formula, frame)

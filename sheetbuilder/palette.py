@@ -36,6 +36,8 @@ _BASE = {"font_name": "Arial", "font_size": 10, "valign": "top"}
 _INPUT = {"bg_color": INPUT_FILL, "font_color": INPUT_FONT, "border": 4, "border_color": "#A08A4A",
           "locked": False}
 _TOTAL = {"bold": True, "top": 1}
+EXPORT_FONT = "#7A7A7A"  # figures copied from the exports: grey, they do not follow any input
+_EXPORT = {"font_color": EXPORT_FONT}
 CARRIED_FILL = "#F8D7B0"  # an input carried from last week's workbook: its own fill, so it is seen
 _CARRIED = {**_INPUT, "bg_color": CARRIED_FILL, "italic": True}
 
@@ -66,6 +68,7 @@ for _name, _fmt in NUMBER_FORMATS.items():
     STYLES[_name + "_input"] = {**_num, **_INPUT}
     STYLES[_name + "_carried"] = {**_num, **_CARRIED}
     STYLES[_name + "_total"] = {**_num, **_TOTAL}
+    STYLES[_name + "_export"] = {**_num, **_EXPORT}
     STYLES[_name + "_left"] = {**_num, "align": "left", "bold": True}
 for _state in STATES.values():
     STYLES["state_" + _state.name] = {"bg_color": _state.fill, "font_color": _state.font}

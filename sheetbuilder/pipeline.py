@@ -85,19 +85,20 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
     sections = [("Profit columns", PROFIT_DEFS)]
     ranges = {f"{t}.{col}": r for t, layout in layouts.items() for col, r in layout.ranges.items()}
     ranges.update(profit.ranges(profit_sheet.name, "profit"))
-    groups_sheet, groups = plan_groups(layouts.get("ad_products"), profit, ranges)
+    groups_sheet, groups, blends = plan_groups(layouts.get("ad_products"), profit, ranges, settings)
     ranges.update(groups.ranges(groups_sheet.name, "groups"))
+    ranges.update(blends.ranges(groups_sheet.name, "blends"))
     after: list = []
     if "targets" in layouts:
         bids_sheet, bids = plan_bids(layouts["targets"], inputs.get("campaigns"), groups, profit, settings, ranges,
-                                     decide.column)
+                                     decide.column, blends=blends)
         sheets.append(bids_sheet)
         tables["Bids"] = bids
         sections.append(("Bids columns", BIDS_DEFS))
     if "search_terms" in layouts and len(layouts["search_terms"].frame):
         terms_sheet, terms, keys_sheet, _ = plan_terms(layouts["search_terms"], groups, profit, inputs.get("targets"),
                                                        inputs.get("campaigns"), inputs.get("negatives"), settings,
-                                                       ranges, decide.column)
+                                                       ranges, decide.column, blends=blends)
         ranges.update(terms.ranges(terms_sheet.name, "terms"))
         sheets.append(terms_sheet)
         tables["Terms"] = terms
@@ -121,6 +122,7 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
     if "targets" in layouts or "search_terms" in layouts:
         sheets.append(groups_sheet)
         tables["Groups"] = groups
+        tables["Blends"] = blends
         sections.append(("Groups columns", GROUPS_DEFS))
     sheets += after
     if "Bids" in tables:

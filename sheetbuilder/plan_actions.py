@@ -22,7 +22,8 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .columns import ColumnDef, PlannedTable, plan_table
+from .columns import ColumnDef, PlannedTable, count_formula, plan_table
+from .plan_lists import SPARE_ROWS
 from .settings import Settings
 from .spec import DATA, Cell, Sheet, Table
 
@@ -76,10 +77,10 @@ def defs(totals: list[str]) -> list[ColumnDef]:
     cum = [t[0], f"{t[0]}+{t[1]}", f"{t[0]}+{t[1]}+{t[2]}", f"{t[0]}+{t[1]}+{t[2]}+{t[3]}",
            f"{t[0]}+{t[1]}+{t[2]}+{t[3]}+{t[4]}"]
     seg = "=" + "".join(f"IF({{c:k}}<={c},{i + 1}," for i, c in enumerate(cum)) + "0" + ")" * 5
-    local = "={c:k}-IF({c:seg}<=1,0,IF({c:seg}=2,%s,IF({c:seg}=3,%s,IF({c:seg}=4,%s,%s))))" % tuple(cum[:4])
-    pos = ('=IF({c:seg}=0,"",IF({c:seg}=1,MATCH({c:j},{rng:bids.a_key},1),IF({c:seg}=2,{c:j},'
-           'IF({c:seg}=3,MATCH({c:j},{rng:harvest.n_key},1),IF({c:seg}=4,{c:j},'
-           'MATCH({c:j},{rng:budget_campaigns.c_key},1))))))')
+    # The change's number within its kind is k less the kinds before it; the source row follows from it.
+    pos = ('=IF({c:seg}=0,"",IF({c:seg}=1,MATCH({c:k},{rng:bids.a_key},1),IF({c:seg}=2,{c:k}-(%s),'
+           'IF({c:seg}=3,MATCH({c:k}-(%s),{rng:harvest.n_key},1),IF({c:seg}=4,{c:k}-(%s),'
+           'MATCH({c:k}-(%s),{rng:budget_campaigns.c_key},1))))))' % tuple(cum[:4]))
     kind = ('=IF({c:seg}=0,"",IF({c:seg}=1,"bid",IF({c:seg}=2,IF(INDEX({rng:harvest.kind},{c:pos})="product target",'
             '"add product target","add keyword"),IF({c:seg}=5,"budget","add negative"))))')
     return [
@@ -126,10 +127,6 @@ def defs(totals: list[str]) -> list[ColumnDef]:
                   lambda df, ctx: pd.Series([ctx.changes[int(k) - 1]["_seg"] if k <= len(ctx.changes) else 0
                                              for k in df["k"]], index=df.index, dtype=float), seg, width=6,
                   hidden=True),
-        ColumnDef("j", "Number in its kind", "int", "Working: the change's number within its kind.",
-                  lambda df, ctx: pd.Series([ctx.changes[int(k) - 1]["_j"] if k <= len(ctx.changes) else k
-                                             for k in df["k"]], index=df.index, dtype=float),
-                  local, width=6, hidden=True),
         ColumnDef("pos", "Source row", "int", "Working: the change's row on its source sheet.",
                   _num("_pos"), pos, width=6, hidden=True),
     ]
@@ -195,10 +192,11 @@ def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settin
     count_cells = []
     totals = []
     def capped(word: str, table: str) -> str:
-        return f"MIN({ranges[f'terms_last.{word}_cnt']},{len(tables[table].frame)})"
-    sources = [("Bids", lambda: ranges["bids_last.a_cnt"]), ("Harvest", lambda: capped("p", "Harvest")),
-               ("Harvest", lambda: ranges["harvest_last.n_cnt"]), ("Negatives", lambda: capped("b", "Negatives")),
-               ("Budget campaigns", lambda: ranges["budget_campaigns_last.c_cnt"])]
+        return f"MIN({count_formula(ranges, 'terms', word)},{len(tables[table].frame)})"
+    sources = [("Bids", lambda: count_formula(ranges, "bids", "a")), ("Harvest", lambda: capped("p", "Harvest")),
+               ("Harvest", lambda: count_formula(ranges, "harvest", "n")),
+               ("Negatives", lambda: capped("b", "Negatives")),
+               ("Budget campaigns", lambda: count_formula(ranges, "budget_campaigns", "c"))]
     for table, total in sources:
         totals.append(total() if table in tables and len(tables[table].frame) else "0")
     labels = ["Bid changes", "To add", "Source negatives", "Negatives", "Budgets"]
@@ -207,14 +205,18 @@ def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settin
     rows = sum(sizes.values())
     static = ("Decision aid only: review every change before applying it to a live ad account. "
               "Export this list with: sheetbuilder changes WORKBOOK -o changes.csv")
-    n_rows = min(max(rows, 0), settings.actions_cap)
+    # Sized to the changes at build plus SPARE_ROWS of room (a Decision or threshold changed later), within
+    # every candidate row and actions_cap; the note says when more changes qualify than the list holds.
+    n_rows = max(0, min(rows, settings.actions_cap, len(changes) + SPARE_ROWS))
     base = pd.DataFrame({"k": np.arange(1, n_rows + 1, dtype=float)})
     ctx = ActionsContext(changes)
     total = "+".join(totals)
-    note_formula = (f'=IF({total}>{n_rows},"Showing the first {n_rows} of "&({total})&" changes; raise actions_cap '
-                    f'in settings.toml and rebuild to see them all.","{static}")')
-    note_value = (f"Showing the first {n_rows} of {len(changes)} changes; raise actions_cap in settings.toml and "
-                  "rebuild to see them all." if len(changes) > n_rows else static)
+    how = "raise actions_cap in settings.toml and rebuild" if n_rows >= settings.actions_cap else \
+        "rebuild the workbook"
+    note_formula = (f'=IF({total}>{n_rows},"Showing the first {n_rows} of "&({total})&" changes; {how} '
+                    f'to see them all.","{static}")')
+    note_value = (f"Showing the first {n_rows} of {len(changes)} changes; {how} to see them all."
+                  if len(changes) > n_rows else static)
     columns = defs(totals)
     needed = {m for d in columns for m in re.findall(r"\{rng:([\w.]+)\}", d.formula or "")}
     # A source this workbook lacks has a count of 0, so its branch is never taken; point it at blank cells.

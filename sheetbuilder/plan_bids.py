@@ -25,9 +25,9 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .blends import attach_groups, block_sum, block_sums, group_columns, target_acos_column, zero_order_column
-from .columns import (ColumnDef, PlannedTable, apply_decision, blank_div, decision_formula, editable, plan_table,
-                      running_key)
+from .blends import attach_groups, blends_row_column, fetch
+from .columns import (ColumnDef, PlannedTable, apply_decision, blank_div, decision_formula, editable, exports_only,
+                      plan_table, running_key)
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
 from .settings import Settings
@@ -49,9 +49,7 @@ class BidsContext:
     """What the Bids columns' references read besides the frame."""
 
     settings: Settings
-    groups: pd.DataFrame
-    account_cvr: float
-    account_aov: float
+    blends: pd.DataFrame
     totals: dict[str, Any] = field(default_factory=dict)
 
 
@@ -64,8 +62,13 @@ def _s_cvr(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     return blank_div(df["orders"] + k * df["p_cvr"], df["clicks"] + k)
 
 
+def _order_value(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    blend = ctx.blends["p_aov"].to_numpy(dtype=float)[df["brow"].to_numpy(dtype=int) - 1]
+    return blank_div(df["ad_sales"], df["orders"]).where(df["orders"] > 0, pd.Series(blend, index=df.index))
+
+
 def _s_acos(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
-    value = df["s_cvr"] * df["order_value"]
+    value = df["s_cvr"] * _order_value(df, ctx)
     out = blank_div(df["cpc"], value)
     return out.where(df["cpc"].notna() & df["s_cvr"].notna())
 
@@ -113,7 +116,7 @@ def _raw(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
 
 def _proposed(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     s = ctx.settings
-    rounded = df["raw"].map(lambda v: round_half_away(v + ROUNDING_NUDGE, 2))
+    rounded = _raw(df, ctx).map(lambda v: round_half_away(v + ROUNDING_NUDGE, 2))
     raising = df["rule"].isin(RAISING_RULES)
     low = np.where(raising, s.bid_floor, np.minimum(s.bid_floor, df["bid"]))
     high = np.where(raising, np.maximum(s.bid_ceiling, df["bid"]), s.bid_ceiling)
@@ -123,7 +126,7 @@ def _proposed(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
 
 def _reason(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     out = []
-    for rule, raw, proposed, n in zip(df["rule"], df["raw"], df["proposed"], df["n_zero"]):
+    for rule, raw, proposed, n in zip(df["rule"], _raw(df, ctx), df["proposed"], df["n_zero"]):
         rounded = round_half_away(raw + ROUNDING_NUDGE, 2)
         if rule in MOVING_RULES and proposed != rounded:
             out.append("held at bid ceiling" if rounded > proposed else "held at bid floor")
@@ -132,18 +135,17 @@ def _reason(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     return pd.Series(out, index=df.index, dtype=object)
 
 
-def _target_check(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
-    above = block_sums(df, ctx.groups, "above").fillna(0.0) > 0
-    text = "target capped at break-even" if ctx.settings.cap_target_at_break_even == "yes" else \
-        "target above break-even"
-    return pd.Series(np.where(above, text, ""), index=df.index, dtype=object)
-
-
 _RULE = ('=IF({c:clicks}=0,1,IF({c:orders}=0,IF({c:clicks}<min_clicks,3,'
          'IF(IF({c:n_zero}="",FALSE,{c:clicks}>={c:n_zero}),2,IF({c:value_bid}="",4,IF({c:value_bid}<{c:bid},%s,5)))),'
          'IF({c:value_bid}="",4,IF({c:value_bid}>{c:bid},IF({c:value_bid}>{c:bid}*(1+max_bid_raise),9,6),'
          'IF({c:value_bid}<{c:bid},%s,8)))))')
 _LOWER = "IF({c:value_bid}<{c:bid}*(1-max_bid_cut),10,7)"
+# The proposal before rounding, floor and ceiling, by rule (written inside the formulas that round it).
+_RAW = ('CHOOSE({c:rule},{c:bid},{c:bid}*(1-max_bid_cut),{c:bid},{c:bid},{c:bid},{c:value_bid},'
+        '{c:value_bid},{c:bid},{c:bid}*(1+max_bid_raise),{c:bid}*(1-max_bid_cut))')
+_ROUNDED = "ROUND(%s+0.000000001,2)" % _RAW
+# The target's order value: its own ad sales per order, or its ad group's blend when it has no orders.
+_ORDER_VALUE = "IF({c:orders}>0,{c:ad_sales}/{c:orders},INDEX({rng:blends.p_aov},{c:brow}))"
 _MOVING = "OR({c:rule}=2,{c:rule}=6,{c:rule}=7,{c:rule}=9,{c:rule}=10)"
 _RAISING = "OR({c:rule}=6,{c:rule}=9)"
 _REASON_CHOICES = ",".join('"' + REASONS[i].replace("{n}", '"&{c:n_zero}&"') + '"' for i in range(1, 11))
@@ -174,7 +176,9 @@ DEFS: list[ColumnDef] = [
     ColumnDef("acos", "ACoS", "percent", "Spend / ad sales.",
               lambda df, ctx: blank_div(df["spend"], df["ad_sales"]), '=IF({c:ad_sales}=0,"",{c:spend}/{c:ad_sales})',
               width=8),
-    target_acos_column(visible=True),
+    fetch("target_acos", "Target ACoS", "percent",
+          "The product's target ACoS (Profit), or the ad group's spend-weighted blend (from Groups' blends).",
+          hidden=False),
     ColumnDef("bid", "Current bid", "money", "The bid now (in_targets).", lambda df, ctx: df["bid"], _in("bid"),
               width=9),
     ColumnDef("value_bid", "Value bid", "money",
@@ -184,24 +188,22 @@ DEFS: list[ColumnDef] = [
               "A step from the current bid toward the value bid, within the caps, floor and ceiling; or the "
               "zero-order cut; or the current bid when held.",
               _proposed, '=IF(%s,MIN(IF(%s,MAX(bid_ceiling,{c:bid}),bid_ceiling),MAX(IF(%s,bid_floor,'
-                         'MIN(bid_floor,{c:bid})),ROUND({c:raw}+0.000000001,2))),{c:bid})'
-              % (_MOVING, _RAISING, _RAISING), width=9),
+                         'MIN(bid_floor,{c:bid})),%s)),{c:bid})'
+              % (_MOVING, _RAISING, _RAISING, _ROUNDED), width=9),
     ColumnDef("change", "Change", "percent", "Proposed bid / current bid - 1.",
               lambda df, ctx: blank_div(df["proposed"], df["bid"]) - 1,
               '=IF({c:bid}=0,"",{c:proposed}/{c:bid}-1)', width=8),
     ColumnDef("reason", "Reason", "label", "Which rule decided the row.", _reason,
-              '=IF(AND(%s,{c:proposed}<>ROUND({c:raw}+0.000000001,2)),IF(ROUND({c:raw}+0.000000001,2)>{c:proposed},"held at bid ceiling",'
-              '"held at bid floor"),CHOOSE({c:rule},%s))' % (_MOVING, _REASON_CHOICES), width=30),
+              '=IF(AND(%s,{c:proposed}<>%s),IF(%s>{c:proposed},"held at bid ceiling",'
+              '"held at bid floor"),CHOOSE({c:rule},%s))' % (_MOVING, _ROUNDED, _ROUNDED, _REASON_CHOICES), width=30),
     ColumnDef("decision", "Decision", "text_input",
               "Input: leave blank to follow the proposal, type a bid to use it, or 'keep' to keep the current bid.",
               lambda df, ctx: df["decision"], kind=INPUT, width=10),
     ColumnDef("final", "Final bid", "money", "The bid to apply: the Decision if given, else the proposal.",
               lambda df, ctx: apply_decision(df, "proposed", "bid"), decision_formula("proposed", "bid"), width=9),
-    ColumnDef("target_check", "Target check", "label",
-              "Where a product of the ad group has a target ACoS above its break-even ACoS (see Profit).",
-              _target_check, '=IF({c:gfirst}="","",IF(%s>0,IF(cap_target_at_break_even="yes",'
-                             '"target capped at break-even","target above break-even"),""))' % block_sum("above"),
-              width=22),
+    fetch("target_check", "Target check", "label",
+          "Where a product of the ad group has a target ACoS above its break-even ACoS (see Profit).", hidden=False,
+          width=22),
     # Working columns, hidden: row positions as data, then the steps of the method.
     ColumnDef("pos", "Position", "int", "Helper: the row's position on this sheet.", lambda df, ctx: df["pos"],
               kind=DATA, width=6, hidden=True),
@@ -209,26 +211,27 @@ DEFS: list[ColumnDef] = [
     ColumnDef("moves", "Moves", "int", "Working: 1 where the proposal changes the bid (for the dashboard).",
               lambda df, ctx: (df["proposed"] != df["bid"]).astype(float), '=IF({c:proposed}<>{c:bid},1,0)',
               width=6, hidden=True),
-    ColumnDef("trow", "Target row", "int", "Helper: the target's position on in_targets.",
-              lambda df, ctx: df["trow"], kind=DATA, width=8, hidden=True),
-    *group_columns(),
-    ColumnDef("order_value", "Order value", "money",
-              "Working: the target's ad sales / orders, or the product's order value when it has no orders.",
-              lambda df, ctx: blank_div(df["ad_sales"], df["orders"]).where(df["orders"] > 0, df["p_aov"]),
-              '=IF({c:orders}>0,{c:ad_sales}/{c:orders},{c:p_aov})', width=9, hidden=True),
+    ColumnDef("trow", "Target row", "int",
+              "The target's row number among in_targets' data rows: where its grey figures were copied from.",
+              lambda df, ctx: df["trow"], kind=DATA, width=8),
+    blends_row_column(),
+    fetch("p_cvr", "Product CVR", "percent", "Working: the product's (or blend's) ad conversion rate."),
     ColumnDef("s_cvr", "Smoothed CVR", "percent", "Working: (orders + k x product CVR) / (clicks + k).",
               _s_cvr, '=IF({c:clicks}+prior_clicks=0,"",({c:orders}+prior_clicks*{c:p_cvr})/({c:clicks}+prior_clicks))',
               width=9, hidden=True),
-    ColumnDef("s_acos", "Smoothed ACoS", "percent", "Working: CPC / (smoothed CVR x order value).",
-              _s_acos, '=IF(OR({c:cpc}="",{c:s_cvr}=""),"",IF({c:s_cvr}*{c:order_value}=0,"",'
-                       '{c:cpc}/({c:s_cvr}*{c:order_value})))', width=9, hidden=True),
-    zero_order_column(),
+    ColumnDef("s_acos", "Smoothed ACoS", "percent",
+              "Working: CPC / (smoothed CVR x order value); the order value is the target's own ad sales per order, "
+              "or its ad group's blend when it has no orders.",
+              _s_acos, '=IF(OR({c:cpc}="",{c:s_cvr}=""),"",IF({c:s_cvr}*%s=0,"",{c:cpc}/({c:s_cvr}*%s)))'
+              % (_ORDER_VALUE, _ORDER_VALUE), width=9, hidden=True),
+    fetch("n_zero", "Zero-order clicks", "int",
+          "Working: clicks after which zero orders are unlikely at the product's CVR."),
     ColumnDef("rule", "Rule", "int", "Working: which rule decided the row (1 to 10, see the Guide).",
               _rule, _RULE % (_LOWER, _LOWER), width=6, hidden=True),
-    ColumnDef("raw", "Unrounded bid", "money", "Working: the proposal before rounding, floor and ceiling.",
-              _raw, '=CHOOSE({c:rule},{c:bid},{c:bid}*(1-max_bid_cut),{c:bid},{c:bid},{c:bid},{c:value_bid},'
-                    '{c:value_bid},{c:bid},{c:bid}*(1+max_bid_raise),{c:bid}*(1-max_bid_cut))', width=9, hidden=True),
 ]
+# Copied one-to-one from the target's in_targets row, or computed only from such copies: plain values.
+EXPORTS = ("impressions", "clicks", "spend", "ad_sales", "orders", "cpc", "cvr", "acos", "bid")
+DEFS = exports_only(DEFS, EXPORTS)
 
 # What a user types on Bids and the keys that find its row again (carry, changes and the tests read these).
 EDITABLE_COLUMNS = editable(DEFS, "Bids", SHEET, "sb_bids", ("campaign", "ad_group", "target", "match_type"),
@@ -256,14 +259,14 @@ def target_frame(targets: InputSheet, campaigns: pd.DataFrame | None, groups: pd
 
 
 def plan_bids(targets: InputSheet, campaigns: pd.DataFrame | None, groups: PlannedTable, profit: PlannedTable,
-              settings: Settings, ranges: dict[str, str], decide=None) -> tuple[Sheet, PlannedTable]:
-    """The Bids sheet and its reference frame; decide(sheet, keys) gives carried Decisions."""
+              settings: Settings, ranges: dict[str, str], decide=None, blends: PlannedTable | None = None
+              ) -> tuple[Sheet, PlannedTable]:
+    """The Bids sheet and its reference frame; decide(sheet, keys) gives carried Decisions; blends: Groups' blends."""
     base = target_frame(targets, campaigns, groups.frame)
     if decide is not None:
         base["decision"] = decide("Bids", list(zip(base["campaign"], base["ad_group"], base["target"],
                                                    base["match_type"])))
-    ctx = BidsContext(settings, groups.frame, float(profit.totals_values["prod_cvr"]),
-                      float(profit.totals_values["prod_aov"]))
+    ctx = BidsContext(settings, blends.frame)
     planned = plan_table(DEFS, base, ctx, HEADER_ROW + 1, ranges, with_totals=False)
     keys = [d.key for d in DEFS]
     n = len(base)
@@ -285,8 +288,8 @@ def plan_bids(targets: InputSheet, campaigns: pd.DataFrame | None, groups: Plann
     highlights.append(Highlight(keys.index("reason"), "no orders after", "Plum", begins=True))
     above = [[Cell("Bid plan: a proposed bid for every live keyword and product target", style="title")],
              [Cell("Decision aid only: review before changing a live ad account. Type a bid or 'keep' in Decision "
-                   "to override a proposal; the working columns to the right of Final bid are hidden.",
-                   style="note")]]
+                   "to override a proposal. Grey figures are copied from in_targets (Target row); black ones follow "
+                   "your inputs. The working columns to the right are hidden.", style="note")]]
     sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, planned.columns, highlights=highlights),
                   freeze=(HEADER_ROW + 1, 3), validations=validations, tab_color="#063F63")
     return sheet, planned

@@ -3,7 +3,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from .columns import PlannedTable
+from .columns import PlannedTable, count_formula, count_of
 
 
 @dataclass(frozen=True)
@@ -37,10 +37,10 @@ def dashboard(tables: dict[str, PlannedTable], ranges: dict[str, str], budget_sh
                           float(tables["Bids"].frame["moves"].sum()), "int"))
     if "Terms" in tables:
         frame = tables["Terms"].frame
-        out.append(Figure("Search terms to promote", "=" + ranges["terms_last.p_cnt"],
-                          float(frame["p_cnt"].iloc[-1]), "int"))
-        out.append(Figure("Search terms to block", "=" + ranges["terms_last.b_cnt"],
-                          float(frame["b_cnt"].iloc[-1]), "int"))
+        out.append(Figure("Search terms to promote", "=" + count_formula(ranges, "terms", "p"),
+                          count_of(frame, "p"), "int"))
+        out.append(Figure("Search terms to block", "=" + count_formula(ranges, "terms", "b"),
+                          count_of(frame, "b"), "int"))
     if budget_shift:
         out.append(Figure("Ad spend shifted from cut to grow products", "=" + budget_shift[0], budget_shift[1],
                           "money"))

@@ -14,6 +14,13 @@ from .spec import INPUT, Cell, Sheet
 
 SHEET = "Guide"
 
+# Which cells respond to edits (issue 13): stated once, here and beside the colour legend.
+LIVE_RULE = ("Grey figures are copied from your exports (or worked out from those copies alone), so no edit here "
+             "can change them; black figures are formulas that follow your inputs: a cost, price, fee, target, "
+             "setting or Decision you change updates every black figure that depends on it.")
+EXPORT_LEGEND = ("Grey text: a figure copied from your exports (the row it came from is shown beside it); "
+                 "it does not follow any input.")
+
 SHEETS_TEXT = [
     ("Guide", "This page: how to use the workbook, what each column means, sources and cautions."),
     ("Settings", "Thresholds and targets. Change a cream cell and every sheet updates."),
@@ -23,6 +30,9 @@ SHEETS_TEXT = [
              "spend first, with the rule that decided it. Type a bid or 'keep' in Decision; Final bid applies it."),
     ("Terms", "Every customer search term per campaign and ad group, with a live verdict: promote, block, watch "
               "or keep. Type a Decision (promote, block, watch, keep or skip) to override it."),
+    ("Lists", "Harvest, Negatives and Actions hold what qualifies at build plus 100 rows of room; they re-fill "
+              "live when a threshold or Decision changes, and a line at the top says if more qualify than fit "
+              "(rebuild to see them)."),
     ("Harvest", "The terms whose Final is promote: what to add, as which match type, where, at what starting bid."),
     ("Negatives", "The terms whose Final is block: the negative to add, its level and match type, and the rule."),
     ("Mix", "Where the money goes: spend by ad type against a benchmark share, by product and match type with "
@@ -35,7 +45,9 @@ SHEETS_TEXT = [
                   "term's figures in both periods, the outcome in words) and how each product moved since."),
     ("History", "Built with --previous: every change found applied, week by week (week, kind, keys, from, to), "
                 "carried into every rebuild and never dropped."),
-    ("Groups", "Which products each ad group advertises, and the spend weights used where it advertises several."),
+    ("Groups", "Which products each ad group advertises, the spend weights used where it advertises several, and "
+               "below, each ad group's blended target ACoS, CVR, order value and price, computed once and fetched "
+               "by the Bids and Terms rows."),
     ("Keys", "A lookup table: existing exact keywords and negatives, by number (the Terms sheet looks them up), "
              "and the Clashes table: where a new negative would block a keyword the list adds or a term that sells."),
     ("in_ sheets", "The rows of your exports as read, sorted by product. Catalog prices, costs, fees, "
@@ -177,8 +189,8 @@ def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tupl
               style="text")],
         [None, Cell("which bids to move toward each product's target ACoS, which search terms to promote or block, "
                     "how spend splits across ad and match types, and how budget should shift.", style="text")],
-        [None, Cell("Every figure is a formula: change an input and everything updates. The Actions sheet lists the "
-                    "changes you settle on.", style="text")],
+        [None, Cell(LIVE_RULE, style="text")],
+        [None, Cell("The Actions sheet lists the changes you settle on.", style="text")],
         [Cell("Caution", style="warning"), Cell(CAUTION + " These are decision aids to review before anything "
               "is changed in an ad account; check every proposal against what you know of your business.",
               style="warning")],
@@ -204,6 +216,7 @@ def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tupl
     rows.append([Cell(0, style="money_input", kind=INPUT), Cell("Cream with blue text: an input cell you may change.")])
     rows.append([Cell(0, style="money_carried", kind=INPUT),
                  Cell("Shaded orange, in italics, with a note: a value carried from last week's workbook.")])
+    rows.append([Cell(0, style="money_export"), Cell(EXPORT_LEGEND)])
     rows += [[None], [Cell("Decisions and carried edits", style="subtitle")]]
     rows += [[None, Cell(line, style="text")] for line in DECISIONS_TEXT]
     rows += [[None], [Cell("Following up last week's changes", style="subtitle")]]

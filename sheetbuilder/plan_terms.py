@@ -31,9 +31,9 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .blends import attach_groups, group_columns, target_acos_column, zero_order_column
-from .columns import (ColumnDef, PlannedTable, apply_word_decision, blank_div, editable, plan_table, running_key,
-                      word_decision_formula)
+from .blends import attach_groups, blends_row_column, fetch
+from .columns import (ColumnDef, PlannedTable, apply_word_decision, blank_div, editable, exports_only, plan_table,
+                      running_key, word_decision_formula)
 from .normalise import contains_phrase, looks_like_product_id, normalise, words
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
@@ -53,9 +53,7 @@ class TermsContext:
     """What the Terms columns' references read besides the frame."""
 
     settings: Settings
-    groups: pd.DataFrame
-    account_cvr: float
-    account_aov: float
+    blends: pd.DataFrame
     lookup: dict[float, str]
     clashes: pd.DataFrame = field(default_factory=pd.DataFrame)
     totals: dict[str, Any] = field(default_factory=dict)
@@ -105,6 +103,14 @@ def _verdict(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
     return pd.Series(out, index=df.index, dtype=object)
 
 
+def _value_bid(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+    at = df["brow"].to_numpy(dtype=int) - 1
+    target, cvr, aov = (ctx.blends[k].to_numpy(dtype=float)[at] for k in ("target_acos", "p_cvr", "p_aov"))
+    k = ctx.settings.prior_clicks
+    order_value = blank_div(df["ad_sales"], df["orders"]).where(df["orders"] > 0, pd.Series(aov, index=df.index))
+    return target * (df["orders"] + k * cvr) / (df["clicks"] + k).where(df["clicks"] + k != 0) * order_value
+
+
 def _final(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
     return apply_word_decision(df, "verdict", DECISIONS)
 
@@ -133,14 +139,30 @@ def _block_threshold(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
     return out.where(df["verdict"] == "block")
 
 
+# Working values only a list shows (Harvest: value and starting bid; Negatives: the block rule and its
+# threshold): the lists compute them live on their own rows; Terms keeps them in its reference frame only.
+LIST_WORKING = (("value_bid", _value_bid), ("start_bid", _start_bid), ("block_rule", _block_rule),
+                ("block_threshold", _block_threshold))
+
 _TPOS, _TPOS_REF = _position("tkey")
 _NPOS, _NPOS_REF = _position("nkey")
 _TARGETED, _TARGETED_REF = _found("tkey", "tpos")
 _NEGATED, _NEGATED_REF = _found("nkey", "npos")
 
 
+# Summed from the term's in_search_terms rows, computed only from such sums, or looked up on Keys (built from
+# the exports): plain values, since no input can change them.
+EXPORTS = ("impressions", "clicks", "spend", "ad_sales", "orders", "cpc", "cvr", "acos", "targeted", "negated",
+           "tpos", "npos")
+
+
 def _defs(n_rows: int) -> list[ColumnDef]:
     """The Terms columns."""
+    return exports_only(_all_defs(n_rows), EXPORTS)
+
+
+def _all_defs(n_rows: int) -> list[ColumnDef]:
+    """The Terms columns, every one with its formula (the method as written)."""
     return [
         ColumnDef("campaign", "Campaign", "text", "The campaign.", lambda df, ctx: df["campaign"], kind=DATA, width=22),
         ColumnDef("ad_group", "Ad group", "text", "The ad group.", lambda df, ctx: df["ad_group"], kind=DATA,
@@ -181,10 +203,11 @@ def _defs(n_rows: int) -> list[ColumnDef]:
         ColumnDef("final", "Final", "label", "The Decision if typed, else the verdict; 'invalid' for any other text.",
                   _final, word_decision_formula("verdict", DECISIONS), width=9),
         # Working columns, hidden.
-        ColumnDef("first", "Term first row", "int", "Helper: first of the term's rows on in_search_terms.",
-                  lambda df, ctx: df["first"], kind=DATA, width=8, hidden=True),
-        ColumnDef("last", "Term last row", "int", "Helper: last of the term's rows on in_search_terms.",
-                  lambda df, ctx: df["last"], kind=DATA, width=8, hidden=True),
+        ColumnDef("first", "Term first row", "int",
+                  "First of the term's data rows on in_search_terms: its grey figures are summed from these rows.",
+                  lambda df, ctx: df["first"], kind=DATA, width=8),
+        ColumnDef("last", "Term last row", "int", "Last of the term's data rows on in_search_terms.",
+                  lambda df, ctx: df["last"], kind=DATA, width=8),
         ColumnDef("pos", "Position", "int", "Helper: the row's position on this sheet.",
                   lambda df, ctx: df["pos"], kind=DATA, width=8, hidden=True),
         ColumnDef("self", "Is its own keyword", "int", "Helper: 1 where the term is the exact keyword it came from.",
@@ -206,32 +229,10 @@ def _defs(n_rows: int) -> list[ColumnDef]:
                   lambda df, ctx: df["nkey"], kind=DATA, width=8, hidden=True),
         ColumnDef("npos", "Negated position", "int", "Working: MATCH of the negated key on Keys.",
                   _NPOS_REF, _NPOS, width=8, hidden=True),
-        *group_columns(),
-        target_acos_column(visible=False),
-        ColumnDef("p_price", "Product price", "money", "Working: the product's (or blend's) price.",
-                  *_price_blend(), width=9, hidden=True),
-        zero_order_column(),
-        ColumnDef("order_value", "Order value", "money", "Working: ad sales / orders, or the product's order value.",
-                  lambda df, ctx: blank_div(df["ad_sales"], df["orders"]).where(df["orders"] > 0, df["p_aov"]),
-                  '=IF({c:orders}>0,{c:ad_sales}/{c:orders},{c:p_aov})', width=9, hidden=True),
-        ColumnDef("value_bid", "Value bid", "money",
-                  "Working: target ACoS x smoothed CVR x order value, what a click on the term is worth.",
-                  lambda df, ctx: df["target_acos"] * (df["orders"] + ctx.settings.prior_clicks * df["p_cvr"])
-                  / (df["clicks"] + ctx.settings.prior_clicks).where(df["clicks"] + ctx.settings.prior_clicks != 0)
-                  * df["order_value"],
-                  '=IF({c:clicks}+prior_clicks=0,"",{c:target_acos}*({c:orders}+prior_clicks*{c:p_cvr})/'
-                  '({c:clicks}+prior_clicks)*{c:order_value})', width=9, hidden=True),
-        ColumnDef("start_bid", "Starting bid", "money", "Working: the bid a promoted term starts at.",
-                  _start_bid, '=IF(OR({c:cpc}="",{c:value_bid}=""),"",MIN(bid_ceiling,MAX(bid_floor,ROUND('
-                  'IF(starting_bid="cpc",{c:cpc},IF(starting_bid="value",{c:value_bid},MIN({c:cpc},{c:value_bid})))'
-                  '+0.000000001,2))))', width=9, hidden=True),
-        ColumnDef("block_rule", "Block rule", "text", "Working: the rule that proposes blocking the term.",
-                  _block_rule, '=IF({c:verdict}<>"block","your decision",IF({c:spend}>={c:p_price}*'
-                               'block_spend_multiple,"spend reached price x multiple","no orders after "&{c:n_zero}'
-                               '&" clicks"))', width=12, hidden=True),
-        ColumnDef("block_threshold", "Block threshold", "ratio", "Working: the threshold of that rule.",
-                  _block_threshold, '=IF({c:verdict}<>"block","",IF({c:spend}>={c:p_price}*block_spend_multiple,'
-                                    '{c:p_price}*block_spend_multiple,{c:n_zero}))', width=9, hidden=True),
+        blends_row_column(),
+        fetch("p_price", "Product price", "money", "Working: the product's (or blend's) price."),
+        fetch("n_zero", "Zero-order clicks", "int",
+              "Working: clicks after which zero orders are unlikely at the product's CVR."),
         ColumnDef("live", "Campaign live", "int", "Helper: 1 where the term's campaign is enabled (in_campaigns).",
                   lambda df, ctx: df["live"], kind=DATA, width=8, hidden=True),
         ColumnDef("at_dest", "Keyword at destination", "int",
@@ -316,13 +317,6 @@ def clash_hits(pairs: pd.DataFrame, terms: pd.DataFrame, settings: Settings) -> 
         else:
             out.append(1.0 if final[i] == "promote" and adds[j] == 1 and p.kw_group == 1 and p.same_term == 1 else 0.0)
     return out
-
-
-def _price_blend():
-    """Reference and formula of the blended product price (the block rule's yardstick)."""
-    from .blends import blend, blend_formula
-    return (blend("price", "w_price", lambda ctx: ctx.account_aov),
-            blend_formula("price", "w_price", "{rng:profit_total.prod_aov}"))
 
 
 def _norm_or_blank(value: Any, fold: bool) -> str:
@@ -480,8 +474,9 @@ def clash_pairs(frame: pd.DataFrame) -> pd.DataFrame:
 
 def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, targets: pd.DataFrame | None,
                campaigns: pd.DataFrame | None, negatives: pd.DataFrame | None, settings: Settings,
-               ranges: dict[str, str], decide=None) -> tuple[Sheet, PlannedTable, Sheet, KeyTable]:
-    """The Terms sheet, its reference frame, and the Keys sheet its lookups read."""
+               ranges: dict[str, str], decide=None, blends: PlannedTable | None = None
+               ) -> tuple[Sheet, PlannedTable, Sheet, KeyTable]:
+    """The Terms sheet, its reference frame, and the Keys sheet its lookups read (blends: Groups' blends)."""
     base = term_frame(layout, groups.frame, campaigns, negatives, settings)
     if decide is not None and len(base):
         base["decision"] = decide("Terms", list(zip(base["campaign"], base["ad_group"], base["term"])))
@@ -502,9 +497,10 @@ def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, t
         KEYS_SHEET, [d.key for d in CLASH_DEFS].index("hit"), clash_first + 1, clash_first + len(pairs))}
     base["tkey"] = base["tkey_t"].map(lambda k: keys.ids.get(k, np.nan) if k else np.nan)
     base["nkey"] = base["nkey_t"].map(lambda k: keys.ids.get(k, np.nan))
-    ctx = TermsContext(settings, groups.frame, float(profit.totals_values["prod_cvr"]),
-                       float(profit.totals_values["prod_aov"]), keys.found, pairs)
+    ctx = TermsContext(settings, blends.frame, keys.found, pairs)
     planned = plan_table(_defs(len(base)), base, ctx, HEADER_ROW + 1, {**ranges, **key_ranges}, with_totals=False)
+    for key, compute in LIST_WORKING:  # computed live on the list rows that show them, not on every term
+        planned.frame[key] = compute(planned.frame, ctx)
     clashes = plan_table(CLASH_DEFS, pairs, ClashContext(planned.frame, settings), clash_first + 1,
                          planned.ranges(SHEET, "terms"), with_totals=False)
     keys_sheet, _ = plan_keys(keys, Table(clash_first, clashes.columns, autofilter=False, title=CLASH_TITLE))
@@ -523,7 +519,9 @@ def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, t
     highlights += [Highlight(col, "promote", "Ocean"), Highlight(col, "block", "Plum")]
     above = [[Cell("Customer search terms: what to promote, what to block", style="title")],
              [Cell("Decision aid only: review before changing a live ad account. Type a Decision to override a "
-                   "verdict; the Harvest and Negatives lists follow the Final column.", style="note")]]
+                   "verdict; the Harvest and Negatives lists follow the Final column. Grey figures are summed from the "
+                   "term's rows on in_search_terms (Term first row to Term last row); black ones follow your inputs.",
+                   style="note")]]
     sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, planned.columns, highlights=highlights),
                   freeze=(HEADER_ROW + 1, 5), validations=validations, tab_color="#3A2A78")
     return sheet, planned, keys_sheet, keys

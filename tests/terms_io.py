@@ -11,7 +11,8 @@ from sheetbuilder.pipeline import load
 TERMS_HEADERS = ["Campaign", "Ad group", "From target", "From match type", "Search term", "Product ID",
                  "Impressions", "Clicks", "Spend", "Ad sales", "Orders", "CPC", "CVR", "ACoS", "Already targeted",
                  "Already negated", "Verdict", "Decision", "Final"]
-TERMS_CHECKED = [h for h in TERMS_HEADERS if h != "Decision"] + ["Starting bid", "Zero-order clicks", "Product price"]
+# Starting bid is compared on Harvest, the list that computes it.
+TERMS_CHECKED = [h for h in TERMS_HEADERS if h != "Decision"] + ["Zero-order clicks", "Product price"]
 HARVEST_HEADERS = ["Number", "Search term", "Kind", "Match type", "Destination campaign", "Destination ad group",
                    "Starting bid", "Negative in source", "Source campaign", "Source ad group", "Product ID", "Orders",
                    "Spend", "ACoS", "Reason"]

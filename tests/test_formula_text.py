@@ -133,3 +133,65 @@ def test_profit_block_positions_are_the_hand_counted_rows(two_products):
     assert [1, 2] == values["Catalog row"]
     assert ([1, 3], [2, 3]) == (values["Sales first row"], values["Sales last row"])
     assert ([1, 2], [1, 2]) == (values["Ad first row"], values["Ad last row"])
+
+
+TARGETS = """campaign,ad_group,target,match_type,state,bid,impressions,clicks,spend,ad_sales,orders
+C1,G1,widget,exact,enabled,0.50,100,10,5.00,20.00,1
+"""
+
+
+@pytest.fixture(scope="module")
+def with_targets(tmp_path_factory):
+    """The two-product account with one keyword in C1 / G1 (so Groups, its blends table and Bids are planned)."""
+    folder = tmp_path_factory.mktemp("two_bids")
+    for name, text in (("catalog.csv", CATALOG), ("store_sales.csv", STORE_SALES),
+                       ("ad_products.csv", AD_PRODUCTS), ("targets.csv", TARGETS)):
+        (folder / name).write_text(text, encoding="utf-8")
+    inputs, settings, _ = load(folder)
+    return plan_workbook(inputs, settings, dt.date(2026, 12, 2))
+
+
+def _first_row(column, row: int) -> str | None:
+    if column.formula is None:
+        return None
+    text = column.formula[0] if isinstance(column.formula, list) else column.formula
+    return text.replace("{r}", str(row)).replace("{p}", str(row - 1))
+
+
+def test_ad_group_blends_are_computed_once_on_groups_from_weight_times_value_sums(with_targets):
+    # Groups: header row 3, C1/G1's products P1 and P2 on rows 4-5; D spend, E weight, F weight x Bid target ACoS
+    # (Profit U), G above break-even, H/I/J weight x CVR / order value / price, K Profit row. The blends table:
+    # header row 8 (a blank row and its title between), row 9 the account's values, row 10 C1/G1.
+    sheet = with_targets.spec.sheet("Groups")
+    groups = {c.header: _first_row(c, 4) for c in sheet.table.columns}
+    assert "=E4*INDEX(Profit!$U$6:$U$7,K4)" == groups["Weight x target ACoS"]
+    assert "=E4*INDEX(Profit!$AC$6:$AC$7,K4)" == groups["Weight x CVR"]
+    assert None is groups["Ad spend"] is groups["Blend weight"]  # export-only: plain values
+    blends = sheet.more[0]
+    assert 8 - 1 == blends.first_row
+    row = {c.header: _first_row(c, 9) for c in blends.columns}
+    block = "SUM(INDEX(Groups!$%s$4:$%s$5,C9):INDEX(Groups!$%s$4:$%s$5,D9))"
+    assert '=IF(C9="",default_target_acos,%s/E9)' % (block % (("F",) * 4)) == row["Target ACoS"]
+    assert '=IF(C9="",Profit!$AC$8,%s/E9)' % (block % (("H",) * 4)) == row["Product CVR"]
+    assert '=IF(OR(G9<=0,G9>=1),"",ROUNDUP(LN(1-zero_order_confidence)/LN(1-G9),0))' == row["Zero-order clicks"]
+    values = {c.header: list(c.values) for c in blends.columns}
+    # Row 9 has no block (the account's values); C1/G1 owns Groups positions 1-2, weights 25 + 10 (their spend).
+    assert ([1.0], [2.0], [0.0, 35.0]) == (values["Group first row"][1:], values["Group last row"][1:],
+                                           values["Group weight"])
+
+
+def test_a_bids_row_fetches_its_ad_group_blend_with_one_index_and_copies_its_exports_as_values(with_targets):
+    table = with_targets.spec.sheet("Bids").table
+    letters = {c.header: chr(ord("A") + i) if i < 26 else "A" + chr(ord("A") + i - 26)
+               for i, c in enumerate(table.columns)}
+    row = {c.header: _first_row(c, 5) for c in table.columns}
+    brow = letters["Blends row"]
+    assert f"=INDEX(Groups!$F$9:$F$10,{brow}5)" == row["Target ACoS"]
+    assert f"=INDEX(Groups!$G$9:$G$10,{brow}5)" == row["Product CVR"]
+    assert [2.0] == next(c.values for c in table.columns if c.header == "Blends row")
+    assert {h: None for h in ("Impressions", "Clicks", "Spend", "Ad sales", "Orders", "CPC", "CVR", "ACoS",
+                              "Current bid")} == {h: row[h] for h in ("Impressions", "Clicks", "Spend", "Ad sales",
+                                                                       "Orders", "CPC", "CVR", "ACoS", "Current bid")}
+    key = letters["Changes key"]
+    final, bid = letters["Final bid"], letters["Current bid"]
+    assert f"=INT(SUM({key}4))+IF({final}5<>{bid}5,1,1/2)" == row["Changes key"]

@@ -1,6 +1,10 @@
 """Live edits: change an input cell in a built workbook, recalculate with LibreOffice,
 and the dependent cells change exactly as the independent reference predicts.
 
+An edit also reaches every dependent cell: the recalculated workbook equals, cell by cell, the
+workbook built from exports that already hold the edited value; and the export-only cells (plain
+values in the grey export style) hold the reference's values.
+
 Also a canary: a workbook whose cached values were written wrong on purpose must come
 back from LibreOffice with the true values, proving it recalculated rather than
 passing cached values through.
@@ -8,17 +12,22 @@ passing cached values through.
 from __future__ import annotations
 
 import copy
+import shutil
 
 import openpyxl
+import openpyxl.utils
+import pandas as pd
 import pytest
 
-from conftest import DEMO, edit_workbook
+from conftest import BUILT_ON, DEMO, edit_workbook
 from bids_io import CHECKED as BIDS_CHECKED, HEADER_ROW as BIDS_HEADER_ROW, bids_oracle_for, bids_table
-from terms_io import (HARVEST_HEADERS, NEGATIVE_HEADERS, TERMS_CHECKED, TERMS_HEADER_ROW, list_table,
+from terms_io import (HARVEST_HEADERS, LIST_HEADER_ROW, NEGATIVE_HEADERS, TERMS_CHECKED, TERMS_HEADER_ROW, list_table,
                       terms_oracle_for, terms_table)
 from profit_io import HEADER_ROW as PROFIT_HEADER_ROW, PROFIT_HEADERS, oracle_for, profit_table
-from workbook_io import mismatches
-from sheetbuilder.pipeline import load, write_atomically
+from workbook_io import mismatches, open_values, same
+from sheetbuilder.palette import EXPORT_FONT
+from sheetbuilder.pipeline import TERMS_DEFS, build, load, write_atomically
+from sheetbuilder.plan_bids import DEFS as BIDS_DEFS
 from sheetbuilder.spec import FORMULA
 
 COST_PRODUCT = "LF-1012"  # strong with a spend-to-sales ratio above 1 in the demo
@@ -193,3 +202,66 @@ def test_typing_skip_takes_a_term_off_the_harvest_list(libreoffice, demo_build):
     rows, _ = terms_table(libreoffice["edit_skip"])
     assert "skip" == rows[position]["Final"]
     assert [] == mismatches(terms, rows, TERMS_CHECKED, "Terms after skip")
+
+
+# Sheets whose cells come before the edit or say how the file was built: the twin differs there by design
+# (Profit and in_catalog show the target where it was typed; the Guide records the inputs' checksums).
+_NOT_COMPARED_CELL_BY_CELL = {"Profit", "in_catalog", "Guide", "Settings"}
+_SIZED_LISTS = {"Harvest", "Negatives", "Actions"}  # sized at build: their size lines and spare rows differ
+
+
+def _twin_with_target(work):
+    """The demo built from exports whose catalog already holds the new target: every cell the edit reaches, as
+    the planner's reference computes it."""
+    folder = work / "demo_target_twin"
+    if not folder.exists():
+        shutil.copytree(DEMO, folder)
+        catalog = pd.read_csv(folder / "catalog.csv", dtype=str, keep_default_na=False)
+        catalog.loc[catalog["product_id"] == TARGET_PRODUCT, "target_acos"] = f"{NEW_TARGET:.0%}"
+        catalog.to_csv(folder / "catalog.csv", index=False)
+    return build(folder, work / "demo_target_twin.xlsx", built_on=BUILT_ON).output
+
+
+def _cells(ws, first_row):
+    return {(r, c): v for r, row in enumerate(ws.iter_rows(min_row=first_row, values_only=True), start=first_row)
+            for c, v in enumerate(row, start=1) if v is not None and v != ""}
+
+
+@pytest.mark.libreoffice
+def test_a_target_edit_reaches_every_dependent_cell_and_leaves_export_cells_as_exported(libreoffice, work):
+    twin = open_values(_twin_with_target(work))
+    edited = open_values(libreoffice["edit_target"])
+    differ = []
+    for name in twin.sheetnames:
+        if name in _NOT_COMPARED_CELL_BY_CELL:
+            continue
+        first = LIST_HEADER_ROW if name in _SIZED_LISTS else 1
+        want, got = _cells(twin[name], first), _cells(edited[name], first)
+        differ += [f"{name}!{openpyxl.utils.get_column_letter(c)}{r}: want {want.get((r, c))!r}, "
+                   f"got {got.get((r, c))!r}" for r, c in sorted(set(want) | set(got))
+                   if not same(want.get((r, c)), got.get((r, c)))]
+    assert [] == differ[:20]
+    # The export-only columns hold exactly the reference's values, edit or not (their cells are plain values).
+    expected = bids_oracle_for(DEMO, target_overrides={TARGET_PRODUCT: NEW_TARGET})
+    rows, _ = bids_table(libreoffice["edit_target"])
+    exported = [d.header for d in BIDS_DEFS if d.export]
+    assert {"Clicks", "Spend", "Orders", "Current bid"} <= set(exported)
+    assert [] == mismatches(expected, rows, exported, "export-only Bids columns after target edit")
+    terms, _, _ = terms_oracle_for(DEMO)
+    got_terms, _ = terms_table(libreoffice["edit_target"])
+    exported_terms = [d.header for d in TERMS_DEFS(0) if d.export and not d.hidden]
+    assert [] == mismatches(terms, got_terms, exported_terms, "export-only Terms columns after target edit")
+
+
+def test_export_only_cells_are_values_in_the_export_style_and_everything_else_stays_live(demo_build):
+    wb = openpyxl.load_workbook(demo_build.output)
+    for sheet, defs, header_row in (("Bids", BIDS_DEFS, BIDS_HEADER_ROW), ("Terms", TERMS_DEFS(0), TERMS_HEADER_ROW)):
+        ws = wb[sheet]
+        headers = [c.value for c in ws[header_row]]
+        for d in defs:
+            cell = ws.cell(header_row + 1, headers.index(d.header) + 1)
+            is_formula = isinstance(cell.value, str) and cell.value.startswith("=")
+            if d.export:
+                assert (False, EXPORT_FONT[1:]) == (is_formula, cell.font.color.rgb[-6:]), (sheet, d.header)
+            elif d.formula is not None:
+                assert is_formula, (sheet, d.header)
