@@ -198,8 +198,9 @@ def _links(ad_layout: InputSheet | None, profit: pd.DataFrame) -> pd.DataFrame:
 
 
 def plan_budget(profit: PlannedTable, campaigns: InputSheet | None, ad_layout: InputSheet | None,
-                settings: Settings, ranges: dict[str, str], decide=None) -> tuple[Sheet, dict[str, PlannedTable]]:
-    """The Budget sheet: products, then campaigns and the campaign-product links they blend."""
+                settings: Settings, ranges: dict[str, str], decide=None
+                ) -> tuple[Sheet, dict[str, PlannedTable], dict[str, tuple[str, float]]]:
+    """The Budget sheet, its tables (products, campaigns, links), and its anchors {name: (cell, value)}."""
     ctx = BudgetContext(settings, profit.frame)
     n = len(profit.frame)
     base = pd.DataFrame({"product_id": profit.frame["product_id"].astype(object).to_numpy(),
@@ -221,6 +222,7 @@ def plan_budget(profit: PlannedTable, campaigns: InputSheet | None, ad_layout: I
              [Cell("Decision aid only: review before changing a live ad account. The shift keeps total spend "
                    "unchanged; type a spend or budget, or keep, in Decision to override.", style="note")],
              [Cell("Spend shifted"), Cell(shifted, shifted_formula, "money_total")]]
+    provides = {"budget.shifted": (f"{quote_sheet(SHEET)}!$B${len(above)}", shifted)}  # the cell just written
     validations = []
     more: list[Table] = []
     if campaigns is not None and len(campaigns.frame):
@@ -274,4 +276,4 @@ def plan_budget(profit: PlannedTable, campaigns: InputSheet | None, ad_layout: I
                                                   highlights=[Highlight(col, "cut", "Plum"),
                                                               Highlight(col, "grow", "Ocean")]),
                   more=more, validations=validations, freeze=(HEADER_ROW + 1, 1), tab_color="#24475E")
-    return sheet, tables
+    return sheet, tables, provides
