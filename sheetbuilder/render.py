@@ -166,10 +166,23 @@ def _write_rows(ws, first: int, rows: list[list[Cell | None]], formats: dict) ->
     return first + len(rows)
 
 
+class OverlappingBlocks(RuntimeError):
+    """Two blocks of a sheet were planned over the same rows (an internal error, never the user's)."""
+
+
 def _write_table(ws, table: Table, row: int, formats: dict, state_formats: dict, progress: Progress | None,
                  sheet_name: str, first: bool) -> int:
-    """Write a table's title, header, body and totals from its first row; return the next free row."""
-    row = max(row, table.first_row)
+    """Write a table's title, header, body and totals at its planned first row; return the next free row.
+
+    Raises:
+        OverlappingBlocks: the rows written before reach the table's title or header row (a planning bug:
+            moving the table down would leave its formulas pointing at the planned rows).
+    """
+    top = table.first_row - (1 if table.title else 0)
+    if row > top:
+        raise OverlappingBlocks(f"{sheet_name}: the table {table.title or table.columns[0].header!r} is planned "
+                                f"from row {top + 1}, but the rows above it reach row {row}")
+    row = table.first_row
     if table.title:
         ws.write_string(row - 1, 0, table.title, formats["subtitle"])
     for col, column in enumerate(table.columns):
