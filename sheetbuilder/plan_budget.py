@@ -18,7 +18,7 @@ import numpy as np
 import pandas as pd
 
 from .columns import ColumnDef, PlannedTable, apply_decision, decision_formula, editable, plan_table, running_key
-from .formula import col_letter, quote_sheet
+from .formula import block_sum, col_letter, quote_sheet
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
 from .settings import Settings
@@ -101,7 +101,7 @@ PRODUCT_DEFS: list[ColumnDef] = [
 
 
 def _link_sum(key: str) -> str:
-    return "SUM(INDEX({rng:links.%s},{row:lfirst}):INDEX({rng:links.%s},{row:llast}))" % (key, key)
+    return block_sum("{rng:links.%s}" % key, "{row:lfirst}", "{row:llast}")
 
 
 def _scale(df: pd.DataFrame, ctx: BudgetContext) -> pd.Series:
@@ -157,7 +157,7 @@ LINK_DEFS: list[ColumnDef] = [
               kind=DATA, width=14),
     ColumnDef("spend", "Ad spend", "money", "The product's spend in the campaign: its weight.",
               lambda df, ctx: df["spend"],
-              "=SUM(INDEX({rng:ad_products.spend},{row:ad_first}):INDEX({rng:ad_products.spend},{row:ad_last}))",
+              "=" + block_sum("{rng:ad_products.spend}", "{row:ad_first}", "{row:ad_last}"),
               width=11),
     ColumnDef("ratio", "Spend change", "ratio", "The product's final / current spend (above).",
               lambda df, ctx: df["brow"].map(lambda r: ctx.products["ratio"].iloc[int(r) - 1]).astype(float),

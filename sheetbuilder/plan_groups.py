@@ -14,6 +14,7 @@ import numpy as np
 import pandas as pd
 
 from .columns import ColumnDef, PlannedTable, plan_table
+from .formula import block_sum
 from .plan_inputs import InputSheet
 from .spec import DATA, Cell, Sheet, Table
 
@@ -47,7 +48,7 @@ DEFS: list[ColumnDef] = [
               lambda df, ctx: df["product_id"], kind=DATA, width=12),
     ColumnDef("spend", "Ad spend", "money", "The product's ad spend in this ad group: its weight in the blend.",
               lambda df, ctx: df["spend"],
-              "=SUM(INDEX({rng:ad_products.spend},{c:ad_first}):INDEX({rng:ad_products.spend},{c:ad_last}))", width=12),
+              "=" + block_sum("{rng:ad_products.spend}", "{c:ad_first}", "{c:ad_last}"), width=12),
     ColumnDef("target_acos", "Target ACoS", "percent",
               "The target ACoS the product's bids aim at (Profit's Bid target ACoS).",
               _profit_value("bid_target"), _profit_index("bid_target"), width=10),

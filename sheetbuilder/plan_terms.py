@@ -38,7 +38,7 @@ from .normalise import contains_phrase, looks_like_product_id, normalise, words
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
 from .settings import Settings
-from .formula import range_ref
+from .formula import block_sum, range_ref
 from .spec import DATA, INPUT, Cell, Highlight, Sheet, Table, Validation
 
 SHEET = "Terms"
@@ -63,7 +63,7 @@ class TermsContext:
 
 def _block(column: str) -> str:
     rng = "{rng:search_terms.%s}" % column
-    return f"=SUM(INDEX({rng},{{c:first}}):INDEX({rng},{{c:last}}))"
+    return "=" + block_sum(rng, "{c:first}", "{c:last}")
 
 
 def _found(key: str, pos: str):
@@ -251,8 +251,8 @@ def _defs(n_rows: int) -> list[ColumnDef]:
         ColumnDef("clash", "Would block another term", "int",
                   "Working: how many keywords the list adds, or terms that sell, this term's negative would block.",
                   _clash,
-                  '=IF(OR({c:cfirst}="",AND({c:final}<>"block",{c:adds}=0)),0,'
-                  'SUM(INDEX({rng:clashes.hit},{c:cfirst}):INDEX({rng:clashes.hit},{c:clast})))',
+                  '=IF(OR({c:cfirst}="",AND({c:final}<>"block",{c:adds}=0)),0,%s)'
+                  % block_sum("{rng:clashes.hit}", "{c:cfirst}", "{c:clast}"),
                   width=8, hidden=True),
         ColumnDef("src_neg", "Negative in source", "text",
                   "Working: negative exact where a promoted term goes to another ad group of a live campaign, its "

@@ -115,3 +115,12 @@ def _formulas(plan) -> list[str]:
                 out += c.formula if isinstance(c.formula, list) else [c.formula] if c.formula else []
         out += [c.formula for row in [*sheet.above, *sheet.below] for c in row if c is not None and c.formula]
     return out
+
+
+def test_the_block_sum_is_written_by_one_helper():
+    from sheetbuilder.formula import block_sum
+    assert "SUM(INDEX({rng:t.c},{c:first}):INDEX({rng:t.c},{c:last}))" == block_sum("{rng:t.c}", "{c:first}", "{c:last}")
+    package = Path(__file__).resolve().parent.parent / "sheetbuilder"
+    writers = {p.name for p in package.rglob("*.py") if "SUM(INDEX(" in p.read_text(encoding="utf-8").replace(
+        '"""SUM(INDEX(rng', "").replace("SUM(INDEX(..)", "")}
+    assert {"formula.py", "bench.py"} >= writers
