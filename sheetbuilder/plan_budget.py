@@ -17,12 +17,13 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .columns import ColumnDef, PlannedTable, apply_decision, decision_formula, editable, plan_table, running_key
+from .columns import (ColumnDef, PlannedTable, apply_decision, decision_formula, decision_validation, editable,
+                      plan_table, running_key)
 from .formula import block_sum, col_letter, quote_sheet
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
 from .settings import Settings
-from .spec import DATA, INPUT, Cell, Highlight, Sheet, Table, Validation
+from .spec import DATA, INPUT, Cell, Highlight, Sheet, Table
 
 SHEET = "Budget"
 HEADER_ROW = 4
@@ -260,17 +261,12 @@ def plan_budget(profit: PlannedTable, campaigns: InputSheet | None, ad_layout: I
                       title="How each campaign blends its products (working rows)")]
         tables.update({"Budget campaigns": camp, "Budget links": link_table})
         if len(cbase):
-            letter = col_letter([d.key for d in CAMPAIGN_DEFS].index("decision"))
-            validations.append(Validation(c_first + 1, [d.key for d in CAMPAIGN_DEFS].index("decision"), {
-                "validate": "custom", "value": f'=OR(ISNUMBER({letter}{c_first + 2}),{letter}{c_first + 2}="keep")',
-                "ignore_blank": True, "error_title": "Not a decision",
-                "error_message": "Leave blank, type a budget, or type keep."}, last_row=c_first + len(cbase)))
+            validations.append(decision_validation(
+                CAMPAIGN_EDITABLE_COLUMNS, c_first + 1, [d.key for d in CAMPAIGN_DEFS].index("decision"), len(cbase),
+                "Leave blank, type a budget, or type keep."))
     if n:
-        letter = col_letter(keys.index("decision"))
-        validations.append(Validation(first, keys.index("decision"), {
-            "validate": "custom", "value": f'=OR(ISNUMBER({letter}{first + 1}),{letter}{first + 1}="keep")',
-            "ignore_blank": True, "error_title": "Not a decision",
-            "error_message": "Leave blank, type a spend, or type keep."}, last_row=first + n - 1))
+        validations.append(decision_validation(EDITABLE_COLUMNS, first, keys.index("decision"), n,
+                                               "Leave blank, type a spend, or type keep."))
     col = keys.index("direction")
     sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, products.columns, products.totals,
                                                   highlights=[Highlight(col, "cut", "Plum"),

@@ -32,14 +32,14 @@ import numpy as np
 import pandas as pd
 
 from .blends import attach_groups, group_columns, target_acos_column, zero_order_column
-from .columns import (ColumnDef, PlannedTable, apply_word_decision, blank_div, editable, plan_table, running_key,
-                      word_decision_formula)
+from .columns import (ColumnDef, PlannedTable, apply_word_decision, blank_div, decision_validation, editable, plan_table,
+                      running_key, word_decision_formula)
 from .normalise import contains_phrase, looks_like_product_id, normalise, words
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
 from .settings import Settings
 from .formula import block_sum, range_ref
-from .spec import DATA, INPUT, Cell, Highlight, Sheet, Table, Validation
+from .spec import DATA, INPUT, Cell, Highlight, Sheet, Table
 
 SHEET = "Terms"
 KEYS_SHEET = "Keys"
@@ -513,10 +513,9 @@ def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, t
     first = HEADER_ROW + 1
     validations = []
     if n:
-        validations.append(Validation(first, keys_list.index("decision"), {
-            "validate": "list", "source": list(DECISIONS), "ignore_blank": True, "error_title": "Not a decision",
-            "error_message": "Leave blank to follow the verdict, or choose " + ", ".join(DECISIONS) + ".",
-            "input_title": "Decision", "input_message": "Blank = follow the verdict."}, last_row=first + n - 1))
+        validations.append(decision_validation(
+            EDITABLE_COLUMNS, first, keys_list.index("decision"), n,
+            "Leave blank to follow the verdict, or choose " + ", ".join(DECISIONS) + ".", "Blank = follow the verdict."))
     col = keys_list.index("verdict")
     highlights = [Highlight(col, "promote", "Ocean"), Highlight(col, "block", "Plum"), Highlight(col, "watch", "Stone")]
     col = keys_list.index("final")

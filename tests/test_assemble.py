@@ -124,3 +124,18 @@ def test_the_block_sum_is_written_by_one_helper():
     writers = {p.name for p in package.rglob("*.py") if "SUM(INDEX(" in p.read_text(encoding="utf-8").replace(
         '"""SUM(INDEX(rng', "").replace("SUM(INDEX(..)", "")}
     assert {"formula.py", "bench.py"} >= writers
+
+
+def test_a_decision_validation_is_planned_from_its_columns_words_and_rendered_only_by_the_renderer():
+    from sheetbuilder.columns import decision_validation
+    from sheetbuilder.plan_bids import EDITABLE_COLUMNS as BIDS
+    from sheetbuilder.plan_terms import DECISIONS, EDITABLE_COLUMNS as TERMS
+    from sheetbuilder.render import validation_options
+    bids = decision_validation(BIDS, 4, 17, 3, "type a bid or keep", "a bid or keep")
+    assert {"validate": "custom", "value": '=OR(ISNUMBER(R5),R5="keep")', "error_title": "Not a decision",
+            "error_message": "type a bid or keep", "input_title": "Decision",
+            "input_message": "a bid or keep"} == validation_options(bids)
+    assert 6 == bids.last_row
+    terms = decision_validation(TERMS, 4, 9, 2, "choose one")
+    assert {"validate": "list", "source": list(DECISIONS), "error_title": "Not a decision",
+            "error_message": "choose one"} == validation_options(terms)
