@@ -13,7 +13,7 @@ here (``SHEET_ORDER``, ``SECTION_ORDER``), apart from the order the steps must r
 from __future__ import annotations
 
 import datetime as dt
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Callable
 
@@ -40,7 +40,7 @@ from .plan_unmatched import plan_carried, plan_unmatched
 from .readers import Inputs
 from .saved import ACTIONS_NAME, EDITABLE_TABLES, PROFIT
 from .settings import Settings
-from .spec import Sheet, WorkbookSpec
+from .spec import Column, Sheet, Table, WorkbookSpec
 
 # Where each step's sheets go, left to right (the Guide first, the in_ sheets last).
 SHEET_ORDER = ("guide", "settings", "profit", "bids", "terms", "harvest", "negatives", "mix", "budget", "actions",
@@ -248,7 +248,8 @@ def _carried(a: Assembly) -> None:
     sheet, names = plan_carried(a.carry)
     a.place("carried", sheet)
     a.names += names
-    mark_carried(a.carry, a.tables, a.sheets.get("inputs", []), a.layouts)
+    catalog = next((s for s in a.sheets.get("inputs", []) if s.name == "in_catalog"), None)
+    _with_marks(a, carried_marks(a.carry, a.tables, catalog, a.layouts))
 
 
 # The steps in the order they must run: each reads only anchors the steps before it provide.
@@ -307,11 +308,13 @@ def _note(record, source: str) -> str:
             "the export shows it applied.")
 
 
-def mark_carried(carry: CarryResult, tables: dict[str, PlannedTable], input_sheets: list, layouts: dict) -> None:
-    """Shade every carried cell with its own input style and give it a note (typed columns and in_catalog)."""
+def carried_marks(carry: CarryResult, tables: dict[str, PlannedTable], catalog: Sheet | None,
+                  layouts: dict) -> dict[int, dict[int, str]]:
+    """{id of a planned column: {row index: note}} of every carried cell (typed columns and in_catalog)."""
     source = Path(carry.source).name if carry.source else "the previous workbook"
     records = {(r.sheet, r.compared): r for r in carry.carried if r.compared}
     fold = carry.settings.fold_plurals
+    out: dict[int, dict[int, str]] = {}
     for decl in EDITABLE_TABLES:
         planned = tables.get(decl.table)
         if planned is None:
@@ -322,18 +325,36 @@ def mark_carried(carry: CarryResult, tables: dict[str, PlannedTable], input_shee
         for i, parts in enumerate(keys):
             record = records.get((decl.label, entry.export_key(parts, fold)))
             if record is not None:
-                column.cell_styles[i] = column.style.split("_")[0] + "_carried"
-                column.notes[i] = _note(record, source)
-    catalog = next((s for s in input_sheets if s.name == "in_catalog"), None)
+                out.setdefault(id(column), {})[i] = _note(record, source)
     if catalog is None or "catalog" not in layouts:
-        return
+        return out
     row_of = {str(p): i for i, p in enumerate(layouts["catalog"].frame["product_id"])}
     by_header = {c.header: c for c in catalog.table.columns}
     for r in carry.carried:
         if r.sheet == "in_catalog" and r.key in row_of and r.column in by_header:
-            column = by_header[r.column]
-            column.cell_styles[row_of[r.key]] = column.style.split("_")[0] + "_carried"
-            column.notes[row_of[r.key]] = _note(r, source)
+            out.setdefault(id(by_header[r.column]), {})[row_of[r.key]] = _note(r, source)
+    return out
+
+
+def _marked(column: Column, marks: dict[int, dict[int, str]]) -> Column:
+    """column, or a copy whose carried cells have the carried style and their note."""
+    notes = marks.get(id(column))
+    if not notes:
+        return column
+    carried = column.style.split("_")[0] + "_carried"
+    return replace(column, cell_styles={**column.cell_styles, **{i: carried for i in notes}},
+                   notes={**column.notes, **notes})
+
+
+def _with_marks(a: Assembly, marks: dict[int, dict[int, str]]) -> None:
+    """Replace the marked columns by marked copies in every sheet and planned table (the planned ones stay as planned)."""
+    def table(t: Table | None) -> Table | None:
+        return None if t is None else replace(t, columns=[_marked(c, marks) for c in t.columns])
+
+    for where, sheets in a.sheets.items():
+        a.sheets[where] = [replace(s, table=table(s.table), more=[table(t) for t in s.more]) for s in sheets]
+    for name, planned in a.tables.items():
+        a.tables[name] = replace(planned, columns=[_marked(c, marks) for c in planned.columns])
 
 
 def edit_names(tables: dict[str, PlannedTable]) -> list[tuple[str, str]]:
