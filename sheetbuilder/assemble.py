@@ -347,7 +347,7 @@ def _marked(column: Column, marks: dict[int, dict[int, str]]) -> Column:
 
 
 def _with_marks(a: Assembly, marks: dict[int, dict[int, str]]) -> None:
-    """Replace the marked columns by marked copies in every sheet and planned table (the planned ones stay as planned)."""
+    """Put marked copies of the marked columns in the assembly's sheets and tables (the planned ones are not changed)."""
     def table(t: Table | None) -> Table | None:
         return None if t is None else replace(t, columns=[_marked(c, marks) for c in t.columns])
 

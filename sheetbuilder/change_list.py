@@ -87,7 +87,8 @@ def read_context(book: SavedBook) -> dict[str, Any]:
     return {
         "bid_floor": book.named_value("bid_floor"),
         "bid_ceiling": book.named_value("bid_ceiling"),
-        "campaigns": _column_values(book, "in_campaigns", "campaign") | _column_values(book, "in_ad_products", "campaign"),
+        "campaigns": (_column_values(book, "in_campaigns", "campaign")
+                      | _column_values(book, "in_ad_products", "campaign")),
         "has_campaign_sheets": "in_campaigns" in sheets or "in_ad_products" in sheets,
     }
 
@@ -103,8 +104,9 @@ def _saved_results(book: SavedBook) -> dict[str, list[tuple[int, list[Any], Any]
             continue
         first = next(iter(areas.values())).first_row
         rows = book.rows(areas[decl.result].sheet, frozenset(a.first_col for a in areas.values()))
-        out[entry.label] = [(r + 1, [rows[r][areas[k].first_col] for k in decl.keys], rows[r][areas[decl.result].first_col])
-                            for r in range(first, min(areas[decl.result].last_row, len(rows) - 1) + 1)]
+        result = areas[decl.result]
+        out[entry.label] = [(r + 1, [rows[r][areas[k].first_col] for k in decl.keys], rows[r][result.first_col])
+                            for r in range(first, min(result.last_row, len(rows) - 1) + 1)]
     return out
 
 
@@ -142,8 +144,8 @@ def computed_actions(saved: SavedInputs) -> tuple[list[tuple[int, list[Any]]], l
     carry = CarryResult(settings, targets=targets, decisions=decisions, source=str(saved.path), inputs_as_saved=True)
     plan = plan_workbook(Inputs(dict(saved.tables)), settings, saved.built_on, [], carry)
     frame = plan.tables["Actions"].frame
-    rows = [(FIRST_ROW + i, list(record)) for i, record in enumerate(frame[list(KEYS)].itertuples(index=False, name=None))
-            if not blank(record[0])]
+    records = frame[list(KEYS)].itertuples(index=False, name=None)
+    rows = [(FIRST_ROW + i, list(record)) for i, record in enumerate(records) if not blank(record[0])]
     return rows, problems, plan.tables, fold
 
 

@@ -32,8 +32,8 @@ import numpy as np
 import pandas as pd
 
 from .blends import attach_groups, group_columns, target_acos_column, zero_order_column
-from .columns import (ColumnDef, PlannedTable, apply_word_decision, blank_div, decision_validation, editable, plan_table,
-                      running_key, word_decision_formula)
+from .columns import (ColumnDef, PlannedTable, apply_word_decision, blank_div, decision_validation, editable,
+                      plan_table, running_key, word_decision_formula)
 from .normalise import contains_phrase, looks_like_product_id, normalise, words
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
