@@ -22,12 +22,13 @@ import numpy as np
 import pandas as pd
 
 from .columns import ColumnDef
+from .formula import block_sum as formula_block_sum
 from .spec import DATA
 
 
 def block_sum(column: str) -> str:
     """Formula text summing a Groups column over the row's ad-group block."""
-    return "SUM(INDEX({rng:groups.%s},{c:gfirst}):INDEX({rng:groups.%s},{c:glast}))" % (column, column)
+    return formula_block_sum("{rng:groups.%s}" % column, "{c:gfirst}", "{c:glast}")
 
 
 def blend_formula(weighted: str, fallback: str) -> str:

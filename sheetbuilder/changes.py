@@ -16,34 +16,26 @@ A workbook without our inputs (an Actions-shaped sheet alone) is read from its s
 from __future__ import annotations
 
 import math
-import numbers
 import os
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 from .atomic import atomic_output, scratch_dir
-from .columns import INVALID, NO_SAVED_VALUE
+from .change_list import (FIRST_ROW, HEADER_ROW, KEYS, SHEET, SavedInputs, blank as _blank, check_change,
+                          computed_actions, is_number as _is_number, read_context, read_saved)
+from .columns import NO_SAVED_VALUE
 from .csv_safe import write_csv
 from .errors import OutputExists, Problem, SheetbuilderError, UnsafeOutput
 from .guard import reading, text_problem
-from .plan_actions import HEADER_ROW as ACTIONS_HEADER_ROW, HEADERS, defs as action_defs
+from .plan_actions import HEADERS
+from .plan_followup import CHANGE_DEFS, NAME as FOLLOWUP_NAME
 from .render import render_rows
-from .carry import DECISION_SHEETS, PROFIT_TARGET, CarryResult, _text, edits_in
-from .pipeline import plan_workbook
-from .readers import Inputs
-from .saved import (ACTIONS_NAME, NotAWorkbook, SavedBook, WorkbookNotFound, named_area,  # noqa: F401 (re-exported)
-                    named_columns, saved_inputs, saved_settings)
+from .carry import DECISION_SHEETS
+from .saved import (ACTIONS_NAME, NotAWorkbook, SavedBook, WorkbookNotFound, named_area)  # noqa: F401 (re-exported)
 
-SHEET = "Actions"
-HEADER_ROW = ACTIONS_HEADER_ROW + 1  # 1-based, as a spreadsheet shows it
-FIRST_ROW = HEADER_ROW + 1
-# The CSV layout is the Actions list's visible columns, as plan_actions declares them.
-KEYS = tuple(d.key for d in action_defs(["0"] * 5) if not d.hidden)
 COLUMNS = tuple({"target": "target_or_term", "money": "money_at_stake"}.get(k, k) for k in KEYS)
 MONEY = ("current", "new", "money_at_stake")  # written with two decimals, however the workbook stored them
-KINDS = ("bid", "add keyword", "add product target", "add negative", "budget")
-ADDS = ("add keyword", "add product target")
 FORMATS = ("csv", "xlsx")
 
 
@@ -78,39 +70,6 @@ class ChangesResult:
     unchecked: bool = False
 
 
-def _is_number(value: Any) -> bool:
-    return isinstance(value, numbers.Real) and not isinstance(value, bool) and not (
-        isinstance(value, float) and math.isnan(value))
-
-
-def _blank(value: Any) -> bool:
-    return value is None or (isinstance(value, str) and value.strip() == "") or (
-        isinstance(value, float) and math.isnan(value))
-
-
-def _column_values(book: SavedBook, sheet: str, header: str) -> set[str]:
-    """The texts of the column headed header (row 1) of sheet, or empty when absent."""
-    rows = book.rows(sheet)
-    if not rows:
-        return set()
-    head = [str(v).strip() if v is not None else "" for v in rows[0]]
-    if header not in head:
-        return set()
-    i = head.index(header)
-    return {str(r[i]).strip() for r in rows[1:] if not _blank(r[i])}
-
-
-def _context(book: SavedBook) -> dict[str, Any]:
-    """What the checks read besides a change: bid floor and ceiling, the campaigns in the exports."""
-    sheets = book.wb.sheetnames
-    return {
-        "bid_floor": book.named_value("bid_floor"),
-        "bid_ceiling": book.named_value("bid_ceiling"),
-        "campaigns": _column_values(book, "in_campaigns", "campaign") | _column_values(book, "in_ad_products", "campaign"),
-        "has_campaign_sheets": "in_campaigns" in sheets or "in_ad_products" in sheets,
-    }
-
-
 def _saved_actions(book: SavedBook, formulas: bool = False) -> list[tuple[int, list[Any]]]:
     """[(sheet row, visible values)] of the Actions list as the file saved it (blank Kind = an empty row).
 
@@ -132,61 +91,21 @@ def _saved_actions(book: SavedBook, formulas: bool = False) -> list[tuple[int, l
             for r in range(first_row, min(last, len(rows) - 1) + 1)]
 
 
-def _computed_actions(book: SavedBook) -> tuple[list[tuple[int, list[Any]]], list[Problem]]:
-    """[(sheet row, visible values)] of the change list computed from the workbook's inputs, and input problems."""
-    tables, problems = saved_inputs(book)
-    settings, built_on, setting_problems = saved_settings(book)
-    problems += [Problem("Settings", None, p.column, p.message) for p in setting_problems]
-    edits = edits_in(book)
-    fold = settings.fold_plurals
-    decisions: dict[str, dict] = {}
-    for entry in DECISION_SHEETS:
-        for parts, value in edits.decisions.get(entry.label, {}).items():
-            decisions.setdefault(entry.label, {})[entry.key_of(parts, fold)] = value
-            why = entry.decl.problem(value)
-            if why is not None:
-                problems.append(Problem(entry.sheet, None, entry.value_header,
-                                        f"{' / '.join(_text(p) for p in parts)}: {why}; the change is not written"))
-    targets: dict[str, float] = {}
-    for pid, value in edits.targets.items():
-        if isinstance(value, numbers.Real) and not isinstance(value, bool):
-            targets[pid] = float(value)
-        else:
-            problems.append(Problem(PROFIT_TARGET.sheet, None, PROFIT_TARGET.value_header,
-                                    f"{pid}: {value!r} is not a target ACoS; the product's other target is used"))
-    for label, why in edits.lost:
-        problems.append(Problem(label, None, "Decision", why))
-    carry = CarryResult(settings, targets=targets, decisions=decisions, source=str(book.path), inputs_as_saved=True)
-    inputs = Inputs(dict(tables))
-    plan = plan_workbook(inputs, settings, built_on, [], carry)
-    frame = plan.tables["Actions"].frame
-    rows = []
-    for i, record in enumerate(frame[list(KEYS)].itertuples(index=False, name=None)):
-        if not _blank(record[0]):
-            rows.append((FIRST_ROW + i, list(record)))
-    return rows, problems, plan.tables, fold
-
-
-def _overwritten_results(book: SavedBook, tables: dict, fold: bool) -> list[Problem]:
+def _overwritten_results(saved: SavedInputs, tables: dict, fold: bool) -> list[Problem]:
     """A Problem per Final cell on Bids, Terms or Budget whose saved value is not what its formula gives."""
     out = []
     for entry in DECISION_SHEETS:
         decl = entry.decl
         planned = tables.get(decl.table)
-        wanted = (*decl.keys, decl.result)
-        areas = named_columns(book.wb, {k: decl.name_of(k) for k in wanted}) if decl.result else None
-        if planned is None or areas is None:
+        if planned is None or entry.label not in saved.results:
             continue
+        wanted = (*decl.keys, decl.result)
         computed = {entry.key_of(parts, fold): value for *parts, value in
                     planned.frame[list(wanted)].itertuples(index=False, name=None)}
-        first = next(iter(areas.values())).first_row
-        rows = book.rows(areas[decl.result].sheet, frozenset(a.first_col for a in areas.values()))
-        for r in range(first, min(areas[decl.result].last_row, len(rows) - 1) + 1):
-            parts = [rows[r][areas[k].first_col] for k in decl.keys]
-            got = rows[r][areas[decl.result].first_col]
+        for row, parts, got in saved.results[entry.label]:
             key = entry.key_of(parts, fold)
             if key in computed and not _blank(got) and not _same_value(computed[key], got):
-                out.append(Problem(decl.sheet, r + 1, decl.result_header or decl.result,
+                out.append(Problem(decl.sheet, row, decl.result_header or decl.result,
                                    f"holds {got!r} where its formula gives {computed[key]!r}: a formula was typed "
                                    "over by hand; the exported list uses the formula's value (type your decision "
                                    "in Decision instead)"))
@@ -237,13 +156,16 @@ def _typed_over(saved: list[tuple[int, list[Any]]]) -> list[Problem]:
 def read_actions(workbook: Path) -> tuple[list[tuple[int, list[Any]]], dict[str, Any], dict[str, Any]]:
     """The change rows [(sheet row, visible values)], the context for checks, and what was noticed.
 
+    The file is read under the reading guard; the change list is then planned outside it, so a bug
+    in planning is an internal error, not a file that cannot be read.
+
     Raises:
         WorkbookNotFound, NotAWorkbook, NoActionsSheet.
     """
-    with SavedBook(Path(workbook)) as book:
+    with reading(workbook, NotAWorkbook), SavedBook(Path(workbook)) as book:
         if SHEET not in book.wb.sheetnames:
             raise NoActionsSheet(f"{book.path.name} has no {SHEET} sheet; build it with a sheetbuilder that writes one")
-        context = _context(book)
+        context = read_context(book)
         saved = _saved_actions(book)
         notes: dict[str, Any] = {"computed": False, "problems": [], "overwritten": [], "unchecked": False}
         if "in_catalog" not in book.wb.sheetnames or "Settings" not in book.wb.sheetnames:
@@ -251,53 +173,17 @@ def read_actions(workbook: Path) -> tuple[list[tuple[int, list[Any]]], dict[str,
                 raise NoActionsSheet(f"{book.path.name} stores no values on {SHEET} and holds no inputs to "
                                      "compute them from; open and save it in a spreadsheet program first")
             return [(r, v) for r, v in saved if not _blank(v[0])], context, notes
-        computed, problems, tables, fold = _computed_actions(book)
-        notes.update(computed=True, problems=problems)
-        if all(_blank(values[0]) for _, values in saved):
-            notes["unchecked"] = bool(computed)  # no saved values: a program that drops them saved it
-            notes["overwritten"] = _typed_over(_saved_actions(book, formulas=True))
-        else:
-            notes["overwritten"] = _overwritten(saved, computed) + _overwritten_results(book, tables, fold)
-        return computed, context, notes
-
-
-def check_change(row: int, values: list[Any], context: dict[str, Any]) -> list[Problem]:
-    """The problems of one change (none when it can be written)."""
-    named = dict(zip(KEYS, values))
-    kind, campaign, group, term, new = (named.get(k) for k in ("kind", "campaign", "ad_group", "target", "new"))
-    kind = str(kind).strip().lower()
-    out: list[Problem] = []
-
-    def bad(column: str, message: str) -> None:
-        out.append(Problem(SHEET, row, column, message))
-
-    if kind not in KINDS:
-        bad("Kind", f"unknown kind {values[0]!r}; expected one of {', '.join(KINDS)}")
-        return out
-    if kind in ("bid", "budget"):
-        if new == INVALID:
-            bad("New", f"the {kind}'s Decision is not a valid word or number (its Final shows {INVALID}); "
-                       "correct or clear it")
-        elif not _is_number(new) or new <= 0:
-            bad("New", f"a {kind} needs a positive number in New, got {'blank' if _blank(new) else repr(new)}")
-        elif kind == "bid":
-            floor, ceiling = context.get("bid_floor"), context.get("bid_ceiling")
-            if _is_number(floor) and new < floor:
-                bad("New", f"the bid {new:g} is below the bid floor {floor:g}")
-            if _is_number(ceiling) and new > ceiling:
-                bad("New", f"the bid {new:g} is above the bid ceiling {ceiling:g}")
-    if kind in ADDS:
-        if _blank(campaign) or _blank(group):
-            bad("Campaign" if _blank(campaign) else "Ad group",
-                "no destination: choose the campaign and ad group to add it to")
-        elif context.get("has_campaign_sheets") and str(campaign).strip() not in context.get("campaigns", set()):
-            bad("Campaign", f"the campaign {str(campaign)!r} is not in the exports (in_campaigns, in_ad_products)")
-    if kind in ADDS or kind == "add negative":
-        if _blank(term):
-            bad("Target or term", f"an {kind} needs a term")
-        if kind == "add negative" and _blank(campaign):
-            bad("Campaign", "a negative needs its campaign")
-    return out
+        inputs = read_saved(book)
+        no_values = all(_blank(values[0]) for _, values in saved)
+        typed = _saved_actions(book, formulas=True) if no_values else []
+    computed, problems, tables, fold = computed_actions(inputs)
+    notes.update(computed=True, problems=problems)
+    if no_values:
+        notes["unchecked"] = bool(computed)  # no saved values: a program that drops them saved it
+        notes["overwritten"] = _typed_over(typed)
+    else:
+        notes["overwritten"] = _overwritten(saved, computed) + _overwritten_results(inputs, tables, fold)
+    return computed, context, notes
 
 
 def _money(value: Any) -> Any:
@@ -346,10 +232,9 @@ def unapplied_rows(workbook: Path, present: set[tuple]) -> list[tuple[int, list[
     A change whose kind and keys are already in this week's list (present) is left out: this
     week's proposal or decision replaces it. None without a Follow-up sheet.
     """
-    from .plan_followup import CHANGE_DEFS, NAME, SHEET as FOLLOWUP  # the sheet's layout, declared once there
     visible = [d.key for d in CHANGE_DEFS]
     with SavedBook(Path(workbook)) as book:
-        area = named_area(book.wb, NAME)
+        area = named_area(book.wb, FOLLOWUP_NAME)
         if area is None:
             return []
         rows = book.rows(area.sheet, frozenset(range(area.first_col, area.first_col + len(visible))))
@@ -391,10 +276,10 @@ def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool =
     """
     workbook, output = Path(workbook), Path(output)
     _check_output(workbook, output, fmt, force)
-    with reading(workbook, NotAWorkbook):
-        rows, context, notes = read_actions(workbook)
-        if include_unapplied:
-            present = {tuple("" if _blank(v) else v for v in values[:5]) for _, values in rows}
+    rows, context, notes = read_actions(workbook)
+    if include_unapplied:
+        present = {tuple("" if _blank(v) else v for v in values[:5]) for _, values in rows}
+        with reading(workbook, NotAWorkbook):
             rows = rows + unapplied_rows(workbook, present)
     problems: list[Problem] = list(notes["problems"]) + list(notes["overwritten"])
     refused: list[int] = []

@@ -15,7 +15,7 @@ import numpy as np
 import pandas as pd
 
 from .formula import col_letter, quote_sheet, resolve
-from .spec import DATA, FORMULA, Cell, Column
+from .spec import DATA, FORMULA, Cell, Column, Rule, Validation
 
 Reference = Callable[[pd.DataFrame, Any], Any]
 
@@ -130,6 +130,14 @@ class EditableColumns:
         ranges = planned.ranges(self.sheet, self.name)
         named = (*self.keys, self.value, *((self.result,) if self.result else ()))
         return [(self.name_of(k), "=" + ranges[f"{self.name}.{k}"]) for k in named]
+
+
+def decision_validation(decl: EditableColumns, row: int, col: int, n: int, error_message: str,
+                        input_message: str = "") -> Validation:
+    """The data validation of a Decision column of n rows from row: the values decision_problem accepts."""
+    rule = Rule("number or words", decl.words) if decl.numeric else Rule("one of", decl.words)
+    return Validation(row, col, rule, last_row=row + n - 1, error_title="Not a decision", error_message=error_message,
+                      input_title="Decision" if input_message else "", input_message=input_message)
 
 
 def editable(defs: list["ColumnDef"], label: str, sheet: str, name: str, keys: tuple[str, ...], value: str,

@@ -1,6 +1,6 @@
 """What became of last week's changes: the facts the Follow-up sheet is planned from.
 
-:func:`read_followup` reads last week's workbook (given with ``--previous``) and computes its
+:func:`sheetbuilder.change_list.read_followup` reads last week's workbook (given with ``--previous``) and computes its
 final change list from the inputs and decisions it holds, with the same planning code that
 ``changes`` uses (so it does not depend on whether the user ran ``changes``). Each change is
 then looked up in this week's exports: whether it was applied (``yes``, ``no`` or ``cannot
@@ -16,14 +16,11 @@ from __future__ import annotations
 import datetime as dt
 import math
 from dataclasses import dataclass, field
-from pathlib import Path
 from typing import Any
 
 import pandas as pd
 
 from . import contract as c
-from .errors import WARNING, Problem
-from .saved import SavedBook, saved_inputs, saved_settings
 from .settings import Settings
 
 YES, NO, CANNOT_TELL = "yes", "no", "cannot tell"
@@ -247,55 +244,3 @@ def followup_rows(changes: list[dict], before: dict, now: dict, targets: dict[st
                 row[m + suffix] = v
         out.append(row)
     return out
-
-
-def _previous_changes(book: SavedBook) -> tuple[list[dict], dict, Settings]:
-    """Last week's final change list (the rows `changes` exports), computed from its own inputs and decisions.
-
-    Returns the list, the planned tables and the workbook's settings.
-    """
-    from .changes import KEYS, _computed_actions, _context, check_change  # changes imports the pipeline
-    rows, _, planned, _ = _computed_actions(book)
-    context = _context(book)
-    # The rows `changes` writes: a row it refuses (no destination, an invalid Decision) was never applicable.
-    named = [dict(zip(KEYS, values)) for r, values in rows if not check_change(r, values, context)]
-    bids = planned.get("Bids")
-    product_of = {}
-    if bids is not None and "product_id" in bids.frame:
-        product_of = {(r[0], r[1], r[2], r[3]): r[4] for r in bids.frame[
-            ["campaign", "ad_group", "target", "match_type", "product_id"]].itertuples(index=False, name=None)}
-    for ch in named:
-        if _blank(ch.get("product_id")) and ch.get("kind") == "bid":
-            ch["product_id"] = product_of.get((ch["campaign"], ch["ad_group"], ch["target"], ch["match_type"]), "")
-    return named, planned, saved_settings(book)[0]
-
-
-def read_followup(previous: Path, tables: dict, settings: Settings, period: Any = None
-                  ) -> tuple[Followup | None, list[Problem]]:
-    """The follow-up of last week's workbook against this week's exports, or None and the reason.
-
-    Args:
-        previous: last week's workbook (only read).
-        tables: this week's input tables (as read, before any carried correction).
-        settings: this week's settings.
-        period: this week's period read from the exports' dates, when they carry dates.
-    """
-    name = Path(previous).name
-    with SavedBook(Path(previous)) as book:
-        before, _ = saved_inputs(book)
-        changes, planned, old_settings = _previous_changes(book)
-    current = span_of(settings, period)
-    last = span_of(old_settings, None)
-    if same_exports(before, tables):
-        return None, [Problem(name, None, None, "the previous workbook was built from the same exports as this one; "
-                                                "no Follow-up sheet (build it from next week's exports)", WARNING)]
-    if last and current and (last.end > current.end or last.start > current.start):
-        return None, [Problem(name, None, None, f"the previous workbook's period ({last}) is later than this one's "
-                                                f"({current}); no Follow-up sheet", WARNING)]
-    profit = planned["Profit"].frame
-    products = {str(r["product_id"]): {k: r[k] for k in ("revenue", "ad_spend", "tacos", "net_profit", "status",
-                                                         "direction")}
-                for r in profit.to_dict("records")}
-    targets = {str(p): float(t) for p, t in zip(profit["product_id"], profit["target_acos"]) if _number(t) is not None}
-    rows = followup_rows(changes, before, tables, targets)
-    return Followup(rows, products, last, current, name, settings.min_clicks), []

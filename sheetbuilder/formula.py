@@ -46,6 +46,15 @@ def range_ref(sheet: str, col: int, first_row: int, last_row: int) -> str:
     return f"{quote_sheet(sheet)}!${letter}${first_row + 1}:${letter}${max(last_row, first_row) + 1}"
 
 
+def block_sum(rng: str, first: str, last: str) -> str:
+    """SUM(INDEX(rng,first):INDEX(rng,last)): a block of rows of a sorted range, summed without a per-row search.
+
+    The one definition of the block sum the planners write (templates such as '{rng:targets.spend}' and
+    '{c:first}' are resolved later). Its cost grows with the rows summed, not rows x rows.
+    """
+    return f"SUM(INDEX({rng},{first}):INDEX({rng},{last}))"
+
+
 def functions_in(formula: str) -> set[str]:
     """The function names a formula calls (text inside string literals ignored)."""
     return {name.upper() for name in _FUNCTION.findall(_STRING.sub('""', formula))}

@@ -15,14 +15,15 @@ change): a Decision typed later changes which rows are listed, not their order.
 """
 from __future__ import annotations
 
-import re
 from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
+from .anchors import without_absent
 from .columns import ColumnDef, PlannedTable, count_formula, plan_table
+from .formula import cell_ref
 from .plan_lists import SPARE_ROWS
 from .settings import Settings
 from .spec import DATA, Cell, Sheet, Table
@@ -31,6 +32,7 @@ SHEET = "Actions"
 HEADER_ROW = 3  # 0-based: title, counts, a note, then the header (the layout the changes command reads)
 HEADERS = ("Kind", "Campaign", "Ad group", "Target or term", "Match type", "Current", "New", "Reason", "Product ID",
            "Money at stake")
+SOURCES = ("bids", "harvest", "negative_list", "budget_campaigns")  # the tables the list reads (each may be absent)
 NO_DESTINATION = "choose destination: a live campaign and ad group for this product"
 @dataclass
 class ActionsContext:
@@ -88,16 +90,16 @@ def defs(totals: list[str]) -> list[ColumnDef]:
                   _ref("Kind"), kind, width=16),
         ColumnDef("campaign", "Campaign", "text", "Where the change goes.", _ref("Campaign"), _field({
             1: _idx("bids.campaign"), 2: _idx("harvest.dest_campaign"), 3: _idx("harvest.campaign"),
-            4: _idx("negatives.campaign"), 5: _idx("budget_campaigns.campaign")}), width=26),
+            4: _idx("negative_list.campaign"), 5: _idx("budget_campaigns.campaign")}), width=26),
         ColumnDef("ad_group", "Ad group", "text", "Blank for a campaign-level change.", _ref("Ad group"), _field({
             1: _idx("bids.ad_group"), 2: _idx("harvest.dest_ad_group"), 3: _idx("harvest.ad_group"),
-            4: _idx("negatives.ad_group")}), width=18),
+            4: _idx("negative_list.ad_group")}), width=18),
         ColumnDef("target", "Target or term", "text", "The keyword, target or search term.", _ref("Target or term"),
                   _field({1: _idx("bids.target"), 2: _idx("harvest.term"), 3: _idx("harvest.term"),
-                          4: _idx("negatives.term")}), width=28),
+                          4: _idx("negative_list.term")}), width=28),
         ColumnDef("match_type", "Match type", "text", "The match type to use.", _ref("Match type"), _field({
             1: _idx("bids.match_type"), 2: _idx("harvest.match"), 3: '"negative exact"',
-            4: _idx("negatives.neg_match")}), width=15),
+            4: _idx("negative_list.neg_match")}), width=15),
         ColumnDef("current", "Current", "money", "The bid or daily budget now.", _num("Current"), _field({
             1: "INDEX({rng:bids.bid},{c:pos})", 5: "INDEX({rng:budget_campaigns.budget},{c:pos})"}), width=10),
         ColumnDef("new", "New", "money", "The new bid, starting bid or daily budget.", _num("New"), _field({
@@ -107,17 +109,17 @@ def defs(totals: list[str]) -> list[ColumnDef]:
             1: 'IF(INDEX({rng:bids.decision},{c:pos})="",INDEX({rng:bids.reason},{c:pos}),"your decision")',
             2: 'IF(INDEX({rng:harvest.dest_campaign},{c:pos})="","%s","search term that sells")' % NO_DESTINATION,
             3: '"so the new keyword does not compete with its source"',
-            4: _idx("negatives.rule"),
+            4: _idx("negative_list.rule"),
             5: 'IF(INDEX({rng:budget_campaigns.decision},{c:pos})="","follows its products\' spend","your decision")'}),
                   width=34),
         ColumnDef("product_id", "Product ID", "text", "The product (or the campaign's products) the change is for.",
                   _ref("Product ID"), _field({
                       1: _idx("bids.product_id"), 2: _idx("harvest.product_id"), 3: _idx("harvest.product_id"),
-                      4: _idx("negatives.product_id"), 5: _idx("budget_campaigns.products")}), width=16),
+                      4: _idx("negative_list.product_id"), 5: _idx("budget_campaigns.products")}), width=16),
         ColumnDef("money", "Money at stake", "money",
                   "Last period's spend of the target or term, or the size of the budget change.", _num("Money at stake"),
                   _field({1: "INDEX({rng:bids.spend},{c:pos})", 2: "INDEX({rng:harvest.spend},{c:pos})",
-                          3: "INDEX({rng:harvest.spend},{c:pos})", 4: "INDEX({rng:negatives.spend},{c:pos})",
+                          3: "INDEX({rng:harvest.spend},{c:pos})", 4: "INDEX({rng:negative_list.spend},{c:pos})",
                           5: "IF(ISNUMBER(INDEX({rng:budget_campaigns.final},{c:pos})),ABS(INDEX("
                              "{rng:budget_campaigns.final},{c:pos})-INDEX({rng:budget_campaigns.budget},{c:pos})),\"\")"}),
                   width=11),
@@ -186,8 +188,8 @@ def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
 
 
 def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settings: Settings,
-                 sizes: dict[str, int]) -> tuple[Sheet, PlannedTable, list[int]]:
-    """The Actions sheet, its reference frame, and the count of changes of each kind."""
+                 sizes: dict[str, int]) -> tuple[Sheet, PlannedTable, list[int], list[str]]:
+    """The Actions sheet, its reference frame, the count of changes of each kind and the cells that count them."""
     changes, counts = _changes(tables)
     count_cells = []
     totals = []
@@ -200,7 +202,9 @@ def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settin
     for table, total in sources:
         totals.append(total() if table in tables and len(tables[table].frame) else "0")
     labels = ["Bid changes", "To add", "Source negatives", "Negatives", "Budgets"]
+    count_refs = []
     for label, total, value in zip(labels, totals, counts):
+        count_refs.append(f"{SHEET}!{cell_ref(1, len(count_cells) + 1, True)}")  # row 2, beside its label
         count_cells += [Cell(label, style="note"), Cell(float(value), "=" + total if total != "0" else "=0", "int_left")]
     rows = sum(sizes.values())
     static = ("Decision aid only: review every change before applying it to a live ad account. "
@@ -217,14 +221,12 @@ def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settin
                     f'to see them all.","{static}")')
     note_value = (f"Showing the first {n_rows} of {len(changes)} changes; {how} to see them all."
                   if len(changes) > n_rows else static)
-    columns = defs(totals)
-    needed = {m for d in columns for m in re.findall(r"\{rng:([\w.]+)\}", d.formula or "")}
-    # A source this workbook lacks has a count of 0, so its branch is never taken; point it at blank cells.
-    filled = {**{k: "Guide!$ZZ$1:$ZZ$2" for k in needed}, **ranges}
-    planned = plan_table(columns, base, ctx, HEADER_ROW + 1, filled, with_totals=False)
+    # A source this workbook lacks has a count of 0, so its branch is never taken: it reads as blank.
+    columns = without_absent(defs(totals), ranges, SOURCES)
+    planned = plan_table(columns, base, ctx, HEADER_ROW + 1, ranges, with_totals=False)
     above = [[Cell("Actions: every change whose final value differs from today", style="title")],
              count_cells,
              [Cell(note_value, note_formula, "alert" if len(changes) > n_rows else "note")]]
     sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, planned.columns), freeze=(HEADER_ROW + 1, 1),
                   tab_color="#0B5C8A")
-    return sheet, planned, counts
+    return sheet, planned, counts, count_refs

@@ -26,12 +26,13 @@ import numpy as np
 import pandas as pd
 
 from .blends import attach_groups, blends_row_column, fetch
-from .columns import (ColumnDef, PlannedTable, apply_decision, blank_div, decision_formula, editable, exports_only,
+from .columns import (ColumnDef, PlannedTable, apply_decision, blank_div, decision_formula, decision_validation,
+                      editable, exports_only,
                       plan_table, running_key)
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
 from .settings import Settings
-from .spec import DATA, INPUT, Cell, Highlight, Sheet, Table, Validation
+from .spec import DATA, INPUT, Cell, Highlight, Sheet, Table
 
 SHEET = "Bids"
 HEADER_ROW = 3
@@ -272,15 +273,12 @@ def plan_bids(targets: InputSheet, campaigns: pd.DataFrame | None, groups: Plann
     n = len(base)
     decision_col = keys.index("decision")
     first = HEADER_ROW + 1
-    letter = planned.letters["decision"]
     validations = []
     if n:
-        validations.append(Validation(first, decision_col, {
-            "validate": "custom", "value": f'=OR(ISNUMBER({letter}{first + 1}),{letter}{first + 1}="keep")',
-            "ignore_blank": True, "error_title": "Not a decision",
-            "error_message": "Leave blank to follow the proposal, type a bid such as 0.85, or type keep.",
-            "input_title": "Decision", "input_message": "Blank = follow the proposal; a bid; or keep."},
-            last_row=first + n - 1))
+        validations.append(decision_validation(
+            EDITABLE_COLUMNS, first, decision_col, n,
+            "Leave blank to follow the proposal, type a bid such as 0.85, or type keep.",
+            "Blank = follow the proposal; a bid; or keep."))
     highlights = [Highlight(keys.index("reason"), text, state) for text, state in (
         ("lower to value bid", "Lavender"), ("lower, capped at maximum cut", "Lavender"),
         ("raise to value bid", "Ocean"), ("raise, capped at maximum raise", "Ocean"),

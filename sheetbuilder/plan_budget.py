@@ -17,12 +17,13 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from .columns import ColumnDef, PlannedTable, apply_decision, decision_formula, editable, plan_table, running_key
-from .formula import col_letter, quote_sheet
+from .columns import (ColumnDef, PlannedTable, apply_decision, decision_formula, decision_validation, editable,
+                      plan_table, running_key)
+from .formula import block_sum, col_letter, quote_sheet
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
 from .settings import Settings
-from .spec import DATA, INPUT, Cell, Highlight, Sheet, Table, Validation
+from .spec import DATA, INPUT, Cell, Highlight, Sheet, Table
 
 SHEET = "Budget"
 HEADER_ROW = 4
@@ -101,7 +102,7 @@ PRODUCT_DEFS: list[ColumnDef] = [
 
 
 def _link_sum(key: str) -> str:
-    return "SUM(INDEX({rng:links.%s},{row:lfirst}):INDEX({rng:links.%s},{row:llast}))" % (key, key)
+    return block_sum("{rng:links.%s}" % key, "{row:lfirst}", "{row:llast}")
 
 
 def _scale(df: pd.DataFrame, ctx: BudgetContext) -> pd.Series:
@@ -157,7 +158,7 @@ LINK_DEFS: list[ColumnDef] = [
               kind=DATA, width=14),
     ColumnDef("spend", "Ad spend", "money", "The product's spend in the campaign: its weight.",
               lambda df, ctx: df["spend"],
-              "=SUM(INDEX({rng:ad_products.spend},{row:ad_first}):INDEX({rng:ad_products.spend},{row:ad_last}))",
+              "=" + block_sum("{rng:ad_products.spend}", "{row:ad_first}", "{row:ad_last}"),
               width=11),
     ColumnDef("ratio", "Spend change", "ratio", "The product's final / current spend (above).",
               lambda df, ctx: df["brow"].map(lambda r: ctx.products["ratio"].iloc[int(r) - 1]).astype(float),
@@ -198,8 +199,9 @@ def _links(ad_layout: InputSheet | None, profit: pd.DataFrame) -> pd.DataFrame:
 
 
 def plan_budget(profit: PlannedTable, campaigns: InputSheet | None, ad_layout: InputSheet | None,
-                settings: Settings, ranges: dict[str, str], decide=None) -> tuple[Sheet, dict[str, PlannedTable]]:
-    """The Budget sheet: products, then campaigns and the campaign-product links they blend."""
+                settings: Settings, ranges: dict[str, str], decide=None
+                ) -> tuple[Sheet, dict[str, PlannedTable], dict[str, tuple[str, float]]]:
+    """The Budget sheet, its tables (products, campaigns, links), and its anchors {name: (cell, value)}."""
     ctx = BudgetContext(settings, profit.frame)
     n = len(profit.frame)
     base = pd.DataFrame({"product_id": profit.frame["product_id"].astype(object).to_numpy(),
@@ -221,6 +223,7 @@ def plan_budget(profit: PlannedTable, campaigns: InputSheet | None, ad_layout: I
              [Cell("Decision aid only: review before changing a live ad account. The shift keeps total spend "
                    "unchanged; type a spend or budget, or keep, in Decision to override.", style="note")],
              [Cell("Spend shifted"), Cell(shifted, shifted_formula, "money_total")]]
+    provides = {"budget.shifted": (f"{quote_sheet(SHEET)}!$B${len(above)}", shifted)}  # the cell just written
     validations = []
     more: list[Table] = []
     if campaigns is not None and len(campaigns.frame):
@@ -258,20 +261,15 @@ def plan_budget(profit: PlannedTable, campaigns: InputSheet | None, ad_layout: I
                       title="How each campaign blends its products (working rows)")]
         tables.update({"Budget campaigns": camp, "Budget links": link_table})
         if len(cbase):
-            letter = col_letter([d.key for d in CAMPAIGN_DEFS].index("decision"))
-            validations.append(Validation(c_first + 1, [d.key for d in CAMPAIGN_DEFS].index("decision"), {
-                "validate": "custom", "value": f'=OR(ISNUMBER({letter}{c_first + 2}),{letter}{c_first + 2}="keep")',
-                "ignore_blank": True, "error_title": "Not a decision",
-                "error_message": "Leave blank, type a budget, or type keep."}, last_row=c_first + len(cbase)))
+            validations.append(decision_validation(
+                CAMPAIGN_EDITABLE_COLUMNS, c_first + 1, [d.key for d in CAMPAIGN_DEFS].index("decision"), len(cbase),
+                "Leave blank, type a budget, or type keep."))
     if n:
-        letter = col_letter(keys.index("decision"))
-        validations.append(Validation(first, keys.index("decision"), {
-            "validate": "custom", "value": f'=OR(ISNUMBER({letter}{first + 1}),{letter}{first + 1}="keep")',
-            "ignore_blank": True, "error_title": "Not a decision",
-            "error_message": "Leave blank, type a spend, or type keep."}, last_row=first + n - 1))
+        validations.append(decision_validation(EDITABLE_COLUMNS, first, keys.index("decision"), n,
+                                               "Leave blank, type a spend, or type keep."))
     col = keys.index("direction")
     sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, products.columns, products.totals,
                                                   highlights=[Highlight(col, "cut", "Plum"),
                                                               Highlight(col, "grow", "Ocean")]),
                   more=more, validations=validations, freeze=(HEADER_ROW + 1, 1), tab_color="#24475E")
-    return sheet, tables
+    return sheet, tables, provides

@@ -21,6 +21,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from .anchors import without_absent
 from .columns import ColumnDef, PlannedTable, plan_table
 from .followup import CANNOT_TELL, NO, YES, Followup, fold
 from .formula import quote_sheet
@@ -254,8 +255,8 @@ def plan_followup(followup: Followup, profit: PlannedTable, ranges: dict[str, st
     base = pd.DataFrame(rows, columns=data_keys) if rows else pd.DataFrame(
         {k: pd.Series(dtype=object) for k in data_keys})
     base["tpos"] = target_positions(followup.rows, targets)
-    filled = {**{f"targets.{m}": "Guide!$ZZ$1:$ZZ$2" for m in NOW_METRICS}, **ranges}  # never read without targets
-    changes = plan_table(CHANGE_DEFS, base, ctx, FIRST_TABLE_ROW + 1, filled, with_totals=False)
+    defs = without_absent(CHANGE_DEFS, ranges, ("targets",))  # without targets every tpos is 0: never read
+    changes = plan_table(defs, base, ctx, FIRST_TABLE_ROW + 1, ranges, with_totals=False)
     c_rng = changes.ranges(SHEET, "fu")
     products_first = FIRST_TABLE_ROW + 1 + max(len(base), 1) + 2
     products = plan_table(product_defs(), _products_frame(followup, profit), ctx, products_first + 1, ranges,

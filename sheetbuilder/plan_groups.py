@@ -16,6 +16,7 @@ import pandas as pd
 
 from .blends import BLEND_TITLE, BlendContext, blend_columns, blend_frame
 from .columns import ColumnDef, PlannedTable, plan_table
+from .formula import block_sum
 from .plan_inputs import InputSheet
 from .settings import Settings
 from .spec import DATA, Cell, Sheet, Table
@@ -54,7 +55,7 @@ DEFS: list[ColumnDef] = [
               lambda df, ctx: df["product_id"], kind=DATA, width=12),
     ColumnDef("spend", "Ad spend", "money", "The product's ad spend in this ad group: its weight in the blend.",
               lambda df, ctx: df["spend"],
-              "=SUM(INDEX({rng:ad_products.spend},{c:ad_first}):INDEX({rng:ad_products.spend},{c:ad_last}))", width=12,
+              "=" + block_sum("{rng:ad_products.spend}", "{c:ad_first}", "{c:ad_last}"), width=12,
               export=True),
     ColumnDef("weight", "Blend weight", "money",
               "The product's weight in its ad group's blend: its ad spend, or 1 each where the ad group has no spend "

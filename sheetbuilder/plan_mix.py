@@ -19,7 +19,7 @@ import pandas as pd
 
 from . import contract as c
 from .columns import ColumnDef, PlannedTable, blank_div, plan_table
-from .formula import col_letter, quote_sheet
+from .formula import block_sum, col_letter, quote_sheet
 from .normalise import normalise
 from .palette import STATES
 from .plan_inputs import InputSheet, ad_type_codes
@@ -120,11 +120,11 @@ def _product_sum(key: str):
 
 
 def _block(key: str) -> str:
-    return "=SUM(INDEX({rng:targets.%s},{c:first}):INDEX({rng:targets.%s},{c:last}))" % (key, key)
+    return "=" + block_sum("{rng:targets.%s}" % key, "{c:first}", "{c:last}")
 
 
 def _self_block(key: str) -> str:
-    return "SUM(INDEX({rng:self.%s},{c:pfirst}):INDEX({rng:self.%s},{c:plast}))" % (key, key)
+    return block_sum("{rng:self.%s}" % key, "{c:pfirst}", "{c:plast}")
 
 
 MATCH_DEFS: list[ColumnDef] = [

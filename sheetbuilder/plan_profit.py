@@ -20,6 +20,7 @@ import numpy as np
 import pandas as pd
 
 from .columns import ColumnDef, PlannedTable, blank_div, editable, plan_table
+from .formula import block_sum
 from .plan_inputs import InputSheet
 from .readers import Inputs
 from .settings import Settings
@@ -47,7 +48,7 @@ def _block(table: str, column: str) -> str:
     """Formula summing one column over a product's block of rows on an in_ sheet."""
     first, last = {"store_sales": ("sales_first", "sales_last"), "ad_products": ("ad_first", "ad_last")}[table]
     rng = "{rng:%s.%s}" % (table, column)
-    return f'=IF({{c:{first}}}="",0,SUM(INDEX({rng},{{c:{first}}}):INDEX({rng},{{c:{last}}})))'
+    return f'=IF({{c:{first}}}="",0,{block_sum(rng, "{c:" + first + "}", "{c:" + last + "}")})'
 
 
 def _cat(column: str) -> str:

@@ -4,32 +4,31 @@ from __future__ import annotations
 import datetime as dt
 
 from .settings import SETTINGS, Settings
-from .spec import DATA, INPUT, Cell, Sheet, Validation
+from .spec import DATA, INPUT, Cell, Rule, Sheet, Validation
 
 SHEET = "Settings"
 FIRST_ROW = 4  # 0-based row of the first setting
 _STYLE = {"percent": "percent", "number": "ratio", "money": "money", "choice": "text", "int": "int", "date": "date", "text": "text", "bool": "text"}
 
 
-def _validation(spec) -> dict | None:
-    """Data validation options for a live setting's cell."""
-    message = {"error_title": "Not a valid value", "input_title": spec.label[:32],
-               "input_message": spec.help[:255]}
+def _validation(spec, row: int) -> Validation | None:
+    """The data validation of a live setting's cell at row."""
     if spec.kind in ("percent", "number", "money"):
-        return {"validate": "decimal", "criteria": "between", "minimum": spec.low, "maximum": spec.high,
-                "error_message": f"Enter a number from {spec.low} to {spec.high} (percentages as 8% or 0.08).",
-                **message}
-    if spec.kind == "int":
-        return {"validate": "integer", "criteria": "between", "minimum": int(spec.low), "maximum": int(spec.high),
-                "error_message": f"Enter a whole number from {int(spec.low)} to {int(spec.high)}.", **message}
-    if spec.kind == "choice":
-        return {"validate": "list", "source": list(spec.choices), **message,
-                "error_message": "Choose one of: " + ", ".join(spec.choices)}
-    if spec.kind == "date":
-        return {"validate": "date", "criteria": "between", "minimum": dt.datetime(2000, 1, 1),
-                "maximum": dt.datetime(2100, 12, 31), "error_message": "Enter a date, or leave it blank.",
-                "ignore_blank": True, **message}
-    return None
+        rule = Rule("decimal", low=spec.low, high=spec.high)
+        error = f"Enter a number from {spec.low} to {spec.high} (percentages as 8% or 0.08)."
+    elif spec.kind == "int":
+        rule = Rule("integer", low=int(spec.low), high=int(spec.high))
+        error = f"Enter a whole number from {int(spec.low)} to {int(spec.high)}."
+    elif spec.kind == "choice":
+        rule = Rule("one of", tuple(spec.choices))
+        error = "Choose one of: " + ", ".join(spec.choices)
+    elif spec.kind == "date":
+        rule = Rule("date", low=dt.datetime(2000, 1, 1), high=dt.datetime(2100, 12, 31))
+        error = "Enter a date, or leave it blank."
+    else:
+        return None
+    return Validation(row, 1, rule, error_title="Not a valid value", error_message=error,
+                      input_title=spec.label[:32], input_message=spec.help[:255])
 
 
 def _shown(spec, value):
@@ -69,14 +68,14 @@ def plan_settings(settings: Settings, built_on: dt.date, period=None,
             cell = Cell(value, style=style + "_carried", kind=INPUT,
                         note=f"Carried from last week's workbook; settings.toml or the default gives {built}. "
                              "Type that value back to follow settings.toml again.")
-            options = _validation(spec)
-            if options:
-                validations.append(Validation(row, 1, options))
+            validation = _validation(spec, row)
+            if validation:
+                validations.append(validation)
         elif spec.live:
             cell = Cell(value, style=style + "_input", kind=INPUT)
-            options = _validation(spec)
-            if options:
-                validations.append(Validation(row, 1, options))
+            validation = _validation(spec, row)
+            if validation:
+                validations.append(validation)
         else:
             cell = Cell(value, style=style, kind=DATA)
         rows.append([Cell(spec.label), cell, Cell(spec.help, style="text" if spec.live else "note"),

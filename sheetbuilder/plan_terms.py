@@ -32,14 +32,14 @@ import numpy as np
 import pandas as pd
 
 from .blends import attach_groups, blends_row_column, fetch
-from .columns import (ColumnDef, PlannedTable, apply_word_decision, blank_div, editable, exports_only, plan_table,
+from .columns import (ColumnDef, PlannedTable, apply_word_decision, blank_div, decision_validation, editable, exports_only, plan_table,
                       running_key, word_decision_formula)
 from .normalise import contains_phrase, looks_like_product_id, normalise, words
 from .numbers import ROUNDING_NUDGE, round_half_away
 from .plan_inputs import InputSheet
 from .settings import Settings
-from .formula import range_ref
-from .spec import DATA, INPUT, Cell, Highlight, Sheet, Table, Validation
+from .formula import block_sum, range_ref
+from .spec import DATA, INPUT, Cell, Highlight, Sheet, Table
 
 SHEET = "Terms"
 KEYS_SHEET = "Keys"
@@ -61,7 +61,7 @@ class TermsContext:
 
 def _block(column: str) -> str:
     rng = "{rng:search_terms.%s}" % column
-    return f"=SUM(INDEX({rng},{{c:first}}):INDEX({rng},{{c:last}}))"
+    return "=" + block_sum(rng, "{c:first}", "{c:last}")
 
 
 def _found(key: str, pos: str):
@@ -252,8 +252,8 @@ def _all_defs(n_rows: int) -> list[ColumnDef]:
         ColumnDef("clash", "Would block another term", "int",
                   "Working: how many keywords the list adds, or terms that sell, this term's negative would block.",
                   _clash,
-                  '=IF(OR({c:cfirst}="",AND({c:final}<>"block",{c:adds}=0)),0,'
-                  'SUM(INDEX({rng:clashes.hit},{c:cfirst}):INDEX({rng:clashes.hit},{c:clast})))',
+                  '=IF(OR({c:cfirst}="",AND({c:final}<>"block",{c:adds}=0)),0,%s)'
+                  % block_sum("{rng:clashes.hit}", "{c:cfirst}", "{c:clast}"),
                   width=8, hidden=True),
         ColumnDef("src_neg", "Negative in source", "text",
                   "Working: negative exact where a promoted term goes to another ad group of a live campaign, its "
@@ -509,10 +509,9 @@ def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, t
     first = HEADER_ROW + 1
     validations = []
     if n:
-        validations.append(Validation(first, keys_list.index("decision"), {
-            "validate": "list", "source": list(DECISIONS), "ignore_blank": True, "error_title": "Not a decision",
-            "error_message": "Leave blank to follow the verdict, or choose " + ", ".join(DECISIONS) + ".",
-            "input_title": "Decision", "input_message": "Blank = follow the verdict."}, last_row=first + n - 1))
+        validations.append(decision_validation(
+            EDITABLE_COLUMNS, first, keys_list.index("decision"), n,
+            "Leave blank to follow the verdict, or choose " + ", ".join(DECISIONS) + ".", "Blank = follow the verdict."))
     col = keys_list.index("verdict")
     highlights = [Highlight(col, "promote", "Ocean"), Highlight(col, "block", "Plum"), Highlight(col, "watch", "Stone")]
     col = keys_list.index("final")

@@ -20,9 +20,9 @@ from xlsxwriter.exceptions import FileCreateError
 from xlsxwriter.worksheet import CellFormulaTuple, CellRichStringTuple
 from xlsxwriter.xmlwriter import XMLwriter
 
-from .formula import check_portable
+from .formula import cell_ref, check_portable
 from .palette import STATES, STYLES, style_properties
-from .spec import FORMULA, Cell, Chart, Sheet, Table, WorkbookSpec
+from .spec import FORMULA, Cell, Chart, Sheet, Table, Validation, WorkbookSpec
 
 CELL_TEXT_LIMIT = 32_767  # Microsoft, "Excel specifications and limits": characters in a cell
 TRUNCATION_MARK = " [cut: longer than a cell holds]"
@@ -166,10 +166,23 @@ def _write_rows(ws, first: int, rows: list[list[Cell | None]], formats: dict) ->
     return first + len(rows)
 
 
+class OverlappingBlocks(RuntimeError):
+    """Two blocks of a sheet were planned over the same rows (an internal error, never the user's)."""
+
+
 def _write_table(ws, table: Table, row: int, formats: dict, state_formats: dict, progress: Progress | None,
                  sheet_name: str, first: bool) -> int:
-    """Write a table's title, header, body and totals from its first row; return the next free row."""
-    row = max(row, table.first_row)
+    """Write a table's title, header, body and totals at its planned first row; return the next free row.
+
+    Raises:
+        OverlappingBlocks: the rows written before reach the table's title or header row (a planning bug:
+            moving the table down would leave its formulas pointing at the planned rows).
+    """
+    top = table.first_row - (1 if table.title else 0)
+    if row > top:
+        raise OverlappingBlocks(f"{sheet_name}: the table {table.title or table.columns[0].header!r} is planned "
+                                f"from row {top + 1}, but the rows above it reach row {row}")
+    row = table.first_row
     if table.title:
         ws.write_string(row - 1, 0, table.title, formats["subtitle"])
     for col, column in enumerate(table.columns):
@@ -254,6 +267,25 @@ def _add_chart(wb, ws, chart: Chart) -> None:
     ws.insert_chart(chart.anchor[0], chart.anchor[1], c, {"object_position": 1})
 
 
+def validation_options(v: Validation) -> dict:
+    """The writer's data-validation options of a planned Validation (a blank cell is always accepted)."""
+    rule = v.rule
+    if rule.kind == "number or words":
+        cell = cell_ref(v.row, v.col)  # relative: the rule moves down the column with the cell
+        tests = [f"ISNUMBER({cell})", *(f'{cell}="{w}"' for w in rule.words)]
+        options = {"validate": "custom", "value": "=OR(" + ",".join(tests) + ")"}
+    elif rule.kind == "one of":
+        options = {"validate": "list", "source": list(rule.words)}
+    elif rule.kind in ("decimal", "integer", "date"):
+        options = {"validate": rule.kind, "criteria": "between", "minimum": rule.low, "maximum": rule.high}
+    else:
+        raise ValueError(f"unknown validation rule {rule.kind!r}")
+    for key in ("error_title", "error_message", "input_title", "input_message"):
+        if getattr(v, key):
+            options[key] = getattr(v, key)
+    return options
+
+
 def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress: Progress | None) -> None:
     """Write one sheet: widths, rows above, its tables, rows below, charts, then its settings."""
     ws = wb.add_worksheet(sheet.name)
@@ -270,7 +302,7 @@ def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress:
     for chart in sheet.charts:
         _add_chart(wb, ws, chart)
     for v in sheet.validations:
-        ws.data_validation(v.row, v.col, v.row if v.last_row is None else v.last_row, v.col, dict(v.options))
+        ws.data_validation(v.row, v.col, v.row if v.last_row is None else v.last_row, v.col, validation_options(v))
     if sheet.freeze:
         ws.freeze_panes(*sheet.freeze)
     if sheet.landscape:

@@ -63,13 +63,34 @@ class Highlight:
 
 
 @dataclass(frozen=True)
+class Rule:
+    """What a typed cell accepts (the renderer turns it into the writer's data validation).
+
+    kind: 'number or words' (a number, or one of words), 'one of' (one of words, offered as a list),
+    or 'decimal', 'integer', 'date' (between low and high). A blank cell is always accepted.
+    """
+
+    kind: str
+    words: tuple[str, ...] = ()
+    low: Any = None
+    high: Any = None
+
+
+@dataclass(frozen=True)
 class Validation:
-    """Data validation on one cell, or a column of cells down to last_row (xlsxwriter's options dict)."""
+    """Data validation on one cell, or a column of cells down to last_row: its rule and the messages shown.
+
+    Empty messages are not written.
+    """
 
     row: int
     col: int
-    options: dict
+    rule: Rule
     last_row: int | None = None
+    error_title: str = ""
+    error_message: str = ""
+    input_title: str = ""
+    input_message: str = ""
 
 
 @dataclass

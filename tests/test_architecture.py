@@ -104,17 +104,7 @@ def test_package_modules_import_each_other_without_a_cycle():
     # cli read: an edge back to the facade, safe because __version__ is set before the re-export.
     # Drop only the edges into the facade, so every cycle among the real modules still fails.
     graph = {name: {m for m in deps if m != ""} for name, deps in graph.items()}
-    # Known debt, named so that no other cycle can hide behind it: the Follow-up computes last week's
-    # change list with the changes module's code, which plans through the pipeline, which builds the
-    # Follow-up. Both edges back are imports inside functions; they go when planning moves into a
-    # module of its own (issue 14, "declared glue").
-    for name, dep in KNOWN_CYCLE_EDGES:
-        assert dep in graph[name], f"{name} no longer imports {dep}: remove it from KNOWN_CYCLE_EDGES"
-        graph[name] = graph[name] - {dep}
     assert [] == _cycles(graph)
-
-
-KNOWN_CYCLE_EDGES = (("followup", "changes"), ("changes", "plan_followup"))
 
 
 def test_the_cycle_check_finds_a_cycle():

@@ -1,0 +1,372 @@
+"""Assembling the workbook: the sheet planners run as an ordered list of named steps glued by anchors.
+
+Each step plans one sheet (or a pair, such as Harvest and Negatives), provides its anchors (its
+tables' ranges, totals and last cells, and single figures such as Budget's spend shifted) under
+its own name in :class:`~sheetbuilder.anchors.Anchors`, and reads what it needs from there by
+name. A step whose needs are absent (no targets export: no Bids; no search terms: no Terms,
+Harvest or Negatives) is not run. Reading an anchor that no earlier step provides is an internal
+error, never a placeholder range.
+
+Where each sheet goes in the workbook, and each column section on the Guide, is declared once
+here (``SHEET_ORDER``, ``SECTION_ORDER``), apart from the order the steps must run in.
+"""
+from __future__ import annotations
+
+import datetime as dt
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+from typing import Callable
+
+from .anchors import Anchors
+from .carry import PROFIT_TARGET, CarryResult, decision_column, entry_for
+from .columns import ColumnDef, PlannedTable
+from .errors import Problem
+from .followup import Followup
+from .history import applied_rows, plan_history
+from .plan_actions import defs as ACTION_DEFS, plan_actions
+from .plan_bids import DEFS as BIDS_DEFS, plan_bids
+from .plan_budget import CAMPAIGN_DEFS, PRODUCT_DEFS as BUDGET_DEFS, plan_budget
+from .plan_dashboard import Figure, dashboard
+from .plan_followup import CHANGE_DEFS as FOLLOWUP_DEFS, NAME as FOLLOWUP_NAME, SHEET as FOLLOWUP_SHEET, plan_followup
+from .plan_groups import DEFS as GROUPS_DEFS, plan_groups
+from .plan_guide import plan_guide
+from .plan_inputs import InputSheet, catalog_names, plan_input_sheets
+from .plan_lists import HARVEST, NEGATIVES, plan_list
+from .plan_mix import MATCH_DEFS, TYPE_DEFS as MIX_DEFS, plan_mix
+from .plan_profit import DEFS as PROFIT_DEFS, plan_profit
+from .plan_settings import plan_settings
+from .plan_terms import _defs as TERMS_DEFS, plan_terms
+from .plan_unmatched import plan_carried, plan_unmatched
+from .readers import Inputs
+from .saved import ACTIONS_NAME, EDITABLE_TABLES, PROFIT
+from .settings import Settings
+from .spec import Column, Sheet, Table, WorkbookSpec
+
+# Where each step's sheets go, left to right (the Guide first, the in_ sheets last).
+SHEET_ORDER = ("guide", "settings", "profit", "bids", "terms", "harvest", "negatives", "mix", "budget", "actions",
+               "followup", "history", "groups", "keys", "unmatched", "carried", "inputs")
+# The order of the column sections on the Guide.
+SECTION_ORDER = ("profit", "bids", "terms", "harvest", "negatives", "mix", "budget", "groups", "actions", "followup")
+
+
+@dataclass
+class Plan:
+    """A planned workbook: the spec the renderer writes and the reference frames behind it."""
+
+    spec: WorkbookSpec
+    tables: dict[str, PlannedTable] = field(default_factory=dict)
+
+
+class Decisions:
+    """What the planners take from carried edits: typed Decisions and target overrides (none without)."""
+
+    def __init__(self, carry: CarryResult | None):
+        self.carry = carry
+        self.targets = dict(carry.targets) if carry else {}
+
+    def column(self, sheet: str, rows) -> list:
+        """The carried Decision of each row (None where none was typed)."""
+        if self.carry is None:
+            return [None for _ in rows]
+        return decision_column(self.carry, sheet, rows)
+
+
+@dataclass
+class Assembly:
+    """What the steps read (the build's inputs) and what they have planned so far."""
+
+    inputs: Inputs
+    settings: Settings
+    built_on: dt.date
+    warnings: list[Problem]
+    carry: CarryResult | None
+    followup: Followup | None
+    history: list[dict] | None
+    layouts: dict[str, InputSheet]
+    decide: Decisions
+    anchors: Anchors = field(default_factory=Anchors)
+    groups: PlannedTable | None = None  # the ad-group blends Bids and Terms read (a sheet only when one of them is)
+    blends: PlannedTable | None = None  # the per-ad-group blends table on Groups, fetched by INDEX
+    tables: dict[str, PlannedTable] = field(default_factory=dict)
+    sheets: dict[str, list[Sheet]] = field(default_factory=dict)
+    sections: dict[str, tuple[str, list[ColumnDef]]] = field(default_factory=dict)
+    names: list[tuple[str, str]] = field(default_factory=list)
+    figures: list[Figure] = field(default_factory=list)
+
+    def place(self, where: str, *sheets: Sheet) -> None:
+        """Put sheets at their declared place in the workbook (SHEET_ORDER)."""
+        self.sheets.setdefault(where, []).extend(sheets)
+
+    def table(self, step: str, name: str, planned: PlannedTable, sheet: str | None = None,
+              prefix: str | None = None) -> PlannedTable:
+        """Keep a planned table under name and, with a prefix, provide its ranges as anchors."""
+        self.tables[name] = planned
+        if prefix is not None:
+            self.anchors.provide(step, planned.ranges(sheet, prefix))
+        return planned
+
+
+@dataclass(frozen=True)
+class Step:
+    """One planning step: its name, the anchor tables it needs (not run without them), and what it does."""
+
+    name: str
+    run: Callable[[Assembly], None]
+    needs: tuple[str, ...] = ()
+    when: Callable[[Assembly], bool] = lambda a: True
+
+
+def _inputs(a: Assembly) -> None:
+    for table, layout in a.layouts.items():
+        a.anchors.provide("inputs", {f"{table}.{col}": r for col, r in layout.ranges.items()})
+
+
+def _settings(a: Assembly) -> None:
+    sheet, names = plan_settings(a.settings, a.built_on, a.inputs.period,
+                                 a.carry.as_built if a.carry is not None else None)
+    a.place("settings", sheet)
+    a.names += names
+
+
+def _profit(a: Assembly) -> None:
+    sheet, profit = plan_profit(a.inputs, a.layouts, a.settings, a.built_on, a.decide.targets)
+    a.table("profit", "Profit", profit, sheet.name, "profit")
+    a.place("profit", sheet)
+    a.sections["profit"] = ("Profit columns", PROFIT_DEFS)
+
+
+def _groups(a: Assembly) -> None:
+    sheet, groups, blends = plan_groups(a.layouts.get("ad_products"), a.tables["Profit"], a.anchors, a.settings)
+    a.anchors.provide("groups", groups.ranges(sheet.name, "groups"))
+    a.anchors.provide("groups", blends.ranges(sheet.name, "blends"))
+    a.groups = groups
+    a.blends = blends
+    if "targets" in a.layouts or "search_terms" in a.layouts:  # the blends are read by Bids or Terms
+        a.table("groups", "Groups", groups)
+        a.table("groups", "Blends", blends)
+        a.place("groups", sheet)
+        a.sections["groups"] = ("Groups columns", GROUPS_DEFS)
+
+
+def _bids(a: Assembly) -> None:
+    sheet, bids = plan_bids(a.layouts["targets"], a.inputs.get("campaigns"), a.groups, a.tables["Profit"],
+                            a.settings, a.anchors, a.decide.column, blends=a.blends)
+    a.table("bids", "Bids", bids, "Bids", "bids")
+    a.place("bids", sheet)
+    a.sections["bids"] = ("Bids columns", BIDS_DEFS)
+
+
+def _terms(a: Assembly) -> None:
+    sheet, terms, keys_sheet, _ = plan_terms(a.layouts["search_terms"], a.groups, a.tables["Profit"],
+                                             a.inputs.get("targets"), a.inputs.get("campaigns"),
+                                             a.inputs.get("negatives"), a.settings, a.anchors, a.decide.column,
+                                             blends=a.blends)
+    a.table("terms", "Terms", terms, sheet.name, "terms")
+    a.place("terms", sheet)
+    a.place("keys", keys_sheet)
+    a.sections["terms"] = ("Terms columns", TERMS_DEFS(0))
+
+
+def _lists(a: Assembly) -> None:
+    # The Negatives list's anchors are not named 'negatives': that is the in_negatives input table.
+    for spec, where, prefix in ((HARVEST, "harvest", "harvest"), (NEGATIVES, "negatives", "negative_list")):
+        sheet, planned = plan_list(spec, a.tables["Terms"], a.settings, a.anchors)
+        a.table(where, spec.sheet, planned, spec.sheet, prefix)
+        a.place(where, sheet)
+        a.sections[where] = (f"{spec.sheet} columns", spec.defs)
+
+
+def _mix(a: Assembly) -> None:
+    sheet, tables = plan_mix(a.layouts.get("ad_products"), a.layouts.get("targets"), a.tables["Profit"], a.settings,
+                             a.anchors)
+    a.tables.update(tables)
+    a.place("mix", sheet)
+    a.sections["mix"] = ("Mix columns", MIX_DEFS + [d for d in MATCH_DEFS if d.key not in {x.key for x in MIX_DEFS}])
+
+
+def _budget(a: Assembly) -> None:
+    sheet, tables, provides = plan_budget(a.tables["Profit"], a.layouts.get("campaigns"), a.layouts.get("ad_products"),
+                                          a.settings, a.anchors, a.decide.column)
+    a.tables.update(tables)
+    if "Budget campaigns" in tables:
+        a.anchors.provide("budget", tables["Budget campaigns"].ranges(sheet.name, "budget_campaigns"))
+    for name, (ref, value) in provides.items():
+        a.anchors.provide_cell("budget", name, ref, value)
+    a.place("budget", sheet)
+    a.sections["budget"] = ("Budget columns", BUDGET_DEFS + [d for d in CAMPAIGN_DEFS if d.key not in
+                                                             {x.key for x in BUDGET_DEFS}])
+
+
+ACTION_SOURCES = ("Bids", "Harvest", "Negatives", "Budget campaigns")
+
+
+def _actions(a: Assembly) -> None:
+    sizes = {name: len(a.tables[name].frame) for name in ACTION_SOURCES if name in a.tables}
+    sizes["Source negatives"] = sizes.get("Harvest", 0)
+    sheet, actions, counts, count_refs = plan_actions(a.tables, a.anchors, a.settings, sizes)
+    a.table("actions", "Actions", actions)
+    for i, (ref, count) in enumerate(zip(count_refs, counts)):
+        a.anchors.provide_cell("actions", f"actions_count.{i + 1}", ref, float(count))
+    a.place("actions", sheet)
+    a.sections["actions"] = ("Actions columns", ACTION_DEFS(["0"] * 5))
+
+
+def _followup(a: Assembly) -> None:
+    targets = a.layouts["targets"].frame if "targets" in a.layouts else None
+    sheet, a.tables[FOLLOWUP_SHEET], a.tables["Follow-up products"], summary = plan_followup(
+        a.followup, a.tables["Profit"], a.anchors, targets)
+    for label, (ref, value) in summary.items():
+        a.anchors.provide_cell("followup", f"followup_summary.{label}", ref, value)
+    a.place("followup", sheet)
+    a.sections["followup"] = ("Follow-up columns", FOLLOWUP_DEFS)
+
+
+def _history(a: Assembly) -> None:
+    rows = a.history + (applied_rows(a.followup.rows, a.built_on) if a.followup is not None else [])
+    sheet, names = plan_history(rows)
+    a.place("history", sheet)
+    a.names += names
+
+
+def _guide(a: Assembly) -> None:
+    """The dashboard's figures, read from the anchors, then the Guide."""
+    figures = dashboard(a.tables, a.anchors, (a.anchors["budget.shifted"], a.anchors.value("budget.shifted")))
+    counts = [name for name in a.anchors if name.startswith("actions_count.")]
+    figures.append(Figure("Changes in the Actions list", "=" + "+".join(a.anchors[n] for n in counts),
+                          float(sum(a.anchors.value(n) for n in counts)), "int"))
+    summary = [name for name in a.anchors if name.startswith("followup_summary.")]
+    for i, name in enumerate(summary):
+        label = name.split(".", 1)[1]
+        figures.append(Figure(f"Follow-up: {label[0].lower()}{label[1:]}", "=" + a.anchors[name],
+                              a.anchors.value(name), "int" if i < 4 else "money"))
+    sources = {k: v.name + (f" ({a.inputs.encodings[k]})" if k in a.inputs.encodings else "")
+               for k, v in a.inputs.sources.items()}
+    sections = [a.sections[k] for k in SECTION_ORDER if k in a.sections]
+    a.place("guide", plan_guide(a.settings, a.built_on, sections, a.warnings, a.inputs.checksums, sources, figures))
+
+
+def _unmatched(a: Assembly) -> None:
+    a.place("unmatched", plan_unmatched(a.carry))
+
+
+def _carried(a: Assembly) -> None:
+    sheet, names = plan_carried(a.carry)
+    a.place("carried", sheet)
+    a.names += names
+    catalog = next((s for s in a.sheets.get("inputs", []) if s.name == "in_catalog"), None)
+    _with_marks(a, carried_marks(a.carry, a.tables, catalog, a.layouts))
+
+
+# The steps in the order they must run: each reads only anchors the steps before it provide.
+STEPS: tuple[Step, ...] = (
+    Step("inputs", _inputs),
+    Step("settings", _settings),
+    Step("profit", _profit),
+    Step("groups", _groups),
+    Step("bids", _bids, needs=("targets",)),
+    Step("terms", _terms, needs=("search_terms",), when=lambda a: len(a.layouts["search_terms"].frame) > 0),
+    Step("lists", _lists, needs=("terms",)),
+    Step("mix", _mix),
+    Step("budget", _budget),
+    Step("actions", _actions),
+    Step("followup", _followup, when=lambda a: a.followup is not None),
+    Step("history", _history, when=lambda a: a.history is not None),
+    Step("guide", _guide),
+    Step("unmatched", _unmatched, when=lambda a: a.carry is not None and bool(a.carry.unmatched)),
+    Step("carried", _carried, when=lambda a: a.carry is not None and bool(a.carry.carried or a.carry.applied)),
+)
+
+
+def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
+                  warnings: list[Problem] | None = None, carry: CarryResult | None = None,
+                  followup: Followup | None = None, history: list[dict] | None = None) -> Plan:
+    """Plan every sheet from validated inputs: pure, writes nothing.
+
+    Args:
+        inputs: the validated tables.
+        settings: the build's settings.
+        built_on: the build date (for the attribution-window warning).
+        warnings: problems of WARNING severity to list on the Guide.
+        carry: edits carried from last week's workbook (decisions and target overrides).
+        followup: last week's changes looked up in this week's exports (a Follow-up sheet after Actions).
+        history: the History rows carried from the previous workbook (a History sheet; None: no sheet).
+
+    Returns:
+        The plan: the workbook spec and each computed table's reference frame.
+    """
+    exported = carry.exported if carry is not None else {}
+    input_sheets, layouts = plan_input_sheets(inputs, settings.fold_plurals, exported)
+    a = Assembly(inputs, settings, built_on, warnings or [], carry, followup, history, layouts, Decisions(carry))
+    a.place("inputs", *input_sheets)
+    for step in STEPS:
+        if all(need in a.anchors.tables() for need in step.needs) and step.when(a):
+            step.run(a)
+    names = [*a.names, *catalog_names(layouts), *edit_names(a.tables)]
+    sheets = [s for where in SHEET_ORDER for s in a.sheets.get(where, [])]
+    return Plan(WorkbookSpec(sheets, names, settings.currency_symbol), a.tables)
+
+
+def _note(record, source: str) -> str:
+    """The note on a carried cell: where it came from and when it was first typed."""
+    first = f"; first typed in the workbook built {record.first_typed}" if record.first_typed else ""
+    return (f"Carried from {source}{first}. A word stays until you clear it; a typed number expires once "
+            "the export shows it applied.")
+
+
+def carried_marks(carry: CarryResult, tables: dict[str, PlannedTable], catalog: Sheet | None,
+                  layouts: dict) -> dict[int, dict[int, str]]:
+    """{id of a planned column: {row index: note}} of every carried cell (typed columns and in_catalog)."""
+    source = Path(carry.source).name if carry.source else "the previous workbook"
+    records = {(r.sheet, r.compared): r for r in carry.carried if r.compared}
+    fold = carry.settings.fold_plurals
+    out: dict[int, dict[int, str]] = {}
+    for decl in EDITABLE_TABLES:
+        planned = tables.get(decl.table)
+        if planned is None:
+            continue
+        column = planned.columns[list(planned.letters).index(decl.value)]
+        entry = entry_for(decl.label) if decl.label != PROFIT.label else PROFIT_TARGET
+        keys = planned.frame[list(decl.keys)].itertuples(index=False, name=None)
+        for i, parts in enumerate(keys):
+            record = records.get((decl.label, entry.export_key(parts, fold)))
+            if record is not None:
+                out.setdefault(id(column), {})[i] = _note(record, source)
+    if catalog is None or "catalog" not in layouts:
+        return out
+    row_of = {str(p): i for i, p in enumerate(layouts["catalog"].frame["product_id"])}
+    by_header = {c.header: c for c in catalog.table.columns}
+    for r in carry.carried:
+        if r.sheet == "in_catalog" and r.key in row_of and r.column in by_header:
+            out.setdefault(id(by_header[r.column]), {})[row_of[r.key]] = _note(r, source)
+    return out
+
+
+def _marked(column: Column, marks: dict[int, dict[int, str]]) -> Column:
+    """column, or a copy whose carried cells have the carried style and their note."""
+    notes = marks.get(id(column))
+    if not notes:
+        return column
+    carried = column.style.split("_")[0] + "_carried"
+    return replace(column, cell_styles={**column.cell_styles, **{i: carried for i in notes}},
+                   notes={**column.notes, **notes})
+
+
+def _with_marks(a: Assembly, marks: dict[int, dict[int, str]]) -> None:
+    """Put marked copies of the marked columns in the assembly's sheets and tables (the planned ones are not changed)."""
+    def table(t: Table | None) -> Table | None:
+        return None if t is None else replace(t, columns=[_marked(c, marks) for c in t.columns])
+
+    for where, sheets in a.sheets.items():
+        a.sheets[where] = [replace(s, table=table(s.table), more=[table(t) for t in s.more]) for s in sheets]
+    for name, planned in a.tables.items():
+        a.tables[name] = replace(planned, columns=[_marked(c, marks) for c in planned.columns])
+
+
+def edit_names(tables: dict[str, PlannedTable]) -> list[tuple[str, str]]:
+    """Defined names over every typed column and its keys, and over the Actions list (see saved.py)."""
+    out = [n for decl in EDITABLE_TABLES if decl.table in tables for n in decl.defined_names(tables[decl.table])]
+    if "Actions" in tables:
+        out.append((ACTIONS_NAME, "=" + tables["Actions"].body_range("Actions")))
+    if "Follow-up" in tables:
+        out.append((FOLLOWUP_NAME, "=" + tables["Follow-up"].body_range(FOLLOWUP_SHEET)))
+    return out
