@@ -82,8 +82,57 @@ class Anchors(Mapping):
 
 
 # A read of one row of an absent table: INDEX(range, row) and MATCH(x, range, type) over {rng:table.column}.
-_INDEX = re.compile(r"INDEX\(\{rng:(\w+)\.\w+\},[^(),]*\)")
-_MATCH = re.compile(r"MATCH\([^(),]*,\{rng:(\w+)\.\w+\},-?[01]\)")
+_CALL = re.compile(r"\b(INDEX|MATCH)\(")
+_READ_ARG = {"INDEX": 0, "MATCH": 1}  # which argument of the call is the range it reads
+
+
+def _split_args(inner: str) -> list[str]:
+    """The arguments of a call, split at commas outside parentheses and quoted text."""
+    args, depth, quoted, last = [], 0, False, 0
+    for i, c in enumerate(inner):
+        if c == '"':
+            quoted = not quoted
+        elif not quoted and c == "(":
+            depth += 1
+        elif not quoted and c == ")":
+            depth -= 1
+        elif not quoted and depth == 0 and c == ",":
+            args.append(inner[last:i])
+            last = i + 1
+    return [*args, inner[last:]]
+
+
+def _close(formula: str, open_at: int) -> int:
+    """The position of the parenthesis closing the one at open_at (quoted text skipped)."""
+    depth, quoted = 0, False
+    for i in range(open_at, len(formula)):
+        c = formula[i]
+        if c == '"':
+            quoted = not quoted
+        elif not quoted and c == "(":
+            depth += 1
+        elif not quoted and c == ")":
+            depth -= 1
+            if depth == 0:
+                return i
+    raise ValueError(f"unbalanced parentheses in {formula}")
+
+
+def _blank_reads(formula: str, absent: set[str]) -> str:
+    """formula with every INDEX or MATCH whose range is a table in absent written as ""."""
+    out, i = [], 0
+    while (m := _CALL.search(formula, i)) is not None:
+        end = _close(formula, m.end() - 1)
+        args = _split_args(formula[m.end():end])
+        read = args[_READ_ARG[m.group(1)]] if len(args) > _READ_ARG[m.group(1)] else ""
+        table = re.fullmatch(r"\{rng:(\w+)\.\w+\}", read.strip())
+        out.append(formula[i:m.start()])
+        if table is not None and table.group(1) in absent:
+            out.append('""')
+        else:
+            out.append(m.group(0) + _blank_reads(formula[m.end():end], absent) + ")")
+        i = end + 1
+    return "".join(out) + formula[i:]
 
 
 def without_absent(defs: Iterable[ColumnDef], anchors: Mapping[str, str], optional: Iterable[str]) -> list[ColumnDef]:
@@ -96,13 +145,10 @@ def without_absent(defs: Iterable[ColumnDef], anchors: Mapping[str, str], option
     if not absent:
         return list(defs)
 
-    def blank(match: re.Match) -> str:
-        return '""' if match.group(1) in absent else match.group(0)
-
     out = []
     for d in defs:
         if d.formula:
-            formula = _MATCH.sub(blank, _INDEX.sub(blank, d.formula))
+            formula = _blank_reads(d.formula, absent)
             d = replace(d, formula=formula) if formula != d.formula else d
         out.append(d)
     return out

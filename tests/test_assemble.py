@@ -54,6 +54,18 @@ def test_a_read_of_an_absent_optional_table_is_written_as_a_blank_and_other_read
     assert '=IF({c:seg}=1,INDEX({rng:bids.final},{c:pos}),IF({c:seg}=2,"",""))' == out.formula
 
 
+
+def test_a_blanked_read_may_hold_nested_parentheses_and_quoted_text_in_its_other_arguments():
+    anchors = Anchors()
+    anchors.provide("bids", {"bids.a_key": "Bids!$X$5:$X$9"})
+    d = ColumnDef("pos", "Pos", "int", "", lambda df, ctx: df["k"],
+                  '=IF({c:seg}=1,MATCH({c:k},{rng:bids.a_key},1),IF({c:seg}=3,'
+                  'MATCH({c:k}-(INT(Bids!$X$5)+MIN(INT(Terms!$AQ$13),9)),{rng:harvest.n_key},1),'
+                  'IF({c:note}="a (b, c)",INDEX({rng:budget_campaigns.c_key},MAX(1,{c:k})),"")))')
+    [out] = without_absent([d], anchors, ("bids", "harvest", "budget_campaigns"))
+    assert ('=IF({c:seg}=1,MATCH({c:k},{rng:bids.a_key},1),IF({c:seg}=3,"",'
+            'IF({c:note}="a (b, c)","","")))') == out.formula
+
 def test_an_account_without_targets_or_search_terms_builds_without_their_sheets_or_placeholder_ranges(tmp_path):
     for name in ("catalog.csv", "store_sales.csv", "ad_products.csv", "campaigns.csv"):
         shutil.copy(DEMO / name, tmp_path / name)
