@@ -35,7 +35,7 @@ from .plan_lists import HARVEST, NEGATIVES, plan_list
 from .plan_mix import MATCH_DEFS, TYPE_DEFS as MIX_DEFS, plan_mix
 from .plan_profit import DEFS as PROFIT_DEFS, plan_profit
 from .plan_settings import plan_settings
-from .plan_terms import _defs as TERMS_DEFS, plan_terms
+from .plan_terms import defs as TERMS_DEFS, plan_terms
 from .plan_unmatched import plan_carried, plan_unmatched
 from .readers import Inputs
 from .saved import ACTIONS_NAME, EDITABLE_TABLES, PROFIT

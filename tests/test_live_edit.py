@@ -26,7 +26,8 @@ from terms_io import (HARVEST_HEADERS, LIST_HEADER_ROW, NEGATIVE_HEADERS, TERMS_
 from profit_io import HEADER_ROW as PROFIT_HEADER_ROW, PROFIT_HEADERS, oracle_for, profit_table
 from workbook_io import mismatches, open_values, same
 from sheetbuilder.palette import EXPORT_FONT
-from sheetbuilder.pipeline import TERMS_DEFS, build, load, write_atomically
+from sheetbuilder.pipeline import build, load, write_atomically
+from sheetbuilder.plan_terms import defs as TERMS_DEFS
 from sheetbuilder.plan_bids import DEFS as BIDS_DEFS
 from sheetbuilder.spec import FORMULA
 
