@@ -2,8 +2,8 @@
 # The project's two commands, for a fresh Debian machine with Python 3.11:
 #   ./tasks.sh demo   make .venv, install sheetbuilder, build the demo workbook (demo_workbook.xlsx)
 #   ./tasks.sh test   the same install with the test tools, LibreOffice Calc and Gnumeric if missing, then every test
-# Also: ./tasks.sh samples (PNG renders into output_samples/), ./tasks.sh bench (the benchmark),
-#       ./tasks.sh study (the simulated-market study of the bid method; writes study/results.md).
+# Also: ./tasks.sh samples (PNG renders into output_samples/), ./tasks.sh bench (the benchmark, benchmarks/),
+#       ./tasks.sh soak (the long fuzz soak of the readers), ./tasks.sh study (the simulated-market study of the bid method; writes study/results.md).
 set -euo pipefail
 cd "$(dirname "$0")"
 PY=${PYTHON:-python3}
@@ -66,8 +66,12 @@ case "${1:-}" in
     venv test
     libreoffice
     shift
-    "$VENV/bin/python" -m sheetbuilder.bench "$@"
-    "$VENV/bin/python" -m sheetbuilder.soak
+    "$VENV/bin/python" -m benchmarks.bench "$@"
+    ;;
+  soak)
+    venv test
+    shift
+    "$VENV/bin/python" -m benchmarks.soak "$@"
     ;;
   study)
     venv test
@@ -75,6 +79,6 @@ case "${1:-}" in
     "$VENV/bin/python" -m study.run_study "$@"
     ;;
   *)
-    echo "usage: ./tasks.sh demo | test | samples | bench | study"; exit 2
+    echo "usage: ./tasks.sh demo | test | samples | bench | soak | study"; exit 2
     ;;
 esac
