@@ -138,7 +138,11 @@ def make_account(folder: Path, n: int, seed: int = 20261202, terms_ratio: float 
                             "state": np.where(rng.random(m) < 0.9, "enabled", "paused"),
                             "bid": np.round(rng.uniform(0.2, 2, m), 2), **metrics(m)})
     terms, negatives, extra = make_terms(rng, targets, ids, int(round(terms_ratio * n)), metrics)
-    pd.concat([targets, extra], ignore_index=True).to_csv(folder / "targets.csv", index=False)
+    # one row per keyword or target, as the readers require: an extra exact target whose text is
+    # already an exact target of its ad group is dropped
+    everything = pd.concat([targets, extra], ignore_index=True)
+    everything = everything.drop_duplicates(["campaign", "ad_group", "target", "match_type"], keep="first")
+    everything.to_csv(folder / "targets.csv", index=False)
     terms.to_csv(folder / "search_terms.csv", index=False)
     negatives.to_csv(folder / "negatives.csv", index=False)
     (folder / "settings.toml").write_text('currency_symbol = "$"\nperiod_days = 30\nperiod_end = 2026-11-29\n')

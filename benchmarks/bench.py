@@ -198,6 +198,8 @@ def main(argv: list[str] | None = None) -> int:
             lo_convert_seconds(Path(tmp) / "warm.xlsx", Path(tmp) / "lo_warm")
         for n in sizes:
             results.append(measure_size(n, Path(tmp) / str(n), libreoffice, uno, args.terms_ratio, args.attribution))
+            Path(args.out).write_text(json.dumps({"partial": True, "results": results}, indent=2) + "\n",
+                                      encoding="utf-8")  # kept if a later size fails
             print(f"  size {n}: done", file=sys.stderr, flush=True)
         if args.large:
             base = Path(tmp) / "large"
