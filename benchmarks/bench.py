@@ -11,7 +11,8 @@ own) times the real build, a plain write of the same cells as values, a rebuild 
 (per sheet and per idiom), stored and grid cells against the 10-million mark, and formula
 cells per input row. LibreOffice then converts the workbook (recalculating on load) and the
 twin, and through its UNO bridge (benchmarks/lo_uno.py, run by the system python3) times
-loading each, a full recalculation, and one unit-cost edit recalculated and saved.
+loading each, a full recalculation (the least of three), and one unit-cost edit recalculated
+and saved.
 
 --attribution adds where recalculation time goes: partial twins that keep one sheet's
 formulas, or one idiom's, each loaded and recalculated apart (benchmarks/attribution.py).
@@ -83,7 +84,7 @@ def measure_size(n: int, base: Path, libreoffice: bool, uno: bool, terms_ratio: 
         row["recalc_twin_ratio"] = _ratio(row["lo_recalc_s"], row["lo_twin_s"])
     if uno:
         times = uno_times([{"path": str(twin), "label": "warm-up"}, {"path": str(twin), "label": "twin"},
-                           {"path": str(book), "label": "book", "edit": True}])
+                           {"path": str(book), "label": "book", "edit": True, "calc_repeat": 3}])
         row["uno_load_twin_s"] = times["twin"]["load_s"]
         row["uno_load_book_s"] = times["book"]["load_s"]
         row["uno_calc_s"] = times["book"]["calc_s"]
@@ -93,7 +94,7 @@ def measure_size(n: int, base: Path, libreoffice: bool, uno: bool, terms_ratio: 
         row["uno_load_ratio"] = _ratio(row["uno_load_book_s"], row["uno_load_twin_s"])
         row["uno_open_recalc_ratio"] = _ratio(row["uno_load_book_s"] + row["uno_calc_s"], row["uno_load_twin_s"])
         if attribution:
-            row["attribution"] = attribute(book, base / "parts", counts, row["uno_load_twin_s"])
+            row["attribution"] = attribute(book, base / "parts", counts)
     return row
 
 
