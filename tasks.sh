@@ -5,7 +5,7 @@
 #   ./tasks.sh test   the same install with the test tools, LibreOffice Calc and Gnumeric if missing, then every test
 # Also: ./tasks.sh samples (PNG renders and the demo workbook into output_samples/),
 #       ./tasks.sh golden (output_samples/demo.xlsx only, the golden file of tests/test_golden_demo.py),
-#       ./tasks.sh bench (the benchmark),
+#       ./tasks.sh bench (the benchmark, benchmarks/), ./tasks.sh soak (the long fuzz soak of the readers),
 #       ./tasks.sh study (the simulated-market study of the bid method; writes study/results.md).
 set -euo pipefail
 cd "$(dirname "$0")"
@@ -89,8 +89,12 @@ EOF
     venv test
     libreoffice
     shift
-    "$VENV/bin/python" -m sheetbuilder.bench "$@"
-    "$VENV/bin/python" -m sheetbuilder.soak
+    "$VENV/bin/python" -m benchmarks.bench "$@"
+    ;;
+  soak)
+    venv test
+    shift
+    "$VENV/bin/python" -m benchmarks.soak "$@"
     ;;
   study)
     venv test
@@ -98,6 +102,6 @@ EOF
     "$VENV/bin/python" -m study.run_study "$@"
     ;;
   *)
-    echo "usage: ./tasks.sh demo | test | samples | golden | bench | study"; exit 2
+    echo "usage: ./tasks.sh demo | test | samples | golden | bench | soak | study"; exit 2
     ;;
 esac

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import datetime as dt
 import math
+import re
 from contextlib import contextmanager
 from pathlib import Path
 from typing import Any, Callable, Iterator
@@ -246,19 +247,88 @@ def _widths(sheet: Sheet) -> tuple[dict[int, float], set[int]]:
     return widths, hidden - shown
 
 
-def _add_chart(wb, ws, chart: Chart) -> None:
-    """Insert one native chart built from its spec."""
+# A placed block of a sheet: ("rows", first row, rows of cells) or ("table", header row, table).
+Placed = tuple[str, int, Any]
+_RANGE = re.compile(r"^=?(?:'((?:[^']|'')+)'|([^'!]+))!\$?([A-Z]+)\$?(\d+):\$?([A-Z]+)\$?(\d+)$")
+
+
+def _col_number(letters: str) -> int:
+    """The 0-based column of column letters: A -> 0, AA -> 26."""
+    n = 0
+    for ch in letters:
+        n = n * 26 + ord(ch) - 64
+    return n - 1
+
+
+def _placed_value(placed: list[Placed], row: int, col: int) -> Any:
+    """The cached value the sheet holds at (row, col), '' when nothing is written there."""
+    for kind, first, block in placed:
+        if kind == "rows":
+            if first <= row < first + len(block) and col < len(block[row - first]):
+                cell = block[row - first][col]
+                return "" if cell is None else _cached(cell.value)
+        else:
+            table: Table = block
+            if col >= len(table.columns) or row < first:
+                continue
+            if row == first:
+                return table.columns[col].header
+            if row <= first + table.n_rows:
+                return _cached(table.columns[col].values[row - first - 1])
+            if table.totals and row == first + table.n_rows + 1 and col < len(table.totals):
+                cell = table.totals[col]
+                return "" if cell is None else _cached(cell.value)
+    return ""
+
+
+def _range_data(ref: str, placed: dict[str, list[Placed]], numeric: bool) -> list | None:
+    """The cached values a chart range plots, for its data cache; None when the range is not ours."""
+    m = _RANGE.match(ref)
+    if m is None:
+        return None
+    sheet = (m.group(1) or "").replace("''", "'") or m.group(2)
+    if sheet not in placed:
+        return None
+    c1, r1, c2, r2 = _col_number(m.group(3)), int(m.group(4)) - 1, _col_number(m.group(5)), int(m.group(6)) - 1
+    values = [_placed_value(placed[sheet], r, c) for r in range(r1, r2 + 1) for c in range(c1, c2 + 1)]
+    if numeric:  # a blank or a text result is no point (a gap), as in the spreadsheet
+        return [v if isinstance(v, (int, float)) and not isinstance(v, bool) else None for v in values]
+    return [v if isinstance(v, (int, float)) and not isinstance(v, bool) else str(v) for v in values]
+
+
+def chart_names(chart: Chart) -> tuple[list[str], str, str]:
+    """The series' names and the x and y axis titles as written: no series is named exactly like an
+    axis title (Gnumeric 1.12.55 crashes re-opening an .ods converted from such a chart). A lone
+    series so named takes the chart's title; among several, the axis title is left off (the legend
+    names the series)."""
+    names = [s.name for s in chart.series]
+    x_title, y_title = chart.x_title, chart.y_title
+    if len(names) == 1 and names[0] in (x_title, y_title) and chart.title not in (x_title, y_title):
+        names = [chart.title]
+    x_title = "" if x_title in names else x_title
+    y_title = "" if y_title in names else y_title
+    return names, x_title, y_title
+
+
+def _add_chart(wb, ws, chart: Chart, placed: dict[str, list[Placed]]) -> None:
+    """Insert one native chart built from its spec, each series with its cached categories and values
+    (a reader that does not recalculate shows them; constant_memory keeps no cells to cache from)."""
     c = wb.add_chart({"type": chart.kind})
-    for s in chart.series:
-        c.add_series({"name": s.name, "categories": s.categories, "values": s.values,
+    names, x_title, y_title = chart_names(chart)
+    for s, name in zip(chart.series, names):
+        c.add_series({"name": name, "categories": s.categories, "values": s.values,
+                      "categories_data": _range_data(s.categories, placed, numeric=False),
+                      "values_data": _range_data(s.values, placed, numeric=True),
                       "fill": {"color": s.color}, "border": {"color": s.color}, "gap": 80})
     c.set_title({"name": chart.title, "name_font": {"size": 11, "bold": True}})
-    value_axis = {"name": chart.y_title, "num_format": "0%" if chart.percent else "General",
+    value_axis = {"num_format": "0%" if chart.percent else "General",
                   "major_gridlines": {"visible": True, "line": {"color": "#D9D9D9"}}}
-    category_axis = {"name": chart.x_title}
+    x_name, y_name = ({"name": x_title} if x_title else {}), ({"name": y_title} if y_title else {})
+    category_axis = dict(x_name)
+    value_axis.update(y_name)
     if chart.kind == "bar":  # horizontal bars: the value axis is x
-        c.set_x_axis({**value_axis, "name": chart.x_title})
-        c.set_y_axis({**category_axis, "name": chart.y_title, "reverse": True})
+        c.set_x_axis({**{k: v for k, v in value_axis.items() if k != "name"}, **x_name})
+        c.set_y_axis({**y_name, "reverse": True})
     else:
         c.set_x_axis(category_axis)
         c.set_y_axis(value_axis)
@@ -286,21 +356,27 @@ def validation_options(v: Validation) -> dict:
     return options
 
 
-def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress: Progress | None) -> None:
-    """Write one sheet: widths, rows above, its tables, rows below, charts, then its settings."""
+def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress: Progress | None,
+                 placed: list[Placed]) -> Any:
+    """Write one sheet: widths, rows above, its tables, rows below, then its settings; return the worksheet.
+
+    placed receives where each block went, for the charts' data caches.
+    """
     ws = wb.add_worksheet(sheet.name)
     widths, hidden = _widths(sheet)
     for col, width in sorted(widths.items()):
         ws.set_column(col, col, width, None, {"hidden": col in hidden})
+    placed.append(("rows", 0, sheet.above))
     row = _write_rows(ws, 0, sheet.above, formats)
     if sheet.table:
+        placed.append(("table", max(row, sheet.table.first_row), sheet.table))
         row = _write_table(ws, sheet.table, row, formats, state_formats, progress, sheet.name, True)
         ws.repeat_rows(sheet.table.first_row)
     for table in sheet.more:
+        placed.append(("table", max(row, table.first_row), table))
         row = _write_table(ws, table, row, formats, state_formats, progress, sheet.name, False)
+    placed.append(("rows", row, sheet.below))
     _write_rows(ws, row, sheet.below, formats)
-    for chart in sheet.charts:
-        _add_chart(wb, ws, chart)
     for v in sheet.validations:
         ws.data_validation(v.row, v.col, v.row if v.last_row is None else v.last_row, v.col, validation_options(v))
     if sheet.freeze:
@@ -317,6 +393,7 @@ def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress:
         ws.hide()
     ws.protect("", {"autofilter": True, "sort": True, "format_columns": True, "format_rows": True,
                     "select_locked_cells": True, "select_unlocked_cells": True, "objects": True})
+    return ws
 
 
 @contextmanager
@@ -351,8 +428,12 @@ def render(spec: WorkbookSpec, path: Path, progress: Progress | None = None, tmp
         formats = {key: wb.add_format(style_properties(key, spec.currency_symbol)) for key in STYLES}
         state_formats = {name: wb.add_format({"bg_color": s.fill, "font_color": s.font})
                          for name, s in STATES.items()}
-        for sheet in spec.sheets:
-            _write_sheet(wb, sheet, formats, state_formats, progress)
+        placed: dict[str, list[Placed]] = {}
+        written = [(sheet, _write_sheet(wb, sheet, formats, state_formats, progress,
+                                        placed.setdefault(sheet.name, []))) for sheet in spec.sheets]
+        for sheet, ws in written:  # after every sheet, so a chart may cache cells of any sheet
+            for chart in sheet.charts:
+                _add_chart(wb, ws, chart, placed)
         visible = [ws for ws, sheet in zip(wb.worksheets(), spec.sheets) if not sheet.hidden]
         if visible:
             visible[0].activate()

@@ -1,7 +1,7 @@
 """Fuzzing the readers: whatever the files hold, `build` writes a workbook openpyxl opens or
 raises a SheetbuilderError whose problems name a file, and leaves no output behind.
 
-The strategies live in sheetbuilder/soak.py; `python -m sheetbuilder.soak` runs them with
+The strategies live in benchmarks/soak.py; `python -m benchmarks.soak` runs them with
 thousands of examples. Here each runs with few, so the file takes well under a minute.
 Also: zip bombs and external links in .xlsx inputs are refused before calamine opens
 them, and search_terms longer than a sheet are merged.
@@ -15,10 +15,10 @@ from pathlib import Path
 import pytest
 from hypothesis import HealthCheck, given, settings
 
+from benchmarks.soak import BASE, STRATEGIES, base_rows, check_case, to_csv, valid_xlsx, write_case, zip_bytes
 from sheetbuilder import guard, readers
 from sheetbuilder.errors import ERROR, WARNING, InputProblems
 from sheetbuilder.pipeline import build, load
-from sheetbuilder.soak import BASE, STRATEGIES, base_rows, check_case, to_csv, valid_xlsx, write_case, zip_bytes
 
 pytestmark = pytest.mark.slow  # each strategy builds dozens of fuzzed folders
 FUZZ = settings(max_examples=40, deadline=None, suppress_health_check=[HealthCheck.too_slow,

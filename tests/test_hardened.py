@@ -25,8 +25,9 @@ import pytest
 from hypothesis import HealthCheck, given, settings as hsettings
 
 from conftest import BUILT_ON, require_libreoffice
+from benchmarks.accounts import make_account
+from benchmarks.soak import BASE, check_saved_case, damaged_workbooks, valid_xlsx, write_case, zip_bytes
 from sheetbuilder import atomic, guard
-from sheetbuilder.bench import make_account
 from sheetbuilder.changes import NotAWorkbook, export_changes
 from sheetbuilder.carry import PreviousWorkbookUnreadable
 from sheetbuilder.cli import main
@@ -35,7 +36,6 @@ from sheetbuilder.errors import InputProblems, OutputExists, UnsafeOutput
 from sheetbuilder.pipeline import build
 from sheetbuilder.recalc import libreoffice_convert
 from sheetbuilder.settings import SETTINGS, load_settings
-from sheetbuilder.soak import BASE, check_saved_case, damaged_workbooks, valid_xlsx, write_case, zip_bytes
 
 ROOT = Path(__file__).resolve().parents[1]
 MEMORY_LIMIT_MB = 500  # the bound for any hostile input of at most 10 MB

@@ -10,9 +10,9 @@ The workbook-reading fuzz (`damaged_saved`) does the same for `changes` and `--p
 a built workbook with damaged parts is exported or carried, or refused with a message.
 
 tests/test_fuzz_inputs.py and tests/test_hardened.py run these strategies with few examples in CI. The soak runs
-them with many more, for the benchmark script (not in CI; needs the test extra):
+them with many more, for the benchmark script (not in CI; needs the test extra; run from the repository root):
 
-    python -m sheetbuilder.soak [--examples N]
+    python -m benchmarks.soak [--examples N]
 """
 from __future__ import annotations
 
@@ -29,9 +29,9 @@ from pathlib import Path
 
 from hypothesis import HealthCheck, given, settings, strategies as st
 
-from . import contract as c
-from .errors import ERROR, InputProblems, SheetbuilderError
-from .pipeline import build
+from sheetbuilder import contract as c
+from sheetbuilder.errors import ERROR, InputProblems, SheetbuilderError
+from sheetbuilder.pipeline import build
 
 BUILT_ON = dt.date(2026, 12, 2)
 
@@ -377,7 +377,7 @@ def damaged_workbooks(draw) -> bytes:
 
 def check_saved_case(data: bytes) -> str:
     """Run changes and a build with --previous on the damaged workbook; assert the property."""
-    from .changes import export_changes  # noqa: PLC0415 (keeps the readers' fuzz free of openpyxl)
+    from sheetbuilder.changes import export_changes  # noqa: PLC0415 (keeps the readers' fuzz free of openpyxl)
 
     with tempfile.TemporaryDirectory(prefix="sheetbuilder-fuzz-") as tmp:
         folder, out_dir = Path(tmp) / "in", Path(tmp) / "out"
@@ -434,7 +434,7 @@ def soak(examples: int, names: list[str] | None = None, seed: int | None = None)
 
 
 def main(argv: list[str] | None = None) -> int:
-    parser = argparse.ArgumentParser(prog="python -m sheetbuilder.soak", description=__doc__.split("\n\n")[0])
+    parser = argparse.ArgumentParser(prog="python -m benchmarks.soak", description=__doc__.split("\n\n")[0])
     parser.add_argument("--examples", type=int, default=2000, help="examples per strategy (default 2000)")
     parser.add_argument("--only", action="append", choices=sorted([*STRATEGIES, *SAVED_STRATEGIES]),
                         help="run only this strategy")

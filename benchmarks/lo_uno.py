@@ -1,0 +1,150 @@
+"""LibreOffice timings through its Python UNO bridge (run with the system python3, not the venv).
+
+    /usr/bin/python3 benchmarks/lo_uno.py jobs.json
+
+Debian's python3-uno installs the bridge (uno.py) for the system interpreter only, so this
+script imports nothing of sheetbuilder's and talks JSON: it reads a list of jobs
+({"path", "label", "edit", "calc_repeat"}), starts one headless soffice listening on a pipe with a private
+profile that never recalculates on load, and for each file times:
+
+- load_s: opening the file (formulas parsed and linked, cached values trusted);
+- calc_s: `calculateAll()` on the open document (every formula recalculated), the least of
+  calc_repeat runs;
+- with "edit": edit_s, one unit cost on in_catalog raised by 1 and `calculate()` (the dirty
+  cells recalculated), with the Profit sheet's first dependent value read before and after;
+  save_s, the edited file saved as .xlsx.
+
+It prints one JSON object {label: figures}. soffice is ended by its process id.
+"""
+from __future__ import annotations
+
+import json
+import os
+import subprocess
+import sys
+import tempfile
+import time
+from pathlib import Path
+
+import uno  # noqa: F401  (python3-uno; sets up the bridge)
+from com.sun.star.beans import PropertyValue
+from com.sun.star.connection import NoConnectException
+
+_PROFILE = """<?xml version="1.0" encoding="UTF-8"?>
+<oor:items xmlns:oor="http://openoffice.org/2001/registry" xmlns:xs="http://www.w3.org/2001/XMLSchema" \
+xmlns:xsi="http://www.w3.org/2001/XMLSchema-instance">
+<item oor:path="/org.openoffice.Office.Calc/Formula/Load"><prop oor:name="OOXMLRecalcMode" oor:op="fuse">\
+<value>1</value></prop></item>
+<item oor:path="/org.openoffice.Office.Calc/Formula/Load"><prop oor:name="ODFRecalcMode" oor:op="fuse">\
+<value>1</value></prop></item>
+</oor:items>
+"""
+
+
+def _prop(name: str, value) -> PropertyValue:
+    p = PropertyValue()
+    p.Name, p.Value = name, value
+    return p
+
+
+def _connect(pipe: str, proc: subprocess.Popen, wait_s: float = 120):
+    local = uno.getComponentContext()
+    resolver = local.ServiceManager.createInstanceWithContext("com.sun.star.bridge.UnoUrlResolver", local)
+    end = time.time() + wait_s
+    while True:
+        try:
+            ctx = resolver.resolve(f"uno:pipe,name={pipe};urp;StarOffice.ComponentContext")
+            return ctx.ServiceManager.createInstanceWithContext("com.sun.star.frame.Desktop", ctx)
+        except NoConnectException:
+            if proc.poll() is not None or time.time() > end:
+                raise SystemExit(f"soffice did not start (exit {proc.poll()})")
+            time.sleep(0.5)
+
+
+def _unit_cost_cell(doc):
+    """The first product's unit cost on in_catalog (row 2), or None."""
+    if not doc.Sheets.hasByName("in_catalog"):
+        return None
+    sheet = doc.Sheets.getByName("in_catalog")
+    for col in range(40):
+        if sheet.getCellByPosition(col, 0).getString() == "unit_cost":
+            return sheet.getCellByPosition(col, 1)
+    return None
+
+
+def _profit_probe(doc):
+    """A Profit formula cell that follows the first product's unit cost (its first formula number cell)."""
+    if not doc.Sheets.hasByName("Profit"):
+        return None
+    sheet = doc.Sheets.getByName("Profit")
+    for row in range(3, 12):
+        for col in range(8, 14):
+            cell = sheet.getCellByPosition(col, row)
+            if cell.getFormula().startswith("="):
+                return cell
+    return None
+
+
+def time_file(desktop, job: dict, scratch: Path) -> dict:
+    url = uno.systemPathToFileUrl(str(Path(job["path"]).resolve()))
+    t = time.perf_counter()
+    doc = desktop.loadComponentFromURL(url, "_blank", 0, (_prop("Hidden", True),))
+    out = {"load_s": time.perf_counter() - t}
+    try:
+        runs = []
+        for _ in range(max(1, int(job.get("calc_repeat", 1)))):  # the least of a few: the machine is shared
+            t = time.perf_counter()
+            doc.calculateAll()
+            runs.append(time.perf_counter() - t)
+        out["calc_s"] = min(runs)
+        if job.get("edit"):
+            cell, probe = _unit_cost_cell(doc), _profit_probe(doc)
+            if cell is not None:
+                before = probe.getValue() if probe is not None else None
+                t = time.perf_counter()
+                cell.setValue(cell.getValue() + 1.0)
+                doc.calculate()
+                out["edit_s"] = time.perf_counter() - t
+                if probe is not None:
+                    out["edit_probe"] = [probe.getFormula(), before, probe.getValue()]
+                target = uno.systemPathToFileUrl(str(scratch / (Path(job["path"]).stem + "_edited.xlsx")))
+                t = time.perf_counter()
+                doc.storeToURL(target, (_prop("FilterName", "Calc MS Excel 2007 XML"),))
+                out["save_s"] = time.perf_counter() - t
+    finally:
+        doc.close(True)
+    return out
+
+
+def main(argv: list[str]) -> int:
+    jobs = json.loads(Path(argv[0]).read_text(encoding="utf-8"))
+    with tempfile.TemporaryDirectory(prefix="sb-uno-") as tmp:
+        user = Path(tmp) / "profile" / "user"
+        user.mkdir(parents=True)
+        (user / "registrymodifications.xcu").write_text(_PROFILE, encoding="utf-8")
+        pipe = f"sbbench{os.getpid()}"
+        exe = os.environ.get("SOFFICE", "soffice")
+        proc = subprocess.Popen([exe, f"-env:UserInstallation=file://{Path(tmp) / 'profile'}", "--headless",
+                                 "--invisible", "--norestore", "--nologo", "--nodefault",
+                                 f"--accept=pipe,name={pipe};urp;StarOffice.ComponentContext"],
+                                stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, env={**os.environ, "HOME": tmp})
+        results = {}
+        try:
+            desktop = _connect(pipe, proc)
+            for job in jobs:
+                results[job["label"]] = time_file(desktop, job, Path(tmp))
+            try:
+                desktop.terminate()
+            except Exception:  # the bridge closes as soffice quits
+                pass
+            proc.wait(timeout=60)
+        finally:
+            if proc.poll() is None:
+                proc.kill()
+                proc.wait()
+    print(json.dumps(results))
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main(sys.argv[1:]))

@@ -1,0 +1,137 @@
+"""The values-only twin of a built workbook, its partial twins, and cell counts read from the file.
+
+The twin is the same .xlsx with every formula removed and its cached value kept, made by
+rewriting the sheet XML (an <f> element dropped keeps the <v> beside it; a text result,
+which the writer types t="str", becomes an inline string; an empty text result becomes a
+blank cell with its style). A partial twin keeps the formulas a predicate chooses (one
+sheet's, or one idiom's) and turns every other formula into its value, so the time
+LibreOffice spends on the kept formulas can be measured apart.
+"""
+from __future__ import annotations
+
+import html
+import re
+import zipfile
+from collections import Counter
+from pathlib import Path
+from typing import Callable
+
+Keep = Callable[[str, str], bool]  # (sheet name, formula text) -> keep the formula
+
+_CELL = re.compile(r'<c ([^>]*?)><f>([^<]*)</f>(?:<v>([^<]*)</v>|<v/>)?</c>')
+_TYPE = re.compile(r'\s+t="(\w+)"')
+_ANY_CELL = re.compile(rb"<c ")
+_FORMULA = re.compile(rb"<f>")
+_DIMENSION = re.compile(rb'<dimension ref="([A-Z]+)(\d+)(?::([A-Z]+)(\d+))?"')
+_SHEET = re.compile(r'<sheet name="([^"]*)" sheetId="\d+" r:id="(rId\d+)"')
+_REL = re.compile(r'<Relationship Id="(rId\d+)" Type="[^"]*/worksheet" Target="([^"]+)"')
+_FUNCTION = re.compile(r"([A-Z][A-Z0-9.]*)\(")
+
+# Formula idioms, heaviest first: a formula belongs to the first whose test matches its text.
+IDIOMS: tuple[tuple[str, Callable[[str], bool]], ...] = (
+    ("MATCH", lambda f: "MATCH(" in f),
+    ("SUMIFS/COUNTIFS", lambda f: "SUMIFS(" in f or "COUNTIFS(" in f),
+    ("SUMPRODUCT", lambda f: "SUMPRODUCT(" in f),
+    ("block SUM(INDEX:INDEX)", lambda f: re.search(r"SUM\(INDEX\([^()]*\):INDEX\(", f) is not None),
+    ("INDEX", lambda f: "INDEX(" in f),
+    ("SUM/COUNT", lambda f: re.search(r"\b(SUM|COUNT|COUNTA)\(", f) is not None),
+    ("MIN/MAX/ROUND", lambda f: re.search(r"\b(MIN|MAX|ROUND|ROUNDUP|ROUNDDOWN|CEILING|FLOOR|INT|LN|EXP)\(", f)
+     is not None),
+    ("IF/arithmetic", lambda f: True),
+)
+
+
+def idiom(formula: str) -> str:
+    """The idiom a formula's text belongs to (the first of IDIOMS that matches)."""
+    for name, test in IDIOMS:
+        if test(formula):
+            return name
+    return IDIOMS[-1][0]
+
+
+def sheet_parts(z: zipfile.ZipFile) -> dict[str, str]:
+    """{sheet name: its part name in the package}, in the workbook's order."""
+    book = z.read("xl/workbook.xml").decode("utf-8")
+    rels = dict(_REL.findall(z.read("xl/_rels/workbook.xml.rels").decode("utf-8")))
+    out = {}
+    for name, rid in _SHEET.findall(book):
+        target = rels[rid]
+        out[html.unescape(name)] = target.lstrip("/") if target.startswith("/") else "xl/" + target
+    return out
+
+
+def _as_value(attrs: str, value: str | None) -> str:
+    """One formula cell's XML with the formula gone and its cached value kept."""
+    kind = _TYPE.search(attrs)
+    t = kind.group(1) if kind else "n"
+    bare = _TYPE.sub("", attrs)
+    if value is None or value == "":
+        return f"<c {bare}/>"
+    if t == "str":
+        return f'<c {bare} t="inlineStr"><is><t xml:space="preserve">{value}</t></is></c>'
+    return f"<c {attrs}><v>{value}</v></c>"
+
+
+def make_twin(src: Path, dst: Path, keep: Keep | None = None) -> None:
+    """Write dst: src with every formula that keep does not choose turned into its cached value."""
+    with zipfile.ZipFile(src) as zin, zipfile.ZipFile(dst, "w", zipfile.ZIP_DEFLATED) as zout:
+        by_part = {part: name for name, part in sheet_parts(zin).items()}
+        for info in zin.infolist():
+            data = zin.read(info.filename)
+            sheet = by_part.get(info.filename)
+            if sheet is not None:
+                def sub(m: re.Match, sheet: str = sheet) -> str:
+                    if keep is not None and keep(sheet, html.unescape(m.group(2))):
+                        return m.group(0)
+                    return _as_value(m.group(1), m.group(3))
+                data = _CELL.sub(sub, data.decode("utf-8")).encode("utf-8")
+            zout.writestr(info, data, compress_type=zipfile.ZIP_DEFLATED)
+
+
+def _col_number(letters: str) -> int:
+    n = 0
+    for ch in letters:
+        n = n * 26 + ord(ch) - 64
+    return n
+
+
+def count_cells(path: Path) -> dict:
+    """Cells read from the file: formula cells and stored cells per sheet, grid cells, idioms.
+
+    Stored cells are the <c> elements (values, formulas and styled blanks); grid cells are
+    each sheet's used range (its dimension, rows x columns), which is what a program that
+    limits a spreadsheet's cells sizes a sheet to on import.
+    """
+    formulas: dict[str, int] = {}
+    stored: dict[str, int] = {}
+    grid = 0
+    idioms: Counter = Counter()
+    idioms_by_sheet: dict[str, Counter] = {}
+    with zipfile.ZipFile(path) as z:
+        for name, part in sheet_parts(z).items():
+            data = z.read(part)
+            formulas[name] = len(_FORMULA.findall(data))
+            stored[name] = len(_ANY_CELL.findall(data))
+            dim = _DIMENSION.search(data)
+            if dim:
+                c1, r1, c2, r2 = dim.groups()
+                c2, r2 = (c2 or c1), (r2 or r1)
+                grid += (int(r2) - int(r1) + 1) * (_col_number(c2.decode()) - _col_number(c1.decode()) + 1)
+            counts = Counter(idiom(html.unescape(f.decode("utf-8"))) for f in re.findall(rb"<f>([^<]*)</f>", data))
+            idioms.update(counts)
+            idioms_by_sheet[name] = counts
+    return {"formula_cells": sum(formulas.values()), "stored_cells": sum(stored.values()), "grid_cells": grid,
+            "formulas_by_sheet": {k: v for k, v in formulas.items() if v},
+            "stored_by_sheet": stored, "formulas_by_idiom": dict(idioms.most_common()),
+            "idioms_by_sheet": {k: dict(v) for k, v in idioms_by_sheet.items() if v}}
+
+
+def input_rows(path: Path) -> int:
+    """Data rows of the workbook's in_ sheets (the exports it holds), read from the file."""
+    total = 0
+    with zipfile.ZipFile(path) as z:
+        for name, part in sheet_parts(z).items():
+            if name.startswith("in_"):
+                rows = set(re.findall(rb'<row r="(\d+)"', z.read(part)))
+                total += max(len(rows) - 1, 0)  # the header row
+    return total

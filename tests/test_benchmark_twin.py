@@ -1,0 +1,38 @@
+"""The benchmark's values-only twin (benchmarks/twin.py): the built workbook with every formula
+removed and every cached value kept, and its partial twins that keep one part's formulas.
+"""
+from __future__ import annotations
+
+import zipfile
+
+from benchmarks.twin import count_cells, idiom, make_twin, sheet_parts
+from workbook_io import open_values
+
+
+def _values(path):
+    book = open_values(path)
+    return {(ws.title, c.coordinate): c.value for ws in book for row in ws.iter_rows() for c in row
+            if c.value not in (None, "")}
+
+
+def test_the_twin_holds_no_formula_and_every_cached_value(demo_build, tmp_path):
+    twin = tmp_path / "twin.xlsx"
+    make_twin(demo_build.output, twin)
+    assert 0 == count_cells(twin)["formula_cells"]
+    assert _values(demo_build.output) == _values(twin)
+
+
+def test_a_partial_twin_keeps_only_the_chosen_sheets_formulas(demo_build, tmp_path):
+    counts = count_cells(demo_build.output)
+    part = tmp_path / "profit_only.xlsx"
+    make_twin(demo_build.output, part, keep=lambda sheet, formula: sheet == "Profit")
+    assert {"Profit": counts["formulas_by_sheet"]["Profit"]} == count_cells(part)["formulas_by_sheet"]
+    with zipfile.ZipFile(part) as z:
+        assert list(sheet_parts(z)) == [ws.title for ws in open_values(demo_build.output)]
+
+
+def test_formula_idioms_are_named_for_their_heaviest_function():
+    assert "MATCH" == idiom('IF(A2="","",MATCH(A2,in_terms!$B$2:$B$9,0))')
+    assert "block SUM(INDEX:INDEX)" == idiom("IF(W6=\"\",0,SUM(INDEX(x!$B$2:$B$9,W6):INDEX(x!$B$2:$B$9,X6)))")
+    assert "INDEX" == idiom("INDEX(in_catalog!$C$2:$C$9,V6)")
+    assert "IF/arithmetic" == idiom('IF(D6=0,"",E6/D6)')
