@@ -10,7 +10,7 @@ from .errors import Problem
 from .palette import STATES
 from .plan_profit import CAUTION, warning_formula, warning_value
 from .settings import Settings
-from .spec import INPUT, Cell, Sheet
+from .spec import INPUT, Cell, PageSetup, Sheet
 
 SHEET = "Guide"
 
@@ -224,4 +224,4 @@ def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tupl
              [Cell("Built on"), Cell(built_on.isoformat())]]
     for table, digest in sorted(checksums.items()):
         rows.append([Cell(f"Input: {table}"), Cell(f"{sources.get(table, '')}  sha256 {digest}")])
-    return Sheet(SHEET, above=rows, widths={0: 24, 1: 110}, landscape=False, tab_color="#3A2A78")
+    return Sheet(SHEET, above=rows, widths={0: 24, 1: 110}, page=PageSetup(landscape=False), tab_color="#3A2A78")
