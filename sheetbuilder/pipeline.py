@@ -17,7 +17,7 @@ from .guard import reading
 from .carry import (PROFIT_TARGET, CarryResult, PreviousWorkbookUnreadable, apply_edits, carried_catalog,
                     decision_column, entry_for, read_edits)
 from .plan_actions import defs as ACTION_DEFS, plan_actions
-from .plan_dashboard import Figure, dashboard
+from .plan_dashboard import Figure, dashboard, first_look
 from .plan_unmatched import plan_carried, plan_unmatched
 from .plan_guide import plan_guide
 from .followup import Followup, read_followup
@@ -154,7 +154,8 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
         names = [*names, *history_names]
     sources = {k: v.name + (f" ({inputs.encodings[k]})" if k in inputs.encodings else "")
                for k, v in inputs.sources.items()}
-    guide = plan_guide(settings, built_on, sections, warnings or [], inputs.checksums, sources, figures)
+    guide = plan_guide(settings, built_on, sections, warnings or [], inputs.checksums, sources, figures,
+                       first_look(tables))
     if carry is not None and carry.unmatched:
         sheets.append(plan_unmatched(carry))
     if carry is not None and (carry.carried or carry.applied):

@@ -160,9 +160,11 @@ def _put_cell(ws, row: int, col: int, cell: Cell | None, formats: dict) -> None:
         ws.write_comment(row, col, cell.note)
 
 
-def _write_rows(ws, first: int, rows: list[list[Cell | None]], formats: dict) -> int:
-    """Write rows of cells from row first; return the next free row."""
+def _write_rows(ws, first: int, rows: list[list[Cell | None]], formats: dict, heights: dict | None = None) -> int:
+    """Write rows of cells from row first (with the heights given by row); return the next free row."""
     for i, cells in enumerate(rows):
+        if heights and first + i in heights:
+            ws.set_row(first + i, heights[first + i])
         for col, cell in enumerate(cells):
             _put_cell(ws, first + i, col, cell, formats)
     return first + len(rows)
@@ -282,7 +284,7 @@ def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress:
     widths, hidden = _widths(sheet)
     for col, width in sorted(widths.items()):
         ws.set_column(col, col, width, None, {"hidden": col in hidden})
-    row = _write_rows(ws, 0, sheet.above, formats)
+    row = _write_rows(ws, 0, sheet.above, formats, sheet.heights)
     last_col = max([len(cells) - 1 for cells in [*sheet.above, *sheet.below]] +
                    [len(t.columns) - 1 for t in [sheet.table, *sheet.more] if t] + [0])
     if sheet.table:

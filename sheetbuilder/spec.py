@@ -179,6 +179,7 @@ class Sheet:
     below: list[list[Cell | None]] = field(default_factory=list)
     charts: list[Chart] = field(default_factory=list)
     widths: dict[int, float] = field(default_factory=dict)
+    heights: dict[int, float] = field(default_factory=dict)  # {row: height in points} of rows above the tables
     freeze: tuple[int, int] | None = None
     validations: list[Validation] = field(default_factory=list)
     page: PageSetup | None = None  # None: stacked_pages over its tables
