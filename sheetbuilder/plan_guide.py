@@ -90,6 +90,9 @@ STEPS = [
     "9. Next week, build from the new exports with --previous this workbook: your edits come along "
     "(see 'Decisions and carried edits' below).",
     "10. The proposals are starting points, not orders: check them before changing your ad account.",
+    "Printing: every sheet prints on A4 at the width of its page, with its table's header on every page. Harvest, "
+    "Negatives and Actions print the rows filled when the workbook was built: after typing Decisions, rebuild "
+    "(with --previous) to print the lists as they stand.",
 ]
 
 BID_METHOD = [
@@ -159,7 +162,7 @@ SOURCES = [
 ]
 
 
-LINE = 100  # characters of Arial 10 in a line of column B (102 wide), with room to spare
+LINE = 130  # characters of Arial 10 in a line of column B (102 wide, about 720 pixels), with room to spare
 LINE_HEIGHT = 13.0  # points per line of Arial 10
 
 
@@ -208,7 +211,9 @@ def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tupl
         *[[Cell(f.label), Cell(f.value, f.formula, f.style + "_left")] for f in (figures or [])],
         [None],
     ]
+    headers = []
     for look in looks or []:
+        headers.append(len(rows) + 1)
         rows += [*look.rows(len(rows)), [None]]
     rows += [
         [Cell("How to use it", style="subtitle")],
@@ -250,6 +255,7 @@ def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tupl
     # Long text wraps inside column B (rows grow to fit when opened), so the page prints at a readable scale.
     rows = [[_wrapped(cell) if col == 1 else cell for col, cell in enumerate(cells)] for cells in rows]
     heights = {r: LINE_HEIGHT * _lines(cells[1]) for r, cells in enumerate(rows) if len(cells) > 1 and _lines(cells[1]) > 1}
+    heights.update({r: 2 * LINE_HEIGHT for r in headers})  # room between the header's border and the first line
     for r in heights:  # the label beside wrapped text stands at its first line
         rows[r][0] = _wrapped(rows[r][0], always=True)
     return Sheet(SHEET, above=rows, widths={0: 32, 1: 102, 2: 11}, heights=heights, page=PageSetup(landscape=False), tab_color="#3A2A78")
