@@ -26,7 +26,7 @@ from .history import applied_rows, plan_history
 from .plan_actions import defs as ACTION_DEFS, plan_actions
 from .plan_bids import DEFS as BIDS_DEFS, plan_bids
 from .plan_budget import CAMPAIGN_DEFS, PRODUCT_DEFS as BUDGET_DEFS, plan_budget
-from .plan_dashboard import Figure, dashboard
+from .plan_dashboard import Figure, dashboard, first_look
 from .plan_followup import CHANGE_DEFS as FOLLOWUP_DEFS, NAME as FOLLOWUP_NAME, SHEET as FOLLOWUP_SHEET, plan_followup
 from .plan_groups import DEFS as GROUPS_DEFS, plan_groups
 from .plan_guide import plan_guide
@@ -242,7 +242,8 @@ def _guide(a: Assembly) -> None:
     sources = {k: v.name + (f" ({a.inputs.encodings[k]})" if k in a.inputs.encodings else "")
                for k, v in a.inputs.sources.items()}
     sections = [a.sections[k] for k in SECTION_ORDER if k in a.sections]
-    a.place("guide", plan_guide(a.settings, a.built_on, sections, a.warnings, a.inputs.checksums, sources, figures))
+    a.place("guide", plan_guide(a.settings, a.built_on, sections, a.warnings, a.inputs.checksums, sources, figures,
+                                first_look(a.tables)))
 
 
 def _unmatched(a: Assembly) -> None:

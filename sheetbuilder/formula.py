@@ -11,6 +11,7 @@ PORTABLE_FUNCTIONS = frozenset({
     "SUM", "SUMIFS", "COUNTIFS", "SUMPRODUCT", "INDEX", "MATCH", "IF", "IFERROR", "AND", "OR", "NOT",
     "MIN", "MAX", "ROUND", "ROUNDUP", "ROUNDDOWN", "ABS", "LN", "EXP", "CEILING", "FLOOR", "INT", "COUNT",
     "COUNTA", "ISNUMBER", "ISBLANK", "LEN", "ROWS", "CHOOSE", "LOWER",
+    "SMALL", "LARGE",  # k-th smallest and largest number of a range, text and blanks skipped, in all four
 })
 
 _FUNCTION = re.compile(r"([A-Za-z_][A-Za-z0-9._]*)\(")

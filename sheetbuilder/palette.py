@@ -32,7 +32,8 @@ INPUT_FONT = "#1B4A9C"
 HEADER_FILL = "#DCE3EA"
 WARNING_FILL = "#FCE9B8"
 
-_BASE = {"font_name": "Arial", "font_size": 10, "valign": "top"}
+# Centred in the row: a top-aligned first body row would touch the header's bottom border.
+_BASE = {"font_name": "Arial", "font_size": 10, "valign": "vcenter"}
 _INPUT = {"bg_color": INPUT_FILL, "font_color": INPUT_FONT, "border": 4, "border_color": "#A08A4A",
           "locked": False}
 _TOTAL = {"bold": True, "top": 1}
@@ -41,27 +42,30 @@ _EXPORT = {"font_color": EXPORT_FONT}
 CARRIED_FILL = "#F8D7B0"  # an input carried from last week's workbook: its own fill, so it is seen
 _CARRIED = {**_INPUT, "bg_color": CARRIED_FILL, "italic": True}
 
+# Numbers end with the room of a digit (_0) so that a right-aligned number never touches the next column's text.
 NUMBER_FORMATS = {
     "text": None,
-    "int": "#,##0",
-    "money": "{cur}#,##0.00",
-    "percent": "0.0%",
-    "ratio": "0.00",
+    "int": "#,##0_0",
+    "money": "{cur}#,##0.00_0",
+    "percent": "0.0%_0",
+    "ratio": "0.00_0",
     "date": "yyyy-mm-dd",
 }
 
 STYLES: dict[str, dict] = {
     "title": {"bold": True, "font_size": 14},
-    "subtitle": {"bold": True, "font_size": 11},
+    "subtitle": {"bold": True, "font_size": 11, "valign": "top"},
     "note": {"italic": True, "font_color": "#4D4D4D", "text_wrap": False},
-    "wrap": {"text_wrap": True},
+    "wrap": {"text_wrap": True, "valign": "top"},
     "warning": {"bold": True, "font_color": "#5A3A00", "bg_color": WARNING_FILL},
+    "warning_wrap": {"bold": True, "font_color": "#5A3A00", "bg_color": WARNING_FILL, "text_wrap": True,
+                     "valign": "top"},
     "alert": {"bold": True, "font_color": "#7A3E00"},
     "header": {"bold": True, "bg_color": HEADER_FILL, "bottom": 1, "text_wrap": True, "valign": "bottom"},
     "legend_header": {"bold": True},
     "label": {"indent": 1},
 }
-STYLES["header_num"] = {**STYLES["header"], "align": "right"}
+STYLES["header_num"] = {**STYLES["header"], "align": "right", "indent": 1}  # above numbers padded by a digit
 for _name, _fmt in NUMBER_FORMATS.items():
     _num = {"num_format": _fmt} if _fmt else {}
     STYLES[_name] = dict(_num)

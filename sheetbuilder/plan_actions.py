@@ -26,7 +26,7 @@ from .columns import ColumnDef, PlannedTable, count_formula, plan_table
 from .formula import cell_ref
 from .plan_lists import SPARE_ROWS
 from .settings import Settings
-from .spec import DATA, Cell, Sheet, Table
+from .spec import DATA, Cell, Sheet, Table, stacked_pages
 
 SHEET = "Actions"
 HEADER_ROW = 3  # 0-based: title, counts, a note, then the header (the layout the changes command reads)
@@ -227,6 +227,8 @@ def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settin
     above = [[Cell("Actions: every change whose final value differs from today", style="title")],
              count_cells,
              [Cell(note_value, note_formula, "alert" if len(changes) > n_rows else "note")]]
-    sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, planned.columns), freeze=(HEADER_ROW + 1, 1),
-                  tab_color="#0B5C8A")
+    table = Table(HEADER_ROW, planned.columns)
+    # Printed: the rows filled when built (changes settled later print once rebuilt).
+    sheet = Sheet(SHEET, above=above, table=table, freeze=(HEADER_ROW + 1, 1), tab_color="#0B5C8A",
+                  page=stacked_pages([table], last_row=HEADER_ROW + min(len(changes), n_rows)))
     return sheet, planned, counts, count_refs

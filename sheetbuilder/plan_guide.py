@@ -10,7 +10,7 @@ from .errors import Problem
 from .palette import STATES
 from .plan_profit import CAUTION, warning_formula, warning_value
 from .settings import Settings
-from .spec import INPUT, Cell, Sheet
+from .spec import INPUT, Cell, PageSetup, Sheet
 
 SHEET = "Guide"
 
@@ -102,6 +102,9 @@ STEPS = [
     "9. Next week, build from the new exports with --previous this workbook: your edits come along "
     "(see 'Decisions and carried edits' below).",
     "10. The proposals are starting points, not orders: check them before changing your ad account.",
+    "Printing: every sheet prints on A4 at the width of its page, with its table's header on every page. Harvest, "
+    "Negatives and Actions print the rows filled when the workbook was built: after typing Decisions, rebuild "
+    "(with --previous) to print the lists as they stand.",
 ]
 
 BID_METHOD = [
@@ -171,6 +174,25 @@ SOURCES = [
 ]
 
 
+LINE = 130  # characters of Arial 10 in a line of column B (102 wide, about 720 pixels), with room to spare
+LINE_HEIGHT = 13.0  # points per line of Arial 10
+
+
+def _lines(cell: Cell | None) -> int:
+    """The lines a wrapped cell's text takes in column B (spreadsheets do not size rows when opening a file)."""
+    if cell is None or cell.style not in ("wrap", "warning_wrap"):
+        return 1
+    return -(-len(str(cell.value)) // LINE)
+
+
+def _wrapped(cell: Cell | None, always: bool = False) -> Cell | None:
+    """cell, wrapping inside its column (top-aligned) when its text is longer than a line of column B."""
+    if cell is None or not isinstance(cell.value, str) or cell.formula or (len(cell.value) <= LINE and not always):
+        return cell
+    style = {"text": "wrap", "warning": "warning_wrap"}.get(cell.style, cell.style)
+    return Cell(cell.value, cell.formula, style, cell.kind, cell.note, cell.link)
+
+
 def _column_rows(title: str, defs: list[ColumnDef]) -> list[list[Cell | None]]:
     """A section listing a sheet's visible columns and their meanings."""
     rows: list[list[Cell | None]] = [[Cell(title, style="subtitle")]]
@@ -180,8 +202,8 @@ def _column_rows(title: str, defs: list[ColumnDef]) -> list[list[Cell | None]]:
 
 def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tuple[str, list[ColumnDef]]],
                warnings: list[Problem], checksums: dict[str, str], sources: dict[str, str],
-               figures: list | None = None) -> Sheet:
-    """The Guide sheet, with the dashboard's live figures at the top."""
+               figures: list | None = None, looks: list | None = None) -> Sheet:
+    """The Guide sheet, with the dashboard's live figures and the first-look lists at the top."""
     rows: list[list[Cell | None]] = [
         [Cell("sheetbuilder: profit after ads, bids, and where ad spend goes", style="title")],
         [Cell("What it is for", style="subtitle"), Cell("This workbook turns your store-sales and sponsored-ad exports and your unit costs into live "
@@ -200,6 +222,12 @@ def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tupl
         [Cell("Key figures", style="subtitle"), Cell("Live: they follow every change you make.", style="note")],
         *[[Cell(f.label), Cell(f.value, f.formula, f.style + "_left")] for f in (figures or [])],
         [None],
+    ]
+    headers = []
+    for look in looks or []:
+        headers.append(len(rows) + 1)
+        rows += [*look.rows(len(rows)), [None]]
+    rows += [
         [Cell("How to use it", style="subtitle")],
         *[[None, Cell(step, style="text")] for step in STEPS],
         [None],
@@ -237,4 +265,10 @@ def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tupl
              [Cell("Built on"), Cell(built_on.isoformat())]]
     for table, digest in sorted(checksums.items()):
         rows.append([Cell(f"Input: {table}"), Cell(f"{sources.get(table, '')}  sha256 {digest}")])
-    return Sheet(SHEET, above=rows, widths={0: 24, 1: 110}, landscape=False, tab_color="#3A2A78")
+    # Long text wraps inside column B (rows grow to fit when opened), so the page prints at a readable scale.
+    rows = [[_wrapped(cell) if col == 1 else cell for col, cell in enumerate(cells)] for cells in rows]
+    heights = {r: LINE_HEIGHT * _lines(cells[1]) for r, cells in enumerate(rows) if len(cells) > 1 and _lines(cells[1]) > 1}
+    heights.update({r: 2 * LINE_HEIGHT for r in headers})  # room between the header's border and the first line
+    for r in heights:  # the label beside wrapped text stands at its first line
+        rows[r][0] = _wrapped(rows[r][0], always=True)
+    return Sheet(SHEET, above=rows, widths={0: 32, 1: 102, 2: 11}, heights=heights, page=PageSetup(landscape=False), tab_color="#3A2A78")

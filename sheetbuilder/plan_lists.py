@@ -19,7 +19,7 @@ import pandas as pd
 
 from .columns import ColumnDef, PlannedTable, count_formula, count_of, plan_table, running_key
 from .settings import Settings
-from .spec import DATA, Cell, Sheet, Table
+from .spec import DATA, Cell, Sheet, Table, stacked_pages
 
 HEADER_ROW = 3
 SPARE_ROWS = 100  # list rows beyond what qualifies at build: room for thresholds and Decisions changed later
@@ -227,6 +227,9 @@ def plan_list(spec: ListSpec, terms: PlannedTable, settings: Settings, ranges: d
     above = [[Cell(spec.title, style="title")],
              [Cell(note, note_formula, "alert")],
              [Cell(room, style="note")]]
-    sheet = Sheet(spec.sheet, above=above, table=Table(HEADER_ROW, planned.columns), freeze=(HEADER_ROW + 1, 2),
+    table = Table(HEADER_ROW, planned.columns)
+    # Printed: the rows filled when built (rows the list fills later, after a Decision, print once rebuilt).
+    sheet = Sheet(spec.sheet, above=above, table=table, freeze=(HEADER_ROW + 1, 2),
+                  page=stacked_pages([table], last_row=HEADER_ROW + min(total, n_rows)),
                   tab_color="#063F63" if spec.word == "promote" else "#5E1F4E")
     return sheet, planned

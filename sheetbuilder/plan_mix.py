@@ -24,7 +24,7 @@ from .normalise import normalise
 from .palette import STATES
 from .plan_inputs import InputSheet, ad_type_codes
 from .settings import Settings
-from .spec import DATA, INPUT, Cell, Chart, Highlight, Series, Sheet, Table
+from .spec import DATA, INPUT, Cell, Chart, Highlight, Series, Sheet, Table, stacked_pages
 
 SHEET = "Mix"
 CHART_ROWS = 18  # rows kept free at the top for the charts
@@ -325,5 +325,7 @@ def plan_mix(ad_layout: InputSheet | None, targets: InputSheet | None, profit: P
     above = [[Cell("Where the money goes: ad types, match types and the top products", style="title")],
              [Cell("Decision aid only: review before changing a live ad account. Benchmark shares are inputs.",
                    style="note")]]
-    sheet = Sheet(SHEET, above=above, table=types_table, more=more, charts=charts, tab_color="#B08A1E")
+    # The charts and the three short summary tables share the first page; the long last table starts its own.
+    sheet = Sheet(SHEET, above=above, table=types_table, more=more, charts=charts, tab_color="#B08A1E",
+                  page=stacked_pages([types_table, *more], breaks_before=more[-1:]))
     return sheet, tables

@@ -4,7 +4,7 @@ from __future__ import annotations
 import datetime as dt
 
 from .settings import SETTINGS, Settings
-from .spec import DATA, INPUT, Cell, Rule, Sheet, Validation
+from .spec import DATA, INPUT, Cell, PageSetup, Rule, Sheet, Validation
 
 SHEET = "Settings"
 FIRST_ROW = 4  # 0-based row of the first setting
@@ -99,5 +99,6 @@ def plan_settings(settings: Settings, built_on: dt.date, period=None,
         for table, canon, source in mapped:
             rows.append([Cell(f"{table}.{canon}"), Cell(source), Cell("header in your file", style="note")])
     sheet = Sheet(SHEET, above=rows, widths={0: 28, 1: 14, 2: 90, 3: 22, 4: 12}, validations=validations,
-                  freeze=(FIRST_ROW, 0), tab_color="#B08A1E", landscape=True)
+                  freeze=(FIRST_ROW, 0), tab_color="#B08A1E",
+                  page=PageSetup(repeat_rows=(FIRST_ROW - 1, FIRST_ROW - 1)))
     return sheet, names

@@ -23,7 +23,7 @@ from xlsxwriter.xmlwriter import XMLwriter
 
 from .formula import cell_ref, check_portable
 from .palette import STATES, STYLES, style_properties
-from .spec import FORMULA, Cell, Chart, Sheet, Table, Validation, WorkbookSpec
+from .spec import FORMULA, Cell, Chart, PageSetup, Sheet, Table, Validation, WorkbookSpec
 
 CELL_TEXT_LIMIT = 32_767  # Microsoft, "Excel specifications and limits": characters in a cell
 TRUNCATION_MARK = " [cut: longer than a cell holds]"
@@ -150,6 +150,8 @@ def _put_cell(ws, row: int, col: int, cell: Cell | None, formats: dict) -> None:
     if cell is None:
         return
     fmt = formats[cell.style]
+    if cell.link is not None:  # the link first: the cell's own value or formula is then written over its text
+        ws.write_url(row, col, "internal:" + cell.link, fmt, str(cell.value if cell.value is not None else ""))
     if cell.formula is not None:
         check_portable(cell.formula)
         put_formula(ws, row, col, cell.formula, fmt, _cached(cell.value))
@@ -159,9 +161,11 @@ def _put_cell(ws, row: int, col: int, cell: Cell | None, formats: dict) -> None:
         ws.write_comment(row, col, cell.note)
 
 
-def _write_rows(ws, first: int, rows: list[list[Cell | None]], formats: dict) -> int:
-    """Write rows of cells from row first; return the next free row."""
+def _write_rows(ws, first: int, rows: list[list[Cell | None]], formats: dict, heights: dict | None = None) -> int:
+    """Write rows of cells from row first (with the heights given by row); return the next free row."""
     for i, cells in enumerate(rows):
+        if heights and first + i in heights:
+            ws.set_row(first + i, heights[first + i])
         for col, cell in enumerate(cells):
             _put_cell(ws, first + i, col, cell, formats)
     return first + len(rows)
@@ -356,6 +360,26 @@ def validation_options(v: Validation) -> dict:
     return options
 
 
+def _set_page(ws, page: PageSetup, last_row: int, last_col: int) -> None:
+    """The sheet's print settings: area, title rows, page breaks, orientation, A4, fit to width, footer."""
+    if page.area is not None:
+        area = page.area
+        ws.print_area(area.first_row, area.first_col, min(area.last_row, max(last_row, area.first_row)),
+                      last_col if area.last_col is None else area.last_col)
+    if page.repeat_rows is not None:
+        ws.repeat_rows(*page.repeat_rows)
+    if page.breaks:
+        ws.set_h_pagebreaks(sorted(set(page.breaks)))
+    if page.landscape:
+        ws.set_landscape()
+    else:
+        ws.set_portrait()
+    ws.set_paper(9)
+    if page.fit_width:
+        ws.fit_to_pages(1, 0)
+    ws.set_margins(0.4, 0.4, 0.5, 0.5)
+
+
 def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress: Progress | None,
                  placed: list[Placed]) -> Any:
     """Write one sheet: widths, rows above, its tables, rows below, then its settings; return the worksheet.
@@ -367,25 +391,22 @@ def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress:
     for col, width in sorted(widths.items()):
         ws.set_column(col, col, width, None, {"hidden": col in hidden})
     placed.append(("rows", 0, sheet.above))
-    row = _write_rows(ws, 0, sheet.above, formats)
+    row = _write_rows(ws, 0, sheet.above, formats, sheet.heights)
+    last_col = max([len(cells) - 1 for cells in [*sheet.above, *sheet.below]] +
+                   [len(t.columns) - 1 for t in [sheet.table, *sheet.more] if t] + [0])
     if sheet.table:
-        placed.append(("table", max(row, sheet.table.first_row), sheet.table))
+        placed.append(("table", sheet.table.first_row, sheet.table))
         row = _write_table(ws, sheet.table, row, formats, state_formats, progress, sheet.name, True)
-        ws.repeat_rows(sheet.table.first_row)
     for table in sheet.more:
-        placed.append(("table", max(row, table.first_row), table))
+        placed.append(("table", table.first_row, table))
         row = _write_table(ws, table, row, formats, state_formats, progress, sheet.name, False)
     placed.append(("rows", row, sheet.below))
-    _write_rows(ws, row, sheet.below, formats)
+    last_row = _write_rows(ws, row, sheet.below, formats) - 1
     for v in sheet.validations:
         ws.data_validation(v.row, v.col, v.row if v.last_row is None else v.last_row, v.col, validation_options(v))
     if sheet.freeze:
         ws.freeze_panes(*sheet.freeze)
-    if sheet.landscape:
-        ws.set_landscape()
-    ws.set_paper(9)
-    ws.fit_to_pages(1, 0)
-    ws.set_margins(0.4, 0.4, 0.5, 0.5)
+    _set_page(ws, sheet.page_setup(), last_row, last_col)
     ws.set_footer("&L&A&RPage &P of &N")
     if sheet.tab_color:
         ws.set_tab_color(sheet.tab_color)

@@ -22,6 +22,7 @@ class Cell:
     style: str = "text"
     kind: str = DATA
     note: str | None = None  # a cell note (comment), e.g. where a carried value came from
+    link: str | None = None  # a place in this workbook the cell links to, e.g. "'Profit'!A12"
 
 
 @dataclass
@@ -139,6 +140,55 @@ class Chart:
     size: tuple[int, int] = (520, 300)
 
 
+@dataclass(frozen=True)
+class PrintArea:
+    """The rows (and columns) a sheet prints, 0-based and inclusive; last_col None: every column written."""
+
+    first_row: int
+    last_row: int
+    first_col: int = 0
+    last_col: int | None = None
+
+
+@dataclass(frozen=True)
+class PageSetup:
+    """How a sheet prints.
+
+    Args:
+        area: what prints; None prints every cell written.
+        repeat_rows: the first and last row printed again at the top of each page after the one they
+            start on (spreadsheets repeat title rows only from their own page on).
+        breaks: rows that begin a new page.
+        landscape: landscape (True) or portrait paper.
+        fit_width: scale the columns to one page wide (pages run down as far as needed).
+    """
+
+    area: PrintArea | None = None
+    repeat_rows: tuple[int, int] | None = None
+    breaks: tuple[int, ...] = ()
+    landscape: bool = True
+    fit_width: bool = True
+
+
+def stacked_pages(tables: list[Table], breaks_before: list[Table] | None = None, last_row: int | None = None,
+                  landscape: bool = True) -> PageSetup:
+    """Tables stacked down a sheet, printed so that every page's title rows belong to its table.
+
+    Each table in breaks_before (by default every table after the first) starts a new page at its
+    title, and the last table's header repeats on its pages: pages of an earlier table never show
+    another table's header (one that runs onto a second page continues without its header).
+    last_row ends the print area (a live list's rows filled when built).
+    """
+    tables = [t for t in tables if t is not None]
+    if not tables:
+        return PageSetup(landscape=landscape)
+    later = tables[1:] if breaks_before is None else breaks_before
+    breaks = tuple(t.first_row - (1 if t.title else 0) for t in later)
+    last = tables[-1]
+    area = None if last_row is None else PrintArea(0, last_row)
+    return PageSetup(area, (last.first_row, last.first_row), breaks, landscape)
+
+
 @dataclass
 class Sheet:
     """One worksheet: rows of cells above the table, the table, more tables, rows below, charts."""
@@ -150,11 +200,16 @@ class Sheet:
     below: list[list[Cell | None]] = field(default_factory=list)
     charts: list[Chart] = field(default_factory=list)
     widths: dict[int, float] = field(default_factory=dict)
+    heights: dict[int, float] = field(default_factory=dict)  # {row: height in points} of rows above the tables
     freeze: tuple[int, int] | None = None
     validations: list[Validation] = field(default_factory=list)
-    landscape: bool = True
+    page: PageSetup | None = None  # None: stacked_pages over its tables
     tab_color: str | None = None
     hidden: bool = False
+
+    def page_setup(self) -> PageSetup:
+        """How this sheet prints: its declared page setup, or its tables stacked (see stacked_pages)."""
+        return self.page if self.page is not None else stacked_pages([self.table, *self.more])
 
 
 @dataclass
