@@ -50,7 +50,7 @@ def child_changes(workbook: Path, csv_out: Path) -> dict:
     """Time the changes command on a built workbook, and on the same file saved without formula values."""
     import openpyxl
 
-    from sheetbuilder.changes import export_changes
+    from sheetbuilder.weekly.changes import export_changes
     t = time.perf_counter()
     export_changes(workbook, csv_out, force=True)
     cached = time.perf_counter() - t
@@ -62,7 +62,7 @@ def child_changes(workbook: Path, csv_out: Path) -> dict:
 
 
 def _value_writer(ws, formats):
-    from sheetbuilder.render import _cached, put_value
+    from sheetbuilder.workbook.render import _cached, put_value
 
     def write(row: int, col: int, value, style: str, formula) -> None:
         fmt = formats[style]
@@ -81,8 +81,8 @@ def child_plain(folder: Path, out: Path) -> dict:
     """Write the planned cells as plain values (no formulas); time only the writing."""
     import xlsxwriter
     from sheetbuilder.pipeline import load, plan_workbook
-    from sheetbuilder.palette import STYLES, style_properties
-    from sheetbuilder.spec import FORMULA
+    from sheetbuilder.workbook.palette import STYLES, style_properties
+    from sheetbuilder.workbook.spec import FORMULA
     inputs, settings, problems = load(folder)
     plan = plan_workbook(inputs, settings, BUILT_ON)
     spec = plan.spec
@@ -151,7 +151,7 @@ def _terms_stats(inputs, plan, settings) -> dict:
 def child_micro(n: int) -> dict:
     """Formula cells per second: the project's put_formula versus xlsxwriter's write_formula."""
     import xlsxwriter
-    from sheetbuilder.render import put_formula, workbook_options
+    from sheetbuilder.workbook.render import put_formula, workbook_options
     templates = ['=IF(D{r}=0,"",E{r}/D{r})', '=IF(I{r}="","",D{r}*I{r}-E{r})',
                  '=IF(T{r}="",0,SUM(INDEX(in_store_sales!$C$2:$C$9999,T{r}):INDEX(in_store_sales!$C$2:$C$9999,U{r})))',
                  '=IF(D{r}=0,"no sales",IF(I{r}="","no margin",IF(L{r}<0,"loss",IF(L{r}<thin_margin,"thin",'

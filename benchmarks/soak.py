@@ -29,7 +29,7 @@ from pathlib import Path
 
 from hypothesis import HealthCheck, given, settings, strategies as st
 
-from sheetbuilder import contract as c
+from sheetbuilder.reading import contract as c
 from sheetbuilder.errors import ERROR, InputProblems, SheetbuilderError
 from sheetbuilder.pipeline import build
 
@@ -377,7 +377,7 @@ def damaged_workbooks(draw) -> bytes:
 
 def check_saved_case(data: bytes) -> str:
     """Run changes and a build with --previous on the damaged workbook; assert the property."""
-    from sheetbuilder.changes import export_changes  # noqa: PLC0415 (keeps the readers' fuzz free of openpyxl)
+    from sheetbuilder.weekly.changes import export_changes  # noqa: PLC0415 (keeps the readers' fuzz free of openpyxl)
 
     with tempfile.TemporaryDirectory(prefix="sheetbuilder-fuzz-") as tmp:
         folder, out_dir = Path(tmp) / "in", Path(tmp) / "out"

@@ -5,6 +5,6 @@ The public surface is :func:`build` (read, plan, render atomically) and
 """
 __version__ = "0.1.0"
 
-from .pipeline import BuildResult, build, plan_workbook  # noqa: E402
+from sheetbuilder.pipeline import BuildResult, build, plan_workbook  # noqa: E402
 
 __all__ = ["build", "plan_workbook", "BuildResult", "__version__"]

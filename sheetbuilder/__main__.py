@@ -2,7 +2,7 @@
 import sys
 
 try:
-    from .cli import main
+    from sheetbuilder.cli import main
 except KeyboardInterrupt:  # Ctrl-C while the libraries load: nothing has started yet
     sys.exit(130)
 

@@ -2,7 +2,7 @@
 
 Each step plans one sheet (or a pair, such as Harvest and Negatives), provides its anchors (its
 tables' ranges, totals and last cells, and single figures such as Budget's spend shifted) under
-its own name in :class:`~sheetbuilder.anchors.Anchors`, and reads what it needs from there by
+its own name in :class:`~sheetbuilder.sheets.anchors.Anchors`, and reads what it needs from there by
 name. A step whose needs are absent (no targets export: no Bids; no search terms: no Terms,
 Harvest or Negatives) is not run. Reading an anchor that no earlier step provides is an internal
 error, never a placeholder range.
@@ -17,30 +17,31 @@ from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Callable
 
-from .anchors import Anchors
-from .carry import PROFIT_TARGET, CarryResult, decision_column, entry_for
-from .columns import ColumnDef, PlannedTable
-from .errors import Problem
-from .followup import Followup
-from .history import applied_rows, plan_history
-from .plan_actions import defs as ACTION_DEFS, plan_actions
-from .plan_bids import DEFS as BIDS_DEFS, plan_bids
-from .plan_budget import CAMPAIGN_DEFS, PRODUCT_DEFS as BUDGET_DEFS, plan_budget
-from .plan_dashboard import Figure, dashboard, first_look
-from .plan_followup import CHANGE_DEFS as FOLLOWUP_DEFS, NAME as FOLLOWUP_NAME, SHEET as FOLLOWUP_SHEET, plan_followup
-from .plan_groups import DEFS as GROUPS_DEFS, plan_groups
-from .plan_guide import plan_guide
-from .plan_inputs import InputSheet, catalog_names, plan_input_sheets
-from .plan_lists import HARVEST, NEGATIVES, plan_list
-from .plan_mix import MATCH_DEFS, TYPE_DEFS as MIX_DEFS, plan_mix
-from .plan_profit import DEFS as PROFIT_DEFS, plan_profit
-from .plan_settings import plan_settings
-from .plan_terms import defs as TERMS_DEFS, plan_terms
-from .plan_unmatched import plan_carried, plan_unmatched
-from .readers import Inputs
-from .saved import ACTIONS_NAME, EDITABLE_TABLES, PROFIT
-from .settings import Settings
-from .spec import Column, Sheet, Table, WorkbookSpec
+from sheetbuilder.sheets.anchors import Anchors
+from sheetbuilder.weekly.carry import PROFIT_TARGET, CarryResult, decision_column, entry_for
+from sheetbuilder.workbook.columns import ColumnDef, PlannedTable
+from sheetbuilder.errors import Problem
+from sheetbuilder.weekly.followup import Followup
+from sheetbuilder.sheets.history import applied_rows, plan_history
+from sheetbuilder.sheets.actions import defs as ACTION_DEFS, plan_actions
+from sheetbuilder.sheets.bids import DEFS as BIDS_DEFS, plan_bids
+from sheetbuilder.sheets.budget import CAMPAIGN_DEFS, PRODUCT_DEFS as BUDGET_DEFS, plan_budget
+from sheetbuilder.sheets.dashboard import Figure, dashboard, first_look
+from sheetbuilder.sheets.followup import (CHANGE_DEFS as FOLLOWUP_DEFS, NAME as FOLLOWUP_NAME, SHEET as FOLLOWUP_SHEET,
+                                          plan_followup)
+from sheetbuilder.sheets.groups import DEFS as GROUPS_DEFS, plan_groups
+from sheetbuilder.sheets.guide import plan_guide
+from sheetbuilder.sheets.inputs import InputSheet, catalog_names, plan_input_sheets
+from sheetbuilder.sheets.lists import HARVEST, NEGATIVES, plan_list
+from sheetbuilder.sheets.mix import MATCH_DEFS, TYPE_DEFS as MIX_DEFS, plan_mix
+from sheetbuilder.sheets.profit import DEFS as PROFIT_DEFS, plan_profit
+from sheetbuilder.sheets.settings import plan_settings
+from sheetbuilder.sheets.terms import defs as TERMS_DEFS, plan_terms
+from sheetbuilder.sheets.unmatched import plan_carried, plan_unmatched
+from sheetbuilder.reading.readers import Inputs
+from sheetbuilder.weekly.saved import ACTIONS_NAME, EDITABLE_TABLES, PROFIT
+from sheetbuilder.reading.settings import Settings
+from sheetbuilder.workbook.spec import Column, Sheet, Table, WorkbookSpec
 
 # Where each step's sheets go, left to right (the Guide first, the in_ sheets last).
 SHEET_ORDER = ("guide", "settings", "profit", "bids", "terms", "harvest", "negatives", "mix", "budget", "actions",

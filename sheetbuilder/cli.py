@@ -29,12 +29,12 @@ from rich.markup import escape
 from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
 from rich.table import Table
 
-from . import __version__
-from .carry import carried_summary
-from .changes import export_changes
-from .inspection import inspect_exports, report_lines
-from .pipeline import build
-from .errors import ERROR, InputProblems, Problem, SheetbuilderError
+from sheetbuilder import __version__
+from sheetbuilder.weekly.carry import carried_summary
+from sheetbuilder.weekly.changes import export_changes
+from sheetbuilder.reading.inspection import inspect_exports, report_lines
+from sheetbuilder.pipeline import build
+from sheetbuilder.errors import ERROR, InputProblems, Problem, SheetbuilderError
 
 EXIT_INPUT = 2
 EXIT_REFUSED = 1

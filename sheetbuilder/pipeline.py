@@ -8,18 +8,18 @@ from pathlib import Path
 
 import pandas as pd
 
-from .assemble import Plan, plan_workbook  # noqa: F401 (plan_workbook re-exported: the planning twin of build)
-from .atomic import atomic_output, refuse_input_as_output, scratch_dir
-from .carry import CarryResult, PreviousWorkbookUnreadable, apply_edits, carried_catalog, read_edits
-from .change_list import read_followup
-from .errors import ERROR, WARNING, InputProblems, OutputExists, Problem, SheetbuilderError, UnsafeOutput
-from .guard import reading
-from .history import read_history
-from .periods import settings_for_inputs
-from .readers import Inputs, read_inputs
-from .render import Progress, render
-from .settings import SETTINGS_FILE, Settings, load_settings
-from .spec import WorkbookSpec
+from sheetbuilder.assemble import Plan, plan_workbook  # noqa: F401 (plan_workbook re-exported: the planning twin of build)
+from sheetbuilder.workbook.atomic import atomic_output, refuse_input_as_output, scratch_dir
+from sheetbuilder.weekly.carry import CarryResult, PreviousWorkbookUnreadable, apply_edits, carried_catalog, read_edits
+from sheetbuilder.weekly.change_list import read_followup
+from sheetbuilder.errors import ERROR, WARNING, InputProblems, OutputExists, Problem, SheetbuilderError, UnsafeOutput
+from sheetbuilder.reading.guard import reading
+from sheetbuilder.sheets.history import read_history
+from sheetbuilder.reading.periods import settings_for_inputs
+from sheetbuilder.reading.readers import Inputs, read_inputs
+from sheetbuilder.workbook.render import Progress, render
+from sheetbuilder.reading.settings import SETTINGS_FILE, Settings, load_settings
+from sheetbuilder.workbook.spec import WorkbookSpec
 
 
 @dataclass

@@ -22,7 +22,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from sheetbuilder.settings import Settings
+from sheetbuilder.reading.settings import Settings
 
 from .market import Market
 from .policies import Window

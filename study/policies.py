@@ -22,7 +22,7 @@ from pathlib import Path
 import numpy as np
 
 from sheetbuilder.pipeline import load, plan_workbook
-from sheetbuilder.settings import Settings
+from sheetbuilder.reading.settings import Settings
 
 from .market import Market
 

@@ -16,7 +16,7 @@ from pathlib import Path
 
 import numpy as np
 
-from sheetbuilder.settings import Settings
+from sheetbuilder.reading.settings import Settings
 
 from .market import EXTRA_SCENARIOS, SCENARIOS, draw_market
 from .measures import MEASURES, measure, paired_bootstrap, simulate

@@ -8,8 +8,8 @@ from __future__ import annotations
 from collections import defaultdict
 from decimal import ROUND_HALF_UP, Decimal
 
-from sheetbuilder.contract import header_key
-from sheetbuilder.normalise import normalise
+from sheetbuilder.reading.contract import header_key
+from sheetbuilder.reading.normalise import normalise
 
 BLANK = None
 MATCHES = ["exact", "phrase", "broad", "product", "auto"]

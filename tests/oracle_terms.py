@@ -10,7 +10,7 @@ import math
 from collections import defaultdict
 from decimal import ROUND_HALF_UP, Decimal
 
-from sheetbuilder.normalise import contains_phrase, looks_like_product_id, normalise, words
+from sheetbuilder.reading.normalise import contains_phrase, looks_like_product_id, normalise, words
 
 BLANK = None
 

@@ -10,14 +10,14 @@ import pytest
 
 from minimal import write_account
 
-import sheetbuilder.change_list as change_list
-from sheetbuilder.anchors import Anchors, DuplicateAnchor, MissingAnchor, without_absent
+import sheetbuilder.weekly.change_list as change_list
+from sheetbuilder.sheets.anchors import Anchors, DuplicateAnchor, MissingAnchor, without_absent
 from sheetbuilder.assemble import SHEET_ORDER, STEPS, plan_workbook
 from sheetbuilder.cli import EXIT_BUG, main
-from sheetbuilder.columns import ColumnDef
+from sheetbuilder.workbook.columns import ColumnDef
 from sheetbuilder.pipeline import load
-from sheetbuilder.render import OverlappingBlocks, render
-from sheetbuilder.spec import DATA, Cell, Column, Sheet, Table, WorkbookSpec
+from sheetbuilder.workbook.render import OverlappingBlocks, render
+from sheetbuilder.workbook.spec import DATA, Cell, Column, Sheet, Table, WorkbookSpec
 
 DEMO = Path(__file__).resolve().parent.parent / "demo_inputs"
 BUILT_ON = dt.date(2026, 12, 2)
@@ -112,7 +112,7 @@ def test_a_bug_while_planning_a_saved_workbook_exits_70_not_as_an_unreadable_fil
 
 
 def test_the_previous_workbook_is_still_read_under_the_guard(tmp_path):
-    from sheetbuilder.carry import PreviousWorkbookUnreadable
+    from sheetbuilder.weekly.carry import PreviousWorkbookUnreadable
     book = tmp_path / "book.xlsx"
     book.write_bytes(b"PK\x03\x04 not really a zip")
     with pytest.raises(PreviousWorkbookUnreadable):
@@ -130,7 +130,7 @@ def _formulas(plan) -> list[str]:
 
 
 def test_the_block_sum_is_written_by_one_helper():
-    from sheetbuilder.formula import block_sum
+    from sheetbuilder.workbook.formula import block_sum
     assert "SUM(INDEX({rng:t.c},{c:first}):INDEX({rng:t.c},{c:last}))" == block_sum("{rng:t.c}", "{c:first}", "{c:last}")
     package = Path(__file__).resolve().parent.parent / "sheetbuilder"
     writers = {p.name for p in package.rglob("*.py") if "SUM(INDEX(" in p.read_text(encoding="utf-8").replace(
@@ -139,10 +139,10 @@ def test_the_block_sum_is_written_by_one_helper():
 
 
 def test_a_decision_validation_is_planned_from_its_columns_words_and_rendered_only_by_the_renderer():
-    from sheetbuilder.columns import decision_validation
-    from sheetbuilder.plan_bids import EDITABLE_COLUMNS as BIDS
-    from sheetbuilder.plan_terms import DECISIONS, EDITABLE_COLUMNS as TERMS
-    from sheetbuilder.render import validation_options
+    from sheetbuilder.workbook.columns import decision_validation
+    from sheetbuilder.sheets.bids import EDITABLE_COLUMNS as BIDS
+    from sheetbuilder.sheets.terms import DECISIONS, EDITABLE_COLUMNS as TERMS
+    from sheetbuilder.workbook.render import validation_options
     bids = decision_validation(BIDS, 4, 17, 3, "type a bid or keep", "a bid or keep")
     assert {"validate": "custom", "value": '=OR(ISNUMBER(R5),R5="keep")', "error_title": "Not a decision",
             "error_message": "type a bid or keep", "input_title": "Decision",

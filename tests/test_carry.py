@@ -10,9 +10,9 @@ import openpyxl
 import pytest
 
 from conftest import BUILT_ON, DEMO
-from sheetbuilder.carry import (CarryRecord, Edits, PreviousWorkbookUnreadable, apply_edits, carried_catalog,
-                                carried_summary, decision_column, read_edits, unmatched_sheet_rows)
-from sheetbuilder.normalise import normalise
+from sheetbuilder.weekly.carry import (CarryRecord, Edits, PreviousWorkbookUnreadable, apply_edits, carried_catalog,
+                                       carried_summary, decision_column, read_edits, unmatched_sheet_rows)
+from sheetbuilder.reading.normalise import normalise
 from sheetbuilder.pipeline import build, load
 
 PRODUCT = "LF-1007"
@@ -146,7 +146,7 @@ def test_invalid_values_are_unmatched_with_the_reason():
                   catalog={("P1", "unit_cost"): "cheap", ("P1", "price"): -4.0},
                   targets={"P1": 7.0})
     import pandas as pd
-    from sheetbuilder.settings import Settings
+    from sheetbuilder.reading.settings import Settings
     tables = {"catalog": pd.DataFrame({"product_id": ["P1"], "price": [10.0], "unit_cost": [4.0],
                                        "fees_per_unit": [1.0], "target_acos": [float("nan")],
                                        "margin": [float("nan")]})}
@@ -189,7 +189,7 @@ def test_header_rows_are_found_by_scanning(tmp_path):
 
 def test_decisions_that_are_not_a_valid_word_or_number_are_unmatched_with_the_reason():
     """Text in a numeric Decision, an unknown word and a saved formula error are never carried or ignored."""
-    from sheetbuilder.columns import NO_SAVED_VALUE
+    from sheetbuilder.workbook.columns import NO_SAVED_VALUE
     inputs, settings, _ = load(DEMO)
     t = inputs.tables["targets"].iloc[0]
     s = inputs.tables["search_terms"].iloc[0]
@@ -214,8 +214,8 @@ def test_keys_with_a_tab_or_longer_than_a_cell_still_match_their_rows(tmp_path):
     (Other control characters are refused on input: a workbook cannot keep them exactly.)"""
     import csv as _csv
     from minimal import TARGETS, write_account
-    from sheetbuilder.plan_bids import EDITABLE_COLUMNS as BIDS
-    from sheetbuilder.saved import named_area
+    from sheetbuilder.sheets.bids import EDITABLE_COLUMNS as BIDS
+    from sheetbuilder.weekly.saved import named_area
     control, long = "tab\tkw", "w" * 40_000
     rows = TARGETS + "".join(f'C1,G1,"{t}",exact,enabled,0.40,100,10,5.00,20.00,1\n' for t in (control, long))
     folder = write_account(tmp_path / "acct", {"targets.csv": rows})

@@ -21,9 +21,9 @@ from hypothesis import HealthCheck, given, settings as hsettings
 from accounts import accounts, write_account
 from conftest import BUILT_ON, DEMO, require_libreoffice
 from oracle_actions import actions_oracle
-from sheetbuilder.normalise import contains_phrase, normalise
+from sheetbuilder.reading.normalise import contains_phrase, normalise
 from sheetbuilder.pipeline import build, load
-from sheetbuilder.plan_actions import HEADER_ROW, HEADERS
+from sheetbuilder.sheets.actions import HEADER_ROW, HEADERS
 
 ADDS = ("add keyword", "add product target")
 KEYS = {"Kind": "kind", "Campaign": "campaign", "Ad group": "ad_group", "Target or term": "target",

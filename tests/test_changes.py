@@ -7,10 +7,9 @@ import openpyxl
 import pytest
 import xlsxwriter
 
-from sheetbuilder.changes import (COLUMNS, HEADERS, NoActionsSheet, NotAWorkbook, WorkbookNotFound,
-                                  export_changes)
+from sheetbuilder.weekly.changes import COLUMNS, HEADERS, NoActionsSheet, NotAWorkbook, WorkbookNotFound, export_changes
 from sheetbuilder.cli import main
-from sheetbuilder.csv_safe import read_csv_rows
+from sheetbuilder.workbook.csv_safe import read_csv_rows
 from sheetbuilder.errors import OutputExists
 
 HOSTILE = ['=HYPERLINK("http://x","y")', "+1+2", "-2+3", "@SUM(A1)", "\tleading tab"]
@@ -219,7 +218,7 @@ def test_cli_build_without_previous_support_is_a_clear_refusal(tmp_path, monkeyp
 
 
 def test_the_actions_sheet_has_the_layout_changes_reads():
-    from sheetbuilder.plan_actions import HEADERS, defs
+    from sheetbuilder.sheets.actions import HEADERS, defs
     assert list(HEADERS) == [d.header for d in defs(["0"] * 5) if not d.hidden]
 
 
@@ -228,8 +227,8 @@ def test_a_final_bid_typed_over_by_hand_is_reported_and_the_formula_value_export
     """Typed over the Final bid formula instead of in Decision: reported with its row; the list keeps the formula's value."""
     from conftest import BUILT_ON, DEMO
     from sheetbuilder.pipeline import build
-    from sheetbuilder.plan_bids import EDITABLE_COLUMNS as BIDS
-    from sheetbuilder.saved import named_area
+    from sheetbuilder.sheets.bids import EDITABLE_COLUMNS as BIDS
+    from sheetbuilder.weekly.saved import named_area
     built = build(DEMO, tmp_path / "demo.xlsx", built_on=BUILT_ON)
     original = export_changes(built.output, tmp_path / "c1.csv")
     wb = openpyxl.load_workbook(built.output)

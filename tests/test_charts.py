@@ -13,8 +13,8 @@ from xml.etree import ElementTree
 
 from openpyxl.utils import range_boundaries
 
-from sheetbuilder.render import chart_names
-from sheetbuilder.spec import Chart, Series
+from sheetbuilder.workbook.render import chart_names
+from sheetbuilder.workbook.spec import Chart, Series
 from workbook_io import open_values
 
 C = "{http://schemas.openxmlformats.org/drawingml/2006/chart}"

@@ -3,7 +3,7 @@
 DEVELOPERS.md, "Changing the workbook: every file you touch", lists each file a new column
 or a new sheet touches. Every path, module, `module.name` and test named there must exist,
 so that moving a module fails here until the guide follows. Every sheet of the demo
-workbook must have its line on the Guide (`plan_guide.SHEETS_TEXT`) and its entry in the
+workbook must have its line on the Guide (`sheets.guide.SHEETS_TEXT`) and its entry in the
 README's "What each sheet shows".
 """
 from __future__ import annotations
@@ -16,7 +16,7 @@ import pytest
 
 from conftest import BUILT_ON, DEMO
 from sheetbuilder.pipeline import load, plan_workbook
-from sheetbuilder.plan_guide import SHEETS_TEXT
+from sheetbuilder.sheets.guide import SHEETS_TEXT
 
 ROOT = Path(__file__).resolve().parent.parent
 TESTS = ROOT / "tests"
@@ -72,7 +72,7 @@ def test_every_file_module_and_test_the_contributor_guide_names_exists():
 
 
 def test_the_name_check_catches_a_moved_module_a_missing_test_and_a_missing_name():
-    text = "`sheetbuilder/plan_nowhere.py`, `test_nothing_like_this`, `columns.no_such_helper`, `columns.plan_table`"
+    text = "`sheetbuilder/plan_nowhere.py`, `test_nothing_like_this`, `columns.no_such_helper`, `workbook.columns.plan_table`"
     assert ["sheetbuilder/plan_nowhere.py", "test_nothing_like_this", "columns.no_such_helper"] == missing_names(text)
 
 

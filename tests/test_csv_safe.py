@@ -9,8 +9,8 @@ import csv
 
 import pytest
 
-from sheetbuilder import atomic
-from sheetbuilder.csv_safe import escape_cell, read_csv_rows, unescape_cell, write_csv
+from sheetbuilder.workbook import atomic
+from sheetbuilder.workbook.csv_safe import escape_cell, read_csv_rows, unescape_cell, write_csv
 from sheetbuilder.errors import OutputExists
 
 HOSTILE = ['=HYPERLINK("http://x","y")', "+1+2", "-2+3", "@SUM(A1)", "\tTAB", "\rCR"]

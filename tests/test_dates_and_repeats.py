@@ -21,7 +21,7 @@ from conftest import BUILT_ON, require_libreoffice
 from same_cells import computed_differences
 from workbook_io import engine_disagreements, mismatches, open_values, read_table
 from sheetbuilder.errors import ERROR, WARNING, InputProblems
-from sheetbuilder.periods import parse_dates
+from sheetbuilder.reading.periods import parse_dates
 from sheetbuilder.pipeline import build, load
 from sheetbuilder.recalc import formulas_values, libreoffice_convert
 

@@ -17,7 +17,7 @@ from conftest import BUILT_ON, DEMO, ROOT
 from same_cells import computed_cells, computed_differences
 from sheetbuilder.cli import main
 from sheetbuilder.pipeline import build, load
-from sheetbuilder.settings import Settings
+from sheetbuilder.reading.settings import Settings
 
 RAW = ROOT / "demo_inputs_raw"
 

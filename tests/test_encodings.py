@@ -10,7 +10,7 @@ import openpyxl
 import pytest
 import xlsxwriter
 
-from sheetbuilder.encodings import NotText, decode
+from sheetbuilder.reading.encodings import NotText, decode
 from sheetbuilder.errors import ERROR, WARNING, InputProblems
 from sheetbuilder.pipeline import build, load
 

@@ -21,10 +21,10 @@ import pytest
 from conftest import BUILT_ON, DEMO, ROOT, require_libreoffice
 from oracle_followup import expected_row
 from workbook_io import same
-from sheetbuilder.changes import COLUMNS, export_changes
-from sheetbuilder.followup import Span
+from sheetbuilder.weekly.changes import COLUMNS, export_changes
+from sheetbuilder.weekly.followup import Span
 from sheetbuilder.pipeline import build
-from sheetbuilder.plan_followup import FIRST_TABLE_ROW, SHEET, period_lines
+from sheetbuilder.sheets.followup import FIRST_TABLE_ROW, SHEET, period_lines
 from sheetbuilder.recalc import libreoffice_convert
 
 sys.path.insert(0, str(ROOT / "tools"))
@@ -185,7 +185,7 @@ def test_a_rebuild_from_the_same_exports_says_so_and_writes_no_follow_up(scenari
 
 
 def test_two_30_day_periods_a_week_apart_are_stated_as_sharing_23_days():
-    from sheetbuilder.followup import Followup
+    from sheetbuilder.weekly.followup import Followup
     last = Span(dt.date(2026, 10, 27), dt.date(2026, 11, 25))
     this = Span(dt.date(2026, 11, 3), dt.date(2026, 12, 2))
     lines = period_lines(Followup([], {}, last, this, "w1.xlsx"))

@@ -16,7 +16,7 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 
 from benchmarks.soak import BASE, STRATEGIES, base_rows, check_case, to_csv, valid_xlsx, write_case, zip_bytes
-from sheetbuilder import guard, readers
+from sheetbuilder.reading import guard, readers
 from sheetbuilder.errors import ERROR, WARNING, InputProblems
 from sheetbuilder.pipeline import build, load
 

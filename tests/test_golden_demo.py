@@ -53,7 +53,7 @@ def test_the_demo_workbook_equals_the_saved_sample_after_normalisation(demo_snap
 
 def test_a_build_on_another_date_and_version_differs_only_in_what_the_normalisation_replaces(
         demo_raw, demo_snapshot, tmp_path, monkeypatch):
-    import sheetbuilder.plan_guide as plan_guide
+    import sheetbuilder.sheets.guide as plan_guide
     monkeypatch.setattr(plan_guide, "__version__", "9.9.9")
     later = build(ROOT / "demo_inputs", tmp_path / "later.xlsx", built_on=dt.date(2027, 3, 15))
     later_raw = snapshot(later.output)

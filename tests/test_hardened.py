@@ -27,15 +27,16 @@ from hypothesis import HealthCheck, given, settings as hsettings
 from conftest import BUILT_ON, require_libreoffice
 from benchmarks.accounts import make_account
 from benchmarks.soak import BASE, check_saved_case, damaged_workbooks, valid_xlsx, write_case, zip_bytes
-from sheetbuilder import atomic, guard
-from sheetbuilder.changes import NotAWorkbook, export_changes
-from sheetbuilder.carry import PreviousWorkbookUnreadable
+from sheetbuilder.workbook import atomic
+from sheetbuilder.reading import guard
+from sheetbuilder.weekly.changes import NotAWorkbook, export_changes
+from sheetbuilder.weekly.carry import PreviousWorkbookUnreadable
 from sheetbuilder.cli import main
-from sheetbuilder.csv_safe import read_csv_rows
+from sheetbuilder.workbook.csv_safe import read_csv_rows
 from sheetbuilder.errors import InputProblems, OutputExists, UnsafeOutput
 from sheetbuilder.pipeline import build
 from sheetbuilder.recalc import libreoffice_convert
-from sheetbuilder.settings import SETTINGS, load_settings
+from sheetbuilder.reading.settings import SETTINGS, load_settings
 
 ROOT = Path(__file__).resolve().parents[1]
 MEMORY_LIMIT_MB = 500  # the bound for any hostile input of at most 10 MB
@@ -465,7 +466,7 @@ def test_a_csv_row_with_too_many_cells_is_refused_with_its_row(tmp_path, monkeyp
 
 
 def test_running_out_of_memory_while_reading_says_so(tmp_path, monkeypatch):
-    import sheetbuilder.readers as readers
+    import sheetbuilder.reading.readers as readers
 
     def oom(path):
         raise MemoryError()

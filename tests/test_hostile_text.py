@@ -27,7 +27,7 @@ import xlsxwriter
 from conftest import require_libreoffice
 from sheetbuilder.pipeline import build
 from sheetbuilder.recalc import libreoffice_convert
-from sheetbuilder.render import CELL_TEXT_LIMIT, TRUNCATION_MARK, put_value, workbook_options
+from sheetbuilder.workbook.render import CELL_TEXT_LIMIT, TRUNCATION_MARK, put_value, workbook_options
 
 BUILT_ON = dt.date(2026, 12, 2)
 LONG = "raised bed " * 3_637 + "end"  # 40,010 characters, more than a cell holds

@@ -16,7 +16,7 @@ from rich.console import Console
 
 from sheetbuilder.cli import main, print_problems
 from sheetbuilder.errors import Problem
-from sheetbuilder.settings import load_settings
+from sheetbuilder.reading.settings import load_settings
 
 
 def _run(capsys, *argv) -> tuple[int, str]:

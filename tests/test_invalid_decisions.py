@@ -10,13 +10,13 @@ import openpyxl
 import pytest
 
 from conftest import BUILT_ON, DEMO, require_libreoffice
-from sheetbuilder.changes import export_changes
+from sheetbuilder.weekly.changes import export_changes
 from sheetbuilder.pipeline import build
-from sheetbuilder.plan_bids import EDITABLE_COLUMNS as BIDS
-from sheetbuilder.plan_budget import CAMPAIGN_EDITABLE_COLUMNS as CAMPAIGNS
-from sheetbuilder.plan_terms import EDITABLE_COLUMNS as TERMS
+from sheetbuilder.sheets.bids import EDITABLE_COLUMNS as BIDS
+from sheetbuilder.sheets.budget import CAMPAIGN_EDITABLE_COLUMNS as CAMPAIGNS
+from sheetbuilder.sheets.terms import EDITABLE_COLUMNS as TERMS
 from sheetbuilder.recalc import libreoffice_convert
-from sheetbuilder.saved import named_area
+from sheetbuilder.weekly.saved import named_area
 
 TYPED = {"bid text": "about 0.40", "bid error": "=1/0", "budget": "lots", "term": "maybe"}
 

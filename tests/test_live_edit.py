@@ -25,11 +25,11 @@ from terms_io import (HARVEST_HEADERS, LIST_HEADER_ROW, NEGATIVE_HEADERS, TERMS_
                       terms_oracle_for, terms_table)
 from profit_io import HEADER_ROW as PROFIT_HEADER_ROW, PROFIT_HEADERS, oracle_for, profit_table
 from workbook_io import mismatches, open_values, same
-from sheetbuilder.palette import EXPORT_FONT
+from sheetbuilder.workbook.palette import EXPORT_FONT
 from sheetbuilder.pipeline import build, load, write_atomically
-from sheetbuilder.plan_terms import defs as TERMS_DEFS
-from sheetbuilder.plan_bids import DEFS as BIDS_DEFS
-from sheetbuilder.spec import FORMULA
+from sheetbuilder.sheets.terms import defs as TERMS_DEFS
+from sheetbuilder.sheets.bids import DEFS as BIDS_DEFS
+from sheetbuilder.workbook.spec import FORMULA
 
 COST_PRODUCT = "LF-1012"  # strong with a spend-to-sales ratio above 1 in the demo
 NEW_THIN = 0.19

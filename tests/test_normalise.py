@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import pytest
 
-from sheetbuilder.normalise import contains_phrase, looks_like_product_id, normalise, words
+from sheetbuilder.reading.normalise import contains_phrase, looks_like_product_id, normalise, words
 
 
 # --- NFKC (Unicode Standard Annex #15) ---

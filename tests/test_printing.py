@@ -15,8 +15,8 @@ import pytest
 
 from conftest import BUILT_ON, DEMO, require_libreoffice
 from sheetbuilder.recalc import libreoffice_convert
-from sheetbuilder.render import _widths
-from sheetbuilder.spec import Sheet, Table
+from sheetbuilder.workbook.render import _widths
+from sheetbuilder.workbook.spec import Sheet, Table
 
 FOOTER = re.compile(r"^(?P<sheet>\S.*?)\s+Page \d+ of \d+$")
 

@@ -130,8 +130,8 @@ def test_every_documented_task_is_one_tasks_sh_knows(name):
 
 
 def test_the_extractor_finds_commands_in_blocks_and_spans_and_ignores_module_paths():
-    text = ("Run `sheetbuilder build EXPORTS -o out.xlsx [--force]`, see `sheetbuilder/guard.py`.\n"
-            "```sh\n~/env/bin/sheetbuilder inspect exports/   # read only\npython -m sheetbuilder.bench\n```\n")
+    text = ("Run `sheetbuilder build EXPORTS -o out.xlsx [--force]`, see `sheetbuilder/reading/guard.py`.\n"
+            "```sh\n~/env/bin/sheetbuilder inspect exports/   # read only\npython -m benchmarks.bench\n```\n")
     assert [["inspect", "exports/"], ["build", "EXPORTS", "-o", "out.xlsx", "[--force]"]] == sheetbuilder_commands(text)
     assert ["-o", "--force", "--format"] == options_named(["-o", "x", "[--force]", "[--format", "csv|xlsx]"])
 

@@ -5,7 +5,7 @@ LibreOffice Calc (headless, forced to recalculate on load by its profile's
 OOXMLRecalcMode = 0), and Gnumeric 1.12 (`ssconvert --recalc`, Debian package gnumeric).
 LibreOffice and Gnumeric must agree within 1e-9 relative; so must `formulas`,
 because the bid rounding adds a 1e-9 nudge that makes every engine round a half cent
-the same way (see sheetbuilder.numbers.ROUNDING_NUDGE).
+the same way (see sheetbuilder.reading.numbers.ROUNDING_NUDGE).
 """
 from __future__ import annotations
 

@@ -10,9 +10,9 @@ import xlsxwriter
 
 from sheetbuilder.pipeline import load, plan_workbook
 from sheetbuilder.errors import FormulaNotPortable
-from sheetbuilder.formula import check_portable
-from sheetbuilder.render import _cached, put_formula, workbook_options
-from sheetbuilder.spec import FORMULA
+from sheetbuilder.workbook.formula import check_portable
+from sheetbuilder.workbook.render import _cached, put_formula, workbook_options
+from sheetbuilder.workbook.spec import FORMULA
 
 DEMO = Path(__file__).resolve().parent.parent / "demo_inputs"
 FIRST_BODY_ROW = 5  # 0-based row of the first Profit body row, as the renderer writes it

@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import openpyxl
 
-from sheetbuilder.settings import SETTINGS, Settings
+from sheetbuilder.reading.settings import SETTINGS, Settings
 
 
 def test_every_declared_default_is_the_settings_default():

@@ -12,12 +12,12 @@ import minimal
 import pytest
 from hypothesis import HealthCheck, given, settings as hsettings, strategies as st
 
-from sheetbuilder import contract as c
+from sheetbuilder.reading import contract as c
 from sheetbuilder.errors import ERROR, InputProblems
-from sheetbuilder.numbers import ISO_4217, NotANumber, parse_count, parse_number
+from sheetbuilder.reading.numbers import ISO_4217, NotANumber, parse_count, parse_number
 from sheetbuilder.pipeline import load
-from sheetbuilder.readers import _parse_cell
-from sheetbuilder.settings import Settings
+from sheetbuilder.reading.readers import _parse_cell
+from sheetbuilder.reading.settings import Settings
 
 PROPERTY = hsettings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 

@@ -19,7 +19,7 @@ from scipy import stats
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
 from sheetbuilder.pipeline import build  # noqa: E402
-from sheetbuilder.settings import Settings  # noqa: E402
+from sheetbuilder.reading.settings import Settings  # noqa: E402
 from study.market import Scenario, draw_market  # noqa: E402
 from study.measures import MEASURES, acos_gap, in_band, reachable, measure, paired_bootstrap, simulate  # noqa: E402
 from study.policies import Window, WorkbookMethod, hold, manual_rule, period_end, planned_final_bids, \

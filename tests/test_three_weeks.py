@@ -16,7 +16,7 @@ import openpyxl
 import pytest
 
 from conftest import BUILT_ON, DEMO, require_libreoffice
-from sheetbuilder.carry import carried_summary
+from sheetbuilder.weekly.carry import carried_summary
 from sheetbuilder.pipeline import build
 from sheetbuilder.recalc import libreoffice_convert
 
@@ -158,7 +158,7 @@ def test_carried_edits_lists_each_carried_value_with_the_week_it_was_first_typed
 
 @pytest.mark.libreoffice
 def test_every_carried_cell_is_shaded_apart_and_has_a_note(weeks):
-    from sheetbuilder.palette import CARRIED_FILL
+    from sheetbuilder.workbook.palette import CARRIED_FILL
     wb = openpyxl.load_workbook(weeks["third"].output)
     cells = [_cell(wb["Bids"], 4, _bid_key(weeks["pending"]), "Decision"),
              _cell(wb["Bids"], 4, _bid_key(weeks["kept"]), "Decision"),

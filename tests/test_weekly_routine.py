@@ -16,8 +16,8 @@ import pytest
 
 from conftest import BUILT_ON, DEMO, require_libreoffice
 from workbook_io import open_values, read_table, same
-from sheetbuilder.changes import export_changes, read_actions
-from sheetbuilder.csv_safe import read_csv_rows
+from sheetbuilder.weekly.changes import export_changes, read_actions
+from sheetbuilder.workbook.csv_safe import read_csv_rows
 from sheetbuilder.pipeline import build
 from sheetbuilder.recalc import libreoffice_convert
 

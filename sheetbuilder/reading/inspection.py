@@ -1,0 +1,98 @@
+"""`inspect`: the plan twin of `build`. Reads every export as the build would and reports what
+it read, builds nothing.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from sheetbuilder.reading import contract as c
+from sheetbuilder.errors import ERROR, Problem
+from sheetbuilder.reading.periods import Period, settings_for_inputs
+from sheetbuilder.reading.readers import read_inputs
+from sheetbuilder.reading.settings import load_settings
+
+
+@dataclass
+class FileReport:
+    """What was read from one file: its table, header row, column mapping and row counts."""
+
+    file: str
+    table: str
+    read: bool
+    sheet: str = ""
+    header_row: int | None = None
+    encoding: str = ""
+    columns: dict[str, str] = field(default_factory=dict)  # canonical name -> header text
+    rows_read: int = 0
+    summed: int = 0
+    totals: int = 0
+    refused: int = 0
+    period: Period | None = None
+
+
+@dataclass
+class Inspection:
+    """The report of one inspect run."""
+
+    files: list[FileReport]
+    period: Period | None
+    problems: list[Problem]
+
+    @property
+    def has_errors(self) -> bool:
+        """Whether any problem would stop the build."""
+        return any(p.severity == ERROR for p in self.problems)
+
+
+def inspect_exports(folder: Path) -> Inspection:
+    """Read the exports in folder (and settings.toml) as `build` would, writing nothing.
+
+    Returns:
+        Per file: the table it was matched to, the sheet and header row used, each column's
+        mapping, the rows read, summed into others, skipped as totals and refused; the period
+        found; and every problem.
+    """
+    folder = Path(folder)
+    settings, problems = load_settings(folder)
+    inputs, found = read_inputs(folder, settings)
+    problems += found
+    problems += settings_for_inputs(settings, inputs)[1]
+    files = []
+    for table in c.TABLES:
+        path = inputs.sources.get(table.name)
+        if path is None:
+            continue
+        frame = inputs.get(table.name)
+        refused = len({p.row for p in problems if p.file == path.name and p.severity == ERROR and p.row})
+        if frame is None:
+            files.append(FileReport(path.name, table.name, False, refused=refused))
+            continue
+        attrs = frame.attrs
+        files.append(FileReport(path.name, table.name, True, attrs.get("sheet", ""), attrs.get("header_row"),
+                                attrs.get("encoding", ""), dict(attrs.get("columns", {})),
+                                attrs.get("rows_read", len(frame)), attrs.get("summed", 0), attrs.get("totals", 0),
+                                refused, attrs.get("period")))
+    return Inspection(files, inputs.period, problems)
+
+
+def report_lines(result: Inspection) -> list[str]:
+    """The inspection as plain lines of text (the command prints them without markup)."""
+    lines = []
+    for f in result.files:
+        lines.append(f"{f.file} -> {f.table}" + ("" if f.read else " (not read: see the problems below)"))
+        if not f.read:
+            continue
+        where = f"sheet '{f.sheet}', " if f.sheet else ""
+        lines.append(f"  {where}header row {f.header_row}, {f.encoding}")
+        for name, header in f.columns.items():
+            lines.append(f"  {name} <- {header}")
+        lines.append(f"  rows: {f.rows_read} read, {f.summed} summed into others, {f.totals} skipped as totals, "
+                     f"{f.refused} refused")
+        if f.period is not None:
+            lines.append(f"  period: {f.period}")
+    lines.append(f"period found: {result.period}" if result.period else "period found: none (the exports carry no "
+                                                                           "dates; period_days and period_end apply)")
+    errors = sum(1 for p in result.problems if p.severity == ERROR)
+    lines.append(f"{errors} error(s), {len(result.problems) - errors} note(s) and warning(s)")
+    return lines

@@ -1,0 +1,472 @@
+"""Readers: a folder of CSV or .xlsx exports in, validated frames and problem records out.
+
+Every cell is read as text first, so that a bad cell is reported with its file, row
+and column instead of being silently coerced. Nothing here raises on bad data.
+"""
+from __future__ import annotations
+
+import csv
+import hashlib
+import math
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import pandas as pd
+
+from sheetbuilder.reading import contract as c
+from sheetbuilder.reading.encodings import NotText, decode, is_legacy
+from sheetbuilder.errors import ERROR, WARNING, Problem
+from sheetbuilder.reading.guard import UnsafeWorkbook, check_csv, check_workbook, read_delimited, text_problem
+from sheetbuilder.reading.headers import currency_warnings, find_header, map_headers
+from sheetbuilder.reading.numbers import MAX_MAGNITUDE, NotANumber, parse_count, parse_number
+from sheetbuilder.reading.periods import (DATE_RULES, DATED_TABLES, Period, combine_repeats, overall_period,
+                                          parse_dates, table_period)
+from sheetbuilder.reading.settings import Settings
+from sheetbuilder.reading.totals import RunningSums, totals_label
+
+SPREADSHEETS = (".xlsx", ".xlsm", ".xls", ".xlsb", ".ods")
+SUFFIXES = (".csv", ".tsv", ".txt", ".xlsx", ".xlsm", ".xls", ".xlsb", ".ods")
+ZIPPED = (".xlsx", ".xlsm", ".xlsb")  # Office Open XML workbooks, checked before they are opened
+MAX_STRAY_BYTES = 20 * 1024 * 1024  # a file matching no table larger than this is named, not read
+MAX_SHEET_ROWS = 1_048_576  # Microsoft, "Excel specifications and limits"; the header takes one
+
+# search_terms rows repeating these are merged when the table is longer than a sheet.
+SEARCH_TERM_KEYS = ("campaign", "ad_group", "target", "match_type", "search_term")
+SEARCH_TERM_SUMS = ("impressions", "clicks", "spend", "ad_sales", "orders")
+
+
+@dataclass
+class Inputs:
+    """The validated input tables. Absent optional tables are None.
+
+    Each frame has the canonical columns and `_row`, the row number in the file.
+    """
+
+    tables: dict[str, pd.DataFrame | None]
+    sources: dict[str, Path] = field(default_factory=dict)
+    checksums: dict[str, str] = field(default_factory=dict)
+    encodings: dict[str, str] = field(default_factory=dict)
+    period: Period | None = None  # the days the dated exports cover, when they carry dates
+
+    def get(self, name: str) -> pd.DataFrame | None:
+        """The frame of table name, or None when the file was not given."""
+        return self.tables.get(name)
+
+
+def find_file(folder: Path, table: c.TableRule, settings: Settings) -> tuple[Path | None, Problem | None]:
+    """The file that holds table in folder (by settings [files] or by its name)."""
+    if table.name in settings.files:
+        path = folder / settings.files[table.name]
+        if not path.is_file():
+            return None, Problem(str(path.name), None, None,
+                                 f"settings.toml [files] names this file for '{table.name}' but it does not exist")
+        return path, None
+    want = c.file_key(table.name)
+    found = sorted(p for p in folder.iterdir()
+                   if p.is_file() and p.suffix.lower() in SUFFIXES and c.file_key(p.stem) == want)
+    if len(found) > 1:
+        names = ", ".join(p.name for p in found)
+        return None, Problem(folder.name, None, None,
+                             f"several files could hold '{table.name}': {names}; keep one or name it in [files]")
+    if not found:
+        if table.required:
+            return None, Problem(folder.name or str(folder), None, None,
+                                 f"missing file '{table.name}.csv' (or .xlsx): {table.label}")
+        return None, None
+    return found[0], None
+
+
+
+
+class CellNumber(str):
+    """The text of a spreadsheet cell that holds a number (not text that looks like one).
+
+    Such text is always written with a decimal point, whatever decimal_comma says.
+    """
+
+
+def _cell_text(value: object) -> str:
+    """A spreadsheet cell's value as the text a CSV export would hold."""
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return ""
+    if isinstance(value, bool):
+        return "TRUE" if value else "FALSE"
+    if isinstance(value, float):
+        return CellNumber(str(int(value)) if value.is_integer() and abs(value) < 1e15 else repr(value))
+    if isinstance(value, int):
+        return CellNumber(value)
+    if hasattr(value, "isoformat"):
+        return value.isoformat()
+    return str(value)
+
+
+def read_sheets(path: Path) -> tuple[list[tuple[str, list[list[str]]]], str]:
+    """Every sheet of a CSV or spreadsheet file as (sheet name, rows of text); blank rows kept.
+
+    A CSV is one sheet named "". Spreadsheets (.xlsx .xlsm .xls .xlsb .ods) are read by calamine.
+
+    Returns:
+        The sheets and the file's encoding ("spreadsheet" for a workbook).
+
+    Raises:
+        NotText: a CSV not decodable by encodings.decode, or a NUL character in any cell (with its row).
+    """
+    if path.suffix.lower() in SPREADSHEETS:
+        if path.suffix.lower() in ZIPPED + (".ods",):
+            check_workbook(path)
+        else:
+            check_csv(path)  # .xls is not a zip: its size is what can be checked before reading
+        frames = pd.read_excel(path, engine="calamine", header=None, dtype=object, sheet_name=None)
+        sheets = []
+        for name, frame in frames.items():
+            rows = [[_cell_text(v) for v in row] for row in frame.itertuples(index=False)]
+            for i, row in enumerate(rows):
+                if any("\x00" in x for x in row):
+                    raise NotText("holds a NUL character in a cell; remove it and save again", i + 1)
+            sheets.append((str(name), rows))
+        return sheets, "spreadsheet"
+    check_csv(path)
+    decoded = decode(path.read_bytes())
+    text = decoded.text
+    first = next((line for line in text.splitlines() if line.strip()), "")
+    delimiter = max((",", ";", "\t", "|"), key=first.count) if first else ","
+    return [("", read_delimited(text, delimiter))], decoded.encoding
+
+
+def pick_sheet(sheets: list[tuple[str, list[list[str]]]], table: c.TableRule, settings: Settings
+               ) -> tuple[str, list[list[str]], int | None]:
+    """The sheet that holds table (the one whose header matches most required columns; the first on a
+    tie) and its header row's 0-based index (None when every sheet is empty)."""
+    best = (sheets[0][0], sheets[0][1], None, -1) if sheets else ("", [], None, -1)
+    for name, rows in sheets:
+        start, score = find_header(rows, table, settings)
+        if start is not None and score > best[3]:
+            best = (name, rows, start, score)
+    return best[0], best[1], best[2]
+
+
+_SIGNED = {"margin"}  # a product sold below its costs has a negative margin before ads
+_NON_BLANK = {"product_id", "campaign", "target", "search_term", "term", "match_type", "state"}
+
+
+def _parse_cell(rule: c.ColumnRule, text: str, settings: Settings) -> tuple[object, str | None]:
+    """The value of one cell, or an error message saying what was expected."""
+    t = text.strip()
+    if rule.kind == c.TEXT:
+        if not t and rule.name in _NON_BLANK:
+            return "", "is blank; expected a value"
+        if (problem := text_problem(text)) is not None:
+            return "", problem
+        return (t if rule.name in ("product_id", "campaign", "ad_group") else str(text)), None
+    if rule.kind in c.CHOICES:
+        synonyms, expected = c.CHOICES[rule.kind]
+        value = synonyms.get(c.header_key(t)) if t != "-" else synonyms.get("-")
+        if value is None:
+            return "", f"'{text}' is not one of {expected}"
+        return value, None
+    if not t:
+        if rule.kind in (c.COUNT, c.MONEY):
+            return 0.0, None
+        if rule.name == "bid":
+            return math.nan, "is blank; expected the current bid"
+        return math.nan, None
+    comma = settings.decimal_comma and not isinstance(text, CellNumber)
+    try:
+        if rule.kind == c.COUNT:
+            value, had_percent = (float(t) if isinstance(text, CellNumber) else parse_count(t, comma)), False
+        else:
+            value, had_percent = parse_number(t, comma, money=rule.kind != c.PERCENT)
+    except NotANumber as exc:
+        if rule.kind == c.COUNT:
+            return math.nan, (f"'{text}' is not a whole number; expected a count such as 1234 or 1,234"
+                              + (f" ({exc.hint})" if exc.hint else ""))
+        expected = {c.MONEY: "an amount such as 1234.56 (a currency sign or code such as $ or USD may stand "
+                             "before or after it)",
+                    c.PERCENT: "a percentage such as 30% or 0.30", c.AMOUNT: "an amount such as 0.85"}[rule.kind]
+        return math.nan, f"'{text}' is not a number; expected {expected}" + (f" ({exc.hint})" if exc.hint else "")
+    if abs(value) >= MAX_MAGNITUDE:
+        return math.nan, (f"'{text}' is too large; expected less than {MAX_MAGNITUDE:,.0f} "
+                          "(a spreadsheet keeps 15 digits)")
+    if value < 0 and rule.name not in _SIGNED:
+        return value, f"'{text}' is negative; expected zero or more"
+    if rule.kind == c.COUNT and not float(value).is_integer():
+        return value, f"'{text}' is not a whole number"
+    if rule.kind == c.PERCENT and not had_percent and abs(value) > 1:
+        value = value / 100  # a bare 30 in a percent column means 30%
+    return value, None
+
+
+def with_dates(table: c.TableRule) -> c.TableRule:
+    """The table's rule with the optional date columns its exports may carry."""
+    extra = tuple(r for r in DATE_RULES if r.name in DATED_TABLES.get(table.name, ()))
+    return c.TableRule(table.name, table.columns + extra, table.required, table.label) if extra else table
+
+
+def _read_dates(frame: pd.DataFrame, texts: dict[str, list[str]], headers: dict[str, str]) -> list[Problem]:
+    """Add _start and _end (each row's first and last day) to frame from its date columns' texts."""
+    names = list(texts)
+    n = len(frame)
+    every, bad = parse_dates([t for name in names for t in texts[name]])  # one day/month order per file
+    parsed = {name: every[k * n:(k + 1) * n] for k, name in enumerate(names)}
+    problems = [Problem(frame.attrs["file"], int(frame["_row"].iloc[i % n]), headers[names[i // n]], message)
+                for i, message in bad]
+    first = parsed.get("date") or parsed.get("start_date") or parsed.get("end_date")
+    last = parsed.get("date") or parsed.get("end_date") or first
+    frame["_start"], frame["_end"] = pd.Series(first, dtype=object), pd.Series(last, dtype=object)
+    for row, start, end in zip(frame["_row"], frame["_start"], frame["_end"]):
+        if start is not None and end is not None and end < start:
+            problems.append(Problem(frame.attrs["file"], int(row), headers.get("end_date"),
+                                    f"the end date {end} is before the start date {start}"))
+    return problems
+
+
+def _layout_notes(file: str, sheets: list, sheet: str, rows: list[list[str]], start: int) -> list[Problem]:
+    """Notes saying which sheet was read and which row held the header, when not the obvious ones."""
+    notes = []
+    if len(sheets) > 1:
+        notes.append(Problem(file, None, None, f"read the sheet '{sheet}', the one holding this table's columns "
+                                               f"(the file has {len(sheets)} sheets)", WARNING))
+    first = next(i for i, r in enumerate(rows) if any(x.strip() for x in r))
+    if start != first:
+        notes.append(Problem(file, start + 1, None, f"the header is row {start + 1}; rows {first + 1} to {start} "
+                                                    "above it were skipped as a title or notes block", WARNING))
+    return notes
+
+
+def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.DataFrame | None, list[Problem]]:
+    """Read and validate one table's file."""
+    file = path.name
+    try:
+        sheets, encoding = read_sheets(path)
+    except NotText as exc:
+        return None, [Problem(file, exc.row, None, str(exc))]
+    except UnsafeWorkbook as exc:
+        return None, [Problem(file, None, None, str(exc))]
+    except csv.Error as exc:
+        return None, [Problem(file, None, None, f"not a readable CSV file: {exc}")]
+    except MemoryError:
+        return None, [Problem(file, None, None, "not enough memory to read it; export a shorter period")]
+    except Exception as exc:  # calamine raises its own types for broken workbooks
+        return None, [Problem(file, None, None, f"not a readable spreadsheet: {exc}")]
+    sheet, rows, start = pick_sheet(sheets, with_dates(table), settings)
+    if start is None:
+        return None, [Problem(file, None, None, "the file is empty; expected a header row and data rows")]
+    header = rows[start]
+    found, problems = map_headers(header, with_dates(table), settings, file, start + 1)
+    problems = _layout_notes(file, sheets, sheet, rows, start) + problems
+    dates = {n: found.pop(n) for n in [r.name for r in DATE_RULES] if n in found}
+    if any(p.severity == ERROR for p in problems):
+        return None, problems
+    problems += currency_warnings(header, found, table, settings, file, start + 1)
+    data_rows = sum(1 for r in rows[start + 1:] if any(x.strip() for x in r))
+    too_long = data_rows > MAX_SHEET_ROWS - 1
+    if too_long and table.name != "search_terms":
+        return None, [Problem(file, None, None, f"has {data_rows:,} data rows; a sheet holds at most "
+                                                f"{MAX_SHEET_ROWS - 1:,} below its header, so the workbook cannot "
+                                                "hold this table. Export a shorter period")]
+    records: list[dict] = []
+    date_texts: dict[str, list[str]] = {n: [] for n in dates}
+    running, skipped = RunningSums(table, found), []
+    for i in range(start + 1, len(rows)):
+        row = rows[i]
+        if not any(x.strip() for x in row):
+            continue
+        record: dict[str, object] = {"_row": i + 1}
+        cell_problems = []
+        for rule in table.columns:
+            col = found.get(rule.name)
+            text = row[col] if col is not None and col < len(row) else ""
+            value, message = _parse_cell(rule, text, settings)
+            if message:
+                cell_problems.append(Problem(file, i + 1, header[col] if col is not None else rule.name, message))
+            record[rule.name] = value
+        label = totals_label(row, table, found)
+        if label is not None:
+            differs = running.mismatch(record, row, found)
+            if differs is None:
+                skipped.append(i + 1)
+                continue
+            if label == "total":
+                problems.append(Problem(file, i + 1, None, f"the row says total but is not the sum of the rows "
+                                                           f"above it ({differs}); read as data it would be "
+                                                           "counted twice. Remove it"))
+                continue
+        problems.extend(cell_problems)
+        running.add(record)
+        for name, col in dates.items():
+            date_texts[name].append(row[col] if col < len(row) else "")
+        records.append(record)
+    if skipped:
+        problems.append(Problem(file, skipped[0], None, f"skipped {len(skipped)} totals row(s) (row "
+                                + ", ".join(map(str, skipped)) + "): each is the sum of the rows above it",
+                                WARNING))
+    names = ["_row"] + [r.name for r in table.columns]
+    frame = pd.DataFrame.from_records(records, columns=names)
+    for rule in table.columns:
+        if rule.kind in c.NUMERIC_KINDS:
+            frame[rule.name] = frame[rule.name].astype(float)
+        else:
+            frame[rule.name] = frame[rule.name].astype(object)
+    frame["_row"] = frame["_row"].astype(int)
+    header_of = {rule.name: (header[found[rule.name]] if rule.name in found else rule.name) for rule in table.columns}
+    frame.attrs["headers"] = header_of
+    frame.attrs["file"] = file
+    frame.attrs.update(encoding=encoding, header_row=start + 1, sheet=sheet, totals=len(skipped), rows_read=len(records),
+                       columns={n: header[i] for n, i in {**found, **dates}.items()})
+    if dates:
+        problems.extend(_read_dates(frame, date_texts, {n: header[i] for n, i in dates.items()}))
+    frame.attrs["period"] = None
+    if not any(p.severity == ERROR for p in problems):  # a bad cell would make the sums meaningless
+        frame, repeats = combine_repeats(table.name, frame, bool(dates))
+        problems.extend(repeats)
+        if any(p.severity == ERROR for p in repeats):
+            return None, problems
+        frame.attrs["period"] = table_period(frame)
+    frame = frame.drop(columns=[n for n in ("_start", "_end") if n in frame])
+    if is_legacy(encoding):
+        problems.append(Problem(file, None, None, f"read as {encoding}: the file is not valid UTF-8 and holds no "
+                                                  "UTF-8 text, so it was saved by an older Windows program; check "
+                                                  "its accented text", WARNING))
+    if too_long:
+        # Check the rows as written before merging, which could hide a row's orders > clicks.
+        problems.extend(_row_checks(table.name, frame))
+        if any(p.severity == ERROR for p in problems):
+            return None, problems
+        attrs = dict(frame.attrs)
+        frame, problem = _merge_search_terms(frame, file, data_rows)
+        frame.attrs.update(attrs)
+        problems.append(problem)
+        if problem.severity == ERROR:
+            return None, problems
+    return frame, problems
+
+
+def _merge_search_terms(frame: pd.DataFrame, file: str, data_rows: int) -> tuple[pd.DataFrame, Problem]:
+    """search_terms longer than a sheet: rows repeating campaign, ad group, target, match type and
+    search term become one, their metrics summed (nothing is dropped).
+
+    Returns:
+        The merged frame (each row keeps the first source row of its group) and a WARNING
+        saying how many rows were merged, or an ERROR when even merged it does not fit.
+    """
+    keys = list(SEARCH_TERM_KEYS)
+    grouped = frame.groupby(keys, sort=False, dropna=False)
+    merged = grouped[list(SEARCH_TERM_SUMS)].sum()
+    merged["_row"] = grouped["_row"].min()
+    merged = merged.reset_index().sort_values("_row", kind="stable").reset_index(drop=True)
+    for name in ("spend", "ad_sales"):
+        merged[name] = merged[name].round(9)  # the float noise of summing cents, not the cents
+    merged = merged[list(frame.columns)]
+    for name in frame.columns:
+        merged[name] = merged[name].astype(frame[name].dtype)
+    limit = MAX_SHEET_ROWS - 1
+    if len(merged) > limit:
+        return merged, Problem(file, None, None,
+                               f"has {data_rows:,} data rows, {len(merged):,} even after merging rows that repeat "
+                               f"the same campaign, ad group, target, match type and search term; a sheet holds at "
+                               f"most {limit:,} below its header. Export a shorter period")
+    return merged, Problem(file, None, None,
+                           f"has {data_rows:,} data rows, more than a sheet holds ({limit:,}); merged "
+                           f"{data_rows - len(merged):,} rows that repeat the same campaign, ad group, target, match "
+                           f"type and search term into {len(merged):,} rows, summing impressions, clicks, spend, "
+                           "ad sales and orders", WARNING)
+
+
+def _row_checks(name: str, frame: pd.DataFrame) -> list[Problem]:
+    """Checks across the cells of a row, and across rows, within one table."""
+    problems: list[Problem] = []
+    file, headers = frame.attrs["file"], frame.attrs["headers"]
+    if "orders" in frame and "clicks" in frame:
+        over = frame.loc[frame["orders"] > frame["clicks"]]
+        for row, orders, clicks in zip(over["_row"], over["orders"], over["clicks"]):
+            problems.append(Problem(file, int(row), headers["orders"],
+                                    f"orders ({orders:g}) are more than clicks ({clicks:g}); "
+                                    "expected at most one order per click"))
+    if name == "catalog":
+        dup = frame[frame["product_id"].duplicated(keep=False) & (frame["product_id"] != "")]
+        for pid, group in dup.groupby("product_id", sort=True):
+            rows = ", ".join(str(x) for x in group["_row"])
+            for r in group["_row"].iloc[1:]:
+                problems.append(Problem(file, int(r), headers["product_id"],
+                                        f"product '{pid}' appears more than once (rows {rows}); "
+                                        "expected one row per product"))
+    return problems
+
+
+def _cross_checks(tables: dict[str, pd.DataFrame | None]) -> list[Problem]:
+    """Checks between tables: products the catalog lacks."""
+    problems: list[Problem] = []
+    catalog = tables.get("catalog")
+    if catalog is None:
+        return problems
+    known = set(catalog["product_id"])
+    for name in ("store_sales", "ad_products"):
+        frame = tables.get(name)
+        if frame is None:
+            continue
+        missing = frame.loc[~frame["product_id"].isin(known) & (frame["product_id"] != "")]
+        for pid, group in missing.groupby("product_id", sort=True):
+            problems.append(Problem(frame.attrs["file"], int(group["_row"].iloc[0]), frame.attrs["headers"]["product_id"],
+                                    f"product '{pid}' is not in the catalog; it is built with its margin blank "
+                                    "(add it to the catalog to see its profit)", WARNING))
+    return problems
+
+
+def _unmatched_files(folder: Path, used: set[Path], settings: Settings) -> list[Problem]:
+    """A note for each export-like file in folder that no table read, naming the table it most resembles."""
+    notes = []
+    for path in sorted(p for p in folder.iterdir() if p.is_file() and p.suffix.lower() in SUFFIXES and p not in used):
+        try:
+            sheets = read_sheets(path)[0] if path.stat().st_size <= MAX_STRAY_BYTES else []
+        except Exception:  # an unreadable stray file is only worth its name
+            sheets = []
+        best, score = None, 0
+        for table in c.TABLES:
+            for _, rows in sheets:
+                s = find_header(rows, table, settings)[1]
+                if s > score:
+                    best, score = table, s
+        guess = (f"; it looks most like '{best.name}' ({best.label}: {score} of "
+                 f"{sum(r.required for r in best.columns)} required columns). Name it {best.name}{path.suffix} "
+                 f"or add to settings.toml: [files] {best.name} = \"{path.name}\"") if best else ""
+        notes.append(Problem(path.name, None, None, "was not read: its name matches no table" + guess, WARNING))
+    return notes
+
+
+def read_inputs(folder: Path, settings: Settings) -> tuple[Inputs, list[Problem]]:
+    """Read every table of the contract from folder.
+
+    Returns:
+        The inputs (tables that could not be read are None) and all problems found.
+    """
+    folder = Path(folder)
+    if not folder.is_dir():
+        return Inputs({}), [Problem(str(folder), None, None, "the input folder does not exist")]
+    tables: dict[str, pd.DataFrame | None] = {}
+    sources: dict[str, Path] = {}
+    checksums: dict[str, str] = {}
+    encodings: dict[str, str] = {}
+    problems: list[Problem] = []
+    for table in c.TABLES:
+        path, problem = find_file(folder, table, settings)
+        if problem:
+            problems.append(problem)
+        if path is None:
+            tables[table.name] = None
+            continue
+        sources[table.name] = path
+        with open(path, "rb") as fh:
+            checksums[table.name] = hashlib.file_digest(fh, "sha256").hexdigest()
+        frame, found = read_table(path, table, settings)
+        problems.extend(found)
+        if frame is not None:
+            problems.extend(_row_checks(table.name, frame))
+            encodings[table.name] = frame.attrs["encoding"]
+        tables[table.name] = frame
+    problems.extend(_cross_checks(tables))
+    problems.extend(_unmatched_files(folder, set(sources.values()), settings))
+    periods = {sources[n].name: f.attrs["period"] for n, f in tables.items()
+               if f is not None and f.attrs.get("period") is not None}
+    period, found = overall_period(periods)
+    problems.extend(found)
+    return Inputs(tables, sources, checksums, encodings, period), problems

@@ -1,0 +1,354 @@
+"""Settings: every value has an embedded default; settings.toml in the input folder overrides.
+
+Each setting is declared once in SETTINGS (key, default, kind, bounds, one-line help).
+The Settings sheet, the defined names the formulas use and the TOML reader all come
+from that one list, so adding a setting is one entry.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import difflib
+import re
+import tomllib
+from dataclasses import dataclass, field, fields
+from pathlib import Path
+from types import MappingProxyType
+from typing import Any
+
+from sheetbuilder.reading.contract import TABLE_BY_NAME
+from sheetbuilder.reading.periods import DATED_TABLES
+from sheetbuilder.errors import Problem
+from sheetbuilder.reading.guard import text_problem
+
+SETTINGS_FILE = "settings.toml"
+
+
+@dataclass(frozen=True)
+class SettingSpec:
+    """One setting: its key (also the workbook's defined name), default, kind and help.
+
+    kind is one of 'percent', 'number', 'money', 'int', 'date', 'text', 'bool', 'choice' (one of choices).
+    live settings are cells the formulas read; the others are used while reading
+    the exports and are shown on the Settings sheet for the record.
+    """
+
+    key: str
+    label: str
+    default: Any
+    kind: str
+    help: str
+    low: float | None = None
+    high: float | None = None
+    live: bool = True
+    choices: tuple[str, ...] = ()
+
+
+SETTINGS: tuple[SettingSpec, ...] = (
+    SettingSpec("thin_margin", "Thin-margin threshold", 0.08, "percent",
+                "A product whose net margin after ads is below this is 'thin' (common practice: 8%).",
+                -1.0, 1.0),
+    SettingSpec("strong_margin", "Strong-margin threshold", 0.20, "percent",
+                "A product whose net margin after ads is at or above this is 'strong' (common practice: 20%).",
+                -1.0, 1.0),
+    SettingSpec("default_target_acos", "Default target ACoS", 0.30, "percent",
+                "Target ACoS for products whose catalog row gives none.", 0.0, 5.0),
+    SettingSpec("cap_target_at_break_even", "Cap target ACoS at break-even", "yes", "choice",
+                "yes: bids aim at the lower of a product's target ACoS and its break-even ACoS (above break-even, "
+                "each ad-driven sale loses money before any other cost); no: at the target as given.",
+                choices=("yes", "no")),
+    SettingSpec("period_days", "Period length (days)", 30, "int",
+                "How many days the exports cover.", 1, 3660),
+    SettingSpec("period_end", "Period end date", None, "date",
+                "Last day the exports cover; blank if unknown.", None, None),
+    SettingSpec("attribution_days", "Attribution window (days)", 7, "int",
+                "Days after a click in which the ad platform still credits a sale to it.", 0, 90),
+    SettingSpec("prior_clicks", "Smoothing weight (clicks)", 20, "int",
+                "A target's conversion rate is shrunk toward its product's, as if it had this many more clicks "
+                "at the product's rate (Beta prior).", 0, 10000),
+    SettingSpec("min_clicks", "Minimum clicks", 10, "int",
+                "A target with fewer clicks than this and no orders is held: not enough data.", 0, 100000),
+    SettingSpec("zero_order_confidence", "Zero-order confidence", 0.90, "percent",
+                "How sure zero orders must be unlikely at the product's conversion rate before a bid is cut "
+                "for having no orders.", 0.5, 0.999),
+    SettingSpec("max_bid_cut", "Maximum bid cut", 0.30, "percent",
+                "The most a bid is lowered in one run.", 0.0, 0.95),
+    SettingSpec("max_bid_raise", "Maximum bid raise", 0.20, "percent",
+                "The most a bid is raised in one run.", 0.0, 5.0),
+    SettingSpec("bid_floor", "Bid floor", 0.10, "money",
+                "No proposed bid goes below this.", 0.0, 1000.0),
+    SettingSpec("bid_ceiling", "Bid ceiling", 5.00, "money",
+                "No proposed bid goes above this.", 0.01, 10000.0),
+    SettingSpec("min_promote_orders", "Orders to promote a term", 1, "int",
+                "A search term with at least this many orders, not yet an exact keyword, is proposed for promotion.",
+                1, 100000),
+    SettingSpec("block_spend_multiple", "Block after spend of price x", 1.0, "number",
+                "A term with no orders that has spent this many times its product's price is proposed as a negative "
+                "(common practice: 1.0).", 0.0, 100.0),
+    SettingSpec("harvest_match_type", "Match type for promoted terms", "exact", "choice",
+                "The match type a promoted search term is added with.", choices=("exact", "phrase")),
+    SettingSpec("starting_bid", "Starting bid of a promoted term", "lower", "choice",
+                "lower: the lower of the term's CPC and its value bid; cpc: its CPC; value: its value bid.",
+                choices=("lower", "cpc", "value")),
+    SettingSpec("source_negative", "Negate promoted terms at the source", "yes", "choice",
+                "yes: also propose a negative exact in the source ad group (broad, phrase and auto sources), so "
+                "the new keyword does not compete with the one the term came from.", choices=("yes", "no")),
+    SettingSpec("negative_level", "Level of new negatives", "ad group", "choice",
+                "Add new negatives to the term's ad group, or to its whole campaign.",
+                choices=("ad group", "campaign")),
+    SettingSpec("phrase_below_words", "Negative phrase below (words)", 0, "int",
+                "Terms with fewer words than this are blocked as negative phrase, others as negative exact "
+                "(0: always negative exact).", 0, 20),
+    SettingSpec("mix_margin", "Match-type margin (points)", 0.05, "percent",
+                "A match type whose ACoS is this far above (or below) the product's other match types reads trim "
+                "(or expand).", 0.0, 1.0),
+    SettingSpec("budget_shift_share", "Budget shift share", 0.25, "percent",
+                "The share of the spend of products to cut that moves to products to grow.", 0.0, 1.0),
+    SettingSpec("max_budget_change", "Maximum budget change", 0.30, "percent",
+                "The most a campaign's daily budget changes in one run.", 0.0, 5.0),
+    SettingSpec("product_id_pattern", "Product identifier pattern", r"[a-z]{1,4}-?\d{3,}|item=.+", "text",
+                "A search term matching this regular expression is proposed as a product target, not a keyword "
+                "(used when building).", live=False),
+    SettingSpec("fold_plurals", "Fold plurals", False, "bool",
+                "Compare terms with simple English plurals folded (pots = pot) (used when building).", live=False),
+    SettingSpec("list_cap", "Rows in each list", 2000, "int",
+                "The most rows the Harvest and Negatives lists hold; the sheet says when more qualify "
+                "(used when building).", 1, 1000000, live=False),
+    SettingSpec("actions_cap", "Rows in the Actions list", 20000, "int",
+                "The most rows the Actions list holds; the sheet says when more changes qualify (used when building).",
+                1, 1000000, live=False),
+    SettingSpec("currency_symbol", "Currency symbol", "$", "text",
+                "Shown in money formats (used when building).", live=False),
+    SettingSpec("decimal_comma", "Decimal comma", False, "bool",
+                "Read 1.234,56 as one thousand two hundred and thirty-four point five six (used when reading).",
+                live=False),
+)
+
+SPEC_BY_KEY = MappingProxyType({s.key: s for s in SETTINGS})
+
+
+@dataclass(frozen=True)
+class Settings:
+    """The settings of one build. Frozen; made by :func:`load_settings` or directly in tests."""
+
+    thin_margin: float = 0.08
+    strong_margin: float = 0.20
+    default_target_acos: float = 0.30
+    cap_target_at_break_even: str = "yes"
+    period_days: int = 30
+    period_end: dt.date | None = None
+    attribution_days: int = 7
+    prior_clicks: int = 20
+    min_clicks: int = 10
+    zero_order_confidence: float = 0.90
+    max_bid_cut: float = 0.30
+    max_bid_raise: float = 0.20
+    bid_floor: float = 0.10
+    bid_ceiling: float = 5.00
+    min_promote_orders: int = 1
+    block_spend_multiple: float = 1.0
+    harvest_match_type: str = "exact"
+    starting_bid: str = "lower"
+    source_negative: str = "yes"
+    negative_level: str = "ad group"
+    phrase_below_words: int = 0
+    mix_margin: float = 0.05
+    budget_shift_share: float = 0.25
+    max_budget_change: float = 0.30
+    product_id_pattern: str = r"[a-z]{1,4}-?\d{3,}|item=.+"
+    fold_plurals: bool = False
+    list_cap: int = 2000
+    actions_cap: int = 20000
+    currency_symbol: str = "$"
+    decimal_comma: bool = False
+    columns: MappingProxyType = field(default_factory=lambda: MappingProxyType({}))
+    files: MappingProxyType = field(default_factory=lambda: MappingProxyType({}))
+    destinations: MappingProxyType = field(default_factory=lambda: MappingProxyType({}))
+    ad_type_benchmarks: MappingProxyType = field(default_factory=lambda: MappingProxyType(
+        {"product ads": 0.85, "brand ads": 0.10, "display ads": 0.05}))
+    given: frozenset = frozenset()  # the settings settings.toml sets (a period read from dates yields to them)
+
+    def value(self, key: str) -> Any:
+        """The value of the setting named key."""
+        return getattr(self, key)
+
+    def replace(self, **changes: Any) -> "Settings":
+        """A copy with some values changed."""
+        values = {f.name: getattr(self, f.name) for f in fields(self)}
+        values.update(changes)
+        return Settings(**values)
+
+
+YES_NO = {"true": True, "yes": True, "false": False, "no": False}
+
+
+def _coerce(spec: SettingSpec, raw: Any, file: str) -> tuple[Any, Problem | None]:
+    """The TOML value raw as the setting's kind, or a problem saying what was expected."""
+    def bad(expected: str) -> tuple[Any, Problem]:
+        return spec.default, Problem(file, None, spec.key, f"expected {expected}, got {raw!r}")
+
+    if spec.kind in ("percent", "number", "money", "int"):
+        if isinstance(raw, str) and spec.kind == "percent" and raw.strip().endswith("%"):
+            try:
+                raw = float(raw.strip()[:-1]) / 100
+            except ValueError:
+                return bad("a percentage such as 8% or 0.08")
+        if isinstance(raw, bool) or not isinstance(raw, (int, float)):
+            return bad("a number")
+        if spec.kind == "int" and int(raw) != raw:
+            return bad("a whole number")
+        value = int(raw) if spec.kind == "int" else float(raw)
+        if (spec.low is not None and value < spec.low) or (spec.high is not None and value > spec.high):
+            if spec.kind == "percent":
+                return bad(f"a percentage from {spec.low:.0%} to {spec.high:.0%}, written as 8% or 0.08")
+            return bad(f"a value from {spec.low:g} to {spec.high:g}")
+        return value, None
+    if spec.kind == "date":
+        if isinstance(raw, dt.datetime):
+            return raw.date(), None
+        if isinstance(raw, dt.date):
+            return raw, None
+        if isinstance(raw, str):
+            try:
+                return dt.date.fromisoformat(raw.strip()), None
+            except ValueError:
+                pass
+        return bad("a date written as 2026-11-29")
+    if spec.kind == "bool":
+        if isinstance(raw, bool):
+            return raw, None
+        if isinstance(raw, str) and raw.strip().lower() in YES_NO:
+            return YES_NO[raw.strip().lower()], None
+        return bad("true or false (yes or no)")
+    if isinstance(raw, bool) and spec.choices == ("yes", "no"):
+        return ("yes" if raw else "no"), None  # one style of yes/no everywhere: true/false, yes/no accepted
+    if not isinstance(raw, str):
+        return bad("text")
+    if (problem := text_problem(raw, setting=True)) is not None:
+        return spec.default, Problem(file, None, spec.key, f"{problem}, got {raw!r}")
+    if spec.kind == "choice":
+        value = " ".join(raw.strip().lower().split())
+        if value not in spec.choices:
+            return bad(" or ".join(spec.choices))
+        return value, None
+    return raw, None
+
+
+def _known_tables(columns: dict, files: dict, problems: list[Problem]) -> tuple[dict, dict]:
+    """[columns] and [files] without the tables and columns the contract does not know (each reported)."""
+    tables = ", ".join(TABLE_BY_NAME)
+    kept_columns: dict = {}
+    for table, cols in columns.items():
+        rule = TABLE_BY_NAME.get(table)
+        if rule is None:
+            problems.append(Problem(SETTINGS_FILE, None, f"columns.{table}",
+                                    f"unknown table; expected one of {tables}"))
+            continue
+        names = [col.name for col in rule.columns] + list(DATED_TABLES.get(table, ()))
+        kept_columns[table] = {}
+        for name, header in cols.items():
+            if name not in names:
+                problems.append(Problem(SETTINGS_FILE, None, f"columns.{table}.{name}",
+                                        f"unknown column of {table}; expected one of {', '.join(names)}"))
+            elif not isinstance(header, str):
+                problems.append(Problem(SETTINGS_FILE, None, f"columns.{table}.{name}",
+                                        f"expected the header as text, such as {name} = \"My header\", "
+                                        f"got {header!r}"))
+            elif (problem := text_problem(header, setting=True)) is not None:
+                problems.append(Problem(SETTINGS_FILE, None, f"columns.{table}.{name}", problem))
+            else:
+                kept_columns[table][name] = header
+    kept_files: dict = {}
+    for table, name in files.items():
+        if table not in TABLE_BY_NAME:
+            problems.append(Problem(SETTINGS_FILE, None, f"files.{table}", f"unknown table; expected one of {tables}"))
+        elif (problem := text_problem(name, setting=True)) is not None:
+            problems.append(Problem(SETTINGS_FILE, None, f"files.{table}", problem))
+        else:
+            kept_files[table] = name
+    return kept_columns, kept_files
+
+
+def load_settings(folder: Path) -> tuple[Settings, list[Problem]]:
+    """Read settings.toml from folder if present; defaults otherwise.
+
+    Returns:
+        The settings and the problems found (unknown keys, wrong types, bad tables).
+    """
+    path = Path(folder) / SETTINGS_FILE
+    if not path.exists():
+        return Settings(), []
+    try:
+        data = tomllib.loads(path.read_bytes().decode("utf-8-sig"))
+    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        return Settings(), [Problem(SETTINGS_FILE, None, None, f"not valid TOML: {exc}")]
+    problems: list[Problem] = []
+    values: dict[str, Any] = {}
+    for key, raw in data.items():
+        if key in ("columns", "files", "destinations", "ad_type_benchmarks"):
+            continue
+        spec = SPEC_BY_KEY.get(key)
+        if spec is None:
+            known = ", ".join(s.key for s in SETTINGS)
+            close = difflib.get_close_matches(str(key).lower(), [s.key for s in SETTINGS], n=1, cutoff=0.5)
+            hint = f"did you mean {close[0]}? " if close else ""
+            problems.append(Problem(SETTINGS_FILE, None, key, f"unknown setting; {hint}known settings: {known}, [columns], [files], [destinations], [ad_type_benchmarks]"))
+            continue
+        value, problem = _coerce(spec, raw, SETTINGS_FILE)
+        if problem:
+            problems.append(problem)
+        else:
+            values[key] = value
+    columns = data.get("columns", {})
+    files = data.get("files", {})
+    if not isinstance(columns, dict) or not all(isinstance(v, dict) for v in columns.values()):
+        problems.append(Problem(SETTINGS_FILE, None, "columns",
+                                "expected tables such as [columns.ad_products] with spend = \"Cost (USD)\""))
+        columns = {}
+    if not isinstance(files, dict) or not all(isinstance(v, str) for v in files.values()):
+        problems.append(Problem(SETTINGS_FILE, None, "files", "expected [files] with catalog = \"my products.csv\""))
+        files = {}
+    columns, files = _known_tables(columns, files, problems)
+    mapping = {table: MappingProxyType({str(k): str(v) for k, v in cols.items()}) for table, cols in columns.items()}
+    destinations = _destinations(data.get("destinations", {}), problems)
+    benchmarks = data.get("ad_type_benchmarks")
+    if benchmarks is not None:
+        if (not isinstance(benchmarks, dict) or not all(isinstance(v, (int, float)) and not isinstance(v, bool)
+                                                        and 0 <= v <= 1 for v in benchmarks.values())):
+            problems.append(Problem(SETTINGS_FILE, None, "ad_type_benchmarks",
+                                    'expected [ad_type_benchmarks] with "product ads" = 0.85 and the like (0 to 1)'))
+        elif any(text_problem(str(k), setting=True) for k in benchmarks):
+            key = next(str(k) for k in benchmarks if text_problem(str(k), setting=True))
+            problems.append(Problem(SETTINGS_FILE, None, f"ad_type_benchmarks.{key!r}",
+                                    str(text_problem(key, setting=True))))
+        else:
+            values["ad_type_benchmarks"] = MappingProxyType({str(k): float(v) for k, v in benchmarks.items()})
+    if "product_id_pattern" in values:
+        try:
+            re.compile(values["product_id_pattern"])
+        except re.error as exc:
+            problems.append(Problem(SETTINGS_FILE, None, "product_id_pattern", f"not a valid regular expression: {exc}"))
+    return Settings(**values, columns=MappingProxyType(mapping), files=MappingProxyType(dict(files)),
+                    destinations=MappingProxyType(destinations), given=frozenset(values)), problems
+
+
+def _destinations(raw: Any, problems: list[Problem]) -> dict[str, tuple[str, str]]:
+    """[destinations]: product_id = { campaign = "...", ad_group = "..." }, where promoted terms go."""
+    out: dict[str, tuple[str, str]] = {}
+    if not isinstance(raw, dict):
+        problems.append(Problem(SETTINGS_FILE, None, "destinations",
+                                'expected [destinations] with LF-1001 = { campaign = "...", ad_group = "..." }'))
+        return out
+    for product, where in raw.items():
+        if (not isinstance(where, dict) or not isinstance(where.get("campaign"), str)
+                or not isinstance(where.get("ad_group"), str)):
+            problems.append(Problem(SETTINGS_FILE, None, f"destinations.{product}",
+                                    'expected { campaign = "...", ad_group = "..." }'))
+            continue
+        found = [(key, text_problem(text, setting=True)) for key, text in
+                 (("", str(product)), (".campaign", where["campaign"]), (".ad_group", where["ad_group"]))]
+        if any(problem for _, problem in found):
+            key, problem = next((k, p) for k, p in found if p)
+            problems.append(Problem(SETTINGS_FILE, None, f"destinations.{product}{key}", problem))
+            continue
+        out[str(product)] = (where["campaign"].strip(), where["ad_group"].strip())
+    return out

@@ -1,0 +1,234 @@
+"""The Actions sheet: one live list of every change whose Final value differs from today.
+
+Five kinds of change, in this order: bid changes (Bids, Final bid different from the bid),
+keywords and product targets to add (Harvest), negatives to add in the source ad groups of
+promoted terms (Harvest), negatives to add (Negatives), daily budget changes (Budget).
+The k-th row finds its kind from the running totals, then its row on the source sheet:
+directly for the Harvest and Negatives lists (their k-th rows), or by MATCH on the source
+sheet's strictly increasing helper key (the same macro-free method as those lists). The
+`changes` command exports this sheet as CSV.
+
+Every row carries its product and the money at stake (the target's or term's spend, or the
+size of the budget change). Within a kind the rows follow their source sheets, which are
+sorted by that money when building (Bids and Terms by spend, budgets by the proposed
+change): a Decision typed later changes which rows are listed, not their order.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from sheetbuilder.sheets.anchors import without_absent
+from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, count_formula, plan_table
+from sheetbuilder.workbook.formula import cell_ref
+from sheetbuilder.sheets.lists import SPARE_ROWS
+from sheetbuilder.reading.settings import Settings
+from sheetbuilder.workbook.spec import DATA, Cell, Sheet, Table, stacked_pages
+
+SHEET = "Actions"
+HEADER_ROW = 3  # 0-based: title, counts, a note, then the header (the layout the changes command reads)
+HEADERS = ("Kind", "Campaign", "Ad group", "Target or term", "Match type", "Current", "New", "Reason", "Product ID",
+           "Money at stake")
+SOURCES = ("bids", "harvest", "negative_list", "budget_campaigns")  # the tables the list reads (each may be absent)
+NO_DESTINATION = "choose destination: a live campaign and ad group for this product"
+@dataclass
+class ActionsContext:
+    """What the Actions columns' references read: the changes in order."""
+
+    changes: list[dict]
+    totals: dict[str, Any] = field(default_factory=dict)
+
+
+def _blank_safe(ref: str) -> str:
+    return f'IF({ref}="","",{ref})'
+
+
+def _field(parts: dict[int, str]) -> str:
+    """A formula choosing, by the row's segment (1-5), one of parts; blank for other segments."""
+    out = '""'
+    for seg in sorted(parts, reverse=True):
+        out = f"IF({{c:seg}}={seg},{parts[seg]},{out})"
+    return f'=IF({{c:seg}}=0,"",{out})'
+
+
+def _idx(rng: str) -> str:
+    return _blank_safe(f"INDEX({{rng:{rng}}},{{c:pos}})")
+
+
+def _ref(key: str):
+    def compute(df: pd.DataFrame, ctx: ActionsContext) -> pd.Series:
+        values = [ctx.changes[int(k) - 1].get(key, "") if k <= len(ctx.changes) else "" for k in df["k"]]
+        return pd.Series(values, index=df.index, dtype=object)
+    return compute
+
+
+def _num(key: str):
+    def compute(df: pd.DataFrame, ctx: ActionsContext) -> pd.Series:
+        values = [ctx.changes[int(k) - 1].get(key, np.nan) if k <= len(ctx.changes) else np.nan for k in df["k"]]
+        values = [np.nan if v == "" else v for v in values]  # text only where a Final shows 'invalid'
+        return pd.Series(values, index=df.index, dtype=object if any(isinstance(v, str) for v in values) else float)
+    return compute
+
+
+def defs(totals: list[str]) -> list[ColumnDef]:
+    """The Actions columns, given the five segments' count formulas (absolute references)."""
+    t = totals
+    cum = [t[0], f"{t[0]}+{t[1]}", f"{t[0]}+{t[1]}+{t[2]}", f"{t[0]}+{t[1]}+{t[2]}+{t[3]}",
+           f"{t[0]}+{t[1]}+{t[2]}+{t[3]}+{t[4]}"]
+    seg = "=" + "".join(f"IF({{c:k}}<={c},{i + 1}," for i, c in enumerate(cum)) + "0" + ")" * 5
+    # The change's number within its kind is k less the kinds before it; the source row follows from it.
+    pos = ('=IF({c:seg}=0,"",IF({c:seg}=1,MATCH({c:k},{rng:bids.a_key},1),IF({c:seg}=2,{c:k}-(%s),'
+           'IF({c:seg}=3,MATCH({c:k}-(%s),{rng:harvest.n_key},1),IF({c:seg}=4,{c:k}-(%s),'
+           'MATCH({c:k}-(%s),{rng:budget_campaigns.c_key},1))))))' % tuple(cum[:4]))
+    kind = ('=IF({c:seg}=0,"",IF({c:seg}=1,"bid",IF({c:seg}=2,IF(INDEX({rng:harvest.kind},{c:pos})="product target",'
+            '"add product target","add keyword"),IF({c:seg}=5,"budget","add negative"))))')
+    return [
+        ColumnDef("kind", "Kind", "text", "bid, add keyword, add product target, add negative or budget.",
+                  _ref("Kind"), kind, width=16),
+        ColumnDef("campaign", "Campaign", "text", "Where the change goes.", _ref("Campaign"), _field({
+            1: _idx("bids.campaign"), 2: _idx("harvest.dest_campaign"), 3: _idx("harvest.campaign"),
+            4: _idx("negative_list.campaign"), 5: _idx("budget_campaigns.campaign")}), width=26),
+        ColumnDef("ad_group", "Ad group", "text", "Blank for a campaign-level change.", _ref("Ad group"), _field({
+            1: _idx("bids.ad_group"), 2: _idx("harvest.dest_ad_group"), 3: _idx("harvest.ad_group"),
+            4: _idx("negative_list.ad_group")}), width=18),
+        ColumnDef("target", "Target or term", "text", "The keyword, target or search term.", _ref("Target or term"),
+                  _field({1: _idx("bids.target"), 2: _idx("harvest.term"), 3: _idx("harvest.term"),
+                          4: _idx("negative_list.term")}), width=28),
+        ColumnDef("match_type", "Match type", "text", "The match type to use.", _ref("Match type"), _field({
+            1: _idx("bids.match_type"), 2: _idx("harvest.match"), 3: '"negative exact"',
+            4: _idx("negative_list.neg_match")}), width=15),
+        ColumnDef("current", "Current", "money", "The bid or daily budget now.", _num("Current"), _field({
+            1: "INDEX({rng:bids.bid},{c:pos})", 5: "INDEX({rng:budget_campaigns.budget},{c:pos})"}), width=10),
+        ColumnDef("new", "New", "money", "The new bid, starting bid or daily budget.", _num("New"), _field({
+            1: "INDEX({rng:bids.final},{c:pos})", 2: "INDEX({rng:harvest.start_bid},{c:pos})",
+            5: "INDEX({rng:budget_campaigns.final},{c:pos})"}), width=10),
+        ColumnDef("reason", "Reason", "label", "Why: the rule, or your decision.", _ref("Reason"), _field({
+            1: 'IF(INDEX({rng:bids.decision},{c:pos})="",INDEX({rng:bids.reason},{c:pos}),"your decision")',
+            2: 'IF(INDEX({rng:harvest.dest_campaign},{c:pos})="","%s","search term that sells")' % NO_DESTINATION,
+            3: '"so the new keyword does not compete with its source"',
+            4: _idx("negative_list.rule"),
+            5: 'IF(INDEX({rng:budget_campaigns.decision},{c:pos})="","follows its products\' spend","your decision")'}),
+                  width=34),
+        ColumnDef("product_id", "Product ID", "text", "The product (or the campaign's products) the change is for.",
+                  _ref("Product ID"), _field({
+                      1: _idx("bids.product_id"), 2: _idx("harvest.product_id"), 3: _idx("harvest.product_id"),
+                      4: _idx("negative_list.product_id"), 5: _idx("budget_campaigns.products")}), width=16),
+        ColumnDef("money", "Money at stake", "money",
+                  "Last period's spend of the target or term, or the size of the budget change.", _num("Money at stake"),
+                  _field({1: "INDEX({rng:bids.spend},{c:pos})", 2: "INDEX({rng:harvest.spend},{c:pos})",
+                          3: "INDEX({rng:harvest.spend},{c:pos})", 4: "INDEX({rng:negative_list.spend},{c:pos})",
+                          5: "IF(ISNUMBER(INDEX({rng:budget_campaigns.final},{c:pos})),ABS(INDEX("
+                             "{rng:budget_campaigns.final},{c:pos})-INDEX({rng:budget_campaigns.budget},{c:pos})),\"\")"}),
+                  width=11),
+        ColumnDef("k", "Number", "int", "Helper: the row's number.", lambda df, ctx: df["k"], kind=DATA, width=6,
+                  hidden=True),
+        ColumnDef("seg", "Segment", "int", "Working: which kind of change (1 to 5).",
+                  lambda df, ctx: pd.Series([ctx.changes[int(k) - 1]["_seg"] if k <= len(ctx.changes) else 0
+                                             for k in df["k"]], index=df.index, dtype=float), seg, width=6,
+                  hidden=True),
+        ColumnDef("pos", "Source row", "int", "Working: the change's row on its source sheet.",
+                  _num("_pos"), pos, width=6, hidden=True),
+    ]
+
+
+def _untyped(decision: Any) -> bool:
+    """Whether a Decision cell is blank (None, NaN or empty text)."""
+    return decision is None or decision == "" or (isinstance(decision, float) and np.isnan(decision))
+
+
+def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
+    """The changes in list order as the reference computes them, and the count of each segment."""
+    out: list[dict] = []
+    counts = [0] * 5
+    if "Bids" in tables:
+        b = tables["Bids"].frame
+        for r in b.loc[b["final"] != b["bid"]].to_dict("records"):
+            counts[0] += 1
+            out.append({"_seg": 1, "_j": counts[0], "_pos": r["pos"], "Kind": "bid", "Campaign": r["campaign"],
+                        "Ad group": r["ad_group"], "Target or term": r["target"], "Match type": r["match_type"],
+                        "Current": r["bid"], "New": r["final"], "Product ID": r["product_id"],
+                        "Money at stake": r["spend"],
+                        "Reason": r["reason"] if _untyped(r["decision"]) else "your decision"})
+    if "Harvest" in tables:
+        h = tables["Harvest"].frame
+        filled = h.loc[h["pos"].notna()]
+        for r in filled.to_dict("records"):
+            counts[1] += 1
+            out.append({"_seg": 2, "_j": counts[1], "_pos": r["k"],
+                        "Kind": "add product target" if r["kind"] == "product target" else "add keyword",
+                        "Campaign": r["dest_campaign"], "Ad group": r["dest_ad_group"], "Target or term": r["term"],
+                        "Match type": r["match"], "New": r["start_bid"], "Product ID": r["product_id"],
+                        "Money at stake": r["spend"],
+                        "Reason": NO_DESTINATION if r["dest_campaign"] == "" else "search term that sells"})
+        for r in filled.loc[filled["source_negative"] != ""].to_dict("records"):
+            counts[2] += 1
+            out.append({"_seg": 3, "_j": counts[2], "_pos": r["k"], "Kind": "add negative",
+                        "Campaign": r["campaign"], "Ad group": r["ad_group"], "Target or term": r["term"],
+                        "Match type": "negative exact", "Product ID": r["product_id"], "Money at stake": r["spend"],
+                        "Reason": "so the new keyword does not compete with its source"})
+    if "Negatives" in tables:
+        n = tables["Negatives"].frame
+        for r in n.loc[n["pos"].notna()].to_dict("records"):
+            counts[3] += 1
+            out.append({"_seg": 4, "_j": counts[3], "_pos": r["k"], "Kind": "add negative", "Campaign": r["campaign"],
+                        "Ad group": r["ad_group"], "Target or term": r["term"], "Match type": r["neg_match"],
+                        "Product ID": r["product_id"], "Money at stake": r["spend"], "Reason": r["rule"]})
+    if "Budget campaigns" in tables:
+        c = tables["Budget campaigns"].frame
+        for r in c.loc[(c["final"] != c["budget"]) & (c["state"] == "enabled")].to_dict("records"):
+            counts[4] += 1
+            out.append({"_seg": 5, "_j": counts[4], "_pos": r["cpos"], "Kind": "budget", "Campaign": r["campaign"],
+                        "Current": r["budget"], "New": r["final"], "Product ID": r["products"],
+                        "Money at stake": "" if isinstance(r["final"], str) else abs(r["final"] - r["budget"]),
+                        "Reason": "follows its products' spend" if _untyped(r["decision"]) else "your decision"})
+    return out, counts
+
+
+def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settings: Settings,
+                 sizes: dict[str, int]) -> tuple[Sheet, PlannedTable, list[int], list[str]]:
+    """The Actions sheet, its reference frame, the count of changes of each kind and the cells that count them."""
+    changes, counts = _changes(tables)
+    count_cells = []
+    totals = []
+    def capped(word: str, table: str) -> str:
+        return f"MIN({count_formula(ranges, 'terms', word)},{len(tables[table].frame)})"
+    sources = [("Bids", lambda: count_formula(ranges, "bids", "a")), ("Harvest", lambda: capped("p", "Harvest")),
+               ("Harvest", lambda: count_formula(ranges, "harvest", "n")),
+               ("Negatives", lambda: capped("b", "Negatives")),
+               ("Budget campaigns", lambda: count_formula(ranges, "budget_campaigns", "c"))]
+    for table, total in sources:
+        totals.append(total() if table in tables and len(tables[table].frame) else "0")
+    labels = ["Bid changes", "To add", "Source negatives", "Negatives", "Budgets"]
+    count_refs = []
+    for label, total, value in zip(labels, totals, counts):
+        count_refs.append(f"{SHEET}!{cell_ref(1, len(count_cells) + 1, True)}")  # row 2, beside its label
+        count_cells += [Cell(label, style="note"), Cell(float(value), "=" + total if total != "0" else "=0", "int_left")]
+    rows = sum(sizes.values())
+    static = ("Decision aid only: review every change before applying it to a live ad account. "
+              "Export this list with: sheetbuilder changes WORKBOOK -o changes.csv")
+    # Sized to the changes at build plus SPARE_ROWS of room (a Decision or threshold changed later), within
+    # every candidate row and actions_cap; the note says when more changes qualify than the list holds.
+    n_rows = max(0, min(rows, settings.actions_cap, len(changes) + SPARE_ROWS))
+    base = pd.DataFrame({"k": np.arange(1, n_rows + 1, dtype=float)})
+    ctx = ActionsContext(changes)
+    total = "+".join(totals)
+    how = "raise actions_cap in settings.toml and rebuild" if n_rows >= settings.actions_cap else \
+        "rebuild the workbook"
+    note_formula = (f'=IF({total}>{n_rows},"Showing the first {n_rows} of "&({total})&" changes; {how} '
+                    f'to see them all.","{static}")')
+    note_value = (f"Showing the first {n_rows} of {len(changes)} changes; {how} to see them all."
+                  if len(changes) > n_rows else static)
+    # A source this workbook lacks has a count of 0, so its branch is never taken: it reads as blank.
+    columns = without_absent(defs(totals), ranges, SOURCES)
+    planned = plan_table(columns, base, ctx, HEADER_ROW + 1, ranges, with_totals=False)
+    above = [[Cell("Actions: every change whose final value differs from today", style="title")],
+             count_cells,
+             [Cell(note_value, note_formula, "alert" if len(changes) > n_rows else "note")]]
+    table = Table(HEADER_ROW, planned.columns)
+    # Printed: the rows filled when built (changes settled later print once rebuilt).
+    sheet = Sheet(SHEET, above=above, table=table, freeze=(HEADER_ROW + 1, 1), tab_color="#0B5C8A",
+                  page=stacked_pages([table], last_row=HEADER_ROW + min(len(changes), n_rows)))
+    return sheet, planned, counts, count_refs

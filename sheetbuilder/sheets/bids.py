@@ -1,0 +1,292 @@
+"""The Bids sheet: a proposed bid for every live keyword and product target.
+
+Method (sources on the Guide):
+- Value per click: a click is worth CVR x order value; the bid that meets the target
+  ACoS is target ACoS x that value (H. R. Varian, "Position auctions", 2007). Applied
+  as a ratio that keeps the bid-to-CPC relation: value bid = current bid x target ACoS /
+  smoothed ACoS, where smoothed ACoS = CPC / (smoothed CVR x order value).
+- Small samples: smoothed CVR = (orders + k x product CVR) / (clicks + k), a Beta prior
+  worth k clicks (empirical-Bayes smoothing of rare-event rates).
+- Steps, not jumps: the proposal moves toward the value bid, never past it, by at most
+  the maximum cut or raise, rounded to the cent; a raise stops at the bid ceiling and a
+  cut at the bid floor (a bid already beyond one is not pushed the other way).
+- Data guards: no clicks, or fewer than the minimum clicks with no orders, hold; zero
+  orders after n = ceil(ln(1 - confidence) / ln(1 - product CVR)) clicks (and at least
+  the minimum) cuts by the maximum cut; a row with no orders never rises.
+
+Each target's product values come from its ad group's block of rows on the Groups
+sheet (first and last positions written as data), so the sheet stays linear in rows.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from sheetbuilder.sheets.blends import attach_groups, blends_row_column, fetch
+from sheetbuilder.workbook.columns import (ColumnDef, PlannedTable, apply_decision, blank_div, decision_formula,
+                                           decision_validation, editable, exports_only, plan_table, running_key)
+from sheetbuilder.reading.numbers import ROUNDING_NUDGE, round_half_away
+from sheetbuilder.sheets.inputs import InputSheet
+from sheetbuilder.reading.settings import Settings
+from sheetbuilder.workbook.spec import DATA, INPUT, Cell, Highlight, Sheet, Table
+
+SHEET = "Bids"
+HEADER_ROW = 3
+MOVING_RULES = (2, 6, 7, 9, 10)
+RAISING_RULES = (6, 9)
+REASONS = {
+    1: "no clicks", 2: "no orders after {n} clicks", 3: "not enough data", 4: "no order value yet",
+    5: "no orders yet: not raised", 6: "raise to value bid", 7: "lower to value bid", 8: "at value bid",
+    9: "raise, capped at maximum raise", 10: "lower, capped at maximum cut",
+}
+
+
+@dataclass
+class BidsContext:
+    """What the Bids columns' references read besides the frame."""
+
+    settings: Settings
+    blends: pd.DataFrame
+    totals: dict[str, Any] = field(default_factory=dict)
+
+
+def _in(column: str) -> str:
+    return "=INDEX({rng:targets.%s},{c:trow})" % column
+
+
+def _s_cvr(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    k = ctx.settings.prior_clicks
+    return blank_div(df["orders"] + k * df["p_cvr"], df["clicks"] + k)
+
+
+def _order_value(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    blend = ctx.blends["p_aov"].to_numpy(dtype=float)[df["brow"].to_numpy(dtype=int) - 1]
+    return blank_div(df["ad_sales"], df["orders"]).where(df["orders"] > 0, pd.Series(blend, index=df.index))
+
+
+def _s_acos(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    value = df["s_cvr"] * _order_value(df, ctx)
+    out = blank_div(df["cpc"], value)
+    return out.where(df["cpc"].notna() & df["s_cvr"].notna())
+
+
+def _value_bid(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    s = df["s_acos"]
+    return (df["bid"] * df["target_acos"] / s).where(s.notna() & (s != 0))
+
+
+def _rule(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    s = ctx.settings
+    out = []
+    for clicks, orders, n, value, bid in zip(df["clicks"], df["orders"], df["n_zero"], df["value_bid"], df["bid"]):
+        lower = 10 if not pd.isna(value) and value < bid * (1 - s.max_bid_cut) else 7
+        if clicks == 0:
+            rule = 1
+        elif orders == 0:
+            if clicks < s.min_clicks:
+                rule = 3
+            elif not pd.isna(n) and clicks >= n:
+                rule = 2
+            elif pd.isna(value):
+                rule = 4
+            else:
+                rule = lower if value < bid else 5
+        elif pd.isna(value):
+            rule = 4
+        elif value > bid:
+            rule = 9 if value > bid * (1 + s.max_bid_raise) else 6
+        elif value < bid:
+            rule = lower
+        else:
+            rule = 8
+        out.append(rule)
+    return pd.Series(out, index=df.index, dtype=float)
+
+
+def _raw(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    s = ctx.settings
+    bid, value, rule = df["bid"], df["value_bid"], df["rule"]
+    cut, raise_ = bid * (1 - s.max_bid_cut), bid * (1 + s.max_bid_raise)
+    out = np.select([rule.isin([2, 10]), rule.isin([6, 7]), rule == 9], [cut, value, raise_], bid)
+    return pd.Series(out, index=df.index, dtype=float)
+
+
+def _proposed(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    s = ctx.settings
+    rounded = _raw(df, ctx).map(lambda v: round_half_away(v + ROUNDING_NUDGE, 2))
+    raising = df["rule"].isin(RAISING_RULES)
+    low = np.where(raising, s.bid_floor, np.minimum(s.bid_floor, df["bid"]))
+    high = np.where(raising, np.maximum(s.bid_ceiling, df["bid"]), s.bid_ceiling)
+    clamped = np.minimum(high, np.maximum(low, rounded))
+    return pd.Series(np.where(df["rule"].isin(MOVING_RULES), clamped, df["bid"]), index=df.index)
+
+
+def _reason(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    out = []
+    for rule, raw, proposed, n in zip(df["rule"], _raw(df, ctx), df["proposed"], df["n_zero"]):
+        rounded = round_half_away(raw + ROUNDING_NUDGE, 2)
+        if rule in MOVING_RULES and proposed != rounded:
+            out.append("held at bid ceiling" if rounded > proposed else "held at bid floor")
+        else:
+            out.append(REASONS[int(rule)].format(n="" if pd.isna(n) else int(n)))
+    return pd.Series(out, index=df.index, dtype=object)
+
+
+_RULE = ('=IF({c:clicks}=0,1,IF({c:orders}=0,IF({c:clicks}<min_clicks,3,'
+         'IF(IF({c:n_zero}="",FALSE,{c:clicks}>={c:n_zero}),2,IF({c:value_bid}="",4,IF({c:value_bid}<{c:bid},%s,5)))),'
+         'IF({c:value_bid}="",4,IF({c:value_bid}>{c:bid},IF({c:value_bid}>{c:bid}*(1+max_bid_raise),9,6),'
+         'IF({c:value_bid}<{c:bid},%s,8)))))')
+_LOWER = "IF({c:value_bid}<{c:bid}*(1-max_bid_cut),10,7)"
+# The proposal before rounding, floor and ceiling, by rule (written inside the formulas that round it).
+_RAW = ('CHOOSE({c:rule},{c:bid},{c:bid}*(1-max_bid_cut),{c:bid},{c:bid},{c:bid},{c:value_bid},'
+        '{c:value_bid},{c:bid},{c:bid}*(1+max_bid_raise),{c:bid}*(1-max_bid_cut))')
+_ROUNDED = "ROUND(%s+0.000000001,2)" % _RAW
+# The target's order value: its own ad sales per order, or its ad group's blend when it has no orders.
+_ORDER_VALUE = "IF({c:orders}>0,{c:ad_sales}/{c:orders},INDEX({rng:blends.p_aov},{c:brow}))"
+_MOVING = "OR({c:rule}=2,{c:rule}=6,{c:rule}=7,{c:rule}=9,{c:rule}=10)"
+_RAISING = "OR({c:rule}=6,{c:rule}=9)"
+_REASON_CHOICES = ",".join('"' + REASONS[i].replace("{n}", '"&{c:n_zero}&"') + '"' for i in range(1, 11))
+
+DEFS: list[ColumnDef] = [
+    ColumnDef("campaign", "Campaign", "text", "The campaign.", lambda df, ctx: df["campaign"], kind=DATA, width=22),
+    ColumnDef("ad_group", "Ad group", "text", "The ad group.", lambda df, ctx: df["ad_group"], kind=DATA, width=18),
+    ColumnDef("target", "Target", "text", "The keyword or product target.",
+              lambda df, ctx: df["target"], kind=DATA, width=26),
+    ColumnDef("match_type", "Match type", "text", "exact, phrase, broad, product or auto.",
+              lambda df, ctx: df["match_type"], kind=DATA, width=9),
+    ColumnDef("product_id", "Product ID", "text",
+              "The product the ad group advertises; 'shared: ...' where it advertises several (their blend is used).",
+              lambda df, ctx: df["product_label"], kind=DATA, width=24),
+    ColumnDef("impressions", "Impressions", "int", "From in_targets.", lambda df, ctx: df["impressions"],
+              _in("impressions"), width=10),
+    ColumnDef("clicks", "Clicks", "int", "From in_targets.", lambda df, ctx: df["clicks"], _in("clicks"), width=8),
+    ColumnDef("spend", "Spend", "money", "From in_targets.", lambda df, ctx: df["spend"], _in("spend"), width=10),
+    ColumnDef("ad_sales", "Ad sales", "money", "From in_targets.", lambda df, ctx: df["ad_sales"],
+              _in("ad_sales"), width=10),
+    ColumnDef("orders", "Orders", "int", "From in_targets.", lambda df, ctx: df["orders"], _in("orders"), width=8),
+    ColumnDef("cpc", "CPC", "money", "Cost per click: spend / clicks.",
+              lambda df, ctx: blank_div(df["spend"], df["clicks"]), '=IF({c:clicks}=0,"",{c:spend}/{c:clicks})',
+              width=8),
+    ColumnDef("cvr", "CVR", "percent", "Conversion rate: orders / clicks.",
+              lambda df, ctx: blank_div(df["orders"], df["clicks"]), '=IF({c:clicks}=0,"",{c:orders}/{c:clicks})',
+              width=8),
+    ColumnDef("acos", "ACoS", "percent", "Spend / ad sales.",
+              lambda df, ctx: blank_div(df["spend"], df["ad_sales"]), '=IF({c:ad_sales}=0,"",{c:spend}/{c:ad_sales})',
+              width=8),
+    fetch("target_acos", "Target ACoS", "percent",
+          "The product's target ACoS (Profit), or the ad group's spend-weighted blend (from Groups' blends).",
+          hidden=False),
+    ColumnDef("bid", "Current bid", "money", "The bid now (in_targets).", lambda df, ctx: df["bid"], _in("bid"),
+              width=9),
+    ColumnDef("value_bid", "Value bid", "money",
+              "Current bid x target ACoS / smoothed ACoS: the bid at which a click costs what it is worth.",
+              _value_bid, '=IF(OR({c:s_acos}="",{c:s_acos}=0),"",{c:bid}*{c:target_acos}/{c:s_acos})', width=9),
+    ColumnDef("proposed", "Proposed bid", "money",
+              "A step from the current bid toward the value bid, within the caps, floor and ceiling; or the "
+              "zero-order cut; or the current bid when held.",
+              _proposed, '=IF(%s,MIN(IF(%s,MAX(bid_ceiling,{c:bid}),bid_ceiling),MAX(IF(%s,bid_floor,'
+                         'MIN(bid_floor,{c:bid})),%s)),{c:bid})'
+              % (_MOVING, _RAISING, _RAISING, _ROUNDED), width=9),
+    ColumnDef("change", "Change", "percent", "Proposed bid / current bid - 1.",
+              lambda df, ctx: blank_div(df["proposed"], df["bid"]) - 1,
+              '=IF({c:bid}=0,"",{c:proposed}/{c:bid}-1)', width=8),
+    ColumnDef("reason", "Reason", "label", "Which rule decided the row.", _reason,
+              '=IF(AND(%s,{c:proposed}<>%s),IF(%s>{c:proposed},"held at bid ceiling",'
+              '"held at bid floor"),CHOOSE({c:rule},%s))' % (_MOVING, _ROUNDED, _ROUNDED, _REASON_CHOICES), width=30),
+    ColumnDef("decision", "Decision", "text_input",
+              "Input: leave blank to follow the proposal, type a bid to use it, or 'keep' to keep the current bid.",
+              lambda df, ctx: df["decision"], kind=INPUT, width=10),
+    ColumnDef("final", "Final bid", "money", "The bid to apply: the Decision if given, else the proposal.",
+              lambda df, ctx: apply_decision(df, "proposed", "bid"), decision_formula("proposed", "bid"), width=9),
+    fetch("target_check", "Target check", "label",
+          "Where a product of the ad group has a target ACoS above its break-even ACoS (see Profit).", hidden=False,
+          width=22),
+    # Working columns, hidden: row positions as data, then the steps of the method.
+    ColumnDef("pos", "Position", "int", "Helper: the row's position on this sheet.", lambda df, ctx: df["pos"],
+              kind=DATA, width=6, hidden=True),
+    *running_key("a", "Changes", "{c:final}<>{c:bid}", lambda df: df["final"] != df["bid"]),
+    ColumnDef("moves", "Moves", "int", "Working: 1 where the proposal changes the bid (for the dashboard).",
+              lambda df, ctx: (df["proposed"] != df["bid"]).astype(float), '=IF({c:proposed}<>{c:bid},1,0)',
+              width=6, hidden=True),
+    ColumnDef("trow", "Target row", "int",
+              "The target's row number among in_targets' data rows: where its grey figures were copied from.",
+              lambda df, ctx: df["trow"], kind=DATA, width=8),
+    blends_row_column(),
+    fetch("p_cvr", "Product CVR", "percent", "Working: the product's (or blend's) ad conversion rate."),
+    ColumnDef("s_cvr", "Smoothed CVR", "percent", "Working: (orders + k x product CVR) / (clicks + k).",
+              _s_cvr, '=IF({c:clicks}+prior_clicks=0,"",({c:orders}+prior_clicks*{c:p_cvr})/({c:clicks}+prior_clicks))',
+              width=9, hidden=True),
+    ColumnDef("s_acos", "Smoothed ACoS", "percent",
+              "Working: CPC / (smoothed CVR x order value); the order value is the target's own ad sales per order, "
+              "or its ad group's blend when it has no orders.",
+              _s_acos, '=IF(OR({c:cpc}="",{c:s_cvr}=""),"",IF({c:s_cvr}*%s=0,"",{c:cpc}/({c:s_cvr}*%s)))'
+              % (_ORDER_VALUE, _ORDER_VALUE), width=9, hidden=True),
+    fetch("n_zero", "Zero-order clicks", "int",
+          "Working: clicks after which zero orders are unlikely at the product's CVR."),
+    ColumnDef("rule", "Rule", "int", "Working: which rule decided the row (1 to 10, see the Guide).",
+              _rule, _RULE % (_LOWER, _LOWER), width=6, hidden=True),
+]
+# Copied one-to-one from the target's in_targets row, or computed only from such copies: plain values.
+EXPORTS = ("impressions", "clicks", "spend", "ad_sales", "orders", "cpc", "cvr", "acos", "bid")
+DEFS = exports_only(DEFS, EXPORTS)
+
+# What a user types on Bids and the keys that find its row again (carry, changes and the tests read these).
+EDITABLE_COLUMNS = editable(DEFS, "Bids", SHEET, "sb_bids", ("campaign", "ad_group", "target", "match_type"),
+                            "decision", ("targets",), numeric="bid", words=("keep",), current="bid",
+                            input_current="bid")
+
+
+def target_frame(targets: InputSheet, campaigns: pd.DataFrame | None, groups: pd.DataFrame) -> pd.DataFrame:
+    """The live targets, one row each, largest spend first, with their row positions."""
+    frame = targets.frame.copy()
+    frame["trow"] = np.arange(1, len(frame) + 1, dtype=float)
+    live = frame["state"] == "enabled"
+    if campaigns is not None and len(campaigns):
+        state = campaigns.drop_duplicates("campaign").set_index("campaign")["state"]
+        live &= frame["campaign"].map(state).fillna("enabled") == "enabled"
+    frame = attach_groups(frame.loc[live].copy(), groups)
+    # Largest spend first (to the cent), so Bids and the Actions list show the most money at stake first.
+    frame = frame.assign(_money=-frame["spend"].round(2)).sort_values(
+        ["_money", "sort_product", "shared", "campaign", "ad_group", "trow"], kind="stable").drop(columns="_money")
+    frame["decision"] = None
+    frame = frame.reset_index(drop=True)
+    frame["pos"] = np.arange(1, len(frame) + 1, dtype=float)
+    frame["n_plus"] = float(len(frame) + 1)
+    return frame
+
+
+def plan_bids(targets: InputSheet, campaigns: pd.DataFrame | None, groups: PlannedTable, profit: PlannedTable,
+              settings: Settings, ranges: dict[str, str], decide=None, blends: PlannedTable | None = None
+              ) -> tuple[Sheet, PlannedTable]:
+    """The Bids sheet and its reference frame; decide(sheet, keys) gives carried Decisions; blends: Groups' blends."""
+    base = target_frame(targets, campaigns, groups.frame)
+    if decide is not None:
+        base["decision"] = decide("Bids", list(zip(base["campaign"], base["ad_group"], base["target"],
+                                                   base["match_type"])))
+    ctx = BidsContext(settings, blends.frame)
+    planned = plan_table(DEFS, base, ctx, HEADER_ROW + 1, ranges, with_totals=False)
+    keys = [d.key for d in DEFS]
+    n = len(base)
+    decision_col = keys.index("decision")
+    first = HEADER_ROW + 1
+    validations = []
+    if n:
+        validations.append(decision_validation(
+            EDITABLE_COLUMNS, first, decision_col, n,
+            "Leave blank to follow the proposal, type a bid such as 0.85, or type keep.",
+            "Blank = follow the proposal; a bid; or keep."))
+    highlights = [Highlight(keys.index("reason"), text, state) for text, state in (
+        ("lower to value bid", "Lavender"), ("lower, capped at maximum cut", "Lavender"),
+        ("raise to value bid", "Ocean"), ("raise, capped at maximum raise", "Ocean"),
+        ("not enough data", "Stone"), ("no clicks", "Stone"))]
+    highlights.append(Highlight(keys.index("reason"), "no orders after", "Plum", begins=True))
+    above = [[Cell("Bid plan: a proposed bid for every live keyword and product target", style="title")],
+             [Cell("Decision aid only: review before changing a live ad account. Type a bid or 'keep' in Decision "
+                   "to override a proposal. Grey figures are copied from in_targets (Target row); black ones follow "
+                   "your inputs. The working columns to the right are hidden.", style="note")]]
+    sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, planned.columns, highlights=highlights),
+                  freeze=(HEADER_ROW + 1, 3), validations=validations, tab_color="#063F63")
+    return sheet, planned

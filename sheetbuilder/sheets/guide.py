@@ -1,0 +1,274 @@
+"""The Guide sheet: what the workbook is for, how to use it, what every column means,
+the palette legend, the method sources, the cautions and the build record."""
+from __future__ import annotations
+
+import datetime as dt
+
+from sheetbuilder import __version__
+from sheetbuilder.workbook.columns import ColumnDef
+from sheetbuilder.errors import Problem
+from sheetbuilder.workbook.palette import STATES
+from sheetbuilder.sheets.profit import CAUTION, warning_formula, warning_value
+from sheetbuilder.reading.settings import Settings
+from sheetbuilder.workbook.spec import INPUT, Cell, PageSetup, Sheet
+
+SHEET = "Guide"
+
+# Which cells respond to edits (issue 13): stated once, here and beside the colour legend.
+LIVE_RULE = ("Grey figures are copied from your exports (or worked out from those copies alone), so no edit here "
+             "can change them; black figures are formulas that follow your inputs: a cost, price, fee, target, "
+             "setting or Decision you change updates every black figure that depends on it.")
+EXPORT_LEGEND = ("Grey text: a figure copied from your exports (the row it came from is shown beside it); "
+                 "it does not follow any input.")
+
+SHEETS_TEXT = [
+    ("Guide", "This page: how to use the workbook, what each column means, sources and cautions."),
+    ("Settings", "Thresholds and targets. Change a cream cell and every sheet updates."),
+    ("Profit", "Profit after advertising for every product: margin, TACoS, ACoS, net profit, status and "
+               "a direction for its ad spend."),
+    ("Bids", "A proposed bid for every enabled keyword and product target in an enabled campaign, largest "
+             "spend first, with the rule that decided it. Type a bid or 'keep' in Decision; Final bid applies it."),
+    ("Terms", "Every customer search term per campaign and ad group, with a live verdict: promote, block, watch "
+              "or keep. Type a Decision (promote, block, watch, keep or skip) to override it."),
+    ("Lists", "Harvest, Negatives and Actions hold what qualifies at build plus 100 rows of room; they re-fill "
+              "live when a threshold or Decision changes, and a line at the top says if more qualify than fit "
+              "(rebuild to see them)."),
+    ("Harvest", "The terms whose Final is promote: what to add, as which match type, where, at what starting bid."),
+    ("Negatives", "The terms whose Final is block: the negative to add, its level and match type, and the rule."),
+    ("Mix", "Where the money goes: spend by ad type against a benchmark share, by product and match type with "
+            "trim and expand signals, and charts."),
+    ("Budget", "A budget-neutral shift of spend from products to cut to products to grow, and each campaign's "
+               "daily budget scaled to follow its products."),
+    ("Actions", "Every change whose final value differs from today: bids, keywords and targets to add, "
+                "negatives, budgets. Export it with: sheetbuilder changes WORKBOOK -o changes.csv"),
+    ("Follow-up", "Built with --previous: what became of last week's changes (applied or not, each target's or "
+                  "term's figures in both periods, the outcome in words) and how each product moved since."),
+    ("History", "Built with --previous: every change found applied, week by week (week, kind, keys, from, to), "
+                "carried into every rebuild and never dropped."),
+    ("Groups", "Which products each ad group advertises, the spend weights used where it advertises several, and "
+               "below, each ad group's blended target ACoS, CVR, order value and price, computed once and fetched "
+               "by the Bids and Terms rows."),
+    ("Keys", "A lookup table: existing exact keywords and negatives, by number (the Terms sheet looks them up), "
+             "and the Clashes table: where a new negative would block a keyword the list adds or a term that sells."),
+    ("in_ sheets", "The rows of your exports as read, sorted by product. Catalog prices, costs, fees, "
+                   "margins and target ACoS are inputs you may correct there."),
+    ("Carried edits", "Built with --previous: every value carried from last week's workbook (sheet, key, the "
+                      "export's value, your value, the week you first typed it) and every typed number that "
+                      "expired because the export shows it applied."),
+    ("Unmatched edits", "Built with --previous: every value typed last week that could not be carried (its row "
+                        "is gone, or it is not a valid word or number), with the reason."),
+]
+
+FOLLOWUP_TEXT = [
+    "Built with --previous, the Follow-up sheet takes last week's final change list (the rows `changes` would "
+    "export, computed from last week's own exports and decisions) and looks each change up in this week's exports.",
+    "Applied: a bid when this week's export shows the planned bid to the cent; a keyword or product target when "
+    "it exists in that ad group with that match type; a negative when it is in this week's negatives export; a "
+    "budget when the campaign's daily budget equals the planned one. Without a negatives or campaigns export, "
+    "those rows read 'cannot tell'.",
+    "Outcome compares the move with its intent: a bid cut hopes for lower CPC and ACoS; a raise for more clicks "
+    "with ACoS at or under the target; a negative for no spend on the term; a new keyword for its first clicks and "
+    "orders. 'as intended' means both hoped-for effects happened, 'mixed' one, 'not as intended' neither; 'too "
+    "few clicks' where either period has fewer than min_clicks.",
+    "Compare periods that do not overlap: weekly 7-day exports. Two 30-day exports a week apart share 23 days, "
+    "so most of each figure is the same days counted twice; the sheet states the overlap.",
+    "A before-and-after comparison is observational: seasonality, competitors, prices and stock move too. "
+    "Treat an Outcome as a signal to look closer, not as proof.",
+]
+
+DECISIONS_TEXT = [
+    "Words (keep, skip, promote, block, watch) are standing instructions: they are carried into every "
+    "rebuild with --previous until you clear the cell.",
+    "A typed number (a bid, a spend, a budget) is a one-off: once a week's export shows it applied (the current "
+    "value equals it to the cent) it expires, the cell is left blank and Carried edits lists it as applied; "
+    "until then it is carried and its note says so.",
+    "A corrected cost on in_catalog, a changed setting and 'Your target ACoS' are carried until you type the "
+    "export's (or settings.toml's) value back, or the export itself changes to your value.",
+    "Carried cells are shaded orange, in italics, with a note saying where they came from.",
+    "A Decision that is not a valid word or number (other text, a formula error) shows 'invalid' in its Final "
+    "column and is never replaced by the proposal; the changes command refuses it with the reason and "
+    "--previous lists it on Unmatched edits.",
+]
+
+STEPS = [
+    "1. Read the warning line above: if it shows, the last days' ad sales are still being credited.",
+    "2. On Profit, sort or filter by Status and Direction; loss and thin products come first to review.",
+    "3. Correct any unit cost, fee or price on in_catalog, or a threshold on Settings: everything recalculates.",
+    "4. On Bids, review the proposed bids; type a bid or 'keep' in Decision where you disagree.",
+    "5. Raise or lower a product's target ACoS in 'Your target ACoS' on Profit: its bids follow.",
+    "6. On Terms, check the verdicts; Harvest lists the terms to add, Negatives the terms to block.",
+    "7. On Mix and Budget, see where spend goes and the proposed shift; type a Decision where you disagree.",
+    "8. Actions lists every change you have settled on; export it with the changes command and apply it.",
+    "9. Next week, build from the new exports with --previous this workbook: your edits come along "
+    "(see 'Decisions and carried edits' below).",
+    "10. The proposals are starting points, not orders: check them before changing your ad account.",
+    "Printing: every sheet prints on A4 at the width of its page, with its table's header on every page. Harvest, "
+    "Negatives and Actions print the rows filled when the workbook was built: after typing Decisions, rebuild "
+    "(with --previous) to print the lists as they stand.",
+]
+
+BID_METHOD = [
+    "Value per click: a click is worth its conversion rate x the average order value; the bid that meets the "
+    "target ACoS is target ACoS x that value. Because a target's cost per click usually sits below its bid, the "
+    "workbook applies it as a ratio: value bid = current bid x target ACoS / smoothed ACoS, where smoothed ACoS "
+    "= CPC / (smoothed CVR x order value).",
+    "Small samples: a target's conversion rate is shrunk toward its product's, as if it had k more clicks at the "
+    "product's rate (k = Smoothing weight on Settings): smoothed CVR = (orders + k x product CVR) / (clicks + k).",
+    "Order value: the target's ad sales / orders when it has orders, else its product's.",
+    "Steps, not jumps: the proposal moves from the current bid toward the value bid and never past it, by at "
+    "most the maximum cut or raise, rounded to the cent; a raise stops at the bid ceiling and a cut at the floor.",
+    "Data guards: no clicks, or fewer than the minimum clicks with no orders, hold the bid. No orders after "
+    "n = ceil(ln(1 - confidence) / ln(1 - product CVR)) clicks (the clicks after which zero orders would be "
+    "unlikely) cuts by the maximum cut. A target with no orders is never raised.",
+    "Target above break-even: break-even ACoS equals the margin before ads; above it, each ad-driven sale "
+    "loses money before any other cost (common practice in the trade, no single source). Profit and Bids say so "
+    "in Target check, and while cap_target_at_break_even is yes (Settings) the bids aim at the lower of the two "
+    "(Profit's Bid target ACoS).",
+    "Shared ad groups: where an ad group advertises several products, their target ACoS, conversion rate and "
+    "order value are blended, weighted by each product's ad spend in the group (see Groups).",
+    "Working columns: unhide the columns right of Final bid on Bids to see each step (product CVR, smoothed "
+    "CVR and ACoS, the zero-order clicks, the rule number 1-10 and the unrounded bid).",
+    "Evidence: README, 'How well the method works on simulated accounts' (results, assumptions and limits).",
+]
+
+TERMS_METHOD = [
+    "Terms are compared after Unicode NFKC normalisation, case folding, trimming and collapsing whitespace "
+    "(plural folding is an option in settings.toml).",
+    "promote: at least the minimum orders (Settings), not yet an exact keyword for the same product, and not "
+    "the very exact keyword it came from.",
+    "block: no orders, and spend of at least the product's price x the multiple on Settings (the trade's rule "
+    "of thumb: a term that spent the price of the product without a sale is suspect; common practice), or at "
+    "least the zero-order clicks of the bid plan.",
+    "watch: no orders under both thresholds, or orders below the minimum. keep: selling and already an exact "
+    "keyword, or already negated.",
+    "Harvest and Negatives are live lists: change a threshold or type a Decision and they re-fill themselves, "
+    "in Terms order (largest spend first, as built). A term that looks like a product identifier (the pattern "
+    "in settings.toml) is proposed as a product target. Promoted terms from automatic, paused or archived "
+    "campaigns need a destination in a live campaign: name one per product under [destinations] in "
+    "settings.toml, or choose one.",
+    "A change list safe to apply: a promoted term already an exact keyword for its product, or at its "
+    "destination, is not added again. The negative in the source ad group is proposed only when the keyword goes "
+    "to another ad group of a live campaign. No negative is proposed in a paused or archived campaign, where a "
+    "negative already blocks the term, or where it would block a keyword the same list adds or a term that sells "
+    "(the Clashes table on Keys). Actions lists each kind largest money at stake first, by the build's figures: "
+    "a Decision typed later changes which rows are listed, not their order.",
+]
+
+SOURCES = [
+    "TACoS, ACoS, break-even ACoS, net margin after ads: definitions in common use in the trade (no single source).",
+    "Thin margin below 8% and strong margin from 20%: the trade's rules of thumb (common practice, no source); "
+    "change them on Settings.",
+    "Spend share against sales share: a product's part of the ad spend compared with its part of the sales; "
+    "above 1 it is given more than it brings.",
+    "Value-per-click bidding: H. R. Varian, 'Position auctions', International Journal of Industrial "
+    "Organization 25 (2007).",
+    "Smoothing: a Beta prior worth k clicks, the empirical-Bayes shrinkage used for rare-event click and "
+    "conversion rates; its posterior mean is (orders + k p) / (clicks + k).",
+    "Zero-order threshold: the binomial chance of no orders in n clicks, (1 - p)^n; at 95% it is close to the "
+    "rule of three, n = 3 / p (J. A. Hanley and A. Lippman-Hand, JAMA 249, 1983).",
+    "Text normalisation: Unicode Standard Annex #15 (NFKC) and Unicode default case folding.",
+    "Text is data: imported text is always written as text, never as a formula; CSV files sheetbuilder writes "
+    "escape cells that begin with = + - @, tab or carriage return (OWASP, 'CSV Injection').",
+    "Cell and sheet limits: Microsoft, 'Excel specifications and limits' (32,767 characters per cell, "
+    "1,048,576 rows per sheet).",
+]
+
+
+LINE = 130  # characters of Arial 10 in a line of column B (102 wide, about 720 pixels), with room to spare
+LINE_HEIGHT = 13.0  # points per line of Arial 10
+
+
+def _lines(cell: Cell | None) -> int:
+    """The lines a wrapped cell's text takes in column B (spreadsheets do not size rows when opening a file)."""
+    if cell is None or cell.style not in ("wrap", "warning_wrap"):
+        return 1
+    return -(-len(str(cell.value)) // LINE)
+
+
+def _wrapped(cell: Cell | None, always: bool = False) -> Cell | None:
+    """cell, wrapping inside its column (top-aligned) when its text is longer than a line of column B."""
+    if cell is None or not isinstance(cell.value, str) or cell.formula or (len(cell.value) <= LINE and not always):
+        return cell
+    style = {"text": "wrap", "warning": "warning_wrap"}.get(cell.style, cell.style)
+    return Cell(cell.value, cell.formula, style, cell.kind, cell.note, cell.link)
+
+
+def _column_rows(title: str, defs: list[ColumnDef]) -> list[list[Cell | None]]:
+    """A section listing a sheet's visible columns and their meanings."""
+    rows: list[list[Cell | None]] = [[Cell(title, style="subtitle")]]
+    rows += [[Cell(d.header), Cell(d.help, style="text")] for d in defs if not d.hidden]
+    return rows + [[None]]
+
+
+def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tuple[str, list[ColumnDef]]],
+               warnings: list[Problem], checksums: dict[str, str], sources: dict[str, str],
+               figures: list | None = None, looks: list | None = None) -> Sheet:
+    """The Guide sheet, with the dashboard's live figures and the first-look lists at the top."""
+    rows: list[list[Cell | None]] = [
+        [Cell("sheetbuilder: profit after ads, bids, and where ad spend goes", style="title")],
+        [Cell("What it is for", style="subtitle"), Cell("This workbook turns your store-sales and sponsored-ad exports and your unit costs into live "
+              "figures: which products lose money once ads are paid, where spend is out of proportion to sales,",
+              style="text")],
+        [None, Cell("which bids to move toward each product's target ACoS, which search terms to promote or block, "
+                    "how spend splits across ad and match types, and how budget should shift.", style="text")],
+        [None, Cell(LIVE_RULE, style="text")],
+        [None, Cell("The Actions sheet lists the changes you settle on.", style="text")],
+        [Cell("Caution", style="warning"), Cell(CAUTION + " These are decision aids to review before anything "
+              "is changed in an ad account; check every proposal against what you know of your business.",
+              style="warning")],
+        [Cell("Data freshness", style="subtitle"),
+         Cell(warning_value(settings, built_on), warning_formula(), "alert")],
+        [None],
+        [Cell("Key figures", style="subtitle"), Cell("Live: they follow every change you make.", style="note")],
+        *[[Cell(f.label), Cell(f.value, f.formula, f.style + "_left")] for f in (figures or [])],
+        [None],
+    ]
+    headers = []
+    for look in looks or []:
+        headers.append(len(rows) + 1)
+        rows += [*look.rows(len(rows)), [None]]
+    rows += [
+        [Cell("How to use it", style="subtitle")],
+        *[[None, Cell(step, style="text")] for step in STEPS],
+        [None],
+        [Cell("Sheets", style="subtitle")],
+        *[[Cell(name), Cell(text, style="text")] for name, text in SHEETS_TEXT],
+        [None],
+    ]
+    for title, defs in column_sections:
+        rows += _column_rows(title, defs)
+    rows += [[Cell("Colours", style="subtitle"),
+              Cell("Colour never carries meaning alone: the Status and Direction words say the same.", style="note")]]
+    for state in STATES.values():
+        rows.append([Cell(state.name, style="state_" + state.name), Cell(state.meaning)])
+    rows.append([Cell(0, style="money_input", kind=INPUT), Cell("Cream with blue text: an input cell you may change.")])
+    rows.append([Cell(0, style="money_carried", kind=INPUT),
+                 Cell("Shaded orange, in italics, with a note: a value carried from last week's workbook.")])
+    rows.append([Cell(0, style="money_export"), Cell(EXPORT_LEGEND)])
+    rows += [[None], [Cell("Decisions and carried edits", style="subtitle")]]
+    rows += [[None, Cell(line, style="text")] for line in DECISIONS_TEXT]
+    rows += [[None], [Cell("Following up last week's changes", style="subtitle")]]
+    rows += [[None, Cell(line, style="text")] for line in FOLLOWUP_TEXT]
+    rows += [[None], [Cell("How the bid plan works", style="subtitle")]]
+    rows += [[None, Cell(line, style="text")] for line in BID_METHOD]
+    rows += [[None], [Cell("How search terms are judged", style="subtitle")]]
+    rows += [[None, Cell(line, style="text")] for line in TERMS_METHOD]
+    rows += [[None], [Cell("Method and sources", style="subtitle")]]
+    rows += [[None, Cell(s, style="text")] for s in SOURCES]
+    if warnings:
+        rows += [[None], [Cell("Notes from reading the exports", style="subtitle")]]
+        rows += [[Cell(p.where()), Cell(p.message, style="text")] for p in warnings[:200]]
+        if len(warnings) > 200:
+            rows.append([None, Cell(f"... and {len(warnings) - 200} more (see the command's output).")])
+    rows += [[None], [Cell("Build record", style="subtitle")],
+             [Cell("Tool version"), Cell(f"sheetbuilder {__version__}")],
+             [Cell("Built on"), Cell(built_on.isoformat())]]
+    for table, digest in sorted(checksums.items()):
+        rows.append([Cell(f"Input: {table}"), Cell(f"{sources.get(table, '')}  sha256 {digest}")])
+    # Long text wraps inside column B (rows grow to fit when opened), so the page prints at a readable scale.
+    rows = [[_wrapped(cell) if col == 1 else cell for col, cell in enumerate(cells)] for cells in rows]
+    heights = {r: LINE_HEIGHT * _lines(cells[1]) for r, cells in enumerate(rows) if len(cells) > 1 and _lines(cells[1]) > 1}
+    heights.update({r: 2 * LINE_HEIGHT for r in headers})  # room between the header's border and the first line
+    for r in heights:  # the label beside wrapped text stands at its first line
+        rows[r][0] = _wrapped(rows[r][0], always=True)
+    return Sheet(SHEET, above=rows, widths={0: 32, 1: 102, 2: 11}, heights=heights, page=PageSetup(landscape=False), tab_color="#3A2A78")

@@ -1,0 +1,95 @@
+"""The History sheet: every change found applied, week after week, carried by ``--previous``.
+
+Each build with ``--previous`` copies every row of the previous workbook's History (found
+through the defined name over its body, by header text when the name is gone) and appends
+the changes its Follow-up found applied this week. A row is never dropped: a History the
+build cannot read is reported, not silently started afresh. The rows are plain values
+(records of what happened), so filtering by a keyword shows its bid history over months.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import math
+from pathlib import Path
+from typing import Any
+
+from sheetbuilder.errors import WARNING, Problem
+from sheetbuilder.workbook.formula import col_letter, quote_sheet
+from sheetbuilder.weekly.saved import SavedBook, named_area
+from sheetbuilder.workbook.spec import DATA, Cell, Column, Sheet, Table
+
+SHEET = "History"
+NAME = "sb_history"
+COLUMNS = (("week", "Week", "text", 12), ("kind", "Kind", "text", 16), ("campaign", "Campaign", "text", 26),
+           ("ad_group", "Ad group", "text", 18), ("target", "Target or term", "text", 28),
+           ("match_type", "Match type", "text", 14), ("from", "From", "money", 9), ("to", "To", "money", 9))
+HEADER_ROW = 3  # 0-based: title, note, blank, then the header
+NUMBERS = ("from", "to")
+
+
+def _blank(v: Any) -> bool:
+    return v is None or (isinstance(v, float) and math.isnan(v)) or (isinstance(v, str) and v.strip() == "")
+
+
+def _value(key: str, v: Any) -> Any:
+    if _blank(v):
+        return None if key in NUMBERS else ""
+    if key in NUMBERS:
+        return float(v) if isinstance(v, (int, float)) and not isinstance(v, bool) else str(v)
+    if isinstance(v, (dt.date, dt.datetime)):
+        return (v.date() if isinstance(v, dt.datetime) else v).isoformat()
+    return v if isinstance(v, str) else str(v)
+
+
+def read_history(previous: Path) -> tuple[list[dict], list[Problem]]:
+    """The History rows of the previous workbook (none when it has no History sheet), and problems."""
+    with SavedBook(Path(previous)) as book:
+        area = named_area(book.wb, NAME)
+        sheet = area.sheet if area else SHEET
+        if sheet not in book.wb.sheetnames:
+            return [], []
+        rows = book.rows(sheet)
+        first = area.first_row if area else HEADER_ROW + 1
+        first_col = area.first_col if area else 0
+        header = rows[first - 1][first_col:first_col + len(COLUMNS)] if first - 1 < len(rows) else []
+        want = [h for _, h, _, _ in COLUMNS]
+        if ["" if h is None else str(h).strip() for h in header] != want and area is None:
+            return [], [Problem(Path(previous).name, first, SHEET,
+                                f"the History sheet's header should read {', '.join(want)}; its rows could not be "
+                                "carried. Copy them from the previous workbook by hand", WARNING)]
+        last = area.last_row if area else len(rows) - 1
+        out = []
+        for r in range(first, min(last, len(rows) - 1) + 1):
+            values = rows[r][first_col:first_col + len(COLUMNS)]
+            if all(_blank(v) for v in values):
+                continue
+            out.append({key: _value(key, v) for (key, _, _, _), v in zip(COLUMNS, values)})
+        return out, []
+
+
+def applied_rows(followup_rows: list[dict], week: dt.date) -> list[dict]:
+    """History rows for the follow-up rows found applied this week (from: last week's value, to: the planned)."""
+    out = []
+    for r in followup_rows:
+        if r["applied"] != "yes":
+            continue
+        out.append({"week": week.isoformat(), "kind": r["kind"], "campaign": r["campaign"],
+                    "ad_group": r["ad_group"], "target": r["target"], "match_type": r["match_type"],
+                    "from": None if r.get("was") is None or _blank(r.get("was")) else float(r["was"]),
+                    "to": None if r.get("planned") is None or _blank(r.get("planned")) else float(r["planned"])})
+    return out
+
+
+def plan_history(rows: list[dict]) -> tuple[Sheet, list[tuple[str, str]]]:
+    """The History sheet and the defined name over its body."""
+    columns = [Column(header, style, DATA, [r[key] if r[key] is not None else math.nan for r in rows] if
+                      key in NUMBERS else [r[key] for r in rows], width=width)
+               for key, header, style, width in COLUMNS]
+    above = [[Cell("History: every change found applied, week by week", style="title")],
+             [Cell("Week is the build that found the change applied in its exports; rows are carried into every "
+                   "rebuild with --previous and never dropped. Filter by Target or term for a keyword's history.",
+                   style="note")]]
+    sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, columns), freeze=(HEADER_ROW + 1, 0),
+                  tab_color="#5A5A5A")
+    last = HEADER_ROW + max(len(rows), 1) + 1  # 1-based row of the last body row
+    return sheet, [(NAME, f"={quote_sheet(SHEET)}!$A${HEADER_ROW + 2}:${col_letter(len(COLUMNS) - 1)}${last}")]

@@ -1,0 +1,572 @@
+"""The Terms sheet: every customer search term per campaign and ad group, with a live verdict.
+
+Verdicts (the thresholds are settings):
+- promote: at least the minimum orders, not yet an exact keyword for its product, and not
+  the very exact keyword it came from;
+- block: no orders, and either spend of at least the product's price x the multiple (the
+  trade's rule of thumb: a term that spent the product's price without a sale is suspect;
+  common practice, no source) or at least the zero-order clicks;
+- watch: no orders, under both thresholds (or selling, below the minimum orders);
+- keep: selling and already targeted, or already negated.
+
+Terms are compared after normalisation (NFKC, case folding, trimmed and collapsed
+whitespace). "Already targeted" and "Already negated" are lookups: each term's key is a
+number written as data, looked up by binary-search MATCH in the sorted Keys sheet, so the
+cost grows with terms x log(keys), never terms x targets. No term text is ever used as a
+criterion (MATCH, COUNTIFS and SUMIFS read * ? ~ in text as wildcards).
+
+Rows come largest spend first (as built), so the lists and Actions show the most money at
+stake first. The lists only take what is safe to apply: a promoted term that is new for its
+product and its destination (never a paused or archived campaign); a source negative only
+where the keyword goes to another ad group; no negative in a paused campaign, where one
+already blocks the term, or where it would block a keyword the list adds or a term that
+sells. Those last pairs are found through a word index when building and written on the
+Keys sheet's Clashes table, whose Blocks column is live.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from sheetbuilder.sheets.blends import attach_groups, blends_row_column, fetch
+from sheetbuilder.workbook.columns import (ColumnDef, PlannedTable, apply_word_decision, blank_div,
+                                           decision_validation, editable, exports_only, plan_table, running_key,
+                                           word_decision_formula)
+from sheetbuilder.reading.normalise import contains_phrase, looks_like_product_id, normalise, words
+from sheetbuilder.reading.numbers import ROUNDING_NUDGE, round_half_away
+from sheetbuilder.sheets.inputs import InputSheet
+from sheetbuilder.reading.settings import Settings
+from sheetbuilder.workbook.formula import block_sum, range_ref
+from sheetbuilder.workbook.spec import DATA, INPUT, Cell, Highlight, Sheet, Table
+
+SHEET = "Terms"
+KEYS_SHEET = "Keys"
+HEADER_ROW = 3
+VERDICTS = ("promote", "block", "watch", "keep")
+DECISIONS = VERDICTS + ("skip",)
+
+
+@dataclass
+class TermsContext:
+    """What the Terms columns' references read besides the frame."""
+
+    settings: Settings
+    blends: pd.DataFrame
+    lookup: dict[float, str]
+    clashes: pd.DataFrame = field(default_factory=pd.DataFrame)
+    totals: dict[str, Any] = field(default_factory=dict)
+
+
+def _block(column: str) -> str:
+    rng = "{rng:search_terms.%s}" % column
+    return "=" + block_sum(rng, "{c:first}", "{c:last}")
+
+
+def _found(key: str, pos: str):
+    """Formula and reference of a lookup column: the Keys sheet's text where the key is found."""
+    formula = '=IF({c:%s}=0,"",IF(INDEX({rng:keys.key},{c:%s})={c:%s},INDEX({rng:keys.found},{c:%s}),""))' % (
+        pos, pos, key, pos)
+
+    def compute(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+        return df[key].map(lambda k: ctx.lookup.get(k, "")).astype(object)
+    return formula, compute
+
+
+def _position(key: str):
+    """Formula and reference of a MATCH position on the sorted Keys sheet (0 when below every key)."""
+    formula = '=IF({c:%s}="",0,IFERROR(MATCH({c:%s},{rng:keys.key},1),0))' % (key, key)
+
+    def compute(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+        keys = np.array(sorted(ctx.lookup), dtype=float)
+        values = df[key].to_numpy(dtype=float)
+        pos = np.searchsorted(keys, values, side="right").astype(float)
+        return pd.Series(np.where(np.isnan(values), 0.0, pos), index=df.index)
+    return formula, compute
+
+
+def _verdict(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+    s = ctx.settings
+    out = []
+    for r in df[["orders", "targeted", "self", "negated", "spend", "p_price", "n_zero", "clicks"]].itertuples():
+        if r.orders >= s.min_promote_orders and r.targeted == "" and r.self == 0:
+            out.append("promote")
+        elif r.orders > 0:
+            out.append("keep" if r.targeted != "" or r.self == 1 else "watch")
+        elif r.negated != "":
+            out.append("keep")
+        elif r.spend >= r.p_price * s.block_spend_multiple or (not pd.isna(r.n_zero) and r.clicks >= r.n_zero):
+            out.append("block")
+        else:
+            out.append("watch")
+    return pd.Series(out, index=df.index, dtype=object)
+
+
+def _value_bid(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+    at = df["brow"].to_numpy(dtype=int) - 1
+    target, cvr, aov = (ctx.blends[k].to_numpy(dtype=float)[at] for k in ("target_acos", "p_cvr", "p_aov"))
+    k = ctx.settings.prior_clicks
+    order_value = blank_div(df["ad_sales"], df["orders"]).where(df["orders"] > 0, pd.Series(aov, index=df.index))
+    return target * (df["orders"] + k * cvr) / (df["clicks"] + k).where(df["clicks"] + k != 0) * order_value
+
+
+def _final(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+    return apply_word_decision(df, "verdict", DECISIONS)
+
+
+def _start_bid(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+    s = ctx.settings
+    cpc, value = df["cpc"], df["value_bid"]
+    base = {"cpc": cpc, "value": value}.get(s.starting_bid, np.minimum(cpc, value))
+    rounded = base.map(lambda v: round_half_away(v + ROUNDING_NUDGE, 2) if not pd.isna(v) else np.nan)
+    out = rounded.clip(lower=s.bid_floor).clip(upper=s.bid_ceiling)
+    return out.where(cpc.notna() & value.notna())
+
+
+def _block_rule(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+    s = ctx.settings
+    spent = df["spend"] >= df["p_price"] * s.block_spend_multiple
+    text = np.where(spent, "spend reached price x multiple",
+                    ["no orders after " + ("" if pd.isna(n) else str(int(n))) + " clicks" for n in df["n_zero"]])
+    return pd.Series(np.where(df["verdict"] == "block", text, "your decision"), index=df.index, dtype=object)
+
+
+def _block_threshold(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+    s = ctx.settings
+    spent = df["spend"] >= df["p_price"] * s.block_spend_multiple
+    out = pd.Series(np.where(spent, df["p_price"] * s.block_spend_multiple, df["n_zero"]), index=df.index)
+    return out.where(df["verdict"] == "block")
+
+
+# Working values only a list shows (Harvest: value and starting bid; Negatives: the block rule and its
+# threshold): the lists compute them live on their own rows; Terms keeps them in its reference frame only.
+LIST_WORKING = (("value_bid", _value_bid), ("start_bid", _start_bid), ("block_rule", _block_rule),
+                ("block_threshold", _block_threshold))
+
+_TPOS, _TPOS_REF = _position("tkey")
+_NPOS, _NPOS_REF = _position("nkey")
+_TARGETED, _TARGETED_REF = _found("tkey", "tpos")
+_NEGATED, _NEGATED_REF = _found("nkey", "npos")
+
+
+# Summed from the term's in_search_terms rows, computed only from such sums, or looked up on Keys (built from
+# the exports): plain values, since no input can change them.
+EXPORTS = ("impressions", "clicks", "spend", "ad_sales", "orders", "cpc", "cvr", "acos", "targeted", "negated",
+           "tpos", "npos")
+
+
+def defs(n_rows: int) -> list[ColumnDef]:
+    """The Terms columns."""
+    return exports_only(_all_defs(n_rows), EXPORTS)
+
+
+def _all_defs(n_rows: int) -> list[ColumnDef]:
+    """The Terms columns, every one with its formula (the method as written)."""
+    return [
+        ColumnDef("campaign", "Campaign", "text", "The campaign.", lambda df, ctx: df["campaign"], kind=DATA, width=22),
+        ColumnDef("ad_group", "Ad group", "text", "The ad group.", lambda df, ctx: df["ad_group"], kind=DATA,
+                  width=16),
+        ColumnDef("from_target", "From target", "text",
+                  "The keyword or target the term came through (the one with most clicks, if several).",
+                  lambda df, ctx: df["from_target"], kind=DATA, width=20),
+        ColumnDef("from_match", "From match type", "text", "Its match type.", lambda df, ctx: df["from_match"],
+                  kind=DATA, width=9),
+        ColumnDef("term", "Search term", "text", "What the customer typed (as first seen in the export).",
+                  lambda df, ctx: df["term"], kind=DATA, width=28),
+        ColumnDef("product_id", "Product ID", "text", "The product the ad group advertises ('shared: ...' if several).",
+                  lambda df, ctx: df["product_label"], kind=DATA, width=14),
+        *[ColumnDef(k, h, st, f"Summed over the term's rows on in_search_terms.", (lambda key: lambda df, ctx: df[key])(k),
+                    _block(k), width=w) for k, h, st, w in (
+            ("impressions", "Impressions", "int", 10), ("clicks", "Clicks", "int", 8), ("spend", "Spend", "money", 10),
+            ("ad_sales", "Ad sales", "money", 10), ("orders", "Orders", "int", 8))],
+        ColumnDef("cpc", "CPC", "money", "Spend / clicks.", lambda df, ctx: blank_div(df["spend"], df["clicks"]),
+                  '=IF({c:clicks}=0,"",{c:spend}/{c:clicks})', width=8),
+        ColumnDef("cvr", "CVR", "percent", "Orders / clicks.", lambda df, ctx: blank_div(df["orders"], df["clicks"]),
+                  '=IF({c:clicks}=0,"",{c:orders}/{c:clicks})', width=8),
+        ColumnDef("acos", "ACoS", "percent", "Spend / ad sales.",
+                  lambda df, ctx: blank_div(df["spend"], df["ad_sales"]),
+                  '=IF({c:ad_sales}=0,"",{c:spend}/{c:ad_sales})', width=8),
+        ColumnDef("targeted", "Already targeted", "text",
+                  "Where the term already runs as an exact keyword for the same product (campaign / ad group).",
+                  _TARGETED_REF, _TARGETED, width=30),
+        ColumnDef("negated", "Already negated", "text", "The negative that already blocks the term here, if any.",
+                  _NEGATED_REF, _NEGATED, width=30),
+        ColumnDef("verdict", "Verdict", "label", "promote, block, watch or keep (see the Guide).", _verdict,
+                  '=IF(AND({c:orders}>=min_promote_orders,{c:targeted}="",{c:self}=0),"promote",'
+                  'IF({c:orders}>0,IF(OR({c:targeted}<>"",{c:self}=1),"keep","watch"),IF({c:negated}<>"","keep",'
+                  'IF(OR({c:spend}>={c:p_price}*block_spend_multiple,IF({c:n_zero}="",FALSE,{c:clicks}>={c:n_zero})),'
+                  '"block","watch"))))', width=9),
+        ColumnDef("decision", "Decision", "text_input",
+                  "Input: blank follows the verdict; or type promote, block, watch, keep or skip.",
+                  lambda df, ctx: df["decision"], kind=INPUT, width=9),
+        ColumnDef("final", "Final", "label", "The Decision if typed, else the verdict; 'invalid' for any other text.",
+                  _final, word_decision_formula("verdict", DECISIONS), width=9),
+        # Working columns, hidden.
+        ColumnDef("first", "Term first row", "int",
+                  "First of the term's data rows on in_search_terms: its grey figures are summed from these rows.",
+                  lambda df, ctx: df["first"], kind=DATA, width=8),
+        ColumnDef("last", "Term last row", "int", "Last of the term's data rows on in_search_terms.",
+                  lambda df, ctx: df["last"], kind=DATA, width=8),
+        ColumnDef("pos", "Position", "int", "Helper: the row's position on this sheet.",
+                  lambda df, ctx: df["pos"], kind=DATA, width=8, hidden=True),
+        ColumnDef("self", "Is its own keyword", "int", "Helper: 1 where the term is the exact keyword it came from.",
+                  lambda df, ctx: df["self"], kind=DATA, width=8, hidden=True),
+        ColumnDef("pid_like", "Looks like a product ID", "int",
+                  "Helper: 1 where the term matches the product identifier pattern.",
+                  lambda df, ctx: df["pid_like"], kind=DATA, width=8, hidden=True),
+        ColumnDef("words", "Words", "int", "Helper: words in the normalised term.", lambda df, ctx: df["words"],
+                  kind=DATA, width=8, hidden=True),
+        ColumnDef("dest_campaign", "Destination campaign", "text", "Helper: where a promoted term goes.",
+                  lambda df, ctx: df["dest_campaign"], kind=DATA, width=12, hidden=True),
+        ColumnDef("dest_ad_group", "Destination ad group", "text", "Helper: where a promoted term goes.",
+                  lambda df, ctx: df["dest_ad_group"], kind=DATA, width=12, hidden=True),
+        ColumnDef("tkey", "Targeted key", "int", "Helper: the number standing for (product, term) on Keys.",
+                  lambda df, ctx: df["tkey"], kind=DATA, width=8, hidden=True),
+        ColumnDef("tpos", "Targeted position", "int", "Working: MATCH of the targeted key on Keys.",
+                  _TPOS_REF, _TPOS, width=8, hidden=True),
+        ColumnDef("nkey", "Negated key", "int", "Helper: the number standing for the negative that applies, on Keys.",
+                  lambda df, ctx: df["nkey"], kind=DATA, width=8, hidden=True),
+        ColumnDef("npos", "Negated position", "int", "Working: MATCH of the negated key on Keys.",
+                  _NPOS_REF, _NPOS, width=8, hidden=True),
+        blends_row_column(),
+        fetch("p_price", "Product price", "money", "Working: the product's (or blend's) price."),
+        fetch("n_zero", "Zero-order clicks", "int",
+              "Working: clicks after which zero orders are unlikely at the product's CVR."),
+        ColumnDef("live", "Campaign live", "int", "Helper: 1 where the term's campaign is enabled (in_campaigns).",
+                  lambda df, ctx: df["live"], kind=DATA, width=8, hidden=True),
+        ColumnDef("at_dest", "Keyword at destination", "int",
+                  "Helper: 1 where the destination ad group already has the term as an exact keyword (in_targets).",
+                  lambda df, ctx: df["at_dest"], kind=DATA, width=8, hidden=True),
+        ColumnDef("moved", "Goes elsewhere", "int",
+                  "Helper: 1 where the destination is another ad group than the source.",
+                  lambda df, ctx: df["moved"], kind=DATA, width=8, hidden=True),
+        ColumnDef("adds", "Adds a keyword", "int",
+                  "Working: 1 where the term is promoted to a destination, new for its product.", _adds,
+                  '=IF(AND({c:final}="promote",{c:targeted}="",{c:self}=0,{c:at_dest}=0,{c:dest_campaign}<>""),1,0)',
+                  width=8, hidden=True),
+        ColumnDef("cfirst", "Clash first row", "int", "Helper: first of the term's rows on Clashes.",
+                  lambda df, ctx: df["cfirst"], kind=DATA, width=8, hidden=True),
+        ColumnDef("clast", "Clash last row", "int", "Helper: last of the term's rows on Clashes.",
+                  lambda df, ctx: df["clast"], kind=DATA, width=8, hidden=True),
+        ColumnDef("clash", "Would block another term", "int",
+                  "Working: how many keywords the list adds, or terms that sell, this term's negative would block.",
+                  _clash,
+                  '=IF(OR({c:cfirst}="",AND({c:final}<>"block",{c:adds}=0)),0,%s)'
+                  % block_sum("{rng:clashes.hit}", "{c:cfirst}", "{c:clast}"),
+                  width=8, hidden=True),
+        ColumnDef("src_neg", "Negative in source", "text",
+                  "Working: negative exact where a promoted term goes to another ad group of a live campaign, its "
+                  "source is broad, phrase or automatic, and no negative there blocks it yet.", _src_neg,
+                  '=IF(AND({c:adds}=1,source_negative="yes",OR({c:from_match}="broad",{c:from_match}="phrase",'
+                  '{c:from_match}="auto"),{c:moved}=1,{c:live}=1,{c:negated}="",{c:clash}=0),"negative exact","")',
+                  width=8, hidden=True),
+        *running_key("p", "Promoted terms", 'AND({c:final}="promote",{c:targeted}="",{c:self}=0,{c:at_dest}=0)',
+                     _promoted),
+        *running_key("b", "Blocked terms", 'AND({c:final}="block",{c:live}=1,{c:negated}="",{c:clash}=0)', _blocked),
+    ]
+
+
+def _promoted(df: pd.DataFrame) -> pd.Series:
+    """Rows the Harvest list shows: promoted, and not a keyword the product already has."""
+    return (df["final"] == "promote") & (df["targeted"] == "") & (df["self"] == 0) & (df["at_dest"] == 0)
+
+
+def _blocked(df: pd.DataFrame) -> pd.Series:
+    """Rows the Negatives list shows: blocked in a live campaign, not yet negated, blocking no added keyword."""
+    return (df["final"] == "block") & (df["live"] == 1) & (df["negated"] == "") & (df["clash"] == 0)
+
+
+def _adds(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+    return (_promoted(df) & (df["dest_campaign"] != "")).astype(float)
+
+
+def _clash(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+    hits = clash_hits(ctx.clashes, df, ctx.settings)
+    per_row = pd.Series(hits, dtype=float).groupby(ctx.clashes["i"].to_numpy()).sum() if len(hits) else pd.Series(
+        dtype=float)
+    out = df["pos"].map(per_row).fillna(0.0).astype(float)
+    return out.where((df["final"] == "block") | (df["adds"] == 1), 0.0)
+
+
+def _src_neg(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+    ok = ((df["adds"] == 1) & (ctx.settings.source_negative == "yes") & df["from_match"].isin(["broad", "phrase", "auto"])
+          & (df["moved"] == 1) & (df["live"] == 1) & (df["negated"] == "") & (df["clash"] == 0))
+    return pd.Series(np.where(ok, "negative exact", ""), index=df.index, dtype=object)
+
+
+def clash_hits(pairs: pd.DataFrame, terms: pd.DataFrame, settings: Settings) -> list[float]:
+    """Per Clashes row, 1 where the negative term i would propose blocks term j.
+
+    Term i blocked: its negative (in its ad group, or the whole campaign; exact, or phrase
+    below phrase_below_words words) blocks the keyword j adds there, or j where it sells.
+    Term i promoted: its source negative (exact, in its own ad group) blocks the keyword j adds there.
+    """
+    if not len(pairs):
+        return []
+    final, adds, nwords, orders = (terms[k].to_numpy() for k in ("final", "adds", "words", "orders"))
+    wide = settings.negative_level == "campaign"
+    out = []
+    for p in pairs.itertuples():
+        i, j = int(p.i) - 1, int(p.j) - 1
+        if final[i] == "block":
+            matches = p.same_term == 1 or nwords[i] < settings.phrase_below_words
+            keyword = adds[j] == 1 and p.kw_in == 1 and (wide or p.kw_group == 1)
+            sold = orders[j] > 0 and p.src_in == 1 and (wide or p.src_group == 1)
+            out.append(1.0 if matches and (keyword or sold) else 0.0)
+        else:
+            out.append(1.0 if final[i] == "promote" and adds[j] == 1 and p.kw_group == 1 and p.same_term == 1 else 0.0)
+    return out
+
+
+def _norm_or_blank(value: Any, fold: bool) -> str:
+    return normalise(value, fold) if isinstance(value, str) else ""
+
+
+@dataclass
+class KeyTable:
+    """The numbers standing for (product, term) and negative keys, and what each found key says."""
+
+    ids: dict[tuple, float]
+    found: dict[float, str]
+
+
+def build_keys(terms: pd.DataFrame, targets: pd.DataFrame | None, negatives: pd.DataFrame | None,
+               groups: pd.DataFrame, settings: Settings) -> KeyTable:
+    """Number every key, and record which exist as exact keywords or negatives."""
+    fold = settings.fold_plurals
+    entries: dict[tuple, str] = {}
+    if targets is not None and len(targets):
+        products = groups.groupby(["campaign", "ad_group"])["product_id"].apply(list).to_dict() if len(groups) else {}
+        for t in targets.itertuples():
+            if t.match_type != "exact" or t.state == "archived":
+                continue
+            for product in products.get((t.campaign, t.ad_group), []):
+                entries.setdefault(("T", product, _norm_or_blank(t.target, fold)), f"{t.campaign} / {t.ad_group}")
+    if negatives is not None and len(negatives):
+        for n in negatives.itertuples():
+            level = "ad group" if n.ad_group else "campaign"
+            kind = "NP" if n.match_type == "negative phrase" else "N"
+            text = f"{n.match_type}, {level}" + (f": {n.term}" if kind == "NP" else "")
+            entries.setdefault((kind, n.campaign, n.ad_group or "", _norm_or_blank(n.term, fold)), text)
+    used = set(entries) | set(terms["tkey_t"].dropna()) | set(terms["nkey_t"].dropna())
+    ids = {key: float(i) for i, key in enumerate(sorted(used, key=repr), start=1)}
+    return KeyTable(ids, {ids[k]: v for k, v in entries.items()})
+
+
+def _negative_key(row, phrases: dict, exact: set) -> tuple:
+    """The key of the negative that blocks the term in its ad group, else its ad-group exact key."""
+    for key in (("N", row.campaign, row.ad_group, row.term_key), ("N", row.campaign, "", row.term_key)):
+        if key in exact:
+            return key
+    for scope in ((row.campaign, row.ad_group), (row.campaign, "")):
+        for phrase in phrases.get(scope, ()):
+            if contains_phrase(row.term_key, phrase):
+                return ("NP", scope[0], scope[1], phrase)
+    return ("N", row.campaign, row.ad_group, row.term_key)
+
+# What a user types on Terms and the keys that find its row again (carry, changes and the tests read these).
+EDITABLE_COLUMNS = editable(defs(0), "Terms", SHEET, "sb_terms", ("campaign", "ad_group", "term"), "decision",
+                            ("search_terms",), ("campaign", "ad_group", "search_term"), normalised=("term",),
+                            words=DECISIONS)
+
+
+def term_frame(layout: InputSheet, groups: pd.DataFrame, campaigns: pd.DataFrame | None,
+               negatives: pd.DataFrame | None, settings: Settings) -> pd.DataFrame:
+    """One row per (campaign, ad group, normalised term), with its block on in_search_terms."""
+    st = layout.frame
+    if not len(st):
+        return pd.DataFrame(columns=["campaign", "ad_group", "term_key"])
+    pos = pd.Series(np.arange(1, len(st) + 1, dtype=float), index=st.index)
+    work = st.assign(_pos=pos)
+    g = work.groupby(["campaign", "ad_group", "_term_key"], sort=False)
+    top = work.loc[g["clicks"].idxmax()]  # the row with most clicks (first on ties) names the source
+    frame = pd.DataFrame({
+        "campaign": top["campaign"].to_numpy(), "ad_group": top["ad_group"].to_numpy(),
+        "term_key": top["_term_key"].to_numpy(), "from_target": top["target"].to_numpy(),
+        "from_match": top["match_type"].to_numpy(),
+        "term": g["search_term"].first().to_numpy(), "first": g["_pos"].min().to_numpy(),
+        "last": g["_pos"].max().to_numpy(),
+        **{k: g[k].sum().to_numpy() for k in ("impressions", "clicks", "spend", "ad_sales", "orders")},
+    })
+    for c in ("campaign", "ad_group", "term_key", "from_target", "from_match", "term"):
+        frame[c] = frame[c].astype(object)
+    # Largest spend first (to the cent, stable), so the lists and Actions show the most money at stake first.
+    frame = frame.assign(_money=-frame["spend"].round(2)).sort_values("_money", kind="stable").drop(
+        columns="_money").reset_index(drop=True)
+    frame = attach_groups(frame, groups)
+    fold = settings.fold_plurals
+    frame["pos"] = np.arange(1, len(frame) + 1, dtype=float)
+    frame["n_plus"] = float(len(frame) + 1)
+    frame["self"] = [1.0 if m == "exact" and _norm_or_blank(t, fold) == k else 0.0
+                     for m, t, k in zip(frame["from_match"], frame["from_target"], frame["term_key"])]
+    frame["pid_like"] = [1.0 if looks_like_product_id(t, settings.product_id_pattern) else 0.0 for t in frame["term"]]
+    frame["words"] = [float(words(t)) for t in frame["term"]]
+    automatic, paused = set(), set()
+    if campaigns is not None and len(campaigns):
+        automatic = set(campaigns.loc[campaigns["targeting"] == "automatic", "campaign"])
+        states = campaigns.drop_duplicates("campaign").set_index("campaign")["state"]
+        paused = set(states.index[states != "enabled"])
+    dest_c, dest_g = [], []
+    for r in frame.itertuples():
+        product = r.products[0] if r.products else None
+        if product in settings.destinations:
+            c, a = settings.destinations[product]
+        elif r.campaign in automatic or r.from_match == "auto":
+            c, a = "", ""
+        else:
+            c, a = r.campaign, r.ad_group
+        if c in paused:  # nothing is added to a paused or archived campaign: choose a live one
+            c, a = "", ""
+        dest_c.append(c)
+        dest_g.append(a)
+    frame["dest_campaign"], frame["dest_ad_group"] = dest_c, dest_g
+    frame["live"] = [0.0 if c in paused else 1.0 for c in frame["campaign"]]
+    frame["moved"] = [1.0 if dc != "" and (dc, dg) != (c, g) else 0.0 for c, g, dc, dg in
+                      zip(frame["campaign"], frame["ad_group"], frame["dest_campaign"], frame["dest_ad_group"])]
+    frame["tkey_t"] = [("T", p[0], k) if p else None for p, k in zip(frame["products"], frame["term_key"])]
+    phrases: dict = {}
+    exact: set = set()
+    if negatives is not None and len(negatives):
+        for n in negatives.itertuples():
+            norm = _norm_or_blank(n.term, fold)
+            if n.match_type == "negative phrase":
+                phrases.setdefault((n.campaign, n.ad_group or ""), []).append(norm)
+            else:
+                exact.add(("N", n.campaign, n.ad_group or "", norm))
+    frame["nkey_t"] = [_negative_key(r, phrases, exact) for r in frame.itertuples()]
+    frame["decision"] = None
+    frame["cfirst"], frame["clast"] = np.nan, np.nan
+    return frame
+
+
+def clash_pairs(frame: pd.DataFrame) -> pd.DataFrame:
+    """Every (i, j) where a negative from term i could block term j: the keyword j adds, or j where it sells.
+
+    i's words appear in j's, in order (so an exact or phrase negative of i, at ad-group or
+    campaign level, might block j), and either j's destination is in i's campaign, or j is
+    in i's campaign and sold in the period. Whether it does block is decided live on the
+    Clashes sheet. Sorted by i, so each term's pairs are one block; candidates come from a
+    word index, never term x term.
+    """
+    columns = ["i", "j", "kw_in", "kw_group", "src_in", "src_group", "same_term"]
+    if not len(frame):
+        return pd.DataFrame(columns=columns, dtype=float)
+    index: dict[tuple, set] = {}
+    for j, c, dc, key, orders in zip(frame["pos"], frame["campaign"], frame["dest_campaign"], frame["term_key"],
+                                     frame["orders"]):
+        for campaign in {dc} - {""} | ({c} if orders > 0 else set()):
+            for w in set(key.split(" ")):
+                index.setdefault((campaign, w), set()).add(int(j))
+    c_, g_, dc_, dg_, k_, o_ = (frame[k].to_numpy() for k in ("campaign", "ad_group", "dest_campaign",
+                                                              "dest_ad_group", "term_key", "orders"))
+    rows = []
+    for i, (c, g, key) in enumerate(zip(c_, g_, k_)):
+        first = key.split(" ")[0] if key else ""
+        for j in sorted(index.get((c, first), ())):
+            j -= 1
+            if j != i and contains_phrase(k_[j], key):
+                kw_in = dc_[j] == c
+                rows.append((i + 1.0, j + 1.0, float(kw_in), float(kw_in and dg_[j] == g),
+                             float(c_[j] == c and o_[j] > 0), float(c_[j] == c and g_[j] == g), float(k_[j] == key)))
+    return pd.DataFrame(rows, columns=columns, dtype=float)
+
+
+def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, targets: pd.DataFrame | None,
+               campaigns: pd.DataFrame | None, negatives: pd.DataFrame | None, settings: Settings,
+               ranges: dict[str, str], decide=None, blends: PlannedTable | None = None
+               ) -> tuple[Sheet, PlannedTable, Sheet, KeyTable]:
+    """The Terms sheet, its reference frame, and the Keys sheet its lookups read (blends: Groups' blends)."""
+    base = term_frame(layout, groups.frame, campaigns, negatives, settings)
+    if decide is not None and len(base):
+        base["decision"] = decide("Terms", list(zip(base["campaign"], base["ad_group"], base["term"])))
+    keys = build_keys(base, targets, negatives, groups.frame, settings)
+    existing = set()
+    if targets is not None and len(targets):
+        live = targets.loc[(targets["match_type"] == "exact") & (targets["state"] != "archived")]
+        existing = {(c, g, _norm_or_blank(t, settings.fold_plurals))
+                    for c, g, t in zip(live["campaign"], live["ad_group"], live["target"])}
+    base["at_dest"] = [1.0 if (c, g, k) in existing else 0.0
+                       for c, g, k in zip(base["dest_campaign"], base["dest_ad_group"], base["term_key"])]
+    pairs = clash_pairs(base)
+    if len(pairs):
+        block = pd.DataFrame({"i": pairs["i"], "at": np.arange(1, len(pairs) + 1, dtype=float)}).groupby("i")["at"]
+        base["cfirst"], base["clast"] = base["pos"].map(block.min()), base["pos"].map(block.max())
+    clash_first = 2 + max(len(keys.found), 1) + 3  # the Clashes table's header row on the Keys sheet
+    key_ranges = {**plan_keys(keys)[1], "clashes.hit": range_ref(
+        KEYS_SHEET, [d.key for d in CLASH_DEFS].index("hit"), clash_first + 1, clash_first + len(pairs))}
+    base["tkey"] = base["tkey_t"].map(lambda k: keys.ids.get(k, np.nan) if k else np.nan)
+    base["nkey"] = base["nkey_t"].map(lambda k: keys.ids.get(k, np.nan))
+    ctx = TermsContext(settings, blends.frame, keys.found, pairs)
+    planned = plan_table(defs(len(base)), base, ctx, HEADER_ROW + 1, {**ranges, **key_ranges}, with_totals=False)
+    for key, compute in LIST_WORKING:  # computed live on the list rows that show them, not on every term
+        planned.frame[key] = compute(planned.frame, ctx)
+    clashes = plan_table(CLASH_DEFS, pairs, ClashContext(planned.frame, settings), clash_first + 1,
+                         planned.ranges(SHEET, "terms"), with_totals=False)
+    keys_sheet, _ = plan_keys(keys, Table(clash_first, clashes.columns, autofilter=False, title=CLASH_TITLE))
+    keys_list = [d.key for d in defs(len(base))]
+    n = len(base)
+    first = HEADER_ROW + 1
+    validations = []
+    if n:
+        validations.append(decision_validation(
+            EDITABLE_COLUMNS, first, keys_list.index("decision"), n,
+            "Leave blank to follow the verdict, or choose " + ", ".join(DECISIONS) + ".", "Blank = follow the verdict."))
+    col = keys_list.index("verdict")
+    highlights = [Highlight(col, "promote", "Ocean"), Highlight(col, "block", "Plum"), Highlight(col, "watch", "Stone")]
+    col = keys_list.index("final")
+    highlights += [Highlight(col, "promote", "Ocean"), Highlight(col, "block", "Plum")]
+    above = [[Cell("Customer search terms: what to promote, what to block", style="title")],
+             [Cell("Decision aid only: review before changing a live ad account. Type a Decision to override a "
+                   "verdict; the Harvest and Negatives lists follow the Final column. Grey figures are summed from the "
+                   "term's rows on in_search_terms (Term first row to Term last row); black ones follow your inputs.",
+                   style="note")]]
+    sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, planned.columns, highlights=highlights),
+                  freeze=(HEADER_ROW + 1, 5), validations=validations, tab_color="#3A2A78")
+    return sheet, planned, keys_sheet, keys
+
+
+@dataclass
+class ClashContext:
+    """What the Clashes columns read: the planned Terms frame and the settings."""
+
+    terms: pd.DataFrame
+    settings: Settings
+    totals: dict[str, Any] = field(default_factory=dict)
+
+
+CLASH_TITLE = ("Clashes: where a negative from one term (left) could block the keyword another term adds, or "
+               "another term where it sells; Blocks = 1 keeps that negative off the lists")
+_FINAL_I = "INDEX({rng:terms.final},{c:i})"
+_ADDS_J = "INDEX({rng:terms.adds},{c:j})"
+CLASH_DEFS: list[ColumnDef] = [
+    ColumnDef("i", "Negative from term", "int", "The Terms position of the term whose negative could block.",
+              lambda df, ctx: df["i"], kind=DATA, width=10),
+    ColumnDef("j", "Blocked term", "int", "The Terms position of the term it could block.",
+              lambda df, ctx: df["j"], kind=DATA, width=10),
+    *[ColumnDef(k, h, "int", text, (lambda key: lambda df, ctx: df[key])(k), kind=DATA, width=8) for k, h, text in (
+        ("kw_in", "Keyword in its campaign", "1 where the keyword j adds goes to i's campaign."),
+        ("kw_group", "Keyword in its ad group", "1 where the keyword j adds goes to i's ad group."),
+        ("src_in", "Sells in its campaign", "1 where j is in i's campaign and sold in the period."),
+        ("src_group", "In its ad group", "1 where j is in i's campaign and ad group."),
+        ("same_term", "Same term", "1 where both terms are the same after normalisation."))],
+    ColumnDef("hit", "Blocks", "int", "1 where, with today's Finals and settings, the negative blocks j.",
+              lambda df, ctx: pd.Series(clash_hits(df, ctx.terms, ctx.settings), index=df.index, dtype=float),
+              '=IF(%s="block",IF(AND(OR({c:same_term}=1,INDEX({rng:terms.words},{c:i})<phrase_below_words),'
+              'OR(AND(%s=1,{c:kw_in}=1,OR(negative_level="campaign",{c:kw_group}=1)),AND(INDEX({rng:terms.orders},'
+              '{c:j})>0,{c:src_in}=1,OR(negative_level="campaign",{c:src_group}=1)))),1,0),IF(AND(%s="promote",'
+              '%s=1,{c:kw_group}=1,{c:same_term}=1),1,0))' % (_FINAL_I, _ADDS_J, _FINAL_I, _ADDS_J), width=8),
+]
+
+
+def plan_keys(keys: KeyTable, clashes: Table | None = None) -> tuple[Sheet, dict[str, str]]:
+    """The Keys sheet: found keys sorted by number, with what each says (a lookup table), then the clashes."""
+    from sheetbuilder.workbook.spec import Column
+    numbers = sorted(keys.found)
+    columns = [Column("Key", "int", DATA, numbers, width=10),
+               Column("Found", "text", DATA, [keys.found[k] for k in numbers], width=40)]
+    sheet = Sheet(KEYS_SHEET, above=[[Cell("Lookup keys: existing exact keywords and negatives, by number", style="title")]],
+                  table=Table(2, columns), freeze=(3, 0), tab_color="#8C8C8C", more=[clashes] if clashes else [])
+    first, last = 3, 2 + max(len(numbers), 1)
+    return sheet, {"keys.key": range_ref(KEYS_SHEET, 0, first, last), "keys.found": range_ref(KEYS_SHEET, 1, first, last)}

@@ -1,0 +1,672 @@
+"""Carrying a user's edits from last week's workbook into this week's.
+
+Two steps, kept apart so that the second is pure:
+
+1. :func:`read_edits` opens the OLD workbook read-only (it is never written) and
+   collects every cell a user types: the live settings, the catalog's input cells on
+   ``in_catalog``, Profit's "Your target ACoS", and the typed column of every table in
+   :data:`sheetbuilder.weekly.saved.DECISION_TABLES`.
+2. :func:`apply_edits` matches them against the NEW inputs: an edit whose row still
+   exists is carried, one whose product, target or term is gone is *unmatched*, and an
+   edit that is not a valid value (text in a cost, a setting out of bounds) is
+   unmatched too, with the reason.
+
+Every column is found by its workbook-level defined name (see :mod:`sheetbuilder.weekly.saved`),
+so a renamed header, an inserted column or sorted rows still read. Without the names (an
+older workbook), header rows are found by scanning the first rows of each sheet for the
+headers the planners declare. A typed column found by neither is reported, never skipped.
+Adding a sheet with a typed column is one ``EDITABLE_COLUMNS`` declaration in its planner
+and one entry in :data:`sheetbuilder.weekly.saved.DECISION_TABLES`.
+"""
+from __future__ import annotations
+
+import math
+import numbers
+import datetime as dt
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+from typing import Any, Callable, Iterable, Mapping, Sequence
+
+import pandas as pd
+from openpyxl.utils.cell import coordinate_to_tuple
+
+from sheetbuilder.workbook.columns import EditableColumns
+from sheetbuilder.reading.normalise import normalise
+from sheetbuilder.sheets.inputs import CATALOG_NAME, EDITABLE, EXPORTED
+from sheetbuilder.workbook.render import stored_text
+from sheetbuilder.weekly.saved import (BUDGET_CAMPAIGNS, CARRIED_NAME, DECISION_TABLES, PROFIT, SavedBook,
+                                       SavedWorkbookUnreadable, named_columns)
+from sheetbuilder.reading.settings import SETTINGS, Settings, _coerce
+
+SCAN_ROWS = 10  # header rows are looked for in the first rows of a sheet
+SETTINGS_SHEET = "Settings"
+CATALOG_SHEET = "in_catalog"
+CATALOG_COLUMNS = tuple(sorted(EDITABLE["catalog"]))
+MONEY_COLUMNS = ("price", "unit_cost", "fees_per_unit")  # blank money is read as 0
+PERCENT_COLUMNS = ("target_acos", "margin")  # blank means "not given"
+TARGET_BOUNDS = (0.0, 5.0)  # as default_target_acos
+PreviousWorkbookUnreadable = SavedWorkbookUnreadable  # the previous workbook is missing or unreadable
+
+
+def _text(value: Any, fold_plurals: bool = False) -> str:
+    """A key part compared as text: trimmed, None as blank, 12.0 as '12'."""
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return ""
+    if isinstance(value, float) and value.is_integer():
+        value = int(value)
+    return str(value).strip()
+
+
+def _term(value: Any, fold_plurals: bool = False) -> str:
+    """A search term compared as the Terms sheet compares it (:func:`normalise`)."""
+    return normalise(_text(value), fold_plurals)
+
+
+@dataclass(frozen=True)
+class Key:
+    """One key column of an edit sheet: its header there, its input column, how it is compared."""
+
+    header: str
+    column: str
+    norm: Callable[[Any, bool], str] = _text
+
+
+@dataclass(frozen=True)
+class EditSheet:
+    """A table whose typed column is carried, as its planner declares it, with how its keys compare.
+
+    Args:
+        decl: the planner's declaration (label, sheet, names, keys, typed column, input tables).
+        keys: the key columns, in key order.
+        scan_rows: how many top rows to scan for the header row when the defined names are gone.
+    """
+
+    decl: EditableColumns
+    keys: tuple[Key, ...]
+    scan_rows: int = SCAN_ROWS
+
+    @property
+    def label(self) -> str:
+        """The name edits of this table are kept under."""
+        return self.decl.label
+
+    @property
+    def sheet(self) -> str:
+        """The sheet it is on."""
+        return self.decl.sheet
+
+    @property
+    def tables(self) -> tuple[str, ...]:
+        """The input tables whose rows make a key exist."""
+        return self.decl.inputs
+
+    @property
+    def value_header(self) -> str:
+        """The typed column's header as built."""
+        return self.decl.headers[self.decl.value]
+
+    def key_of(self, parts: Sequence[Any], fold_plurals: bool) -> tuple[str, ...]:
+        """The compared key of key values as a saved workbook gives them back (in key order)."""
+        return tuple(k.norm(v, fold_plurals) for k, v in zip(self.keys, parts))
+
+    def export_key(self, parts: Sequence[Any], fold_plurals: bool) -> tuple[str, ...]:
+        """The compared key of key values as an export gives them: first put in the form a cell stores
+        (cut to 32,767 characters with a mark, control characters escaped), as the workbook held them."""
+        return self.key_of([stored_text(v) if isinstance(v, str) else v for v in parts], fold_plurals)
+
+
+def edit_sheet(decl: EditableColumns, scan_rows: int = SCAN_ROWS) -> EditSheet:
+    """The EditSheet of a planner's declaration."""
+    keys = tuple(Key(decl.headers[k], column, _term if k in decl.normalised else _text)
+                 for k, column in zip(decl.keys, decl.input_columns))
+    return EditSheet(decl, keys, scan_rows)
+
+
+DECISION_SHEETS: tuple[EditSheet, ...] = tuple(
+    edit_sheet(d, 100_000 if d is BUDGET_CAMPAIGNS else SCAN_ROWS) for d in DECISION_TABLES)
+PROFIT_TARGET = edit_sheet(PROFIT)
+
+
+@dataclass(frozen=True)
+class Edits:
+    """What a user typed in a workbook, as plain values keyed as the sheets show them.
+
+    Attributes:
+        source: the workbook read.
+        settings: {setting key: cell value} for every live setting found by its defined name.
+        catalog: {(product_id, column): cell value} for every in_catalog input cell (blank as None).
+        targets: {product_id: value} for every non-blank Profit "Your target ACoS".
+        decisions: {label: {raw key tuple: value}} for every non-blank typed cell, per
+            :data:`DECISION_SHEETS` entry.
+        lost: (label, why) of every typed column the workbook has the sheet of but that could
+            not be found (neither its defined name nor its header).
+        first_typed: {(sheet, key, column): date} from the workbook's Carried edits sheet.
+        built_on: the workbook's build date (the week an edit not yet on Carried edits was typed).
+    """
+
+    source: str
+    settings: dict = field(default_factory=dict)
+    catalog: dict = field(default_factory=dict)
+    targets: dict = field(default_factory=dict)
+    decisions: dict = field(default_factory=dict)
+    lost: list = field(default_factory=list)
+    first_typed: dict = field(default_factory=dict)
+    built_on: Any = None
+
+
+@dataclass(frozen=True)
+class CarryRecord:
+    """One edit carried or not: sheet, key as text, column, value, and why.
+
+    Carried and applied edits also hold the value the export (or settings.toml) gives,
+    the build date of the week it was first typed, and the compared key of its row.
+    """
+
+    sheet: str
+    key: str
+    column: str
+    value: Any
+    why: str
+    exported: Any = None
+    first_typed: Any = None
+    compared: tuple = ()
+
+
+@dataclass(frozen=True)
+class CarryResult:
+    """The edits matched against the new inputs.
+
+    Attributes:
+        settings: the new build's settings with the carried values in place.
+        settings_changed: {key: (value from settings.toml or the default, carried value)}.
+        catalog: {(product_id, column): value} where the old workbook's value differs from the export's.
+        targets: {product_id: target ACoS} for Profit's "Your target ACoS".
+        decisions: {sheet: {compared key: value}} (keys as :meth:`EditSheet.key_of` makes them).
+        carried: every edit that changes something in the new build.
+        unmatched: every edit that could not be carried, with why.
+        as_built: the settings from settings.toml and the defaults, before carrying.
+        exported: {table: frame as the export held it} for tables whose values were carried over.
+        source: the previous workbook's path.
+        applied: every typed number this week's export shows applied (it expires: the cell is left blank).
+        inputs_as_saved: the planned inputs were read back from a saved workbook (their text already in
+            the form a cell stores), not from exports.
+    """
+
+    settings: Settings
+    settings_changed: dict = field(default_factory=dict)
+    catalog: dict = field(default_factory=dict)
+    targets: dict = field(default_factory=dict)
+    decisions: dict = field(default_factory=dict)
+    carried: list = field(default_factory=list)
+    unmatched: list = field(default_factory=list)
+    as_built: Settings | None = None
+    exported: dict = field(default_factory=dict)
+    source: str = ""
+    applied: list = field(default_factory=list)
+    inputs_as_saved: bool = False
+
+
+# ---------------------------------------------------------------------------------------------- reading
+
+def _blank(value: Any) -> bool:
+    return value is None or (isinstance(value, str) and value.strip() == "") or (
+        isinstance(value, float) and math.isnan(value))
+
+
+def _header_index(rows: list[list[Any]], wanted: Sequence[str], scan: int) -> int | None:
+    """The 0-based index of the first row (of the first scan) holding every wanted header."""
+    for i, row in enumerate(rows[:scan]):
+        texts = {_text(v) for v in row}
+        if all(w in texts for w in wanted):
+            return i
+    return None
+
+
+def _value_column(header: list[Any], key_cols: list[int], value_header: str) -> int:
+    """The value column: the first value_header right of the last key column, else the first one."""
+    texts = [_text(v) for v in header]
+    right = [i for i, t in enumerate(texts) if t == value_header and i > max(key_cols)]
+    return right[0] if right else texts.index(value_header)
+
+
+def _cell(row: list[Any], col: int) -> Any:
+    return row[col] if col < len(row) else None
+
+
+def _located(wb, rows_of: Callable[[str], list[list[Any]]], names: dict[str, str], headers: dict[str, str],
+             sheet: str, scan: int, value_key: str) -> tuple[list[list[Any]], dict[str, int]] | None:
+    """(body rows, {key: column}) of a table: by its defined names, else by its header row; None when neither."""
+    areas = named_columns(wb, names)
+    if areas is not None:  # only these columns are read; a formula with no saved value is told from a blank
+        area = next(iter(areas.values()))
+        cols = {k: a.first_col for k, a in areas.items()}
+        return rows_of(area.sheet, frozenset(cols.values()), True)[area.first_row:area.last_row + 1], cols
+    rows = rows_of(sheet)
+    at = _header_index(rows, list(headers.values()), scan)
+    if at is None:
+        return None
+    texts = [_text(v) for v in rows[at]]
+    cols = {k: texts.index(h) for k, h in headers.items() if k != value_key}
+    if value_key in headers:
+        cols[value_key] = _value_column(rows[at], list(cols.values()), headers[value_key])
+    body = []
+    for row in rows[at + 1:]:  # a block ends at its first row with blank keys
+        if all(_blank(_cell(row, c)) for k, c in cols.items() if k != value_key):
+            break
+        body.append(row)
+    return body, cols
+
+
+def _read_block(wb, rows_of, entry: EditSheet) -> dict[tuple, Any] | None:
+    """{raw key tuple: value} of every non-blank typed cell of a table; None when the table was not found."""
+    decl = entry.decl
+    wanted = (*decl.keys, decl.value)
+    names = {k: decl.name_of(k) for k in wanted}
+    headers = {k: decl.headers[k] for k in wanted}
+    found = _located(wb, rows_of, names, headers, decl.sheet, entry.scan_rows, decl.value)
+    if found is None:
+        return None
+    body, cols = found
+    out: dict[tuple, Any] = {}
+    for row in body:
+        parts = tuple(_cell(row, cols[k]) for k in decl.keys)
+        value = _cell(row, cols[decl.value])
+        if all(_blank(p) for p in parts) or _blank(value):
+            continue
+        out[parts] = value
+    return out
+
+
+AS_BUILT_COLUMN = 4    # Settings keeps each value as built in its fifth column, headed "As built"
+
+
+def _has_as_built(rows: list[list[Any]]) -> bool:
+    return any(len(r) > AS_BUILT_COLUMN and r[AS_BUILT_COLUMN] == "As built" for r in rows[:SCAN_ROWS])
+
+
+def _settings_cells(wb, rows_of: Callable[[str], list[list[Any]]]) -> dict[str, Any]:
+    """{key: value} of every live setting whose defined name points at a cell."""
+    out: dict[str, Any] = {}
+    for spec in SETTINGS:
+        if not spec.live or spec.key not in wb.defined_names:
+            continue
+        for sheet, coord in wb.defined_names[spec.key].destinations:
+            if sheet not in wb.sheetnames:
+                continue
+            r, c = coordinate_to_tuple(coord.replace("$", ""))
+            rows = rows_of(sheet)
+            value = rows[r - 1][c - 1] if r <= len(rows) and c <= len(rows[r - 1]) else None
+            built = rows[r - 1][AS_BUILT_COLUMN] if r <= len(rows) and AS_BUILT_COLUMN < len(rows[r - 1]) else None
+            if _has_as_built(rows) and _same(value, built):
+                break  # not typed by the user: this week's settings.toml decides
+            out[spec.key] = value
+            break
+    return out
+
+
+def _catalog_cells(wb, rows_of) -> dict[tuple[str, str], Any]:
+    """{(product_id, column): value} of every in_catalog input cell that differs from its exported_ twin."""
+    wanted = ("product_id", *CATALOG_COLUMNS, *(EXPORTED + c for c in CATALOG_COLUMNS))
+    areas = named_columns(wb, {c: f"{CATALOG_NAME}_{c}" for c in wanted})
+    if areas is not None:
+        area = areas["product_id"]
+        cols = {k: a.first_col for k, a in areas.items()}
+        body = rows_of(area.sheet, frozenset(cols.values()))[area.first_row:area.last_row + 1]
+    else:  # no names: by header text; an older layout without exported_ columns compares with the export
+        rows = rows_of(CATALOG_SHEET)
+        at = _header_index(rows, ["product_id"], SCAN_ROWS)
+        if at is None:
+            return {}
+        texts = [_text(v) for v in rows[at]]
+        cols = {c: texts.index(c) for c in wanted if c in texts}
+        body = rows[at + 1:]
+    out: dict[tuple[str, str], Any] = {}
+    for row in body:
+        pid = _cell(row, cols["product_id"])
+        if _blank(pid):
+            if areas is None:
+                break
+            continue
+        for column in CATALOG_COLUMNS:
+            if column not in cols:
+                continue
+            value = _cell(row, cols[column])
+            twin = cols.get(EXPORTED + column)
+            if twin is not None and _same(value, _cell(row, twin)):
+                continue  # as exported: this week's export decides
+            out[(_text(pid), column)] = None if _blank(value) else value
+    return out
+
+
+def read_edits(path: Path) -> Edits:
+    """Everything a user types in the workbook at path; the file is only read.
+
+    Raises:
+        PreviousWorkbookUnreadable: path is missing or not a readable .xlsx file.
+    """
+    with SavedBook(path) as book:
+        return edits_in(book)
+
+
+def _was_built(wb, rows_of, entry: EditSheet) -> bool:
+    """Whether a typed column that could not be found was in the workbook (its name exists but is broken,
+    or a header row holds its key headers): a table the build did not write (no rows) is not lost."""
+    if entry.decl.name_of(entry.decl.value) in wb.defined_names:
+        return True
+    if entry.sheet not in wb.sheetnames:
+        return False
+    return _header_index(rows_of(entry.sheet), [k.header for k in entry.keys], entry.scan_rows) is not None
+
+
+def edits_in(book: SavedBook) -> Edits:
+    """Everything a user typed in an opened saved workbook (see :func:`read_edits`)."""
+    wb, rows_of = book.wb, book.rows
+    settings = _settings_cells(wb, rows_of)
+    catalog = _catalog_cells(wb, rows_of)
+    lost: list[tuple[str, str]] = []
+    decisions: dict[str, dict] = {}
+    targets: dict[str, Any] = {}
+    for entry in (*DECISION_SHEETS, PROFIT_TARGET):
+        found = _read_block(wb, rows_of, entry)
+        if found is None:
+            if _was_built(wb, rows_of, entry):
+                lost.append((entry.label, f"its {entry.value_header!r} column was not found: the workbook "
+                                          f"has no defined name {entry.decl.name_of(entry.decl.value)} and no "
+                                          f"header row reading {', '.join(entry.decl.headers.values())}"))
+            continue
+        if entry is PROFIT_TARGET:
+            targets = {_text(k[0]): v for k, v in found.items()}
+        elif found:
+            decisions.setdefault(entry.label, {}).update(found)
+    built = book.named_value("built_on")
+    return Edits(str(book.path), settings, catalog, targets, decisions, lost, _first_typed(book),
+                 built.date() if isinstance(built, dt.datetime) else built)
+
+
+def _first_typed(book: SavedBook) -> dict[tuple[str, str, str], Any]:
+    """{(sheet, key, column): date first typed} from the Carried edits sheet, found by its defined names."""
+    keys = ("sheet", "key", "column", "first_typed")
+    areas = named_columns(book.wb, {k: f"{CARRIED_NAME}_{k}" for k in keys})
+    if areas is None:
+        return {}
+    area = areas["sheet"]
+    out = {}
+    for row in book.rows(area.sheet)[area.first_row:area.last_row + 1]:
+        sheet, key, column, first = (_cell(row, areas[k].first_col) for k in keys)
+        if not _blank(sheet):
+            out[(_text(sheet), _text(key), _text(column))] = first.date() if isinstance(first, dt.datetime) else first
+    return out
+
+
+# --------------------------------------------------------------------------------------------- applying
+
+def _is_number(value: Any) -> bool:
+    return isinstance(value, numbers.Real) and not isinstance(value, bool) and not (
+        isinstance(value, float) and math.isnan(value))
+
+
+def _same(a: Any, b: Any) -> bool:
+    """Whether two cell values are the same (blank = NaN = None; numbers within rounding)."""
+    if _blank(a) and _blank(b):
+        return True
+    if _is_number(a) and _is_number(b):
+        return math.isclose(float(a), float(b), rel_tol=1e-12, abs_tol=1e-9)
+    return a == b
+
+
+def _shown(value: Any) -> str:
+    return "blank" if _blank(value) else f"{value:g}" if _is_number(value) else repr(value)
+
+
+def _tables(inputs_tables: Any) -> Mapping[str, pd.DataFrame | None]:
+    """inputs.tables, or an Inputs object."""
+    return getattr(inputs_tables, "tables", inputs_tables)
+
+
+def _existing(entry: EditSheet, tables: Mapping[str, pd.DataFrame | None], fold: bool) -> set[tuple] | None:
+    """The compared keys that exist in the new inputs, or None when none of the entry's tables was given."""
+    found: set[tuple] | None = None
+    for name in entry.tables:
+        frame = tables.get(name)
+        if frame is None:
+            continue
+        found = found or set()
+        columns = [k.column for k in entry.keys]
+        if not all(c in frame.columns for c in columns):
+            continue
+        found.update(entry.export_key(parts, fold) for parts in frame[columns].itertuples(index=False, name=None))
+    return found
+
+
+def _key_text(parts: Iterable[Any]) -> str:
+    return " / ".join(_text(p) for p in parts)
+
+
+def _carry_settings(edits: Edits, settings: Settings, carried: list, unmatched: list) -> tuple[Settings, dict]:
+    values: dict[str, Any] = {}
+    for spec in SETTINGS:
+        if not spec.live or spec.key not in edits.settings:
+            continue
+        raw = edits.settings[spec.key]
+        if spec.kind == "date" and _blank(raw):
+            value = None
+        else:
+            value, problem = _coerce(spec, raw, SETTINGS_SHEET)
+            if problem:
+                unmatched.append(CarryRecord(SETTINGS_SHEET, spec.key, "Value", raw, problem.message))
+                continue
+        if not _same(value, settings.value(spec.key)):
+            values[spec.key] = value
+    for low, high in (("thin_margin", "strong_margin"), ("bid_floor", "bid_ceiling")):
+        if low in values or high in values:
+            lo, hi = values.get(low, settings.value(low)), values.get(high, settings.value(high))
+            if lo > hi:
+                for key in (low, high):
+                    if key in values:
+                        unmatched.append(CarryRecord(SETTINGS_SHEET, key, "Value", values.pop(key),
+                                                     f"would put {low} ({lo:g}) above {high} ({hi:g})"))
+    changed = {k: (settings.value(k), v) for k, v in values.items()}
+    for key, (old, new) in changed.items():
+        carried.append(CarryRecord(SETTINGS_SHEET, key, "Value", new,
+                                   f"replaces {_shown(old)} from settings.toml or the default", old))
+    return settings.replace(**values), changed
+
+
+def _carry_catalog(edits: Edits, tables, carried: list, unmatched: list) -> dict:
+    frame = tables.get("catalog")
+    if frame is None:
+        frame = pd.DataFrame(columns=["product_id"])
+    by_id = {_text(p): i for i, p in enumerate(frame["product_id"])}
+    out: dict[tuple[str, str], Any] = {}
+    gone: dict[str, list[str]] = {}
+    for (pid, column), value in edits.catalog.items():
+        if pid not in by_id:
+            if not _blank(value):
+                gone.setdefault(pid, []).append(f"{column} {_shown(value)}")
+            continue
+        new = frame[column].iloc[by_id[pid]] if column in frame.columns else None
+        if _blank(value) and column in MONEY_COLUMNS:
+            value = 0.0
+        if _same(value, new):
+            continue
+        if not _blank(value) and not _is_number(value):
+            unmatched.append(CarryRecord(CATALOG_SHEET, pid, column, value, "not a number"))
+            continue
+        if _is_number(value) and value < 0 and column != "margin":
+            unmatched.append(CarryRecord(CATALOG_SHEET, pid, column, value, "negative; only a margin may be"))
+            continue
+        value = None if _blank(value) else float(value)
+        out[(pid, column)] = value
+        carried.append(CarryRecord(CATALOG_SHEET, pid, column, value,
+                                   f"differs from this export's {_shown(new)}", exported=new))
+    for pid, cells in gone.items():  # one record per product: the old cells cannot tell typed from exported
+        unmatched.append(CarryRecord(CATALOG_SHEET, pid, "catalog inputs", "; ".join(cells),
+                                     "the product is no longer in the catalog"))
+    return out
+
+
+def _carry_targets(edits: Edits, tables, fold: bool, carried: list, unmatched: list) -> dict:
+    existing = _existing(PROFIT_TARGET, tables, fold) or set()
+    out: dict[str, float] = {}
+    low, high = TARGET_BOUNDS
+    for pid, value in edits.targets.items():
+        column = PROFIT_TARGET.value_header
+        if (pid,) not in existing:
+            unmatched.append(CarryRecord(PROFIT_TARGET.sheet, pid, column, value, "the product is no longer in the exports"))
+        elif not _is_number(value) or not low <= value <= high:
+            unmatched.append(CarryRecord(PROFIT_TARGET.sheet, pid, column, value,
+                                         f"expected a target ACoS from {low:.0%} to {high:.0%}"))
+        else:
+            out[pid] = float(value)
+            carried.append(CarryRecord(PROFIT_TARGET.sheet, pid, column, float(value), "typed last time",
+                                       compared=(pid,)))
+    return out
+
+
+def _current_values(entry: EditSheet, tables, fold: bool) -> dict[tuple, float]:
+    """{compared key: today's value a typed number replaces (summed over the key's rows)} from the new inputs."""
+    column = entry.decl.input_current
+    columns = [k.column for k in entry.keys]
+    for name in entry.tables:
+        frame = tables.get(name)
+        if not column or frame is None or column not in frame.columns or not all(c in frame.columns for c in columns):
+            continue
+        out: dict[tuple, float] = {}
+        for *parts, value in frame[[*columns, column]].itertuples(index=False, name=None):
+            key = entry.export_key(parts, fold)
+            out[key] = out.get(key, 0.0) + (0.0 if _blank(value) else float(value))
+        return out
+    return {}
+
+
+def _applied(typed: Any, current: float | None) -> bool:
+    """Whether this week's export shows a typed number applied: the current value equals it to the cent."""
+    return current is not None and _is_number(typed) and round(float(typed) * 100) == round(float(current) * 100)
+
+
+def _carry_decisions(edits: Edits, tables, fold: bool, carried: list, unmatched: list, applied: list) -> dict:
+    out: dict[str, dict] = {}
+    for entry in DECISION_SHEETS:
+        typed = edits.decisions.get(entry.label)
+        if not typed:
+            continue
+        existing = _existing(entry, tables, fold)
+        current = _current_values(entry, tables, fold)
+        for parts, value in typed.items():
+            if len(parts) != len(entry.keys):
+                continue  # another block of the same sheet
+            key = entry.key_of(parts, fold)
+            text = _key_text(parts)
+            problem = entry.decl.problem(value)
+            if problem is not None:
+                why = problem
+            elif existing is None:
+                why = f"the new exports have no {' or '.join(entry.tables)} table"
+            elif key not in existing:
+                why = f"no longer in the {' or '.join(entry.tables)} export"
+            elif _is_number(value) and _applied(value, current.get(key)):
+                applied.append(CarryRecord(entry.label, text, entry.value_header, value,
+                                           f"applied: this export's {entry.decl.numeric} is {_shown(current[key])}",
+                                           current[key], compared=key))
+                continue
+            else:
+                out.setdefault(entry.label, {})[key] = value
+                why = ("typed last time; not yet applied (this export's {} is {})".format(
+                    entry.decl.numeric, _shown(current[key])) if _is_number(value) and key in current
+                       else "typed last time")
+                carried.append(CarryRecord(entry.label, text, entry.value_header, value, why,
+                                           current.get(key), compared=key))
+                continue
+            unmatched.append(CarryRecord(entry.label, text, entry.value_header, value, why))
+    return out
+
+
+def apply_edits(edits: Edits, inputs_tables: Any, settings: Settings) -> CarryResult:
+    """Match edits against the new inputs: pure, reads and writes nothing.
+
+    Args:
+        edits: what :func:`read_edits` found in the old workbook.
+        inputs_tables: the new inputs' frames (``inputs.tables``, or the Inputs itself).
+        settings: the new build's settings (from settings.toml and the defaults).
+
+    Returns:
+        The carried settings, catalog overrides, targets and decisions, and the records
+        of what was carried and what was not.
+    """
+    tables = _tables(inputs_tables)
+    carried: list[CarryRecord] = []
+    unmatched: list[CarryRecord] = []
+    new_settings, changed = _carry_settings(edits, settings, carried, unmatched)
+    fold = new_settings.fold_plurals
+    catalog = _carry_catalog(edits, tables, carried, unmatched)
+    targets = _carry_targets(edits, tables, fold, carried, unmatched)
+    applied: list[CarryRecord] = []
+    decisions = _carry_decisions(edits, tables, fold, carried, unmatched, applied)
+    for label, why in edits.lost:
+        unmatched.append(CarryRecord(label, "(the whole column)", "", None, why))
+    def dated(records: list[CarryRecord]) -> list[CarryRecord]:
+        return [replace(r, first_typed=edits.first_typed.get((r.sheet, r.key, r.column), edits.built_on))
+                for r in records]
+    return CarryResult(new_settings, changed, catalog, targets, decisions, dated(carried), unmatched, settings,
+                       source=edits.source, applied=dated(applied))
+
+
+# ------------------------------------------------------------------------------------ helpers for the build
+
+def entry_for(sheet: str) -> EditSheet:
+    """The DECISION_SHEETS entry of sheet."""
+    for entry in DECISION_SHEETS:
+        if entry.label == sheet:
+            return entry
+    raise KeyError(sheet)
+
+
+def decision_column(result: CarryResult, sheet: str, rows: Iterable[Sequence[Any]]) -> list[Any]:
+    """The carried Decision of each planned row (None where none), rows as raw key tuples in key order.
+
+    E.g. for Bids: ``decision_column(result, "Bids", zip(f.campaign, f.ad_group, f.target, f.match_type))``.
+    """
+    entry = entry_for(sheet)
+    typed = result.decisions.get(sheet, {})
+    fold = result.settings.fold_plurals
+    key_of = entry.key_of if result.inputs_as_saved else entry.export_key
+    return [typed.get(key_of(parts, fold)) for parts in rows]
+
+
+def carried_catalog(frame: pd.DataFrame, result: CarryResult) -> pd.DataFrame:
+    """A copy of the catalog frame with the carried overrides in place (blank as NaN)."""
+    out = frame.copy()
+    if not result.catalog:
+        return out
+    index = {_text(p): i for i, p in zip(out.index, out["product_id"])}
+    for (pid, column), value in result.catalog.items():
+        if pid in index and column in out.columns:
+            out.loc[index[pid], column] = math.nan if value is None else value
+    return out
+
+
+UNMATCHED_HEADERS = ["Sheet", "Key", "Column", "Value", "Why"]
+
+
+def unmatched_sheet_rows(result: CarryResult) -> list[list[Any]]:
+    """Header and rows of an "Unmatched edits" sheet: Sheet, Key, Column, Value, Why."""
+    return [list(UNMATCHED_HEADERS)] + [[r.sheet, r.key, r.column, r.value, r.why] for r in result.unmatched]
+
+
+def carried_summary(result: CarryResult) -> str:
+    """One paragraph for the command line: how many edits were carried, expired as applied, and not matched."""
+    counts: dict[str, int] = {}
+    for r in result.carried:
+        counts[r.sheet] = counts.get(r.sheet, 0) + 1
+    parts = [f"{n} on {sheet}" for sheet, n in counts.items()]
+    text = f"Carried {len(result.carried)} edit(s) from the previous workbook"
+    text += f" ({', '.join(parts)})." if parts else "."
+    text += (f" {len(result.applied)} typed number(s) expired: this week's export shows them applied." if result.applied
+             else " 0 typed numbers expired as applied.")
+    if result.settings_changed:
+        text += " Settings that now differ from settings.toml: " + ", ".join(
+            f"{k} {_shown(old)} -> {_shown(new)}" for k, (old, new) in result.settings_changed.items()) + "."
+    text += (f" {len(result.unmatched)} edit(s) could not be carried (their product, target or term is gone, "
+             "or the value is not valid); they are listed on the Unmatched edits sheet." if result.unmatched
+             else " 0 edits could not be matched.")
+    return text

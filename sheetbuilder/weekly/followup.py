@@ -1,0 +1,246 @@
+"""What became of last week's changes: the facts the Follow-up sheet is planned from.
+
+:func:`sheetbuilder.weekly.change_list.read_followup` reads last week's workbook (given with ``--previous``) and computes its
+final change list from the inputs and decisions it holds, with the same planning code that
+``changes`` uses (so it does not depend on whether the user ran ``changes``). Each change is
+then looked up in this week's exports: whether it was applied (``yes``, ``no`` or ``cannot
+tell``) and the metrics of its target, term or campaign in both periods. The products' figures
+of last period come from the previous workbook's own Profit table, computed the same way.
+
+When the two builds cannot be compared (the previous period is later than this one, or the
+previous workbook was built from the same exports), no follow-up is made and the reason is
+returned as a warning, so the sheet is skipped rather than showing zeros.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import math
+from dataclasses import dataclass, field
+from typing import Any
+
+import pandas as pd
+
+from sheetbuilder.reading import contract as c
+from sheetbuilder.reading.settings import Settings
+
+YES, NO, CANNOT_TELL = "yes", "no", "cannot tell"
+METRICS = ("clicks", "spend", "orders", "ad_sales")
+COMPARED_TABLES = ("store_sales", "ad_products", "targets", "search_terms")
+
+
+@dataclass(frozen=True)
+class Span:
+    """The days a build's exports cover, both ends included."""
+
+    start: dt.date
+    end: dt.date
+
+    @property
+    def days(self) -> int:
+        """The length in days."""
+        return (self.end - self.start).days + 1
+
+    def overlap(self, other: "Span") -> int:
+        """The days both spans share (0 when none)."""
+        return max(0, (min(self.end, other.end) - max(self.start, other.start)).days + 1)
+
+    def __str__(self) -> str:
+        return f"{self.start.isoformat()} to {self.end.isoformat()} ({self.days} days)"
+
+
+def span_of(settings: Settings, period: Any = None) -> Span | None:
+    """The period a build covers: the exports' dates when read, else the settings' end date and length.
+
+    None when neither is known (no dates in the exports and no period end in the settings).
+    """
+    if period is not None and getattr(period, "start", None) and getattr(period, "end", None):
+        return Span(period.start, period.end)
+    end = getattr(settings, "period_end", None)
+    days = getattr(settings, "period_days", None)
+    if isinstance(end, dt.datetime):
+        end = end.date()
+    if not isinstance(end, dt.date) or not days:
+        return None
+    return Span(end - dt.timedelta(days=int(days) - 1), end)
+
+
+def fold(text: Any) -> str:
+    """Text compared as the exports write it loosely: case folded, whitespace collapsed."""
+    return " ".join(str(text).casefold().split())
+
+
+def _blank(value: Any) -> bool:
+    return value is None or (isinstance(value, float) and math.isnan(value)) or (
+        isinstance(value, str) and value.strip() == "")
+
+
+def _number(value: Any) -> float | None:
+    if _blank(value) or isinstance(value, bool) or isinstance(value, str):
+        return None
+    return float(value)
+
+
+def _cents(value: Any) -> int | None:
+    n = _number(value)
+    return None if n is None else int(round(n * 100))
+
+
+@dataclass
+class Followup:
+    """Last week's change list looked up in this week's exports, and both periods' product figures.
+
+    Attributes:
+        rows: one dict per change: kind, campaign, ad_group, target, match_type, product_id, planned,
+            now, applied, was (last week's current value), target_acos, and <metric>_b / <metric>_n
+            for clicks, spend, orders and ad_sales.
+        products: last period's Profit figures per product id (revenue, ad_spend, tacos, net_profit,
+            status, direction).
+        previous: last period, when known; current: this period, when known.
+        source: the previous workbook's file name.
+    """
+
+    rows: list[dict]
+    products: dict[str, dict]
+    previous: Span | None
+    current: Span | None
+    source: str
+    min_clicks: int = 10
+    notes: list[str] = field(default_factory=list)
+
+    @property
+    def overlap(self) -> int:
+        """Days the two periods share (0 when either is unknown)."""
+        return self.previous.overlap(self.current) if self.previous and self.current else 0
+
+
+def _rows_of(table: pd.DataFrame | None, columns: tuple[str, ...]) -> list[tuple]:
+    """A table's rows over the contract's columns, numbers rounded, for comparing two builds' exports."""
+    if table is None or not len(table):
+        return []
+    rule = c.TABLE_BY_NAME
+    out = []
+    kinds = {}
+    for name in columns:
+        kinds[name] = next((col.kind for t in rule.values() for col in t.columns if col.name == name), c.TEXT)
+    for record in table[list(columns)].itertuples(index=False, name=None):
+        out.append(tuple(round(float(v), 6) if kinds[k] in c.NUMERIC_KINDS and _number(v) is not None
+                         else ("" if _blank(v) else str(v)) for k, v in zip(columns, record)))
+    return sorted(out)
+
+
+def same_exports(before: dict, now: dict) -> bool:
+    """Whether two builds read the same sales and ad exports (row for row, any order)."""
+    for name in COMPARED_TABLES:
+        cols = tuple(col.name for col in c.TABLE_BY_NAME[name].columns)
+        a, b = before.get(name), now.get(name)
+        if (a is None) != (b is None):
+            return False
+        if a is not None and _rows_of(a, tuple(k for k in cols if k in a)) != _rows_of(
+                b, tuple(k for k in cols if k in a)):
+            return False
+    return True
+
+
+def _sums(table: pd.DataFrame | None, mask) -> dict[str, float]:
+    if table is None or not len(table):
+        return {m: 0.0 for m in METRICS}
+    part = table.loc[mask]
+    return {m: float(part[m].astype(float).sum()) for m in METRICS}
+
+
+def _target_mask(table: pd.DataFrame | None, campaign, group, target, match):
+    if table is None or not len(table):
+        return []
+    return ((table["campaign"] == campaign) & (table["ad_group"] == group)
+            & (table["target"].map(fold) == fold(target)) & (table["match_type"] == match))
+
+
+def _phrase_in(words: list[str], term_words: list[str]) -> bool:
+    n = len(words)
+    return any(term_words[i:i + n] == words for i in range(len(term_words) - n + 1)) if n else False
+
+
+def _term_mask(table: pd.DataFrame | None, campaign, group, term, match):
+    """Search-term rows a negative (exact: the same term; phrase: its words in order) stops."""
+    if table is None or not len(table):
+        return []
+    words = fold(term).split()
+    exact = str(match).endswith("exact")
+    hits = table["search_term"].map(lambda t: fold(t).split() == words if exact else _phrase_in(words, fold(t).split()))
+    mask = (table["campaign"] == campaign) & hits
+    if not _blank(group):
+        mask &= table["ad_group"] == group
+    return mask
+
+
+def _applied(change: dict, now: dict) -> tuple[str, Any]:
+    """(Applied, the value this week's exports show) for one change."""
+    kind = change["kind"]
+    targets, negatives, campaigns = now.get("targets"), now.get("negatives"), now.get("campaigns")
+    if kind in ("bid", "add keyword", "add product target"):
+        if targets is None:
+            return CANNOT_TELL, None
+        rows = targets.loc[_target_mask(targets, change["campaign"], change["ad_group"], change["target"],
+                                        change["match_type"])]
+        if kind != "bid":
+            return (YES if len(rows) else NO), (float(rows["bid"].iloc[0]) if len(rows) and
+                                                _number(rows["bid"].iloc[0]) is not None else None)
+        if not len(rows):
+            return NO, None
+        bid = _number(rows["bid"].iloc[-1])
+        return (YES if _cents(bid) == _cents(change["planned"]) else NO), bid
+    if kind == "add negative":
+        if negatives is None:
+            return CANNOT_TELL, None
+        group = "" if _blank(change["ad_group"]) else change["ad_group"]
+        hit = ((negatives["campaign"] == change["campaign"])
+               & (negatives["ad_group"].map(lambda g: "" if _blank(g) else g) == group)
+               & (negatives["term"].map(fold) == fold(change["target"]))
+               & (negatives["match_type"] == change["match_type"]))
+        return (YES if bool(hit.any()) else NO), None
+    if kind == "budget":
+        if campaigns is None:
+            return CANNOT_TELL, None
+        rows = campaigns.loc[campaigns["campaign"] == change["campaign"]]
+        if not len(rows):
+            return NO, None
+        budget = _number(rows["daily_budget"].iloc[-1])
+        return (YES if _cents(budget) == _cents(change["planned"]) else NO), budget
+    return CANNOT_TELL, None
+
+
+def _metrics(change: dict, tables: dict) -> dict[str, float]:
+    """Clicks, spend, orders and ad sales of a change's target, term or campaign in one period's exports."""
+    kind = change["kind"]
+    if kind == "add negative":
+        t = tables.get("search_terms")
+        return _sums(t, _term_mask(t, change["campaign"], change["ad_group"], change["target"], change["match_type"]))
+    if kind == "budget":
+        t = tables.get("ad_products")
+        return _sums(t, [] if t is None or not len(t) else t["campaign"] == change["campaign"])
+    t = tables.get("targets")
+    return _sums(t, _target_mask(t, change["campaign"], change["ad_group"], change["target"], change["match_type"]))
+
+
+def followup_rows(changes: list[dict], before: dict, now: dict, targets: dict[str, float]) -> list[dict]:
+    """Each change with its Applied, this week's value, and its metrics in both periods.
+
+    Args:
+        changes: last week's change list (kind, campaign, ad_group, target, match_type, product_id,
+            current, new).
+        before, now: the two periods' input tables.
+        targets: the target ACoS of each product last week (for a raised bid's outcome).
+    """
+    out = []
+    for ch in changes:
+        row = {k: ("" if _blank(ch.get(k)) else ch.get(k)) for k in
+               ("kind", "campaign", "ad_group", "target", "match_type", "product_id")}
+        row["planned"] = _number(ch.get("new"))
+        row["was"] = _number(ch.get("current"))
+        row["applied"], row["now"] = _applied({**row, "planned": row["planned"]}, now)
+        row["target_acos"] = targets.get(str(row["product_id"]), math.nan)
+        for suffix, tables in (("_b", before), ("_n", now)):
+            for m, v in _metrics(row, tables).items():
+                row[m + suffix] = v
+        out.append(row)
+    return out

@@ -1,0 +1,298 @@
+"""Reading a workbook of ours after a user saved it: one opener, and our tables found by name.
+
+Every table that ``--previous`` (:mod:`sheetbuilder.weekly.carry`) and ``changes``
+(:mod:`sheetbuilder.weekly.changes`) read back is covered by workbook-level defined names written
+at build time: each typed column and its key columns (declared once, as ``EDITABLE_COLUMNS``,
+by the module that plans the sheet), the editable catalog cells, the settings, and the
+Actions list. Spreadsheet programs keep a defined name on its cells when a user renames a
+header, inserts a column or sorts the rows, so the names find the cells where header text
+would not. Header text is the fallback for a workbook without the names.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import html
+import math
+import re
+import zipfile
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+from xml.parsers import expat
+
+import pandas as pd
+from openpyxl.utils.cell import get_column_letter, range_boundaries
+from openpyxl.utils.datetime import from_excel
+
+from sheetbuilder.reading import contract as c
+from sheetbuilder.workbook.columns import NO_SAVED_VALUE, EditableColumns
+from sheetbuilder.reading.guard import guard_saved_workbook
+from sheetbuilder.errors import Problem, SheetbuilderError
+from sheetbuilder.sheets.inputs import sheet_name
+from sheetbuilder.reading.settings import SETTINGS, Settings, _coerce
+from sheetbuilder.sheets.bids import EDITABLE_COLUMNS as BIDS
+from sheetbuilder.sheets.budget import CAMPAIGN_EDITABLE_COLUMNS as BUDGET_CAMPAIGNS, EDITABLE_COLUMNS as BUDGET
+from sheetbuilder.sheets.profit import EDITABLE_COLUMNS as PROFIT
+from sheetbuilder.sheets.terms import EDITABLE_COLUMNS as TERMS
+
+# Every table with a typed column, in the order edits are read and listed.
+DECISION_TABLES: tuple[EditableColumns, ...] = (BIDS, TERMS, BUDGET, BUDGET_CAMPAIGNS)
+EDITABLE_TABLES: tuple[EditableColumns, ...] = (*DECISION_TABLES, PROFIT)
+ACTIONS_NAME = "sb_actions"  # the defined name over the Actions list's body
+CARRIED_NAME = "sb_carried"  # defined names <this>_<column> over the Carried edits table (its first-typed dates)
+
+
+class SavedWorkbookUnreadable(SheetbuilderError):
+    """The workbook is missing or is not an .xlsx file that can be read."""
+
+
+class WorkbookNotFound(SavedWorkbookUnreadable):
+    """The workbook to read does not exist."""
+
+
+class NotAWorkbook(SavedWorkbookUnreadable):
+    """The file is not an .xlsx workbook that can be read."""
+
+
+def open_workbook(path: Path, data_only: bool = True):
+    """The workbook at path opened read-only (never written), or WorkbookNotFound / NotAWorkbook saying why not.
+
+    The one place a saved workbook of ours is opened: ``carry`` and ``changes`` both call it.
+    """
+    import openpyxl
+    from openpyxl.utils.exceptions import InvalidFileException
+    path = Path(path)
+    if not path.is_file():
+        raise WorkbookNotFound(f"the workbook {path} does not exist")
+    guard_saved_workbook(path, NotAWorkbook)  # zip, XML and link limits before openpyxl inflates anything
+    try:
+        return openpyxl.load_workbook(path, read_only=True, data_only=data_only)
+    except (zipfile.BadZipFile, InvalidFileException, KeyError, OSError, ValueError) as exc:
+        raise NotAWorkbook(f"{path} is not an .xlsx workbook that can be read: {exc}") from None
+
+
+@dataclass(frozen=True)
+class Area:
+    """Where a defined name points: a sheet and 0-based, inclusive column and row bounds."""
+
+    sheet: str
+    first_col: int
+    last_col: int
+    first_row: int
+    last_row: int
+
+
+def named_area(wb: Any, name: str) -> Area | None:
+    """The area a workbook-level defined name covers, or None when it is missing, broken or off-sheet."""
+    try:
+        if name not in wb.defined_names:
+            return None
+        destinations = list(wb.defined_names[name].destinations)
+    except (KeyError, ValueError, TypeError, AttributeError):
+        return None
+    for sheet, ref in destinations:
+        if sheet not in wb.sheetnames:
+            continue
+        try:
+            min_col, min_row, max_col, max_row = range_boundaries(ref.replace("$", ""))
+        except (ValueError, TypeError):
+            return None
+        if None in (min_col, min_row, max_col, max_row):
+            return None
+        return Area(sheet, min_col - 1, max_col - 1, min_row - 1, max_row - 1)
+    return None
+
+
+def named_columns(wb: Any, names: dict[str, str]) -> dict[str, Area] | None:
+    """{key: area} for every key's defined name, when all exist as single columns over the same rows of one sheet."""
+    areas = {key: named_area(wb, name) for key, name in names.items()}
+    if any(a is None or a.first_col != a.last_col for a in areas.values()):
+        return None
+    bounds = {(a.sheet, a.first_row, a.last_row) for a in areas.values()}
+    return areas if len(bounds) == 1 else None
+
+
+_CELL = re.compile(r'<c r="([A-Z]+)(\d+)"([^>]*?)(?:/>|>(.*?)</c>)', re.S)
+_VALUE = re.compile(r"<v>(.*?)</v>", re.S)
+_TEXT = re.compile(r"<t(?: [^>]*)?>(.*?)</t>|<t(?: [^>]*)?/>", re.S)
+_PHONETIC = re.compile(r"<rPh\b.*?</rPh>", re.S)
+_TYPE = re.compile(r'\bt="(\w+)"')
+_STYLE = re.compile(r'\bs="(\d+)"')
+
+
+def _column_index(letters: str) -> int:
+    """0-based column of spreadsheet column letters."""
+    n = 0
+    for ch in letters:
+        n = n * 26 + ord(ch) - 64
+    return n - 1
+
+
+def _number(text: str) -> int | float:
+    """A stored number as openpyxl reads it: int when written without a point or exponent."""
+    return float(text) if any(ch in text for ch in ".eE") or text in ("inf", "-inf", "nan") else int(text)
+
+
+class SavedBook:
+    """A saved workbook opened by :func:`open_workbook`, each sheet's cells read once, fast.
+
+    Cells are read with a narrow scan of the sheet's XML (values as openpyxl gives them in
+    read-only, values-only mode: shared, inline and formula strings, numbers, booleans,
+    error text, dates by their number format), only for the columns a caller asks for, so
+    a wide sheet costs what its wanted columns cost. A formula cell with no saved value
+    reads as :data:`sheetbuilder.workbook.columns.NO_SAVED_VALUE` when ``formulas`` is asked for.
+    """
+
+    def __init__(self, path: Path):
+        self.path = Path(path)
+        self.wb = open_workbook(self.path)
+        self._cache: dict[tuple, list[list[Any]]] = {}
+
+    def rows(self, sheet: str, columns: frozenset[int] | None = None, formulas: bool = False) -> list[list[Any]]:
+        """The rows of sheet as lists of values (padded to one width); only columns when given; none if absent."""
+        key = (sheet, columns, formulas)
+        if key not in self._cache:
+            self._cache[key] = self._read(sheet, columns, formulas) if sheet in self.wb.sheetnames else []
+        return self._cache[key]
+
+    def _read(self, sheet: str, columns: frozenset[int] | None, formulas: bool) -> list[list[Any]]:
+        ws = self.wb[sheet]
+        with self.wb._archive.open(ws._worksheet_path) as fh:  # openpyxl's own handle on the file
+            data = fh.read()
+        try:  # the scan below would read a truncated sheet's first rows silently: check the whole is well formed
+            expat.ParserCreate().Parse(data, True)
+        except expat.ExpatError as exc:
+            raise NotAWorkbook(f"{self.path} is not a workbook that can be read: its sheet '{sheet}' is damaged "
+                               f"({exc}); open it in a spreadsheet program and save it again") from None
+        xml = data.decode("utf-8")
+        strings, dates, epoch = ws._shared_strings, self.wb._date_formats, self.wb.epoch
+        found: dict[int, dict[int, Any]] = {}
+        width = 0
+        pattern = _CELL
+        if columns is not None:  # only the wanted columns' cells are matched: the others are skipped in the scan
+            letters = "|".join(get_column_letter(c + 1) for c in sorted(columns))
+            pattern = re.compile(_CELL.pattern.replace("([A-Z]+)", f"({letters})", 1), re.S)
+        for m in pattern.finditer(xml):
+            col = _column_index(m.group(1))
+            attrs, body = m.group(3), m.group(4) or ""
+            kind = _TYPE.search(attrs)
+            kind = kind.group(1) if kind else "n"
+            v = _VALUE.search(body)
+            text = html.unescape(v.group(1)) if v and v.group(1) != "" else None
+            if kind == "inlineStr":
+                value: Any = "".join(html.unescape(t or "") for t in _TEXT.findall(_PHONETIC.sub("", body)))
+            elif text is None:
+                value = NO_SAVED_VALUE if formulas and "<f" in body else None
+            elif kind == "s":
+                value = strings[int(text)]
+            elif kind == "b":
+                value = bool(int(text))
+            elif kind in ("str", "e"):
+                value = text
+            else:
+                value = _number(text)
+                style = _STYLE.search(attrs)
+                if style and int(style.group(1)) in dates:
+                    try:
+                        value = from_excel(value, epoch)
+                    except (OverflowError, ValueError):
+                        value = "#VALUE!"
+            found.setdefault(int(m.group(2)) - 1, {})[col] = value
+            width = max(width, col + 1)
+        last = max(found, default=-1)
+        empty: dict[int, Any] = {}
+        return [[found.get(r, empty).get(c) for c in range(width)] for r in range(last + 1)]
+
+    def named_value(self, name: str) -> Any:
+        """The value of the single cell a defined name points at, or None."""
+        area = named_area(self.wb, name)
+        if area is None:
+            return None
+        rows = self.rows(area.sheet)
+        if area.first_row >= len(rows) or area.first_col >= len(rows[area.first_row]):
+            return None
+        return rows[area.first_row][area.first_col]
+
+    def close(self) -> None:
+        """Close the file."""
+        self.wb.close()
+
+    def __enter__(self) -> "SavedBook":
+        return self
+
+    def __exit__(self, *exc: Any) -> None:
+        self.close()
+
+
+def saved_inputs(book: SavedBook) -> tuple[dict[str, Any], list]:
+    """The input tables as the workbook's in_ sheets hold them (corrections included), in export order.
+
+    Returns:
+        ({table: frame or None}, problems): a Problem for every cell of a number column
+        that does not hold a number (a correction typed as text).
+    """
+    tables: dict[str, Any] = {}
+    problems: list = []
+    for rule in c.TABLES:
+        sheet = sheet_name(rule.name)
+        rows = book.rows(sheet)
+        if sheet not in book.wb.sheetnames or not rows:
+            tables[rule.name] = None
+            continue
+        header = ["" if v is None else str(v) for v in rows[0]]
+        at = {h: i for i, h in enumerate(header) if h}
+        body = [r for r in rows[1:] if any(v is not None and v != "" for v in r)]
+        data: dict[str, list] = {"_row": [int(r[at["source_row"]]) for r in body]}
+        for col in rule.columns:
+            i = at.get(col.name)
+            values = [None if i is None else r[i] for r in body]
+            if col.kind in c.NUMERIC_KINDS:
+                blank = 0.0 if col.kind in (c.COUNT, c.MONEY) else math.nan
+                out = []
+                for n, v in enumerate(values):
+                    if v is None or v == "":
+                        out.append(blank)
+                    elif isinstance(v, (int, float)) and not isinstance(v, bool):
+                        out.append(float(v))
+                    else:
+                        problems.append(Problem(sheet, n + 2, col.name, f"holds {v!r}; expected a number"))
+                        out.append(math.nan)
+                data[col.name] = out
+            else:
+                data[col.name] = ["" if v is None else (v if isinstance(v, str) else _as_text(v)) for v in values]
+        frame = pd.DataFrame(data).sort_values("_row", kind="stable").reset_index(drop=True)
+        for col in rule.columns:
+            frame[col.name] = frame[col.name].astype(float if col.kind in c.NUMERIC_KINDS else object)
+        tables[rule.name] = frame
+    return tables, problems
+
+
+def _as_text(value: Any) -> str:
+    """A number a spreadsheet program stored in a text column, as text (12.0 as '12')."""
+    if isinstance(value, float) and value.is_integer():
+        return str(int(value))
+    return str(value)
+
+
+def saved_settings(book: SavedBook):
+    """(Settings, built_on, problems): every setting as the Settings sheet holds it (typed values included)."""
+    values: dict[str, Any] = {}
+    problems: list = []
+    for spec in SETTINGS:
+        raw = book.named_value(spec.key)
+        if spec.kind == "bool" and isinstance(raw, str):
+            raw = {"yes": True, "no": False}.get(raw.strip().lower(), raw)
+        if raw is None and spec.kind == "date":
+            values[spec.key] = None
+            continue
+        if raw is None:
+            continue
+        value, problem = _coerce(spec, raw, "Settings")
+        if problem is not None:
+            problems.append(problem)
+            continue
+        values[spec.key] = value
+    built = book.named_value("built_on")
+    built_on = built.date() if isinstance(built, dt.datetime) else (built if isinstance(built, dt.date) else
+                                                                    dt.date.today())
+    return Settings().replace(**values), built_on, problems

@@ -1,0 +1,89 @@
+"""Formula text helpers: addresses, template resolution and the portable-function whitelist."""
+from __future__ import annotations
+
+import re
+
+from sheetbuilder.errors import FormulaNotPortable
+
+# Functions that compute the same in Excel 2010+, LibreOffice 7.4, Google Sheets and
+# the `formulas` library, as far as this project uses them.
+PORTABLE_FUNCTIONS = frozenset({
+    "SUM", "SUMIFS", "COUNTIFS", "SUMPRODUCT", "INDEX", "MATCH", "IF", "IFERROR", "AND", "OR", "NOT",
+    "MIN", "MAX", "ROUND", "ROUNDUP", "ROUNDDOWN", "ABS", "LN", "EXP", "CEILING", "FLOOR", "INT", "COUNT",
+    "COUNTA", "ISNUMBER", "ISBLANK", "LEN", "ROWS", "CHOOSE", "LOWER",
+    "SMALL", "LARGE",  # k-th smallest and largest number of a range, text and blanks skipped, in all four
+})
+
+_FUNCTION = re.compile(r"([A-Za-z_][A-Za-z0-9._]*)\(")
+_STRING = re.compile(r'"(?:[^"]|"")*"')
+_PLACEHOLDER = re.compile(r"\{(\w+):([\w.]+)\}")
+
+
+def col_letter(col: int) -> str:
+    """The letters of a 0-based column number: 0 -> A, 26 -> AA."""
+    letters = ""
+    col += 1
+    while col:
+        col, rem = divmod(col - 1, 26)
+        letters = chr(65 + rem) + letters
+    return letters
+
+
+def cell_ref(row: int, col: int, absolute: bool = False) -> str:
+    """A1-style address of a 0-based (row, col)."""
+    if absolute:
+        return f"${col_letter(col)}${row + 1}"
+    return f"{col_letter(col)}{row + 1}"
+
+
+def quote_sheet(name: str) -> str:
+    """A sheet name as a formula reference needs it."""
+    return name if re.fullmatch(r"[A-Za-z_][A-Za-z0-9_]*", name) else "'" + name.replace("'", "''") + "'"
+
+
+def range_ref(sheet: str, col: int, first_row: int, last_row: int) -> str:
+    """An absolute single-column range on sheet, 0-based rows inclusive."""
+    letter = col_letter(col)
+    return f"{quote_sheet(sheet)}!${letter}${first_row + 1}:${letter}${max(last_row, first_row) + 1}"
+
+
+def block_sum(rng: str, first: str, last: str) -> str:
+    """SUM(INDEX(rng,first):INDEX(rng,last)): a block of rows of a sorted range, summed without a per-row search.
+
+    The one definition of the block sum the planners write (templates such as '{rng:targets.spend}' and
+    '{c:first}' are resolved later). Its cost grows with the rows summed, not rows x rows.
+    """
+    return f"SUM(INDEX({rng},{first}):INDEX({rng},{last}))"
+
+
+def functions_in(formula: str) -> set[str]:
+    """The function names a formula calls (text inside string literals ignored)."""
+    return {name.upper() for name in _FUNCTION.findall(_STRING.sub('""', formula))}
+
+
+def check_portable(formula: str) -> None:
+    """Raise FormulaNotPortable when formula calls a function outside the whitelist."""
+    if formula.lstrip("=").startswith("{"):
+        raise FormulaNotPortable(f"array formulas are not used: {formula}")
+    bad = functions_in(formula) - PORTABLE_FUNCTIONS
+    if bad:
+        raise FormulaNotPortable(f"non-portable function(s) {sorted(bad)} in {formula}")
+
+
+def resolve(template: str, lookup: dict[str, dict[str, str]]) -> str:
+    """Replace {kind:key} placeholders by lookup[kind][key]; '{r}' is left for the row.
+
+    kinds used by the planners: 'c' a same-row cell ('D{r}'), 'rng' an absolute
+    range on another sheet, 'tot' an absolute cell of the totals row.
+    """
+    def sub(match: re.Match) -> str:
+        kind, key = match.group(1), match.group(2)
+        if kind == "row":  # filled per row by the planner
+            return match.group(0)
+        try:
+            return lookup[kind][key]
+        except KeyError:
+            raise KeyError(f"unknown placeholder {{{kind}:{key}}} in {template}") from None
+    out = _PLACEHOLDER.sub(sub, template)
+    check_portable(out)
+    return out

@@ -1,0 +1,479 @@
+"""The renderer: the only module that touches the workbook writer.
+
+It takes a WorkbookSpec and writes it, row by row in xlsxwriter's constant_memory
+mode, with every formula's cached value. Formulas go through a narrow fast path (see
+:func:`put_formula`) because every formula this project writes has been checked
+against the portable-function whitelist, which excludes every function that
+xlsxwriter's stock write_formula would rewrite.
+"""
+from __future__ import annotations
+
+import datetime as dt
+import math
+import re
+from contextlib import contextmanager
+from pathlib import Path
+from typing import Any, Callable, Iterator
+
+import pandas as pd
+import xlsxwriter
+from xlsxwriter.exceptions import FileCreateError
+from xlsxwriter.worksheet import CellFormulaTuple, CellRichStringTuple
+from xlsxwriter.xmlwriter import XMLwriter
+
+from sheetbuilder.workbook.formula import cell_ref, check_portable
+from sheetbuilder.workbook.palette import STATES, STYLES, style_properties
+from sheetbuilder.workbook.spec import FORMULA, Cell, Chart, PageSetup, Sheet, Table, Validation, WorkbookSpec
+
+CELL_TEXT_LIMIT = 32_767  # Microsoft, "Excel specifications and limits": characters in a cell
+TRUNCATION_MARK = " [cut: longer than a cell holds]"
+
+Progress = Callable[[str, int, int], None]
+
+
+def workbook_options(tmpdir: Path | None = None) -> dict:
+    """The writer's options: text stays text, no URL or number guessing, lean memory.
+
+    tmpdir is where the writer keeps its temporary files (constant_memory writes each
+    sheet to one); None leaves them in the system temporary folder.
+    """
+    options = {"constant_memory": True, "strings_to_formulas": False, "strings_to_numbers": False,
+               "strings_to_urls": False, "use_future_functions": False}
+    if tmpdir is not None:
+        options["tmpdir"] = str(tmpdir)
+    return options
+
+
+def _utf16_len(text: str) -> int:
+    """Length of text in UTF-16 units, as spreadsheets count it."""
+    return len(text.encode("utf-16-le")) // 2
+
+
+def fit_text(text: str) -> str:
+    """text unchanged if a cell can hold it, else cut with a visible mark."""
+    if len(text) <= CELL_TEXT_LIMIT // 2 or _utf16_len(text) <= CELL_TEXT_LIMIT:
+        return text
+    room = CELL_TEXT_LIMIT - _utf16_len(TRUNCATION_MARK)
+    out, used = [], 0
+    for ch in text:
+        size = 2 if ord(ch) > 0xFFFF else 1
+        if used + size > room:
+            break
+        out.append(ch)
+        used += size
+    return "".join(out) + TRUNCATION_MARK
+
+
+def stored_text(text: str) -> str:
+    """Text as a cell of ours stores it and a reader gives it back: cut to fit, control characters escaped."""
+    return XMLwriter._escape_control_characters(fit_text(text))
+
+
+def put_formula(ws, row: int, col: int, formula: str, fmt, value: Any) -> None:
+    """Store a whitelisted formula as write_formula would, minus its function rewriting.
+
+    Equivalent to Worksheet.write_formula for formulas that call none of the functions
+    xlsxwriter expands (dynamic arrays, newer functions) and are not array formulas;
+    tests check the sheet XML is byte-identical to the stock method's.
+    """
+    if ws._check_dimensions(row, col):
+        raise ValueError(f"cell {row},{col} is outside the sheet")
+    if ws.constant_memory and row > ws.previous_row:
+        ws._write_single_row(row)
+    ws.table[row][col] = CellFormulaTuple(formula[1:] if formula.startswith("=") else formula, fmt, value)
+
+
+def _cached(value: Any) -> Any:
+    """A cached result as the file stores it: NaN and None become blank text."""
+    if value is None or value is pd.NA or (isinstance(value, float) and math.isnan(value)):
+        return ""
+    if isinstance(value, dt.datetime):
+        return (value - dt.datetime(1899, 12, 30)).total_seconds() / 86400
+    if isinstance(value, dt.date):
+        return (value - dt.date(1899, 12, 30)).days
+    if hasattr(value, "item"):  # numpy scalars
+        return value.item()
+    if isinstance(value, str):  # a formula's text result: escaped as xlsxwriter escapes cell text
+        text = XMLwriter._escape_control_characters(fit_text(value))
+        return CachedText(text) if text in ERROR_TEXTS else text
+    return value
+
+
+# The writer stores a formula's cached text that equals one of these as an error value
+# (t="e"); imported text such as a search term "#N/A" must stay text (t="str").
+ERROR_TEXTS = frozenset(("#DIV/0!", "#N/A", "#NAME?", "#NULL!", "#NUM!", "#REF!", "#VALUE!"))
+
+
+class CachedText(str):
+    """A formula's cached text that reads like an error value: compares unequal to the plain error
+    names, so that the writer's error test (``value in error_codes``) fails and it types the cell t="str".
+    """
+
+    def __eq__(self, other: object) -> bool:
+        if type(other) is str and other in ERROR_TEXTS:
+            return False
+        return str.__eq__(self, other)
+
+    __hash__ = str.__hash__
+
+
+def put_value(ws, row: int, col: int, value: Any, fmt) -> None:
+    """Write a plain value: text always as text, numbers, dates, or a formatted blank."""
+    if value is None or value is pd.NA or (isinstance(value, float) and math.isnan(value)):
+        ws.write_blank(row, col, None, fmt)
+    elif isinstance(value, str):
+        text = fit_text(value)
+        if text.startswith("<r>") and text.endswith("</r>"):
+            # xlsxwriter copies a string shaped like "<r>...</r>" into the XML unescaped, as a
+            # rich-text run (both inline and shared strings): store it as one escaped run instead.
+            if ws._check_dimensions(row, col):
+                raise ValueError(f"cell {row},{col} is outside the sheet")
+            run = ('<r><t xml:space="preserve">' + text.replace("&", "&amp;").replace("<", "&lt;")
+                   .replace(">", "&gt;") + "</t></r>")
+            if ws.constant_memory and row > ws.previous_row:
+                ws._write_single_row(row)
+            ws.table[row][col] = CellRichStringTuple(
+                run if ws.constant_memory else ws.str_table._get_shared_string_index(run), fmt, text)
+        else:
+            ws.write_string(row, col, text, fmt)
+    elif isinstance(value, bool):
+        ws.write_boolean(row, col, value, fmt)
+    elif isinstance(value, (dt.date, dt.datetime)):
+        ws.write_datetime(row, col, value if isinstance(value, dt.datetime) else
+                          dt.datetime.combine(value, dt.time()), fmt)
+    else:
+        ws.write_number(row, col, float(value), fmt)
+
+
+def _put_cell(ws, row: int, col: int, cell: Cell | None, formats: dict) -> None:
+    """Write one free-standing cell."""
+    if cell is None:
+        return
+    fmt = formats[cell.style]
+    if cell.link is not None:  # the link first: the cell's own value or formula is then written over its text
+        ws.write_url(row, col, "internal:" + cell.link, fmt, str(cell.value if cell.value is not None else ""))
+    if cell.formula is not None:
+        check_portable(cell.formula)
+        put_formula(ws, row, col, cell.formula, fmt, _cached(cell.value))
+    else:
+        put_value(ws, row, col, cell.value, fmt)
+    if cell.note:
+        ws.write_comment(row, col, cell.note)
+
+
+def _write_rows(ws, first: int, rows: list[list[Cell | None]], formats: dict, heights: dict | None = None) -> int:
+    """Write rows of cells from row first (with the heights given by row); return the next free row."""
+    for i, cells in enumerate(rows):
+        if heights and first + i in heights:
+            ws.set_row(first + i, heights[first + i])
+        for col, cell in enumerate(cells):
+            _put_cell(ws, first + i, col, cell, formats)
+    return first + len(rows)
+
+
+class OverlappingBlocks(RuntimeError):
+    """Two blocks of a sheet were planned over the same rows (an internal error, never the user's)."""
+
+
+def _write_table(ws, table: Table, row: int, formats: dict, state_formats: dict, progress: Progress | None,
+                 sheet_name: str, first: bool) -> int:
+    """Write a table's title, header, body and totals at its planned first row; return the next free row.
+
+    Raises:
+        OverlappingBlocks: the rows written before reach the table's title or header row (a planning bug:
+            moving the table down would leave its formulas pointing at the planned rows).
+    """
+    top = table.first_row - (1 if table.title else 0)
+    if row > top:
+        raise OverlappingBlocks(f"{sheet_name}: the table {table.title or table.columns[0].header!r} is planned "
+                                f"from row {top + 1}, but the rows above it reach row {row}")
+    row = table.first_row
+    if table.title:
+        ws.write_string(row - 1, 0, table.title, formats["subtitle"])
+    for col, column in enumerate(table.columns):
+        numeric = column.style.split("_")[0] in ("int", "money", "percent", "ratio")
+        ws.write_string(row, col, column.header, formats["header_num" if numeric else "header"])
+    ws.set_row(row, 30)
+    row += 1
+    columns = [(col, c, formats[c.style], c.formula, c.values) for col, c in enumerate(table.columns)]
+    for _, c, _, formula, _ in columns:
+        for text in ([formula] if isinstance(formula, str) else formula or []):
+            check_portable(text)
+    n = table.n_rows
+    step = max(1, n // 50)
+    marked = [(col, c) for col, c in enumerate(table.columns) if c.kind != FORMULA and (c.cell_styles or c.notes)]
+    for i in range(n):
+        r = row + i
+        rs, ps = str(r + 1), str(r)
+        for col, c, fmt, formula, values in columns:
+            if c.kind == FORMULA:
+                text = (formula[i] if isinstance(formula, list) else formula).replace("{r}", rs)
+                if "{p}" in text:  # the previous row, for running counts
+                    text = text.replace("{p}", ps)
+                put_formula(ws, r, col, text, fmt, _cached(values[i]))
+            else:
+                put_value(ws, r, col, values[i], fmt)
+        for col, c in marked:  # cells styled apart (carried values) and their notes, rewritten in the same row
+            if i in c.cell_styles:
+                put_value(ws, r, col, c.values[i], formats[c.cell_styles[i]])
+            if i in c.notes:
+                ws.write_comment(r, col, c.notes[i])
+        if progress and (i % step == 0 or i == n - 1):
+            progress(sheet_name, i + 1, n)
+    if table.autofilter and first:
+        ws.autofilter(table.first_row, 0, table.first_row + max(n, 1), len(table.columns) - 1)
+    for h in table.highlights:
+        if n:
+            rule = ({"type": "text", "criteria": "begins with", "value": h.text} if h.begins else
+                    {"type": "cell", "criteria": "==", "value": '"' + h.text + '"'})
+            ws.conditional_format(row, h.column, row + n - 1, h.column, {**rule, "format": state_formats[h.state]})
+    row += n
+    if table.totals:
+        for col, cell in enumerate(table.totals):
+            _put_cell(ws, row, col, cell, formats)
+        row += 1
+    return row
+
+
+def _widths(sheet: Sheet) -> tuple[dict[int, float], set[int]]:
+    """Column widths (the widest any table asks for) and the columns every table hides."""
+    widths = dict(sheet.widths)
+    tables = [t for t in [sheet.table, *sheet.more] if t]
+    asked: dict[int, float] = {}
+    shown: set[int] = set()
+    hidden: set[int] = set()
+    for t in tables:
+        for i, column in enumerate(t.columns):
+            asked[i] = max(asked.get(i, 0), column.width)
+            (hidden if column.hidden else shown).add(i)
+    for i, w in asked.items():
+        widths.setdefault(i, w)
+    return widths, hidden - shown
+
+
+# A placed block of a sheet: ("rows", first row, rows of cells) or ("table", header row, table).
+Placed = tuple[str, int, Any]
+_RANGE = re.compile(r"^=?(?:'((?:[^']|'')+)'|([^'!]+))!\$?([A-Z]+)\$?(\d+):\$?([A-Z]+)\$?(\d+)$")
+
+
+def _col_number(letters: str) -> int:
+    """The 0-based column of column letters: A -> 0, AA -> 26."""
+    n = 0
+    for ch in letters:
+        n = n * 26 + ord(ch) - 64
+    return n - 1
+
+
+def _placed_value(placed: list[Placed], row: int, col: int) -> Any:
+    """The cached value the sheet holds at (row, col), '' when nothing is written there."""
+    for kind, first, block in placed:
+        if kind == "rows":
+            if first <= row < first + len(block) and col < len(block[row - first]):
+                cell = block[row - first][col]
+                return "" if cell is None else _cached(cell.value)
+        else:
+            table: Table = block
+            if col >= len(table.columns) or row < first:
+                continue
+            if row == first:
+                return table.columns[col].header
+            if row <= first + table.n_rows:
+                return _cached(table.columns[col].values[row - first - 1])
+            if table.totals and row == first + table.n_rows + 1 and col < len(table.totals):
+                cell = table.totals[col]
+                return "" if cell is None else _cached(cell.value)
+    return ""
+
+
+def _range_data(ref: str, placed: dict[str, list[Placed]], numeric: bool) -> list | None:
+    """The cached values a chart range plots, for its data cache; None when the range is not ours."""
+    m = _RANGE.match(ref)
+    if m is None:
+        return None
+    sheet = (m.group(1) or "").replace("''", "'") or m.group(2)
+    if sheet not in placed:
+        return None
+    c1, r1, c2, r2 = _col_number(m.group(3)), int(m.group(4)) - 1, _col_number(m.group(5)), int(m.group(6)) - 1
+    values = [_placed_value(placed[sheet], r, c) for r in range(r1, r2 + 1) for c in range(c1, c2 + 1)]
+    if numeric:  # a blank or a text result is no point (a gap), as in the spreadsheet
+        return [v if isinstance(v, (int, float)) and not isinstance(v, bool) else None for v in values]
+    return [v if isinstance(v, (int, float)) and not isinstance(v, bool) else str(v) for v in values]
+
+
+def chart_names(chart: Chart) -> tuple[list[str], str, str]:
+    """The series' names and the x and y axis titles as written: no series is named exactly like an
+    axis title (Gnumeric 1.12.55 crashes re-opening an .ods converted from such a chart). A lone
+    series so named takes the chart's title; among several, the axis title is left off (the legend
+    names the series)."""
+    names = [s.name for s in chart.series]
+    x_title, y_title = chart.x_title, chart.y_title
+    if len(names) == 1 and names[0] in (x_title, y_title) and chart.title not in (x_title, y_title):
+        names = [chart.title]
+    x_title = "" if x_title in names else x_title
+    y_title = "" if y_title in names else y_title
+    return names, x_title, y_title
+
+
+def _add_chart(wb, ws, chart: Chart, placed: dict[str, list[Placed]]) -> None:
+    """Insert one native chart built from its spec, each series with its cached categories and values
+    (a reader that does not recalculate shows them; constant_memory keeps no cells to cache from)."""
+    c = wb.add_chart({"type": chart.kind})
+    names, x_title, y_title = chart_names(chart)
+    for s, name in zip(chart.series, names):
+        c.add_series({"name": name, "categories": s.categories, "values": s.values,
+                      "categories_data": _range_data(s.categories, placed, numeric=False),
+                      "values_data": _range_data(s.values, placed, numeric=True),
+                      "fill": {"color": s.color}, "border": {"color": s.color}, "gap": 80})
+    c.set_title({"name": chart.title, "name_font": {"size": 11, "bold": True}})
+    value_axis = {"num_format": "0%" if chart.percent else "General",
+                  "major_gridlines": {"visible": True, "line": {"color": "#D9D9D9"}}}
+    x_name, y_name = ({"name": x_title} if x_title else {}), ({"name": y_title} if y_title else {})
+    category_axis = dict(x_name)
+    value_axis.update(y_name)
+    if chart.kind == "bar":  # horizontal bars: the value axis is x
+        c.set_x_axis({**{k: v for k, v in value_axis.items() if k != "name"}, **x_name})
+        c.set_y_axis({**y_name, "reverse": True})
+    else:
+        c.set_x_axis(category_axis)
+        c.set_y_axis(value_axis)
+    c.set_legend({"position": "bottom"})
+    c.set_size({"width": chart.size[0], "height": chart.size[1]})
+    ws.insert_chart(chart.anchor[0], chart.anchor[1], c, {"object_position": 1})
+
+
+def validation_options(v: Validation) -> dict:
+    """The writer's data-validation options of a planned Validation (a blank cell is always accepted)."""
+    rule = v.rule
+    if rule.kind == "number or words":
+        cell = cell_ref(v.row, v.col)  # relative: the rule moves down the column with the cell
+        tests = [f"ISNUMBER({cell})", *(f'{cell}="{w}"' for w in rule.words)]
+        options = {"validate": "custom", "value": "=OR(" + ",".join(tests) + ")"}
+    elif rule.kind == "one of":
+        options = {"validate": "list", "source": list(rule.words)}
+    elif rule.kind in ("decimal", "integer", "date"):
+        options = {"validate": rule.kind, "criteria": "between", "minimum": rule.low, "maximum": rule.high}
+    else:
+        raise ValueError(f"unknown validation rule {rule.kind!r}")
+    for key in ("error_title", "error_message", "input_title", "input_message"):
+        if getattr(v, key):
+            options[key] = getattr(v, key)
+    return options
+
+
+def _set_page(ws, page: PageSetup, last_row: int, last_col: int) -> None:
+    """The sheet's print settings: area, title rows, page breaks, orientation, A4, fit to width, footer."""
+    if page.area is not None:
+        area = page.area
+        ws.print_area(area.first_row, area.first_col, min(area.last_row, max(last_row, area.first_row)),
+                      last_col if area.last_col is None else area.last_col)
+    if page.repeat_rows is not None:
+        ws.repeat_rows(*page.repeat_rows)
+    if page.breaks:
+        ws.set_h_pagebreaks(sorted(set(page.breaks)))
+    if page.landscape:
+        ws.set_landscape()
+    else:
+        ws.set_portrait()
+    ws.set_paper(9)
+    if page.fit_width:
+        ws.fit_to_pages(1, 0)
+    ws.set_margins(0.4, 0.4, 0.5, 0.5)
+
+
+def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress: Progress | None,
+                 placed: list[Placed]) -> Any:
+    """Write one sheet: widths, rows above, its tables, rows below, then its settings; return the worksheet.
+
+    placed receives where each block went, for the charts' data caches.
+    """
+    ws = wb.add_worksheet(sheet.name)
+    widths, hidden = _widths(sheet)
+    for col, width in sorted(widths.items()):
+        ws.set_column(col, col, width, None, {"hidden": col in hidden})
+    placed.append(("rows", 0, sheet.above))
+    row = _write_rows(ws, 0, sheet.above, formats, sheet.heights)
+    last_col = max([len(cells) - 1 for cells in [*sheet.above, *sheet.below]] +
+                   [len(t.columns) - 1 for t in [sheet.table, *sheet.more] if t] + [0])
+    if sheet.table:
+        placed.append(("table", sheet.table.first_row, sheet.table))
+        row = _write_table(ws, sheet.table, row, formats, state_formats, progress, sheet.name, True)
+    for table in sheet.more:
+        placed.append(("table", table.first_row, table))
+        row = _write_table(ws, table, row, formats, state_formats, progress, sheet.name, False)
+    placed.append(("rows", row, sheet.below))
+    last_row = _write_rows(ws, row, sheet.below, formats) - 1
+    for v in sheet.validations:
+        ws.data_validation(v.row, v.col, v.row if v.last_row is None else v.last_row, v.col, validation_options(v))
+    if sheet.freeze:
+        ws.freeze_panes(*sheet.freeze)
+    _set_page(ws, sheet.page_setup(), last_row, last_col)
+    ws.set_footer("&L&A&RPage &P of &N")
+    if sheet.tab_color:
+        ws.set_tab_color(sheet.tab_color)
+    if sheet.hidden:
+        ws.hide()
+    ws.protect("", {"autofilter": True, "sort": True, "format_columns": True, "format_rows": True,
+                    "select_locked_cells": True, "select_unlocked_cells": True, "objects": True})
+    return ws
+
+
+@contextmanager
+def _workbook(path: Path, tmpdir: Path | None) -> Iterator[xlsxwriter.Workbook]:
+    """A writer for path, closed (written) when the block succeeds; on any failure its temporary
+    files are closed and the writer is dropped, and the operating-system error it wrapped is raised as itself.
+    """
+    wb = xlsxwriter.Workbook(str(path), workbook_options(tmpdir or Path(path).parent))
+    try:
+        yield wb
+        wb.close()
+    except BaseException as exc:
+        for ws in wb.worksheets():
+            if getattr(ws, "row_data_fh", None) is not None and not ws.row_data_fh.closed:
+                ws.row_data_fh.close()
+        wb.fileclosed = True  # nothing to close any more: the caller deletes the partial file
+        if isinstance(exc, FileCreateError) and exc.args and isinstance(exc.args[0], OSError):
+            raise exc.args[0] from None
+        raise
+
+
+def render(spec: WorkbookSpec, path: Path, progress: Progress | None = None, tmpdir: Path | None = None) -> None:
+    """Write spec to path (the caller handles temporary names and renaming).
+
+    Args:
+        spec: the planned workbook.
+        path: where to write the .xlsx file.
+        progress: optional callback(sheet name, rows written, rows in the sheet).
+        tmpdir: the folder for the writer's temporary files; path's own folder when None.
+    """
+    with _workbook(path, tmpdir) as wb:
+        formats = {key: wb.add_format(style_properties(key, spec.currency_symbol)) for key in STYLES}
+        state_formats = {name: wb.add_format({"bg_color": s.fill, "font_color": s.font})
+                         for name, s in STATES.items()}
+        placed: dict[str, list[Placed]] = {}
+        written = [(sheet, _write_sheet(wb, sheet, formats, state_formats, progress,
+                                        placed.setdefault(sheet.name, []))) for sheet in spec.sheets]
+        for sheet, ws in written:  # after every sheet, so a chart may cache cells of any sheet
+            for chart in sheet.charts:
+                _add_chart(wb, ws, chart, placed)
+        visible = [ws for ws, sheet in zip(wb.worksheets(), spec.sheets) if not sheet.hidden]
+        if visible:
+            visible[0].activate()
+        for name, ref in spec.names:
+            wb.define_name(name, ref)
+        wb.set_properties({"title": "sheetbuilder workbook", "author": "sheetbuilder", **spec.properties})
+
+
+def render_rows(path: Path, sheet: str, header: list[str], rows: list[list[Any]], tmpdir: Path | None = None) -> None:
+    """Write one plain sheet: a header and rows of values, text always as text (for exports).
+
+    tmpdir is the folder for the writer's temporary files; path's own folder when None.
+    """
+    with _workbook(path, tmpdir) as wb:
+        ws = wb.add_worksheet(sheet)
+        bold = wb.add_format({"bold": True})
+        for c, h in enumerate(header):
+            ws.write_string(0, c, h, bold)
+        for r, row in enumerate(rows, start=1):
+            for c, v in enumerate(row):
+                if v is not None:
+                    put_value(ws, r, c, v, None)
