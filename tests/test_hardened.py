@@ -31,9 +31,10 @@ from sheetbuilder.workbook import atomic
 from sheetbuilder.reading import guard
 from sheetbuilder.weekly.changes import NotAWorkbook, export_changes
 from sheetbuilder.weekly.carry import PreviousWorkbookUnreadable
+from sheetbuilder.weekly.saved import SavedBook, saved_inputs
 from sheetbuilder.cli import main
 from sheetbuilder.workbook.csv_safe import read_csv_rows
-from sheetbuilder.errors import InputProblems, OutputExists, UnsafeOutput
+from sheetbuilder.errors import InputProblems, OutputExists, SheetbuilderError, UnsafeOutput
 from sheetbuilder.pipeline import build
 from sheetbuilder.recalc import libreoffice_convert
 from sheetbuilder.reading.settings import SETTINGS, load_settings
@@ -484,6 +485,19 @@ def test_running_out_of_memory_while_reading_says_so(tmp_path, monkeypatch):
 def test_a_damaged_saved_workbook_is_exported_carried_or_refused_never_a_crash(data):
     assert check_saved_case(data) in {f"{a}/{b}" for a in ("written", "refused") for b in ("written", "refused")}
 
+
+
+def test_a_saved_workbook_without_its_catalog_sheet_is_refused_by_changes_and_previous_not_an_internal_error(tmp_path):
+    # found by the fuzz above: a damaged file whose in_catalog sheet was gone reached planning and failed there
+    write_case(tmp_path / "in", {})
+    build(tmp_path / "in", tmp_path / "book.xlsx", built_on=BUILT_ON)
+    wb = openpyxl.load_workbook(tmp_path / "book.xlsx")
+    del wb["in_catalog"]
+    wb.save(tmp_path / "damaged.xlsx")
+    with SavedBook(tmp_path / "damaged.xlsx") as book, \
+            pytest.raises(SheetbuilderError, match="in_catalog sheet is missing or empty"):
+        saved_inputs(book)
+    assert check_saved_case((tmp_path / "damaged.xlsx").read_bytes()) in {"refused/refused", "refused/written"}
 
 # ---- text out as in ------------------------------------------------------------------------------------
 

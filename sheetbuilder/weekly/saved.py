@@ -26,7 +26,7 @@ from openpyxl.utils.datetime import from_excel
 
 from sheetbuilder.reading import contract as c
 from sheetbuilder.workbook.columns import NO_SAVED_VALUE, EditableColumns
-from sheetbuilder.reading.guard import guard_saved_workbook
+from sheetbuilder.reading.guard import UnreadableWorkbook, guard_saved_workbook
 from sheetbuilder.errors import Problem, SheetbuilderError
 from sheetbuilder.sheets.inputs import sheet_name
 from sheetbuilder.reading.settings import SETTINGS, Settings, _coerce
@@ -264,6 +264,11 @@ def saved_inputs(book: SavedBook) -> tuple[dict[str, Any], list]:
         for col in rule.columns:
             frame[col.name] = frame[col.name].astype(float if col.kind in c.NUMERIC_KINDS else object)
         tables[rule.name] = frame
+    missing = [sheet_name(rule.name) for rule in c.TABLES if rule.required and tables[rule.name] is None]
+    if missing:  # every workbook we build holds them: the file was damaged or edited beyond reading
+        names = f"{' and '.join(missing)} sheet" + ("s are" if len(missing) > 1 else " is")
+        raise UnreadableWorkbook(f"{book.path}: its {names} missing or empty, so the exports it was built from cannot be read; open it in the "
+                                 "spreadsheet program and save it again, or build a new one")
     return tables, problems
 
 
