@@ -31,7 +31,7 @@ from rich.table import Table
 
 from sheetbuilder import __version__
 from sheetbuilder.weekly.carry import carried_summary
-from sheetbuilder.weekly.changes import export_changes
+from sheetbuilder.weekly.changes import COLUMNS as CHANGE_COLUMNS, export_changes
 from sheetbuilder.reading.inspection import inspect_exports, report_lines
 from sheetbuilder.pipeline import build
 from sheetbuilder.errors import ERROR, InputProblems, Problem, SheetbuilderError
@@ -183,8 +183,7 @@ def parser() -> argparse.ArgumentParser:
     b.set_defaults(run=_build)
     ch = sub.add_parser("changes", help="export the changes on a workbook's Actions sheet as CSV or .xlsx",
                         description="Read WORKBOOK (edited and saved by you) and write one row per change on its "
-                                    "Actions sheet: kind, campaign, ad_group, target_or_term, match_type, current, "
-                                    "new, reason. Inconsistent changes (a bid outside the bid floor and ceiling, a "
+                                    f"Actions sheet: {', '.join(CHANGE_COLUMNS)}. Inconsistent changes (a bid outside the bid floor and ceiling, a "
                                     "New that is not a positive number, an added keyword without a destination or "
                                     "in an unknown campaign) are listed with their row and not written. Exit codes: "
                                     "0 every change written; 3 some refused (the valid ones are written); 1 nothing "

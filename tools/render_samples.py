@@ -4,8 +4,8 @@ Usage: python tools/render_samples.py DEMO_INPUTS OUTPUT_DIR [SHEET ...]
        python tools/render_samples.py DEMO_INPUTS OUTPUT_DIR --workbook-only
 
 
-For each sheet, a copy of the workbook with every other sheet hidden is converted to PDF
-by LibreOffice (headless, recalculating on load) and its first page turned into a PNG
+The workbook is printed to PDF by LibreOffice (headless, recalculating on load), and each
+chosen sheet's first page (found by the sheet name its footer carries) is turned into a PNG
 by pdftoppm. Also writes OUTPUT_DIR/demo.xlsx, the demo workbook itself. The Follow-up
 sheet is rendered from next week's demo exports (demo_inputs_week2 beside DEMO_INPUTS, made
 by tools/make_week2.py) built with --previous the demo workbook.
@@ -16,14 +16,13 @@ build the demo (`pipeline.build` on DEMO_DATE).
 """
 from __future__ import annotations
 
-import copy
 import datetime as dt
 import subprocess
 import sys
 import tempfile
 from pathlib import Path
 
-from sheetbuilder.pipeline import build, write_atomically
+from sheetbuilder.pipeline import build
 from sheetbuilder.recalc import libreoffice_convert
 
 DEMO_DATE = dt.date(2026, 12, 2)
@@ -37,33 +36,43 @@ def week2_plan(folder: Path, out: Path):
     return result.plan
 
 
+def first_page_of(pdf: Path, sheet: str) -> int:
+    """The first page of the printed workbook whose footer names sheet (every sheet's footer starts with its name)."""
+    pages = int(next(line.split()[-1] for line in subprocess.run(["pdfinfo", str(pdf)], capture_output=True, text=True,
+                                                                 check=True).stdout.splitlines()
+                     if line.startswith("Pages:")))
+    for page in range(1, pages + 1):
+        text = subprocess.run(["pdftotext", "-f", str(page), "-l", str(page), "-layout", str(pdf), "-"],
+                              capture_output=True, text=True, check=True).stdout
+        lines = [line.strip() for line in text.splitlines() if line.strip()]
+        if lines and lines[-1].startswith(sheet + " ") and "Page " in lines[-1]:
+            return page
+    raise SystemExit(f"{pdf.name}: no printed page of the sheet {sheet}")
+
+
 def main(argv: list[str]) -> int:
     folder, out = Path(argv[0]), Path(argv[1])
     out.mkdir(parents=True, exist_ok=True)
-    plan = build(folder, out / "demo.xlsx", force=True, built_on=DEMO_DATE).plan
+    build(folder, out / "demo.xlsx", force=True, built_on=DEMO_DATE)
     print(f"wrote {out / 'demo.xlsx'}")
     if argv[2:] == ["--workbook-only"]:
         return 0
     sheets = argv[2:] or ["Guide", "Settings", "Profit", "Bids", "Terms", "Harvest", "Negatives", "Mix", "Budget", "Actions", "Follow-up", "Groups"]
-    plans = {name: plan for name in sheets}
+    books = {name: out / "demo.xlsx" for name in sheets}
     if "Follow-up" in sheets:
-        plans["Follow-up"] = week2_plan(folder, out)
+        week2_plan(folder, out)
+        books["Follow-up"] = out / "demo_week2.xlsx"
     with tempfile.TemporaryDirectory() as tmp:
         tmp = Path(tmp)
-        files = []
+        unique = sorted(set(books.values()))
+        pdfs = dict(zip(unique, libreoffice_convert(unique, tmp / "pdf", target="pdf")))
         for name in sheets:
-            spec = copy.deepcopy(plans[name].spec)
-            for sheet in spec.sheets:
-                sheet.hidden = sheet.name != name
-            path = tmp / f"{name.lower()}.xlsx"
-            write_atomically(spec, path, force=True)
-            files.append(path)
-        pdfs = libreoffice_convert(files, tmp / "pdf", target="pdf")
-        for name, pdf in zip(sheets, pdfs):
+            pdf = pdfs[books[name]]
+            page = first_page_of(pdf, name)
             stem = out / f"{name.lower()}"
-            subprocess.run(["pdftoppm", "-png", "-r", "130", "-f", "1", "-l", "1", "-singlefile", str(pdf), str(stem)],
-                           check=True)
-            print(f"wrote {stem}.png")
+            subprocess.run(["pdftoppm", "-png", "-r", "130", "-f", str(page), "-l", str(page), "-singlefile", str(pdf),
+                            str(stem)], check=True)
+            print(f"wrote {stem}.png (page {page} of the printed workbook)")
     return 0
 
 
