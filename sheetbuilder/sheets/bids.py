@@ -203,7 +203,7 @@ DEFS: list[ColumnDef] = [
               lambda df, ctx: apply_decision(df, "proposed", "bid"), decision_formula("proposed", "bid"), width=9),
     fetch("target_check", "Target check", "label",
           "Where a product of the ad group has a target ACoS above its break-even ACoS (see Profit).", hidden=False,
-          width=22),
+          width=27),
     # Working columns, hidden: row positions as data, then the steps of the method.
     ColumnDef("pos", "Position", "int", "Helper: the row's position on this sheet.", lambda df, ctx: df["pos"],
               kind=DATA, width=6, hidden=True),

@@ -229,7 +229,7 @@ DEFS: list[ColumnDef] = [
     ColumnDef("target_check", "Target check", "label",
               "Where the target ACoS is above break-even, each ad-driven sale loses money before any other cost.",
               _target_check, '=IF({c:margin}="","",IF({c:target_acos}>{c:margin},IF(cap_target_at_break_even="yes",'
-              '"%s","%s"),""))' % (ABOVE_CAPPED, ABOVE_UNCAPPED), width=24),
+              '"%s","%s"),""))' % (ABOVE_CAPPED, ABOVE_UNCAPPED), width=40),
     ColumnDef("bid_target", "Bid target ACoS", "percent",
               "The target the bids aim at: the lower of target and break-even ACoS (never below 0) when "
               "cap_target_at_break_even is yes, else the target.", _bid_target,
