@@ -16,6 +16,8 @@ from collections import Counter
 from pathlib import Path
 from typing import Callable
 
+from sheetbuilder.workbook.formula import col_number
+
 Keep = Callable[[str, str], bool]  # (sheet name, formula text) -> keep the formula
 
 _CELL = re.compile(r'<c ([^>]*?)><f>([^<]*)</f>(?:<v>([^<]*)</v>|<v/>)?</c>')
@@ -88,13 +90,6 @@ def make_twin(src: Path, dst: Path, keep: Keep | None = None) -> None:
             zout.writestr(info, data, compress_type=zipfile.ZIP_DEFLATED)
 
 
-def _col_number(letters: str) -> int:
-    n = 0
-    for ch in letters:
-        n = n * 26 + ord(ch) - 64
-    return n
-
-
 def count_cells(path: Path) -> dict:
     """Cells read from the file: formula cells and stored cells per sheet, grid cells, idioms.
 
@@ -116,7 +111,7 @@ def count_cells(path: Path) -> dict:
             if dim:
                 c1, r1, c2, r2 = dim.groups()
                 c2, r2 = (c2 or c1), (r2 or r1)
-                grid += (int(r2) - int(r1) + 1) * (_col_number(c2.decode()) - _col_number(c1.decode()) + 1)
+                grid += (int(r2) - int(r1) + 1) * (col_number(c2.decode()) - col_number(c1.decode()) + 1)
             counts = Counter(idiom(html.unescape(f.decode("utf-8"))) for f in re.findall(rb"<f>([^<]*)</f>", data))
             idioms.update(counts)
             idioms_by_sheet[name] = counts

@@ -22,7 +22,7 @@ from conftest import BUILT_ON, DEMO, ROOT, require_libreoffice
 from oracle_followup import expected_row
 from workbook_io import same
 from sheetbuilder.weekly.changes import COLUMNS, export_changes
-from sheetbuilder.weekly.followup import Span
+from sheetbuilder.reading.periods import Period
 from sheetbuilder.pipeline import build
 from sheetbuilder.sheets.followup import FIRST_TABLE_ROW, SHEET, period_lines
 from sheetbuilder.recalc import libreoffice_convert
@@ -186,8 +186,8 @@ def test_a_rebuild_from_the_same_exports_says_so_and_writes_no_follow_up(scenari
 
 def test_two_30_day_periods_a_week_apart_are_stated_as_sharing_23_days():
     from sheetbuilder.weekly.followup import Followup
-    last = Span(dt.date(2026, 10, 27), dt.date(2026, 11, 25))
-    this = Span(dt.date(2026, 11, 3), dt.date(2026, 12, 2))
+    last = Period(dt.date(2026, 10, 27), dt.date(2026, 11, 25))
+    this = Period(dt.date(2026, 11, 3), dt.date(2026, 12, 2))
     lines = period_lines(Followup([], {}, last, this, "w1.xlsx"))
     assert "Last period: 2026-10-27 to 2026-11-25 (30 days). This period: 2026-11-03 to 2026-12-02 (30 days)." == lines[0]
     assert lines[1].startswith("The periods overlap by 23 days")

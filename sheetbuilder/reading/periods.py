@@ -64,6 +64,10 @@ class Period:
         """The period's length in days, both ends included."""
         return (self.end - self.start).days + 1
 
+    def overlap(self, other: "Period") -> int:
+        """The days both periods share (0 when none)."""
+        return max(0, (min(self.end, other.end) - max(self.start, other.start)).days + 1)
+
     def __str__(self) -> str:
         return f"{self.start.isoformat()} to {self.end.isoformat()} ({self.days} days)"
 

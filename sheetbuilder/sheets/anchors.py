@@ -86,35 +86,27 @@ _CALL = re.compile(r"\b(INDEX|MATCH)\(")
 _READ_ARG = {"INDEX": 0, "MATCH": 1}  # which argument of the call is the range it reads
 
 
-def _split_args(inner: str) -> list[str]:
-    """The arguments of a call, split at commas outside parentheses and quoted text."""
-    args, depth, quoted, last = [], 0, False, 0
-    for i, c in enumerate(inner):
-        if c == '"':
-            quoted = not quoted
-        elif not quoted and c == "(":
-            depth += 1
-        elif not quoted and c == ")":
-            depth -= 1
-        elif not quoted and depth == 0 and c == ",":
-            args.append(inner[last:i])
-            last = i + 1
-    return [*args, inner[last:]]
+def _call_args(formula: str, open_at: int) -> tuple[list[str], int]:
+    """The arguments of the call whose parenthesis is at open_at, and the position of its closing one.
 
-
-def _close(formula: str, open_at: int) -> int:
-    """The position of the parenthesis closing the one at open_at (quoted text skipped)."""
-    depth, quoted = 0, False
+    Commas and parentheses inside quoted text or nested calls do not count.
+    """
+    args, depth, quoted, last = [], 0, False, open_at + 1
     for i in range(open_at, len(formula)):
         c = formula[i]
         if c == '"':
             quoted = not quoted
-        elif not quoted and c == "(":
+        elif quoted:
+            continue
+        elif c == "(":
             depth += 1
-        elif not quoted and c == ")":
+        elif c == ")":
             depth -= 1
             if depth == 0:
-                return i
+                return [*args, formula[last:i]], i
+        elif c == "," and depth == 1:
+            args.append(formula[last:i])
+            last = i + 1
     raise ValueError(f"unbalanced parentheses in {formula}")
 
 
@@ -122,8 +114,7 @@ def _blank_reads(formula: str, absent: set[str]) -> str:
     """formula with every INDEX or MATCH whose range is a table in absent written as ""."""
     out, i = [], 0
     while (m := _CALL.search(formula, i)) is not None:
-        end = _close(formula, m.end() - 1)
-        args = _split_args(formula[m.end():end])
+        args, end = _call_args(formula, m.end() - 1)
         read = args[_READ_ARG[m.group(1)]] if len(args) > _READ_ARG[m.group(1)] else ""
         table = re.fullmatch(r"\{rng:(\w+)\.\w+\}", read.strip())
         out.append(formula[i:m.start()])

@@ -21,6 +21,7 @@ from typing import Any
 import pandas as pd
 
 from sheetbuilder.reading import contract as c
+from sheetbuilder.reading.periods import Period
 from sheetbuilder.reading.settings import Settings
 
 YES, NO, CANNOT_TELL = "yes", "no", "cannot tell"
@@ -28,40 +29,20 @@ METRICS = ("clicks", "spend", "orders", "ad_sales")
 COMPARED_TABLES = ("store_sales", "ad_products", "targets", "search_terms")
 
 
-@dataclass(frozen=True)
-class Span:
-    """The days a build's exports cover, both ends included."""
-
-    start: dt.date
-    end: dt.date
-
-    @property
-    def days(self) -> int:
-        """The length in days."""
-        return (self.end - self.start).days + 1
-
-    def overlap(self, other: "Span") -> int:
-        """The days both spans share (0 when none)."""
-        return max(0, (min(self.end, other.end) - max(self.start, other.start)).days + 1)
-
-    def __str__(self) -> str:
-        return f"{self.start.isoformat()} to {self.end.isoformat()} ({self.days} days)"
-
-
-def span_of(settings: Settings, period: Any = None) -> Span | None:
+def span_of(settings: Settings, period: Any = None) -> Period | None:
     """The period a build covers: the exports' dates when read, else the settings' end date and length.
 
     None when neither is known (no dates in the exports and no period end in the settings).
     """
     if period is not None and getattr(period, "start", None) and getattr(period, "end", None):
-        return Span(period.start, period.end)
+        return Period(period.start, period.end)
     end = getattr(settings, "period_end", None)
     days = getattr(settings, "period_days", None)
     if isinstance(end, dt.datetime):
         end = end.date()
     if not isinstance(end, dt.date) or not days:
         return None
-    return Span(end - dt.timedelta(days=int(days) - 1), end)
+    return Period(end - dt.timedelta(days=int(days) - 1), end)
 
 
 def fold(text: Any) -> str:
@@ -101,8 +82,8 @@ class Followup:
 
     rows: list[dict]
     products: dict[str, dict]
-    previous: Span | None
-    current: Span | None
+    previous: Period | None
+    current: Period | None
     source: str
     min_clicks: int = 10
     notes: list[str] = field(default_factory=list)

@@ -26,6 +26,7 @@ from openpyxl.utils.datetime import from_excel
 
 from sheetbuilder.reading import contract as c
 from sheetbuilder.workbook.columns import NO_SAVED_VALUE, EditableColumns
+from sheetbuilder.workbook.formula import col_number
 from sheetbuilder.reading.guard import UnreadableWorkbook, guard_saved_workbook
 from sheetbuilder.errors import Problem, SheetbuilderError
 from sheetbuilder.sheets.inputs import sheet_name
@@ -120,14 +121,6 @@ _TYPE = re.compile(r'\bt="(\w+)"')
 _STYLE = re.compile(r'\bs="(\d+)"')
 
 
-def _column_index(letters: str) -> int:
-    """0-based column of spreadsheet column letters."""
-    n = 0
-    for ch in letters:
-        n = n * 26 + ord(ch) - 64
-    return n - 1
-
-
 def _number(text: str) -> int | float:
     """A stored number as openpyxl reads it: int when written without a point or exponent."""
     return float(text) if any(ch in text for ch in ".eE") or text in ("inf", "-inf", "nan") else int(text)
@@ -173,7 +166,7 @@ class SavedBook:
             letters = "|".join(get_column_letter(c + 1) for c in sorted(columns))
             pattern = re.compile(_CELL.pattern.replace("([A-Z]+)", f"({letters})", 1), re.S)
         for m in pattern.finditer(xml):
-            col = _column_index(m.group(1))
+            col = col_number(m.group(1))
             attrs, body = m.group(3), m.group(4) or ""
             kind = _TYPE.search(attrs)
             kind = kind.group(1) if kind else "n"

@@ -29,6 +29,14 @@ def col_letter(col: int) -> str:
     return letters
 
 
+def col_number(letters: str) -> int:
+    """The 0-based column number of column letters: A -> 0, AA -> 26 (the inverse of col_letter)."""
+    n = 0
+    for ch in letters:
+        n = n * 26 + ord(ch) - 64
+    return n - 1
+
+
 def cell_ref(row: int, col: int, absolute: bool = False) -> str:
     """A1-style address of a 0-based (row, col)."""
     if absolute:

@@ -21,7 +21,7 @@ from xlsxwriter.exceptions import FileCreateError
 from xlsxwriter.worksheet import CellFormulaTuple, CellRichStringTuple
 from xlsxwriter.xmlwriter import XMLwriter
 
-from sheetbuilder.workbook.formula import cell_ref, check_portable
+from sheetbuilder.workbook.formula import cell_ref, check_portable, col_number
 from sheetbuilder.workbook.palette import STATES, STYLES, style_properties
 from sheetbuilder.workbook.spec import FORMULA, Cell, Chart, PageSetup, Sheet, Table, Validation, WorkbookSpec
 
@@ -256,14 +256,6 @@ Placed = tuple[str, int, Any]
 _RANGE = re.compile(r"^=?(?:'((?:[^']|'')+)'|([^'!]+))!\$?([A-Z]+)\$?(\d+):\$?([A-Z]+)\$?(\d+)$")
 
 
-def _col_number(letters: str) -> int:
-    """The 0-based column of column letters: A -> 0, AA -> 26."""
-    n = 0
-    for ch in letters:
-        n = n * 26 + ord(ch) - 64
-    return n - 1
-
-
 def _placed_value(placed: list[Placed], row: int, col: int) -> Any:
     """The cached value the sheet holds at (row, col), '' when nothing is written there."""
     for kind, first, block in placed:
@@ -293,7 +285,7 @@ def _range_data(ref: str, placed: dict[str, list[Placed]], numeric: bool) -> lis
     sheet = (m.group(1) or "").replace("''", "'") or m.group(2)
     if sheet not in placed:
         return None
-    c1, r1, c2, r2 = _col_number(m.group(3)), int(m.group(4)) - 1, _col_number(m.group(5)), int(m.group(6)) - 1
+    c1, r1, c2, r2 = col_number(m.group(3)), int(m.group(4)) - 1, col_number(m.group(5)), int(m.group(6)) - 1
     values = [_placed_value(placed[sheet], r, c) for r in range(r1, r2 + 1) for c in range(c1, c2 + 1)]
     if numeric:  # a blank or a text result is no point (a gap), as in the spreadsheet
         return [v if isinstance(v, (int, float)) and not isinstance(v, bool) else None for v in values]
