@@ -8,7 +8,10 @@ from __future__ import annotations
 
 import datetime as dt
 import difflib
+import errno
+import os
 import re
+import stat
 import tomllib
 from dataclasses import dataclass, field, fields
 from pathlib import Path
@@ -268,6 +271,92 @@ def _known_tables(columns: dict, files: dict, problems: list[Problem]) -> tuple[
     return kept_columns, kept_files
 
 
+MAX_SETTINGS_BYTES = 1 << 20
+"""settings.toml holds a few dozen lines; a file over 1 MiB is refused before it is read."""
+MAX_SETTINGS_NESTING = 16
+"""Arrays and inline tables nested deeper than this are refused before parsing (ours nest two deep)."""
+
+
+MAX_SETTINGS_ENTRIES = 2_000
+"""Keys and array items counted over the whole file; every setting, column and file name fits in a few hundred."""
+
+
+def count_entries(data: Any) -> int:
+    """Keys and array items in parsed TOML, counted through every table and array."""
+    if isinstance(data, dict):
+        return len(data) + sum(count_entries(v) for v in data.values())
+    if isinstance(data, list):
+        return len(data) + sum(count_entries(v) for v in data)
+    return 0
+
+
+def settings_text(path: Path) -> tuple[str, str | None]:
+    """The text of settings.toml, or a refusal saying why it cannot be read safely.
+
+    The link is followed to a regular file (a link loop, a folder, a pipe or a device is refused),
+    at most MAX_SETTINGS_BYTES are read (a file that grows while read is refused too), the text
+    must be UTF-8, and arrays and inline tables may nest at most MAX_SETTINGS_NESTING deep.
+    """
+    try:
+        target = path.resolve(strict=True)
+        info = os.stat(target)
+    except RuntimeError:
+        return "", "is a link that leads back to itself (a link loop); replace it with the file itself"
+    except OSError as exc:
+        if exc.errno == errno.ELOOP:
+            return "", "is a link that leads back to itself (a link loop); replace it with the file itself"
+        return "", f"cannot be read ({exc.strerror or exc}); check the link or the file's permissions"
+    if not stat.S_ISREG(info.st_mode):
+        return "", "is not a plain file (a folder, a pipe or a device); put the settings text in a file"
+    if info.st_size > MAX_SETTINGS_BYTES:
+        return "", (f"is {info.st_size:,} bytes, more than the {MAX_SETTINGS_BYTES:,} a settings file may hold; "
+                    "keep only the settings you change")
+    try:
+        with open(target, "rb") as handle:
+            raw = handle.read(MAX_SETTINGS_BYTES + 1)
+    except OSError as exc:
+        return "", f"cannot be read ({exc.strerror or exc}); check the file's permissions"
+    if len(raw) > MAX_SETTINGS_BYTES:
+        return "", f"holds more than the {MAX_SETTINGS_BYTES:,} bytes a settings file may hold"
+    try:
+        text = raw.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        return "", f"is not UTF-8 text (byte {exc.start}); save it as UTF-8"
+    depth = nesting_depth(text)
+    if depth > MAX_SETTINGS_NESTING:
+        return "", (f"nests arrays or inline tables {depth} deep, more than {MAX_SETTINGS_NESTING}; "
+                    "settings need at most two levels")
+    return text, None
+
+
+def nesting_depth(text: str) -> int:
+    """The deepest nesting of [ and { in TOML text, outside strings and comments (a bound, not a parse)."""
+    depth = deepest = 0
+    quote = ""
+    i, n = 0, len(text)
+    while i < n:
+        ch = text[i]
+        if quote:
+            if ch == "\\" and quote == '"':
+                i += 2
+                continue
+            if ch in (quote, "\n"):
+                quote = ""
+        elif ch in "\"'":
+            quote = ch
+        elif ch == "#":
+            end = text.find("\n", i)
+            i = n if end < 0 else end
+            continue
+        elif ch in "[{":
+            depth += 1
+            deepest = max(deepest, depth)
+        elif ch in "]}":
+            depth = max(0, depth - 1)
+        i += 1
+    return deepest
+
+
 def load_settings(folder: Path) -> tuple[Settings, list[Problem]]:
     """Read settings.toml from folder if present; defaults otherwise.
 
@@ -275,12 +364,20 @@ def load_settings(folder: Path) -> tuple[Settings, list[Problem]]:
         The settings and the problems found (unknown keys, wrong types, bad tables).
     """
     path = Path(folder) / SETTINGS_FILE
-    if not path.exists():
+    if not os.path.lexists(path):
         return Settings(), []
+    text, refusal = settings_text(path)
+    if refusal:
+        return Settings(), [Problem(SETTINGS_FILE, None, None, refusal)]
     try:
-        data = tomllib.loads(path.read_bytes().decode("utf-8-sig"))
-    except (tomllib.TOMLDecodeError, UnicodeDecodeError) as exc:
+        data = tomllib.loads(text)
+    except (tomllib.TOMLDecodeError, RecursionError) as exc:
         return Settings(), [Problem(SETTINGS_FILE, None, None, f"not valid TOML: {exc}")]
+    entries = count_entries(data)
+    if entries > MAX_SETTINGS_ENTRIES:
+        return Settings(), [Problem(SETTINGS_FILE, None, None,
+                                    f"holds {entries:,} keys and values, more than the {MAX_SETTINGS_ENTRIES:,} a "
+                                    "settings file may hold; keep only the settings you change")]
     problems: list[Problem] = []
     values: dict[str, Any] = {}
     for key, raw in data.items():
