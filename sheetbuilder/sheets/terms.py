@@ -463,14 +463,28 @@ def clash_pairs(frame: pd.DataFrame) -> pd.DataFrame:
                                                               "dest_ad_group", "term_key", "orders"))
     rows = []
     for i, (c, g, key) in enumerate(zip(c_, g_, k_)):
-        first = key.split(" ")[0] if key else ""
-        for j in sorted(index.get((c, first), ())):
+        for j in sorted(_holding_every_word(index, c, key)):
             j -= 1
             if j != i and contains_phrase(k_[j], key):
                 kw_in = dc_[j] == c
                 rows.append((i + 1.0, j + 1.0, float(kw_in), float(kw_in and dg_[j] == g),
                              float(c_[j] == c and o_[j] > 0), float(c_[j] == c and g_[j] == g), float(k_[j] == key)))
     return pd.DataFrame(rows, columns=columns, dtype=float)
+
+
+def _holding_every_word(index: dict[tuple, set], campaign: str, key: str) -> set:
+    """The terms in campaign whose words include every word of key: the rarest word's set, narrowed by the others.
+
+    A phrase can only be in a term that holds each of its words, so the candidates grow with
+    the matches, not with the terms that share a common leading word.
+    """
+    sets = sorted((index.get((campaign, w), set()) for w in set(key.split(" "))), key=len)
+    found = set(sets[0])
+    for other in sets[1:]:
+        if not found:
+            break
+        found &= other
+    return found
 
 
 def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, targets: pd.DataFrame | None,
