@@ -18,6 +18,7 @@ from sheetbuilder.reading.encodings import NotText, decode, is_legacy
 from sheetbuilder.errors import ERROR, WARNING, Problem
 from sheetbuilder.reading.guard import UnsafeWorkbook, check_csv, check_workbook, read_delimited, text_problem
 from sheetbuilder.reading.headers import currency_warnings, find_header, map_headers
+from sheetbuilder.reading.ours import built_by_us, our_workbook_message
 from sheetbuilder.reading.numbers import MAX_MAGNITUDE, NotANumber, parse_count, parse_number
 from sheetbuilder.reading.periods import (DATE_RULES, DATED_TABLES, Period, combine_repeats, overall_period,
                                           parse_dates, table_period)
@@ -416,6 +417,10 @@ def _unmatched_files(folder: Path, used: set[Path], settings: Settings) -> list[
     """A note for each export-like file in folder that no table read, naming the table it most resembles."""
     notes = []
     for path in sorted(p for p in folder.iterdir() if p.is_file() and p.suffix.lower() in SUFFIXES and p not in used):
+        built = built_by_us(path)
+        if built is not None:
+            notes.append(Problem(path.name, None, None, "was not read: it " + our_workbook_message(built), WARNING))
+            continue
         try:
             sheets = read_sheets(path)[0] if path.stat().st_size <= MAX_STRAY_BYTES else []
         except Exception:  # an unreadable stray file is only worth its name
@@ -447,11 +452,16 @@ def read_inputs(folder: Path, settings: Settings) -> tuple[Inputs, list[Problem]
     checksums: dict[str, str] = {}
     encodings: dict[str, str] = {}
     problems: list[Problem] = []
+    refused: set[Path] = set()
     for table in c.TABLES:
         path, problem = find_file(folder, table, settings)
         if problem:
             problems.append(problem)
-        if path is None:
+        built = built_by_us(path) if path is not None else None
+        if built is not None:  # a workbook of ours is never read as an export
+            problems.append(Problem(path.name, None, None, our_workbook_message(built)))
+            refused.add(path)
+        if path is None or built is not None:
             tables[table.name] = None
             continue
         sources[table.name] = path
@@ -464,7 +474,7 @@ def read_inputs(folder: Path, settings: Settings) -> tuple[Inputs, list[Problem]
             encodings[table.name] = frame.attrs["encoding"]
         tables[table.name] = frame
     problems.extend(_cross_checks(tables))
-    problems.extend(_unmatched_files(folder, set(sources.values()), settings))
+    problems.extend(_unmatched_files(folder, set(sources.values()) | refused, settings))
     periods = {sources[n].name: f.attrs["period"] for n, f in tables.items()
                if f is not None and f.attrs.get("period") is not None}
     period, found = overall_period(periods)
