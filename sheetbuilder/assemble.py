@@ -21,7 +21,7 @@ from sheetbuilder.sheets.anchors import Anchors
 from sheetbuilder.weekly.carry import PROFIT_TARGET, CarryResult, decision_column, entry_for
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable
 from sheetbuilder.errors import Problem
-from sheetbuilder.weekly.followup import Followup
+from sheetbuilder.weekly.applied import Followup
 from sheetbuilder.sheets.history import applied_rows, plan_history
 from sheetbuilder.sheets.actions import defs as ACTION_DEFS, plan_actions
 from sheetbuilder.sheets.bids import DEFS as BIDS_DEFS, plan_bids
@@ -35,7 +35,7 @@ from sheetbuilder.sheets.inputs import InputSheet, catalog_names, plan_input_she
 from sheetbuilder.sheets.lists import HARVEST, NEGATIVES, plan_list
 from sheetbuilder.sheets.mix import MATCH_DEFS, TYPE_DEFS as MIX_DEFS, plan_mix
 from sheetbuilder.sheets.profit import DEFS as PROFIT_DEFS, plan_profit
-from sheetbuilder.sheets.settings import plan_settings
+from sheetbuilder.sheets.settings_sheet import plan_settings
 from sheetbuilder.sheets.terms import defs as TERMS_DEFS, plan_terms
 from sheetbuilder.sheets.unmatched import plan_carried, plan_unmatched
 from sheetbuilder.reading.readers import Inputs

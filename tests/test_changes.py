@@ -236,7 +236,7 @@ def test_a_final_bid_typed_over_by_hand_is_reported_and_the_formula_value_export
     wb[area.sheet].cell(area.first_row + 1, area.first_col + 1).value = 9.99  # a formula replaced by a number
     edited = tmp_path / "edited.xlsx"
     wb.save(edited)
-    from sheetbuilder.recalc import libreoffice_convert
+    from tools.recalc import libreoffice_convert
     from conftest import require_libreoffice
     require_libreoffice()
     saved = libreoffice_convert([edited], tmp_path / "saved")[0]

@@ -19,7 +19,7 @@ from workbook_io import open_values, read_table, same
 from sheetbuilder.weekly.changes import export_changes, read_actions
 from sheetbuilder.workbook.csv_safe import read_csv_rows
 from sheetbuilder.pipeline import build
-from sheetbuilder.recalc import libreoffice_convert
+from tools.recalc import libreoffice_convert
 
 HOSTILE = '=HYPERLINK("http://example.invalid","click")'
 

@@ -1,7 +1,7 @@
 """The Follow-up sheet: what became of last week's changes, and how each product moved since.
 
 Written only when the build is given last week's workbook (``--previous``), from the facts
-:mod:`sheetbuilder.weekly.followup` gathers. Three parts, top to bottom: a Summary (live counts over
+:mod:`sheetbuilder.weekly.applied` gathers. Three parts, top to bottom: a Summary (live counts over
 the tables below), "Last week's changes" (one row per change of last week's final change list,
 with Applied, the metrics of its target, term or campaign in both periods, and a live Outcome
 in words), and "Products then and now" (last period's figures beside live references to this
@@ -23,7 +23,7 @@ import pandas as pd
 
 from sheetbuilder.sheets.anchors import without_absent
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, plan_table
-from sheetbuilder.weekly.followup import CANNOT_TELL, NO, YES, Followup, fold
+from sheetbuilder.weekly.applied import CANNOT_TELL, NO, YES, Followup, fold
 from sheetbuilder.workbook.formula import quote_sheet
 from sheetbuilder.workbook.palette import DIRECTION_STATES
 from sheetbuilder.workbook.spec import DATA, Cell, Highlight, Sheet, Table

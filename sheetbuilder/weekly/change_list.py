@@ -19,7 +19,7 @@ from sheetbuilder.weekly.carry import (DECISION_SHEETS, PROFIT_TARGET, CarryResu
                                        _text, edits_in)
 from sheetbuilder.workbook.columns import INVALID
 from sheetbuilder.errors import WARNING, Problem
-from sheetbuilder.weekly.followup import Followup, _number as number, followup_rows, same_exports, span_of
+from sheetbuilder.weekly.applied import Followup, _number as number, followup_rows, same_exports, span_of
 from sheetbuilder.reading.guard import reading
 from sheetbuilder.sheets.actions import HEADER_ROW as ACTIONS_HEADER_ROW, SHEET, defs as action_defs
 from sheetbuilder.reading.readers import Inputs
