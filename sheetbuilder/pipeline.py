@@ -12,9 +12,9 @@ from sheetbuilder.assemble import Plan, plan_workbook  # noqa: F401 (plan_workbo
 from sheetbuilder.workbook.atomic import atomic_output, refuse_input_as_output, scratch_dir
 from sheetbuilder.weekly.carry import CarryResult, PreviousWorkbookUnreadable, apply_edits, carried_catalog, read_edits
 from sheetbuilder.weekly.change_list import read_followup
+from sheetbuilder.weekly.saved import SavedBook, read_history
 from sheetbuilder.errors import ERROR, WARNING, InputProblems, OutputExists, Problem, SheetbuilderError, UnsafeOutput
 from sheetbuilder.reading.guard import reading
-from sheetbuilder.sheets.history import read_history
 from sheetbuilder.reading.periods import settings_for_inputs
 from sheetbuilder.reading.readers import Inputs, read_inputs
 from sheetbuilder.workbook.render import Progress, render
@@ -117,7 +117,8 @@ def build(folder: Path, output: Path, force: bool = False, built_on: dt.date | N
     if previous is not None:
         followup, skipped = read_followup(Path(previous), exported_tables, settings, inputs.period)
         with reading(previous, PreviousWorkbookUnreadable):
-            history, unread = read_history(Path(previous))
+            with SavedBook(Path(previous)) as book:
+                history, unread = read_history(book)
         problems += skipped + unread
     warnings = [p for p in problems if p.severity == WARNING]
     plan = plan_workbook(inputs, settings, built_on or dt.date.today(), warnings, carry, followup, history)

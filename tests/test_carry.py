@@ -10,8 +10,10 @@ import openpyxl
 import pytest
 
 from conftest import BUILT_ON, DEMO
-from sheetbuilder.weekly.carry import (CarryRecord, Edits, PreviousWorkbookUnreadable, apply_edits, carried_catalog,
-                                       carried_summary, decision_column, read_edits, unmatched_sheet_rows)
+from sheetbuilder.cli import carried_summary
+from sheetbuilder.sheets.typed import CarryRecord, decision_column
+from sheetbuilder.sheets.unmatched import unmatched_sheet_rows
+from sheetbuilder.weekly.carry import Edits, PreviousWorkbookUnreadable, apply_edits, carried_catalog, read_edits
 from sheetbuilder.reading.normalise import normalise
 from sheetbuilder.pipeline import build, load
 

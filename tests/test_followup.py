@@ -185,7 +185,7 @@ def test_a_rebuild_from_the_same_exports_says_so_and_writes_no_follow_up(scenari
 
 
 def test_two_30_day_periods_a_week_apart_are_stated_as_sharing_23_days():
-    from sheetbuilder.weekly.applied import Followup
+    from sheetbuilder.sheets.followup import Followup
     last = Period(dt.date(2026, 10, 27), dt.date(2026, 11, 25))
     this = Period(dt.date(2026, 11, 3), dt.date(2026, 12, 2))
     lines = period_lines(Followup([], {}, last, this, "w1.xlsx"))

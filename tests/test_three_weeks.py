@@ -16,7 +16,7 @@ import openpyxl
 import pytest
 
 from conftest import BUILT_ON, DEMO, require_libreoffice
-from sheetbuilder.weekly.carry import carried_summary
+from sheetbuilder.cli import carried_summary
 from sheetbuilder.pipeline import build
 from tools.recalc import libreoffice_convert
 

@@ -1,7 +1,7 @@
 """The Follow-up sheet: what became of last week's changes, and how each product moved since.
 
 Written only when the build is given last week's workbook (``--previous``), from the facts
-:mod:`sheetbuilder.weekly.applied` gathers. Three parts, top to bottom: a Summary (live counts over
+:mod:`sheetbuilder.weekly.applied` gathers into a :class:`Followup`. Three parts, top to bottom: a Summary (live counts over
 the tables below), "Last week's changes" (one row per change of last week's final change list,
 with Applied, the metrics of its target, term or campaign in both periods, and a live Outcome
 in words), and "Products then and now" (last period's figures beside live references to this
@@ -16,14 +16,15 @@ figures, their changes and the Summary are live formulas.
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
+from sheetbuilder.reading.periods import Period
 from sheetbuilder.sheets.anchors import without_absent
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, plan_table
-from sheetbuilder.weekly.applied import CANNOT_TELL, NO, YES, Followup, fold
 from sheetbuilder.workbook.formula import quote_sheet
 from sheetbuilder.workbook.palette import DIRECTION_STATES
 from sheetbuilder.workbook.spec import DATA, Cell, Highlight, Sheet, Table
@@ -36,6 +37,42 @@ FIRST_TABLE_ROW = 17  # 0-based header row of Last week's changes (the summary a
 AS_INTENDED, MIXED, AGAINST = "as intended", "mixed", "not as intended"
 TOO_FEW, NOT_APPLIED = "too few clicks", "not applied"
 ADDS = ("add keyword", "add product target")
+
+
+YES, NO, CANNOT_TELL = "yes", "no", "cannot tell"
+
+
+def fold(text: Any) -> str:
+    """Text compared as the exports write it loosely: case folded, whitespace collapsed."""
+    return " ".join(str(text).casefold().split())
+
+
+@dataclass
+class Followup:
+    """Last week's change list looked up in this week's exports, and both periods' product figures.
+
+    Attributes:
+        rows: one dict per change: kind, campaign, ad_group, target, match_type, product_id, planned,
+            now, applied, was (last week's current value), target_acos, and <metric>_b / <metric>_n
+            for clicks, spend, orders and ad_sales.
+        products: last period's Profit figures per product id (revenue, ad_spend, tacos, net_profit,
+            status, direction).
+        previous: last period, when known; current: this period, when known.
+        source: the previous workbook's file name.
+    """
+
+    rows: list[dict]
+    products: dict[str, dict]
+    previous: Period | None
+    current: Period | None
+    source: str
+    min_clicks: int = 10
+    notes: list[str] = field(default_factory=list)
+
+    @property
+    def overlap(self) -> int:
+        """Days the two periods share (0 when either is unknown)."""
+        return self.previous.overlap(self.current) if self.previous and self.current else 0
 
 
 def _div(a: pd.Series, b: pd.Series) -> pd.Series:

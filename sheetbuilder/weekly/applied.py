@@ -15,7 +15,6 @@ from __future__ import annotations
 
 import datetime as dt
 import math
-from dataclasses import dataclass, field
 from typing import Any
 
 import pandas as pd
@@ -23,8 +22,8 @@ import pandas as pd
 from sheetbuilder.reading import contract as c
 from sheetbuilder.reading.periods import Period
 from sheetbuilder.reading.settings import Settings
+from sheetbuilder.sheets.followup import CANNOT_TELL, NO, YES, fold
 
-YES, NO, CANNOT_TELL = "yes", "no", "cannot tell"
 METRICS = ("clicks", "spend", "orders", "ad_sales")
 COMPARED_TABLES = ("store_sales", "ad_products", "targets", "search_terms")
 
@@ -45,11 +44,6 @@ def span_of(settings: Settings, period: Any = None) -> Period | None:
     return Period(end - dt.timedelta(days=int(days) - 1), end)
 
 
-def fold(text: Any) -> str:
-    """Text compared as the exports write it loosely: case folded, whitespace collapsed."""
-    return " ".join(str(text).casefold().split())
-
-
 def _blank(value: Any) -> bool:
     return value is None or (isinstance(value, float) and math.isnan(value)) or (
         isinstance(value, str) and value.strip() == "")
@@ -64,34 +58,6 @@ def _number(value: Any) -> float | None:
 def _cents(value: Any) -> int | None:
     n = _number(value)
     return None if n is None else int(round(n * 100))
-
-
-@dataclass
-class Followup:
-    """Last week's change list looked up in this week's exports, and both periods' product figures.
-
-    Attributes:
-        rows: one dict per change: kind, campaign, ad_group, target, match_type, product_id, planned,
-            now, applied, was (last week's current value), target_acos, and <metric>_b / <metric>_n
-            for clicks, spend, orders and ad_sales.
-        products: last period's Profit figures per product id (revenue, ad_spend, tacos, net_profit,
-            status, direction).
-        previous: last period, when known; current: this period, when known.
-        source: the previous workbook's file name.
-    """
-
-    rows: list[dict]
-    products: dict[str, dict]
-    previous: Period | None
-    current: Period | None
-    source: str
-    min_clicks: int = 10
-    notes: list[str] = field(default_factory=list)
-
-    @property
-    def overlap(self) -> int:
-        """Days the two periods share (0 when either is unknown)."""
-        return self.previous.overlap(self.current) if self.previous and self.current else 0
 
 
 def _rows_of(table: pd.DataFrame | None, columns: tuple[str, ...]) -> list[tuple]:

@@ -5,7 +5,7 @@ Two steps, kept apart so that the second is pure:
 1. :func:`read_edits` opens the OLD workbook read-only (it is never written) and
    collects every cell a user types: the live settings, the catalog's input cells on
    ``in_catalog``, Profit's "Your target ACoS", and the typed column of every table in
-   :data:`sheetbuilder.weekly.saved.DECISION_TABLES`.
+   :data:`sheetbuilder.sheets.typed.DECISION_TABLES`.
 2. :func:`apply_edits` matches them against the NEW inputs: an edit whose row still
    exists is carried, one whose product, target or term is gone is *unmatched*, and an
    edit that is not a valid value (text in a cost, a setting out of bounds) is
@@ -16,7 +16,7 @@ so a renamed header, an inserted column or sorted rows still read. Without the n
 older workbook), header rows are found by scanning the first rows of each sheet for the
 headers the planners declare. A typed column found by neither is reported, never skipped.
 Adding a sheet with a typed column is one ``EDITABLE_COLUMNS`` declaration in its planner
-and one entry in :data:`sheetbuilder.weekly.saved.DECISION_TABLES`.
+and one entry in :data:`sheetbuilder.sheets.typed.DECISION_TABLES`.
 """
 from __future__ import annotations
 
@@ -30,15 +30,12 @@ from typing import Any, Callable, Iterable, Mapping, Sequence
 import pandas as pd
 from openpyxl.utils.cell import coordinate_to_tuple
 
-from sheetbuilder.workbook.columns import EditableColumns
-from sheetbuilder.reading.normalise import normalise
 from sheetbuilder.sheets.inputs import CATALOG_NAME, EDITABLE, EXPORTED
-from sheetbuilder.workbook.render import stored_text
-from sheetbuilder.weekly.saved import (BUDGET_CAMPAIGNS, CARRIED_NAME, DECISION_TABLES, PROFIT, SavedBook,
-                                       SavedWorkbookUnreadable, named_columns)
+from sheetbuilder.sheets.typed import (CARRIED_NAME, DECISION_SHEETS, PROFIT_TARGET, SCAN_ROWS, CarryRecord,
+                                       CarryResult, EditSheet, key_text)
+from sheetbuilder.weekly.saved import SavedBook, SavedWorkbookUnreadable, named_columns
 from sheetbuilder.reading.settings import SETTINGS, Settings, _coerce
 
-SCAN_ROWS = 10  # header rows are looked for in the first rows of a sheet
 SETTINGS_SHEET = "Settings"
 CATALOG_SHEET = "in_catalog"
 CATALOG_COLUMNS = tuple(sorted(EDITABLE["catalog"]))
@@ -46,85 +43,6 @@ MONEY_COLUMNS = ("price", "unit_cost", "fees_per_unit")  # blank money is read a
 PERCENT_COLUMNS = ("target_acos", "margin")  # blank means "not given"
 TARGET_BOUNDS = (0.0, 5.0)  # as default_target_acos
 PreviousWorkbookUnreadable = SavedWorkbookUnreadable  # the previous workbook is missing or unreadable
-
-
-def _text(value: Any, fold_plurals: bool = False) -> str:
-    """A key part compared as text: trimmed, None as blank, 12.0 as '12'."""
-    if value is None or (isinstance(value, float) and math.isnan(value)):
-        return ""
-    if isinstance(value, float) and value.is_integer():
-        value = int(value)
-    return str(value).strip()
-
-
-def _term(value: Any, fold_plurals: bool = False) -> str:
-    """A search term compared as the Terms sheet compares it (:func:`normalise`)."""
-    return normalise(_text(value), fold_plurals)
-
-
-@dataclass(frozen=True)
-class Key:
-    """One key column of an edit sheet: its header there, its input column, how it is compared."""
-
-    header: str
-    column: str
-    norm: Callable[[Any, bool], str] = _text
-
-
-@dataclass(frozen=True)
-class EditSheet:
-    """A table whose typed column is carried, as its planner declares it, with how its keys compare.
-
-    Args:
-        decl: the planner's declaration (label, sheet, names, keys, typed column, input tables).
-        keys: the key columns, in key order.
-        scan_rows: how many top rows to scan for the header row when the defined names are gone.
-    """
-
-    decl: EditableColumns
-    keys: tuple[Key, ...]
-    scan_rows: int = SCAN_ROWS
-
-    @property
-    def label(self) -> str:
-        """The name edits of this table are kept under."""
-        return self.decl.label
-
-    @property
-    def sheet(self) -> str:
-        """The sheet it is on."""
-        return self.decl.sheet
-
-    @property
-    def tables(self) -> tuple[str, ...]:
-        """The input tables whose rows make a key exist."""
-        return self.decl.inputs
-
-    @property
-    def value_header(self) -> str:
-        """The typed column's header as built."""
-        return self.decl.headers[self.decl.value]
-
-    def key_of(self, parts: Sequence[Any], fold_plurals: bool) -> tuple[str, ...]:
-        """The compared key of key values as a saved workbook gives them back (in key order)."""
-        return tuple(k.norm(v, fold_plurals) for k, v in zip(self.keys, parts))
-
-    def export_key(self, parts: Sequence[Any], fold_plurals: bool) -> tuple[str, ...]:
-        """The compared key of key values as an export gives them: first put in the form a cell stores
-        (cut to 32,767 characters with a mark, control characters escaped), as the workbook held them."""
-        return self.key_of([stored_text(v) if isinstance(v, str) else v for v in parts], fold_plurals)
-
-
-def edit_sheet(decl: EditableColumns, scan_rows: int = SCAN_ROWS) -> EditSheet:
-    """The EditSheet of a planner's declaration."""
-    keys = tuple(Key(decl.headers[k], column, _term if k in decl.normalised else _text)
-                 for k, column in zip(decl.keys, decl.input_columns))
-    return EditSheet(decl, keys, scan_rows)
-
-
-DECISION_SHEETS: tuple[EditSheet, ...] = tuple(
-    edit_sheet(d, 100_000 if d is BUDGET_CAMPAIGNS else SCAN_ROWS) for d in DECISION_TABLES)
-PROFIT_TARGET = edit_sheet(PROFIT)
 
 
 @dataclass(frozen=True)
@@ -154,58 +72,6 @@ class Edits:
     built_on: Any = None
 
 
-@dataclass(frozen=True)
-class CarryRecord:
-    """One edit carried or not: sheet, key as text, column, value, and why.
-
-    Carried and applied edits also hold the value the export (or settings.toml) gives,
-    the build date of the week it was first typed, and the compared key of its row.
-    """
-
-    sheet: str
-    key: str
-    column: str
-    value: Any
-    why: str
-    exported: Any = None
-    first_typed: Any = None
-    compared: tuple = ()
-
-
-@dataclass(frozen=True)
-class CarryResult:
-    """The edits matched against the new inputs.
-
-    Attributes:
-        settings: the new build's settings with the carried values in place.
-        settings_changed: {key: (value from settings.toml or the default, carried value)}.
-        catalog: {(product_id, column): value} where the old workbook's value differs from the export's.
-        targets: {product_id: target ACoS} for Profit's "Your target ACoS".
-        decisions: {sheet: {compared key: value}} (keys as :meth:`EditSheet.key_of` makes them).
-        carried: every edit that changes something in the new build.
-        unmatched: every edit that could not be carried, with why.
-        as_built: the settings from settings.toml and the defaults, before carrying.
-        exported: {table: frame as the export held it} for tables whose values were carried over.
-        source: the previous workbook's path.
-        applied: every typed number this week's export shows applied (it expires: the cell is left blank).
-        inputs_as_saved: the planned inputs were read back from a saved workbook (their text already in
-            the form a cell stores), not from exports.
-    """
-
-    settings: Settings
-    settings_changed: dict = field(default_factory=dict)
-    catalog: dict = field(default_factory=dict)
-    targets: dict = field(default_factory=dict)
-    decisions: dict = field(default_factory=dict)
-    carried: list = field(default_factory=list)
-    unmatched: list = field(default_factory=list)
-    as_built: Settings | None = None
-    exported: dict = field(default_factory=dict)
-    source: str = ""
-    applied: list = field(default_factory=list)
-    inputs_as_saved: bool = False
-
-
 # ---------------------------------------------------------------------------------------------- reading
 
 def _blank(value: Any) -> bool:
@@ -216,7 +82,7 @@ def _blank(value: Any) -> bool:
 def _header_index(rows: list[list[Any]], wanted: Sequence[str], scan: int) -> int | None:
     """The 0-based index of the first row (of the first scan) holding every wanted header."""
     for i, row in enumerate(rows[:scan]):
-        texts = {_text(v) for v in row}
+        texts = {key_text(v) for v in row}
         if all(w in texts for w in wanted):
             return i
     return None
@@ -224,7 +90,7 @@ def _header_index(rows: list[list[Any]], wanted: Sequence[str], scan: int) -> in
 
 def _value_column(header: list[Any], key_cols: list[int], value_header: str) -> int:
     """The value column: the first value_header right of the last key column, else the first one."""
-    texts = [_text(v) for v in header]
+    texts = [key_text(v) for v in header]
     right = [i for i, t in enumerate(texts) if t == value_header and i > max(key_cols)]
     return right[0] if right else texts.index(value_header)
 
@@ -245,7 +111,7 @@ def _located(wb, rows_of: Callable[[str], list[list[Any]]], names: dict[str, str
     at = _header_index(rows, list(headers.values()), scan)
     if at is None:
         return None
-    texts = [_text(v) for v in rows[at]]
+    texts = [key_text(v) for v in rows[at]]
     cols = {k: texts.index(h) for k, h in headers.items() if k != value_key}
     if value_key in headers:
         cols[value_key] = _value_column(rows[at], list(cols.values()), headers[value_key])
@@ -317,7 +183,7 @@ def _catalog_cells(wb, rows_of) -> dict[tuple[str, str], Any]:
         at = _header_index(rows, ["product_id"], SCAN_ROWS)
         if at is None:
             return {}
-        texts = [_text(v) for v in rows[at]]
+        texts = [key_text(v) for v in rows[at]]
         cols = {c: texts.index(c) for c in wanted if c in texts}
         body = rows[at + 1:]
     out: dict[tuple[str, str], Any] = {}
@@ -334,7 +200,7 @@ def _catalog_cells(wb, rows_of) -> dict[tuple[str, str], Any]:
             twin = cols.get(EXPORTED + column)
             if twin is not None and _same(value, _cell(row, twin)):
                 continue  # as exported: this week's export decides
-            out[(_text(pid), column)] = None if _blank(value) else value
+            out[(key_text(pid), column)] = None if _blank(value) else value
     return out
 
 
@@ -375,7 +241,7 @@ def edits_in(book: SavedBook) -> Edits:
                                           f"header row reading {', '.join(entry.decl.headers.values())}"))
             continue
         if entry is PROFIT_TARGET:
-            targets = {_text(k[0]): v for k, v in found.items()}
+            targets = {key_text(k[0]): v for k, v in found.items()}
         elif found:
             decisions.setdefault(entry.label, {}).update(found)
     built = book.named_value("built_on")
@@ -394,7 +260,7 @@ def _first_typed(book: SavedBook) -> dict[tuple[str, str, str], Any]:
     for row in book.rows(area.sheet)[area.first_row:area.last_row + 1]:
         sheet, key, column, first = (_cell(row, areas[k].first_col) for k in keys)
         if not _blank(sheet):
-            out[(_text(sheet), _text(key), _text(column))] = first.date() if isinstance(first, dt.datetime) else first
+            out[(key_text(sheet), key_text(key), key_text(column))] = first.date() if isinstance(first, dt.datetime) else first
     return out
 
 
@@ -439,7 +305,7 @@ def _existing(entry: EditSheet, tables: Mapping[str, pd.DataFrame | None], fold:
 
 
 def _key_text(parts: Iterable[Any]) -> str:
-    return " / ".join(_text(p) for p in parts)
+    return " / ".join(key_text(p) for p in parts)
 
 
 def _carry_settings(edits: Edits, settings: Settings, carried: list, unmatched: list) -> tuple[Settings, dict]:
@@ -476,7 +342,7 @@ def _carry_catalog(edits: Edits, tables, carried: list, unmatched: list) -> dict
     frame = tables.get("catalog")
     if frame is None:
         frame = pd.DataFrame(columns=["product_id"])
-    by_id = {_text(p): i for i, p in enumerate(frame["product_id"])}
+    by_id = {key_text(p): i for i, p in enumerate(frame["product_id"])}
     out: dict[tuple[str, str], Any] = {}
     gone: dict[str, list[str]] = {}
     for (pid, column), value in edits.catalog.items():
@@ -613,60 +479,14 @@ def apply_edits(edits: Edits, inputs_tables: Any, settings: Settings) -> CarryRe
 
 # ------------------------------------------------------------------------------------ helpers for the build
 
-def entry_for(sheet: str) -> EditSheet:
-    """The DECISION_SHEETS entry of sheet."""
-    for entry in DECISION_SHEETS:
-        if entry.label == sheet:
-            return entry
-    raise KeyError(sheet)
-
-
-def decision_column(result: CarryResult, sheet: str, rows: Iterable[Sequence[Any]]) -> list[Any]:
-    """The carried Decision of each planned row (None where none), rows as raw key tuples in key order.
-
-    E.g. for Bids: ``decision_column(result, "Bids", zip(f.campaign, f.ad_group, f.target, f.match_type))``.
-    """
-    entry = entry_for(sheet)
-    typed = result.decisions.get(sheet, {})
-    fold = result.settings.fold_plurals
-    key_of = entry.key_of if result.inputs_as_saved else entry.export_key
-    return [typed.get(key_of(parts, fold)) for parts in rows]
-
-
 def carried_catalog(frame: pd.DataFrame, result: CarryResult) -> pd.DataFrame:
     """A copy of the catalog frame with the carried overrides in place (blank as NaN)."""
     out = frame.copy()
     if not result.catalog:
         return out
-    index = {_text(p): i for i, p in zip(out.index, out["product_id"])}
+    index = {key_text(p): i for i, p in zip(out.index, out["product_id"])}
     for (pid, column), value in result.catalog.items():
         if pid in index and column in out.columns:
             out.loc[index[pid], column] = math.nan if value is None else value
     return out
 
-
-UNMATCHED_HEADERS = ["Sheet", "Key", "Column", "Value", "Why"]
-
-
-def unmatched_sheet_rows(result: CarryResult) -> list[list[Any]]:
-    """Header and rows of an "Unmatched edits" sheet: Sheet, Key, Column, Value, Why."""
-    return [list(UNMATCHED_HEADERS)] + [[r.sheet, r.key, r.column, r.value, r.why] for r in result.unmatched]
-
-
-def carried_summary(result: CarryResult) -> str:
-    """One paragraph for the command line: how many edits were carried, expired as applied, and not matched."""
-    counts: dict[str, int] = {}
-    for r in result.carried:
-        counts[r.sheet] = counts.get(r.sheet, 0) + 1
-    parts = [f"{n} on {sheet}" for sheet, n in counts.items()]
-    text = f"Carried {len(result.carried)} edit(s) from the previous workbook"
-    text += f" ({', '.join(parts)})." if parts else "."
-    text += (f" {len(result.applied)} typed number(s) expired: this week's export shows them applied." if result.applied
-             else " 0 typed numbers expired as applied.")
-    if result.settings_changed:
-        text += " Settings that now differ from settings.toml: " + ", ".join(
-            f"{k} {_shown(old)} -> {_shown(new)}" for k, (old, new) in result.settings_changed.items()) + "."
-    text += (f" {len(result.unmatched)} edit(s) could not be carried (their product, target or term is gone, "
-             "or the value is not valid); they are listed on the Unmatched edits sheet." if result.unmatched
-             else " 0 edits could not be matched.")
-    return text

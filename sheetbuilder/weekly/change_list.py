@@ -15,11 +15,12 @@ from pathlib import Path
 from typing import Any
 
 from sheetbuilder.assemble import plan_workbook
-from sheetbuilder.weekly.carry import (DECISION_SHEETS, PROFIT_TARGET, CarryResult, Edits, PreviousWorkbookUnreadable,
-                                       _text, edits_in)
+from sheetbuilder.sheets.typed import DECISION_SHEETS, PROFIT_TARGET, CarryResult, key_text
+from sheetbuilder.weekly.carry import Edits, PreviousWorkbookUnreadable, edits_in
 from sheetbuilder.workbook.columns import INVALID
 from sheetbuilder.errors import WARNING, Problem
-from sheetbuilder.weekly.applied import Followup, _number as number, followup_rows, same_exports, span_of
+from sheetbuilder.sheets.followup import Followup
+from sheetbuilder.weekly.applied import _number as number, followup_rows, same_exports, span_of
 from sheetbuilder.reading.guard import reading
 from sheetbuilder.sheets.actions import HEADER_ROW as ACTIONS_HEADER_ROW, SHEET, defs as action_defs
 from sheetbuilder.reading.readers import Inputs
@@ -132,7 +133,7 @@ def computed_actions(saved: SavedInputs) -> tuple[list[tuple[int, list[Any]]], l
             why = entry.decl.problem(value)
             if why is not None:
                 problems.append(Problem(entry.sheet, None, entry.value_header,
-                                        f"{' / '.join(_text(p) for p in parts)}: {why}; the change is not written"))
+                                        f"{' / '.join(key_text(p) for p in parts)}: {why}; the change is not written"))
     targets: dict[str, float] = {}
     for pid, value in edits.targets.items():
         if isinstance(value, numbers.Real) and not isinstance(value, bool):

@@ -32,8 +32,8 @@ from sheetbuilder.reading.guard import reading, text_problem
 from sheetbuilder.sheets.actions import HEADERS
 from sheetbuilder.sheets.followup import CHANGE_DEFS, NAME as FOLLOWUP_NAME
 from sheetbuilder.workbook.render import render_rows
-from sheetbuilder.weekly.carry import DECISION_SHEETS
-from sheetbuilder.weekly.saved import ACTIONS_NAME, NotAWorkbook, SavedBook, WorkbookNotFound, named_area  # noqa: F401 (re-exported)
+from sheetbuilder.sheets.typed import ACTIONS_NAME, DECISION_SHEETS
+from sheetbuilder.weekly.saved import NotAWorkbook, SavedBook, WorkbookNotFound, named_area  # noqa: F401 (re-exported)
 
 COLUMNS = tuple({"target": "target_or_term", "money": "money_at_stake"}.get(k, k) for k in KEYS)
 MONEY = ("current", "new", "money_at_stake")  # written with two decimals, however the workbook stored them
