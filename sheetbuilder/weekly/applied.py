@@ -1,6 +1,6 @@
 """What became of last week's changes: the facts the Follow-up sheet is planned from.
 
-:func:`sheetbuilder.weekly.change_list.read_followup` reads last week's workbook (given with ``--previous``) and computes its
+:func:`sheetbuilder.weekly.change_list.followup_of` takes last week's workbook (given with ``--previous``) and computes its
 final change list from the inputs and decisions it holds, with the same planning code that
 ``changes`` uses (so it does not depend on whether the user ran ``changes``). Each change is
 then looked up in this week's exports: whether it was applied (``yes``, ``no`` or ``cannot
