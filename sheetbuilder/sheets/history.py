@@ -10,8 +10,8 @@ from __future__ import annotations
 
 import datetime as dt
 import math
-from typing import Any
 
+from sheetbuilder.values import is_blank
 from sheetbuilder.workbook.formula import col_letter, quote_sheet
 from sheetbuilder.workbook.spec import DATA, Cell, Column, Sheet, Table
 
@@ -24,10 +24,6 @@ HEADER_ROW = 3  # 0-based: title, note, blank, then the header
 NUMBERS = ("from", "to")
 
 
-def _blank(v: Any) -> bool:
-    return v is None or (isinstance(v, float) and math.isnan(v)) or (isinstance(v, str) and v.strip() == "")
-
-
 def applied_rows(followup_rows: list[dict], week: dt.date) -> list[dict]:
     """History rows for the follow-up rows found applied this week (from: last week's value, to: the planned)."""
     out = []
@@ -36,8 +32,8 @@ def applied_rows(followup_rows: list[dict], week: dt.date) -> list[dict]:
             continue
         out.append({"week": week.isoformat(), "kind": r["kind"], "campaign": r["campaign"],
                     "ad_group": r["ad_group"], "target": r["target"], "match_type": r["match_type"],
-                    "from": None if r.get("was") is None or _blank(r.get("was")) else float(r["was"]),
-                    "to": None if r.get("planned") is None or _blank(r.get("planned")) else float(r["planned"])})
+                    "from": None if r.get("was") is None or is_blank(r.get("was")) else float(r["was"]),
+                    "to": None if r.get("planned") is None or is_blank(r.get("planned")) else float(r["planned"])})
     return out
 
 

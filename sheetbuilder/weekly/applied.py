@@ -23,6 +23,7 @@ from sheetbuilder.reading import contract as c
 from sheetbuilder.reading.periods import Period
 from sheetbuilder.reading.settings import Settings
 from sheetbuilder.sheets.followup import CANNOT_TELL, NO, YES, fold
+from sheetbuilder.values import is_blank
 
 METRICS = ("clicks", "spend", "orders", "ad_sales")
 COMPARED_TABLES = ("store_sales", "ad_products", "targets", "search_terms")
@@ -44,13 +45,8 @@ def span_of(settings: Settings, period: Any = None) -> Period | None:
     return Period(end - dt.timedelta(days=int(days) - 1), end)
 
 
-def _blank(value: Any) -> bool:
-    return value is None or (isinstance(value, float) and math.isnan(value)) or (
-        isinstance(value, str) and value.strip() == "")
-
-
 def _number(value: Any) -> float | None:
-    if _blank(value) or isinstance(value, bool) or isinstance(value, str):
+    if is_blank(value) or isinstance(value, bool) or isinstance(value, str):
         return None
     return float(value)
 
@@ -71,7 +67,7 @@ def _rows_of(table: pd.DataFrame | None, columns: tuple[str, ...]) -> list[tuple
         kinds[name] = next((col.kind for t in rule.values() for col in t.columns if col.name == name), c.TEXT)
     for record in table[list(columns)].itertuples(index=False, name=None):
         out.append(tuple(round(float(v), 6) if kinds[k] in c.NUMERIC_KINDS and _number(v) is not None
-                         else ("" if _blank(v) else str(v)) for k, v in zip(columns, record)))
+                         else ("" if is_blank(v) else str(v)) for k, v in zip(columns, record)))
     return sorted(out)
 
 
@@ -115,7 +111,7 @@ def _term_mask(table: pd.DataFrame | None, campaign, group, term, match):
     exact = str(match).endswith("exact")
     hits = table["search_term"].map(lambda t: fold(t).split() == words if exact else _phrase_in(words, fold(t).split()))
     mask = (table["campaign"] == campaign) & hits
-    if not _blank(group):
+    if not is_blank(group):
         mask &= table["ad_group"] == group
     return mask
 
@@ -139,9 +135,9 @@ def _applied(change: dict, now: dict) -> tuple[str, Any]:
     if kind == "add negative":
         if negatives is None:
             return CANNOT_TELL, None
-        group = "" if _blank(change["ad_group"]) else change["ad_group"]
+        group = "" if is_blank(change["ad_group"]) else change["ad_group"]
         hit = ((negatives["campaign"] == change["campaign"])
-               & (negatives["ad_group"].map(lambda g: "" if _blank(g) else g) == group)
+               & (negatives["ad_group"].map(lambda g: "" if is_blank(g) else g) == group)
                & (negatives["term"].map(fold) == fold(change["target"]))
                & (negatives["match_type"] == change["match_type"]))
         return (YES if bool(hit.any()) else NO), None
@@ -180,7 +176,7 @@ def followup_rows(changes: list[dict], before: dict, now: dict, targets: dict[st
     """
     out = []
     for ch in changes:
-        row = {k: ("" if _blank(ch.get(k)) else ch.get(k)) for k in
+        row = {k: ("" if is_blank(ch.get(k)) else ch.get(k)) for k in
                ("kind", "campaign", "ad_group", "target", "match_type", "product_id")}
         row["planned"] = _number(ch.get("new"))
         row["was"] = _number(ch.get("current"))

@@ -21,7 +21,6 @@ and one entry in :data:`sheetbuilder.sheets.typed.DECISION_TABLES`.
 from __future__ import annotations
 
 import math
-import numbers
 import datetime as dt
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -33,6 +32,7 @@ from openpyxl.utils.cell import coordinate_to_tuple
 from sheetbuilder.sheets.inputs import CATALOG_NAME, EDITABLE, EXPORTED
 from sheetbuilder.sheets.typed import (CARRIED_NAME, DECISION_SHEETS, PROFIT_TARGET, SCAN_ROWS, CarryRecord,
                                        CarryResult, EditSheet, key_text)
+from sheetbuilder.values import is_blank, is_number, same_value, shown
 from sheetbuilder.weekly.saved import SavedBook, SavedWorkbookUnreadable, named_columns
 from sheetbuilder.reading.settings import SETTINGS, Settings, _coerce
 
@@ -63,21 +63,16 @@ class Edits:
     """
 
     source: str
-    settings: dict = field(default_factory=dict)
-    catalog: dict = field(default_factory=dict)
-    targets: dict = field(default_factory=dict)
-    decisions: dict = field(default_factory=dict)
-    lost: list = field(default_factory=list)
-    first_typed: dict = field(default_factory=dict)
+    settings: dict[str, Any] = field(default_factory=dict)
+    catalog: dict[tuple[str, str], Any] = field(default_factory=dict)
+    targets: dict[str, Any] = field(default_factory=dict)
+    decisions: dict[str, dict[tuple, Any]] = field(default_factory=dict)
+    lost: list[tuple[str, str]] = field(default_factory=list)
+    first_typed: dict[tuple[str, str, str], Any] = field(default_factory=dict)
     built_on: Any = None
 
 
 # ---------------------------------------------------------------------------------------------- reading
-
-def _blank(value: Any) -> bool:
-    return value is None or (isinstance(value, str) and value.strip() == "") or (
-        isinstance(value, float) and math.isnan(value))
-
 
 def _header_index(rows: list[list[Any]], wanted: Sequence[str], scan: int) -> int | None:
     """The 0-based index of the first row (of the first scan) holding every wanted header."""
@@ -117,7 +112,7 @@ def _located(wb, rows_of: Callable[[str], list[list[Any]]], names: dict[str, str
         cols[value_key] = _value_column(rows[at], list(cols.values()), headers[value_key])
     body = []
     for row in rows[at + 1:]:  # a block ends at its first row with blank keys
-        if all(_blank(_cell(row, c)) for k, c in cols.items() if k != value_key):
+        if all(is_blank(_cell(row, c)) for k, c in cols.items() if k != value_key):
             break
         body.append(row)
     return body, cols
@@ -137,7 +132,7 @@ def _read_block(wb, rows_of, entry: EditSheet) -> dict[tuple, Any] | None:
     for row in body:
         parts = tuple(_cell(row, cols[k]) for k in decl.keys)
         value = _cell(row, cols[decl.value])
-        if all(_blank(p) for p in parts) or _blank(value):
+        if all(is_blank(p) for p in parts) or is_blank(value):
             continue
         out[parts] = value
     return out
@@ -163,7 +158,7 @@ def _settings_cells(wb, rows_of: Callable[[str], list[list[Any]]]) -> dict[str, 
             rows = rows_of(sheet)
             value = rows[r - 1][c - 1] if r <= len(rows) and c <= len(rows[r - 1]) else None
             built = rows[r - 1][AS_BUILT_COLUMN] if r <= len(rows) and AS_BUILT_COLUMN < len(rows[r - 1]) else None
-            if _has_as_built(rows) and _same(value, built):
+            if _has_as_built(rows) and same_value(value, built):
                 break  # not typed by the user: this week's settings.toml decides
             out[spec.key] = value
             break
@@ -189,7 +184,7 @@ def _catalog_cells(wb, rows_of) -> dict[tuple[str, str], Any]:
     out: dict[tuple[str, str], Any] = {}
     for row in body:
         pid = _cell(row, cols["product_id"])
-        if _blank(pid):
+        if is_blank(pid):
             if areas is None:
                 break
             continue
@@ -198,9 +193,9 @@ def _catalog_cells(wb, rows_of) -> dict[tuple[str, str], Any]:
                 continue
             value = _cell(row, cols[column])
             twin = cols.get(EXPORTED + column)
-            if twin is not None and _same(value, _cell(row, twin)):
+            if twin is not None and same_value(value, _cell(row, twin)):
                 continue  # as exported: this week's export decides
-            out[(key_text(pid), column)] = None if _blank(value) else value
+            out[(key_text(pid), column)] = None if is_blank(value) else value
     return out
 
 
@@ -259,30 +254,12 @@ def _first_typed(book: SavedBook) -> dict[tuple[str, str, str], Any]:
     out = {}
     for row in book.rows(area.sheet)[area.first_row:area.last_row + 1]:
         sheet, key, column, first = (_cell(row, areas[k].first_col) for k in keys)
-        if not _blank(sheet):
+        if not is_blank(sheet):
             out[(key_text(sheet), key_text(key), key_text(column))] = first.date() if isinstance(first, dt.datetime) else first
     return out
 
 
 # --------------------------------------------------------------------------------------------- applying
-
-def _is_number(value: Any) -> bool:
-    return isinstance(value, numbers.Real) and not isinstance(value, bool) and not (
-        isinstance(value, float) and math.isnan(value))
-
-
-def _same(a: Any, b: Any) -> bool:
-    """Whether two cell values are the same (blank = NaN = None; numbers within rounding)."""
-    if _blank(a) and _blank(b):
-        return True
-    if _is_number(a) and _is_number(b):
-        return math.isclose(float(a), float(b), rel_tol=1e-12, abs_tol=1e-9)
-    return a == b
-
-
-def _shown(value: Any) -> str:
-    return "blank" if _blank(value) else f"{value:g}" if _is_number(value) else repr(value)
-
 
 def _tables(inputs_tables: Any) -> Mapping[str, pd.DataFrame | None]:
     """inputs.tables, or an Inputs object."""
@@ -314,14 +291,14 @@ def _carry_settings(edits: Edits, settings: Settings, carried: list, unmatched: 
         if not spec.live or spec.key not in edits.settings:
             continue
         raw = edits.settings[spec.key]
-        if spec.kind == "date" and _blank(raw):
+        if spec.kind == "date" and is_blank(raw):
             value = None
         else:
             value, problem = _coerce(spec, raw, SETTINGS_SHEET)
             if problem:
                 unmatched.append(CarryRecord(SETTINGS_SHEET, spec.key, "Value", raw, problem.message))
                 continue
-        if not _same(value, settings.value(spec.key)):
+        if not same_value(value, settings.value(spec.key)):
             values[spec.key] = value
     for low, high in (("thin_margin", "strong_margin"), ("bid_floor", "bid_ceiling")):
         if low in values or high in values:
@@ -334,7 +311,7 @@ def _carry_settings(edits: Edits, settings: Settings, carried: list, unmatched: 
     changed = {k: (settings.value(k), v) for k, v in values.items()}
     for key, (old, new) in changed.items():
         carried.append(CarryRecord(SETTINGS_SHEET, key, "Value", new,
-                                   f"replaces {_shown(old)} from settings.toml or the default", old))
+                                   f"replaces {shown(old)} from settings.toml or the default", old))
     return settings.replace(**values), changed
 
 
@@ -347,24 +324,24 @@ def _carry_catalog(edits: Edits, tables, carried: list, unmatched: list) -> dict
     gone: dict[str, list[str]] = {}
     for (pid, column), value in edits.catalog.items():
         if pid not in by_id:
-            if not _blank(value):
-                gone.setdefault(pid, []).append(f"{column} {_shown(value)}")
+            if not is_blank(value):
+                gone.setdefault(pid, []).append(f"{column} {shown(value)}")
             continue
         new = frame[column].iloc[by_id[pid]] if column in frame.columns else None
-        if _blank(value) and column in MONEY_COLUMNS:
+        if is_blank(value) and column in MONEY_COLUMNS:
             value = 0.0
-        if _same(value, new):
+        if same_value(value, new):
             continue
-        if not _blank(value) and not _is_number(value):
+        if not is_blank(value) and not is_number(value):
             unmatched.append(CarryRecord(CATALOG_SHEET, pid, column, value, "not a number"))
             continue
-        if _is_number(value) and value < 0 and column != "margin":
+        if is_number(value) and value < 0 and column != "margin":
             unmatched.append(CarryRecord(CATALOG_SHEET, pid, column, value, "negative; only a margin may be"))
             continue
-        value = None if _blank(value) else float(value)
+        value = None if is_blank(value) else float(value)
         out[(pid, column)] = value
         carried.append(CarryRecord(CATALOG_SHEET, pid, column, value,
-                                   f"differs from this export's {_shown(new)}", exported=new))
+                                   f"differs from this export's {shown(new)}", exported=new))
     for pid, cells in gone.items():  # one record per product: the old cells cannot tell typed from exported
         unmatched.append(CarryRecord(CATALOG_SHEET, pid, "catalog inputs", "; ".join(cells),
                                      "the product is no longer in the catalog"))
@@ -379,7 +356,7 @@ def _carry_targets(edits: Edits, tables, fold: bool, carried: list, unmatched: l
         column = PROFIT_TARGET.value_header
         if (pid,) not in existing:
             unmatched.append(CarryRecord(PROFIT_TARGET.sheet, pid, column, value, "the product is no longer in the exports"))
-        elif not _is_number(value) or not low <= value <= high:
+        elif not is_number(value) or not low <= value <= high:
             unmatched.append(CarryRecord(PROFIT_TARGET.sheet, pid, column, value,
                                          f"expected a target ACoS from {low:.0%} to {high:.0%}"))
         else:
@@ -400,14 +377,14 @@ def _current_values(entry: EditSheet, tables, fold: bool) -> dict[tuple, float]:
         out: dict[tuple, float] = {}
         for *parts, value in frame[[*columns, column]].itertuples(index=False, name=None):
             key = entry.export_key(parts, fold)
-            out[key] = out.get(key, 0.0) + (0.0 if _blank(value) else float(value))
+            out[key] = out.get(key, 0.0) + (0.0 if is_blank(value) else float(value))
         return out
     return {}
 
 
 def _applied(typed: Any, current: float | None) -> bool:
     """Whether this week's export shows a typed number applied: the current value equals it to the cent."""
-    return current is not None and _is_number(typed) and round(float(typed) * 100) == round(float(current) * 100)
+    return current is not None and is_number(typed) and round(float(typed) * 100) == round(float(current) * 100)
 
 
 def _carry_decisions(edits: Edits, tables, fold: bool, carried: list, unmatched: list, applied: list) -> dict:
@@ -430,15 +407,15 @@ def _carry_decisions(edits: Edits, tables, fold: bool, carried: list, unmatched:
                 why = f"the new exports have no {' or '.join(entry.tables)} table"
             elif key not in existing:
                 why = f"no longer in the {' or '.join(entry.tables)} export"
-            elif _is_number(value) and _applied(value, current.get(key)):
+            elif is_number(value) and _applied(value, current.get(key)):
                 applied.append(CarryRecord(entry.label, text, entry.value_header, value,
-                                           f"applied: this export's {entry.decl.numeric} is {_shown(current[key])}",
+                                           f"applied: this export's {entry.decl.numeric} is {shown(current[key])}",
                                            current[key], compared=key))
                 continue
             else:
                 out.setdefault(entry.label, {})[key] = value
                 why = ("typed last time; not yet applied (this export's {} is {})".format(
-                    entry.decl.numeric, _shown(current[key])) if _is_number(value) and key in current
+                    entry.decl.numeric, shown(current[key])) if is_number(value) and key in current
                        else "typed last time")
                 carried.append(CarryRecord(entry.label, text, entry.value_header, value, why,
                                            current.get(key), compared=key))

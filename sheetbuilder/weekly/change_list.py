@@ -44,7 +44,7 @@ def computed_actions(saved: SavedWorkbook) -> tuple[list[tuple[int, list[Any]]],
                                         f"{' / '.join(key_text(p) for p in parts)}: {why}; the change is not written"))
     targets: dict[str, float] = {}
     for pid, value in edits.targets.items():
-        if isinstance(value, numbers.Real) and not isinstance(value, bool):
+        if is_number(value):
             targets[pid] = float(value)
         else:
             problems.append(Problem(PROFIT_TARGET.sheet, None, PROFIT_TARGET.value_header,

@@ -15,7 +15,6 @@ A workbook without our inputs (an Actions-shaped sheet alone) is read from its s
 """
 from __future__ import annotations
 
-import math
 import os
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -30,7 +29,7 @@ from sheetbuilder.reading.guard import text_problem
 from sheetbuilder.sheets.actions import HEADERS
 from sheetbuilder.workbook.render import render_rows
 from sheetbuilder.sheets.typed import DECISION_SHEETS
-from sheetbuilder.values import is_blank, is_number
+from sheetbuilder.values import is_blank, is_number, same_value
 from sheetbuilder.weekly.record import NoActionsSheet, SavedWorkbook, read_saved_workbook  # noqa: F401 (re-exported)
 from sheetbuilder.weekly.saved import NotAWorkbook, WorkbookNotFound  # noqa: F401 (re-exported)
 
@@ -79,20 +78,12 @@ def _overwritten_results(saved: SavedWorkbook, tables: dict, fold: bool) -> list
                     planned.frame[list(wanted)].itertuples(index=False, name=None)}
         for row, parts, got in saved.results[entry.label]:
             key = entry.key_of(parts, fold)
-            if key in computed and not is_blank(got) and not _same_value(computed[key], got):
+            if key in computed and not is_blank(got) and not same_value(computed[key], got):
                 out.append(Problem(decl.sheet, row, decl.result_header or decl.result,
                                    f"holds {got!r} where its formula gives {computed[key]!r}: a formula was typed "
                                    "over by hand; the exported list uses the formula's value (type your decision "
                                    "in Decision instead)"))
     return out
-
-
-def _same_value(a: Any, b: Any) -> bool:
-    if is_blank(a) and is_blank(b):
-        return True
-    if is_number(a) and is_number(b):
-        return math.isclose(float(a), float(b), rel_tol=1e-9, abs_tol=1e-9)
-    return a == b
 
 
 def _change_key(values: list[Any]) -> tuple:
@@ -111,7 +102,7 @@ def _overwritten(saved: list[tuple[int, list[Any]]], computed: list[tuple[int, l
         same_change = by_change.get(_change_key(values))
         expected = same_change.pop(0) if same_change else want.get(r, [None] * len(values))
         for header, got, exp in zip(HEADERS, values, expected):
-            if not _same_value(exp, got):
+            if not same_value(exp, got):
                 out.append(Problem(SHEET, r, header, f"holds {got!r} where the workbook's own change list has "
                                                      f"{'blank' if is_blank(exp) else repr(exp)}: a formula was "
                                                      "overwritten by hand; the exported list uses the computed "

@@ -14,6 +14,7 @@ from typing import Any, Callable
 import numpy as np
 import pandas as pd
 
+from sheetbuilder.values import ERROR_VALUES, is_empty, is_number
 from sheetbuilder.workbook.formula import col_letter, quote_sheet, resolve
 from sheetbuilder.workbook.spec import DATA, FORMULA, Cell, Column, Rule, Validation
 
@@ -164,8 +165,6 @@ def blank_div(num: Any, den: Any) -> Any:
 
 
 INVALID = "invalid"  # what a Final column shows for a Decision that is not a valid word or number
-# Error values as a spreadsheet program saves them in a cell (openpyxl reads them as this text).
-ERROR_TEXTS = frozenset({"#NULL!", "#DIV/0!", "#VALUE!", "#REF!", "#NAME?", "#NUM!", "#N/A", "#GETTING_DATA"})
 
 
 class NoSavedValue:
@@ -178,27 +177,17 @@ class NoSavedValue:
 NO_SAVED_VALUE = NoSavedValue()
 
 
-def is_blank(value: Any) -> bool:
-    """Whether a cell value is blank: None, NaN or empty text."""
-    return value is None or (isinstance(value, str) and value == "") or (isinstance(value, float) and np.isnan(value))
-
-
-def is_number(value: Any) -> bool:
-    """Whether a cell value is a number (not a bool, not NaN)."""
-    return isinstance(value, (int, float, np.integer, np.floating)) and not isinstance(value, bool) and not np.isnan(value)
-
-
 def decision_problem(value: Any, words: tuple[str, ...], numeric: bool) -> str | None:
     """Why a typed Decision is not valid (None when it is, or is blank).
 
     Valid: one of words (case ignored, as spreadsheet comparison ignores it), or any number
     when numeric. Never valid: a formula error, a formula with no saved value, other text.
     """
-    if is_blank(value):
+    if is_empty(value):
         return None
     if value is NO_SAVED_VALUE:
         return "the cell holds a formula with no saved value; type the value itself"
-    if isinstance(value, str) and value.strip() in ERROR_TEXTS:
+    if isinstance(value, str) and value.strip() in ERROR_VALUES:
         return f"the cell holds a formula error ({value.strip()}); type the value itself"
     if is_number(value):
         return None if numeric else f"a number is not a decision here; expected one of {', '.join(words)}"
@@ -216,7 +205,7 @@ def apply_decision(df: pd.DataFrame, proposed: str, current: str) -> pd.Series:
     """
     out = []
     for d, p, c in zip(df["decision"], df[proposed], df[current]):
-        if is_blank(d):
+        if is_empty(d):
             out.append(float(p))
         elif decision_problem(d, ("keep",), True) is not None:
             out.append(INVALID)
@@ -244,7 +233,7 @@ def apply_word_decision(df: pd.DataFrame, fallback: str, words: tuple[str, ...])
     """
     out = []
     for d, f in zip(df["decision"], df[fallback]):
-        if is_blank(d):
+        if is_empty(d):
             out.append(f)
         elif decision_problem(d, words, False) is not None:
             out.append(INVALID)

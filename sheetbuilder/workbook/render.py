@@ -21,6 +21,7 @@ from xlsxwriter.exceptions import FileCreateError
 from xlsxwriter.worksheet import CellFormulaTuple, CellRichStringTuple
 from xlsxwriter.xmlwriter import XMLwriter
 
+from sheetbuilder.values import ERROR_VALUES
 from sheetbuilder.workbook.formula import cell_ref, check_portable, col_number
 from sheetbuilder.workbook.palette import STATES, STYLES, style_properties
 from sheetbuilder.workbook.spec import FORMULA, Cell, Chart, PageSetup, Sheet, Table, Validation, WorkbookSpec
@@ -95,13 +96,10 @@ def _cached(value: Any) -> Any:
         return value.item()
     if isinstance(value, str):  # a formula's text result: escaped as xlsxwriter escapes cell text
         text = XMLwriter._escape_control_characters(fit_text(value))
-        return CachedText(text) if text in ERROR_TEXTS else text
+        return CachedText(text) if text in ERROR_VALUES else text  # else the writer would type it an error (t="e")
     return value
 
 
-# The writer stores a formula's cached text that equals one of these as an error value
-# (t="e"); imported text such as a search term "#N/A" must stay text (t="str").
-ERROR_TEXTS = frozenset(("#DIV/0!", "#N/A", "#NAME?", "#NULL!", "#NUM!", "#REF!", "#VALUE!"))
 
 
 class CachedText(str):
@@ -110,7 +108,7 @@ class CachedText(str):
     """
 
     def __eq__(self, other: object) -> bool:
-        if type(other) is str and other in ERROR_TEXTS:
+        if type(other) is str and other in ERROR_VALUES:
             return False
         return str.__eq__(self, other)
 
