@@ -34,7 +34,7 @@ from sheetbuilder.sheets.lists import HARVEST, NEGATIVES, plan_list
 from sheetbuilder.sheets.mix import MATCH_DEFS, TYPE_DEFS as MIX_DEFS, plan_mix
 from sheetbuilder.sheets.profit import DEFS as PROFIT_DEFS, plan_profit
 from sheetbuilder.sheets.settings_sheet import plan_settings
-from sheetbuilder.sheets.terms import defs as TERMS_DEFS, plan_terms
+from sheetbuilder.sheets.terms import DEFS as TERMS_DEFS, plan_terms
 from sheetbuilder.sheets.unmatched import carried_marks, marked_column, plan_carried, plan_unmatched
 from sheetbuilder.reading.readers import Inputs
 from sheetbuilder.reading.settings import Settings
@@ -162,7 +162,7 @@ def _terms(a: Assembly) -> None:
     a.table("terms", "Terms", terms, sheet.name, "terms")
     a.place("terms", sheet)
     a.place("keys", keys_sheet)
-    a.sections["terms"] = ("Terms columns", TERMS_DEFS(0))
+    a.sections["terms"] = ("Terms columns", TERMS_DEFS)
 
 
 def _lists(a: Assembly) -> None:

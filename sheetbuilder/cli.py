@@ -17,7 +17,6 @@ from __future__ import annotations
 
 import argparse
 import errno
-import inspect
 import signal
 import sys
 import time
@@ -101,13 +100,8 @@ def os_error_message(exc: OSError, fallback: Path | None) -> str:
 
 
 def _run_build(args: argparse.Namespace, progress) -> object:
-    """build(...), passing --previous through when given."""
-    extra = {}
-    if getattr(args, "previous", None) is not None:
-        if "previous" not in inspect.signature(build).parameters:
-            raise SheetbuilderError("--previous is not supported by this version of the build yet")
-        extra["previous"] = args.previous
-    return build(args.inputs, args.output, force=args.force, progress=progress, **extra)
+    """build(...) with the command's options."""
+    return build(args.inputs, args.output, force=args.force, progress=progress, previous=args.previous)
 
 
 def print_problems(console: Console, problems: list[Problem]) -> None:
@@ -151,7 +145,7 @@ def _build(args: argparse.Namespace, console: Console) -> int:
         rows = ", ".join(f"{k} {v}" for k, v in result.rows.items())
         console.print(f"wrote {result.output} ({rows} rows) in {time.perf_counter() - started:.1f} s")
         console.print("Decision aid only: review before changing a live ad account. Not financial or tax advice.")
-    carry = getattr(result, "carry", None)  # the CarryResult when --previous was given
+    carry = result.carry  # the CarryResult when --previous was given
     if carry is not None and not args.quiet:
         console.print(carried_summary(carry))
     return 0

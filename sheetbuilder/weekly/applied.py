@@ -45,14 +45,15 @@ def span_of(settings: Settings, period: Any = None) -> Period | None:
     return Period(end - dt.timedelta(days=int(days) - 1), end)
 
 
-def _number(value: Any) -> float | None:
+def number_or_none(value: Any) -> float | None:
+    """A cell value as a number, or None when it is blank, text or a bool."""
     if is_blank(value) or isinstance(value, bool) or isinstance(value, str):
         return None
     return float(value)
 
 
 def _cents(value: Any) -> int | None:
-    n = _number(value)
+    n = number_or_none(value)
     return None if n is None else int(round(n * 100))
 
 
@@ -66,7 +67,7 @@ def _rows_of(table: pd.DataFrame | None, columns: tuple[str, ...]) -> list[tuple
     for name in columns:
         kinds[name] = next((col.kind for t in rule.values() for col in t.columns if col.name == name), c.TEXT)
     for record in table[list(columns)].itertuples(index=False, name=None):
-        out.append(tuple(round(float(v), 6) if kinds[k] in c.NUMERIC_KINDS and _number(v) is not None
+        out.append(tuple(round(float(v), 6) if kinds[k] in c.NUMERIC_KINDS and number_or_none(v) is not None
                          else ("" if is_blank(v) else str(v)) for k, v in zip(columns, record)))
     return sorted(out)
 
@@ -127,10 +128,10 @@ def _applied(change: dict, now: dict) -> tuple[str, Any]:
                                         change["match_type"])]
         if kind != "bid":
             return (YES if len(rows) else NO), (float(rows["bid"].iloc[0]) if len(rows) and
-                                                _number(rows["bid"].iloc[0]) is not None else None)
+                                                number_or_none(rows["bid"].iloc[0]) is not None else None)
         if not len(rows):
             return NO, None
-        bid = _number(rows["bid"].iloc[-1])
+        bid = number_or_none(rows["bid"].iloc[-1])
         return (YES if _cents(bid) == _cents(change["planned"]) else NO), bid
     if kind == "add negative":
         if negatives is None:
@@ -147,7 +148,7 @@ def _applied(change: dict, now: dict) -> tuple[str, Any]:
         rows = campaigns.loc[campaigns["campaign"] == change["campaign"]]
         if not len(rows):
             return NO, None
-        budget = _number(rows["daily_budget"].iloc[-1])
+        budget = number_or_none(rows["daily_budget"].iloc[-1])
         return (YES if _cents(budget) == _cents(change["planned"]) else NO), budget
     return CANNOT_TELL, None
 
@@ -178,8 +179,8 @@ def followup_rows(changes: list[dict], before: dict, now: dict, targets: dict[st
     for ch in changes:
         row = {k: ("" if is_blank(ch.get(k)) else ch.get(k)) for k in
                ("kind", "campaign", "ad_group", "target", "match_type", "product_id")}
-        row["planned"] = _number(ch.get("new"))
-        row["was"] = _number(ch.get("current"))
+        row["planned"] = number_or_none(ch.get("new"))
+        row["was"] = number_or_none(ch.get("current"))
         row["applied"], row["now"] = _applied({**row, "planned": row["planned"]}, now)
         row["target_acos"] = targets.get(str(row["product_id"]), math.nan)
         for suffix, tables in (("_b", before), ("_n", now)):

@@ -34,7 +34,7 @@ from sheetbuilder.sheets.typed import (CARRIED_NAME, DECISION_SHEETS, PROFIT_TAR
                                        CarryResult, EditSheet, key_text)
 from sheetbuilder.values import is_blank, is_number, same_value, shown
 from sheetbuilder.weekly.saved import SavedBook, SavedWorkbookUnreadable, named_columns
-from sheetbuilder.reading.settings import SETTINGS, Settings, _coerce
+from sheetbuilder.reading.settings import SETTINGS, Settings, coerce_setting
 
 SETTINGS_SHEET = "Settings"
 CATALOG_SHEET = "in_catalog"
@@ -294,7 +294,7 @@ def _carry_settings(edits: Edits, settings: Settings, carried: list, unmatched: 
         if spec.kind == "date" and is_blank(raw):
             value = None
         else:
-            value, problem = _coerce(spec, raw, SETTINGS_SHEET)
+            value, problem = coerce_setting(spec, raw, SETTINGS_SHEET)
             if problem:
                 unmatched.append(CarryRecord(SETTINGS_SHEET, spec.key, "Value", raw, problem.message))
                 continue

@@ -16,7 +16,7 @@ from sheetbuilder.sheets.typed import DECISION_SHEETS, PROFIT_TARGET, CarryResul
 from sheetbuilder.workbook.columns import INVALID
 from sheetbuilder.errors import WARNING, Problem
 from sheetbuilder.sheets.followup import Followup
-from sheetbuilder.weekly.applied import _number as number, followup_rows, same_exports, span_of
+from sheetbuilder.weekly.applied import followup_rows, number_or_none, same_exports, span_of
 from sheetbuilder.sheets.actions import SHEET, defs as action_defs
 from sheetbuilder.reading.readers import Inputs
 from sheetbuilder.values import is_blank, is_number
@@ -140,7 +140,7 @@ def followup_of(saved: SavedWorkbook, tables: dict, settings: Settings, period: 
                                                          "direction")}
                 for r in profit.to_dict("records")}
     targets = {str(p): float(t) for p, t in zip(profit["product_id"], profit["target_acos"])
-               if number(t) is not None}
+               if number_or_none(t) is not None}
     rows = followup_rows(changes, before, tables, targets)
     return Followup(rows, products, last, current, name, settings.min_clicks), []
 

@@ -46,7 +46,6 @@ class ChangesResult:
         output: the file written.
         written: the number of changes written.
         problems: one Problem per inconsistency (file 'Actions', its row, its column).
-        recalculated: always False: no formula engine is used (kept for callers that report it).
         refused: the Actions rows not written.
         rows: the rows written (columns as COLUMNS).
         computed: True when the list was computed from the workbook's inputs (False: read from saved values).
@@ -57,7 +56,6 @@ class ChangesResult:
     output: Path
     written: int
     problems: list[Problem] = field(default_factory=list)
-    recalculated: bool = False
     refused: list[int] = field(default_factory=list)
     rows: list[list[Any]] = field(default_factory=list)
     computed: bool = False
@@ -224,8 +222,8 @@ def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool =
             not yet applied".
 
     Returns:
-        The rows written, the problems (with their Actions row), and whether the workbook
-        had to be recalculated.
+        The rows written, the problems (with their Actions row), and whether the list was
+        computed from the workbook's inputs.
 
     Raises:
         WorkbookNotFound, NotAWorkbook, NoActionsSheet: the workbook cannot be read as one with Actions.
@@ -256,5 +254,5 @@ def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool =
         write_csv(output, COLUMNS, [_cents_text(r) for r in kept], force=force)
     else:
         write_xlsx(output, list(COLUMNS), kept, force=force)
-    return ChangesResult(output, len(kept), problems, False, refused, kept, notes["computed"],
+    return ChangesResult(output, len(kept), problems, refused, kept, notes["computed"],
                          notes["overwritten"], notes["unchecked"])

@@ -30,7 +30,7 @@ from sheetbuilder.workbook.formula import col_number
 from sheetbuilder.reading.guard import UnreadableWorkbook, guard_saved_workbook
 from sheetbuilder.errors import WARNING, Problem, SheetbuilderError
 from sheetbuilder.sheets.inputs import sheet_name
-from sheetbuilder.reading.settings import SETTINGS, Settings, _coerce
+from sheetbuilder.reading.settings import SETTINGS, Settings, coerce_setting
 from sheetbuilder.sheets.history import (COLUMNS as HISTORY_COLUMNS, HEADER_ROW as HISTORY_HEADER_ROW,
                                          NAME as HISTORY_NAME, NUMBERS as HISTORY_NUMBERS, SHEET as HISTORY_SHEET)
 from sheetbuilder.values import is_blank
@@ -277,7 +277,7 @@ def saved_settings(book: SavedBook):
             continue
         if raw is None:
             continue
-        value, problem = _coerce(spec, raw, "Settings")
+        value, problem = coerce_setting(spec, raw, "Settings")
         if problem is not None:
             problems.append(problem)
             continue
