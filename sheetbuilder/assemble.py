@@ -21,12 +21,12 @@ from sheetbuilder.sheets.typed import ACTIONS_NAME, EDITABLE_TABLES, CarryResult
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable
 from sheetbuilder.errors import Problem
 from sheetbuilder.sheets.history import applied_rows, plan_history
-from sheetbuilder.sheets.actions import defs as ACTION_DEFS, plan_actions
+from sheetbuilder.sheets.actions import DEFS as ACTION_DEFS, SEGMENTS as ACTION_SEGMENTS, plan_actions
 from sheetbuilder.sheets.bids import DEFS as BIDS_DEFS, plan_bids
 from sheetbuilder.sheets.budget import CAMPAIGN_DEFS, PRODUCT_DEFS as BUDGET_DEFS, plan_budget
 from sheetbuilder.sheets.dashboard import Figure, dashboard, first_look
 from sheetbuilder.sheets.followup import (CHANGE_DEFS as FOLLOWUP_DEFS, NAME as FOLLOWUP_NAME, SHEET as FOLLOWUP_SHEET,
-                                          Followup, plan_followup)
+                                          SUMMARY as FOLLOWUP_SUMMARY, Followup, plan_followup)
 from sheetbuilder.sheets.groups import DEFS as GROUPS_DEFS, plan_groups
 from sheetbuilder.sheets.guide import plan_guide
 from sheetbuilder.sheets.inputs import InputSheet, catalog_names, plan_input_sheets
@@ -195,18 +195,14 @@ def _budget(a: Assembly) -> None:
                                                              {x.key for x in BUDGET_DEFS}])
 
 
-ACTION_SOURCES = ("Bids", "Harvest", "Negatives", "Budget campaigns")
-
-
 def _actions(a: Assembly) -> None:
-    sizes = {name: len(a.tables[name].frame) for name in ACTION_SOURCES if name in a.tables}
-    sizes["Source negatives"] = sizes.get("Harvest", 0)
+    sizes = {s.label: len(a.tables[s.table].frame) for s in ACTION_SEGMENTS if s.table in a.tables}
     sheet, actions, counts, count_refs = plan_actions(a.tables, a.anchors, a.settings, sizes)
     a.table("actions", "Actions", actions)
     for i, (ref, count) in enumerate(zip(count_refs, counts)):
-        a.anchors.provide_cell("actions", f"actions_count.{i + 1}", ref, float(count))
+        a.anchors.provide_cell("actions", f"actions_count.{ACTION_SEGMENTS[i].number}", ref, float(count))
     a.place("actions", sheet)
-    a.sections["actions"] = ("Actions columns", ACTION_DEFS(["0"] * 5))
+    a.sections["actions"] = ("Actions columns", ACTION_DEFS)
 
 
 def _followup(a: Assembly) -> None:
@@ -232,11 +228,11 @@ def _guide(a: Assembly) -> None:
     counts = [name for name in a.anchors if name.startswith("actions_count.")]
     figures.append(Figure("Changes in the Actions list", "=" + "+".join(a.anchors[n] for n in counts),
                           float(sum(a.anchors.value(n) for n in counts)), "int"))
-    summary = [name for name in a.anchors if name.startswith("followup_summary.")]
-    for i, name in enumerate(summary):
-        label = name.split(".", 1)[1]
-        figures.append(Figure(f"Follow-up: {label[0].lower()}{label[1:]}", "=" + a.anchors[name],
-                              a.anchors.value(name), "int" if i < 4 else "money"))
+    for label, style in FOLLOWUP_SUMMARY:
+        name = f"followup_summary.{label}"
+        if name in a.anchors:
+            figures.append(Figure(f"Follow-up: {label[0].lower()}{label[1:]}", "=" + a.anchors[name],
+                                  a.anchors.value(name), style))
     sources = {k: v.name + (f" ({a.inputs.encodings[k]})" if k in a.inputs.encodings else "")
                for k, v in a.inputs.sources.items()}
     sections = [a.sections[k] for k in SECTION_ORDER if k in a.sections]

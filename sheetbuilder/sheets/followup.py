@@ -33,7 +33,13 @@ SHEET = "Follow-up"
 NAME = "sb_followup"  # the defined name over the Last week's changes body (changes --include-unapplied reads it)
 CAUTION = ("A before-and-after comparison is observational: seasonality, competitors, prices and stock all move "
            "too. Treat each Outcome as a signal to look closer, not as proof that a change worked.")
-FIRST_TABLE_ROW = 17  # 0-based header row of Last week's changes (the summary above has fixed height)
+# The Summary's figures, top to bottom: label and number format (the Guide's dashboard shows them alike).
+SUMMARY = (("Changes planned last week", "int"), ("Applied", "int"), ("Not applied", "int"), ("Cannot tell", "int"),
+           ("Spend on negated terms, last period", "money"), ("Spend on negated terms, this period", "money"),
+           ("Net profit after ads, last period", "money"), ("Net profit after ads, this period", "money"))
+SUMMARY_FIRST_ROW = 6  # 0-based: the title, two lines on the periods, the caution, a blank row and "Summary" above
+# 0-based header row of Last week's changes: below the Summary, a blank row and the table's title (fixed height).
+FIRST_TABLE_ROW = SUMMARY_FIRST_ROW + len(SUMMARY) + 3
 AS_INTENDED, MIXED, AGAINST = "as intended", "mixed", "not as intended"
 TOO_FEW, NOT_APPLIED = "too few clicks", "not applied"
 ADDS = ("add keyword", "add product target")
@@ -303,20 +309,20 @@ def plan_followup(followup: Followup, profit: PlannedTable, ranges: dict[str, st
     spend = {s: float(frame.loc[frame["kind"] == "add negative", f"spend_{s}"].sum()) if len(frame) else 0.0
              for s in ("b", "n")}
     then_profit = float(sum(v for v in products.frame["net_profit_then"] if _num(v)))
-    summary = [
-        ("Changes planned last week", f"={len(frame)}", float(len(frame)), "int"),
-        ("Applied", f'=COUNTIFS({c_rng["fu.applied"]},"{YES}")', float((frame["applied"] == YES).sum()), "int"),
-        ("Not applied", f'=COUNTIFS({c_rng["fu.applied"]},"{NO}")', float((frame["applied"] == NO).sum()), "int"),
-        ("Cannot tell", f'=COUNTIFS({c_rng["fu.applied"]},"{CANNOT_TELL}")',
-         float((frame["applied"] == CANNOT_TELL).sum()), "int"),
-        ("Spend on negated terms, last period", f'=SUMIFS({c_rng["fu.spend_b"]},{c_rng["fu.kind"]},"add negative")',
-         spend["b"], "money"),
-        ("Spend on negated terms, this period", f'=SUMIFS({c_rng["fu.spend_n"]},{c_rng["fu.kind"]},"add negative")',
-         spend["n"], "money"),
-        ("Net profit after ads, last period", f'=SUM({p_rng["fp.net_profit_then"]})', then_profit, "money"),
-        ("Net profit after ads, this period", "=" + ranges["profit_total.net_profit"],
-         float(profit.totals_values["net_profit"]), "money"),
-    ]
+    summary = {  # label: (formula, value), in SUMMARY's order
+        "Changes planned last week": (f"={len(frame)}", float(len(frame))),
+        "Applied": (f'=COUNTIFS({c_rng["fu.applied"]},"{YES}")', float((frame["applied"] == YES).sum())),
+        "Not applied": (f'=COUNTIFS({c_rng["fu.applied"]},"{NO}")', float((frame["applied"] == NO).sum())),
+        "Cannot tell": (f'=COUNTIFS({c_rng["fu.applied"]},"{CANNOT_TELL}")',
+                        float((frame["applied"] == CANNOT_TELL).sum())),
+        "Spend on negated terms, last period": (
+            f'=SUMIFS({c_rng["fu.spend_b"]},{c_rng["fu.kind"]},"add negative")', spend["b"]),
+        "Spend on negated terms, this period": (
+            f'=SUMIFS({c_rng["fu.spend_n"]},{c_rng["fu.kind"]},"add negative")', spend["n"]),
+        "Net profit after ads, last period": (f'=SUM({p_rng["fp.net_profit_then"]})', then_profit),
+        "Net profit after ads, this period": ("=" + ranges["profit_total.net_profit"],
+                                              float(profit.totals_values["net_profit"])),
+    }
     lines = period_lines(followup)
     above: list[list[Cell | None]] = [
         [Cell(f"Follow-up: what became of last week's changes ({followup.source})", style="title")],
@@ -327,12 +333,15 @@ def plan_followup(followup: Followup, profit: PlannedTable, ranges: dict[str, st
         [Cell("Summary", style="subtitle")],
     ]
     figures: dict[str, tuple[str, Any]] = {}
-    for label, formula, value, style in summary:
+    for label, style in SUMMARY:
+        formula, value = summary[label]
         figures[label] = (f"{quote_sheet(SHEET)}!$B${len(above) + 1}", value)
         above.append([Cell(label), Cell(value, formula, style)])
     good, bad = DIRECTION_STATES["grow"], DIRECTION_STATES["cut"]
-    highlights = [Highlight(8, YES, good), Highlight(8, NO, bad), Highlight(19, AS_INTENDED, good, True),
-                  Highlight(19, AGAINST, bad), Highlight(19, NOT_APPLIED, bad)]
+    applied, outcome = (list(changes.letters).index(key) for key in ("applied", "outcome"))
+    highlights = [Highlight(applied, YES, good), Highlight(applied, NO, bad),
+                  Highlight(outcome, AS_INTENDED, good, True), Highlight(outcome, AGAINST, bad),
+                  Highlight(outcome, NOT_APPLIED, bad)]
     table = Table(FIRST_TABLE_ROW, changes.columns, highlights=highlights, title="Last week's changes")
     more = [Table(products_first, products.columns, autofilter=False, title="Products then and now")]
     sheet = Sheet(SHEET, above=above, table=table, more=more, freeze=(FIRST_TABLE_ROW + 1, 1), tab_color="#3B7A57",

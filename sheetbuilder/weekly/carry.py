@@ -30,13 +30,13 @@ import pandas as pd
 from openpyxl.utils.cell import coordinate_to_tuple
 
 from sheetbuilder.sheets.inputs import CATALOG_NAME, EDITABLE, EXPORTED
+from sheetbuilder.sheets.settings_sheet import AS_BUILT, HEADERS as SETTINGS_HEADERS, SHEET as SETTINGS_SHEET
 from sheetbuilder.sheets.typed import (CARRIED_NAME, DECISION_SHEETS, PROFIT_TARGET, SCAN_ROWS, CarryRecord,
                                        CarryResult, EditSheet, key_text)
 from sheetbuilder.values import is_blank, is_number, same_value, shown
 from sheetbuilder.weekly.saved import SavedBook, SavedWorkbookUnreadable, named_columns
 from sheetbuilder.reading.settings import SETTINGS, Settings, coerce_setting
 
-SETTINGS_SHEET = "Settings"
 CATALOG_SHEET = "in_catalog"
 CATALOG_COLUMNS = tuple(sorted(EDITABLE["catalog"]))
 MONEY_COLUMNS = ("price", "unit_cost", "fees_per_unit")  # blank money is read as 0
@@ -138,11 +138,11 @@ def _read_block(wb, rows_of, entry: EditSheet) -> dict[tuple, Any] | None:
     return out
 
 
-AS_BUILT_COLUMN = 4    # Settings keeps each value as built in its fifth column, headed "As built"
+AS_BUILT_COLUMN = SETTINGS_HEADERS.index(AS_BUILT)  # the Settings column keeping each value as built
 
 
 def _has_as_built(rows: list[list[Any]]) -> bool:
-    return any(len(r) > AS_BUILT_COLUMN and r[AS_BUILT_COLUMN] == "As built" for r in rows[:SCAN_ROWS])
+    return any(len(r) > AS_BUILT_COLUMN and r[AS_BUILT_COLUMN] == AS_BUILT for r in rows[:SCAN_ROWS])
 
 
 def _settings_cells(wb, rows_of: Callable[[str], list[list[Any]]]) -> dict[str, Any]:

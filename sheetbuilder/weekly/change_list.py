@@ -17,15 +17,15 @@ from sheetbuilder.workbook.columns import INVALID
 from sheetbuilder.errors import WARNING, Problem
 from sheetbuilder.sheets.followup import Followup
 from sheetbuilder.weekly.applied import followup_rows, number_or_none, same_exports, span_of
-from sheetbuilder.sheets.actions import SHEET, defs as action_defs
+from sheetbuilder.sheets.actions import DEFS as ACTION_DEFS, KINDS, SHEET
 from sheetbuilder.reading.readers import Inputs
 from sheetbuilder.values import is_blank, is_number
 from sheetbuilder.weekly.record import FIRST_ROW, SavedWorkbook
 from sheetbuilder.reading.settings import Settings
 
 # The CSV layout is the Actions list's visible columns, as plan_actions declares them.
-KEYS = tuple(d.key for d in action_defs(["0"] * 5) if not d.hidden)
-KINDS = ("bid", "add keyword", "add product target", "add negative", "budget")
+KEYS = tuple(d.key for d in ACTION_DEFS if not d.hidden)
+CHANGE_KEY = ("kind", "campaign", "ad_group", "target", "match_type")  # what a change row changes
 ADDS = ("add keyword", "add product target")
 
 
@@ -106,8 +106,8 @@ def previous_changes(saved: SavedWorkbook) -> tuple[list[dict], dict]:
     bids = planned.get("Bids")
     product_of = {}
     if bids is not None and "product_id" in bids.frame:
-        product_of = {(r[0], r[1], r[2], r[3]): r[4] for r in bids.frame[
-            ["campaign", "ad_group", "target", "match_type", "product_id"]].itertuples(index=False, name=None)}
+        product_of = {(r.campaign, r.ad_group, r.target, r.match_type): r.product_id for r in bids.frame[
+            ["campaign", "ad_group", "target", "match_type", "product_id"]].itertuples(index=False)}
     for ch in named:
         if is_blank(ch.get("product_id")) and ch.get("kind") == "bid":
             ch["product_id"] = product_of.get((ch["campaign"], ch["ad_group"], ch["target"], ch["match_type"]), "")

@@ -21,7 +21,7 @@ from pathlib import Path
 from typing import Any
 
 from sheetbuilder.workbook.atomic import atomic_output, scratch_dir
-from sheetbuilder.weekly.change_list import KEYS, SHEET, check_change, computed_actions
+from sheetbuilder.weekly.change_list import CHANGE_KEY, KEYS, SHEET, check_change, computed_actions
 from sheetbuilder.workbook.columns import NO_SAVED_VALUE
 from sheetbuilder.workbook.csv_safe import write_csv
 from sheetbuilder.errors import OutputExists, Problem, SheetbuilderError, UnsafeOutput
@@ -86,7 +86,8 @@ def _overwritten_results(saved: SavedWorkbook, tables: dict, fold: bool) -> list
 
 def _change_key(values: list[Any]) -> tuple:
     """What a change row changes: kind, campaign, ad group, target or term, match type (as compared text)."""
-    return tuple("" if is_blank(v) else str(v).strip() for v in values[:5])
+    named = dict(zip(KEYS, values))
+    return tuple("" if is_blank(named[k]) else str(named[k]).strip() for k in CHANGE_KEY)
 
 
 def _overwritten(saved: list[tuple[int, list[Any]]], computed: list[tuple[int, list[Any]]]) -> list[Problem]:
@@ -201,8 +202,7 @@ def unapplied_rows(saved: SavedWorkbook, present: set[tuple]) -> list[tuple[int,
         named = {"kind": got["kind"], "campaign": got["campaign"], "ad_group": got["ad_group"],
                  "target": got["target"], "match_type": got["match_type"], "product_id": got["product_id"],
                  "current": got["now"], "new": got["planned"], "reason": UNAPPLIED_REASON}
-        key = tuple("" if is_blank(named[k]) else named[k] for k in ("kind", "campaign", "ad_group", "target",
-                                                                      "match_type"))
+        key = tuple("" if is_blank(named[k]) else named[k] for k in CHANGE_KEY)
         if key not in present:
             out.append((row, [named.get(k) for k in KEYS]))
     return out
@@ -234,7 +234,8 @@ def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool =
     saved = read_saved_workbook(workbook, NotAWorkbook, for_changes=True, followup=include_unapplied)  # one read
     rows, context, notes = actions_of(saved)
     if include_unapplied:
-        present = {tuple("" if is_blank(v) else v for v in values[:5]) for _, values in rows}
+        present = {tuple("" if is_blank(v) else v for v in (dict(zip(KEYS, values))[k] for k in CHANGE_KEY))
+                   for _, values in rows}
         rows = rows + unapplied_rows(saved, present)
     problems: list[Problem] = list(notes["problems"]) + list(notes["overwritten"])
     refused: list[int] = []
