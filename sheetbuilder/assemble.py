@@ -19,6 +19,7 @@ from typing import Callable
 from sheetbuilder.sheets.anchors import Anchors
 from sheetbuilder.sheets.typed import ACTIONS_NAME, EDITABLE_TABLES, CarryResult, decision_column
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable
+from sheetbuilder.workbook.formula import check_names
 from sheetbuilder.errors import Problem
 from sheetbuilder.sheets.history import applied_rows, plan_history
 from sheetbuilder.sheets.actions import DEFS as ACTION_DEFS, SEGMENTS as ACTION_SEGMENTS, plan_actions
@@ -298,7 +299,9 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
             step.run(a)
     names = [*a.names, *catalog_names(layouts), *edit_names(a.tables)]
     sheets = [s for where in SHEET_ORDER for s in a.sheets.get(where, [])]
-    return Plan(WorkbookSpec(sheets, names, settings.currency_symbol), a.tables)
+    spec = WorkbookSpec(sheets, names, settings.currency_symbol)
+    check_names(spec.formulas(), {name for name, _ in names})  # a setting's name in formula text is a defined one
+    return Plan(spec, a.tables)
 
 
 def _with_marks(a: Assembly, marks: dict[int, dict[int, str]]) -> None:
