@@ -140,7 +140,7 @@ def test_the_block_sum_is_written_by_one_helper():
 
 
 def test_a_decision_validation_is_planned_from_its_columns_words_and_rendered_only_by_the_renderer():
-    from sheetbuilder.workbook.columns import decision_validation
+    from sheetbuilder.sheets.decisions import decision_validation
     from sheetbuilder.sheets.bids import EDITABLE_COLUMNS as BIDS
     from sheetbuilder.sheets.terms import DECISIONS, EDITABLE_COLUMNS as TERMS
     from sheetbuilder.workbook.render import validation_options

@@ -191,7 +191,7 @@ def test_header_rows_are_found_by_scanning(tmp_path):
 
 def test_decisions_that_are_not_a_valid_word_or_number_are_unmatched_with_the_reason():
     """Text in a numeric Decision, an unknown word and a saved formula error are never carried or ignored."""
-    from sheetbuilder.workbook.columns import NO_SAVED_VALUE
+    from sheetbuilder.sheets.decisions import NO_SAVED_VALUE
     inputs, settings, _ = load(DEMO)
     t = inputs.tables["targets"].iloc[0]
     s = inputs.tables["search_terms"].iloc[0]

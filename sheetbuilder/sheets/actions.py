@@ -22,9 +22,9 @@ import numpy as np
 import pandas as pd
 
 from sheetbuilder.sheets.anchors import without_absent
-from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, count_formula, plan_table
+from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, plan_table
 from sheetbuilder.workbook.formula import cell_ref
-from sheetbuilder.sheets.lists import SPARE_ROWS
+from sheetbuilder.sheets.lists import SPARE_ROWS, count_formula
 from sheetbuilder.reading.settings import Settings
 from sheetbuilder.workbook.spec import DATA, Cell, Sheet, Table, stacked_pages
 

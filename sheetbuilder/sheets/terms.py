@@ -32,9 +32,9 @@ import numpy as np
 import pandas as pd
 
 from sheetbuilder.sheets.blends import attach_groups, blends_row_column, fetch
-from sheetbuilder.workbook.columns import (ColumnDef, PlannedTable, apply_word_decision, blank_div,
-                                           decision_validation, editable, exports_only, plan_table, running_key,
-                                           word_decision_formula)
+from sheetbuilder.sheets.decisions import apply_word_decision, decision_validation, editable, word_decision_formula
+from sheetbuilder.sheets.lists import running_key
+from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, blank_div, exports_only, plan_table
 from sheetbuilder.reading.normalise import contains_phrase, looks_like_product_id, normalise, words
 from sheetbuilder.reading.numbers import ROUNDING_NUDGE, round_half_away
 from sheetbuilder.sheets.inputs import InputSheet

@@ -17,7 +17,7 @@ from sheetbuilder.sheets.bids import EDITABLE_COLUMNS as BIDS
 from sheetbuilder.sheets.budget import CAMPAIGN_EDITABLE_COLUMNS as BUDGET_CAMPAIGNS, EDITABLE_COLUMNS as BUDGET
 from sheetbuilder.sheets.profit import EDITABLE_COLUMNS as PROFIT
 from sheetbuilder.sheets.terms import EDITABLE_COLUMNS as TERMS
-from sheetbuilder.workbook.columns import EditableColumns
+from sheetbuilder.sheets.decisions import EditableColumns
 from sheetbuilder.workbook.render import stored_text
 
 # Every table with a typed column, in the order edits are read and listed.

@@ -13,7 +13,7 @@ from typing import Any
 
 from sheetbuilder.assemble import plan_workbook
 from sheetbuilder.sheets.typed import DECISION_SHEETS, PROFIT_TARGET, CarryResult, key_text
-from sheetbuilder.workbook.columns import INVALID
+from sheetbuilder.sheets.decisions import INVALID
 from sheetbuilder.errors import WARNING, Problem
 from sheetbuilder.sheets.followup import Followup
 from sheetbuilder.weekly.applied import followup_rows, number_or_none, same_exports, span_of

@@ -22,7 +22,7 @@ from typing import Any
 
 from sheetbuilder.workbook.atomic import atomic_output, scratch_dir
 from sheetbuilder.weekly.change_list import CHANGE_KEY, KEYS, SHEET, check_change, computed_actions
-from sheetbuilder.workbook.columns import NO_SAVED_VALUE
+from sheetbuilder.sheets.decisions import NO_SAVED_VALUE
 from sheetbuilder.workbook.csv_safe import write_csv
 from sheetbuilder.errors import OutputExists, Problem, SheetbuilderError, UnsafeOutput
 from sheetbuilder.reading.guard import text_problem

@@ -25,7 +25,7 @@ from openpyxl.utils.cell import get_column_letter, range_boundaries
 from openpyxl.utils.datetime import from_excel
 
 from sheetbuilder.reading import contract as c
-from sheetbuilder.workbook.columns import NO_SAVED_VALUE
+from sheetbuilder.sheets.decisions import NO_SAVED_VALUE
 from sheetbuilder.workbook.formula import col_number
 from sheetbuilder.reading.guard import UnreadableWorkbook, guard_saved_workbook
 from sheetbuilder.errors import WARNING, Problem, SheetbuilderError
@@ -125,7 +125,7 @@ class SavedBook:
     read-only, values-only mode: shared, inline and formula strings, numbers, booleans,
     error text, dates by their number format), only for the columns a caller asks for, so
     a wide sheet costs what its wanted columns cost. A formula cell with no saved value
-    reads as :data:`sheetbuilder.workbook.columns.NO_SAVED_VALUE` when ``formulas`` is asked for.
+    reads as :data:`sheetbuilder.sheets.decisions.NO_SAVED_VALUE` when ``formulas`` is asked for.
     """
 
     def __init__(self, path: Path):
