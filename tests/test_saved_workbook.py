@@ -40,14 +40,15 @@ def opened(monkeypatch) -> dict[str, list[str]]:
     return calls
 
 
-def test_build_with_previous_and_changes_each_open_the_saved_workbook_once(tmp_path, opened):
-    week1 = build(ROOT / "demo_inputs", tmp_path / "week1.xlsx", built_on=BUILT_ON)
-    assert {"opener": [], "openpyxl": []} == opened  # building from exports opens no workbook
+def test_build_with_previous_and_changes_each_open_the_saved_workbook_once(demo_build, tmp_path, opened):
+    week1 = demo_build.output  # the demo, built from exports: no workbook opened
+    opened["opener"].clear()
+    opened["openpyxl"].clear()
     week2 = build(ROOT / "demo_inputs_week2", tmp_path / "week2.xlsx", built_on=BUILT_ON + dt.timedelta(days=7),
-                  previous=week1.output)
+                  previous=week1)
     names = [s.name for s in week2.plan.spec.sheets]
     assert "Follow-up" in names and "History" in names  # the build read the edits, the change list and History
-    assert {"opener": ["week1.xlsx"], "openpyxl": ["week1.xlsx"]} == opened
+    assert {"opener": [week1.name], "openpyxl": [week1.name]} == opened
     opened["opener"].clear()
     opened["openpyxl"].clear()
     result = export_changes(week2.output, tmp_path / "changes.csv", include_unapplied=True)
@@ -55,8 +56,8 @@ def test_build_with_previous_and_changes_each_open_the_saved_workbook_once(tmp_p
     assert {"opener": ["week2.xlsx"], "openpyxl": ["week2.xlsx"]} == opened
 
 
-def test_the_record_holds_what_both_commands_read(tmp_path):
-    week1 = build(ROOT / "demo_inputs", tmp_path / "week1.xlsx", built_on=BUILT_ON)
+def test_the_record_holds_what_both_commands_read(demo_build):
+    week1 = demo_build
     record = read_saved_workbook(week1.output, for_changes=True, followup=True)
     assert record.holds_inputs
     assert BUILT_ON == record.built_on
