@@ -22,6 +22,7 @@ import numpy as np
 import pandas as pd
 
 from sheetbuilder.sheets.anchors import without_absent
+from sheetbuilder.values import is_empty
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, plan_table
 from sheetbuilder.workbook.formula import cell_ref
 from sheetbuilder.sheets.lists import SPARE_ROWS, count_formula
@@ -165,11 +166,6 @@ def defs(totals: list[str]) -> list[ColumnDef]:
 DEFS: list[ColumnDef] = defs(["0"] * len(SEGMENTS))
 
 
-def _untyped(decision: Any) -> bool:
-    """Whether a Decision cell is blank (None, NaN or empty text)."""
-    return decision is None or decision == "" or (isinstance(decision, float) and np.isnan(decision))
-
-
 def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
     """The changes in list order as the reference computes them, and the count of each segment."""
     out: list[dict] = []
@@ -182,7 +178,7 @@ def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
                         "Ad group": r["ad_group"], "Target or term": r["target"], "Match type": r["match_type"],
                         "Current": r["bid"], "New": r["final"], "Product ID": r["product_id"],
                         "Money at stake": r["spend"],
-                        "Reason": r["reason"] if _untyped(r["decision"]) else "your decision"})
+                        "Reason": r["reason"] if is_empty(r["decision"]) else "your decision"})
     if "Harvest" in tables:
         h = tables["Harvest"].frame
         filled = h.loc[h["pos"].notna()]
@@ -214,7 +210,7 @@ def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
             out.append({"_seg": 5, "_pos": r["cpos"], "Kind": "budget", "Campaign": r["campaign"],
                         "Current": r["budget"], "New": r["final"], "Product ID": r["products"],
                         "Money at stake": "" if isinstance(r["final"], str) else abs(r["final"] - r["budget"]),
-                        "Reason": "follows its products' spend" if _untyped(r["decision"]) else "your decision"})
+                        "Reason": "follows its products' spend" if is_empty(r["decision"]) else "your decision"})
     return out, counts
 
 

@@ -19,11 +19,11 @@ import math
 from dataclasses import dataclass, field
 from typing import Any
 
-import numpy as np
 import pandas as pd
 
 from sheetbuilder.reading.periods import Period
 from sheetbuilder.sheets.anchors import without_absent
+from sheetbuilder.values import is_number
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, plan_table
 from sheetbuilder.workbook.formula import quote_sheet
 from sheetbuilder.workbook.palette import DIRECTION_STATES
@@ -216,13 +216,9 @@ def _now(key: str):
 
 def _change(key: str):
     def compute(df: pd.DataFrame, ctx: Any) -> pd.Series:
-        return pd.Series([n - t if _num(n) and _num(t) else "" for t, n in zip(df[f"{key}_then"], df[f"{key}_now"])],
+        return pd.Series([n - t if is_number(n) and is_number(t) else "" for t, n in zip(df[f"{key}_then"], df[f"{key}_now"])],
                          index=df.index, dtype=object)
     return compute
-
-
-def _num(v: Any) -> bool:
-    return isinstance(v, (int, float, np.integer, np.floating)) and not isinstance(v, bool) and not math.isnan(v)
 
 
 def product_defs() -> list[ColumnDef]:
@@ -308,7 +304,7 @@ def plan_followup(followup: Followup, profit: PlannedTable, ranges: dict[str, st
     frame = changes.frame
     spend = {s: float(frame.loc[frame["kind"] == "add negative", f"spend_{s}"].sum()) if len(frame) else 0.0
              for s in ("b", "n")}
-    then_profit = float(sum(v for v in products.frame["net_profit_then"] if _num(v)))
+    then_profit = float(sum(v for v in products.frame["net_profit_then"] if is_number(v)))
     summary = {  # label: (formula, value), in SUMMARY's order
         "Changes planned last week": (f"={len(frame)}", float(len(frame))),
         "Applied": (f'=COUNTIFS({c_rng["fu.applied"]},"{YES}")', float((frame["applied"] == YES).sum())),
