@@ -156,8 +156,8 @@ def read_saved_workbook(path: Path, unreadable: type[SheetbuilderError] = NotAWo
     Args:
         path: the workbook (only read).
         unreadable: the error a damaged file raises (``build --previous`` and ``changes`` name it apart).
-        for_changes: also read the Actions list and the Follow-up's rows as saved; refuse a
-            workbook without an Actions sheet, and read one without inputs from its saved values.
+        for_changes: also read the Actions list as saved (not the History); refuse a workbook
+            without an Actions sheet, and read one without inputs from its saved values.
         followup: also read the Follow-up's rows (``changes --include-unapplied``).
 
     Raises:
@@ -174,14 +174,16 @@ def read_saved_workbook(path: Path, unreadable: type[SheetbuilderError] = NotAWo
             if actions and all(is_blank(v) for _, values in actions for v in values):
                 raise NoActionsSheet(f"{book.path.name} stores no values on {SHEET} and holds no inputs to "
                                      "compute them from; open and save it in a spreadsheet program first")
-            return SavedWorkbook(book.path, names, None, Settings(), None, Edits(str(book.path)), [],
-                                 read_context(book), {}, actions=actions)
+            return SavedWorkbook(book.path, names, tables=None, settings=Settings(), built_on=None,
+                                 edits=Edits(str(book.path)), problems=[], context=read_context(book), results={},
+                                 actions=actions)
         tables, problems = saved_inputs(book)
         settings, built_on, setting_problems = saved_settings(book)
         problems += [Problem("Settings", None, p.column, p.message) for p in setting_problems]
         history, history_problems = ([], []) if for_changes else read_history(book)
         no_values = for_changes and all(is_blank(values[0]) for _, values in actions)
-        return SavedWorkbook(book.path, names, tables, settings, built_on, edits_in(book), problems,
-                             read_context(book), _saved_results(book), history, history_problems, actions,
-                             _saved_actions(book, formulas=True) if no_values else [],
-                             _followup_rows(book) if followup else [])
+        return SavedWorkbook(book.path, names, tables=tables, settings=settings, built_on=built_on,
+                             edits=edits_in(book), problems=problems, context=read_context(book),
+                             results=_saved_results(book), history=history, history_problems=history_problems,
+                             actions=actions, typed_actions=_saved_actions(book, formulas=True) if no_values else [],
+                             followup=_followup_rows(book) if followup else [])
