@@ -118,7 +118,24 @@ def _typed_over(saved: list[tuple[int, list[Any]]]) -> list[Problem]:
             if got is not NO_SAVED_VALUE and not is_blank(got)]
 
 
-def read_actions(workbook: Path) -> tuple[list[tuple[int, list[Any]]], dict[str, Any], dict[str, Any]]:
+@dataclass
+class Noticed:
+    """What reading a change list noticed besides the rows.
+
+    Attributes:
+        computed: the list was computed from the workbook's inputs (False: read from its saved values).
+        problems: the input problems of that computation.
+        overwritten: one Problem per cell typed over a formula by hand.
+        unchecked: the file stores no formula values, so overwritten cells could not be looked for.
+    """
+
+    computed: bool = False
+    problems: list[Problem] = field(default_factory=list)
+    overwritten: list[Problem] = field(default_factory=list)
+    unchecked: bool = False
+
+
+def read_actions(workbook: Path) -> tuple[list[tuple[int, list[Any]]], dict[str, Any], Noticed]:
     """The change rows of the workbook at path (see :func:`actions_of`), read once under the reading guard.
 
     Raises:
@@ -127,25 +144,25 @@ def read_actions(workbook: Path) -> tuple[list[tuple[int, list[Any]]], dict[str,
     return actions_of(read_saved_workbook(Path(workbook), NotAWorkbook, for_changes=True))
 
 
-def actions_of(record: SavedWorkbook) -> tuple[list[tuple[int, list[Any]]], dict[str, Any], dict[str, Any]]:
+def actions_of(record: SavedWorkbook) -> tuple[list[tuple[int, list[Any]]], dict[str, Any], Noticed]:
     """The change rows [(sheet row, visible values)], the context for checks, and what was noticed.
 
     The file was read (under the reading guard) and closed; the change list is planned here, so a
     bug in planning is an internal error, not a file that cannot be read.
     """
     context, saved = record.context, record.actions
-    notes: dict[str, Any] = {"computed": False, "problems": [], "overwritten": [], "unchecked": False}
+    notes = Noticed()
     if not record.holds_inputs:
         return [(r, v) for r, v in saved if not is_blank(v[0])], context, notes
     no_values = all(is_blank(values[0]) for _, values in saved)
     typed = record.typed_actions
     computed, problems, tables, fold = computed_actions(record)
-    notes.update(computed=True, problems=problems)
+    notes.computed, notes.problems = True, problems
     if no_values:
-        notes["unchecked"] = bool(computed)  # no saved values: a program that drops them saved it
-        notes["overwritten"] = _typed_over(typed)
+        notes.unchecked = bool(computed)  # no saved values: a program that drops them saved it
+        notes.overwritten = _typed_over(typed)
     else:
-        notes["overwritten"] = _overwritten(saved, computed) + _overwritten_results(record, tables, fold)
+        notes.overwritten = _overwritten(saved, computed) + _overwritten_results(record, tables, fold)
     return computed, context, notes
 
 
@@ -237,7 +254,7 @@ def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool =
         present = {tuple("" if is_blank(v) else v for v in (dict(zip(KEYS, values))[k] for k in CHANGE_KEY))
                    for _, values in rows}
         rows = rows + unapplied_rows(saved, present)
-    problems: list[Problem] = list(notes["problems"]) + list(notes["overwritten"])
+    problems: list[Problem] = list(notes.problems) + list(notes.overwritten)
     refused: list[int] = []
     kept: list[list[Any]] = []
     for r, values in rows:
@@ -255,5 +272,5 @@ def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool =
         write_csv(output, COLUMNS, [_cents_text(r) for r in kept], force=force)
     else:
         write_xlsx(output, list(COLUMNS), kept, force=force)
-    return ChangesResult(output, len(kept), problems, refused, kept, notes["computed"],
-                         notes["overwritten"], notes["unchecked"])
+    return ChangesResult(output, len(kept), problems, refused, kept, notes.computed, notes.overwritten,
+                         notes.unchecked)
