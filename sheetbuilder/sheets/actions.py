@@ -54,8 +54,9 @@ class Segment:
     kinds: tuple[str, ...]
 
 
+ADDS = ("add keyword", "add product target")  # the Kind words of a keyword or product target to add
 SEGMENTS = (Segment(1, "Bid changes", "Bids", ("bid",)),
-            Segment(2, "To add", "Harvest", ("add keyword", "add product target")),
+            Segment(2, "To add", "Harvest", ADDS),
             Segment(3, "Source negatives", "Harvest", ("add negative",)),
             Segment(4, "Negatives", "Negatives", ("add negative",)),
             Segment(5, "Budgets", "Budget campaigns", ("budget",)))

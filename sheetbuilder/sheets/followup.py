@@ -22,6 +22,7 @@ from typing import Any
 import pandas as pd
 
 from sheetbuilder.reading.periods import Period
+from sheetbuilder.sheets.actions import ADDS
 from sheetbuilder.sheets.anchors import without_absent
 from sheetbuilder.values import is_number
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, plan_table
@@ -42,7 +43,6 @@ SUMMARY_FIRST_ROW = 6  # 0-based: the title, two lines on the periods, the cauti
 FIRST_TABLE_ROW = SUMMARY_FIRST_ROW + len(SUMMARY) + 3
 AS_INTENDED, MIXED, AGAINST = "as intended", "mixed", "not as intended"
 TOO_FEW, NOT_APPLIED = "too few clicks", "not applied"
-ADDS = ("add keyword", "add product target")
 
 
 YES, NO, CANNOT_TELL = "yes", "no", "cannot tell"
@@ -95,7 +95,7 @@ def _rate(key: str, header: str, num: str, den: str, help_: str, style: str) -> 
 
 
 NOW_METRICS = ("clicks", "spend", "orders", "ad_sales")
-TARGET_KINDS = ("bid", "add keyword", "add product target")
+TARGET_KINDS = ("bid", *ADDS)  # the changes of one target row
 
 
 def _live_now(metric: str, header: str, style: str, help_: str, hidden: bool = False) -> ColumnDef:

@@ -17,7 +17,7 @@ from sheetbuilder.sheets.decisions import INVALID
 from sheetbuilder.errors import WARNING, Problem
 from sheetbuilder.sheets.followup import Followup
 from sheetbuilder.weekly.applied import followup_rows, number_or_none, same_exports, span_of
-from sheetbuilder.sheets.actions import DEFS as ACTION_DEFS, KINDS, SHEET
+from sheetbuilder.sheets.actions import ADDS, DEFS as ACTION_DEFS, KINDS, SHEET
 from sheetbuilder.reading.readers import Inputs
 from sheetbuilder.values import is_blank, is_number
 from sheetbuilder.weekly.record import FIRST_ROW, SavedWorkbook
@@ -26,7 +26,6 @@ from sheetbuilder.reading.settings import Settings
 # The CSV layout is the Actions list's visible columns, as plan_actions declares them.
 KEYS = tuple(d.key for d in ACTION_DEFS if not d.hidden)
 CHANGE_KEY = ("kind", "campaign", "ad_group", "target", "match_type")  # what a change row changes
-ADDS = ("add keyword", "add product target")
 
 
 def computed_actions(saved: SavedWorkbook) -> tuple[list[tuple[int, list[Any]]], list[Problem], dict, bool]:
