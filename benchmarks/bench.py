@@ -184,7 +184,7 @@ def main(argv: list[str] | None = None) -> int:
     sizes = sorted(int(s) for s in args.sizes.split(",") if s.strip())
     libreoffice = not args.no_libreoffice
     if libreoffice:
-        from sheetbuilder.recalc import soffice_path
+        from tools.recalc import soffice_path
         if soffice_path() is None:
             print("LibreOffice not found: skipping its timings", file=sys.stderr)
             libreoffice = False

@@ -17,7 +17,7 @@ UNO_SCRIPT = Path(__file__).resolve().parent / "lo_uno.py"
 
 def lo_convert_seconds(path: Path, outdir: Path) -> float:
     """Seconds for soffice to open path (recalculating every formula on load) and save it as .xlsx."""
-    from sheetbuilder.recalc import libreoffice_convert
+    from tools.recalc import libreoffice_convert
     t = time.perf_counter()
     libreoffice_convert([path], outdir)
     return time.perf_counter() - t

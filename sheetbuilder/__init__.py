@@ -3,8 +3,7 @@
 The public surface is :func:`build` (read, plan, render atomically) and
 :func:`plan_workbook` (the plan without writing anything).
 """
-__version__ = "0.1.0"
-
-from sheetbuilder.pipeline import BuildResult, build, plan_workbook  # noqa: E402
+from sheetbuilder.pipeline import BuildResult, build, plan_workbook
+from sheetbuilder.version import __version__
 
 __all__ = ["build", "plan_workbook", "BuildResult", "__version__"]

@@ -14,34 +14,32 @@ from __future__ import annotations
 
 import datetime as dt
 from dataclasses import dataclass, field, replace
-from pathlib import Path
 from typing import Callable
 
 from sheetbuilder.sheets.anchors import Anchors
-from sheetbuilder.weekly.carry import PROFIT_TARGET, CarryResult, decision_column, entry_for
+from sheetbuilder.sheets.typed import ACTIONS_NAME, EDITABLE_TABLES, CarryResult, decision_column
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable
+from sheetbuilder.workbook.formula import check_names
 from sheetbuilder.errors import Problem
-from sheetbuilder.weekly.followup import Followup
 from sheetbuilder.sheets.history import applied_rows, plan_history
-from sheetbuilder.sheets.actions import defs as ACTION_DEFS, plan_actions
+from sheetbuilder.sheets.actions import DEFS as ACTION_DEFS, SEGMENTS as ACTION_SEGMENTS, plan_actions
 from sheetbuilder.sheets.bids import DEFS as BIDS_DEFS, plan_bids
 from sheetbuilder.sheets.budget import CAMPAIGN_DEFS, PRODUCT_DEFS as BUDGET_DEFS, plan_budget
 from sheetbuilder.sheets.dashboard import Figure, dashboard, first_look
 from sheetbuilder.sheets.followup import (CHANGE_DEFS as FOLLOWUP_DEFS, NAME as FOLLOWUP_NAME, SHEET as FOLLOWUP_SHEET,
-                                          plan_followup)
+                                          SUMMARY as FOLLOWUP_SUMMARY, Followup, plan_followup)
 from sheetbuilder.sheets.groups import DEFS as GROUPS_DEFS, plan_groups
 from sheetbuilder.sheets.guide import plan_guide
 from sheetbuilder.sheets.inputs import InputSheet, catalog_names, plan_input_sheets
 from sheetbuilder.sheets.lists import HARVEST, NEGATIVES, plan_list
 from sheetbuilder.sheets.mix import MATCH_DEFS, TYPE_DEFS as MIX_DEFS, plan_mix
 from sheetbuilder.sheets.profit import DEFS as PROFIT_DEFS, plan_profit
-from sheetbuilder.sheets.settings import plan_settings
-from sheetbuilder.sheets.terms import defs as TERMS_DEFS, plan_terms
-from sheetbuilder.sheets.unmatched import plan_carried, plan_unmatched
+from sheetbuilder.sheets.settings_sheet import plan_settings
+from sheetbuilder.sheets.terms import DEFS as TERMS_DEFS, plan_terms
+from sheetbuilder.sheets.unmatched import carried_marks, marked_column, plan_carried, plan_unmatched
 from sheetbuilder.reading.readers import Inputs
-from sheetbuilder.weekly.saved import ACTIONS_NAME, EDITABLE_TABLES, PROFIT
 from sheetbuilder.reading.settings import Settings
-from sheetbuilder.workbook.spec import Column, Sheet, Table, WorkbookSpec
+from sheetbuilder.workbook.spec import Sheet, Table, WorkbookSpec
 
 # Where each step's sheets go, left to right (the Guide first, the in_ sheets last).
 SHEET_ORDER = ("guide", "settings", "profit", "bids", "terms", "harvest", "negatives", "mix", "budget", "actions",
@@ -165,7 +163,7 @@ def _terms(a: Assembly) -> None:
     a.table("terms", "Terms", terms, sheet.name, "terms")
     a.place("terms", sheet)
     a.place("keys", keys_sheet)
-    a.sections["terms"] = ("Terms columns", TERMS_DEFS(0))
+    a.sections["terms"] = ("Terms columns", TERMS_DEFS)
 
 
 def _lists(a: Assembly) -> None:
@@ -198,18 +196,14 @@ def _budget(a: Assembly) -> None:
                                                              {x.key for x in BUDGET_DEFS}])
 
 
-ACTION_SOURCES = ("Bids", "Harvest", "Negatives", "Budget campaigns")
-
-
 def _actions(a: Assembly) -> None:
-    sizes = {name: len(a.tables[name].frame) for name in ACTION_SOURCES if name in a.tables}
-    sizes["Source negatives"] = sizes.get("Harvest", 0)
+    sizes = {s.label: len(a.tables[s.table].frame) for s in ACTION_SEGMENTS if s.table in a.tables}
     sheet, actions, counts, count_refs = plan_actions(a.tables, a.anchors, a.settings, sizes)
     a.table("actions", "Actions", actions)
     for i, (ref, count) in enumerate(zip(count_refs, counts)):
-        a.anchors.provide_cell("actions", f"actions_count.{i + 1}", ref, float(count))
+        a.anchors.provide_cell("actions", f"actions_count.{ACTION_SEGMENTS[i].number}", ref, float(count))
     a.place("actions", sheet)
-    a.sections["actions"] = ("Actions columns", ACTION_DEFS(["0"] * 5))
+    a.sections["actions"] = ("Actions columns", ACTION_DEFS)
 
 
 def _followup(a: Assembly) -> None:
@@ -235,11 +229,11 @@ def _guide(a: Assembly) -> None:
     counts = [name for name in a.anchors if name.startswith("actions_count.")]
     figures.append(Figure("Changes in the Actions list", "=" + "+".join(a.anchors[n] for n in counts),
                           float(sum(a.anchors.value(n) for n in counts)), "int"))
-    summary = [name for name in a.anchors if name.startswith("followup_summary.")]
-    for i, name in enumerate(summary):
-        label = name.split(".", 1)[1]
-        figures.append(Figure(f"Follow-up: {label[0].lower()}{label[1:]}", "=" + a.anchors[name],
-                              a.anchors.value(name), "int" if i < 4 else "money"))
+    for label, style in FOLLOWUP_SUMMARY:
+        name = f"followup_summary.{label}"
+        if name in a.anchors:
+            figures.append(Figure(f"Follow-up: {label[0].lower()}{label[1:]}", "=" + a.anchors[name],
+                                  a.anchors.value(name), style))
     sources = {k: v.name + (f" ({a.inputs.encodings[k]})" if k in a.inputs.encodings else "")
                for k, v in a.inputs.sources.items()}
     sections = [a.sections[k] for k in SECTION_ORDER if k in a.sections]
@@ -305,63 +299,20 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
             step.run(a)
     names = [*a.names, *catalog_names(layouts), *edit_names(a.tables)]
     sheets = [s for where in SHEET_ORDER for s in a.sheets.get(where, [])]
-    return Plan(WorkbookSpec(sheets, names, settings.currency_symbol), a.tables)
-
-
-def _note(record, source: str) -> str:
-    """The note on a carried cell: where it came from and when it was first typed."""
-    first = f"; first typed in the workbook built {record.first_typed}" if record.first_typed else ""
-    return (f"Carried from {source}{first}. A word stays until you clear it; a typed number expires once "
-            "the export shows it applied.")
-
-
-def carried_marks(carry: CarryResult, tables: dict[str, PlannedTable], catalog: Sheet | None,
-                  layouts: dict) -> dict[int, dict[int, str]]:
-    """{id of a planned column: {row index: note}} of every carried cell (typed columns and in_catalog)."""
-    source = Path(carry.source).name if carry.source else "the previous workbook"
-    records = {(r.sheet, r.compared): r for r in carry.carried if r.compared}
-    fold = carry.settings.fold_plurals
-    out: dict[int, dict[int, str]] = {}
-    for decl in EDITABLE_TABLES:
-        planned = tables.get(decl.table)
-        if planned is None:
-            continue
-        column = planned.columns[list(planned.letters).index(decl.value)]
-        entry = entry_for(decl.label) if decl.label != PROFIT.label else PROFIT_TARGET
-        keys = planned.frame[list(decl.keys)].itertuples(index=False, name=None)
-        for i, parts in enumerate(keys):
-            record = records.get((decl.label, entry.export_key(parts, fold)))
-            if record is not None:
-                out.setdefault(id(column), {})[i] = _note(record, source)
-    if catalog is None or "catalog" not in layouts:
-        return out
-    row_of = {str(p): i for i, p in enumerate(layouts["catalog"].frame["product_id"])}
-    by_header = {c.header: c for c in catalog.table.columns}
-    for r in carry.carried:
-        if r.sheet == "in_catalog" and r.key in row_of and r.column in by_header:
-            out.setdefault(id(by_header[r.column]), {})[row_of[r.key]] = _note(r, source)
-    return out
-
-
-def _marked(column: Column, marks: dict[int, dict[int, str]]) -> Column:
-    """column, or a copy whose carried cells have the carried style and their note."""
-    notes = marks.get(id(column))
-    if not notes:
-        return column
-    carried = column.style.split("_")[0] + "_carried"
-    return replace(column, cell_styles={**column.cell_styles, **{i: carried for i in notes}},
-                   notes={**column.notes, **notes})
+    spec = WorkbookSpec(sheets, names, settings.currency_symbol)
+    check_names(spec.formulas(), {name for name, _ in names})  # a setting's name in formula text is a defined one
+    return Plan(spec, a.tables)
 
 
 def _with_marks(a: Assembly, marks: dict[int, dict[int, str]]) -> None:
     """Put marked copies of the marked columns in the assembly's sheets and tables (the planned ones are not changed)."""
     def table(t: Table | None) -> Table | None:
-        return None if t is None else replace(t, columns=[_marked(c, marks) for c in t.columns])
+        return None if t is None else replace(t, columns=[marked_column(c, marks) for c in t.columns])
 
     for where, sheets in a.sheets.items():
         a.sheets[where] = [replace(s, table=table(s.table), more=[table(t) for t in s.more]) for s in sheets]
     for name, planned in a.tables.items():
-        a.tables[name] = replace(planned, columns=[_marked(c, marks) for c in planned.columns])
+        a.tables[name] = replace(planned, columns=[marked_column(c, marks) for c in planned.columns])
 
 
 def edit_names(tables: dict[str, PlannedTable]) -> list[tuple[str, str]]:

@@ -17,7 +17,6 @@ from __future__ import annotations
 
 import argparse
 import errno
-import inspect
 import signal
 import sys
 import time
@@ -29,12 +28,13 @@ from rich.markup import escape
 from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
 from rich.table import Table
 
-from sheetbuilder import __version__
-from sheetbuilder.weekly.carry import carried_summary
+from sheetbuilder.version import __version__
 from sheetbuilder.weekly.changes import COLUMNS as CHANGE_COLUMNS, export_changes
 from sheetbuilder.reading.inspection import inspect_exports, report_lines
 from sheetbuilder.pipeline import build
 from sheetbuilder.errors import ERROR, InputProblems, Problem, SheetbuilderError
+from sheetbuilder.sheets.typed import CarryResult
+from sheetbuilder.values import shown
 
 EXIT_INPUT = 2
 EXIT_REFUSED = 1
@@ -57,6 +57,25 @@ _ADVICE = {
     errno.EMFILE: "too many files are open; close other programs and run again",
 }
 
+
+
+def carried_summary(result: CarryResult) -> str:
+    """One paragraph for the command line: how many edits were carried, expired as applied, and not matched."""
+    counts: dict[str, int] = {}
+    for r in result.carried:
+        counts[r.sheet] = counts.get(r.sheet, 0) + 1
+    parts = [f"{n} on {sheet}" for sheet, n in counts.items()]
+    text = f"Carried {len(result.carried)} edit(s) from the previous workbook"
+    text += f" ({', '.join(parts)})." if parts else "."
+    text += (f" {len(result.applied)} typed number(s) expired: this week's export shows them applied." if result.applied
+             else " 0 typed numbers expired as applied.")
+    if result.settings_changed:
+        text += " Settings that now differ from settings.toml: " + ", ".join(
+            f"{k} {shown(old)} -> {shown(new)}" for k, (old, new) in result.settings_changed.items()) + "."
+    text += (f" {len(result.unmatched)} edit(s) could not be carried (their product, target or term is gone, "
+             "or the value is not valid); they are listed on the Unmatched edits sheet." if result.unmatched
+             else " 0 edits could not be matched.")
+    return text
 
 class Interrupted(KeyboardInterrupt):
     """A stop signal (SIGTERM, SIGHUP, or SIGINT) turned into an exception so that cleanup code runs."""
@@ -81,13 +100,8 @@ def os_error_message(exc: OSError, fallback: Path | None) -> str:
 
 
 def _run_build(args: argparse.Namespace, progress) -> object:
-    """build(...), passing --previous through when given."""
-    extra = {}
-    if getattr(args, "previous", None) is not None:
-        if "previous" not in inspect.signature(build).parameters:
-            raise SheetbuilderError("--previous is not supported by this version of the build yet")
-        extra["previous"] = args.previous
-    return build(args.inputs, args.output, force=args.force, progress=progress, **extra)
+    """build(...) with the command's options."""
+    return build(args.inputs, args.output, force=args.force, progress=progress, previous=args.previous)
 
 
 def print_problems(console: Console, problems: list[Problem]) -> None:
@@ -131,7 +145,7 @@ def _build(args: argparse.Namespace, console: Console) -> int:
         rows = ", ".join(f"{k} {v}" for k, v in result.rows.items())
         console.print(f"wrote {result.output} ({rows} rows) in {time.perf_counter() - started:.1f} s")
         console.print("Decision aid only: review before changing a live ad account. Not financial or tax advice.")
-    carry = getattr(result, "carry", None)  # the CarryResult when --previous was given
+    carry = result.carry  # the CarryResult when --previous was given
     if carry is not None and not args.quiet:
         console.print(carried_summary(carry))
     return 0

@@ -67,3 +67,7 @@ class UnsafeOutput(SheetbuilderError):
 
 class FormulaNotPortable(SheetbuilderError):
     """A formula template uses a function outside the portable whitelist."""
+
+
+class UnknownName(SheetbuilderError):
+    """A formula reads a name that no defined name of the workbook holds (a setting missing from the settings table)."""

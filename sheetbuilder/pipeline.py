@@ -10,11 +10,10 @@ import pandas as pd
 
 from sheetbuilder.assemble import Plan, plan_workbook  # noqa: F401 (plan_workbook re-exported: the planning twin of build)
 from sheetbuilder.workbook.atomic import atomic_output, refuse_input_as_output, scratch_dir
-from sheetbuilder.weekly.carry import CarryResult, PreviousWorkbookUnreadable, apply_edits, carried_catalog, read_edits
-from sheetbuilder.weekly.change_list import read_followup
+from sheetbuilder.weekly.carry import CarryResult, PreviousWorkbookUnreadable, apply_edits, carried_catalog
+from sheetbuilder.weekly.change_list import followup_of
+from sheetbuilder.weekly.record import read_saved_workbook
 from sheetbuilder.errors import ERROR, WARNING, InputProblems, OutputExists, Problem, SheetbuilderError, UnsafeOutput
-from sheetbuilder.reading.guard import reading
-from sheetbuilder.sheets.history import read_history
 from sheetbuilder.reading.periods import settings_for_inputs
 from sheetbuilder.reading.readers import Inputs, read_inputs
 from sheetbuilder.workbook.render import Progress, render
@@ -106,19 +105,16 @@ def build(folder: Path, output: Path, force: bool = False, built_on: dt.date | N
     refuse_input_as_output(output, read)
     carry = None
     exported_tables = dict(inputs.tables)  # as exported, before any carried correction
+    followup, history = None, None
     if previous is not None:
-        with reading(previous, PreviousWorkbookUnreadable):
-            edits = read_edits(Path(previous))
-        carry = apply_edits(edits, inputs.tables, settings)
+        saved = read_saved_workbook(Path(previous), PreviousWorkbookUnreadable)  # the one read of it
+        carry = apply_edits(saved.edits, inputs.tables, settings)
         settings = carry.settings
         carry.exported["catalog"] = inputs.tables["catalog"]  # in_catalog records the export, not the carry
         inputs.tables["catalog"] = carried_catalog(inputs.tables["catalog"], carry)
-    followup, history = None, None
-    if previous is not None:
-        followup, skipped = read_followup(Path(previous), exported_tables, settings, inputs.period)
-        with reading(previous, PreviousWorkbookUnreadable):
-            history, unread = read_history(Path(previous))
-        problems += skipped + unread
+        followup, skipped = followup_of(saved, exported_tables, settings, inputs.period)
+        history = saved.history
+        problems += skipped + saved.history_problems
     warnings = [p for p in problems if p.severity == WARNING]
     plan = plan_workbook(inputs, settings, built_on or dt.date.today(), warnings, carry, followup, history)
     write_atomically(plan.spec, output, progress, force)

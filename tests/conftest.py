@@ -19,7 +19,7 @@ sys.path.insert(0, str(Path(__file__).parent))
 
 from accounts import draw_accounts, write_account  # noqa: E402
 from sheetbuilder.pipeline import build  # noqa: E402
-from sheetbuilder.recalc import gnumeric_convert, libreoffice_convert, soffice_path, ssconvert_path  # noqa: E402
+from tools.recalc import gnumeric_convert, libreoffice_convert, soffice_path, ssconvert_path  # noqa: E402
 
 ROOT = Path(__file__).resolve().parent.parent
 DEMO = ROOT / "demo_inputs"

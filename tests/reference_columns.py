@@ -72,3 +72,18 @@ UNCOVERED = {
     ("Keys table 2 (not in Plan.tables)", "Blocks"): "the Clashes table: checked through the Terms columns and "
                                                      "lists it feeds and the change-list properties",
 }
+
+
+def formula_columns(plan) -> dict[str, list[str]]:
+    """{table name: headers of its formula and export-only columns} for every table on every sheet of the plan.
+
+    An export-only column is written as a value (no input can change it), but is computed like a
+    formula column, so it needs its reference check just the same (reference = written value).
+    """
+    names = {id(t.columns): name for name, t in plan.tables.items()}
+    out = {}
+    for sheet in plan.spec.sheets:
+        for i, table in enumerate(([sheet.table] if sheet.table else []) + sheet.more):
+            name = names.get(id(table.columns), f"{sheet.name} table {i + 1} (not in Plan.tables)")
+            out[name] = [c.header for c in table.columns if c.formula is not None or c.style.endswith("_export")]
+    return out

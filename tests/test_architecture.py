@@ -1,7 +1,8 @@
-"""The package's shape: module sizes, no import cycle, one module that writes workbooks.
+"""The package's shape: module sizes, layers without loops, one module that writes workbooks.
 
-Read from the source with `ast`, so the checks hold whatever the modules do at import time.
-The size limit and the layering are the project's rules (DEVELOPERS.md, Architecture).
+Read from the source with `ast`, so the checks hold whatever the modules do at import time, and
+an import inside a function counts as much as one at the top of a module. The size limit and
+the layering are the project's rules (DEVELOPERS.md, Architecture).
 """
 from __future__ import annotations
 
@@ -15,6 +16,17 @@ MAX_LINES = 800
 XLSXWRITER_EXCEPTIONS: dict[str, str] = {}
 # Folders beside the package that hold developer tools and tests: the library never imports them.
 TOOL_FOLDERS = ("benchmarks", "tests", "study", "tools")
+# The package's layers, bottom first: a folder (or top-level module) imports only from its own layer
+# and the layers below it, and no two of them import each other, directly or through others.
+# '' is the facade (sheetbuilder/__init__.py).
+LAYERS: tuple[tuple[str, ...], ...] = (
+    ("errors", "version", "values"),        # the exceptions, the version, one helper per question about a cell value
+    ("reading", "workbook"),                # reading the exports; writing a workbook (spec, formulas, renderer)
+    ("sheets", "assemble"),                 # planning: one planner per sheet, and plan_workbook glueing them
+    ("weekly",),                            # the weekly round: the only code that reads a saved workbook
+    ("pipeline",),                          # build: load, carry, plan, write
+    ("cli", "__main__", ""),                # the command line and the facade
+)
 
 
 def _modules() -> dict[str, Path]:
@@ -92,6 +104,26 @@ def _cycles(graph: dict[str, set[str]]) -> list[list[str]]:
     return out
 
 
+def room(module: str) -> str:
+    """The folder a module is in, or the module itself at the package's top level ('' for the facade)."""
+    return module.split(".")[0]
+
+
+def room_graph(graph: dict[str, set[str]]) -> dict[str, set[str]]:
+    """{room: the other rooms its modules import}."""
+    out: dict[str, set[str]] = {}
+    for name, deps in graph.items():
+        out.setdefault(room(name), set()).update(room(d) for d in deps if room(d) != room(name))
+    return out
+
+
+def upward_imports(graph: dict[str, set[str]], layers=LAYERS) -> list[tuple[str, str]]:
+    """(module, imported module) for every import of a room in a higher layer than the importer's (or in none)."""
+    level = {r: i for i, rooms in enumerate(layers) for r in rooms}
+    return sorted((name, dep) for name, deps in graph.items() for dep in deps
+                  if level.get(room(dep), len(layers)) > level.get(room(name), -1))
+
+
 def test_no_module_in_the_package_is_over_800_lines():
     sizes = {name or "__init__": len(path.read_text(encoding="utf-8").splitlines())
              for name, path in _modules().items()}
@@ -99,12 +131,33 @@ def test_no_module_in_the_package_is_over_800_lines():
 
 
 def test_package_modules_import_each_other_without_a_cycle():
-    graph = _graph()
-    # The package's __init__ re-exports the pipeline and holds __version__, which plan_guide and
-    # cli read: an edge back to the facade, safe because __version__ is set before the re-export.
-    # Drop only the edges into the facade, so every cycle among the real modules still fails.
-    graph = {name: {m for m in deps if m != ""} for name, deps in graph.items()}
-    assert [] == _cycles(graph)
+    assert [] == _cycles(_graph())
+
+
+def test_every_folder_and_top_level_module_has_its_layer():
+    assert set() == set(room_graph(_graph())) - {r for rooms in LAYERS for r in rooms}
+
+
+def test_no_folder_imports_a_folder_in_a_layer_above_it():
+    assert [] == upward_imports(_graph())
+
+
+def test_no_two_folders_import_each_other_directly_or_through_others():
+    assert [] == _cycles(room_graph(_graph()))
+
+
+def test_the_layer_check_finds_an_import_from_a_layer_above_and_a_loop_between_folders():
+    graph = {"sheets.profit": {"weekly.carry", "workbook.spec"}, "weekly.carry": {"sheets.inputs"},
+             "sheets.inputs": set(), "workbook.spec": set()}
+    assert [("sheets.profit", "weekly.carry")] == upward_imports(graph)
+    assert [["sheets", "weekly"]] == _cycles(room_graph(graph))
+
+
+def test_an_import_inside_a_function_counts(tmp_path):
+    path = tmp_path / "probe.py"
+    path.write_text("def f():\n    from sheetbuilder.weekly.saved import open_workbook\n", encoding="utf-8")
+    inside, _ = _imports("sheets.probe", path, {"weekly.saved": path})
+    assert [("sheets.probe", "weekly.saved")] == upward_imports({"sheets.probe": inside})
 
 
 def test_the_cycle_check_finds_a_cycle():

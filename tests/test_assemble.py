@@ -16,6 +16,7 @@ from sheetbuilder.assemble import SHEET_ORDER, STEPS, plan_workbook
 from sheetbuilder.cli import EXIT_BUG, main
 from sheetbuilder.workbook.columns import ColumnDef
 from sheetbuilder.pipeline import load
+from sheetbuilder.weekly.record import read_saved_workbook
 from sheetbuilder.workbook.render import OverlappingBlocks, render
 from sheetbuilder.workbook.spec import DATA, Cell, Column, Sheet, Table, WorkbookSpec
 
@@ -116,7 +117,7 @@ def test_the_previous_workbook_is_still_read_under_the_guard(tmp_path):
     book = tmp_path / "book.xlsx"
     book.write_bytes(b"PK\x03\x04 not really a zip")
     with pytest.raises(PreviousWorkbookUnreadable):
-        change_list.read_followup(book, {}, load(write_account(tmp_path / "in"))[1])
+        read_saved_workbook(book, PreviousWorkbookUnreadable)
 
 
 def _formulas(plan) -> list[str]:
@@ -139,7 +140,7 @@ def test_the_block_sum_is_written_by_one_helper():
 
 
 def test_a_decision_validation_is_planned_from_its_columns_words_and_rendered_only_by_the_renderer():
-    from sheetbuilder.workbook.columns import decision_validation
+    from sheetbuilder.sheets.decisions import decision_validation
     from sheetbuilder.sheets.bids import EDITABLE_COLUMNS as BIDS
     from sheetbuilder.sheets.terms import DECISIONS, EDITABLE_COLUMNS as TERMS
     from sheetbuilder.workbook.render import validation_options

@@ -21,7 +21,7 @@ from bids_io import BIDS_HEADERS, CHECKED, HEADER_ROW, bids_oracle_for, bids_tab
 from conftest import BUILT_ON, DEMO
 from workbook_io import mismatches, open_values
 from sheetbuilder.pipeline import build, load, plan_workbook
-from sheetbuilder.recalc import formulas_values
+from tools.recalc import formulas_values
 
 CENT = 0.005 + 1e-9  # a proposal is rounded to the cent, so it may sit half a cent past a bound
 

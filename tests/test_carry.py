@@ -10,8 +10,10 @@ import openpyxl
 import pytest
 
 from conftest import BUILT_ON, DEMO
-from sheetbuilder.weekly.carry import (CarryRecord, Edits, PreviousWorkbookUnreadable, apply_edits, carried_catalog,
-                                       carried_summary, decision_column, read_edits, unmatched_sheet_rows)
+from sheetbuilder.cli import carried_summary
+from sheetbuilder.sheets.typed import CarryRecord, decision_column
+from sheetbuilder.sheets.unmatched import unmatched_sheet_rows
+from sheetbuilder.weekly.carry import Edits, PreviousWorkbookUnreadable, apply_edits, carried_catalog, read_edits
 from sheetbuilder.reading.normalise import normalise
 from sheetbuilder.pipeline import build, load
 
@@ -189,7 +191,7 @@ def test_header_rows_are_found_by_scanning(tmp_path):
 
 def test_decisions_that_are_not_a_valid_word_or_number_are_unmatched_with_the_reason():
     """Text in a numeric Decision, an unknown word and a saved formula error are never carried or ignored."""
-    from sheetbuilder.workbook.columns import NO_SAVED_VALUE
+    from sheetbuilder.sheets.decisions import NO_SAVED_VALUE
     inputs, settings, _ = load(DEMO)
     t = inputs.tables["targets"].iloc[0]
     s = inputs.tables["search_terms"].iloc[0]

@@ -219,7 +219,7 @@ def test_a_typed_promotion_takes_a_clashing_campaign_negative_off_the_list_live(
     negative that would block the new keyword leaves the Negatives and Actions lists."""
     require_libreoffice()
     from minimal import write_account as write_minimal
-    from sheetbuilder.recalc import libreoffice_convert
+    from tools.recalc import libreoffice_convert
     folder = write_minimal(tmp_path / "acct", {"search_terms.csv": TERMS_CLASH,
                                                 "settings.toml": 'negative_level = "campaign"\n'})
     result = build(folder, tmp_path / "book.xlsx", built_on=BUILT_ON)

@@ -85,7 +85,6 @@ def test_csv_holds_exactly_the_valid_rows_escaped_and_reads_back(tmp_path):
     book = make_actions(tmp_path / "book.xlsx")
     out = tmp_path / "changes.csv"
     result = export_changes(book, out)
-    assert result.recalculated is False
     assert result.written == len(GOOD)
     rows = read_csv_rows(out)
     assert rows[0] == list(COLUMNS)
@@ -120,7 +119,7 @@ def test_a_built_workbook_without_saved_values_gives_the_same_list_computed_from
     openpyxl.load_workbook(built.output).save(resaved)  # openpyxl stores no formula values
     assert openpyxl.load_workbook(resaved, data_only=True)["Actions"]["A5"].value is None
     result = export_changes(resaved, tmp_path / "changes.csv")
-    assert (True, False, True) == (result.computed, result.recalculated, result.unchecked)
+    assert (True, True) == (result.computed, result.unchecked)
     original = export_changes(built.output, tmp_path / "c2.csv")
     assert original.rows == result.rows
     assert [] == original.overwritten and original.unchecked is False
@@ -195,26 +194,10 @@ def test_cli_exit_codes(tmp_path, capsys):
 
 
 def test_cli_build_passes_previous_through(tmp_path):
-    import inspect
-    from sheetbuilder.pipeline import build
-    if "previous" not in inspect.signature(build).parameters:
-        pytest.skip("pipeline.build has no 'previous' parameter yet (the lead wires apply_edits into it)")
     from conftest import DEMO
     old = tmp_path / "old.xlsx"
     assert main(["build", str(DEMO), "-o", str(old), "-q"]) == 0
     assert main(["build", str(DEMO), "-o", str(tmp_path / "new.xlsx"), "--previous", str(old), "-q"]) == 0
-
-
-def test_cli_build_without_previous_support_is_a_clear_refusal(tmp_path, monkeypatch, capsys):
-    import sheetbuilder.cli as cli
-
-    def old_build(folder, output, force=False, built_on=None, progress=None):
-        raise AssertionError("should not be called")
-
-    monkeypatch.setattr(cli, "build", old_build)
-    from conftest import DEMO
-    assert main(["build", str(DEMO), "-o", str(tmp_path / "n.xlsx"), "--previous", str(tmp_path / "o.xlsx")]) == 1
-    assert "--previous is not supported" in capsys.readouterr().err
 
 
 def test_the_actions_sheet_has_the_layout_changes_reads():
@@ -236,7 +219,7 @@ def test_a_final_bid_typed_over_by_hand_is_reported_and_the_formula_value_export
     wb[area.sheet].cell(area.first_row + 1, area.first_col + 1).value = 9.99  # a formula replaced by a number
     edited = tmp_path / "edited.xlsx"
     wb.save(edited)
-    from sheetbuilder.recalc import libreoffice_convert
+    from tools.recalc import libreoffice_convert
     from conftest import require_libreoffice
     require_libreoffice()
     saved = libreoffice_convert([edited], tmp_path / "saved")[0]

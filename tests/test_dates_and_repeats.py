@@ -23,7 +23,7 @@ from workbook_io import engine_disagreements, mismatches, open_values, read_tabl
 from sheetbuilder.errors import ERROR, WARNING, InputProblems
 from sheetbuilder.reading.periods import parse_dates
 from sheetbuilder.pipeline import build, load
-from sheetbuilder.recalc import formulas_values, libreoffice_convert
+from tools.recalc import formulas_values, libreoffice_convert
 
 WEEK = [dt.date(2026, 11, 23) + dt.timedelta(days=i) for i in range(7)]
 TARGET_COLUMNS = ["campaign", "ad_group", "target", "match_type", "state", "bid", "impressions", "clicks", "spend",

@@ -23,7 +23,7 @@ from workbook_io import engine_disagreements, mismatches, open_values
 from same_cells import computed_differences
 from sheetbuilder.errors import ERROR, WARNING, InputProblems
 from sheetbuilder.pipeline import build, load
-from sheetbuilder.recalc import formulas_values, libreoffice_convert, make_profile, soffice_path
+from tools.recalc import formulas_values, libreoffice_convert, make_profile, soffice_path
 
 CANONICAL = {"targets.csv": minimal.TARGETS}
 

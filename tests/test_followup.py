@@ -25,7 +25,7 @@ from sheetbuilder.weekly.changes import COLUMNS, export_changes
 from sheetbuilder.reading.periods import Period
 from sheetbuilder.pipeline import build
 from sheetbuilder.sheets.followup import FIRST_TABLE_ROW, SHEET, period_lines
-from sheetbuilder.recalc import libreoffice_convert
+from tools.recalc import libreoffice_convert
 
 sys.path.insert(0, str(ROOT / "tools"))
 from make_week2 import choose, make_week2  # noqa: E402
@@ -185,7 +185,7 @@ def test_a_rebuild_from_the_same_exports_says_so_and_writes_no_follow_up(scenari
 
 
 def test_two_30_day_periods_a_week_apart_are_stated_as_sharing_23_days():
-    from sheetbuilder.weekly.followup import Followup
+    from sheetbuilder.sheets.followup import Followup
     last = Period(dt.date(2026, 10, 27), dt.date(2026, 11, 25))
     this = Period(dt.date(2026, 11, 3), dt.date(2026, 12, 2))
     lines = period_lines(Followup([], {}, last, this, "w1.xlsx"))
@@ -279,7 +279,7 @@ def _tiny_week1(folder):
 
 
 def test_follow_up_formulas_recalculated_by_the_formulas_library_equal_the_cached_values(tmp_path):
-    from sheetbuilder.recalc import formulas_values
+    from tools.recalc import formulas_values
     from workbook_io import engine_disagreements
     week1 = build(_tiny_week1(tmp_path / "w1"), tmp_path / "w1.xlsx", built_on=BUILT_ON)
     export_changes(week1.output, tmp_path / "c1.csv")

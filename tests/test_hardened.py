@@ -36,7 +36,7 @@ from sheetbuilder.cli import main
 from sheetbuilder.workbook.csv_safe import read_csv_rows
 from sheetbuilder.errors import InputProblems, OutputExists, SheetbuilderError, UnsafeOutput
 from sheetbuilder.pipeline import build
-from sheetbuilder.recalc import libreoffice_convert
+from tools.recalc import libreoffice_convert
 from sheetbuilder.reading.settings import SETTINGS, load_settings
 
 ROOT = Path(__file__).resolve().parents[1]

@@ -26,7 +26,7 @@ import xlsxwriter
 
 from conftest import require_libreoffice
 from sheetbuilder.pipeline import build
-from sheetbuilder.recalc import libreoffice_convert
+from tools.recalc import libreoffice_convert
 from sheetbuilder.workbook.render import CELL_TEXT_LIMIT, TRUNCATION_MARK, put_value, workbook_options
 
 BUILT_ON = dt.date(2026, 12, 2)

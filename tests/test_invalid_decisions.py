@@ -15,7 +15,7 @@ from sheetbuilder.pipeline import build
 from sheetbuilder.sheets.bids import EDITABLE_COLUMNS as BIDS
 from sheetbuilder.sheets.budget import CAMPAIGN_EDITABLE_COLUMNS as CAMPAIGNS
 from sheetbuilder.sheets.terms import EDITABLE_COLUMNS as TERMS
-from sheetbuilder.recalc import libreoffice_convert
+from tools.recalc import libreoffice_convert
 from sheetbuilder.weekly.saved import named_area
 
 TYPED = {"bid text": "about 0.40", "bid error": "=1/0", "budget": "lots", "term": "maybe"}

@@ -27,7 +27,7 @@ from profit_io import HEADER_ROW as PROFIT_HEADER_ROW, PROFIT_HEADERS, oracle_fo
 from workbook_io import mismatches, open_values, same
 from sheetbuilder.workbook.palette import EXPORT_FONT
 from sheetbuilder.pipeline import build, load, write_atomically
-from sheetbuilder.sheets.terms import defs as TERMS_DEFS
+from sheetbuilder.sheets.terms import DEFS as TERMS_DEFS
 from sheetbuilder.sheets.bids import DEFS as BIDS_DEFS
 from sheetbuilder.workbook.spec import FORMULA
 
@@ -250,13 +250,13 @@ def test_a_target_edit_reaches_every_dependent_cell_and_leaves_export_cells_as_e
     assert [] == mismatches(expected, rows, exported, "export-only Bids columns after target edit")
     terms, _, _ = terms_oracle_for(DEMO)
     got_terms, _ = terms_table(libreoffice["edit_target"])
-    exported_terms = [d.header for d in TERMS_DEFS(0) if d.export and not d.hidden]
+    exported_terms = [d.header for d in TERMS_DEFS if d.export and not d.hidden]
     assert [] == mismatches(terms, got_terms, exported_terms, "export-only Terms columns after target edit")
 
 
 def test_export_only_cells_are_values_in_the_export_style_and_everything_else_stays_live(demo_build):
     wb = openpyxl.load_workbook(demo_build.output)
-    for sheet, defs, header_row in (("Bids", BIDS_DEFS, BIDS_HEADER_ROW), ("Terms", TERMS_DEFS(0), TERMS_HEADER_ROW)):
+    for sheet, defs, header_row in (("Bids", BIDS_DEFS, BIDS_HEADER_ROW), ("Terms", TERMS_DEFS, TERMS_HEADER_ROW)):
         ws = wb[sheet]
         headers = [c.value for c in ws[header_row]]
         for d in defs:

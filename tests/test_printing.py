@@ -14,7 +14,7 @@ import subprocess
 import pytest
 
 from conftest import BUILT_ON, DEMO, require_libreoffice
-from sheetbuilder.recalc import libreoffice_convert
+from tools.recalc import libreoffice_convert
 from sheetbuilder.workbook.render import _widths
 from sheetbuilder.workbook.spec import Sheet, Table
 

@@ -16,7 +16,7 @@ from conftest import require_gnumeric, require_libreoffice
 from engine_defects import one_cell_index_cells
 from workbook_io import engine_disagreements, open_values
 from sheetbuilder.errors import SheetbuilderError
-from sheetbuilder.recalc import formulas_values, gnumeric_convert, libreoffice_convert
+from tools.recalc import formulas_values, gnumeric_convert, libreoffice_convert
 
 
 def _data_workbook(path, numbers: dict, formulas: list, names: dict | None = None):

@@ -10,7 +10,7 @@ from __future__ import annotations
 import pytest
 
 from conftest import BUILT_ON, DEMO
-from reference_columns import COMPARED, UNCOVERED
+from reference_columns import COMPARED, UNCOVERED, formula_columns
 from workbook_io import mismatches
 from sheetbuilder.pipeline import load, plan_workbook
 
@@ -21,23 +21,8 @@ def demo_plan():
     return plan_workbook(inputs, settings, BUILT_ON)
 
 
-def _formula_columns(plan) -> dict[str, list[str]]:
-    """{table name: headers of its formula and export-only columns} for every table on every sheet of the plan.
-
-    An export-only column is written as a value (no input can change it), but is computed like a
-    formula column, so it needs its reference check just the same (reference = written value).
-    """
-    names = {id(t.columns): name for name, t in plan.tables.items()}
-    out = {}
-    for sheet in plan.spec.sheets:
-        for i, table in enumerate(([sheet.table] if sheet.table else []) + sheet.more):
-            name = names.get(id(table.columns), f"{sheet.name} table {i + 1} (not in Plan.tables)")
-            out[name] = [c.header for c in table.columns if c.formula is not None or c.style.endswith("_export")]
-    return out
-
-
 def test_every_planned_formula_column_is_compared_with_the_reference_or_named_as_uncovered(demo_plan):
-    unchecked = {(name, h) for name, headers in _formula_columns(demo_plan).items() for h in headers
+    unchecked = {(name, h) for name, headers in formula_columns(demo_plan).items() for h in headers
                  if h not in COMPARED.get(name, ())}
     assert sorted(UNCOVERED) == sorted(unchecked)
 

@@ -16,9 +16,9 @@ import openpyxl
 import pytest
 
 from conftest import BUILT_ON, DEMO, require_libreoffice
-from sheetbuilder.weekly.carry import carried_summary
+from sheetbuilder.cli import carried_summary
 from sheetbuilder.pipeline import build
-from sheetbuilder.recalc import libreoffice_convert
+from tools.recalc import libreoffice_convert
 
 PRODUCT_COST, NEW_COST = "LF-1012", 30.0
 PRODUCT_TARGET, NEW_TARGET = "LF-1007", 0.45

@@ -19,7 +19,7 @@ from workbook_io import open_values, read_table, same
 from sheetbuilder.weekly.changes import export_changes, read_actions
 from sheetbuilder.workbook.csv_safe import read_csv_rows
 from sheetbuilder.pipeline import build
-from sheetbuilder.recalc import libreoffice_convert
+from tools.recalc import libreoffice_convert
 
 HOSTILE = '=HYPERLINK("http://example.invalid","click")'
 
@@ -98,7 +98,7 @@ def test_changes_exports_exactly_the_reference_change_list(routine):
                 assert same(None if want is None else round(want, 2), float(value) if value else None), (exp, got)
             else:
                 assert ("" if want is None else want) == value, (exp, got)
-    assert not result.recalculated  # no formula engine: computed from the workbook's inputs
+    assert result.computed  # no formula engine: computed from the workbook's inputs
     assert [] == result.overwritten  # LibreOffice's saved values agree with the computed list everywhere
 
 

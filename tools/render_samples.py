@@ -23,7 +23,7 @@ import tempfile
 from pathlib import Path
 
 from sheetbuilder.pipeline import build
-from sheetbuilder.recalc import libreoffice_convert
+from recalc import libreoffice_convert  # tools/recalc.py, beside this script
 
 DEMO_DATE = dt.date(2026, 12, 2)
 WEEK2 = "demo_inputs_week2"

@@ -184,7 +184,7 @@ class Settings:
 YES_NO = {"true": True, "yes": True, "false": False, "no": False}
 
 
-def _coerce(spec: SettingSpec, raw: Any, file: str) -> tuple[Any, Problem | None]:
+def coerce_setting(spec: SettingSpec, raw: Any, file: str) -> tuple[Any, Problem | None]:
     """The TOML value raw as the setting's kind, or a problem saying what was expected."""
     def bad(expected: str) -> tuple[Any, Problem]:
         return spec.default, Problem(file, None, spec.key, f"expected {expected}, got {raw!r}")
@@ -390,7 +390,7 @@ def load_settings(folder: Path) -> tuple[Settings, list[Problem]]:
             hint = f"did you mean {close[0]}? " if close else ""
             problems.append(Problem(SETTINGS_FILE, None, key, f"unknown setting; {hint}known settings: {known}, [columns], [files], [destinations], [ad_type_benchmarks]"))
             continue
-        value, problem = _coerce(spec, raw, SETTINGS_FILE)
+        value, problem = coerce_setting(spec, raw, SETTINGS_FILE)
         if problem:
             problems.append(problem)
         else:

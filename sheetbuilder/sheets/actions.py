@@ -22,9 +22,10 @@ import numpy as np
 import pandas as pd
 
 from sheetbuilder.sheets.anchors import without_absent
-from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, count_formula, plan_table
+from sheetbuilder.values import is_empty
+from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, plan_table
 from sheetbuilder.workbook.formula import cell_ref
-from sheetbuilder.sheets.lists import SPARE_ROWS
+from sheetbuilder.sheets.lists import SPARE_ROWS, count_formula
 from sheetbuilder.reading.settings import Settings
 from sheetbuilder.workbook.spec import DATA, Cell, Sheet, Table, stacked_pages
 
@@ -34,6 +35,34 @@ HEADERS = ("Kind", "Campaign", "Ad group", "Target or term", "Match type", "Curr
            "Money at stake")
 SOURCES = ("bids", "harvest", "negative_list", "budget_campaigns")  # the tables the list reads (each may be absent)
 NO_DESTINATION = "choose destination: a live campaign and ad group for this product"
+
+
+@dataclass(frozen=True)
+class Segment:
+    """One part of the list, in list order: the changes of one kind read from one source table.
+
+    Attributes:
+        number: its number in the hidden Segment column (1 to 5).
+        label: its count's label above the list.
+        table: the planned table its changes come from.
+        kinds: the Kind words its rows show.
+    """
+
+    number: int
+    label: str
+    table: str
+    kinds: tuple[str, ...]
+
+
+ADDS = ("add keyword", "add product target")  # the Kind words of a keyword or product target to add
+SEGMENTS = (Segment(1, "Bid changes", "Bids", ("bid",)),
+            Segment(2, "To add", "Harvest", ADDS),
+            Segment(3, "Source negatives", "Harvest", ("add negative",)),
+            Segment(4, "Negatives", "Negatives", ("add negative",)),
+            Segment(5, "Budgets", "Budget campaigns", ("budget",)))
+KINDS = tuple(dict.fromkeys(kind for s in SEGMENTS for kind in s.kinds))  # every Kind word, in list order
+
+
 @dataclass
 class ActionsContext:
     """What the Actions columns' references read: the changes in order."""
@@ -74,7 +103,7 @@ def _num(key: str):
 
 
 def defs(totals: list[str]) -> list[ColumnDef]:
-    """The Actions columns, given the five segments' count formulas (absolute references)."""
+    """The Actions columns, given each segment's count formula (absolute references), in SEGMENTS' order."""
     t = totals
     cum = [t[0], f"{t[0]}+{t[1]}", f"{t[0]}+{t[1]}+{t[2]}", f"{t[0]}+{t[1]}+{t[2]}+{t[3]}",
            f"{t[0]}+{t[1]}+{t[2]}+{t[3]}+{t[4]}"]
@@ -134,30 +163,29 @@ def defs(totals: list[str]) -> list[ColumnDef]:
     ]
 
 
-def _untyped(decision: Any) -> bool:
-    """Whether a Decision cell is blank (None, NaN or empty text)."""
-    return decision is None or decision == "" or (isinstance(decision, float) and np.isnan(decision))
+# The columns as the Guide describes them and the change list reads their keys (no counts needed).
+DEFS: list[ColumnDef] = defs(["0"] * len(SEGMENTS))
 
 
 def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
     """The changes in list order as the reference computes them, and the count of each segment."""
     out: list[dict] = []
-    counts = [0] * 5
+    counts = [0] * len(SEGMENTS)
     if "Bids" in tables:
         b = tables["Bids"].frame
         for r in b.loc[b["final"] != b["bid"]].to_dict("records"):
             counts[0] += 1
-            out.append({"_seg": 1, "_j": counts[0], "_pos": r["pos"], "Kind": "bid", "Campaign": r["campaign"],
+            out.append({"_seg": 1, "_pos": r["pos"], "Kind": "bid", "Campaign": r["campaign"],
                         "Ad group": r["ad_group"], "Target or term": r["target"], "Match type": r["match_type"],
                         "Current": r["bid"], "New": r["final"], "Product ID": r["product_id"],
                         "Money at stake": r["spend"],
-                        "Reason": r["reason"] if _untyped(r["decision"]) else "your decision"})
+                        "Reason": r["reason"] if is_empty(r["decision"]) else "your decision"})
     if "Harvest" in tables:
         h = tables["Harvest"].frame
         filled = h.loc[h["pos"].notna()]
         for r in filled.to_dict("records"):
             counts[1] += 1
-            out.append({"_seg": 2, "_j": counts[1], "_pos": r["k"],
+            out.append({"_seg": 2, "_pos": r["k"],
                         "Kind": "add product target" if r["kind"] == "product target" else "add keyword",
                         "Campaign": r["dest_campaign"], "Ad group": r["dest_ad_group"], "Target or term": r["term"],
                         "Match type": r["match"], "New": r["start_bid"], "Product ID": r["product_id"],
@@ -165,7 +193,7 @@ def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
                         "Reason": NO_DESTINATION if r["dest_campaign"] == "" else "search term that sells"})
         for r in filled.loc[filled["source_negative"] != ""].to_dict("records"):
             counts[2] += 1
-            out.append({"_seg": 3, "_j": counts[2], "_pos": r["k"], "Kind": "add negative",
+            out.append({"_seg": 3, "_pos": r["k"], "Kind": "add negative",
                         "Campaign": r["campaign"], "Ad group": r["ad_group"], "Target or term": r["term"],
                         "Match type": "negative exact", "Product ID": r["product_id"], "Money at stake": r["spend"],
                         "Reason": "so the new keyword does not compete with its source"})
@@ -173,37 +201,36 @@ def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
         n = tables["Negatives"].frame
         for r in n.loc[n["pos"].notna()].to_dict("records"):
             counts[3] += 1
-            out.append({"_seg": 4, "_j": counts[3], "_pos": r["k"], "Kind": "add negative", "Campaign": r["campaign"],
+            out.append({"_seg": 4, "_pos": r["k"], "Kind": "add negative", "Campaign": r["campaign"],
                         "Ad group": r["ad_group"], "Target or term": r["term"], "Match type": r["neg_match"],
                         "Product ID": r["product_id"], "Money at stake": r["spend"], "Reason": r["rule"]})
     if "Budget campaigns" in tables:
         c = tables["Budget campaigns"].frame
         for r in c.loc[(c["final"] != c["budget"]) & (c["state"] == "enabled")].to_dict("records"):
             counts[4] += 1
-            out.append({"_seg": 5, "_j": counts[4], "_pos": r["cpos"], "Kind": "budget", "Campaign": r["campaign"],
+            out.append({"_seg": 5, "_pos": r["cpos"], "Kind": "budget", "Campaign": r["campaign"],
                         "Current": r["budget"], "New": r["final"], "Product ID": r["products"],
                         "Money at stake": "" if isinstance(r["final"], str) else abs(r["final"] - r["budget"]),
-                        "Reason": "follows its products' spend" if _untyped(r["decision"]) else "your decision"})
+                        "Reason": "follows its products' spend" if is_empty(r["decision"]) else "your decision"})
     return out, counts
 
 
 def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settings: Settings,
                  sizes: dict[str, int]) -> tuple[Sheet, PlannedTable, list[int], list[str]]:
     """The Actions sheet, its reference frame, the count of changes of each kind and the cells that count them."""
-    changes, counts = _changes(tables)
+    changes, counts = _changes(tables)  # counts in SEGMENTS' order
     count_cells = []
     totals = []
     def capped(word: str, table: str) -> str:
         return f"MIN({count_formula(ranges, 'terms', word)},{len(tables[table].frame)})"
-    sources = [("Bids", lambda: count_formula(ranges, "bids", "a")), ("Harvest", lambda: capped("p", "Harvest")),
-               ("Harvest", lambda: count_formula(ranges, "harvest", "n")),
-               ("Negatives", lambda: capped("b", "Negatives")),
-               ("Budget campaigns", lambda: count_formula(ranges, "budget_campaigns", "c"))]
-    for table, total in sources:
-        totals.append(total() if table in tables and len(tables[table].frame) else "0")
-    labels = ["Bid changes", "To add", "Source negatives", "Negatives", "Budgets"]
+    count_of = {1: lambda: count_formula(ranges, "bids", "a"), 2: lambda: capped("p", "Harvest"),
+                3: lambda: count_formula(ranges, "harvest", "n"), 4: lambda: capped("b", "Negatives"),
+                5: lambda: count_formula(ranges, "budget_campaigns", "c")}  # each segment's count, by its number
+    for segment in SEGMENTS:
+        table = segment.table
+        totals.append(count_of[segment.number]() if table in tables and len(tables[table].frame) else "0")
     count_refs = []
-    for label, total, value in zip(labels, totals, counts):
+    for label, total, value in zip((s.label for s in SEGMENTS), totals, counts):
         count_refs.append(f"{SHEET}!{cell_ref(1, len(count_cells) + 1, True)}")  # row 2, beside its label
         count_cells += [Cell(label, style="note"), Cell(float(value), "=" + total if total != "0" else "=0", "int_left")]
     rows = sum(sizes.values())

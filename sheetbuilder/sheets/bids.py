@@ -26,8 +26,9 @@ import numpy as np
 import pandas as pd
 
 from sheetbuilder.sheets.blends import attach_groups, blends_row_column, fetch
-from sheetbuilder.workbook.columns import (ColumnDef, PlannedTable, apply_decision, blank_div, decision_formula,
-                                           decision_validation, editable, exports_only, plan_table, running_key)
+from sheetbuilder.sheets.decisions import apply_decision, decision_formula, decision_validation, editable
+from sheetbuilder.sheets.lists import running_key
+from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, blank_div, exports_only, plan_table
 from sheetbuilder.reading.numbers import ROUNDING_NUDGE, round_half_away
 from sheetbuilder.sheets.inputs import InputSheet
 from sheetbuilder.reading.settings import Settings

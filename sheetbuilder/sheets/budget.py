@@ -17,8 +17,9 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from sheetbuilder.workbook.columns import (ColumnDef, PlannedTable, apply_decision, decision_formula,
-                                           decision_validation, editable, plan_table, running_key)
+from sheetbuilder.sheets.decisions import apply_decision, decision_formula, decision_validation, editable
+from sheetbuilder.sheets.lists import running_key
+from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, plan_table
 from sheetbuilder.workbook.formula import block_sum, col_letter, quote_sheet
 from sheetbuilder.reading.numbers import ROUNDING_NUDGE, round_half_away
 from sheetbuilder.sheets.inputs import InputSheet

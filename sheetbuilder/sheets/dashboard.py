@@ -7,7 +7,8 @@ from dataclasses import dataclass
 import numpy as np
 import pandas as pd
 
-from sheetbuilder.workbook.columns import PlannedTable, count_formula, count_of
+from sheetbuilder.sheets.lists import count_formula, count_of
+from sheetbuilder.workbook.columns import PlannedTable
 from sheetbuilder.workbook.formula import quote_sheet
 from sheetbuilder.sheets.actions import SHEET as ACTIONS
 from sheetbuilder.sheets.profit import SHEET as PROFIT

@@ -1,7 +1,7 @@
 """The Follow-up sheet: what became of last week's changes, and how each product moved since.
 
 Written only when the build is given last week's workbook (``--previous``), from the facts
-:mod:`sheetbuilder.weekly.followup` gathers. Three parts, top to bottom: a Summary (live counts over
+:mod:`sheetbuilder.weekly.applied` gathers into a :class:`Followup`. Three parts, top to bottom: a Summary (live counts over
 the tables below), "Last week's changes" (one row per change of last week's final change list,
 with Applied, the metrics of its target, term or campaign in both periods, and a live Outcome
 in words), and "Products then and now" (last period's figures beside live references to this
@@ -16,14 +16,16 @@ figures, their changes and the Summary are live formulas.
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass, field
 from typing import Any
 
-import numpy as np
 import pandas as pd
 
+from sheetbuilder.reading.periods import Period
+from sheetbuilder.sheets.actions import ADDS
 from sheetbuilder.sheets.anchors import without_absent
+from sheetbuilder.values import is_number
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, plan_table
-from sheetbuilder.weekly.followup import CANNOT_TELL, NO, YES, Followup, fold
 from sheetbuilder.workbook.formula import quote_sheet
 from sheetbuilder.workbook.palette import DIRECTION_STATES
 from sheetbuilder.workbook.spec import DATA, Cell, Highlight, Sheet, Table
@@ -32,10 +34,51 @@ SHEET = "Follow-up"
 NAME = "sb_followup"  # the defined name over the Last week's changes body (changes --include-unapplied reads it)
 CAUTION = ("A before-and-after comparison is observational: seasonality, competitors, prices and stock all move "
            "too. Treat each Outcome as a signal to look closer, not as proof that a change worked.")
-FIRST_TABLE_ROW = 17  # 0-based header row of Last week's changes (the summary above has fixed height)
+# The Summary's figures, top to bottom: label and number format (the Guide's dashboard shows them alike).
+SUMMARY = (("Changes planned last week", "int"), ("Applied", "int"), ("Not applied", "int"), ("Cannot tell", "int"),
+           ("Spend on negated terms, last period", "money"), ("Spend on negated terms, this period", "money"),
+           ("Net profit after ads, last period", "money"), ("Net profit after ads, this period", "money"))
+SUMMARY_FIRST_ROW = 6  # 0-based: the title, two lines on the periods, the caution, a blank row and "Summary" above
+# 0-based header row of Last week's changes: below the Summary, a blank row and the table's title (fixed height).
+FIRST_TABLE_ROW = SUMMARY_FIRST_ROW + len(SUMMARY) + 3
 AS_INTENDED, MIXED, AGAINST = "as intended", "mixed", "not as intended"
 TOO_FEW, NOT_APPLIED = "too few clicks", "not applied"
-ADDS = ("add keyword", "add product target")
+
+
+YES, NO, CANNOT_TELL = "yes", "no", "cannot tell"
+
+
+def fold(text: Any) -> str:
+    """Text compared as the exports write it loosely: case folded, whitespace collapsed."""
+    return " ".join(str(text).casefold().split())
+
+
+@dataclass
+class Followup:
+    """Last week's change list looked up in this week's exports, and both periods' product figures.
+
+    Attributes:
+        rows: one dict per change: kind, campaign, ad_group, target, match_type, product_id, planned,
+            now, applied, was (last week's current value), target_acos, and <metric>_b / <metric>_n
+            for clicks, spend, orders and ad_sales.
+        products: last period's Profit figures per product id (revenue, ad_spend, tacos, net_profit,
+            status, direction).
+        previous: last period, when known; current: this period, when known.
+        source: the previous workbook's file name.
+    """
+
+    rows: list[dict]
+    products: dict[str, dict]
+    previous: Period | None
+    current: Period | None
+    source: str
+    min_clicks: int = 10
+    notes: list[str] = field(default_factory=list)
+
+    @property
+    def overlap(self) -> int:
+        """Days the two periods share (0 when either is unknown)."""
+        return self.previous.overlap(self.current) if self.previous and self.current else 0
 
 
 def _div(a: pd.Series, b: pd.Series) -> pd.Series:
@@ -52,7 +95,7 @@ def _rate(key: str, header: str, num: str, den: str, help_: str, style: str) -> 
 
 
 NOW_METRICS = ("clicks", "spend", "orders", "ad_sales")
-TARGET_KINDS = ("bid", "add keyword", "add product target")
+TARGET_KINDS = ("bid", *ADDS)  # the changes of one target row
 
 
 def _live_now(metric: str, header: str, style: str, help_: str, hidden: bool = False) -> ColumnDef:
@@ -173,13 +216,9 @@ def _now(key: str):
 
 def _change(key: str):
     def compute(df: pd.DataFrame, ctx: Any) -> pd.Series:
-        return pd.Series([n - t if _num(n) and _num(t) else "" for t, n in zip(df[f"{key}_then"], df[f"{key}_now"])],
+        return pd.Series([n - t if is_number(n) and is_number(t) else "" for t, n in zip(df[f"{key}_then"], df[f"{key}_now"])],
                          index=df.index, dtype=object)
     return compute
-
-
-def _num(v: Any) -> bool:
-    return isinstance(v, (int, float, np.integer, np.floating)) and not isinstance(v, bool) and not math.isnan(v)
 
 
 def product_defs() -> list[ColumnDef]:
@@ -265,21 +304,21 @@ def plan_followup(followup: Followup, profit: PlannedTable, ranges: dict[str, st
     frame = changes.frame
     spend = {s: float(frame.loc[frame["kind"] == "add negative", f"spend_{s}"].sum()) if len(frame) else 0.0
              for s in ("b", "n")}
-    then_profit = float(sum(v for v in products.frame["net_profit_then"] if _num(v)))
-    summary = [
-        ("Changes planned last week", f"={len(frame)}", float(len(frame)), "int"),
-        ("Applied", f'=COUNTIFS({c_rng["fu.applied"]},"{YES}")', float((frame["applied"] == YES).sum()), "int"),
-        ("Not applied", f'=COUNTIFS({c_rng["fu.applied"]},"{NO}")', float((frame["applied"] == NO).sum()), "int"),
-        ("Cannot tell", f'=COUNTIFS({c_rng["fu.applied"]},"{CANNOT_TELL}")',
-         float((frame["applied"] == CANNOT_TELL).sum()), "int"),
-        ("Spend on negated terms, last period", f'=SUMIFS({c_rng["fu.spend_b"]},{c_rng["fu.kind"]},"add negative")',
-         spend["b"], "money"),
-        ("Spend on negated terms, this period", f'=SUMIFS({c_rng["fu.spend_n"]},{c_rng["fu.kind"]},"add negative")',
-         spend["n"], "money"),
-        ("Net profit after ads, last period", f'=SUM({p_rng["fp.net_profit_then"]})', then_profit, "money"),
-        ("Net profit after ads, this period", "=" + ranges["profit_total.net_profit"],
-         float(profit.totals_values["net_profit"]), "money"),
-    ]
+    then_profit = float(sum(v for v in products.frame["net_profit_then"] if is_number(v)))
+    summary = {  # label: (formula, value), in SUMMARY's order
+        "Changes planned last week": (f"={len(frame)}", float(len(frame))),
+        "Applied": (f'=COUNTIFS({c_rng["fu.applied"]},"{YES}")', float((frame["applied"] == YES).sum())),
+        "Not applied": (f'=COUNTIFS({c_rng["fu.applied"]},"{NO}")', float((frame["applied"] == NO).sum())),
+        "Cannot tell": (f'=COUNTIFS({c_rng["fu.applied"]},"{CANNOT_TELL}")',
+                        float((frame["applied"] == CANNOT_TELL).sum())),
+        "Spend on negated terms, last period": (
+            f'=SUMIFS({c_rng["fu.spend_b"]},{c_rng["fu.kind"]},"add negative")', spend["b"]),
+        "Spend on negated terms, this period": (
+            f'=SUMIFS({c_rng["fu.spend_n"]},{c_rng["fu.kind"]},"add negative")', spend["n"]),
+        "Net profit after ads, last period": (f'=SUM({p_rng["fp.net_profit_then"]})', then_profit),
+        "Net profit after ads, this period": ("=" + ranges["profit_total.net_profit"],
+                                              float(profit.totals_values["net_profit"])),
+    }
     lines = period_lines(followup)
     above: list[list[Cell | None]] = [
         [Cell(f"Follow-up: what became of last week's changes ({followup.source})", style="title")],
@@ -290,12 +329,15 @@ def plan_followup(followup: Followup, profit: PlannedTable, ranges: dict[str, st
         [Cell("Summary", style="subtitle")],
     ]
     figures: dict[str, tuple[str, Any]] = {}
-    for label, formula, value, style in summary:
+    for label, style in SUMMARY:
+        formula, value = summary[label]
         figures[label] = (f"{quote_sheet(SHEET)}!$B${len(above) + 1}", value)
         above.append([Cell(label), Cell(value, formula, style)])
     good, bad = DIRECTION_STATES["grow"], DIRECTION_STATES["cut"]
-    highlights = [Highlight(8, YES, good), Highlight(8, NO, bad), Highlight(19, AS_INTENDED, good, True),
-                  Highlight(19, AGAINST, bad), Highlight(19, NOT_APPLIED, bad)]
+    applied, outcome = (list(changes.letters).index(key) for key in ("applied", "outcome"))
+    highlights = [Highlight(applied, YES, good), Highlight(applied, NO, bad),
+                  Highlight(outcome, AS_INTENDED, good, True), Highlight(outcome, AGAINST, bad),
+                  Highlight(outcome, NOT_APPLIED, bad)]
     table = Table(FIRST_TABLE_ROW, changes.columns, highlights=highlights, title="Last week's changes")
     more = [Table(products_first, products.columns, autofilter=False, title="Products then and now")]
     sheet = Sheet(SHEET, above=above, table=table, more=more, freeze=(FIRST_TABLE_ROW + 1, 1), tab_color="#3B7A57",

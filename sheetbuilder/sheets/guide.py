@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import datetime as dt
 
-from sheetbuilder import __version__
+from sheetbuilder.version import __version__
 from sheetbuilder.workbook.columns import ColumnDef
 from sheetbuilder.errors import Problem
 from sheetbuilder.workbook.palette import STATES

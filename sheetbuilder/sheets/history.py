@@ -10,12 +10,9 @@ from __future__ import annotations
 
 import datetime as dt
 import math
-from pathlib import Path
-from typing import Any
 
-from sheetbuilder.errors import WARNING, Problem
+from sheetbuilder.values import is_blank
 from sheetbuilder.workbook.formula import col_letter, quote_sheet
-from sheetbuilder.weekly.saved import SavedBook, named_area
 from sheetbuilder.workbook.spec import DATA, Cell, Column, Sheet, Table
 
 SHEET = "History"
@@ -27,46 +24,6 @@ HEADER_ROW = 3  # 0-based: title, note, blank, then the header
 NUMBERS = ("from", "to")
 
 
-def _blank(v: Any) -> bool:
-    return v is None or (isinstance(v, float) and math.isnan(v)) or (isinstance(v, str) and v.strip() == "")
-
-
-def _value(key: str, v: Any) -> Any:
-    if _blank(v):
-        return None if key in NUMBERS else ""
-    if key in NUMBERS:
-        return float(v) if isinstance(v, (int, float)) and not isinstance(v, bool) else str(v)
-    if isinstance(v, (dt.date, dt.datetime)):
-        return (v.date() if isinstance(v, dt.datetime) else v).isoformat()
-    return v if isinstance(v, str) else str(v)
-
-
-def read_history(previous: Path) -> tuple[list[dict], list[Problem]]:
-    """The History rows of the previous workbook (none when it has no History sheet), and problems."""
-    with SavedBook(Path(previous)) as book:
-        area = named_area(book.wb, NAME)
-        sheet = area.sheet if area else SHEET
-        if sheet not in book.wb.sheetnames:
-            return [], []
-        rows = book.rows(sheet)
-        first = area.first_row if area else HEADER_ROW + 1
-        first_col = area.first_col if area else 0
-        header = rows[first - 1][first_col:first_col + len(COLUMNS)] if first - 1 < len(rows) else []
-        want = [h for _, h, _, _ in COLUMNS]
-        if ["" if h is None else str(h).strip() for h in header] != want and area is None:
-            return [], [Problem(Path(previous).name, first, SHEET,
-                                f"the History sheet's header should read {', '.join(want)}; its rows could not be "
-                                "carried. Copy them from the previous workbook by hand", WARNING)]
-        last = area.last_row if area else len(rows) - 1
-        out = []
-        for r in range(first, min(last, len(rows) - 1) + 1):
-            values = rows[r][first_col:first_col + len(COLUMNS)]
-            if all(_blank(v) for v in values):
-                continue
-            out.append({key: _value(key, v) for (key, _, _, _), v in zip(COLUMNS, values)})
-        return out, []
-
-
 def applied_rows(followup_rows: list[dict], week: dt.date) -> list[dict]:
     """History rows for the follow-up rows found applied this week (from: last week's value, to: the planned)."""
     out = []
@@ -75,8 +32,8 @@ def applied_rows(followup_rows: list[dict], week: dt.date) -> list[dict]:
             continue
         out.append({"week": week.isoformat(), "kind": r["kind"], "campaign": r["campaign"],
                     "ad_group": r["ad_group"], "target": r["target"], "match_type": r["match_type"],
-                    "from": None if r.get("was") is None or _blank(r.get("was")) else float(r["was"]),
-                    "to": None if r.get("planned") is None or _blank(r.get("planned")) else float(r["planned"])})
+                    "from": None if r.get("was") is None or is_blank(r.get("was")) else float(r["was"]),
+                    "to": None if r.get("planned") is None or is_blank(r.get("planned")) else float(r["planned"])})
     return out
 
 

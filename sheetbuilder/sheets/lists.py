@@ -12,17 +12,53 @@ room, and a line above each says when more qualify than it holds (rebuild to see
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, Callable
 
 import numpy as np
 import pandas as pd
 
-from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, count_formula, count_of, plan_table, running_key
+from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, plan_table
 from sheetbuilder.reading.settings import Settings
 from sheetbuilder.workbook.spec import DATA, Cell, Sheet, Table, stacked_pages
 
 HEADER_ROW = 3
 SPARE_ROWS = 100  # list rows beyond what qualifies at build: room for thresholds and Decisions changed later
+
+
+def running_key(prefix: str, what: str, condition: str, qualifies: Callable[[pd.DataFrame], pd.Series],
+                position: str = "pos") -> list[ColumnDef]:
+    """The one hidden column of the macro-free live list: a strictly increasing key holding the running count.
+
+    A qualifying row's key is its running count k exactly; any other row's key is its count plus
+    position / (rows + 1), a fraction below 1 that grows with the row. So the running count is
+    INT of the key (INT of the previous row's key, plus 1 on a qualifying row), and MATCH(k, key, 1),
+    a binary search, lands on the k-th qualifying row. condition is the formula test of a qualifying
+    row, qualifies its pandas twin; position names the frame column holding the row's 1-based
+    position, and the frame's n_plus column holds rows + 1 (both written into the formula per row).
+    The count of qualifying rows is INT of the last key (:func:`count_formula`, :func:`count_of`).
+    """
+    key = f"{prefix}_key"
+
+    def helper(df: pd.DataFrame, ctx: Any) -> pd.Series:
+        hit = qualifies(df)
+        return hit.astype(float).cumsum() + (df[position] / (len(df) + 1)).where(~hit, 0.0)
+    return [
+        ColumnDef(key, f"{what} key", "ratio",
+                  f"Working: running count of {what.lower()} (whole part); a strictly increasing key, so "
+                  "MATCH(k) finds the k-th.", helper,
+                  "=INT(SUM({cp:%s}))+IF(%s,1,{row:%s}/{row:n_plus})" % (key, condition, position), width=6,
+                  hidden=True),
+    ]
+
+
+def count_of(frame: pd.DataFrame, prefix: str) -> float:
+    """How many rows of a planned table qualify for its running key (0 for an empty table)."""
+    return float(np.floor(frame[f"{prefix}_key"].iloc[-1])) if len(frame) else 0.0
+
+
+def count_formula(ranges: dict[str, str], table: str, prefix: str) -> str:
+    """Formula text (no '=') of that count: INT of the table's last key."""
+    return f"INT({ranges[f'{table}_last.{prefix}_key']})"
 
 
 @dataclass

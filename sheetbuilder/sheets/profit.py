@@ -19,7 +19,8 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, blank_div, editable, plan_table
+from sheetbuilder.sheets.decisions import editable
+from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, blank_div, plan_table
 from sheetbuilder.workbook.formula import block_sum
 from sheetbuilder.sheets.inputs import InputSheet
 from sheetbuilder.reading.readers import Inputs

@@ -32,9 +32,9 @@ import numpy as np
 import pandas as pd
 
 from sheetbuilder.sheets.blends import attach_groups, blends_row_column, fetch
-from sheetbuilder.workbook.columns import (ColumnDef, PlannedTable, apply_word_decision, blank_div,
-                                           decision_validation, editable, exports_only, plan_table, running_key,
-                                           word_decision_formula)
+from sheetbuilder.sheets.decisions import apply_word_decision, decision_validation, editable, word_decision_formula
+from sheetbuilder.sheets.lists import running_key
+from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, blank_div, exports_only, plan_table
 from sheetbuilder.reading.normalise import contains_phrase, looks_like_product_id, normalise, words
 from sheetbuilder.reading.numbers import ROUNDING_NUDGE, round_half_away
 from sheetbuilder.sheets.inputs import InputSheet
@@ -157,12 +157,7 @@ EXPORTS = ("impressions", "clicks", "spend", "ad_sales", "orders", "cpc", "cvr",
            "tpos", "npos")
 
 
-def defs(n_rows: int) -> list[ColumnDef]:
-    """The Terms columns."""
-    return exports_only(_all_defs(n_rows), EXPORTS)
-
-
-def _all_defs(n_rows: int) -> list[ColumnDef]:
+def _all_defs() -> list[ColumnDef]:
     """The Terms columns, every one with its formula (the method as written)."""
     return [
         ColumnDef("campaign", "Campaign", "text", "The campaign.", lambda df, ctx: df["campaign"], kind=DATA, width=22),
@@ -366,8 +361,11 @@ def _negative_key(row, phrases: dict, exact: set) -> tuple:
                 return ("NP", scope[0], scope[1], phrase)
     return ("N", row.campaign, row.ad_group, row.term_key)
 
+
+DEFS: list[ColumnDef] = exports_only(_all_defs(), EXPORTS)  # the Terms columns
+
 # What a user types on Terms and the keys that find its row again (carry, changes and the tests read these).
-EDITABLE_COLUMNS = editable(defs(0), "Terms", SHEET, "sb_terms", ("campaign", "ad_group", "term"), "decision",
+EDITABLE_COLUMNS = editable(DEFS, "Terms", SHEET, "sb_terms", ("campaign", "ad_group", "term"), "decision",
                             ("search_terms",), ("campaign", "ad_group", "search_term"), normalised=("term",),
                             words=DECISIONS)
 
@@ -513,13 +511,13 @@ def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, t
     base["tkey"] = base["tkey_t"].map(lambda k: keys.ids.get(k, np.nan) if k else np.nan)
     base["nkey"] = base["nkey_t"].map(lambda k: keys.ids.get(k, np.nan))
     ctx = TermsContext(settings, blends.frame, keys.found, pairs)
-    planned = plan_table(defs(len(base)), base, ctx, HEADER_ROW + 1, {**ranges, **key_ranges}, with_totals=False)
+    planned = plan_table(DEFS, base, ctx, HEADER_ROW + 1, {**ranges, **key_ranges}, with_totals=False)
     for key, compute in LIST_WORKING:  # computed live on the list rows that show them, not on every term
         planned.frame[key] = compute(planned.frame, ctx)
     clashes = plan_table(CLASH_DEFS, pairs, ClashContext(planned.frame, settings), clash_first + 1,
                          planned.ranges(SHEET, "terms"), with_totals=False)
     keys_sheet, _ = plan_keys(keys, Table(clash_first, clashes.columns, autofilter=False, title=CLASH_TITLE))
-    keys_list = [d.key for d in defs(len(base))]
+    keys_list = [d.key for d in DEFS]
     n = len(base)
     first = HEADER_ROW + 1
     validations = []

@@ -3,18 +3,28 @@
 Nothing a user typed is dropped silently: every edit that could not be carried is listed
 on Unmatched edits with the reason, as plain text; every edit carried (or expired because
 the export shows it applied) is listed on Carried edits with the value the export gives
-and the week it was first typed.
+and the week it was first typed, and each carried cell on its own sheet is shaded and noted.
 """
 from __future__ import annotations
 
+from dataclasses import replace
 from pathlib import Path
+from typing import Any
 
-from sheetbuilder.weekly.carry import CarryResult, unmatched_sheet_rows
+from sheetbuilder.sheets.typed import CARRIED_NAME, EDITABLE_TABLES, PROFIT, PROFIT_TARGET, CarryResult, entry_for
+from sheetbuilder.workbook.columns import PlannedTable
 from sheetbuilder.workbook.formula import range_ref
-from sheetbuilder.weekly.saved import CARRIED_NAME
 from sheetbuilder.workbook.spec import DATA, Cell, Column, Sheet, Table
 
 SHEET = "Unmatched edits"
+
+
+UNMATCHED_HEADERS = ["Sheet", "Key", "Column", "Value", "Why"]
+
+
+def unmatched_sheet_rows(result: CarryResult) -> list[list[Any]]:
+    """Header and rows of an "Unmatched edits" sheet: Sheet, Key, Column, Value, Why."""
+    return [list(UNMATCHED_HEADERS)] + [[r.sheet, r.key, r.column, r.value, r.why] for r in result.unmatched]
 
 
 def plan_unmatched(carry: CarryResult) -> Sheet:
@@ -68,3 +78,48 @@ def _plain(value):
     if value is None or isinstance(value, (int, float, str)):
         return value
     return str(value)
+
+
+def _note(record, source: str) -> str:
+    """The note on a carried cell: where it came from and when it was first typed."""
+    first = f"; first typed in the workbook built {record.first_typed}" if record.first_typed else ""
+    return (f"Carried from {source}{first}. A word stays until you clear it; a typed number expires once "
+            "the export shows it applied.")
+
+
+def carried_marks(carry: CarryResult, tables: dict[str, PlannedTable], catalog: Sheet | None,
+                  layouts: dict) -> dict[int, dict[int, str]]:
+    """{id of a planned column: {row index: note}} of every carried cell (typed columns and in_catalog)."""
+    source = carry_source(carry)
+    records = {(r.sheet, r.compared): r for r in carry.carried if r.compared}
+    fold = carry.settings.fold_plurals
+    out: dict[int, dict[int, str]] = {}
+    for decl in EDITABLE_TABLES:
+        planned = tables.get(decl.table)
+        if planned is None:
+            continue
+        column = planned.columns[list(planned.letters).index(decl.value)]
+        entry = entry_for(decl.label) if decl.label != PROFIT.label else PROFIT_TARGET
+        keys = planned.frame[list(decl.keys)].itertuples(index=False, name=None)
+        for i, parts in enumerate(keys):
+            record = records.get((decl.label, entry.export_key(parts, fold)))
+            if record is not None:
+                out.setdefault(id(column), {})[i] = _note(record, source)
+    if catalog is None or "catalog" not in layouts:
+        return out
+    row_of = {str(p): i for i, p in enumerate(layouts["catalog"].frame["product_id"])}
+    by_header = {c.header: c for c in catalog.table.columns}
+    for r in carry.carried:
+        if r.sheet == "in_catalog" and r.key in row_of and r.column in by_header:
+            out.setdefault(id(by_header[r.column]), {})[row_of[r.key]] = _note(r, source)
+    return out
+
+
+def marked_column(column: Column, marks: dict[int, dict[int, str]]) -> Column:
+    """column, or a copy whose carried cells have the carried style and their note."""
+    notes = marks.get(id(column))
+    if not notes:
+        return column
+    carried = column.style.split("_")[0] + "_carried"
+    return replace(column, cell_styles={**column.cell_styles, **{i: carried for i in notes}},
+                   notes={**column.notes, **notes})

@@ -5,7 +5,7 @@ Two steps, kept apart so that the second is pure:
 1. :func:`read_edits` opens the OLD workbook read-only (it is never written) and
    collects every cell a user types: the live settings, the catalog's input cells on
    ``in_catalog``, Profit's "Your target ACoS", and the typed column of every table in
-   :data:`sheetbuilder.weekly.saved.DECISION_TABLES`.
+   :data:`sheetbuilder.sheets.typed.DECISION_TABLES`.
 2. :func:`apply_edits` matches them against the NEW inputs: an edit whose row still
    exists is carried, one whose product, target or term is gone is *unmatched*, and an
    edit that is not a valid value (text in a cost, a setting out of bounds) is
@@ -16,12 +16,11 @@ so a renamed header, an inserted column or sorted rows still read. Without the n
 older workbook), header rows are found by scanning the first rows of each sheet for the
 headers the planners declare. A typed column found by neither is reported, never skipped.
 Adding a sheet with a typed column is one ``EDITABLE_COLUMNS`` declaration in its planner
-and one entry in :data:`sheetbuilder.weekly.saved.DECISION_TABLES`.
+and one entry in :data:`sheetbuilder.sheets.typed.DECISION_TABLES`.
 """
 from __future__ import annotations
 
 import math
-import numbers
 import datetime as dt
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -30,101 +29,20 @@ from typing import Any, Callable, Iterable, Mapping, Sequence
 import pandas as pd
 from openpyxl.utils.cell import coordinate_to_tuple
 
-from sheetbuilder.workbook.columns import EditableColumns
-from sheetbuilder.reading.normalise import normalise
 from sheetbuilder.sheets.inputs import CATALOG_NAME, EDITABLE, EXPORTED
-from sheetbuilder.workbook.render import stored_text
-from sheetbuilder.weekly.saved import (BUDGET_CAMPAIGNS, CARRIED_NAME, DECISION_TABLES, PROFIT, SavedBook,
-                                       SavedWorkbookUnreadable, named_columns)
-from sheetbuilder.reading.settings import SETTINGS, Settings, _coerce
+from sheetbuilder.sheets.settings_sheet import AS_BUILT, HEADERS as SETTINGS_HEADERS, SHEET as SETTINGS_SHEET
+from sheetbuilder.sheets.typed import (CARRIED_NAME, DECISION_SHEETS, PROFIT_TARGET, SCAN_ROWS, CarryRecord,
+                                       CarryResult, EditSheet, key_text)
+from sheetbuilder.values import is_blank, is_number, same_value, shown
+from sheetbuilder.weekly.saved import SavedBook, SavedWorkbookUnreadable, named_columns
+from sheetbuilder.reading.settings import SETTINGS, Settings, coerce_setting
 
-SCAN_ROWS = 10  # header rows are looked for in the first rows of a sheet
-SETTINGS_SHEET = "Settings"
 CATALOG_SHEET = "in_catalog"
 CATALOG_COLUMNS = tuple(sorted(EDITABLE["catalog"]))
 MONEY_COLUMNS = ("price", "unit_cost", "fees_per_unit")  # blank money is read as 0
 PERCENT_COLUMNS = ("target_acos", "margin")  # blank means "not given"
 TARGET_BOUNDS = (0.0, 5.0)  # as default_target_acos
 PreviousWorkbookUnreadable = SavedWorkbookUnreadable  # the previous workbook is missing or unreadable
-
-
-def _text(value: Any, fold_plurals: bool = False) -> str:
-    """A key part compared as text: trimmed, None as blank, 12.0 as '12'."""
-    if value is None or (isinstance(value, float) and math.isnan(value)):
-        return ""
-    if isinstance(value, float) and value.is_integer():
-        value = int(value)
-    return str(value).strip()
-
-
-def _term(value: Any, fold_plurals: bool = False) -> str:
-    """A search term compared as the Terms sheet compares it (:func:`normalise`)."""
-    return normalise(_text(value), fold_plurals)
-
-
-@dataclass(frozen=True)
-class Key:
-    """One key column of an edit sheet: its header there, its input column, how it is compared."""
-
-    header: str
-    column: str
-    norm: Callable[[Any, bool], str] = _text
-
-
-@dataclass(frozen=True)
-class EditSheet:
-    """A table whose typed column is carried, as its planner declares it, with how its keys compare.
-
-    Args:
-        decl: the planner's declaration (label, sheet, names, keys, typed column, input tables).
-        keys: the key columns, in key order.
-        scan_rows: how many top rows to scan for the header row when the defined names are gone.
-    """
-
-    decl: EditableColumns
-    keys: tuple[Key, ...]
-    scan_rows: int = SCAN_ROWS
-
-    @property
-    def label(self) -> str:
-        """The name edits of this table are kept under."""
-        return self.decl.label
-
-    @property
-    def sheet(self) -> str:
-        """The sheet it is on."""
-        return self.decl.sheet
-
-    @property
-    def tables(self) -> tuple[str, ...]:
-        """The input tables whose rows make a key exist."""
-        return self.decl.inputs
-
-    @property
-    def value_header(self) -> str:
-        """The typed column's header as built."""
-        return self.decl.headers[self.decl.value]
-
-    def key_of(self, parts: Sequence[Any], fold_plurals: bool) -> tuple[str, ...]:
-        """The compared key of key values as a saved workbook gives them back (in key order)."""
-        return tuple(k.norm(v, fold_plurals) for k, v in zip(self.keys, parts))
-
-    def export_key(self, parts: Sequence[Any], fold_plurals: bool) -> tuple[str, ...]:
-        """The compared key of key values as an export gives them: first put in the form a cell stores
-        (cut to 32,767 characters with a mark, control characters escaped), as the workbook held them."""
-        return self.key_of([stored_text(v) if isinstance(v, str) else v for v in parts], fold_plurals)
-
-
-def edit_sheet(decl: EditableColumns, scan_rows: int = SCAN_ROWS) -> EditSheet:
-    """The EditSheet of a planner's declaration."""
-    keys = tuple(Key(decl.headers[k], column, _term if k in decl.normalised else _text)
-                 for k, column in zip(decl.keys, decl.input_columns))
-    return EditSheet(decl, keys, scan_rows)
-
-
-DECISION_SHEETS: tuple[EditSheet, ...] = tuple(
-    edit_sheet(d, 100_000 if d is BUDGET_CAMPAIGNS else SCAN_ROWS) for d in DECISION_TABLES)
-PROFIT_TARGET = edit_sheet(PROFIT)
 
 
 @dataclass(frozen=True)
@@ -145,78 +63,21 @@ class Edits:
     """
 
     source: str
-    settings: dict = field(default_factory=dict)
-    catalog: dict = field(default_factory=dict)
-    targets: dict = field(default_factory=dict)
-    decisions: dict = field(default_factory=dict)
-    lost: list = field(default_factory=list)
-    first_typed: dict = field(default_factory=dict)
+    settings: dict[str, Any] = field(default_factory=dict)
+    catalog: dict[tuple[str, str], Any] = field(default_factory=dict)
+    targets: dict[str, Any] = field(default_factory=dict)
+    decisions: dict[str, dict[tuple, Any]] = field(default_factory=dict)
+    lost: list[tuple[str, str]] = field(default_factory=list)
+    first_typed: dict[tuple[str, str, str], Any] = field(default_factory=dict)
     built_on: Any = None
-
-
-@dataclass(frozen=True)
-class CarryRecord:
-    """One edit carried or not: sheet, key as text, column, value, and why.
-
-    Carried and applied edits also hold the value the export (or settings.toml) gives,
-    the build date of the week it was first typed, and the compared key of its row.
-    """
-
-    sheet: str
-    key: str
-    column: str
-    value: Any
-    why: str
-    exported: Any = None
-    first_typed: Any = None
-    compared: tuple = ()
-
-
-@dataclass(frozen=True)
-class CarryResult:
-    """The edits matched against the new inputs.
-
-    Attributes:
-        settings: the new build's settings with the carried values in place.
-        settings_changed: {key: (value from settings.toml or the default, carried value)}.
-        catalog: {(product_id, column): value} where the old workbook's value differs from the export's.
-        targets: {product_id: target ACoS} for Profit's "Your target ACoS".
-        decisions: {sheet: {compared key: value}} (keys as :meth:`EditSheet.key_of` makes them).
-        carried: every edit that changes something in the new build.
-        unmatched: every edit that could not be carried, with why.
-        as_built: the settings from settings.toml and the defaults, before carrying.
-        exported: {table: frame as the export held it} for tables whose values were carried over.
-        source: the previous workbook's path.
-        applied: every typed number this week's export shows applied (it expires: the cell is left blank).
-        inputs_as_saved: the planned inputs were read back from a saved workbook (their text already in
-            the form a cell stores), not from exports.
-    """
-
-    settings: Settings
-    settings_changed: dict = field(default_factory=dict)
-    catalog: dict = field(default_factory=dict)
-    targets: dict = field(default_factory=dict)
-    decisions: dict = field(default_factory=dict)
-    carried: list = field(default_factory=list)
-    unmatched: list = field(default_factory=list)
-    as_built: Settings | None = None
-    exported: dict = field(default_factory=dict)
-    source: str = ""
-    applied: list = field(default_factory=list)
-    inputs_as_saved: bool = False
 
 
 # ---------------------------------------------------------------------------------------------- reading
 
-def _blank(value: Any) -> bool:
-    return value is None or (isinstance(value, str) and value.strip() == "") or (
-        isinstance(value, float) and math.isnan(value))
-
-
 def _header_index(rows: list[list[Any]], wanted: Sequence[str], scan: int) -> int | None:
     """The 0-based index of the first row (of the first scan) holding every wanted header."""
     for i, row in enumerate(rows[:scan]):
-        texts = {_text(v) for v in row}
+        texts = {key_text(v) for v in row}
         if all(w in texts for w in wanted):
             return i
     return None
@@ -224,7 +85,7 @@ def _header_index(rows: list[list[Any]], wanted: Sequence[str], scan: int) -> in
 
 def _value_column(header: list[Any], key_cols: list[int], value_header: str) -> int:
     """The value column: the first value_header right of the last key column, else the first one."""
-    texts = [_text(v) for v in header]
+    texts = [key_text(v) for v in header]
     right = [i for i, t in enumerate(texts) if t == value_header and i > max(key_cols)]
     return right[0] if right else texts.index(value_header)
 
@@ -245,13 +106,13 @@ def _located(wb, rows_of: Callable[[str], list[list[Any]]], names: dict[str, str
     at = _header_index(rows, list(headers.values()), scan)
     if at is None:
         return None
-    texts = [_text(v) for v in rows[at]]
+    texts = [key_text(v) for v in rows[at]]
     cols = {k: texts.index(h) for k, h in headers.items() if k != value_key}
     if value_key in headers:
         cols[value_key] = _value_column(rows[at], list(cols.values()), headers[value_key])
     body = []
     for row in rows[at + 1:]:  # a block ends at its first row with blank keys
-        if all(_blank(_cell(row, c)) for k, c in cols.items() if k != value_key):
+        if all(is_blank(_cell(row, c)) for k, c in cols.items() if k != value_key):
             break
         body.append(row)
     return body, cols
@@ -271,17 +132,17 @@ def _read_block(wb, rows_of, entry: EditSheet) -> dict[tuple, Any] | None:
     for row in body:
         parts = tuple(_cell(row, cols[k]) for k in decl.keys)
         value = _cell(row, cols[decl.value])
-        if all(_blank(p) for p in parts) or _blank(value):
+        if all(is_blank(p) for p in parts) or is_blank(value):
             continue
         out[parts] = value
     return out
 
 
-AS_BUILT_COLUMN = 4    # Settings keeps each value as built in its fifth column, headed "As built"
+AS_BUILT_COLUMN = SETTINGS_HEADERS.index(AS_BUILT)  # the Settings column keeping each value as built
 
 
 def _has_as_built(rows: list[list[Any]]) -> bool:
-    return any(len(r) > AS_BUILT_COLUMN and r[AS_BUILT_COLUMN] == "As built" for r in rows[:SCAN_ROWS])
+    return any(len(r) > AS_BUILT_COLUMN and r[AS_BUILT_COLUMN] == AS_BUILT for r in rows[:SCAN_ROWS])
 
 
 def _settings_cells(wb, rows_of: Callable[[str], list[list[Any]]]) -> dict[str, Any]:
@@ -297,7 +158,7 @@ def _settings_cells(wb, rows_of: Callable[[str], list[list[Any]]]) -> dict[str, 
             rows = rows_of(sheet)
             value = rows[r - 1][c - 1] if r <= len(rows) and c <= len(rows[r - 1]) else None
             built = rows[r - 1][AS_BUILT_COLUMN] if r <= len(rows) and AS_BUILT_COLUMN < len(rows[r - 1]) else None
-            if _has_as_built(rows) and _same(value, built):
+            if _has_as_built(rows) and same_value(value, built):
                 break  # not typed by the user: this week's settings.toml decides
             out[spec.key] = value
             break
@@ -317,13 +178,13 @@ def _catalog_cells(wb, rows_of) -> dict[tuple[str, str], Any]:
         at = _header_index(rows, ["product_id"], SCAN_ROWS)
         if at is None:
             return {}
-        texts = [_text(v) for v in rows[at]]
+        texts = [key_text(v) for v in rows[at]]
         cols = {c: texts.index(c) for c in wanted if c in texts}
         body = rows[at + 1:]
     out: dict[tuple[str, str], Any] = {}
     for row in body:
         pid = _cell(row, cols["product_id"])
-        if _blank(pid):
+        if is_blank(pid):
             if areas is None:
                 break
             continue
@@ -332,9 +193,9 @@ def _catalog_cells(wb, rows_of) -> dict[tuple[str, str], Any]:
                 continue
             value = _cell(row, cols[column])
             twin = cols.get(EXPORTED + column)
-            if twin is not None and _same(value, _cell(row, twin)):
+            if twin is not None and same_value(value, _cell(row, twin)):
                 continue  # as exported: this week's export decides
-            out[(_text(pid), column)] = None if _blank(value) else value
+            out[(key_text(pid), column)] = None if is_blank(value) else value
     return out
 
 
@@ -375,7 +236,7 @@ def edits_in(book: SavedBook) -> Edits:
                                           f"header row reading {', '.join(entry.decl.headers.values())}"))
             continue
         if entry is PROFIT_TARGET:
-            targets = {_text(k[0]): v for k, v in found.items()}
+            targets = {key_text(k[0]): v for k, v in found.items()}
         elif found:
             decisions.setdefault(entry.label, {}).update(found)
     built = book.named_value("built_on")
@@ -393,30 +254,12 @@ def _first_typed(book: SavedBook) -> dict[tuple[str, str, str], Any]:
     out = {}
     for row in book.rows(area.sheet)[area.first_row:area.last_row + 1]:
         sheet, key, column, first = (_cell(row, areas[k].first_col) for k in keys)
-        if not _blank(sheet):
-            out[(_text(sheet), _text(key), _text(column))] = first.date() if isinstance(first, dt.datetime) else first
+        if not is_blank(sheet):
+            out[(key_text(sheet), key_text(key), key_text(column))] = first.date() if isinstance(first, dt.datetime) else first
     return out
 
 
 # --------------------------------------------------------------------------------------------- applying
-
-def _is_number(value: Any) -> bool:
-    return isinstance(value, numbers.Real) and not isinstance(value, bool) and not (
-        isinstance(value, float) and math.isnan(value))
-
-
-def _same(a: Any, b: Any) -> bool:
-    """Whether two cell values are the same (blank = NaN = None; numbers within rounding)."""
-    if _blank(a) and _blank(b):
-        return True
-    if _is_number(a) and _is_number(b):
-        return math.isclose(float(a), float(b), rel_tol=1e-12, abs_tol=1e-9)
-    return a == b
-
-
-def _shown(value: Any) -> str:
-    return "blank" if _blank(value) else f"{value:g}" if _is_number(value) else repr(value)
-
 
 def _tables(inputs_tables: Any) -> Mapping[str, pd.DataFrame | None]:
     """inputs.tables, or an Inputs object."""
@@ -439,7 +282,7 @@ def _existing(entry: EditSheet, tables: Mapping[str, pd.DataFrame | None], fold:
 
 
 def _key_text(parts: Iterable[Any]) -> str:
-    return " / ".join(_text(p) for p in parts)
+    return " / ".join(key_text(p) for p in parts)
 
 
 def _carry_settings(edits: Edits, settings: Settings, carried: list, unmatched: list) -> tuple[Settings, dict]:
@@ -448,14 +291,14 @@ def _carry_settings(edits: Edits, settings: Settings, carried: list, unmatched: 
         if not spec.live or spec.key not in edits.settings:
             continue
         raw = edits.settings[spec.key]
-        if spec.kind == "date" and _blank(raw):
+        if spec.kind == "date" and is_blank(raw):
             value = None
         else:
-            value, problem = _coerce(spec, raw, SETTINGS_SHEET)
+            value, problem = coerce_setting(spec, raw, SETTINGS_SHEET)
             if problem:
                 unmatched.append(CarryRecord(SETTINGS_SHEET, spec.key, "Value", raw, problem.message))
                 continue
-        if not _same(value, settings.value(spec.key)):
+        if not same_value(value, settings.value(spec.key)):
             values[spec.key] = value
     for low, high in (("thin_margin", "strong_margin"), ("bid_floor", "bid_ceiling")):
         if low in values or high in values:
@@ -468,7 +311,7 @@ def _carry_settings(edits: Edits, settings: Settings, carried: list, unmatched: 
     changed = {k: (settings.value(k), v) for k, v in values.items()}
     for key, (old, new) in changed.items():
         carried.append(CarryRecord(SETTINGS_SHEET, key, "Value", new,
-                                   f"replaces {_shown(old)} from settings.toml or the default", old))
+                                   f"replaces {shown(old)} from settings.toml or the default", old))
     return settings.replace(**values), changed
 
 
@@ -476,29 +319,29 @@ def _carry_catalog(edits: Edits, tables, carried: list, unmatched: list) -> dict
     frame = tables.get("catalog")
     if frame is None:
         frame = pd.DataFrame(columns=["product_id"])
-    by_id = {_text(p): i for i, p in enumerate(frame["product_id"])}
+    by_id = {key_text(p): i for i, p in enumerate(frame["product_id"])}
     out: dict[tuple[str, str], Any] = {}
     gone: dict[str, list[str]] = {}
     for (pid, column), value in edits.catalog.items():
         if pid not in by_id:
-            if not _blank(value):
-                gone.setdefault(pid, []).append(f"{column} {_shown(value)}")
+            if not is_blank(value):
+                gone.setdefault(pid, []).append(f"{column} {shown(value)}")
             continue
         new = frame[column].iloc[by_id[pid]] if column in frame.columns else None
-        if _blank(value) and column in MONEY_COLUMNS:
+        if is_blank(value) and column in MONEY_COLUMNS:
             value = 0.0
-        if _same(value, new):
+        if same_value(value, new):
             continue
-        if not _blank(value) and not _is_number(value):
+        if not is_blank(value) and not is_number(value):
             unmatched.append(CarryRecord(CATALOG_SHEET, pid, column, value, "not a number"))
             continue
-        if _is_number(value) and value < 0 and column != "margin":
+        if is_number(value) and value < 0 and column != "margin":
             unmatched.append(CarryRecord(CATALOG_SHEET, pid, column, value, "negative; only a margin may be"))
             continue
-        value = None if _blank(value) else float(value)
+        value = None if is_blank(value) else float(value)
         out[(pid, column)] = value
         carried.append(CarryRecord(CATALOG_SHEET, pid, column, value,
-                                   f"differs from this export's {_shown(new)}", exported=new))
+                                   f"differs from this export's {shown(new)}", exported=new))
     for pid, cells in gone.items():  # one record per product: the old cells cannot tell typed from exported
         unmatched.append(CarryRecord(CATALOG_SHEET, pid, "catalog inputs", "; ".join(cells),
                                      "the product is no longer in the catalog"))
@@ -513,7 +356,7 @@ def _carry_targets(edits: Edits, tables, fold: bool, carried: list, unmatched: l
         column = PROFIT_TARGET.value_header
         if (pid,) not in existing:
             unmatched.append(CarryRecord(PROFIT_TARGET.sheet, pid, column, value, "the product is no longer in the exports"))
-        elif not _is_number(value) or not low <= value <= high:
+        elif not is_number(value) or not low <= value <= high:
             unmatched.append(CarryRecord(PROFIT_TARGET.sheet, pid, column, value,
                                          f"expected a target ACoS from {low:.0%} to {high:.0%}"))
         else:
@@ -534,14 +377,14 @@ def _current_values(entry: EditSheet, tables, fold: bool) -> dict[tuple, float]:
         out: dict[tuple, float] = {}
         for *parts, value in frame[[*columns, column]].itertuples(index=False, name=None):
             key = entry.export_key(parts, fold)
-            out[key] = out.get(key, 0.0) + (0.0 if _blank(value) else float(value))
+            out[key] = out.get(key, 0.0) + (0.0 if is_blank(value) else float(value))
         return out
     return {}
 
 
 def _applied(typed: Any, current: float | None) -> bool:
     """Whether this week's export shows a typed number applied: the current value equals it to the cent."""
-    return current is not None and _is_number(typed) and round(float(typed) * 100) == round(float(current) * 100)
+    return current is not None and is_number(typed) and round(float(typed) * 100) == round(float(current) * 100)
 
 
 def _carry_decisions(edits: Edits, tables, fold: bool, carried: list, unmatched: list, applied: list) -> dict:
@@ -564,15 +407,15 @@ def _carry_decisions(edits: Edits, tables, fold: bool, carried: list, unmatched:
                 why = f"the new exports have no {' or '.join(entry.tables)} table"
             elif key not in existing:
                 why = f"no longer in the {' or '.join(entry.tables)} export"
-            elif _is_number(value) and _applied(value, current.get(key)):
+            elif is_number(value) and _applied(value, current.get(key)):
                 applied.append(CarryRecord(entry.label, text, entry.value_header, value,
-                                           f"applied: this export's {entry.decl.numeric} is {_shown(current[key])}",
+                                           f"applied: this export's {entry.decl.numeric} is {shown(current[key])}",
                                            current[key], compared=key))
                 continue
             else:
                 out.setdefault(entry.label, {})[key] = value
                 why = ("typed last time; not yet applied (this export's {} is {})".format(
-                    entry.decl.numeric, _shown(current[key])) if _is_number(value) and key in current
+                    entry.decl.numeric, shown(current[key])) if is_number(value) and key in current
                        else "typed last time")
                 carried.append(CarryRecord(entry.label, text, entry.value_header, value, why,
                                            current.get(key), compared=key))
@@ -613,60 +456,14 @@ def apply_edits(edits: Edits, inputs_tables: Any, settings: Settings) -> CarryRe
 
 # ------------------------------------------------------------------------------------ helpers for the build
 
-def entry_for(sheet: str) -> EditSheet:
-    """The DECISION_SHEETS entry of sheet."""
-    for entry in DECISION_SHEETS:
-        if entry.label == sheet:
-            return entry
-    raise KeyError(sheet)
-
-
-def decision_column(result: CarryResult, sheet: str, rows: Iterable[Sequence[Any]]) -> list[Any]:
-    """The carried Decision of each planned row (None where none), rows as raw key tuples in key order.
-
-    E.g. for Bids: ``decision_column(result, "Bids", zip(f.campaign, f.ad_group, f.target, f.match_type))``.
-    """
-    entry = entry_for(sheet)
-    typed = result.decisions.get(sheet, {})
-    fold = result.settings.fold_plurals
-    key_of = entry.key_of if result.inputs_as_saved else entry.export_key
-    return [typed.get(key_of(parts, fold)) for parts in rows]
-
-
 def carried_catalog(frame: pd.DataFrame, result: CarryResult) -> pd.DataFrame:
     """A copy of the catalog frame with the carried overrides in place (blank as NaN)."""
     out = frame.copy()
     if not result.catalog:
         return out
-    index = {_text(p): i for i, p in zip(out.index, out["product_id"])}
+    index = {key_text(p): i for i, p in zip(out.index, out["product_id"])}
     for (pid, column), value in result.catalog.items():
         if pid in index and column in out.columns:
             out.loc[index[pid], column] = math.nan if value is None else value
     return out
 
-
-UNMATCHED_HEADERS = ["Sheet", "Key", "Column", "Value", "Why"]
-
-
-def unmatched_sheet_rows(result: CarryResult) -> list[list[Any]]:
-    """Header and rows of an "Unmatched edits" sheet: Sheet, Key, Column, Value, Why."""
-    return [list(UNMATCHED_HEADERS)] + [[r.sheet, r.key, r.column, r.value, r.why] for r in result.unmatched]
-
-
-def carried_summary(result: CarryResult) -> str:
-    """One paragraph for the command line: how many edits were carried, expired as applied, and not matched."""
-    counts: dict[str, int] = {}
-    for r in result.carried:
-        counts[r.sheet] = counts.get(r.sheet, 0) + 1
-    parts = [f"{n} on {sheet}" for sheet, n in counts.items()]
-    text = f"Carried {len(result.carried)} edit(s) from the previous workbook"
-    text += f" ({', '.join(parts)})." if parts else "."
-    text += (f" {len(result.applied)} typed number(s) expired: this week's export shows them applied." if result.applied
-             else " 0 typed numbers expired as applied.")
-    if result.settings_changed:
-        text += " Settings that now differ from settings.toml: " + ", ".join(
-            f"{k} {_shown(old)} -> {_shown(new)}" for k, (old, new) in result.settings_changed.items()) + "."
-    text += (f" {len(result.unmatched)} edit(s) could not be carried (their product, target or term is gone, "
-             "or the value is not valid); they are listed on the Unmatched edits sheet." if result.unmatched
-             else " 0 edits could not be matched.")
-    return text

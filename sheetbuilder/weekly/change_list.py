@@ -1,126 +1,34 @@
 """A saved workbook's change list, computed from the inputs and decisions it holds.
 
 Two commands need it: ``changes`` (this workbook's final list, exported) and ``build --previous``
-(last week's final list, followed up in this week's exports). Both read the workbook first
-(:func:`read_saved`, under the reading guard: a damaged file is the user's problem), then plan
-it with the same code that builds a workbook (:func:`computed_actions`, outside the guard: a
-failure there is a bug, reported as an internal error).
+(last week's final list, followed up in this week's exports). Both read the workbook first, once
+(:func:`sheetbuilder.weekly.record.read_saved_workbook`, under the reading guard: a damaged file
+is the user's problem), then plan the record it gives with the same code that builds a workbook
+(:func:`computed_actions`, outside the guard: a failure there is a bug, reported as an internal
+error).
 """
 from __future__ import annotations
 
-import math
-import numbers
-from dataclasses import dataclass
-from pathlib import Path
 from typing import Any
 
 from sheetbuilder.assemble import plan_workbook
-from sheetbuilder.weekly.carry import (DECISION_SHEETS, PROFIT_TARGET, CarryResult, Edits, PreviousWorkbookUnreadable,
-                                       _text, edits_in)
-from sheetbuilder.workbook.columns import INVALID
+from sheetbuilder.sheets.typed import DECISION_SHEETS, PROFIT_TARGET, CarryResult, key_text
+from sheetbuilder.sheets.decisions import INVALID
 from sheetbuilder.errors import WARNING, Problem
-from sheetbuilder.weekly.followup import Followup, _number as number, followup_rows, same_exports, span_of
-from sheetbuilder.reading.guard import reading
-from sheetbuilder.sheets.actions import HEADER_ROW as ACTIONS_HEADER_ROW, SHEET, defs as action_defs
+from sheetbuilder.sheets.followup import Followup
+from sheetbuilder.weekly.applied import followup_rows, number_or_none, same_exports, span_of
+from sheetbuilder.sheets.actions import ADDS, DEFS as ACTION_DEFS, KINDS, SHEET
 from sheetbuilder.reading.readers import Inputs
-from sheetbuilder.weekly.saved import SavedBook, named_columns, saved_inputs, saved_settings
+from sheetbuilder.values import is_blank, is_number
+from sheetbuilder.weekly.record import FIRST_ROW, SavedWorkbook
 from sheetbuilder.reading.settings import Settings
 
-HEADER_ROW = ACTIONS_HEADER_ROW + 1  # 1-based, as a spreadsheet shows it
-FIRST_ROW = HEADER_ROW + 1
 # The CSV layout is the Actions list's visible columns, as plan_actions declares them.
-KEYS = tuple(d.key for d in action_defs(["0"] * 5) if not d.hidden)
-KINDS = ("bid", "add keyword", "add product target", "add negative", "budget")
-ADDS = ("add keyword", "add product target")
+KEYS = tuple(d.key for d in ACTION_DEFS if not d.hidden)
+CHANGE_KEY = ("kind", "campaign", "ad_group", "target", "match_type")  # what a change row changes
 
 
-def is_number(value: Any) -> bool:
-    """Whether value is a real number (not a bool, not NaN)."""
-    return isinstance(value, numbers.Real) and not isinstance(value, bool) and not (
-        isinstance(value, float) and math.isnan(value))
-
-
-def blank(value: Any) -> bool:
-    """Whether value reads as an empty cell (None, blank text, NaN)."""
-    return value is None or (isinstance(value, str) and value.strip() == "") or (
-        isinstance(value, float) and math.isnan(value))
-
-
-@dataclass
-class SavedInputs:
-    """What a saved workbook of ours holds to compute its change list from, read and closed.
-
-    Attributes:
-        path: the workbook.
-        tables: the input tables of its in_ sheets (corrections included).
-        settings, built_on: its Settings sheet.
-        edits: everything typed in it (Decisions, target overrides, what was lost).
-        problems: cells that could not be read as their column's kind.
-        context: what the checks of a change read besides the change (see :func:`check_change`).
-        results: {decision sheet label: [(sheet row, key cells, saved Final value)]}, for overwritten Finals.
-    """
-
-    path: Path
-    tables: dict[str, Any]
-    settings: Settings
-    built_on: Any
-    edits: Edits
-    problems: list[Problem]
-    context: dict[str, Any]
-    results: dict[str, list[tuple[int, list[Any], Any]]]
-
-
-def _column_values(book: SavedBook, sheet: str, header: str) -> set[str]:
-    """The texts of the column headed header (row 1) of sheet, or empty when absent."""
-    rows = book.rows(sheet)
-    if not rows:
-        return set()
-    head = [str(v).strip() if v is not None else "" for v in rows[0]]
-    if header not in head:
-        return set()
-    i = head.index(header)
-    return {str(r[i]).strip() for r in rows[1:] if not blank(r[i])}
-
-
-def read_context(book: SavedBook) -> dict[str, Any]:
-    """What the checks read besides a change: bid floor and ceiling, the campaigns in the exports."""
-    sheets = book.wb.sheetnames
-    return {
-        "bid_floor": book.named_value("bid_floor"),
-        "bid_ceiling": book.named_value("bid_ceiling"),
-        "campaigns": (_column_values(book, "in_campaigns", "campaign")
-                      | _column_values(book, "in_ad_products", "campaign")),
-        "has_campaign_sheets": "in_campaigns" in sheets or "in_ad_products" in sheets,
-    }
-
-
-def _saved_results(book: SavedBook) -> dict[str, list[tuple[int, list[Any], Any]]]:
-    """{label: [(sheet row, key cells, saved Final)]} of each Decision table whose names are in the file."""
-    out = {}
-    for entry in DECISION_SHEETS:
-        decl = entry.decl
-        wanted = (*decl.keys, decl.result)
-        areas = named_columns(book.wb, {k: decl.name_of(k) for k in wanted}) if decl.result else None
-        if areas is None:
-            continue
-        first = next(iter(areas.values())).first_row
-        rows = book.rows(areas[decl.result].sheet, frozenset(a.first_col for a in areas.values()))
-        result = areas[decl.result]
-        out[entry.label] = [(r + 1, [rows[r][areas[k].first_col] for k in decl.keys], rows[r][result.first_col])
-                            for r in range(first, min(result.last_row, len(rows) - 1) + 1)]
-    return out
-
-
-def read_saved(book: SavedBook) -> SavedInputs:
-    """Everything the change list is computed from, read from an opened workbook (nothing planned)."""
-    tables, problems = saved_inputs(book)
-    settings, built_on, setting_problems = saved_settings(book)
-    problems += [Problem("Settings", None, p.column, p.message) for p in setting_problems]
-    return SavedInputs(book.path, tables, settings, built_on, edits_in(book), problems, read_context(book),
-                       _saved_results(book))
-
-
-def computed_actions(saved: SavedInputs) -> tuple[list[tuple[int, list[Any]]], list[Problem], dict, bool]:
+def computed_actions(saved: SavedWorkbook) -> tuple[list[tuple[int, list[Any]]], list[Problem], dict, bool]:
     """([(sheet row, visible values)] of the computed change list, input problems, planned tables, fold_plurals)."""
     settings, edits = saved.settings, saved.edits
     problems = list(saved.problems)
@@ -132,10 +40,10 @@ def computed_actions(saved: SavedInputs) -> tuple[list[tuple[int, list[Any]]], l
             why = entry.decl.problem(value)
             if why is not None:
                 problems.append(Problem(entry.sheet, None, entry.value_header,
-                                        f"{' / '.join(_text(p) for p in parts)}: {why}; the change is not written"))
+                                        f"{' / '.join(key_text(p) for p in parts)}: {why}; the change is not written"))
     targets: dict[str, float] = {}
     for pid, value in edits.targets.items():
-        if isinstance(value, numbers.Real) and not isinstance(value, bool):
+        if is_number(value):
             targets[pid] = float(value)
         else:
             problems.append(Problem(PROFIT_TARGET.sheet, None, PROFIT_TARGET.value_header,
@@ -146,7 +54,7 @@ def computed_actions(saved: SavedInputs) -> tuple[list[tuple[int, list[Any]]], l
     plan = plan_workbook(Inputs(dict(saved.tables)), settings, saved.built_on, [], carry)
     frame = plan.tables["Actions"].frame
     records = frame[list(KEYS)].itertuples(index=False, name=None)
-    rows = [(FIRST_ROW + i, list(record)) for i, record in enumerate(records) if not blank(record[0])]
+    rows = [(FIRST_ROW + i, list(record)) for i, record in enumerate(records) if not is_blank(record[0])]
     return rows, problems, plan.tables, fold
 
 
@@ -168,7 +76,7 @@ def check_change(row: int, values: list[Any], context: dict[str, Any]) -> list[P
             bad("New", f"the {kind}'s Decision is not a valid word or number (its Final shows {INVALID}); "
                        "correct or clear it")
         elif not is_number(new) or new <= 0:
-            bad("New", f"a {kind} needs a positive number in New, got {'blank' if blank(new) else repr(new)}")
+            bad("New", f"a {kind} needs a positive number in New, got {'blank' if is_blank(new) else repr(new)}")
         elif kind == "bid":
             floor, ceiling = context.get("bid_floor"), context.get("bid_ceiling")
             if is_number(floor) and new < floor:
@@ -176,20 +84,20 @@ def check_change(row: int, values: list[Any], context: dict[str, Any]) -> list[P
             if is_number(ceiling) and new > ceiling:
                 bad("New", f"the bid {new:g} is above the bid ceiling {ceiling:g}")
     if kind in ADDS:
-        if blank(campaign) or blank(group):
-            bad("Campaign" if blank(campaign) else "Ad group",
+        if is_blank(campaign) or is_blank(group):
+            bad("Campaign" if is_blank(campaign) else "Ad group",
                 "no destination: choose the campaign and ad group to add it to")
         elif context.get("has_campaign_sheets") and str(campaign).strip() not in context.get("campaigns", set()):
             bad("Campaign", f"the campaign {str(campaign)!r} is not in the exports (in_campaigns, in_ad_products)")
     if kind in ADDS or kind == "add negative":
-        if blank(term):
+        if is_blank(term):
             bad("Target or term", f"an {kind} needs a term")
-        if kind == "add negative" and blank(campaign):
+        if kind == "add negative" and is_blank(campaign):
             bad("Campaign", "a negative needs its campaign")
     return out
 
 
-def previous_changes(saved: SavedInputs) -> tuple[list[dict], dict]:
+def previous_changes(saved: SavedWorkbook) -> tuple[list[dict], dict]:
     """Last week's final change list (the rows `changes` exports) and its planned tables."""
     rows, _, planned, _ = computed_actions(saved)
     # The rows `changes` writes: a row it refuses (no destination, an invalid Decision) was never applicable.
@@ -197,32 +105,26 @@ def previous_changes(saved: SavedInputs) -> tuple[list[dict], dict]:
     bids = planned.get("Bids")
     product_of = {}
     if bids is not None and "product_id" in bids.frame:
-        product_of = {(r[0], r[1], r[2], r[3]): r[4] for r in bids.frame[
-            ["campaign", "ad_group", "target", "match_type", "product_id"]].itertuples(index=False, name=None)}
+        product_of = {(r.campaign, r.ad_group, r.target, r.match_type): r.product_id for r in bids.frame[
+            ["campaign", "ad_group", "target", "match_type", "product_id"]].itertuples(index=False)}
     for ch in named:
-        if blank(ch.get("product_id")) and ch.get("kind") == "bid":
+        if is_blank(ch.get("product_id")) and ch.get("kind") == "bid":
             ch["product_id"] = product_of.get((ch["campaign"], ch["ad_group"], ch["target"], ch["match_type"]), "")
     return named, planned
 
 
-def read_followup(previous: Path, tables: dict, settings: Settings, period: Any = None
+def followup_of(saved: SavedWorkbook, tables: dict, settings: Settings, period: Any = None
                   ) -> tuple[Followup | None, list[Problem]]:
     """The follow-up of last week's workbook against this week's exports, or None and the reason.
 
     Args:
-        previous: last week's workbook (only read).
+        saved: last week's workbook, as read.
         tables: this week's input tables (as read, before any carried correction).
         settings: this week's settings.
         period: this week's period read from the exports' dates, when they carry dates.
-
-    Raises:
-        PreviousWorkbookUnreadable: the workbook cannot be read (a bug in planning it is not caught).
     """
-    name = Path(previous).name
-    with reading(previous, PreviousWorkbookUnreadable):
-        with SavedBook(Path(previous)) as book:
-            saved = read_saved(book)
-            before, _ = saved_inputs(book)  # a copy of its own: planning last week reads the other
+    name = saved.path.name
+    before = {k: None if v is None else v.copy() for k, v in saved.tables.items()}  # planning reads the other
     changes, planned = previous_changes(saved)
     current = span_of(settings, period)
     last = span_of(saved.settings, None)
@@ -237,7 +139,7 @@ def read_followup(previous: Path, tables: dict, settings: Settings, period: Any 
                                                          "direction")}
                 for r in profit.to_dict("records")}
     targets = {str(p): float(t) for p, t in zip(profit["product_id"], profit["target_acos"])
-               if number(t) is not None}
+               if number_or_none(t) is not None}
     rows = followup_rows(changes, before, tables, targets)
     return Followup(rows, products, last, current, name, settings.min_clicks), []
 

@@ -15,33 +15,27 @@ A workbook without our inputs (an Actions-shaped sheet alone) is read from its s
 """
 from __future__ import annotations
 
-import math
 import os
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 from sheetbuilder.workbook.atomic import atomic_output, scratch_dir
-from sheetbuilder.weekly.change_list import (FIRST_ROW, HEADER_ROW, KEYS, SHEET, SavedInputs, blank as _blank,
-                                             check_change, computed_actions, is_number as _is_number, read_context,
-                                             read_saved)
-from sheetbuilder.workbook.columns import NO_SAVED_VALUE
+from sheetbuilder.weekly.change_list import CHANGE_KEY, KEYS, SHEET, check_change, computed_actions
+from sheetbuilder.sheets.decisions import NO_SAVED_VALUE
 from sheetbuilder.workbook.csv_safe import write_csv
 from sheetbuilder.errors import OutputExists, Problem, SheetbuilderError, UnsafeOutput
-from sheetbuilder.reading.guard import reading, text_problem
+from sheetbuilder.reading.guard import text_problem
 from sheetbuilder.sheets.actions import HEADERS
-from sheetbuilder.sheets.followup import CHANGE_DEFS, NAME as FOLLOWUP_NAME
 from sheetbuilder.workbook.render import render_rows
-from sheetbuilder.weekly.carry import DECISION_SHEETS
-from sheetbuilder.weekly.saved import ACTIONS_NAME, NotAWorkbook, SavedBook, WorkbookNotFound, named_area  # noqa: F401 (re-exported)
+from sheetbuilder.sheets.typed import DECISION_SHEETS
+from sheetbuilder.values import is_blank, is_number, same_value
+from sheetbuilder.weekly.record import NoActionsSheet, SavedWorkbook, read_saved_workbook  # noqa: F401 (re-exported)
+from sheetbuilder.weekly.saved import NotAWorkbook, WorkbookNotFound  # noqa: F401 (re-exported)
 
 COLUMNS = tuple({"target": "target_or_term", "money": "money_at_stake"}.get(k, k) for k in KEYS)
 MONEY = ("current", "new", "money_at_stake")  # written with two decimals, however the workbook stored them
 FORMATS = ("csv", "xlsx")
-
-
-class NoActionsSheet(SheetbuilderError):
-    """The workbook has no Actions sheet, or its header row is not the expected one."""
 
 
 @dataclass
@@ -52,7 +46,6 @@ class ChangesResult:
         output: the file written.
         written: the number of changes written.
         problems: one Problem per inconsistency (file 'Actions', its row, its column).
-        recalculated: always False: no formula engine is used (kept for callers that report it).
         refused: the Actions rows not written.
         rows: the rows written (columns as COLUMNS).
         computed: True when the list was computed from the workbook's inputs (False: read from saved values).
@@ -63,7 +56,6 @@ class ChangesResult:
     output: Path
     written: int
     problems: list[Problem] = field(default_factory=list)
-    recalculated: bool = False
     refused: list[int] = field(default_factory=list)
     rows: list[list[Any]] = field(default_factory=list)
     computed: bool = False
@@ -71,28 +63,7 @@ class ChangesResult:
     unchecked: bool = False
 
 
-def _saved_actions(book: SavedBook, formulas: bool = False) -> list[tuple[int, list[Any]]]:
-    """[(sheet row, visible values)] of the Actions list as the file saved it (blank Kind = an empty row).
-
-    With formulas, a formula cell that stores no value reads as NO_SAVED_VALUE (a typed value reads as itself).
-    """
-    area = named_area(book.wb, ACTIONS_NAME)
-    first_col = area.first_col if area else 0
-    rows = book.rows(area.sheet if area else SHEET, frozenset(range(first_col, first_col + len(HEADERS))), formulas)
-    first_row = area.first_row if area else FIRST_ROW - 1
-    width = len(HEADERS)
-    header = [rows[first_row - 1][first_col + i] if first_row - 1 < len(rows) and first_col + i < len(
-        rows[first_row - 1]) else None for i in range(width)]
-    got = tuple("" if h is None else str(h).strip() for h in header)
-    if area is None and got != HEADERS:
-        raise NoActionsSheet(f"{book.path.name}: the {SHEET} sheet's row {HEADER_ROW} should read "
-                             f"{', '.join(HEADERS)}; it reads {', '.join(got)}")
-    last = area.last_row if area else len(rows) - 1
-    return [(r + 1, [rows[r][first_col + i] if first_col + i < len(rows[r]) else None for i in range(width)])
-            for r in range(first_row, min(last, len(rows) - 1) + 1)]
-
-
-def _overwritten_results(saved: SavedInputs, tables: dict, fold: bool) -> list[Problem]:
+def _overwritten_results(saved: SavedWorkbook, tables: dict, fold: bool) -> list[Problem]:
     """A Problem per Final cell on Bids, Terms or Budget whose saved value is not what its formula gives."""
     out = []
     for entry in DECISION_SHEETS:
@@ -105,7 +76,7 @@ def _overwritten_results(saved: SavedInputs, tables: dict, fold: bool) -> list[P
                     planned.frame[list(wanted)].itertuples(index=False, name=None)}
         for row, parts, got in saved.results[entry.label]:
             key = entry.key_of(parts, fold)
-            if key in computed and not _blank(got) and not _same_value(computed[key], got):
+            if key in computed and not is_blank(got) and not same_value(computed[key], got):
                 out.append(Problem(decl.sheet, row, decl.result_header or decl.result,
                                    f"holds {got!r} where its formula gives {computed[key]!r}: a formula was typed "
                                    "over by hand; the exported list uses the formula's value (type your decision "
@@ -113,17 +84,10 @@ def _overwritten_results(saved: SavedInputs, tables: dict, fold: bool) -> list[P
     return out
 
 
-def _same_value(a: Any, b: Any) -> bool:
-    if _blank(a) and _blank(b):
-        return True
-    if _is_number(a) and _is_number(b):
-        return math.isclose(float(a), float(b), rel_tol=1e-9, abs_tol=1e-9)
-    return a == b
-
-
 def _change_key(values: list[Any]) -> tuple:
     """What a change row changes: kind, campaign, ad group, target or term, match type (as compared text)."""
-    return tuple("" if _blank(v) else str(v).strip() for v in values[:5])
+    named = dict(zip(KEYS, values))
+    return tuple("" if is_blank(named[k]) else str(named[k]).strip() for k in CHANGE_KEY)
 
 
 def _overwritten(saved: list[tuple[int, list[Any]]], computed: list[tuple[int, list[Any]]]) -> list[Problem]:
@@ -137,9 +101,9 @@ def _overwritten(saved: list[tuple[int, list[Any]]], computed: list[tuple[int, l
         same_change = by_change.get(_change_key(values))
         expected = same_change.pop(0) if same_change else want.get(r, [None] * len(values))
         for header, got, exp in zip(HEADERS, values, expected):
-            if not _same_value(exp, got):
+            if not same_value(exp, got):
                 out.append(Problem(SHEET, r, header, f"holds {got!r} where the workbook's own change list has "
-                                                     f"{'blank' if _blank(exp) else repr(exp)}: a formula was "
+                                                     f"{'blank' if is_blank(exp) else repr(exp)}: a formula was "
                                                      "overwritten by hand; the exported list uses the computed "
                                                      "change (type your decision in a Decision column instead)"))
     return out
@@ -151,52 +115,67 @@ def _typed_over(saved: list[tuple[int, list[Any]]]) -> list[Problem]:
                                       "the exported list uses the computed change (type your decision in a Decision "
                                       "column instead)")
             for r, values in saved for header, got in zip(HEADERS, values)
-            if got is not NO_SAVED_VALUE and not _blank(got)]
+            if got is not NO_SAVED_VALUE and not is_blank(got)]
 
 
-def read_actions(workbook: Path) -> tuple[list[tuple[int, list[Any]]], dict[str, Any], dict[str, Any]]:
-    """The change rows [(sheet row, visible values)], the context for checks, and what was noticed.
+@dataclass
+class Noticed:
+    """What reading a change list noticed besides the rows.
 
-    The file is read under the reading guard; the change list is then planned outside it, so a bug
-    in planning is an internal error, not a file that cannot be read.
+    Attributes:
+        computed: the list was computed from the workbook's inputs (False: read from its saved values).
+        problems: the input problems of that computation.
+        overwritten: one Problem per cell typed over a formula by hand.
+        unchecked: the file stores no formula values, so overwritten cells could not be looked for.
+    """
+
+    computed: bool = False
+    problems: list[Problem] = field(default_factory=list)
+    overwritten: list[Problem] = field(default_factory=list)
+    unchecked: bool = False
+
+
+def read_actions(workbook: Path) -> tuple[list[tuple[int, list[Any]]], dict[str, Any], Noticed]:
+    """The change rows of the workbook at path (see :func:`actions_of`), read once under the reading guard.
 
     Raises:
         WorkbookNotFound, NotAWorkbook, NoActionsSheet.
     """
-    with reading(workbook, NotAWorkbook), SavedBook(Path(workbook)) as book:
-        if SHEET not in book.wb.sheetnames:
-            raise NoActionsSheet(f"{book.path.name} has no {SHEET} sheet; build it with a sheetbuilder that writes one")
-        context = read_context(book)
-        saved = _saved_actions(book)
-        notes: dict[str, Any] = {"computed": False, "problems": [], "overwritten": [], "unchecked": False}
-        if "in_catalog" not in book.wb.sheetnames or "Settings" not in book.wb.sheetnames:
-            if saved and all(_blank(v) for _, values in saved for v in values):
-                raise NoActionsSheet(f"{book.path.name} stores no values on {SHEET} and holds no inputs to "
-                                     "compute them from; open and save it in a spreadsheet program first")
-            return [(r, v) for r, v in saved if not _blank(v[0])], context, notes
-        inputs = read_saved(book)
-        no_values = all(_blank(values[0]) for _, values in saved)
-        typed = _saved_actions(book, formulas=True) if no_values else []
-    computed, problems, tables, fold = computed_actions(inputs)
-    notes.update(computed=True, problems=problems)
+    return actions_of(read_saved_workbook(Path(workbook), NotAWorkbook, for_changes=True))
+
+
+def actions_of(record: SavedWorkbook) -> tuple[list[tuple[int, list[Any]]], dict[str, Any], Noticed]:
+    """The change rows [(sheet row, visible values)], the context for checks, and what was noticed.
+
+    The file was read (under the reading guard) and closed; the change list is planned here, so a
+    bug in planning is an internal error, not a file that cannot be read.
+    """
+    context, saved = record.context, record.actions
+    notes = Noticed()
+    if not record.holds_inputs:
+        return [(r, v) for r, v in saved if not is_blank(v[0])], context, notes
+    no_values = all(is_blank(values[0]) for _, values in saved)
+    typed = record.typed_actions
+    computed, problems, tables, fold = computed_actions(record)
+    notes.computed, notes.problems = True, problems
     if no_values:
-        notes["unchecked"] = bool(computed)  # no saved values: a program that drops them saved it
-        notes["overwritten"] = _typed_over(typed)
+        notes.unchecked = bool(computed)  # no saved values: a program that drops them saved it
+        notes.overwritten = _typed_over(typed)
     else:
-        notes["overwritten"] = _overwritten(saved, computed) + _overwritten_results(inputs, tables, fold)
+        notes.overwritten = _overwritten(saved, computed) + _overwritten_results(record, tables, fold)
     return computed, context, notes
 
 
 def _money(value: Any) -> Any:
     """A money cell rounded to the cent (however the workbook stored it); blank stays blank."""
-    if not _is_number(value):
-        return None if _blank(value) else value
+    if not is_number(value):
+        return None if is_blank(value) else value
     return round(float(value), 2) + 0.0
 
 
 def _cents_text(row: list[Any]) -> list[Any]:
     """The row as CSV writes it: money with exactly two decimals."""
-    return [f"{v:.2f}" if c in MONEY and _is_number(v) else v for c, v in zip(COLUMNS, row)]
+    return [f"{v:.2f}" if c in MONEY and is_number(v) else v for c, v in zip(COLUMNS, row)]
 
 
 def _check_output(workbook: Path, output: Path, fmt: str, force: bool) -> None:
@@ -218,7 +197,7 @@ def _check_output(workbook: Path, output: Path, fmt: str, force: bool) -> None:
 
 def write_xlsx(path: Path, header: list[str], rows: list[list[Any]], force: bool = False) -> Path:
     """Write header and rows to path as one sheet, text always as text, atomically."""
-    cells = [[float(v) if _is_number(v) else (None if _blank(v) else str(v)) for v in row] for row in rows]
+    cells = [[float(v) if is_number(v) else (None if is_blank(v) else str(v)) for v in row] for row in rows]
     with atomic_output(path, ".xlsx", force) as tmp:
         render_rows(tmp, "changes", header, cells, scratch_dir(tmp))
     return path
@@ -227,31 +206,23 @@ def write_xlsx(path: Path, header: list[str], rows: list[list[Any]], force: bool
 UNAPPLIED_REASON = "last week's change, not yet applied"
 
 
-def unapplied_rows(workbook: Path, present: set[tuple]) -> list[tuple[int, list[Any]]]:
+def unapplied_rows(saved: SavedWorkbook, present: set[tuple]) -> list[tuple[int, list[Any]]]:
     """[(Follow-up row, values as KEYS)] of last week's changes the Follow-up reads as not applied.
 
     A change whose kind and keys are already in this week's list (present) is left out: this
     week's proposal or decision replaces it. None without a Follow-up sheet.
     """
-    visible = [d.key for d in CHANGE_DEFS]
-    with SavedBook(Path(workbook)) as book:
-        area = named_area(book.wb, FOLLOWUP_NAME)
-        if area is None:
-            return []
-        rows = book.rows(area.sheet, frozenset(range(area.first_col, area.first_col + len(visible))))
-        out = []
-        for r in range(area.first_row, min(area.last_row, len(rows) - 1) + 1):
-            got = dict(zip(visible, rows[r][area.first_col:area.first_col + len(visible)]))
-            if got.get("applied") != "no":
-                continue
-            named = {"kind": got["kind"], "campaign": got["campaign"], "ad_group": got["ad_group"],
-                     "target": got["target"], "match_type": got["match_type"], "product_id": got["product_id"],
-                     "current": got["now"], "new": got["planned"], "reason": UNAPPLIED_REASON}
-            key = tuple("" if _blank(named[k]) else named[k] for k in ("kind", "campaign", "ad_group", "target",
-                                                                          "match_type"))
-            if key not in present:
-                out.append((r + 1, [named.get(k) for k in KEYS]))
-        return out
+    out = []
+    for row, got in saved.followup:
+        if got.get("applied") != "no":
+            continue
+        named = {"kind": got["kind"], "campaign": got["campaign"], "ad_group": got["ad_group"],
+                 "target": got["target"], "match_type": got["match_type"], "product_id": got["product_id"],
+                 "current": got["now"], "new": got["planned"], "reason": UNAPPLIED_REASON}
+        key = tuple("" if is_blank(named[k]) else named[k] for k in CHANGE_KEY)
+        if key not in present:
+            out.append((row, [named.get(k) for k in KEYS]))
+    return out
 
 
 def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool = False,
@@ -268,8 +239,8 @@ def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool =
             not yet applied".
 
     Returns:
-        The rows written, the problems (with their Actions row), and whether the workbook
-        had to be recalculated.
+        The rows written, the problems (with their Actions row), and whether the list was
+        computed from the workbook's inputs.
 
     Raises:
         WorkbookNotFound, NotAWorkbook, NoActionsSheet: the workbook cannot be read as one with Actions.
@@ -277,12 +248,13 @@ def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool =
     """
     workbook, output = Path(workbook), Path(output)
     _check_output(workbook, output, fmt, force)
-    rows, context, notes = read_actions(workbook)
+    saved = read_saved_workbook(workbook, NotAWorkbook, for_changes=True, followup=include_unapplied)  # one read
+    rows, context, notes = actions_of(saved)
     if include_unapplied:
-        present = {tuple("" if _blank(v) else v for v in values[:5]) for _, values in rows}
-        with reading(workbook, NotAWorkbook):
-            rows = rows + unapplied_rows(workbook, present)
-    problems: list[Problem] = list(notes["problems"]) + list(notes["overwritten"])
+        present = {tuple("" if is_blank(v) else v for v in (dict(zip(KEYS, values))[k] for k in CHANGE_KEY))
+                   for _, values in rows}
+        rows = rows + unapplied_rows(saved, present)
+    problems: list[Problem] = list(notes.problems) + list(notes.overwritten)
     refused: list[int] = []
     kept: list[list[Any]] = []
     for r, values in rows:
@@ -294,11 +266,11 @@ def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool =
             continue
         values = list(values)
         values[0] = str(values[0]).strip().lower()
-        kept.append([_money(v) if c in MONEY else None if v == "" or (_blank(v) and not isinstance(v, str)) else v
+        kept.append([_money(v) if c in MONEY else None if v == "" or (is_blank(v) and not isinstance(v, str)) else v
                      for c, v in zip(COLUMNS, values)])
     if fmt == "csv":
         write_csv(output, COLUMNS, [_cents_text(r) for r in kept], force=force)
     else:
         write_xlsx(output, list(COLUMNS), kept, force=force)
-    return ChangesResult(output, len(kept), problems, False, refused, kept, notes["computed"],
-                         notes["overwritten"], notes["unchecked"])
+    return ChangesResult(output, len(kept), problems, refused, kept, notes.computed, notes.overwritten,
+                         notes.unchecked)

@@ -25,23 +25,15 @@ from openpyxl.utils.cell import get_column_letter, range_boundaries
 from openpyxl.utils.datetime import from_excel
 
 from sheetbuilder.reading import contract as c
-from sheetbuilder.workbook.columns import NO_SAVED_VALUE, EditableColumns
+from sheetbuilder.sheets.decisions import NO_SAVED_VALUE
 from sheetbuilder.workbook.formula import col_number
 from sheetbuilder.reading.guard import UnreadableWorkbook, guard_saved_workbook
-from sheetbuilder.errors import Problem, SheetbuilderError
+from sheetbuilder.errors import WARNING, Problem, SheetbuilderError
 from sheetbuilder.sheets.inputs import sheet_name
-from sheetbuilder.reading.settings import SETTINGS, Settings, _coerce
-from sheetbuilder.sheets.bids import EDITABLE_COLUMNS as BIDS
-from sheetbuilder.sheets.budget import CAMPAIGN_EDITABLE_COLUMNS as BUDGET_CAMPAIGNS, EDITABLE_COLUMNS as BUDGET
-from sheetbuilder.sheets.profit import EDITABLE_COLUMNS as PROFIT
-from sheetbuilder.sheets.terms import EDITABLE_COLUMNS as TERMS
-
-# Every table with a typed column, in the order edits are read and listed.
-DECISION_TABLES: tuple[EditableColumns, ...] = (BIDS, TERMS, BUDGET, BUDGET_CAMPAIGNS)
-EDITABLE_TABLES: tuple[EditableColumns, ...] = (*DECISION_TABLES, PROFIT)
-ACTIONS_NAME = "sb_actions"  # the defined name over the Actions list's body
-CARRIED_NAME = "sb_carried"  # defined names <this>_<column> over the Carried edits table (its first-typed dates)
-
+from sheetbuilder.reading.settings import SETTINGS, Settings, coerce_setting
+from sheetbuilder.sheets.history import (COLUMNS as HISTORY_COLUMNS, HEADER_ROW as HISTORY_HEADER_ROW,
+                                         NAME as HISTORY_NAME, NUMBERS as HISTORY_NUMBERS, SHEET as HISTORY_SHEET)
+from sheetbuilder.values import is_blank
 
 class SavedWorkbookUnreadable(SheetbuilderError):
     """The workbook is missing or is not an .xlsx file that can be read."""
@@ -133,7 +125,7 @@ class SavedBook:
     read-only, values-only mode: shared, inline and formula strings, numbers, booleans,
     error text, dates by their number format), only for the columns a caller asks for, so
     a wide sheet costs what its wanted columns cost. A formula cell with no saved value
-    reads as :data:`sheetbuilder.workbook.columns.NO_SAVED_VALUE` when ``formulas`` is asked for.
+    reads as :data:`sheetbuilder.sheets.decisions.NO_SAVED_VALUE` when ``formulas`` is asked for.
     """
 
     def __init__(self, path: Path):
@@ -285,7 +277,7 @@ def saved_settings(book: SavedBook):
             continue
         if raw is None:
             continue
-        value, problem = _coerce(spec, raw, "Settings")
+        value, problem = coerce_setting(spec, raw, "Settings")
         if problem is not None:
             problems.append(problem)
             continue
@@ -294,3 +286,39 @@ def saved_settings(book: SavedBook):
     built_on = built.date() if isinstance(built, dt.datetime) else (built if isinstance(built, dt.date) else
                                                                     dt.date.today())
     return Settings().replace(**values), built_on, problems
+
+
+def _history_value(key: str, v: Any) -> Any:
+    """A History cell as the sheet is planned from it: numbers in From and To, ISO dates, text."""
+    if is_blank(v):
+        return None if key in HISTORY_NUMBERS else ""
+    if key in HISTORY_NUMBERS:
+        return float(v) if isinstance(v, (int, float)) and not isinstance(v, bool) else str(v)
+    if isinstance(v, (dt.date, dt.datetime)):
+        return (v.date() if isinstance(v, dt.datetime) else v).isoformat()
+    return v if isinstance(v, str) else str(v)
+
+
+def read_history(book: SavedBook) -> tuple[list[dict], list[Problem]]:
+    """The History rows of an opened previous workbook (none when it has no History sheet), and problems."""
+    area = named_area(book.wb, HISTORY_NAME)
+    sheet = area.sheet if area else HISTORY_SHEET
+    if sheet not in book.wb.sheetnames:
+        return [], []
+    rows = book.rows(sheet)
+    first = area.first_row if area else HISTORY_HEADER_ROW + 1
+    first_col = area.first_col if area else 0
+    header = rows[first - 1][first_col:first_col + len(HISTORY_COLUMNS)] if first - 1 < len(rows) else []
+    want = [h for _, h, _, _ in HISTORY_COLUMNS]
+    if ["" if h is None else str(h).strip() for h in header] != want and area is None:
+        return [], [Problem(book.path.name, first, HISTORY_SHEET,
+                            f"the History sheet's header should read {', '.join(want)}; its rows could not be "
+                            "carried. Copy them from the previous workbook by hand", WARNING)]
+    last = area.last_row if area else len(rows) - 1
+    out = []
+    for r in range(first, min(last, len(rows) - 1) + 1):
+        values = rows[r][first_col:first_col + len(HISTORY_COLUMNS)]
+        if all(is_blank(v) for v in values):
+            continue
+        out.append({key: _history_value(key, v) for (key, _, _, _), v in zip(HISTORY_COLUMNS, values)})
+    return out, []

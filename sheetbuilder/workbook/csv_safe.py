@@ -13,11 +13,11 @@ is never escaped; only text cells are.
 from __future__ import annotations
 
 import csv
-import math
 import numbers
 from pathlib import Path
 from typing import Any, Iterable, Sequence
 
+from sheetbuilder.values import is_nan, is_number
 from sheetbuilder.workbook.atomic import atomic_output
 from sheetbuilder.errors import OutputExists
 
@@ -34,11 +34,6 @@ def _needs_quote(text: str) -> bool:
     return text.lstrip(QUOTE)[:1] in DANGEROUS_FIRST
 
 
-def _is_number(value: Any) -> bool:
-    """A real number (bool is not a number here: it is written as text)."""
-    return isinstance(value, numbers.Real) and not isinstance(value, bool)
-
-
 def escape_cell(value: Any) -> str:
     """The text to write for one cell.
 
@@ -47,13 +42,10 @@ def escape_cell(value: Any) -> str:
     :func:`unescape_cell`. Numbers are written as plain numbers and never escaped
     (-2 stays -2); None and NaN become the empty string.
     """
-    if value is None:
+    if value is None or is_nan(value):
         return ""
-    if _is_number(value):
-        if isinstance(value, numbers.Integral):
-            return str(int(value))
-        number = float(value)
-        return "" if math.isnan(number) else repr(number)
+    if is_number(value):
+        return str(int(value)) if isinstance(value, numbers.Integral) else repr(float(value))
     text = str(value)
     return QUOTE + text if _needs_quote(text) else text
 
@@ -67,7 +59,7 @@ def unescape_cell(text: str) -> str:
 
 def _cell(value: Any) -> Any:
     """What the csv writer gets: numbers as numbers (left unquoted), everything else escaped text."""
-    if _is_number(value) and not (isinstance(value, float) and math.isnan(value)):
+    if is_number(value):
         return int(value) if isinstance(value, numbers.Integral) else float(value)
     return escape_cell(value)
 

@@ -3,7 +3,9 @@ from __future__ import annotations
 
 import re
 
-from sheetbuilder.errors import FormulaNotPortable
+from typing import Iterable
+
+from sheetbuilder.errors import FormulaNotPortable, UnknownName
 
 # Functions that compute the same in Excel 2010+, LibreOffice 7.4, Google Sheets and
 # the `formulas` library, as far as this project uses them.
@@ -95,3 +97,35 @@ def resolve(template: str, lookup: dict[str, dict[str, str]]) -> str:
     out = _PLACEHOLDER.sub(sub, template)
     check_portable(out)
     return out
+
+
+_NAME = re.compile(r"(?<![\w.$'!#])[A-Za-z_][A-Za-z0-9_.]*(?![\w.(!])")
+_SHEET_PREFIX = re.compile(r"(?:'(?:[^']|'')*'|[A-Za-z_][\w.]*)!")
+_CELL_OR_RANGE = re.compile(r"\$?[A-Za-z]{1,3}\$?\d+")
+_ROW_MARK = re.compile(r"\{(?:r|p)\}|\{\w+:[\w.]+\}")  # a template's row marks and per-row placeholders
+_ERROR_LITERAL = re.compile(r"#(?:DIV/0!|N/A|NAME\?|NULL!|NUM!|REF!|VALUE!)")
+BOOLEANS = frozenset({"TRUE", "FALSE"})
+
+
+def bare_names(formula: str) -> set[str]:
+    """The defined names a formula reads: words that are not a function, a cell, a sheet, text or a boolean.
+
+    Works on resolved formulas and on column templates (their '{r}' row marks read as row numbers).
+    """
+    text = _ERROR_LITERAL.sub("0", _ROW_MARK.sub("1", _STRING.sub('""', formula)))
+    text = _CELL_OR_RANGE.sub("A1", _SHEET_PREFIX.sub("", text))
+    return {w for w in _NAME.findall(text) if w.upper() not in BOOLEANS and not _CELL_OR_RANGE.fullmatch(w)}
+
+
+def check_names(formulas: Iterable[tuple[str, str]], defined: set[str]) -> None:
+    """Raise UnknownName when a formula reads a name outside defined (the workbook's defined names).
+
+    A setting is read in formula text by its bare name (``thin_margin``); the Settings sheet defines
+    one name per setting of the settings table, so a misspelt or undeclared setting fails the build
+    here instead of showing #NAME? in every cell of its column.
+    """
+    for sheet, formula in formulas:
+        unknown = bare_names(formula) - defined
+        if unknown:
+            raise UnknownName(f"{sheet}: the formula {formula} reads {', '.join(sorted(unknown))}, which no defined "
+                              "name holds; declare the setting in reading/settings.py (SETTINGS) or fix the name")

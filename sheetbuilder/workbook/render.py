@@ -18,9 +18,12 @@ from typing import Any, Callable, Iterator
 import pandas as pd
 import xlsxwriter
 from xlsxwriter.exceptions import FileCreateError
+from xlsxwriter.packager import Packager
 from xlsxwriter.worksheet import CellFormulaTuple, CellRichStringTuple
 from xlsxwriter.xmlwriter import XMLwriter
 
+from sheetbuilder.values import ERROR_VALUES
+from sheetbuilder.version import __version__
 from sheetbuilder.workbook.formula import cell_ref, check_portable, col_number
 from sheetbuilder.workbook.palette import STATES, STYLES, style_properties
 from sheetbuilder.workbook.spec import FORMULA, Cell, Chart, PageSetup, Sheet, Table, Validation, WorkbookSpec
@@ -95,13 +98,10 @@ def _cached(value: Any) -> Any:
         return value.item()
     if isinstance(value, str):  # a formula's text result: escaped as xlsxwriter escapes cell text
         text = XMLwriter._escape_control_characters(fit_text(value))
-        return CachedText(text) if text in ERROR_TEXTS else text
+        return CachedText(text) if text in ERROR_VALUES else text  # else the writer would type it an error (t="e")
     return value
 
 
-# The writer stores a formula's cached text that equals one of these as an error value
-# (t="e"); imported text such as a search term "#N/A" must stay text (t="str").
-ERROR_TEXTS = frozenset(("#DIV/0!", "#N/A", "#NAME?", "#NULL!", "#NUM!", "#REF!", "#VALUE!"))
 
 
 class CachedText(str):
@@ -110,7 +110,7 @@ class CachedText(str):
     """
 
     def __eq__(self, other: object) -> bool:
-        if type(other) is str and other in ERROR_TEXTS:
+        if type(other) is str and other in ERROR_VALUES:
             return False
         return str.__eq__(self, other)
 
@@ -409,12 +409,46 @@ def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress:
     return ws
 
 
+APPLICATION = f"sheetbuilder/{__version__}"  # the program that made the file, as its app.xml names it
+_WRITERS_APPLICATION = "<Application>Microsoft Excel</Application>"  # what the writer's packager puts there
+
+
+class _Packager(Packager):
+    """The writer's packager, with this program named as the application that made the file (docProps/app.xml)."""
+
+    def _write_app_file(self) -> None:
+        super()._write_app_file()
+        part, _, _ = self.filenames[-1]  # the app.xml just written: a temporary file, or text in memory
+        if isinstance(part, str):
+            with open(part, encoding="utf-8") as fh:
+                xml = fh.read()
+        else:
+            xml = part.getvalue()
+        if _WRITERS_APPLICATION not in xml:
+            raise RuntimeError(f"the writer's app.xml no longer names {_WRITERS_APPLICATION}: update render.py")
+        xml = xml.replace(_WRITERS_APPLICATION, f"<Application>{APPLICATION}</Application>")
+        if isinstance(part, str):
+            with open(part, "w", encoding="utf-8") as fh:
+                fh.write(xml)
+        else:
+            part.seek(0)
+            part.truncate()
+            part.write(xml)
+
+
+class _Workbook(xlsxwriter.Workbook):
+    """The writer's workbook, packaged by :class:`_Packager` (the writer's documented way to replace its packager)."""
+
+    def _get_packager(self) -> Packager:
+        return _Packager()
+
+
 @contextmanager
 def _workbook(path: Path, tmpdir: Path | None) -> Iterator[xlsxwriter.Workbook]:
     """A writer for path, closed (written) when the block succeeds; on any failure its temporary
     files are closed and the writer is dropped, and the operating-system error it wrapped is raised as itself.
     """
-    wb = xlsxwriter.Workbook(str(path), workbook_options(tmpdir or Path(path).parent))
+    wb = _Workbook(str(path), workbook_options(tmpdir or Path(path).parent))
     try:
         yield wb
         wb.close()

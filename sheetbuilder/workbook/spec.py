@@ -6,7 +6,7 @@ the renderer writes them; formula text uses spreadsheet (1-based) addresses.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any, Sequence
+from typing import Any, Iterator, Sequence
 
 DATA = "data"        # imported or computed-in-Python values, locked
 INPUT = "input"      # values the user may edit: unlocked and styled as inputs
@@ -224,3 +224,15 @@ class WorkbookSpec:
     def sheet(self, name: str) -> Sheet:
         """The sheet called name."""
         return next(s for s in self.sheets if s.name == name)
+
+    def formulas(self) -> Iterator[tuple[str, str]]:
+        """(sheet, formula) of every formula: each cell's, and each column's (its first row's when written per row)."""
+        for s in self.sheets:
+            tables = [t for t in (s.table, *s.more) if t is not None]
+            cells = [c for row in (*s.above, *s.below) for c in row if c is not None]
+            cells += [c for t in tables for c in (t.totals or []) if c is not None]
+            for formula in [c.formula for c in cells] + [col.formula for t in tables for col in t.columns]:
+                if isinstance(formula, list):  # one per row: the rows differ only in the numbers written into them
+                    formula = formula[0] if formula else None
+                if formula:
+                    yield s.name, formula

@@ -1,6 +1,6 @@
 """What became of last week's changes: the facts the Follow-up sheet is planned from.
 
-:func:`sheetbuilder.weekly.change_list.read_followup` reads last week's workbook (given with ``--previous``) and computes its
+:func:`sheetbuilder.weekly.change_list.followup_of` takes last week's workbook (given with ``--previous``) and computes its
 final change list from the inputs and decisions it holds, with the same planning code that
 ``changes`` uses (so it does not depend on whether the user ran ``changes``). Each change is
 then looked up in this week's exports: whether it was applied (``yes``, ``no`` or ``cannot
@@ -15,7 +15,6 @@ from __future__ import annotations
 
 import datetime as dt
 import math
-from dataclasses import dataclass, field
 from typing import Any
 
 import pandas as pd
@@ -23,8 +22,9 @@ import pandas as pd
 from sheetbuilder.reading import contract as c
 from sheetbuilder.reading.periods import Period
 from sheetbuilder.reading.settings import Settings
+from sheetbuilder.sheets.followup import CANNOT_TELL, NO, YES, fold
+from sheetbuilder.values import is_blank
 
-YES, NO, CANNOT_TELL = "yes", "no", "cannot tell"
 METRICS = ("clicks", "spend", "orders", "ad_sales")
 COMPARED_TABLES = ("store_sales", "ad_products", "targets", "search_terms")
 
@@ -45,53 +45,16 @@ def span_of(settings: Settings, period: Any = None) -> Period | None:
     return Period(end - dt.timedelta(days=int(days) - 1), end)
 
 
-def fold(text: Any) -> str:
-    """Text compared as the exports write it loosely: case folded, whitespace collapsed."""
-    return " ".join(str(text).casefold().split())
-
-
-def _blank(value: Any) -> bool:
-    return value is None or (isinstance(value, float) and math.isnan(value)) or (
-        isinstance(value, str) and value.strip() == "")
-
-
-def _number(value: Any) -> float | None:
-    if _blank(value) or isinstance(value, bool) or isinstance(value, str):
+def number_or_none(value: Any) -> float | None:
+    """A cell value as a number, or None when it is blank, text or a bool."""
+    if is_blank(value) or isinstance(value, bool) or isinstance(value, str):
         return None
     return float(value)
 
 
 def _cents(value: Any) -> int | None:
-    n = _number(value)
+    n = number_or_none(value)
     return None if n is None else int(round(n * 100))
-
-
-@dataclass
-class Followup:
-    """Last week's change list looked up in this week's exports, and both periods' product figures.
-
-    Attributes:
-        rows: one dict per change: kind, campaign, ad_group, target, match_type, product_id, planned,
-            now, applied, was (last week's current value), target_acos, and <metric>_b / <metric>_n
-            for clicks, spend, orders and ad_sales.
-        products: last period's Profit figures per product id (revenue, ad_spend, tacos, net_profit,
-            status, direction).
-        previous: last period, when known; current: this period, when known.
-        source: the previous workbook's file name.
-    """
-
-    rows: list[dict]
-    products: dict[str, dict]
-    previous: Period | None
-    current: Period | None
-    source: str
-    min_clicks: int = 10
-    notes: list[str] = field(default_factory=list)
-
-    @property
-    def overlap(self) -> int:
-        """Days the two periods share (0 when either is unknown)."""
-        return self.previous.overlap(self.current) if self.previous and self.current else 0
 
 
 def _rows_of(table: pd.DataFrame | None, columns: tuple[str, ...]) -> list[tuple]:
@@ -104,8 +67,8 @@ def _rows_of(table: pd.DataFrame | None, columns: tuple[str, ...]) -> list[tuple
     for name in columns:
         kinds[name] = next((col.kind for t in rule.values() for col in t.columns if col.name == name), c.TEXT)
     for record in table[list(columns)].itertuples(index=False, name=None):
-        out.append(tuple(round(float(v), 6) if kinds[k] in c.NUMERIC_KINDS and _number(v) is not None
-                         else ("" if _blank(v) else str(v)) for k, v in zip(columns, record)))
+        out.append(tuple(round(float(v), 6) if kinds[k] in c.NUMERIC_KINDS and number_or_none(v) is not None
+                         else ("" if is_blank(v) else str(v)) for k, v in zip(columns, record)))
     return sorted(out)
 
 
@@ -149,7 +112,7 @@ def _term_mask(table: pd.DataFrame | None, campaign, group, term, match):
     exact = str(match).endswith("exact")
     hits = table["search_term"].map(lambda t: fold(t).split() == words if exact else _phrase_in(words, fold(t).split()))
     mask = (table["campaign"] == campaign) & hits
-    if not _blank(group):
+    if not is_blank(group):
         mask &= table["ad_group"] == group
     return mask
 
@@ -165,17 +128,17 @@ def _applied(change: dict, now: dict) -> tuple[str, Any]:
                                         change["match_type"])]
         if kind != "bid":
             return (YES if len(rows) else NO), (float(rows["bid"].iloc[0]) if len(rows) and
-                                                _number(rows["bid"].iloc[0]) is not None else None)
+                                                number_or_none(rows["bid"].iloc[0]) is not None else None)
         if not len(rows):
             return NO, None
-        bid = _number(rows["bid"].iloc[-1])
+        bid = number_or_none(rows["bid"].iloc[-1])
         return (YES if _cents(bid) == _cents(change["planned"]) else NO), bid
     if kind == "add negative":
         if negatives is None:
             return CANNOT_TELL, None
-        group = "" if _blank(change["ad_group"]) else change["ad_group"]
+        group = "" if is_blank(change["ad_group"]) else change["ad_group"]
         hit = ((negatives["campaign"] == change["campaign"])
-               & (negatives["ad_group"].map(lambda g: "" if _blank(g) else g) == group)
+               & (negatives["ad_group"].map(lambda g: "" if is_blank(g) else g) == group)
                & (negatives["term"].map(fold) == fold(change["target"]))
                & (negatives["match_type"] == change["match_type"]))
         return (YES if bool(hit.any()) else NO), None
@@ -185,7 +148,7 @@ def _applied(change: dict, now: dict) -> tuple[str, Any]:
         rows = campaigns.loc[campaigns["campaign"] == change["campaign"]]
         if not len(rows):
             return NO, None
-        budget = _number(rows["daily_budget"].iloc[-1])
+        budget = number_or_none(rows["daily_budget"].iloc[-1])
         return (YES if _cents(budget) == _cents(change["planned"]) else NO), budget
     return CANNOT_TELL, None
 
@@ -214,10 +177,10 @@ def followup_rows(changes: list[dict], before: dict, now: dict, targets: dict[st
     """
     out = []
     for ch in changes:
-        row = {k: ("" if _blank(ch.get(k)) else ch.get(k)) for k in
+        row = {k: ("" if is_blank(ch.get(k)) else ch.get(k)) for k in
                ("kind", "campaign", "ad_group", "target", "match_type", "product_id")}
-        row["planned"] = _number(ch.get("new"))
-        row["was"] = _number(ch.get("current"))
+        row["planned"] = number_or_none(ch.get("new"))
+        row["was"] = number_or_none(ch.get("current"))
         row["applied"], row["now"] = _applied({**row, "planned": row["planned"]}, now)
         row["target_acos"] = targets.get(str(row["product_id"]), math.nan)
         for suffix, tables in (("_b", before), ("_n", now)):

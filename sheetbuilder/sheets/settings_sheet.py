@@ -8,6 +8,8 @@ from sheetbuilder.workbook.spec import DATA, INPUT, Cell, PageSetup, Rule, Sheet
 
 SHEET = "Settings"
 FIRST_ROW = 4  # 0-based row of the first setting
+AS_BUILT = "As built"  # the column keeping each value as built, so a typed value is told apart in later weeks
+HEADERS = ("Setting", "Value", "What it does", "Name in formulas", AS_BUILT)
 _STYLE = {"percent": "percent", "number": "ratio", "money": "money", "choice": "text", "int": "int", "date": "date", "text": "text", "bool": "text"}
 
 
@@ -54,8 +56,7 @@ def plan_settings(settings: Settings, built_on: dt.date, period=None,
               "Grey-text rows were used while reading the exports; change settings.toml and rebuild.",
               style="note")],
         [None],
-        [Cell("Setting", style="header"), Cell("Value", style="header"), Cell("What it does", style="header"),
-         Cell("Name in formulas", style="header"), Cell("As built", style="header")],
+        [Cell(header, style="header") for header in HEADERS],
     ]
     names: list[tuple[str, str]] = []
     validations: list[Validation] = []

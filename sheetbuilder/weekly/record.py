@@ -1,0 +1,189 @@
+"""Reading a saved workbook of ours once: the :class:`SavedWorkbook` record every weekly command takes.
+
+``build --previous`` and ``changes`` each open the workbook once (:func:`read_saved_workbook`,
+under the reading guard: a damaged file is the user's problem) and read everything they use
+from it: the inputs, settings and typed edits it holds, the values it saved, its History and,
+for ``changes``, its Actions and Follow-up lists. What they compute from the record (the change
+list, the carry, the follow-up) runs after the file is closed, so a failure there is a bug.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from sheetbuilder.errors import Problem, SheetbuilderError
+from sheetbuilder.reading.guard import reading
+from sheetbuilder.reading.settings import Settings
+from sheetbuilder.sheets.actions import HEADER_ROW as ACTIONS_HEADER_ROW, HEADERS, SHEET
+from sheetbuilder.sheets.followup import CHANGE_DEFS, NAME as FOLLOWUP_NAME
+from sheetbuilder.sheets.typed import ACTIONS_NAME, DECISION_SHEETS
+from sheetbuilder.values import is_blank
+from sheetbuilder.weekly.carry import Edits, edits_in
+from sheetbuilder.weekly.saved import (NotAWorkbook, SavedBook, named_area, named_columns, read_history, saved_inputs,
+                                       saved_settings)
+
+HEADER_ROW = ACTIONS_HEADER_ROW + 1  # 1-based, as a spreadsheet shows it
+FIRST_ROW = HEADER_ROW + 1
+
+
+class NoActionsSheet(SheetbuilderError):
+    """The workbook has no Actions sheet, or its header row is not the expected one."""
+
+
+def _saved_actions(book: SavedBook, formulas: bool = False) -> list[tuple[int, list[Any]]]:
+    """[(sheet row, visible values)] of the Actions list as the file saved it (blank Kind = an empty row).
+
+    With formulas, a formula cell that stores no value reads as NO_SAVED_VALUE (a typed value reads as itself).
+    """
+    area = named_area(book.wb, ACTIONS_NAME)
+    first_col = area.first_col if area else 0
+    rows = book.rows(area.sheet if area else SHEET, frozenset(range(first_col, first_col + len(HEADERS))), formulas)
+    first_row = area.first_row if area else FIRST_ROW - 1
+    width = len(HEADERS)
+    header = [rows[first_row - 1][first_col + i] if first_row - 1 < len(rows) and first_col + i < len(
+        rows[first_row - 1]) else None for i in range(width)]
+    got = tuple("" if h is None else str(h).strip() for h in header)
+    if area is None and got != HEADERS:
+        raise NoActionsSheet(f"{book.path.name}: the {SHEET} sheet's row {HEADER_ROW} should read "
+                             f"{', '.join(HEADERS)}; it reads {', '.join(got)}")
+    last = area.last_row if area else len(rows) - 1
+    return [(r + 1, [rows[r][first_col + i] if first_col + i < len(rows[r]) else None for i in range(width)])
+            for r in range(first_row, min(last, len(rows) - 1) + 1)]
+
+
+@dataclass
+class SavedWorkbook:
+    """Everything the weekly commands take from a saved workbook of ours, read once and closed.
+
+    Attributes:
+        path: the workbook.
+        sheetnames: its sheets, in order.
+        tables: the input tables of its in_ sheets (corrections included); None when the workbook holds
+            no inputs (no in_catalog or Settings sheet: an Actions-shaped sheet alone).
+        settings, built_on: its Settings sheet (the defaults and today without one).
+        edits: everything typed in it (Decisions, target overrides, what was lost).
+        problems: cells that could not be read as their column's kind.
+        context: what the checks of a change read besides the change (see
+            :func:`sheetbuilder.weekly.change_list.check_change`).
+        results: {decision sheet label: [(sheet row, key cells, saved Final value)]}, for overwritten Finals.
+        history, history_problems: its History rows and why they could not be read (read for ``build
+            --previous``).
+        actions: [(sheet row, visible values)] of its Actions list as saved (read for ``changes``).
+        typed_actions: the same with a formula that stores no value read as NO_SAVED_VALUE (read when
+            the file stores no values on Actions).
+        followup: [(sheet row, {column key: value})] of its Follow-up's "Last week's changes" (read for
+            ``changes --include-unapplied``).
+    """
+
+    path: Path
+    sheetnames: list[str]
+    tables: dict[str, Any] | None
+    settings: Settings
+    built_on: Any
+    edits: Edits
+    problems: list[Problem]
+    context: dict[str, Any]
+    results: dict[str, list[tuple[int, list[Any], Any]]]
+    history: list[dict] = field(default_factory=list)
+    history_problems: list[Problem] = field(default_factory=list)
+    actions: list[tuple[int, list[Any]]] = field(default_factory=list)
+    typed_actions: list[tuple[int, list[Any]]] = field(default_factory=list)
+    followup: list[tuple[int, dict[str, Any]]] = field(default_factory=list)
+
+    @property
+    def holds_inputs(self) -> bool:
+        """Whether the workbook holds the inputs its change list is computed from."""
+        return self.tables is not None
+
+
+def _column_values(book: SavedBook, sheet: str, header: str) -> set[str]:
+    """The texts of the column headed header (row 1) of sheet, or empty when absent."""
+    rows = book.rows(sheet)
+    if not rows:
+        return set()
+    head = [str(v).strip() if v is not None else "" for v in rows[0]]
+    if header not in head:
+        return set()
+    i = head.index(header)
+    return {str(r[i]).strip() for r in rows[1:] if not is_blank(r[i])}
+
+
+def read_context(book: SavedBook) -> dict[str, Any]:
+    """What the checks read besides a change: bid floor and ceiling, the campaigns in the exports."""
+    sheets = book.wb.sheetnames
+    return {
+        "bid_floor": book.named_value("bid_floor"),
+        "bid_ceiling": book.named_value("bid_ceiling"),
+        "campaigns": (_column_values(book, "in_campaigns", "campaign")
+                      | _column_values(book, "in_ad_products", "campaign")),
+        "has_campaign_sheets": "in_campaigns" in sheets or "in_ad_products" in sheets,
+    }
+
+
+def _saved_results(book: SavedBook) -> dict[str, list[tuple[int, list[Any], Any]]]:
+    """{label: [(sheet row, key cells, saved Final)]} of each Decision table whose names are in the file."""
+    out = {}
+    for entry in DECISION_SHEETS:
+        decl = entry.decl
+        wanted = (*decl.keys, decl.result)
+        areas = named_columns(book.wb, {k: decl.name_of(k) for k in wanted}) if decl.result else None
+        if areas is None:
+            continue
+        first = next(iter(areas.values())).first_row
+        rows = book.rows(areas[decl.result].sheet, frozenset(a.first_col for a in areas.values()))
+        result = areas[decl.result]
+        out[entry.label] = [(r + 1, [rows[r][areas[k].first_col] for k in decl.keys], rows[r][result.first_col])
+                            for r in range(first, min(result.last_row, len(rows) - 1) + 1)]
+    return out
+
+
+def _followup_rows(book: SavedBook) -> list[tuple[int, dict[str, Any]]]:
+    """[(sheet row, {column key: value})] of the Follow-up's Last week's changes, found by its defined name."""
+    visible = [d.key for d in CHANGE_DEFS]
+    area = named_area(book.wb, FOLLOWUP_NAME)
+    if area is None:
+        return []
+    rows = book.rows(area.sheet, frozenset(range(area.first_col, area.first_col + len(visible))))
+    return [(r + 1, dict(zip(visible, rows[r][area.first_col:area.first_col + len(visible)])))
+            for r in range(area.first_row, min(area.last_row, len(rows) - 1) + 1)]
+
+
+def read_saved_workbook(path: Path, unreadable: type[SheetbuilderError] = NotAWorkbook,
+                        for_changes: bool = False, followup: bool = False) -> SavedWorkbook:
+    """Read a saved workbook of ours once, under the reading guard, and close it.
+
+    Args:
+        path: the workbook (only read).
+        unreadable: the error a damaged file raises (``build --previous`` and ``changes`` name it apart).
+        for_changes: also read the Actions list as saved (not the History); refuse a workbook
+            without an Actions sheet, and read one without inputs from its saved values.
+        followup: also read the Follow-up's rows (``changes --include-unapplied``).
+
+    Raises:
+        WorkbookNotFound, unreadable: the file is missing or cannot be read.
+        NoActionsSheet: for_changes, and the workbook has no Actions list to read.
+    """
+    with reading(path, unreadable), SavedBook(Path(path)) as book:
+        names = list(book.wb.sheetnames)
+        if for_changes and SHEET not in names:
+            raise NoActionsSheet(f"{book.path.name} has no {SHEET} sheet; build it with a sheetbuilder that writes one")
+        actions = _saved_actions(book) if for_changes else []
+        holds_inputs = not for_changes or ("in_catalog" in names and "Settings" in names)
+        if not holds_inputs:
+            if actions and all(is_blank(v) for _, values in actions for v in values):
+                raise NoActionsSheet(f"{book.path.name} stores no values on {SHEET} and holds no inputs to "
+                                     "compute them from; open and save it in a spreadsheet program first")
+            return SavedWorkbook(book.path, names, tables=None, settings=Settings(), built_on=None,
+                                 edits=Edits(str(book.path)), problems=[], context=read_context(book), results={},
+                                 actions=actions)
+        tables, problems = saved_inputs(book)
+        settings, built_on, setting_problems = saved_settings(book)
+        problems += [Problem("Settings", None, p.column, p.message) for p in setting_problems]
+        history, history_problems = ([], []) if for_changes else read_history(book)
+        no_values = for_changes and all(is_blank(values[0]) for _, values in actions)
+        return SavedWorkbook(book.path, names, tables=tables, settings=settings, built_on=built_on,
+                             edits=edits_in(book), problems=problems, context=read_context(book),
+                             results=_saved_results(book), history=history, history_problems=history_problems,
+                             actions=actions, typed_actions=_saved_actions(book, formulas=True) if no_values else [],
+                             followup=_followup_rows(book) if followup else [])

@@ -1,0 +1,65 @@
+"""A saved workbook is read once per command: `build --previous` and `changes` each open it one time.
+
+Both commands read everything they need (inputs, settings, typed edits, saved values, History,
+the Follow-up's rows) into one record under the reading guard, then compute from the record
+with the file closed (DEVELOPERS.md, Architecture; the weekly round in README.md).
+"""
+from __future__ import annotations
+
+import datetime as dt
+from pathlib import Path
+
+import openpyxl
+import pytest
+
+from sheetbuilder.pipeline import build
+from sheetbuilder.weekly import saved
+from sheetbuilder.weekly.changes import export_changes
+from sheetbuilder.weekly.record import read_saved_workbook
+
+ROOT = Path(__file__).resolve().parent.parent
+BUILT_ON = dt.date(2026, 12, 2)
+
+
+@pytest.fixture()
+def opened(monkeypatch) -> dict[str, list[str]]:
+    """The file names passed to the package's one opener, and to openpyxl's loader by anyone."""
+    calls: dict[str, list[str]] = {"opener": [], "openpyxl": []}
+    opener, loader = saved.open_workbook, openpyxl.load_workbook
+
+    def counted_opener(path, *args, **kwargs):
+        calls["opener"].append(Path(path).name)
+        return opener(path, *args, **kwargs)
+
+    def counted_loader(path, *args, **kwargs):
+        calls["openpyxl"].append(Path(path).name)
+        return loader(path, *args, **kwargs)
+
+    monkeypatch.setattr(saved, "open_workbook", counted_opener)
+    monkeypatch.setattr(openpyxl, "load_workbook", counted_loader)
+    return calls
+
+
+def test_build_with_previous_and_changes_each_open_the_saved_workbook_once(demo_build, tmp_path, opened):
+    week1 = demo_build.output  # the demo, built from exports: no workbook opened
+    opened["opener"].clear()
+    opened["openpyxl"].clear()
+    week2 = build(ROOT / "demo_inputs_week2", tmp_path / "week2.xlsx", built_on=BUILT_ON + dt.timedelta(days=7),
+                  previous=week1)
+    names = [s.name for s in week2.plan.spec.sheets]
+    assert "Follow-up" in names and "History" in names  # the build read the edits, the change list and History
+    assert {"opener": [week1.name], "openpyxl": [week1.name]} == opened
+    opened["opener"].clear()
+    opened["openpyxl"].clear()
+    result = export_changes(week2.output, tmp_path / "changes.csv", include_unapplied=True)
+    assert result.computed and result.written > 0
+    assert {"opener": ["week2.xlsx"], "openpyxl": ["week2.xlsx"]} == opened
+
+
+def test_the_record_holds_what_both_commands_read(demo_build):
+    week1 = demo_build
+    record = read_saved_workbook(week1.output, for_changes=True, followup=True)
+    assert record.holds_inputs
+    assert BUILT_ON == record.built_on
+    assert set(week1.plan.tables["Actions"].frame["kind"]) - {""} == {v[0] for _, v in record.actions} - {None, ""}
+    assert [] == record.followup  # the first week has no Follow-up sheet
