@@ -10,7 +10,7 @@ import pytest
 from sheetbuilder.errors import InputProblems
 from sheetbuilder.pipeline import build, load
 from sheetbuilder.reading.ours import MARK, built_by_us
-from sheetbuilder.weekly.saved import ACTIONS_NAME
+from sheetbuilder.sheets.typed import ACTIONS_NAME
 
 
 @pytest.fixture(scope="module")

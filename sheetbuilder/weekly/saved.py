@@ -11,22 +11,18 @@ would not. Header text is the fallback for a workbook without the names.
 from __future__ import annotations
 
 import datetime as dt
-import html
 import math
-import re
 import zipfile
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
-from xml.parsers import expat
 
 import pandas as pd
-from openpyxl.utils.cell import get_column_letter, range_boundaries
+from openpyxl.utils.cell import range_boundaries
 from openpyxl.utils.datetime import from_excel
 
 from sheetbuilder.reading import contract as c
 from sheetbuilder.sheets.decisions import NO_SAVED_VALUE
-from sheetbuilder.workbook.formula import col_number
 from sheetbuilder.reading.guard import UnreadableWorkbook, guard_saved_workbook
 from sheetbuilder.errors import WARNING, Problem, SheetbuilderError
 from sheetbuilder.sheets.inputs import sheet_name
@@ -34,6 +30,7 @@ from sheetbuilder.reading.settings import SETTINGS, Settings, coerce_setting
 from sheetbuilder.sheets.history import (COLUMNS as HISTORY_COLUMNS, HEADER_ROW as HISTORY_HEADER_ROW,
                                          NAME as HISTORY_NAME, NUMBERS as HISTORY_NUMBERS, SHEET as HISTORY_SHEET)
 from sheetbuilder.values import is_blank
+from sheetbuilder.weekly.sheet_xml import CellReader, DamagedSheet, read_cells
 
 class SavedWorkbookUnreadable(SheetbuilderError):
     """The workbook is missing or is not an .xlsx file that can be read."""
@@ -105,26 +102,14 @@ def named_columns(wb: Any, names: dict[str, str]) -> dict[str, Area] | None:
     return areas if len(bounds) == 1 else None
 
 
-_CELL = re.compile(r'<c r="([A-Z]+)(\d+)"([^>]*?)(?:/>|>(.*?)</c>)', re.S)
-_VALUE = re.compile(r"<v>(.*?)</v>", re.S)
-_TEXT = re.compile(r"<t(?: [^>]*)?>(.*?)</t>|<t(?: [^>]*)?/>", re.S)
-_PHONETIC = re.compile(r"<rPh\b.*?</rPh>", re.S)
-_TYPE = re.compile(r'\bt="(\w+)"')
-_STYLE = re.compile(r'\bs="(\d+)"')
-
-
-def _number(text: str) -> int | float:
-    """A stored number as openpyxl reads it: int when written without a point or exponent."""
-    return float(text) if any(ch in text for ch in ".eE") or text in ("inf", "-inf", "nan") else int(text)
-
-
 class SavedBook:
     """A saved workbook opened by :func:`open_workbook`, each sheet's cells read once, fast.
 
-    Cells are read with a narrow scan of the sheet's XML (values as openpyxl gives them in
-    read-only, values-only mode: shared, inline and formula strings, numbers, booleans,
-    error text, dates by their number format), only for the columns a caller asks for, so
-    a wide sheet costs what its wanted columns cost. A formula cell with no saved value
+    Cells are read by a streaming XML parser (:mod:`sheetbuilder.weekly.sheet_xml`: every spelling
+    ECMA-376 allows; values as openpyxl gives them in read-only, values-only mode: shared, inline
+    and formula strings, numbers, booleans, error text, dates by their number format or as ISO
+    text), keeping only the columns a caller asks for, so a wide sheet costs what its wanted
+    columns cost in memory. A formula cell with no saved value
     reads as :data:`sheetbuilder.sheets.decisions.NO_SAVED_VALUE` when ``formulas`` is asked for.
     """
 
@@ -142,51 +127,14 @@ class SavedBook:
 
     def _read(self, sheet: str, columns: frozenset[int] | None, formulas: bool) -> list[list[Any]]:
         ws = self.wb[sheet]
-        with self.wb._archive.open(ws._worksheet_path) as fh:  # openpyxl's own handle on the file
-            data = fh.read()
-        try:  # the scan below would read a truncated sheet's first rows silently: check the whole is well formed
-            expat.ParserCreate().Parse(data, True)
-        except expat.ExpatError as exc:
+        reader = CellReader(ws._shared_strings, self.wb._date_formats, lambda n: from_excel(n, self.wb.epoch),
+                            NO_SAVED_VALUE)
+        try:  # a truncated or damaged sheet is refused whole, never read in part
+            with self.wb._archive.open(ws._worksheet_path) as fh:  # openpyxl's own handle on the file
+                return read_cells(fh, reader, columns, formulas)
+        except DamagedSheet as exc:
             raise NotAWorkbook(f"{self.path} is not a workbook that can be read: its sheet '{sheet}' is damaged "
                                f"({exc}); open it in a spreadsheet program and save it again") from None
-        xml = data.decode("utf-8")
-        strings, dates, epoch = ws._shared_strings, self.wb._date_formats, self.wb.epoch
-        found: dict[int, dict[int, Any]] = {}
-        width = 0
-        pattern = _CELL
-        if columns is not None:  # only the wanted columns' cells are matched: the others are skipped in the scan
-            letters = "|".join(get_column_letter(c + 1) for c in sorted(columns))
-            pattern = re.compile(_CELL.pattern.replace("([A-Z]+)", f"({letters})", 1), re.S)
-        for m in pattern.finditer(xml):
-            col = col_number(m.group(1))
-            attrs, body = m.group(3), m.group(4) or ""
-            kind = _TYPE.search(attrs)
-            kind = kind.group(1) if kind else "n"
-            v = _VALUE.search(body)
-            text = html.unescape(v.group(1)) if v and v.group(1) != "" else None
-            if kind == "inlineStr":
-                value: Any = "".join(html.unescape(t or "") for t in _TEXT.findall(_PHONETIC.sub("", body)))
-            elif text is None:
-                value = NO_SAVED_VALUE if formulas and "<f" in body else None
-            elif kind == "s":
-                value = strings[int(text)]
-            elif kind == "b":
-                value = bool(int(text))
-            elif kind in ("str", "e"):
-                value = text
-            else:
-                value = _number(text)
-                style = _STYLE.search(attrs)
-                if style and int(style.group(1)) in dates:
-                    try:
-                        value = from_excel(value, epoch)
-                    except (OverflowError, ValueError):
-                        value = "#VALUE!"
-            found.setdefault(int(m.group(2)) - 1, {})[col] = value
-            width = max(width, col + 1)
-        last = max(found, default=-1)
-        empty: dict[int, Any] = {}
-        return [[found.get(r, empty).get(c) for c in range(width)] for r in range(last + 1)]
 
     def named_value(self, name: str) -> Any:
         """The value of the single cell a defined name points at, or None."""

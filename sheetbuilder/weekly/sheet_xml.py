@@ -114,6 +114,111 @@ class CellReader:
         return number
 
 
+_C, _ROW, _V, _F, _IS, _RPH, _T = range(1, 8)
+_TAGS = {"c": _C, "row": _ROW, "v": _V, "f": _F, "is": _IS, "rPh": _RPH, "t": _T}
+_DIGITS = "0123456789"
+
+
+class _SheetParser:
+    """The expat handlers of one read: the cell being read, where the last row and cell were, what is kept."""
+
+    def __init__(self, reader: CellReader, columns: frozenset[int] | None, formulas: bool):
+        self.reader, self.columns, self.formulas = reader, columns, formulas
+        self.found: dict[int, dict[int, Any]] = {}
+        self.row, self.col = -1, -1
+        self.row_given = False  # the current row element says its number (its cells' references agree with it)
+        self.depth_is = self.depth_rph = 0
+        self.in_v = self.in_t = False
+        self.cell = _Cell()
+        self.tags: dict[str, int] = {}  # element names as the file spells them (any prefix) -> _C, _ROW ...
+        self.letters: dict[str, int] = {}
+
+    def tag(self, name: str) -> int:
+        code = self.tags.get(name)
+        if code is None:
+            code = self.tags[name] = _TAGS.get(name.rsplit("}", 1)[-1], 0)
+        return code
+
+    def place(self, ref: str) -> tuple[int, int]:
+        """(row, column) of a cell reference, the letters' column cached."""
+        letters = ref.rstrip(_DIGITS)
+        col = self.letters.get(letters)
+        if col is None or len(letters) == len(ref):
+            row, col = split_reference(ref)
+            self.letters[letters] = col
+            return row, col
+        return int(ref[len(letters):]) - 1, col
+
+    def start(self, name: str, attrs: dict[str, str]) -> None:
+        code = self.tags.get(name) or self.tag(name)
+        if code == _C:
+            ref = attrs.get("r")
+            if not ref:
+                col = self.col + 1
+            elif self.row_given and (col := self.letters.get(ref.rstrip(_DIGITS))) is not None \
+                    and self.columns is not None and col not in self.columns:
+                self.col, self.cell = col, _UNWANTED  # its row is the row element's: no need to read it
+                return
+            else:
+                self.row, col = self.place(ref)
+            self.col = col
+            wanted = self.columns is None or col in self.columns
+            self.cell = _Cell(self.row, col, attrs.get("t") or "n", int(attrs.get("s") or 0), wanted) if wanted \
+                else _UNWANTED
+        elif code == _ROW:
+            r = attrs.get("r")
+            self.row = int(r) - 1 if r else self.row + 1
+            self.row_given = bool(r)
+            self.col = -1
+        elif not self.cell.wanted:
+            return
+        elif code == _V:
+            self.in_v = True
+        elif code == _F:
+            self.cell.formula = True
+        elif code == _IS:
+            self.depth_is += 1
+        elif code == _RPH:
+            self.depth_rph += 1
+        elif code == _T and self.depth_is:
+            self.in_t = True
+
+    def end(self, name: str) -> None:
+        cell = self.cell
+        if not cell.wanted:
+            return
+        code = self.tags.get(name) or self.tag(name)
+        if code == _C:
+            self.found.setdefault(cell.row, {})[cell.col] = self.reader.value(cell, self.formulas)
+            self.cell = _UNWANTED
+        elif code == _V:
+            self.in_v = False
+        elif code == _IS:
+            self.depth_is -= 1
+        elif code == _RPH:
+            self.depth_rph -= 1
+        elif code == _T:
+            self.in_t = False
+
+    def text(self, data: str) -> None:
+        cell = self.cell
+        if not cell.wanted:
+            return
+        if self.in_v:
+            cell.value.append(data)
+        elif self.in_t and not self.depth_rph:
+            cell.inline.append(data)
+
+    def rows(self) -> list[list[Any]]:
+        found = self.found
+        width = 1 + max((c for cells in found.values() for c in cells), default=-1)
+        empty: dict[int, Any] = {}
+        return [[found.get(r, empty).get(c) for c in range(width)] for r in range(max(found, default=-1) + 1)]
+
+
+_UNWANTED = _Cell()
+
+
 def read_cells(handle: IO[bytes], reader: CellReader, columns: frozenset[int] | None = None,
                formulas: bool = False) -> list[list[Any]]:
     """Every row of a worksheet part as a list of values, padded to one width (only ``columns`` when given).
@@ -121,69 +226,10 @@ def read_cells(handle: IO[bytes], reader: CellReader, columns: frozenset[int] | 
     Raises:
         DamagedSheet: the part is not well-formed XML or a reference cannot be read.
     """
-    found: dict[int, dict[int, Any]] = {}
-    state = {"row": -1, "col": -1, "depth_is": 0, "depth_rph": 0, "in_v": False, "in_t": False}
-    cell = _Cell()
-
-    def local(name: str) -> str:
-        return name.rsplit("}", 1)[-1]
-
-    def start(name: str, attrs: dict[str, str]) -> None:
-        nonlocal cell
-        tag = local(name)
-        if tag == "c":
-            ref = attrs.get("r")
-            if ref:
-                row, col = split_reference(ref)
-                state["row"] = row
-            else:
-                row, col = state["row"], state["col"] + 1
-            state["col"] = col
-            cell = _Cell(row, col, attrs.get("t", "n") or "n", int(attrs.get("s", "0") or 0),
-                         columns is None or col in columns)
-        elif tag == "row":
-            r = attrs.get("r")
-            state["row"] = int(r) - 1 if r else state["row"] + 1
-            state["col"] = -1
-        elif not cell.wanted:
-            return
-        elif tag == "v":
-            state["in_v"] = True
-        elif tag == "f":
-            cell.formula = True
-        elif tag == "is":
-            state["depth_is"] += 1
-        elif tag == "rPh":
-            state["depth_rph"] += 1
-        elif tag == "t" and state["depth_is"]:
-            state["in_t"] = True
-
-    def end(name: str) -> None:
-        tag = local(name)
-        if tag == "c":
-            if cell.wanted:
-                found.setdefault(cell.row, {})[cell.col] = reader.value(cell, formulas)
-            cell.wanted = False
-        elif tag == "v":
-            state["in_v"] = False
-        elif tag == "is":
-            state["depth_is"] -= 1
-        elif tag == "rPh":
-            state["depth_rph"] -= 1
-        elif tag == "t":
-            state["in_t"] = False
-
-    def text(data: str) -> None:
-        if not cell.wanted:
-            return
-        if state["in_v"]:
-            cell.value.append(data)
-        elif state["in_t"] and not state["depth_rph"]:
-            cell.inline.append(data)
-
+    sheet = _SheetParser(reader, columns, formulas)
     parser = expat.ParserCreate(namespace_separator="}")
     parser.buffer_text = True
-    parser.StartElementHandler, parser.EndElementHandler, parser.CharacterDataHandler = start, end, text
+    parser.StartElementHandler, parser.EndElementHandler, parser.CharacterDataHandler = sheet.start, sheet.end, sheet.text
     try:
         while chunk := handle.read(CHUNK):
             parser.Parse(chunk, False)
@@ -192,7 +238,4 @@ def read_cells(handle: IO[bytes], reader: CellReader, columns: frozenset[int] | 
         raise DamagedSheet(str(exc)) from None
     except (ValueError, OverflowError) as exc:
         raise DamagedSheet(str(exc)) from None
-    width = 1 + max((c for cells in found.values() for c in cells), default=-1)
-    last = max(found, default=-1)
-    empty: dict[int, Any] = {}
-    return [[found.get(r, empty).get(c) for c in range(width)] for r in range(last + 1)]
+    return sheet.rows()
