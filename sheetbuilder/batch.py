@@ -13,6 +13,7 @@ from __future__ import annotations
 import datetime as dt
 import multiprocessing
 import os
+import sys
 import time
 from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
 from concurrent.futures.process import BrokenProcessPool
@@ -27,6 +28,10 @@ from sheetbuilder.sheets.overview import REFUSED, AccountSummary, attention_orde
 
 PREVIOUS_FILE = "previous.xlsx"   # last week's workbook, when kept inside the account's folder
 OVERVIEW_FILE = "overview.xlsx"
+# Linux: workers forked from this process start with its modules imported (a spawned worker imports
+# them again, about a second each). The parent must hold no other thread when the pool starts: the
+# command line's progress bar does not refresh on a thread. Elsewhere fork is unsafe or absent: spawn.
+START_METHOD = "fork" if sys.platform.startswith("linux") else "spawn"
 STOPPED = ("its build process stopped unexpectedly (killed, or out of memory), also when built alone; "
            "build it with: sheetbuilder build")
 
@@ -142,7 +147,7 @@ def _in_process(tasks: list[Task], done: Callable[[AccountSummary], None]) -> No
 def _in_pool(tasks: list[Task], jobs: int, done: Callable[[AccountSummary], None]) -> list[Task]:
     """Build on a pool of jobs processes, submitting as slots free; return the tasks a broken pool lost."""
     queue, lost = list(reversed(tasks)), []
-    context = multiprocessing.get_context("spawn")  # no fork of a parent holding threads (the progress bar)
+    context = multiprocessing.get_context(START_METHOD)
     with ProcessPoolExecutor(max_workers=jobs, mp_context=context) as pool:
         running: dict[Future, Task] = {}
         try:

@@ -170,11 +170,12 @@ def _batch(args: argparse.Namespace, console: Console) -> int:
     started = time.perf_counter()
     show = console.is_terminal and not args.quiet
     with Progress(TextColumn("{task.description}"), BarColumn(), TextColumn("{task.completed}/{task.total} accounts"),
-                  TimeElapsedColumn(), console=console, transient=True, disable=not show) as bar:
+                  TimeElapsedColumn(), console=console, transient=True, disable=not show,
+                  auto_refresh=False) as bar:  # no refresh thread: the batch's workers are forked from here
         task = bar.add_task("building accounts", total=None)
 
         def progress(summary, done: int, total: int) -> None:
-            bar.update(task, completed=done, total=total, description=f"built {summary.account}"
+            bar.update(task, completed=done, total=total, refresh=True, description=f"built {summary.account}"
                        if summary.status != "refused" else f"refused {summary.account}")
 
         result = run_batch(args.accounts, args.output, jobs=args.jobs, force=args.force,
