@@ -11,7 +11,9 @@ from benchmarks/accounts.py, each with its own seed), then:
   wall time (interpreter start, workers' start, every build, the overview).
 
 The figure the issue aims at: batch wall time / (sum of single builds / J) <= 1.2, and accounts
-per minute. The machine is shared: the load average before each run is printed beside it.
+per minute. The machine may be shared: the load average before each run is printed beside it,
+and the CPU time of the batch (its workers included) against the single builds' says what the
+batch itself adds whatever the other load.
 Figures are printed and written to bench_batch.json.
 """
 from __future__ import annotations
@@ -19,6 +21,7 @@ from __future__ import annotations
 import argparse
 import json
 import os
+import resource
 import shutil
 import subprocess
 import sys
@@ -42,27 +45,34 @@ def make_accounts(folder: Path, count: int, size: str) -> None:
             make_account(account, int(size), seed=20261205 + i)
 
 
-def single_builds(accounts: Path, out: Path) -> list[float]:
-    """Each account built alone by pipeline.build, one after the other in this (warm) interpreter."""
+def single_builds(accounts: Path, out: Path) -> tuple[list[float], float]:
+    """Each account built alone by pipeline.build, one after the other in this (warm) interpreter: the wall
+    time of each, and their CPU time in all."""
     from sheetbuilder.pipeline import build
     build(next(p for p in sorted(accounts.iterdir())), out / "warm-up.xlsx")  # imports and first-use costs
     times = []
+    cpu = time.process_time()
     for folder in sorted(p for p in accounts.iterdir() if p.is_dir()):
         started = time.perf_counter()
         build(folder, out / f"{folder.name}.xlsx")
         times.append(time.perf_counter() - started)
-    return times
+    return times, time.process_time() - cpu
 
 
-def batch_seconds(accounts: Path, out: Path, jobs: int) -> float:
-    """Wall time of the batch command in a fresh interpreter."""
-    started = time.perf_counter()
+def _children_cpu() -> float:
+    usage = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return usage.ru_utime + usage.ru_stime
+
+
+def batch_seconds(accounts: Path, out: Path, jobs: int) -> tuple[float, float]:
+    """Wall time of the batch command in a fresh interpreter, and the CPU time of it and its workers."""
+    started, cpu = time.perf_counter(), _children_cpu()
     done = subprocess.run([sys.executable, "-m", "sheetbuilder", "batch", str(accounts), "-o", str(out),
                            "--jobs", str(jobs), "-q"], cwd=ROOT, capture_output=True, text=True)
     seconds = time.perf_counter() - started
     if done.returncode not in (0, 3):
         raise SystemExit(f"batch failed ({done.returncode}):\n{done.stderr}")
-    return seconds
+    return seconds, _children_cpu() - cpu
 
 
 def measure(count: int, jobs: int, size: str, base: Path) -> dict:
@@ -72,13 +82,15 @@ def measure(count: int, jobs: int, size: str, base: Path) -> dict:
     singles = base / f"single-{size}"
     singles.mkdir()
     load_single = os.getloadavg()[0]
-    times = single_builds(accounts, singles)
+    times, single_cpu = single_builds(accounts, singles)
     load_batch = os.getloadavg()[0]
-    wall = batch_seconds(accounts, base / f"batch-{size}", jobs)
+    wall, batch_cpu = batch_seconds(accounts, base / f"batch-{size}", jobs)
     ideal = sum(times) / jobs
     return {"size": size, "accounts": count, "jobs": jobs, "single_sum_s": round(sum(times), 2),
             "single_mean_s": round(sum(times) / count, 3), "ideal_s": round(ideal, 2), "batch_s": round(wall, 2),
             "ratio": round(wall / ideal, 3), "accounts_per_minute": round(count / wall * 60, 1),
+            "single_cpu_s": round(single_cpu, 2), "batch_cpu_s": round(batch_cpu, 2),
+            "cpu_ratio": round(batch_cpu / single_cpu, 3),
             "load_before_single": round(load_single, 2), "load_before_batch": round(load_batch, 2)}
 
 
@@ -102,7 +114,8 @@ def main(argv: list[str] | None = None) -> int:
             print(f"{r['accounts']} accounts of size {r['size']}, --jobs {r['jobs']}: single builds "
                   f"{r['single_sum_s']} s in all ({r['single_mean_s']} s each), / jobs = {r['ideal_s']} s; batch "
                   f"{r['batch_s']} s: ratio {r['ratio']} ({verdict} the aim of {AIM}); "
-                  f"{r['accounts_per_minute']} accounts per minute (load average {r['load_before_single']} "
+                  f"{r['accounts_per_minute']} accounts per minute; CPU time {r['batch_cpu_s']} s against "
+                  f"{r['single_cpu_s']} s (ratio {r['cpu_ratio']}; load average {r['load_before_single']} "
                   f"before the single builds, {r['load_before_batch']} before the batch)", flush=True)
     (ROOT / "bench_batch.json").write_text(json.dumps({"cores": os.cpu_count(), "results": results}, indent=2))
     return 0

@@ -13,6 +13,7 @@ from __future__ import annotations
 import datetime as dt
 import multiprocessing
 import os
+import signal
 import sys
 import time
 from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
@@ -144,19 +145,32 @@ def _in_process(tasks: list[Task], done: Callable[[AccountSummary], None]) -> No
         done(build_account(task))
 
 
+def _worker_signals() -> None:
+    """A worker leaves Ctrl-C and hang-ups to the parent (which stops submitting, lets each running account
+    finish and exits) and ends quietly on SIGTERM (a partial file it leaves is removed by the next run)."""
+    for name in ("SIGINT", "SIGHUP"):
+        if hasattr(signal, name):
+            signal.signal(getattr(signal, name), signal.SIG_IGN)
+    signal.signal(signal.SIGTERM, signal.SIG_DFL)
+
+
 def _in_pool(tasks: list[Task], jobs: int, done: Callable[[AccountSummary], None]) -> list[Task]:
     """Build on a pool of jobs processes, submitting as slots free; return the tasks a broken pool lost."""
     queue, lost = list(reversed(tasks)), []
     context = multiprocessing.get_context(START_METHOD)
-    with ProcessPoolExecutor(max_workers=jobs, mp_context=context) as pool:
+    with ProcessPoolExecutor(max_workers=jobs, mp_context=context, initializer=_worker_signals) as pool:
         running: dict[Future, Task] = {}
         try:
             while queue or running:
-                while queue and len(running) < jobs:
-                    task = queue.pop()
-                    running[pool.submit(build_account, task)] = task
+                broken = False
+                while queue and len(running) < jobs and not broken:
+                    try:
+                        running[pool.submit(build_account, queue[-1])] = queue[-1]
+                        queue.pop()
+                    except BrokenProcessPool:  # broken since the last wait: the running futures say so too
+                        broken = True
                 finished, _ = wait(running, return_when=FIRST_COMPLETED)
-                if any(isinstance(f.exception(), BrokenProcessPool) for f in finished):
+                if broken or any(isinstance(f.exception(), BrokenProcessPool) for f in finished):
                     finished = wait(running)[0]  # the pool is broken: every running account ends now
                     queue.reverse()
                     lost, queue = queue, []

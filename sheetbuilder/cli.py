@@ -178,8 +178,13 @@ def _batch(args: argparse.Namespace, console: Console) -> int:
             bar.update(task, completed=done, total=total, refresh=True, description=f"built {summary.account}"
                        if summary.status != "refused" else f"refused {summary.account}")
 
-        result = run_batch(args.accounts, args.output, jobs=args.jobs, force=args.force,
-                           previous_dir=args.previous_dir, progress=progress)
+        try:
+            result = run_batch(args.accounts, args.output, jobs=args.jobs, force=args.force,
+                               previous_dir=args.previous_dir, progress=progress)
+        except KeyboardInterrupt:
+            console.print(f"the accounts built before the interruption are in {args.output}, without an overview; "
+                          "run the batch again with --force to build them all", markup=False)
+            raise
     refused = result.refused
     if refused:
         table = Table(title=None, expand=False)

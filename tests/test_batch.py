@@ -2,7 +2,9 @@
 account's failure never stopping the others."""
 from __future__ import annotations
 
+import datetime as dt
 import errno
+import os
 import shutil
 from pathlib import Path
 
@@ -15,6 +17,7 @@ from profit_io import profit_table
 from workbook_io import engine_disagreements, open_values, read_table
 from sheetbuilder.cli import main
 from sheetbuilder.recalc import formulas_values
+from sheetbuilder.sheets.overview import AccountSummary, plan_overview
 
 OVERVIEW_HEADER = 5  # 1-based: title, caution, order, counts, header
 ACTIONS_HEADER = 4   # 1-based: title, counts, note, header
@@ -189,9 +192,52 @@ def test_previous_dir_carries_last_weeks_workbook_and_two_previous_workbooks_are
     assert "two previous workbooks" in rows["south"]["Problem or warning"]
     names = openpyxl.load_workbook(tmp_path / "week2" / "north.xlsx").sheetnames
     assert "Follow-up" in names  # carried: last week's changes are followed up
+    shutil.copy(tmp_path / "week1" / "north.xlsx", accounts / "north" / "previous.xlsx")
+    assert 0 == main(["batch", str(accounts), "-o", str(tmp_path / "week2b"), "--jobs", "1", "-q"])
+    rows = overview_rows(tmp_path / "week2b" / "overview.xlsx")
+    assert "built" == rows["north"]["Status"]  # its own previous.xlsx is carried, not counted as a stray file
+    assert "Follow-up" in openpyxl.load_workbook(tmp_path / "week2b" / "north.xlsx").sheetnames
 
 
 def test_no_account_folders_is_refused_with_exit_1(tmp_path, capsys):
     (tmp_path / "accounts").mkdir()
     assert 1 == main(["batch", str(tmp_path / "accounts"), "-o", str(tmp_path / "out")])
     assert "holds no account folders" in capsys.readouterr().err
+
+
+def test_accounts_in_different_currencies_are_not_shown_in_one_currency():
+    rows = [AccountSummary("north", "built", currency="$", revenue=100.0, ad_spend=10.0, ad_sales=40.0,
+                           net_profit=20.0, losing=0, changes=0, at_stake=0.0),
+            AccountSummary("south", "built", currency="€", revenue=200.0, ad_spend=10.0, ad_sales=40.0,
+                           net_profit=30.0, losing=0, changes=0, at_stake=0.0)]
+    table = plan_overview(rows, dt.date(2026, 12, 5)).sheets[0].table
+    columns = {c.header: c for c in table.columns}
+    assert ["$", "€"] == list(columns["Currency"].values)
+    assert {"ratio"} == {columns[h].style for h in ("Revenue", "Ad spend", "Net profit after ads", "Money at stake")}
+
+
+def test_accounts_sharing_a_currency_show_it_on_their_money_columns():
+    rows = [AccountSummary(name, "built", currency="€", revenue=100.0, ad_spend=10.0, ad_sales=40.0,
+                           net_profit=20.0, losing=0, changes=0, at_stake=0.0) for name in ("north", "south")]
+    spec = plan_overview(rows, dt.date(2026, 12, 5))
+    assert "€" == spec.currency_symbol
+    assert "money" == {c.header: c for c in spec.sheets[0].table.columns}["Revenue"].style
+
+
+def test_a_worker_process_that_dies_in_one_account_leaves_the_others_built(tmp_path, monkeypatch):
+    accounts = tmp_path / "accounts"
+    for name in ("east", "north", "south", "west"):
+        write_account(accounts / name)
+    real = batch.build
+
+    def dying(folder, output, **kw):
+        if Path(folder).name == "north":
+            os._exit(9)  # as the system ending a process out of memory would
+        return real(folder, output, **kw)
+    monkeypatch.setattr(batch, "build", dying)  # forked workers start with this module as patched
+    if batch.START_METHOD != "fork":
+        pytest.skip("workers are spawned on this system: the patch does not reach them")
+    assert 3 == main(["batch", str(accounts), "-o", str(tmp_path / "out"), "--jobs", "2", "-q"])
+    rows = overview_rows(tmp_path / "out" / "overview.xlsx")
+    assert ["built"] * 3 == [rows[n]["Status"] for n in ("east", "south", "west")]
+    assert batch.STOPPED == rows["north"]["Problem or warning"]
