@@ -123,17 +123,18 @@ def plan_tasks(folders: Iterable[Path], out: Path, force: bool, previous_dir: Pa
 
 
 def _check_out(accounts: Path, out: Path, force: bool) -> Path:
-    """Make OUT (its parent must exist); refuse an OUT inside an account's folder, or an overview without force."""
+    """Make OUT (its parent must exist); refuse an OUT inside ACCOUNTS, or an existing overview without force."""
     out = Path(out)
     if out.exists() and not out.is_dir():
         raise SheetbuilderError(f"the output {out} is a file; give a folder for the workbooks")
     if not out.parent.is_dir():
         raise SheetbuilderError(f"the output folder's parent {out.parent} does not exist")
-    out.mkdir(exist_ok=True)
     root = Path(accounts).resolve()
     if out.resolve() != root and root in out.resolve().parents:
-        raise SheetbuilderError(f"the output {out} is inside an account's folder in {accounts}; "
-                                "write the workbooks outside ACCOUNTS")
+        raise SheetbuilderError(f"the output {out} is inside the accounts folder {accounts}, where it would be "
+                                "taken for an account (or written among an account's exports); write the workbooks "
+                                "outside it")
+    out.mkdir(exist_ok=True)
     overview = out / OVERVIEW_FILE
     if overview.exists() and not force:
         raise OutputExists(f"{overview} exists; add --force to overwrite it and the accounts' workbooks")
@@ -225,9 +226,13 @@ def run_batch(accounts: Path, out: Path, jobs: int | None = None, force: bool = 
     if not folders:
         raise SheetbuilderError(f"{accounts} holds no account folders; put each account's exports in a folder "
                                 "of its own inside it")
+    if previous_dir is not None:
+        if not Path(previous_dir).is_dir():
+            raise SheetbuilderError(f"the previous workbooks' folder {previous_dir} does not exist")
+        if Path(previous_dir).resolve() == Path(out).resolve():
+            raise SheetbuilderError(f"{out} holds last week's workbooks (--previous-dir); write this week's to "
+                                    "another folder")
     overview = _check_out(accounts, out, force)
-    if previous_dir is not None and not Path(previous_dir).is_dir():
-        raise SheetbuilderError(f"the previous workbooks' folder {previous_dir} does not exist")
     built_on = built_on or dt.date.today()
     tasks, summaries = plan_tasks(folders, Path(out), force, previous_dir, built_on)
     total = len(folders)

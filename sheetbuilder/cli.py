@@ -258,10 +258,11 @@ def parser() -> argparse.ArgumentParser:
     ba = sub.add_parser("batch", help="build one workbook per account folder, and an overview of the accounts",
                         description="Build every folder in ACCOUNTS (one account each, as build takes it) into "
                                     "OUT/ACCOUNT.xlsx, in parallel, and write OUT/overview.xlsx: one row per "
-                                    "account, refused accounts first, then by net profit after ads, lowest first. "
-                                    "A refused account gets no workbook and its first problem on the overview; "
-                                    "it never stops the others. Last week's workbook of an account is its "
-                                    "previous.xlsx or --previous-dir's ACCOUNT.xlsx. Exit codes: 0 every account "
+                                    "account, refused accounts first, then those with a blank net profit after "
+                                    "ads, then by net profit after ads, lowest first. A refused account gets no "
+                                    "workbook and its first problem on the overview; it never stops the others. "
+                                    "Last week's workbook of an account is its previous.xlsx or --previous-dir's "
+                                    "ACCOUNT.xlsx. Exit codes: 0 every account "
                                     "built; 3 some refused (the others are written); 1 nothing built (no account "
                                     "folders, overview exists without --force); 4 the system refused the "
                                     "overview; 130 interrupted.")

@@ -17,12 +17,13 @@ from profit_io import profit_table
 from workbook_io import engine_disagreements, open_values, read_table
 from sheetbuilder.cli import main
 from sheetbuilder.recalc import formulas_values
-from sheetbuilder.sheets.overview import AccountSummary, plan_overview
+from sheetbuilder.sheets.overview import AccountSummary, attention_order, plan_overview
 
 OVERVIEW_HEADER = 5  # 1-based: title, caution, order, counts, header
 ACTIONS_HEADER = 4   # 1-based: title, counts, note, header
 # South spends 150.00 on P1's ads instead of 25.00: P1 loses money after ads.
-SOUTH_ADS = AD_PRODUCTS.replace("C1,G1,P1,product ads,1000,50,25.00,100.00,5", "C1,G1,P1,product ads,1000,50,150.00,100.00,5")
+SOUTH_ADS = AD_PRODUCTS.replace("C1,G1,P1,product ads,1000,50,25.00,100.00,5",
+                                "C1,G1,P1,product ads,1000,50,150.00,100.00,5")
 BROKEN_CATALOG = "sku_code,product_name,price,unit_cost,fees_per_unit\nP1,Widget,20.00,8.00,2.00\n"
 
 
@@ -178,6 +179,7 @@ def test_existing_account_workbook_without_force_refuses_that_account_only(tmp_p
     assert "built" == rows["south"]["Status"]
 
 
+@pytest.mark.slow  # three batches
 def test_previous_dir_carries_last_weeks_workbook_and_two_previous_workbooks_are_refused(tmp_path):
     accounts = tmp_path / "accounts"
     write_account(accounts / "north")
@@ -241,3 +243,18 @@ def test_a_worker_process_that_dies_in_one_account_leaves_the_others_built(tmp_p
     rows = overview_rows(tmp_path / "out" / "overview.xlsx")
     assert ["built"] * 3 == [rows[n]["Status"] for n in ("east", "south", "west")]
     assert batch.STOPPED == rows["north"]["Problem or warning"]
+
+
+def test_attention_order_puts_refused_then_unknown_profit_then_lowest_profit_first():
+    rows = [AccountSummary("a-profit", "built", net_profit=50.0), AccountSummary("b-loss", "warnings", net_profit=-5.0),
+            AccountSummary("c-refused", "refused"), AccountSummary("d-unknown", "built", net_profit=float("nan")),
+            AccountSummary("e-loss", "built", net_profit=-5.0)]
+    assert ["c-refused", "d-unknown", "b-loss", "e-loss", "a-profit"] == [r.account for r in attention_order(rows)]
+
+
+def test_output_inside_the_accounts_folder_is_refused_before_building(tmp_path, capsys):
+    accounts = tmp_path / "accounts"
+    write_account(accounts / "north")
+    assert 1 == main(["batch", str(accounts), "-o", str(accounts / "north" / "out")])
+    assert "inside the accounts folder" in capsys.readouterr().err
+    assert not (accounts / "north" / "out").exists()

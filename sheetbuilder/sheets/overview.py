@@ -5,12 +5,13 @@ Each built account's figures are its workbook's values as built, taken from the 
 TACoS and ACoS are live formulas over the row's figures. A refused account has a row with its
 first problem and blank figures; no workbook is written for it.
 
-Order (what needs attention first): refused accounts, then built accounts by net profit after
-ads, lowest first; ties by account name.
+Order (what needs attention first): refused accounts, then built accounts whose net profit after
+ads is blank (no margin known), then by net profit after ads, lowest first; ties by account name.
 """
 from __future__ import annotations
 
 import datetime as dt
+import math
 import re
 from dataclasses import dataclass, field
 from typing import Any
@@ -122,9 +123,12 @@ def summarise(account: str, plan, warnings: list[Problem], seconds: float = 0.0)
 
 
 def attention_order(rows: list[AccountSummary]) -> list[AccountSummary]:
-    """Refused accounts first (by name), then by net profit after ads, lowest first (ties by name)."""
-    return sorted(rows, key=lambda r: (r.status != REFUSED, r.net_profit if r.net_profit is not None else 0.0,
-                                       r.account))
+    """Refused accounts first (by name), then any whose net profit after ads is blank (no margin known), then
+    by net profit after ads, lowest first (ties by name)."""
+    def key(r: AccountSummary):
+        unknown = r.net_profit is None or math.isnan(r.net_profit)
+        return r.status != REFUSED, not unknown, 0.0 if unknown else r.net_profit, r.account
+    return sorted(rows, key=key)
 
 
 def _value(key: str):
@@ -194,8 +198,9 @@ def plan_overview(rows: list[AccountSummary], built_on: dt.date) -> WorkbookSpec
     above = [
         [Cell("Accounts overview: which account needs attention first", style="title")],
         [Cell(CAUTION, style="note")],
-        [Cell("Order: refused accounts first, then by net profit after ads, lowest first. Figures are each "
-              "account workbook's values as built; TACoS and ACoS are formulas." + mixed, style="note")],
+        [Cell("Order: refused accounts first, then any whose net profit after ads is blank, then by net profit "
+              "after ads, lowest first. Figures are each account workbook's values as built; TACoS and ACoS are "
+              "formulas." + mixed, style="note")],
         [Cell(f"{len(rows)} account(s): {counts[BUILT]} built, {counts[WARNINGS]} built with warnings, "
               f"{counts[REFUSED]} refused. Built on {built_on}.", style="alert" if counts[REFUSED] else "note")],
     ]
