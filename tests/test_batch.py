@@ -118,7 +118,7 @@ def test_overview_ratios_are_formulas_whose_recalculation_equals_the_cached_valu
     _, out, _ = built
     path = out / "overview.xlsx"
     ws = openpyxl.load_workbook(path)["Overview"]
-    assert '=IF(F7=0,"",G7/F7)' == ws["I7"].value  # TACoS of the first built row: ad spend / revenue
+    assert '=IF(E7=0,"",F7/E7)' == ws["H7"].value  # TACoS of the first built row: ad spend / revenue
     problems, checked = engine_disagreements(path, formulas_values(path))
     assert [] == problems
     assert 6 == checked  # TACoS and ACoS of three rows

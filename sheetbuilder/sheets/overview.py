@@ -24,7 +24,8 @@ from sheetbuilder.sheets.profit import CAUTION
 from sheetbuilder.workbook.columns import ColumnDef, blank_div, plan_table
 from sheetbuilder.workbook.formula import col_number, quote_sheet
 from sheetbuilder.workbook.palette import STATES
-from sheetbuilder.workbook.spec import DATA, Cell, Chart, Highlight, Series, Sheet, Table, WorkbookSpec
+from sheetbuilder.workbook.spec import (DATA, Cell, Chart, Highlight, PageSetup, PrintArea, Series, Sheet, Table,
+                                       WorkbookSpec)
 
 SHEET = "Overview"
 HEADER_ROW = 4  # 0-based: title, caution, order note, counts, then the header
@@ -150,8 +151,6 @@ def defs(money: str) -> list[ColumnDef]:
         data("account", "Account", "text", "The account's folder name (its workbook is ACCOUNT.xlsx).", 22),
         data("status", "Status", "label", "built; warnings (built, with warnings listed on its Guide); refused "
              "(no workbook written: see Problem).", 10),
-        data("message", "Problem or warning", "text", "Refused: the first problem. Warnings: how many, and the first.",
-             48),
         data("period", "Period", "text", "The period the account's exports cover.", 24),
         data("currency", "Currency", "text", "The account's currency symbol (settings.toml).", 9),
         data("revenue", "Revenue", money, "All sales in the period (the account's Profit total)."),
@@ -168,6 +167,8 @@ def defs(money: str) -> list[ColumnDef]:
         data("losing", "Products losing money", "int", "Products whose Status on Profit is loss.", 11),
         data("changes", "Changes proposed", "int", "Rows on the account's Actions list.", 11),
         data("at_stake", "Money at stake", money, "The Actions list's money at stake, summed.", 12),
+        data("message", "Problem or warning", "text", "Refused: the first problem. Warnings: how many, and the "
+             "first (the last column: its text runs on to the right on screen; printed, it ends at the column).", 60),
     ]
 
 
@@ -215,8 +216,13 @@ def plan_overview(rows: list[AccountSummary], built_on: dt.date) -> WorkbookSpec
         charts.append(Chart("bar", "Net profit after ads per account", (
             Series("Net profit after ads", rng("account"), rng("net_profit"), STATES["Ocean"].font),),
             (HEADER_ROW + 2 + len(rows), 0), x_title="Net profit after ads", y_title="Account", percent=False,
-            size=(640, min(1200, 120 + 24 * len(built)))))
+            size=(640, min(1200, max(240, 120 + 30 * len(built))))))
     table = Table(HEADER_ROW, planned.columns, None, highlights)
-    sheet = Sheet(SHEET, above=above, table=table, charts=charts, freeze=(HEADER_ROW + 1, 1), tab_color="#0B5C8A")
+    # Blank rows under the table for the chart to sit on, so that the print area (which ends at the last
+    # row written) holds it; default rows are 20 pixels high.
+    below: list[list[Cell | None]] = [[None] for _ in range(charts[0].size[1] // 20 + 2)] if charts else []
+    page = PageSetup(PrintArea(0, table.last_row + len(below), 0, len(columns) - 1), (HEADER_ROW, HEADER_ROW))
+    sheet = Sheet(SHEET, above=above, table=table, below=below, charts=charts, freeze=(HEADER_ROW + 1, 1),
+                  page=page, tab_color="#0B5C8A")
     return WorkbookSpec([sheet], currency_symbol=next(iter(symbols)) if len(symbols) == 1 else "$",
                         properties={"title": "Accounts overview"})
