@@ -65,7 +65,8 @@ def _children_cpu() -> float:
 
 
 def batch_seconds(accounts: Path, out: Path, jobs: int) -> tuple[float, float]:
-    """Wall time of the batch command in a fresh interpreter, and the CPU time of it and its workers."""
+    """Wall time of the batch command in a fresh interpreter, and the CPU time of it and its workers
+    (the largest process's peak memory is read after it: resource.RUSAGE_CHILDREN's ru_maxrss)."""
     started, cpu = time.perf_counter(), _children_cpu()
     done = subprocess.run([sys.executable, "-m", "sheetbuilder", "batch", str(accounts), "-o", str(out),
                            "--jobs", str(jobs), "-q"], cwd=ROOT, capture_output=True, text=True)
@@ -91,6 +92,7 @@ def measure(count: int, jobs: int, size: str, base: Path) -> dict:
             "ratio": round(wall / ideal, 3), "accounts_per_minute": round(count / wall * 60, 1),
             "single_cpu_s": round(single_cpu, 2), "batch_cpu_s": round(batch_cpu, 2),
             "cpu_ratio": round(batch_cpu / single_cpu, 3),
+            "largest_process_peak_mb": round(resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024),
             "load_before_single": round(load_single, 2), "load_before_batch": round(load_batch, 2)}
 
 
@@ -115,7 +117,8 @@ def main(argv: list[str] | None = None) -> int:
                   f"{r['single_sum_s']} s in all ({r['single_mean_s']} s each), / jobs = {r['ideal_s']} s; batch "
                   f"{r['batch_s']} s: ratio {r['ratio']} ({verdict} the aim of {AIM}); "
                   f"{r['accounts_per_minute']} accounts per minute; CPU time {r['batch_cpu_s']} s against "
-                  f"{r['single_cpu_s']} s (ratio {r['cpu_ratio']}; load average {r['load_before_single']} "
+                  f"{r['single_cpu_s']} s (ratio {r['cpu_ratio']}); the largest process's peak memory "
+                  f"{r['largest_process_peak_mb']} MB (load average {r['load_before_single']} "
                   f"before the single builds, {r['load_before_batch']} before the batch)", flush=True)
     (ROOT / "bench_batch.json").write_text(json.dumps({"cores": os.cpu_count(), "results": results}, indent=2))
     return 0
