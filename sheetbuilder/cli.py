@@ -8,8 +8,9 @@
 Exit codes: 0 built or written; 2 the inputs have problems (all listed); 1 any other refusal
 (output exists without --force, output would overwrite an input, no Actions sheet, a workbook
 that cannot be read); 3 (changes) some changes were refused and listed, the valid ones were
-written, (batch) some accounts were refused and listed, the others were written; 4 the operating system refused a read or write (no space, read-only, permission, a
-folder where a file was expected, a file gone); 70 an internal error (a bug: run again with
+written, (batch) some accounts were refused and listed, the others were written; 4 the
+operating system refused a read or write (no space, read-only, permission, a folder where a
+file was expected, a file gone); 70 an internal error (a bug: run again with
 --debug and report the traceback); 130 interrupted (Ctrl-C, SIGTERM, SIGHUP). Every failure
 is one message naming the path; a traceback is shown only with --debug. Nothing is left
 behind: temporary files are removed on every one of these exits.
