@@ -3,12 +3,14 @@
     sheetbuilder build INPUTS -o WORKBOOK.xlsx [--force] [--previous OLD.xlsx]
     sheetbuilder changes WORKBOOK.xlsx -o changes.csv [--format csv|xlsx] [--force]
     sheetbuilder inspect INPUTS
+    sheetbuilder batch ACCOUNTS -o OUT [--previous-dir DIR] [--jobs N] [--force]
 
 Exit codes: 0 built or written; 2 the inputs have problems (all listed); 1 any other refusal
 (output exists without --force, output would overwrite an input, no Actions sheet, a workbook
 that cannot be read); 3 (changes) some changes were refused and listed, the valid ones were
-written; 4 the operating system refused a read or write (no space, read-only, permission, a
-folder where a file was expected, a file gone); 70 an internal error (a bug: run again with
+written, (batch) some accounts were refused and listed, the others were written; 4 the
+operating system refused a read or write (no space, read-only, permission, a folder where a
+file was expected, a file gone); 70 an internal error (a bug: run again with
 --debug and report the traceback); 130 interrupted (Ctrl-C, SIGTERM, SIGHUP). Every failure
 is one message naming the path; a traceback is shown only with --debug. Nothing is left
 behind: temporary files are removed on every one of these exits.
@@ -32,6 +34,7 @@ from sheetbuilder.version import __version__
 from sheetbuilder.weekly.changes import COLUMNS as CHANGE_COLUMNS, export_changes
 from sheetbuilder.reading.inspection import inspect_exports, report_lines
 from sheetbuilder.pipeline import build
+from sheetbuilder.batch import run_batch
 from sheetbuilder.errors import ERROR, InputProblems, Problem, SheetbuilderError
 from sheetbuilder.sheets.typed import CarryResult
 from sheetbuilder.values import shown
@@ -177,6 +180,53 @@ def _inspect(args: argparse.Namespace, console: Console) -> int:
     return EXIT_INPUT if result.has_errors else 0
 
 
+def _batch(args: argparse.Namespace, console: Console) -> int:
+    """Build every account folder, then the overview; exit 3 when some accounts were refused."""
+    started = time.perf_counter()
+    show = console.is_terminal and not args.quiet
+    with Progress(TextColumn("{task.description}"), BarColumn(), TextColumn("{task.completed}/{task.total} accounts"),
+                  TimeElapsedColumn(), console=console, transient=True, disable=not show,
+                  auto_refresh=False) as bar:  # no refresh thread: the batch's workers are forked from here
+        task = bar.add_task("building accounts", total=None)
+
+        def progress(summary, done: int, total: int) -> None:
+            bar.update(task, completed=done, total=total, refresh=True, description=f"built {summary.account}"
+                       if summary.status != "refused" else f"refused {summary.account}")
+
+        try:
+            result = run_batch(args.accounts, args.output, jobs=args.jobs, force=args.force,
+                               previous_dir=args.previous_dir, progress=progress)
+        except KeyboardInterrupt:
+            console.print(f"the accounts built before the interruption are in {args.output}, without an overview; "
+                          "run the batch again with --force to build them all", markup=False)
+            raise
+    refused = result.refused
+    if refused:
+        table = Table(title=None, expand=False)
+        for name in ("refused account", "first problem"):
+            table.add_column(name, overflow="fold")
+        for a in refused:
+            table.add_row(escape(a.account), escape(a.message))
+        console.print(table)
+    if not args.quiet:
+        built = len(result.accounts) - len(refused)
+        console.print(f"wrote {built} workbook(s) and {result.overview} ({len(refused)} account(s) refused) "
+                      f"in {time.perf_counter() - started:.1f} s", markup=False)
+        console.print("Decision aid only: review before changing a live ad account. Not financial or tax advice.")
+    return EXIT_SOME_REFUSED if refused else 0
+
+
+def _jobs(text: str) -> int:
+    """--jobs: a whole number of at least 1."""
+    try:
+        n = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a whole number of accounts built at once, got {text!r}")
+    if n < 1:
+        raise argparse.ArgumentTypeError(f"expected at least 1, got {n}")
+    return n
+
+
 def parser() -> argparse.ArgumentParser:
     """The argument parser; each command's help is its documentation."""
     p = argparse.ArgumentParser(prog="sheetbuilder",
@@ -220,6 +270,27 @@ def parser() -> argparse.ArgumentParser:
                                      "Exit codes: 0 the exports would build; 2 they have errors.")
     ins.add_argument("inputs", type=Path, help="the folder holding the exports")
     ins.set_defaults(run=_inspect)
+    ba = sub.add_parser("batch", help="build one workbook per account folder, and an overview of the accounts",
+                        description="Build every folder in ACCOUNTS (one account each, as build takes it) into "
+                                    "OUT/ACCOUNT.xlsx, in parallel, and write OUT/overview.xlsx: one row per "
+                                    "account, refused accounts first, then those with a blank net profit after "
+                                    "ads, then by net profit after ads, lowest first. A refused account gets no "
+                                    "workbook and its first problem on the overview; it never stops the others. "
+                                    "Last week's workbook of an account is its previous.xlsx or --previous-dir's "
+                                    "ACCOUNT.xlsx. Exit codes: 0 every account "
+                                    "built; 3 some refused (the others are written); 1 nothing built (no account "
+                                    "folders, overview exists without --force); 4 the system refused the "
+                                    "overview; 130 interrupted.")
+    ba.add_argument("accounts", type=Path, help="the folder holding one folder of exports per account")
+    ba.add_argument("-o", "--output", type=Path, required=True, help="the folder to write the workbooks in")
+    ba.add_argument("--previous-dir", type=Path, default=None, metavar="DIR",
+                    help="last week's workbooks, named ACCOUNT.xlsx (last week's OUT): carried as with --previous")
+    ba.add_argument("--jobs", type=_jobs, default=None, metavar="N",
+                    help="accounts built at once (default: the machine's cores)")
+    ba.add_argument("--force", action="store_true", help="overwrite existing workbooks and the overview")
+    ba.add_argument("-q", "--quiet", action="store_true", help="print only problems")
+    ba.add_argument("--debug", action="store_true", help="show the traceback of any failure of the batch itself")
+    ba.set_defaults(run=_batch)
     return p
 
 

@@ -25,6 +25,7 @@ LAYERS: tuple[tuple[str, ...], ...] = (
     ("sheets", "assemble"),                 # planning: one planner per sheet, and plan_workbook glueing them
     ("weekly",),                            # the weekly round: the only code that reads a saved workbook
     ("pipeline",),                          # build: load, carry, plan, write
+    ("batch",),                             # many accounts: one build each on a process pool, then the overview
     ("cli", "__main__", ""),                # the command line and the facade
 )
 

@@ -83,9 +83,9 @@ def documented(name: str) -> list[list[str]]:
     return sheetbuilder_commands((ROOT / name).read_text(encoding="utf-8"))
 
 
-def test_the_readme_shows_the_install_inspect_build_changes_and_previous_commands():
+def test_the_readme_shows_the_install_inspect_build_changes_batch_and_previous_commands():
     shown = {tuple(args[:1]) for args in documented("README.md")}
-    assert {("--help",), ("inspect",), ("build",), ("changes",)} <= shown
+    assert {("--help",), ("inspect",), ("build",), ("changes",), ("batch",)} <= shown
     options = {o for args in documented("README.md") for o in options_named(args)}
     assert {"--previous", "-o"} <= options
 
