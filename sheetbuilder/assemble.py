@@ -37,6 +37,7 @@ from sheetbuilder.sheets.profit import DEFS as PROFIT_DEFS, plan_profit
 from sheetbuilder.sheets.settings_sheet import plan_settings
 from sheetbuilder.sheets.terms import DEFS as TERMS_DEFS, plan_terms
 from sheetbuilder.sheets.unmatched import carried_marks, marked_column, plan_carried, plan_unmatched
+from sheetbuilder.reading.account import account_of_inputs
 from sheetbuilder.reading.readers import Inputs
 from sheetbuilder.reading.settings import Settings
 from sheetbuilder.workbook.spec import Sheet, Table, WorkbookSpec
@@ -122,7 +123,7 @@ def _inputs(a: Assembly) -> None:
 
 def _settings(a: Assembly) -> None:
     sheet, names = plan_settings(a.settings, a.built_on, a.inputs.period,
-                                 a.carry.as_built if a.carry is not None else None)
+                                 a.carry.as_built if a.carry is not None else None, account_of_inputs(a.inputs))
     a.place("settings", sheet)
     a.names += names
 

@@ -104,7 +104,8 @@ def os_error_message(exc: OSError, fallback: Path | None) -> str:
 
 def _run_build(args: argparse.Namespace, progress) -> object:
     """build(...) with the command's options."""
-    return build(args.inputs, args.output, force=args.force, progress=progress, previous=args.previous)
+    return build(args.inputs, args.output, force=args.force, progress=progress, previous=args.previous,
+                 previous_anyway=args.previous_anyway)
 
 
 def print_problems(console: Console, problems: list[Problem]) -> None:
@@ -243,7 +244,12 @@ def parser() -> argparse.ArgumentParser:
     b.add_argument("--debug", action="store_true", help="show the traceback of any failure")
     b.add_argument("--previous", type=Path, default=None, metavar="OLD.xlsx",
                    help="last week's workbook: carry its settings, costs, targets and Decisions into this one "
-                        "(it is only read); edits that no longer match a row are listed on an Unmatched edits sheet")
+                        "(it is only read); edits that no longer match a row are listed on an Unmatched edits sheet. "
+                        "A workbook built for another account (under half of its products or campaigns in these "
+                        "exports) is refused")
+    b.add_argument("--previous-anyway", action="store_true",
+                   help="carry what matches from a --previous workbook built for another account instead of "
+                        "refusing it (its Follow-up and History are not read)")
     b.set_defaults(run=_build)
     ch = sub.add_parser("changes", help="export the changes on a workbook's Actions sheet as CSV or .xlsx",
                         description="Read WORKBOOK (edited and saved by you) and write one row per change on its "

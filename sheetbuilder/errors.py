@@ -65,6 +65,10 @@ class UnsafeOutput(SheetbuilderError):
     """The output path would overwrite one of the inputs."""
 
 
+class AnotherAccount(SheetbuilderError):
+    """The previous workbook was built for another account's exports (too little in common)."""
+
+
 class FormulaNotPortable(SheetbuilderError):
     """A formula template uses a function outside the portable whitelist."""
 

@@ -14,6 +14,7 @@ from sheetbuilder.weekly.carry import CarryResult, PreviousWorkbookUnreadable, a
 from sheetbuilder.weekly.change_list import followup_of
 from sheetbuilder.weekly.record import read_saved_workbook
 from sheetbuilder.errors import ERROR, WARNING, InputProblems, OutputExists, Problem, SheetbuilderError, UnsafeOutput
+from sheetbuilder.reading.account import account_of, check_previous
 from sheetbuilder.reading.periods import settings_for_inputs
 from sheetbuilder.reading.readers import Inputs, read_inputs
 from sheetbuilder.workbook.render import Progress, render
@@ -32,10 +33,13 @@ class BuildResult:
     carry: CarryResult | None = None
 
 
-def load(folder: Path) -> tuple[Inputs, Settings, list[Problem]]:
-    """Read settings and inputs; raise InputProblems when any problem is an error."""
+def load(folder: Path, besides: tuple[Path, ...] = ()) -> tuple[Inputs, Settings, list[Problem]]:
+    """Read settings and inputs; raise InputProblems when any problem is an error.
+
+    besides: files the command reads as well (the previous workbook), never reported as strays of the folder.
+    """
     settings, problems = load_settings(Path(folder))
-    inputs, found = read_inputs(Path(folder), settings)
+    inputs, found = read_inputs(Path(folder), settings, besides)
     problems += found
     settings, notes = settings_for_inputs(settings, inputs)
     problems += notes
@@ -75,7 +79,8 @@ def write_atomically(spec: WorkbookSpec, output: Path, progress: Progress | None
 
 
 def build(folder: Path, output: Path, force: bool = False, built_on: dt.date | None = None,
-          progress: Progress | None = None, previous: Path | None = None) -> BuildResult:
+          progress: Progress | None = None, previous: Path | None = None, previous_anyway: bool = False
+          ) -> BuildResult:
     """Read the exports in folder and write the workbook to output.
 
     Args:
@@ -85,6 +90,8 @@ def build(folder: Path, output: Path, force: bool = False, built_on: dt.date | N
         built_on: the build date; today when None.
         progress: optional callback(sheet, rows written, rows in sheet).
         previous: last week's workbook, whose typed values are carried into this one (only read).
+        previous_anyway: carry from a previous workbook built for another account (too little in common)
+            instead of refusing it; its Follow-up and History are not read.
 
     Returns:
         The output path, the warnings, the plan, and the rows per input table.
@@ -92,12 +99,13 @@ def build(folder: Path, output: Path, force: bool = False, built_on: dt.date | N
     Raises:
         InputProblems: the inputs have errors (nothing is written).
         OutputExists: output exists and force is False.
+        AnotherAccount: previous was built for another account and previous_anyway is False.
     """
     folder, output = Path(folder), Path(output)
     _check_output(output, folder, force)
     if previous is not None and output.exists() and Path(previous).exists() and os.path.samefile(previous, output):
         raise UnsafeOutput(f"{output} is the previous workbook; write the new one under another name")
-    inputs, settings, problems = load(folder)
+    inputs, settings, problems = load(folder, (Path(previous),) if previous is not None else ())
     read = {f"the input file for {name}": path for name, path in inputs.sources.items()}
     read["the settings file"] = folder / SETTINGS_FILE
     if previous is not None:
@@ -108,13 +116,18 @@ def build(folder: Path, output: Path, force: bool = False, built_on: dt.date | N
     followup, history = None, None
     if previous is not None:
         saved = read_saved_workbook(Path(previous), PreviousWorkbookUnreadable)  # the one read of it
+        notes, another = check_previous(account_of(saved.account_name or Path(previous).name, saved.tables or {}),
+                                        account_of(folder.resolve().name, exported_tables), Path(previous).name,
+                                        previous_anyway)
+        problems += notes
         carry = apply_edits(saved.edits, inputs.tables, settings)
         settings = carry.settings
         carry.exported["catalog"] = inputs.tables["catalog"]  # in_catalog records the export, not the carry
         inputs.tables["catalog"] = carried_catalog(inputs.tables["catalog"], carry)
-        followup, skipped = followup_of(saved, exported_tables, settings, inputs.period)
-        history = saved.history
-        problems += skipped + saved.history_problems
+        if not another:  # another account's changes are never followed up here
+            followup, skipped = followup_of(saved, exported_tables, settings, inputs.period)
+            history = saved.history
+            problems += skipped + saved.history_problems
     warnings = [p for p in problems if p.severity == WARNING]
     plan = plan_workbook(inputs, settings, built_on or dt.date.today(), warnings, carry, followup, history)
     write_atomically(plan.spec, output, progress, force)

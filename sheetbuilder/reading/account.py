@@ -14,6 +14,9 @@ from dataclasses import dataclass
 
 import pandas as pd
 
+from sheetbuilder.errors import WARNING, AnotherAccount, Problem
+
+ACCOUNT_NAME = "sb_account"  # the defined name over the Settings cell that holds the account's name
 SHARED_AT_LEAST = 0.5  # the share of products (and of campaigns) two weeks of one account have in common
 CAMPAIGN_TABLES = ("ad_products", "targets", "search_terms", "campaigns")
 
@@ -51,6 +54,14 @@ def account_of(name: str, tables: dict[str, pd.DataFrame | None]) -> Account:
     for table in CAMPAIGN_TABLES:
         campaigns |= _column(tables.get(table), "campaign")
     return Account(name, frozenset(products), frozenset(campaigns))
+
+
+def account_of_inputs(inputs) -> Account | None:
+    """The account of a build's inputs, named for the folder its exports came from; None without sources."""
+    sources = getattr(inputs, "sources", None) or {}
+    if not sources:
+        return None
+    return account_of(next(iter(sources.values())).parent.name, inputs.tables)
 
 
 @dataclass(frozen=True)
@@ -93,3 +104,25 @@ def overlap(previous: Account, current: Account) -> Overlap:
     """What previous and current share."""
     return Overlap(len(previous.products & current.products), len(previous.campaigns & current.campaigns),
                    previous, current)
+
+
+def check_previous(previous: Account, current: Account, file: str, anyway: bool = False) -> tuple[list[Problem], bool]:
+    """Whether last week's workbook (file) is this account's: (notes, too little in common).
+
+    Raises:
+        AnotherAccount: too little in common and not anyway, naming both accounts and the way on.
+    """
+    found = overlap(previous, current)
+    if found.complete:
+        return [], False
+    if found.too_little and not anyway:
+        raise AnotherAccount(
+            f"{file} was built for another account: {previous.describe()}; these exports are {current.describe()}. "
+            f"It {found.counts()}, under half of either. Pass last week's workbook of this account, or add "
+            "--previous-anyway to carry what matches (its Follow-up and History are then not read)")
+    if found.too_little:
+        return [Problem(file, None, None, f"built for another account, {previous.describe()}: it {found.counts()}; "
+                        "carried what matches because of --previous-anyway; its Follow-up and History were not read",
+                        WARNING)], True
+    return [Problem(file, None, None, f"last week's workbook {found.counts()}: products or campaigns came or went; "
+                    "edits on rows that are gone are listed on Unmatched edits", WARNING)], False

@@ -438,8 +438,8 @@ def _unmatched_files(folder: Path, used: set[Path], settings: Settings) -> list[
     return notes
 
 
-def read_inputs(folder: Path, settings: Settings) -> tuple[Inputs, list[Problem]]:
-    """Read every table of the contract from folder.
+def read_inputs(folder: Path, settings: Settings, besides: tuple[Path, ...] = ()) -> tuple[Inputs, list[Problem]]:
+    """Read every table of the contract from folder (besides: files the command reads otherwise, not strays).
 
     Returns:
         The inputs (tables that could not be read are None) and all problems found.
@@ -474,7 +474,8 @@ def read_inputs(folder: Path, settings: Settings) -> tuple[Inputs, list[Problem]
             encodings[table.name] = frame.attrs["encoding"]
         tables[table.name] = frame
     problems.extend(_cross_checks(tables))
-    problems.extend(_unmatched_files(folder, set(sources.values()) | refused, settings))
+    elsewhere = {folder / b.name for b in besides if b.exists() and b.resolve().parent == folder.resolve()}
+    problems.extend(_unmatched_files(folder, set(sources.values()) | refused | elsewhere, settings))
     periods = {sources[n].name: f.attrs["period"] for n, f in tables.items()
                if f is not None and f.attrs.get("period") is not None}
     period, found = overall_period(periods)

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import datetime as dt
 
+from sheetbuilder.reading.account import ACCOUNT_NAME, Account
 from sheetbuilder.reading.settings import SETTINGS, Settings
 from sheetbuilder.workbook.spec import DATA, INPUT, Cell, PageSetup, Rule, Sheet, Validation
 
@@ -41,7 +42,8 @@ def _shown(spec, value):
 
 
 def plan_settings(settings: Settings, built_on: dt.date, period=None,
-                  as_built: Settings | None = None) -> tuple[Sheet, list[tuple[str, str]]]:
+                  as_built: Settings | None = None, account: Account | None = None
+                  ) -> tuple[Sheet, list[tuple[str, str]]]:
     """The Settings sheet and the workbook names pointing at its cells.
 
     period, when the exports carry dates, is the periods.Period read from them; a row says so.
@@ -87,6 +89,12 @@ def plan_settings(settings: Settings, built_on: dt.date, period=None,
                  Cell("The day this workbook was built (for the attribution-window warning).", style="note"),
                  Cell("built_on", style="note")])
     names.append(("built_on", f"=Settings!$B${built_row + 1}"))
+    if account is not None:  # read back by --previous next week to tell this account from another
+        rows.append([Cell("Account"), Cell(account.name, style="text"),
+                     Cell(f"The exports folder this workbook was built from: {len(account.products)} products, "
+                          f"{len(account.campaigns)} campaigns, fingerprint {account.fingerprint}.", style="note"),
+                     Cell(ACCOUNT_NAME, style="note")])
+        names.append((ACCOUNT_NAME, f"=Settings!$B${built_row + 2}"))
     if period is not None:
         used = [k for k in ("period_days", "period_end") if k not in settings.given]
         rows.append([Cell("Period in the exports"), Cell(str(period), style="text"),

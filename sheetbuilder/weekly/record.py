@@ -13,6 +13,7 @@ from pathlib import Path
 from typing import Any
 
 from sheetbuilder.errors import Problem, SheetbuilderError
+from sheetbuilder.reading.account import ACCOUNT_NAME
 from sheetbuilder.reading.guard import reading
 from sheetbuilder.reading.settings import Settings
 from sheetbuilder.sheets.actions import HEADER_ROW as ACTIONS_HEADER_ROW, HEADERS, SHEET
@@ -63,6 +64,8 @@ class SavedWorkbook:
             no inputs (no in_catalog or Settings sheet: an Actions-shaped sheet alone).
         settings, built_on: its Settings sheet (the defaults and today without one).
         edits: everything typed in it (Decisions, target overrides, what was lost).
+        account_name: the exports folder it was built from, as its Settings sheet records it ('' before
+            workbooks recorded it).
         problems: cells that could not be read as their column's kind.
         context: what the checks of a change read besides the change (see
             :func:`sheetbuilder.weekly.change_list.check_change`).
@@ -90,6 +93,7 @@ class SavedWorkbook:
     actions: list[tuple[int, list[Any]]] = field(default_factory=list)
     typed_actions: list[tuple[int, list[Any]]] = field(default_factory=list)
     followup: list[tuple[int, dict[str, Any]]] = field(default_factory=list)
+    account_name: str = ""
 
     @property
     def holds_inputs(self) -> bool:
@@ -186,4 +190,5 @@ def read_saved_workbook(path: Path, unreadable: type[SheetbuilderError] = NotAWo
                              edits=edits_in(book), problems=problems, context=read_context(book),
                              results=_saved_results(book), history=history, history_problems=history_problems,
                              actions=actions, typed_actions=_saved_actions(book, formulas=True) if no_values else [],
-                             followup=_followup_rows(book) if followup else [])
+                             followup=_followup_rows(book) if followup else [],
+                             account_name=str(book.named_value(ACCOUNT_NAME) or ""))
