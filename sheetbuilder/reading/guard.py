@@ -48,6 +48,13 @@ MAX_CSV_COLUMNS = 1_000             # cells in one row
 MAX_CSV_FIELD = 1024 * 1024         # characters in one cell (the csv module's own limit is 131,072)
 
 CHUNK = 1024 * 1024
+
+# Saved workbooks (changes, --previous): whatever build writes is read back, so the caps are what a
+# workbook of a sheet's 1,048,576 rows can reach, not what an export needs. Their parts are read as
+# streams by the saved-workbook reader (memory grows with the cells kept, never with a part), so the
+# guard checks each part's declared size and ratio and its prolog, and inflates no part whole.
+MAX_SAVED_FILE_BYTES = 8 * 1024**3
+MAX_SAVED_TOTAL = 64 * 1024**3
 HYPERLINK = "/hyperlink"            # relationship type of a cell hyperlink: a web address, not a file read
 
 
@@ -74,6 +81,12 @@ class Limits:
 def input_limits() -> Limits:
     """The limits for .xlsx exports read by the build."""
     return Limits(MAX_FILE_BYTES, MAX_ZIP_TOTAL, MAX_ZIP_RATIO, RATIO_ENTRY_MIN, MAX_ZIP_ENTRIES, MAX_RELS_BYTES)
+
+
+def saved_limits() -> Limits:
+    """The limits for a saved workbook of ours: as large as build writes, the same ratio, parts and links."""
+    return Limits(MAX_SAVED_FILE_BYTES, MAX_SAVED_TOTAL, MAX_ZIP_RATIO, RATIO_ENTRY_MIN, MAX_ZIP_ENTRIES,
+                  MAX_RELS_BYTES)
 
 
 def _mib(n: float) -> str:
@@ -110,9 +123,12 @@ def _prolog_parser() -> expat.XMLParserType:
     return parser
 
 
-def _inflate(archive: zipfile.ZipFile, entry: zipfile.ZipInfo, limit: int, keep: bool) -> bytes:
+def _inflate(archive: zipfile.ZipFile, entry: zipfile.ZipInfo, limit: int, keep: bool,
+             prolog_only: bool = False) -> bytes:
     """The part's data inflated as a stream that stops at limit, its prolog checked if it is XML.
 
+    With prolog_only, inflating stops once an XML part's root element starts (a DTD can only come
+    before it; the reader that reads the part later is bounded by its declared size).
     Returns the data when keep is True (a small part), else b"".
     """
     low = entry.filename.lower()
@@ -135,6 +151,8 @@ def _inflate(archive: zipfile.ZipFile, entry: zipfile.ZipInfo, limit: int, keep:
                         parser.Parse(chunk, False)
                     except _Prolog:
                         parser = None
+                        if prolog_only and not keep:
+                            break
                     except expat.ExpatError as exc:
                         raise UnsafeWorkbook(f"not a readable spreadsheet: the part '{entry.filename}' is not "
                                              f"well-formed XML ({exc})") from None
@@ -167,7 +185,7 @@ def _external_target(data: bytes, name: str) -> str | None:
     return None
 
 
-def check_workbook(path: Path, limits: Limits | None = None) -> None:
+def check_workbook(path: Path, limits: Limits | None = None, whole_parts: bool = True) -> None:
     """Refuse a workbook that is too large, not a zip, would inflate too far, declares entities or links out.
 
     The central directory's figures are checked before anything is inflated; then every
@@ -179,6 +197,8 @@ def check_workbook(path: Path, limits: Limits | None = None) -> None:
     Args:
         path: the .xlsx file.
         limits: the limits to apply; input_limits() when None.
+        whole_parts: inflate every part whole (exports); False for a saved workbook of ours, whose XML
+            parts are inflated up to their root element and whose other parts are left to the reader.
 
     Raises:
         UnsafeWorkbook: saying what is wrong.
@@ -215,7 +235,9 @@ def check_workbook(path: Path, limits: Limits | None = None) -> None:
             if rels and e.file_size > limits.rels_bytes:
                 raise UnsafeWorkbook(f"refused: the part '{e.filename}' is {e.file_size:,} bytes, too large for a "
                                      "relationships part")
-            data = _inflate(archive, e, limits.total_bytes, keep=rels)
+            if not whole_parts and not rels and not e.filename.lower().endswith((".xml", ".vml")):
+                continue  # not XML: no DTD to look for, and the reader never inflates it
+            data = _inflate(archive, e, limits.total_bytes, keep=rels, prolog_only=not whole_parts)
             if rels and (target := _external_target(data, e.filename)) is not None:
                 raise UnsafeWorkbook(f"refused: the workbook links to an external target in '{e.filename}' "
                                      f"({target[:80]}); links to other files are not read. Break the links or "
@@ -232,7 +254,7 @@ def guard_saved_workbook(path: Path, error: type[SheetbuilderError] = UnsafeWork
     if not path.is_file():
         return  # the opener reports a missing file in its own words
     try:
-        check_workbook(path)
+        check_workbook(path, saved_limits(), whole_parts=False)
     except UnsafeWorkbook as exc:
         raise error(f"{path}: {exc}") from None
 
