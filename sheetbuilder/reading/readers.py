@@ -8,6 +8,7 @@ from __future__ import annotations
 import csv
 import hashlib
 import math
+import re
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -19,8 +20,8 @@ from sheetbuilder.errors import ERROR, WARNING, Problem
 from sheetbuilder.reading.guard import UnsafeWorkbook, check_csv, check_workbook, read_delimited, text_problem
 from sheetbuilder.reading.headers import currency_warnings, find_header, map_headers
 from sheetbuilder.reading.numbers import MAX_MAGNITUDE, NotANumber, parse_count, parse_number
-from sheetbuilder.reading.periods import (DATE_RULES, DATED_TABLES, Period, combine_repeats, overall_period,
-                                          parse_dates, table_period)
+from sheetbuilder.reading.periods import (DATE_RULES, DATED_TABLES, Period, combine_repeats, declared_period,
+                                          overall_period, parse_dates, table_period)
 from sheetbuilder.reading.settings import Settings
 from sheetbuilder.reading.totals import RunningSums, totals_label
 
@@ -202,14 +203,15 @@ def with_dates(table: c.TableRule) -> c.TableRule:
     return c.TableRule(table.name, table.columns + extra, table.required, table.label) if extra else table
 
 
-def _read_dates(frame: pd.DataFrame, texts: dict[str, list[str]], headers: dict[str, str]) -> list[Problem]:
+def _read_dates(frame: pd.DataFrame, texts: dict[str, list[str]], headers: dict[str, str], order: str
+                ) -> list[Problem]:
     """Add _start and _end (each row's first and last day) to frame from its date columns' texts."""
     names = list(texts)
     n = len(frame)
-    every, bad = parse_dates([t for name in names for t in texts[name]])  # one day/month order per file
+    every, bad = parse_dates([t for name in names for t in texts[name]], order)  # one day/month order per file
     parsed = {name: every[k * n:(k + 1) * n] for k, name in enumerate(names)}
-    problems = [Problem(frame.attrs["file"], int(frame["_row"].iloc[i % n]), headers[names[i // n]], message)
-                for i, message in bad]
+    problems = grouped_problems([Problem(frame.attrs["file"], int(frame["_row"].iloc[i % n]), headers[names[i // n]],
+                                         message) for i, message in bad])
     first = parsed.get("date") or parsed.get("start_date") or parsed.get("end_date")
     last = parsed.get("date") or parsed.get("end_date") or first
     frame["_start"], frame["_end"] = pd.Series(first, dtype=object), pd.Series(last, dtype=object)
@@ -314,14 +316,18 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
     frame.attrs.update(encoding=encoding, header_row=start + 1, sheet=sheet, totals=len(skipped), rows_read=len(records),
                        columns={n: header[i] for n, i in {**found, **dates}.items()})
     if dates:
-        problems.extend(_read_dates(frame, date_texts, {n: header[i] for n, i in dates.items()}))
+        problems.extend(_read_dates(frame, date_texts, {n: header[i] for n, i in dates.items()}, settings.date_order))
     frame.attrs["period"] = None
+    stated, where, message = (declared_period(rows[:start], path.stem, settings.date_order)
+                              if table.name in DATED_TABLES else (None, "", None))
+    if message:
+        problems.append(Problem(file, None, None, f"{where} states a period that does not read: {message}"))
     if not any(p.severity == ERROR for p in problems):  # a bad cell would make the sums meaningless
         frame, repeats = combine_repeats(table.name, frame, bool(dates))
         problems.extend(repeats)
         if any(p.severity == ERROR for p in repeats):
             return None, problems
-        frame.attrs["period"] = table_period(frame)
+        frame.attrs["period"], frame.attrs["period_source"] = _period_of(frame, stated, where, problems)
     frame = frame.drop(columns=[n for n in ("_start", "_end") if n in frame])
     if is_legacy(encoding):
         problems.append(Problem(file, None, None, f"read as {encoding}: the file is not valid UTF-8 and holds no "
@@ -339,6 +345,39 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
         if problem.severity == ERROR:
             return None, problems
     return frame, problems
+
+
+def _period_of(frame: pd.DataFrame, stated: Period | None, where: str, problems: list[Problem]
+               ) -> tuple[Period | None, str]:
+    """The file's period and where it was read: stated (title or file name) or from its dated rows.
+
+    Dated rows outside a stated period are an error (problems gains it)."""
+    rows = table_period(frame)
+    if stated is None:
+        return rows, ("" if rows is None else "the dates in its rows")
+    if rows is not None and (rows.start < stated.start or rows.end > stated.end):
+        problems.append(Problem(frame.attrs["file"], None, None,
+                                f"{where} states {stated} but its rows are dated {rows}; download the export again "
+                                "for one date range"))
+    return stated, where
+
+
+def grouped_problems(problems: list[Problem], first: int = 5) -> list[Problem]:
+    """Problems repeating one message (after its quoted text) in one file and column, as one line each
+    once there are more than `first`: the count and the first rows."""
+    groups: dict[tuple, list[Problem]] = {}
+    for p in problems:
+        key = (p.file, p.column, p.severity, re.sub(r"'[^']*'", "''", p.message))
+        groups.setdefault(key, []).append(p)
+    out = []
+    for same in groups.values():
+        if len(same) <= first:
+            out.extend(same)
+            continue
+        rows = ", ".join(str(p.row) for p in same[:first])
+        out.append(Problem(same[0].file, same[0].row, same[0].column,
+                           f"{len(same)} cells alike (first rows {rows}, ...): {same[0].message}", same[0].severity))
+    return out
 
 
 def _merge_search_terms(frame: pd.DataFrame, file: str, data_rows: int) -> tuple[pd.DataFrame, Problem]:
@@ -467,6 +506,8 @@ def read_inputs(folder: Path, settings: Settings) -> tuple[Inputs, list[Problem]
     problems.extend(_unmatched_files(folder, set(sources.values()), settings))
     periods = {sources[n].name: f.attrs["period"] for n, f in tables.items()
                if f is not None and f.attrs.get("period") is not None}
-    period, found = overall_period(periods)
+    undated = [sources[n].name for n, f in tables.items()
+               if f is not None and n in DATED_TABLES and n != "campaigns" and f.attrs.get("period") is None]
+    period, found = overall_period(periods, undated, settings.period_mismatch)
     problems.extend(found)
     return Inputs(tables, sources, checksums, encodings, period), problems
