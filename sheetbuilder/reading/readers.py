@@ -21,7 +21,7 @@ from sheetbuilder.reading.guard import UnsafeWorkbook, check_csv, check_workbook
 from sheetbuilder.reading.headers import currency_warnings, find_header, map_headers
 from sheetbuilder.reading.numbers import MAX_MAGNITUDE, NotANumber, parse_count, parse_number
 from sheetbuilder.reading.periods import (DATE_RULES, DATED_TABLES, Period, combine_repeats, declared_period,
-                                          overall_period, parse_dates, table_period)
+                                          overall_period, parse_dates, repeated_rows, table_period)
 from sheetbuilder.reading.settings import Settings
 from sheetbuilder.reading.totals import RunningSums, totals_label
 
@@ -323,7 +323,9 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
     if message:
         problems.append(Problem(file, None, None, f"{where} states a period that does not read: {message}"))
     if not any(p.severity == ERROR for p in problems):  # a bad cell would make the sums meaningless
-        frame, repeats = combine_repeats(table.name, frame, bool(dates))
+        repeats = repeated_rows(table.name, frame, bool(dates))
+        if not repeats:
+            frame, repeats = combine_repeats(table.name, frame, bool(dates))
         problems.extend(repeats)
         if any(p.severity == ERROR for p in repeats):
             return None, problems
