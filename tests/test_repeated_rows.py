@@ -16,8 +16,8 @@ def _errors(folder) -> list[tuple[str, int | None, str]]:
     return [(p.file, p.row, p.message) for p in caught.value.problems if p.severity == ERROR]
 
 
-COPY_RULE = ("A row repeated in every column (its date included) is the same data pasted or downloaded twice, and "
-             "summing it would count it twice; remove the copies")
+COPY_RULE = ("A row repeated in every cell (its date and any order number included) is the same data pasted or "
+             "downloaded twice, and summing it would count it twice; remove the copies")
 
 
 def test_store_sales_pasted_twice_is_refused_naming_the_first_repeated_rows(tmp_path):
@@ -34,12 +34,10 @@ def test_identical_search_term_rows_are_refused(tmp_path):
              "row exactly. " + COPY_RULE)] == _errors(minimal.write_account(tmp_path, {"search_terms.csv": terms}))
 
 
-def test_a_second_week_pasted_under_the_first_without_dates_is_refused(tmp_path):
-    sales = minimal.STORE_SALES + "P1,12,240.00\nP2,4,40.00\n"
-    assert [("store_sales.csv", 4, "rows 2, 4 hold the same product P1 with different figures and the file has no "
-             "date column to tell them apart (4 rows repeat a product); a period pasted under another is counted "
-             "twice. Keep one row per product, or export with a date column")
-            ] == _errors(minimal.write_account(tmp_path, {"store_sales.csv": sales}))
+def test_rows_differing_only_in_a_column_not_read_are_kept(tmp_path):
+    sales = "order,product_id,units,revenue\nA1,P1,1,20.00\nA2,P1,1,20.00\nA3,P2,5,50.00\n"
+    inputs, _, _ = load(minimal.write_account(tmp_path, {"store_sales.csv": sales}))
+    assert [20.0, 20.0, 50.0] == inputs.get("store_sales")["revenue"].tolist()  # two orders of P1, both counted
 
 
 def test_the_same_rows_on_two_days_are_summed_not_refused(tmp_path):

@@ -184,46 +184,32 @@ def declared_period(title: list[list[str]], stem: str, order: str = "auto"
     return None, "", None
 
 
-# Without dates, these tables hold one row per key: a key repeated is a second copy or a second period.
-ONE_ROW_PER_KEY = {"store_sales": "product", "ad_products": "advertised product (campaign, ad group, product, ad type)"}
+def repeated_rows(name: str, frame: pd.DataFrame, raw: list[tuple]) -> list[Problem]:
+    """An error for rows that repeat an earlier row exactly: the same data pasted or downloaded twice.
 
+    The rule: a row equal to another in every cell of the file (its date, and columns not read,
+    such as an order number, included) is a copy. Rows of different days differ by their date and
+    are summed by combine_repeats; rows that differ in any cell are read as written.
 
-def repeated_rows(name: str, frame: pd.DataFrame, dated: bool) -> list[Problem]:
-    """Errors for rows that repeat others: the same data pasted or downloaded twice.
-
-    The rule: a row equal to another in every column read (its date included) is a copy, since
-    an export holds one row per key per day; rows of different days differ by their date and are
-    summed by combine_repeats. Without a date column, store sales and advertised products hold one
-    row per key, so a key on two rows (a second period pasted under the first) is refused too.
+    Args:
+        name: the table's canonical name.
+        frame: its validated rows.
+        raw: each frame row's cells as written (all columns of the file).
     """
     if name not in REPEAT_KEYS or len(frame) < 2:
         return []
-    file, headers = frame.attrs["file"], frame.attrs["headers"]
-    columns = [col for col in frame.columns if col != "_row"]
-    copies = frame.duplicated(columns, keep=False)
-    if copies.any():
-        first = frame[copies].iloc[0]
-        same = frame.loc[copies & (frame[columns] == first[columns]).all(axis=1), "_row"].tolist()
-        extra = int(copies.sum()) - int((~frame[copies].duplicated(columns)).sum())
-        return [Problem(file, int(same[1]), None,
-                        f"rows {', '.join(map(str, same))} are the same in every column; {extra} row(s) of the "
-                        "file repeat an earlier row exactly. A row repeated in every column (its date included) is "
-                        "the same data pasted or downloaded twice, and summing it would count it twice; remove "
-                        "the copies")]
-    if dated or name not in ONE_ROW_PER_KEY:
+    cells = pd.Series(raw, index=frame.index, dtype=object)
+    copies = cells.duplicated(keep=False)
+    if not copies.any():
         return []
-    keys = list(REPEAT_KEYS[name])
-    again = frame.duplicated(keys, keep=False)
-    if not again.any():
-        return []
-    first = frame[again].iloc[0]
-    same = frame.loc[again & (frame[keys] == first[keys]).all(axis=1), "_row"].tolist()
-    key = " / ".join(str(first[k]) for k in keys)
-    return [Problem(file, int(same[1]), headers[keys[-1]] if name == "ad_products" else headers["product_id"],
-                    f"rows {', '.join(map(str, same))} hold the same {ONE_ROW_PER_KEY[name]} {key} with different "
-                    f"figures and the file has no date column to tell them apart ({int(again.sum())} rows repeat a "
-                    f"{ONE_ROW_PER_KEY[name].split(' (')[0]}); a period pasted under another is counted twice. "
-                    f"Keep one row per {ONE_ROW_PER_KEY[name].split(' (')[0]}, or export with a date column")]
+    first = cells[copies].iloc[0]
+    same = frame.loc[copies & (cells == pd.Series([first] * len(cells), index=cells.index)), "_row"].tolist()
+    extra = int(cells.duplicated().sum())
+    return [Problem(frame.attrs["file"], int(same[1]), None,
+                    f"rows {', '.join(map(str, same))} are the same in every column; {extra} row(s) of the file "
+                    "repeat an earlier row exactly. A row repeated in every cell (its date and any order number "
+                    "included) is the same data pasted or downloaded twice, and summing it would count it twice; "
+                    "remove the copies")]
 
 
 def combine_repeats(name: str, frame: pd.DataFrame, dated: bool) -> tuple[pd.DataFrame, list[Problem]]:

@@ -165,6 +165,8 @@ def _parse_cell(rule: c.ColumnRule, text: str, settings: Settings) -> tuple[obje
         if value is None:
             return "", f"'{text}' is not one of {expected}"
         return value, None
+    if rule.name == "unit_cost" and not any(ch.isdigit() for ch in t):
+        return math.nan, None  # blank or "n/a": missing, never zero (reported per product by _missing_costs)
     if not t:
         if rule.kind in (c.COUNT, c.MONEY):
             return 0.0, None
@@ -268,6 +270,7 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
                                                 "hold this table. Export a shorter period")]
     records: list[dict] = []
     date_texts: dict[str, list[str]] = {n: [] for n in dates}
+    raw: list[tuple] = []  # each read row's cells as written, for finding rows pasted twice
     running, skipped = RunningSums(table, found), []
     for i in range(start + 1, len(rows)):
         row = rows[i]
@@ -298,6 +301,7 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
         for name, col in dates.items():
             date_texts[name].append(row[col] if col < len(row) else "")
         records.append(record)
+        raw.append(tuple(x.strip() for x in row))
     if skipped:
         problems.append(Problem(file, skipped[0], None, f"skipped {len(skipped)} totals row(s) (row "
                                 + ", ".join(map(str, skipped)) + "): each is the sum of the rows above it",
@@ -323,7 +327,7 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
     if message:
         problems.append(Problem(file, None, None, f"{where} states a period that does not read: {message}"))
     if not any(p.severity == ERROR for p in problems):  # a bad cell would make the sums meaningless
-        repeats = repeated_rows(table.name, frame, bool(dates))
+        repeats = repeated_rows(table.name, frame, raw)
         if not repeats:
             frame, repeats = combine_repeats(table.name, frame, bool(dates))
         problems.extend(repeats)
@@ -424,6 +428,7 @@ def _row_checks(name: str, frame: pd.DataFrame) -> list[Problem]:
                                     f"orders ({orders:g}) are more than clicks ({clicks:g}); "
                                     "expected at most one order per click"))
     if name == "catalog":
+        problems.extend(_missing_costs(frame))
         dup = frame[frame["product_id"].duplicated(keep=False) & (frame["product_id"] != "")]
         for pid, group in dup.groupby("product_id", sort=True):
             rows = ", ".join(str(x) for x in group["_row"])
@@ -432,6 +437,16 @@ def _row_checks(name: str, frame: pd.DataFrame) -> list[Problem]:
                                         f"product '{pid}' appears more than once (rows {rows}); "
                                         "expected one row per product"))
     return problems
+
+
+def _missing_costs(frame: pd.DataFrame) -> list[Problem]:
+    """A warning per catalog product whose unit cost is blank or not a number and whose margin is not given."""
+    missing = frame.loc[frame["unit_cost"].isna() & frame["margin"].isna() & (frame["product_id"] != "")]
+    return grouped_problems([Problem(frame.attrs["file"], int(row), frame.attrs["headers"]["unit_cost"],
+                                     f"product '{pid}' has no unit cost (blank or not a number), so it is built with "
+                                     "its margin blank, as a product absent from the catalog; fill the cost on "
+                                     "in_catalog (or in the catalog file) to see its profit", WARNING)
+                             for row, pid in zip(missing["_row"], missing["product_id"])])
 
 
 def _cross_checks(tables: dict[str, pd.DataFrame | None]) -> list[Problem]:

@@ -1,0 +1,57 @@
+"""A unit cost that is not there is missing, never zero: the product is built with its margin blank
+and named in a warning, as a product absent from the catalog is. Filling the cost on in_catalog
+gives the margin live.
+"""
+from __future__ import annotations
+
+import minimal
+import pytest
+
+from conftest import BUILT_ON, edit_workbook
+from profit_io import profit_table
+from sheetbuilder.errors import WARNING
+from sheetbuilder.pipeline import build, load
+from sheetbuilder.recalc import formulas_values
+
+CATALOG = """product_id,product_name,price,unit_cost,fees_per_unit
+P1,Widget,20.00,,2.00
+P2,Gadget,10.00,n/a,1.00
+"""
+
+
+@pytest.fixture(scope="module")
+def built(tmp_path_factory):
+    folder = minimal.write_account(tmp_path_factory.mktemp("costs"), {"catalog.csv": CATALOG})
+    return build(folder, folder / "book.xlsx", built_on=BUILT_ON)
+
+
+def test_a_blank_or_non_numeric_unit_cost_gives_a_blank_margin_not_a_profit(built):
+    rows, _, _ = profit_table(built.output)
+    assert [(None, None, "no margin"), (None, None, "no margin")] == [
+        (rows[p]["Margin before ads"], rows[p]["Net profit after ads"], rows[p]["Status"]) for p in ("P1", "P2")]
+
+
+def test_each_product_without_a_cost_is_named_with_what_to_do(built):
+    named = [(p.file, p.row, p.column, p.severity) for p in built.warnings if "has no unit cost" in p.message]
+    assert [("catalog.csv", 2, "unit_cost", WARNING), ("catalog.csv", 3, "unit_cost", WARNING)] == named
+    message = next(p.message for p in built.warnings if "has no unit cost" in p.message)
+    assert ("product 'P1' has no unit cost (blank or not a number), so it is built with its margin blank, as a "
+            "product absent from the catalog; fill the cost on in_catalog (or in the catalog file) to see its "
+            "profit") == message
+
+
+def test_filling_the_cost_on_in_catalog_gives_the_margin_live(built, tmp_path):
+    edited = edit_workbook(built.output, tmp_path / "edited.xlsx", [("in_catalog", "D2", 8.0)])
+    values = formulas_values(edited)
+    _, _, where = profit_table(built.output)
+    margin = values[("PROFIT", where["P1"]["Margin before ads"])]
+    assert 0.5 == pytest.approx(margin)  # (20 - 8 - 2) / 20
+
+
+def test_a_cost_with_digits_that_does_not_read_is_still_an_error(tmp_path):
+    from sheetbuilder.errors import InputProblems
+    catalog = CATALOG.replace(",,2.00", ",8 dollars,2.00")
+    with pytest.raises(InputProblems) as caught:
+        load(minimal.write_account(tmp_path, {"catalog.csv": catalog}))
+    assert [("catalog.csv", 2, "unit_cost")] == [(p.file, p.row, p.column) for p in caught.value.problems
+                                                 if p.severity == "error"]
