@@ -468,6 +468,61 @@ def _cross_checks(tables: dict[str, pd.DataFrame | None]) -> list[Problem]:
     return problems
 
 
+ID_TABLES = ("catalog", "store_sales", "ad_products")  # the tables whose product IDs are matched to each other
+_DIGITS_ID = r"\d+(?:\.0+)?"  # digits only, or a number a spreadsheet wrote back as 101.0
+
+
+def _id_key(text: str) -> str:
+    """A digit-only product ID compared as its number: without leading zeros and without a stored '.0'."""
+    return text.split(".")[0].lstrip("0") or "0"
+
+
+def same_product_ids(tables: dict[str, pd.DataFrame | None]) -> list[Problem]:
+    """Digit-only product IDs made one across files (in place): 00101, 101 and 101.0 are one product.
+
+    IDs are compared as text; a digit-only ID loses its leading zeros in a spreadsheet and gains
+    '.0' when a spreadsheet stores it as a number, so such IDs are compared by their number and
+    written as the catalog writes them (else as the first file that holds them does). Two
+    spellings of one number in one file are refused: which product each means cannot be known.
+    """
+    problems: list[Problem] = []
+    spelling: dict[str, str] = {}
+    for name in ID_TABLES:
+        frame = tables.get(name)
+        if frame is None or not len(frame):
+            continue
+        ids = frame["product_id"].astype(str)
+        digits = ids.str.fullmatch(_DIGITS_ID)
+        if not digits.any():
+            continue
+        keys = ids[digits].map(_id_key)
+        forms = pd.DataFrame({"key": keys, "id": ids[digits], "row": frame.loc[digits, "_row"]})
+        clash = forms.groupby("key")["id"].nunique()
+        file, header = frame.attrs["file"], frame.attrs["headers"]["product_id"]
+        for key in clash[clash > 1].index:
+            group = forms[forms["key"] == key].drop_duplicates("id")
+            written = ", ".join(f"'{i}' (row {r})" for i, r in zip(group["id"], group["row"]))
+            problems.append(Problem(file, int(group["row"].iloc[1]), header,
+                                    f"the product IDs {written} are one number written two ways; digit-only IDs "
+                                    "are compared without leading zeros (a spreadsheet drops them), so these would "
+                                    "be one product. Write each product's ID one way"))
+        for key, text in zip(keys, ids[digits]):
+            spelling.setdefault(key, text)
+        rewritten = keys.map(spelling)
+        changed = int((rewritten != ids[digits]).sum())
+        frame.loc[digits, "product_id"] = rewritten
+        frame.attrs["id_note"] = ("digit-only IDs compared without leading zeros" +
+                                  (f"; {changed} written as {'the catalog' if name != 'catalog' else 'here'} "
+                                   "writes them" if changed else ""))
+        if changed:
+            first = rewritten[rewritten != ids[digits]].index[0]
+            problems.append(Problem(file, int(frame.loc[first, "_row"]), header,
+                                    f"{changed} digit-only product ID(s) are written differently from an earlier file "
+                                    f"(first: '{ids[first]}', read as '{rewritten[first]}'); compared without "
+                                    "leading zeros", WARNING))
+    return problems
+
+
 def _unmatched_files(folder: Path, used: set[Path], settings: Settings) -> list[Problem]:
     """A note for each export-like file in folder that no table read, naming the table it most resembles."""
     notes = []
@@ -519,6 +574,7 @@ def read_inputs(folder: Path, settings: Settings) -> tuple[Inputs, list[Problem]
             problems.extend(_row_checks(table.name, frame))
             encodings[table.name] = frame.attrs["encoding"]
         tables[table.name] = frame
+    problems.extend(same_product_ids(tables))
     problems.extend(_cross_checks(tables))
     problems.extend(_unmatched_files(folder, set(sources.values()), settings))
     periods = {sources[n].name: f.attrs["period"] for n, f in tables.items()
