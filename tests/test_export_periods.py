@@ -103,3 +103,32 @@ def test_dated_rows_outside_the_stated_period_are_refused(tmp_path):
     assert [("the title row 1 'Date range: 2026-11-24 - 2026-11-30' states 2026-11-24 to 2026-11-30 (7 days) but its "
              "rows are dated 2026-11-20 to 2026-11-20 (1 days); download the export again for one date range")
             ] == messages
+
+
+def _daily_sales(days: list[str]) -> str:
+    return "date,product_id,units,revenue\n" + "".join(f"{d},P1,1,20.00\n{d},P2,1,10.00\n" for d in days)
+
+
+def test_ambiguous_dates_print_as_one_line_with_the_count_and_first_rows(tmp_path):
+    days = [f"0{i}/11/2026" for i in range(1, 8)]  # days 1 to 7: each could be a month
+    with pytest.raises(InputProblems) as caught:
+        load(minimal.write_account(tmp_path, {"store_sales.csv": _daily_sales(days)}))
+    assert [("store_sales.csv", 2, "date", "14 cells alike (first rows 2, 3, 4, 5, 6, ...): '01/11/2026' could be "
+             "day/month or month/day and no date in the column says which; set date_order = \"dmy\" or \"mdy\" in "
+             "settings.toml, or write dates as 2026-11-23")
+            ] == [(p.file, p.row, p.column, p.message) for p in caught.value.problems if p.severity == ERROR]
+
+
+@pytest.mark.parametrize("order, start", [("dmy", dt.date(2026, 11, 1)), ("mdy", dt.date(2026, 1, 11))])
+def test_date_order_settles_a_daily_column_within_days_1_to_12(tmp_path, order, start):
+    days = [f"0{i}/11/2026" for i in range(1, 8)]
+    folder = minimal.write_account(tmp_path, {"store_sales.csv": _daily_sales(days),
+                                              "settings.toml": f'date_order = "{order}"\n'})
+    inputs, _, _ = load(folder)
+    assert start == inputs.period.start
+
+
+def test_a_day_above_12_anywhere_in_the_column_decides_the_order(tmp_path):
+    days = [f"0{i}/11/2026" for i in range(1, 8)] + ["13/11/2026"]
+    inputs, _, _ = load(minimal.write_account(tmp_path, {"store_sales.csv": _daily_sales(days)}))
+    assert Period(dt.date(2026, 11, 1), dt.date(2026, 11, 13)) == inputs.period

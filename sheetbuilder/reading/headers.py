@@ -74,7 +74,11 @@ def map_headers(header: list[str], table: c.TableRule, settings: Settings, file:
     for rule in table.columns:
         if rule.name in explicit:
             want = c.header_key(explicit[rule.name])
-            if want in full:
+            if rule.name == "orders" and "unit" in want:
+                problems.append(Problem(file, row, explicit[rule.name],
+                                        f"settings.toml maps 'orders' to this header, which counts units: "
+                                        f"{_UNITS_NOT_ORDERS}"))
+            elif want in full:
                 found[rule.name] = full.index(want)
             else:
                 problems.append(Problem(file, row, explicit[rule.name],
@@ -102,9 +106,17 @@ def map_headers(header: list[str], table: c.TableRule, settings: Settings, file:
                                     f"[columns.{table.name}]"))
         elif rule.required:
             problems.append(Problem(file, row, rule.name, _missing(rule, table, header, set(found.values()))))
+    twice = {i for i in found.values() if list(found.values()).count(i) > 1}
+    for i in sorted(twice):
+        names = " and ".join(f"'{n}'" for n, j in found.items() if j == i)
+        problems.append(Problem(file, row, header[i], f"this one column is mapped to {names}; each column holds "
+                                                      f"one field. Map one of them to another column in "
+                                                      f"settings.toml [columns.{table.name}]"))
     return found, problems
 
 
+_UNITS_NOT_ORDERS = ("an order may hold several units, so units are never read as orders (conversion rates count "
+                     "orders per click); export with an orders column")
 _OWN_NAMES = {t.name: {c.header_key(r.name) for r in t.columns} for t in c.TABLES}
 
 
@@ -112,7 +124,11 @@ def _missing(rule: c.ColumnRule, table: c.TableRule, header: list[str], used: se
     """The message for a missing required column: what is accepted, the closest headers, the line to add."""
     also = ", ".join(rule.synonyms[:5])
     message = f"missing column '{rule.name}'" + (f" (also accepted: {also})" if also else "")
-    free = {c.header_key(h): h for i, h in enumerate(header) if i not in used and str(h).strip()}
+    units = [h for h in header if rule.name == "orders" and "unit" in c.header_key(h)]
+    if units:
+        return message + f"; the file has '{units[0]}', which counts units: {_UNITS_NOT_ORDERS}"
+    free = {c.header_key(h): h for i, h in enumerate(header) if i not in used and str(h).strip()
+            and not (rule.name == "orders" and "unit" in c.header_key(h))}
     wanted = [c.header_key(rule.name), *rule.synonyms]
     close: list[str] = []
     for want in wanted:

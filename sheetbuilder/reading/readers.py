@@ -271,7 +271,7 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
     records: list[dict] = []
     date_texts: dict[str, list[str]] = {n: [] for n in dates}
     raw: list[tuple] = []  # each read row's cells as written, for finding rows pasted twice
-    running, skipped = RunningSums(table, found), []
+    running, skipped, bad_cells = RunningSums(table, found), [], []
     for i in range(start + 1, len(rows)):
         row = rows[i]
         if not any(x.strip() for x in row):
@@ -296,12 +296,13 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
                                                            f"above it ({differs}); read as data it would be "
                                                            "counted twice. Remove it"))
                 continue
-        problems.extend(cell_problems)
+        bad_cells.extend(cell_problems)
         running.add(record)
         for name, col in dates.items():
             date_texts[name].append(row[col] if col < len(row) else "")
         records.append(record)
         raw.append(tuple(x.strip() for x in row))
+    problems.extend(grouped_problems(bad_cells))
     if skipped:
         problems.append(Problem(file, skipped[0], None, f"skipped {len(skipped)} totals row(s) (row "
                                 + ", ".join(map(str, skipped)) + "): each is the sum of the rows above it",

@@ -1,0 +1,46 @@
+"""A units column is never read as orders, and a mapping that sends one column to two fields is refused."""
+from __future__ import annotations
+
+import minimal
+import pytest
+
+from sheetbuilder.errors import ERROR, InputProblems
+from sheetbuilder.pipeline import load
+
+
+def _errors(folder) -> list[tuple[str, str | None, str]]:
+    with pytest.raises(InputProblems) as caught:
+        load(folder)
+    return [(p.file, p.column, p.message) for p in caught.value.problems if p.severity == ERROR]
+
+
+def test_an_ad_units_column_without_orders_is_refused_saying_why(tmp_path):
+    ads = minimal.AD_PRODUCTS.replace(",orders\n", ",Ad Units\n", 1)
+    assert [("ad_products.csv", "orders", "missing column 'orders' (also accepted: adorders, conversions, purchases, "
+             "totalorders); the file has 'Ad Units', which counts units: an order may hold several units, so units "
+             "are never read as orders (conversion rates count orders per click); export with an orders column")
+            ] == _errors(minimal.write_account(tmp_path, {"ad_products.csv": ads}))
+
+
+def test_mapping_orders_to_a_units_column_in_settings_is_refused(tmp_path):
+    ads = minimal.AD_PRODUCTS.replace(",orders\n", ",Ad Units\n", 1)
+    settings = '[columns.ad_products]\norders = "Ad Units"\n'
+    errors = _errors(minimal.write_account(tmp_path, {"ad_products.csv": ads, "settings.toml": settings}))
+    assert ("ad_products.csv", "Ad Units", "settings.toml maps 'orders' to this header, which counts units: an order "
+            "may hold several units, so units are never read as orders (conversion rates count orders per click); "
+            "export with an orders column") == errors[0]
+
+
+def test_one_column_mapped_to_two_fields_is_refused(tmp_path):
+    catalog = minimal.CATALOG.replace("unit_cost,fees_per_unit", "Cost per unit,fees_per_unit")
+    settings = '[columns.catalog]\nunit_cost = "Cost per unit"\nfees_per_unit = "Cost per unit"\n'
+    assert [("catalog.csv", "Cost per unit", "this one column is mapped to 'unit_cost' and 'fees_per_unit'; each "
+             "column holds one field. Map one of them to another column in settings.toml [columns.catalog]")
+            ] == _errors(minimal.write_account(tmp_path, {"catalog.csv": catalog, "settings.toml": settings}))
+
+
+def test_many_cells_with_one_problem_print_as_one_line(tmp_path):
+    rows = "".join(f"C1,G{i},P1,product ads,100,lots,1.00,0,0\n" for i in range(7))
+    errors = _errors(minimal.write_account(tmp_path, {"ad_products.csv": minimal.AD_PRODUCTS + rows}))
+    assert [("ad_products.csv", "clicks", "7 cells alike (first rows 4, 5, 6, 7, 8, ...): 'lots' is not a whole "
+             "number; expected a count such as 1234 or 1,234")] == errors
