@@ -18,8 +18,10 @@ from sheetbuilder.reading import contract as c
 from sheetbuilder.reading.encodings import NotText, decode, is_legacy
 from sheetbuilder.errors import ERROR, WARNING, Problem
 from sheetbuilder.reading.guard import UnsafeWorkbook, check_csv, check_workbook, read_delimited, text_problem
-from sheetbuilder.reading.headers import currency_warnings, find_header, map_headers
-from sheetbuilder.reading.numbers import MAX_MAGNITUDE, NotANumber, parse_count, parse_number
+from sheetbuilder.reading.evidence import (SIGN_CODES, Decision, both_readings, codes_of, currency_label,
+                                           currency_mark, decide_separators, separator_form)
+from sheetbuilder.reading.headers import currency_warnings, find_header, map_headers, split_unit
+from sheetbuilder.reading.numbers import ISO_4217, MAX_MAGNITUDE, NotANumber, parse_count, parse_number
 from sheetbuilder.reading.periods import (DATE_RULES, DATED_TABLES, Period, combine_repeats, declared_period,
                                           overall_period, parse_dates, repeated_rows, table_period)
 from sheetbuilder.reading.settings import Settings
@@ -48,6 +50,7 @@ class Inputs:
     checksums: dict[str, str] = field(default_factory=dict)
     encodings: dict[str, str] = field(default_factory=dict)
     period: Period | None = None  # the days the dated exports cover, when they carry dates
+    currency: str = ""  # the currency the exports' amounts are marked with ("" when none is marked)
 
     def get(self, name: str) -> pd.DataFrame | None:
         """The frame of table name, or None when the file was not given."""
@@ -101,13 +104,14 @@ def _cell_text(value: object) -> str:
     return str(value)
 
 
-def read_sheets(path: Path) -> tuple[list[tuple[str, list[list[str]]]], str]:
+def read_sheets(path: Path, found: dict | None = None) -> tuple[list[tuple[str, list[list[str]]]], str]:
     """Every sheet of a CSV or spreadsheet file as (sheet name, rows of text); blank rows kept.
 
     A CSV is one sheet named "". Spreadsheets (.xlsx .xlsm .xls .xlsb .ods) are read by calamine.
 
     Returns:
-        The sheets and the file's encoding ("spreadsheet" for a workbook).
+        The sheets and the file's encoding ("spreadsheet" for a workbook); found, when given,
+        receives the CSV's delimiter ("" for a workbook).
 
     Raises:
         NotText: a CSV not decodable by encodings.decode, or a NUL character in any cell (with its row).
@@ -131,6 +135,8 @@ def read_sheets(path: Path) -> tuple[list[tuple[str, list[list[str]]]], str]:
     text = decoded.text
     first = next((line for line in text.splitlines() if line.strip()), "")
     delimiter = max((",", ";", "\t", "|"), key=first.count) if first else ","
+    if found is not None:
+        found["delimiter"] = delimiter
     return [("", read_delimited(text, delimiter))], decoded.encoding
 
 
@@ -150,8 +156,13 @@ _SIGNED = {"margin"}  # a product sold below its costs has a negative margin bef
 _NON_BLANK = {"product_id", "campaign", "target", "search_term", "term", "match_type", "state"}
 
 
-def _parse_cell(rule: c.ColumnRule, text: str, settings: Settings) -> tuple[object, str | None]:
-    """The value of one cell, or an error message saying what was expected."""
+def _parse_cell(rule: c.ColumnRule, text: str, settings: Settings, comma: bool | None = None,
+                strict: bool = False) -> tuple[object, str | None]:
+    """The value of one cell, or an error message saying what was expected.
+
+    comma: the column's decimal comma as the file's evidence decided it (None: decimal_comma);
+    strict: the column is undecided, so a value such as 3,911 is refused with both readings.
+    """
     t = text.strip()
     if rule.kind == c.TEXT:
         if not t and rule.name in _NON_BLANK:
@@ -173,7 +184,14 @@ def _parse_cell(rule: c.ColumnRule, text: str, settings: Settings) -> tuple[obje
         if rule.name == "bid":
             return math.nan, "is blank; expected the current bid"
         return math.nan, None
-    comma = settings.decimal_comma and not isinstance(text, CellNumber)
+    if isinstance(text, CellNumber):
+        comma = False
+    else:
+        comma = settings.decimal_comma if comma is None else comma
+        if strict and rule.kind != c.COUNT and separator_form(t) == "ambiguous":
+            return math.nan, (f"'{text}' could be {both_readings(t)} and nothing in the file says which; set "
+                              "decimal_comma = true or false in settings.toml, or write it without the separator "
+                              "or with more decimals")
     try:
         if rule.kind == c.COUNT:
             value, had_percent = (float(t) if isinstance(text, CellNumber) else parse_count(t, comma)), False
@@ -224,6 +242,51 @@ def _read_dates(frame: pd.DataFrame, texts: dict[str, list[str]], headers: dict[
     return problems
 
 
+def _decide_numbers(body: list[list[str]], found: dict[str, int], table: c.TableRule, settings: Settings,
+                    delimiter: str) -> Decision:
+    """How the file's amount and percent columns write decimals, decided from their cells (evidence.py)."""
+    columns = {r.name: found[r.name] for r in table.columns
+               if r.kind in (c.MONEY, c.PERCENT, c.AMOUNT) and r.name in found}
+    def cells(i: int):
+        return (row[i] for row in body if i < len(row) and not isinstance(row[i], CellNumber))
+
+    texts = {name: cells(i) for name, i in columns.items()}
+    setting = settings.decimal_comma if "decimal_comma" in settings.given else None
+    return decide_separators(texts, delimiter, setting)
+
+
+def _currency_of(file: str, marks: dict[str, dict[str, int]], header: list[str], found: dict[str, int],
+                 table: c.TableRule) -> tuple[tuple[frozenset, tuple] | None, list[Problem]]:
+    """The currency a file's money columns hold (ISO 4217 codes it may be, and the marks seen), and an
+    error for a column, or a file, mixing currency marks that cannot be one currency."""
+    problems: list[Problem] = []
+    seen: dict[str, tuple[str, int | None]] = {}
+    for rule in table.columns:
+        unit = split_unit(header[found[rule.name]])[1] if rule.name in found and rule.kind in (c.MONEY, c.AMOUNT) else None
+        if unit and (unit.upper() in ISO_4217 or unit in SIGN_CODES):
+            seen.setdefault(unit, (header[found[rule.name]], None))
+    for name, found_marks in marks.items():
+        codes = [codes_of(m) for m in found_marks]
+        if frozenset.intersection(*codes):
+            for m, row in found_marks.items():
+                seen.setdefault(m, (header[found[name]], row))
+            continue
+        listed = " and ".join(f"'{m}' (row {row})" for m, row in found_marks.items())
+        problems.append(Problem(file, max(found_marks.values()), header[found[name]],
+                                f"the column mixes currencies: {listed}; an account holds one currency (ISO 4217), "
+                                "and amounts in two are not added up. Split the file by marketplace, or convert the "
+                                "amounts to one currency"))
+    if problems or not seen:
+        return None, problems
+    codes = frozenset.intersection(*(codes_of(m) for m in seen))
+    if not codes:
+        listed = " and ".join(f"'{m}' ({col}" + (f", row {row})" if row else ")") for m, (col, row) in seen.items())
+        return None, [Problem(file, None, None, f"the file's amounts are in different currencies: {listed}; an "
+                                                "account holds one currency (ISO 4217). Export one marketplace per "
+                                                "folder")]
+    return (codes, tuple(sorted(seen))), []
+
+
 def _layout_notes(file: str, sheets: list, sheet: str, rows: list[list[str]], start: int) -> list[Problem]:
     """Notes saying which sheet was read and which row held the header, when not the obvious ones."""
     notes = []
@@ -241,7 +304,8 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
     """Read and validate one table's file."""
     file = path.name
     try:
-        sheets, encoding = read_sheets(path)
+        meta: dict = {}
+        sheets, encoding = read_sheets(path, meta)
     except NotText as exc:
         return None, [Problem(file, exc.row, None, str(exc))]
     except UnsafeWorkbook as exc:
@@ -268,6 +332,8 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
         return None, [Problem(file, None, None, f"has {data_rows:,} data rows; a sheet holds at most "
                                                 f"{MAX_SHEET_ROWS - 1:,} below its header, so the workbook cannot "
                                                 "hold this table. Export a shorter period")]
+    numbers = _decide_numbers(rows[start + 1:], found, table, settings, meta.get("delimiter", ""))
+    marks: dict[str, dict[str, int]] = {}  # money column -> currency mark -> first row
     records: list[dict] = []
     date_texts: dict[str, list[str]] = {n: [] for n in dates}
     raw: list[tuple] = []  # each read row's cells as written, for finding rows pasted twice
@@ -281,7 +347,13 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
         for rule in table.columns:
             col = found.get(rule.name)
             text = row[col] if col is not None and col < len(row) else ""
-            value, message = _parse_cell(rule, text, settings)
+            value, message = _parse_cell(rule, text, settings, numbers.comma.get(rule.name),
+                                         rule.name in numbers.undecided)
+            if (rule.kind in (c.MONEY, c.AMOUNT) and message is None and value == value and text
+                    and not (text[:1].isdigit() and text[-1:].isdigit())):
+                mark = currency_mark(text)
+                if mark:
+                    marks.setdefault(rule.name, {}).setdefault(mark, i + 1)
             if message:
                 cell_problems.append(Problem(file, i + 1, header[col] if col is not None else rule.name, message))
             record[rule.name] = value
@@ -303,6 +375,8 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
         records.append(record)
         raw.append(tuple(x.strip() for x in row))
     problems.extend(grouped_problems(bad_cells))
+    currency, mixed = _currency_of(file, marks, header, found, table)
+    problems.extend(mixed)
     if skipped:
         problems.append(Problem(file, skipped[0], None, f"skipped {len(skipped)} totals row(s) (row "
                                 + ", ".join(map(str, skipped)) + "): each is the sum of the rows above it",
@@ -318,7 +392,7 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
     header_of = {rule.name: (header[found[rule.name]] if rule.name in found else rule.name) for rule in table.columns}
     frame.attrs["headers"] = header_of
     frame.attrs["file"] = file
-    frame.attrs.update(encoding=encoding, header_row=start + 1, sheet=sheet, totals=len(skipped), rows_read=len(records),
+    frame.attrs.update(currency=currency, numbers=numbers.why, encoding=encoding, header_row=start + 1, sheet=sheet, totals=len(skipped), rows_read=len(records),
                        columns={n: header[i] for n, i in {**found, **dates}.items()})
     if dates:
         problems.extend(_read_dates(frame, date_texts, {n: header[i] for n, i in dates.items()}, settings.date_order))
@@ -584,4 +658,31 @@ def read_inputs(folder: Path, settings: Settings) -> tuple[Inputs, list[Problem]
                if f is not None and n in DATED_TABLES and n != "campaigns" and f.attrs.get("period") is None]
     period, found = overall_period(periods, undated, settings.period_mismatch)
     problems.extend(found)
-    return Inputs(tables, sources, checksums, encodings, period), problems
+    currency, found = account_currency(tables, settings)
+    said = any("currency other than currency_symbol" in p.message for p in problems)  # a header's unit said it
+    problems.extend(p for p in found if p.severity == ERROR or not said)
+    return Inputs(tables, sources, checksums, encodings, period, currency), problems
+
+
+def account_currency(tables: dict[str, pd.DataFrame | None], settings: Settings) -> tuple[str, list[Problem]]:
+    """The one currency of the account's amounts, as their marks and headers show it (ISO 4217; shown on
+    the Guide and by inspect); an error when files hold different currencies, a warning when
+    currency_symbol names another."""
+    marked = {f.attrs["file"]: f.attrs["currency"] for f in tables.values()
+              if f is not None and f.attrs.get("currency")}
+    if not marked:
+        return "", []
+    codes = frozenset.intersection(*(codes for codes, _ in marked.values()))
+    files = ", ".join(marked)
+    if not codes:
+        listed = "; ".join(f"{file} {' '.join(marks)}" for file, (_, marks) in marked.items())
+        return "", [Problem(files, None, None, f"the exports hold amounts in different currencies ({listed}); an "
+                                               "account holds one currency (ISO 4217). Put each marketplace's "
+                                               "exports in a folder of its own")]
+    marks = {m for _, found in marked.values() for m in found}
+    label = currency_label(codes, marks)
+    if codes & codes_of(settings.currency_symbol):
+        return label, []
+    return label, [Problem(files, None, None, f"the amounts are in {label}, as their currency marks and headers "
+                                              f"show, but currency_symbol is '{settings.currency_symbol}'; set it "
+                                              "in settings.toml so the workbook labels amounts rightly", WARNING)]
