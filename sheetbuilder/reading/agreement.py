@@ -105,7 +105,7 @@ def same_product_ids(tables: dict[str, pd.DataFrame | None]) -> list[Problem]:
         rewritten = keys.map(spelling)
         changed = int((rewritten != ids[digits]).sum())
         frame.loc[digits, "product_id"] = rewritten
-        frame.attrs["id_note"] = ("digit-only IDs compared without leading zeros" +
+        frame.attrs["id_note"] = ("digit-only IDs compared as numbers, without leading zeros or a stored '.0'" +
                                   (f"; {changed} written as {'the catalog' if name != 'catalog' else 'here'} "
                                    "writes them" if changed else ""))
         if changed:

@@ -74,9 +74,11 @@ def decide_separators(columns: dict[str, list[str]], delimiter: str, setting: bo
         setting: decimal_comma when settings.toml sets it, else None.
     """
     seen: dict[str, set[str]] = {}
+    looked = 0
     for name, texts in columns.items():
         kinds: set[str] = set()
         for t in islice(texts, SAMPLE):  # a value written the other way after these fails to read: refused too
+            looked += bool(t.strip())
             form = separator_form(t)
             if form in (POINT, COMMA):
                 kinds.add(form)
@@ -90,6 +92,9 @@ def decide_separators(columns: dict[str, list[str]], delimiter: str, setting: bo
         fallback, why = setting, f"decimal_comma = {'true' if setting else 'false'} in settings.toml"
     elif delimiter == ";":
         fallback, why = True, "a ';' delimiter (common practice in decimal-comma locales)"
+    elif not looked:
+        return Decision({name: False for name in columns}, set(),
+                        "numbers stored as numbers (nothing to decide)" if columns else "")
     else:
         fallback, why = False, "no value shows a decimal separator"
     comma, undecided = {}, set()
@@ -100,6 +105,10 @@ def decide_separators(columns: dict[str, list[str]], delimiter: str, setting: bo
             comma[name] = fallback
             if not file_kinds and setting is None and delimiter != ";":
                 undecided.add(name)
+    form = "decimal comma" if fallback else "decimal point"
+    differ = sorted(n for n in comma if comma[n] != fallback)
+    why = f"{form} ({why})" + (f"; {', '.join(differ)} by their own values" if differ else "") + (
+        "; a value such as 3,911 is refused" if undecided else "")
     return Decision(comma, undecided, why)
 
 

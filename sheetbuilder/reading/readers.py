@@ -9,6 +9,7 @@ import csv
 import hashlib
 import math
 from dataclasses import dataclass, field
+from itertools import islice
 from pathlib import Path
 
 import pandas as pd
@@ -19,7 +20,7 @@ from sheetbuilder.errors import ERROR, WARNING, Problem
 from sheetbuilder.reading.guard import UnsafeWorkbook, check_csv, check_workbook, read_delimited, text_problem
 from sheetbuilder.reading.agreement import account_currency, currency_of, grouped_problems, same_product_ids
 from sheetbuilder.reading.evidence import Decision, both_readings, currency_mark, decide_separators, separator_form
-from sheetbuilder.reading.headers import currency_warnings, find_header, map_headers
+from sheetbuilder.reading.headers import MAX_TITLE_ROWS, currency_warnings, find_header, map_headers
 from sheetbuilder.reading.numbers import MAX_MAGNITUDE, NotANumber, parse_count, parse_number
 from sheetbuilder.reading.periods import (DATE_RULES, DATED_TABLES, Period, combine_repeats, declared_period,
                                           overall_period, parse_dates, repeated_rows, table_period)
@@ -132,8 +133,9 @@ def read_sheets(path: Path, found: dict | None = None) -> tuple[list[tuple[str, 
     check_csv(path)
     decoded = decode(path.read_bytes())
     text = decoded.text
-    first = next((line for line in text.splitlines() if line.strip()), "")
-    delimiter = max((",", ";", "\t", "|"), key=first.count) if first else ","
+    # The delimiter the header shows most; a title block above it may hold none.
+    lines = [line for line in islice((x for x in text.splitlines() if x.strip()), MAX_TITLE_ROWS + 1)]
+    delimiter = max((",", ";", "\t", "|"), key=lambda d: max((line.count(d) for line in lines), default=0))
     if found is not None:
         found["delimiter"] = delimiter
     return [("", read_delimited(text, delimiter))], decoded.encoding
