@@ -44,3 +44,29 @@ def test_many_cells_with_one_problem_print_as_one_line(tmp_path):
     errors = _errors(minimal.write_account(tmp_path, {"ad_products.csv": minimal.AD_PRODUCTS + rows}))
     assert [("ad_products.csv", "clicks", "7 cells alike (first rows 4, 5, 6, 7, 8, ...): 'lots' is not a whole "
              "number; expected a count such as 1234 or 1,234")] == errors
+
+
+DISPLAY_ADS = """campaign,ad_group,product_id,ad_type,impressions,clicks,spend,ad_sales,orders
+C1,G1,P1,product ads,1000,50,25.00,100.00,5
+D1,G1,P2,display ads,5000,2,10.00,60.00,6
+"""
+
+
+def test_orders_above_clicks_on_display_ads_are_read_as_the_clicks_and_said(tmp_path):
+    inputs, _, problems = load(minimal.write_account(tmp_path, {"ad_products.csv": DISPLAY_ADS}))
+    assert [5.0, 2.0] == inputs.get("ad_products")["orders"].tolist()  # conversion at most one order per click
+    assert [60.0] == inputs.get("ad_products")["ad_sales"].tolist()[1:]
+    assert [("ad_products.csv", 3, "orders", "1 row(s) have more orders than clicks (display, video or view-through "
+             "ads, which credit orders to views; rows 3): their orders are read as their clicks, so conversion rates "
+             "stay at most one order per click; their ad sales are kept as written")] == [
+        (p.file, p.row, p.column, p.message) for p in problems if "more orders than clicks" in p.message]
+
+
+def test_orders_above_clicks_elsewhere_are_refused_unless_the_setting_accepts_them(tmp_path):
+    ads = DISPLAY_ADS.replace("display ads", "product ads")
+    assert [("ad_products.csv", "orders", "orders (6) are more than clicks (2); expected at most one order per click "
+             "outside display and video ads (set orders_above_clicks = \"accept\" in settings.toml if this export "
+             "counts view-through orders)")] == _errors(minimal.write_account(tmp_path, {"ad_products.csv": ads}))
+    inputs, _, _ = load(minimal.write_account(tmp_path, {"ad_products.csv": ads,
+                                                         "settings.toml": 'orders_above_clicks = "accept"\n'}))
+    assert [5.0, 2.0] == inputs.get("ad_products")["orders"].tolist()

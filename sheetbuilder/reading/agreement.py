@@ -138,3 +138,48 @@ def account_currency(tables: dict[str, pd.DataFrame | None], settings: Settings)
     return label, [Problem(files, None, None, f"the amounts are in {label}, as their currency marks and headers "
                                               f"show, but currency_symbol is '{settings.currency_symbol}'; set it "
                                               "in settings.toml so the workbook labels amounts rightly", WARNING)]
+
+
+# Ad types whose orders may outnumber clicks: display and video ads credit orders to views (view-through).
+VIEWED_AD_TYPES = ("display", "video", "viewthrough")
+
+
+def view_through_campaigns(tables: dict[str, pd.DataFrame | None]) -> set[str]:
+    """The campaigns whose ad type (on campaigns or ad_products) is display, video or view-through."""
+    found: set[str] = set()
+    for name in ("campaigns", "ad_products"):
+        frame = tables.get(name)
+        if frame is not None and "ad_type" in frame:
+            viewed = frame["ad_type"].map(lambda t: any(v in c.header_key(t) for v in VIEWED_AD_TYPES))
+            found |= set(frame.loc[viewed, "campaign"])
+    return found
+
+
+def orders_above_clicks(name: str, frame: pd.DataFrame, viewed: set[str], settings: Settings) -> list[Problem]:
+    """Rows with more orders than clicks: an error, except on display, video and view-through campaigns
+    (or anywhere with orders_above_clicks = "accept"), where the orders are read as the clicks so that
+    conversion rates stay at most one order per click (in place), with a warning saying so."""
+    over = frame["orders"] > frame["clicks"]
+    if not over.any():
+        return []
+    file, header = frame.attrs["file"], frame.attrs["headers"]["orders"]
+    allowed = over if settings.orders_above_clicks == "accept" else over & frame["campaign"].isin(viewed)
+    problems = grouped_problems([Problem(file, int(row), header, f"orders ({orders:g}) are more than clicks "
+                                                                 f"({clicks:g}); expected at most one order per click "
+                                                                 "outside display and video ads (set "
+                                                                 "orders_above_clicks = \"accept\" in settings.toml "
+                                                                 "if this export counts view-through orders)")
+                                 for row, orders, clicks in zip(frame.loc[over & ~allowed, "_row"],
+                                                                frame.loc[over & ~allowed, "orders"],
+                                                                frame.loc[over & ~allowed, "clicks"])])
+    if allowed.any():
+        rows = ", ".join(str(r) for r in frame.loc[allowed, "_row"].head(5))
+        frame.loc[allowed, "orders"] = frame.loc[allowed, "clicks"]
+        why = ("orders_above_clicks = \"accept\"" if settings.orders_above_clicks == "accept"
+               else "display, video or view-through ads, which credit orders to views")
+        problems.append(Problem(file, int(frame.loc[allowed, "_row"].iloc[0]), header,
+                                f"{int(allowed.sum())} row(s) have more orders than clicks ({why}; rows {rows}"
+                                f"{', ...' if allowed.sum() > 5 else ''}): their orders are read as their clicks, so "
+                                "conversion rates stay at most one order per click; their ad sales are kept as "
+                                "written", WARNING))
+    return problems

@@ -18,7 +18,8 @@ from sheetbuilder.reading import contract as c
 from sheetbuilder.reading.encodings import NotText, decode, is_legacy
 from sheetbuilder.errors import ERROR, WARNING, Problem
 from sheetbuilder.reading.guard import UnsafeWorkbook, check_csv, check_workbook, read_delimited, text_problem
-from sheetbuilder.reading.agreement import account_currency, currency_of, grouped_problems, same_product_ids
+from sheetbuilder.reading.agreement import (account_currency, currency_of, grouped_problems, orders_above_clicks,
+                                            same_product_ids, view_through_campaigns)
 from sheetbuilder.reading.evidence import Decision, both_readings, currency_mark, decide_separators, separator_form
 from sheetbuilder.reading.headers import MAX_TITLE_ROWS, currency_warnings, find_header, map_headers
 from sheetbuilder.reading.numbers import MAX_MAGNITUDE, NotANumber, parse_count, parse_number
@@ -385,7 +386,7 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
                                                   "its accented text", WARNING))
     if too_long:
         # Check the rows as written before merging, which could hide a row's orders > clicks.
-        problems.extend(_row_checks(table.name, frame))
+        problems.extend(_row_checks(table.name, frame) + orders_above_clicks(table.name, frame, set(), settings))
         if any(p.severity == ERROR for p in problems):
             return None, problems
         attrs = dict(frame.attrs)
@@ -447,12 +448,6 @@ def _row_checks(name: str, frame: pd.DataFrame) -> list[Problem]:
     """Checks across the cells of a row, and across rows, within one table."""
     problems: list[Problem] = []
     file, headers = frame.attrs["file"], frame.attrs["headers"]
-    if "orders" in frame and "clicks" in frame:
-        over = frame.loc[frame["orders"] > frame["clicks"]]
-        for row, orders, clicks in zip(over["_row"], over["orders"], over["clicks"]):
-            problems.append(Problem(file, int(row), headers["orders"],
-                                    f"orders ({orders:g}) are more than clicks ({clicks:g}); "
-                                    "expected at most one order per click"))
     if name == "catalog":
         problems.extend(_missing_costs(frame))
         dup = frame[frame["product_id"].duplicated(keep=False) & (frame["product_id"] != "")]
@@ -545,6 +540,10 @@ def read_inputs(folder: Path, settings: Settings) -> tuple[Inputs, list[Problem]
             problems.extend(_row_checks(table.name, frame))
             encodings[table.name] = frame.attrs["encoding"]
         tables[table.name] = frame
+    viewed = view_through_campaigns(tables)
+    for name, frame in tables.items():
+        if frame is not None and "orders" in frame and "clicks" in frame:
+            problems.extend(orders_above_clicks(name, frame, viewed, settings))
     problems.extend(same_product_ids(tables))
     problems.extend(_cross_checks(tables))
     problems.extend(_unmatched_files(folder, set(sources.values()), settings))

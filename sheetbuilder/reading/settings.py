@@ -125,6 +125,10 @@ SETTINGS: tuple[SettingSpec, ...] = (
                 "How dates such as 01/02/2026 are read when no day above 12 in the column decides: dmy (1 February), "
                 "mdy (2 January), ymd (year first only) or auto (refuse what stays ambiguous) (used when reading).",
                 live=False, choices=("auto", "dmy", "mdy", "ymd")),
+    SettingSpec("orders_above_clicks", "Orders above clicks", "refuse", "choice",
+                "refuse: a row with more orders than clicks stops the build, except on display and video ads, whose "
+                "view-through orders are read as the clicks; accept: the same everywhere (used when reading).",
+                live=False, choices=("refuse", "accept")),
     SettingSpec("period_mismatch", "Exports covering different periods", "refuse", "choice",
                 "refuse: stop when the exports cover different days; accept: build from them as they are, with a "
                 "warning on the Guide that the figures combine different days (used when reading).",
@@ -170,6 +174,7 @@ class Settings:
     decimal_comma: bool = False
     date_order: str = "auto"
     period_mismatch: str = "refuse"
+    orders_above_clicks: str = "refuse"
     columns: MappingProxyType = field(default_factory=lambda: MappingProxyType({}))
     files: MappingProxyType = field(default_factory=lambda: MappingProxyType({}))
     destinations: MappingProxyType = field(default_factory=lambda: MappingProxyType({}))
