@@ -55,3 +55,22 @@ def test_a_cost_with_digits_that_does_not_read_is_still_an_error(tmp_path):
         load(minimal.write_account(tmp_path, {"catalog.csv": catalog}))
     assert [("catalog.csv", 2, "unit_cost")] == [(p.file, p.row, p.column) for p in caught.value.problems
                                                  if p.severity == "error"]
+
+
+def test_a_formula_cost_saved_without_its_value_is_refused_naming_the_cell(tmp_path):
+    import openpyxl
+    folder = minimal.write_account(tmp_path, {"catalog.csv": None})
+    wb = openpyxl.Workbook()  # openpyxl writes a formula and no value: it does not calculate
+    ws = wb.active
+    ws.title = "Products"
+    ws.append(["product_id", "product_name", "price", "unit_cost", "fees_per_unit"])
+    ws.append(["P1", "Widget", 20, "=C2*0.4", 2])
+    ws.append(["P2", "Gadget", 10, 4, 1])
+    wb.save(folder / "catalog.xlsx")
+    from sheetbuilder.errors import InputProblems
+    with pytest.raises(InputProblems) as caught:
+        load(folder)
+    assert [("catalog.xlsx", "the cells D2 of the sheet 'Products' hold formulas with no stored value (1 cell(s)): "
+             "the file was saved by a program that does not calculate, so their values are unknown. Open it in a "
+             "spreadsheet program and save it again, or type the values")] == [
+        (p.file, p.message) for p in caught.value.problems if p.severity == "error"]

@@ -26,6 +26,7 @@ from sheetbuilder.reading.numbers import MAX_MAGNITUDE, NotANumber, parse_count,
 from sheetbuilder.reading.periods import (DATE_RULES, DATED_TABLES, Period, combine_repeats, declared_period,
                                           overall_period, parse_dates, repeated_rows, table_period)
 from sheetbuilder.reading.settings import Settings
+from sheetbuilder.reading.stored_values import formulas_without_values
 from sheetbuilder.reading.totals import RunningSums, totals_label
 
 SPREADSHEETS = (".xlsx", ".xlsm", ".xls", ".xlsb", ".ods")
@@ -290,6 +291,12 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
     if start is None:
         return None, [Problem(file, None, None, "the file is empty; expected a header row and data rows")]
     header = rows[start]
+    if path.suffix.lower() in (".xlsx", ".xlsm") and (empty := formulas_without_values(path, sheet)):
+        return None, [Problem(file, None, None, f"the cells {', '.join(empty[:5])}{', ...' if len(empty) > 5 else ''} of "
+                                                f"the sheet '{sheet}' hold formulas with no stored value ({len(empty)} "
+                                                "cell(s)): the file was saved by a program that does not calculate, "
+                                                "so their values are unknown. Open it in a spreadsheet program and "
+                                                "save it again, or type the values")]
     found, problems = map_headers(header, with_dates(table), settings, file, start + 1)
     problems = _layout_notes(file, sheets, sheet, rows, start) + problems
     dates = {n: found.pop(n) for n in [r.name for r in DATE_RULES] if n in found}
