@@ -70,3 +70,33 @@ def test_orders_above_clicks_elsewhere_are_refused_unless_the_setting_accepts_th
     inputs, _, _ = load(minimal.write_account(tmp_path, {"ad_products.csv": ads,
                                                          "settings.toml": 'orders_above_clicks = "accept"\n'}))
     assert [5.0, 2.0] == inputs.get("ad_products")["orders"].tolist()
+
+
+TWO_ROW_CATALOG = """,,,Cost per unit,
+product_id,product_name,price,Goods,Fees
+P1,Widget,20.00,8.00,2.00
+P2,Gadget,10.00,4.00,1.00
+"""
+
+
+def test_a_two_row_header_is_read_as_one_and_the_advice_names_the_goods_column(tmp_path):
+    assert [("catalog.csv", "unit_cost", "missing column 'unit_cost' (also accepted: cost, cogs, costofgoods, "
+             "landedcost, productcost); did you mean 'Cost per unit Goods'? If so, add to settings.toml: "
+             "[columns.catalog] unit_cost = \"Cost per unit Goods\"")
+            ] == _errors(minimal.write_account(tmp_path, {"catalog.csv": TWO_ROW_CATALOG}))
+
+
+def test_following_the_advice_reads_goods_as_the_unit_cost_and_fees_as_the_fees(tmp_path):
+    folder = minimal.write_account(tmp_path, {"catalog.csv": TWO_ROW_CATALOG, "settings.toml":
+                                              '[columns.catalog]\nunit_cost = "Cost per unit Goods"\n'})
+    inputs, _, problems = load(folder)
+    catalog = inputs.get("catalog")
+    assert ([8.0, 4.0], [2.0, 1.0]) == (catalog["unit_cost"].tolist(), catalog["fees_per_unit"].tolist())
+    assert any("rows 1 and 2 were read as one header" in p.message for p in problems)
+
+
+def test_a_title_line_above_the_header_is_not_joined_to_it(tmp_path):
+    sales = "Sales report,2026\n" + minimal.STORE_SALES
+    inputs, _, problems = load(minimal.write_account(tmp_path, {"store_sales.csv": sales}))
+    assert ["product_id", "units", "revenue"] == list(inputs.get("store_sales").attrs["columns"].values())
+    assert not any("read as one header" in p.message for p in problems)

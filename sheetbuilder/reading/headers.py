@@ -193,3 +193,39 @@ def currency_warnings(header: list[str], found: dict[str, int], table: c.TableRu
     return [Problem(file, row, named[0], f"the headers {listed} name a currency other than currency_symbol "
                                          f"'{symbol}'; amounts are read as written. Set currency_symbol in "
                                          "settings.toml if that is your currency", WARNING)]
+
+
+def _matched(header: list[str], table: c.TableRule, settings: Settings) -> dict[str, int]:
+    """The table's columns this header row would match, and where."""
+    return map_headers(header, table, settings, "", 0)[0]
+
+
+def two_row_header(upper: list[str], lower: list[str], table: c.TableRule, settings: Settings) -> list[str] | None:
+    """One header read from two rows, when the upper row groups the lower row's columns.
+
+    A group row holds labels above some columns only, the first of them not above the first column
+    (a title starts there): `Cost per unit` merged above `Goods` and `Fees`. Each column's header is
+    then its group label and its own (`Cost per unit Goods`), its upper cell alone where the lower
+    one is blank (a label merged down), or its lower cell alone where that matches a column by
+    itself and the joined text does not.
+
+    Returns:
+        The joined header, or None when the upper row is no group row or the joined header matches
+        fewer of the table's columns than the lower row alone.
+    """
+    n = max(len(upper), len(lower))
+    up = [str(x).strip() for x in upper] + [""] * (n - len(upper))
+    lo = [str(x).strip() for x in lower] + [""] * (n - len(lower))
+    labels = [j for j in range(n) if up[j]]
+    if not labels or labels[0] == 0 or not any(up[j] and lo[j] and j + 1 < n and not up[j + 1] and lo[j + 1]
+                                               for j in labels):
+        return None
+    out, group = [], ""
+    for j in range(n):
+        group = up[j] or (group if lo[j] else "")
+        out.append(up[j] if not lo[j] else (f"{group} {lo[j]}" if group else lo[j]))
+    joined, alone = _matched(out, table, settings), _matched(lo, table, settings)
+    for name, j in alone.items():
+        if name not in joined and j not in joined.values():
+            out[j] = lo[j]
+    return out if len(_matched(out, table, settings)) >= len(alone) else None

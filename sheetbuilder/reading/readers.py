@@ -21,7 +21,7 @@ from sheetbuilder.reading.guard import UnsafeWorkbook, check_csv, check_workbook
 from sheetbuilder.reading.agreement import (account_currency, currency_of, grouped_problems, orders_above_clicks,
                                             same_product_ids, view_through_campaigns)
 from sheetbuilder.reading.evidence import Decision, both_readings, currency_mark, decide_separators, separator_form
-from sheetbuilder.reading.headers import MAX_TITLE_ROWS, currency_warnings, find_header, map_headers
+from sheetbuilder.reading.headers import MAX_TITLE_ROWS, currency_warnings, find_header, map_headers, two_row_header
 from sheetbuilder.reading.numbers import MAX_MAGNITUDE, NotANumber, parse_count, parse_number
 from sheetbuilder.reading.periods import (DATE_RULES, DATED_TABLES, Period, combine_repeats, declared_period,
                                           overall_period, parse_dates, repeated_rows, table_period)
@@ -291,6 +291,8 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
     if start is None:
         return None, [Problem(file, None, None, "the file is empty; expected a header row and data rows")]
     header = rows[start]
+    if start > 0 and (joined := two_row_header(rows[start - 1], header, with_dates(table), settings)):
+        header = joined
     if path.suffix.lower() in (".xlsx", ".xlsm") and (empty := formulas_without_values(path, sheet)):
         return None, [Problem(file, None, None, f"the cells {', '.join(empty[:5])}{', ...' if len(empty) > 5 else ''} of "
                                                 f"the sheet '{sheet}' hold formulas with no stored value ({len(empty)} "
@@ -299,6 +301,10 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
                                                 "save it again, or type the values")]
     found, problems = map_headers(header, with_dates(table), settings, file, start + 1)
     problems = _layout_notes(file, sheets, sheet, rows, start) + problems
+    if header is not rows[start]:
+        problems.append(Problem(file, start + 1, None, f"rows {start} and {start + 1} were read as one header (the "
+                                                       "upper row's labels group the columns below them): "
+                                                       + ", ".join(f"'{h}'" for h in header if h), WARNING))
     dates = {n: found.pop(n) for n in [r.name for r in DATE_RULES] if n in found}
     if any(p.severity == ERROR for p in problems):
         return None, problems
