@@ -74,3 +74,79 @@ def test_a_formula_cost_saved_without_its_value_is_refused_naming_the_cell(tmp_p
              "the file was saved by a program that does not calculate, so their values are unknown. Open it in a "
              "spreadsheet program and save it again, or type the values")] == [
         (p.file, p.message) for p in caught.value.problems if p.severity == "error"]
+
+
+def _catalog_book(folder, sheets: dict[str, list[list]]):
+    import openpyxl
+    wb = openpyxl.Workbook()
+    wb.remove(wb.active)
+    for name, rows in sheets.items():
+        ws = wb.create_sheet(name)
+        for row in rows:
+            ws.append(row)
+    wb.save(folder / "catalog.xlsx")
+
+
+CATALOG_ROWS = [["product_id", "product_name", "price", "unit_cost", "fees_per_unit"],
+                ["P1", "Widget", 20, 8, 2], ["P2", "Gadget", 10, 4, 1]]
+OLD_ROWS = [CATALOG_ROWS[0], ["P1", "Widget", 20, 5, 2], ["P2", "Gadget", 10, 3, 1]]
+
+
+@pytest.mark.parametrize("names", [("Archive", "Products"), ("Costs 2025", "Costs 2026")])
+def test_of_two_sheets_with_the_catalogs_columns_the_current_one_is_read_by_its_name(tmp_path, names):
+    folder = minimal.write_account(tmp_path, {"catalog.csv": None})
+    _catalog_book(folder, {names[0]: OLD_ROWS, names[1]: CATALOG_ROWS})
+    inputs, _, problems = load(folder)
+    assert [8.0, 4.0] == inputs.get("catalog")["unit_cost"].tolist()
+    assert any(f"read the sheet '{names[1]}'" in p.message for p in problems)
+
+
+def test_two_sheets_nothing_tells_apart_are_refused(tmp_path):
+    folder = minimal.write_account(tmp_path, {"catalog.csv": None})
+    _catalog_book(folder, {"Sheet A": OLD_ROWS, "Sheet B": CATALOG_ROWS})
+    from sheetbuilder.errors import InputProblems
+    with pytest.raises(InputProblems) as caught:
+        load(folder)
+    assert [("catalog.xlsx", "the sheets 'Sheet A', 'Sheet B' could each hold this table (the same columns) and "
+             "nothing in their names says which is current; keep one sheet in the file, or rename the other as an "
+             "archive")] == [(p.file, p.message) for p in caught.value.problems if p.severity == "error"]
+
+
+def test_a_hidden_old_cost_column_yields_to_the_visible_landed_cost(tmp_path):
+    import openpyxl
+    folder = minimal.write_account(tmp_path, {"catalog.csv": None})
+    _catalog_book(folder, {"Products": [["product_id", "product_name", "price", "Unit Cost", "Landed Cost",
+                                         "fees_per_unit"], ["P1", "Widget", 20, 5, 8, 2], ["P2", "Gadget", 10, 3, 4, 1]]})
+    wb = openpyxl.load_workbook(folder / "catalog.xlsx")
+    wb["Products"].column_dimensions["D"].hidden = True
+    wb.save(folder / "catalog.xlsx")
+    inputs, _, problems = load(folder)
+    assert [8.0, 4.0] == inputs.get("catalog")["unit_cost"].tolist()
+    assert ["skipped the hidden column(s) 'Unit Cost': visible columns hold this table's fields"] == [
+        p.message for p in problems if "hidden" in p.message]
+
+
+def test_a_hidden_old_row_of_a_product_yields_to_its_visible_row(tmp_path):
+    import openpyxl
+    folder = minimal.write_account(tmp_path, {"catalog.csv": None})
+    _catalog_book(folder, {"Products": [CATALOG_ROWS[0], ["P1", "Widget", 20, 5, 2], *CATALOG_ROWS[1:]]})
+    wb = openpyxl.load_workbook(folder / "catalog.xlsx")
+    wb["Products"].row_dimensions[2].hidden = True
+    wb.save(folder / "catalog.xlsx")
+    inputs, _, problems = load(folder)
+    assert [8.0, 4.0] == inputs.get("catalog")["unit_cost"].tolist()
+    assert ["skipped the hidden row(s) 2: a visible row holds the same product"] == [
+        p.message for p in problems if "hidden" in p.message]
+
+
+def test_a_hidden_column_no_visible_one_replaces_is_read_and_named(tmp_path):
+    import openpyxl
+    folder = minimal.write_account(tmp_path, {"catalog.csv": None})
+    _catalog_book(folder, {"Products": CATALOG_ROWS})
+    wb = openpyxl.load_workbook(folder / "catalog.xlsx")
+    wb["Products"].column_dimensions["D"].hidden = True
+    wb.save(folder / "catalog.xlsx")
+    inputs, _, problems = load(folder)
+    assert [8.0, 4.0] == inputs.get("catalog")["unit_cost"].tolist()
+    assert [("unit_cost", "this column is hidden in the sheet; read as 'unit_cost' since no visible column holds it")
+            ] == [(p.column, p.message) for p in problems if "hidden" in p.message]

@@ -8,6 +8,7 @@ from __future__ import annotations
 import csv
 import hashlib
 import math
+import re
 from dataclasses import dataclass, field
 from itertools import islice
 from pathlib import Path
@@ -26,7 +27,7 @@ from sheetbuilder.reading.numbers import MAX_MAGNITUDE, NotANumber, parse_count,
 from sheetbuilder.reading.periods import (DATE_RULES, DATED_TABLES, Period, combine_repeats, declared_period,
                                           overall_period, parse_dates, repeated_rows, table_period)
 from sheetbuilder.reading.settings import Settings
-from sheetbuilder.reading.stored_values import formulas_without_values
+from sheetbuilder.reading.stored_values import formulas_without_values, hidden_parts
 from sheetbuilder.reading.totals import RunningSums, totals_label
 
 SPREADSHEETS = (".xlsx", ".xlsm", ".xls", ".xlsb", ".ods")
@@ -143,16 +144,42 @@ def read_sheets(path: Path, found: dict | None = None) -> tuple[list[tuple[str, 
     return [("", read_delimited(text, delimiter))], decoded.encoding
 
 
+_SET_ASIDE = re.compile(r"archive|old|backup|copy|previous|template|draft|example", re.I)
+_YEAR = re.compile(r"(?<!\d)(?:19|20)\d{2}(?!\d)")
+
+
 def pick_sheet(sheets: list[tuple[str, list[list[str]]]], table: c.TableRule, settings: Settings
-               ) -> tuple[str, list[list[str]], int | None]:
-    """The sheet that holds table (the one whose header matches most required columns; the first on a
-    tie) and its header row's 0-based index (None when every sheet is empty)."""
-    best = (sheets[0][0], sheets[0][1], None, -1) if sheets else ("", [], None, -1)
+               ) -> tuple[str, list[list[str]], int | None, str | None]:
+    """The sheet that holds table: the one whose header matches most required columns.
+
+    When several match equally, the evidence in their names decides: a sheet named as set aside
+    (archive, old, backup, copy, template...) yields to the others, then the latest year named wins.
+
+    Returns:
+        (sheet name, rows, header row's 0-based index or None when every sheet is empty, and None
+        or the message refusing a choice the evidence cannot make).
+    """
+    scored = []
     for name, rows in sheets:
         start, score = find_header(rows, table, settings)
-        if start is not None and score > best[3]:
-            best = (name, rows, start, score)
-    return best[0], best[1], best[2]
+        if start is not None:
+            scored.append((score, name, rows, start))
+    if not scored:
+        return (sheets[0][0], sheets[0][1], None, None) if sheets else ("", [], None, None)
+    best = max(s for s, *_ in scored)
+    tied = [t for t in scored if t[0] == best]
+    if len(tied) > 1:
+        kept = [t for t in tied if not _SET_ASIDE.search(t[1])] or tied
+        years = [max(map(int, _YEAR.findall(t[1])), default=0) for t in kept]
+        if len(kept) > 1 and max(years) and years.count(max(years)) == 1:
+            kept = [kept[years.index(max(years))]]
+        if len(kept) > 1:
+            names = ", ".join(f"'{t[1]}'" for t in kept)
+            return kept[0][1], kept[0][2], kept[0][3], (f"the sheets {names} could each hold this table (the same "
+                                                         "columns) and nothing in their names says which is current; "
+                                                         "keep one sheet in the file, or rename the other as an archive")
+        tied = kept
+    return tied[0][1], tied[0][2], tied[0][3], None
 
 
 _SIGNED = {"margin"}  # a product sold below its costs has a negative margin before ads
@@ -258,6 +285,51 @@ def _decide_numbers(body: list[list[str]], found: dict[str, int], table: c.Table
     return decide_separators(texts, delimiter, setting)
 
 
+def _map_visible_first(header: list[str], hidden: set[int], table: c.TableRule, settings: Settings, file: str,
+                       row: int) -> tuple[dict[str, int], list[Problem]]:
+    """map_headers on the visible columns; hidden ones only where no visible column holds a required field,
+    each named in a note."""
+    matched = [j for j in hidden if j < len(header) and str(header[j]).strip()]
+    if not matched:
+        return map_headers(header, table, settings, file, row)
+    visible = [h if j not in hidden else "" for j, h in enumerate(header)]
+    found, problems = map_headers(visible, table, settings, file, row)
+    everything, all_problems = map_headers(header, table, settings, file, row)
+    used = {n: j for n, j in everything.items() if j in hidden and n not in found}
+    errors = sum(p.severity == ERROR for p in problems)
+    if errors and sum(p.severity == ERROR for p in all_problems) < errors:
+        found, problems = everything, all_problems
+        return found, problems + [Problem(file, row, header[j], f"this column is hidden in the sheet; read as "
+                                                                 f"'{n}' since no visible column holds it", WARNING)
+                                  for n, j in used.items() if found.get(n) == j]
+    skipped = ", ".join(f"'{header[j]}'" for j in sorted(matched))
+    return found, problems + ([Problem(file, row, None, f"skipped the hidden column(s) {skipped}: visible columns "
+                                                        "hold this table's fields", WARNING)] if used or any(
+        j in everything.values() for j in matched) else [])
+
+
+def _skip_hidden_rows(records: list[dict], raw: list[tuple], hidden: set[int], table: c.TableRule, file: str,
+                      problems: list[Problem]) -> tuple[list[dict], list[tuple]]:
+    """Hidden catalog rows whose product a visible row also holds are skipped (the visible one is current);
+    other hidden rows are read. Either way a note names them."""
+    rows = [r["_row"] for r in records if r["_row"] in hidden]
+    if not rows:
+        return records, raw
+    visible = {r.get("product_id") for r in records if r["_row"] not in hidden}
+    drop = {r["_row"] for r in records if r["_row"] in hidden and table.name == "catalog"
+            and r.get("product_id") in visible}
+    kept = [k for k, r in enumerate(records) if r["_row"] not in drop]
+    read = [r for r in rows if r not in drop]
+    if drop:
+        problems.append(Problem(file, min(drop), None, f"skipped the hidden row(s) {', '.join(map(str, sorted(drop)))}: "
+                                                       "a visible row holds the same product", WARNING))
+    if read:
+        problems.append(Problem(file, read[0], None, f"the row(s) {', '.join(map(str, read[:10]))}"
+                                                     f"{', ...' if len(read) > 10 else ''} are hidden in the sheet; "
+                                                     "read as data (delete them if they are not)", WARNING))
+    return [records[k] for k in kept], [raw[k] for k in kept]
+
+
 def _layout_notes(file: str, sheets: list, sheet: str, rows: list[list[str]], start: int) -> list[Problem]:
     """Notes saying which sheet was read and which row held the header, when not the obvious ones."""
     notes = []
@@ -287,9 +359,11 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
         return None, [Problem(file, None, None, "not enough memory to read it; export a shorter period")]
     except Exception as exc:  # calamine raises its own types for broken workbooks
         return None, [Problem(file, None, None, f"not a readable spreadsheet: {exc}")]
-    sheet, rows, start = pick_sheet(sheets, with_dates(table), settings)
+    sheet, rows, start, undecided = pick_sheet(sheets, with_dates(table), settings)
     if start is None:
         return None, [Problem(file, None, None, "the file is empty; expected a header row and data rows")]
+    if undecided:
+        return None, [Problem(file, None, None, undecided)]
     header = rows[start]
     if start > 0 and (joined := two_row_header(rows[start - 1], header, with_dates(table), settings)):
         header = joined
@@ -299,7 +373,9 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
                                                 "cell(s)): the file was saved by a program that does not calculate, "
                                                 "so their values are unknown. Open it in a spreadsheet program and "
                                                 "save it again, or type the values")]
-    found, problems = map_headers(header, with_dates(table), settings, file, start + 1)
+    hidden_columns, hidden_rows = (hidden_parts(path, sheet) if path.suffix.lower() in (".xlsx", ".xlsm")
+                                   else (set(), set()))
+    found, problems = _map_visible_first(header, hidden_columns, with_dates(table), settings, file, start + 1)
     problems = _layout_notes(file, sheets, sheet, rows, start) + problems
     if header is not rows[start]:
         problems.append(Problem(file, start + 1, None, f"rows {start} and {start + 1} were read as one header (the "
@@ -358,6 +434,8 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
         records.append(record)
         raw.append(tuple(x.strip() for x in row))
     problems.extend(grouped_problems(bad_cells))
+    if hidden_rows:
+        records, raw = _skip_hidden_rows(records, raw, hidden_rows, table, file, problems)
     currency, mixed = currency_of(file, marks, header, found, table)
     problems.extend(mixed)
     if skipped:

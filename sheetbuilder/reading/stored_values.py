@@ -1,7 +1,11 @@
-"""Formula cells saved without their value: an .xlsx written by a program that does not calculate
-(a script, some converters) stores the formula but no result, and a reader sees a blank cell.
-Such a file is refused naming the cells, never read as blanks or zeros (ECMA-376 Part 1, 18.3.1.4:
-a cell's `v` element holds its value, `f` its formula)."""
+"""What an .xlsx sheet's XML says that its cell values do not: formula cells saved without their value,
+and hidden rows and columns.
+
+A program that does not calculate (a script, some converters) stores a formula but no result, and a
+reader sees a blank cell; such a file is refused naming the cells, never read as blanks or zeros
+(ECMA-376 Part 1, 18.3.1.4: a cell's `v` element holds its value, `f` its formula). Hidden columns
+and rows (18.3.1.13 `col`, 18.3.1.73 `row`, attribute hidden) are told to the reader, which prefers
+visible ones."""
 from __future__ import annotations
 
 import re
@@ -45,3 +49,29 @@ def formulas_without_values(path: Path, sheet: str) -> list[str]:
             ref = _REF.search(attrs)
             found.append(ref.group(1).decode() if ref else "?")
     return found
+
+
+_COL = re.compile(rb"<col\b([^>]*)>")
+_ROW = re.compile(rb"<row\b([^>]*)>")
+_HIDDEN = re.compile(rb'\bhidden="(?:1|true)"')
+
+
+def _attr(attrs: bytes, name: bytes) -> int:
+    m = re.search(rb"\b" + name + rb'="(\d+)"', attrs)
+    return int(m.group(1)) if m else 0
+
+
+def hidden_parts(path: Path, sheet: str) -> tuple[set[int], set[int]]:
+    """The hidden columns (0-based) and hidden rows (1-based, as the sheet numbers them) of sheet."""
+    try:
+        with zipfile.ZipFile(path) as archive:
+            part = _sheet_part(archive, sheet)
+            data = archive.read(part) if part else b""
+    except (KeyError, zipfile.BadZipFile, ElementTree.ParseError, OSError):
+        return set(), set()
+    if b"hidden" not in data:
+        return set(), set()
+    columns = {j - 1 for attrs in _COL.findall(data) if _HIDDEN.search(attrs)
+               for j in range(_attr(attrs, b"min"), _attr(attrs, b"max") + 1)}
+    rows = {_attr(attrs, b"r") for attrs in _ROW.findall(data) if _HIDDEN.search(attrs)}
+    return columns, rows
