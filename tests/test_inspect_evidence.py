@@ -25,3 +25,13 @@ def test_inspect_shows_period_currency_numbers_and_ids_per_file(tmp_path):
     assert "  numbers: decimal point (the file's values write a decimal point)" in lines[sales_at:ads_at]
     assert "  currency: no currency marked" in lines[sales_at:ads_at]
     assert "currency found: $ (a sign several currencies write)" in lines
+
+
+def test_inspect_names_a_joined_two_row_header(tmp_path):
+    catalog = ",,,Cost per unit,\nproduct_id,product_name,price,Goods,Fees\nP1,Widget,20.00,8.00,2.00\n"
+    folder = minimal.write_account(tmp_path, {"catalog.csv": catalog, "settings.toml":
+                                              '[columns.catalog]\nunit_cost = "Cost per unit Goods"\n'})
+    lines = report_lines(inspect_exports(folder))
+    assert ("  layout: rows 1 and 2 were read as one header (the upper row's labels group the columns below them): "
+            "'product_id', 'product_name', 'price', 'Cost per unit Goods', 'Fees'") in lines
+    assert "  unit_cost <- Cost per unit Goods" in lines

@@ -34,6 +34,7 @@ class FileReport:
     currency: str = ""
     numbers: str = ""
     ids: str = ""
+    layout: list[str] = field(default_factory=list)  # header rows joined, hidden rows and columns
 
 
 @dataclass
@@ -79,7 +80,8 @@ def inspect_exports(folder: Path) -> Inspection:
                                 attrs.get("encoding", ""), dict(attrs.get("columns", {})),
                                 attrs.get("rows_read", len(frame)), attrs.get("summed", 0), attrs.get("totals", 0),
                                 refused, attrs.get("period"), attrs.get("period_source", ""),
-                                _currency(attrs.get("currency")), attrs.get("numbers", ""), attrs.get("id_note", "")))
+                                _currency(attrs.get("currency")), attrs.get("numbers", ""), attrs.get("id_note", ""),
+                                list(attrs.get("layout", []))))
     return Inspection(files, inputs.period, problems, inputs.currency)
 
 
@@ -111,6 +113,7 @@ def report_lines(result: Inspection) -> list[str]:
             lines.append(f"  numbers: {f.numbers}")
         if f.ids:
             lines.append(f"  product IDs: {f.ids}")
+        lines.extend(f"  layout: {note}" for note in f.layout)
     lines.append(f"currency found: {result.currency or 'none marked'}")
     lines.append(f"period found: {result.period}" if result.period else "period found: none (the exports carry no "
                                                                            "dates; period_days and period_end apply)")

@@ -453,7 +453,9 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
     header_of = {rule.name: (header[found[rule.name]] if rule.name in found else rule.name) for rule in table.columns}
     frame.attrs["headers"] = header_of
     frame.attrs["file"] = file
-    frame.attrs.update(currency=currency, numbers=numbers.why, encoding=encoding, header_row=start + 1, sheet=sheet, totals=len(skipped), rows_read=len(records),
+    frame.attrs.update(layout=[p.message for p in problems if p.severity == WARNING and
+                               ("hidden" in p.message or "read as one header" in p.message)],
+                       currency=currency, numbers=numbers.why, encoding=encoding, header_row=start + 1, sheet=sheet, totals=len(skipped), rows_read=len(records),
                        columns={n: header[i] for n, i in {**found, **dates}.items()})
     if dates:
         problems.extend(_read_dates(frame, date_texts, {n: header[i] for n, i in dates.items()}, settings.date_order))
