@@ -393,6 +393,8 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
                                                 "hold this table. Export a shorter period")]
     numbers = _decide_numbers(rows[start + 1:], found, table, settings, meta.get("delimiter", ""))
     marks: dict[str, dict[str, int]] = {}  # money column -> currency mark -> first row
+    plan = [(rule, found.get(rule.name), numbers.comma.get(rule.name), rule.name in numbers.undecided,
+             rule.kind in (c.MONEY, c.AMOUNT)) for rule in table.columns]
     records: list[dict] = []
     date_texts: dict[str, list[str]] = {n: [] for n in dates}
     raw: list[tuple] = []  # each read row's cells as written, for finding rows pasted twice
@@ -403,13 +405,11 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
             continue
         record: dict[str, object] = {"_row": i + 1}
         cell_problems = []
-        for rule in table.columns:
-            col = found.get(rule.name)
+        for rule, col, comma, strict, money in plan:
             text = row[col] if col is not None and col < len(row) else ""
-            value, message = _parse_cell(rule, text, settings, numbers.comma.get(rule.name),
-                                         rule.name in numbers.undecided)
-            if (rule.kind in (c.MONEY, c.AMOUNT) and message is None and value == value and text
-                    and not (text[:1].isdigit() and text[-1:].isdigit())):
+            value, message = _parse_cell(rule, text, settings, comma, strict)
+            if (money and message is None and text and not (text[:1].isdigit() and text[-1:].isdigit())
+                    and value == value):
                 mark = currency_mark(text)
                 if mark:
                     marks.setdefault(rule.name, {}).setdefault(mark, i + 1)
@@ -432,7 +432,7 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
         for name, col in dates.items():
             date_texts[name].append(row[col] if col < len(row) else "")
         records.append(record)
-        raw.append(tuple(x.strip() for x in row))
+        raw.append(tuple(row))
     problems.extend(grouped_problems(bad_cells))
     if hidden_rows:
         records, raw = _skip_hidden_rows(records, raw, hidden_rows, table, file, problems)
