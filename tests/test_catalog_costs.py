@@ -112,41 +112,35 @@ def test_two_sheets_nothing_tells_apart_are_refused(tmp_path):
              "archive")] == [(p.file, p.message) for p in caught.value.problems if p.severity == "error"]
 
 
-def test_a_hidden_old_cost_column_yields_to_the_visible_landed_cost(tmp_path):
+def _hidden(tmp_path, rows: list[list], column: str | None = None, row: int | None = None):
+    """Load an account whose catalog.xlsx holds rows on one sheet with one column or row hidden:
+    (catalog unit costs, the notes that mention hidden)."""
     import openpyxl
     folder = minimal.write_account(tmp_path, {"catalog.csv": None})
-    _catalog_book(folder, {"Products": [["product_id", "product_name", "price", "Unit Cost", "Landed Cost",
-                                         "fees_per_unit"], ["P1", "Widget", 20, 5, 8, 2], ["P2", "Gadget", 10, 3, 4, 1]]})
+    _catalog_book(folder, {"Products": rows})
     wb = openpyxl.load_workbook(folder / "catalog.xlsx")
-    wb["Products"].column_dimensions["D"].hidden = True
+    if column:
+        wb["Products"].column_dimensions[column].hidden = True
+    if row:
+        wb["Products"].row_dimensions[row].hidden = True
     wb.save(folder / "catalog.xlsx")
     inputs, _, problems = load(folder)
-    assert [8.0, 4.0] == inputs.get("catalog")["unit_cost"].tolist()
-    assert ["skipped the hidden column(s) 'Unit Cost': visible columns hold this table's fields"] == [
-        p.message for p in problems if "hidden" in p.message]
+    return inputs.get("catalog")["unit_cost"].tolist(), [(p.column, p.message) for p in problems if "hidden" in p.message]
+
+
+def test_a_hidden_old_cost_column_yields_to_the_visible_landed_cost(tmp_path):
+    rows = [["product_id", "product_name", "price", "Unit Cost", "Landed Cost", "fees_per_unit"],
+            ["P1", "Widget", 20, 5, 8, 2], ["P2", "Gadget", 10, 3, 4, 1]]
+    assert ([8.0, 4.0], [(None, "skipped the hidden column(s) 'Unit Cost': visible columns hold this table's fields")]
+            ) == _hidden(tmp_path, rows, column="D")
 
 
 def test_a_hidden_old_row_of_a_product_yields_to_its_visible_row(tmp_path):
-    import openpyxl
-    folder = minimal.write_account(tmp_path, {"catalog.csv": None})
-    _catalog_book(folder, {"Products": [CATALOG_ROWS[0], ["P1", "Widget", 20, 5, 2], *CATALOG_ROWS[1:]]})
-    wb = openpyxl.load_workbook(folder / "catalog.xlsx")
-    wb["Products"].row_dimensions[2].hidden = True
-    wb.save(folder / "catalog.xlsx")
-    inputs, _, problems = load(folder)
-    assert [8.0, 4.0] == inputs.get("catalog")["unit_cost"].tolist()
-    assert ["skipped the hidden row(s) 2: a visible row holds the same product"] == [
-        p.message for p in problems if "hidden" in p.message]
+    rows = [CATALOG_ROWS[0], ["P1", "Widget", 20, 5, 2], *CATALOG_ROWS[1:]]
+    assert ([8.0, 4.0], [(None, "skipped the hidden row(s) 2: a visible row holds the same product")]
+            ) == _hidden(tmp_path, rows, row=2)
 
 
 def test_a_hidden_column_no_visible_one_replaces_is_read_and_named(tmp_path):
-    import openpyxl
-    folder = minimal.write_account(tmp_path, {"catalog.csv": None})
-    _catalog_book(folder, {"Products": CATALOG_ROWS})
-    wb = openpyxl.load_workbook(folder / "catalog.xlsx")
-    wb["Products"].column_dimensions["D"].hidden = True
-    wb.save(folder / "catalog.xlsx")
-    inputs, _, problems = load(folder)
-    assert [8.0, 4.0] == inputs.get("catalog")["unit_cost"].tolist()
-    assert [("unit_cost", "this column is hidden in the sheet; read as 'unit_cost' since no visible column holds it")
-            ] == [(p.column, p.message) for p in problems if "hidden" in p.message]
+    assert ([8.0, 4.0], [("unit_cost", "this column is hidden in the sheet; read as 'unit_cost' since no visible "
+                                       "column holds it")]) == _hidden(tmp_path, CATALOG_ROWS, column="D")
