@@ -39,8 +39,11 @@ def test_decimal_comma_in_settings_settles_the_lone_group(tmp_path, setting, exp
                                               "ad_products.csv": minimal.AD_PRODUCTS.replace(".00", ""),
                                               "store_sales.csv": minimal.STORE_SALES.replace(".00", ""),
                                               "settings.toml": f"decimal_comma = {setting}\n"})
-    inputs, _, _ = load(folder)
+    inputs, _, problems = load(folder)
     assert expected == pytest.approx(inputs.get("catalog")["unit_cost"].iloc[0])
+    assert [("catalog.csv", 2, "unit_cost", f"read 1 value(s) such as '3,911' as {expected:g} because settings.toml "
+             f"has decimal_comma = {setting}; nothing in the file shows its decimal separator, so check them (rows 2)")
+            ] == [(p.file, p.row, p.column, p.message) for p in problems if "decimal_comma =" in p.message]
 
 
 def test_a_point_decimal_in_the_column_decides_a_comma_groups_thousands(tmp_path):

@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import re
 from collections.abc import Iterable
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from itertools import islice
 
 POINT, COMMA = "point", "comma"
@@ -63,6 +63,7 @@ class Decision:
     comma: dict[str, bool]
     undecided: set[str]  # columns whose ambiguous values are refused
     why: str
+    by_setting: set[str] = field(default_factory=set)  # columns decided by decimal_comma alone: their 3,911 are named
 
 
 def decide_separators(columns: dict[str, list[str]], delimiter: str, setting: bool | None) -> Decision:
@@ -97,7 +98,7 @@ def decide_separators(columns: dict[str, list[str]], delimiter: str, setting: bo
                         "numbers stored as numbers (nothing to decide)" if columns else "")
     else:
         fallback, why = False, "no value shows a decimal separator"
-    comma, undecided = {}, set()
+    comma, undecided, by_setting = {}, set(), set()
     for name, kinds in seen.items():
         if len(kinds) == 1:
             comma[name] = next(iter(kinds)) == COMMA
@@ -105,11 +106,13 @@ def decide_separators(columns: dict[str, list[str]], delimiter: str, setting: bo
             comma[name] = fallback
             if not file_kinds and setting is None and delimiter != ";":
                 undecided.add(name)
+            elif not file_kinds and setting is not None:
+                by_setting.add(name)
     form = "decimal comma" if fallback else "decimal point"
     differ = sorted(n for n in comma if comma[n] != fallback)
     why = f"{form} ({why})" + (f"; {', '.join(differ)} by their own values" if differ else "") + (
         "; a value such as 3,911 is refused" if undecided else "")
-    return Decision(comma, undecided, why)
+    return Decision(comma, undecided, why, by_setting)
 
 
 def both_readings(text: str) -> str:

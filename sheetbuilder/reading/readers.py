@@ -395,6 +395,7 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
     marks: dict[str, dict[str, int]] = {}  # money column -> currency mark -> first row
     plan = [(rule, found.get(rule.name), numbers.comma.get(rule.name), rule.name in numbers.undecided,
              rule.kind in (c.MONEY, c.AMOUNT)) for rule in table.columns]
+    settled: list[tuple[int, str, str, float]] = []  # lone-group values read by decimal_comma alone
     records: list[dict] = []
     date_texts: dict[str, list[str]] = {n: [] for n in dates}
     raw: list[tuple] = []  # each read row's cells as written, for finding rows pasted twice
@@ -413,6 +414,9 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
                 mark = currency_mark(text)
                 if mark:
                     marks.setdefault(rule.name, {}).setdefault(mark, i + 1)
+            if (rule.name in numbers.by_setting and message is None and rule.kind != c.COUNT
+                    and separator_form(text) == "ambiguous"):
+                settled.append((i + 1, header[col], text.strip(), value))
             if message:
                 cell_problems.append(Problem(file, i + 1, header[col] if col is not None else rule.name, message))
             record[rule.name] = value
@@ -434,6 +438,14 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
         records.append(record)
         raw.append(tuple(row))
     problems.extend(grouped_problems(bad_cells))
+    if settled:
+        row, column, text, value = settled[0]
+        problems.append(Problem(file, row, column, f"read {len(settled)} value(s) such as '{text}' as {value:g} "
+                                                   f"because settings.toml has decimal_comma = "
+                                                   f"{'true' if settings.decimal_comma else 'false'}; nothing in the "
+                                                   "file shows its decimal separator, so check them (rows "
+                                                   + ", ".join(str(r) for r, *_ in settled[:5])
+                                                   + (", ..." if len(settled) > 5 else "") + ")", WARNING))
     if hidden_rows:
         records, raw = _skip_hidden_rows(records, raw, hidden_rows, table, file, problems)
     currency, mixed = currency_of(file, marks, header, found, table)
