@@ -132,3 +132,12 @@ def test_a_day_above_12_anywhere_in_the_column_decides_the_order(tmp_path):
     days = [f"0{i}/11/2026" for i in range(1, 8)] + ["13/11/2026"]
     inputs, _, _ = load(minimal.write_account(tmp_path, {"store_sales.csv": _daily_sales(days)}))
     assert Period(dt.date(2026, 11, 1), dt.date(2026, 11, 13)) == inputs.period
+
+
+@pytest.mark.parametrize("name", ["store_sales 2026-11-24 to 2026-11-30.csv", "store_sales_20261124_20261130.csv"])
+def test_a_file_named_for_its_table_and_period_is_found_and_dated(tmp_path, name):
+    folder = minimal.write_account(tmp_path, {"store_sales.csv": None, name: minimal.STORE_SALES,
+                                              "ad_products.csv": ADS_WEEK})
+    inputs, _, _ = load(folder)
+    assert (name, Period(dt.date(2026, 11, 24), dt.date(2026, 11, 30))) == (inputs.sources["store_sales"].name,
+                                                                           inputs.period)

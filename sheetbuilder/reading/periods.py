@@ -156,6 +156,13 @@ def _range_in(texts: list[str], order: str) -> tuple[Period | None, str | None]:
     return Period(found[0], found[1]), None
 
 
+def stem_without_dates(stem: str) -> str:
+    """A file's stem without the ISO 8601 dates of a period it names (sales 2026-11-01 to 2026-11-30 -> sales)."""
+    if len(_IN_NAME.findall(stem)) != 2:
+        return stem
+    return re.sub(r"(?i)\b(?:to|from|bis|au)\b", " ", _IN_NAME.sub(" ", stem))
+
+
 def declared_period(title: list[list[str]], stem: str, order: str = "auto"
                     ) -> tuple[Period | None, str, str | None]:
     """The period an export states above its header (a title row holding two dates) or in its file name.

@@ -25,7 +25,7 @@ from sheetbuilder.reading.evidence import Decision, both_readings, currency_mark
 from sheetbuilder.reading.headers import MAX_TITLE_ROWS, currency_warnings, find_header, map_headers, two_row_header
 from sheetbuilder.reading.numbers import MAX_MAGNITUDE, NotANumber, parse_count, parse_number
 from sheetbuilder.reading.periods import (DATE_RULES, DATED_TABLES, Period, combine_repeats, declared_period,
-                                          overall_period, parse_dates, repeated_rows, table_period)
+                                          overall_period, stem_without_dates, parse_dates, repeated_rows, table_period)
 from sheetbuilder.reading.settings import Settings
 from sheetbuilder.reading.stored_values import formulas_without_values, hidden_parts
 from sheetbuilder.reading.totals import RunningSums, totals_label
@@ -70,7 +70,8 @@ def find_file(folder: Path, table: c.TableRule, settings: Settings) -> tuple[Pat
         return path, None
     want = c.file_key(table.name)
     found = sorted(p for p in folder.iterdir()
-                   if p.is_file() and p.suffix.lower() in SUFFIXES and c.file_key(p.stem) == want)
+                   if p.is_file() and p.suffix.lower() in SUFFIXES
+                   and want in (c.file_key(p.stem), c.file_key(stem_without_dates(p.stem))))
     if len(found) > 1:
         names = ", ".join(p.name for p in found)
         return None, Problem(folder.name, None, None,
