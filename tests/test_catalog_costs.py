@@ -144,3 +144,17 @@ def test_a_hidden_old_row_of_a_product_yields_to_its_visible_row(tmp_path):
 def test_a_hidden_column_no_visible_one_replaces_is_read_and_named(tmp_path):
     assert ([8.0, 4.0], [("unit_cost", "this column is hidden in the sheet; read as 'unit_cost' since no visible "
                                        "column holds it")]) == _hidden(tmp_path, CATALOG_ROWS, column="D")
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("engine", ["libreoffice", "gnumeric"])
+def test_libreoffice_and_gnumeric_keep_the_margin_blank_and_fill_it_from_a_typed_cost(built, tmp_path, engine):
+    from conftest import require_gnumeric, require_libreoffice
+    from sheetbuilder.recalc import gnumeric_convert, libreoffice_convert
+    (require_libreoffice if engine == "libreoffice" else require_gnumeric)()
+    edited = edit_workbook(built.output, tmp_path / "edited.xlsx", [("in_catalog", "D2", 8.0)])
+    convert = libreoffice_convert if engine == "libreoffice" else gnumeric_convert
+    [out] = convert([edited], tmp_path / "out")
+    rows, _, _ = profit_table(out)
+    assert 0.5 == pytest.approx(rows["P1"]["Margin before ads"])  # (20 - 8 - 2) / 20
+    assert rows["P2"]["Margin before ads"] in (None, "")  # blank: Gnumeric stores an empty text, LibreOffice nothing
