@@ -143,7 +143,8 @@ def make_account(folder: Path, n: int, seed: int = 20261202, terms_ratio: float 
     everything = pd.concat([targets, extra], ignore_index=True)
     everything = everything.drop_duplicates(["campaign", "ad_group", "target", "match_type"], keep="first")
     everything.to_csv(folder / "targets.csv", index=False)
-    terms.to_csv(folder / "search_terms.csv", index=False)
+    # a search term row equal to another in every column is a copy, which the readers refuse
+    terms.drop_duplicates(keep="first").to_csv(folder / "search_terms.csv", index=False)
     negatives.to_csv(folder / "negatives.csv", index=False)
     (folder / "settings.toml").write_text('currency_symbol = "$"\nperiod_days = 30\nperiod_end = 2026-11-29\n')
 

@@ -238,8 +238,10 @@ def _guide(a: Assembly) -> None:
     sources = {k: v.name + (f" ({a.inputs.encodings[k]})" if k in a.inputs.encodings else "")
                for k, v in a.inputs.sources.items()}
     sections = [a.sections[k] for k in SECTION_ORDER if k in a.sections]
+    exports = [("Currency in the exports", a.inputs.currency or "no currency marked; amounts read as written"),
+               ("Period in the exports", str(a.inputs.period) if a.inputs.period else "no dates; period_days applies")]
     a.place("guide", plan_guide(a.settings, a.built_on, sections, a.warnings, a.inputs.checksums, sources, figures,
-                                first_look(a.tables)))
+                                first_look(a.tables), exports))
 
 
 def _unmatched(a: Assembly) -> None:

@@ -53,7 +53,7 @@ def profit_oracle(tables, settings, catalog_edits=None, target_overrides=None):
             given = cat.get("margin")
             if given is not None and not (isinstance(given, float) and math.isnan(given)):
                 margin = given
-            elif cat["price"] != 0:
+            elif cat["price"] != 0 and not math.isnan(cat["unit_cost"]):  # a blank unit cost is missing, not 0
                 margin = (cat["price"] - cat["unit_cost"] - cat["fees_per_unit"]) / cat["price"]
             t = cat.get("target_acos")
             if t is not None and not (isinstance(t, float) and math.isnan(t)):

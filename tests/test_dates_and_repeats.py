@@ -170,14 +170,16 @@ def test_a_start_and_end_date_export_gives_the_period(tmp_path):
     assert (30, dt.date(2026, 11, 30)) == (settings.period_days, settings.period_end)
 
 
-def test_tables_covering_different_periods_is_a_warning_naming_them(tmp_path):
+def test_tables_covering_different_periods_are_refused_naming_both(tmp_path):
     sales = "Date,product_id,units,revenue\n2026-11-01,P1,10,200.00\n2026-11-01,P2,5,50.00\n"
     folder = minimal.write_account(tmp_path, {"targets.csv": _csv(_daily_targets(), TARGET_COLUMNS, "Date"),
                                               "store_sales.csv": sales})
-    _, _, problems = load(folder)
-    differ = [p for p in problems if "different periods" in p.message]
-    assert [WARNING] == [p.severity for p in differ]
-    assert "store_sales.csv" in differ[0].message and "targets.csv" in differ[0].message
+    with pytest.raises(InputProblems) as caught:
+        load(folder)
+    differ = [p for p in caught.value.problems if "different periods" in p.message]
+    assert [ERROR] == [p.severity for p in differ]
+    assert ("store_sales.csv 2026-11-01 to 2026-11-01 (1 days); targets.csv 2026-11-23 to 2026-11-29 (7 days)"
+            in differ[0].message)
 
 
 def test_without_dates_repeated_keywords_with_the_same_bid_and_state_are_summed_with_a_note(tmp_path):

@@ -48,7 +48,7 @@ PROFIT_ROW_1 = {
     "Ad sales": _block("Y", "Z", "in_ad_products!$H$2:$H$3"),
     "TACoS": '=IF(D6=0,"",E6/D6)',
     "ACoS": '=IF(F6=0,"",E6/F6)',
-    "Margin before ads": f'=IF(V6="","",IF({_cat("G")}<>"",{_cat("G")},IF({_cat("C")}=0,"",'
+    "Margin before ads": f'=IF(V6="","",IF({_cat("G")}<>"",{_cat("G")},IF(OR({_cat("C")}=0,{_cat("D")}=""),"",'
                          f'({_cat("C")}-{_cat("D")}-{_cat("E")})/{_cat("C")})))',
     "Break-even ACoS": "=I6",
     "Target ACoS": f'=IF(S6<>"",S6,IF(V6="",default_target_acos,IF({_cat("F")}<>"",{_cat("F")},'

@@ -165,7 +165,8 @@ ST_HEADER = BASE["search_terms.csv"].splitlines()[0]
 
 def test_search_terms_longer_than_a_sheet_are_merged_losslessly(tmp_path, monkeypatch):
     monkeypatch.setattr(readers, "MAX_SHEET_ROWS", 51)  # 50 data rows below the header
-    rows = [f"C1,G1,widget,exact,term {i % 30},10,{i % 3},0.10,0.20,{min(1, i % 3)}" for i in range(80)]
+    # Impressions differ on every row: a row equal to another in every cell would be a copy, refused.
+    rows = [f"C1,G1,widget,exact,term {i % 30},{10 + i},{i % 3},0.10,0.20,{min(1, i % 3)}" for i in range(80)]
     rows.insert(5, "C1,G1,widget,Exact Match,term 1,10,1,0.10,0.20,0")  # the same match type, written otherwise
     text = (ST_HEADER + "\n" + "\n".join(rows) + "\n").encode()
     write_case(tmp_path / "in", {"search_terms.csv": text})
@@ -174,11 +175,11 @@ def test_search_terms_longer_than_a_sheet_are_merged_losslessly(tmp_path, monkey
     assert 30 == len(frame)
     assert [("search_terms.csv", None, None, WARNING)] == [(p.file, p.row, p.column, p.severity) for p in problems]
     assert "has 81 data rows, more than a sheet holds (50); merged 51 rows" in problems[0].message
-    assert 81 * 10 == frame["impressions"].sum()
+    assert sum(10 + i for i in range(80)) + 10 == frame["impressions"].sum()
     assert sum(i % 3 for i in range(80)) + 1 == frame["clicks"].sum()
     assert sum(min(1, i % 3) for i in range(80)) == frame["orders"].sum()
     term1 = frame.loc[frame["search_term"] == "term 1"].iloc[0]
-    assert (40.0, 4.0, 3.0) == (term1["impressions"], term1["clicks"], term1["orders"])  # rows 1, 31, 61 and the insert
+    assert (11 + 41 + 71 + 10, 4.0, 3.0) == (term1["impressions"], term1["clicks"], term1["orders"])  # rows 1, 31, 61, insert
     assert (0.4, 0.8) == (term1["spend"], term1["ad_sales"])  # 0.1 four times, without float noise
     assert [2, 3] == frame["_row"].head(2).tolist()  # each merged row keeps its first source row
     assert "search_terms.csv" == frame.attrs["file"] and "search_term" in frame.attrs["headers"]
@@ -187,7 +188,7 @@ def test_search_terms_longer_than_a_sheet_are_merged_losslessly(tmp_path, monkey
 
 def test_search_terms_within_a_sheet_are_not_merged(tmp_path, monkeypatch):
     monkeypatch.setattr(readers, "MAX_SHEET_ROWS", 51)
-    rows = ["C1,G1,widget,exact,same term,10,1,0.10,0.20,0"] * 50
+    rows = [f"C1,G1,widget,exact,same term,{10 + i},1,0.10,0.20,0" for i in range(50)]  # no row a copy of another
     write_case(tmp_path / "in", {"search_terms.csv": (ST_HEADER + "\n" + "\n".join(rows) + "\n").encode()})
     inputs, _, problems = load(tmp_path / "in")
     assert 50 == len(inputs.get("search_terms")) and [] == problems
@@ -206,7 +207,7 @@ def test_search_terms_that_do_not_fit_even_merged_are_refused(tmp_path, monkeypa
 
 def test_a_row_error_is_reported_before_merging_could_hide_it(tmp_path, monkeypatch):
     monkeypatch.setattr(readers, "MAX_SHEET_ROWS", 51)
-    rows = [f"C1,G1,widget,exact,term {i % 10},10,5,0.10,0.20,1" for i in range(60)]
+    rows = [f"C1,G1,widget,exact,term {i % 10},{10 + i},5,0.10,0.20,1" for i in range(60)]
     rows[3] = "C1,G1,widget,exact,term 3,10,1,0.10,0.20,4"  # orders above clicks; merged it would not be
     write_case(tmp_path / "in", {"search_terms.csv": (ST_HEADER + "\n" + "\n".join(rows) + "\n").encode()})
     with pytest.raises(InputProblems) as caught:
@@ -227,7 +228,7 @@ def test_other_tables_longer_than_a_sheet_are_refused(tmp_path, monkeypatch, fil
 
 def test_build_with_merged_search_terms_writes_a_workbook(tmp_path, monkeypatch):
     monkeypatch.setattr(readers, "MAX_SHEET_ROWS", 51)
-    rows = [f"C1,G1,widget,exact,term {i % 5},10,1,0.10,0.20,0" for i in range(60)]
+    rows = [f"C1,G1,widget,exact,term {i % 5},{10 + i},1,0.10,0.20,0" for i in range(60)]
     write_case(tmp_path / "in", {"search_terms.csv": (ST_HEADER + "\n" + "\n".join(rows) + "\n").encode()})
     result = build(tmp_path / "in", tmp_path / "out.xlsx")
     assert 5 == result.rows["search_terms"]

@@ -469,7 +469,7 @@ def test_a_csv_row_with_too_many_cells_is_refused_with_its_row(tmp_path, monkeyp
 def test_running_out_of_memory_while_reading_says_so(tmp_path, monkeypatch):
     import sheetbuilder.reading.readers as readers
 
-    def oom(path):
+    def oom(path, *args):
         raise MemoryError()
 
     monkeypatch.setattr(readers, "read_sheets", oom)

@@ -164,11 +164,9 @@ def test_decimal_comma_does_not_change_numbers_stored_in_an_xlsx(tmp_path):
     assert [2.1, 1.0] == pytest.approx(frame["fees_per_unit"].tolist())
 
 
-def test_a_decimal_comma_without_the_setting_is_a_problem_not_a_hundredfold_amount(tmp_path):
-    ads = AD_HEADER.replace(",", ";") + "\nC1;G1;P1;product ads;1000;50;12,50;100;5\n"
-    problems = problems_of(write_account(tmp_path, {"ad_products.csv": ads}))
-    assert [("ad_products.csv", 2, "spend")] == [(p.file, p.row, p.column) for p in problems]
-    assert "set decimal_comma = true in settings.toml" in problems[0].message
+def test_a_decimal_comma_without_the_setting_is_read_from_the_files_own_evidence(tmp_path):
+    ads = AD_HEADER.replace(",", ";") + "\nC1;G1;P1;product ads;1000;50;12,50;100;5\n"  # 12,50: two decimals
+    assert [12.5] == table(write_account(tmp_path, {"ad_products.csv": ads}), "ad_products")["spend"].tolist()
 
 
 def test_a_decimal_point_with_the_decimal_comma_setting_is_a_problem(tmp_path):

@@ -74,7 +74,11 @@ def map_headers(header: list[str], table: c.TableRule, settings: Settings, file:
     for rule in table.columns:
         if rule.name in explicit:
             want = c.header_key(explicit[rule.name])
-            if want in full:
+            if rule.name == "orders" and "unit" in want:
+                problems.append(Problem(file, row, explicit[rule.name],
+                                        f"settings.toml maps 'orders' to this header, which counts units: "
+                                        f"{_UNITS_NOT_ORDERS}"))
+            elif want in full:
                 found[rule.name] = full.index(want)
             else:
                 problems.append(Problem(file, row, explicit[rule.name],
@@ -102,9 +106,17 @@ def map_headers(header: list[str], table: c.TableRule, settings: Settings, file:
                                     f"[columns.{table.name}]"))
         elif rule.required:
             problems.append(Problem(file, row, rule.name, _missing(rule, table, header, set(found.values()))))
+    twice = {i for i in found.values() if list(found.values()).count(i) > 1}
+    for i in sorted(twice):
+        names = " and ".join(f"'{n}'" for n, j in found.items() if j == i)
+        problems.append(Problem(file, row, header[i], f"this one column is mapped to {names}; each column holds "
+                                                      f"one field. Map one of them to another column in "
+                                                      f"settings.toml [columns.{table.name}]"))
     return found, problems
 
 
+_UNITS_NOT_ORDERS = ("an order may hold several units, so units are never read as orders (conversion rates count "
+                     "orders per click); export with an orders column")
 _OWN_NAMES = {t.name: {c.header_key(r.name) for r in t.columns} for t in c.TABLES}
 
 
@@ -112,7 +124,11 @@ def _missing(rule: c.ColumnRule, table: c.TableRule, header: list[str], used: se
     """The message for a missing required column: what is accepted, the closest headers, the line to add."""
     also = ", ".join(rule.synonyms[:5])
     message = f"missing column '{rule.name}'" + (f" (also accepted: {also})" if also else "")
-    free = {c.header_key(h): h for i, h in enumerate(header) if i not in used and str(h).strip()}
+    units = [h for h in header if rule.name == "orders" and "unit" in c.header_key(h)]
+    if units:
+        return message + f"; the file has '{units[0]}', which counts units: {_UNITS_NOT_ORDERS}"
+    free = {c.header_key(h): h for i, h in enumerate(header) if i not in used and str(h).strip()
+            and not (rule.name == "orders" and "unit" in c.header_key(h))}
     wanted = [c.header_key(rule.name), *rule.synonyms]
     close: list[str] = []
     for want in wanted:
@@ -177,3 +193,39 @@ def currency_warnings(header: list[str], found: dict[str, int], table: c.TableRu
     return [Problem(file, row, named[0], f"the headers {listed} name a currency other than currency_symbol "
                                          f"'{symbol}'; amounts are read as written. Set currency_symbol in "
                                          "settings.toml if that is your currency", WARNING)]
+
+
+def _matched(header: list[str], table: c.TableRule, settings: Settings) -> dict[str, int]:
+    """The table's columns this header row would match, and where."""
+    return map_headers(header, table, settings, "", 0)[0]
+
+
+def two_row_header(upper: list[str], lower: list[str], table: c.TableRule, settings: Settings) -> list[str] | None:
+    """One header read from two rows, when the upper row groups the lower row's columns.
+
+    A group row holds labels above some columns only, the first of them not above the first column
+    (a title starts there): `Cost per unit` merged above `Goods` and `Fees`. Each column's header is
+    then its group label and its own (`Cost per unit Goods`), its upper cell alone where the lower
+    one is blank (a label merged down), or its lower cell alone where that matches a column by
+    itself and the joined text does not.
+
+    Returns:
+        The joined header, or None when the upper row is no group row or the joined header matches
+        fewer of the table's columns than the lower row alone.
+    """
+    n = max(len(upper), len(lower))
+    up = [str(x).strip() for x in upper] + [""] * (n - len(upper))
+    lo = [str(x).strip() for x in lower] + [""] * (n - len(lower))
+    labels = [j for j in range(n) if up[j]]
+    if not labels or labels[0] == 0 or not any(up[j] and lo[j] and j + 1 < n and not up[j + 1] and lo[j + 1]
+                                               for j in labels):
+        return None
+    out, group = [], ""
+    for j in range(n):
+        group = up[j] or (group if lo[j] else "")
+        out.append(up[j] if not lo[j] else (f"{group} {lo[j]}" if group else lo[j]))
+    joined, alone = _matched(out, table, settings), _matched(lo, table, settings)
+    for name, j in alone.items():
+        if name not in joined and j not in joined.values():
+            out[j] = lo[j]
+    return out if len(_matched(out, table, settings)) >= len(alone) else None

@@ -8,6 +8,7 @@ from pathlib import Path
 
 from sheetbuilder.reading import contract as c
 from sheetbuilder.errors import ERROR, Problem
+from sheetbuilder.reading.evidence import currency_label
 from sheetbuilder.reading.periods import Period, settings_for_inputs
 from sheetbuilder.reading.readers import read_inputs
 from sheetbuilder.reading.settings import load_settings
@@ -29,6 +30,11 @@ class FileReport:
     totals: int = 0
     refused: int = 0
     period: Period | None = None
+    period_source: str = ""
+    currency: str = ""
+    numbers: str = ""
+    ids: str = ""
+    layout: list[str] = field(default_factory=list)  # header rows joined, hidden rows and columns
 
 
 @dataclass
@@ -38,6 +44,7 @@ class Inspection:
     files: list[FileReport]
     period: Period | None
     problems: list[Problem]
+    currency: str = ""
 
     @property
     def has_errors(self) -> bool:
@@ -72,8 +79,18 @@ def inspect_exports(folder: Path) -> Inspection:
         files.append(FileReport(path.name, table.name, True, attrs.get("sheet", ""), attrs.get("header_row"),
                                 attrs.get("encoding", ""), dict(attrs.get("columns", {})),
                                 attrs.get("rows_read", len(frame)), attrs.get("summed", 0), attrs.get("totals", 0),
-                                refused, attrs.get("period")))
-    return Inspection(files, inputs.period, problems)
+                                refused, attrs.get("period"), attrs.get("period_source", ""),
+                                _currency(attrs.get("currency")), attrs.get("numbers", ""), attrs.get("id_note", ""),
+                                list(attrs.get("layout", []))))
+    return Inspection(files, inputs.period, problems, inputs.currency)
+
+
+def _currency(found) -> str:
+    """A file's currency as inspect shows it: the ISO 4217 code(s) and the marks seen."""
+    if not found:
+        return ""
+    codes, marks = found
+    return currency_label(codes, set(marks)) + f" (marks: {', '.join(marks)})"
 
 
 def report_lines(result: Inspection) -> list[str]:
@@ -89,8 +106,15 @@ def report_lines(result: Inspection) -> list[str]:
             lines.append(f"  {name} <- {header}")
         lines.append(f"  rows: {f.rows_read} read, {f.summed} summed into others, {f.totals} skipped as totals, "
                      f"{f.refused} refused")
-        if f.period is not None:
-            lines.append(f"  period: {f.period}")
+        lines.append(f"  period: {f.period} (from {f.period_source})" if f.period is not None
+                     else "  period: none stated")
+        lines.append(f"  currency: {f.currency or 'no currency marked'}")
+        if f.numbers:
+            lines.append(f"  numbers: {f.numbers}")
+        if f.ids:
+            lines.append(f"  product IDs: {f.ids}")
+        lines.extend(f"  layout: {note}" for note in f.layout)
+    lines.append(f"currency found: {result.currency or 'none marked'}")
     lines.append(f"period found: {result.period}" if result.period else "period found: none (the exports carry no "
                                                                            "dates; period_days and period_end apply)")
     errors = sum(1 for p in result.problems if p.severity == ERROR)

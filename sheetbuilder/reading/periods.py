@@ -93,17 +93,21 @@ def _one_date(text: str) -> dt.date | tuple[int, int, int] | None:
     return None
 
 
-def parse_dates(texts: list[str]) -> tuple[list[dt.date | None], list[tuple[int, str]]]:
+def parse_dates(texts: list[str], order: str = "auto") -> tuple[list[dt.date | None], list[tuple[int, str]]]:
     """The dates of one column, and (position, message) for each cell that is not one.
 
-    Accepts 2026-11-23 (with or without a time), 20261123, Nov 23, 2026, 23 Nov 2026, and
-    23/11/2026 or 11/23/2026 when the column itself shows which number is the day (some day
-    above 12); a column where every such date could be either is refused, never guessed.
+    Accepts 2026-11-23 (with or without a time; ISO 8601), 20261123 (ISO 8601 basic form),
+    Nov 23, 2026, 23 Nov 2026, and 23/11/2026 or 11/23/2026 when the column itself shows which
+    number is the day (some day above 12) or order (the date_order setting: dmy, mdy) says;
+    a column where every such date could be either is refused, never guessed. With order ymd
+    only year-first dates are accepted.
     """
     raw = [_one_date(t) if t.strip() else None for t in texts]
     slashed = [r for r in raw if isinstance(r, tuple)]
     day_first = any(a > 12 for a, _, _ in slashed)
     month_first = any(b > 12 for _, b, _ in slashed)
+    if order in ("dmy", "mdy") and not (day_first and month_first):
+        day_first, month_first = order == "dmy", order == "mdy"
     out: list[dt.date | None] = []
     problems: list[tuple[int, str]] = []
     for i, (text, r) in enumerate(zip(texts, raw)):
@@ -115,10 +119,11 @@ def parse_dates(texts: list[str]) -> tuple[list[dt.date | None], list[tuple[int,
                     continue
                 except ValueError:
                     pass
-            elif not day_first:
+            elif not day_first and order != "ymd":
                 out.append(None)
                 problems.append((i, f"'{text}' could be day/month or month/day and no date in the column says "
-                                    "which; write dates as 2026-11-23"))
+                                    "which; set date_order = \"dmy\" or \"mdy\" in settings.toml, or write dates "
+                                    "as 2026-11-23"))
                 continue
             out.append(None)
             problems.append((i, f"'{text}' is not a date; expected a date such as 2026-11-23"))
@@ -128,6 +133,90 @@ def parse_dates(texts: list[str]) -> tuple[list[dt.date | None], list[tuple[int,
             problems.append((i, "is blank; expected the row's date" if not text.strip()
                              else f"'{text}' is not a date; expected a date such as 2026-11-23"))
     return out, problems
+
+
+# Dates as titles and file names write them: ISO 8601 (2026-11-01, 20261101), slashed, or with the month's name.
+_IN_TEXT = re.compile(r"(?<![\d/.-])(?:\d{4}-\d{1,2}-\d{1,2}|\d{8}|\d{1,2}[/.-]\d{1,2}[/.-]\d{4}"
+                      r"|[A-Za-z]{3,9}\.? \d{1,2},? \d{4}|\d{1,2} [A-Za-z]{3,9}\.? \d{4})(?![\d/.-])")
+_IN_NAME = re.compile(r"(?<!\d)(\d{4}-?\d{2}-?\d{2})(?!\d)")  # file names: ISO 8601 only
+
+
+def _range_in(texts: list[str], order: str) -> tuple[Period | None, str | None]:
+    """The period written as two dates (a start and an end) in texts, or a message when they do not read."""
+    found, problems = parse_dates([t.replace(".", "") if t[:1].isalpha() else t for t in texts], order)
+    ambiguous = [m for _, m in problems if "could be day/month" in m]
+    if ambiguous:
+        a, b = (_one_date(t) for t in texts)
+        readings = " or ".join(f"{Period(dt.date(a[2], x, y), dt.date(b[2], u, v))}"
+                               for (x, y), (u, v) in (((a[1], a[0]), (b[1], b[0])), ((a[0], a[1]), (b[0], b[1]))))
+        return None, (f"the dates {texts[0]} and {texts[1]} could be read as {readings}; set date_order = \"dmy\" "
+                      "or \"mdy\" in settings.toml")
+    if problems or found[1] < found[0]:
+        return None, None  # two numbers that are not a start and an end: no period stated
+    return Period(found[0], found[1]), None
+
+
+def stem_without_dates(stem: str) -> str:
+    """A file's stem without the ISO 8601 dates of a period it names (sales 2026-11-01 to 2026-11-30 -> sales)."""
+    if len(_IN_NAME.findall(stem)) != 2:
+        return stem
+    return re.sub(r"(?i)\b(?:to|from|bis|au)\b", " ", _IN_NAME.sub(" ", stem))
+
+
+def declared_period(title: list[list[str]], stem: str, order: str = "auto"
+                    ) -> tuple[Period | None, str, str | None]:
+    """The period an export states above its header (a title row holding two dates) or in its file name.
+
+    Args:
+        title: the rows above the header (the title or notes block).
+        stem: the file's name without its suffix.
+        order: the date_order setting, for slashed dates.
+
+    Returns:
+        (period, where it was read, None) or (None, where, message) when the stated dates do not
+        read (a slashed range whose day/month order nothing decides); (None, "", None) when neither
+        states one. A single date (the day a report was made) states no period.
+    """
+    for i, row in enumerate(title):
+        texts = _IN_TEXT.findall(" ".join(str(x) for x in row if str(x).strip()))
+        if len(texts) == 2:
+            period, message = _range_in(texts, order)
+            if period or message:
+                return period, f"the title row {i + 1} '{' '.join(str(x).strip() for x in row if str(x).strip())}'", message
+    texts = _IN_NAME.findall(stem)
+    if len(texts) == 2:
+        period, message = _range_in(texts, order)
+        if period or message:
+            return period, "the file name", message
+    return None, "", None
+
+
+def repeated_rows(name: str, frame: pd.DataFrame, raw: list[tuple]) -> list[Problem]:
+    """An error for rows that repeat an earlier row exactly: the same data pasted or downloaded twice.
+
+    The rule: a row equal to another in every cell of the file (its date, and columns not read,
+    such as an order number, included) is a copy. Rows of different days differ by their date and
+    are summed by combine_repeats; rows that differ in any cell are read as written.
+
+    Args:
+        name: the table's canonical name.
+        frame: its validated rows.
+        raw: each frame row's cells as written (all columns of the file).
+    """
+    if name not in REPEAT_KEYS or len(frame) < 2:
+        return []
+    cells = pd.Series(raw, index=frame.index, dtype=object)
+    copies = cells.duplicated(keep=False)
+    if not copies.any():
+        return []
+    first = cells[copies].iloc[0]
+    same = frame.loc[copies & (cells == pd.Series([first] * len(cells), index=cells.index)), "_row"].tolist()
+    extra = int(cells.duplicated().sum())
+    return [Problem(frame.attrs["file"], int(same[1]), None,
+                    f"rows {', '.join(map(str, same))} are the same in every column; {extra} row(s) of the file "
+                    "repeat an earlier row exactly. A row repeated in every cell (its date and any order number "
+                    "included) is the same data pasted or downloaded twice, and summing it would count it twice; "
+                    "remove the copies")]
 
 
 def combine_repeats(name: str, frame: pd.DataFrame, dated: bool) -> tuple[pd.DataFrame, list[Problem]]:
@@ -205,22 +294,43 @@ def table_period(frame: pd.DataFrame) -> Period | None:
     return Period(min(start), max(end))
 
 
-def overall_period(periods: dict[str, Period]) -> tuple[Period | None, list[Problem]]:
-    """The period all dated tables cover together, and a warning when tables cover different periods.
+def overall_period(periods: dict[str, Period], undated: list[str] = (), mismatch: str = "refuse"
+                   ) -> tuple[Period | None, list[Problem]]:
+    """The period all dated tables cover together; an error when tables cover different periods.
+
+    Revenue, ad spend and the ratios between them (TACoS, net profit after ads) are only right
+    when every export covers the same days, so different periods stop the build unless the
+    period_mismatch setting is "accept" (then a warning, shown on the Guide, says the figures
+    combine different days).
 
     Args:
         periods: each dated table's file name and its period.
+        undated: the files that state no period (named in a warning when others do).
+        mismatch: the period_mismatch setting ("refuse" or "accept").
     """
     if not periods:
         return None, []
     whole = Period(min(p.start for p in periods.values()), max(p.end for p in periods.values()))
+    problems = []
+    if undated:
+        problems.append(Problem(", ".join(undated), None, None,
+                                f"states no period (no dates in its rows, title or file name) while the other "
+                                f"exports cover {whole}; check it was downloaded for the same days", WARNING))
     if len(set(periods.values())) == 1:
-        return whole, []
+        return whole, problems
     listed = "; ".join(f"{file} {period}" for file, period in sorted(periods.items()))
-    return whole, [Problem(", ".join(sorted(periods)), None, None,
-                           f"the exports cover different periods ({listed}); figures that combine them (ACoS "
-                           "against store sales, TACoS) compare different days. Export the same days for every "
-                           f"table; the period used is {whole}", WARNING)]
+    files = ", ".join(sorted(periods))
+    if mismatch == "accept":
+        return whole, problems + [Problem(files, None, None,
+                                          f"the exports cover different periods ({listed}) and settings.toml has "
+                                          "period_mismatch = \"accept\": figures that combine them (TACoS, net "
+                                          "profit after ads, ACoS against store sales) compare different days, as "
+                                          f"written; the period used is {whole}", WARNING)]
+    return whole, problems + [Problem(files, None, None,
+                                      f"the exports cover different periods ({listed}); revenue, ad spend and the "
+                                      "figures that combine them (TACoS, net profit after ads) would compare "
+                                      "different days. Download every export for the same date range, or set "
+                                      "period_mismatch = \"accept\" in settings.toml to build from them as they are")]
 
 
 def apply_period(settings, period: Period | None, given: frozenset[str], files: list[str]):

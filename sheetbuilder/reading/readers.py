@@ -8,7 +8,9 @@ from __future__ import annotations
 import csv
 import hashlib
 import math
+import re
 from dataclasses import dataclass, field
+from itertools import islice
 from pathlib import Path
 
 import pandas as pd
@@ -17,12 +19,16 @@ from sheetbuilder.reading import contract as c
 from sheetbuilder.reading.encodings import NotText, decode, is_legacy
 from sheetbuilder.errors import ERROR, WARNING, Problem
 from sheetbuilder.reading.guard import UnsafeWorkbook, check_csv, check_workbook, read_delimited, text_problem
-from sheetbuilder.reading.headers import currency_warnings, find_header, map_headers
+from sheetbuilder.reading.agreement import (account_currency, currency_of, grouped_problems, orders_above_clicks,
+                                            same_product_ids, view_through_campaigns)
+from sheetbuilder.reading.evidence import Decision, both_readings, currency_mark, decide_separators, separator_form
+from sheetbuilder.reading.headers import MAX_TITLE_ROWS, currency_warnings, find_header, map_headers, two_row_header
 from sheetbuilder.reading.ours import built_by_us, our_workbook_message
 from sheetbuilder.reading.numbers import MAX_MAGNITUDE, NotANumber, parse_count, parse_number
-from sheetbuilder.reading.periods import (DATE_RULES, DATED_TABLES, Period, combine_repeats, overall_period,
-                                          parse_dates, table_period)
+from sheetbuilder.reading.periods import (DATE_RULES, DATED_TABLES, Period, combine_repeats, declared_period,
+                                          overall_period, stem_without_dates, parse_dates, repeated_rows, table_period)
 from sheetbuilder.reading.settings import Settings
+from sheetbuilder.reading.stored_values import formulas_without_values, hidden_parts
 from sheetbuilder.reading.totals import RunningSums, totals_label
 
 SPREADSHEETS = (".xlsx", ".xlsm", ".xls", ".xlsb", ".ods")
@@ -48,6 +54,7 @@ class Inputs:
     checksums: dict[str, str] = field(default_factory=dict)
     encodings: dict[str, str] = field(default_factory=dict)
     period: Period | None = None  # the days the dated exports cover, when they carry dates
+    currency: str = ""  # the currency the exports' amounts are marked with ("" when none is marked)
 
     def get(self, name: str) -> pd.DataFrame | None:
         """The frame of table name, or None when the file was not given."""
@@ -64,7 +71,8 @@ def find_file(folder: Path, table: c.TableRule, settings: Settings) -> tuple[Pat
         return path, None
     want = c.file_key(table.name)
     found = sorted(p for p in folder.iterdir()
-                   if p.is_file() and p.suffix.lower() in SUFFIXES and c.file_key(p.stem) == want)
+                   if p.is_file() and p.suffix.lower() in SUFFIXES
+                   and want in (c.file_key(p.stem), c.file_key(stem_without_dates(p.stem))))
     if len(found) > 1:
         names = ", ".join(p.name for p in found)
         return None, Problem(folder.name, None, None,
@@ -101,13 +109,14 @@ def _cell_text(value: object) -> str:
     return str(value)
 
 
-def read_sheets(path: Path) -> tuple[list[tuple[str, list[list[str]]]], str]:
+def read_sheets(path: Path, found: dict | None = None) -> tuple[list[tuple[str, list[list[str]]]], str]:
     """Every sheet of a CSV or spreadsheet file as (sheet name, rows of text); blank rows kept.
 
     A CSV is one sheet named "". Spreadsheets (.xlsx .xlsm .xls .xlsb .ods) are read by calamine.
 
     Returns:
-        The sheets and the file's encoding ("spreadsheet" for a workbook).
+        The sheets and the file's encoding ("spreadsheet" for a workbook); found, when given,
+        receives the CSV's delimiter ("" for a workbook).
 
     Raises:
         NotText: a CSV not decodable by encodings.decode, or a NUL character in any cell (with its row).
@@ -129,29 +138,63 @@ def read_sheets(path: Path) -> tuple[list[tuple[str, list[list[str]]]], str]:
     check_csv(path)
     decoded = decode(path.read_bytes())
     text = decoded.text
-    first = next((line for line in text.splitlines() if line.strip()), "")
-    delimiter = max((",", ";", "\t", "|"), key=first.count) if first else ","
+    # The delimiter the header shows most; a title block above it may hold none.
+    lines = [line for line in islice((x for x in text.splitlines() if x.strip()), MAX_TITLE_ROWS + 1)]
+    delimiter = max((",", ";", "\t", "|"), key=lambda d: max((line.count(d) for line in lines), default=0))
+    if found is not None:
+        found["delimiter"] = delimiter
     return [("", read_delimited(text, delimiter))], decoded.encoding
 
 
+_SET_ASIDE = re.compile(r"archive|old|backup|copy|previous|template|draft|example", re.I)
+_YEAR = re.compile(r"(?<!\d)(?:19|20)\d{2}(?!\d)")
+
+
 def pick_sheet(sheets: list[tuple[str, list[list[str]]]], table: c.TableRule, settings: Settings
-               ) -> tuple[str, list[list[str]], int | None]:
-    """The sheet that holds table (the one whose header matches most required columns; the first on a
-    tie) and its header row's 0-based index (None when every sheet is empty)."""
-    best = (sheets[0][0], sheets[0][1], None, -1) if sheets else ("", [], None, -1)
+               ) -> tuple[str, list[list[str]], int | None, str | None]:
+    """The sheet that holds table: the one whose header matches most required columns.
+
+    When several match equally, the evidence in their names decides: a sheet named as set aside
+    (archive, old, backup, copy, template...) yields to the others, then the latest year named wins.
+
+    Returns:
+        (sheet name, rows, header row's 0-based index or None when every sheet is empty, and None
+        or the message refusing a choice the evidence cannot make).
+    """
+    scored = []
     for name, rows in sheets:
         start, score = find_header(rows, table, settings)
-        if start is not None and score > best[3]:
-            best = (name, rows, start, score)
-    return best[0], best[1], best[2]
+        if start is not None:
+            scored.append((score, name, rows, start))
+    if not scored:
+        return (sheets[0][0], sheets[0][1], None, None) if sheets else ("", [], None, None)
+    best = max(s for s, *_ in scored)
+    tied = [t for t in scored if t[0] == best]
+    if len(tied) > 1:
+        kept = [t for t in tied if not _SET_ASIDE.search(t[1])] or tied
+        years = [max(map(int, _YEAR.findall(t[1])), default=0) for t in kept]
+        if len(kept) > 1 and max(years) and years.count(max(years)) == 1:
+            kept = [kept[years.index(max(years))]]
+        if len(kept) > 1:
+            names = ", ".join(f"'{t[1]}'" for t in kept)
+            return kept[0][1], kept[0][2], kept[0][3], (f"the sheets {names} could each hold this table (the same "
+                                                         "columns) and nothing in their names says which is current; "
+                                                         "keep one sheet in the file, or rename the other as an archive")
+        tied = kept
+    return tied[0][1], tied[0][2], tied[0][3], None
 
 
 _SIGNED = {"margin"}  # a product sold below its costs has a negative margin before ads
 _NON_BLANK = {"product_id", "campaign", "target", "search_term", "term", "match_type", "state"}
 
 
-def _parse_cell(rule: c.ColumnRule, text: str, settings: Settings) -> tuple[object, str | None]:
-    """The value of one cell, or an error message saying what was expected."""
+def _parse_cell(rule: c.ColumnRule, text: str, settings: Settings, comma: bool | None = None,
+                strict: bool = False) -> tuple[object, str | None]:
+    """The value of one cell, or an error message saying what was expected.
+
+    comma: the column's decimal comma as the file's evidence decided it (None: decimal_comma);
+    strict: the column is undecided, so a value such as 3,911 is refused with both readings.
+    """
     t = text.strip()
     if rule.kind == c.TEXT:
         if not t and rule.name in _NON_BLANK:
@@ -165,13 +208,22 @@ def _parse_cell(rule: c.ColumnRule, text: str, settings: Settings) -> tuple[obje
         if value is None:
             return "", f"'{text}' is not one of {expected}"
         return value, None
+    if rule.name == "unit_cost" and not any(ch.isdigit() for ch in t):
+        return math.nan, None  # blank or "n/a": missing, never zero (reported per product by _missing_costs)
     if not t:
         if rule.kind in (c.COUNT, c.MONEY):
             return 0.0, None
         if rule.name == "bid":
             return math.nan, "is blank; expected the current bid"
         return math.nan, None
-    comma = settings.decimal_comma and not isinstance(text, CellNumber)
+    if isinstance(text, CellNumber):
+        comma = False
+    else:
+        comma = settings.decimal_comma if comma is None else comma
+        if strict and rule.kind != c.COUNT and separator_form(t) == "ambiguous":
+            return math.nan, (f"'{text}' could be {both_readings(t)} and nothing in the file says which; set "
+                              "decimal_comma = true or false in settings.toml, or write it without the separator "
+                              "or with more decimals")
     try:
         if rule.kind == c.COUNT:
             value, had_percent = (float(t) if isinstance(text, CellNumber) else parse_count(t, comma)), False
@@ -203,14 +255,15 @@ def with_dates(table: c.TableRule) -> c.TableRule:
     return c.TableRule(table.name, table.columns + extra, table.required, table.label) if extra else table
 
 
-def _read_dates(frame: pd.DataFrame, texts: dict[str, list[str]], headers: dict[str, str]) -> list[Problem]:
+def _read_dates(frame: pd.DataFrame, texts: dict[str, list[str]], headers: dict[str, str], order: str
+                ) -> list[Problem]:
     """Add _start and _end (each row's first and last day) to frame from its date columns' texts."""
     names = list(texts)
     n = len(frame)
-    every, bad = parse_dates([t for name in names for t in texts[name]])  # one day/month order per file
+    every, bad = parse_dates([t for name in names for t in texts[name]], order)  # one day/month order per file
     parsed = {name: every[k * n:(k + 1) * n] for k, name in enumerate(names)}
-    problems = [Problem(frame.attrs["file"], int(frame["_row"].iloc[i % n]), headers[names[i // n]], message)
-                for i, message in bad]
+    problems = grouped_problems([Problem(frame.attrs["file"], int(frame["_row"].iloc[i % n]), headers[names[i // n]],
+                                         message) for i, message in bad])
     first = parsed.get("date") or parsed.get("start_date") or parsed.get("end_date")
     last = parsed.get("date") or parsed.get("end_date") or first
     frame["_start"], frame["_end"] = pd.Series(first, dtype=object), pd.Series(last, dtype=object)
@@ -219,6 +272,64 @@ def _read_dates(frame: pd.DataFrame, texts: dict[str, list[str]], headers: dict[
             problems.append(Problem(frame.attrs["file"], int(row), headers.get("end_date"),
                                     f"the end date {end} is before the start date {start}"))
     return problems
+
+
+def _decide_numbers(body: list[list[str]], found: dict[str, int], table: c.TableRule, settings: Settings,
+                    delimiter: str) -> Decision:
+    """How the file's amount and percent columns write decimals, decided from their cells (evidence.py)."""
+    columns = {r.name: found[r.name] for r in table.columns
+               if r.kind in (c.MONEY, c.PERCENT, c.AMOUNT) and r.name in found}
+    def cells(i: int):
+        return (row[i] for row in body if i < len(row) and not isinstance(row[i], CellNumber))
+
+    texts = {name: cells(i) for name, i in columns.items()}
+    setting = settings.decimal_comma if "decimal_comma" in settings.given else None
+    return decide_separators(texts, delimiter, setting)
+
+
+def _map_visible_first(header: list[str], hidden: set[int], table: c.TableRule, settings: Settings, file: str,
+                       row: int) -> tuple[dict[str, int], list[Problem]]:
+    """map_headers on the visible columns; hidden ones only where no visible column holds a required field,
+    each named in a note."""
+    matched = [j for j in hidden if j < len(header) and str(header[j]).strip()]
+    if not matched:
+        return map_headers(header, table, settings, file, row)
+    visible = [h if j not in hidden else "" for j, h in enumerate(header)]
+    found, problems = map_headers(visible, table, settings, file, row)
+    everything, all_problems = map_headers(header, table, settings, file, row)
+    used = {n: j for n, j in everything.items() if j in hidden and n not in found}
+    errors = sum(p.severity == ERROR for p in problems)
+    if errors and sum(p.severity == ERROR for p in all_problems) < errors:
+        found, problems = everything, all_problems
+        return found, problems + [Problem(file, row, header[j], f"this column is hidden in the sheet; read as "
+                                                                 f"'{n}' since no visible column holds it", WARNING)
+                                  for n, j in used.items() if found.get(n) == j]
+    skipped = ", ".join(f"'{header[j]}'" for j in sorted(matched))
+    return found, problems + ([Problem(file, row, None, f"skipped the hidden column(s) {skipped}: visible columns "
+                                                        "hold this table's fields", WARNING)] if used or any(
+        j in everything.values() for j in matched) else [])
+
+
+def _skip_hidden_rows(records: list[dict], raw: list[tuple], hidden: set[int], table: c.TableRule, file: str,
+                      problems: list[Problem]) -> tuple[list[dict], list[tuple]]:
+    """Hidden catalog rows whose product a visible row also holds are skipped (the visible one is current);
+    other hidden rows are read. Either way a note names them."""
+    rows = [r["_row"] for r in records if r["_row"] in hidden]
+    if not rows:
+        return records, raw
+    visible = {r.get("product_id") for r in records if r["_row"] not in hidden}
+    drop = {r["_row"] for r in records if r["_row"] in hidden and table.name == "catalog"
+            and r.get("product_id") in visible}
+    kept = [k for k, r in enumerate(records) if r["_row"] not in drop]
+    read = [r for r in rows if r not in drop]
+    if drop:
+        problems.append(Problem(file, min(drop), None, f"skipped the hidden row(s) {', '.join(map(str, sorted(drop)))}: "
+                                                       "a visible row holds the same product", WARNING))
+    if read:
+        problems.append(Problem(file, read[0], None, f"the row(s) {', '.join(map(str, read[:10]))}"
+                                                     f"{', ...' if len(read) > 10 else ''} are hidden in the sheet; "
+                                                     "read as data (delete them if they are not)", WARNING))
+    return [records[k] for k in kept], [raw[k] for k in kept]
 
 
 def _layout_notes(file: str, sheets: list, sheet: str, rows: list[list[str]], start: int) -> list[Problem]:
@@ -238,7 +349,8 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
     """Read and validate one table's file."""
     file = path.name
     try:
-        sheets, encoding = read_sheets(path)
+        meta: dict = {}
+        sheets, encoding = read_sheets(path, meta)
     except NotText as exc:
         return None, [Problem(file, exc.row, None, str(exc))]
     except UnsafeWorkbook as exc:
@@ -249,12 +361,28 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
         return None, [Problem(file, None, None, "not enough memory to read it; export a shorter period")]
     except Exception as exc:  # calamine raises its own types for broken workbooks
         return None, [Problem(file, None, None, f"not a readable spreadsheet: {exc}")]
-    sheet, rows, start = pick_sheet(sheets, with_dates(table), settings)
+    sheet, rows, start, undecided = pick_sheet(sheets, with_dates(table), settings)
     if start is None:
         return None, [Problem(file, None, None, "the file is empty; expected a header row and data rows")]
+    if undecided:
+        return None, [Problem(file, None, None, undecided)]
     header = rows[start]
-    found, problems = map_headers(header, with_dates(table), settings, file, start + 1)
+    if start > 0 and (joined := two_row_header(rows[start - 1], header, with_dates(table), settings)):
+        header = joined
+    if path.suffix.lower() in (".xlsx", ".xlsm") and (empty := formulas_without_values(path, sheet)):
+        return None, [Problem(file, None, None, f"the cells {', '.join(empty[:5])}{', ...' if len(empty) > 5 else ''} of "
+                                                f"the sheet '{sheet}' hold formulas with no stored value ({len(empty)} "
+                                                "cell(s)): the file was saved by a program that does not calculate, "
+                                                "so their values are unknown. Open it in a spreadsheet program and "
+                                                "save it again, or type the values")]
+    hidden_columns, hidden_rows = (hidden_parts(path, sheet) if path.suffix.lower() in (".xlsx", ".xlsm")
+                                   else (set(), set()))
+    found, problems = _map_visible_first(header, hidden_columns, with_dates(table), settings, file, start + 1)
     problems = _layout_notes(file, sheets, sheet, rows, start) + problems
+    if header is not rows[start]:
+        problems.append(Problem(file, start + 1, None, f"rows {start} and {start + 1} were read as one header (the "
+                                                       "upper row's labels group the columns below them): "
+                                                       + ", ".join(f"'{h}'" for h in header if h), WARNING))
     dates = {n: found.pop(n) for n in [r.name for r in DATE_RULES] if n in found}
     if any(p.severity == ERROR for p in problems):
         return None, problems
@@ -265,19 +393,32 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
         return None, [Problem(file, None, None, f"has {data_rows:,} data rows; a sheet holds at most "
                                                 f"{MAX_SHEET_ROWS - 1:,} below its header, so the workbook cannot "
                                                 "hold this table. Export a shorter period")]
+    numbers = _decide_numbers(rows[start + 1:], found, table, settings, meta.get("delimiter", ""))
+    marks: dict[str, dict[str, int]] = {}  # money column -> currency mark -> first row
+    plan = [(rule, found.get(rule.name), numbers.comma.get(rule.name), rule.name in numbers.undecided,
+             rule.kind in (c.MONEY, c.AMOUNT)) for rule in table.columns]
+    settled: list[tuple[int, str, str, float]] = []  # lone-group values read by decimal_comma alone
     records: list[dict] = []
     date_texts: dict[str, list[str]] = {n: [] for n in dates}
-    running, skipped = RunningSums(table, found), []
+    raw: list[tuple] = []  # each read row's cells as written, for finding rows pasted twice
+    running, skipped, bad_cells = RunningSums(table, found), [], []
     for i in range(start + 1, len(rows)):
         row = rows[i]
         if not any(x.strip() for x in row):
             continue
         record: dict[str, object] = {"_row": i + 1}
         cell_problems = []
-        for rule in table.columns:
-            col = found.get(rule.name)
+        for rule, col, comma, strict, money in plan:
             text = row[col] if col is not None and col < len(row) else ""
-            value, message = _parse_cell(rule, text, settings)
+            value, message = _parse_cell(rule, text, settings, comma, strict)
+            if (money and message is None and text and not (text[:1].isdigit() and text[-1:].isdigit())
+                    and value == value):
+                mark = currency_mark(text)
+                if mark:
+                    marks.setdefault(rule.name, {}).setdefault(mark, i + 1)
+            if (rule.name in numbers.by_setting and message is None and rule.kind != c.COUNT
+                    and separator_form(text) == "ambiguous"):
+                settled.append((i + 1, header[col], text.strip(), value))
             if message:
                 cell_problems.append(Problem(file, i + 1, header[col] if col is not None else rule.name, message))
             record[rule.name] = value
@@ -292,11 +433,25 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
                                                            f"above it ({differs}); read as data it would be "
                                                            "counted twice. Remove it"))
                 continue
-        problems.extend(cell_problems)
+        bad_cells.extend(cell_problems)
         running.add(record)
         for name, col in dates.items():
             date_texts[name].append(row[col] if col < len(row) else "")
         records.append(record)
+        raw.append(tuple(row))
+    problems.extend(grouped_problems(bad_cells))
+    if settled:
+        row, column, text, value = settled[0]
+        problems.append(Problem(file, row, column, f"read {len(settled)} value(s) such as '{text}' as {value:g} "
+                                                   f"because settings.toml has decimal_comma = "
+                                                   f"{'true' if settings.decimal_comma else 'false'}; nothing in the "
+                                                   "file shows its decimal separator, so check them (rows "
+                                                   + ", ".join(str(r) for r, *_ in settled[:5])
+                                                   + (", ..." if len(settled) > 5 else "") + ")", WARNING))
+    if hidden_rows:
+        records, raw = _skip_hidden_rows(records, raw, hidden_rows, table, file, problems)
+    currency, mixed = currency_of(file, marks, header, found, table)
+    problems.extend(mixed)
     if skipped:
         problems.append(Problem(file, skipped[0], None, f"skipped {len(skipped)} totals row(s) (row "
                                 + ", ".join(map(str, skipped)) + "): each is the sum of the rows above it",
@@ -312,17 +467,25 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
     header_of = {rule.name: (header[found[rule.name]] if rule.name in found else rule.name) for rule in table.columns}
     frame.attrs["headers"] = header_of
     frame.attrs["file"] = file
-    frame.attrs.update(encoding=encoding, header_row=start + 1, sheet=sheet, totals=len(skipped), rows_read=len(records),
+    frame.attrs.update(layout=[p.message for p in problems if p.severity == WARNING and
+                               ("hidden" in p.message or "read as one header" in p.message)],
+                       currency=currency, numbers=numbers.why, encoding=encoding, header_row=start + 1, sheet=sheet, totals=len(skipped), rows_read=len(records),
                        columns={n: header[i] for n, i in {**found, **dates}.items()})
     if dates:
-        problems.extend(_read_dates(frame, date_texts, {n: header[i] for n, i in dates.items()}))
+        problems.extend(_read_dates(frame, date_texts, {n: header[i] for n, i in dates.items()}, settings.date_order))
     frame.attrs["period"] = None
+    stated, where, message = (declared_period(rows[:start], path.stem, settings.date_order)
+                              if table.name in DATED_TABLES else (None, "", None))
+    if message:
+        problems.append(Problem(file, None, None, f"{where} states a period that does not read: {message}"))
     if not any(p.severity == ERROR for p in problems):  # a bad cell would make the sums meaningless
-        frame, repeats = combine_repeats(table.name, frame, bool(dates))
+        repeats = repeated_rows(table.name, frame, raw)
+        if not repeats:
+            frame, repeats = combine_repeats(table.name, frame, bool(dates))
         problems.extend(repeats)
         if any(p.severity == ERROR for p in repeats):
             return None, problems
-        frame.attrs["period"] = table_period(frame)
+        frame.attrs["period"], frame.attrs["period_source"] = _period_of(frame, stated, where, problems)
     frame = frame.drop(columns=[n for n in ("_start", "_end") if n in frame])
     if is_legacy(encoding):
         problems.append(Problem(file, None, None, f"read as {encoding}: the file is not valid UTF-8 and holds no "
@@ -330,7 +493,7 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
                                                   "its accented text", WARNING))
     if too_long:
         # Check the rows as written before merging, which could hide a row's orders > clicks.
-        problems.extend(_row_checks(table.name, frame))
+        problems.extend(_row_checks(table.name, frame) + orders_above_clicks(table.name, frame, set(), settings))
         if any(p.severity == ERROR for p in problems):
             return None, problems
         attrs = dict(frame.attrs)
@@ -340,6 +503,21 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
         if problem.severity == ERROR:
             return None, problems
     return frame, problems
+
+
+def _period_of(frame: pd.DataFrame, stated: Period | None, where: str, problems: list[Problem]
+               ) -> tuple[Period | None, str]:
+    """The file's period and where it was read: stated (title or file name) or from its dated rows.
+
+    Dated rows outside a stated period are an error (problems gains it)."""
+    rows = table_period(frame)
+    if stated is None:
+        return rows, ("" if rows is None else "the dates in its rows")
+    if rows is not None and (rows.start < stated.start or rows.end > stated.end):
+        problems.append(Problem(frame.attrs["file"], None, None,
+                                f"{where} states {stated} but its rows are dated {rows}; download the export again "
+                                "for one date range"))
+    return stated, where
 
 
 def _merge_search_terms(frame: pd.DataFrame, file: str, data_rows: int) -> tuple[pd.DataFrame, Problem]:
@@ -377,13 +555,8 @@ def _row_checks(name: str, frame: pd.DataFrame) -> list[Problem]:
     """Checks across the cells of a row, and across rows, within one table."""
     problems: list[Problem] = []
     file, headers = frame.attrs["file"], frame.attrs["headers"]
-    if "orders" in frame and "clicks" in frame:
-        over = frame.loc[frame["orders"] > frame["clicks"]]
-        for row, orders, clicks in zip(over["_row"], over["orders"], over["clicks"]):
-            problems.append(Problem(file, int(row), headers["orders"],
-                                    f"orders ({orders:g}) are more than clicks ({clicks:g}); "
-                                    "expected at most one order per click"))
     if name == "catalog":
+        problems.extend(_missing_costs(frame))
         dup = frame[frame["product_id"].duplicated(keep=False) & (frame["product_id"] != "")]
         for pid, group in dup.groupby("product_id", sort=True):
             rows = ", ".join(str(x) for x in group["_row"])
@@ -392,6 +565,16 @@ def _row_checks(name: str, frame: pd.DataFrame) -> list[Problem]:
                                         f"product '{pid}' appears more than once (rows {rows}); "
                                         "expected one row per product"))
     return problems
+
+
+def _missing_costs(frame: pd.DataFrame) -> list[Problem]:
+    """A warning per catalog product whose unit cost is blank or not a number and whose margin is not given."""
+    missing = frame.loc[frame["unit_cost"].isna() & frame["margin"].isna() & (frame["product_id"] != "")]
+    return grouped_problems([Problem(frame.attrs["file"], int(row), frame.attrs["headers"]["unit_cost"],
+                                     f"product '{pid}' has no unit cost (blank or not a number), so it is built with "
+                                     "its margin blank, as a product absent from the catalog; fill the cost on "
+                                     "in_catalog (or in the catalog file) to see its profit", WARNING)
+                             for row, pid in zip(missing["_row"], missing["product_id"])])
 
 
 def _cross_checks(tables: dict[str, pd.DataFrame | None]) -> list[Problem]:
@@ -473,11 +656,22 @@ def read_inputs(folder: Path, settings: Settings, besides: tuple[Path, ...] = ()
             problems.extend(_row_checks(table.name, frame))
             encodings[table.name] = frame.attrs["encoding"]
         tables[table.name] = frame
+    viewed = view_through_campaigns(tables)
+    for name, frame in tables.items():
+        if frame is not None and "orders" in frame and "clicks" in frame:
+            problems.extend(orders_above_clicks(name, frame, viewed, settings))
+    problems.extend(same_product_ids(tables))
     problems.extend(_cross_checks(tables))
     elsewhere = {folder / b.name for b in besides if b.exists() and b.resolve().parent == folder.resolve()}
     problems.extend(_unmatched_files(folder, set(sources.values()) | refused | elsewhere, settings))
     periods = {sources[n].name: f.attrs["period"] for n, f in tables.items()
                if f is not None and f.attrs.get("period") is not None}
-    period, found = overall_period(periods)
+    undated = [sources[n].name for n, f in tables.items()
+               if f is not None and n in DATED_TABLES and n != "campaigns" and f.attrs.get("period") is None]
+    period, found = overall_period(periods, undated, settings.period_mismatch)
     problems.extend(found)
-    return Inputs(tables, sources, checksums, encodings, period), problems
+    currency, found = account_currency(tables, settings)
+    said = any("currency other than currency_symbol" in p.message for p in problems)  # a header's unit said it
+    problems.extend(p for p in found if p.severity == ERROR or not said)
+    return Inputs(tables, sources, checksums, encodings, period, currency), problems
+

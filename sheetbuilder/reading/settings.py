@@ -124,6 +124,18 @@ SETTINGS: tuple[SettingSpec, ...] = (
     SettingSpec("decimal_comma", "Decimal comma", False, "bool",
                 "Read 1.234,56 as one thousand two hundred and thirty-four point five six (used when reading).",
                 live=False),
+    SettingSpec("date_order", "Date order", "auto", "choice",
+                "How dates such as 01/02/2026 are read when no day above 12 in the column decides: dmy (1 February), "
+                "mdy (2 January), ymd (year first only) or auto (refuse what stays ambiguous) (used when reading).",
+                live=False, choices=("auto", "dmy", "mdy", "ymd")),
+    SettingSpec("orders_above_clicks", "Orders above clicks", "refuse", "choice",
+                "refuse: a row with more orders than clicks stops the build, except on display and video ads, whose "
+                "view-through orders are read as the clicks; accept: the same everywhere (used when reading).",
+                live=False, choices=("refuse", "accept")),
+    SettingSpec("period_mismatch", "Exports covering different periods", "refuse", "choice",
+                "refuse: stop when the exports cover different days; accept: build from them as they are, with a "
+                "warning on the Guide that the figures combine different days (used when reading).",
+                live=False, choices=("refuse", "accept")),
 )
 
 SPEC_BY_KEY = MappingProxyType({s.key: s for s in SETTINGS})
@@ -163,6 +175,9 @@ class Settings:
     actions_cap: int = 20000
     currency_symbol: str = "$"
     decimal_comma: bool = False
+    date_order: str = "auto"
+    period_mismatch: str = "refuse"
+    orders_above_clicks: str = "refuse"
     columns: MappingProxyType = field(default_factory=lambda: MappingProxyType({}))
     files: MappingProxyType = field(default_factory=lambda: MappingProxyType({}))
     destinations: MappingProxyType = field(default_factory=lambda: MappingProxyType({}))

@@ -202,8 +202,12 @@ def _column_rows(title: str, defs: list[ColumnDef]) -> list[list[Cell | None]]:
 
 def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tuple[str, list[ColumnDef]]],
                warnings: list[Problem], checksums: dict[str, str], sources: dict[str, str],
-               figures: list | None = None, looks: list | None = None) -> Sheet:
-    """The Guide sheet, with the dashboard's live figures and the first-look lists at the top."""
+               figures: list | None = None, looks: list | None = None,
+               exports: list[tuple[str, str]] = ()) -> Sheet:
+    """The Guide sheet, with the dashboard's live figures and the first-look lists at the top.
+
+    exports: (label, text) lines for the build record saying what the exports hold (currency, period).
+    """
     rows: list[list[Cell | None]] = [
         [Cell("sheetbuilder: profit after ads, bids, and where ad spend goes", style="title")],
         [Cell("What it is for", style="subtitle"), Cell("This workbook turns your store-sales and sponsored-ad exports and your unit costs into live "
@@ -263,6 +267,7 @@ def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tupl
     rows += [[None], [Cell("Build record", style="subtitle")],
              [Cell("Tool version"), Cell(f"sheetbuilder {__version__}")],
              [Cell("Built on"), Cell(built_on.isoformat())]]
+    rows += [[Cell(label), Cell(text)] for label, text in exports]
     for table, digest in sorted(checksums.items()):
         rows.append([Cell(f"Input: {table}"), Cell(f"{sources.get(table, '')}  sha256 {digest}")])
     # Long text wraps inside column B (rows grow to fit when opened), so the page prints at a readable scale.

@@ -176,8 +176,8 @@ DEFS: list[ColumnDef] = [
     ColumnDef("margin", "Margin before ads", "percent",
               "(price - unit cost - fees per unit) / price, or the catalog's margin when given.",
               _margin,
-              '=IF({c:cat_row}="","",IF(%s<>"",%s,IF(%s=0,"",(%s-%s-%s)/%s)))'
-              % (_cat("margin"), _cat("margin"), _cat("price"), _cat("price"), _cat("unit_cost"),
+              '=IF({c:cat_row}="","",IF(%s<>"",%s,IF(OR(%s=0,%s=""),"",(%s-%s-%s)/%s)))'
+              % (_cat("margin"), _cat("margin"), _cat("price"), _cat("unit_cost"), _cat("price"), _cat("unit_cost"),
                  _cat("fees_per_unit"), _cat("price")), width=10,
               total='=IF({sum:rev_with_margin}=0,"",{sum:gross}/{sum:rev_with_margin})'),
     ColumnDef("breakeven", "Break-even ACoS", "percent",
