@@ -98,6 +98,9 @@ def _stop(signum: int, frame) -> None:
 def os_error_message(exc: OSError, fallback: Path | None) -> str:
     """One line naming the path the operating system refused and what to do."""
     path = exc.filename or fallback
+    if path is not None and fallback is not None and ".partial" in Path(path).name \
+            and Path(path).parent == Path(fallback).parent:
+        path = f"{fallback}'s folder"  # the temporary file beside the output is ours, not the user's to look for
     advice = _ADVICE.get(exc.errno or 0, f"{exc.strerror or exc}; check the path and run again")
     return f"cannot use {path}: {advice}. Nothing was written"
 

@@ -11,7 +11,7 @@ from conftest import BUILT_ON, edit_workbook
 from profit_io import profit_table
 from sheetbuilder.errors import WARNING
 from sheetbuilder.pipeline import build, load
-from sheetbuilder.recalc import formulas_values
+from tools.recalc import formulas_values
 
 CATALOG = """product_id,product_name,price,unit_cost,fees_per_unit
 P1,Widget,20.00,,2.00
@@ -150,7 +150,7 @@ def test_a_hidden_column_no_visible_one_replaces_is_read_and_named(tmp_path):
 @pytest.mark.parametrize("engine", ["libreoffice", "gnumeric"])
 def test_libreoffice_and_gnumeric_keep_the_margin_blank_and_fill_it_from_a_typed_cost(built, tmp_path, engine):
     from conftest import require_gnumeric, require_libreoffice
-    from sheetbuilder.recalc import gnumeric_convert, libreoffice_convert
+    from tools.recalc import gnumeric_convert, libreoffice_convert
     (require_libreoffice if engine == "libreoffice" else require_gnumeric)()
     edited = edit_workbook(built.output, tmp_path / "edited.xlsx", [("in_catalog", "D2", 8.0)])
     convert = libreoffice_convert if engine == "libreoffice" else gnumeric_convert

@@ -76,6 +76,7 @@ class Limits:
     ratio_min: int
     parts: int
     rels_bytes: int
+    instead: str = "export CSV instead"  # what to do when refused (a saved workbook of ours is not exported)
 
 
 def input_limits() -> Limits:
@@ -86,7 +87,7 @@ def input_limits() -> Limits:
 def saved_limits() -> Limits:
     """The limits for a saved workbook of ours: as large as build writes, the same ratio, parts and links."""
     return Limits(MAX_SAVED_FILE_BYTES, MAX_SAVED_TOTAL, MAX_ZIP_RATIO, RATIO_ENTRY_MIN, MAX_ZIP_ENTRIES,
-                  MAX_RELS_BYTES)
+                  MAX_RELS_BYTES, "build the workbook again from the exports")
 
 
 def _mib(n: float) -> str:
@@ -213,23 +214,23 @@ def check_workbook(path: Path, limits: Limits | None = None, whole_parts: bool =
         entries = archive.infolist()
         if len(entries) > limits.parts:
             raise UnsafeWorkbook(f"refused: the workbook holds {len(entries)} parts, more than {limits.parts}; "
-                                 "it may be a zip bomb. Save it again from the spreadsheet program, or export CSV")
+                                 f"it may be a zip bomb. Save it again from the spreadsheet program, or {limits.instead}")
         total = sum(e.file_size for e in entries)
         if total > limits.total_bytes:
             raise UnsafeWorkbook(f"refused: the workbook would unpack to {_mib(total)}, more than "
-                                 f"{_mib(limits.total_bytes)}; it may be a zip bomb. Export it as CSV instead")
+                                 f"{_mib(limits.total_bytes)}; it may be a zip bomb: {limits.instead}")
         for e in entries:
             if e.file_size >= limits.ratio_min and e.file_size > limits.ratio * max(e.compress_size, 1):
                 raise UnsafeWorkbook(f"refused: the part '{e.filename}' unpacks {e.file_size / max(e.compress_size, 1):,.0f} "
                                      f"times larger than it is stored, more than {limits.ratio}; it may be a zip "
-                                     "bomb. Export it as CSV instead")
+                                     f"bomb: {limits.instead}")
         names = {e.filename for e in entries}
         if not names & {"xl/workbook.xml", "xl/workbook.bin", "content.xml"}:  # .xlsx/.xlsm, .xlsb, .ods
             raise UnsafeWorkbook("not a readable spreadsheet: a zip file without a workbook (no xl/workbook.xml)")
         links = sorted(n for n in names if n.lower().startswith("xl/externallinks/"))
         if links:
             raise UnsafeWorkbook(f"refused: the workbook has external links ({links[0]}); links to other files are not "
-                                 "read. Break the links (Data > Edit Links > Break Link) or export CSV")
+                                 f"read. Break the links (Data > Edit Links > Break Link) or {limits.instead}")
         for e in entries:
             rels = e.filename.lower().endswith(".rels")
             if rels and e.file_size > limits.rels_bytes:
@@ -241,7 +242,7 @@ def check_workbook(path: Path, limits: Limits | None = None, whole_parts: bool =
             if rels and (target := _external_target(data, e.filename)) is not None:
                 raise UnsafeWorkbook(f"refused: the workbook links to an external target in '{e.filename}' "
                                      f"({target[:80]}); links to other files are not read. Break the links or "
-                                     "export CSV")
+                                     f"{limits.instead}")
 
 
 def guard_saved_workbook(path: Path, error: type[SheetbuilderError] = UnsafeWorkbook) -> None:

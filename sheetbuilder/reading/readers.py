@@ -61,18 +61,26 @@ class Inputs:
         return self.tables.get(name)
 
 
+NOT_A_FILE = "is named like an export but is not a plain file (a folder, a pipe or a device); put the export itself here"
+
+
 def find_file(folder: Path, table: c.TableRule, settings: Settings) -> tuple[Path | None, Problem | None]:
     """The file that holds table in folder (by settings [files] or by its name)."""
     if table.name in settings.files:
         path = folder / settings.files[table.name]
-        if not path.is_file():
+        if not path.exists():
             return None, Problem(str(path.name), None, None,
                                  f"settings.toml [files] names this file for '{table.name}' but it does not exist")
+        if not path.is_file():
+            return None, Problem(str(path.name), None, None, NOT_A_FILE)
         return path, None
     want = c.file_key(table.name)
-    found = sorted(p for p in folder.iterdir()
-                   if p.is_file() and p.suffix.lower() in SUFFIXES
+    named = sorted(p for p in folder.iterdir() if p.suffix.lower() in SUFFIXES
                    and want in (c.file_key(p.stem), c.file_key(stem_without_dates(p.stem))))
+    odd = [p for p in named if not p.is_file()]
+    if odd:  # a pipe, device or folder named like the export is never skipped without a word
+        return None, Problem(odd[0].name, None, None, NOT_A_FILE)
+    found = named
     if len(found) > 1:
         names = ", ".join(p.name for p in found)
         return None, Problem(folder.name, None, None,

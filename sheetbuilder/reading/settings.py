@@ -289,7 +289,7 @@ def _known_tables(columns: dict, files: dict, problems: list[Problem]) -> tuple[
 MAX_SETTINGS_BYTES = 1 << 20
 """settings.toml holds a few dozen lines; a file over 1 MiB is refused before it is read."""
 MAX_SETTINGS_NESTING = 16
-"""Arrays and inline tables nested deeper than this are refused before parsing (ours nest two deep)."""
+"""Arrays, inline tables and dotted keys nested deeper than this are refused before parsing (ours nest three)."""
 
 
 MAX_SETTINGS_ENTRIES = 2_000
@@ -339,18 +339,25 @@ def settings_text(path: Path) -> tuple[str, str | None]:
         return "", f"is not UTF-8 text (byte {exc.start}); save it as UTF-8"
     depth = nesting_depth(text)
     if depth > MAX_SETTINGS_NESTING:
-        return "", (f"nests arrays or inline tables {depth} deep, more than {MAX_SETTINGS_NESTING}; "
+        return "", (f"nests arrays, inline tables or dotted keys {depth} deep, more than {MAX_SETTINGS_NESTING}; "
                     "settings need at most two levels")
     return text, None
 
 
 def nesting_depth(text: str) -> int:
-    """The deepest nesting of [ and { in TOML text, outside strings and comments (a bound, not a parse)."""
+    """The deepest nesting in TOML text, outside strings and comments (a bound, not a parse).
+
+    Counted: [ and { open, and the dots of a dotted key on one line (a.b.c nests three tables;
+    a dot between two digits is a number's, not a key's).
+    """
     depth = deepest = 0
+    dots = 0
     quote = ""
     i, n = 0, len(text)
     while i < n:
         ch = text[i]
+        if ch == "\n":
+            dots = 0
         if quote:
             if ch == "\\" and quote == '"':
                 i += 2
@@ -368,6 +375,9 @@ def nesting_depth(text: str) -> int:
             deepest = max(deepest, depth)
         elif ch in "]}":
             depth = max(0, depth - 1)
+        elif ch == "." and not (0 < i < n - 1 and text[i - 1].isdigit() and text[i + 1].isdigit()):
+            dots += 1
+            deepest = max(deepest, depth + dots + 1)
         i += 1
     return deepest
 

@@ -52,8 +52,10 @@ def open_workbook(path: Path, data_only: bool = True):
     import openpyxl
     from openpyxl.utils.exceptions import InvalidFileException
     path = Path(path)
-    if not path.is_file():
+    if not path.exists():
         raise WorkbookNotFound(f"the workbook {path} does not exist")
+    if not path.is_file():
+        raise NotAWorkbook(f"{path} is not a workbook file (a folder, a pipe or a device); give the .xlsx file itself")
     guard_saved_workbook(path, NotAWorkbook)  # zip, XML and link limits before openpyxl inflates anything
     try:
         return openpyxl.load_workbook(path, read_only=True, data_only=data_only)
