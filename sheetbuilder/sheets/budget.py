@@ -88,11 +88,11 @@ PRODUCT_DEFS: list[ColumnDef] = [
               total_reference=lambda df, ctx: float(pd.to_numeric(df["final"], errors="coerce").sum())),
     ColumnDef("cut_spend", "Spend to cut", "money", "Helper: the spend of a product to cut.",
               lambda df, ctx: df["spend"].where(df["direction"] == "cut", 0.0),
-              '=IF({c:direction}="cut",{c:spend},0)', width=8, hidden=True, total="={sum:cut_spend}",
+              '=IF({c:direction}="cut",{c:spend},0)', width=8, hidden=True, total='=SUMIFS({rng:profit.ad_spend},{rng:profit.direction},"cut")',
               total_reference=lambda df, ctx: float(df["cut_spend"].sum())),
     ColumnDef("grow_rev", "Revenue to grow", "money", "Helper: the revenue of a product to grow.",
               lambda df, ctx: df["revenue"].where(df["direction"] == "grow", 0.0),
-              '=IF({c:direction}="grow",{c:revenue},0)', width=8, hidden=True, total="={sum:grow_rev}",
+              '=IF({c:direction}="grow",{c:revenue},0)', width=8, hidden=True, total='=SUMIFS({rng:profit.revenue},{rng:profit.direction},"grow")',
               total_reference=lambda df, ctx: float(df["grow_rev"].sum())),
     ColumnDef("ratio", "Final / current", "ratio", "Working: the spend change campaigns follow (1 without spend).",
               lambda df, ctx: (pd.to_numeric(df["final"], errors="coerce") / df["spend"].where(df["spend"] != 0))
