@@ -29,6 +29,8 @@ SORT_KEYS = {
 MATCH_ORDER = {m: i for i, m in enumerate(c.MATCH_TYPES)}
 # Derived columns written after the imported ones: (table, column, header, what it holds).
 DERIVED = {
+    "catalog": [("_pos", "position", "Helper: the row's place as built; Profit finds each product's row by it "
+                                     "after in_catalog is sorted.")],
     "ad_products": [("_type_code", "ad_type_code", "Helper: a number per ad type, for the Mix sheet's sums.")],
     "targets": [("_live", "live", "Helper: 1 where the target and its campaign are enabled."),
                 ("_product", "product", "Helper: the first product its ad group advertises.")],
@@ -112,6 +114,8 @@ def plan_input_sheets(inputs: Inputs, fold_plurals: bool = False,
         if frame is None:
             continue
         frame = sorted_rows(rule.name, _derive(rule.name, frame, inputs, fold_plurals))
+        if rule.name == "catalog":
+            frame = frame.assign(_pos=[float(i) for i in range(1, len(frame) + 1)])
         name = sheet_name(rule.name)
         editable = EDITABLE.get(rule.name, set())
         columns = []
@@ -138,7 +142,8 @@ def plan_input_sheets(inputs: Inputs, fold_plurals: bool = False,
             style = "text" if frame[column].dtype == object else "int"
             columns.append(Column(header, style, DATA, frame[column].tolist(), width=10))
         columns.append(Column("source_row", "int", DATA, frame["_row"].tolist(), width=10))
-        sheets.append(Sheet(name, table=Table(HEADER_ROW, columns), freeze=(1, 0), tab_color="#8C8C8C"))
+        sheets.append(Sheet(name, table=Table(HEADER_ROW, columns), freeze=(1, 0), tab_color="#8C8C8C",
+                            sortable=rule.name == "catalog"))  # Profit finds each catalog row by source_row
         layouts[rule.name] = InputSheet(rule.name, name, frame, ranges)
     return sheets, layouts
 

@@ -404,6 +404,8 @@ def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress:
         ws.set_tab_color(sheet.tab_color)
     if sheet.hidden:
         ws.hide()
+    if sheet.sortable:
+        return ws
     ws.protect("", {"autofilter": True, "sort": True, "format_columns": True, "format_rows": True,
                     "select_locked_cells": True, "select_unlocked_cells": True, "objects": True})
     return ws

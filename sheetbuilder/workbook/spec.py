@@ -206,6 +206,9 @@ class Sheet:
     page: PageSetup | None = None  # None: stacked_pages over its tables
     tab_color: str | None = None
     hidden: bool = False
+    # The user may sort its table (the lookups into it find their rows by key): written unprotected, since
+    # LibreOffice and Excel both refuse to sort locked cells on a protected sheet, whatever it allows.
+    sortable: bool = False
 
     def page_setup(self) -> PageSetup:
         """How this sheet prints: its declared page setup, or its tables stacked (see stacked_pages)."""
