@@ -96,7 +96,20 @@ def plan_actions(demo: Path) -> dict[str, list[dict]]:
         "catalog_by_name": [_sort_step(catalog, "product_id", "product_name", ascending=False)],
         "bids_and_terms": [_sort_step(bids, "Campaign", "Target"),  # built by money at stake
                            _sort_step(terms, "Campaign", "Search term", ascending=False)],
+        "cost_for_added_product": [{"op": "set", "sheet": "in_catalog", "cell": cell, "value": value}
+                                   for cell, value in _added_product_cells(catalog).items()],
     }
+
+
+ADDED = "LF-1999"  # in the demo's store sales, not in its catalog: the build adds its row to in_catalog
+TYPED = {"price": 20.0, "unit_cost": 8.0, "fees_per_unit": 2.0}
+
+
+def _added_product_cells(catalog) -> dict[str, float]:
+    """{cell: value} typing TYPED into the added product's in_catalog row."""
+    header = [c.value for c in catalog[1]]
+    row = next(r for r in range(2, catalog.max_row + 1) if catalog.cell(r, 1).value == ADDED)
+    return {catalog.cell(row, header.index(k) + 1).coordinate: v for k, v in TYPED.items()}
 
 
 def run_driver(jobs: list[dict], work: Path) -> dict:
@@ -194,3 +207,19 @@ def test_changes_on_a_sorted_workbook_equals_its_actions_sheet_and_finds_nothing
     assert len(result.refused) == sum((sheet - written).values())
     assert {"add keyword", "add product target"} == {change[0] for change in sheet - written}
     assert _actions_sheet(hands["as_built"]) == _actions_sheet(hands[action])
+
+
+@pytest.mark.libreoffice
+@pytest.mark.slow
+def test_a_cost_typed_on_the_added_catalog_row_reaches_profit_live(hands):
+    def profit(path):
+        ws = openpyxl.load_workbook(path, data_only=True)["Profit"]
+        top, last, headers = _table(ws, "Product ID")
+        rows = [dict(zip(headers, [ws.cell(r, c).value for c in range(1, len(headers) + 1)]))
+                for r in range(top + 1, last + 1)]
+        return next(r for r in rows if r["Product ID"] == ADDED)
+    before, after = profit(hands["as_built"]), profit(hands["cost_for_added_product"])
+    assert ("no margin", None) == (before["Status"], before["Margin before ads"])
+    margin = (TYPED["price"] - TYPED["unit_cost"] - TYPED["fees_per_unit"]) / TYPED["price"]
+    assert margin == pytest.approx(after["Margin before ads"], abs=1e-12)
+    assert after["Revenue"] * margin - after["Ad spend"] == pytest.approx(after["Net profit after ads"], abs=1e-9)
