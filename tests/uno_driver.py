@@ -16,38 +16,15 @@ It prints one JSON object {label: {"error": text or None}}. soffice is ended by 
 from __future__ import annotations
 
 import json
-import os
 import shutil
-import subprocess
 import sys
-import tempfile
-import time
 from pathlib import Path
 
 import uno
-from com.sun.star.beans import PropertyValue
-from com.sun.star.connection import NoConnectException
 from com.sun.star.table import TableSortField
 
-
-def _prop(name: str, value) -> PropertyValue:
-    p = PropertyValue()
-    p.Name, p.Value = name, value
-    return p
-
-
-def _connect(pipe: str, proc: subprocess.Popen, wait_s: float = 120):
-    local = uno.getComponentContext()
-    resolver = local.ServiceManager.createInstanceWithContext("com.sun.star.bridge.UnoUrlResolver", local)
-    end = time.time() + wait_s
-    while True:
-        try:
-            ctx = resolver.resolve(f"uno:pipe,name={pipe};urp;StarOffice.ComponentContext")
-            return ctx.ServiceManager.createInstanceWithContext("com.sun.star.frame.Desktop", ctx)
-        except NoConnectException:
-            if proc.poll() is not None or time.time() > end:
-                raise SystemExit(f"soffice did not start (exit {proc.poll()})")
-            time.sleep(0.5)
+sys.path.insert(0, str(Path(__file__).resolve().parent.parent / "benchmarks"))
+from lo_uno import _prop, run_jobs  # noqa: E402  (one soffice per run, as the benchmark starts it)
 
 
 def _sort(sheet, step: dict) -> None:
@@ -96,28 +73,7 @@ def run_job(desktop, job: dict, scratch: Path) -> dict:
 
 def main(argv: list[str]) -> int:
     jobs = json.loads(Path(argv[0]).read_text(encoding="utf-8"))
-    with tempfile.TemporaryDirectory(prefix="sb-uno-test-") as tmp:
-        pipe = f"sbtest{os.getpid()}"
-        exe = os.environ.get("SOFFICE", "soffice")
-        proc = subprocess.Popen([exe, f"-env:UserInstallation=file://{Path(tmp) / 'profile'}", "--headless",
-                                 "--invisible", "--norestore", "--nologo", "--nodefault",
-                                 f"--accept=pipe,name={pipe};urp;StarOffice.ComponentContext"],
-                                stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, env={**os.environ, "HOME": tmp})
-        results = {}
-        try:
-            desktop = _connect(pipe, proc)
-            for job in jobs:
-                results[job["label"]] = run_job(desktop, job, Path(tmp))
-            try:
-                desktop.terminate()
-            except Exception:  # the bridge closes as soffice quits
-                pass
-            proc.wait(timeout=60)
-        finally:
-            if proc.poll() is None:
-                proc.kill()
-                proc.wait()
-    print(json.dumps(results))
+    print(json.dumps(run_jobs(jobs, run_job, "sbtest")))
     return 0
 
 
