@@ -10,7 +10,8 @@ A step is one of
   {"op": "sort", "sheet", "range": [first col, first row, last col, last row] (0-based, the rows
    sorted, without the header), "by": column offset in the range, "ascending": bool}: Data > Sort;
   {"op": "set", "sheet", "cell": "D27", "value": a number or text}: typing into one cell.
-A sort or a typed value on a protected sheet is refused, as the program refuses it to a person.
+A sort or a typed value reaching a locked cell of a protected sheet is refused, as the program refuses
+it to a person.
 It prints one JSON object {label: {"error": text or None}}. soffice is ended by its process id.
 """
 from __future__ import annotations
@@ -43,6 +44,17 @@ def _sort(sheet, step: dict) -> None:
     uno.invoke(rng, "sort", (uno.Any("[]com.sun.star.beans.PropertyValue", tuple(desc)),))
 
 
+def _locked(sheet, step: dict) -> bool:
+    """Whether the step reaches a locked cell (refused on a protected sheet): each column's first and last
+    cell of a sorted range (a column's cells share one style), or the typed cell."""
+    if step["op"] == "set":
+        cells = [sheet.getCellRangeByName(step["cell"])]
+    else:
+        c0, r0, c1, r1 = step["range"]
+        cells = [sheet.getCellByPosition(c, r) for c in range(c0, c1 + 1) for r in (r0, r1)]
+    return any(cell.CellProtection.IsLocked for cell in cells)
+
+
 def _set(sheet, step: dict) -> None:
     cell = sheet.getCellRangeByName(step["cell"])
     if isinstance(step["value"], str):
@@ -60,7 +72,7 @@ def run_job(desktop, job: dict, scratch: Path) -> dict:
     try:
         for step in job["steps"]:
             sheet = doc.Sheets.getByName(step["sheet"])
-            if sheet.isProtected():
+            if sheet.isProtected() and _locked(sheet, step):
                 return {"error": f"{step['sheet']} is protected: LibreOffice refuses to {step['op']} there"}
             {"sort": _sort, "set": _set}[step["op"]](sheet, step)
         doc.calculateAll()

@@ -107,8 +107,10 @@ STEPS = [
     "(with --previous) to print the lists as they stand.",
     "Sorting: Profit, Bids, Terms and in_catalog may be sorted and filtered (Data > Sort on the table, header to "
     "last row; Profit's Total row stays below it): every other sheet finds their rows by key, so every figure "
-    "stays right and Harvest, Negatives and Actions re-fill in the new order. The other sheets are protected "
-    "and keep their order; to leave a row out, type keep (Bids) or skip (Terms) in its Decision rather than deleting it.",
+    "stays right and Harvest, Negatives and Actions re-fill in the new order. The other sheets cannot be sorted; "
+    "rows cannot be deleted anywhere: to leave a row out, type keep (Bids) or skip (Terms) in its Decision.",
+    "New products: a product your exports name but your catalog lacks has a row on in_catalog with its unit cost "
+    "highlighted; type its price, unit cost and fees there and Profit follows.",
 ]
 
 BID_METHOD = [
