@@ -9,10 +9,11 @@ the steps in order, recalculates every formula (calculateAll) and saves the work
 A step is one of
   {"op": "sort", "sheet", "range": [first col, first row, last col, last row] (0-based, the rows
    sorted, without the header), "by": column offset in the range, "ascending": bool}: Data > Sort;
-  {"op": "set", "sheet", "cell": "D27", "value": a number or text}: typing into one cell.
+  {"op": "set", "sheet", "cell": "D27", "value": a number or text}: typing into one cell;
+  {"op": "delete_row", "sheet", "row": 0-based row}: Delete Rows on one row.
 A sort or a typed value reaching a locked cell of a protected sheet is refused, as the program refuses
 it to a person.
-It prints one JSON object {label: {"error": text or None}}. soffice is ended by its process id.
+It prints one JSON object {label: {"error": text or None}} (the first refusal, if any). soffice is ended by its process id.
 """
 from __future__ import annotations
 
@@ -72,6 +73,12 @@ def run_job(desktop, job: dict, scratch: Path) -> dict:
     try:
         for step in job["steps"]:
             sheet = doc.Sheets.getByName(step["sheet"])
+            if step["op"] == "delete_row":  # LibreOffice itself refuses it on a protected sheet
+                try:
+                    sheet.Rows.removeByIndex(int(step["row"]), 1)
+                except uno.getClass("com.sun.star.uno.RuntimeException") as exc:
+                    return {"error": f"LibreOffice refused to delete row {step['row'] + 1} of {step['sheet']}: {exc}"}
+                continue
             if sheet.isProtected() and _locked(sheet, step):
                 return {"error": f"{step['sheet']} is protected: LibreOffice refuses to {step['op']} there"}
             {"sort": _sort, "set": _set}[step["op"]](sheet, step)
