@@ -38,6 +38,9 @@ libreoffice() {
       || { echo "LibreOffice Calc is missing and could not be installed: apt-get install libreoffice-calc"; exit 1; }
   fi
   if ! command -v pdftoppm >/dev/null; then apt_install poppler-utils || true; fi
+  if ! /usr/bin/python3 -c "import uno" 2>/dev/null; then  # the UNO tests drive LibreOffice as a person would
+    apt_install python3-uno || { echo "python3-uno is missing and could not be installed: apt-get install python3-uno"; exit 1; }
+  fi
 }
 
 gnumeric() {

@@ -116,13 +116,14 @@ def time_file(desktop, job: dict, scratch: Path) -> dict:
     return out
 
 
-def main(argv: list[str]) -> int:
-    jobs = json.loads(Path(argv[0]).read_text(encoding="utf-8"))
+def run_jobs(jobs: list[dict], do_job, name: str = "sbbench") -> dict:
+    """Start one headless soffice (private profile, ended by its process id) and run do_job(desktop, job,
+    scratch folder) for each job; {job label: what do_job returned}. tests/uno_driver.py uses it too."""
     with tempfile.TemporaryDirectory(prefix="sb-uno-") as tmp:
         user = Path(tmp) / "profile" / "user"
         user.mkdir(parents=True)
         (user / "registrymodifications.xcu").write_text(_PROFILE, encoding="utf-8")
-        pipe = f"sbbench{os.getpid()}"
+        pipe = f"{name}{os.getpid()}"
         exe = os.environ.get("SOFFICE", "soffice")
         proc = subprocess.Popen([exe, f"-env:UserInstallation=file://{Path(tmp) / 'profile'}", "--headless",
                                  "--invisible", "--norestore", "--nologo", "--nodefault",
@@ -132,7 +133,7 @@ def main(argv: list[str]) -> int:
         try:
             desktop = _connect(pipe, proc)
             for job in jobs:
-                results[job["label"]] = time_file(desktop, job, Path(tmp))
+                results[job["label"]] = do_job(desktop, job, Path(tmp))
             try:
                 desktop.terminate()
             except Exception:  # the bridge closes as soffice quits
@@ -142,7 +143,12 @@ def main(argv: list[str]) -> int:
             if proc.poll() is None:
                 proc.kill()
                 proc.wait()
-    print(json.dumps(results))
+    return results
+
+
+def main(argv: list[str]) -> int:
+    jobs = json.loads(Path(argv[0]).read_text(encoding="utf-8"))
+    print(json.dumps(run_jobs(jobs, time_file)))
     return 0
 
 

@@ -15,6 +15,7 @@ from sheetbuilder.weekly.change_list import followup_of
 from sheetbuilder.weekly.record import read_saved_workbook
 from sheetbuilder.errors import ERROR, WARNING, InputProblems, OutputExists, Problem, SheetbuilderError, UnsafeOutput
 from sheetbuilder.reading.account import account_of, check_previous
+from sheetbuilder.sheets.inputs import with_missing_products
 from sheetbuilder.reading.periods import settings_for_inputs
 from sheetbuilder.reading.readers import Inputs, read_inputs
 from sheetbuilder.workbook.render import Progress, render
@@ -53,6 +54,8 @@ def load(folder: Path, besides: tuple[Path, ...] = ()) -> tuple[Inputs, Settings
                                 f"({settings.bid_ceiling:g}); expected floor <= ceiling"))
     if any(p.severity == ERROR for p in problems):
         raise InputProblems(problems)
+    if inputs.tables.get("catalog") is not None:  # a row to fill on in_catalog for every product it lacks
+        inputs.tables["catalog"] = with_missing_products(inputs.tables["catalog"], inputs.tables)
     return inputs, settings, problems
 
 

@@ -13,6 +13,11 @@ from collections import defaultdict
 BLANK = None
 
 
+def _is_blank(v) -> bool:
+    """A blank cell as the readers give it: None or NaN."""
+    return v is None or (isinstance(v, float) and math.isnan(v))
+
+
 def _div(a, b):
     if a is BLANK or b is BLANK or b == 0:
         return BLANK
@@ -53,7 +58,8 @@ def profit_oracle(tables, settings, catalog_edits=None, target_overrides=None):
             given = cat.get("margin")
             if given is not None and not (isinstance(given, float) and math.isnan(given)):
                 margin = given
-            elif cat["price"] != 0 and not math.isnan(cat["unit_cost"]):  # a blank unit cost is missing, not 0
+            elif not _is_blank(cat["price"]) and cat["price"] != 0 and not _is_blank(cat["unit_cost"]):
+                # a blank price (a row to fill) or a blank unit cost (missing, never 0) gives no margin
                 margin = (cat["price"] - cat["unit_cost"] - cat["fees_per_unit"]) / cat["price"]
             t = cat.get("target_acos")
             if t is not None and not (isinstance(t, float) and math.isnan(t)):

@@ -34,9 +34,14 @@ def _block(first: str, last: str, rng: str) -> str:
     return f'=IF({first}6="",0,SUM(INDEX({rng},{first}6):INDEX({rng},{last}6)))'
 
 
+# The product's catalog row: its catalog position (Profit V) when in_catalog's position column (M, after the
+# seven catalog columns and their five exported_ twins) still holds it there, else found by exact MATCH (sorted).
+AT_CATALOG = "IF(INDEX(in_catalog!$M$2:$M$3,V6)=V6,V6,MATCH(V6,in_catalog!$M$2:$M$3,0))"
+
+
 def _cat(letter: str) -> str:
-    """The product's value in one in_catalog column (its catalog position is in column V)."""
-    return f"INDEX(in_catalog!${letter}$2:${letter}$3,V6)"
+    """The product's value in one in_catalog column, read at its checked catalog row."""
+    return f"INDEX(in_catalog!${letter}$2:${letter}$3,{AT_CATALOG})"
 
 
 # Profit, body row 6: {header: formula}. Columns A Product ID ... S Your target ACoS, T Target check, U Bid target
@@ -117,7 +122,7 @@ def test_profit_columns_write_the_documented_formula_in_their_first_row(two_prod
 def test_profit_value_columns_hold_no_formula(two_products):
     table = two_products.spec.sheet("Profit").table
     assert ["Product ID", "Product name", "Your target ACoS", "Catalog row", "Sales first row", "Sales last row",
-            "Ad first row", "Ad last row"] == [c.header for c in table.columns if c.formula is None]
+            "Ad first row", "Ad last row", "Position"] == [c.header for c in table.columns if c.formula is None]
 
 
 def test_profit_totals_row_writes_the_documented_formulas(two_products):
@@ -131,6 +136,9 @@ def test_profit_block_positions_are_the_hand_counted_rows(two_products):
     table = two_products.spec.sheet("Profit").table
     values = {c.header: list(c.values) for c in table.columns}
     assert [1, 2] == values["Catalog row"]
+    assert [1, 2] == values["Position"]  # the key other sheets check after Profit is sorted
+    catalog = {c.header: list(c.values) for c in two_products.spec.sheet("in_catalog").table.columns}
+    assert [1, 2] == catalog["position"]
     assert ([1, 3], [2, 3]) == (values["Sales first row"], values["Sales last row"])
     assert ([1, 2], [1, 2]) == (values["Ad first row"], values["Ad last row"])
 
@@ -164,8 +172,10 @@ def test_ad_group_blends_are_computed_once_on_groups_from_weight_times_value_sum
     # header row 8 (a blank row and its title between), row 9 the account's values, row 10 C1/G1.
     sheet = with_targets.spec.sheet("Groups")
     groups = {c.header: _first_row(c, 4) for c in sheet.table.columns}
-    assert "=E4*INDEX(Profit!$U$6:$U$7,K4)" == groups["Weight x target ACoS"]
-    assert "=E4*INDEX(Profit!$AC$6:$AC$7,K4)" == groups["Weight x CVR"]
+    # K4 is checked against Profit's Position column (AH, after AG Revenue with a margin): Profit may be sorted.
+    at_profit = "IF(INDEX(Profit!$AH$6:$AH$7,K4)=K4,K4,MATCH(K4,Profit!$AH$6:$AH$7,0))"
+    assert f"=E4*INDEX(Profit!$U$6:$U$7,{at_profit})" == groups["Weight x target ACoS"]
+    assert f"=E4*INDEX(Profit!$AC$6:$AC$7,{at_profit})" == groups["Weight x CVR"]
     assert None is groups["Ad spend"] is groups["Blend weight"]  # export-only: plain values
     blends = sheet.more[0]
     assert 8 - 1 == blends.first_row

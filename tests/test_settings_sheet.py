@@ -39,9 +39,22 @@ def test_every_live_setting_cell_is_an_unlocked_validated_input(demo_build):
             assert cell.protection.locked is not False, spec.key
 
 
-def test_sheets_are_protected_and_formula_cells_locked(demo_build):
+# The sheets a user may sort (README, "Sorting"): LibreOffice and Excel both refuse to sort locked cells on a
+# protected sheet whatever the protection allows, so their table cells are unlocked; every lookup into them
+# finds its row by key. They stay protected, so no row can be deleted (a deleted row would cascade #REF!).
+SORTABLE = ["Profit", "Bids", "Terms", "in_catalog"]
+
+
+def test_sheets_are_protected_and_formula_cells_locked_except_on_the_sortable_tables(demo_build):
     wb = openpyxl.load_workbook(demo_build.output)
     for ws in wb.worksheets:
         assert ws.protection.sheet, ws.title
-    profit = wb["Profit"]
-    assert profit["G6"].value.startswith("=") and profit["G6"].protection.locked is not False
+        assert ws.protection.deleteRows and ws.protection.insertRows, ws.title  # True: not allowed
+        assert not ws.protection.sort and not ws.protection.autoFilter, ws.title  # False: allowed
+    budget = wb["Budget"]
+    assert budget["C6"].value.startswith("=") and budget["C6"].protection.locked is not False
+    for name in SORTABLE:
+        ws = wb[name]
+        header = 1 if name == "in_catalog" else 5 if name == "Profit" else 4
+        assert [False] * ws.max_column == [c.protection.locked for c in ws[header + 1]], name
+    assert wb["Profit"]["G6"].value.startswith("=")

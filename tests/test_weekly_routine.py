@@ -142,8 +142,11 @@ def test_rebuilding_with_previous_carries_every_typed_value(routine):
 def test_an_edit_whose_row_is_gone_is_listed_not_dropped(routine, tmp_path):
     folder = tmp_path / "next_week"
     shutil.copytree(DEMO, folder)
-    lines = (folder / "catalog.csv").read_text().splitlines()
-    (folder / "catalog.csv").write_text("\n".join(l for l in lines if not l.startswith("LF-1012")) + "\n")
+    # Gone from every export: a product only the catalog lost still gets a row to fill on in_catalog, where its
+    # typed cost is carried (tests/test_adding_products.py).
+    for name in ("catalog.csv", "store_sales.csv", "ad_products.csv"):
+        lines = (folder / name).read_text().splitlines()
+        (folder / name).write_text("\n".join(l for l in lines if "LF-1012" not in l) + "\n")
     result = build(folder, tmp_path / "week2.xlsx", built_on=BUILT_ON, previous=routine["saved"])
     ws = open_values(result.output)["Unmatched edits"]
     rows, _, _ = read_table(ws, 4, "Sheet", stop=None)

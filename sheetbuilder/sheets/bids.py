@@ -289,5 +289,5 @@ def plan_bids(targets: InputSheet, campaigns: pd.DataFrame | None, groups: Plann
                    "to override a proposal. Grey figures are copied from in_targets (Target row); black ones follow "
                    "your inputs. The working columns to the right are hidden.", style="note")]]
     sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, planned.columns, highlights=highlights),
-                  freeze=(HEADER_ROW + 1, 3), validations=validations, tab_color="#063F63")
+                  freeze=(HEADER_ROW + 1, 3), validations=validations, tab_color="#063F63", sortable=True)
     return sheet, planned

@@ -20,7 +20,7 @@ import pandas as pd
 from sheetbuilder.sheets.decisions import apply_decision, decision_formula, decision_validation, editable
 from sheetbuilder.sheets.lists import running_key
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, plan_table
-from sheetbuilder.workbook.formula import block_sum, col_letter, quote_sheet
+from sheetbuilder.workbook.formula import block_sum, col_letter, keyed_row, quote_sheet
 from sheetbuilder.reading.numbers import ROUNDING_NUDGE, round_half_away
 from sheetbuilder.sheets.inputs import InputSheet
 from sheetbuilder.reading.settings import Settings
@@ -39,6 +39,10 @@ class BudgetContext:
     products: pd.DataFrame | None = None
     links: pd.DataFrame | None = None
     totals: dict[str, Any] = field(default_factory=dict)
+
+
+# The product's Profit row, checked against Profit's Position column (a user may sort Profit).
+_AT_PROFIT = keyed_row("{rng:profit.pos}", "{c:prow}")
 
 
 def _from_profit(key: str):
@@ -60,12 +64,12 @@ PRODUCT_DEFS: list[ColumnDef] = [
     ColumnDef("product_id", "Product ID", "text", "The product (as on Profit).", lambda df, ctx: df["product_id"],
               kind=DATA, width=14, total="Total"),
     ColumnDef("direction", "Direction", "label", "From Profit: cut, grow or hold.", _from_profit("direction"),
-              "=INDEX({rng:profit.direction},{c:prow})", width=10),
+              "=INDEX({rng:profit.direction},%s)" % _AT_PROFIT, width=10),
     ColumnDef("revenue", "Revenue", "money", "From Profit.", _from_profit("revenue"),
-              "=INDEX({rng:profit.revenue},{c:prow})", width=12, total="={sum:revenue}",
+              "=INDEX({rng:profit.revenue},%s)" % _AT_PROFIT, width=12, total="={sum:revenue}",
               total_reference=lambda df, ctx: float(df["revenue"].sum())),
     ColumnDef("spend", "Current spend", "money", "The product's ad spend in the period (Profit).",
-              _from_profit("ad_spend"), "=INDEX({rng:profit.ad_spend},{c:prow})", width=12, total="={sum:spend}",
+              _from_profit("ad_spend"), "=INDEX({rng:profit.ad_spend},%s)" % _AT_PROFIT, width=12, total="={sum:spend}",
               total_reference=lambda df, ctx: float(df["spend"].sum())),
     ColumnDef("proposed", "Proposed spend", "money",
               "Cut products give up the shift share of their spend; grow products receive it in proportion to "

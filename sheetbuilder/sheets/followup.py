@@ -26,7 +26,7 @@ from sheetbuilder.sheets.actions import ADDS
 from sheetbuilder.sheets.anchors import without_absent
 from sheetbuilder.values import is_number
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, plan_table
-from sheetbuilder.workbook.formula import quote_sheet
+from sheetbuilder.workbook.formula import keyed_row, quote_sheet
 from sheetbuilder.workbook.palette import DIRECTION_STATES
 from sheetbuilder.workbook.spec import DATA, Cell, Highlight, Sheet, Table
 
@@ -224,7 +224,7 @@ def _change(key: str):
 def product_defs() -> list[ColumnDef]:
     """The Products then and now columns: each figure last period, this period (live) and the change."""
     out = [_data("product_id", "Product ID", "text", "The product.", 12)]
-    live = '=IF({row:ppos}=0,"",INDEX({rng:profit.%s},MAX(1,{row:ppos})))'
+    live = '=IF({row:ppos}=0,"",INDEX({rng:profit.%s},' + keyed_row("{rng:profit.pos}", "MAX(1,{row:ppos})") + '))'
     for key, header, style in _PRODUCT_FIGURES:
         out += [_data(f"{key}_then", f"{header} then", style, f"{header} last period (last week's workbook)."),
                 ColumnDef(f"{key}_now", f"{header} now", style, f"{header} this period (Profit, live).", _now(key),

@@ -16,7 +16,7 @@ import pandas as pd
 
 from sheetbuilder.sheets.blends import BLEND_TITLE, BlendContext, blend_columns, blend_frame
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, plan_table
-from sheetbuilder.workbook.formula import block_sum
+from sheetbuilder.workbook.formula import block_sum, keyed_row
 from sheetbuilder.sheets.inputs import InputSheet
 from sheetbuilder.reading.settings import Settings
 from sheetbuilder.workbook.spec import DATA, Cell, Sheet, Table
@@ -33,6 +33,10 @@ class GroupsContext:
     totals: dict[str, Any] = field(default_factory=dict)
 
 
+# The product's Profit row, checked against Profit's Position column (a user may sort Profit).
+_AT_PROFIT = keyed_row("{rng:profit.pos}", "{c:prow}")
+
+
 def _profit_value(key: str):
     def compute(df: pd.DataFrame, ctx: GroupsContext) -> pd.Series:
         values = ctx.profit[key].to_numpy(dtype=float)
@@ -44,7 +48,7 @@ def _weighted(key: str, header: str, profit_key: str, help: str) -> ColumnDef:
     """A product's blend weight times one of its Profit values: what its ad group's blend sums."""
     def compute(df: pd.DataFrame, ctx: GroupsContext) -> pd.Series:
         return df["weight"] * _profit_value(profit_key)(df, ctx)
-    return ColumnDef(key, header, "ratio", help, compute, "={c:weight}*INDEX({rng:profit.%s},{c:prow})" % profit_key,
+    return ColumnDef(key, header, "ratio", help, compute, "={c:weight}*INDEX({rng:profit.%s},%s)" % (profit_key, _AT_PROFIT),
                      width=11)
 
 
@@ -65,7 +69,7 @@ DEFS: list[ColumnDef] = [
     ColumnDef("above", "Above break-even", "int", "1 where the product's target ACoS is above its break-even ACoS.",
               lambda df, ctx: pd.Series([1.0 if ctx.profit["target_check"].iloc[int(r) - 1] else 0.0
                                          for r in df["prow"]], index=df.index, dtype=float),
-              '=IF(INDEX({rng:profit.target_check},{c:prow})<>"",1,0)', width=8),
+              '=IF(INDEX({rng:profit.target_check},%s)<>"",1,0)' % _AT_PROFIT, width=8),
     _weighted("w_cvr", "Weight x CVR", "prod_cvr", "Blend weight x the product's ad conversion rate (Profit)."),
     _weighted("w_aov", "Weight x order value", "prod_aov", "Blend weight x the product's ad sales per order (Profit)."),
     _weighted("w_price", "Weight x price", "prod_price",

@@ -105,6 +105,12 @@ STEPS = [
     "Printing: every sheet prints on A4 at the width of its page, with its table's header on every page. Harvest, "
     "Negatives and Actions print the rows filled when the workbook was built: after typing Decisions, rebuild "
     "(with --previous) to print the lists as they stand.",
+    "Sorting: Profit, Bids, Terms and in_catalog may be sorted and filtered (Data > Sort on the table, header to "
+    "last row; Profit's Total row stays below it): every other sheet finds their rows by key, so every figure "
+    "stays right and Harvest, Negatives and Actions re-fill in the new order. The other sheets cannot be sorted; "
+    "rows cannot be deleted anywhere: to leave a row out, type keep (Bids) or skip (Terms) in its Decision.",
+    "New products: a product your exports name but your catalog lacks has a row on in_catalog with its unit cost "
+    "highlighted; type its price, unit cost and fees there and Profit follows.",
 ]
 
 BID_METHOD = [

@@ -5,6 +5,7 @@ else is the export as read, locked. Each sheet ends with the row number it came 
 """
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import pandas as pd
@@ -13,7 +14,7 @@ from sheetbuilder.reading import contract as c
 from sheetbuilder.workbook.formula import range_ref
 from sheetbuilder.reading.normalise import normalise
 from sheetbuilder.reading.readers import Inputs
-from sheetbuilder.workbook.spec import DATA, INPUT, Column, Sheet, Table
+from sheetbuilder.workbook.spec import DATA, INPUT, Column, Highlight, Sheet, Table
 
 HEADER_ROW = 0  # in_ sheets: the header in row 1, data from row 2
 CATALOG_NAME = "sb_catalog"  # defined names <this>_<column> over product_id, each editable column and its exported_ twin
@@ -29,10 +30,40 @@ SORT_KEYS = {
 MATCH_ORDER = {m: i for i, m in enumerate(c.MATCH_TYPES)}
 # Derived columns written after the imported ones: (table, column, header, what it holds).
 DERIVED = {
+    "catalog": [("_pos", "position", "Helper: the row's place as built; Profit finds each product's row by it "
+                                     "after in_catalog is sorted.")],
     "ad_products": [("_type_code", "ad_type_code", "Helper: a number per ad type, for the Mix sheet's sums.")],
     "targets": [("_live", "live", "Helper: 1 where the target and its campaign are enabled."),
                 ("_product", "product", "Helper: the first product its ad group advertises.")],
 }
+
+
+TO_FILL = "Lavender"  # the state of a blank unit cost on in_catalog: a product whose cost is still to be typed
+
+
+def with_missing_products(catalog: pd.DataFrame | None, tables: dict) -> pd.DataFrame | None:
+    """The catalog with one row for every product the sales or ad exports name but the catalog lacks.
+
+    Such a row holds the product ID and nothing else (no name, no source row): its price, unit cost and
+    fees are left blank for the user to type on in_catalog, where a blank unit cost is highlighted, and
+    Profit reads them live like any catalog row. Without a catalog nothing is added.
+    """
+    if catalog is None:
+        return None
+    known = set(catalog["product_id"])
+    missing = sorted({p for name in ("store_sales", "ad_products") if tables.get(name) is not None
+                      for p in tables[name]["product_id"] if p != "" and p not in known})
+    if not missing:
+        return catalog
+    added = pd.DataFrame({col: [math.nan] * len(missing) for col in catalog.columns})
+    for col in next(t for t in c.TABLES if t.name == "catalog").columns:
+        if col.kind not in c.NUMERIC_KINDS:
+            added[col.name] = ""
+    added["product_id"] = missing
+    out = pd.concat([catalog, added.astype({k: v for k, v in catalog.dtypes.items() if k != "_row"})],
+                    ignore_index=True)
+    out.attrs = dict(catalog.attrs)
+    return out
 
 
 def ad_type_codes(ad_products: pd.DataFrame | None) -> dict[str, int]:
@@ -112,6 +143,8 @@ def plan_input_sheets(inputs: Inputs, fold_plurals: bool = False,
         if frame is None:
             continue
         frame = sorted_rows(rule.name, _derive(rule.name, frame, inputs, fold_plurals))
+        if rule.name == "catalog":
+            frame = frame.assign(_pos=[float(i) for i in range(1, len(frame) + 1)])
         name = sheet_name(rule.name)
         editable = EDITABLE.get(rule.name, set())
         columns = []
@@ -138,7 +171,9 @@ def plan_input_sheets(inputs: Inputs, fold_plurals: bool = False,
             style = "text" if frame[column].dtype == object else "int"
             columns.append(Column(header, style, DATA, frame[column].tolist(), width=10))
         columns.append(Column("source_row", "int", DATA, frame["_row"].tolist(), width=10))
-        sheets.append(Sheet(name, table=Table(HEADER_ROW, columns), freeze=(1, 0), tab_color="#8C8C8C"))
+        highlights = [Highlight(i, "", TO_FILL) for i, col in enumerate(columns) if col.header == "unit_cost"]
+        sheets.append(Sheet(name, table=Table(HEADER_ROW, columns, highlights=highlights), freeze=(1, 0),
+                            tab_color="#8C8C8C", sortable=rule.name == "catalog"))  # Profit finds each catalog row by source_row
         layouts[rule.name] = InputSheet(rule.name, name, frame, ranges)
     return sheets, layouts
 

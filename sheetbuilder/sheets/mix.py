@@ -19,7 +19,7 @@ import pandas as pd
 
 from sheetbuilder.reading import contract as c
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, blank_div, plan_table
-from sheetbuilder.workbook.formula import block_sum, col_letter, quote_sheet
+from sheetbuilder.workbook.formula import block_sum, col_letter, keyed_row, quote_sheet
 from sheetbuilder.reading.normalise import normalise
 from sheetbuilder.workbook.palette import STATES
 from sheetbuilder.sheets.inputs import InputSheet, ad_type_codes
@@ -186,7 +186,7 @@ def _top_share(key: str, header: str, total: str) -> ColumnDef:
 
     def others(df: pd.DataFrame, ctx: MixContext) -> float:
         return np.nan if ctx.profit[total].sum() == 0 else 1 - float(df[key].sum())
-    return ColumnDef(key, header, "percent", "From Profit.", compute, "=INDEX({rng:profit.%s},{row:prow})" % key,
+    return ColumnDef(key, header, "percent", "From Profit.", compute, "=INDEX({rng:profit.%s},%s)" % (key, keyed_row("{rng:profit.pos}", "{row:prow}")),
                      width=10, total='=IF({rng:profit_total.%s}=0,"",1-{sum:%s})' % (total, key),
                      total_reference=others)
 

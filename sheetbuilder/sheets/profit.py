@@ -21,7 +21,7 @@ import pandas as pd
 
 from sheetbuilder.sheets.decisions import editable
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, blank_div, plan_table
-from sheetbuilder.workbook.formula import block_sum
+from sheetbuilder.workbook.formula import block_sum, keyed_row
 from sheetbuilder.sheets.inputs import InputSheet
 from sheetbuilder.reading.readers import Inputs
 from sheetbuilder.reading.settings import Settings
@@ -53,8 +53,9 @@ def _block(table: str, column: str) -> str:
 
 
 def _cat(column: str) -> str:
-    """Formula text reading one catalog column at the product's catalog row."""
-    return "INDEX({rng:catalog.%s},{c:cat_row})" % column
+    """Formula text reading one catalog column at the product's catalog row (checked against in_catalog's
+    position column, so a sorted in_catalog still gives each product its own row)."""
+    return "INDEX({rng:catalog.%s},%s)" % (column, keyed_row("{rng:catalog.position}", "{c:cat_row}"))
 
 
 def _catalog_value(df: pd.DataFrame, ctx: ProfitContext, column: str) -> pd.Series:
@@ -274,6 +275,8 @@ DEFS: list[ColumnDef] = [
               lambda df, ctx: df["revenue"].where(df["margin"].notna(), 0.0),
               '=IF({c:margin}="",0,{c:revenue})', width=8, hidden=True,
               total="={sum:rev_with_margin}", total_reference=_rev_with_margin_total),
+    ColumnDef("pos", "Position", "int", "Helper: the row's place as built; other sheets find the product by it "
+              "after Profit is sorted.", lambda df, ctx: df["pos"], kind=DATA, width=8, hidden=True),
 ]
 
 # What a user types on Profit (a product's own target ACoS) and the key that finds its row again.
@@ -320,6 +323,7 @@ def product_frame(inputs: Inputs, layouts: dict[str, InputSheet]) -> pd.DataFram
         for key, column in sums.items():
             df[key] = df["product_id"].map(grouped[column].sum()).fillna(0.0).astype(float)
     df["target_override"] = np.nan
+    df["pos"] = np.arange(1, len(df) + 1, dtype=float)
     return df
 
 
@@ -360,5 +364,5 @@ def plan_profit(inputs: Inputs, layouts: dict[str, InputSheet], settings: Settin
         [Cell(warning_value(settings, built_on), warning_formula(), "alert")],
     ]
     sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, planned.columns, planned.totals, highlights),
-                  freeze=(HEADER_ROW + 1, 2), tab_color="#0B5C8A")
+                  freeze=(HEADER_ROW + 1, 2), tab_color="#0B5C8A", sortable=True)
     return sheet, planned

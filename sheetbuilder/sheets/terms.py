@@ -39,7 +39,7 @@ from sheetbuilder.reading.normalise import contains_phrase, looks_like_product_i
 from sheetbuilder.reading.numbers import ROUNDING_NUDGE, round_half_away
 from sheetbuilder.sheets.inputs import InputSheet
 from sheetbuilder.reading.settings import Settings
-from sheetbuilder.workbook.formula import block_sum, range_ref
+from sheetbuilder.workbook.formula import block_sum, keyed_row, range_ref
 from sheetbuilder.workbook.spec import DATA, INPUT, Cell, Highlight, Sheet, Table
 
 SHEET = "Terms"
@@ -535,7 +535,7 @@ def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, t
                    "term's rows on in_search_terms (Term first row to Term last row); black ones follow your inputs.",
                    style="note")]]
     sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, planned.columns, highlights=highlights),
-                  freeze=(HEADER_ROW + 1, 5), validations=validations, tab_color="#3A2A78")
+                  freeze=(HEADER_ROW + 1, 5), validations=validations, tab_color="#3A2A78", sortable=True)
     return sheet, planned, keys_sheet, keys
 
 
@@ -550,8 +550,11 @@ class ClashContext:
 
 CLASH_TITLE = ("Clashes: where a negative from one term (left) could block the keyword another term adds, or "
                "another term where it sells; Blocks = 1 keeps that negative off the lists")
-_FINAL_I = "INDEX({rng:terms.final},{c:i})"
-_ADDS_J = "INDEX({rng:terms.adds},{c:j})"
+# Terms rows i and j, checked against Terms' Position column (a user may sort Terms).
+_AT_I = keyed_row("{rng:terms.pos}", "{c:i}")
+_AT_J = keyed_row("{rng:terms.pos}", "{c:j}")
+_FINAL_I = "INDEX({rng:terms.final},%s)" % _AT_I
+_ADDS_J = "INDEX({rng:terms.adds},%s)" % _AT_J
 CLASH_DEFS: list[ColumnDef] = [
     ColumnDef("i", "Negative from term", "int", "The Terms position of the term whose negative could block.",
               lambda df, ctx: df["i"], kind=DATA, width=10),
@@ -565,10 +568,11 @@ CLASH_DEFS: list[ColumnDef] = [
         ("same_term", "Same term", "1 where both terms are the same after normalisation."))],
     ColumnDef("hit", "Blocks", "int", "1 where, with today's Finals and settings, the negative blocks j.",
               lambda df, ctx: pd.Series(clash_hits(df, ctx.terms, ctx.settings), index=df.index, dtype=float),
-              '=IF(%s="block",IF(AND(OR({c:same_term}=1,INDEX({rng:terms.words},{c:i})<phrase_below_words),'
+              '=IF(%s="block",IF(AND(OR({c:same_term}=1,INDEX({rng:terms.words},%s)<phrase_below_words),'
               'OR(AND(%s=1,{c:kw_in}=1,OR(negative_level="campaign",{c:kw_group}=1)),AND(INDEX({rng:terms.orders},'
-              '{c:j})>0,{c:src_in}=1,OR(negative_level="campaign",{c:src_group}=1)))),1,0),IF(AND(%s="promote",'
-              '%s=1,{c:kw_group}=1,{c:same_term}=1),1,0))' % (_FINAL_I, _ADDS_J, _FINAL_I, _ADDS_J), width=8),
+              '%s)>0,{c:src_in}=1,OR(negative_level="campaign",{c:src_group}=1)))),1,0),IF(AND(%s="promote",'
+              '%s=1,{c:kw_group}=1,{c:same_term}=1),1,0))' % (_FINAL_I, _AT_I, _ADDS_J, _AT_J, _FINAL_I, _ADDS_J),
+              width=8),
 ]
 
 

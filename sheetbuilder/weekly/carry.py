@@ -172,7 +172,7 @@ def _catalog_cells(wb, rows_of) -> dict[tuple[str, str], Any]:
     if areas is not None:
         area = areas["product_id"]
         cols = {k: a.first_col for k, a in areas.items()}
-        body = rows_of(area.sheet, frozenset(cols.values()))[area.first_row:area.last_row + 1]
+        body = rows_of(area.sheet, frozenset(cols.values()))[area.first_row:]  # and rows the user added below
     else:  # no names: by header text; an older layout without exported_ columns compares with the export
         rows = rows_of(CATALOG_SHEET)
         at = _header_index(rows, ["product_id"], SCAN_ROWS)

@@ -177,7 +177,7 @@ def saved_inputs(book: SavedBook) -> tuple[dict[str, Any], list]:
         header = ["" if v is None else str(v) for v in rows[0]]
         at = {h: i for i, h in enumerate(header) if h}
         body = [r for r in rows[1:] if any(v is not None and v != "" for v in r)]
-        data: dict[str, list] = {"_row": [int(r[at["source_row"]]) for r in body]}
+        data: dict[str, list] = {"_row": _source_rows(body, at.get("source_row"))}
         for col in rule.columns:
             i = at.get(col.name)
             values = [None if i is None else r[i] for r in body]
@@ -198,6 +198,12 @@ def saved_inputs(book: SavedBook) -> tuple[dict[str, Any], list]:
         frame = pd.DataFrame(data).sort_values("_row", kind="stable").reset_index(drop=True)
         for col in rule.columns:
             frame[col.name] = frame[col.name].astype(float if col.kind in c.NUMERIC_KINDS else object)
+        if rule.name == "catalog":  # one row per product: a row added for a product already listed is not read
+            repeated = frame["product_id"].duplicated()
+            problems += [Problem(sheet, None, "product_id", f"product {pid!r} is listed more than once; the first "
+                                                             "row is read, delete the others")
+                         for pid in dict.fromkeys(frame.loc[repeated, "product_id"])]
+            frame = frame.loc[~repeated].reset_index(drop=True)
         tables[rule.name] = frame
     missing = [sheet_name(rule.name) for rule in c.TABLES if rule.required and tables[rule.name] is None]
     if missing:  # every workbook we build holds them: the file was damaged or edited beyond reading
@@ -205,6 +211,22 @@ def saved_inputs(book: SavedBook) -> tuple[dict[str, Any], list]:
         raise UnreadableWorkbook(f"{book.path}: its {names} missing or empty, so the exports it was built from cannot be read; open it in the "
                                  "spreadsheet program and save it again, or build a new one")
     return tables, problems
+
+
+def _source_rows(body: list[list[Any]], at: int | None) -> list[int]:
+    """Each row's source row number; a row without one (added by the build for a product the catalog lacked,
+    or typed by the user below the table) numbered after every export row, in sheet order."""
+    given = [r[at] if at is not None and at < len(r) else None for r in body]
+    numbers = [int(v) if isinstance(v, (int, float)) and not isinstance(v, bool) and math.isfinite(v) else None
+               for v in given]
+    after = max([n for n in numbers if n is not None], default=1)
+    out = []
+    for n in numbers:
+        if n is None:
+            after += 1
+            n = after
+        out.append(n)
+    return out
 
 
 def _as_text(value: Any) -> str:

@@ -66,6 +66,20 @@ def block_sum(rng: str, first: str, last: str) -> str:
     return f"SUM(INDEX({rng},{first}):INDEX({rng},{last}))"
 
 
+def keyed_row(keys: str, row: str, key: str | None = None) -> str:
+    """The row of a sortable table that holds key, trusting the build's row first: one INDEX and a comparison.
+
+    IF(INDEX(keys,row)=key,row,MATCH(key,keys,0)): row is where the build wrote the row (written as
+    data or a formula), keys the table's column of numeric keys (its build position or source row),
+    which moves with the row when the user sorts the sheet. While the sheet is in build order the
+    check holds and no search is made; after a sort only the rows that moved pay for the exact
+    search. The key is a number, never text (MATCH reads * ? ~ in text as wildcards); a key no
+    longer on the sheet (its row deleted) gives #N/A, never another row's value. key defaults to row.
+    """
+    key = row if key is None else key
+    return f"IF(INDEX({keys},{row})={key},{row},MATCH({key},{keys},0))"
+
+
 def functions_in(formula: str) -> set[str]:
     """The function names a formula calls (text inside string literals ignored)."""
     return {name.upper() for name in _FUNCTION.findall(_STRING.sub('""', formula))}

@@ -384,6 +384,8 @@ def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress:
         ws.set_column(col, col, width, None, {"hidden": col in hidden})
     placed.append(("rows", 0, sheet.above))
     row = _write_rows(ws, 0, sheet.above, formats, sheet.heights)
+    if sheet.sortable:  # its tables' cells unlocked: sorting locked cells is refused even where sort is allowed
+        formats = formats["unlocked"]
     last_col = max([len(cells) - 1 for cells in [*sheet.above, *sheet.below]] +
                    [len(t.columns) - 1 for t in [sheet.table, *sheet.more] if t] + [0])
     if sheet.table:
@@ -473,6 +475,9 @@ def render(spec: WorkbookSpec, path: Path, progress: Progress | None = None, tmp
     """
     with _workbook(path, tmpdir) as wb:
         formats = {key: wb.add_format(style_properties(key, spec.currency_symbol)) for key in STYLES}
+        if any(sheet.sortable for sheet in spec.sheets):
+            formats["unlocked"] = {key: wb.add_format({**style_properties(key, spec.currency_symbol), "locked": False})
+                                   for key in STYLES}
         state_formats = {name: wb.add_format({"bg_color": s.fill, "font_color": s.font})
                          for name, s in STATES.items()}
         placed: dict[str, list[Placed]] = {}

@@ -206,6 +206,10 @@ class Sheet:
     page: PageSetup | None = None  # None: stacked_pages over its tables
     tab_color: str | None = None
     hidden: bool = False
+    # The user may sort its tables (the lookups into them find their rows by key): their cells are written
+    # unlocked, since LibreOffice and Excel both refuse to sort locked cells on a protected sheet whatever the
+    # protection allows; the sheet stays protected, so rows cannot be deleted (type skip or keep instead).
+    sortable: bool = False
 
     def page_setup(self) -> PageSetup:
         """How this sheet prints: its declared page setup, or its tables stacked (see stacked_pages)."""
