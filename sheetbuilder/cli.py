@@ -23,6 +23,7 @@ import signal
 import sys
 import time
 import traceback
+import warnings
 from pathlib import Path
 
 from rich.console import Console
@@ -315,7 +316,10 @@ def main(argv: list[str] | None = None) -> int:
     except ValueError:  # not the main thread: signals stay as they are
         pass
     try:
-        return _run(args, console, debug)
+        with warnings.catch_warnings():  # a library's warning (openpyxl on a workbook it half knows) is not ours
+            if not debug:               # to print: what matters reaches the user as a problem or a refusal
+                warnings.simplefilter("ignore")
+            return _run(args, console, debug)
     finally:
         for sig, old in handlers.items():
             signal.signal(sig, old)
