@@ -12,6 +12,17 @@ from hypothesis import strategies as st
 cents = st.integers(0, 60000).map(lambda c: c / 100)
 
 
+def _unique(rows: list[dict]) -> list[dict]:
+    """The rows in order, each row equal in every cell to an earlier one left out."""
+    seen, out = set(), []
+    for row in rows:
+        key = tuple(row.items())
+        if key not in seen:
+            seen.add(key)
+            out.append(row)
+    return out
+
+
 @st.composite
 def accounts(draw, max_products: int = 8, max_ad_rows: int = 18, max_targets: int = 12, max_terms: int = 14):
     """A dict of table name -> list of row dicts, plus 'settings' (a TOML text)."""
@@ -103,6 +114,8 @@ def accounts(draw, max_products: int = 8, max_ad_rows: int = 18, max_targets: in
     if destinations:
         settings += "[destinations]\n" + "".join(f'{p} = {{ campaign = "{c}", ad_group = "{g}" }}\n'
                                                  for p, (c, g) in destinations.items())
+    # A row repeated in every cell is refused by the readers as pasted twice: keep the first of each.
+    sales, ads, terms = (_unique(rows) for rows in (sales, ads, terms))
     account = {"catalog": catalog, "store_sales": sales, "ad_products": ads, "settings": settings}
     if terms:
         account["search_terms"] = terms

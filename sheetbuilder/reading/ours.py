@@ -8,6 +8,7 @@ and kept by spreadsheet programs when they save), and dated by its document's cr
 from __future__ import annotations
 
 import zipfile
+import zlib
 from pathlib import Path
 
 from defusedxml import DefusedXmlException
@@ -27,7 +28,8 @@ def _part(archive: zipfile.ZipFile, name: str):
             return None
         with archive.open(entry) as handle:
             return fromstring(handle.read(MAX_PART_BYTES + 1))
-    except (KeyError, OSError, ValueError, EOFError, zipfile.BadZipFile, ParseError, DefusedXmlException):
+    except (KeyError, OSError, ValueError, EOFError, zipfile.BadZipFile, zlib.error, ParseError,
+            DefusedXmlException):
         return None
 
 
