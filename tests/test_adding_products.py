@@ -73,3 +73,21 @@ def test_a_row_the_user_adds_below_in_catalog_is_read_by_changes_and_by_previous
     rows = [r for r in unmatched.iter_rows(values_only=True) if r[1] == "LF-2001"]
     # The exports do not name LF-2001, so its typed cells are listed, never dropped without a word.
     assert 1 == len(rows) and "unit_cost 12" in rows[0][3]
+
+
+
+def test_a_unit_cost_cleared_by_hand_is_carried_as_missing_not_as_zero(tmp_path):
+    # Read as 0, the cleared cost would give the product a profit it does not have; missing leaves its margin blank.
+    from minimal import write_account
+    folder = write_account(tmp_path / "shop")
+    first = build(folder, tmp_path / "week1.xlsx")
+    book = openpyxl.load_workbook(first.output)
+    ws = book["in_catalog"]
+    header = [c.value for c in ws[1]]
+    row = next(r for r in range(2, ws.max_row + 1) if ws.cell(r, header.index("product_id") + 1).value == "P2")
+    edit_workbook(first.output, tmp_path / "cleared.xlsx", [("in_catalog", ws.cell(row, header.index("unit_cost") + 1)
+                                                              .coordinate, None)])
+    second = build(folder, tmp_path / "week2.xlsx", previous=tmp_path / "cleared.xlsx")
+    carried = [(r.key, r.column, r.value) for r in second.carry.carried if r.sheet == "in_catalog"]
+    assert [("P2", "unit_cost", None)] == carried
+    assert "no margin" == second.plan.tables["Profit"].frame.set_index("product_id").loc["P2", "status"]

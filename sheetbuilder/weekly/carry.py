@@ -39,7 +39,8 @@ from sheetbuilder.reading.settings import SETTINGS, Settings, coerce_setting
 
 CATALOG_SHEET = "in_catalog"
 CATALOG_COLUMNS = tuple(sorted(EDITABLE["catalog"]))
-MONEY_COLUMNS = ("price", "unit_cost", "fees_per_unit")  # blank money is read as 0
+MONEY_COLUMNS = ("price", "fees_per_unit")  # blank money is read as 0, as the readers read it; a blank unit
+# cost is missing, never 0 (the readers leave the product's margin blank and say so)
 PERCENT_COLUMNS = ("target_acos", "margin")  # blank means "not given"
 TARGET_BOUNDS = (0.0, 5.0)  # as default_target_acos
 PreviousWorkbookUnreadable = SavedWorkbookUnreadable  # the previous workbook is missing or unreadable
