@@ -6,7 +6,7 @@ mean an equal workbook. Shapes that read: a `;` delimiter with decimal commas (U
 symbols; `;` with a decimal comma is common practice), a currency sign before every amount, a title
 block stating the same period (ISO 8601 dates) above every dated export. Shapes that must refuse:
 rows pasted twice, two currencies (ISO 4217 codes) in one account, a month of sales beside a week of
-ads.
+ads, an "Ad Units" column where orders belong (units are never read as orders).
 """
 from __future__ import annotations
 
@@ -71,6 +71,13 @@ def pasted_twice(account: dict) -> dict[str, str]:
     return files
 
 
+def units_for_orders(account: dict) -> dict[str, str]:
+    files = {t: _text(_rows(account, t)) for t in COLUMNS if t in account}
+    header, _, rest = files["ad_products"].partition("\n")
+    files["ad_products"] = header.replace("orders", "Ad Units") + "\n" + rest
+    return files
+
+
 def two_currencies(account: dict) -> dict[str, str]:
     files = dollar_signs(account)
     files["store_sales"] = _text(_rows(account, "store_sales", lambda c, v: f"{v} €" if c == "revenue" else v))
@@ -79,7 +86,7 @@ def two_currencies(account: dict) -> dict[str, str]:
 
 READ = {"semicolon_comma": semicolon_comma, "dollar_signs": dollar_signs,
         "same_period": titled("2026-11-01 - 2026-11-30")}
-REFUSE = {"pasted_twice": pasted_twice, "two_currencies": two_currencies,
+REFUSE = {"pasted_twice": pasted_twice, "two_currencies": two_currencies, "units_for_orders": units_for_orders,
           "month_beside_week": titled("2026-11-24 - 2026-11-30", "2026-11-01 - 2026-11-30")}
 
 
