@@ -8,6 +8,7 @@ from __future__ import annotations
 from pathlib import Path
 
 import openpyxl
+import pytest
 
 from conftest import BUILT_ON, DEMO, edit_workbook
 from sheetbuilder.pipeline import build
@@ -43,6 +44,7 @@ def test_the_build_writes_a_row_to_fill_on_in_catalog_for_a_product_the_catalog_
     assert [(f"{cost_column}2:{cost_column}{ws.max_row}", ['""'])] == rules  # a blank unit cost is highlighted
 
 
+@pytest.mark.slow  # builds the demo twice
 def test_a_cost_typed_on_the_added_row_is_carried_next_week_and_gives_the_product_a_margin(work):
     first = build(DEMO, work / "add_first.xlsx", built_on=BUILT_ON)
     ws = openpyxl.load_workbook(first.output)["in_catalog"]
@@ -56,6 +58,7 @@ def test_a_cost_typed_on_the_added_row_is_carried_next_week_and_gives_the_produc
     assert (20.0 - 8.0 - 2.0) / 20.0 == _profit_row(second.output, MISSING)["Margin before ads"]
 
 
+@pytest.mark.slow  # builds the demo twice
 def test_a_row_the_user_adds_below_in_catalog_is_read_by_changes_and_by_previous(work):
     first = build(DEMO, work / "below_first.xlsx", built_on=BUILT_ON)
     ws = openpyxl.load_workbook(first.output)["in_catalog"]

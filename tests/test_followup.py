@@ -278,6 +278,7 @@ def _tiny_week1(folder):
     return folder
 
 
+@pytest.mark.slow  # recalculates a whole workbook with formulas
 def test_follow_up_formulas_recalculated_by_the_formulas_library_equal_the_cached_values(tmp_path):
     from tools.recalc import formulas_values
     from workbook_io import engine_disagreements
