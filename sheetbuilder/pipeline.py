@@ -14,7 +14,7 @@ from sheetbuilder.weekly.carry import CarryResult, PreviousWorkbookUnreadable, a
 from sheetbuilder.weekly.change_list import followup_of
 from sheetbuilder.weekly.record import read_saved_workbook
 from sheetbuilder.errors import ERROR, WARNING, InputProblems, OutputExists, Problem, SheetbuilderError, UnsafeOutput
-from sheetbuilder.reading.account import account_of, check_previous
+from sheetbuilder.reading.account import account_of, account_of_inputs, check_previous
 from sheetbuilder.sheets.inputs import with_missing_products
 from sheetbuilder.reading.periods import settings_for_inputs
 from sheetbuilder.reading.readers import Inputs, read_inputs
@@ -120,7 +120,7 @@ def build(folder: Path, output: Path, force: bool = False, built_on: dt.date | N
     if previous is not None:
         saved = read_saved_workbook(Path(previous), PreviousWorkbookUnreadable)  # the one read of it
         notes, another = check_previous(account_of(saved.account_name or Path(previous).name, saved.tables or {}),
-                                        account_of(folder.resolve().name, exported_tables), Path(previous).name,
+                                        account_of_inputs(inputs), Path(previous).name,
                                         previous_anyway)
         problems += notes
         carry = apply_edits(saved.edits, inputs.tables, settings)

@@ -15,6 +15,7 @@ from dataclasses import dataclass
 import pandas as pd
 
 from sheetbuilder.errors import WARNING, AnotherAccount, Problem
+from sheetbuilder.reading.readers import Inputs
 
 ACCOUNT_NAME = "sb_account"  # the defined name over the Settings cell that holds the account's name
 SHARED_AT_LEAST = 0.5  # the share of products (and of campaigns) two weeks of one account have in common
@@ -56,12 +57,11 @@ def account_of(name: str, tables: dict[str, pd.DataFrame | None]) -> Account:
     return Account(name, frozenset(products), frozenset(campaigns))
 
 
-def account_of_inputs(inputs) -> Account | None:
+def account_of_inputs(inputs: Inputs) -> Account | None:
     """The account of a build's inputs, named for the folder its exports came from; None without sources."""
-    sources = getattr(inputs, "sources", None) or {}
-    if not sources:
+    if not inputs.sources:
         return None
-    return account_of(next(iter(sources.values())).parent.name, inputs.tables)
+    return account_of(next(iter(inputs.sources.values())).parent.name, inputs.tables)
 
 
 @dataclass(frozen=True)

@@ -14,7 +14,7 @@ from pathlib import Path
 from defusedxml import DefusedXmlException
 from defusedxml.ElementTree import ParseError, fromstring
 
-MARK = "sb_actions"  # the defined name every workbook of ours carries (weekly.saved.ACTIONS_NAME)
+MARK = "sb_actions"  # the defined name every workbook of ours carries (over its Actions list: sheets.typed)
 MAX_PART_BYTES = 8 << 20  # workbook.xml and core.xml of any real workbook are far smaller
 SPREADSHEET_NS = "{http://schemas.openxmlformats.org/spreadsheetml/2006/main}"
 CREATED = "{http://purl.org/dc/terms/}created"

@@ -11,6 +11,7 @@ import math
 from dataclasses import dataclass, field
 from typing import Any, Callable, Iterable, Sequence
 
+from sheetbuilder.reading.ours import MARK
 from sheetbuilder.reading.normalise import normalise
 from sheetbuilder.reading.settings import Settings
 from sheetbuilder.sheets.bids import EDITABLE_COLUMNS as BIDS
@@ -23,7 +24,7 @@ from sheetbuilder.workbook.render import stored_text
 # Every table with a typed column, in the order edits are read and listed.
 DECISION_TABLES: tuple[EditableColumns, ...] = (BIDS, TERMS, BUDGET, BUDGET_CAMPAIGNS)
 EDITABLE_TABLES: tuple[EditableColumns, ...] = (*DECISION_TABLES, PROFIT)
-ACTIONS_NAME = "sb_actions"  # the defined name over the Actions list's body
+ACTIONS_NAME = MARK  # the defined name over the Actions list's body (reading.ours recognises our workbooks by it)
 CARRIED_NAME = "sb_carried"  # defined names <this>_<column> over the Carried edits table (its first-typed dates)
 SCAN_ROWS = 10  # header rows are looked for in the first rows of a sheet
 
