@@ -34,14 +34,15 @@ def _block(first: str, last: str, rng: str) -> str:
     return f'=IF({first}6="",0,SUM(INDEX({rng},{first}6):INDEX({rng},{last}6)))'
 
 
-# The product's catalog row: its catalog position (Profit V) when in_catalog's position column (M, after the
-# seven catalog columns and their five exported_ twins) still holds it there, else found by exact MATCH (sorted).
+# The product's catalog row, computed once in the hidden column AI: its catalog position (Profit V) when
+# in_catalog's position column (M, after the seven catalog columns and their five exported_ twins) still holds it
+# there, else found by exact MATCH (in_catalog sorted).
 AT_CATALOG = "IF(INDEX(in_catalog!$M$2:$M$3,V6)=V6,V6,MATCH(V6,in_catalog!$M$2:$M$3,0))"
 
 
 def _cat(letter: str) -> str:
-    """The product's value in one in_catalog column, read at its checked catalog row."""
-    return f"INDEX(in_catalog!${letter}$2:${letter}$3,{AT_CATALOG})"
+    """The product's value in one in_catalog column, read at its checked catalog row (AI)."""
+    return f"INDEX(in_catalog!${letter}$2:${letter}$3,AI6)"
 
 
 # Profit, body row 6: {header: formula}. Columns A Product ID ... S Your target ACoS, T Target check, U Bid target
@@ -79,6 +80,7 @@ PROFIT_ROW_1 = {
     "Product price": f'=IF(V6="",AD6,IF({_cat("C")}>0,{_cat("C")},AD6))',
     "Gross profit before ads": '=IF(I6="","",D6*I6)',
     "Revenue with a margin": '=IF(I6="",0,D6)',
+    "Catalog row now": f'=IF(V6="","",{AT_CATALOG})',
 }
 # Profit's totals row 8: {header: formula} of every column with a formula total.
 PROFIT_TOTALS = {
@@ -168,14 +170,15 @@ def _first_row(column, row: int) -> str | None:
 
 def test_ad_group_blends_are_computed_once_on_groups_from_weight_times_value_sums(with_targets):
     # Groups: header row 3, C1/G1's products P1 and P2 on rows 4-5; D spend, E weight, F weight x Bid target ACoS
-    # (Profit U), G above break-even, H/I/J weight x CVR / order value / price, K Profit row. The blends table:
+    # (Profit U), G above break-even, H/I/J weight x CVR / order value / price, K Profit row as built, L the
+    # Profit row now (computed once per row, read by every lookup). The blends table:
     # header row 8 (a blank row and its title between), row 9 the account's values, row 10 C1/G1.
     sheet = with_targets.spec.sheet("Groups")
     groups = {c.header: _first_row(c, 4) for c in sheet.table.columns}
     # K4 is checked against Profit's Position column (AH, after AG Revenue with a margin): Profit may be sorted.
-    at_profit = "IF(INDEX(Profit!$AH$6:$AH$7,K4)=K4,K4,MATCH(K4,Profit!$AH$6:$AH$7,0))"
-    assert f"=E4*INDEX(Profit!$U$6:$U$7,{at_profit})" == groups["Weight x target ACoS"]
-    assert f"=E4*INDEX(Profit!$AC$6:$AC$7,{at_profit})" == groups["Weight x CVR"]
+    assert "=IF(INDEX(Profit!$AH$6:$AH$7,K4)=K4,K4,MATCH(K4,Profit!$AH$6:$AH$7,0))" == groups["Profit row now"]
+    assert "=E4*INDEX(Profit!$U$6:$U$7,L4)" == groups["Weight x target ACoS"]
+    assert "=E4*INDEX(Profit!$AC$6:$AC$7,L4)" == groups["Weight x CVR"]
     assert None is groups["Ad spend"] is groups["Blend weight"]  # export-only: plain values
     blends = sheet.more[0]
     assert 8 - 1 == blends.first_row

@@ -55,7 +55,7 @@ def _block(table: str, column: str) -> str:
 def _cat(column: str) -> str:
     """Formula text reading one catalog column at the product's catalog row (checked against in_catalog's
     position column, so a sorted in_catalog still gives each product its own row)."""
-    return "INDEX({rng:catalog.%s},%s)" % (column, keyed_row("{rng:catalog.position}", "{c:cat_row}"))
+    return "INDEX({rng:catalog.%s},{c:cat_at})" % column
 
 
 def _catalog_value(df: pd.DataFrame, ctx: ProfitContext, column: str) -> pd.Series:
@@ -277,6 +277,10 @@ DEFS: list[ColumnDef] = [
               total="={sum:rev_with_margin}", total_reference=_rev_with_margin_total),
     ColumnDef("pos", "Position", "int", "Helper: the row's place as built; other sheets find the product by it "
               "after Profit is sorted.", lambda df, ctx: df["pos"], kind=DATA, width=8, hidden=True),
+    ColumnDef("cat_at", "Catalog row now", "int", "Helper: the product's row on in_catalog, checked against its "
+              "position column (found again when in_catalog was sorted); computed once for every catalog lookup.",
+              lambda df, ctx: df["cat_row"], '=IF({c:cat_row}="","",%s)' % keyed_row("{rng:catalog.position}", "{c:cat_row}"),
+              width=8, hidden=True),
 ]
 
 # What a user types on Profit (a product's own target ACoS) and the key that finds its row again.

@@ -550,9 +550,10 @@ class ClashContext:
 
 CLASH_TITLE = ("Clashes: where a negative from one term (left) could block the keyword another term adds, or "
                "another term where it sells; Blocks = 1 keeps that negative off the lists")
-# Terms rows i and j, checked against Terms' Position column (a user may sort Terms).
-_AT_I = keyed_row("{rng:terms.pos}", "{c:i}")
-_AT_J = keyed_row("{rng:terms.pos}", "{c:j}")
+# Terms rows i and j, checked against Terms' Position column (a user may sort Terms): computed once per clash
+# in the i_at and j_at helper columns, which every lookup of the rows reads.
+_AT_I = "{c:i_at}"
+_AT_J = "{c:j_at}"
 _FINAL_I = "INDEX({rng:terms.final},%s)" % _AT_I
 _ADDS_J = "INDEX({rng:terms.adds},%s)" % _AT_J
 CLASH_DEFS: list[ColumnDef] = [
@@ -573,6 +574,10 @@ CLASH_DEFS: list[ColumnDef] = [
               '%s)>0,{c:src_in}=1,OR(negative_level="campaign",{c:src_group}=1)))),1,0),IF(AND(%s="promote",'
               '%s=1,{c:kw_group}=1,{c:same_term}=1),1,0))' % (_FINAL_I, _AT_I, _ADDS_J, _AT_J, _FINAL_I, _ADDS_J),
               width=8),
+    *[ColumnDef(f"{k}_at", f"{h} row now", "int", f"Helper: the Terms row of {h.lower()}, checked against Terms' "
+                "Position column (found again when Terms was sorted).", (lambda key: lambda df, ctx: df[key])(k),
+                "=" + keyed_row("{rng:terms.pos}", "{c:%s}" % k), width=8, hidden=True)
+      for k, h in (("i", "Negative from term"), ("j", "Blocked term"))],
 ]
 
 
