@@ -589,7 +589,8 @@ def _stock_rows(frame: pd.DataFrame) -> list[Problem]:
     repeated = frame[frame.duplicated(keys, keep=False) & (frame["product_id"] != "")]
     problems = []
     for key, group in repeated.groupby(keys, sort=True):
-        pid, where = (key, "") if not located else (key[0], f" at the location '{key[1]}'")
+        key = key if isinstance(key, tuple) else (key,)
+        pid, where = key[0], (f" at the location '{key[1]}'" if located else "")
         rows = ", ".join(str(x) for x in group["_row"])
         problems.append(Problem(file, int(group["_row"].iloc[1]), headers["product_id"],
                                 f"product '{pid}'{where} appears more than once (rows {rows}) and nothing says which "
