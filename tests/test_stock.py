@@ -146,7 +146,8 @@ def _guide_low(path: Path) -> tuple[object, list[str]]:
             count = ws.cell(r, 2).value
         if ws.cell(r, 1).value == "Products low on stock":
             names = [ws.cell(r + 2 + k, 2).value for k in range(5) if ws.cell(r + 2 + k, 2).value]
-    return count, names
+    # (after LibreOffice recalculates, a line the edit emptied may show its link's address: read the count's lines)
+    return count, names[:int(count)] if isinstance(count, (int, float)) else names
 
 
 def test_the_demo_guide_lists_its_low_stock_products_on_its_first_screen(demo_build):
