@@ -34,6 +34,7 @@ from test_mix_budget import block, find_header
 from workbook_io import mismatches, open_values, same
 from sheetbuilder.errors import InputProblems
 from sheetbuilder.pipeline import build, load, plan_workbook
+from sheetbuilder.sheets.dashboard import LOW_LIST
 
 CATALOG = """product_id,product_name,price,unit_cost,fees_per_unit
 P1,Widget,20.00,6.00,2.00
@@ -46,7 +47,7 @@ C1,G1,P1,product ads,1000,60,60.00,400.00,20
 C1,G2,P2,product ads,1000,90,90.00,100.00,10
 C1,G3,P3,product ads,1000,30,30.00,200.00,10
 """
-LOW_FIGURE = "Products low on stock (below the minimum days of cover)"
+LOW_FIGURE = "Products low on stock"  # the Key figures line; the list below has the same title
 
 
 def _account(folder: Path, inventory: str | None) -> Path:
@@ -144,7 +145,7 @@ def _guide_low(path: Path) -> tuple[object, list[str]]:
     for r in range(1, ws.max_row + 1):
         if ws.cell(r, 1).value == LOW_FIGURE:
             count = ws.cell(r, 2).value
-        if ws.cell(r, 1).value == "Products low on stock":
+        if ws.cell(r, 1).value == LOW_LIST:
             names = [ws.cell(r + 2 + k, 2).value for k in range(5) if ws.cell(r + 2 + k, 2).value]
     # (after LibreOffice recalculates, a line the edit emptied may show its link's address: read the count's lines)
     return count, names[:int(count)] if isinstance(count, (int, float)) else names
@@ -157,7 +158,7 @@ def test_the_demo_guide_lists_its_low_stock_products_on_its_first_screen(demo_bu
     assert ["LF-1019  Glass Food Storage Set 10pc", "LF-1002  Galvanized Raised Bed Kit",
             "LF-1014  Solar Path Lights 8-Pack"] == names
     ws = openpyxl.load_workbook(demo_build.output)["Guide"]
-    title = next(r for r in range(1, ws.max_row + 1) if ws.cell(r, 1).value == "Products low on stock")
+    title = next(r for r in range(1, ws.max_row + 1) if ws.cell(r, 1).value == LOW_LIST)
     assert title <= 40  # on the first screen, above the how-to
 
 

@@ -42,7 +42,7 @@ def dashboard(tables: dict[str, PlannedTable], ranges: dict[str, str], budget_sh
                float((profit.frame["status"] == "thin").sum()), "int"),
     ]
     if "inventory.units_available" in ranges:  # an inventory export: the products never told to grow
-        out.append(Figure("Products low on stock (below the minimum days of cover)",
+        out.append(Figure("Products low on stock",
                           f"=SUM({ranges['profit.low']})", float(profit.frame["low"].sum()), "int"))
     if "Bids" in tables:
         out.append(Figure("Proposed bid changes", f"=SUM({ranges['bids.moves']})",
@@ -118,32 +118,37 @@ def _ranked(values: pd.Series, largest: bool) -> list[int]:
     return [i for _, i in numbers[:LOOK]]
 
 
+LOW_LIST = "Low on stock: the fewest days of cover"  # the list's title (the count above reads Products low on stock)
+
+
+def _products(profit: PlannedTable, title: str, what: str, header: str, key: str, count: str, picked: list[int],
+              style: str = "money") -> Ranked:
+    """A first-look list of Profit rows: the smallest values of column key among the picked positions."""
+    f, p = profit.frame, profit.ranges(PROFIT, "p")
+    return Ranked(
+        title, f"live, {what}; each links to its row on Profit as built, the row number is live",
+        (header, "Product", "Profit row"), PROFIT, p[f"p.{key}"], profit.first_body_row + 1, max(len(f), 1),
+        count.format(**{k.replace(".", "_"): v for k, v in p.items()}), "SMALL",
+        f'INDEX({p["p.product_id"]},{{p}})&"  "&INDEX({p["p.product_name"]},{{p}})',
+        tuple((float(f[key].iloc[i - 1]), i, f'{f["product_id"].iloc[i - 1]}  {_text(f["product_name"].iloc[i - 1])}')
+              for i in picked), style)
+
+
 def first_look(tables: dict[str, PlannedTable], stock: bool = False) -> list[Ranked]:
     """The Guide's first look: the products low on stock (with an inventory export), the products losing the
     most after ads and the biggest changes by money."""
     out = []
     profit = tables["Profit"]
     f = profit.frame
-    p = profit.ranges(PROFIT, "p")
-    product = f'INDEX({p["p.product_id"]},{{p}})&"  "&INDEX({p["p.product_name"]},{{p}})'
     if stock:
-        low = [i for i in _ranked(f["cover"].map(lambda v: v if isinstance(v, float) else np.nan), largest=False)
-               if f["low"].iloc[i - 1] == 1]
-        out.append(Ranked(
-            "Products low on stock", "live, fewest days of cover first (below the minimum on Settings: never told "
-            "to grow, spend held); each links to its row on Profit as built, the row number is live",
-            ("Days of cover", "Product", "Profit row"), PROFIT, p["p.cover"], profit.first_body_row + 1,
-            max(len(f), 1), f'SUM({p["p.low"]})', "SMALL", product,
-            tuple((float(f["cover"].iloc[i - 1]), i,
-                   f'{f["product_id"].iloc[i - 1]}  {_text(f["product_name"].iloc[i - 1])}') for i in low), "int"))
+        numbers = f["cover"].map(lambda v: v if isinstance(v, float) else np.nan)
+        low = [i for i in _ranked(numbers, largest=False) if f["low"].iloc[i - 1] == 1]
+        out.append(_products(profit, LOW_LIST, "fewest days of cover first (below the minimum on "
+                             "Settings: never told to grow, spend held)", "Days of cover", "cover", "SUM({p_low})",
+                             low, "int"))
     losing = [i for i in _ranked(f["net_profit"], largest=False) if f["net_profit"].iloc[i - 1] < 0]
-    out.append(Ranked(
-        "Products losing the most after ads", "live, most negative net profit after ads first; each links to "
-        "its row on Profit as built, the row number is live",
-        ("Net profit", "Product", "Profit row"), PROFIT, p["p.net_profit"], profit.first_body_row + 1,
-        max(len(f), 1), f'COUNTIFS({p["p.net_profit"]},"<0")', "SMALL", product,
-        tuple((float(f["net_profit"].iloc[i - 1]), i,
-               f'{f["product_id"].iloc[i - 1]}  {_text(f["product_name"].iloc[i - 1])}') for i in losing)))
+    out.append(_products(profit, "Products losing the most after ads", "most negative net profit after ads first",
+                         "Net profit", "net_profit", 'COUNTIFS({p_net_profit},"<0")', losing))
     if "Actions" in tables:
         actions = tables["Actions"]
         a = actions.ranges(ACTIONS, "a")

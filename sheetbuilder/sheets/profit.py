@@ -84,7 +84,8 @@ def _status(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
     s = ctx.settings
     net = df["net_margin"]
     return pd.Series(np.select(
-        [((df["revenue"] == 0) | (df["stock"] == 0)) & (df["ad_spend"] > 0), df["revenue"] == 0, df["margin"].isna(), net < 0, net < s.thin_margin, net >= s.strong_margin],
+        [((df["revenue"] == 0) | (df["stock"] == 0)) & (df["ad_spend"] > 0), df["revenue"] == 0, df["margin"].isna(),
+         net < 0, net < s.thin_margin, net >= s.strong_margin],
         ["loss", "no sales", "no margin", "loss", "thin", "strong"], "healthy"), index=df.index, dtype=object)
 
 
@@ -235,7 +236,8 @@ DEFS: list[ColumnDef] = [
               _cover, '=IF({c:stock}="","",IF({c:units}=0,"%s",{c:stock}*period_days/{c:units}))' % NO_SALES,
               width=9),
     ColumnDef("status", "Status", "label",
-              "loss (ad spend with no sales or no units available, or net margin below 0), no sales (revenue 0, no ad spend), no margin "
+              "loss (ad spend with no sales or with no units available, or net margin below 0), no sales (revenue "
+              "0, no ad spend), no margin "
               "(not in the catalog), thin (below the thin threshold), strong (at or above the strong threshold), "
               "else healthy.",
               _status,
