@@ -245,3 +245,24 @@ def test_with_ample_stock_everywhere_every_figure_equals_the_build_without_inven
         assert (plan.tables["Profit"].frame["low"] == 0).all()
     finally:
         shutil.rmtree(base)
+
+
+def test_the_changes_command_reads_units_available_as_typed_on_in_inventory(demo_build, tmp_path):
+    """`changes` plans the change list from the in_ sheets as saved: a stock typed on in_inventory moves the
+    daily budgets of the campaigns selling that product, as the independent reference says."""
+    from conftest import edit_workbook
+    from sheetbuilder.weekly.changes import COLUMNS, export_changes
+    edited = edit_workbook(demo_build.output, tmp_path / "edited.xlsx", stock_edits(demo_build.output))
+    result = export_changes(edited, tmp_path / "changes.csv")
+    tables, settings = _edited_tables()
+    _, campaigns = budget_oracle(tables, settings, profit_oracle(tables, settings)[0])
+    at = {k: COLUMNS.index(k) for k in ("kind", "campaign", "new")}
+    budgets = {row[at["campaign"]]: row[at["new"]] for row in result.rows if row[at["kind"]] == "budget"}
+    enabled = set(tables["campaigns"].loc[tables["campaigns"]["state"] == "enabled", "campaign"])
+    expected = {c: r["Proposed budget"] for c, r in campaigns.items()
+                if r["Proposed budget"] != r["Daily budget"] and c in enabled}  # Actions lists enabled campaigns
+    assert sorted(expected) == sorted(budgets)
+    assert all(same(expected[c], float(budgets[c])) for c in expected)
+    before = {row[at["campaign"]]: row[at["new"]] for row in export_changes(
+        demo_build.output, tmp_path / "before.csv").rows if row[at["kind"]] == "budget"}
+    assert before != budgets  # the edit moved at least one budget
