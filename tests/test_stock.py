@@ -247,6 +247,7 @@ def test_with_ample_stock_everywhere_every_figure_equals_the_build_without_inven
         shutil.rmtree(base)
 
 
+@pytest.mark.slow  # plans the demo's change list twice
 def test_the_changes_command_reads_units_available_as_typed_on_in_inventory(demo_build, tmp_path):
     """`changes` plans the change list from the in_ sheets as saved: a stock typed on in_inventory moves the
     daily budgets of the campaigns selling that product, as the independent reference says."""
