@@ -241,7 +241,7 @@ def _guide(a: Assembly) -> None:
     exports = [("Currency in the exports", a.inputs.currency or "no currency marked; amounts read as written"),
                ("Period in the exports", str(a.inputs.period) if a.inputs.period else "no dates; period_days applies")]
     a.place("guide", plan_guide(a.settings, a.built_on, sections, a.warnings, a.inputs.checksums, sources, figures,
-                                first_look(a.tables), exports))
+                                first_look(a.tables, "inventory" in a.layouts), exports))
 
 
 def _unmatched(a: Assembly) -> None:

@@ -3,7 +3,8 @@ and each campaign's daily budget scaled to follow its products.
 
 Product level: a share of the spend of every product whose Direction (Profit) is cut
 moves to the products whose Direction is grow, in proportion to their revenue, so total
-spend stays the same. Nothing moves unless there is both a product to cut and one to grow.
+spend stays the same (a product low on stock reads low stock, not grow: its spend is held).
+Nothing moves unless there is both a product to cut and one to grow.
 Campaign level: each campaign's daily budget is scaled by its products' final-to-current
 spend (a spend-weighted blend where it serves several), within the maximum change per
 run, rounded to the currency unit (campaigns with no ad rows have nothing to follow and are
@@ -63,7 +64,8 @@ def _proposed_spend(df: pd.DataFrame, ctx: BudgetContext) -> pd.Series:
 PRODUCT_DEFS: list[ColumnDef] = [
     ColumnDef("product_id", "Product ID", "text", "The product (as on Profit).", lambda df, ctx: df["product_id"],
               kind=DATA, width=14, total="Total"),
-    ColumnDef("direction", "Direction", "label", "From Profit: cut, grow or hold.", _from_profit("direction"),
+    ColumnDef("direction", "Direction", "label", "From Profit: cut, grow, hold, no ads, or low stock (its spend held).",
+              _from_profit("direction"),
               "=INDEX({rng:profit.direction},%s)" % _AT_PROFIT, width=10),
     ColumnDef("revenue", "Revenue", "money", "From Profit.", _from_profit("revenue"),
               "=INDEX({rng:profit.revenue},%s)" % _AT_PROFIT, width=12, total="={sum:revenue}",

@@ -51,7 +51,8 @@ SHEETS_TEXT = [
     ("Keys", "A lookup table: existing exact keywords and negatives, by number (the Terms sheet looks them up), "
              "and the Clashes table: where a new negative would block a keyword the list adds or a term that sells."),
     ("in_ sheets", "The rows of your exports as read, sorted by product. Catalog prices, costs, fees, "
-                   "margins and target ACoS are inputs you may correct there."),
+                   "margins and target ACoS are inputs you may correct there, and so are units available on "
+                   "in_inventory (a what-if for this week: next week's build reads the new export's stock)."),
     ("Carried edits", "Built with --previous: every value carried from last week's workbook (sheet, key, the "
                       "export's value, your value, the week you first typed it) and every typed number that "
                       "expired because the export shows it applied."),
