@@ -66,10 +66,10 @@ def odf_area(address: str) -> Area | None:
     Only the first range of a list (ranges are separated by spaces) is read, as only the first
     destination of an .xlsx name is.
     """
-    first = address.strip().split(" ")[0]
+    first, _, _ = _split_outside_quotes(address.strip(), " ")
     if not first:
         return None
-    start, colon, end = _split_range(first)
+    start, colon, end = _split_outside_quotes(first, ":")
     try:
         sheet, cell0 = _odf_sheet(start)
         other, cell1 = _odf_sheet(end) if colon else (None, cell0)
@@ -80,12 +80,12 @@ def odf_area(address: str) -> Area | None:
     return a1_area(sheet, f"{cell0}:{cell1}")
 
 
-def _split_range(text: str) -> tuple[str, bool, str]:
-    """(start, whether a ':' was found, end) of a range address, a ':' inside a quoted sheet name kept."""
+def _split_outside_quotes(text: str, sep: str) -> tuple[str, bool, str]:
+    """(before, whether sep was found, after) at the first sep outside a quoted sheet name."""
     quoted = False
     for i, ch in enumerate(text):
         if ch == "'":
             quoted = not quoted
-        elif ch == ":" and not quoted:
+        elif ch == sep and not quoted:
             return text[:i], True, text[i + 1:]
     return text, False, ""

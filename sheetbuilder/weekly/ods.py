@@ -231,6 +231,12 @@ class OdsFile:
         """Close the file."""
         self.archive.close()
 
+    def __enter__(self) -> "OdsFile":
+        return self
+
+    def __exit__(self, *exc: Any) -> None:
+        self.close()
+
 
 def _repeat(text: str | None, what: str) -> int:
     """A number-rows/columns-repeated count (1 when absent)."""
