@@ -7,10 +7,13 @@ with ``table:number-rows-repeated`` or ``table:number-columns-repeated`` (9.1.3,
 spreadsheet programs repeat empty rows and cells to the sheet's last row and column, so only
 cells holding a value or a formula are kept: a sheet costs what its used cells cost. A cell's
 value is in its attributes by ``office:value-type`` (19.385: float, percentage, currency, date,
-time, boolean, string) and its text in ``text:p`` paragraphs, one a line, where runs of white
-space collapse (6.1.2) and ``text:s``, ``text:tab`` and ``text:line-break`` stand for the spaces,
-tabs and line breaks typed (6.1.3 to 6.1.5). A formula's error is written by LibreOffice as
-``calcext:value-type="error"`` with the error's text as the cell's text.
+time, boolean, string) and its text in ``text:p`` paragraphs, one a line, where ``text:s``,
+``text:tab`` and ``text:line-break`` stand for the spaces, tabs and line breaks typed (6.1.3 to
+6.1.5). White space written as it is stays as it is: OpenDocument 1.2 (6.1.2) would collapse a run
+of it, but LibreOffice (7.4) writes the leading and doubled spaces and line breaks of a cell of
+several lines as they are and reads them back so, and a cell's value is what the program that
+saved it shows. A formula's error is written by LibreOffice as ``calcext:value-type="error"``
+with the error's text as the cell's text.
 
 ``content.xml`` is read with expat as a stream, never as a tree: once on opening to find each
 sheet's bytes, its workbook-level names and any link to another file (refused, as the guard
@@ -51,7 +54,6 @@ _PARAGRAPHS = {TEXT + "p", TEXT + "h"}
 _SPACES = {TEXT + "s", TEXT + "tab", TEXT + "line-break"}
 _NOT_TEXT = {OFFICE + "annotation", TEXT + "note", TEXT + "ruby-text"}  # a comment or footnote is not the value
 _NUMBERS = {"float", "percentage", "currency"}
-_WHITE = re.compile(r"[ \t\r\n]+")
 _DURATION = re.compile(r"-?P(?:(\d+)D)?T?(?:(\d+)H)?(?:(\d+)M)?(?:(\d+(?:\.\d+)?)S)?$")
 _REFERENCE = re.compile(r"^(?:of:)?=?\s*\[([^\]]*)\]\s*$")  # a named expression that is one bracketed reference
 
@@ -291,7 +293,6 @@ class _Cells:
         self.depth = 0        # elements open inside the cell being read
         self.skip = 0         # elements open inside a comment or note
         self.paragraph: list[str] | None = None
-        self.after_space = True
         self.copies = 0
 
     def start(self, name: str, attrs: dict[str, str]) -> None:
@@ -303,12 +304,11 @@ class _Cells:
             elif not cell.text:
                 return
             elif name in _PARAGRAPHS and self.depth == 1:
-                self.paragraph, self.after_space = [], True
+                self.paragraph = []
             elif self.paragraph is not None and name in _SPACES:
                 local = name[len(TEXT):]
                 self.paragraph.append("\t" if local == "tab" else "\n" if local == "line-break"
                                       else " " * _repeat(attrs.get(TEXT + "c"), "space"))
-                self.after_space = False
         elif name == _ROW:
             self.rows_repeated = _repeat(attrs.get(TABLE + "number-rows-repeated"), "row")
             self.col, self.kept = 0, {}
@@ -340,14 +340,8 @@ class _Cells:
             self._keep_row()
 
     def text(self, data: str) -> None:
-        if self.paragraph is None or self.skip:
-            return
-        collapsed = _WHITE.sub(" ", data)  # OpenDocument 1.2 Part 1, 6.1.2: white space in a paragraph
-        if self.after_space and collapsed.startswith(" "):
-            collapsed = collapsed[1:]
-        if collapsed:
-            self.paragraph.append(collapsed)
-            self.after_space = collapsed.endswith(" ")
+        if self.paragraph is not None and not self.skip:
+            self.paragraph.append(data)  # as written (see the module's note on white space)
 
     def _value(self, cell: _Cell) -> tuple[bool, Any]:
         """(whether the cell holds anything, its value as the .xlsx reader gives it)."""
