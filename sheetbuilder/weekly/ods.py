@@ -27,6 +27,7 @@ import datetime as dt
 import re
 import zipfile
 from dataclasses import dataclass, field
+from itertools import chain
 from pathlib import Path
 from typing import Any
 from xml.parsers import expat
@@ -113,6 +114,8 @@ class _Index:
         elif self.depth == self.top + 1:
             if name == _SHEET:
                 self.sheet = attrs.get(TABLE + "name", "")
+                if self.sheet in self.spans:
+                    raise DamagedSheet(f"two sheets are named '{self.sheet}'")
                 self.order.append(self.sheet)
                 self.spans[self.sheet] = _Span(self.parser.CurrentByteIndex, dict(self.scope))
             elif name == _NAMES:
@@ -226,7 +229,8 @@ class OdsFile:
             tag = re.match(rb"<([^\s/>]+)", first)
             if tag is None:
                 raise DamagedSheet(f"the sheet '{sheet}' cannot be found again in {CONTENT}")
-            _parse(parser, [f"<sheet {declared}>".encode(), first, *body, b"</" + tag.group(1) + b"></sheet>"])
+            _parse(parser, chain((f"<sheet {declared}>".encode(), first), body,
+                                 (b"</" + tag.group(1) + b"></sheet>",)))
         return padded_rows(cells.found)
 
     def close(self) -> None:
