@@ -215,6 +215,14 @@ def test_the_format_is_found_by_content_not_by_the_name(tmp_path):
     path = ods_file(tmp_path / "named_like.xlsx", table("S", row(text("read"))))
     with SavedBook(path) as book:
         assert [["read"]] == book.rows("S")
+    import openpyxl
+    wb = openpyxl.Workbook()
+    wb.active.title = "S"
+    wb.active["A1"] = "read too"
+    wb.save(tmp_path / "book.xlsx")
+    (tmp_path / "book.xlsx").rename(tmp_path / "named_like.ods")
+    with SavedBook(tmp_path / "named_like.ods") as book:
+        assert [["read too"]] == book.rows("S")
 
 
 PRODUCTS = ("openpyxl", "calamine", "excel", "libreoffice", "gnumeric", "expat", "zipfile")
@@ -261,3 +269,18 @@ def test_a_cell_far_from_the_rest_is_refused_rather_than_read_into_millions_of_e
     with SavedBook(ods_file(tmp_path / "far.ods", table("S", far))) as book, \
             pytest.raises(NotAWorkbook, match="more than 10,000 cells"):
         book.rows("S")
+
+
+@pytest.mark.parametrize("address, area", [
+    ("$Profit.$A$6:.$A$31", ("Profit", 0, 0, 5, 30)),
+    ("Profit.A6:Profit.B7", ("Profit", 0, 1, 5, 6)),               # relative, the sheet named twice
+    ("$'a:b ''c'.$C$3", ("a:b 'c", 2, 2, 2, 2)),                   # quoted: a colon, a space, a doubled quote
+    ("$S.$A$1:.$A$2 $S.$B$1:.$B$2", ("S", 0, 0, 0, 1)),            # a list of ranges: the first
+    ("$S.$A$1:$T.$B$2", None),                                     # over two sheets
+    ("$S.$A:.$A", None),                                           # a whole column
+    ("A1", None),                                                  # no sheet
+])
+def test_an_opendocument_range_address_reads_as_its_area(address, area):
+    from sheetbuilder.weekly.names import odf_area
+    got = odf_area(address)
+    assert area == (None if got is None else (got.sheet, got.first_col, got.last_col, got.first_row, got.last_row))

@@ -38,7 +38,12 @@ class XlsxFile:
     def __init__(self, path: Path):
         import openpyxl
         self.path = Path(path)
-        self.wb = openpyxl.load_workbook(self.path, read_only=True, data_only=True)
+        self._handle = open(self.path, "rb")  # a handle, not a name: its content says .xlsx, whatever it is called
+        try:
+            self.wb = openpyxl.load_workbook(self._handle, read_only=True, data_only=True)
+        except BaseException:
+            self._handle.close()
+            raise
         self.sheetnames: list[str] = list(self.wb.sheetnames)
 
     def has_name(self, name: str) -> bool:
@@ -65,3 +70,4 @@ class XlsxFile:
     def close(self) -> None:
         """Close the file."""
         self.wb.close()
+        self._handle.close()
