@@ -17,7 +17,8 @@ with the error's text as the cell's text.
 
 ``content.xml`` is read with expat as a stream, never as a tree: once on opening to find each
 sheet's bytes, its workbook-level names and any link to another file (refused, as the guard
-refuses an .xlsx's external links), then once per sheet read, over that sheet's bytes only.
+refuses an .xlsx's external links), once more to keep each sheet's bytes apart, compressed, so that
+the file is closed once opened, then once per sheet read, over that sheet's bytes only.
 Values come back as the .xlsx reader gives them (:mod:`sheetbuilder.weekly.sheet_xml`): numbers
 as int when written without a point, dates as datetimes, errors as their text.
 """
@@ -26,6 +27,7 @@ from __future__ import annotations
 import datetime as dt
 import re
 import zipfile
+import zlib
 from dataclasses import dataclass, field
 from itertools import chain
 from pathlib import Path
@@ -148,18 +150,49 @@ def _parse(parser: expat.XMLParserType, chunks) -> None:
         raise DamagedSheet(f"its {CONTENT} is not well-formed XML ({exc})") from None
 
 
-def _chunks(handle, size: int | None = None):
-    """The handle's data in chunks, up to size bytes when given."""
-    left = size
-    while left is None or left > 0:
-        chunk = handle.read(CHUNK if left is None else min(CHUNK, left))
-        if not chunk:
-            if left is not None:
-                raise DamagedSheet(f"its {CONTENT} ends inside a sheet")
-            return
-        if left is not None:
-            left -= len(chunk)
+def _chunks(handle):
+    """The handle's data in chunks."""
+    while chunk := handle.read(CHUNK):
         yield chunk
+
+
+def _store(handle, spans: dict[str, _Span]) -> dict[str, bytes]:
+    """{sheet: its bytes of content.xml, compressed apart}: reading a sheet then inflates its own bytes only.
+
+    One pass over the part (zlib, level 1: a tenth to a twentieth of the XML in memory).
+    """
+    todo = sorted((span.start, span.end, name) for name, span in spans.items() if not span.empty)
+    stored: dict[str, bytes] = {}
+    parts: list[bytes] = []
+    packer = zlib.compressobj(1)
+    at = 0
+    for chunk in _chunks(handle):
+        upto = at + len(chunk)
+        while todo and todo[0][0] < upto:
+            start, end, name = todo[0]
+            parts.append(packer.compress(chunk[max(start - at, 0):min(end, upto) - at]))
+            if end > upto:
+                break
+            parts.append(packer.flush())
+            stored[name], parts, packer = b"".join(parts), [], zlib.compressobj(1)
+            todo.pop(0)
+        at = upto
+    if todo:
+        raise DamagedSheet(f"its {CONTENT} ends inside the sheet '{todo[0][2]}'")
+    return stored
+
+
+def _inflate(packed: bytes):
+    """A sheet's stored bytes inflated again, in pieces of at most CHUNK bytes."""
+    unpacker = zlib.decompressobj()
+    for i in range(0, len(packed), CHUNK):
+        data = packed[i:i + CHUNK]
+        while data:
+            if piece := unpacker.decompress(data, CHUNK):
+                yield piece
+            data = unpacker.unconsumed_tail
+    if tail := unpacker.flush():
+        yield tail
 
 
 class OdsFile:
@@ -175,19 +208,20 @@ class OdsFile:
 
     def __init__(self, path: Path):
         self.path = Path(path)
-        self.archive = zipfile.ZipFile(self.path)
+        archive = zipfile.ZipFile(self.path)
         try:
             parser = expat.ParserCreate(namespace_separator="}")
             index = _Index(parser)
             parser.StartElementHandler, parser.EndElementHandler = index.start, index.end
             parser.StartNamespaceDeclHandler, parser.EndNamespaceDeclHandler = index.declare, index.undeclare
-            with self.archive.open(CONTENT) as fh:
+            with archive.open(CONTENT) as fh:
                 _parse(parser, _chunks(fh))
             if index.top < 0:
                 raise DamagedSheet(f"its {CONTENT} holds no spreadsheet")
-        except BaseException:
-            self.archive.close()
-            raise
+            with archive.open(CONTENT) as fh:
+                self._stored = _store(fh, index.spans)
+        finally:
+            archive.close()
         self.sheetnames: list[str] = index.order
         self._spans, self._names = index.spans, index.names
 
@@ -222,20 +256,17 @@ class OdsFile:
         parser.CharacterDataHandler = cells.text
         declared = " ".join(("xmlns" if p is None else f"xmlns:{p}") + "=" + quoteattr(uri)
                             for p, uri in span.namespaces.items())
-        with self.archive.open(CONTENT) as fh:
-            fh.seek(span.start)
-            body = _chunks(fh, span.end - span.start)
-            first = next(body)
-            tag = re.match(rb"<([^\s/>]+)", first)
-            if tag is None:
-                raise DamagedSheet(f"the sheet '{sheet}' cannot be found again in {CONTENT}")
-            _parse(parser, chain((f"<sheet {declared}>".encode(), first), body,
-                                 (b"</" + tag.group(1) + b"></sheet>",)))
+        body = _inflate(self._stored[sheet])
+        first = next(body, b"")
+        tag = re.match(rb"<([^\s/>]+)", first)
+        if tag is None:
+            raise DamagedSheet(f"the sheet '{sheet}' cannot be found again in {CONTENT}")
+        _parse(parser, chain((f"<sheet {declared}>".encode(), first), body, (b"</" + tag.group(1) + b"></sheet>",)))
         return padded_rows(cells.found)
 
     def close(self) -> None:
-        """Close the file."""
-        self.archive.close()
+        """Let go of the sheets kept (the file itself was closed once read)."""
+        self._stored = {}
 
     def __enter__(self) -> "OdsFile":
         return self
@@ -276,10 +307,14 @@ class _Cell:
 
     attrs: dict[str, str]
     repeat: int
-    wanted: bool
     formula: bool
     text: bool  # its value is its text (a string without office:string-value, an error, a cell of text only)
     paragraphs: list[str] = field(default_factory=list)
+
+
+_PASSED = _Cell({}, 0, False, False)  # a cell in no wanted column
+_COLUMNS_REPEATED, _FORMULA = TABLE + "number-columns-repeated", TABLE + "formula"
+_VALUE_TYPE, _STRING_VALUE, _EXTENDED_TYPE = OFFICE + "value-type", OFFICE + "string-value", CALCEXT + "value-type"
 
 
 class _Cells:
@@ -317,15 +352,18 @@ class _Cells:
             self.rows_repeated = _repeat(attrs.get(TABLE + "number-rows-repeated"), "row")
             self.col, self.kept = 0, {}
         elif name in _CELLS:
-            repeat = _repeat(attrs.get(TABLE + "number-columns-repeated"), "column")
-            columns = self.columns
-            wanted = columns is None or (self.col in columns if repeat == 1 else
-                                         any(self.col <= c < self.col + repeat for c in columns))
-            kind = attrs.get(OFFICE + "value-type")
-            formula = TABLE + "formula" in attrs
-            text = wanted and (attrs.get(CALCEXT + "value-type") == "error" or (
-                kind == "string" and OFFICE + "string-value" not in attrs) or (kind is None and not formula))
-            self.cell, self.depth, self.skip = _Cell(attrs, repeat, wanted, formula, text), 0, 0
+            repeat = _repeat(attrs.get(_COLUMNS_REPEATED), "column")
+            columns, self.depth, self.skip = self.columns, 0, 0
+            if columns is not None and (self.col not in columns if repeat == 1 else
+                                        not any(self.col <= c < self.col + repeat for c in columns)):
+                self.col += repeat  # not wanted: passed over
+                self.cell = _PASSED
+                return
+            kind = attrs.get(_VALUE_TYPE)
+            formula = _FORMULA in attrs
+            text = (attrs.get(_EXTENDED_TYPE) == "error" or (kind == "string" and _STRING_VALUE not in attrs)
+                    or (kind is None and not formula))
+            self.cell = _Cell(attrs, repeat, formula, text)
 
     def end(self, name: str) -> None:
         cell = self.cell
@@ -376,10 +414,10 @@ class _Cells:
 
     def _keep(self, cell: _Cell) -> None:
         """Keep the cell's value in every wanted column it covers."""
+        if cell is _PASSED:
+            return
         first = self.col
         self.col += cell.repeat
-        if not cell.wanted:
-            return
         held, value = self._value(cell)
         if not held:
             return
