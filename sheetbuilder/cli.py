@@ -247,7 +247,7 @@ def parser() -> argparse.ArgumentParser:
     b.add_argument("-q", "--quiet", action="store_true", help="print only problems")
     b.add_argument("--debug", action="store_true", help="show the traceback of any failure")
     b.add_argument("--previous", type=Path, default=None, metavar="OLD.xlsx",
-                   help="last week's workbook: carry its settings, costs, targets and Decisions into this one "
+                   help="last week's workbook, saved as .xlsx or .ods: carry its settings, costs, targets and Decisions into this one "
                         "(it is only read); edits that no longer match a row are listed on an Unmatched edits sheet. "
                         "A workbook built for another account (under half of its products or campaigns in these "
                         "exports) is refused")
@@ -263,7 +263,7 @@ def parser() -> argparse.ArgumentParser:
                                     "0 every change written; 3 some refused (the valid ones are written); 1 nothing "
                                     "written (missing workbook, no Actions sheet, output exists without --force); "
                                     "4 the system refused a read or write; 130 interrupted.")
-    ch.add_argument("workbook", type=Path, help="the edited .xlsx workbook")
+    ch.add_argument("workbook", type=Path, help="the edited workbook, saved as .xlsx or .ods")
     ch.add_argument("-o", "--output", type=Path, required=True, help="the file to write (.csv, or .xlsx with --format xlsx)")
     ch.add_argument("--format", choices=("csv", "xlsx"), default="csv", help="csv (default; text escaped against "
                     "formula injection) or xlsx (text written as text)")

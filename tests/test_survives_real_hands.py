@@ -11,6 +11,7 @@ from __future__ import annotations
 import json
 import shutil
 import subprocess
+import zipfile
 from collections import Counter
 from pathlib import Path
 
@@ -18,6 +19,7 @@ import openpyxl
 import pytest
 
 from conftest import require_libreoffice
+from sheetbuilder.values import is_number, same_value
 from sheetbuilder.weekly.changes import export_changes
 
 DRIVER = Path(__file__).parent / "uno_driver.py"
@@ -100,6 +102,7 @@ def plan_actions(demo: Path) -> dict[str, list[dict]]:
         "delete_a_terms_row": [{"op": "delete_row", "sheet": "Terms", "row": _table(terms, "Campaign")[0] + 2}],
         "cost_for_added_product": [{"op": "set", "sheet": "in_catalog", "cell": cell, "value": value}
                                    for cell, value in _added_product_cells(catalog).items()],
+        **{action: _typed_steps(wb) for action in SAVED_AS},
     }
 
 
@@ -133,12 +136,13 @@ def hands(work, demo_build):
     out = work / "hands"
     out.mkdir()
     actions = plan_actions(demo_build.output)
-    jobs = [{"label": k, "src": str(demo_build.output), "dst": str(out / f"{k}.xlsx"), "steps": steps}
+    saved = {k: out / f"{k}{SAVED_AS.get(k, '.xlsx')}" for k in actions}
+    jobs = [{"label": k, "src": str(demo_build.output), "dst": str(saved[k]), "steps": steps}
             for k, steps in actions.items()]
     results = run_driver(jobs, work)
     refused = {k: results.pop(k)["error"] for k in REFUSED}
     assert {k: {"error": None} for k in actions if k not in REFUSED} == results
-    return {**{k: out / f"{k}.xlsx" for k in actions if k not in REFUSED}, "refused": refused}
+    return {**{k: saved[k] for k in actions if k not in REFUSED}, "refused": refused}
 
 
 REFUSED = ("delete_a_bids_row", "delete_a_terms_row")  # actions LibreOffice must refuse
@@ -227,3 +231,78 @@ def test_deleting_a_row_of_bids_or_terms_is_refused_so_no_list_turns_to_ref_erro
     # A deleted Bids or Terms row would break the running keys below it (#REF! down Actions, Harvest and
     # Negatives); the sheets stay protected against deleting rows, and the Guide says to type keep or skip.
     assert hands["refused"][action].startswith("LibreOffice refused to delete row")
+
+
+# Saving as .ods: a person types a Bids, Terms and Budget Decision, a unit cost on in_catalog, a target on Profit
+# and two settings, then saves in OpenDocument (File > Save As, "calc8"); the same typing saved as .xlsx is the
+# reference, for the format must change nothing that is read back. Two Terms Decisions are text a Decision
+# cannot be (leading, doubled and trailing spaces, a line break; a leading =): they are not carried, and come
+# back exactly as typed. LibreOffice 7.4 drops a tab typed in a cell when it saves .ods (it keeps it in .xlsx),
+# so the text holds none; tests/test_ods.py reads text:tab as a tab.
+SAVED_AS = {"saving_as_ods": ".ods", "typed_then_saved_as_xlsx": ".xlsx"}
+ODD_TEXT = ("  two  spaces and\na line ", "=SUM(1,2)")
+TYPED_BY_HAND = (  # (defined name of the column or setting, body row offset, value typed)
+    ("sb_bids_decision", 0, 0.55), ("sb_bids_decision", 1, "keep"), ("sb_terms_decision", 0, "block"),
+    ("sb_terms_decision", 1, ODD_TEXT[0]), ("sb_terms_decision", 2, ODD_TEXT[1]), ("sb_budget_decision", 0, "keep"),
+    ("sb_catalog_unit_cost", 1, 30.5), ("sb_profit_target_override", 0, 0.22), ("default_target_acos", 0, 0.27),
+    ("thin_margin", 0, 0.1))
+
+
+def _typed_steps(wb) -> list[dict]:
+    """The driver steps typing TYPED_BY_HAND into the cells the defined names point at."""
+    steps = []
+    for name, offset, value in TYPED_BY_HAND:
+        sheet, ref = next(iter(wb.defined_names[name].destinations))
+        column, row = openpyxl.utils.cell.coordinate_from_string(ref.split(":")[0].replace("$", ""))
+        steps.append({"op": "set", "sheet": sheet, "cell": f"{column}{row + offset}", "value": value})
+    return steps
+
+
+def _differences(sheet: str, expected: list[list], got: list[list]) -> list[tuple]:
+    """(sheet, row, column, expected, got) of every cell whose values differ (numbers within values.same_value)."""
+    out = []
+    for r in range(max(len(expected), len(got))):
+        want, have = (expected[r] if r < len(expected) else []), (got[r] if r < len(got) else [])
+        for c in range(max(len(want), len(have))):
+            x, y = (want[c] if c < len(want) else None), (have[c] if c < len(have) else None)
+            if not (same_value(x, y) if is_number(x) and is_number(y) else (x == y and type(x) is type(y))):
+                out.append((sheet, r + 1, c + 1, x, y))
+    return out
+
+
+def _carried(path: Path, out: Path):
+    """The carry of a build of the demo's exports with path as --previous."""
+    from conftest import BUILT_ON, DEMO
+    from sheetbuilder.pipeline import build
+    return build(DEMO, out, built_on=BUILT_ON, previous=path).carry
+
+
+@pytest.mark.libreoffice
+@pytest.mark.slow
+def test_saving_as_ods_keeps_changes_and_carries_every_typed_value(hands, work):
+    from sheetbuilder.weekly.saved import SavedBook
+    ods, xlsx = hands["saving_as_ods"], hands["typed_then_saved_as_xlsx"]
+    with zipfile.ZipFile(ods) as saved:  # saved as OpenDocument (OpenDocument 1.2 Part 3, 3.3), not as .xlsx
+        assert (b"application/vnd.oasis.opendocument.spreadsheet", False) == (saved.read("mimetype"),
+                                                                             "xl/workbook.xml" in saved.namelist())
+    # Every cell of every sheet reads the same from both files (values, text as typed, dates, errors; a number
+    # to the 15 significant digits the .xlsx keeps of a recalculated value, where the .ods keeps 17).
+    with SavedBook(ods) as a, SavedBook(xlsx) as b:
+        assert b.sheetnames == a.sheetnames
+        assert [] == [d for sheet in b.sheetnames for d in _differences(sheet, b.rows(sheet), a.rows(sheet))][:5]
+        assert ODD_TEXT[0] == a.rows("Terms", frozenset({17}))[5][17]
+    # changes: the same list from either file, and that list is what the Actions sheet shows.
+    from_ods, from_xlsx = (export_changes(p, work / f"changes_{p.stem}.csv") for p in (ods, xlsx))
+    assert ([_change(r) for r in from_xlsx.rows], len(from_xlsx.refused), from_xlsx.overwritten) == \
+           ([_change(r) for r in from_ods.rows], len(from_ods.refused), from_ods.overwritten)
+    sheet, written = _actions_sheet(xlsx), Counter(_change(r) for r in from_ods.rows)
+    assert Counter() == written - sheet
+    assert len(from_ods.refused) == sum((sheet - written).values())
+    # build --previous: every typed value carried (the odd texts reported, not carried), as from the .xlsx.
+    by_ods, by_xlsx = _carried(ods, work / "from_ods.xlsx"), _carried(xlsx, work / "from_xlsx.xlsx")
+    def records(carry):
+        return sorted(((r.sheet, r.key, r.column, repr(r.value), r.why) for r in carry.carried + carry.unmatched))
+    assert records(by_xlsx) == records(by_ods)
+    typed = sorted(repr(v) for _, _, v in TYPED_BY_HAND if v not in ODD_TEXT)
+    assert typed == sorted(repr(r.value) for r in by_ods.carried)
+    assert sorted(ODD_TEXT) == sorted(r.value for r in by_ods.unmatched)

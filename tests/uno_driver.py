@@ -5,7 +5,8 @@
 Debian's python3-uno installs the bridge for the system interpreter only, so this script imports
 nothing of sheetbuilder's and talks JSON (as benchmarks/lo_uno.py does). It starts one headless
 soffice for every job, and for each job {"label", "src", "dst", "steps"} opens a copy of src, runs
-the steps in order, recalculates every formula (calculateAll) and saves the workbook as .xlsx to dst.
+the steps in order, recalculates every formula (calculateAll) and saves the workbook to dst (as
+OpenDocument when dst ends in .ods, else as .xlsx).
 A step is one of
   {"op": "sort", "sheet", "range": [first col, first row, last col, last row] (0-based, the rows
    sorted, without the header), "by": column offset in the range, "ascending": bool}: Data > Sort;
@@ -64,6 +65,14 @@ def _set(sheet, step: dict) -> None:
         cell.setValue(float(step["value"]))
 
 
+FILTERS = {".ods": "calc8"}  # OpenDocument spreadsheet, as File > Save As writes it; else .xlsx
+
+
+def _filter(dst: str) -> str:
+    """The export filter for the destination's suffix."""
+    return FILTERS.get(Path(dst).suffix.lower(), "Calc MS Excel 2007 XML")
+
+
 def run_job(desktop, job: dict, scratch: Path) -> dict:
     copy = scratch / f"{job['label']}.xlsx"  # a private copy: no lock file beside the caller's workbook
     shutil.copyfile(job["src"], copy)
@@ -84,7 +93,7 @@ def run_job(desktop, job: dict, scratch: Path) -> dict:
             {"sort": _sort, "set": _set}[step["op"]](sheet, step)
         doc.calculateAll()
         doc.storeToURL(uno.systemPathToFileUrl(str(Path(job["dst"]).resolve())),
-                       (_prop("FilterName", "Calc MS Excel 2007 XML"),))
+                       (_prop("FilterName", _filter(job["dst"])),))
     finally:
         doc.close(True)
     return {"error": None}

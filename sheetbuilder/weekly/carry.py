@@ -24,10 +24,9 @@ import math
 import datetime as dt
 from dataclasses import dataclass, field, replace
 from pathlib import Path
-from typing import Any, Callable, Iterable, Mapping, Sequence
+from typing import Any, Iterable, Mapping, Sequence
 
 import pandas as pd
-from openpyxl.utils.cell import coordinate_to_tuple
 
 from sheetbuilder.sheets.inputs import CATALOG_NAME, EDITABLE, EXPORTED
 from sheetbuilder.sheets.settings_sheet import AS_BUILT, HEADERS as SETTINGS_HEADERS, SHEET as SETTINGS_SHEET
@@ -95,15 +94,15 @@ def _cell(row: list[Any], col: int) -> Any:
     return row[col] if col < len(row) else None
 
 
-def _located(wb, rows_of: Callable[[str], list[list[Any]]], names: dict[str, str], headers: dict[str, str],
-             sheet: str, scan: int, value_key: str) -> tuple[list[list[Any]], dict[str, int]] | None:
+def _located(book: SavedBook, names: dict[str, str], headers: dict[str, str], sheet: str, scan: int,
+             value_key: str) -> tuple[list[list[Any]], dict[str, int]] | None:
     """(body rows, {key: column}) of a table: by its defined names, else by its header row; None when neither."""
-    areas = named_columns(wb, names)
+    areas = named_columns(book, names)
     if areas is not None:  # only these columns are read; a formula with no saved value is told from a blank
         area = next(iter(areas.values()))
         cols = {k: a.first_col for k, a in areas.items()}
-        return rows_of(area.sheet, frozenset(cols.values()), True)[area.first_row:area.last_row + 1], cols
-    rows = rows_of(sheet)
+        return book.rows(area.sheet, frozenset(cols.values()), True)[area.first_row:area.last_row + 1], cols
+    rows = book.rows(sheet)
     at = _header_index(rows, list(headers.values()), scan)
     if at is None:
         return None
@@ -119,13 +118,13 @@ def _located(wb, rows_of: Callable[[str], list[list[Any]]], names: dict[str, str
     return body, cols
 
 
-def _read_block(wb, rows_of, entry: EditSheet) -> dict[tuple, Any] | None:
+def _read_block(book: SavedBook, entry: EditSheet) -> dict[tuple, Any] | None:
     """{raw key tuple: value} of every non-blank typed cell of a table; None when the table was not found."""
     decl = entry.decl
     wanted = (*decl.keys, decl.value)
     names = {k: decl.name_of(k) for k in wanted}
     headers = {k: decl.headers[k] for k in wanted}
-    found = _located(wb, rows_of, names, headers, decl.sheet, entry.scan_rows, decl.value)
+    found = _located(book, names, headers, decl.sheet, entry.scan_rows, decl.value)
     if found is None:
         return None
     body, cols = found
@@ -146,36 +145,33 @@ def _has_as_built(rows: list[list[Any]]) -> bool:
     return any(len(r) > AS_BUILT_COLUMN and r[AS_BUILT_COLUMN] == AS_BUILT for r in rows[:SCAN_ROWS])
 
 
-def _settings_cells(wb, rows_of: Callable[[str], list[list[Any]]]) -> dict[str, Any]:
+def _settings_cells(book: SavedBook) -> dict[str, Any]:
     """{key: value} of every live setting whose defined name points at a cell."""
     out: dict[str, Any] = {}
     for spec in SETTINGS:
-        if not spec.live or spec.key not in wb.defined_names:
+        area = book.area(spec.key) if spec.live else None
+        if area is None:
             continue
-        for sheet, coord in wb.defined_names[spec.key].destinations:
-            if sheet not in wb.sheetnames:
-                continue
-            r, c = coordinate_to_tuple(coord.replace("$", ""))
-            rows = rows_of(sheet)
-            value = rows[r - 1][c - 1] if r <= len(rows) and c <= len(rows[r - 1]) else None
-            built = rows[r - 1][AS_BUILT_COLUMN] if r <= len(rows) and AS_BUILT_COLUMN < len(rows[r - 1]) else None
-            if _has_as_built(rows) and same_value(value, built):
-                break  # not typed by the user: this week's settings.toml decides
-            out[spec.key] = value
-            break
+        r, c = area.first_row, area.first_col
+        rows = book.rows(area.sheet)
+        value = rows[r][c] if r < len(rows) and c < len(rows[r]) else None
+        built = rows[r][AS_BUILT_COLUMN] if r < len(rows) and AS_BUILT_COLUMN < len(rows[r]) else None
+        if _has_as_built(rows) and same_value(value, built):
+            continue  # not typed by the user: this week's settings.toml decides
+        out[spec.key] = value
     return out
 
 
-def _catalog_cells(wb, rows_of) -> dict[tuple[str, str], Any]:
+def _catalog_cells(book: SavedBook) -> dict[tuple[str, str], Any]:
     """{(product_id, column): value} of every in_catalog input cell that differs from its exported_ twin."""
     wanted = ("product_id", *CATALOG_COLUMNS, *(EXPORTED + c for c in CATALOG_COLUMNS))
-    areas = named_columns(wb, {c: f"{CATALOG_NAME}_{c}" for c in wanted})
+    areas = named_columns(book, {c: f"{CATALOG_NAME}_{c}" for c in wanted})
     if areas is not None:
         area = areas["product_id"]
         cols = {k: a.first_col for k, a in areas.items()}
-        body = rows_of(area.sheet, frozenset(cols.values()))[area.first_row:]  # and rows the user added below
+        body = book.rows(area.sheet, frozenset(cols.values()))[area.first_row:]  # and rows the user added below
     else:  # no names: by header text; an older layout without exported_ columns compares with the export
-        rows = rows_of(CATALOG_SHEET)
+        rows = book.rows(CATALOG_SHEET)
         at = _header_index(rows, ["product_id"], SCAN_ROWS)
         if at is None:
             return {}
@@ -204,34 +200,33 @@ def read_edits(path: Path) -> Edits:
     """Everything a user types in the workbook at path; the file is only read.
 
     Raises:
-        PreviousWorkbookUnreadable: path is missing or not a readable .xlsx file.
+        PreviousWorkbookUnreadable: path is missing or not a readable .xlsx or .ods file.
     """
     with SavedBook(path) as book:
         return edits_in(book)
 
 
-def _was_built(wb, rows_of, entry: EditSheet) -> bool:
+def _was_built(book: SavedBook, entry: EditSheet) -> bool:
     """Whether a typed column that could not be found was in the workbook (its name exists but is broken,
     or a header row holds its key headers): a table the build did not write (no rows) is not lost."""
-    if entry.decl.name_of(entry.decl.value) in wb.defined_names:
+    if book.has_name(entry.decl.name_of(entry.decl.value)):
         return True
-    if entry.sheet not in wb.sheetnames:
+    if entry.sheet not in book.sheetnames:
         return False
-    return _header_index(rows_of(entry.sheet), [k.header for k in entry.keys], entry.scan_rows) is not None
+    return _header_index(book.rows(entry.sheet), [k.header for k in entry.keys], entry.scan_rows) is not None
 
 
 def edits_in(book: SavedBook) -> Edits:
     """Everything a user typed in an opened saved workbook (see :func:`read_edits`)."""
-    wb, rows_of = book.wb, book.rows
-    settings = _settings_cells(wb, rows_of)
-    catalog = _catalog_cells(wb, rows_of)
+    settings = _settings_cells(book)
+    catalog = _catalog_cells(book)
     lost: list[tuple[str, str]] = []
     decisions: dict[str, dict] = {}
     targets: dict[str, Any] = {}
     for entry in (*DECISION_SHEETS, PROFIT_TARGET):
-        found = _read_block(wb, rows_of, entry)
+        found = _read_block(book, entry)
         if found is None:
-            if _was_built(wb, rows_of, entry):
+            if _was_built(book, entry):
                 lost.append((entry.label, f"its {entry.value_header!r} column was not found: the workbook "
                                           f"has no defined name {entry.decl.name_of(entry.decl.value)} and no "
                                           f"header row reading {', '.join(entry.decl.headers.values())}"))
@@ -248,7 +243,7 @@ def edits_in(book: SavedBook) -> Edits:
 def _first_typed(book: SavedBook) -> dict[tuple[str, str, str], Any]:
     """{(sheet, key, column): date first typed} from the Carried edits sheet, found by its defined names."""
     keys = ("sheet", "key", "column", "first_typed")
-    areas = named_columns(book.wb, {k: f"{CARRIED_NAME}_{k}" for k in keys})
+    areas = named_columns(book, {k: f"{CARRIED_NAME}_{k}" for k in keys})
     if areas is None:
         return {}
     area = areas["sheet"]

@@ -21,7 +21,7 @@ from sheetbuilder.sheets.followup import CHANGE_DEFS, NAME as FOLLOWUP_NAME
 from sheetbuilder.sheets.typed import ACTIONS_NAME, DECISION_SHEETS
 from sheetbuilder.values import is_blank
 from sheetbuilder.weekly.carry import Edits, edits_in
-from sheetbuilder.weekly.saved import (NotAWorkbook, SavedBook, named_area, named_columns, read_history, saved_inputs,
+from sheetbuilder.weekly.saved import (NotAWorkbook, SavedBook, named_columns, read_history, saved_inputs,
                                        saved_settings)
 
 HEADER_ROW = ACTIONS_HEADER_ROW + 1  # 1-based, as a spreadsheet shows it
@@ -37,7 +37,7 @@ def _saved_actions(book: SavedBook, formulas: bool = False) -> list[tuple[int, l
 
     With formulas, a formula cell that stores no value reads as NO_SAVED_VALUE (a typed value reads as itself).
     """
-    area = named_area(book.wb, ACTIONS_NAME)
+    area = book.area(ACTIONS_NAME)
     first_col = area.first_col if area else 0
     rows = book.rows(area.sheet if area else SHEET, frozenset(range(first_col, first_col + len(HEADERS))), formulas)
     first_row = area.first_row if area else FIRST_ROW - 1
@@ -115,7 +115,7 @@ def _column_values(book: SavedBook, sheet: str, header: str) -> set[str]:
 
 def read_context(book: SavedBook) -> dict[str, Any]:
     """What the checks read besides a change: bid floor and ceiling, the campaigns in the exports."""
-    sheets = book.wb.sheetnames
+    sheets = book.sheetnames
     return {
         "bid_floor": book.named_value("bid_floor"),
         "bid_ceiling": book.named_value("bid_ceiling"),
@@ -131,7 +131,7 @@ def _saved_results(book: SavedBook) -> dict[str, list[tuple[int, list[Any], Any]
     for entry in DECISION_SHEETS:
         decl = entry.decl
         wanted = (*decl.keys, decl.result)
-        areas = named_columns(book.wb, {k: decl.name_of(k) for k in wanted}) if decl.result else None
+        areas = named_columns(book, {k: decl.name_of(k) for k in wanted}) if decl.result else None
         if areas is None:
             continue
         first = next(iter(areas.values())).first_row
@@ -145,7 +145,7 @@ def _saved_results(book: SavedBook) -> dict[str, list[tuple[int, list[Any], Any]
 def _followup_rows(book: SavedBook) -> list[tuple[int, dict[str, Any]]]:
     """[(sheet row, {column key: value})] of the Follow-up's Last week's changes, found by its defined name."""
     visible = [d.key for d in CHANGE_DEFS]
-    area = named_area(book.wb, FOLLOWUP_NAME)
+    area = book.area(FOLLOWUP_NAME)
     if area is None:
         return []
     rows = book.rows(area.sheet, frozenset(range(area.first_col, area.first_col + len(visible))))
@@ -169,7 +169,7 @@ def read_saved_workbook(path: Path, unreadable: type[SheetbuilderError] = NotAWo
         NoActionsSheet: for_changes, and the workbook has no Actions list to read.
     """
     with reading(path, unreadable), SavedBook(Path(path)) as book:
-        names = list(book.wb.sheetnames)
+        names = list(book.sheetnames)
         if for_changes and SHEET not in names:
             raise NoActionsSheet(f"{book.path.name} has no {SHEET} sheet; build it with a sheetbuilder that writes one")
         actions = _saved_actions(book) if for_changes else []

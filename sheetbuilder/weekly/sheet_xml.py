@@ -15,6 +15,9 @@ from dataclasses import dataclass, field
 from typing import IO, Any, Callable
 from xml.parsers import expat
 
+from sheetbuilder.reading import guard
+from sheetbuilder.reading.guard import UnsafeWorkbook
+
 MAIN_NS = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
 CHUNK = 1 << 16
 
@@ -54,7 +57,7 @@ def iso_datetime(text: str) -> dt.datetime | dt.time | str:
         return text
 
 
-def _number(text: str) -> int | float:
+def number(text: str) -> int | float:
     """A stored number as openpyxl reads it: int when written without a point or exponent."""
     text = text.strip()
     if any(ch in text for ch in ".eE") or text.lower() in ("inf", "-inf", "nan"):
@@ -103,15 +106,15 @@ class CellReader:
         if kind == "d":
             return iso_datetime(text)
         try:
-            number = _number(text)
+            value = number(text)
         except ValueError:
             raise DamagedSheet(f"a number cell holds {text[:40]!r}") from None
         if cell.style in self.date_styles:
             try:
-                return self.from_serial(number)
+                return self.from_serial(value)
             except (OverflowError, ValueError):
                 return "#VALUE!"
-        return number
+        return value
 
 
 _C, _ROW, _V, _F, _IS, _RPH, _T = range(1, 8)
@@ -209,14 +212,24 @@ class _SheetParser:
         elif self.in_t and not self.depth_rph:
             cell.inline.append(data)
 
-    def rows(self) -> list[list[Any]]:
-        found = self.found
-        width = 1 + max((c for cells in found.values() for c in cells), default=-1)
-        empty: dict[int, Any] = {}
-        return [[found.get(r, empty).get(c) for c in range(width)] for r in range(max(found, default=-1) + 1)]
-
 
 _UNWANTED = _Cell()
+
+
+def padded_rows(found: dict[int, dict[int, Any]]) -> list[list[Any]]:
+    """{row: {column: value}} as rows of one width, from row 0 to the last row found.
+
+    Raises:
+        UnsafeWorkbook: the rows times the width exceed guard.MAX_SAVED_CELLS (a cell far from the rest).
+    """
+    width = 1 + max((c for cells in found.values() for c in cells), default=-1)
+    height = max(found, default=-1) + 1
+    if height * width > guard.MAX_SAVED_CELLS:
+        raise UnsafeWorkbook(f"refused: a sheet's cells reach row {height:,} and column {width:,}, more than "
+                             f"{guard.MAX_SAVED_CELLS:,} cells to read; delete what lies far below or right of "
+                             "its tables and save it again")
+    empty: dict[int, Any] = {}
+    return [[found.get(r, empty).get(c) for c in range(width)] for r in range(height)]
 
 
 def read_cells(handle: IO[bytes], reader: CellReader, columns: frozenset[int] | None = None,
@@ -238,4 +251,4 @@ def read_cells(handle: IO[bytes], reader: CellReader, columns: frozenset[int] | 
         raise DamagedSheet(str(exc)) from None
     except (ValueError, OverflowError) as exc:
         raise DamagedSheet(str(exc)) from None
-    return sheet.rows()
+    return padded_rows(sheet.found)
