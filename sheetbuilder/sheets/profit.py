@@ -19,7 +19,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from sheetbuilder.sheets.decisions import editable
+from sheetbuilder.sheets.decisions import NOTES, editable, notes_column
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, blank_div, plan_table
 from sheetbuilder.workbook.formula import block_sum, keyed_row
 from sheetbuilder.sheets.inputs import InputSheet
@@ -277,11 +277,12 @@ DEFS: list[ColumnDef] = [
               total="={sum:rev_with_margin}", total_reference=_rev_with_margin_total),
     ColumnDef("pos", "Position", "int", "Helper: the row's place as built; other sheets find the product by it "
               "after Profit is sorted.", lambda df, ctx: df["pos"], kind=DATA, width=8, hidden=True),
+    notes_column(),  # the user's notes at the right end
 ]
 
 # What a user types on Profit (a product's own target ACoS) and the key that finds its row again.
 EDITABLE_COLUMNS = editable(DEFS, "Profit", SHEET, "sb_profit", ("product_id",), "target_override",
-                            ("catalog", "store_sales", "ad_products"), numeric="target", result="")
+                            ("catalog", "store_sales", "ad_products"), numeric="target", result="", notes=NOTES)
 
 # Totals that need the whole frame are filled after the body (see _fill_totals).
 _LATE_TOTALS = {
