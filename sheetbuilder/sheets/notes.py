@@ -73,16 +73,16 @@ def place_notes(sheets: dict[str, list[Sheet]], tables: dict[str, PlannedTable],
             continue
         planned = tables[decl.table]
         old, new, extra = _with_notes(decl, planned, carry)
-        tables[decl.table] = replace(planned, columns=[new if c is old else c for c in planned.columns])
+        columns = [new if c is old else c for c in planned.columns] + extra  # one list: the sheet's and the table's
+        tables[decl.table] = replace(planned, columns=columns)
         for where, placed in sheets.items():
-            sheets[where] = [_placed(s, old, new, extra) for s in placed]
+            sheets[where] = [_placed(s, planned.columns, columns, len(extra)) for s in placed]
 
 
-def _placed(sheet: Sheet, old: Column, new: Column, extra: list[Column]) -> Sheet:
-    """sheet with its main table's Notes column replaced and the own columns appended, when it holds that table."""
+def _placed(sheet: Sheet, planned: list[Column], columns: list[Column], own: int) -> Sheet:
+    """sheet with its main table's columns replaced (Notes filled, own columns added), when it holds that table."""
     table = sheet.table
-    if table is None or not any(c is old for c in table.columns):
+    if table is None or table.columns is not planned:
         return sheet
-    columns = [new if c is old else c for c in table.columns] + extra
-    return replace(sheet, table=replace(table, columns=columns), open_columns=max(OWN_COLUMNS_CAP - len(extra), 0))
+    return replace(sheet, table=replace(table, columns=columns), open_columns=max(OWN_COLUMNS_CAP - own, 0))
 
