@@ -62,6 +62,8 @@ def test_a_note_whose_row_is_gone_is_listed_on_unmatched_edits_and_in_the_summar
              "its row is no longer in the targets export"]] == unmatched_sheet_rows(result)[1:]
     assert {("C1", "G1", "red pot", "exact"): "kept"} == result.notes["Bids"]
     assert "1 edit(s) could not be carried" in carried_summary(result)
+    assert "1 of them: your own notes or values of your own columns (Bids C9 / G9 / gone pot / exact)." in carried_summary(
+        result)
 
 
 def test_notes_of_a_table_the_new_exports_lack_are_listed_not_dropped():
