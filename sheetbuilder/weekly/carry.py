@@ -35,7 +35,7 @@ from sheetbuilder.sheets.decisions import NO_SAVED_VALUE, NOTES_HEADER, OWN_COLU
 from sheetbuilder.sheets.typed import (CARRIED_NAME, DECISION_SHEETS, EDITABLE_TABLES, PROFIT_TARGET, SCAN_ROWS,
                                        CarryRecord, CarryResult, EditSheet, OwnColumn, edit_sheet_of, key_text)
 from sheetbuilder.values import is_blank, is_number, same_value, shown
-from sheetbuilder.weekly.saved import SavedBook, SavedWorkbookUnreadable, named_columns
+from sheetbuilder.weekly.saved import SavedBook, SavedWorkbookUnreadable, named_area, named_columns
 from sheetbuilder.reading.settings import SETTINGS, Settings, coerce_setting
 
 CATALOG_SHEET = "in_catalog"
@@ -103,13 +103,16 @@ def _cell(row: list[Any], col: int) -> Any:
 
 
 def _located(wb, rows_of: Callable[[str], list[list[Any]]], names: dict[str, str], headers: dict[str, str],
-             sheet: str, scan: int, value_key: str) -> tuple[list[list[Any]], dict[str, int]] | None:
-    """(body rows, {key: column}) of a table: by its defined names, else by its header row; None when neither."""
+             sheet: str, scan: int, value_key: str, also: frozenset = frozenset()
+             ) -> tuple[list[list[Any]], dict[str, int]] | None:
+    """(body rows, {key: column}) of a table: by its defined names, else by its header row; None when neither.
+
+    also: more columns to read in the same pass (the Notes columns, read again from the cache by notes_in)."""
     areas = named_columns(wb, names)
     if areas is not None:  # only these columns are read; a formula with no saved value is told from a blank
         area = next(iter(areas.values()))
         cols = {k: a.first_col for k, a in areas.items()}
-        return rows_of(area.sheet, frozenset(cols.values()), True)[area.first_row:area.last_row + 1], cols
+        return rows_of(area.sheet, frozenset(cols.values()) | also, True)[area.first_row:area.last_row + 1], cols
     rows = rows_of(sheet)
     at = _header_index(rows, list(headers.values()), scan)
     if at is None:
@@ -132,7 +135,7 @@ def _read_block(wb, rows_of, entry: EditSheet) -> dict[tuple, Any] | None:
     wanted = (*decl.keys, decl.value)
     names = {k: decl.name_of(k) for k in wanted}
     headers = {k: decl.headers[k] for k in wanted}
-    found = _located(wb, rows_of, names, headers, decl.sheet, entry.scan_rows, decl.value)
+    found = _located(wb, rows_of, names, headers, decl.sheet, entry.scan_rows, decl.value, _notes_columns(wb, decl))
     if found is None:
         return None
     body, cols = found
@@ -493,15 +496,23 @@ def _own_in(header: list[Any], body: list[tuple[tuple, list[Any]]], label: str, 
     return own, refused
 
 
+def _notes_columns(wb, decl) -> frozenset:
+    """A table's Notes column and the OWN_SCAN columns right of it (none without its defined name), read in the
+    same pass as its keys and typed column."""
+    area = named_area(wb, decl.name_of(decl.notes)) if decl.notes else None
+    return frozenset() if area is None else frozenset(range(area.first_col, area.first_col + OWN_SCAN + 1))
+
+
 def _notes_of(book: SavedBook, label: str, decl) -> tuple[dict, list[OwnColumn], list[CarryRecord]] | None:
     """(notes by raw key, own columns, refused columns) of one table, found by its defined names; None without."""
-    areas = named_columns(book.wb, {k: decl.name_of(k) for k in (*decl.keys, decl.notes)})
+    areas = (named_columns(book.wb, {k: decl.name_of(k) for k in (*decl.keys, decl.value, decl.notes)})
+             or named_columns(book.wb, {k: decl.name_of(k) for k in (*decl.keys, decl.notes)}))
     if areas is None:
         return None
     area = areas[decl.notes]
     notes_col = area.first_col
-    wanted = frozenset({a.first_col for a in areas.values()} | set(range(notes_col + 1, notes_col + OWN_SCAN + 1)))
-    rows = book.rows(area.sheet, wanted, True)
+    wanted = frozenset(a.first_col for k, a in areas.items() if k != decl.notes) | _notes_columns(book.wb, decl)
+    rows = book.rows(area.sheet, wanted, True)  # the pass that read the typed column (see _located)
     header = rows[area.first_row - 1] if 0 < area.first_row <= len(rows) else []
     body = []
     for row in rows[area.first_row:area.last_row + 1]:
