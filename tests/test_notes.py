@@ -196,3 +196,24 @@ def test_a_notes_column_is_plain_unlocked_text_at_the_right_end_of_each_table_wi
         top, headers = _table(ws, TABLES[decl.sheet][0])
         cell = ws.cell(top + 1, headers.index("Notes") + 1)
         assert ("@", False) == (cell.number_format, cell.protection.locked)  # text format: =... stays text
+
+
+def test_a_column_of_ones_own_beside_a_table_built_before_notes_columns_is_carried(tmp_path):
+    # A workbook built before this version: no Notes column and no defined name over one (simulated by removing
+    # them); the user's column right of the table's last built column still comes back, by key.
+    built = build(DEMO, tmp_path / "old.xlsx", built_on=BUILT_ON)
+    wb = openpyxl.load_workbook(built.output)
+    for decl in EDITABLE_TABLES:
+        if decl.notes:
+            del wb.defined_names[decl.name_of(decl.notes)]
+    ws = wb["Bids"]
+    top, headers = _table(ws, "Campaign")
+    col = headers.index("Notes") + 1
+    ws.cell(top, col).value = None  # the older layout ended at the column before
+    ws.cell(top, col + 1).value = "Supplier"
+    ws.cell(top + 3, col + 1).value = "North depot"
+    key = tuple(ws.cell(top + 3, headers.index(h) + 1).value for h in ("Campaign", "Ad group", "Target", "Match type"))
+    wb.save(tmp_path / "old_edited.xlsx")
+    edits = read_edits(tmp_path / "old_edited.xlsx")
+    assert {} == edits.notes
+    assert [OwnColumn(2, "Supplier", {key: "North depot"})] == edits.own["Bids"]

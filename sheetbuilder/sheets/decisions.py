@@ -43,6 +43,8 @@ class EditableColumns:
             ``changes`` can report a result typed over by hand.
         notes: the key of the table's Notes column (:func:`notes_column`, '' when none): the user's own text,
             carried by key with the columns the user adds to its right, never read as a Decision.
+        all_headers: every column's header as built (a workbook built before Notes columns: what lies right of
+            the last of them is the user's own).
     """
 
     label: str
@@ -62,6 +64,7 @@ class EditableColumns:
     result: str = "final"
     result_header: str = ""
     notes: str = ""
+    all_headers: tuple[str, ...] = ()
 
     def problem(self, value: Any) -> str | None:
         """Why a typed value is not valid here (None when it is, or is blank)."""
@@ -94,7 +97,7 @@ def editable(defs: list["ColumnDef"], label: str, sheet: str, name: str, keys: t
     results = {d.key: d.header for d in defs if d.key == options.get("result", "final")}
     decl = EditableColumns(label, sheet, table or label, name, tuple(keys), value, headers, tuple(inputs),
                            tuple(input_columns or keys), **options)
-    return replace(decl, result_header=results.get(decl.result, ""))
+    return replace(decl, result_header=results.get(decl.result, ""), all_headers=tuple(d.header for d in defs))
 
 
 NOTES = "notes"  # the key of every Notes column

@@ -472,9 +472,20 @@ def apply_edits(edits: Edits, inputs_tables: Any, settings: Settings) -> CarryRe
 OWN_SCAN = 2 * OWN_COLUMNS_CAP  # columns right of Notes looked at: those beyond the cap are listed, not carried
 
 
-def _own_in(header: list[Any], body: list[tuple[tuple, list[Any]]], label: str, notes_col: int
-            ) -> tuple[list[OwnColumn], list[CarryRecord]]:
-    """The user's columns right of Notes ({raw key: value} each), and those that cannot be carried."""
+def _keyed_rows(rows: list[list[Any]], areas: dict, decl) -> list[tuple[tuple, list[Any]]]:
+    """(raw key, row) of every body row of a table whose keys are not all blank."""
+    body = []
+    for row in rows[areas[decl.keys[0]].first_row:areas[decl.keys[0]].last_row + 1]:
+        parts = tuple(_cell(row, areas[k].first_col) for k in decl.keys)
+        if not all(is_blank(p) for p in parts):
+            body.append((parts, row))
+    return body
+
+
+def _own_in(header: list[Any], body: list[tuple[tuple, list[Any]]], label: str, notes_col: int,
+            after: str = NOTES_HEADER) -> tuple[list[OwnColumn], list[CarryRecord]]:
+    """The user's columns right of Notes (or of after, the last column built) ({raw key: value} each), and those
+    that cannot be carried."""
     own: list[OwnColumn] = []
     refused: list[CarryRecord] = []
     for offset in range(1, OWN_SCAN + 1):
@@ -483,11 +494,11 @@ def _own_in(header: list[Any], body: list[tuple[tuple, list[Any]]], label: str, 
         values = {parts: v for parts, row in body if not is_blank(v := _cell(row, col))}
         if is_blank(title) and not values:
             continue
-        where = f"column {offset} right of {NOTES_HEADER}"
+        where = f"column {offset} right of {after}"
         if offset > OWN_COLUMNS_CAP:
             refused.append(CarryRecord(label, f"({where})", key_text(title), f"{len(values)} value(s)",
                                        f"beyond the {OWN_COLUMNS_CAP} columns of your own carried right of "
-                                       f"{NOTES_HEADER}; move it nearer"))
+                                       f"{after}; move it nearer"))
         elif is_blank(title):
             refused.append(CarryRecord(label, f"({where})", "", f"{len(values)} value(s)",
                                        "a column without a header is not carried; give it one"))
@@ -508,20 +519,33 @@ def _notes_of(book: SavedBook, label: str, decl) -> tuple[dict, list[OwnColumn],
     areas = (named_columns(book.wb, {k: decl.name_of(k) for k in (*decl.keys, decl.value, decl.notes)})
              or named_columns(book.wb, {k: decl.name_of(k) for k in (*decl.keys, decl.notes)}))
     if areas is None:
-        return None
+        return _own_of_older(book, label, decl)
     area = areas[decl.notes]
     notes_col = area.first_col
     wanted = frozenset(a.first_col for k, a in areas.items() if k != decl.notes) | _notes_columns(book.wb, decl)
     rows = book.rows(area.sheet, wanted, True)  # the pass that read the typed column (see _located)
     header = rows[area.first_row - 1] if 0 < area.first_row <= len(rows) else []
-    body = []
-    for row in rows[area.first_row:area.last_row + 1]:
-        parts = tuple(_cell(row, areas[k].first_col) for k in decl.keys)
-        if not all(is_blank(p) for p in parts):
-            body.append((parts, row))
+    body = _keyed_rows(rows, areas, decl)
     notes = {parts: v for parts, row in body if not is_blank(v := _cell(row, notes_col))}
     own, refused = _own_in(header, body, label, notes_col)
     return notes, own, refused
+
+
+def _own_of_older(book: SavedBook, label: str, decl) -> tuple[dict, list[OwnColumn], list[CarryRecord]] | None:
+    """A workbook built before Notes columns: the columns right of the last header the table was built with,
+    found through its key and typed columns' defined names, are the user's own (no notes)."""
+    areas = named_columns(book.wb, {k: decl.name_of(k) for k in (*decl.keys, decl.value)})
+    if areas is None or not decl.all_headers:
+        return None
+    area = areas[decl.value]
+    rows = book.rows(area.sheet, None, True)  # every column: the table's width is unknown (once, an older workbook)
+    header = rows[area.first_row - 1] if 0 < area.first_row <= len(rows) else []
+    ours = {h for h in decl.all_headers if h != NOTES_HEADER}
+    last = max((i for i, v in enumerate(header) if key_text(v) in ours), default=None)
+    if last is None:
+        return None
+    own, refused = _own_in(header, _keyed_rows(rows, areas, decl), label, last, key_text(header[last]))
+    return {}, own, refused
 
 
 def notes_in(book: SavedBook) -> tuple[dict, dict, list[CarryRecord]]:
