@@ -125,12 +125,11 @@ def _noted(ws, first: str, keys: tuple[str, ...]) -> dict[tuple, tuple]:
 
 
 @pytest.fixture(scope="module")
-def noted(tmp_path_factory):
-    """The demo built, notes typed on four sheets and two own columns beside Bids (openpyxl), then next week built
+def noted(tmp_path_factory, demo_build):
+    """The demo as built, notes typed on four sheets and two own columns beside Bids (openpyxl), then next week built
     with --previous from the same exports; (last week's path, its rows {sheet: {key: cells}}, next week's build)."""
     folder = tmp_path_factory.mktemp("notes")
-    first = build(DEMO, folder / "week1.xlsx", built_on=BUILT_ON)
-    wb = openpyxl.load_workbook(first.output)
+    wb = openpyxl.load_workbook(demo_build.output)
     for i, (sheet, (head, _)) in enumerate(TABLES.items()):
         ws = wb[sheet]
         top, headers = _table(ws, head)
@@ -169,20 +168,20 @@ def test_next_weeks_workbook_has_every_note_and_own_column_beside_the_same_key(n
     assert ["Notes", "Checked on", "", "Owner"] == [h or "" for h in headers[headers.index("Notes"):]]
 
 
-def test_notes_are_carried_but_never_reach_the_change_list_or_actions(noted, tmp_path):
+def test_notes_are_carried_but_never_reach_the_change_list_or_actions(noted, demo_build, tmp_path):
     path, _, second = noted
     assert [] == [r for r in second.carry.unmatched]
     assert 8 + 2 == len(second.carry.carried)
     assert {} == second.carry.decisions
-    plain = build(DEMO, tmp_path / "plain.xlsx", built_on=BUILT_ON)
+    plain = demo_build
     for sheet in ("Actions", "Follow-up"):
         if sheet in plain.plan.tables:
             assert plain.plan.tables[sheet].frame.equals(second.plan.tables[sheet].frame)
     assert export_changes(plain.output, tmp_path / "plain.csv").rows == export_changes(path, tmp_path / "n.csv").rows
 
 
-def test_a_notes_column_is_plain_unlocked_text_at_the_right_end_of_each_table_with_room_for_own_columns(tmp_path):
-    built = build(DEMO, tmp_path / "demo.xlsx", built_on=BUILT_ON)
+def test_a_notes_column_is_plain_unlocked_text_at_the_right_end_of_each_table_with_room_for_own_columns(demo_build):
+    built = demo_build
     wb = openpyxl.load_workbook(built.output)
     for decl in EDITABLE_TABLES:
         if not decl.notes:
@@ -198,11 +197,10 @@ def test_a_notes_column_is_plain_unlocked_text_at_the_right_end_of_each_table_wi
         assert ("@", False) == (cell.number_format, cell.protection.locked)  # text format: =... stays text
 
 
-def test_a_column_of_ones_own_beside_a_table_built_before_notes_columns_is_carried(tmp_path):
+def test_a_column_of_ones_own_beside_a_table_built_before_notes_columns_is_carried(demo_build, tmp_path):
     # A workbook built before this version: no Notes column and no defined name over one (simulated by removing
     # them); the user's column right of the table's last built column still comes back, by key.
-    built = build(DEMO, tmp_path / "old.xlsx", built_on=BUILT_ON)
-    wb = openpyxl.load_workbook(built.output)
+    wb = openpyxl.load_workbook(demo_build.output)
     for decl in EDITABLE_TABLES:
         if decl.notes:
             del wb.defined_names[decl.name_of(decl.notes)]
