@@ -3,7 +3,6 @@ its right, carried to next week's workbook by the row's key (never by position),
 from __future__ import annotations
 
 import datetime as dt
-from pathlib import Path
 
 import openpyxl
 import pandas as pd
@@ -11,7 +10,7 @@ import pytest
 
 from conftest import BUILT_ON, DEMO
 from sheetbuilder.cli import carried_summary
-from sheetbuilder.pipeline import build, load
+from sheetbuilder.pipeline import build
 from sheetbuilder.reading.settings import Settings
 from sheetbuilder.sheets.decisions import NO_SAVED_VALUE, OWN_COLUMNS_CAP
 from sheetbuilder.sheets.typed import EDITABLE_TABLES, OwnColumn, keyed_column
