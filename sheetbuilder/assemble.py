@@ -33,6 +33,7 @@ from sheetbuilder.sheets.guide import plan_guide
 from sheetbuilder.sheets.inputs import InputSheet, catalog_names, plan_input_sheets
 from sheetbuilder.sheets.lists import HARVEST, NEGATIVES, plan_list
 from sheetbuilder.sheets.mix import MATCH_DEFS, TYPE_DEFS as MIX_DEFS, plan_mix
+from sheetbuilder.sheets.notes import place_notes
 from sheetbuilder.sheets.profit import DEFS as PROFIT_DEFS, plan_profit
 from sheetbuilder.sheets.settings_sheet import plan_settings
 from sheetbuilder.sheets.terms import DEFS as TERMS_DEFS, plan_terms
@@ -244,6 +245,11 @@ def _guide(a: Assembly) -> None:
                                 first_look(a.tables, "inventory" in a.layouts), exports))
 
 
+def _notes(a: Assembly) -> None:
+    """The notes carried by key, the user's own columns beside them, and room for more (unlocked)."""
+    place_notes(a.sheets, a.tables, a.carry)
+
+
 def _unmatched(a: Assembly) -> None:
     a.place("unmatched", plan_unmatched(a.carry))
 
@@ -271,6 +277,7 @@ STEPS: tuple[Step, ...] = (
     Step("followup", _followup, when=lambda a: a.followup is not None),
     Step("history", _history, when=lambda a: a.history is not None),
     Step("guide", _guide),
+    Step("notes", _notes),
     Step("unmatched", _unmatched, when=lambda a: a.carry is not None and bool(a.carry.unmatched)),
     Step("carried", _carried, when=lambda a: a.carry is not None and bool(a.carry.carried or a.carry.applied)),
 )

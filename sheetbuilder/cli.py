@@ -37,7 +37,8 @@ from sheetbuilder.reading.inspection import inspect_exports, report_lines
 from sheetbuilder.pipeline import build
 from sheetbuilder.batch import run_batch
 from sheetbuilder.errors import ERROR, InputProblems, Problem, SheetbuilderError
-from sheetbuilder.sheets.typed import CarryResult
+from sheetbuilder.sheets.decisions import NOTES_HEADER
+from sheetbuilder.sheets.typed import CarryResult, key_text
 from sheetbuilder.values import shown
 
 EXIT_INPUT = 2
@@ -79,7 +80,19 @@ def carried_summary(result: CarryResult) -> str:
     text += (f" {len(result.unmatched)} edit(s) could not be carried (their product, target or term is gone, "
              "or the value is not valid); they are listed on the Unmatched edits sheet." if result.unmatched
              else " 0 edits could not be matched.")
+    text += own_notes_summary(result)
     return text
+
+def own_notes_summary(result: CarryResult) -> str:
+    """A sentence on the user's own notes and columns that could not be carried (never dropped without a word)."""
+    lost = [r for r in result.unmatched if r.column == NOTES_HEADER or r.key.startswith("(column ")]
+    lost += [r for r in result.unmatched if r not in lost and any(
+        r.column == key_text(c.header) for c in result.own_columns.get(r.sheet, []))]
+    if not lost:
+        return ""
+    return (f" {len(lost)} of them: your own notes or values of your own columns ("
+            + ", ".join(f"{r.sheet} {r.key}" for r in lost[:3]) + (", ..." if len(lost) > 3 else "") + ").")
+
 
 class Interrupted(KeyboardInterrupt):
     """A stop signal (SIGTERM, SIGHUP, or SIGINT) turned into an exception so that cleanup code runs."""

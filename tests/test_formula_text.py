@@ -132,7 +132,7 @@ def test_profit_columns_write_the_documented_formula_in_their_first_row(two_prod
 def test_profit_value_columns_hold_no_formula(two_products):
     table = two_products.spec.sheet("Profit").table
     assert ["Product ID", "Product name", "Your target ACoS", "Catalog row", "Sales first row", "Sales last row",
-            "Ad first row", "Ad last row", "Position", "Stock first row", "Stock last row", "Units available"] == [
+            "Ad first row", "Ad last row", "Position", "Stock first row", "Stock last row", "Units available", "Notes"] == [
         c.header for c in table.columns if c.formula is None]
 
 

@@ -18,7 +18,8 @@ from pathlib import Path
 import openpyxl
 import pytest
 
-from conftest import require_libreoffice
+from conftest import BUILT_ON, DEMO, require_libreoffice
+from sheetbuilder.pipeline import build
 from sheetbuilder.values import is_number, same_value
 from sheetbuilder.weekly.changes import export_changes
 
@@ -103,6 +104,7 @@ def plan_actions(demo: Path) -> dict[str, list[dict]]:
         "cost_for_added_product": [{"op": "set", "sheet": "in_catalog", "cell": cell, "value": value}
                                    for cell, value in _added_product_cells(catalog).items()],
         **{action: _typed_steps(wb) for action in SAVED_AS},
+        "notes_and_own_columns": _notes_steps(wb),
     }
 
 
@@ -306,3 +308,78 @@ def test_saving_as_ods_keeps_changes_and_carries_every_typed_value(hands, work):
     typed = sorted(repr(v) for _, _, v in TYPED_BY_HAND if v not in ODD_TEXT)
     assert typed == sorted(repr(r.value) for r in by_ods.carried)
     assert sorted(ODD_TEXT) == sorted(r.value for r in by_ods.unmatched)
+# Notes typed on four sheets and a column of one's own right of Bids' Notes, then Bids sorted with it: each sheet's
+# first header and key headers, and the texts typed (formula-like text and spaces must come back as typed).
+NOTED = {"Profit": ("Product ID", ("Product ID",)), "Bids": ("Campaign", ("Campaign", "Ad group", "Target", "Match type")),
+         "Terms": ("Campaign", ("Campaign", "Ad group", "Search term")), "Budget": ("Product ID", ("Product ID",))}
+NOTE_TEXTS = ("=ask the supplier", "  restock before May  ", "+2 cartons", "plain words")
+OWN_HEADER, OWN_VALUES = "Checked by", ("=Kim", "Lee", "  Ann")
+
+
+def _noted_rows(ws, first: str, keys: tuple[str, ...]) -> tuple[int, list[str], dict[int, tuple]]:
+    """(header row, headers, {row: key}) of a table (1-based rows)."""
+    top, last, headers = _table(ws, first)
+    rows = {r: tuple(ws.cell(r, headers.index(k) + 1).value for k in keys) for r in range(top + 1, last + 1)}
+    return top, headers, rows
+
+
+def _notes_steps(wb) -> list[dict]:
+    """Typing NOTE_TEXTS in rows 2, 4, ... of each Notes column, OWN_HEADER and OWN_VALUES right of Bids' Notes,
+    then sorting Bids by Target with that column inside the sorted range."""
+    steps = []
+    for sheet, (first, keys) in NOTED.items():
+        ws = wb[sheet]
+        top, headers, rows = _noted_rows(ws, first, keys)
+        col = headers.index("Notes") + 1
+        for i, text in enumerate(NOTE_TEXTS):
+            steps.append({"op": "set", "sheet": sheet, "cell": ws.cell(top + 2 + 2 * i, col).coordinate, "value": text})
+        if sheet == "Bids":
+            steps.append({"op": "set", "sheet": sheet, "cell": ws.cell(top, col + 1).coordinate, "value": OWN_HEADER})
+            for i, text in enumerate(OWN_VALUES):
+                steps.append({"op": "set", "sheet": sheet, "cell": ws.cell(top + 1 + 3 * i, col + 1).coordinate,
+                              "value": text})
+            last = max(rows)
+            steps.append({"op": "sort", "sheet": sheet, "range": [0, top, col, last - 1], "by": headers.index("Target"),
+                          "ascending": False})
+    return steps
+
+
+def _typed_by_key(ws, first: str, keys: tuple[str, ...]) -> dict[tuple, tuple]:
+    """{key: (note, own column)} of every row holding either (own column: the one right of Notes)."""
+    top, headers, rows = _noted_rows(ws, first, keys)
+    col = headers.index("Notes") + 1
+    out = {}
+    for r, key in rows.items():
+        cells = (ws.cell(r, col).value, ws.cell(r, col + 1).value)
+        if cells != (None, None):
+            out[key] = cells
+    return out
+
+
+@pytest.mark.libreoffice
+@pytest.mark.slow
+def test_notes_and_own_columns_are_carried_to_next_week_by_key(hands, demo_build, work):
+    demo = openpyxl.load_workbook(demo_build.output)
+    expected = {}  # what was typed, by the key of the row it was typed on (read before the sort)
+    for sheet, (first, keys) in NOTED.items():
+        top, _, rows = _noted_rows(demo[sheet], first, keys)
+        typed = {rows[top + 2 + 2 * i]: (text, None) for i, text in enumerate(NOTE_TEXTS)}
+        if sheet == "Bids":
+            for i, text in enumerate(OWN_VALUES):
+                key = rows[top + 1 + 3 * i]
+                typed[key] = (typed.get(key, (None,))[0], text)
+        expected[sheet] = typed
+    saved = openpyxl.load_workbook(hands["notes_and_own_columns"], data_only=True)
+    # LibreOffice sorted Bids with the own column (else the check below proves nothing about keys) ...
+    assert _column(hands["notes_and_own_columns"], "Bids", "Campaign", "Target") != _column(
+        hands["as_built"], "Bids", "Campaign", "Target")
+    assert {s: expected[s] for s in NOTED} == {s: _typed_by_key(saved[s], *NOTED[s]) for s in NOTED}
+    # ... and next week's workbook holds each note and own value beside the same key, the header in place.
+    week2 = build(DEMO, work / "notes_week2.xlsx",
+                  built_on=BUILT_ON, previous=hands["notes_and_own_columns"])
+    assert [] == week2.carry.unmatched
+    assert {} == week2.carry.decisions
+    wb = openpyxl.load_workbook(week2.output)
+    assert {s: expected[s] for s in NOTED} == {s: _typed_by_key(wb[s], *NOTED[s]) for s in NOTED}
+    _, _, headers = _table(wb["Bids"], "Campaign")
+    assert OWN_HEADER == headers[headers.index("Notes") + 1]

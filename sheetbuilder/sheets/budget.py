@@ -18,7 +18,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from sheetbuilder.sheets.decisions import apply_decision, decision_formula, decision_validation, editable
+from sheetbuilder.sheets.decisions import NOTES, apply_decision, decision_formula, decision_validation, editable, notes_column
 from sheetbuilder.sheets.lists import running_key
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, plan_table
 from sheetbuilder.workbook.formula import block_sum, col_letter, keyed_row, quote_sheet
@@ -105,6 +105,7 @@ PRODUCT_DEFS: list[ColumnDef] = [
               .fillna(1.0), '=IF({c:spend}=0,1,IF(ISNUMBER({c:final}),{c:final}/{c:spend},1))', width=8, hidden=True),
     ColumnDef("prow", "Profit row", "int", "Helper: the product's position on Profit.", lambda df, ctx: df["prow"],
               kind=DATA, width=6, hidden=True),
+    notes_column(),  # the user's notes at the right end
 ]
 
 
@@ -177,7 +178,7 @@ LINK_DEFS: list[ColumnDef] = [
 # What a user types on Budget (products, then campaigns) and the keys that find its row again.
 EDITABLE_COLUMNS = editable(PRODUCT_DEFS, "Budget", SHEET, "sb_budget", ("product_id",), "decision",
                             ("catalog", "store_sales", "ad_products"), table="Budget products", numeric="spend",
-                            words=("keep",), current="spend", input_current="spend")
+                            words=("keep",), current="spend", input_current="spend", notes=NOTES)
 CAMPAIGN_EDITABLE_COLUMNS = editable(CAMPAIGN_DEFS, "Budget campaigns", SHEET, "sb_budget_campaigns", ("campaign",),
                                      "decision", ("campaigns",), numeric="budget", words=("keep",), current="budget",
                                      input_current="daily_budget")

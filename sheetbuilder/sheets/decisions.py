@@ -13,7 +13,7 @@ import pandas as pd
 
 from sheetbuilder.values import ERROR_VALUES, is_empty, is_number
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable
-from sheetbuilder.workbook.spec import Rule, Validation
+from sheetbuilder.workbook.spec import INPUT, Rule, Validation
 
 @dataclass(frozen=True)
 class EditableColumns:
@@ -41,6 +41,10 @@ class EditableColumns:
         input_current: the input tables' column holding that value (summed over a key's rows).
         result: the formula column showing what the typed value decides ('' when none); named too, so
             ``changes`` can report a result typed over by hand.
+        notes: the key of the table's Notes column (:func:`notes_column`, '' when none): the user's own text,
+            carried by key with the columns the user adds to its right, never read as a Decision.
+        all_headers: every column's header as built (a workbook built before Notes columns: what lies right of
+            the last of them is the user's own).
     """
 
     label: str
@@ -59,6 +63,8 @@ class EditableColumns:
     input_current: str = ""
     result: str = "final"
     result_header: str = ""
+    notes: str = ""
+    all_headers: tuple[str, ...] = ()
 
     def problem(self, value: Any) -> str | None:
         """Why a typed value is not valid here (None when it is, or is blank)."""
@@ -71,7 +77,7 @@ class EditableColumns:
     def defined_names(self, planned: "PlannedTable") -> list[tuple[str, str]]:
         """(defined name, '=range') over each key column and the typed column of the planned table."""
         ranges = planned.ranges(self.sheet, self.name)
-        named = (*self.keys, self.value, *((self.result,) if self.result else ()))
+        named = (*self.keys, self.value, *((self.result,) if self.result else ()), *((self.notes,) if self.notes else ()))
         return [(self.name_of(k), "=" + ranges[f"{self.name}.{k}"]) for k in named]
 
 
@@ -91,7 +97,24 @@ def editable(defs: list["ColumnDef"], label: str, sheet: str, name: str, keys: t
     results = {d.key: d.header for d in defs if d.key == options.get("result", "final")}
     decl = EditableColumns(label, sheet, table or label, name, tuple(keys), value, headers, tuple(inputs),
                            tuple(input_columns or keys), **options)
-    return replace(decl, result_header=results.get(decl.result, ""))
+    return replace(decl, result_header=results.get(decl.result, ""), all_headers=tuple(d.header for d in defs))
+
+
+NOTES = "notes"  # the key of every Notes column
+NOTES_HEADER = "Notes"
+OWN_COLUMNS_CAP = 20  # columns a user may add right of a table's Notes column, carried by key (more are listed, not carried)
+
+
+def notes_column() -> ColumnDef:
+    """The Notes column at the right end of a table: plain typed text (no formula), carried by the row's key.
+
+    Formatted as text, so a note typed as =... or +... stays the text typed; read back and written again
+    exactly as it was (leading and trailing spaces kept).
+    """
+    return ColumnDef(NOTES, NOTES_HEADER, "freetext_input",
+                     "Input: your own notes on the row. Carried to next week's workbook by the row's key (with any "
+                     "column you add to its right, up to %d); never a Decision." % OWN_COLUMNS_CAP,
+                     lambda df, ctx: df[NOTES] if NOTES in df.columns else [None] * len(df), kind=INPUT, width=30)
 
 
 INVALID = "invalid"  # what a Final column shows for a Decision that is not a valid word or number

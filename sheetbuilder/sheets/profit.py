@@ -19,7 +19,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from sheetbuilder.sheets.decisions import editable
+from sheetbuilder.sheets.decisions import NOTES, editable, notes_column
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, blank_div, plan_table
 from sheetbuilder.workbook.formula import block_sum, keyed_row
 from sheetbuilder.sheets.inputs import InputSheet
@@ -320,12 +320,13 @@ DEFS: list[ColumnDef] = [
               "position column (found again when in_catalog was sorted); computed once for every catalog lookup.",
               lambda df, ctx: df["cat_row"], '=IF({c:cat_row}="","",%s)' % keyed_row("{rng:catalog.position}", "{c:cat_row}"),
               width=8, hidden=True),
+    notes_column(),  # the user's notes at the right end
 ]
 STOCK = ("stock",)  # without an inventory export these are written blank: no in_inventory range to read
 
 # What a user types on Profit (a product's own target ACoS) and the key that finds its row again.
 EDITABLE_COLUMNS = editable(DEFS, "Profit", SHEET, "sb_profit", ("product_id",), "target_override",
-                            ("catalog", "store_sales", "ad_products"), numeric="target", result="")
+                            ("catalog", "store_sales", "ad_products"), numeric="target", result="", notes=NOTES)
 
 # Totals that need the whole frame are filled after the body (see _fill_totals).
 _LATE_TOTALS = {

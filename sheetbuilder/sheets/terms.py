@@ -32,7 +32,8 @@ import numpy as np
 import pandas as pd
 
 from sheetbuilder.sheets.blends import attach_groups, blends_row_column, fetch
-from sheetbuilder.sheets.decisions import apply_word_decision, decision_validation, editable, word_decision_formula
+from sheetbuilder.sheets.decisions import (NOTES, apply_word_decision, decision_validation, editable, notes_column,
+                                          word_decision_formula)
 from sheetbuilder.sheets.lists import running_key
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, blank_div, exports_only, plan_table
 from sheetbuilder.reading.normalise import contains_phrase, looks_like_product_id, normalise, words
@@ -362,12 +363,12 @@ def _negative_key(row, phrases: dict, exact: set) -> tuple:
     return ("N", row.campaign, row.ad_group, row.term_key)
 
 
-DEFS: list[ColumnDef] = exports_only(_all_defs(), EXPORTS)  # the Terms columns
+DEFS: list[ColumnDef] = exports_only(_all_defs(), EXPORTS) + [notes_column()]  # the Terms columns, the user's notes last
 
 # What a user types on Terms and the keys that find its row again (carry, changes and the tests read these).
 EDITABLE_COLUMNS = editable(DEFS, "Terms", SHEET, "sb_terms", ("campaign", "ad_group", "term"), "decision",
                             ("search_terms",), ("campaign", "ad_group", "search_term"), normalised=("term",),
-                            words=DECISIONS)
+                            words=DECISIONS, notes=NOTES)
 
 
 def term_frame(layout: InputSheet, groups: pd.DataFrame, campaigns: pd.DataFrame | None,

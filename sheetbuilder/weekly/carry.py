@@ -30,8 +30,9 @@ import pandas as pd
 
 from sheetbuilder.sheets.inputs import CATALOG_NAME, EDITABLE, EXPORTED
 from sheetbuilder.sheets.settings_sheet import AS_BUILT, HEADERS as SETTINGS_HEADERS, SHEET as SETTINGS_SHEET
-from sheetbuilder.sheets.typed import (CARRIED_NAME, DECISION_SHEETS, PROFIT_TARGET, SCAN_ROWS, CarryRecord,
-                                       CarryResult, EditSheet, key_text)
+from sheetbuilder.sheets.decisions import NO_SAVED_VALUE, NOTES_HEADER, OWN_COLUMNS_CAP
+from sheetbuilder.sheets.typed import (CARRIED_NAME, DECISION_SHEETS, EDITABLE_TABLES, PROFIT_TARGET, SCAN_ROWS,
+                                       CarryRecord, CarryResult, EditSheet, OwnColumn, edit_sheet_of, key_text)
 from sheetbuilder.values import is_blank, is_number, same_value, shown
 from sheetbuilder.weekly.saved import SavedBook, SavedWorkbookUnreadable, named_columns
 from sheetbuilder.reading.settings import SETTINGS, Settings, coerce_setting
@@ -60,6 +61,9 @@ class Edits:
             not be found (neither its defined name nor its header).
         first_typed: {(sheet, key, column): date} from the workbook's Carried edits sheet.
         built_on: the workbook's build date (the week an edit not yet on Carried edits was typed).
+        notes: {label: {raw key tuple: value}} of every non-blank Notes cell.
+        own: {label: [OwnColumn]} the columns a user added right of a table's Notes (values by raw key).
+        own_refused: CarryRecords of own columns that cannot be carried (no header, beyond the cap).
     """
 
     source: str
@@ -70,6 +74,9 @@ class Edits:
     lost: list[tuple[str, str]] = field(default_factory=list)
     first_typed: dict[tuple[str, str, str], Any] = field(default_factory=dict)
     built_on: Any = None
+    notes: dict[str, dict[tuple, Any]] = field(default_factory=dict)
+    own: dict[str, list[OwnColumn]] = field(default_factory=dict)
+    own_refused: list[CarryRecord] = field(default_factory=list)
 
 
 # ---------------------------------------------------------------------------------------------- reading
@@ -95,13 +102,15 @@ def _cell(row: list[Any], col: int) -> Any:
 
 
 def _located(book: SavedBook, names: dict[str, str], headers: dict[str, str], sheet: str, scan: int,
-             value_key: str) -> tuple[list[list[Any]], dict[str, int]] | None:
-    """(body rows, {key: column}) of a table: by its defined names, else by its header row; None when neither."""
+             value_key: str, also: frozenset = frozenset()) -> tuple[list[list[Any]], dict[str, int]] | None:
+    """(body rows, {key: column}) of a table: by its defined names, else by its header row; None when neither.
+
+    also: more columns to read in the same pass (the Notes columns, read again from the cache by notes_in)."""
     areas = named_columns(book, names)
     if areas is not None:  # only these columns are read; a formula with no saved value is told from a blank
         area = next(iter(areas.values()))
         cols = {k: a.first_col for k, a in areas.items()}
-        return book.rows(area.sheet, frozenset(cols.values()), True)[area.first_row:area.last_row + 1], cols
+        return book.rows(area.sheet, frozenset(cols.values()) | also, True)[area.first_row:area.last_row + 1], cols
     rows = book.rows(sheet)
     at = _header_index(rows, list(headers.values()), scan)
     if at is None:
@@ -124,7 +133,7 @@ def _read_block(book: SavedBook, entry: EditSheet) -> dict[tuple, Any] | None:
     wanted = (*decl.keys, decl.value)
     names = {k: decl.name_of(k) for k in wanted}
     headers = {k: decl.headers[k] for k in wanted}
-    found = _located(book, names, headers, decl.sheet, entry.scan_rows, decl.value)
+    found = _located(book, names, headers, decl.sheet, entry.scan_rows, decl.value, _notes_columns(book, decl))
     if found is None:
         return None
     body, cols = found
@@ -236,8 +245,9 @@ def edits_in(book: SavedBook) -> Edits:
         elif found:
             decisions.setdefault(entry.label, {}).update(found)
     built = book.named_value("built_on")
+    notes, own, own_refused = notes_in(book)
     return Edits(str(book.path), settings, catalog, targets, decisions, lost, _first_typed(book),
-                 built.date() if isinstance(built, dt.datetime) else built)
+                 built.date() if isinstance(built, dt.datetime) else built, notes, own, own_refused)
 
 
 def _first_typed(book: SavedBook) -> dict[tuple[str, str, str], Any]:
@@ -443,11 +453,159 @@ def apply_edits(edits: Edits, inputs_tables: Any, settings: Settings) -> CarryRe
     decisions = _carry_decisions(edits, tables, fold, carried, unmatched, applied)
     for label, why in edits.lost:
         unmatched.append(CarryRecord(label, "(the whole column)", "", None, why))
+    notes, own = carry_notes(edits, tables, fold, carried, unmatched)
     def dated(records: list[CarryRecord]) -> list[CarryRecord]:
         return [replace(r, first_typed=edits.first_typed.get((r.sheet, r.key, r.column), edits.built_on))
                 for r in records]
     return CarryResult(new_settings, changed, catalog, targets, decisions, dated(carried), unmatched, settings,
-                       source=edits.source, applied=dated(applied))
+                       source=edits.source, applied=dated(applied), notes=notes, own_columns=own)
+
+
+# ------------------------------------------------------------------------------ notes and the user's own columns
+
+OWN_SCAN = 2 * OWN_COLUMNS_CAP  # columns right of Notes looked at: those beyond the cap are listed, not carried
+
+
+def _keyed_rows(rows: list[list[Any]], areas: dict, decl) -> list[tuple[tuple, list[Any]]]:
+    """(raw key, row) of every body row of a table whose keys are not all blank."""
+    body = []
+    for row in rows[areas[decl.keys[0]].first_row:areas[decl.keys[0]].last_row + 1]:
+        parts = tuple(_cell(row, areas[k].first_col) for k in decl.keys)
+        if not all(is_blank(p) for p in parts):
+            body.append((parts, row))
+    return body
+
+
+def _own_in(header: list[Any], body: list[tuple[tuple, list[Any]]], label: str, notes_col: int,
+            after: str = NOTES_HEADER) -> tuple[list[OwnColumn], list[CarryRecord]]:
+    """The user's columns right of Notes (or of after, the last column built) ({raw key: value} each), and those
+    that cannot be carried."""
+    own: list[OwnColumn] = []
+    refused: list[CarryRecord] = []
+    for offset in range(1, OWN_SCAN + 1):
+        col = notes_col + offset
+        title = _cell(header, col)
+        values = {parts: v for parts, row in body if not is_blank(v := _cell(row, col))}
+        if is_blank(title) and not values:
+            continue
+        where = f"column {offset} right of {after}"
+        if offset > OWN_COLUMNS_CAP:
+            refused.append(CarryRecord(label, f"({where})", key_text(title), f"{len(values)} value(s)",
+                                       f"beyond the {OWN_COLUMNS_CAP} columns of your own carried right of "
+                                       f"{after}; move it nearer"))
+        elif is_blank(title):
+            refused.append(CarryRecord(label, f"({where})", "", f"{len(values)} value(s)",
+                                       "a column without a header is not carried; give it one"))
+        else:
+            own.append(OwnColumn(offset, title, values))
+    return own, refused
+
+
+def _notes_columns(book: SavedBook, decl) -> frozenset:
+    """A table's Notes column and the OWN_SCAN columns right of it (none without its defined name), read in the
+    same pass as its keys and typed column."""
+    area = book.area(decl.name_of(decl.notes)) if decl.notes else None
+    return frozenset() if area is None else frozenset(range(area.first_col, area.first_col + OWN_SCAN + 1))
+
+
+def _notes_of(book: SavedBook, label: str, decl) -> tuple[dict, list[OwnColumn], list[CarryRecord]] | None:
+    """(notes by raw key, own columns, refused columns) of one table, found by its defined names; None without."""
+    areas = (named_columns(book, {k: decl.name_of(k) for k in (*decl.keys, decl.value, decl.notes)})
+             or named_columns(book, {k: decl.name_of(k) for k in (*decl.keys, decl.notes)}))
+    if areas is None:
+        return _own_of_older(book, label, decl)
+    area = areas[decl.notes]
+    notes_col = area.first_col
+    wanted = frozenset(a.first_col for k, a in areas.items() if k != decl.notes) | _notes_columns(book, decl)
+    rows = book.rows(area.sheet, wanted, True)  # the pass that read the typed column (see _located)
+    header = rows[area.first_row - 1] if 0 < area.first_row <= len(rows) else []
+    body = _keyed_rows(rows, areas, decl)
+    notes = {parts: v for parts, row in body if not is_blank(v := _cell(row, notes_col))}
+    own, refused = _own_in(header, body, label, notes_col)
+    return notes, own, refused
+
+
+def _own_of_older(book: SavedBook, label: str, decl) -> tuple[dict, list[OwnColumn], list[CarryRecord]] | None:
+    """A workbook built before Notes columns: the columns right of the last header the table was built with,
+    found through its key and typed columns' defined names, are the user's own (no notes)."""
+    areas = named_columns(book, {k: decl.name_of(k) for k in (*decl.keys, decl.value)})
+    if areas is None or not decl.all_headers:
+        return None
+    area = areas[decl.value]
+    rows = book.rows(area.sheet, None, True)  # every column: the table's width is unknown (once, an older workbook)
+    header = rows[area.first_row - 1] if 0 < area.first_row <= len(rows) else []
+    ours = {h for h in decl.all_headers if h != NOTES_HEADER}
+    last = max((i for i, v in enumerate(header) if key_text(v) in ours), default=None)
+    if last is None:
+        return None
+    own, refused = _own_in(header, _keyed_rows(rows, areas, decl), label, last, key_text(header[last]))
+    return {}, own, refused
+
+
+def notes_in(book: SavedBook) -> tuple[dict, dict, list[CarryRecord]]:
+    """Every table's Notes ({label: {raw key: value}}), the user's own columns right of them, and the own
+    columns that cannot be carried. A table built without a Notes column (an older workbook) gives none."""
+    notes: dict[str, dict] = {}
+    own: dict[str, list[OwnColumn]] = {}
+    refused: list[CarryRecord] = []
+    for decl in EDITABLE_TABLES:
+        found = _notes_of(book, decl.label, decl) if decl.notes else None
+        if found is None:
+            continue
+        if found[0]:
+            notes[decl.label] = found[0]
+        if found[1]:
+            own[decl.label] = found[1]
+        refused += found[2]
+    return notes, own, refused
+
+
+def _keyed(entry: EditSheet, typed: dict, existing: set | None, fold: bool, column: str, unmatched: list,
+           gone: str) -> dict[tuple, Any]:
+    """{compared key: value} of the typed cells whose row still exists; the others listed on unmatched."""
+    out: dict[tuple, Any] = {}
+    for parts, value in typed.items():
+        key = entry.key_of(parts, fold)
+        if value is NO_SAVED_VALUE:
+            why = "the cell holds a formula with no saved value; type the text itself"
+        elif existing is None or key not in existing:
+            why = gone
+        elif key in out and out[key] != value:
+            why = f"another row with the same key already carries {shown(out[key])}"
+        else:
+            out[key] = value
+            continue
+        unmatched.append(CarryRecord(entry.label, _key_text(parts), column, value, why))
+    return out
+
+
+def carry_notes(edits: Edits, tables, fold: bool, carried: list, unmatched: list) -> tuple[dict, dict]:
+    """Notes and own columns matched to the new rows by key: ({label: {key: note}}, {label: [OwnColumn]}).
+
+    Each note carried is listed on carried (never a Decision: it carries no compared key, so no typed cell
+    is marked by it); each own column once, with how many values it carries; a note or value whose row is
+    gone, and a column that cannot be carried, on unmatched.
+    """
+    notes: dict[str, dict] = {}
+    own: dict[str, list[OwnColumn]] = {}
+    unmatched += edits.own_refused
+    for label in dict.fromkeys([*edits.notes, *edits.own]):
+        entry = edit_sheet_of(label)
+        existing = _existing(entry, tables, fold)
+        gone = (f"the new exports have no {' or '.join(entry.tables)} table" if existing is None
+                else f"its row is no longer in the {' or '.join(entry.tables)} export")
+        kept = _keyed(entry, edits.notes.get(label, {}), existing, fold, NOTES_HEADER, unmatched, gone)
+        if kept:
+            notes[label] = kept
+        by_key = {entry.key_of(p, fold): p for p in edits.notes.get(label, {})}
+        for key, value in kept.items():
+            carried.append(CarryRecord(label, _key_text(by_key[key]), NOTES_HEADER, value, "your note, carried by key"))
+        for column in edits.own.get(label, []):
+            values = _keyed(entry, column.values, existing, fold, key_text(column.header), unmatched, gone)
+            own.setdefault(label, []).append(replace(column, values=values))
+            carried.append(CarryRecord(label, "(your own column)", key_text(column.header),
+                                       f"{len(values)} value(s)", "your own column, carried by key"))
+    return notes, own
 
 
 # ------------------------------------------------------------------------------------ helpers for the build
