@@ -34,6 +34,10 @@ PLACES = {
     "Harvest": {"Number", "Source negatives key", "Terms row"},
     "Negatives": {"Number", "Terms row"},
     "Actions": {"Number", "Source row"},
+    # The checked rows a sort moves (where a product or term is now), computed once per row for the lookups.
+    "Profit": {"Catalog row now"},
+    "Groups": {"Profit row now"},
+    "Keys": {"Negative from term row now", "Blocked term row now"},
 }
 GUIDE_LINK_COLUMN = 2  # the first look's row numbers on Profit and Actions (Guide column C)
 
