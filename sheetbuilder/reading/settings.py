@@ -119,6 +119,9 @@ SETTINGS: tuple[SettingSpec, ...] = (
     SettingSpec("actions_cap", "Rows in the Actions list", 20000, "int",
                 "The most rows the Actions list holds; the sheet says when more changes qualify (used when building).",
                 1, 1000000, live=False),
+    SettingSpec("history_weeks", "Weeks of keyword history kept", 0, "int",
+                "The Keyword history keeps the weeks ending within this many weeks of the newest; older weeks are "
+                "dropped and the build says so (0: every week) (used when building).", 0, 10000, live=False),
     SettingSpec("currency_symbol", "Currency symbol", "$", "text",
                 "Shown in money formats (used when building).", live=False),
     SettingSpec("decimal_comma", "Decimal comma", False, "bool",
@@ -173,6 +176,7 @@ class Settings:
     fold_plurals: bool = False
     list_cap: int = 2000
     actions_cap: int = 20000
+    history_weeks: int = 0
     currency_symbol: str = "$"
     decimal_comma: bool = False
     date_order: str = "auto"
