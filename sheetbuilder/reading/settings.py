@@ -119,9 +119,6 @@ SETTINGS: tuple[SettingSpec, ...] = (
     SettingSpec("actions_cap", "Rows in the Actions list", 20000, "int",
                 "The most rows the Actions list holds; the sheet says when more changes qualify (used when building).",
                 1, 1000000, live=False),
-    SettingSpec("history_weeks", "Weeks of keyword history kept", 0, "int",
-                "The Keyword history keeps the weeks ending within this many weeks of the newest; older weeks are "
-                "dropped and the build says so (0: every week) (used when building).", 0, 10000, live=False),
     SettingSpec("currency_symbol", "Currency symbol", "$", "text",
                 "Shown in money formats (used when building).", live=False),
     SettingSpec("decimal_comma", "Decimal comma", False, "bool",
@@ -139,6 +136,9 @@ SETTINGS: tuple[SettingSpec, ...] = (
                 "refuse: stop when the exports cover different days; accept: build from them as they are, with a "
                 "warning on the Guide that the figures combine different days (used when reading).",
                 live=False, choices=("refuse", "accept")),
+    SettingSpec("history_weeks", "Weeks of keyword history kept", 0, "int",
+                "The Keyword history keeps the weeks ending within this many weeks of the newest; older weeks are "
+                "dropped and the build says so (0: every week) (used when building).", 0, 10000, live=False),
 )
 
 SPEC_BY_KEY = MappingProxyType({s.key: s for s in SETTINGS})
