@@ -57,13 +57,18 @@ Week = tuple[float, float, float, float, float, float]  # METRICS, in order (bid
 
 @dataclass
 class KeywordHistory:
-    """Every recorded week of every keyword and product target: {keys: {period: week figures}}."""
+    """Every recorded week of every keyword and product target: {keys: {period: week figures}}, and the periods."""
 
     weeks: dict[Key, dict[Period, Week]] = field(default_factory=dict)
+    recorded: set[Period] = field(default_factory=set)
+
+    def __post_init__(self) -> None:
+        if not self.recorded:
+            self.recorded = {p for by_period in self.weeks.values() for p in by_period}
 
     def periods(self) -> list[Period]:
         """Every recorded period, oldest first."""
-        return sorted({p for by_period in self.weeks.values() for p in by_period}, key=lambda p: (p.start, p.end))
+        return sorted(self.recorded, key=lambda p: (p.start, p.end))
 
     def rows(self) -> int:
         """How many keyword-weeks are recorded."""
@@ -85,14 +90,13 @@ def add_week(history: KeywordHistory, period: Period, week: dict[Key, Week], sou
     """history with one week added by the rule of the module docstring, and the problems (a refusal or a note).
 
     Args:
-        history: the weeks recorded so far (not changed).
+        history: the weeks recorded so far, changed in place (unchanged when the week is refused).
         period: the week's first and last day.
         week: its figures per keyword and product target.
         source: where the week was read (a file, or "this week's exports"), for the messages.
         severity: the refusal's severity (ERROR for a past export given with --history; the caller decides).
     """
-    recorded = history.periods()
-    clash = [p for p in recorded if p != period and p.overlap(period)]
+    clash = [p for p in history.periods() if p != period and p.overlap(period)]
     if clash:
         return history, [Problem(source, None, None,
                                  f"covers {period}, which shares days with the week {clash[0]} already in the "
@@ -100,15 +104,18 @@ def add_week(history: KeywordHistory, period: Period, week: dict[Key, Week], sou
                                  "split by day, so it was not added. Give exports of whole weeks that follow one "
                                  "another, or the very same period to replace a week", severity)]
     notes = []
-    weeks = {k: dict(v) for k, v in history.weeks.items()}
-    if period in recorded:
+    weeks = history.weeks
+    if period in history.recorded:
         for by_period in weeks.values():
             by_period.pop(period, None)
+        for key in [k for k, v in weeks.items() if not v]:
+            del weeks[key]
         notes.append(Problem(source, None, None, f"covers {period}, a week already in the keyword history: its rows "
                                                   "replace that week's", WARNING))
     for key, figures in week.items():
         weeks.setdefault(key, {})[period] = figures
-    return KeywordHistory({k: v for k, v in weeks.items() if v}), notes
+    history.recorded.add(period)
+    return history, notes
 
 
 def keep_recent(history: KeywordHistory, weeks: int) -> tuple[KeywordHistory, list[Period]]:
@@ -122,7 +129,7 @@ def keep_recent(history: KeywordHistory, weeks: int) -> tuple[KeywordHistory, li
         return history, []
     gone = set(dropped)
     kept = {k: {p: w for p, w in v.items() if p not in gone} for k, v in history.weeks.items()}
-    return KeywordHistory({k: v for k, v in kept.items() if v}), dropped
+    return KeywordHistory({k: v for k, v in kept.items() if v}, history.recorded - gone), dropped
 
 
 def number_text(value: float) -> str:
@@ -151,20 +158,28 @@ def read_period(text: str) -> Period | None:
     return Period(start, end) if start <= end else None
 
 
+def _texts(values: list[float]) -> list[str]:
+    """number_text of each value, inlined for speed (a history of 10,000 keywords packs millions of figures)."""
+    return ["" if v != v else (str(int(v)) if v.is_integer() and -1e15 < v < 1e15 else repr(v)) for v in values]
+
+
 def packed_rows(history: KeywordHistory) -> list[dict[str, Any]]:
     """One record per keyword and product target: its keys, totals and packed weeks (oldest first), in key order."""
+    order = {p: i for i, p in enumerate(history.periods())}
+    texts = {p: period_text(p) for p in order}
     out = []
     for key in sorted(history.weeks):
         by_period = history.weeks[key]
-        periods = sorted(by_period, key=lambda p: (p.start, p.end))
+        periods = sorted(by_period, key=order.__getitem__)
         row: dict[str, Any] = dict(zip((k for k, _, _ in KEYS), key))
         row["weeks"] = float(len(periods))
-        row["periods"] = SEPARATOR.join(period_text(p) for p in periods)
+        row["periods"] = SEPARATOR.join([texts[p] for p in periods])
+        figures = [by_period[p] for p in periods]
         for i, metric in enumerate(METRICS):
-            values = [by_period[p][i] for p in periods]
-            row[metric + "_packed"] = SEPARATOR.join(number_text(v) for v in values)
+            values = [f[i] for f in figures]
+            row[metric + "_packed"] = SEPARATOR.join(_texts(values))
             if metric != "bid":
-                row[metric] = round(math.fsum(v for v in values if not math.isnan(v)), 9)
+                row[metric] = round(math.fsum(v for v in values if v == v), 9)
         out.append(row)
     return out
 

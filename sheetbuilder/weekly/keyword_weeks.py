@@ -56,22 +56,39 @@ def _figure(text: str, metric: str) -> float | None:
     return value if math.isfinite(value) and value >= 0 else None
 
 
-def _row_weeks(values: list[Any]) -> tuple[dict[Period, tuple], str | None]:
-    """The weeks one saved row holds, or the header of the first packed column that does not read."""
+def _figures(items: list[str], metric: str) -> list[float | None]:
+    """The items of one packed cell as numbers (None where one does not read); the common case in one pass."""
+    try:
+        values = [float(t) for t in items]
+    except ValueError:
+        return [_figure(t, metric) for t in items]
+    total = math.fsum(values)
+    if math.isfinite(total) and min(values) >= 0:
+        return values
+    return [_figure(t, metric) for t in items]
+
+
+def _row_weeks(values: list[Any], periods_of: dict[str, Period | None]) -> tuple[dict[Period, tuple], str | None]:
+    """The weeks one saved row holds, or the header of the first packed column that does not read.
+
+    periods_of caches each period item's reading (a history repeats the same few dozen periods on every row).
+    """
     first = len(HEADERS) - len(PACKED)
     packed = values[first:first + len(PACKED)]
-    periods = [read_period(t) for t in _items(packed[0])]
-    if any(p is None for p in periods):
+    periods = []
+    for text in _items(packed[0]):
+        if text not in periods_of:
+            periods_of[text] = read_period(text)
+        periods.append(periods_of[text])
+    if any(p is None for p in periods) or len(set(periods)) != len(periods):
         return {}, PACKED[0][1]
     columns = []
     for (key, header), cell in zip(PACKED[1:], packed[1:]):
-        figures = [_figure(t, key) for t in _items(cell)]
+        figures = _figures(_items(cell), key)
         if len(figures) != len(periods) or any(f is None for f in figures):
             return {}, header
         columns.append(figures)
-    if len(set(periods)) != len(periods):
-        return {}, PACKED[0][1]
-    return {p: tuple(c[i] for c in columns) for i, p in enumerate(periods)}, None
+    return dict(zip(periods, zip(*columns))), None
 
 
 def read_keyword_history(book: SavedBook) -> tuple[KeywordHistory | None, list[Problem]]:
@@ -93,12 +110,12 @@ def read_keyword_history(book: SavedBook) -> tuple[KeywordHistory | None, list[P
                               "history (its weeks are then lost)", ERROR)]
     last = area.last_row if area else len(rows) - 1
     history = KeywordHistory()
-    problems = []
+    problems, periods_of = [], {}
     for r in range(first, min(last, len(rows) - 1) + 1):
         values = [rows[r][first_col + i] if first_col + i < len(rows[r]) else None for i in range(len(HEADERS))]
         if all(is_blank(v) for v in values):
             continue
-        weeks, bad = _row_weeks(values)
+        weeks, bad = _row_weeks(values, periods_of)
         if bad is not None:
             problems.append(Problem(book.path.name, r + 1, bad,
                                     f"the {SHEET} sheet's row {r + 1} cannot be read: its {bad} items do not read as "
@@ -111,6 +128,7 @@ def read_keyword_history(book: SavedBook) -> tuple[KeywordHistory | None, list[P
                                     f"the {SHEET} sheet lists {' / '.join(key)} on more than one row; keep one", ERROR))
             continue
         history.weeks[key] = weeks
+        history.recorded.update(weeks)
     return history, problems
 
 
