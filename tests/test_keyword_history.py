@@ -263,3 +263,16 @@ def test_four_weeks_built_in_a_row_each_saved_by_libreoffice_keep_every_week_and
         shutil.copy(out, saved_dir / "in.xlsx")
         previous = libreoffice_convert([saved_dir / "in.xlsx"], saved_dir / "out")[0]  # as a user's save
         _check(previous, weeks)
+
+
+def test_a_previous_workbook_without_the_sheet_is_said_and_the_history_starts_with_this_week(tmp_path):
+    build(_week_folder(tmp_path, "w1", _week_rows(1), dt.date(2026, 11, 8)), tmp_path / "w1.xlsx", built_on=BUILT_ON)
+    wb = openpyxl.load_workbook(tmp_path / "w1.xlsx")
+    del wb["Keyword history"]  # the seller deleted it on purpose, to start a new history
+    wb.save(tmp_path / "without.xlsx")
+    week2 = _week_rows(2)
+    result = build(_week_folder(tmp_path, "w2", week2, dt.date(2026, 11, 15)), tmp_path / "w2.xlsx",
+                   built_on=BUILT_ON, previous=tmp_path / "without.xlsx")
+    assert [("without.xlsx", WARNING)] == [(p.file, p.severity) for p in result.warnings
+                                           if "holds no Keyword history" in p.message]
+    _check(tmp_path / "w2.xlsx", [(_period(dt.date(2026, 11, 15)), week2)])
