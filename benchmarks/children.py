@@ -178,7 +178,7 @@ def child_micro(n: int) -> dict:
 
 
 def child_keyword_history(folder: Path, out: Path, past: Path) -> dict:
-    """Build with --history past (its weeks recorded), then again with --previous (every week carried): times and size."""
+    """Build with --history past (its weeks recorded), then with --previous (every week carried): times, size."""
     from sheetbuilder.pipeline import build
     t, cpu = time.perf_counter(), time.process_time()
     first = build(folder, out, force=True, built_on=BUILT_ON, history=past)

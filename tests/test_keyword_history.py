@@ -28,8 +28,8 @@ BUILT_ON = dt.date(2026, 12, 2)
 HEADER = ["campaign", "ad_group", "target", "match_type", "state", "bid", "impressions", "clicks", "spend",
           "ad_sales", "orders"]
 # Keys a stranger could type, each kept exactly: formula-like text, a leading space, emoji, right-to-left text.
-HOSTILE = ["widget", " lead space", '=HYPERLINK("http://x","y")', "+1+2", "@SUM(A1) \U0001F331 \u062d\u062f\u064a\u0642\u0629",
-           "-minus first"]
+HOSTILE = ["widget", " lead space", '=HYPERLINK("http://x","y")', "+1+2",
+           "@SUM(A1) \U0001F331 \u062d\u062f\u064a\u0642\u0629", "-minus first"]
 
 
 def _targets_csv(rows: list[list]) -> str:
