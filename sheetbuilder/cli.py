@@ -1,6 +1,6 @@
 """The command line: a thin layer over the library.
 
-    sheetbuilder build INPUTS -o WORKBOOK.xlsx [--force] [--previous OLD.xlsx]
+    sheetbuilder build INPUTS -o WORKBOOK.xlsx [--force] [--previous OLD.xlsx] [--history DIR]
     sheetbuilder changes WORKBOOK.xlsx -o changes.csv [--format csv|xlsx] [--force]
     sheetbuilder inspect INPUTS
     sheetbuilder batch ACCOUNTS -o OUT [--previous-dir DIR] [--jobs N] [--force]
@@ -122,7 +122,7 @@ def os_error_message(exc: OSError, fallback: Path | None) -> str:
 def _run_build(args: argparse.Namespace, progress) -> object:
     """build(...) with the command's options."""
     return build(args.inputs, args.output, force=args.force, progress=progress, previous=args.previous,
-                 previous_anyway=args.previous_anyway)
+                 previous_anyway=args.previous_anyway, history=args.history)
 
 
 def print_problems(console: Console, problems: list[Problem]) -> None:
@@ -266,7 +266,12 @@ def parser() -> argparse.ArgumentParser:
                         "exports) is refused")
     b.add_argument("--previous-anyway", action="store_true",
                    help="carry what matches from a --previous workbook built for another account instead of "
-                        "refusing it (its Follow-up and History are not read)")
+                        "refusing it (its Follow-up, History and Keyword history are not read)")
+    b.add_argument("--history", type=Path, default=None, metavar="DIR",
+                   help="past keyword exports to start the Keyword history with: each export file in DIR (or the "
+                        "targets export of each folder in DIR) is one past period, read from its dates, title or "
+                        "file name. A period already recorded is replaced only by the very same period; one that "
+                        "shares some days with another is refused, naming both")
     b.set_defaults(run=_build)
     ch = sub.add_parser("changes", help="export the changes on a workbook's Actions sheet as CSV or .xlsx",
                         description="Read WORKBOOK (edited and saved by you) and write one row per change on its "

@@ -140,6 +140,9 @@ SETTINGS: tuple[SettingSpec, ...] = (
                 "refuse: stop when the exports cover different days; accept: build from them as they are, with a "
                 "warning on the Guide that the figures combine different days (used when reading).",
                 live=False, choices=("refuse", "accept")),
+    SettingSpec("history_weeks", "Weeks of keyword history kept", 0, "int",
+                "The Keyword history keeps the weeks ending within this many weeks of the newest; older weeks are "
+                "dropped and the build says so (0: every week) (used when building).", 0, 10000, live=False),
 )
 
 SPEC_BY_KEY = MappingProxyType({s.key: s for s in SETTINGS})
@@ -178,6 +181,7 @@ class Settings:
     fold_plurals: bool = False
     list_cap: int = 2000
     actions_cap: int = 20000
+    history_weeks: int = 0
     currency_symbol: str = "$"
     decimal_comma: bool = False
     date_order: str = "auto"

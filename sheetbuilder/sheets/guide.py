@@ -46,6 +46,9 @@ SHEETS_TEXT = [
                   "term's figures in both periods, the outcome in words) and how each product moved since."),
     ("History", "Built with --previous: every change found applied, week by week (week, kind, keys, from, to), "
                 "carried into every rebuild and never dropped."),
+    ("Keyword history", "Every keyword's and product target's results week by week (impressions, clicks, orders, "
+                        "spend, ad sales, bid in force), one row each with its weeks listed oldest first and totals; "
+                        "carried into every rebuild with --previous, a week never counted twice."),
     ("Groups", "Which products each ad group advertises, the spend weights used where it advertises several, and "
                "below, each ad group's blended target ACoS, CVR, order value and price, computed once and fetched "
                "by the Bids and Terms rows."),

@@ -21,6 +21,7 @@ from sheetbuilder.sheets.followup import CHANGE_DEFS, NAME as FOLLOWUP_NAME
 from sheetbuilder.sheets.typed import ACTIONS_NAME, DECISION_SHEETS
 from sheetbuilder.values import is_blank
 from sheetbuilder.weekly.carry import Edits, edits_in
+from sheetbuilder.weekly.keyword_weeks import read_keyword_history
 from sheetbuilder.weekly.saved import (NotAWorkbook, SavedBook, named_columns, read_history, saved_inputs,
                                        saved_settings)
 
@@ -94,6 +95,8 @@ class SavedWorkbook:
     typed_actions: list[tuple[int, list[Any]]] = field(default_factory=list)
     followup: list[tuple[int, dict[str, Any]]] = field(default_factory=list)
     account_name: str = ""
+    keyword_history: Any = None  # its Keyword history (sheets.keyword_weeks.KeywordHistory), None when it holds none
+    keyword_history_problems: list[Problem] = field(default_factory=list)
 
     @property
     def holds_inputs(self) -> bool:
@@ -185,10 +188,12 @@ def read_saved_workbook(path: Path, unreadable: type[SheetbuilderError] = NotAWo
         settings, built_on, setting_problems = saved_settings(book)
         problems += [Problem("Settings", None, p.column, p.message) for p in setting_problems]
         history, history_problems = ([], []) if for_changes else read_history(book)
+        keywords, keyword_problems = (None, []) if for_changes else read_keyword_history(book)
         no_values = for_changes and all(is_blank(values[0]) for _, values in actions)
         return SavedWorkbook(book.path, names, tables=tables, settings=settings, built_on=built_on,
                              edits=edits_in(book), problems=problems, context=read_context(book),
                              results=_saved_results(book), history=history, history_problems=history_problems,
                              actions=actions, typed_actions=_saved_actions(book, formulas=True) if no_values else [],
                              followup=_followup_rows(book) if followup else [],
-                             account_name=str(book.named_value(ACCOUNT_NAME) or ""))
+                             account_name=str(book.named_value(ACCOUNT_NAME) or ""),
+                             keyword_history=keywords, keyword_history_problems=keyword_problems)
