@@ -41,6 +41,9 @@ class EditableColumns:
         input_current: the input tables' column holding that value (summed over a key's rows).
         result: the formula column showing what the typed value decides ('' when none); named too, so
             ``changes`` can report a result typed over by hand.
+        same_figure: the formula column showing the same figure as the typed column when one is typed
+            (Profit's Target ACoS beside Your target ACoS), '' when none: a value typed over it is read as
+            typed in the typed column (the sheet computes with it) and reported with where to type.
     """
 
     label: str
@@ -59,6 +62,8 @@ class EditableColumns:
     input_current: str = ""
     result: str = "final"
     result_header: str = ""
+    same_figure: str = ""
+    same_figure_header: str = ""
 
     def problem(self, value: Any) -> str | None:
         """Why a typed value is not valid here (None when it is, or is blank)."""
@@ -91,7 +96,8 @@ def editable(defs: list["ColumnDef"], label: str, sheet: str, name: str, keys: t
     results = {d.key: d.header for d in defs if d.key == options.get("result", "final")}
     decl = EditableColumns(label, sheet, table or label, name, tuple(keys), value, headers, tuple(inputs),
                            tuple(input_columns or keys), **options)
-    return replace(decl, result_header=results.get(decl.result, ""))
+    same = {d.key: d.header for d in defs if d.key == options.get("same_figure")}
+    return replace(decl, result_header=results.get(decl.result, ""), same_figure_header=same.get(decl.same_figure, ""))
 
 
 INVALID = "invalid"  # what a Final column shows for a Decision that is not a valid word or number

@@ -281,7 +281,8 @@ DEFS: list[ColumnDef] = [
 
 # What a user types on Profit (a product's own target ACoS) and the key that finds its row again.
 EDITABLE_COLUMNS = editable(DEFS, "Profit", SHEET, "sb_profit", ("product_id",), "target_override",
-                            ("catalog", "store_sales", "ad_products"), numeric="target", result="")
+                            ("catalog", "store_sales", "ad_products"), numeric="target", result="",
+                            same_figure="target_acos")
 
 # Totals that need the whole frame are filled after the body (see _fill_totals).
 _LATE_TOTALS = {

@@ -33,6 +33,7 @@ from sheetbuilder.sheets.inputs import CATALOG_NAME, EDITABLE, EXPORTED
 from sheetbuilder.sheets.settings_sheet import AS_BUILT, HEADERS as SETTINGS_HEADERS, SHEET as SETTINGS_SHEET
 from sheetbuilder.sheets.typed import (CARRIED_NAME, DECISION_SHEETS, PROFIT_TARGET, SCAN_ROWS, CarryRecord,
                                        CarryResult, EditSheet, key_text)
+from sheetbuilder.errors import WARNING, Problem
 from sheetbuilder.values import is_blank, is_number, same_value, shown
 from sheetbuilder.weekly.saved import SavedBook, SavedWorkbookUnreadable, named_columns
 from sheetbuilder.reading.settings import SETTINGS, Settings, coerce_setting
@@ -44,6 +45,39 @@ MONEY_COLUMNS = ("price", "fees_per_unit")  # blank money is read as 0, as the r
 PERCENT_COLUMNS = ("target_acos", "margin")  # blank means "not given"
 TARGET_BOUNDS = (0.0, 5.0)  # as default_target_acos
 PreviousWorkbookUnreadable = SavedWorkbookUnreadable  # the previous workbook is missing or unreadable
+
+
+@dataclass(frozen=True)
+class Copied:
+    """A copy of one of our sheets (a spreadsheet program's Copy sheet) whose typed cells differ from the original's.
+
+    Attributes:
+        built: the sheet as built ('Bids'); original: what its tab is called now; copy: the copy's tab.
+        what: what was typed ('Decisions'); differ: {key: value on the copy} of every typed cell that differs
+            (None where the copy is blank and the original is not).
+    """
+
+    built: str
+    original: str
+    copy: str
+    what: str
+    differ: dict
+
+    def message(self) -> str:
+        """What the reports say: the copy was not read, and where to type."""
+        first = next(iter(self.differ.items()))
+        return (f"{self.what} on a copy of {self.original} ('{self.copy}') were not read; type them on {self.original} "
+                f"({len(self.differ)} differ from {self.original}'s, e.g. {_key_text(_parts(first[0]))}: "
+                f"{shown(first[1]) if first[1] is not None else 'blank'})")
+
+
+def _parts(key: Any) -> tuple:
+    return key if isinstance(key, tuple) else (key,)
+
+
+def copy_problems(edits: Edits) -> list[Problem]:
+    """One warning per copy of our sheets whose typed cells differ from the original's (see :class:`Copied`)."""
+    return [Problem(c.copy, None, None, c.message(), WARNING) for c in edits.copied]
 
 
 @dataclass(frozen=True)
@@ -61,6 +95,7 @@ class Edits:
             not be found (neither its defined name nor its header).
         first_typed: {(sheet, key, column): date} from the workbook's Carried edits sheet.
         built_on: the workbook's build date (the week an edit not yet on Carried edits was typed).
+        copied: the copies of our sheets whose typed cells differ from the original's (never read as edits).
     """
 
     source: str
@@ -71,6 +106,7 @@ class Edits:
     lost: list[tuple[str, str]] = field(default_factory=list)
     first_typed: dict[tuple[str, str, str], Any] = field(default_factory=dict)
     built_on: Any = None
+    copied: list[Copied] = field(default_factory=list)
 
 
 # ---------------------------------------------------------------------------------------------- reading
@@ -119,13 +155,14 @@ def _located(wb, rows_of: Callable[[str], list[list[Any]]], names: dict[str, str
     return body, cols
 
 
-def _read_block(wb, rows_of, entry: EditSheet) -> dict[tuple, Any] | None:
-    """{raw key tuple: value} of every non-blank typed cell of a table; None when the table was not found."""
+def _read_block(wb, rows_of, entry: EditSheet, sheet: str, by_name: bool = True) -> dict[tuple, Any] | None:
+    """{raw key tuple: value} of every non-blank typed cell of a table (on sheet when not found by its defined
+    names, or not by_name: a copy); None when the table was not found."""
     decl = entry.decl
     wanted = (*decl.keys, decl.value)
-    names = {k: decl.name_of(k) for k in wanted}
+    names = {k: decl.name_of(k) for k in wanted} if by_name else {}
     headers = {k: decl.headers[k] for k in wanted}
-    found = _located(wb, rows_of, names, headers, decl.sheet, entry.scan_rows, decl.value)
+    found = _located(wb, rows_of, names, headers, sheet, entry.scan_rows, decl.value)
     if found is None:
         return None
     body, cols = found
@@ -166,16 +203,17 @@ def _settings_cells(wb, rows_of: Callable[[str], list[list[Any]]]) -> dict[str, 
     return out
 
 
-def _catalog_cells(wb, rows_of) -> dict[tuple[str, str], Any]:
-    """{(product_id, column): value} of every in_catalog input cell that differs from its exported_ twin."""
+def _catalog_cells(wb, rows_of, sheet: str, by_name: bool = True) -> dict[tuple[str, str], Any]:
+    """{(product_id, column): value} of every in_catalog input cell that differs from its exported_ twin
+    (found by its defined names, else on sheet by its header; only by header when not by_name: a copy)."""
     wanted = ("product_id", *CATALOG_COLUMNS, *(EXPORTED + c for c in CATALOG_COLUMNS))
-    areas = named_columns(wb, {c: f"{CATALOG_NAME}_{c}" for c in wanted})
+    areas = named_columns(wb, {c: f"{CATALOG_NAME}_{c}" for c in wanted}) if by_name else None
     if areas is not None:
         area = areas["product_id"]
         cols = {k: a.first_col for k, a in areas.items()}
         body = rows_of(area.sheet, frozenset(cols.values()))[area.first_row:]  # and rows the user added below
     else:  # no names: by header text; an older layout without exported_ columns compares with the export
-        rows = rows_of(CATALOG_SHEET)
+        rows = rows_of(sheet)
         at = _header_index(rows, ["product_id"], SCAN_ROWS)
         if at is None:
             return {}
@@ -210,39 +248,94 @@ def read_edits(path: Path) -> Edits:
         return edits_in(book)
 
 
-def _was_built(wb, rows_of, entry: EditSheet) -> bool:
+def _was_built(wb, rows_of, entry: EditSheet, sheet: str) -> bool:
     """Whether a typed column that could not be found was in the workbook (its name exists but is broken,
-    or a header row holds its key headers): a table the build did not write (no rows) is not lost."""
+    or a header row of sheet holds its key headers): a table the build did not write (no rows) is not lost."""
     if entry.decl.name_of(entry.decl.value) in wb.defined_names:
         return True
-    if entry.sheet not in wb.sheetnames:
+    if sheet not in wb.sheetnames:
         return False
-    return _header_index(rows_of(entry.sheet), [k.header for k in entry.keys], entry.scan_rows) is not None
+    return _header_index(rows_of(sheet), [k.header for k in entry.keys], entry.scan_rows) is not None
 
 
 def edits_in(book: SavedBook) -> Edits:
     """Everything a user typed in an opened saved workbook (see :func:`read_edits`)."""
     wb, rows_of = book.wb, book.rows
     settings = _settings_cells(wb, rows_of)
-    catalog = _catalog_cells(wb, rows_of)
+    catalog_sheet = book.sheet(CATALOG_SHEET) or CATALOG_SHEET
+    catalog = _catalog_cells(wb, rows_of, catalog_sheet)
+    copied = _copied(book, CATALOG_SHEET, "costs and prices", catalog,
+                     lambda copy: _catalog_cells(wb, rows_of, copy, by_name=False))
     lost: list[tuple[str, str]] = []
     decisions: dict[str, dict] = {}
     targets: dict[str, Any] = {}
     for entry in (*DECISION_SHEETS, PROFIT_TARGET):
-        found = _read_block(wb, rows_of, entry)
+        sheet = book.sheet(entry.sheet) or entry.sheet  # its tab may have been renamed
+        found = _read_block(wb, rows_of, entry, sheet)
+        copied += _copied(book, entry.sheet, "Decisions" if entry.value_header == "Decision" else
+                          f"{entry.value_header!r} values", found or {},
+                          lambda copy, entry=entry: _read_block(wb, rows_of, entry, copy, by_name=False) or {})
         if found is None:
-            if _was_built(wb, rows_of, entry):
+            if _was_built(wb, rows_of, entry, sheet):
                 lost.append((entry.label, f"its {entry.value_header!r} column was not found: the workbook "
                                           f"has no defined name {entry.decl.name_of(entry.decl.value)} and no "
                                           f"header row reading {', '.join(entry.decl.headers.values())}"))
             continue
         if entry is PROFIT_TARGET:
             targets = {key_text(k[0]): v for k, v in found.items()}
+            targets.update({key_text(k[0]): v for k, v in typed_over_figure(book, entry, sheet).items()})
         elif found:
             decisions.setdefault(entry.label, {}).update(found)
     built = book.named_value("built_on")
     return Edits(str(book.path), settings, catalog, targets, decisions, lost, _first_typed(book),
-                 built.date() if isinstance(built, dt.datetime) else built)
+                 built.date() if isinstance(built, dt.datetime) else built, copied)
+
+
+def _copied(book: SavedBook, built: str, what: str, original: Mapping, read: Callable[[str], Mapping]) -> list[Copied]:
+    """A Copied record per copy of the sheet built as built whose typed cells differ from the original's."""
+    out = []
+    for copy in book.tabs.copies.get(built, []):
+        typed = read(copy)
+        differ = {k: v for k, v in typed.items() if k not in original or not same_value(original[k], v)}
+        differ.update({k: None for k in original if k not in typed})  # cleared on the copy
+        if differ:
+            out.append(Copied(built, book.sheet(built) or built, copy, what, differ))
+    return out
+
+
+def typed_over_figure(book: SavedBook, entry: EditSheet, sheet: str) -> dict[tuple, Any]:
+    """{raw key tuple: value} of every value typed over the formula column showing the same figure as the
+    entry's typed column (Profit's "Target ACoS" beside "Your target ACoS"): the sheet computes with it."""
+    decl = entry.decl
+    if not decl.same_figure:
+        return {}
+    areas = named_columns(book.wb, {k: decl.name_of(k) for k in decl.keys})
+    if areas is not None:
+        area = next(iter(areas.values()))
+        sheet, header_at, last = area.sheet, area.first_row - 1, area.last_row
+        keys = {k: a.first_col for k, a in areas.items()}
+        header = book.head(sheet, header_at + 1)[header_at] if header_at >= 0 else []
+    else:
+        rows = book.head(sheet, entry.scan_rows)
+        header_at = _header_index(rows, [decl.headers[k] for k in decl.keys], entry.scan_rows)
+        if header_at is None:
+            return {}
+        header, last = rows[header_at], None
+        keys = {k: [key_text(v) for v in header].index(decl.headers[k]) for k in decl.keys}
+    texts = [key_text(v) for v in header]
+    if decl.same_figure_header not in texts:
+        return {}
+    col = texts.index(decl.same_figure_header)
+    out: dict[tuple, Any] = {}
+
+    def keep(row: int, cells: dict[int, tuple[Any, bool]]) -> bool:
+        value, formula = cells.get(col, (None, False))
+        parts = tuple(cells.get(keys[k], (None, False))[0] for k in decl.keys)
+        if row > header_at and not formula and not is_blank(value) and not all(is_blank(p) for p in parts):
+            out[parts] = value
+        return last is not None and row >= last
+    book.stream(sheet, keep, {col, *keys.values()})
+    return out
 
 
 def _first_typed(book: SavedBook) -> dict[tuple[str, str, str], Any]:
@@ -448,6 +541,10 @@ def apply_edits(edits: Edits, inputs_tables: Any, settings: Settings) -> CarryRe
     decisions = _carry_decisions(edits, tables, fold, carried, unmatched, applied)
     for label, why in edits.lost:
         unmatched.append(CarryRecord(label, "(the whole column)", "", None, why))
+    for copied in edits.copied:  # typed on a copy of the sheet: listed, never carried
+        unmatched += [CarryRecord(copied.copy, _key_text(_parts(key)), copied.what, value,
+                                  f"typed on a copy of {copied.original}, not read; type it on {copied.original}")
+                      for key, value in copied.differ.items()]
     def dated(records: list[CarryRecord]) -> list[CarryRecord]:
         return [replace(r, first_typed=edits.first_typed.get((r.sheet, r.key, r.column), edits.built_on))
                 for r in records]

@@ -15,7 +15,7 @@ import math
 import zipfile
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import Any, Callable
 
 import pandas as pd
 from openpyxl.utils.cell import range_boundaries
@@ -30,7 +30,8 @@ from sheetbuilder.reading.settings import SETTINGS, Settings, coerce_setting
 from sheetbuilder.sheets.history import (COLUMNS as HISTORY_COLUMNS, HEADER_ROW as HISTORY_HEADER_ROW,
                                          NAME as HISTORY_NAME, NUMBERS as HISTORY_NUMBERS, SHEET as HISTORY_SHEET)
 from sheetbuilder.values import is_blank
-from sheetbuilder.weekly.sheet_xml import CellReader, DamagedSheet, read_cells
+from sheetbuilder.weekly.sheet_xml import CellReader, DamagedSheet, read_cells, stream_cells
+from sheetbuilder.weekly.tabs import Tabs, find_tabs
 
 class SavedWorkbookUnreadable(SheetbuilderError):
     """The workbook is missing or is not an .xlsx file that can be read."""
@@ -95,6 +96,12 @@ def named_area(wb: Any, name: str) -> Area | None:
     return None
 
 
+def _name_sheet(wb: Any, name: str) -> str | None:
+    """The sheet a workbook-level defined name points at (any area), or None."""
+    area = named_area(wb, name)
+    return area.sheet if area else None
+
+
 def named_columns(wb: Any, names: dict[str, str]) -> dict[str, Area] | None:
     """{key: area} for every key's defined name, when all exist as single columns over the same rows of one sheet."""
     areas = {key: named_area(wb, name) for key, name in names.items()}
@@ -119,6 +126,7 @@ class SavedBook:
         self.path = Path(path)
         self.wb = open_workbook(self.path)
         self._cache: dict[tuple, list[list[Any]]] = {}
+        self._tabs: Tabs | None = None
 
     def rows(self, sheet: str, columns: frozenset[int] | None = None, formulas: bool = False) -> list[list[Any]]:
         """The rows of sheet as lists of values (padded to one width); only columns when given; none if absent."""
@@ -127,13 +135,51 @@ class SavedBook:
             self._cache[key] = self._read(sheet, columns, formulas) if sheet in self.wb.sheetnames else []
         return self._cache[key]
 
+    def stream(self, sheet: str, on_row: Callable[[int, dict[int, tuple[Any, bool]]], bool | None],
+               columns: set[int] | None = None) -> None:
+        """Hand each row of sheet to on_row as it is read, holding one row at a time (see
+        :func:`sheetbuilder.weekly.sheet_xml.stream_cells`: (0-based row, {column: (value, holds a formula)}),
+        only columns when given; on_row returns True to stop). Nothing when the sheet is absent."""
+        if sheet in self.wb.sheetnames:
+            self._parse(sheet, lambda fh, reader: stream_cells(fh, reader, on_row, columns))
+
+    def head(self, sheet: str, n: int) -> list[list[Any]]:
+        """The first n rows of sheet (values, padded to one width), reading no further."""
+        if (sheet, None, False) in self._cache:
+            return self._cache[(sheet, None, False)][:n]
+        found: dict[int, dict[int, Any]] = {}
+
+        def keep(row: int, cells: dict[int, tuple[Any, bool]]) -> bool:
+            if row < n:
+                found[row] = {c: v for c, (v, _) in cells.items()}
+            return row >= n - 1
+        self.stream(sheet, keep)
+        width = 1 + max((c for cells in found.values() for c in cells), default=-1)
+        return [[found.get(r, {}).get(c) for c in range(width)] for r in range(max(found, default=-1) + 1)]
+
+    def sheet(self, built: str) -> str | None:
+        """The sheet that holds what the build wrote on the sheet called built, whatever it is called now
+        (:mod:`sheetbuilder.weekly.tabs`: by our defined names, else its own name, else its header); None if gone."""
+        return self.tabs.found.get(built)
+
+    @property
+    def tabs(self) -> Tabs:
+        """Where each of our sheets is now, and the copies of our typed tables (found once)."""
+        if self._tabs is None:
+            self._tabs = find_tabs(list(self.wb.sheetnames), lambda name: _name_sheet(self.wb, name), self.head)
+        return self._tabs
+
     def _read(self, sheet: str, columns: frozenset[int] | None, formulas: bool) -> list[list[Any]]:
+        return self._parse(sheet, lambda fh, reader: read_cells(fh, reader, columns, formulas))
+
+    def _parse(self, sheet: str, parse: Callable[[Any, CellReader], Any]) -> Any:
+        """parse(handle on the sheet's part, its CellReader); a damaged sheet is refused whole, never read in part."""
         ws = self.wb[sheet]
         reader = CellReader(ws._shared_strings, self.wb._date_formats, lambda n: from_excel(n, self.wb.epoch),
                             NO_SAVED_VALUE)
-        try:  # a truncated or damaged sheet is refused whole, never read in part
+        try:
             with self.wb._archive.open(ws._worksheet_path) as fh:  # openpyxl's own handle on the file
-                return read_cells(fh, reader, columns, formulas)
+                return parse(fh, reader)
         except DamagedSheet as exc:
             raise NotAWorkbook(f"{self.path} is not a workbook that can be read: its sheet '{sheet}' is damaged "
                                f"({exc}); open it in a spreadsheet program and save it again") from None
@@ -169,9 +215,9 @@ def saved_inputs(book: SavedBook) -> tuple[dict[str, Any], list]:
     tables: dict[str, Any] = {}
     problems: list = []
     for rule in c.TABLES:
-        sheet = sheet_name(rule.name)
-        rows = book.rows(sheet)
-        if sheet not in book.wb.sheetnames or not rows:
+        sheet = book.sheet(sheet_name(rule.name))  # its tab may have been renamed
+        rows = book.rows(sheet) if sheet is not None else []
+        if not rows:
             tables[rule.name] = None
             continue
         header = ["" if v is None else str(v) for v in rows[0]]
@@ -274,8 +320,8 @@ def _history_value(key: str, v: Any) -> Any:
 def read_history(book: SavedBook) -> tuple[list[dict], list[Problem]]:
     """The History rows of an opened previous workbook (none when it has no History sheet), and problems."""
     area = named_area(book.wb, HISTORY_NAME)
-    sheet = area.sheet if area else HISTORY_SHEET
-    if sheet not in book.wb.sheetnames:
+    sheet = area.sheet if area else book.sheet(HISTORY_SHEET)
+    if sheet is None:
         return [], []
     rows = book.rows(sheet)
     first = area.first_row if area else HISTORY_HEADER_ROW + 1
