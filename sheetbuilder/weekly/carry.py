@@ -65,10 +65,10 @@ class Copied:
 
     def message(self) -> str:
         """What the reports say: the copy was not read, and where to type."""
-        first = next(iter(self.differ.items()))
+        (key, value), n = next(iter(self.differ.items())), len(self.differ)
         return (f"{self.what} on a copy of {self.original} ('{self.copy}') were not read; type them on {self.original} "
-                f"({len(self.differ)} differ from {self.original}'s, e.g. {_key_text(_parts(first[0]))}: "
-                f"{shown(first[1]) if first[1] is not None else 'blank'})")
+                f"({n} cell{'' if n == 1 else 's'} differ{'s' if n == 1 else ''} from {self.original}, e.g. "
+                f"{_key_text(_parts(key))}: {'blank' if value is None else shown(value)})")
 
 
 def _parts(key: Any) -> tuple:

@@ -16,7 +16,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
-from sheetbuilder.errors import Problem
+from sheetbuilder.errors import WARNING, Problem
 from sheetbuilder.sheets.decisions import EditableColumns
 from sheetbuilder.sheets.typed import DECISION_TABLES, EDITABLE_TABLES, key_text
 from sheetbuilder.values import is_blank, shown
@@ -108,7 +108,7 @@ class _SheetCheck:
                 continue
             key = " / ".join(key_text(cells.get(self.at.get(k, -1), (None, False))[0]) for k in layout.keys)
             header = self.saved_headers.get(c) or layout.headers[i]
-            self.found.append(Problem(self.sheet, r + 1, header, _message(layout, i, key, value)))
+            self.found.append(Problem(self.sheet, r + 1, header, _message(layout, i, key, value), WARNING))
         return self.left <= 0 and self.next >= len(self.layouts)
 
 
