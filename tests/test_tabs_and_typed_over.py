@@ -133,6 +133,14 @@ def test_decisions_typed_on_a_copied_sheet_are_named_not_read(demo, tmp_path):
     assert [("Bids (2)", " / ".join(key["bid"]), DECISION)] == [(r.sheet, r.key, r.value) for r in built.carry.unmatched]
     assert [named[0].message] == [w.message for w in built.warnings if w.file == "Bids (2)"]
 
+    def cost_on_a_catalog_copy(wb):
+        wb.copy_worksheet(wb["in_catalog"]).title = "in_catalog (2)"
+        _cell(wb["in_catalog (2)"], "product_id", "unit_cost", 1).value = COST
+    edits = read_edits(_edited(demo, tmp_path / "catalog_copy.xlsx", cost_on_a_catalog_copy))
+    assert ({}, ["in_catalog (2)"]) == (edits.catalog, [c.copy for c in edits.copied])
+    assert edits.copied[0].message().startswith("costs and prices on a copy of in_catalog ('in_catalog (2)') were "
+                                                "not read; type them on in_catalog")
+
 
 @pytest.mark.slow  # builds next week's workbook with --previous
 def test_a_number_typed_over_a_formula_is_reported_with_where_to_type(demo, tmp_path, capsys):

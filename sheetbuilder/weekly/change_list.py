@@ -11,14 +11,11 @@ from __future__ import annotations
 
 from typing import Any
 
-from sheetbuilder.assemble import plan_workbook
-from sheetbuilder.sheets.typed import DECISION_SHEETS, PROFIT_TARGET, CarryResult, key_text
 from sheetbuilder.sheets.decisions import INVALID
 from sheetbuilder.errors import WARNING, Problem
 from sheetbuilder.sheets.followup import Followup
 from sheetbuilder.weekly.applied import followup_rows, number_or_none, same_exports, span_of
 from sheetbuilder.sheets.actions import ADDS, DEFS as ACTION_DEFS, KINDS, SHEET
-from sheetbuilder.reading.readers import Inputs
 from sheetbuilder.values import is_blank, is_number
 from sheetbuilder.weekly.record import FIRST_ROW, SavedWorkbook, plan_saved
 from sheetbuilder.reading.settings import Settings

@@ -22,14 +22,12 @@ from typing import Any
 
 from sheetbuilder.workbook.atomic import atomic_output, scratch_dir
 from sheetbuilder.weekly.change_list import CHANGE_KEY, KEYS, SHEET, check_change, computed_actions
-from sheetbuilder.sheets.decisions import NO_SAVED_VALUE
 from sheetbuilder.workbook.csv_safe import write_csv
 from sheetbuilder.errors import OutputExists, Problem, SheetbuilderError, UnsafeOutput
 from sheetbuilder.reading.guard import text_problem
 from sheetbuilder.sheets.actions import HEADERS
 from sheetbuilder.workbook.render import render_rows
-from sheetbuilder.sheets.typed import DECISION_SHEETS
-from sheetbuilder.values import is_blank, is_number, same_value
+from sheetbuilder.values import is_blank, is_number
 from sheetbuilder.weekly.record import NoActionsSheet, SavedWorkbook, read_saved_workbook  # noqa: F401 (re-exported)
 from sheetbuilder.weekly.saved import NotAWorkbook, WorkbookNotFound  # noqa: F401 (re-exported)
 

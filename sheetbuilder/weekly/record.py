@@ -3,8 +3,11 @@
 ``build --previous`` and ``changes`` each open the workbook once (:func:`read_saved_workbook`,
 under the reading guard: a damaged file is the user's problem) and read everything they use
 from it: the inputs, settings and typed edits it holds, the values it saved, its History and,
-for ``changes``, its Actions and Follow-up lists. What they compute from the record (the change
-list, the carry, the follow-up) runs after the file is closed, so a failure there is a bug.
+for ``changes``, its Actions and Follow-up lists. The workbook is then planned again from the
+record (:func:`plan_saved`, outside the guard, so a failure there is a bug) while it is still open,
+and its cells typed over a formula are read against that plan under the guard
+(:mod:`sheetbuilder.weekly.typed_over`). What they compute from the record (the change list, the
+carry, the follow-up) runs after the file is closed, so a failure there is a bug too.
 """
 from __future__ import annotations
 
@@ -34,15 +37,12 @@ class NoActionsSheet(SheetbuilderError):
     """The workbook has no Actions sheet, or its header row is not the expected one."""
 
 
-def _saved_actions(book: SavedBook, formulas: bool = False) -> list[tuple[int, list[Any]]]:
-    """[(sheet row, visible values)] of the Actions list as the file saved it (blank Kind = an empty row).
-
-    With formulas, a formula cell that stores no value reads as NO_SAVED_VALUE (a typed value reads as itself).
-    """
+def _saved_actions(book: SavedBook) -> list[tuple[int, list[Any]]]:
+    """[(sheet row, visible values)] of the Actions list as the file saved it (blank Kind = an empty row)."""
     area = named_area(book.wb, ACTIONS_NAME)
     first_col = area.first_col if area else 0
     rows = book.rows(area.sheet if area else book.sheet(SHEET) or SHEET,
-                     frozenset(range(first_col, first_col + len(HEADERS))), formulas)
+                     frozenset(range(first_col, first_col + len(HEADERS))))
     first_row = area.first_row if area else FIRST_ROW - 1
     width = len(HEADERS)
     header = [rows[first_row - 1][first_col + i] if first_row - 1 < len(rows) and first_col + i < len(
