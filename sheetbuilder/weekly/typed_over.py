@@ -25,6 +25,7 @@ from sheetbuilder.workbook.spec import FORMULA, Table, WorkbookSpec
 NUMERIC_STYLES = ("int", "money", "percent", "ratio")
 MAX_KEYS = 4  # a table without a declared key is named by its first text columns, at most these
 HEADER_SHARE = 0.6  # a row holding this share of a table's headers is taken for its header row
+MAX_COLUMNS = 16_384  # a sheet's columns (Microsoft, "Excel specifications and limits")
 
 
 @dataclass
@@ -64,12 +65,13 @@ class _SheetCheck:
         self.sheet, self.layouts = sheet, layouts
         self.next = 0  # the next table whose header row is looked for
         self.current: _Layout | None = None
-        self.left = 0  # body rows of the current table still to read
+        self.last = -1  # the current table's last body row (0-based), as planned
         self.at: dict[int, int] = {}  # planned column -> saved column
         self.saved_headers: dict[int, str] = {}
+        self.columns = set(range(MAX_COLUMNS))  # read: every column until the last table's header is found
         self.found: list[Problem] = []
 
-    def _header(self, cells: dict[int, tuple[Any, bool]]) -> bool:
+    def _header(self, r: int, cells: dict[int, tuple[Any, bool]]) -> bool:
         """Whether the row is the next table's header row (and if so, map its columns)."""
         if self.next >= len(self.layouts):
             return False
@@ -81,23 +83,23 @@ class _SheetCheck:
         where: dict[str, int] = {}
         for c, t in sorted(texts.items()):
             where.setdefault(t, c)
-        planned = set(layout.headers)
-        self.at = {}
-        for i, h in enumerate(layout.headers):
-            if h in where:
-                self.at[i] = where[h]
-            elif texts.get(i) not in planned:  # renamed where it stands
+        self.at = {i: where[h] for i, h in enumerate(layout.headers) if h in where}
+        taken, planned = set(self.at.values()), set(layout.headers)
+        for i in range(len(layout.headers)):  # a header renamed where it stands, its place taken by no other
+            if i not in self.at and i not in taken and texts.get(i) not in planned:
                 self.at[i] = i
         self.saved_headers = texts
-        self.current, self.left = layout, layout.rows
+        self.current, self.last = layout, r + layout.rows
         self.next += 1
+        if self.next == len(self.layouts):  # no header left to look for: only the checked columns are read
+            self.columns.clear()
+            self.columns.update(self.at.get(i, -1) for i in (*layout.formulas, *layout.keys))
         return True
 
     def row(self, r: int, cells: dict[int, tuple[Any, bool]]) -> bool:
         """Check one saved row; True once every table was read (nothing more to read)."""
-        if self._header(cells) or self.current is None or self.left <= 0:
-            return False
-        self.left -= 1
+        if self._header(r, cells) or self.current is None or r > self.last:
+            return self.next >= len(self.layouts) and r >= self.last
         layout = self.current
         for i in layout.formulas:
             c = self.at.get(i)
@@ -109,7 +111,7 @@ class _SheetCheck:
             key = " / ".join(key_text(cells.get(self.at.get(k, -1), (None, False))[0]) for k in layout.keys)
             header = self.saved_headers.get(c) or layout.headers[i]
             self.found.append(Problem(self.sheet, r + 1, header, _message(layout, i, key, value), WARNING))
-        return self.left <= 0 and self.next >= len(self.layouts)
+        return self.next >= len(self.layouts) and r >= self.last
 
 
 def _message(layout: _Layout, column: int, key: str, value: Any) -> str:
@@ -143,6 +145,6 @@ def typed_over(book: Any, spec: WorkbookSpec, tables: dict[str, Any]) -> list[Pr
         if not planned or now is None:
             continue
         check = _SheetCheck(now, [_layout(t, decls.get(id(t.columns))) for t in sorted(planned, key=lambda t: t.first_row)])
-        book.stream(now, check.row)
+        book.stream(now, check.row, check.columns)
         out += check.found
     return out
