@@ -270,8 +270,8 @@ class _RowStream(_SheetParser):
                     raise _Stop
             return
         cell = self.cell
-        if code == _C and cell.wanted:
-            self.cells[cell.col] = (self.reader.value(cell, False), cell.formula)
+        if code == _C and cell.wanted:  # a formula's saved value is not read: only its presence is asked for
+            self.cells[cell.col] = (None, True) if cell.formula else (self.reader.value(cell, False), False)
             self.cell = _UNWANTED
         elif cell.wanted:
             super().end(name)
@@ -283,7 +283,7 @@ def stream_cells(handle: IO[bytes], reader: CellReader,
     """Hand each row of a worksheet part to on_row as it is read: (0-based row, {column: (value, holds a formula)}).
 
     Only the cells of columns are read when given (a set on_row may change between rows); rows
-    without such cells are not handed over. A formula cell with no saved value reads as (None, True).
+    without such cells are not handed over. A formula cell reads as (None, True), its saved value unread.
     on_row returns True to stop reading. Memory holds one row at a time.
 
     Raises:

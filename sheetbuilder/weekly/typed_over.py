@@ -25,7 +25,7 @@ from sheetbuilder.workbook.spec import FORMULA, Table, WorkbookSpec
 NUMERIC_STYLES = ("int", "money", "percent", "ratio")
 MAX_KEYS = 4  # a table without a declared key is named by its first text columns, at most these
 HEADER_SHARE = 0.6  # a row holding this share of a table's headers is taken for its header row
-MAX_COLUMNS = 16_384  # a sheet's columns (Microsoft, "Excel specifications and limits")
+INSERTED_COLUMNS = 64  # columns a user may insert into a table and still have its header row found
 
 
 @dataclass
@@ -68,7 +68,9 @@ class _SheetCheck:
         self.last = -1  # the current table's last body row (0-based), as planned
         self.at: dict[int, int] = {}  # planned column -> saved column
         self.saved_headers: dict[int, str] = {}
-        self.columns = set(range(MAX_COLUMNS))  # read: every column until the last table's header is found
+        # Read until the last table's header row is found: the columns a header row can reach (tables start at
+        # column A; a user may insert columns); then only the columns checked.
+        self.columns = set(range(max(len(t.headers) for t in layouts) + INSERTED_COLUMNS))
         self.found: list[Problem] = []
 
     def _header(self, r: int, cells: dict[int, tuple[Any, bool]]) -> bool:
