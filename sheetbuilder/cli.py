@@ -178,8 +178,8 @@ def _changes(args: argparse.Namespace, console: Console) -> int:
                             include_unapplied=args.include_unapplied)
     if result.unchecked:
         console.print(f"{args.workbook} stores no formula values (saved by a program that does not store them): "
-                      "the change list was computed from its inputs, but cells typed over a formula could not "
-                      "be looked for")
+                      "the change list was computed from its inputs, and cells typed over a formula were found "
+                      "by the formulas they replaced")
     if result.problems:
         console.print(f"[bold]{len(result.refused)} change(s) refused, not written; "
                       f"{len(result.overwritten)} cell(s) typed over a formula; other problems below:[/bold]")

@@ -10,7 +10,8 @@ import pandas as pd
 
 from sheetbuilder.assemble import Plan, plan_workbook  # noqa: F401 (plan_workbook re-exported: the planning twin of build)
 from sheetbuilder.workbook.atomic import atomic_output, refuse_input_as_output, scratch_dir
-from sheetbuilder.weekly.carry import CarryResult, PreviousWorkbookUnreadable, apply_edits, carried_catalog
+from sheetbuilder.weekly.carry import (CarryResult, PreviousWorkbookUnreadable, apply_edits, carried_catalog,
+                                      copy_problems)
 from sheetbuilder.weekly.change_list import followup_of
 from sheetbuilder.weekly.keyword_weeks import joined_history, this_week_period
 from sheetbuilder.weekly.record import read_saved_workbook
@@ -138,6 +139,7 @@ def build(folder: Path, output: Path, force: bool = False, built_on: dt.date | N
                                         previous_anyway)
         problems += notes
         carry = apply_edits(saved.edits, inputs.tables, settings)
+        problems += copy_problems(saved.edits) + saved.typed_over
         settings = carry.settings
         carry.exported["catalog"] = inputs.tables["catalog"]  # in_catalog records the export, not the carry
         inputs.tables["catalog"] = carried_catalog(inputs.tables["catalog"], carry)

@@ -10,7 +10,7 @@ import pytest
 
 from minimal import write_account
 
-import sheetbuilder.weekly.change_list as change_list
+import sheetbuilder.weekly.record as record  # where a saved workbook is planned again
 from sheetbuilder.sheets.anchors import Anchors, DuplicateAnchor, MissingAnchor, without_absent
 from sheetbuilder.assemble import SHEET_ORDER, STEPS, plan_workbook
 from sheetbuilder.cli import EXIT_BUG, main
@@ -104,7 +104,7 @@ def test_a_bug_while_planning_a_saved_workbook_exits_70_not_as_an_unreadable_fil
     def broken(*args, **kwargs):
         raise ZeroDivisionError("a bug in planning")
 
-    monkeypatch.setattr(change_list, "plan_workbook", broken)
+    monkeypatch.setattr(record, "plan_workbook", broken)
     capsys.readouterr()
     assert EXIT_BUG == main(["changes", str(book), "-o", str(tmp_path / "changes.csv")])
     err = capsys.readouterr().err

@@ -110,6 +110,7 @@ def plan_actions(demo: Path) -> dict[str, list[dict]]:
         **{action: _typed_steps(wb) for action in SAVED_AS},
         "notes_and_own_columns": _notes_steps(wb),
         **{f"{PROFIT_BY}{by}": [_sort_step(profit, "Product ID", by, ascending=False)] for by in _headers(profit)},
+        **_tab_actions(wb),
     }
 
 
@@ -415,3 +416,115 @@ def test_notes_and_own_columns_are_carried_to_next_week_by_key(hands, demo_build
     assert {s: expected[s] for s in NOTED} == {s: _typed_by_key(wb[s], *NOTED[s]) for s in NOTED}
     _, _, headers = _table(wb["Bids"], "Campaign")
     assert OWN_HEADER == headers[headers.index("Notes") + 1]
+
+
+# ---- renamed and copied tabs, a number typed over a formula (issue 21) -------------------------------------------
+
+TAB_COST, TAB_DECISION, TAB_TARGET = 7.5, 0.77, 0.05
+RENAMED = {"in_catalog": "Catalog", "Bids": "My bids"}
+
+
+def _cell_of(ws, first: str, header: str, body_row: int) -> str:
+    """The address of column header in the body_row-th body row (0-based) of the table starting with first."""
+    top, _, headers = _table(ws, first)
+    return ws.cell(top + 1 + body_row, headers.index(header) + 1).coordinate
+
+
+def _most_bid_product_row(wb) -> int:
+    """The Profit body row (0-based) of the product with the most keywords on Bids (its bids move with its target)."""
+    products = _column_of(wb["Bids"], "Campaign", "Product ID")
+    most = Counter(p for p in products if p).most_common(1)[0][0]
+    return _column_of(wb["Profit"], "Product ID", "Product ID").index(most)
+
+
+def _column_of(ws, first: str, header: str) -> list:
+    top, last, headers = _table(ws, first)
+    return [ws.cell(r, headers.index(header) + 1).value for r in range(top + 1, last + 1)]
+
+
+def _tab_actions(wb) -> dict[str, list[dict]]:
+    """Rename in_catalog and Bids then type a cost and a Decision; copy Bids and type a Decision on the copy;
+    type a number over Profit's Target ACoS formula."""
+    bids, catalog, profit = wb["Bids"], wb["in_catalog"], wb["Profit"]
+    return {
+        "renamed_tabs": [*({"op": "rename_sheet", "sheet": old, "to": new} for old, new in RENAMED.items()),
+                         {"op": "set", "sheet": RENAMED["in_catalog"], "cell": _cell_of(catalog, "product_id", "unit_cost", 1),
+                          "value": TAB_COST},
+                         {"op": "set", "sheet": RENAMED["Bids"], "cell": _cell_of(bids, "Campaign", "Decision", 0),
+                          "value": TAB_DECISION}],
+        "copied_bids": [{"op": "copy_sheet", "sheet": "Bids", "to": "Bids (2)", "position": wb.sheetnames.index("Bids") + 1},
+                        {"op": "set", "sheet": "Bids (2)", "cell": _cell_of(bids, "Campaign", "Decision", 0),
+                         "value": TAB_DECISION}],
+        "number_over_target_acos": [{"op": "set", "sheet": "Profit", "value": TAB_TARGET,
+                                     "cell": _cell_of(profit, "Product ID", "Target ACoS", _most_bid_product_row(wb))}],
+    }
+
+
+def _changes_equal_the_actions_sheet(hands, work, action: str):
+    """export_changes of the action's saved copy, checked to hold what its Actions sheet holds."""
+    result = export_changes(hands[action], work / f"changes_{action}.csv")
+    sheet, written = _actions_sheet(hands[action]), Counter(_change(r) for r in result.rows)
+    assert Counter() == written - sheet
+    assert len(result.refused) == sum((sheet - written).values())  # the demo's adds without a destination
+    assert {"add keyword", "add product target"} == {change[0] for change in sheet - written}
+    return result
+
+
+def _next_week(hands, work, action: str):
+    from conftest import BUILT_ON, DEMO
+    from sheetbuilder.pipeline import build
+    return build(DEMO, work / f"next_{action}.xlsx", built_on=BUILT_ON, previous=hands[action])
+
+
+def _first_bid(path: Path) -> tuple:
+    ws = openpyxl.load_workbook(path, read_only=False)["Bids"]
+    return tuple(_column_of(ws, "Campaign", h)[0] for h in ("Campaign", "Ad group", "Target", "Match type"))
+
+
+@pytest.mark.libreoffice
+@pytest.mark.slow
+def test_renaming_tabs_keeps_changes_and_carrying_working(hands, work):
+    names = openpyxl.load_workbook(hands["renamed_tabs"], read_only=True).sheetnames
+    assert set(RENAMED.values()) <= set(names) and not set(RENAMED) & set(names)
+    result = _changes_equal_the_actions_sheet(hands, work, "renamed_tabs")
+    assert [] == result.overwritten
+    key = _first_bid(hands["as_built"])
+    assert [TAB_DECISION] == [r[6] for r in result.rows if r[0] == "bid" and tuple(r[1:5]) == key]
+    product = _column_of(openpyxl.load_workbook(hands["as_built"])["in_catalog"], "product_id", "product_id")[1]
+    carry = _next_week(hands, work, "renamed_tabs").carry
+    carried = {(r.sheet, r.key, r.column): r.value for r in carry.carried}
+    assert TAB_COST == carried[("in_catalog", product, "unit_cost")]
+    assert TAB_DECISION == carried[("Bids", " / ".join(key), "Decision")]
+    assert [] == carry.unmatched
+
+
+@pytest.mark.libreoffice
+@pytest.mark.slow
+def test_decisions_typed_on_a_copied_sheet_are_named_not_lost(hands, work):
+    result = _changes_equal_the_actions_sheet(hands, work, "copied_bids")
+    named = [p.message for p in result.problems if p.file == "Bids (2)"]
+    assert 1 == len(named) and named[0].startswith(
+        "Decisions on a copy of Bids ('Bids (2)') were not read; type them on Bids")
+    key = " / ".join(_first_bid(hands["as_built"]))
+    built = _next_week(hands, work, "copied_bids")
+    assert [("Bids (2)", key, TAB_DECISION)] == [(r.sheet, r.key, r.value) for r in built.carry.unmatched]
+    assert named == [w.message for w in built.warnings if w.file == "Bids (2)"]
+    assert {} == built.carry.decisions  # read from neither place
+
+
+@pytest.mark.libreoffice
+@pytest.mark.slow
+def test_a_number_typed_over_a_formula_is_reported_with_where_to_type(hands, work):
+    # LibreOffice computes the sheet with the typed target, and so does the exported list ...
+    result = _changes_equal_the_actions_sheet(hands, work, "number_over_target_acos")
+    assert _actions_sheet(hands["as_built"]) != _actions_sheet(hands["number_over_target_acos"])
+    wb = openpyxl.load_workbook(hands["as_built"])
+    row = _most_bid_product_row(wb)
+    product = _column_of(wb["Profit"], "Product ID", "Product ID")[row]
+    top = _table(wb["Profit"], "Product ID")[0]
+    assert [("Profit", top + 1 + row, "Target ACoS")] == [(p.file, p.row, p.column) for p in result.overwritten]
+    assert "type your target in 'Your target ACoS'" in result.overwritten[0].message
+    # ... and next week carries it where it belongs, saying where it was found.
+    built = _next_week(hands, work, "number_over_target_acos")
+    assert {product: TAB_TARGET} == built.carry.targets
+    assert [result.overwritten[0].message] == [w.message for w in built.warnings if w.file == "Profit"]

@@ -45,6 +45,9 @@ class EditableColumns:
             carried by key with the columns the user adds to its right, never read as a Decision.
         all_headers: every column's header as built (a workbook built before Notes columns: what lies right of
             the last of them is the user's own).
+        same_figure: the formula column showing the same figure as the typed column when one is typed
+            (Profit's Target ACoS beside Your target ACoS), '' when none: a value typed over it is read as
+            typed in the typed column (the sheet computes with it) and reported with where to type.
     """
 
     label: str
@@ -65,6 +68,8 @@ class EditableColumns:
     result_header: str = ""
     notes: str = ""
     all_headers: tuple[str, ...] = ()
+    same_figure: str = ""
+    same_figure_header: str = ""
 
     def problem(self, value: Any) -> str | None:
         """Why a typed value is not valid here (None when it is, or is blank)."""
@@ -97,7 +102,9 @@ def editable(defs: list["ColumnDef"], label: str, sheet: str, name: str, keys: t
     results = {d.key: d.header for d in defs if d.key == options.get("result", "final")}
     decl = EditableColumns(label, sheet, table or label, name, tuple(keys), value, headers, tuple(inputs),
                            tuple(input_columns or keys), **options)
-    return replace(decl, result_header=results.get(decl.result, ""), all_headers=tuple(d.header for d in defs))
+    same = {d.key: d.header for d in defs if d.key == options.get("same_figure")}
+    return replace(decl, result_header=results.get(decl.result, ""), all_headers=tuple(d.header for d in defs),
+                   same_figure_header=same.get(decl.same_figure, ""))
 
 
 NOTES = "notes"  # the key of every Notes column

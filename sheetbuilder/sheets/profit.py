@@ -326,7 +326,8 @@ STOCK = ("stock",)  # without an inventory export these are written blank: no in
 
 # What a user types on Profit (a product's own target ACoS) and the key that finds its row again.
 EDITABLE_COLUMNS = editable(DEFS, "Profit", SHEET, "sb_profit", ("product_id",), "target_override",
-                            ("catalog", "store_sales", "ad_products"), numeric="target", result="", notes=NOTES)
+                            ("catalog", "store_sales", "ad_products"), numeric="target", result="", notes=NOTES,
+                            same_figure="target_acos")
 
 # Totals that need the whole frame are filled after the body (see _fill_totals).
 _LATE_TOTALS = {

@@ -33,6 +33,7 @@ from sheetbuilder.sheets.settings_sheet import AS_BUILT, HEADERS as SETTINGS_HEA
 from sheetbuilder.sheets.decisions import NO_SAVED_VALUE, NOTES_HEADER, OWN_COLUMNS_CAP
 from sheetbuilder.sheets.typed import (CARRIED_NAME, DECISION_SHEETS, EDITABLE_TABLES, PROFIT_TARGET, SCAN_ROWS,
                                        CarryRecord, CarryResult, EditSheet, OwnColumn, edit_sheet_of, key_text)
+from sheetbuilder.errors import WARNING, Problem
 from sheetbuilder.values import is_blank, is_number, same_value, shown
 from sheetbuilder.weekly.saved import SavedBook, SavedWorkbookUnreadable, named_columns
 from sheetbuilder.reading.settings import SETTINGS, Settings, coerce_setting
@@ -44,6 +45,39 @@ MONEY_COLUMNS = ("price", "fees_per_unit")  # blank money is read as 0, as the r
 PERCENT_COLUMNS = ("target_acos", "margin")  # blank means "not given"
 TARGET_BOUNDS = (0.0, 5.0)  # as default_target_acos
 PreviousWorkbookUnreadable = SavedWorkbookUnreadable  # the previous workbook is missing or unreadable
+
+
+@dataclass(frozen=True)
+class Copied:
+    """A copy of one of our sheets (a spreadsheet program's Copy sheet) whose typed cells differ from the original's.
+
+    Attributes:
+        built: the sheet as built ('Bids'); original: what its tab is called now; copy: the copy's tab.
+        what: what was typed ('Decisions'); differ: {key: value on the copy} of every typed cell that differs
+            (None where the copy is blank and the original is not).
+    """
+
+    built: str
+    original: str
+    copy: str
+    what: str
+    differ: dict
+
+    def message(self) -> str:
+        """What the reports say: the copy was not read, and where to type."""
+        (key, value), n = next(iter(self.differ.items())), len(self.differ)
+        return (f"{self.what} on a copy of {self.original} ('{self.copy}') were not read; type them on {self.original} "
+                f"({n} cell{'' if n == 1 else 's'} differ{'s' if n == 1 else ''} from {self.original}, e.g. "
+                f"{_key_text(_parts(key))}: {'blank' if value is None else shown(value)})")
+
+
+def _parts(key: Any) -> tuple:
+    return key if isinstance(key, tuple) else (key,)
+
+
+def copy_problems(edits: Edits) -> list[Problem]:
+    """One warning per copy of our sheets whose typed cells differ from the original's (see :class:`Copied`)."""
+    return [Problem(c.copy, None, None, c.message(), WARNING) for c in edits.copied]
 
 
 @dataclass(frozen=True)
@@ -64,6 +98,7 @@ class Edits:
         notes: {label: {raw key tuple: value}} of every non-blank Notes cell.
         own: {label: [OwnColumn]} the columns a user added right of a table's Notes (values by raw key).
         own_refused: CarryRecords of own columns that cannot be carried (no header, beyond the cap).
+        copied: the copies of our sheets whose typed cells differ from the original's (never read as edits).
     """
 
     source: str
@@ -77,6 +112,7 @@ class Edits:
     notes: dict[str, dict[tuple, Any]] = field(default_factory=dict)
     own: dict[str, list[OwnColumn]] = field(default_factory=dict)
     own_refused: list[CarryRecord] = field(default_factory=list)
+    copied: list[Copied] = field(default_factory=list)
 
 
 # ---------------------------------------------------------------------------------------------- reading
@@ -127,13 +163,15 @@ def _located(book: SavedBook, names: dict[str, str], headers: dict[str, str], sh
     return body, cols
 
 
-def _read_block(book: SavedBook, entry: EditSheet) -> dict[tuple, Any] | None:
-    """{raw key tuple: value} of every non-blank typed cell of a table; None when the table was not found."""
+def _read_block(book: SavedBook, entry: EditSheet, sheet: str, by_name: bool = True) -> dict[tuple, Any] | None:
+    """{raw key tuple: value} of every non-blank typed cell of a table (on sheet when not found by its defined
+    names, or not by_name: a copy); None when the table was not found."""
     decl = entry.decl
     wanted = (*decl.keys, decl.value)
-    names = {k: decl.name_of(k) for k in wanted}
+    names = {k: decl.name_of(k) for k in wanted} if by_name else {}
     headers = {k: decl.headers[k] for k in wanted}
-    found = _located(book, names, headers, decl.sheet, entry.scan_rows, decl.value, _notes_columns(book, decl))
+    found = _located(book, names, headers, sheet, entry.scan_rows, decl.value,
+                     _notes_columns(book, decl) if by_name else frozenset())
     if found is None:
         return None
     body, cols = found
@@ -171,16 +209,17 @@ def _settings_cells(book: SavedBook) -> dict[str, Any]:
     return out
 
 
-def _catalog_cells(book: SavedBook) -> dict[tuple[str, str], Any]:
-    """{(product_id, column): value} of every in_catalog input cell that differs from its exported_ twin."""
+def _catalog_cells(book: SavedBook, sheet: str, by_name: bool = True) -> dict[tuple[str, str], Any]:
+    """{(product_id, column): value} of every in_catalog input cell that differs from its exported_ twin
+    (found by its defined names, else on sheet by its header; only by header when not by_name: a copy)."""
     wanted = ("product_id", *CATALOG_COLUMNS, *(EXPORTED + c for c in CATALOG_COLUMNS))
-    areas = named_columns(book, {c: f"{CATALOG_NAME}_{c}" for c in wanted})
+    areas = named_columns(book, {c: f"{CATALOG_NAME}_{c}" for c in wanted}) if by_name else None
     if areas is not None:
         area = areas["product_id"]
         cols = {k: a.first_col for k, a in areas.items()}
         body = book.rows(area.sheet, frozenset(cols.values()))[area.first_row:]  # and rows the user added below
     else:  # no names: by header text; an older layout without exported_ columns compares with the export
-        rows = book.rows(CATALOG_SHEET)
+        rows = book.rows(sheet)
         at = _header_index(rows, ["product_id"], SCAN_ROWS)
         if at is None:
             return {}
@@ -215,39 +254,94 @@ def read_edits(path: Path) -> Edits:
         return edits_in(book)
 
 
-def _was_built(book: SavedBook, entry: EditSheet) -> bool:
+def _was_built(book: SavedBook, entry: EditSheet, sheet: str) -> bool:
     """Whether a typed column that could not be found was in the workbook (its name exists but is broken,
-    or a header row holds its key headers): a table the build did not write (no rows) is not lost."""
+    or a header row of sheet holds its key headers): a table the build did not write (no rows) is not lost."""
     if book.has_name(entry.decl.name_of(entry.decl.value)):
         return True
-    if entry.sheet not in book.sheetnames:
+    if sheet not in book.sheetnames:
         return False
-    return _header_index(book.rows(entry.sheet), [k.header for k in entry.keys], entry.scan_rows) is not None
+    return _header_index(book.rows(sheet), [k.header for k in entry.keys], entry.scan_rows) is not None
 
 
 def edits_in(book: SavedBook) -> Edits:
     """Everything a user typed in an opened saved workbook (see :func:`read_edits`)."""
     settings = _settings_cells(book)
-    catalog = _catalog_cells(book)
+    catalog_sheet = book.sheet(CATALOG_SHEET) or CATALOG_SHEET
+    catalog = _catalog_cells(book, catalog_sheet)
+    copied = _copied(book, CATALOG_SHEET, "costs and prices", catalog,
+                     lambda copy: _catalog_cells(book, copy, by_name=False))
     lost: list[tuple[str, str]] = []
     decisions: dict[str, dict] = {}
     targets: dict[str, Any] = {}
     for entry in (*DECISION_SHEETS, PROFIT_TARGET):
-        found = _read_block(book, entry)
+        sheet = book.sheet(entry.sheet) or entry.sheet  # its tab may have been renamed
+        found = _read_block(book, entry, sheet)
+        copied += _copied(book, entry.sheet, "Decisions" if entry.value_header == "Decision" else
+                          f"{entry.value_header!r} values", found or {},
+                          lambda copy, entry=entry: _read_block(book, entry, copy, by_name=False) or {})
         if found is None:
-            if _was_built(book, entry):
+            if _was_built(book, entry, sheet):
                 lost.append((entry.label, f"its {entry.value_header!r} column was not found: the workbook "
                                           f"has no defined name {entry.decl.name_of(entry.decl.value)} and no "
                                           f"header row reading {', '.join(entry.decl.headers.values())}"))
             continue
         if entry is PROFIT_TARGET:
             targets = {key_text(k[0]): v for k, v in found.items()}
+            targets.update({key_text(k[0]): v for k, v in typed_over_figure(book, entry, sheet).items()})
         elif found:
             decisions.setdefault(entry.label, {}).update(found)
     built = book.named_value("built_on")
     notes, own, own_refused = notes_in(book)
     return Edits(str(book.path), settings, catalog, targets, decisions, lost, _first_typed(book),
-                 built.date() if isinstance(built, dt.datetime) else built, notes, own, own_refused)
+                 built.date() if isinstance(built, dt.datetime) else built, notes, own, own_refused, copied)
+
+
+def _copied(book: SavedBook, built: str, what: str, original: Mapping, read: Callable[[str], Mapping]) -> list[Copied]:
+    """A Copied record per copy of the sheet built as built whose typed cells differ from the original's."""
+    out = []
+    for copy in book.tabs.copies.get(built, []):
+        typed = read(copy)
+        differ = {k: v for k, v in typed.items() if k not in original or not same_value(original[k], v)}
+        differ.update({k: None for k in original if k not in typed})  # cleared on the copy
+        if differ:
+            out.append(Copied(built, book.sheet(built) or built, copy, what, differ))
+    return out
+
+
+def typed_over_figure(book: SavedBook, entry: EditSheet, sheet: str) -> dict[tuple, Any]:
+    """{raw key tuple: value} of every value typed over the formula column showing the same figure as the
+    entry's typed column (Profit's "Target ACoS" beside "Your target ACoS"): the sheet computes with it."""
+    decl = entry.decl
+    if not decl.same_figure:
+        return {}
+    areas = named_columns(book, {k: decl.name_of(k) for k in decl.keys})
+    if areas is not None:
+        area = next(iter(areas.values()))
+        sheet, header_at, last = area.sheet, area.first_row - 1, area.last_row
+        keys = {k: a.first_col for k, a in areas.items()}
+        header = book.head(sheet, header_at + 1)[header_at] if header_at >= 0 else []
+    else:
+        rows = book.head(sheet, entry.scan_rows)
+        header_at = _header_index(rows, [decl.headers[k] for k in decl.keys], entry.scan_rows)
+        if header_at is None:
+            return {}
+        header, last = rows[header_at], None
+        keys = {k: [key_text(v) for v in header].index(decl.headers[k]) for k in decl.keys}
+    texts = [key_text(v) for v in header]
+    if decl.same_figure_header not in texts:
+        return {}
+    col = texts.index(decl.same_figure_header)
+    out: dict[tuple, Any] = {}
+
+    def keep(row: int, cells: dict[int, tuple[Any, bool]]) -> bool:
+        value, formula = cells.get(col, (None, False))
+        parts = tuple(cells.get(keys[k], (None, False))[0] for k in decl.keys)
+        if row > header_at and not formula and not is_blank(value) and not all(is_blank(p) for p in parts):
+            out[parts] = value
+        return last is not None and row >= last
+    book.stream(sheet, keep, {col, *keys.values()})
+    return out
 
 
 def _first_typed(book: SavedBook) -> dict[tuple[str, str, str], Any]:
@@ -454,6 +548,10 @@ def apply_edits(edits: Edits, inputs_tables: Any, settings: Settings) -> CarryRe
     for label, why in edits.lost:
         unmatched.append(CarryRecord(label, "(the whole column)", "", None, why))
     notes, own = carry_notes(edits, tables, fold, carried, unmatched)
+    for copied in edits.copied:  # typed on a copy of the sheet: listed, never carried
+        unmatched += [CarryRecord(copied.copy, _key_text(_parts(key)), copied.what, value,
+                                  f"typed on a copy of {copied.original}, not read; type it on {copied.original}")
+                      for key, value in copied.differ.items()]
     def dated(records: list[CarryRecord]) -> list[CarryRecord]:
         return [replace(r, first_typed=edits.first_typed.get((r.sheet, r.key, r.column), edits.built_on))
                 for r in records]

@@ -31,7 +31,7 @@ import zlib
 from dataclasses import dataclass, field
 from itertools import chain
 from pathlib import Path
-from typing import Any
+from typing import Any, Callable
 from xml.parsers import expat
 from xml.sax.saxutils import quoteattr
 
@@ -246,10 +246,31 @@ class OdsFile:
             DamagedSheet: the sheet's XML is not well-formed or a cell cannot be read.
             UnsafeWorkbook: its repeats would make far more cells than it writes.
         """
+        return padded_rows(self._cells(sheet, columns, formulas, no_saved_value).found)
+
+    def stream(self, sheet: str, on_row: Callable[[int, dict[int, tuple[Any, bool]]], bool | None],
+               columns: set[int] | None = None, no_saved_value: Any = None) -> None:
+        """Hand each row of sheet to on_row, as the .xlsx reader does: (0-based row, {column: (value, holds a
+        formula)}), a formula cell as (None, True); on_row returns True to stop. The sheet is read whole first
+        (an .ods is read by rows of values; its rows are handed over from them).
+
+        Raises:
+            DamagedSheet, UnsafeWorkbook: as :meth:`read`.
+        """
+        wanted = None if columns is None else frozenset(columns)
+        cells = self._cells(sheet, wanted, True, no_saved_value, with_formulas=True)
+        for r in sorted(cells.found):
+            if on_row(r, dict(cells.found[r])):
+                return
+
+    def _cells(self, sheet: str, columns: frozenset[int] | None, formulas: bool, no_saved_value: Any,
+               with_formulas: bool = False) -> "_Cells":
+        """The handlers after one read of sheet (their rows found)."""
         span = self._spans[sheet]
+        cells = _Cells(columns, formulas, no_saved_value, guard.MAX_REPEATED_CELLS + span.end - span.start, sheet,
+                       with_formulas)
         if span.empty or span.end <= span.start:
-            return []
-        cells = _Cells(columns, formulas, no_saved_value, guard.MAX_REPEATED_CELLS + span.end - span.start, sheet)
+            return cells
         parser = expat.ParserCreate(namespace_separator="}")
         parser.buffer_text = True
         parser.StartElementHandler, parser.EndElementHandler = cells.start, cells.end
@@ -262,7 +283,7 @@ class OdsFile:
         if tag is None:
             raise DamagedSheet(f"the sheet '{sheet}' cannot be found again in {CONTENT}")
         _parse(parser, chain((f"<sheet {declared}>".encode(), first), body, (b"</" + tag.group(1) + b"></sheet>",)))
-        return padded_rows(cells.found)
+        return cells
 
     def close(self) -> None:
         """Let go of the sheets kept (the file itself was closed once read)."""
@@ -320,8 +341,10 @@ _VALUE_TYPE, _STRING_VALUE, _EXTENDED_TYPE = OFFICE + "value-type", OFFICE + "st
 class _Cells:
     """The expat handlers of one sheet's read: the rows kept, the cell and paragraph being read."""
 
-    def __init__(self, columns: frozenset[int] | None, formulas: bool, no_saved_value: Any, budget: int, sheet: str):
+    def __init__(self, columns: frozenset[int] | None, formulas: bool, no_saved_value: Any, budget: int, sheet: str,
+                 with_formulas: bool = False):
         self.columns, self.formulas, self.no_saved_value = columns, formulas, no_saved_value
+        self.with_formulas = with_formulas  # keep (value, holds a formula) pairs, a formula as (None, True)
         self.budget, self.sheet = budget, sheet
         self.found: dict[int, dict[int, Any]] = {}
         self.row = 0          # the row the next table:table-row is
@@ -419,6 +442,8 @@ class _Cells:
         first = self.col
         self.col += cell.repeat
         held, value = self._value(cell)
+        if self.with_formulas:
+            held, value = held or cell.formula, (None, True) if cell.formula else (value, False)
         if not held:
             return
         if self.col > MAX_COLUMNS:

@@ -14,7 +14,7 @@ import datetime as dt
 import math
 import zipfile
 from pathlib import Path
-from typing import Any
+from typing import Any, Callable
 
 import pandas as pd
 
@@ -30,6 +30,7 @@ from sheetbuilder.values import is_blank
 from sheetbuilder.weekly.names import Area
 from sheetbuilder.weekly.ods import OdsFile, is_ods
 from sheetbuilder.weekly.sheet_xml import DamagedSheet
+from sheetbuilder.weekly.tabs import Tabs, find_tabs
 from sheetbuilder.weekly.xlsx import XlsxFile, named_area  # noqa: F401 (named_area re-exported for openpyxl workbooks)
 
 
@@ -115,6 +116,7 @@ class SavedBook:
         self.file = open_workbook(self.path)
         self.sheetnames: list[str] = list(self.file.sheetnames)
         self._cache: dict[tuple, list[list[Any]]] = {}
+        self._tabs: Tabs | None = None
 
     def area(self, name: str) -> Area | None:
         """The area a workbook-level defined name covers, or None when it is missing, broken or off-sheet."""
@@ -130,6 +132,49 @@ class SavedBook:
         if key not in self._cache:
             self._cache[key] = self._read(sheet, columns, formulas) if sheet in self.sheetnames else []
         return self._cache[key]
+
+    def stream(self, sheet: str, on_row: Callable[[int, dict[int, tuple[Any, bool]]], bool | None],
+               columns: set[int] | None = None) -> None:
+        """Hand each row of sheet to on_row as it is read, holding one row at a time (see
+        :func:`sheetbuilder.weekly.sheet_xml.stream_cells`: (0-based row, {column: (value, holds a formula)}),
+        only columns when given; on_row returns True to stop). Nothing when the sheet is absent."""
+        if sheet in self.sheetnames:
+            try:  # a damaged sheet is refused whole, as a read refuses it
+                self.file.stream(sheet, on_row, columns, NO_SAVED_VALUE)
+            except DamagedSheet as exc:
+                raise NotAWorkbook(f"{self.path} is not a workbook that can be read: its sheet '{sheet}' is damaged "
+                                   f"({exc}); open it in a spreadsheet program and save it again") from None
+
+    def head(self, sheet: str, n: int) -> list[list[Any]]:
+        """The first n rows of sheet (values, padded to one width), reading no further."""
+        if (sheet, None, False) in self._cache:
+            return self._cache[(sheet, None, False)][:n]
+        found: dict[int, dict[int, Any]] = {}
+
+        def keep(row: int, cells: dict[int, tuple[Any, bool]]) -> bool:
+            if row < n:
+                found[row] = {c: v for c, (v, _) in cells.items()}
+            return row >= n - 1
+        self.stream(sheet, keep)
+        width = 1 + max((c for cells in found.values() for c in cells), default=-1)
+        return [[found.get(r, {}).get(c) for c in range(width)] for r in range(max(found, default=-1) + 1)]
+
+    def sheet(self, built: str) -> str | None:
+        """The sheet that holds what the build wrote on the sheet called built, whatever it is called now
+        (:mod:`sheetbuilder.weekly.tabs`: by our defined names, else its own name, else its header); None if gone."""
+        return self.tabs.found.get(built)
+
+    def _name_sheet(self, name: str) -> str | None:
+        """The sheet a workbook-level defined name points at (any area), or None."""
+        area = self.file.area(name)
+        return area.sheet if area else None
+
+    @property
+    def tabs(self) -> Tabs:
+        """Where each of our sheets is now, and the copies of our typed tables (found once)."""
+        if self._tabs is None:
+            self._tabs = find_tabs(list(self.sheetnames), self._name_sheet, self.head)
+        return self._tabs
 
     def _read(self, sheet: str, columns: frozenset[int] | None, formulas: bool) -> list[list[Any]]:
         try:  # a truncated or damaged sheet is refused whole, never read in part
@@ -171,9 +216,9 @@ def saved_inputs(book: SavedBook) -> tuple[dict[str, Any], list]:
     tables: dict[str, Any] = {}
     problems: list = []
     for rule in c.TABLES:
-        sheet = sheet_name(rule.name)
-        rows = book.rows(sheet)
-        if sheet not in book.sheetnames or not rows:
+        sheet = book.sheet(sheet_name(rule.name))  # its tab may have been renamed
+        rows = book.rows(sheet) if sheet is not None else []
+        if not rows:
             tables[rule.name] = None
             continue
         header = ["" if v is None else str(v) for v in rows[0]]
@@ -276,8 +321,8 @@ def _history_value(key: str, v: Any) -> Any:
 def read_history(book: SavedBook) -> tuple[list[dict], list[Problem]]:
     """The History rows of an opened previous workbook (none when it has no History sheet), and problems."""
     area = book.area(HISTORY_NAME)
-    sheet = area.sheet if area else HISTORY_SHEET
-    if sheet not in book.sheetnames:
+    sheet = area.sheet if area else book.sheet(HISTORY_SHEET)
+    if sheet is None:
         return [], []
     rows = book.rows(sheet)
     first = area.first_row if area else HISTORY_HEADER_ROW + 1

@@ -26,6 +26,10 @@ class DamagedSheet(ValueError):
     """The part is not well-formed XML, or a cell reference cannot be read."""
 
 
+class _Stop(Exception):
+    """A row handler asked to read no further."""
+
+
 def column_index(letters: str) -> int:
     """0-based column of 'A', 'AB' ..."""
     n = 0
@@ -240,6 +244,12 @@ def read_cells(handle: IO[bytes], reader: CellReader, columns: frozenset[int] | 
         DamagedSheet: the part is not well-formed XML or a reference cannot be read.
     """
     sheet = _SheetParser(reader, columns, formulas)
+    _parse(handle, sheet)
+    return padded_rows(sheet.found)
+
+
+def _parse(handle: IO[bytes], sheet: _SheetParser) -> None:
+    """Run expat over the part with the sheet's handlers, chunk by chunk (a handler's _Stop ends it early)."""
     parser = expat.ParserCreate(namespace_separator="}")
     parser.buffer_text = True
     parser.StartElementHandler, parser.EndElementHandler, parser.CharacterDataHandler = sheet.start, sheet.end, sheet.text
@@ -247,8 +257,49 @@ def read_cells(handle: IO[bytes], reader: CellReader, columns: frozenset[int] | 
         while chunk := handle.read(CHUNK):
             parser.Parse(chunk, False)
         parser.Parse(b"", True)
+    except _Stop:
+        return
     except expat.ExpatError as exc:
         raise DamagedSheet(str(exc)) from None
     except (ValueError, OverflowError) as exc:
         raise DamagedSheet(str(exc)) from None
-    return padded_rows(sheet.found)
+
+
+class _RowStream(_SheetParser):
+    """The expat handlers of a streamed read: each row handed over as it ends, then forgotten."""
+
+    def __init__(self, reader: CellReader, columns: set[int] | frozenset[int] | None,
+                 on_row: Callable[[int, dict[int, tuple[Any, bool]]], bool | None]):
+        super().__init__(reader, columns, False)
+        self.on_row = on_row
+        self.cells: dict[int, tuple[Any, bool]] = {}
+
+    def end(self, name: str) -> None:
+        code = self.tags.get(name) or self.tag(name)
+        if code == _ROW:
+            if self.cells:
+                cells, self.cells = self.cells, {}
+                if self.on_row(self.row, cells):
+                    raise _Stop
+            return
+        cell = self.cell
+        if code == _C and cell.wanted:  # a formula's saved value is not read: only its presence is asked for
+            self.cells[cell.col] = (None, True) if cell.formula else (self.reader.value(cell, False), False)
+            self.cell = _UNWANTED
+        elif cell.wanted:
+            super().end(name)
+
+
+def stream_cells(handle: IO[bytes], reader: CellReader,
+                 on_row: Callable[[int, dict[int, tuple[Any, bool]]], bool | None],
+                 columns: set[int] | frozenset[int] | None = None) -> None:
+    """Hand each row of a worksheet part to on_row as it is read: (0-based row, {column: (value, holds a formula)}).
+
+    Only the cells of columns are read when given (a set on_row may change between rows); rows
+    without such cells are not handed over. A formula cell reads as (None, True), its saved value unread.
+    on_row returns True to stop reading. Memory holds one row at a time.
+
+    Raises:
+        DamagedSheet: the part is not well-formed XML or a reference cannot be read.
+    """
+    _parse(handle, _RowStream(reader, columns, on_row))

@@ -6,12 +6,12 @@ sheet's cells are read by :mod:`sheetbuilder.weekly.sheet_xml` from openpyxl's o
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Any
+from typing import Any, Callable
 
 from openpyxl.utils.datetime import from_excel
 
 from sheetbuilder.weekly.names import Area, a1_area
-from sheetbuilder.weekly.sheet_xml import CellReader, read_cells
+from sheetbuilder.weekly.sheet_xml import CellReader, read_cells, stream_cells
 
 
 def named_area(wb: Any, name: str) -> Area | None:
@@ -61,11 +61,24 @@ class XlsxFile:
         Raises:
             DamagedSheet: the sheet's XML is not well-formed or a cell cannot be read.
         """
+        return self._parse(sheet, no_saved_value, lambda fh, reader: read_cells(fh, reader, columns, formulas))
+
+    def stream(self, sheet: str, on_row: Callable[[int, dict[int, tuple[Any, bool]]], bool | None],
+               columns: set[int] | None = None, no_saved_value: Any = None) -> None:
+        """Hand each row of sheet to on_row as it is read (:func:`sheetbuilder.weekly.sheet_xml.stream_cells`).
+
+        Raises:
+            DamagedSheet: the sheet's XML is not well-formed or a cell cannot be read.
+        """
+        self._parse(sheet, no_saved_value, lambda fh, reader: stream_cells(fh, reader, on_row, columns))
+
+    def _parse(self, sheet: str, no_saved_value: Any, parse: Callable[[Any, CellReader], Any]) -> Any:
+        """parse(handle on the sheet's part, its CellReader)."""
         ws = self.wb[sheet]
         reader = CellReader(ws._shared_strings, self.wb._date_formats, lambda n: from_excel(n, self.wb.epoch),
                             no_saved_value)
         with self.wb._archive.open(ws._worksheet_path) as fh:  # openpyxl's own handle on the file
-            return read_cells(fh, reader, columns, formulas)
+            return parse(fh, reader)
 
     def close(self) -> None:
         """Close the file."""
