@@ -26,6 +26,7 @@ import datetime as dt
 import math
 import re
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Any
 
 import pandas as pd
@@ -58,10 +59,11 @@ SUMMED = len(METRICS) - 1  # the figures two rows of one keyword add up (all but
 BIDS = entry_for("Bids")   # history rows are compared as Bids compares its rows
 
 
-def history_key(parts: tuple, exported: bool = True) -> Key:
-    """The compared key of a keyword's four key values, as Bids compares its rows (trimmed; 12.0 as '12').
+@lru_cache(maxsize=1 << 16)  # the same keywords come back every week: a history of many weeks looks each up once
+def history_key(parts: tuple[str, ...], exported: bool = True) -> Key:
+    """The compared key of a keyword's four key texts, as Bids compares its rows (trimmed).
 
-    exported: the values as an export gives them (else as a saved workbook gives them back).
+    exported: the texts as an export gives them (else as a saved workbook gives them back).
     """
     return (BIDS.export_key if exported else BIDS.key_of)(parts, False)
 
