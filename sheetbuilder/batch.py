@@ -27,7 +27,8 @@ from sheetbuilder.pipeline import build, write_atomically
 from sheetbuilder.sheets.overview import REFUSED, AccountSummary, attention_order, plan_overview, problem_text, \
     refused, summarise
 
-PREVIOUS_FILE = "previous.xlsx"   # last week's workbook, when kept inside the account's folder
+PREVIOUS_STEM = "previous"        # last week's workbook, when kept inside the account's folder
+SAVED_SUFFIXES = (".xlsx", ".ods")  # last week's workbook as built, or saved as OpenDocument
 OVERVIEW_FILE = "overview.xlsx"
 # Linux: workers forked from this process start with its modules imported (a spawned worker imports
 # them again, about a second each). The parent must hold no other thread when the pool starts: the
@@ -98,8 +99,18 @@ def build_account(task: Task) -> AccountSummary:
 
 
 def _is_previous_note(problem, task: Task) -> bool:
-    """The build's note that previous.xlsx in the folder was not read as an export: expected in a batch."""
+    """The build's note that previous.xlsx (.ods) in the folder was not read as an export: expected in a batch."""
     return task.previous is not None and task.previous.parent == task.folder and problem.file == task.previous.name
+
+
+COUNTED = {2: "two", 3: "three", 4: "four"}
+
+
+def previous_workbooks(folder: Path, previous_dir: Path | None) -> list[Path]:
+    """The files that could be an account's last week's workbook: its previous.xlsx or .ods, and previous_dir's
+    ACCOUNT.xlsx or ACCOUNT.ods (more than one is refused by the caller)."""
+    places = [folder / PREVIOUS_STEM] + ([Path(previous_dir) / folder.name] if previous_dir is not None else [])
+    return [p for p in (place.with_name(place.name + s) for place in places for s in SAVED_SUFFIXES) if p.is_file()]
 
 
 def plan_tasks(folders: Iterable[Path], out: Path, force: bool, previous_dir: Path | None,
@@ -112,11 +123,12 @@ def plan_tasks(folders: Iterable[Path], out: Path, force: bool, previous_dir: Pa
             refusals.append(refused(name, f"an account folder named {name} would overwrite the overview "
                                           f"{OVERVIEW_FILE}; rename the folder"))
             continue
-        inside = folder / PREVIOUS_FILE
-        given = Path(previous_dir) / f"{name}.xlsx" if previous_dir is not None else None
-        found = [p for p in (inside, given) if p is not None and p.is_file()]
-        if len(found) == 2:
-            refusals.append(refused(name, f"two previous workbooks, {found[0]} and {found[1]}; keep one"))
+        found = previous_workbooks(folder, previous_dir)
+        if len(found) > 1:
+            listed = ", ".join(str(p) for p in found[:-1]) + f" and {found[-1]}"
+            refusals.append(refused(name, f"{COUNTED.get(len(found), len(found))} previous workbooks, {listed}; "
+                                          "keep the one edited last and move the others away, so that no edit "
+                                          "is carried from the wrong one"))
             continue
         tasks.append(Task(name, folder, Path(out) / f"{name}.xlsx", found[0] if found else None, force, built_on))
     return tasks, refusals
@@ -212,7 +224,8 @@ def run_batch(accounts: Path, out: Path, jobs: int | None = None, force: bool = 
         out: the folder to write ACCOUNT.xlsx and overview.xlsx in (made when missing).
         jobs: accounts built at once (default: the machine's cores).
         force: overwrite existing workbooks and the overview.
-        previous_dir: last week's workbooks, named ACCOUNT.xlsx (an account's own previous.xlsx is used too).
+        previous_dir: last week's workbooks, named ACCOUNT.xlsx or ACCOUNT.ods (an account's own previous.xlsx
+            or previous.ods is used too; two for one account refuse it).
         built_on: the build date; today when None.
         progress: optional callback(summary, accounts done, accounts in all).
 

@@ -304,15 +304,17 @@ def parser() -> argparse.ArgumentParser:
                                     "account, refused accounts first, then those with a blank net profit after "
                                     "ads, then by net profit after ads, lowest first. A refused account gets no "
                                     "workbook and its first problem on the overview; it never stops the others. "
-                                    "Last week's workbook of an account is its previous.xlsx or --previous-dir's "
-                                    "ACCOUNT.xlsx. Exit codes: 0 every account "
+                                    "Last week's workbook of an account is its previous.xlsx (or .ods) or "
+                                    "--previous-dir's ACCOUNT.xlsx (or .ods); an account with two is refused. "
+                                    "Exit codes: 0 every account "
                                     "built; 3 some refused (the others are written); 1 nothing built (no account "
                                     "folders, overview exists without --force); 4 the system refused the "
                                     "overview; 130 interrupted.")
     ba.add_argument("accounts", type=Path, help="the folder holding one folder of exports per account")
     ba.add_argument("-o", "--output", type=Path, required=True, help="the folder to write the workbooks in")
     ba.add_argument("--previous-dir", type=Path, default=None, metavar="DIR",
-                    help="last week's workbooks, named ACCOUNT.xlsx (last week's OUT): carried as with --previous")
+                    help="last week's workbooks, named ACCOUNT.xlsx or ACCOUNT.ods (last week's OUT): carried as "
+                         "with --previous")
     ba.add_argument("--jobs", type=_jobs, default=None, metavar="N",
                     help="accounts built at once (default: the machine's cores)")
     ba.add_argument("--force", action="store_true", help="overwrite existing workbooks and the overview")

@@ -258,3 +258,38 @@ def test_output_inside_the_accounts_folder_is_refused_before_building(tmp_path, 
     assert 1 == main(["batch", str(accounts), "-o", str(accounts / "north" / "out")])
     assert "inside the accounts folder" in capsys.readouterr().err
     assert not (accounts / "north" / "out").exists()
+
+
+def _plan(accounts: Path, previous_dir: Path | None):
+    """({account: its last week's workbook}, {refused account: its message}) as the batch plans them."""
+    tasks, refusals = batch.plan_tasks(batch.account_folders(accounts), accounts.parent / "out", False,
+                                       previous_dir, dt.date(2026, 12, 5))
+    return {t.account: t.previous for t in tasks}, {r.account: r.message for r in refusals}
+
+
+def test_previous_dir_takes_last_weeks_workbook_saved_as_ods_and_previous_ods_in_the_folder(tmp_path):
+    accounts, last = tmp_path / "accounts", tmp_path / "week1"
+    for name in ("north", "south", "east"):
+        (accounts / name).mkdir(parents=True)
+    last.mkdir()
+    (last / "north.ods").write_bytes(b"ods")
+    (last / "east.xlsx").write_bytes(b"xlsx")
+    (accounts / "south" / "previous.ods").write_bytes(b"ods")
+    assert ({"north": last / "north.ods", "south": accounts / "south" / "previous.ods", "east": last / "east.xlsx"},
+            {}) == _plan(accounts, last)
+
+
+def test_an_account_with_its_workbook_saved_as_both_xlsx_and_ods_is_refused_naming_both(tmp_path):
+    accounts, last = tmp_path / "accounts", tmp_path / "week1"
+    (accounts / "north").mkdir(parents=True)
+    (accounts / "south").mkdir()
+    last.mkdir()
+    (last / "north.xlsx").write_bytes(b"xlsx")
+    (last / "north.ods").write_bytes(b"ods")
+    (accounts / "south" / "previous.xlsx").write_bytes(b"xlsx")
+    (accounts / "south" / "previous.ods").write_bytes(b"ods")
+    tasks, refusals = _plan(accounts, last)
+    assert ({}, ["north", "south"]) == (tasks, sorted(refusals))
+    assert (f"two previous workbooks, {last / 'north.xlsx'} and {last / 'north.ods'}; keep the one edited last"
+            == refusals["north"].split(" and move")[0])
+    assert f"{accounts / 'south' / 'previous.xlsx'} and {accounts / 'south' / 'previous.ods'}" in refusals["south"]

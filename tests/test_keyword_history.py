@@ -276,3 +276,73 @@ def test_a_previous_workbook_without_the_sheet_is_said_and_the_history_starts_wi
     assert [("without.xlsx", WARNING)] == [(p.file, p.severity) for p in result.warnings
                                            if "holds no Keyword history" in p.message]
     _check(tmp_path / "w2.xlsx", [(_period(dt.date(2026, 11, 15)), week2)])
+
+
+# -- keys compared as Bids compares them (trimmed), shown as the latest export spelled them -------------------------
+
+def test_a_keyword_spelled_with_a_trailing_space_one_week_and_without_the_next_keeps_one_history(tmp_path):
+    week1 = [["C1", "G1", "widget ", "exact", "enabled", "0.45", "100", "10", "3.70", "12.50", "1"]]
+    week2 = [["C1", "G1", "widget", "exact", "enabled", "0.50", "200", "13", "4.81", "25.00", "2"]]
+    build(_week_folder(tmp_path, "w1", week1, dt.date(2026, 11, 8)), tmp_path / "w1.xlsx", built_on=BUILT_ON)
+    build(_week_folder(tmp_path, "w2", week2, dt.date(2026, 11, 15)), tmp_path / "w2.xlsx", built_on=BUILT_ON,
+          previous=tmp_path / "w1.xlsx")
+    got = _history(tmp_path / "w2.xlsx")
+    assert [("C1", "G1", "widget", "exact")] == list(got)  # one row, spelled as the latest export spells it
+    row = got[("C1", "G1", "widget", "exact")]
+    assert (["2026-11-02 to 2026-11-08", "2026-11-09 to 2026-11-15"], 2, ["100", "200"], ["3.7", "4.81"],
+            ["0.45", "0.5"]) == (row["Periods"], row["Weeks"], row["Impressions by week"], row["Spend by week"],
+                                 row["Bid by week"])
+    assert (300, 23, pytest.approx(8.51, abs=1e-9)) == (row["Impressions"], row["Clicks"], row["Spend"])
+    build(_week_folder(tmp_path, "w3", [[" C1", "G1", " widget  ", "exact", "enabled", "0.50", "50", "5", "1.00",
+                                         "0.00", "0"]], dt.date(2026, 11, 22)),
+          tmp_path / "w3.xlsx", built_on=BUILT_ON, previous=tmp_path / "w2.xlsx")
+    got = _history(tmp_path / "w3.xlsx")
+    assert [("C1", "G1", " widget  ", "exact")] == list(got)  # the newest spelling again (campaigns are read trimmed)
+    assert ["100", "200", "50"] == got[("C1", "G1", " widget  ", "exact")]["Impressions by week"]
+
+
+def test_two_rows_of_one_export_that_differ_only_by_surrounding_spaces_are_summed_and_said():
+    import pandas as pd
+    from sheetbuilder.sheets.keyword_weeks import week_of
+    frame = pd.DataFrame({"campaign": ["C1", "C1"], "ad_group": ["G1", "G1"], "target": ["widget", "widget "],
+                          "match_type": ["exact", "exact"], "impressions": [100, 50], "clicks": [10, 5],
+                          "orders": [1, 0], "spend": [3.7, 1.1], "ad_sales": [12.5, 0.0], "bid": [0.45, 0.5],
+                          "_row": [2, 3]})
+    figures, shown, notes = week_of(frame, "targets.csv")
+    key = ("C1", "G1", "widget", "exact")
+    assert ({key: (150.0, 15.0, 1.0, 4.8, 12.5, 0.5)}, {key: ("C1", "G1", "widget ", "exact")}) == (figures, shown)
+    assert [(WARNING, True)] == [(p.severity, "rows 2, 3" in p.message) for p in notes]
+
+
+class _SavedSheet:
+    """A saved workbook holding only a Keyword history sheet, as the reader asks for it (no defined name left)."""
+
+    def __init__(self, rows: list[list]):
+        from sheetbuilder.sheets.keyword_weeks import HEADERS
+        self.path, self.sheetnames = Path("last week.xlsx"), ["Keyword history"]
+        self._rows = [[None] * len(HEADERS)] * 3 + [list(HEADERS)] + rows
+
+    def area(self, name):
+        return None
+
+    def rows(self, sheet, columns=None):
+        return self._rows
+
+
+def _saved_row(target: str, period: str, impressions: str) -> list:
+    return ["C1", "G1", target, "exact", 1, float(impressions), 1, 0, 0.5, 0.0, period, impressions, "1", "0",
+            "0.5", "0", "0.4"]
+
+
+def test_rows_an_earlier_build_split_by_surrounding_spaces_are_read_back_as_one_keyword():
+    from sheetbuilder.weekly.keyword_weeks import read_keyword_history
+    first, second = _period(dt.date(2026, 11, 8)), _period(dt.date(2026, 11, 15))
+    history, problems = read_keyword_history(_SavedSheet([_saved_row("widget", "2026-11-09 to 2026-11-15", "200"),
+                                                          _saved_row("widget ", "2026-11-02 to 2026-11-08", "100")]))
+    key = ("C1", "G1", "widget", "exact")
+    assert ([], [key], {first: 100.0, second: 200.0}) == (
+        problems, list(history.weeks), {p: w[0] for p, w in history.weeks[key].items()})
+    assert ("C1", "G1", "widget", "exact") == history.shown[key]  # the spelling of the row with the newest week
+    _, problems = read_keyword_history(_SavedSheet([_saved_row("widget", "2026-11-09 to 2026-11-15", "200"),
+                                                    _saved_row(" widget", "2026-11-09 to 2026-11-15", "100")]))
+    assert [(ERROR, 6)] == [(p.severity, p.row) for p in problems]  # the same week twice: which is right is unknown

@@ -341,6 +341,14 @@ def test_saving_as_ods_keeps_changes_and_carries_every_typed_value(hands, work):
     typed = sorted(repr(v) for _, _, v in TYPED_BY_HAND if v not in ODD_TEXT)
     assert typed == sorted(repr(r.value) for r in by_ods.carried)
     assert sorted(ODD_TEXT) == sorted(r.value for r in by_ods.unmatched)
+@pytest.mark.libreoffice
+@pytest.mark.slow
+def test_our_workbook_saved_as_ods_by_libreoffice_is_recognised_among_exports(hands, demo_build):
+    from sheetbuilder.reading.ours import built_by_us
+    built = built_by_us(demo_build.output)  # the .xlsx as built: its dcterms:created, kept by LibreOffice's save
+    assert (10, built) == (len(built), built_by_us(hands["saving_as_ods"]))
+
+
 # Notes typed on four sheets and a column of one's own right of Bids' Notes, then Bids sorted with it: each sheet's
 # first header and key headers, and the texts typed (formula-like text and spaces must come back as typed).
 NOTED = {"Profit": ("Product ID", ("Product ID",)), "Bids": ("Campaign", ("Campaign", "Ad group", "Target", "Match type")),

@@ -1,7 +1,7 @@
 """The Keyword history sheet: each keyword's and product target's results, week by week, carried by ``--previous``.
 
 One row per keyword or product target (its keys as Bids keys them: campaign, ad group, target,
-match type), holding every recorded week of it, oldest first, packed into text cells: the
+match type, compared as Bids compares them, trimmed, and shown as the latest export spelled them), holding every recorded week of it, oldest first, packed into text cells: the
 periods, then impressions, clicks, orders, spend, ad sales and the bid in force, one item per
 week separated by ``; `` (a week whose export gave no bid shows an empty item). Plain values,
 records of what happened (as the History sheet), so they cost no recalculation; the totals over
@@ -26,12 +26,14 @@ import datetime as dt
 import math
 import re
 from dataclasses import dataclass, field
+from functools import lru_cache
 from typing import Any
 
 import pandas as pd
 
 from sheetbuilder.errors import ERROR, WARNING, Problem
 from sheetbuilder.reading.periods import Period
+from sheetbuilder.sheets.typed import entry_for
 from sheetbuilder.workbook.formula import col_letter, quote_sheet
 from sheetbuilder.workbook.spec import DATA, Cell, Column, Sheet, Table
 
@@ -53,6 +55,17 @@ _PERIOD = re.compile(r"(\d{4}-\d{2}-\d{2}) to (\d{4}-\d{2}-\d{2})")
 
 Key = tuple[str, str, str, str]
 Week = tuple[float, float, float, float, float, float]  # METRICS, in order (bid NaN when none)
+SUMMED = len(METRICS) - 1  # the figures two rows of one keyword add up (all but the bid)
+BIDS = entry_for("Bids")   # history rows are compared as Bids compares its rows
+
+
+@lru_cache(maxsize=1 << 16)  # the same keywords come back every week: a history of many weeks looks each up once
+def history_key(parts: tuple[str, ...], exported: bool = True) -> Key:
+    """The compared key of a keyword's four key texts, as Bids compares its rows (trimmed).
+
+    exported: the texts as an export gives them (else as a saved workbook gives them back).
+    """
+    return (BIDS.export_key if exported else BIDS.key_of)(parts, False)
 
 
 @dataclass
@@ -61,6 +74,7 @@ class KeywordHistory:
 
     weeks: dict[Key, dict[Period, Week]] = field(default_factory=dict)
     recorded: set[Period] = field(default_factory=set)
+    shown: dict[Key, Key] = field(default_factory=dict)  # {compared key: as the latest week spelled it} (else itself)
 
     def __post_init__(self) -> None:
         if not self.recorded:
@@ -75,18 +89,42 @@ class KeywordHistory:
         return sum(len(v) for v in self.weeks.values())
 
 
-def week_of(frame: pd.DataFrame) -> dict[Key, Week]:
-    """One week's figures per keyword and product target from a targets export (one row per key), every row kept."""
+def week_of(frame: pd.DataFrame, source: str) -> tuple[dict[Key, Week], dict[Key, Key], list[Problem]]:
+    """One week's figures per keyword and product target from a targets export, every row kept.
+
+    Returns:
+        ({compared key: figures}, {compared key: its key as the export spells it}, notes): rows whose keys
+        differ only as Bids does not tell them apart (surrounding spaces) are one keyword: their figures are
+        summed, the last row's bid and spelling kept, and a warning says so.
+    """
     out: dict[Key, Week] = {}
+    shown: dict[Key, Key] = {}
+    first: dict[Key, Any] = {}
+    merged: dict[Key, list[Any]] = {}
+    rows = frame["_row"].tolist() if "_row" in frame else ["?"] * len(frame)
     columns = [frame[c].tolist() for c in ("campaign", "ad_group", "target", "match_type", *METRICS)]
-    for campaign, ad_group, target, match, *figures in zip(*columns):
-        out[(str(campaign), str(ad_group), str(target), str(match))] = tuple(
-            math.nan if v is None or pd.isna(v) else float(v) for v in figures)
-    return out
+    for row, campaign, ad_group, target, match, *figures in zip(rows, *columns):
+        spelled = (str(campaign), str(ad_group), str(target), str(match))
+        key = history_key(spelled)
+        week = tuple(math.nan if v is None or pd.isna(v) else float(v) for v in figures)
+        if key in out:
+            merged.setdefault(key, [first[key]]).append(row)
+            week = tuple(round(math.fsum(f for f in (a, b) if f == f), 9) if i < SUMMED else b
+                         for i, (a, b) in enumerate(zip(out[key], week)))
+        else:
+            first[key] = row
+        out[key], shown[key] = week, spelled
+    notes = [Problem(source, None, None,
+                     f"rows {', '.join(map(str, rows))} read as the keyword {' / '.join(key)} once surrounding "
+                     "spaces are trimmed "
+                     "(as Bids compares keywords): the keyword history sums their figures and keeps the last row's "
+                     "bid and spelling. Keep one row per keyword if they are not the same", WARNING)
+             for key, rows in merged.items()]
+    return out, shown, notes
 
 
-def add_week(history: KeywordHistory, period: Period, week: dict[Key, Week], source: str, severity: str = ERROR
-             ) -> tuple[KeywordHistory, list[Problem]]:
+def add_week(history: KeywordHistory, period: Period, week: dict[Key, Week], source: str, severity: str = ERROR,
+             shown: dict[Key, Key] | None = None) -> tuple[KeywordHistory, list[Problem]]:
     """history with one week added by the rule of the module docstring, and the problems (a refusal or a note).
 
     Args:
@@ -95,6 +133,7 @@ def add_week(history: KeywordHistory, period: Period, week: dict[Key, Week], sou
         week: its figures per keyword and product target.
         source: where the week was read (a file, or "this week's exports"), for the messages.
         severity: the refusal's severity (ERROR for a past export given with --history; the caller decides).
+        shown: {compared key: as this week spells it}; a keyword's spelling follows its newest week.
     """
     clash = [p for p in history.periods() if p != period and p.overlap(period)]
     if clash:
@@ -113,7 +152,10 @@ def add_week(history: KeywordHistory, period: Period, week: dict[Key, Week], sou
         notes.append(Problem(source, None, None, f"covers {period}, a week already in the keyword history: its rows "
                                                   "replace that week's", WARNING))
     for key, figures in week.items():
-        weeks.setdefault(key, {})[period] = figures
+        by_period = weeks.setdefault(key, {})
+        by_period[period] = figures
+        if shown and key in shown and period.end >= max(p.end for p in by_period):
+            history.shown[key] = shown[key]
     history.recorded.add(period)
     return history, notes
 
@@ -129,7 +171,8 @@ def keep_recent(history: KeywordHistory, weeks: int) -> tuple[KeywordHistory, li
         return history, []
     gone = set(dropped)
     kept = {k: {p: w for p, w in v.items() if p not in gone} for k, v in history.weeks.items()}
-    return KeywordHistory({k: v for k, v in kept.items() if v}, history.recorded - gone), dropped
+    return KeywordHistory({k: v for k, v in kept.items() if v}, history.recorded - gone,
+                          {k: v for k, v in history.shown.items() if kept.get(k)}), dropped
 
 
 def number_text(value: float) -> str:
@@ -168,10 +211,11 @@ def packed_rows(history: KeywordHistory) -> list[dict[str, Any]]:
     order = {p: i for i, p in enumerate(history.periods())}
     texts = {p: period_text(p) for p in order}
     out = []
-    for key in sorted(history.weeks):
+    shown = history.shown
+    for key in sorted(history.weeks, key=lambda k: (shown.get(k, k), k)):
         by_period = history.weeks[key]
         periods = sorted(by_period, key=order.__getitem__)
-        row: dict[str, Any] = dict(zip((k for k, _, _ in KEYS), key))
+        row: dict[str, Any] = dict(zip((k for k, _, _ in KEYS), shown.get(key, key)))
         row["weeks"] = float(len(periods))
         row["periods"] = SEPARATOR.join([texts[p] for p in periods])
         figures = [by_period[p] for p in periods]

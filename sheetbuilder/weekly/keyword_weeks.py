@@ -19,7 +19,8 @@ from sheetbuilder.errors import ERROR, WARNING, Problem
 from sheetbuilder.reading.periods import Period
 from sheetbuilder.reading.settings import Settings
 from sheetbuilder.sheets.keyword_weeks import (HEADER_ROW, HEADERS, KEYS, METRICS, NAME, PACKED, SEPARATOR, SHEET,
-                                               KeywordHistory, add_week, keep_recent, read_period, week_of)
+                                               KeywordHistory, add_week, history_key, keep_recent, read_period,
+                                               week_of)
 from sheetbuilder.values import is_blank
 from sheetbuilder.weekly.saved import SavedBook
 
@@ -122,12 +123,17 @@ def read_keyword_history(book: SavedBook) -> tuple[KeywordHistory | None, list[P
                                     "the row's weeks (one item per period, separated by ';'); restore the cell from "
                                     "an earlier workbook, or delete the row to drop that keyword's history", ERROR))
             continue
-        key = tuple(_key_text(v) for v in values[:len(KEYS)])
-        if key in history.weeks:
+        spelled = tuple(_key_text(v) for v in values[:len(KEYS)])
+        key = history_key(spelled, exported=False)
+        earlier = history.weeks.get(key, {})
+        if earlier.keys() & weeks.keys():  # rows split by spacing (an earlier build) join when their weeks differ
             problems.append(Problem(book.path.name, r + 1, KEYS[2][1],
-                                    f"the {SHEET} sheet lists {' / '.join(key)} on more than one row; keep one", ERROR))
+                                    f"the {SHEET} sheet lists {' / '.join(key)} on more than one row (keys compared "
+                                    "with surrounding spaces trimmed) with the same week; keep one", ERROR))
             continue
-        history.weeks[key] = weeks
+        if not earlier or max(p.end for p in weeks) > max(p.end for p in earlier):
+            history.shown[key] = spelled
+        history.weeks[key] = {**earlier, **weeks}
         history.recorded.update(weeks)
     return history, problems
 
@@ -173,16 +179,18 @@ def joined_history(saved: KeywordHistory | None, past: list[tuple[str, Period, p
             problems.append(Problem(name, None, None, f"covers {past_period}, the same period as {twins[0]}; the "
                                                       "build cannot tell which is right. Keep one of them"))
             continue
-        history, found = add_week(history, past_period, week_of(frame), name, ERROR)
-        problems += found
+        figures, shown, merged = week_of(frame, name)
+        history, found = add_week(history, past_period, figures, name, ERROR, shown)
+        problems += merged + found
     if this_week is not None and period is None:
         problems.append(Problem(THIS_WEEK, None, None, "state no period (no dates in their rows, title or file "
                                                        "name, and no period_end in settings.toml), so this week's "
                                                        "keyword results were not added to the keyword history",
                                 WARNING))
     elif this_week is not None:
-        history, found = add_week(history, period, week_of(this_week), THIS_WEEK, WARNING)
-        problems += found
+        figures, shown, merged = week_of(this_week, THIS_WEEK)
+        history, found = add_week(history, period, figures, THIS_WEEK, WARNING, shown)
+        problems += merged + found
     history, dropped = keep_recent(history, settings.history_weeks)
     if dropped:
         problems.append(Problem(SHEET, None, None, f"dropped {len(dropped)} week(s) from {dropped[0].start} to "
