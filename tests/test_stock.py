@@ -27,7 +27,8 @@ from hypothesis import HealthCheck, given, settings as hsettings
 
 from accounts import accounts, write_account
 from conftest import BUILT_ON, DEMO
-from oracle import profit_oracle
+from bids_io import CHECKED as BIDS_CHECKED, bids_table
+from oracle import bids_oracle, profit_oracle
 from oracle_mix import budget_oracle
 from profit_io import HEADER_ROW as PROFIT_HEADER_ROW, PROFIT_CHECKED, profit_table
 from test_mix_budget import block, find_header
@@ -256,6 +257,11 @@ def test_changing_units_available_moves_direction_budget_and_the_guide(libreoffi
     got.pop("Total", None)
     assert [] == mismatches(products, got, ["Direction", "Current spend", "Proposed spend", "Final spend"], "budget")
     assert products["LF-1021"]["Proposed spend"] == products["LF-1021"]["Current spend"]
+    bids_expected = bids_oracle(tables, settings, expected)
+    bids, _ = bids_table(path)
+    assert [] == mismatches(bids_expected, bids, BIDS_CHECKED, "bids after a stock edit")
+    # LF-1002 restocked: its auto targets that read "low stock: not raised" as built are raised again, live.
+    assert "raise, capped at maximum raise" in {r["Reason"] for r in bids.values() if r["Product ID"] == "LF-1002"}
     count, names = _guide_low(path)
     assert 2 == count
     assert ["LF-1019  Glass Food Storage Set 10pc", "LF-1021  Stainless Spice Rack 20 Jars"] == names
