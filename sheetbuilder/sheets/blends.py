@@ -134,16 +134,16 @@ def blend_columns() -> list[ColumnDef]:
                   blend("w_price", lambda ctx: ctx.account_aov),
                   blend_formula("w_price", "{rng:profit_total.prod_aov}"), width=10),
         zero_order_column(),
-        ColumnDef("p_low", "Low stock", "int",
-                  "1 where any product of the ad group is low on stock (Profit's Days of cover below the minimum): "
-                  "its targets are not raised and its search terms not promoted.",
-                  lambda df, ctx: (block_sums(df, ctx.groups, "low").fillna(0.0) > 0).astype(float),
-                  '=IF({c:gfirst}="",0,IF(%s>0,1,0))' % block_sum("low"), width=8),
         ColumnDef("target_check", "Target check", "label",
                   "Where a product of the ad group has a target ACoS above its break-even ACoS (see Profit).",
                   _target_check, '=IF({c:gfirst}="","",IF(%s>0,IF(cap_target_at_break_even="yes",'
                                  '"target capped at break-even","target above break-even"),""))' % block_sum("above"),
                   width=22),
+        ColumnDef("p_low", "Low stock", "int",
+                  "1 where any product of the ad group is low on stock (Profit's Days of cover below the minimum): "
+                  "its targets are not raised and its search terms not promoted.",
+                  lambda df, ctx: (block_sums(df, ctx.groups, "low").fillna(0.0) > 0).astype(float),
+                  '=IF({c:gfirst}="",0,IF(%s>0,1,0))' % block_sum("low"), width=8),
     ]
 
 

@@ -71,9 +71,6 @@ DEFS: list[ColumnDef] = [
               lambda df, ctx: pd.Series([1.0 if ctx.profit["target_check"].iloc[int(r) - 1] else 0.0
                                          for r in df["prow"]], index=df.index, dtype=float),
               '=IF(INDEX({rng:profit.target_check},%s)<>"",1,0)' % _AT_PROFIT, width=8),
-    ColumnDef("low", "Low stock", "int", "1 where the product is low on stock (Profit's Low stock: Days of cover "
-              "below the minimum on Settings).", _profit_value("low"), "=INDEX({rng:profit.low},%s)" % _AT_PROFIT,
-              width=8),
     _weighted("w_cvr", "Weight x CVR", "prod_cvr", "Blend weight x the product's ad conversion rate (Profit)."),
     _weighted("w_aov", "Weight x order value", "prod_aov", "Blend weight x the product's ad sales per order (Profit)."),
     _weighted("w_price", "Weight x price", "prod_price",
@@ -87,6 +84,9 @@ DEFS: list[ColumnDef] = [
               lambda df, ctx: df["ad_first"], kind=DATA, width=8, hidden=True),
     ColumnDef("ad_last", "Ad last row", "int", "Helper: last of the rows on in_ad_products.",
               lambda df, ctx: df["ad_last"], kind=DATA, width=8, hidden=True),
+    ColumnDef("low", "Low stock", "int", "1 where the product is low on stock (Profit's Low stock: Days of cover "
+              "below the minimum on Settings).", _profit_value("low"), "=INDEX({rng:profit.low},%s)" % _AT_PROFIT,
+              width=8),
 ]
 
 
