@@ -11,7 +11,7 @@ BIDS_HEADERS = ["Campaign", "Ad group", "Target", "Match type", "Product ID", "I
                 "Ad sales", "Orders", "CPC", "CVR", "ACoS", "Target ACoS", "Current bid", "Value bid",
                 "Proposed bid", "Change", "Reason", "Decision", "Final bid"]
 CHECKED = [h for h in BIDS_HEADERS if h != "Decision"] + ["Smoothed CVR", "Smoothed ACoS", "Zero-order clicks",
-                                                          "Product CVR", "Target check"]
+                                                          "Product CVR", "Target check", "Low stock"]
 HEADER_ROW = 4  # 1-based: title, note, blank, header
 
 

@@ -233,6 +233,8 @@ def bids_oracle(tables, settings, profit_rows, decisions=None):
                 reason, moved = "lower to value bid", value
         elif orders == 0:
             reason = "no orders yet: not raised"
+        elif value > bid and any(profit_rows[p]["Low stock"] == 1 for p in products):
+            reason = "low stock: not raised"  # a product of the ad group runs short: no raise, whatever its spend
         elif value > bid:
             if value > raise_to:
                 reason, moved = "raise, capped at maximum raise", raise_to
@@ -271,6 +273,7 @@ def bids_oracle(tables, settings, profit_rows, decisions=None):
             "Target check": "" if not any(profit_rows[p]["Target check"] for p in products) else (
                 "target capped at break-even" if s.cap_target_at_break_even == "yes" else "target above break-even"),
             "Smoothed CVR": s_cvr, "Smoothed ACoS": s_acos, "Zero-order clicks": n, "Product CVR": cvr_p,
+            "Low stock": 1.0 if any(profit_rows[p]["Low stock"] == 1 for p in products) else 0.0,
 
         }
     return out

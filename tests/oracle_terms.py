@@ -116,8 +116,10 @@ def terms_oracle(tables, settings, profit_rows, decisions=None):
         n0 = (math.ceil(math.log(1 - s.zero_order_confidence) / math.log(1 - cvr_p)) if 0 < cvr_p < 1 else BLANK)
         own_exact = top["match_type"] == "exact" and normalise(top["target"], fold) == norm
         spent = m["spend"] >= price_p * s.block_spend_multiple
+        # Stock: any product of the source ad group low on stock (whatever its spend) holds what would be promoted.
+        low = any(profit_rows[p]["Low stock"] == 1 for p in products)
         if m["orders"] >= s.min_promote_orders and not targeted and not own_exact:
-            verdict = "promote"
+            verdict = "low stock" if low else "promote"
         elif m["orders"] > 0:
             verdict = "keep" if targeted or own_exact else "watch"
         elif negated:
@@ -155,6 +157,7 @@ def terms_oracle(tables, settings, profit_rows, decisions=None):
             "ACoS": m["spend"] / m["ad_sales"] if m["ad_sales"] else BLANK,
             "Already targeted": targeted, "Already negated": negated, "Verdict": verdict, "Final": final,
             "Position": pos, "Starting bid": start, "Zero-order clicks": n0, "Product price": price_p,
+            "Low stock": 1.0 if low else 0.0,
             "_dest": dest, "_pid_like": looks_like_product_id(a["term"], s.product_id_pattern),
             "_words": words(a["term"]), "_spent": spent, "_norm": norm, "_live": live(campaign),
             "_new": not targeted and not own_exact and (dest[0], dest[1], norm) not in exact_at,

@@ -36,7 +36,7 @@ _LIST_KEY = ("hidden binary-search key of a live list (its whole part the runnin
 _EXPORT_HELPER = ("hidden export-only position (a value written when building); the Already targeted and Already "
                   "negated columns it finds are compared")
 _BLENDS = ("the ad-group blends table, computed once per ad group; compared through every Bids and Terms row that "
-           "fetches it (Target ACoS, Product CVR, Zero-order clicks, Target check, Product price) or uses it "
+           "fetches it (Target ACoS, Product CVR, Zero-order clicks, Target check, Product price, Low stock) or uses it "
            "(Value bid, Starting bid)")
 _NO_ORACLE = "no independent reference exists for this table yet; only the planner's pandas twin and the engines check it"
 
@@ -52,7 +52,7 @@ UNCOVERED = {
     ("Bids", "Changes key"): _LIST_KEY,
     **{("Terms", h): _EXPORT_HELPER for h in ("Targeted position", "Negated position")},
     **{("Blends", h): _BLENDS for h in ("Target ACoS", "Product CVR", "Product order value", "Product price",
-                                        "Zero-order clicks", "Target check")},
+                                        "Zero-order clicks", "Target check", "Low stock")},
     ("Blends", "Group weight"): _NO_ORACLE,
     **{("Terms", h): _LIST_KEY for h in ("Promoted terms key", "Blocked terms key")},
     **{("Harvest", h): _HELPER for h in ("Value bid", "Terms row")},
@@ -70,6 +70,8 @@ UNCOVERED = {
        for h in ("Kind", "Campaign", "Ad group", "Target or term", "Match type", "Current", "New", "Reason",
                  "Product ID", "Money at stake", "Segment", "Source row")},
     ("Groups", "Above break-even"): _NO_ORACLE,
+    ("Groups", "Low stock"): ("Profit's Low stock fetched per product (Profit's is compared); its ad group's "
+                              "blend is compared through every Bids and Terms row's Low stock"),
     ("Profit", "Catalog row now"): _ROW_NOW, ("Groups", "Profit row now"): _ROW_NOW,
     **{("Keys table 2 (not in Plan.tables)", h): _ROW_NOW for h in ("Negative from term row now",
                                                                   "Blocked term row now")},

@@ -27,7 +27,8 @@ from hypothesis import HealthCheck, given, settings as hsettings
 
 from accounts import accounts, write_account
 from conftest import BUILT_ON, DEMO
-from oracle import profit_oracle
+from bids_io import CHECKED as BIDS_CHECKED, bids_table
+from oracle import bids_oracle, profit_oracle
 from oracle_mix import budget_oracle
 from profit_io import HEADER_ROW as PROFIT_HEADER_ROW, PROFIT_CHECKED, profit_table
 from test_mix_budget import block, find_header
@@ -78,6 +79,58 @@ def test_a_product_with_two_units_left_that_would_grow_reads_low_stock_and_its_s
     assert (500.0, "strong", "grow") == profit["P3"]
     budget = _by_product(plan, "Budget products", ["direction", "spend", "proposed"])
     assert {"P1": ("low stock", 60.0, 60.0), "P2": ("cut", 90.0, 67.5), "P3": ("grow", 30.0, 52.5)} == budget
+
+
+# Bids and Terms (issue 25: a low-stock product is never told to grow). P1 (ad group G1) and P3 (G3) sell alike;
+# each ad group has a keyword worth raising and one worth cutting, and a search term with an order. By hand, with
+# the defaults (target ACoS 30%, k = 20 clicks, maximum raise 20%, maximum cut 30%): "kw good" (40 clicks, CPC
+# 0.50, 8 orders of 20.00) has smoothed CVR (8 + 20 x 1/3) / 60 = 0.244, smoothed ACoS 0.50 / (0.244 x 20) = 0.102,
+# value bid 0.50 x 0.30 / 0.102 = 1.47: a raise, capped at 0.60. "kw poor" (40 clicks, CPC 1.00, 1 order of 10.00)
+# has smoothed CVR (1 + 6.67) / 60 = 0.128, smoothed ACoS 1.00 / (0.128 x 10) = 0.78, value bid 1.00 x 0.30 / 0.78
+# = 0.38 < 1.00 x 0.70: a cut, capped at 0.70.
+TARGETS = """campaign,ad_group,target,match_type,state,bid,impressions,clicks,spend,ad_sales,orders
+C1,G1,kw good,exact,enabled,0.50,900,40,20.00,160.00,8
+C1,G1,kw poor,exact,enabled,1.00,900,40,40.00,10.00,1
+C1,G3,kw good,exact,enabled,0.50,900,40,20.00,160.00,8
+C1,G3,kw poor,exact,enabled,1.00,900,40,40.00,10.00,1
+"""
+SEARCH_TERMS = """campaign,ad_group,target,match_type,search_term,impressions,clicks,spend,ad_sales,orders
+C1,G1,kw poor,exact,kw poor cheap,100,5,5.00,20.00,1
+C1,G3,kw poor,exact,kw poor cheap,100,5,5.00,20.00,1
+"""
+
+
+def _with_targets(folder: Path) -> Path:
+    (folder / "targets.csv").write_text(TARGETS, encoding="utf-8")
+    (folder / "search_terms.csv").write_text(SEARCH_TERMS, encoding="utf-8")
+    return folder
+
+
+def _bids(plan) -> dict:
+    frame = plan.tables["Bids"].frame
+    return {(g, t): (b, p, r) for g, t, b, p, r in zip(frame["ad_group"], frame["target"], frame["bid"],
+                                                     frame["proposed"], frame["reason"])}
+
+
+def test_a_keyword_of_a_low_stock_product_is_not_raised_with_the_reason_and_its_cut_still_applies(tmp_path):
+    without = _bids(_plan(_with_targets(_account(tmp_path / "without", None))))
+    assert (0.50, 0.60, "raise, capped at maximum raise") == without[("G1", "kw good")]
+    plan = _plan(_with_targets(_account(tmp_path / "with", "product_id,units_available\nP1,2\nP2,500\nP3,500\n")))
+    bids = _bids(plan)
+    assert (0.50, 0.50, "low stock: not raised") == bids[("G1", "kw good")]
+    assert (1.00, 0.70, "lower, capped at maximum cut") == bids[("G1", "kw poor")]
+    assert (0.50, 0.60, "raise, capped at maximum raise") == bids[("G3", "kw good")]  # P3 has stock: raised
+    final = plan.tables["Bids"].frame.set_index(["ad_group", "target"])["final"]
+    assert 0.50 == final[("G1", "kw good")]
+
+
+def test_a_search_term_of_a_low_stock_product_is_not_promoted_and_not_on_harvest(tmp_path):
+    plan = _plan(_with_targets(_account(tmp_path, "product_id,units_available\nP1,2\nP2,500\nP3,500\n")))
+    terms = plan.tables["Terms"].frame
+    assert {"G1": ("low stock", "low stock"), "G3": ("promote", "promote")} == {
+        g: (v, f) for g, v, f in zip(terms["ad_group"], terms["verdict"], terms["final"])}
+    harvest = plan.tables["Harvest"].frame
+    assert ["G3"] == [g for g in harvest["ad_group"] if g != ""]  # the list's spare rows are blank
 
 
 def test_no_units_available_with_ad_spend_is_a_loss_and_never_grows(tmp_path):
@@ -204,6 +257,11 @@ def test_changing_units_available_moves_direction_budget_and_the_guide(libreoffi
     got.pop("Total", None)
     assert [] == mismatches(products, got, ["Direction", "Current spend", "Proposed spend", "Final spend"], "budget")
     assert products["LF-1021"]["Proposed spend"] == products["LF-1021"]["Current spend"]
+    bids_expected = bids_oracle(tables, settings, expected)
+    bids, _ = bids_table(path)
+    assert [] == mismatches(bids_expected, bids, BIDS_CHECKED, "bids after a stock edit")
+    # LF-1002 restocked: its auto targets that read "low stock: not raised" as built are raised again, live.
+    assert "raise, capped at maximum raise" in {r["Reason"] for r in bids.values() if r["Product ID"] == "LF-1002"}
     count, names = _guide_low(path)
     assert 2 == count
     assert ["LF-1019  Glass Food Storage Set 10pc", "LF-1021  Stainless Spice Rack 20 Jars"] == names

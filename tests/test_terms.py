@@ -39,7 +39,8 @@ def test_demo_terms_and_lists_cached_values_equal_reference(demo_build):
 
 def test_demo_has_every_verdict_and_finds_targeted_and_negated_terms(demo_build):
     rows, _ = terms_table(demo_build.output)
-    assert {"promote", "block", "watch", "keep"} == {r["Verdict"] for r in rows.values()}
+    # low stock: the demo inventory leaves LF-1002 two units (demo_inputs/inventory.csv), which holds its terms
+    assert {"promote", "block", "watch", "keep", "low stock"} == {r["Verdict"] for r in rows.values()}
     assert any(r["Already targeted"] for r in rows.values())
     assert {"negative phrase, campaign: free", "negative exact, ad group"} <= {r["Already negated"] for r in rows.values()}
 

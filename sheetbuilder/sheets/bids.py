@@ -13,6 +13,8 @@ Method (sources on the Guide):
 - Data guards: no clicks, or fewer than the minimum clicks with no orders, hold; zero
   orders after n = ceil(ln(1 - confidence) / ln(1 - product CVR)) clicks (and at least
   the minimum) cuts by the maximum cut; a row with no orders never rises.
+- Stock: a target whose ad group advertises a product low on stock (Profit's Days of cover
+  below the minimum) is never raised (rule 11, "low stock: not raised"); cuts still apply.
 
 Each target's product values come from its ad group's block of rows on the Groups
 sheet (first and last positions written as data), so the sheet stays linear in rows.
@@ -36,12 +38,12 @@ from sheetbuilder.workbook.spec import DATA, INPUT, Cell, Highlight, Sheet, Tabl
 
 SHEET = "Bids"
 HEADER_ROW = 3
-MOVING_RULES = (2, 6, 7, 9, 10)
+MOVING_RULES = (2, 6, 7, 9, 10)  # rule 11 (low stock) holds the bid
 RAISING_RULES = (6, 9)
 REASONS = {
     1: "no clicks", 2: "no orders after {n} clicks", 3: "not enough data", 4: "no order value yet",
     5: "no orders yet: not raised", 6: "raise to value bid", 7: "lower to value bid", 8: "at value bid",
-    9: "raise, capped at maximum raise", 10: "lower, capped at maximum cut",
+    9: "raise, capped at maximum raise", 10: "lower, capped at maximum cut", 11: "low stock: not raised",
 }
 
 
@@ -82,7 +84,8 @@ def _value_bid(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
 def _rule(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     s = ctx.settings
     out = []
-    for clicks, orders, n, value, bid in zip(df["clicks"], df["orders"], df["n_zero"], df["value_bid"], df["bid"]):
+    for clicks, orders, n, value, bid, low in zip(df["clicks"], df["orders"], df["n_zero"], df["value_bid"], df["bid"],
+                                                  df["p_low"]):
         lower = 10 if not pd.isna(value) and value < bid * (1 - s.max_bid_cut) else 7
         if clicks == 0:
             rule = 1
@@ -97,6 +100,8 @@ def _rule(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
                 rule = lower if value < bid else 5
         elif pd.isna(value):
             rule = 4
+        elif value > bid and low == 1:
+            rule = 11
         elif value > bid:
             rule = 9 if value > bid * (1 + s.max_bid_raise) else 6
         elif value < bid:
@@ -138,18 +143,18 @@ def _reason(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
 
 _RULE = ('=IF({c:clicks}=0,1,IF({c:orders}=0,IF({c:clicks}<min_clicks,3,'
          'IF(IF({c:n_zero}="",FALSE,{c:clicks}>={c:n_zero}),2,IF({c:value_bid}="",4,IF({c:value_bid}<{c:bid},%s,5)))),'
-         'IF({c:value_bid}="",4,IF({c:value_bid}>{c:bid},IF({c:value_bid}>{c:bid}*(1+max_bid_raise),9,6),'
+         'IF({c:value_bid}="",4,IF({c:value_bid}>{c:bid},IF({c:p_low}=1,11,IF({c:value_bid}>{c:bid}*(1+max_bid_raise),9,6)),'
          'IF({c:value_bid}<{c:bid},%s,8)))))')
 _LOWER = "IF({c:value_bid}<{c:bid}*(1-max_bid_cut),10,7)"
 # The proposal before rounding, floor and ceiling, by rule (written inside the formulas that round it).
 _RAW = ('CHOOSE({c:rule},{c:bid},{c:bid}*(1-max_bid_cut),{c:bid},{c:bid},{c:bid},{c:value_bid},'
-        '{c:value_bid},{c:bid},{c:bid}*(1+max_bid_raise),{c:bid}*(1-max_bid_cut))')
+        '{c:value_bid},{c:bid},{c:bid}*(1+max_bid_raise),{c:bid}*(1-max_bid_cut),{c:bid})')
 _ROUNDED = "ROUND(%s+0.000000001,2)" % _RAW
 # The target's order value: its own ad sales per order, or its ad group's blend when it has no orders.
 _ORDER_VALUE = "IF({c:orders}>0,{c:ad_sales}/{c:orders},INDEX({rng:blends.p_aov},{c:brow}))"
 _MOVING = "OR({c:rule}=2,{c:rule}=6,{c:rule}=7,{c:rule}=9,{c:rule}=10)"
 _RAISING = "OR({c:rule}=6,{c:rule}=9)"
-_REASON_CHOICES = ",".join('"' + REASONS[i].replace("{n}", '"&{c:n_zero}&"') + '"' for i in range(1, 11))
+_REASON_CHOICES = ",".join('"' + REASONS[i].replace("{n}", '"&{c:n_zero}&"') + '"' for i in range(1, 12))
 
 DEFS: list[ColumnDef] = [
     ColumnDef("campaign", "Campaign", "text", "The campaign.", lambda df, ctx: df["campaign"], kind=DATA, width=22),
@@ -227,7 +232,8 @@ DEFS: list[ColumnDef] = [
               % (_ORDER_VALUE, _ORDER_VALUE), width=9, hidden=True),
     fetch("n_zero", "Zero-order clicks", "int",
           "Working: clicks after which zero orders are unlikely at the product's CVR."),
-    ColumnDef("rule", "Rule", "int", "Working: which rule decided the row (1 to 10, see the Guide).",
+    fetch("p_low", "Low stock", "int", "Working: 1 where a product of the ad group is low on stock (never raised)."),
+    ColumnDef("rule", "Rule", "int", "Working: which rule decided the row (1 to 11, see the Guide).",
               _rule, _RULE % (_LOWER, _LOWER), width=6, hidden=True),
 ]
 # Copied one-to-one from the target's in_targets row, or computed only from such copies: plain values.
@@ -282,7 +288,7 @@ def plan_bids(targets: InputSheet, campaigns: pd.DataFrame | None, groups: Plann
     highlights = [Highlight(keys.index("reason"), text, state) for text, state in (
         ("lower to value bid", "Lavender"), ("lower, capped at maximum cut", "Lavender"),
         ("raise to value bid", "Ocean"), ("raise, capped at maximum raise", "Ocean"),
-        ("not enough data", "Stone"), ("no clicks", "Stone"))]
+        ("not enough data", "Stone"), ("no clicks", "Stone"), ("low stock: not raised", "Stone"))]
     highlights.append(Highlight(keys.index("reason"), "no orders after", "Plum", begins=True))
     above = [[Cell("Bid plan: a proposed bid for every live keyword and product target", style="title")],
              [Cell("Decision aid only: review before changing a live ad account. Type a bid or 'keep' in Decision "

@@ -2,7 +2,8 @@
 
 The blends table on the Groups sheet holds one row per ad group (after a first row with
 the account's values): its block of product rows on Groups, its spend, and the blended
-target ACoS, CVR, order value, price, zero-order clicks and target check. A Bids or Terms
+target ACoS, CVR, order value, price, zero-order clicks, low stock (1 where any of its
+products is low on stock, whatever its spend) and target check. A Bids or Terms
 row fetches what it needs with one INDEX on its blends row, written as data, so no blend
 is recomputed per keyword or per search term.
 
@@ -138,6 +139,11 @@ def blend_columns() -> list[ColumnDef]:
                   _target_check, '=IF({c:gfirst}="","",IF(%s>0,IF(cap_target_at_break_even="yes",'
                                  '"target capped at break-even","target above break-even"),""))' % block_sum("above"),
                   width=22),
+        ColumnDef("p_low", "Low stock", "int",
+                  "1 where any product of the ad group is low on stock (Profit's Days of cover below the minimum): "
+                  "its targets are not raised and its search terms not promoted.",
+                  lambda df, ctx: (block_sums(df, ctx.groups, "low").fillna(0.0) > 0).astype(float),
+                  '=IF({c:gfirst}="",0,IF(%s>0,1,0))' % block_sum("low"), width=8),
     ]
 
 

@@ -84,6 +84,9 @@ DEFS: list[ColumnDef] = [
               lambda df, ctx: df["ad_first"], kind=DATA, width=8, hidden=True),
     ColumnDef("ad_last", "Ad last row", "int", "Helper: last of the rows on in_ad_products.",
               lambda df, ctx: df["ad_last"], kind=DATA, width=8, hidden=True),
+    ColumnDef("low", "Low stock", "int", "1 where the product is low on stock (Profit's Low stock: Days of cover "
+              "below the minimum on Settings).", _profit_value("low"), "=INDEX({rng:profit.low},%s)" % _AT_PROFIT,
+              width=8),
 ]
 
 

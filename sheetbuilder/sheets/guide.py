@@ -136,6 +136,8 @@ BID_METHOD = [
     "Data guards: no clicks, or fewer than the minimum clicks with no orders, hold the bid. No orders after "
     "n = ceil(ln(1 - confidence) / ln(1 - product CVR)) clicks (the clicks after which zero orders would be "
     "unlikely) cuts by the maximum cut. A target with no orders is never raised.",
+    "Stock: a target whose ad group advertises a product low on stock (Profit's Days of cover below the "
+    "minimum days of cover) is never raised (low stock: not raised); its cuts still apply.",
     "Target above break-even: break-even ACoS equals the margin before ads; above it, each ad-driven sale "
     "loses money before any other cost (common practice in the trade, no single source). Profit and Bids say so "
     "in Target check, and while cap_target_at_break_even is yes (Settings) the bids aim at the lower of the two "
@@ -143,7 +145,7 @@ BID_METHOD = [
     "Shared ad groups: where an ad group advertises several products, their target ACoS, conversion rate and "
     "order value are blended, weighted by each product's ad spend in the group (see Groups).",
     "Working columns: unhide the columns right of Final bid on Bids to see each step (product CVR, smoothed "
-    "CVR and ACoS, the zero-order clicks, the rule number 1-10 and the unrounded bid).",
+    "CVR and ACoS, the zero-order clicks, the rule number 1-11 and the unrounded bid).",
     "Evidence: README, 'How well the method works on simulated accounts' (results, assumptions and limits).",
 ]
 
@@ -152,6 +154,8 @@ TERMS_METHOD = [
     "(plural folding is an option in settings.toml).",
     "promote: at least the minimum orders (Settings), not yet an exact keyword for the same product, and not "
     "the very exact keyword it came from.",
+    "low stock: a term that would be promoted, from an ad group advertising a product low on stock (Profit's "
+    "Days of cover below the minimum): not promoted (not on Harvest) while the stock runs short.",
     "block: no orders, and spend of at least the product's price x the multiple on Settings (the trade's rule "
     "of thumb: a term that spent the price of the product without a sale is suspect; common practice), or at "
     "least the zero-order clicks of the bid plan.",

@@ -3,6 +3,8 @@
 Verdicts (the thresholds are settings):
 - promote: at least the minimum orders, not yet an exact keyword for its product, and not
   the very exact keyword it came from;
+- low stock: a term that would be promoted whose ad group advertises a product low on stock
+  (Profit's Days of cover below the minimum): not promoted, so not on Harvest;
 - block: no orders, and either spend of at least the product's price x the multiple (the
   trade's rule of thumb: a term that spent the product's price without a sale is suspect;
   common practice, no source) or at least the zero-order clicks;
@@ -48,6 +50,7 @@ KEYS_SHEET = "Keys"
 HEADER_ROW = 3
 VERDICTS = ("promote", "block", "watch", "keep")
 DECISIONS = VERDICTS + ("skip",)
+LOW_STOCK = "low stock"  # a verdict only (what would be promoted, held while stock runs short), never a Decision
 
 
 @dataclass
@@ -91,9 +94,10 @@ def _position(key: str):
 def _verdict(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
     s = ctx.settings
     out = []
-    for r in df[["orders", "targeted", "self", "negated", "spend", "p_price", "n_zero", "clicks"]].itertuples():
+    for r in df[["orders", "targeted", "self", "negated", "spend", "p_price", "n_zero", "clicks",
+                 "p_low"]].itertuples():
         if r.orders >= s.min_promote_orders and r.targeted == "" and r.self == 0:
-            out.append("promote")
+            out.append(LOW_STOCK if r.p_low == 1 else "promote")
         elif r.orders > 0:
             out.append("keep" if r.targeted != "" or r.self == 1 else "watch")
         elif r.negated != "":
@@ -189,11 +193,13 @@ def _all_defs() -> list[ColumnDef]:
                   _TARGETED_REF, _TARGETED, width=30),
         ColumnDef("negated", "Already negated", "text", "The negative that already blocks the term here, if any.",
                   _NEGATED_REF, _NEGATED, width=30),
-        ColumnDef("verdict", "Verdict", "label", "promote, block, watch or keep (see the Guide).", _verdict,
-                  '=IF(AND({c:orders}>=min_promote_orders,{c:targeted}="",{c:self}=0),"promote",'
+        ColumnDef("verdict", "Verdict", "label",
+                  "promote, block, watch or keep; low stock where it would be promoted but a product of its ad "
+                  "group is low on stock (see the Guide).", _verdict,
+                  '=IF(AND({c:orders}>=min_promote_orders,{c:targeted}="",{c:self}=0),IF({c:p_low}=1,"%s","promote"),'
                   'IF({c:orders}>0,IF(OR({c:targeted}<>"",{c:self}=1),"keep","watch"),IF({c:negated}<>"","keep",'
                   'IF(OR({c:spend}>={c:p_price}*block_spend_multiple,IF({c:n_zero}="",FALSE,{c:clicks}>={c:n_zero})),'
-                  '"block","watch"))))', width=9),
+                  '"block","watch"))))' % LOW_STOCK, width=9),
         ColumnDef("decision", "Decision", "text_input",
                   "Input: blank follows the verdict; or type promote, block, watch, keep or skip.",
                   lambda df, ctx: df["decision"], kind=INPUT, width=9),
@@ -230,6 +236,7 @@ def _all_defs() -> list[ColumnDef]:
         fetch("p_price", "Product price", "money", "Working: the product's (or blend's) price."),
         fetch("n_zero", "Zero-order clicks", "int",
               "Working: clicks after which zero orders are unlikely at the product's CVR."),
+        fetch("p_low", "Low stock", "int", "Working: 1 where a product of the ad group is low on stock (not promoted)."),
         ColumnDef("live", "Campaign live", "int", "Helper: 1 where the term's campaign is enabled (in_campaigns).",
                   lambda df, ctx: df["live"], kind=DATA, width=8, hidden=True),
         ColumnDef("at_dest", "Keyword at destination", "int",
@@ -527,7 +534,8 @@ def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, t
             EDITABLE_COLUMNS, first, keys_list.index("decision"), n,
             "Leave blank to follow the verdict, or choose " + ", ".join(DECISIONS) + ".", "Blank = follow the verdict."))
     col = keys_list.index("verdict")
-    highlights = [Highlight(col, "promote", "Ocean"), Highlight(col, "block", "Plum"), Highlight(col, "watch", "Stone")]
+    highlights = [Highlight(col, "promote", "Ocean"), Highlight(col, "block", "Plum"), Highlight(col, "watch", "Stone"),
+                  Highlight(col, LOW_STOCK, "Stone")]
     col = keys_list.index("final")
     highlights += [Highlight(col, "promote", "Ocean"), Highlight(col, "block", "Plum")]
     above = [[Cell("Customer search terms: what to promote, what to block", style="title")],
