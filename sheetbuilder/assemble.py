@@ -21,7 +21,7 @@ from sheetbuilder.sheets.typed import ACTIONS_NAME, EDITABLE_TABLES, CarryResult
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable
 from sheetbuilder.workbook.formula import check_names
 from sheetbuilder.errors import Problem
-from sheetbuilder.sheets.history import applied_rows, plan_history
+from sheetbuilder.sheets.history import applied_rows, plan_history, week_of
 from sheetbuilder.sheets.actions import DEFS as ACTION_DEFS, SEGMENTS as ACTION_SEGMENTS, plan_actions
 from sheetbuilder.sheets.bids import DEFS as BIDS_DEFS, plan_bids
 from sheetbuilder.sheets.budget import CAMPAIGN_DEFS, PRODUCT_DEFS as BUDGET_DEFS, plan_budget
@@ -218,7 +218,11 @@ def _followup(a: Assembly) -> None:
 
 
 def _history(a: Assembly) -> None:
-    rows = a.history + (applied_rows(a.followup.rows, a.built_on) if a.followup is not None else [])
+    if a.followup is not None:
+        end = a.followup.current.end if a.followup.current is not None else None
+        rows = a.history + applied_rows(a.followup.rows, week_of(end, a.built_on))
+    else:
+        rows = a.history
     sheet, names = plan_history(rows)
     a.place("history", sheet)
     a.names += names

@@ -211,8 +211,11 @@ def _truth(keys: list[tuple], week: dt.date) -> list[tuple]:
 def test_history_after_weeks_two_and_three_holds_exactly_the_applied_changes(scenario):
     require_libreoffice()
     work = scenario["work"]
-    week2 = BUILT_ON + dt.timedelta(days=7)
-    week3 = BUILT_ON + dt.timedelta(days=14)
+    # Week is the period end of the exports that showed the change applied: demo_inputs/settings.toml ends
+    # the demo's period on 2026-11-29 and tools/make_week2.py moves it on by seven days each week. Week 3 is
+    # built on the same day as week 2, and still reads its own week.
+    week2 = dt.date(2026, 12, 6)
+    week3 = dt.date(2026, 12, 13)
     applied2 = [_key(c) for c in scenario["changes"] if _key(c) in scenario["applied"]]
     assert _truth(applied2, week2) == _history(scenario["week2"].output)
     (saved2,) = libreoffice_convert([scenario["week2"].output], work / "saved2")  # as a user's program saves it
@@ -221,7 +224,7 @@ def test_history_after_weeks_two_and_three_holds_exactly_the_applied_changes(sce
         changes2 = list(csv.DictReader(f))
     applied, elsewhere = choose(changes2)
     exports3 = make_week2(scenario["exports2"], work / "exports3", applied, elsewhere)
-    third = build(exports3, work / "week3.xlsx", built_on=week3, previous=saved2)
+    third = build(exports3, work / "week3.xlsx", built_on=BUILT_ON + dt.timedelta(days=7), previous=saved2)
     applied3 = [_key(c) for c in changes2 if _key(c) in {_key(a) for a in applied}]
     assert _truth(applied2, week2) + _truth(applied3, week3) == _history(third.output)
 
@@ -315,3 +318,18 @@ def test_the_periods_come_from_the_exports_dates_when_they_carry_them(tmp_path):
     assert ("Last period: 2026-11-23 to 2026-11-29 (7 days). This period: 2026-11-23 to 2026-11-29 (7 days)."
             == ws["A2"].value)
     assert ws["A3"].value.startswith("The periods overlap by 7 days")
+
+
+def test_four_weeks_built_on_one_day_read_four_weeks_in_history():
+    from sheetbuilder.sheets.history import applied_rows, week_of
+    one_day = dt.date(2026, 12, 20)
+    ends = [dt.date(2026, 11, 29) + dt.timedelta(days=7 * i) for i in range(4)]
+    row = {"applied": "yes", "kind": "bid", "campaign": "c", "ad_group": "g", "target": "t", "match_type": "exact",
+           "was": 1.0, "planned": 1.2}
+    weeks = [applied_rows([row], week_of(end, one_day))[0]["week"] for end in ends]
+    assert ["2026-11-29", "2026-12-06", "2026-12-13", "2026-12-20"] == weeks
+
+
+def test_history_week_without_dates_in_the_exports_is_the_build_date_said_plainly():
+    from sheetbuilder.sheets.history import week_of
+    assert "built 2026-12-02 (no dates in the exports)" == week_of(None, dt.date(2026, 12, 2))
