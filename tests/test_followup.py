@@ -19,6 +19,7 @@ import openpyxl
 import pytest
 
 from conftest import BUILT_ON, DEMO, ROOT, require_libreoffice
+from oracle_mix import to_cents
 from oracle_followup import expected_row
 from workbook_io import same
 from sheetbuilder.weekly.changes import COLUMNS, export_changes
@@ -156,7 +157,7 @@ def test_products_then_are_last_weeks_profit_figures_and_now_this_weeks(scenario
     headers = [c.value for c in ws[start]]
     then = scenario["week1"].plan.tables["Profit"].frame.set_index("product_id")
     now = scenario["week2"].plan.tables["Profit"].frame.set_index("product_id")
-    checked = 0
+    checked = unchanged = 0
     for row in ws.iter_rows(min_row=start + 1, values_only=True):
         if row[0] in (None, ""):
             break
@@ -164,11 +165,14 @@ def test_products_then_are_last_weeks_profit_figures_and_now_this_weeks(scenario
         pid = got["Product ID"]
         assert same(float(then.loc[pid, "net_profit"]), got["Net profit after ads then"]), pid
         assert same(float(now.loc[pid, "net_profit"]), got["Net profit after ads now"]), pid
-        assert same(float(now.loc[pid, "net_profit"]) - float(then.loc[pid, "net_profit"]),
+        assert same(to_cents(float(now.loc[pid, "net_profit"]) - float(then.loc[pid, "net_profit"])),
                     got["Net profit after ads change"]), pid
+        assert to_cents(float(now.loc[pid, "ad_spend"]) - float(then.loc[pid, "ad_spend"])) == got["Ad spend change"]
+        unchanged += round(float(now.loc[pid, "ad_spend"]), 2) == round(float(then.loc[pid, "ad_spend"]), 2)
         assert now.loc[pid, "status"] == got["Status now"]
         checked += 1
     assert len(now) == checked
+    assert unchanged > 0  # the products whose spend did not move read exactly 0, never -5.7e-14
 
 
 def test_the_guide_dashboard_shows_the_follow_up_summary(scenario):
