@@ -17,7 +17,10 @@ from pathlib import Path
 import openpyxl
 import pytest
 
-from conftest import require_libreoffice
+from conftest import BUILT_ON, DEMO, require_libreoffice
+from sheetbuilder.pipeline import build
+from sheetbuilder.reading.settings import SPEC_BY_KEY
+from sheetbuilder.values import ERROR_VALUES
 from sheetbuilder.weekly.changes import export_changes
 
 DRIVER = Path(__file__).parent / "uno_driver.py"
@@ -100,7 +103,26 @@ def plan_actions(demo: Path) -> dict[str, list[dict]]:
         "delete_a_terms_row": [{"op": "delete_row", "sheet": "Terms", "row": _table(terms, "Campaign")[0] + 2}],
         "cost_for_added_product": [{"op": "set", "sheet": "in_catalog", "cell": cell, "value": value}
                                    for cell, value in _added_product_cells(catalog).items()],
+        **{label: [{"op": "set", "sheet": "Settings", "cell": _typed_setting_cell(wb, key), "value": value}
+                   for key, value in pasted.items()] for label, pasted in PASTES.items()},
     }
+
+
+# Values pasted into live settings (a paste skips data validation): text into a percentage, and one of each
+# kind the In use cell checks (a count, money, a choice, a date, a percentage typed as a whole number).
+PASTES = {"text_in_a_setting": {"default_target_acos": "thirty percent"},
+          "bad_paste_of_each_kind": {"min_clicks": "ten", "bid_floor": "0,10", "cap_target_at_break_even": "maybe",
+                                     "period_end": "last Sunday", "max_bid_cut": 30}}
+# {setting: (the words its Check starts with, the as-built value it names)}: demo_inputs/settings.toml and
+# the declared defaults (README, "Settings").
+FLAGS = {"default_target_acos": ("not a number", "30%"), "min_clicks": ("not a number", "10"),
+         "bid_floor": ("not a number", "0.10"), "cap_target_at_break_even": ("not one of yes, no", "yes"),
+         "period_end": ("not a date", "2026-11-29"), "max_bid_cut": ("outside 0% to 95%", "30%")}
+
+
+def _typed_setting_cell(wb, key: str) -> str:
+    """The typed Value cell of a live setting on Settings (its defined name), as A1 text."""
+    return wb.defined_names[key + "_typed"].attr_text.split("!")[1].replace("$", "")
 
 
 ADDED = "LF-1999"  # in the demo's store sales, not in its catalog: the build adds its row to in_catalog
@@ -227,3 +249,43 @@ def test_deleting_a_row_of_bids_or_terms_is_refused_so_no_list_turns_to_ref_erro
     # A deleted Bids or Terms row would break the running keys below it (#REF! down Actions, Harvest and
     # Negatives); the sheets stay protected against deleting rows, and the Guide says to type keep or skip.
     assert hands["refused"][action].startswith("LibreOffice refused to delete row")
+
+
+def _errors(path: Path) -> list[str]:
+    """Every cell of every sheet that holds an error value, as Sheet!A1."""
+    wb = openpyxl.load_workbook(path, data_only=True)
+    return [f"{ws.title}!{c.coordinate}" for ws in wb.worksheets for row in ws.iter_rows() for c in row
+            if isinstance(c.value, str) and c.value in ERROR_VALUES]
+
+
+@pytest.mark.libreoffice
+@pytest.mark.slow
+@pytest.mark.parametrize("action", list(PASTES))
+def test_text_pasted_into_a_setting_costs_one_flag_not_errors(hands, work, action):
+    path, pasted = hands[action], PASTES[action]
+    assert [] == _errors(path)
+    wb = openpyxl.load_workbook(path, data_only=True)
+    settings = wb["Settings"]
+    for key in pasted:
+        row = [c.value for c in settings[int(_typed_setting_cell(wb, key)[1:])]]
+        words, as_built = FLAGS[key]
+        assert (pasted[key], f"{words}: using the as-built value {as_built}") == (row[1], row[3]), key
+        assert _norm(row[6]) == _norm(row[2]), key  # In use holds the As built value
+    assert len(pasted) == settings["B3"].value
+    guide = {ws_row[0]: ws_row[1] for ws_row in wb["Guide"].iter_rows(max_row=20, values_only=True)}
+    assert f"{len(pasted)} typed setting(s) not valid: the as-built value is in use instead; see the Check " \
+           "column on Settings" == guide["Settings"]
+    # Every figure elsewhere is the as-built workbook's: the pasted values cost nothing but their flags.
+    before, after = sheet_rows(hands["as_built"]), sheet_rows(path)
+    assert {n: before[n] for n in before if n not in ("Settings", "Guide")} == \
+           {n: after[n] for n in after if n not in ("Settings", "Guide")}
+    # changes re-plans with the as-built values and says which typed values it could not use.
+    result = export_changes(path, work / f"changes_{action}.csv")
+    assert _actions_sheet(hands["as_built"]) == _actions_sheet(path)
+    assert Counter() == Counter(_change(r) for r in result.rows) - _actions_sheet(path)
+    # Next week nothing typed is lost without a word: each pasted value is listed as not carried.
+    week2 = build(DEMO, work / f"week2_{action}.xlsx", built_on=BUILT_ON, previous=path)
+    listed = {r.key: r.why for r in week2.carry.unmatched if r.sheet == "Settings"}
+    typed = {k: repr(v) if isinstance(v, str) else f"{v:g}" for k, v in pasted.items()}  # as a message quotes it
+    assert {key: f"{typed[key]} typed for {SPEC_BY_KEY[key].label} is {FLAGS[key][0]}; the as-built value "
+                 "was kept" for key in pasted} == listed

@@ -172,10 +172,17 @@ LINK_DEFS: list[ColumnDef] = [
               lambda df, ctx: df["spend"] * df["ratio"], "={c:spend}*{c:ratio}", width=10),
 ]
 
+# A product's spend is an outcome of bids and budgets, never set to the cent: a typed spend counts as applied
+# (and stops being carried) once the export's spend is within 5% of it or one currency unit, whichever is larger.
+# 5% is about the week-to-week noise of a steady product's ad spend; the unit keeps a small spend from never
+# expiring over cents. A campaign's daily budget is typed into the ad console as it is: equal to the cent.
+SPEND_APPLIED_WITHIN = (0.05, 1.0)
+
 # What a user types on Budget (products, then campaigns) and the keys that find its row again.
 EDITABLE_COLUMNS = editable(PRODUCT_DEFS, "Budget", SHEET, "sb_budget", ("product_id",), "decision",
                             ("catalog", "store_sales", "ad_products"), table="Budget products", numeric="spend",
-                            words=("keep",), current="spend", input_current="spend")
+                            words=("keep",), current="spend", input_current="spend",
+                            applied_within=SPEND_APPLIED_WITHIN)
 CAMPAIGN_EDITABLE_COLUMNS = editable(CAMPAIGN_DEFS, "Budget campaigns", SHEET, "sb_budget_campaigns", ("campaign",),
                                      "decision", ("campaigns",), numeric="budget", words=("keep",), current="budget",
                                      input_current="daily_budget")

@@ -9,6 +9,7 @@ from sheetbuilder.workbook.columns import ColumnDef
 from sheetbuilder.errors import Problem
 from sheetbuilder.workbook.palette import STATES
 from sheetbuilder.sheets.profit import CAUTION, warning_formula, warning_value
+from sheetbuilder.sheets.settings_sheet import NOT_VALID_NAME
 from sheetbuilder.reading.settings import Settings
 from sheetbuilder.workbook.spec import INPUT, Cell, PageSetup, Sheet
 
@@ -79,8 +80,9 @@ FOLLOWUP_TEXT = [
 DECISIONS_TEXT = [
     "Words (keep, skip, promote, block, watch) are standing instructions: they are carried into every "
     "rebuild with --previous until you clear the cell.",
-    "A typed number (a bid, a spend, a budget) is a one-off: once a week's export shows it applied (the current "
-    "value equals it to the cent) it expires, the cell is left blank and Carried edits lists it as applied; "
+    "A typed number (a bid, a spend, a budget) is a one-off: once a week's export shows it applied (a bid or "
+    "budget equal to it to the cent; a product's spend within 5% of it or 1 currency unit, whichever is larger, "
+    "as spend never lands on the cent) it expires, the cell is left blank and Carried edits lists it as applied; "
     "until then it is carried and its note says so.",
     "A corrected cost on in_catalog, a changed setting and 'Your target ACoS' are carried until you type the "
     "export's (or settings.toml's) value back, or the export itself changes to your value.",
@@ -206,6 +208,11 @@ def _column_rows(title: str, defs: list[ColumnDef]) -> list[list[Cell | None]]:
     return rows + [[None]]
 
 
+# Lights up when a typed setting is not valid (the Settings sheet's count; the formulas use its as-built value).
+SETTINGS_CHECK = (f'=IF({NOT_VALID_NAME}=0,"",{NOT_VALID_NAME}&" typed setting(s) not valid: the as-built value is '
+                  f'in use instead; see the Check column on Settings")')
+
+
 def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tuple[str, list[ColumnDef]]],
                warnings: list[Problem], checksums: dict[str, str], sources: dict[str, str],
                figures: list | None = None, looks: list | None = None,
@@ -228,6 +235,7 @@ def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tupl
               style="warning")],
         [Cell("Data freshness", style="subtitle"),
          Cell(warning_value(settings, built_on), warning_formula(), "alert")],
+        [Cell("Settings", style="subtitle"), Cell("", SETTINGS_CHECK, "alert")],
         [None],
         [Cell("Key figures", style="subtitle"), Cell("Live: they follow every change you make.", style="note")],
         *[[Cell(f.label), Cell(f.value, f.formula, f.style + "_left")] for f in (figures or [])],

@@ -30,7 +30,8 @@ import pandas as pd
 from openpyxl.utils.cell import coordinate_to_tuple
 
 from sheetbuilder.sheets.inputs import CATALOG_NAME, EDITABLE, EXPORTED
-from sheetbuilder.sheets.settings_sheet import AS_BUILT, HEADERS as SETTINGS_HEADERS, SHEET as SETTINGS_SHEET
+from sheetbuilder.sheets.settings_sheet import (AS_BUILT, SHEET as SETTINGS_SHEET, not_valid_text, typed_name,
+                                                typed_problem)
 from sheetbuilder.sheets.typed import (CARRIED_NAME, DECISION_SHEETS, PROFIT_TARGET, SCAN_ROWS, CarryRecord,
                                        CarryResult, EditSheet, key_text)
 from sheetbuilder.values import is_blank, is_number, same_value, shown
@@ -139,27 +140,31 @@ def _read_block(wb, rows_of, entry: EditSheet) -> dict[tuple, Any] | None:
     return out
 
 
-AS_BUILT_COLUMN = SETTINGS_HEADERS.index(AS_BUILT)  # the Settings column keeping each value as built
-
-
-def _has_as_built(rows: list[list[Any]]) -> bool:
-    return any(len(r) > AS_BUILT_COLUMN and r[AS_BUILT_COLUMN] == AS_BUILT for r in rows[:SCAN_ROWS])
+def _as_built_column(rows: list[list[Any]]) -> int | None:
+    """The 0-based column of the Settings header reading As built (None in a workbook without one)."""
+    for r in rows[:SCAN_ROWS]:
+        if AS_BUILT in r:
+            return r.index(AS_BUILT)
+    return None
 
 
 def _settings_cells(wb, rows_of: Callable[[str], list[list[Any]]]) -> dict[str, Any]:
-    """{key: value} of every live setting whose defined name points at a cell."""
+    """{key: value} of every live setting typed apart from its As built value, read from its typed Value
+    cell (its defined name; an older workbook's formulas read that cell under the setting's own name)."""
     out: dict[str, Any] = {}
     for spec in SETTINGS:
-        if not spec.live or spec.key not in wb.defined_names:
+        name = typed_name(spec.key) if typed_name(spec.key) in wb.defined_names else spec.key
+        if not spec.live or name not in wb.defined_names:
             continue
-        for sheet, coord in wb.defined_names[spec.key].destinations:
+        for sheet, coord in wb.defined_names[name].destinations:
             if sheet not in wb.sheetnames:
                 continue
             r, c = coordinate_to_tuple(coord.replace("$", ""))
             rows = rows_of(sheet)
             value = rows[r - 1][c - 1] if r <= len(rows) and c <= len(rows[r - 1]) else None
-            built = rows[r - 1][AS_BUILT_COLUMN] if r <= len(rows) and AS_BUILT_COLUMN < len(rows[r - 1]) else None
-            if _has_as_built(rows) and same_value(value, built):
+            at = _as_built_column(rows)
+            built = rows[r - 1][at] if at is not None and r <= len(rows) and at < len(rows[r - 1]) else None
+            if at is not None and same_value(value, built):
                 break  # not typed by the user: this week's settings.toml decides
             out[spec.key] = value
             break
@@ -292,6 +297,11 @@ def _carry_settings(edits: Edits, settings: Settings, carried: list, unmatched: 
         if not spec.live or spec.key not in edits.settings:
             continue
         raw = edits.settings[spec.key]
+        why = typed_problem(spec, raw)  # the Settings sheet's own rule: its formulas used the as-built value
+        if why is not None:
+            unmatched.append(CarryRecord(SETTINGS_SHEET, spec.key, "Value", raw,
+                                         f"{not_valid_text(spec, raw, why)}; the as-built value was kept"))
+            continue
         if spec.kind == "date" and is_blank(raw):
             value = None
         else:
@@ -383,11 +393,6 @@ def _current_values(entry: EditSheet, tables, fold: bool) -> dict[tuple, float]:
     return {}
 
 
-def _applied(typed: Any, current: float | None) -> bool:
-    """Whether this week's export shows a typed number applied: the current value equals it to the cent."""
-    return current is not None and is_number(typed) and round(float(typed) * 100) == round(float(current) * 100)
-
-
 def _carry_decisions(edits: Edits, tables, fold: bool, carried: list, unmatched: list, applied: list) -> dict:
     out: dict[str, dict] = {}
     for entry in DECISION_SHEETS:
@@ -408,9 +413,11 @@ def _carry_decisions(edits: Edits, tables, fold: bool, carried: list, unmatched:
                 why = f"the new exports have no {' or '.join(entry.tables)} table"
             elif key not in existing:
                 why = f"no longer in the {' or '.join(entry.tables)} export"
-            elif is_number(value) and _applied(value, current.get(key)):
+            elif is_number(value) and entry.decl.applied(value, current.get(key)):
+                near = entry.decl.applied_within
                 applied.append(CarryRecord(entry.label, text, entry.value_header, value,
-                                           f"applied: this export's {entry.decl.numeric} is {shown(current[key])}",
+                                           f"applied: this export's {entry.decl.numeric} is {shown(current[key])}"
+                                           + (f", within {near[0]:.0%} or {near[1]:g} of it" if near else ""),
                                            current[key], compared=key))
                 continue
             else:
