@@ -8,18 +8,28 @@ from __future__ import annotations
 
 import datetime as dt
 
+import minimal
 import openpyxl
 import pytest
 
+from conftest import BUILT_ON, edit_workbook
 from oracle_settings import settings_oracle
-from sheetbuilder.reading.settings import SETTINGS, Settings
+from sheetbuilder.pipeline import build
+from sheetbuilder.reading.settings import SETTINGS, SPEC_BY_KEY, Settings
 from sheetbuilder.sheets.settings_sheet import BUILT, CHECK, USED, VALUE, plan_settings, typed_name, typed_problem
+from sheetbuilder.values import ERROR_VALUES, same_value
 from sheetbuilder.weekly.carry import Edits, apply_edits
+from tools.recalc import formulas_values
 
 LIVE = [s for s in SETTINGS if s.live]
 # What a paste can leave in a setting's cell: text, numbers in and out of range, fractions, dates, blanks.
 TYPED = ["thirty percent", "0.25", "8%", "", None, 0, 0.5, 1, 1.5, 7, 30, -3, 1e9, "yes", "No", " yes", "exact",
          "Campaign", "ad group", dt.datetime(2026, 11, 29), dt.datetime(1990, 1, 1), True]
+
+
+def _serial(day: dt.date) -> int:
+    """A date as a spreadsheet's day number (days since 1899-12-30, the 1900 date system as Excel counts it)."""
+    return (day - dt.date(1899, 12, 30)).days
 
 
 def _plain(v):
@@ -84,3 +94,49 @@ def test_a_check_formula_names_the_as_built_value_it_falls_back_to():
     assert "not a number: using the as-built value 0.10" in formulas["Bid floor"]
     assert "not one of yes, no: using the as-built value yes" in formulas["Cap target ACoS at break-even"]
 
+
+
+# Pasted values of each kind the In use cell checks, with the words their Check starts with.
+PASTED = {"default_target_acos": ("thirty percent", "not a number"), "min_clicks": (2.5, "not a whole number"),
+          "bid_floor": ("0,10", "not a number"), "cap_target_at_break_even": ("maybe", "not one of yes, no"),
+          "period_end": ("last Sunday", "not a date"), "max_bid_cut": (30, "outside 0% to 95%")}
+
+
+@pytest.fixture(scope="module")
+def pasted(tmp_path_factory):
+    """A small account's workbook, and a copy with PASTED typed in (openpyxl: no validation), both recalculated
+    by the `formulas` library."""
+    folder = minimal.write_account(tmp_path_factory.mktemp("pasted"), {})
+    built = build(folder, folder / "book.xlsx", built_on=BUILT_ON)
+    wb = openpyxl.load_workbook(built.output)
+    cells = {k: wb.defined_names[typed_name(k)].attr_text.split("!")[1].replace("$", "") for k in PASTED}
+    edited = edit_workbook(built.output, folder / "pasted.xlsx", [("Settings", cells[k], v) for k, (v, _) in
+                                                                   PASTED.items()])
+    return formulas_values(built.output), formulas_values(edited), cells
+
+
+@pytest.mark.slow
+def test_values_pasted_into_settings_turn_no_formula_cell_into_an_error_in_the_formulas_engine(pasted):
+    _, after, _ = pasted
+    assert [] == [k for k, v in after.items() if isinstance(v, str) and v in ERROR_VALUES]
+
+
+@pytest.mark.slow
+def test_each_pasted_value_lights_its_flag_and_the_counts_and_in_use_holds_the_as_built_value(pasted):
+    _, after, cells = pasted
+    for key, (value, words) in PASTED.items():
+        row = cells[key][1:]
+        assert after[("SETTINGS", f"D{row}")].startswith(words + ": using the as-built value"), key
+        used, flagged = settings_oracle(SPEC_BY_KEY[key], value, Settings().value(key))
+        assert flagged, key
+        assert _plain(after[("SETTINGS", f"C{row}")]) == (_serial(used) if key == "period_end" and used else used), key
+    assert len(PASTED) == after[("SETTINGS", "B3")]
+    assert after[("GUIDE", "B8")].startswith(f"{len(PASTED)} typed setting(s) not valid")
+
+
+@pytest.mark.slow
+def test_every_figure_outside_settings_and_the_guide_is_as_built_after_the_paste(pasted):
+    before, after, _ = pasted
+    # (defined names come back under the sheet "": the typed cells and the count are names too)
+    differ = {k for k in before if k[0] not in ("SETTINGS", "GUIDE", "") and not same_value(before[k], after.get(k))}
+    assert set() == differ

@@ -8,6 +8,7 @@ each row holds (its key and its figures), not by where it stands.
 """
 from __future__ import annotations
 
+import datetime as dt
 import json
 import shutil
 import subprocess
@@ -19,7 +20,8 @@ import pytest
 
 from conftest import BUILT_ON, DEMO, require_libreoffice
 from sheetbuilder.pipeline import build
-from sheetbuilder.reading.settings import SPEC_BY_KEY
+from oracle_settings import settings_oracle
+from sheetbuilder.reading.settings import SETTINGS, SPEC_BY_KEY
 from sheetbuilder.values import ERROR_VALUES
 from sheetbuilder.weekly.changes import export_changes
 
@@ -270,7 +272,13 @@ def test_text_pasted_into_a_setting_costs_one_flag_not_errors(hands, work, actio
         row = [c.value for c in settings[int(_typed_setting_cell(wb, key)[1:])]]
         words, as_built = FLAGS[key]
         assert (pasted[key], f"{words}: using the as-built value {as_built}") == (row[1], row[3]), key
-        assert _norm(row[6]) == _norm(row[2]), key  # In use holds the As built value
+    for spec in (s for s in SETTINGS if s.live):  # every row's In use and Check, as the reference has them
+        row = [c.value for c in settings[int(_typed_setting_cell(wb, spec.key)[1:])]]
+        typed = row[1].date() if isinstance(row[1], dt.datetime) else row[1]
+        built = row[6].date() if isinstance(row[6], dt.datetime) else row[6]
+        used, flagged = settings_oracle(spec, typed, built)
+        in_use = row[2].date() if isinstance(row[2], dt.datetime) else row[2]
+        assert (_norm(used), flagged) == (_norm(in_use), row[3] not in (None, "")), spec.key
     assert len(pasted) == settings["B3"].value
     guide = {ws_row[0]: ws_row[1] for ws_row in wb["Guide"].iter_rows(max_row=20, values_only=True)}
     assert f"{len(pasted)} typed setting(s) not valid: the as-built value is in use instead; see the Check " \
