@@ -289,6 +289,9 @@ def test_text_pasted_into_a_setting_costs_one_flag_not_errors(hands, work, actio
            {n: after[n] for n in after if n not in ("Settings", "Guide")}
     # changes re-plans with the as-built values and says which typed values it could not use.
     result = export_changes(path, work / f"changes_{action}.csv")
+    said = {p.column: p.message for p in result.problems if p.file == "Settings"}
+    assert {key: f"the workbook's formulas use the as-built value {FLAGS[key][1]}" for key in pasted} == {
+        key: message.split("; ")[-1] for key, message in said.items()}
     assert _actions_sheet(hands["as_built"]) == _actions_sheet(path)
     assert Counter() == Counter(_change(r) for r in result.rows) - _actions_sheet(path)
     # Next week nothing typed is lost without a word: each pasted value is listed as not carried.

@@ -48,10 +48,13 @@ def _number_text(spec: SettingSpec, value) -> str:
     return f"{value:g}"
 
 
-def _as_built_text(spec: SettingSpec, value) -> str:
+def setting_text(spec: SettingSpec, value) -> str:
+    """A setting's value as a message shows it (a percentage as 30%, money with cents, a date as ISO)."""
     if spec.kind == "date":
-        return value.isoformat() if value is not None else "blank (no period end)"
-    if spec.kind == "choice":
+        if isinstance(value, dt.datetime):
+            value = value.date()
+        return value.isoformat() if isinstance(value, dt.date) else "blank (no period end)"
+    if spec.kind == "choice" or not isinstance(value, (int, float)) or isinstance(value, bool):
         return str(value)
     return _number_text(spec, value)
 
@@ -96,7 +99,7 @@ def _quoted(text: str) -> str:
 def _checked_formulas(spec: SettingSpec, row: int, built) -> tuple[str, str]:
     """(In use, Check) formulas of a live setting on 0-based row: the typed value when valid, else As built."""
     b, g = f"{col_letter(VALUE)}{row + 1}", f"{col_letter(BUILT)}{row + 1}"
-    using = ": using the as-built value " + _as_built_text(spec, built)
+    using = ": using the as-built value " + setting_text(spec, built)
 
     def flag(words: str) -> str:
         return _quoted(words + using)
@@ -198,7 +201,7 @@ def plan_settings(settings: Settings, built_on: dt.date, period=None,
         problem = typed_problem(spec, value)
         not_valid += problem is not None
         cells[USED] = Cell(built if problem else value, used, style)
-        cells[CHECK] = Cell(f"{problem}: using the as-built value {_as_built_text(spec, built)}" if problem else "",
+        cells[CHECK] = Cell(f"{problem}: using the as-built value {setting_text(spec, built)}" if problem else "",
                             check, "alert")
         checks.append(f"{col_letter(CHECK)}{row + 1}")
         rows.append(cells)
