@@ -24,7 +24,9 @@ EXPORT_LEGEND = ("Grey text: a figure copied from your exports (the row it came 
 
 SHEETS_TEXT = [
     ("Guide", "This page: how to use the workbook, what each column means, sources and cautions."),
-    ("Settings", "Thresholds and targets. Change a cream cell and every sheet updates."),
+    ("Settings", "Thresholds and targets. Change a cream cell and every sheet updates. A typed value the formulas "
+                 "cannot use (text pasted into a number, a value out of range) is flagged in its row's Check, and "
+                 "In use keeps the as-built value."),
     ("Profit", "Profit after advertising for every product: margin, TACoS, ACoS, net profit, status and "
                "a direction for its ad spend."),
     ("Bids", "A proposed bid for every enabled keyword and product target in an enabled campaign, largest "
