@@ -271,3 +271,39 @@ def test_a_typed_bid_still_expires_only_when_applied_to_the_cent():
     result = apply_edits(Edits("w1.xlsx", decisions={"Bids": {("C1", "G1", "pot", "exact"): 1.0}}),
                          {"targets": targets}, Settings())
     assert [] == result.applied and 1 == len(result.carried)
+
+
+def _exported_spend(product: str) -> float:
+    """The product's ad spend in the demo's ad_products export (its Cost column, written as $24.65)."""
+    with (DEMO / "ad_products.csv").open(newline="", encoding="utf-8") as f:
+        return sum(float(r["Cost"].replace("$", "").replace(",", "")) for r in csv.DictReader(f)
+                   if r["Product ID"] == product)
+
+
+def _budget_decisions(path) -> tuple[dict[str, str], dict[str, object]]:
+    """({product: its Decision cell}, {product: what the cell holds}) of the Budget products table, by header."""
+    ws = openpyxl.load_workbook(path)["Budget"]
+    top = next(r for r in range(1, ws.max_row + 1) if ws.cell(r, 1).value == "Product ID")
+    col = _header(ws, top).index("Decision") + 1
+    rows = {}
+    for r in range(top + 1, ws.max_row + 1):
+        if ws.cell(r, 1).value in (None, "Total"):
+            break
+        rows[ws.cell(r, 1).value] = r
+    return ({p: ws.cell(r, col).coordinate for p, r in rows.items()}, {p: ws.cell(r, col).value for p, r in rows.items()})
+
+
+@pytest.mark.slow
+def test_a_typed_product_spend_the_export_comes_within_5_percent_of_expires_next_week(tmp_path):
+    from conftest import edit_workbook
+    week1 = build(DEMO, tmp_path / "week1.xlsx", built_on=BUILT_ON)
+    near, far = round(_exported_spend("LF-1001") * 1.04, 2), round(_exported_spend("LF-1002") * 1.5, 2)
+    cells, _ = _budget_decisions(week1.output)
+    edited = edit_workbook(week1.output, tmp_path / "typed.xlsx", [("Budget", cells["LF-1001"], near),
+                                                                    ("Budget", cells["LF-1002"], far)])
+    week2 = build(DEMO, tmp_path / "week2.xlsx", built_on=BUILT_ON, previous=edited)
+    assert [("Budget", "LF-1001", near)] == [(r.sheet, r.key, r.value) for r in week2.carry.applied]
+    assert [("Budget", "LF-1002", far)] == [(r.sheet, r.key, r.value) for r in week2.carry.carried
+                                            if r.sheet == "Budget"]
+    _, typed = _budget_decisions(week2.output)
+    assert (None, far) == (typed["LF-1001"], typed["LF-1002"])
