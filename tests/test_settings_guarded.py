@@ -112,18 +112,20 @@ def pasted(tmp_path_factory):
     cells = {k: wb.defined_names[typed_name(k)].attr_text.split("!")[1].replace("$", "") for k in PASTED}
     edited = edit_workbook(built.output, folder / "pasted.xlsx", [("Settings", cells[k], v) for k, (v, _) in
                                                                    PASTED.items()])
-    return formulas_values(built.output), formulas_values(edited), cells
+    guide = wb["Guide"]
+    return formulas_values(built.output), formulas_values(edited), cells, {
+        guide.cell(r, 1).value: r for r in range(1, 40)}
 
 
 @pytest.mark.slow
 def test_values_pasted_into_settings_turn_no_formula_cell_into_an_error_in_the_formulas_engine(pasted):
-    _, after, _ = pasted
+    _, after, _, _ = pasted
     assert [] == [k for k, v in after.items() if isinstance(v, str) and v in ERROR_VALUES]
 
 
 @pytest.mark.slow
 def test_each_pasted_value_lights_its_flag_and_the_counts_and_in_use_holds_the_as_built_value(pasted):
-    _, after, cells = pasted
+    _, after, cells, guide_rows = pasted
     for key, (value, words) in PASTED.items():
         row = cells[key][1:]
         assert after[("SETTINGS", f"D{row}")].startswith(words + ": using the as-built value"), key
@@ -131,12 +133,13 @@ def test_each_pasted_value_lights_its_flag_and_the_counts_and_in_use_holds_the_a
         assert flagged, key
         assert _plain(after[("SETTINGS", f"C{row}")]) == (_serial(used) if key == "period_end" and used else used), key
     assert len(PASTED) == after[("SETTINGS", "B3")]
-    assert after[("GUIDE", "B8")].startswith(f"{len(PASTED)} typed setting(s) not valid")
+    assert after[("GUIDE", "B8")].startswith("A typed setting is not valid: its as-built value is in use instead")
+    assert len(PASTED) == after[("GUIDE", f"B{guide_rows['Typed settings not valid (as-built value in use)']}")]
 
 
 @pytest.mark.slow
 def test_every_figure_outside_settings_and_the_guide_is_as_built_after_the_paste(pasted):
-    before, after, _ = pasted
+    before, after, _, _ = pasted
     # (defined names come back under the sheet "": the typed cells and the count are names too)
     differ = {k for k in before if k[0] not in ("SETTINGS", "GUIDE", "") and not same_value(before[k], after.get(k))}
     assert set() == differ

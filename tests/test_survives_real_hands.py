@@ -280,9 +280,10 @@ def test_text_pasted_into_a_setting_costs_one_flag_not_errors(hands, work, actio
         in_use = row[2].date() if isinstance(row[2], dt.datetime) else row[2]
         assert (_norm(used), flagged) == (_norm(in_use), row[3] not in (None, "")), spec.key
     assert len(pasted) == settings["B3"].value
-    guide = {ws_row[0]: ws_row[1] for ws_row in wb["Guide"].iter_rows(max_row=20, values_only=True)}
-    assert f"{len(pasted)} typed setting(s) not valid: the as-built value is in use instead; see the Check " \
-           "column on Settings" == guide["Settings"]
+    guide = {ws_row[0]: ws_row[1] for ws_row in wb["Guide"].iter_rows(max_row=30, values_only=True)}
+    assert ("A typed setting is not valid: its as-built value is in use instead (see the key figure below and the "
+            "Check column on Settings).") == guide["Settings"]
+    assert len(pasted) == guide["Typed settings not valid (as-built value in use)"]
     # Every figure elsewhere is the as-built workbook's: the pasted values cost nothing but their flags.
     before, after = sheet_rows(hands["as_built"]), sheet_rows(path)
     assert {n: before[n] for n in before if n not in ("Settings", "Guide")} == \

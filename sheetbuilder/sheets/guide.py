@@ -211,8 +211,11 @@ def _column_rows(title: str, defs: list[ColumnDef]) -> list[list[Cell | None]]:
 
 
 # Lights up when a typed setting is not valid (the Settings sheet's count; the formulas use its as-built value).
-SETTINGS_CHECK = (f'=IF({NOT_VALID_NAME}=0,"",{NOT_VALID_NAME}&" typed setting(s) not valid: the as-built value is '
-                  f'in use instead; see the Check column on Settings")')
+# The count itself is a key figure (SETTINGS_FIGURE): no & on a bare number (DEVELOPERS.md).
+SETTINGS_WARNING = ("A typed setting is not valid: its as-built value is in use instead (see the key figure below and "
+                    "the Check column on Settings).")
+SETTINGS_CHECK = f'=IF({NOT_VALID_NAME}=0,"","{SETTINGS_WARNING}")'
+SETTINGS_FIGURE = "Typed settings not valid (as-built value in use)"
 
 
 def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tuple[str, list[ColumnDef]]],
