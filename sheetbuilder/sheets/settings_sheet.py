@@ -235,7 +235,7 @@ def plan_settings(settings: Settings, built_on: dt.date, period=None,
         rows.append([Cell("Column mapping used when reading", style="subtitle")])
         for table, canon, source in mapped:
             rows.append([Cell(f"{table}.{canon}"), Cell(source), None, None, Cell("header in your file", style="note")])
-    widths = {0: 28, VALUE: 14, USED: 12, CHECK: 44, HELP: 90, NAME: 22, BUILT: 12}
+    widths = {0: 28, VALUE: 14, USED: 12, CHECK: 60, HELP: 90, NAME: 22, BUILT: 12}
     sheet = Sheet(SHEET, above=rows, widths=widths, validations=validations, freeze=(FIRST_ROW, 0), tab_color="#B08A1E",
                   page=PageSetup(repeat_rows=(FIRST_ROW - 1, FIRST_ROW - 1)))
     return sheet, names
