@@ -1,7 +1,7 @@
 """Benchmark (not a test): build, weight and LibreOffice recalculation of synthetic accounts.
 
     python -m benchmarks.bench [--sizes 1000,10000] [--terms-ratio 2] [--no-libreoffice]
-                               [--attribution] [--large] [--large-terms 1000000]
+                               [--attribution] [--large] [--large-terms 1000000] [--history-weeks 52]
 
 For each size N (ad rows, about as many keywords and product targets) it writes a synthetic
 account (benchmarks/accounts.py), then in fresh subprocesses (so peak memory is each step's
@@ -14,6 +14,10 @@ twin, and through its UNO bridge (benchmarks/lo_uno.py, run by the system python
 loading each, a full recalculation (the least of three), and one unit-cost edit recalculated
 and saved.
 
+--history-weeks W (default 52; 0 skips it) then makes the account weekly with W - 1 past weekly
+keyword exports (benchmarks/history.py), builds it with --history (W weeks recorded) and again
+with --previous (W weeks carried), and reports both times, the file size and the ratio of the
+carrying build to the plain --previous build above.
 --attribution adds where recalculation time goes: partial twins that keep one sheet's
 formulas, or one idiom's, each loaded and recalculated apart (benchmarks/attribution.py).
 --large builds one account of --large-terms search-term rows and reports its build time and
@@ -32,13 +36,15 @@ import time
 from pathlib import Path
 
 from .accounts import TERMS_RATIO, make_account
+from .history import make_past_weeks
 from .attribution import attribute, report_attribution
 from .libreoffice import lo_convert_seconds, uno_available, uno_times
 from .twin import count_cells, input_rows, make_twin
 
 AIMS = ("aims: build <= 1.5x plain write; LO recalc <= 1.5x loading the values-only twin; <= 10 formula cells "
-        "per input row; < 10 million cells and < 100 MB at 100k keywords; 10x rows <= 11x time; one unit-cost "
-        "edit <= 1 s at 10k; peak build memory <= 2 GB at 1 million search-term rows")
+        "per input row; --previous carrying 52 weeks of keyword history < 2x --previous; < 10 million cells and "
+        "< 100 MB at 100k keywords; 10x rows <= 11x time; one unit-cost edit <= 1 s at 10k; peak build memory "
+        "<= 2 GB at 1 million search-term rows")
 CELL_MARK = 10_000_000  # a spreadsheet over this many cells is refused by some programs (from memory, unverified)
 
 
@@ -55,7 +61,20 @@ def _ratio(a, b):
     return a / b if a is not None and b else None
 
 
-def measure_size(n: int, base: Path, libreoffice: bool, uno: bool, terms_ratio: float, attribution: bool) -> dict:
+def measure_history(row: dict, base: Path, weeks: int) -> None:
+    """The keyword history of weeks weeks on a weekly copy of the account: row gains its figures."""
+    import shutil
+    weekly = base / "weekly"
+    shutil.copytree(base / "inputs", weekly)
+    row["kh_weeks"] = weeks
+    row["kh_past_rows"] = make_past_weeks(weekly, base / "past", weeks)
+    row.update(_child(["keyword_history", str(weekly), str(base / "history.xlsx"), str(base / "past")]))
+    row["kh_previous_ratio"] = _ratio(row["kh_previous_s"], row["previous_s"])
+    row["kh_previous_cpu_ratio"] = _ratio(row["kh_previous_cpu_s"], row.get("previous_cpu_s"))
+
+
+def measure_size(n: int, base: Path, libreoffice: bool, uno: bool, terms_ratio: float, attribution: bool,
+                 history_weeks: int = 0) -> dict:
     """Every figure of one account size."""
     t = time.perf_counter()
     make_account(base / "inputs", n, terms_ratio=terms_ratio)
@@ -76,6 +95,8 @@ def measure_size(n: int, base: Path, libreoffice: bool, uno: bool, terms_ratio: 
     row["formulas_per_input_row"] = _ratio(row["formula_cells"], row["input_rows"])
     row["cells_vs_mark"] = row["grid_cells"] / CELL_MARK
     row["previous_build_ratio"] = _ratio(row["previous_s"], row["build_s"])
+    if history_weeks > 0:
+        measure_history(row, base, history_weeks)
     row["build_plain_ratio"] = _ratio(row["build_s"], row["plain_s"])
     row["render_plain_ratio"] = _ratio(row["render_s"], row["plain_s"])
     if libreoffice:
@@ -107,6 +128,12 @@ COLUMNS = [("search-term rows", "st_rows", "d"), ("Terms rows", "terms_rows", "d
            ("plain write s", "plain_s", ".2f"), ("build/plain", "build_plain_ratio", ".2f"),
            ("render/plain", "render_plain_ratio", ".2f"), ("build peak MB", "peak_mb", ".0f"),
            ("--previous s", "previous_s", ".2f"), ("previous/build", "previous_build_ratio", ".2f"),
+           ("keyword history weeks", "kh_weeks", "d"),
+           ("build --history s (weeks recorded)", "kh_history_build_s", ".2f"),
+           ("--previous with the history s", "kh_previous_s", ".2f"),
+           ("... / --previous", "kh_previous_ratio", ".2f"),
+           ("... CPU s / --previous CPU s", "kh_previous_cpu_ratio", ".2f"),
+           ("workbook with the history MB", "kh_file_mb", ".2f"),
            ("changes s", "changes_s", ".2f"), ("changes (no cached values) s", "changes_no_values_s", ".2f"),
            ("twin made s", "twin_s", ".2f"),
            ("LO convert with recalc s", "lo_recalc_s", ".2f"), ("LO convert twin s", "lo_twin_s", ".2f"),
@@ -179,6 +206,8 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--large-terms", type=int, default=1_000_000, help="its search-term rows (default %(default)d)")
     ap.add_argument("--large-size", type=int, default=100_000, help="its ad rows (default %(default)d)")
     ap.add_argument("--micro-cells", type=int, default=200_000, help="formulas in the write-rate micro-benchmark")
+    ap.add_argument("--history-weeks", type=int, default=52,
+                    help="weeks of keyword history built with --history and carried with --previous (0: skip)")
     ap.add_argument("--out", default="bench_results.json", help="where the figures go (JSON)")
     args = ap.parse_args(argv)
     sizes = sorted(int(s) for s in args.sizes.split(",") if s.strip())
@@ -198,7 +227,8 @@ def main(argv: list[str] | None = None) -> int:
             _child(["build", str(Path(tmp) / "warm"), str(Path(tmp) / "warm.xlsx")])
             lo_convert_seconds(Path(tmp) / "warm.xlsx", Path(tmp) / "lo_warm")
         for n in sizes:
-            results.append(measure_size(n, Path(tmp) / str(n), libreoffice, uno, args.terms_ratio, args.attribution))
+            results.append(measure_size(n, Path(tmp) / str(n), libreoffice, uno, args.terms_ratio, args.attribution,
+                                        args.history_weeks))
             Path(args.out).write_text(json.dumps({"partial": True, "results": results}, indent=2) + "\n",
                                       encoding="utf-8")  # kept if a later size fails
             print(f"  size {n}: done", file=sys.stderr, flush=True)

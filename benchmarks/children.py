@@ -41,9 +41,9 @@ def child_previous(folder: Path, old: Path) -> dict:
     """Time a build with --previous (the old workbook read, its edits matched and carried)."""
     from sheetbuilder.pipeline import build
     out = old.with_name(old.stem + "_next.xlsx")
-    t = time.perf_counter()
+    t, cpu = time.perf_counter(), time.process_time()
     build(folder, out, force=True, built_on=BUILT_ON, previous=old)
-    return {"previous_s": time.perf_counter() - t}
+    return {"previous_s": time.perf_counter() - t, "previous_cpu_s": time.process_time() - cpu}
 
 
 def child_changes(workbook: Path, csv_out: Path) -> dict:
@@ -177,6 +177,22 @@ def child_micro(n: int) -> dict:
 
 
 
+def child_keyword_history(folder: Path, out: Path, past: Path) -> dict:
+    """Build with --history past (its weeks recorded), then with --previous (every week carried): times, size."""
+    from sheetbuilder.pipeline import build
+    t, cpu = time.perf_counter(), time.process_time()
+    first = build(folder, out, force=True, built_on=BUILT_ON, history=past)
+    history_s, history_cpu = time.perf_counter() - t, time.process_time() - cpu
+    nxt = out.with_name(out.stem + "_next.xlsx")
+    t, cpu = time.perf_counter(), time.process_time()
+    build(folder, nxt, force=True, built_on=BUILT_ON, previous=out)
+    previous_s, previous_cpu = time.perf_counter() - t, time.process_time() - cpu
+    keywords = next(s for s in first.plan.spec.sheets if s.name == "Keyword history").table.n_rows
+    return {"kh_history_build_s": history_s, "kh_previous_s": previous_s, "kh_history_build_cpu_s": history_cpu,
+            "kh_previous_cpu_s": previous_cpu, "kh_peak_mb": _peak_mb(),
+            "kh_file_mb": nxt.stat().st_size / 2 ** 20, "kh_keywords": keywords}
+
+
 def child_large(folder: Path, out: Path) -> dict:
     """Build a large account and nothing else: time, peak memory, file size."""
     return child_build(folder, out)
@@ -186,9 +202,16 @@ KINDS = {"build": child_build, "plain": child_plain, "previous": child_previous,
          "large": child_large}
 
 
+def _history_kind(rest: list[str]) -> dict:
+    return child_keyword_history(Path(rest[0]), Path(rest[1]), Path(rest[2]))
+
+
 def main(argv: list[str]) -> int:
     kind, rest = argv[0], argv[1:]
-    out = child_micro(int(rest[0])) if kind == "micro" else KINDS[kind](Path(rest[0]), Path(rest[1]))
+    if kind == "keyword_history":
+        out = _history_kind(rest)
+    else:
+        out = child_micro(int(rest[0])) if kind == "micro" else KINDS[kind](Path(rest[0]), Path(rest[1]))
     print(json.dumps(out))
     return 0
 

@@ -22,6 +22,7 @@ from sheetbuilder.workbook.columns import ColumnDef, PlannedTable
 from sheetbuilder.workbook.formula import check_names
 from sheetbuilder.errors import Problem
 from sheetbuilder.sheets.history import applied_rows, plan_history, week_of
+from sheetbuilder.sheets.keyword_weeks import PackedHistory, plan_keyword_history
 from sheetbuilder.sheets.actions import DEFS as ACTION_DEFS, SEGMENTS as ACTION_SEGMENTS, plan_actions
 from sheetbuilder.sheets.bids import DEFS as BIDS_DEFS, plan_bids
 from sheetbuilder.sheets.budget import CAMPAIGN_DEFS, PRODUCT_DEFS as BUDGET_DEFS, plan_budget
@@ -33,6 +34,7 @@ from sheetbuilder.sheets.guide import SETTINGS_FIGURE, plan_guide
 from sheetbuilder.sheets.inputs import InputSheet, catalog_names, plan_input_sheets
 from sheetbuilder.sheets.lists import HARVEST, NEGATIVES, plan_list
 from sheetbuilder.sheets.mix import MATCH_DEFS, TYPE_DEFS as MIX_DEFS, plan_mix
+from sheetbuilder.sheets.notes import place_notes
 from sheetbuilder.sheets.profit import DEFS as PROFIT_DEFS, plan_profit
 from sheetbuilder.sheets.settings_sheet import NOT_VALID_NAME, plan_settings
 from sheetbuilder.sheets.terms import DEFS as TERMS_DEFS, plan_terms
@@ -44,7 +46,7 @@ from sheetbuilder.workbook.spec import Sheet, Table, WorkbookSpec
 
 # Where each step's sheets go, left to right (the Guide first, the in_ sheets last).
 SHEET_ORDER = ("guide", "settings", "profit", "bids", "terms", "harvest", "negatives", "mix", "budget", "actions",
-               "followup", "history", "groups", "keys", "unmatched", "carried", "inputs")
+               "followup", "history", "keyword_history", "groups", "keys", "unmatched", "carried", "inputs")
 # The order of the column sections on the Guide.
 SECTION_ORDER = ("profit", "bids", "terms", "harvest", "negatives", "mix", "budget", "groups", "actions", "followup")
 
@@ -84,6 +86,7 @@ class Assembly:
     history: list[dict] | None
     layouts: dict[str, InputSheet]
     decide: Decisions
+    keyword_history: PackedHistory | None = None
     anchors: Anchors = field(default_factory=Anchors)
     groups: PlannedTable | None = None  # the ad-group blends Bids and Terms read (a sheet only when one of them is)
     blends: PlannedTable | None = None  # the per-ad-group blends table on Groups, fetched by INDEX
@@ -228,6 +231,12 @@ def _history(a: Assembly) -> None:
     a.names += names
 
 
+def _keyword_history(a: Assembly) -> None:
+    sheet, names = plan_keyword_history(a.keyword_history)
+    a.place("keyword_history", sheet)
+    a.names += names
+
+
 def _guide(a: Assembly) -> None:
     """The dashboard's figures, read from the anchors, then the Guide."""
     figures = dashboard(a.tables, a.anchors, (a.anchors["budget.shifted"], a.anchors.value("budget.shifted")))
@@ -246,7 +255,12 @@ def _guide(a: Assembly) -> None:
     exports = [("Currency in the exports", a.inputs.currency or "no currency marked; amounts read as written"),
                ("Period in the exports", str(a.inputs.period) if a.inputs.period else "no dates; period_days applies")]
     a.place("guide", plan_guide(a.settings, a.built_on, sections, a.warnings, a.inputs.checksums, sources, figures,
-                                first_look(a.tables), exports))
+                                first_look(a.tables, "inventory" in a.layouts), exports))
+
+
+def _notes(a: Assembly) -> None:
+    """The notes carried by key, the user's own columns beside them, and room for more (unlocked)."""
+    place_notes(a.sheets, a.tables, a.carry)
 
 
 def _unmatched(a: Assembly) -> None:
@@ -275,7 +289,9 @@ STEPS: tuple[Step, ...] = (
     Step("actions", _actions),
     Step("followup", _followup, when=lambda a: a.followup is not None),
     Step("history", _history, when=lambda a: a.history is not None),
+    Step("keyword_history", _keyword_history, when=lambda a: a.keyword_history is not None),
     Step("guide", _guide),
+    Step("notes", _notes),
     Step("unmatched", _unmatched, when=lambda a: a.carry is not None and bool(a.carry.unmatched)),
     Step("carried", _carried, when=lambda a: a.carry is not None and bool(a.carry.carried or a.carry.applied)),
 )
@@ -283,7 +299,8 @@ STEPS: tuple[Step, ...] = (
 
 def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
                   warnings: list[Problem] | None = None, carry: CarryResult | None = None,
-                  followup: Followup | None = None, history: list[dict] | None = None) -> Plan:
+                  followup: Followup | None = None, history: list[dict] | None = None,
+                  keyword_history: PackedHistory | None = None) -> Plan:
     """Plan every sheet from validated inputs: pure, writes nothing.
 
     Args:
@@ -294,13 +311,15 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
         carry: edits carried from last week's workbook (decisions and target overrides).
         followup: last week's changes looked up in this week's exports (a Follow-up sheet after Actions).
         history: the History rows carried from the previous workbook (a History sheet; None: no sheet).
+        keyword_history: the keyword history to write (a Keyword history sheet; None: no sheet).
 
     Returns:
         The plan: the workbook spec and each computed table's reference frame.
     """
     exported = carry.exported if carry is not None else {}
     input_sheets, layouts = plan_input_sheets(inputs, settings.fold_plurals, exported)
-    a = Assembly(inputs, settings, built_on, warnings or [], carry, followup, history, layouts, Decisions(carry))
+    a = Assembly(inputs, settings, built_on, warnings or [], carry, followup, history, layouts, Decisions(carry),
+                 keyword_history)
     a.place("inputs", *input_sheets)
     for step in STEPS:
         if all(need in a.anchors.tables() for need in step.needs) and step.when(a):

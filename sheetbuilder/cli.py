@@ -1,6 +1,6 @@
 """The command line: a thin layer over the library.
 
-    sheetbuilder build INPUTS -o WORKBOOK.xlsx [--force] [--previous OLD.xlsx]
+    sheetbuilder build INPUTS -o WORKBOOK.xlsx [--force] [--previous OLD.xlsx] [--history DIR]
     sheetbuilder changes WORKBOOK.xlsx -o changes.csv [--format csv|xlsx] [--force]
     sheetbuilder inspect INPUTS
     sheetbuilder batch ACCOUNTS -o OUT [--previous-dir DIR] [--jobs N] [--force]
@@ -37,7 +37,8 @@ from sheetbuilder.reading.inspection import inspect_exports, report_lines
 from sheetbuilder.pipeline import build
 from sheetbuilder.batch import run_batch
 from sheetbuilder.errors import ERROR, InputProblems, Problem, SheetbuilderError
-from sheetbuilder.sheets.typed import CarryResult
+from sheetbuilder.sheets.decisions import NOTES_HEADER
+from sheetbuilder.sheets.typed import CarryResult, key_text
 from sheetbuilder.values import shown
 
 EXIT_INPUT = 2
@@ -79,7 +80,19 @@ def carried_summary(result: CarryResult) -> str:
     text += (f" {len(result.unmatched)} edit(s) could not be carried (their product, target or term is gone, "
              "or the value is not valid); they are listed on the Unmatched edits sheet." if result.unmatched
              else " 0 edits could not be matched.")
+    text += own_notes_summary(result)
     return text
+
+def own_notes_summary(result: CarryResult) -> str:
+    """A sentence on the user's own notes and columns that could not be carried (never dropped without a word)."""
+    lost = [r for r in result.unmatched if r.column == NOTES_HEADER or r.key.startswith("(column ")]
+    lost += [r for r in result.unmatched if r not in lost and any(
+        r.column == key_text(c.header) for c in result.own_columns.get(r.sheet, []))]
+    if not lost:
+        return ""
+    return (f" {len(lost)} of them: your own notes or values of your own columns ("
+            + ", ".join(f"{r.sheet} {r.key}" for r in lost[:3]) + (", ..." if len(lost) > 3 else "") + ").")
+
 
 class Interrupted(KeyboardInterrupt):
     """A stop signal (SIGTERM, SIGHUP, or SIGINT) turned into an exception so that cleanup code runs."""
@@ -109,7 +122,7 @@ def os_error_message(exc: OSError, fallback: Path | None) -> str:
 def _run_build(args: argparse.Namespace, progress) -> object:
     """build(...) with the command's options."""
     return build(args.inputs, args.output, force=args.force, progress=progress, previous=args.previous,
-                 previous_anyway=args.previous_anyway)
+                 previous_anyway=args.previous_anyway, history=args.history)
 
 
 def print_problems(console: Console, problems: list[Problem]) -> None:
@@ -165,8 +178,8 @@ def _changes(args: argparse.Namespace, console: Console) -> int:
                             include_unapplied=args.include_unapplied)
     if result.unchecked:
         console.print(f"{args.workbook} stores no formula values (saved by a program that does not store them): "
-                      "the change list was computed from its inputs, but cells typed over a formula could not "
-                      "be looked for")
+                      "the change list was computed from its inputs, and cells typed over a formula were found "
+                      "by the formulas they replaced")
     if result.problems:
         console.print(f"[bold]{len(result.refused)} change(s) refused, not written; "
                       f"{len(result.overwritten)} cell(s) typed over a formula; other problems below:[/bold]")
@@ -247,13 +260,18 @@ def parser() -> argparse.ArgumentParser:
     b.add_argument("-q", "--quiet", action="store_true", help="print only problems")
     b.add_argument("--debug", action="store_true", help="show the traceback of any failure")
     b.add_argument("--previous", type=Path, default=None, metavar="OLD.xlsx",
-                   help="last week's workbook: carry its settings, costs, targets and Decisions into this one "
+                   help="last week's workbook, saved as .xlsx or .ods: carry its settings, costs, targets and Decisions into this one "
                         "(it is only read); edits that no longer match a row are listed on an Unmatched edits sheet. "
                         "A workbook built for another account (under half of its products or campaigns in these "
                         "exports) is refused")
     b.add_argument("--previous-anyway", action="store_true",
                    help="carry what matches from a --previous workbook built for another account instead of "
-                        "refusing it (its Follow-up and History are not read)")
+                        "refusing it (its Follow-up, History and Keyword history are not read)")
+    b.add_argument("--history", type=Path, default=None, metavar="DIR",
+                   help="past keyword exports to start the Keyword history with: each export file in DIR (or the "
+                        "targets export of each folder in DIR) is one past period, read from its dates, title or "
+                        "file name. A period already recorded is replaced only by the very same period; one that "
+                        "shares some days with another is refused, naming both")
     b.set_defaults(run=_build)
     ch = sub.add_parser("changes", help="export the changes on a workbook's Actions sheet as CSV or .xlsx",
                         description="Read WORKBOOK (edited and saved by you) and write one row per change on its "
@@ -263,7 +281,7 @@ def parser() -> argparse.ArgumentParser:
                                     "0 every change written; 3 some refused (the valid ones are written); 1 nothing "
                                     "written (missing workbook, no Actions sheet, output exists without --force); "
                                     "4 the system refused a read or write; 130 interrupted.")
-    ch.add_argument("workbook", type=Path, help="the edited .xlsx workbook")
+    ch.add_argument("workbook", type=Path, help="the edited workbook, saved as .xlsx or .ods")
     ch.add_argument("-o", "--output", type=Path, required=True, help="the file to write (.csv, or .xlsx with --format xlsx)")
     ch.add_argument("--format", choices=("csv", "xlsx"), default="csv", help="csv (default; text escaped against "
                     "formula injection) or xlsx (text written as text)")

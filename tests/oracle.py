@@ -47,6 +47,11 @@ def profit_oracle(tables, settings, catalog_edits=None, target_overrides=None):
         spend[row["product_id"]] += row["spend"]
         ad_sales[row["product_id"]] += row["ad_sales"]
         ids.add(row["product_id"])
+    stock = None  # units available per product, every location summed (None: no inventory export)
+    if tables.get("inventory") is not None:
+        stock = defaultdict(float)
+        for row in tables["inventory"].to_dict("records"):
+            stock[row["product_id"]] += row["units_available"]
     total_revenue = sum(revenue[p] for p in ids)
     total_spend = sum(spend[p] for p in ids)
     out = {}
@@ -72,7 +77,12 @@ def profit_oracle(tables, settings, catalog_edits=None, target_overrides=None):
         sales_share = _div(rev, total_revenue)
         spend_share = _div(sp, total_spend)
         ratio = _div(spend_share, sales_share)
-        if rev == 0 and sp > 0:  # ad spend with no sales is the clearest loss there is
+        available = stock[pid] if stock is not None and pid in stock else BLANK
+        # Days of cover: how long the units available last at the period's rate of units sold per day.
+        cover = BLANK if available is BLANK else ("no sales" if units[pid] == 0
+                                                  else available / (units[pid] / settings.period_days))
+        low = isinstance(cover, float) and cover < settings.min_days_of_cover
+        if (rev == 0 or available == 0) and sp > 0:  # spend with no sales, or on clicks no stock can convert
             status = "loss"
         elif rev == 0:
             status = "no sales"
@@ -92,6 +102,8 @@ def profit_oracle(tables, settings, catalog_edits=None, target_overrides=None):
             direction = "cut"
         elif ratio is not BLANK and status in ("loss", "thin") and ratio > 1:
             direction = "cut"
+        elif low:  # never told to grow while its stock runs short
+            direction = "low stock"
         elif ratio is not BLANK and status == "strong" and ratio < 1:
             direction = "grow"
         else:
@@ -105,7 +117,8 @@ def profit_oracle(tables, settings, catalog_edits=None, target_overrides=None):
             "Net margin after ads": net_margin,
             "Net profit after ads": BLANK if margin is BLANK else rev * margin - sp,
             "Sales share": sales_share, "Spend share": spend_share, "Spend-to-sales ratio": ratio,
-            "Status": status, "Direction": direction,
+            "Status": status, "Direction": direction, "Days of cover": cover,
+            "Units available": available, "Low stock": 1.0 if low else 0.0,
             # Break-even rule, common practice in the trade (no single source): above a target ACoS equal to
             # the margin before ads, each ad-driven sale loses money before any other cost.
             "Target check": "" if margin is BLANK or target <= margin else (

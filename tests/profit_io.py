@@ -9,9 +9,9 @@ from sheetbuilder.pipeline import load
 
 PROFIT_HEADERS = ["Product ID", "Product name", "Units", "Revenue", "Ad spend", "Ad sales", "TACoS", "ACoS",
                   "Margin before ads", "Break-even ACoS", "Target ACoS", "Net margin after ads",
-                  "Net profit after ads", "Sales share", "Spend share", "Spend-to-sales ratio", "Status",
-                  "Direction"]
-PROFIT_CHECKED = PROFIT_HEADERS + ["Target check", "Bid target ACoS"]
+                  "Net profit after ads", "Sales share", "Spend share", "Spend-to-sales ratio", "Days of cover",
+                  "Status", "Direction"]
+PROFIT_CHECKED = PROFIT_HEADERS + ["Target check", "Bid target ACoS", "Units available", "Low stock"]
 HEADER_ROW = 5  # 1-based: title, caution, warning, blank, header
 
 

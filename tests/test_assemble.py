@@ -10,7 +10,7 @@ import pytest
 
 from minimal import write_account
 
-import sheetbuilder.weekly.change_list as change_list
+import sheetbuilder.weekly.record as record  # where a saved workbook is planned again
 from sheetbuilder.sheets.anchors import Anchors, DuplicateAnchor, MissingAnchor, without_absent
 from sheetbuilder.assemble import SHEET_ORDER, STEPS, plan_workbook
 from sheetbuilder.cli import EXIT_BUG, main
@@ -84,7 +84,9 @@ def test_the_demo_plan_reads_no_placeholder_range_and_places_every_sheet_by_its_
     assert [] == [f for f in _formulas(plan) if "$ZZ$" in f]
     assert ["Guide", "Settings", "Profit", "Bids", "Terms", "Harvest", "Negatives", "Mix", "Budget", "Actions",
             "Groups", "Keys"] == [s.name for s in plan.spec.sheets if not s.name.startswith("in_")]
-    assert {step.name for step in STEPS} - {"inputs", "lists", "guide"} <= set(SHEET_ORDER)
+    # Steps that place no sheet of their own: the inputs' anchors, the lists (placed as harvest and negatives), the
+    # Guide (placed as guide), the notes (filled into the sheets of profit, bids, terms and budget).
+    assert {step.name for step in STEPS} - {"inputs", "lists", "guide", "notes"} <= set(SHEET_ORDER)
 
 
 def test_the_renderer_refuses_a_table_planned_over_the_rows_above_it(tmp_path):
@@ -102,7 +104,7 @@ def test_a_bug_while_planning_a_saved_workbook_exits_70_not_as_an_unreadable_fil
     def broken(*args, **kwargs):
         raise ZeroDivisionError("a bug in planning")
 
-    monkeypatch.setattr(change_list, "plan_workbook", broken)
+    monkeypatch.setattr(record, "plan_workbook", broken)
     capsys.readouterr()
     assert EXIT_BUG == main(["changes", str(book), "-o", str(tmp_path / "changes.csv")])
     err = capsys.readouterr().err

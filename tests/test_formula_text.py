@@ -34,62 +34,72 @@ def _block(first: str, last: str, rng: str) -> str:
     return f'=IF({first}6="",0,SUM(INDEX({rng},{first}6):INDEX({rng},{last}6)))'
 
 
-# The product's catalog row: its catalog position (Profit V) when in_catalog's position column (M, after the
-# seven catalog columns and their five exported_ twins) still holds it there, else found by exact MATCH (sorted).
-AT_CATALOG = "IF(INDEX(in_catalog!$M$2:$M$3,V6)=V6,V6,MATCH(V6,in_catalog!$M$2:$M$3,0))"
+# The product's catalog row, computed once in the hidden column AN: its catalog position (Profit W) when
+# in_catalog's position column (M, after the seven catalog columns and their five exported_ twins) still holds it
+# there, else found by exact MATCH (in_catalog sorted).
+AT_CATALOG = "IF(INDEX(in_catalog!$M$2:$M$3,W6)=W6,W6,MATCH(W6,in_catalog!$M$2:$M$3,0))"
 
 
 def _cat(letter: str) -> str:
-    """The product's value in one in_catalog column, read at its checked catalog row."""
-    return f"INDEX(in_catalog!${letter}$2:${letter}$3,{AT_CATALOG})"
+    """The product's value in one in_catalog column, read at its checked catalog row (AN)."""
+    return f"INDEX(in_catalog!${letter}$2:${letter}$3,AN6)"
 
 
-# Profit, body row 6: {header: formula}. Columns A Product ID ... S Your target ACoS, T Target check, U Bid target
-# ACoS, then the hidden helpers V catalog row, W/X store-sales block, Y/Z ad block, AA ad clicks ... AG revenue with a margin.
+# Profit, body row 6: {header: formula}. Columns A Product ID ... P Spend-to-sales ratio, Q Days of cover, R Status,
+# S Direction, T Your target ACoS, U Target check, V Bid target ACoS, then the hidden helpers W catalog row, X/Y
+# store-sales block, Z/AA ad block, AB ad clicks ... AH revenue with a margin, AI position, AJ/AK in_inventory block,
+# AL units available (a value here: the account has no inventory export), AM low stock.
 PROFIT_ROW_1 = {
-    "Units": _block("W", "X", "in_store_sales!$B$2:$B$4"),
-    "Revenue": _block("W", "X", "in_store_sales!$C$2:$C$4"),
-    "Ad spend": _block("Y", "Z", "in_ad_products!$G$2:$G$3"),
-    "Ad sales": _block("Y", "Z", "in_ad_products!$H$2:$H$3"),
+    "Units": _block("X", "Y", "in_store_sales!$B$2:$B$4"),
+    "Revenue": _block("X", "Y", "in_store_sales!$C$2:$C$4"),
+    "Ad spend": _block("Z", "AA", "in_ad_products!$G$2:$G$3"),
+    "Ad sales": _block("Z", "AA", "in_ad_products!$H$2:$H$3"),
     "TACoS": '=IF(D6=0,"",E6/D6)',
     "ACoS": '=IF(F6=0,"",E6/F6)',
-    "Margin before ads": f'=IF(V6="","",IF({_cat("G")}<>"",{_cat("G")},IF(OR({_cat("C")}=0,{_cat("D")}=""),"",'
+    "Margin before ads": f'=IF(W6="","",IF({_cat("G")}<>"",{_cat("G")},IF(OR({_cat("C")}=0,{_cat("D")}=""),"",'
                          f'({_cat("C")}-{_cat("D")}-{_cat("E")})/{_cat("C")})))',
     "Break-even ACoS": "=I6",
-    "Target ACoS": f'=IF(S6<>"",S6,IF(V6="",default_target_acos,IF({_cat("F")}<>"",{_cat("F")},'
+    "Target ACoS": f'=IF(T6<>"",T6,IF(W6="",default_target_acos,IF({_cat("F")}<>"",{_cat("F")},'
                    'default_target_acos)))',
     "Net margin after ads": '=IF(OR(I6="",G6=""),"",I6-G6)',
     "Net profit after ads": '=IF(I6="","",D6*I6-E6)',
     "Sales share": '=IF($D$8=0,"",D6/$D$8)',
     "Spend share": '=IF($E$8=0,"",E6/$E$8)',
     "Spend-to-sales ratio": '=IF(N6="","",IF(N6=0,"",IF(O6="","",O6/N6)))',
-    # Ad spend with no sales is a loss (issue 9); a product with no ad spend reads "no ads"; no sales with spend is cut.
-    "Status": '=IF(AND(D6=0,E6>0),"loss",IF(D6=0,"no sales",IF(I6="","no margin",IF(L6<0,"loss",'
-              'IF(L6<thin_margin,"thin",IF(L6>=strong_margin,"strong","healthy"))))))',
-    "Direction": '=IF(E6=0,"no ads",IF(D6=0,"cut",IF(P6="","hold",IF(AND(OR(Q6="loss",Q6="thin"),P6>1),"cut",'
-                 'IF(AND(Q6="strong",P6<1),"grow","hold")))))',
-    # T and U: a target above break-even (K > I) is flagged, and with the cap on the bids aim at break-even.
+    # Days of cover (issue 25): units available / (units sold / period days), blank when the stock is unknown.
+    "Days of cover": '=IF(AL6="","",IF(C6=0,"no sales",AL6*period_days/C6))',
+    # Ad spend with no sales is a loss (issue 9), and so is ad spend with no units available (issue 25); a product
+    # with no ad spend reads "no ads"; no sales with spend is cut.
+    "Status": '=IF(AND(E6>0,OR(D6=0,AND(AL6<>"",AL6=0))),"loss",IF(D6=0,"no sales",IF(I6="","no margin",'
+              'IF(L6<0,"loss",IF(L6<thin_margin,"thin",IF(L6>=strong_margin,"strong","healthy"))))))',
+    # Below the minimum days of cover a product is never told to grow (cut still applies).
+    "Direction": '=IF(E6=0,"no ads",IF(D6=0,"cut",IF(P6="",IF(AM6=1,"low stock","hold"),'
+                 'IF(AND(OR(R6="loss",R6="thin"),P6>1),"cut",IF(AM6=1,"low stock",'
+                 'IF(AND(R6="strong",P6<1),"grow","hold"))))))',
+    # U and V: a target above break-even (K > I) is flagged, and with the cap on the bids aim at break-even.
     "Target check": '=IF(I6="","",IF(K6>I6,IF(cap_target_at_break_even="yes","above break-even: bids use '
                     'break-even","above break-even: each ad sale loses money"),""))',
     "Bid target ACoS": '=IF(AND(cap_target_at_break_even="yes",I6<>""),IF(K6>I6,MAX(0,I6),K6),K6)',
-    "Ad clicks": _block("Y", "Z", "in_ad_products!$F$2:$F$3"),
-    "Ad orders": _block("Y", "Z", "in_ad_products!$I$2:$I$3"),
-    "Product CVR": "=IF(OR(AA6=0,AB6=0),$AC$8,AB6/AA6)",
-    "Product order value": "=IF(AB6=0,$AD$8,F6/AB6)",
-    "Product price": f'=IF(V6="",AD6,IF({_cat("C")}>0,{_cat("C")},AD6))',
+    "Ad clicks": _block("Z", "AA", "in_ad_products!$F$2:$F$3"),
+    "Ad orders": _block("Z", "AA", "in_ad_products!$I$2:$I$3"),
+    "Product CVR": "=IF(OR(AB6=0,AC6=0),$AD$8,AC6/AB6)",
+    "Product order value": "=IF(AC6=0,$AE$8,F6/AC6)",
+    "Product price": f'=IF(W6="",AE6,IF({_cat("C")}>0,{_cat("C")},AE6))',
     "Gross profit before ads": '=IF(I6="","",D6*I6)',
     "Revenue with a margin": '=IF(I6="",0,D6)',
+    "Low stock": '=IF(ISNUMBER(Q6),IF(Q6<min_days_of_cover,1,0),0)',
+    "Catalog row now": f'=IF(W6="","",{AT_CATALOG})',
 }
 # Profit's totals row 8: {header: formula} of every column with a formula total.
 PROFIT_TOTALS = {
     "Units": "=SUM(C6:C7)", "Revenue": "=SUM(D6:D7)", "Ad spend": "=SUM(E6:E7)", "Ad sales": "=SUM(F6:F7)",
     "TACoS": '=IF(D8=0,"",E8/D8)', "ACoS": '=IF(F8=0,"",E8/F8)',
-    "Margin before ads": '=IF(SUM(AG6:AG7)=0,"",SUM(AF6:AF7)/SUM(AG6:AG7))',
-    "Net margin after ads": '=IF(SUM(AG6:AG7)=0,"",M8/SUM(AG6:AG7))',
+    "Margin before ads": '=IF(SUM(AH6:AH7)=0,"",SUM(AG6:AG7)/SUM(AH6:AH7))',
+    "Net margin after ads": '=IF(SUM(AH6:AH7)=0,"",M8/SUM(AH6:AH7))',
     "Net profit after ads": "=SUM(M6:M7)", "Sales share": "=SUM(N6:N7)", "Spend share": "=SUM(O6:O7)",
-    "Ad clicks": "=SUM(AA6:AA7)", "Ad orders": "=SUM(AB6:AB7)",
-    "Product CVR": "=IF(AA8=0,0,AB8/AA8)", "Product order value": "=IF(AB8=0,0,F8/AB8)",
-    "Gross profit before ads": "=SUM(AF6:AF7)", "Revenue with a margin": "=SUM(AG6:AG7)",
+    "Ad clicks": "=SUM(AB6:AB7)", "Ad orders": "=SUM(AC6:AC7)",
+    "Product CVR": "=IF(AB8=0,0,AC8/AB8)", "Product order value": "=IF(AC8=0,0,F8/AC8)",
+    "Gross profit before ads": "=SUM(AG6:AG7)", "Revenue with a margin": "=SUM(AH6:AH7)",
 }
 
 
@@ -122,7 +132,8 @@ def test_profit_columns_write_the_documented_formula_in_their_first_row(two_prod
 def test_profit_value_columns_hold_no_formula(two_products):
     table = two_products.spec.sheet("Profit").table
     assert ["Product ID", "Product name", "Your target ACoS", "Catalog row", "Sales first row", "Sales last row",
-            "Ad first row", "Ad last row", "Position"] == [c.header for c in table.columns if c.formula is None]
+            "Ad first row", "Ad last row", "Position", "Stock first row", "Stock last row", "Units available", "Notes"] == [
+        c.header for c in table.columns if c.formula is None]
 
 
 def test_profit_totals_row_writes_the_documented_formulas(two_products):
@@ -168,21 +179,22 @@ def _first_row(column, row: int) -> str | None:
 
 def test_ad_group_blends_are_computed_once_on_groups_from_weight_times_value_sums(with_targets):
     # Groups: header row 3, C1/G1's products P1 and P2 on rows 4-5; D spend, E weight, F weight x Bid target ACoS
-    # (Profit U), G above break-even, H/I/J weight x CVR / order value / price, K Profit row. The blends table:
+    # (Profit V), G above break-even, H/I/J weight x CVR / order value / price, K Profit row as built, L the
+    # Profit row now (computed once per row, read by every lookup). The blends table:
     # header row 8 (a blank row and its title between), row 9 the account's values, row 10 C1/G1.
     sheet = with_targets.spec.sheet("Groups")
     groups = {c.header: _first_row(c, 4) for c in sheet.table.columns}
-    # K4 is checked against Profit's Position column (AH, after AG Revenue with a margin): Profit may be sorted.
-    at_profit = "IF(INDEX(Profit!$AH$6:$AH$7,K4)=K4,K4,MATCH(K4,Profit!$AH$6:$AH$7,0))"
-    assert f"=E4*INDEX(Profit!$U$6:$U$7,{at_profit})" == groups["Weight x target ACoS"]
-    assert f"=E4*INDEX(Profit!$AC$6:$AC$7,{at_profit})" == groups["Weight x CVR"]
+    # K4 is checked against Profit's Position column (AI, after AH Revenue with a margin): Profit may be sorted.
+    assert "=IF(INDEX(Profit!$AI$6:$AI$7,K4)=K4,K4,MATCH(K4,Profit!$AI$6:$AI$7,0))" == groups["Profit row now"]
+    assert "=E4*INDEX(Profit!$V$6:$V$7,L4)" == groups["Weight x target ACoS"]
+    assert "=E4*INDEX(Profit!$AD$6:$AD$7,L4)" == groups["Weight x CVR"]
     assert None is groups["Ad spend"] is groups["Blend weight"]  # export-only: plain values
     blends = sheet.more[0]
     assert 8 - 1 == blends.first_row
     row = {c.header: _first_row(c, 9) for c in blends.columns}
     block = "SUM(INDEX(Groups!$%s$4:$%s$5,C9):INDEX(Groups!$%s$4:$%s$5,D9))"
     assert '=IF(C9="",default_target_acos,%s/E9)' % (block % (("F",) * 4)) == row["Target ACoS"]
-    assert '=IF(C9="",Profit!$AC$8,%s/E9)' % (block % (("H",) * 4)) == row["Product CVR"]
+    assert '=IF(C9="",Profit!$AD$8,%s/E9)' % (block % (("H",) * 4)) == row["Product CVR"]
     assert '=IF(OR(G9<=0,G9>=1),"",ROUNDUP(LN(1-zero_order_confidence)/LN(1-G9),0))' == row["Zero-order clicks"]
     values = {c.header: list(c.values) for c in blends.columns}
     # Row 9 has no block (the account's values); C1/G1 owns Groups positions 1-2, weights 25 + 10 (their spend).

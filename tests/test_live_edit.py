@@ -119,6 +119,8 @@ def make_edits(demo_build, work):
         ("Terms", _cell_in_row(src, "Terms", TERMS_HEADER_ROW, "Position", _first_promote(demo_build), "Decision"),
          "skip")])
     out["edit_shift"] = edit_workbook(src, work / "edit_shift.xlsx", [(*_named_cell(src, "budget_shift_share"), 0)])
+    from test_stock import stock_edits  # units available typed on in_inventory (issue 25), checked there
+    out["edit_stock"] = edit_workbook(src, work / "edit_stock.xlsx", stock_edits(src))
     spec = copy.deepcopy(demo_build.plan.spec)
     for column in spec.sheet("Profit").table.columns:
         if column.kind == FORMULA:

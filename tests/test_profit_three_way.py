@@ -40,8 +40,8 @@ def test_profit_headers_are_the_documented_ones(demo_build):
 def test_sheets_come_in_documented_order(demo_build):
     names = openpyxl.load_workbook(demo_build.output, read_only=True).sheetnames
     assert ["Guide", "Settings", "Profit", "Bids", "Terms", "Harvest", "Negatives", "Mix", "Budget", "Actions",
-            "Groups", "Keys"] == names[:12]
-    assert all(n.startswith("in_") for n in names[12:])
+            "Keyword history", "Groups", "Keys"] == names[:13]
+    assert all(n.startswith("in_") for n in names[13:])
 
 
 def test_every_computed_profit_cell_is_a_formula(demo_build):

@@ -21,7 +21,7 @@ from sheetbuilder.sheets.bids import EDITABLE_COLUMNS as BIDS
 from sheetbuilder.sheets.budget import CAMPAIGN_EDITABLE_COLUMNS as CAMPAIGNS
 from sheetbuilder.sheets.terms import EDITABLE_COLUMNS as TERMS
 from tools.recalc import libreoffice_convert
-from sheetbuilder.weekly.saved import named_area, open_workbook
+from sheetbuilder.weekly.saved import named_area
 
 
 def _column(wb, decl, key):
@@ -136,7 +136,7 @@ def test_decisions_under_renamed_headers_and_sorted_rows_are_exported(rearranged
 
 @pytest.mark.libreoffice
 def test_libreoffice_moves_the_names_with_the_inserted_column(rearranged):
-    wb = open_workbook(rearranged["saved"])
+    wb = openpyxl.load_workbook(rearranged["saved"], read_only=True)
     area = named_area(wb, TERMS.name_of("term"))
     assert "Terms" == area.sheet
     assert TERMS.headers["term"] != wb["Terms"].cell(area.first_row, area.first_col + 1).value  # header renamed

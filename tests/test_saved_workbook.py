@@ -32,7 +32,7 @@ def opened(monkeypatch) -> dict[str, list[str]]:
         return opener(path, *args, **kwargs)
 
     def counted_loader(path, *args, **kwargs):
-        calls["openpyxl"].append(Path(path).name)
+        calls["openpyxl"].append(Path(getattr(path, "name", path)).name)  # a path or an open file
         return loader(path, *args, **kwargs)
 
     monkeypatch.setattr(saved, "open_workbook", counted_opener)

@@ -142,3 +142,11 @@ def test_a_grid_written_in_random_spellings_reads_back_as_the_grid(grid, rnd, pr
     got = _read(_sheet("".join(rows), prefix), columns=columns)
     assert [[v if v is not None else None for v in row] for row in expected] == [
         (row + [None] * 3)[:3] for row in got] + [[None] * 3] * (len(expected) - len(got))
+
+
+def test_a_cell_far_from_the_rest_is_refused_rather_than_read_into_millions_of_empty_cells(monkeypatch):
+    from sheetbuilder.reading import guard
+    monkeypatch.setattr(guard, "MAX_SAVED_CELLS", 10_000)
+    far = _sheet('<row r="1"><c r="A1"><v>1</v></c></row><row r="5002"><c r="CV5002"><v>2</v></c></row>')
+    with pytest.raises(guard.UnsafeWorkbook, match="more than 10,000 cells"):
+        _read(far)  # 5,002 rows of 100 columns

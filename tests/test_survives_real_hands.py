@@ -12,6 +12,7 @@ import datetime as dt
 import json
 import shutil
 import subprocess
+import zipfile
 from collections import Counter
 from pathlib import Path
 
@@ -23,6 +24,7 @@ from sheetbuilder.pipeline import build
 from oracle_settings import settings_oracle
 from sheetbuilder.reading.settings import SETTINGS, SPEC_BY_KEY
 from sheetbuilder.values import ERROR_VALUES
+from sheetbuilder.values import is_number, same_value
 from sheetbuilder.weekly.changes import export_changes
 
 DRIVER = Path(__file__).parent / "uno_driver.py"
@@ -36,6 +38,10 @@ PLACES = {
     "Harvest": {"Number", "Source negatives key", "Terms row"},
     "Negatives": {"Number", "Terms row"},
     "Actions": {"Number", "Source row"},
+    # The checked rows a sort moves (where a product or term is now), computed once per row for the lookups.
+    "Profit": {"Catalog row now"},
+    "Groups": {"Profit row now"},
+    "Keys": {"Negative from term row now", "Blocked term row now"},
 }
 GUIDE_LINK_COLUMN = 2  # the first look's row numbers on Profit and Actions (Guide column C)
 
@@ -105,6 +111,10 @@ def plan_actions(demo: Path) -> dict[str, list[dict]]:
         "delete_a_terms_row": [{"op": "delete_row", "sheet": "Terms", "row": _table(terms, "Campaign")[0] + 2}],
         "cost_for_added_product": [{"op": "set", "sheet": "in_catalog", "cell": cell, "value": value}
                                    for cell, value in _added_product_cells(catalog).items()],
+        **{action: _typed_steps(wb) for action in SAVED_AS},
+        "notes_and_own_columns": _notes_steps(wb),
+        **{f"{PROFIT_BY}{by}": [_sort_step(profit, "Product ID", by, ascending=False)] for by in _headers(profit)},
+        **_tab_actions(wb),
         **{label: [{"op": "set", "sheet": "Settings", "cell": _typed_setting_cell(wb, key), "value": value}
                    for key, value in pasted.items()] for label, pasted in PASTES.items()},
     }
@@ -125,6 +135,14 @@ FLAGS = {"default_target_acos": ("not a number", "30%"), "min_clicks": ("not a n
 def _typed_setting_cell(wb, key: str) -> str:
     """The typed Value cell of a live setting on Settings (its defined name), as A1 text."""
     return wb.defined_names[key + "_typed"].attr_text.split("!")[1].replace("$", "")
+
+
+PROFIT_BY = "profit_by_column:"  # one action per column of Profit's table: Data > Sort by it, descending
+
+
+def _headers(ws) -> list[str]:
+    """Every header of the table whose first header is Product ID (hidden helper columns included)."""
+    return [h for h in _table(ws, "Product ID")[2] if h]
 
 
 ADDED = "LF-1999"  # in the demo's store sales, not in its catalog: the build adds its row to in_catalog
@@ -157,12 +175,13 @@ def hands(work, demo_build):
     out = work / "hands"
     out.mkdir()
     actions = plan_actions(demo_build.output)
-    jobs = [{"label": k, "src": str(demo_build.output), "dst": str(out / f"{k}.xlsx"), "steps": steps}
+    saved = {k: out / f"{k}{SAVED_AS.get(k, '.xlsx')}" for k in actions}
+    jobs = [{"label": k, "src": str(demo_build.output), "dst": str(saved[k]), "steps": steps}
             for k, steps in actions.items()]
     results = run_driver(jobs, work)
     refused = {k: results.pop(k)["error"] for k in REFUSED}
     assert {k: {"error": None} for k in actions if k not in REFUSED} == results
-    return {**{k: out / f"{k}.xlsx" for k in actions if k not in REFUSED}, "refused": refused}
+    return {**{k: saved[k] for k in actions if k not in REFUSED}, "refused": refused}
 
 
 REFUSED = ("delete_a_bids_row", "delete_a_terms_row")  # actions LibreOffice must refuse
@@ -197,6 +216,25 @@ SORTS = {"profit_by_status": ("Profit", "Product ID"), "profit_by_net_profit": (
 @pytest.mark.parametrize("action", list(SORTS))
 def test_sorting_keeps_every_figure_on_every_sheet_and_every_list_right(hands, action):
     _assert_same_figures(hands, action, *SORTS[action])
+
+
+@pytest.mark.libreoffice
+@pytest.mark.slow
+def test_sorting_profit_by_any_column_keeps_every_figure_on_every_sheet(hands):
+    """Issue 21: the demo workbook after Data > Sort of Profit by any column, in LibreOffice, shows the same
+    figures on every other sheet as before the sort (and Profit the same rows, in another order)."""
+    before = sheet_rows(hands["as_built"])
+    by_column = sorted(k for k in hands if k.startswith(PROFIT_BY))
+    assert len(by_column) >= 30  # every column of the table, not a few
+    moved, differing = 0, {}
+    for action in by_column:
+        after = sheet_rows(hands[action])
+        moved += _column(hands["as_built"], "Profit", "Product ID", "Product ID") != _column(
+            hands[action], "Profit", "Product ID", "Product ID")
+        differing.update({(action, name): sorted((before[name] - after[name]).items())[:2]
+                          for name in before if before[name] != after.get(name)})
+    assert {} == differing
+    assert moved >= len(by_column) // 2  # most sorts moved rows, so the comparison above proves something
 
 
 def _actions_sheet(path: Path) -> Counter:
@@ -260,6 +298,50 @@ def _errors(path: Path) -> list[str]:
             if isinstance(c.value, str) and c.value in ERROR_VALUES]
 
 
+# Saving as .ods: a person types a Bids, Terms and Budget Decision, a unit cost on in_catalog, a target on Profit
+# and two settings, then saves in OpenDocument (File > Save As, "calc8"); the same typing saved as .xlsx is the
+# reference, for the format must change nothing that is read back. Two Terms Decisions are text a Decision
+# cannot be (leading, doubled and trailing spaces, a line break; a leading =): they are not carried, and come
+# back exactly as typed. LibreOffice 7.4 drops a tab typed in a cell when it saves .ods (it keeps it in .xlsx),
+# so the text holds none; tests/test_ods.py reads text:tab as a tab.
+SAVED_AS = {"saving_as_ods": ".ods", "typed_then_saved_as_xlsx": ".xlsx"}
+ODD_TEXT = ("  two  spaces and\na line ", "=SUM(1,2)")
+TYPED_BY_HAND = (  # (defined name of the column or setting, body row offset, value typed)
+    ("sb_bids_decision", 0, 0.55), ("sb_bids_decision", 1, "keep"), ("sb_terms_decision", 0, "block"),
+    ("sb_terms_decision", 1, ODD_TEXT[0]), ("sb_terms_decision", 2, ODD_TEXT[1]), ("sb_budget_decision", 0, "keep"),
+    ("sb_catalog_unit_cost", 1, 30.5), ("sb_profit_target_override", 0, 0.22), ("default_target_acos_typed", 0, 0.27),
+    ("thin_margin_typed", 0, 0.1))  # the typed Value cells (the names without _typed: In use)
+
+
+def _typed_steps(wb) -> list[dict]:
+    """The driver steps typing TYPED_BY_HAND into the cells the defined names point at."""
+    steps = []
+    for name, offset, value in TYPED_BY_HAND:
+        sheet, ref = next(iter(wb.defined_names[name].destinations))
+        column, row = openpyxl.utils.cell.coordinate_from_string(ref.split(":")[0].replace("$", ""))
+        steps.append({"op": "set", "sheet": sheet, "cell": f"{column}{row + offset}", "value": value})
+    return steps
+
+
+def _differences(sheet: str, expected: list[list], got: list[list]) -> list[tuple]:
+    """(sheet, row, column, expected, got) of every cell whose values differ (numbers within values.same_value)."""
+    out = []
+    for r in range(max(len(expected), len(got))):
+        want, have = (expected[r] if r < len(expected) else []), (got[r] if r < len(got) else [])
+        for c in range(max(len(want), len(have))):
+            x, y = (want[c] if c < len(want) else None), (have[c] if c < len(have) else None)
+            if not (same_value(x, y) if is_number(x) and is_number(y) else (x == y and type(x) is type(y))):
+                out.append((sheet, r + 1, c + 1, x, y))
+    return out
+
+
+def _carried(path: Path, out: Path):
+    """The carry of a build of the demo's exports with path as --previous."""
+    from conftest import BUILT_ON, DEMO
+    from sheetbuilder.pipeline import build
+    return build(DEMO, out, built_on=BUILT_ON, previous=path).carry
+
+
 @pytest.mark.libreoffice
 @pytest.mark.slow
 @pytest.mark.parametrize("action", list(PASTES))
@@ -301,3 +383,219 @@ def test_text_pasted_into_a_setting_costs_one_flag_not_errors(hands, work, actio
     typed = {k: repr(v) if isinstance(v, str) else f"{v:g}" for k, v in pasted.items()}  # as a message quotes it
     assert {key: f"{typed[key]} typed for {SPEC_BY_KEY[key].label} is {FLAGS[key][0]}; the as-built value "
                  "was kept" for key in pasted} == listed
+
+
+def test_saving_as_ods_keeps_changes_and_carries_every_typed_value(hands, work):
+    from sheetbuilder.weekly.saved import SavedBook
+    ods, xlsx = hands["saving_as_ods"], hands["typed_then_saved_as_xlsx"]
+    with zipfile.ZipFile(ods) as saved:  # saved as OpenDocument (OpenDocument 1.2 Part 3, 3.3), not as .xlsx
+        assert (b"application/vnd.oasis.opendocument.spreadsheet", False) == (saved.read("mimetype"),
+                                                                             "xl/workbook.xml" in saved.namelist())
+    # Every cell of every sheet reads the same from both files (values, text as typed, dates, errors; a number
+    # to the 15 significant digits the .xlsx keeps of a recalculated value, where the .ods keeps 17).
+    with SavedBook(ods) as a, SavedBook(xlsx) as b:
+        assert b.sheetnames == a.sheetnames
+        assert [] == [d for sheet in b.sheetnames for d in _differences(sheet, b.rows(sheet), a.rows(sheet))][:5]
+        assert ODD_TEXT[0] == a.rows("Terms", frozenset({17}))[5][17]
+    # changes: the same list from either file, and that list is what the Actions sheet shows.
+    from_ods, from_xlsx = (export_changes(p, work / f"changes_{p.stem}.csv") for p in (ods, xlsx))
+    assert ([_change(r) for r in from_xlsx.rows], len(from_xlsx.refused), from_xlsx.overwritten) == \
+           ([_change(r) for r in from_ods.rows], len(from_ods.refused), from_ods.overwritten)
+    sheet, written = _actions_sheet(xlsx), Counter(_change(r) for r in from_ods.rows)
+    assert Counter() == written - sheet
+    assert len(from_ods.refused) == sum((sheet - written).values())
+    # build --previous: every typed value carried (the odd texts reported, not carried), as from the .xlsx.
+    by_ods, by_xlsx = _carried(ods, work / "from_ods.xlsx"), _carried(xlsx, work / "from_xlsx.xlsx")
+    def records(carry):
+        return sorted(((r.sheet, r.key, r.column, repr(r.value), r.why) for r in carry.carried + carry.unmatched))
+    assert records(by_xlsx) == records(by_ods)
+    typed = sorted(repr(v) for _, _, v in TYPED_BY_HAND if v not in ODD_TEXT)
+    assert typed == sorted(repr(r.value) for r in by_ods.carried)
+    assert sorted(ODD_TEXT) == sorted(r.value for r in by_ods.unmatched)
+# Notes typed on four sheets and a column of one's own right of Bids' Notes, then Bids sorted with it: each sheet's
+# first header and key headers, and the texts typed (formula-like text and spaces must come back as typed).
+NOTED = {"Profit": ("Product ID", ("Product ID",)), "Bids": ("Campaign", ("Campaign", "Ad group", "Target", "Match type")),
+         "Terms": ("Campaign", ("Campaign", "Ad group", "Search term")), "Budget": ("Product ID", ("Product ID",))}
+NOTE_TEXTS = ("=ask the supplier", "  restock before May  ", "+2 cartons", "plain words")
+OWN_HEADER, OWN_VALUES = "Checked by", ("=Kim", "Lee", "  Ann")
+
+
+def _noted_rows(ws, first: str, keys: tuple[str, ...]) -> tuple[int, list[str], dict[int, tuple]]:
+    """(header row, headers, {row: key}) of a table (1-based rows)."""
+    top, last, headers = _table(ws, first)
+    rows = {r: tuple(ws.cell(r, headers.index(k) + 1).value for k in keys) for r in range(top + 1, last + 1)}
+    return top, headers, rows
+
+
+def _notes_steps(wb) -> list[dict]:
+    """Typing NOTE_TEXTS in rows 2, 4, ... of each Notes column, OWN_HEADER and OWN_VALUES right of Bids' Notes,
+    then sorting Bids by Target with that column inside the sorted range."""
+    steps = []
+    for sheet, (first, keys) in NOTED.items():
+        ws = wb[sheet]
+        top, headers, rows = _noted_rows(ws, first, keys)
+        col = headers.index("Notes") + 1
+        for i, text in enumerate(NOTE_TEXTS):
+            steps.append({"op": "set", "sheet": sheet, "cell": ws.cell(top + 2 + 2 * i, col).coordinate, "value": text})
+        if sheet == "Bids":
+            steps.append({"op": "set", "sheet": sheet, "cell": ws.cell(top, col + 1).coordinate, "value": OWN_HEADER})
+            for i, text in enumerate(OWN_VALUES):
+                steps.append({"op": "set", "sheet": sheet, "cell": ws.cell(top + 1 + 3 * i, col + 1).coordinate,
+                              "value": text})
+            last = max(rows)
+            steps.append({"op": "sort", "sheet": sheet, "range": [0, top, col, last - 1], "by": headers.index("Target"),
+                          "ascending": False})
+    return steps
+
+
+def _typed_by_key(ws, first: str, keys: tuple[str, ...]) -> dict[tuple, tuple]:
+    """{key: (note, own column)} of every row holding either (own column: the one right of Notes)."""
+    top, headers, rows = _noted_rows(ws, first, keys)
+    col = headers.index("Notes") + 1
+    out = {}
+    for r, key in rows.items():
+        cells = (ws.cell(r, col).value, ws.cell(r, col + 1).value)
+        if cells != (None, None):
+            out[key] = cells
+    return out
+
+
+@pytest.mark.libreoffice
+@pytest.mark.slow
+def test_notes_and_own_columns_are_carried_to_next_week_by_key(hands, demo_build, work):
+    demo = openpyxl.load_workbook(demo_build.output)
+    expected = {}  # what was typed, by the key of the row it was typed on (read before the sort)
+    for sheet, (first, keys) in NOTED.items():
+        top, _, rows = _noted_rows(demo[sheet], first, keys)
+        typed = {rows[top + 2 + 2 * i]: (text, None) for i, text in enumerate(NOTE_TEXTS)}
+        if sheet == "Bids":
+            for i, text in enumerate(OWN_VALUES):
+                key = rows[top + 1 + 3 * i]
+                typed[key] = (typed.get(key, (None,))[0], text)
+        expected[sheet] = typed
+    saved = openpyxl.load_workbook(hands["notes_and_own_columns"], data_only=True)
+    # LibreOffice sorted Bids with the own column (else the check below proves nothing about keys) ...
+    assert _column(hands["notes_and_own_columns"], "Bids", "Campaign", "Target") != _column(
+        hands["as_built"], "Bids", "Campaign", "Target")
+    assert {s: expected[s] for s in NOTED} == {s: _typed_by_key(saved[s], *NOTED[s]) for s in NOTED}
+    # ... and next week's workbook holds each note and own value beside the same key, the header in place.
+    week2 = build(DEMO, work / "notes_week2.xlsx",
+                  built_on=BUILT_ON, previous=hands["notes_and_own_columns"])
+    assert [] == week2.carry.unmatched
+    assert {} == week2.carry.decisions
+    wb = openpyxl.load_workbook(week2.output)
+    assert {s: expected[s] for s in NOTED} == {s: _typed_by_key(wb[s], *NOTED[s]) for s in NOTED}
+    _, _, headers = _table(wb["Bids"], "Campaign")
+    assert OWN_HEADER == headers[headers.index("Notes") + 1]
+
+
+# ---- renamed and copied tabs, a number typed over a formula (issue 21) -------------------------------------------
+
+TAB_COST, TAB_DECISION, TAB_TARGET = 7.5, 0.77, 0.05
+RENAMED = {"in_catalog": "Catalog", "Bids": "My bids"}
+
+
+def _cell_of(ws, first: str, header: str, body_row: int) -> str:
+    """The address of column header in the body_row-th body row (0-based) of the table starting with first."""
+    top, _, headers = _table(ws, first)
+    return ws.cell(top + 1 + body_row, headers.index(header) + 1).coordinate
+
+
+def _most_bid_product_row(wb) -> int:
+    """The Profit body row (0-based) of the product with the most keywords on Bids (its bids move with its target)."""
+    products = _column_of(wb["Bids"], "Campaign", "Product ID")
+    most = Counter(p for p in products if p).most_common(1)[0][0]
+    return _column_of(wb["Profit"], "Product ID", "Product ID").index(most)
+
+
+def _column_of(ws, first: str, header: str) -> list:
+    top, last, headers = _table(ws, first)
+    return [ws.cell(r, headers.index(header) + 1).value for r in range(top + 1, last + 1)]
+
+
+def _tab_actions(wb) -> dict[str, list[dict]]:
+    """Rename in_catalog and Bids then type a cost and a Decision; copy Bids and type a Decision on the copy;
+    type a number over Profit's Target ACoS formula."""
+    bids, catalog, profit = wb["Bids"], wb["in_catalog"], wb["Profit"]
+    return {
+        "renamed_tabs": [*({"op": "rename_sheet", "sheet": old, "to": new} for old, new in RENAMED.items()),
+                         {"op": "set", "sheet": RENAMED["in_catalog"], "cell": _cell_of(catalog, "product_id", "unit_cost", 1),
+                          "value": TAB_COST},
+                         {"op": "set", "sheet": RENAMED["Bids"], "cell": _cell_of(bids, "Campaign", "Decision", 0),
+                          "value": TAB_DECISION}],
+        "copied_bids": [{"op": "copy_sheet", "sheet": "Bids", "to": "Bids (2)", "position": wb.sheetnames.index("Bids") + 1},
+                        {"op": "set", "sheet": "Bids (2)", "cell": _cell_of(bids, "Campaign", "Decision", 0),
+                         "value": TAB_DECISION}],
+        "number_over_target_acos": [{"op": "set", "sheet": "Profit", "value": TAB_TARGET,
+                                     "cell": _cell_of(profit, "Product ID", "Target ACoS", _most_bid_product_row(wb))}],
+    }
+
+
+def _changes_equal_the_actions_sheet(hands, work, action: str):
+    """export_changes of the action's saved copy, checked to hold what its Actions sheet holds."""
+    result = export_changes(hands[action], work / f"changes_{action}.csv")
+    sheet, written = _actions_sheet(hands[action]), Counter(_change(r) for r in result.rows)
+    assert Counter() == written - sheet
+    assert len(result.refused) == sum((sheet - written).values())  # the demo's adds without a destination
+    assert {"add keyword", "add product target"} == {change[0] for change in sheet - written}
+    return result
+
+
+def _next_week(hands, work, action: str):
+    from conftest import BUILT_ON, DEMO
+    from sheetbuilder.pipeline import build
+    return build(DEMO, work / f"next_{action}.xlsx", built_on=BUILT_ON, previous=hands[action])
+
+
+def _first_bid(path: Path) -> tuple:
+    ws = openpyxl.load_workbook(path, read_only=False)["Bids"]
+    return tuple(_column_of(ws, "Campaign", h)[0] for h in ("Campaign", "Ad group", "Target", "Match type"))
+
+
+@pytest.mark.libreoffice
+@pytest.mark.slow
+def test_renaming_tabs_keeps_changes_and_carrying_working(hands, work):
+    names = openpyxl.load_workbook(hands["renamed_tabs"], read_only=True).sheetnames
+    assert set(RENAMED.values()) <= set(names) and not set(RENAMED) & set(names)
+    result = _changes_equal_the_actions_sheet(hands, work, "renamed_tabs")
+    assert [] == result.overwritten
+    key = _first_bid(hands["as_built"])
+    assert [TAB_DECISION] == [r[6] for r in result.rows if r[0] == "bid" and tuple(r[1:5]) == key]
+    product = _column_of(openpyxl.load_workbook(hands["as_built"])["in_catalog"], "product_id", "product_id")[1]
+    carry = _next_week(hands, work, "renamed_tabs").carry
+    carried = {(r.sheet, r.key, r.column): r.value for r in carry.carried}
+    assert TAB_COST == carried[("in_catalog", product, "unit_cost")]
+    assert TAB_DECISION == carried[("Bids", " / ".join(key), "Decision")]
+    assert [] == carry.unmatched
+
+
+@pytest.mark.libreoffice
+@pytest.mark.slow
+def test_decisions_typed_on_a_copied_sheet_are_named_not_lost(hands, work):
+    result = _changes_equal_the_actions_sheet(hands, work, "copied_bids")
+    named = [p.message for p in result.problems if p.file == "Bids (2)"]
+    assert 1 == len(named) and named[0].startswith(
+        "Decisions on a copy of Bids ('Bids (2)') were not read; type them on Bids")
+    key = " / ".join(_first_bid(hands["as_built"]))
+    built = _next_week(hands, work, "copied_bids")
+    assert [("Bids (2)", key, TAB_DECISION)] == [(r.sheet, r.key, r.value) for r in built.carry.unmatched]
+    assert named == [w.message for w in built.warnings if w.file == "Bids (2)"]
+    assert {} == built.carry.decisions  # read from neither place
+
+
+@pytest.mark.libreoffice
+@pytest.mark.slow
+def test_a_number_typed_over_a_formula_is_reported_with_where_to_type(hands, work):
+    # LibreOffice computes the sheet with the typed target, and so does the exported list ...
+    result = _changes_equal_the_actions_sheet(hands, work, "number_over_target_acos")
+    assert _actions_sheet(hands["as_built"]) != _actions_sheet(hands["number_over_target_acos"])
+    wb = openpyxl.load_workbook(hands["as_built"])
+    row = _most_bid_product_row(wb)
+    product = _column_of(wb["Profit"], "Product ID", "Product ID")[row]
+    top = _table(wb["Profit"], "Product ID")[0]
+    assert [("Profit", top + 1 + row, "Target ACoS")] == [(p.file, p.row, p.column) for p in result.overwritten]
+    assert "type your target in 'Your target ACoS'" in result.overwritten[0].message
+    # ... and next week carries it where it belongs, saying where it was found.
+    built = _next_week(hands, work, "number_over_target_acos")
+    assert {product: TAB_TARGET} == built.carry.targets
+    assert [result.overwritten[0].message] == [w.message for w in built.warnings if w.file == "Profit"]

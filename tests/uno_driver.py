@@ -5,12 +5,16 @@
 Debian's python3-uno installs the bridge for the system interpreter only, so this script imports
 nothing of sheetbuilder's and talks JSON (as benchmarks/lo_uno.py does). It starts one headless
 soffice for every job, and for each job {"label", "src", "dst", "steps"} opens a copy of src, runs
-the steps in order, recalculates every formula (calculateAll) and saves the workbook as .xlsx to dst.
+the steps in order, recalculates every formula (calculateAll) and saves the workbook to dst (as
+OpenDocument when dst ends in .ods, else as .xlsx).
 A step is one of
   {"op": "sort", "sheet", "range": [first col, first row, last col, last row] (0-based, the rows
    sorted, without the header), "by": column offset in the range, "ascending": bool}: Data > Sort;
   {"op": "set", "sheet", "cell": "D27", "value": a number or text}: typing into one cell;
-  {"op": "delete_row", "sheet", "row": 0-based row}: Delete Rows on one row.
+  {"op": "delete_row", "sheet", "row": 0-based row}: Delete Rows on one row;
+  {"op": "rename_sheet", "sheet", "to": new name}: renaming a tab (Sheet > Rename Sheet);
+  {"op": "copy_sheet", "sheet", "to": the copy's name, "position": 0-based place among the tabs}: Sheet > Move or
+   Copy Sheet with Copy ticked.
 A sort or a typed value reaching a locked cell of a protected sheet is refused, as the program refuses
 it to a person.
 It prints one JSON object {label: {"error": text or None}} (the first refusal, if any). soffice is ended by its process id.
@@ -64,6 +68,27 @@ def _set(sheet, step: dict) -> None:
         cell.setValue(float(step["value"]))
 
 
+FILTERS = {".ods": "calc8"}  # OpenDocument spreadsheet, as File > Save As writes it; else .xlsx
+
+
+def _filter(dst: str) -> str:
+    """The export filter for the destination's suffix."""
+    return FILTERS.get(Path(dst).suffix.lower(), "Calc MS Excel 2007 XML")
+
+
+def _rename(doc, sheet, step: dict) -> None:
+    """Rename a tab, as a person does (LibreOffice rewrites the formulas and defined names that name it)."""
+    sheet.setName(step["to"])
+
+
+def _copy(doc, sheet, step: dict) -> None:
+    """Copy a whole sheet to a new tab at a place among the tabs."""
+    doc.Sheets.copyByName(step["sheet"], step["to"], int(step.get("position", doc.Sheets.getCount())))
+
+
+TABS = {"rename_sheet": _rename, "copy_sheet": _copy}
+
+
 def run_job(desktop, job: dict, scratch: Path) -> dict:
     copy = scratch / f"{job['label']}.xlsx"  # a private copy: no lock file beside the caller's workbook
     shutil.copyfile(job["src"], copy)
@@ -73,6 +98,9 @@ def run_job(desktop, job: dict, scratch: Path) -> dict:
     try:
         for step in job["steps"]:
             sheet = doc.Sheets.getByName(step["sheet"])
+            if step["op"] in TABS:
+                TABS[step["op"]](doc, sheet, step)
+                continue
             if step["op"] == "delete_row":  # LibreOffice itself refuses it on a protected sheet
                 try:
                     sheet.Rows.removeByIndex(int(step["row"]), 1)
@@ -84,7 +112,7 @@ def run_job(desktop, job: dict, scratch: Path) -> dict:
             {"sort": _sort, "set": _set}[step["op"]](sheet, step)
         doc.calculateAll()
         doc.storeToURL(uno.systemPathToFileUrl(str(Path(job["dst"]).resolve())),
-                       (_prop("FilterName", "Calc MS Excel 2007 XML"),))
+                       (_prop("FilterName", _filter(job["dst"])),))
     finally:
         doc.close(True)
     return {"error": None}

@@ -75,6 +75,12 @@ NO_SALES = {"LF-1013", "LF-1025"}            # in the catalog, nothing sold this
 TARGET_ACOS = {"LF-1001": "25%", "LF-1005": "15%", "LF-1008": "30%", "LF-1012": "35%",
                "LF-1015": "20%", "LF-1019": "25%", "LF-1021": "40%", "LF-1023": "10%"}
 GIVEN_MARGIN = {"LF-1009": "32%", "LF-1017": "21%"}   # margin typed in by the seller
+# Stock at the period's end (invented): units fixed for two products, else days of cover at the sales rate.
+STOCK_UNITS = {"LF-1002": 2,       # a product to grow with two units left: low stock
+               "LF-1019": 0,       # sold out while its ads still spend: a loss
+               "LF-1013": 40, "LF-1025": 25}  # nothing sold this period
+LOW_DAYS = {"LF-1014": 12}        # low on stock, below the 30-day minimum
+INBOUND = {"LF-1002": 120, "LF-1019": 60, "LF-1014": 200}
 
 # Campaign -> (ad type, state, daily budget, targeting, {ad group: [product ids]})
 CAMPAIGNS = {
@@ -397,6 +403,15 @@ def main():
           [[c, v[0], v[1], f"{v[2]:.2f}", v[3]] for c, v in CAMPAIGNS.items()])
     write(out / "negatives.csv", ["campaign", "ad_group", "term", "match_type"], NEGATIVES)
     (out / "settings.toml").write_text(SETTINGS, encoding="utf-8")
+
+    # Inventory: no random draws (the files above stay as they were); LF-1999 is discontinued, not stocked.
+    sold = {row[0]: row[1] for row in sales}
+    stock = []
+    for pid, _, _, _, _, _ in PRODUCTS:
+        days = LOW_DAYS.get(pid, 45 + (int(pid[-2:]) * 37) % 150)
+        units = STOCK_UNITS.get(pid, round(sold.get(pid, 0) / 30 * days))
+        stock.append([pid, units, INBOUND.get(pid, 0), 21 if int(pid[-2:]) % 2 else 35])
+    write(out / "inventory.csv", ["product_id", "units_available", "units_inbound", "lead_time_days"], stock)
 
 
 if __name__ == "__main__":

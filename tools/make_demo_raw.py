@@ -13,6 +13,8 @@ The figures are exactly the canonical demo's, only written differently:
   21 so that the last day's bid is the canonical one, headers such as `Keyword Text`.
 - search_terms.csv: `Start Date` / `End Date` columns and a `Grand total` row.
 - campaigns.csv and negatives.csv: headers as people write them (`Campaign Name`, `Status`).
+- inventory.csv: a title row, a `Warehouse` column (one warehouse), headers with units
+  (`Units available (units)`, `Restock lead time (days)`) and a `Total` row.
 - no settings.toml: the period comes from the dates; every other demo setting is a default.
 
 Usage: python3 tools/make_demo_raw.py [demo_inputs] [demo_inputs_raw]   (needs soffice for the .ods)
@@ -151,6 +153,14 @@ def search_terms(src: Path, dst: Path) -> None:
     write_csv(dst / "search_terms.csv", [names, *[[START, FINISH, *r] for r in rows], ["", "", *total]])
 
 
+def inventory(src: Path, dst: Path) -> None:
+    _, rows = read(src, "inventory.csv")
+    names = ["SKU", "Warehouse", "Units available (units)", "Units inbound (units)", "Restock lead time (days)"]
+    shaped = [[pid, "Main warehouse", units, inbound, lead] for pid, units, inbound, lead in rows]
+    total = ["Total", "", str(sum(int(r[2]) for r in shaped)), str(sum(int(r[3]) for r in shaped)), ""]
+    write_csv(dst / "inventory.csv", [[f"Inventory snapshot, {FINISH}"], [], names, *shaped, total])
+
+
 def renamed(src: Path, dst: Path, name: str, headers: list[str]) -> None:
     _, rows = read(src, name)
     write_csv(dst / name, [headers, *rows])
@@ -165,6 +175,7 @@ def main(argv: list[str]) -> int:
     ad_products(src, dst)
     targets(src, dst)
     search_terms(src, dst)
+    inventory(src, dst)
     renamed(src, dst, "campaigns.csv", ["Campaign Name", "Ad Type", "Status", "Daily Budget (USD)", "Targeting Type"])
     renamed(src, dst, "negatives.csv", ["Campaign Name", "Ad Group Name", "Negative Keyword", "Match Type"])
     print(f"wrote {dst}")

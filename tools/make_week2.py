@@ -10,6 +10,7 @@ change are applied; one more bid is moved to another value than planned (so it r
 not applied). Clicks on every keyword or target rise by a fifth plus one (spend unchanged,
 so cost per click falls), an applied negative's search terms stop spending, an added
 keyword gets its first clicks and orders, every product's revenue rises by a tenth,
+the inventory's inbound units arrive while a week of the period's sales leaves it,
 and settings.toml's period_end moves on by seven days. Files are written as the exports arrive (CSV,
 same headers); the source folder is only read.
 """
@@ -101,6 +102,14 @@ def make_week2(src: Path, dst: Path, applied: list[dict], elsewhere: list[dict])
     for row in sales:
         row["revenue"] = f"{float(row['revenue'] or 0) * 1.1:.2f}"
     _write(dst / "store_sales.csv", header, sales)
+    if (dst / "inventory.csv").exists():
+        sold = {row["product_id"]: float(row["units"] or 0) for row in sales}
+        header, stock = _read(dst / "inventory.csv")
+        for row in stock:
+            left = float(row["units_available"]) + float(row.get("units_inbound") or 0)
+            row["units_available"] = str(max(0, round(left - sold.get(row["product_id"], 0) * 7 / 30)))
+            row["units_inbound"] = "0"
+        _write(dst / "inventory.csv", header, stock)
     settings = dst / "settings.toml"
     if settings.exists():  # the period moves on by a week
         text = settings.read_text(encoding="utf-8")

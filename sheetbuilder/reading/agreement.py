@@ -62,7 +62,7 @@ def currency_of(file: str, marks: dict[str, dict[str, int]], header: list[str], 
                                                 "folder")]
     return (codes, tuple(sorted(seen))), []
 
-ID_TABLES = ("catalog", "store_sales", "ad_products")  # the tables whose product IDs are matched to each other
+ID_TABLES = ("catalog", "store_sales", "ad_products", "inventory")  # the tables whose product IDs are matched to each other
 _DIGITS_ID = r"\d+(?:\.0+)?"  # digits only, or a number a spreadsheet wrote back as 101.0
 
 

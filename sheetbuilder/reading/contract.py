@@ -98,6 +98,18 @@ TABLES: tuple[TableRule, ...] = (
                             _c("term", TEXT, "keyword", "negativekeyword", "negative", "searchterm", "target"),
                             _c("match_type", NEG_MATCH, "match", "matchtype")),
               False, "negative keywords already in place"),
+    # Stock: one row per product, or one per product and location (warehouse), summed per product on Profit.
+    TableRule("inventory", (_PRODUCT,
+                            _c("units_available", COUNT, "available", "unitsavailable", "availableunits", "onhand",
+                               "unitsonhand", "instock", "unitsinstock", "stock", "stocklevel", "sellable",
+                               "sellableunits", "quantityavailable", "availablequantity", "availableqty"),
+                            _c("units_inbound", COUNT, "inbound", "unitsinbound", "inboundunits", "incoming",
+                               "intransit", "unitsintransit", "onorder", "unitsonorder", required=False),
+                            _c("lead_time_days", COUNT, "leadtime", "leadtimedays", "restockleadtime", "restockdays",
+                               "restocktime", "daystorestock", required=False),
+                            _c("location", TEXT, "warehouse", "site", "depot", "fulfilmentcentre",
+                               "fulfillmentcenter", "storagelocation", required=False)),
+              False, "units in stock per product"),
 )
 
 TABLE_BY_NAME = {t.name: t for t in TABLES}

@@ -55,6 +55,13 @@ CHUNK = 1024 * 1024
 # guard checks each part's declared size and ratio and its prolog, and inflates no part whole.
 MAX_SAVED_FILE_BYTES = 8 * 1024**3
 MAX_SAVED_TOTAL = 64 * 1024**3
+# A saved sheet is read into rows of one width: its rows times its columns may not exceed MAX_SAVED_CELLS
+# (a cell typed far from the tables cannot ask for billions of empty ones; 1,048,576 rows of 64 columns).
+# An .ods sheet writes a run of equal rows or cells once with a repeat count (OpenDocument 1.2 Part 1,
+# 9.1.3 and 9.1.4): the cells its repeats make beyond those it writes may number MAX_REPEATED_CELLS
+# plus one per byte of the sheet's XML, so that a few bytes cannot ask for billions of cells.
+MAX_SAVED_CELLS = 1_048_576 * 64
+MAX_REPEATED_CELLS = 1_048_576
 HYPERLINK = "/hyperlink"            # relationship type of a cell hyperlink: a web address, not a file read
 
 

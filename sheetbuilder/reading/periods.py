@@ -40,6 +40,7 @@ REPEAT_KEYS = {
     "targets": ("campaign", "ad_group", "target", "match_type"),
     "search_terms": ("campaign", "ad_group", "target", "match_type", "search_term"),
     "campaigns": ("campaign",),
+    "inventory": ("product_id",),  # undated: rows pasted twice refused; other repeats checked by the readers
 }
 # Without dates, repeated keys of these tables are summed only when these columns agree.
 MUST_AGREE = {"targets": ("bid", "state"), "campaigns": ("state", "daily_budget")}

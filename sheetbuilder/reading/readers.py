@@ -209,7 +209,7 @@ def _parse_cell(rule: c.ColumnRule, text: str, settings: Settings, comma: bool |
             return "", "is blank; expected a value"
         if (problem := text_problem(text)) is not None:
             return "", problem
-        return (t if rule.name in ("product_id", "campaign", "ad_group") else str(text)), None
+        return (t if rule.name in ("product_id", "campaign", "ad_group", "location") else str(text)), None
     if rule.kind in c.CHOICES:
         synonyms, expected = c.CHOICES[rule.kind]
         value = synonyms.get(c.header_key(t)) if t != "-" else synonyms.get("-")
@@ -219,6 +219,8 @@ def _parse_cell(rule: c.ColumnRule, text: str, settings: Settings, comma: bool |
     if rule.name == "unit_cost" and not any(ch.isdigit() for ch in t):
         return math.nan, None  # blank or "n/a": missing, never zero (reported per product by _missing_costs)
     if not t:
+        if rule.name == "lead_time_days":
+            return math.nan, None  # a lead time not given is unknown, never 0 days
         if rule.kind in (c.COUNT, c.MONEY):
             return 0.0, None
         if rule.name == "bid":
@@ -572,6 +574,34 @@ def _row_checks(name: str, frame: pd.DataFrame) -> list[Problem]:
                 problems.append(Problem(file, int(r), headers["product_id"],
                                         f"product '{pid}' appears more than once (rows {rows}); "
                                         "expected one row per product"))
+    if name == "inventory":
+        problems.extend(_stock_rows(frame))
+    return problems
+
+
+def _stock_rows(frame: pd.DataFrame) -> list[Problem]:
+    """The rule for an inventory's repeated products: rows of one product at different locations (a location
+    column) are per-warehouse stock, summed per product on Profit (noted); rows repeating a product with no
+    location column, or a product and location, are refused, since which row holds the stock cannot be known."""
+    file, headers = frame.attrs["file"], frame.attrs["headers"]
+    located = "location" in frame.attrs.get("columns", {})
+    keys = ["product_id", "location"] if located else ["product_id"]
+    repeated = frame[frame.duplicated(keys, keep=False) & (frame["product_id"] != "")]
+    problems = []
+    for key, group in repeated.groupby(keys, sort=True):
+        key = key if isinstance(key, tuple) else (key,)
+        pid, where = key[0], (f" at the location '{key[1]}'" if located else "")
+        rows = ", ".join(str(x) for x in group["_row"])
+        problems.append(Problem(file, int(group["_row"].iloc[1]), headers["product_id"],
+                                f"product '{pid}'{where} appears more than once (rows {rows}) and nothing says which "
+                                "row holds its stock; keep one row per product" +
+                                (" and location" if located else ", or export with a location (warehouse) column "
+                                                                 "when each row is one warehouse's stock")))
+    spread = frame.loc[frame["product_id"].duplicated(keep=False) & (frame["product_id"] != ""), "product_id"]
+    if located and not problems and len(spread):
+        problems.append(Problem(file, None, None, f"{spread.nunique()} product(s) are held at several locations "
+                                                  f"(first: '{spread.iloc[0]}'); their units are summed per "
+                                                  "product", WARNING))
     return problems
 
 
@@ -586,8 +616,8 @@ def _missing_costs(frame: pd.DataFrame) -> list[Problem]:
 
 
 def _cross_checks(tables: dict[str, pd.DataFrame | None]) -> list[Problem]:
-    """Checks between tables: products the catalog lacks."""
-    problems: list[Problem] = []
+    """Checks between tables: products the catalog lacks, products sold or advertised the inventory lacks."""
+    problems: list[Problem] = _unstocked(tables)
     catalog = tables.get("catalog")
     if catalog is None:
         return problems
@@ -602,6 +632,23 @@ def _cross_checks(tables: dict[str, pd.DataFrame | None]) -> list[Problem]:
                                     f"product '{pid}' is not in the catalog; it is built with its margin blank "
                                     "(add it to the catalog to see its profit)", WARNING))
     return problems
+
+
+def _unstocked(tables: dict[str, pd.DataFrame | None]) -> list[Problem]:
+    """A note naming the products sold or advertised that an inventory export does not list: their stock is
+    unknown, so their Days of cover is blank and they are never read as low on stock."""
+    stock = tables.get("inventory")
+    if stock is None:
+        return []
+    known = set(stock["product_id"])
+    missing = sorted({p for name in ("store_sales", "ad_products") if tables.get(name) is not None
+                      for p in tables[name]["product_id"] if p != "" and p not in known})
+    if not missing:
+        return []
+    listed = ", ".join(f"'{p}'" for p in missing[:5]) + (", ..." if len(missing) > 5 else "")
+    return [Problem(stock.attrs["file"], None, None, f"{len(missing)} product(s) sold or advertised are not in it "
+                                                     f"({listed}): their stock is unknown, so Days of cover is "
+                                                     "blank and they are never read as low on stock", WARNING)]
 
 
 def _unmatched_files(folder: Path, used: set[Path], settings: Settings) -> list[Problem]:

@@ -108,6 +108,10 @@ SETTINGS: tuple[SettingSpec, ...] = (
                 "The share of the spend of products to cut that moves to products to grow.", 0.0, 1.0),
     SettingSpec("max_budget_change", "Maximum budget change", 0.30, "percent",
                 "The most a campaign's daily budget changes in one run.", 0.0, 5.0),
+    SettingSpec("min_days_of_cover", "Minimum days of cover", 30, "int",
+                "With an inventory export: a product whose units available last fewer days than this at its sales "
+                "rate is never told to grow and gets no extra budget; its Direction reads low stock (common "
+                "practice: 30 days; no single source).", 0, 3660),
     SettingSpec("product_id_pattern", "Product identifier pattern", r"[a-z]{1,4}-?\d{3,}|item=.+", "text",
                 "A search term matching this regular expression is proposed as a product target, not a keyword "
                 "(used when building).", live=False),
@@ -136,6 +140,9 @@ SETTINGS: tuple[SettingSpec, ...] = (
                 "refuse: stop when the exports cover different days; accept: build from them as they are, with a "
                 "warning on the Guide that the figures combine different days (used when reading).",
                 live=False, choices=("refuse", "accept")),
+    SettingSpec("history_weeks", "Weeks of keyword history kept", 0, "int",
+                "The Keyword history keeps the weeks ending within this many weeks of the newest; older weeks are "
+                "dropped and the build says so (0: every week) (used when building).", 0, 10000, live=False),
 )
 
 SPEC_BY_KEY = MappingProxyType({s.key: s for s in SETTINGS})
@@ -169,10 +176,12 @@ class Settings:
     mix_margin: float = 0.05
     budget_shift_share: float = 0.25
     max_budget_change: float = 0.30
+    min_days_of_cover: int = 30
     product_id_pattern: str = r"[a-z]{1,4}-?\d{3,}|item=.+"
     fold_plurals: bool = False
     list_cap: int = 2000
     actions_cap: int = 20000
+    history_weeks: int = 0
     currency_symbol: str = "$"
     decimal_comma: bool = False
     date_order: str = "auto"

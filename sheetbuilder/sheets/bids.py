@@ -26,7 +26,7 @@ import numpy as np
 import pandas as pd
 
 from sheetbuilder.sheets.blends import attach_groups, blends_row_column, fetch
-from sheetbuilder.sheets.decisions import apply_decision, decision_formula, decision_validation, editable
+from sheetbuilder.sheets.decisions import NOTES, apply_decision, decision_formula, decision_validation, editable, notes_column
 from sheetbuilder.sheets.lists import running_key
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, blank_div, exports_only, plan_table
 from sheetbuilder.reading.numbers import ROUNDING_NUDGE, round_half_away
@@ -232,12 +232,12 @@ DEFS: list[ColumnDef] = [
 ]
 # Copied one-to-one from the target's in_targets row, or computed only from such copies: plain values.
 EXPORTS = ("impressions", "clicks", "spend", "ad_sales", "orders", "cpc", "cvr", "acos", "bid")
-DEFS = exports_only(DEFS, EXPORTS)
+DEFS = exports_only(DEFS, EXPORTS) + [notes_column()]  # the user's notes at the right end
 
 # What a user types on Bids and the keys that find its row again (carry, changes and the tests read these).
 EDITABLE_COLUMNS = editable(DEFS, "Bids", SHEET, "sb_bids", ("campaign", "ad_group", "target", "match_type"),
                             "decision", ("targets",), numeric="bid", words=("keep",), current="bid",
-                            input_current="bid")
+                            input_current="bid", notes=NOTES)
 
 
 def target_frame(targets: InputSheet, campaigns: pd.DataFrame | None, groups: pd.DataFrame) -> pd.DataFrame:

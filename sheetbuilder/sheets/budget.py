@@ -3,7 +3,8 @@ and each campaign's daily budget scaled to follow its products.
 
 Product level: a share of the spend of every product whose Direction (Profit) is cut
 moves to the products whose Direction is grow, in proportion to their revenue, so total
-spend stays the same. Nothing moves unless there is both a product to cut and one to grow.
+spend stays the same (a product low on stock reads low stock, not grow: its spend is held).
+Nothing moves unless there is both a product to cut and one to grow.
 Campaign level: each campaign's daily budget is scaled by its products' final-to-current
 spend (a spend-weighted blend where it serves several), within the maximum change per
 run, rounded to the currency unit (campaigns with no ad rows have nothing to follow and are
@@ -17,7 +18,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from sheetbuilder.sheets.decisions import apply_decision, decision_formula, decision_validation, editable
+from sheetbuilder.sheets.decisions import NOTES, apply_decision, decision_formula, decision_validation, editable, notes_column
 from sheetbuilder.sheets.lists import running_key
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, plan_table
 from sheetbuilder.workbook.formula import block_sum, col_letter, keyed_row, quote_sheet
@@ -63,7 +64,8 @@ def _proposed_spend(df: pd.DataFrame, ctx: BudgetContext) -> pd.Series:
 PRODUCT_DEFS: list[ColumnDef] = [
     ColumnDef("product_id", "Product ID", "text", "The product (as on Profit).", lambda df, ctx: df["product_id"],
               kind=DATA, width=14, total="Total"),
-    ColumnDef("direction", "Direction", "label", "From Profit: cut, grow or hold.", _from_profit("direction"),
+    ColumnDef("direction", "Direction", "label", "From Profit: cut, grow, hold, no ads, or low stock (its spend held).",
+              _from_profit("direction"),
               "=INDEX({rng:profit.direction},%s)" % _AT_PROFIT, width=10),
     ColumnDef("revenue", "Revenue", "money", "From Profit.", _from_profit("revenue"),
               "=INDEX({rng:profit.revenue},%s)" % _AT_PROFIT, width=12, total="={sum:revenue}",
@@ -103,6 +105,7 @@ PRODUCT_DEFS: list[ColumnDef] = [
               .fillna(1.0), '=IF({c:spend}=0,1,IF(ISNUMBER({c:final}),{c:final}/{c:spend},1))', width=8, hidden=True),
     ColumnDef("prow", "Profit row", "int", "Helper: the product's position on Profit.", lambda df, ctx: df["prow"],
               kind=DATA, width=6, hidden=True),
+    notes_column(),  # the user's notes at the right end
 ]
 
 
@@ -181,7 +184,7 @@ SPEND_APPLIED_WITHIN = (0.05, 1.0)
 # What a user types on Budget (products, then campaigns) and the keys that find its row again.
 EDITABLE_COLUMNS = editable(PRODUCT_DEFS, "Budget", SHEET, "sb_budget", ("product_id",), "decision",
                             ("catalog", "store_sales", "ad_products"), table="Budget products", numeric="spend",
-                            words=("keep",), current="spend", input_current="spend",
+                            words=("keep",), current="spend", input_current="spend", notes=NOTES,
                             applied_within=SPEND_APPLIED_WITHIN)
 CAMPAIGN_EDITABLE_COLUMNS = editable(CAMPAIGN_DEFS, "Budget campaigns", SHEET, "sb_budget_campaigns", ("campaign",),
                                      "decision", ("campaigns",), numeric="budget", words=("keep",), current="budget",

@@ -41,6 +41,9 @@ def dashboard(tables: dict[str, PlannedTable], ranges: dict[str, str], budget_sh
         Figure("Products with a thin margin", f'=COUNTIFS({status},"thin")',
                float((profit.frame["status"] == "thin").sum()), "int"),
     ]
+    if "inventory.units_available" in ranges:  # an inventory export: the products never told to grow
+        out.append(Figure("Products low on stock",
+                          f"=SUM({ranges['profit.low']})", float(profit.frame["low"].sum()), "int"))
     if "Bids" in tables:
         out.append(Figure("Proposed bid changes", f"=SUM({ranges['bids.moves']})",
                           float(tables["Bids"].frame["moves"].sum()), "int"))
@@ -79,6 +82,7 @@ class Ranked:
     pick: str          # SMALL or LARGE
     describe: str      # formula text of the description, '{p}' standing for the position in the range
     cached: tuple      # ((value, position, description) ...) as built, best first
+    style: str = "money"  # the ranked values' style
 
     def rows(self, at: int) -> list[list[Cell | None]]:
         """The list's rows when its title is the Guide's 0-based row at: title, header, LOOK lines."""
@@ -101,7 +105,7 @@ class Ranked:
             text = '=IF({row}="","",{d})'.format(row=row, d=self.describe.replace("{p}", f"{row}-{h}"))
             cached = self.cached[k - 1] if k <= len(self.cached) else ("", "", "")
             link = f"{quote_sheet(self.sheet)}!A{cached[1] + h}" if cached[1] != "" else None
-            out.append([Cell(cached[0], value, "money"), Cell(cached[2], text, "text", link=link),
+            out.append([Cell(cached[0], value, self.style), Cell(cached[2], text, "text", link=link),
                         Cell(float(cached[1] + h) if cached[1] != "" else "", where, "int")])
         return out
 
@@ -114,21 +118,37 @@ def _ranked(values: pd.Series, largest: bool) -> list[int]:
     return [i for _, i in numbers[:LOOK]]
 
 
-def first_look(tables: dict[str, PlannedTable]) -> list[Ranked]:
-    """The Guide's first look: the products losing the most after ads and the biggest changes by money."""
+LOW_LIST = "Low on stock: the fewest days of cover"  # the list's title (the count above reads Products low on stock)
+
+
+def _products(profit: PlannedTable, title: str, what: str, header: str, key: str, count: str, picked: list[int],
+              style: str = "money") -> Ranked:
+    """A first-look list of Profit rows: the smallest values of column key among the picked positions."""
+    f, p = profit.frame, profit.ranges(PROFIT, "p")
+    return Ranked(
+        title, f"live, {what}; each links to its row on Profit as built, the row number is live",
+        (header, "Product", "Profit row"), PROFIT, p[f"p.{key}"], profit.first_body_row + 1, max(len(f), 1),
+        count.format(**{k.replace(".", "_"): v for k, v in p.items()}), "SMALL",
+        f'INDEX({p["p.product_id"]},{{p}})&"  "&INDEX({p["p.product_name"]},{{p}})',
+        tuple((float(f[key].iloc[i - 1]), i, f'{f["product_id"].iloc[i - 1]}  {_text(f["product_name"].iloc[i - 1])}')
+              for i in picked), style)
+
+
+def first_look(tables: dict[str, PlannedTable], stock: bool = False) -> list[Ranked]:
+    """The Guide's first look: the products low on stock (with an inventory export), the products losing the
+    most after ads and the biggest changes by money."""
     out = []
     profit = tables["Profit"]
     f = profit.frame
-    p = profit.ranges(PROFIT, "p")
+    if stock:
+        numbers = f["cover"].map(lambda v: v if isinstance(v, float) else np.nan)
+        low = [i for i in _ranked(numbers, largest=False) if f["low"].iloc[i - 1] == 1]
+        out.append(_products(profit, LOW_LIST, "fewest days of cover first (below the minimum on "
+                             "Settings: never told to grow, spend held)", "Days of cover", "cover", "SUM({p_low})",
+                             low, "int"))
     losing = [i for i in _ranked(f["net_profit"], largest=False) if f["net_profit"].iloc[i - 1] < 0]
-    out.append(Ranked(
-        "Products losing the most after ads", "live, most negative net profit after ads first; each links to "
-        "its row on Profit as built, the row number is live",
-        ("Net profit", "Product", "Profit row"), PROFIT, p["p.net_profit"], profit.first_body_row + 1,
-        max(len(f), 1), f'COUNTIFS({p["p.net_profit"]},"<0")', "SMALL",
-        f'INDEX({p["p.product_id"]},{{p}})&"  "&INDEX({p["p.product_name"]},{{p}})',
-        tuple((float(f["net_profit"].iloc[i - 1]), i,
-               f'{f["product_id"].iloc[i - 1]}  {_text(f["product_name"].iloc[i - 1])}') for i in losing)))
+    out.append(_products(profit, "Products losing the most after ads", "most negative net profit after ads first",
+                         "Net profit", "net_profit", 'COUNTIFS({p_net_profit},"<0")', losing))
     if "Actions" in tables:
         actions = tables["Actions"]
         a = actions.ranges(ACTIONS, "a")

@@ -13,7 +13,7 @@ import pandas as pd
 
 from sheetbuilder.values import ERROR_VALUES, is_empty, is_number
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable
-from sheetbuilder.workbook.spec import Rule, Validation
+from sheetbuilder.workbook.spec import INPUT, Rule, Validation
 
 @dataclass(frozen=True)
 class EditableColumns:
@@ -45,6 +45,13 @@ class EditableColumns:
             near (a product's spend): next week's value within the larger of share x the typed number and
             the units counts as applied. Empty: applied only when equal to the cent (a bid or budget is
             typed into the ad console as it is).
+        notes: the key of the table's Notes column (:func:`notes_column`, '' when none): the user's own text,
+            carried by key with the columns the user adds to its right, never read as a Decision.
+        all_headers: every column's header as built (a workbook built before Notes columns: what lies right of
+            the last of them is the user's own).
+        same_figure: the formula column showing the same figure as the typed column when one is typed
+            (Profit's Target ACoS beside Your target ACoS), '' when none: a value typed over it is read as
+            typed in the typed column (the sheet computes with it) and reported with where to type.
     """
 
     label: str
@@ -73,6 +80,10 @@ class EditableColumns:
             return round(float(typed) * 100) == round(float(current) * 100)
         share, units = self.applied_within
         return abs(float(current) - float(typed)) <= max(share * abs(float(typed)), units) + 1e-9
+    notes: str = ""
+    all_headers: tuple[str, ...] = ()
+    same_figure: str = ""
+    same_figure_header: str = ""
 
     def problem(self, value: Any) -> str | None:
         """Why a typed value is not valid here (None when it is, or is blank)."""
@@ -85,7 +96,7 @@ class EditableColumns:
     def defined_names(self, planned: "PlannedTable") -> list[tuple[str, str]]:
         """(defined name, '=range') over each key column and the typed column of the planned table."""
         ranges = planned.ranges(self.sheet, self.name)
-        named = (*self.keys, self.value, *((self.result,) if self.result else ()))
+        named = (*self.keys, self.value, *((self.result,) if self.result else ()), *((self.notes,) if self.notes else ()))
         return [(self.name_of(k), "=" + ranges[f"{self.name}.{k}"]) for k in named]
 
 
@@ -105,7 +116,26 @@ def editable(defs: list["ColumnDef"], label: str, sheet: str, name: str, keys: t
     results = {d.key: d.header for d in defs if d.key == options.get("result", "final")}
     decl = EditableColumns(label, sheet, table or label, name, tuple(keys), value, headers, tuple(inputs),
                            tuple(input_columns or keys), **options)
-    return replace(decl, result_header=results.get(decl.result, ""))
+    same = {d.key: d.header for d in defs if d.key == options.get("same_figure")}
+    return replace(decl, result_header=results.get(decl.result, ""), all_headers=tuple(d.header for d in defs),
+                   same_figure_header=same.get(decl.same_figure, ""))
+
+
+NOTES = "notes"  # the key of every Notes column
+NOTES_HEADER = "Notes"
+OWN_COLUMNS_CAP = 20  # columns a user may add right of a table's Notes column, carried by key (more are listed, not carried)
+
+
+def notes_column() -> ColumnDef:
+    """The Notes column at the right end of a table: plain typed text (no formula), carried by the row's key.
+
+    Formatted as text, so a note typed as =... or +... stays the text typed; read back and written again
+    exactly as it was (leading and trailing spaces kept).
+    """
+    return ColumnDef(NOTES, NOTES_HEADER, "freetext_input",
+                     "Input: your own notes on the row. Carried to next week's workbook by the row's key (with any "
+                     "column you add to its right, up to %d); never a Decision." % OWN_COLUMNS_CAP,
+                     lambda df, ctx: df[NOTES] if NOTES in df.columns else [None] * len(df), kind=INPUT, width=30)
 
 
 INVALID = "invalid"  # what a Final column shows for a Decision that is not a valid word or number

@@ -33,8 +33,9 @@ class GroupsContext:
     totals: dict[str, Any] = field(default_factory=dict)
 
 
-# The product's Profit row, checked against Profit's Position column (a user may sort Profit).
-_AT_PROFIT = keyed_row("{rng:profit.pos}", "{c:prow}")
+# The product's Profit row, checked against Profit's Position column (a user may sort Profit): computed once
+# per row in the prow_at helper column, which every lookup of the row reads.
+_AT_PROFIT = "{c:prow_at}"
 
 
 def _profit_value(key: str):
@@ -76,6 +77,9 @@ DEFS: list[ColumnDef] = [
               "Blend weight x the product's price (its order value without one) (Profit)."),
     ColumnDef("prow", "Profit row", "int", "Helper: the product's position on Profit.",
               lambda df, ctx: df["prow"], kind=DATA, width=8, hidden=True),
+    ColumnDef("prow_at", "Profit row now", "int", "Helper: the product's row on Profit, checked against Profit's "
+              "Position column (found again when Profit was sorted).", lambda df, ctx: df["prow"],
+              "=" + keyed_row("{rng:profit.pos}", "{c:prow}"), width=8, hidden=True),
     ColumnDef("ad_first", "Ad first row", "int", "Helper: first of the rows on in_ad_products.",
               lambda df, ctx: df["ad_first"], kind=DATA, width=8, hidden=True),
     ColumnDef("ad_last", "Ad last row", "int", "Helper: last of the rows on in_ad_products.",

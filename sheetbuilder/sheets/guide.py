@@ -9,6 +9,7 @@ from sheetbuilder.workbook.columns import ColumnDef
 from sheetbuilder.errors import Problem
 from sheetbuilder.workbook.palette import STATES
 from sheetbuilder.sheets.profit import CAUTION, warning_formula, warning_value
+from sheetbuilder.sheets.decisions import OWN_COLUMNS_CAP
 from sheetbuilder.sheets.settings_sheet import NOT_VALID_NAME
 from sheetbuilder.reading.settings import Settings
 from sheetbuilder.workbook.spec import INPUT, Cell, PageSetup, Sheet
@@ -48,13 +49,17 @@ SHEETS_TEXT = [
                   "term's figures in both periods, the outcome in words) and how each product moved since."),
     ("History", "Built with --previous: every change found applied, week by week (week, kind, keys, from, to), "
                 "carried into every rebuild and never dropped."),
+    ("Keyword history", "Every keyword's and product target's results week by week (impressions, clicks, orders, "
+                        "spend, ad sales, bid in force), one row each with its weeks listed oldest first and totals; "
+                        "carried into every rebuild with --previous, a week never counted twice."),
     ("Groups", "Which products each ad group advertises, the spend weights used where it advertises several, and "
                "below, each ad group's blended target ACoS, CVR, order value and price, computed once and fetched "
                "by the Bids and Terms rows."),
     ("Keys", "A lookup table: existing exact keywords and negatives, by number (the Terms sheet looks them up), "
              "and the Clashes table: where a new negative would block a keyword the list adds or a term that sells."),
     ("in_ sheets", "The rows of your exports as read, sorted by product. Catalog prices, costs, fees, "
-                   "margins and target ACoS are inputs you may correct there."),
+                   "margins and target ACoS are inputs you may correct there, and so are units available on "
+                   "in_inventory (a what-if for this week: next week's build reads the new export's stock)."),
     ("Carried edits", "Built with --previous: every value carried from last week's workbook (sheet, key, the "
                       "export's value, your value, the week you first typed it) and every typed number that "
                       "expired because the export shows it applied."),
@@ -92,6 +97,10 @@ DECISIONS_TEXT = [
     "A Decision that is not a valid word or number (other text, a formula error) shows 'invalid' in its Final "
     "column and is never replaced by the proposal; the changes command refuses it with the reason and "
     "--previous lists it on Unmatched edits.",
+    "Your own notes: Profit, Bids, Terms and Budget end with a Notes column of plain text (typed =... stays text). "
+    "--previous carries each note by its row's key, whatever order the rows are in, with any column you add right "
+    "of Notes (its header and values; up to %d such columns). Carried edits lists them; a note whose row is gone "
+    "is listed on Unmatched edits. Notes are never Decisions: changes, Actions and Follow-up ignore them." % OWN_COLUMNS_CAP,
 ]
 
 STEPS = [
@@ -112,7 +121,8 @@ STEPS = [
     "Sorting: Profit, Bids, Terms and in_catalog may be sorted and filtered (Data > Sort on the table, header to "
     "last row; Profit's Total row stays below it): every other sheet finds their rows by key, so every figure "
     "stays right and Harvest, Negatives and Actions re-fill in the new order. The other sheets cannot be sorted; "
-    "rows cannot be deleted anywhere: to leave a row out, type keep (Bids) or skip (Terms) in its Decision.",
+    "rows cannot be deleted anywhere: to leave a row out, type keep (Bids) or skip (Terms) in its Decision. "
+    "Sort the columns you added right of Notes with the table (select them too), so they stay with their rows.",
     "New products: a product your exports name but your catalog lacks has a row on in_catalog with its unit cost "
     "highlighted; type its price, unit cost and fees there and Profit follows.",
 ]

@@ -19,11 +19,14 @@ from sheetbuilder.workbook.spec import DATA, INPUT, Column, Highlight, Sheet, Ta
 HEADER_ROW = 0  # in_ sheets: the header in row 1, data from row 2
 CATALOG_NAME = "sb_catalog"  # defined names <this>_<column> over product_id, each editable column and its exported_ twin
 EXPORTED = "exported_"  # prefix of the hidden columns holding an editable column as exported
-EDITABLE = {"catalog": {"price", "unit_cost", "fees_per_unit", "target_acos", "margin"}}
+EDITABLE = {"catalog": {"price", "unit_cost", "fees_per_unit", "target_acos", "margin"},
+            "inventory": {"units_available"}}  # a what-if for this week: next week's export replaces it, not carried
+CARRIED = ("catalog",)  # the tables whose edits are carried by --previous (their exported_ twins tell edits apart)
 SORT_KEYS = {
     "catalog": ["product_id"],
     "store_sales": ["product_id", "_row"],
     "ad_products": ["product_id", "campaign", "ad_group", "_row"],
+    "inventory": ["product_id", "_row"],
     "search_terms": ["campaign", "ad_group", "_term_key", "_row"],
     "targets": ["_product", "_match_order", "campaign", "ad_group", "_row"],
 }
@@ -157,7 +160,7 @@ def plan_input_sheets(inputs: Inputs, fold_plurals: bool = False,
             values = frame[col.name].tolist()
             columns.append(Column(col.name, style, kind, values, width=_WIDTH.get(col.kind, 14)))
             ranges[col.name] = range_ref(name, i, HEADER_ROW + 1, HEADER_ROW + len(frame))
-        if editable:  # the values as exported, so next week's build carries only real edits
+        if editable and rule.name in CARRIED:  # the values as exported, so next week's build carries only real edits
             source = frame
             if exported and exported.get(rule.name) is not None:
                 source = sorted_rows(rule.name, exported[rule.name])

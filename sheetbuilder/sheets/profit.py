@@ -13,13 +13,13 @@ SUM(INDEX(..):INDEX(..)), so the sheet's cost grows with rows, not rows x produc
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
-from sheetbuilder.sheets.decisions import editable
+from sheetbuilder.sheets.decisions import NOTES, editable, notes_column
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, blank_div, plan_table
 from sheetbuilder.workbook.formula import block_sum, keyed_row
 from sheetbuilder.sheets.inputs import InputSheet
@@ -55,7 +55,7 @@ def _block(table: str, column: str) -> str:
 def _cat(column: str) -> str:
     """Formula text reading one catalog column at the product's catalog row (checked against in_catalog's
     position column, so a sorted in_catalog still gives each product its own row)."""
-    return "INDEX({rng:catalog.%s},%s)" % (column, keyed_row("{rng:catalog.position}", "{c:cat_row}"))
+    return "INDEX({rng:catalog.%s},{c:cat_at})" % column
 
 
 def _catalog_value(df: pd.DataFrame, ctx: ProfitContext, column: str) -> pd.Series:
@@ -84,16 +84,37 @@ def _status(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
     s = ctx.settings
     net = df["net_margin"]
     return pd.Series(np.select(
-        [(df["revenue"] == 0) & (df["ad_spend"] > 0), df["revenue"] == 0, df["margin"].isna(), net < 0, net < s.thin_margin, net >= s.strong_margin],
+        [((df["revenue"] == 0) | (df["stock"] == 0)) & (df["ad_spend"] > 0), df["revenue"] == 0, df["margin"].isna(),
+         net < 0, net < s.thin_margin, net >= s.strong_margin],
         ["loss", "no sales", "no margin", "loss", "thin", "strong"], "healthy"), index=df.index, dtype=object)
 
 
 def _direction(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
     ratio = df["ratio"]
     weak = df["status"].isin(["loss", "thin"])
-    return pd.Series(np.select([df["ad_spend"] == 0, df["revenue"] == 0, ratio.isna(), weak & (ratio > 1),
-                                (df["status"] == "strong") & (ratio < 1)],
-                               ["no ads", "cut", "hold", "cut", "grow"], "hold"), index=df.index, dtype=object)
+    low = df["low"] == 1
+    return pd.Series(np.select([df["ad_spend"] == 0, df["revenue"] == 0, ratio.isna() & low, ratio.isna(),
+                                weak & (ratio > 1), low, (df["status"] == "strong") & (ratio < 1)],
+                               ["no ads", "cut", LOW_STOCK, "hold", "cut", LOW_STOCK, "grow"], "hold"),
+                     index=df.index, dtype=object)
+
+
+LOW_STOCK = "low stock"
+NO_SALES = "no sales"
+
+
+def _cover(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
+    """Units available / units sold per day: blank where the stock is unknown, no sales where none sold."""
+    days = df["stock"] * ctx.settings.period_days / df["units"].where(df["units"] != 0)
+    out = pd.Series(days.tolist(), index=df.index, dtype=object)
+    out[df["stock"].notna() & (df["units"] == 0)] = NO_SALES
+    return out
+
+
+def _low(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
+    number = df["cover"].map(lambda v: isinstance(v, float) and not np.isnan(v))
+    below = df["cover"].where(number, np.inf).astype(float) < ctx.settings.min_days_of_cover
+    return (number & below).astype(float)
 
 
 def _bid_target(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
@@ -209,22 +230,29 @@ DEFS: list[ColumnDef] = [
               lambda df, ctx: blank_div(df["spend_share"], df["sales_share"].fillna(0)).where(df["spend_share"].notna()),
               '=IF({c:sales_share}="","",IF({c:sales_share}=0,"",IF({c:spend_share}="","",{c:spend_share}/{c:sales_share})))',
               width=10),
+    ColumnDef("cover", "Days of cover", "int",
+              "With an inventory export: units available / units sold per day in the period (period length on "
+              "Settings); no sales where none sold; blank without an inventory export or for a product it lacks.",
+              _cover, '=IF({c:stock}="","",IF({c:units}=0,"%s",{c:stock}*period_days/{c:units}))' % NO_SALES,
+              width=9),
     ColumnDef("status", "Status", "label",
-              "loss (ad spend with no sales, or net margin below 0), no sales (revenue 0, no ad spend), no margin "
+              "loss (ad spend with no sales or with no units available, or net margin below 0), no sales (revenue "
+              "0, no ad spend), no margin "
               "(not in the catalog), thin (below the thin threshold), strong (at or above the strong threshold), "
               "else healthy.",
               _status,
-              '=IF(AND({c:revenue}=0,{c:ad_spend}>0),"loss",IF({c:revenue}=0,"no sales",IF({c:margin}="","no margin",IF({c:net_margin}<0,"loss",'
+              '=IF(AND({c:ad_spend}>0,OR({c:revenue}=0,AND({c:stock}<>"",{c:stock}=0))),"loss",IF({c:revenue}=0,"no sales",IF({c:margin}="","no margin",IF({c:net_margin}<0,"loss",'
               'IF({c:net_margin}<thin_margin,"thin",IF({c:net_margin}>=strong_margin,"strong","healthy"))))))',
               width=10),
     ColumnDef("direction", "Direction", "label",
               "no ads where the product has no ad spend (worth launching when its margin is strong); cut where "
               "it spends with no sales, or the status is loss or thin and the spend-to-sales ratio is above 1; "
+              "low stock where Days of cover is below the minimum on Settings (never grow, no extra budget); "
               "grow where it is strong and the ratio is below 1; else hold.",
               _direction,
-              '=IF({c:ad_spend}=0,"no ads",IF({c:revenue}=0,"cut",IF({c:ratio}="","hold",IF(AND(OR('
-              '{c:status}="loss",{c:status}="thin"),{c:ratio}>1),"cut",IF(AND({c:status}="strong",{c:ratio}<1),'
-              '"grow","hold")))))', width=10),
+              '=IF({c:ad_spend}=0,"no ads",IF({c:revenue}=0,"cut",IF({c:ratio}="",IF({c:low}=1,"%s","hold"),'
+              'IF(AND(OR({c:status}="loss",{c:status}="thin"),{c:ratio}>1),"cut",IF({c:low}=1,"%s",'
+              'IF(AND({c:status}="strong",{c:ratio}<1),"grow","hold"))))))' % (LOW_STOCK, LOW_STOCK), width=10),
     ColumnDef("target_override", "Your target ACoS", "percent_input",
               "Input: type a target ACoS for the product to override the catalog and the default; its bids follow.",
               lambda df, ctx: df["target_override"], kind=INPUT, width=10),
@@ -277,11 +305,29 @@ DEFS: list[ColumnDef] = [
               total="={sum:rev_with_margin}", total_reference=_rev_with_margin_total),
     ColumnDef("pos", "Position", "int", "Helper: the row's place as built; other sheets find the product by it "
               "after Profit is sorted.", lambda df, ctx: df["pos"], kind=DATA, width=8, hidden=True),
+    # Stock (an inventory export): the product's block of rows on in_inventory, summed; blank where it has none.
+    ColumnDef("inv_first", "Stock first row", "int", "Helper: first of the product's rows on in_inventory.",
+              lambda df, ctx: df["inv_first"], kind=DATA, width=8, hidden=True),
+    ColumnDef("inv_last", "Stock last row", "int", "Helper: last of the product's rows on in_inventory.",
+              lambda df, ctx: df["inv_last"], kind=DATA, width=8, hidden=True),
+    ColumnDef("stock", "Units available", "int", "Helper: the product's units available (in_inventory, every "
+              "location summed); blank without an inventory export or for a product it lacks.",
+              lambda df, ctx: df["stock"], '=IF({c:inv_first}="","",%s)'
+              % block_sum("{rng:inventory.units_available}", "{c:inv_first}", "{c:inv_last}"), width=8, hidden=True),
+    ColumnDef("low", "Low stock", "int", "Helper: 1 where Days of cover is below the minimum days of cover.",
+              _low, '=IF(ISNUMBER({c:cover}),IF({c:cover}<min_days_of_cover,1,0),0)', width=8, hidden=True),
+    ColumnDef("cat_at", "Catalog row now", "int", "Helper: the product's row on in_catalog, checked against its "
+              "position column (found again when in_catalog was sorted); computed once for every catalog lookup.",
+              lambda df, ctx: df["cat_row"], '=IF({c:cat_row}="","",%s)' % keyed_row("{rng:catalog.position}", "{c:cat_row}"),
+              width=8, hidden=True),
+    notes_column(),  # the user's notes at the right end
 ]
+STOCK = ("stock",)  # without an inventory export these are written blank: no in_inventory range to read
 
 # What a user types on Profit (a product's own target ACoS) and the key that finds its row again.
 EDITABLE_COLUMNS = editable(DEFS, "Profit", SHEET, "sb_profit", ("product_id",), "target_override",
-                            ("catalog", "store_sales", "ad_products"), numeric="target", result="")
+                            ("catalog", "store_sales", "ad_products"), numeric="target", result="", notes=NOTES,
+                            same_figure="target_acos")
 
 # Totals that need the whole frame are filled after the body (see _fill_totals).
 _LATE_TOTALS = {
@@ -322,6 +368,14 @@ def product_frame(inputs: Inputs, layouts: dict[str, InputSheet]) -> pd.DataFram
         grouped = layout.frame.groupby("product_id")
         for key, column in sums.items():
             df[key] = df["product_id"].map(grouped[column].sum()).fillna(0.0).astype(float)
+    layout = layouts.get("inventory")
+    if layout is None or not len(layout.frame):
+        df["inv_first"] = df["inv_last"] = df["stock"] = np.nan
+    else:
+        fl = layout.first_last()
+        df["inv_first"] = df["product_id"].map(fl["first"]).astype(float)
+        df["inv_last"] = df["product_id"].map(fl["last"]).astype(float)
+        df["stock"] = df["product_id"].map(layout.frame.groupby("product_id")["units_available"].sum()).astype(float)
     df["target_override"] = np.nan
     df["pos"] = np.arange(1, len(df) + 1, dtype=float)
     return df
@@ -348,7 +402,9 @@ def plan_profit(inputs: Inputs, layouts: dict[str, InputSheet], settings: Settin
     catalog = layouts["catalog"].frame if "catalog" in layouts else None
     ctx = ProfitContext(settings, catalog)
     ranges = {f"{t}.{col}": r for t, layout in layouts.items() for col, r in layout.ranges.items()}
-    planned = plan_table(DEFS, base, ctx, HEADER_ROW + 1, ranges, with_totals=True)
+    defs = DEFS if "inventory.units_available" in ranges else [
+        replace(d, formula=None, kind=DATA) if d.key in STOCK else d for d in DEFS]
+    planned = plan_table(defs, base, ctx, HEADER_ROW + 1, ranges, with_totals=True)
     for key, compute in _LATE_TOTALS.items():
         i = [d.key for d in DEFS].index(key)
         value = compute(planned.frame)

@@ -32,7 +32,8 @@ import numpy as np
 import pandas as pd
 
 from sheetbuilder.sheets.blends import attach_groups, blends_row_column, fetch
-from sheetbuilder.sheets.decisions import apply_word_decision, decision_validation, editable, word_decision_formula
+from sheetbuilder.sheets.decisions import (NOTES, apply_word_decision, decision_validation, editable, notes_column,
+                                          word_decision_formula)
 from sheetbuilder.sheets.lists import running_key
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, blank_div, exports_only, plan_table
 from sheetbuilder.reading.normalise import contains_phrase, looks_like_product_id, normalise, words
@@ -362,12 +363,12 @@ def _negative_key(row, phrases: dict, exact: set) -> tuple:
     return ("N", row.campaign, row.ad_group, row.term_key)
 
 
-DEFS: list[ColumnDef] = exports_only(_all_defs(), EXPORTS)  # the Terms columns
+DEFS: list[ColumnDef] = exports_only(_all_defs(), EXPORTS) + [notes_column()]  # the Terms columns, the user's notes last
 
 # What a user types on Terms and the keys that find its row again (carry, changes and the tests read these).
 EDITABLE_COLUMNS = editable(DEFS, "Terms", SHEET, "sb_terms", ("campaign", "ad_group", "term"), "decision",
                             ("search_terms",), ("campaign", "ad_group", "search_term"), normalised=("term",),
-                            words=DECISIONS)
+                            words=DECISIONS, notes=NOTES)
 
 
 def term_frame(layout: InputSheet, groups: pd.DataFrame, campaigns: pd.DataFrame | None,
@@ -550,9 +551,10 @@ class ClashContext:
 
 CLASH_TITLE = ("Clashes: where a negative from one term (left) could block the keyword another term adds, or "
                "another term where it sells; Blocks = 1 keeps that negative off the lists")
-# Terms rows i and j, checked against Terms' Position column (a user may sort Terms).
-_AT_I = keyed_row("{rng:terms.pos}", "{c:i}")
-_AT_J = keyed_row("{rng:terms.pos}", "{c:j}")
+# Terms rows i and j, checked against Terms' Position column (a user may sort Terms): computed once per clash
+# in the i_at and j_at helper columns, which every lookup of the rows reads.
+_AT_I = "{c:i_at}"
+_AT_J = "{c:j_at}"
 _FINAL_I = "INDEX({rng:terms.final},%s)" % _AT_I
 _ADDS_J = "INDEX({rng:terms.adds},%s)" % _AT_J
 CLASH_DEFS: list[ColumnDef] = [
@@ -573,6 +575,10 @@ CLASH_DEFS: list[ColumnDef] = [
               '%s)>0,{c:src_in}=1,OR(negative_level="campaign",{c:src_group}=1)))),1,0),IF(AND(%s="promote",'
               '%s=1,{c:kw_group}=1,{c:same_term}=1),1,0))' % (_FINAL_I, _AT_I, _ADDS_J, _AT_J, _FINAL_I, _ADDS_J),
               width=8),
+    *[ColumnDef(f"{k}_at", f"{h} row now", "int", f"Helper: the Terms row of {h.lower()}, checked against Terms' "
+                "Position column (found again when Terms was sorted).", (lambda key: lambda df, ctx: df[key])(k),
+                "=" + keyed_row("{rng:terms.pos}", "{c:%s}" % k), width=8, hidden=True)
+      for k, h in (("i", "Negative from term"), ("j", "Blocked term"))],
 ]
 
 

@@ -144,6 +144,8 @@ class CarryResult:
         applied: every typed number this week's export shows applied (it expires: the cell is left blank).
         inputs_as_saved: the planned inputs were read back from a saved workbook (their text already in
             the form a cell stores), not from exports.
+        notes: {label: {compared key: value}} of the Notes typed last week whose row still exists.
+        own_columns: {label: [OwnColumn]} the columns a user added right of a table's Notes, values by key.
     """
 
     settings: Settings
@@ -158,6 +160,8 @@ class CarryResult:
     source: str = ""
     applied: list = field(default_factory=list)
     inputs_as_saved: bool = False
+    notes: dict = field(default_factory=dict)
+    own_columns: dict = field(default_factory=dict)
 
 
 def entry_for(sheet: str) -> EditSheet:
@@ -175,6 +179,30 @@ def decision_column(result: CarryResult, sheet: str, rows: Iterable[Sequence[Any
     """
     entry = entry_for(sheet)
     typed = result.decisions.get(sheet, {})
+    fold = result.settings.fold_plurals
+    key_of = entry.key_of if result.inputs_as_saved else entry.export_key
+    return [typed.get(key_of(parts, fold)) for parts in rows]
+
+
+@dataclass(frozen=True)
+class OwnColumn:
+    """A column a user added right of a table's Notes column: its place (1 = just right of Notes), its header,
+    and {compared key: value} of its cells whose row still exists."""
+
+    offset: int
+    header: Any
+    values: dict = field(default_factory=dict)
+
+
+def edit_sheet_of(label: str) -> EditSheet:
+    """The EditSheet of any table with a typed column (Profit's included)."""
+    return PROFIT_TARGET if label == PROFIT_TARGET.label else entry_for(label)
+
+
+def keyed_column(result: CarryResult, label: str, typed: dict, rows: Iterable[Sequence[Any]]) -> list[Any]:
+    """The carried value of each planned row of a table (None where none), from {compared key: value};
+    rows as raw key tuples in key order (as :func:`decision_column` takes them)."""
+    entry = edit_sheet_of(label)
     fold = result.settings.fold_plurals
     key_of = entry.key_of if result.inputs_as_saved else entry.export_key
     return [typed.get(key_of(parts, fold)) for parts in rows]

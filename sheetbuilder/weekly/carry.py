@@ -24,16 +24,17 @@ import math
 import datetime as dt
 from dataclasses import dataclass, field, replace
 from pathlib import Path
-from typing import Any, Callable, Iterable, Mapping, Sequence
+from typing import Any, Iterable, Mapping, Sequence
 
 import pandas as pd
-from openpyxl.utils.cell import coordinate_to_tuple
 
 from sheetbuilder.sheets.inputs import CATALOG_NAME, EDITABLE, EXPORTED
 from sheetbuilder.sheets.settings_sheet import (AS_BUILT, SHEET as SETTINGS_SHEET, not_valid_text, typed_name,
                                                 typed_problem)
-from sheetbuilder.sheets.typed import (CARRIED_NAME, DECISION_SHEETS, PROFIT_TARGET, SCAN_ROWS, CarryRecord,
-                                       CarryResult, EditSheet, key_text)
+from sheetbuilder.sheets.decisions import NO_SAVED_VALUE, NOTES_HEADER, OWN_COLUMNS_CAP
+from sheetbuilder.sheets.typed import (CARRIED_NAME, DECISION_SHEETS, EDITABLE_TABLES, PROFIT_TARGET, SCAN_ROWS,
+                                       CarryRecord, CarryResult, EditSheet, OwnColumn, edit_sheet_of, key_text)
+from sheetbuilder.errors import WARNING, Problem
 from sheetbuilder.values import is_blank, is_number, same_value, shown
 from sheetbuilder.weekly.saved import SavedBook, SavedWorkbookUnreadable, named_columns
 from sheetbuilder.reading.settings import SETTINGS, Settings, coerce_setting
@@ -45,6 +46,39 @@ MONEY_COLUMNS = ("price", "fees_per_unit")  # blank money is read as 0, as the r
 PERCENT_COLUMNS = ("target_acos", "margin")  # blank means "not given"
 TARGET_BOUNDS = (0.0, 5.0)  # as default_target_acos
 PreviousWorkbookUnreadable = SavedWorkbookUnreadable  # the previous workbook is missing or unreadable
+
+
+@dataclass(frozen=True)
+class Copied:
+    """A copy of one of our sheets (a spreadsheet program's Copy sheet) whose typed cells differ from the original's.
+
+    Attributes:
+        built: the sheet as built ('Bids'); original: what its tab is called now; copy: the copy's tab.
+        what: what was typed ('Decisions'); differ: {key: value on the copy} of every typed cell that differs
+            (None where the copy is blank and the original is not).
+    """
+
+    built: str
+    original: str
+    copy: str
+    what: str
+    differ: dict
+
+    def message(self) -> str:
+        """What the reports say: the copy was not read, and where to type."""
+        (key, value), n = next(iter(self.differ.items())), len(self.differ)
+        return (f"{self.what} on a copy of {self.original} ('{self.copy}') were not read; type them on {self.original} "
+                f"({n} cell{'' if n == 1 else 's'} differ{'s' if n == 1 else ''} from {self.original}, e.g. "
+                f"{_key_text(_parts(key))}: {'blank' if value is None else shown(value)})")
+
+
+def _parts(key: Any) -> tuple:
+    return key if isinstance(key, tuple) else (key,)
+
+
+def copy_problems(edits: Edits) -> list[Problem]:
+    """One warning per copy of our sheets whose typed cells differ from the original's (see :class:`Copied`)."""
+    return [Problem(c.copy, None, None, c.message(), WARNING) for c in edits.copied]
 
 
 @dataclass(frozen=True)
@@ -62,6 +96,10 @@ class Edits:
             not be found (neither its defined name nor its header).
         first_typed: {(sheet, key, column): date} from the workbook's Carried edits sheet.
         built_on: the workbook's build date (the week an edit not yet on Carried edits was typed).
+        notes: {label: {raw key tuple: value}} of every non-blank Notes cell.
+        own: {label: [OwnColumn]} the columns a user added right of a table's Notes (values by raw key).
+        own_refused: CarryRecords of own columns that cannot be carried (no header, beyond the cap).
+        copied: the copies of our sheets whose typed cells differ from the original's (never read as edits).
     """
 
     source: str
@@ -72,6 +110,10 @@ class Edits:
     lost: list[tuple[str, str]] = field(default_factory=list)
     first_typed: dict[tuple[str, str, str], Any] = field(default_factory=dict)
     built_on: Any = None
+    notes: dict[str, dict[tuple, Any]] = field(default_factory=dict)
+    own: dict[str, list[OwnColumn]] = field(default_factory=dict)
+    own_refused: list[CarryRecord] = field(default_factory=list)
+    copied: list[Copied] = field(default_factory=list)
 
 
 # ---------------------------------------------------------------------------------------------- reading
@@ -96,15 +138,17 @@ def _cell(row: list[Any], col: int) -> Any:
     return row[col] if col < len(row) else None
 
 
-def _located(wb, rows_of: Callable[[str], list[list[Any]]], names: dict[str, str], headers: dict[str, str],
-             sheet: str, scan: int, value_key: str) -> tuple[list[list[Any]], dict[str, int]] | None:
-    """(body rows, {key: column}) of a table: by its defined names, else by its header row; None when neither."""
-    areas = named_columns(wb, names)
+def _located(book: SavedBook, names: dict[str, str], headers: dict[str, str], sheet: str, scan: int,
+             value_key: str, also: frozenset = frozenset()) -> tuple[list[list[Any]], dict[str, int]] | None:
+    """(body rows, {key: column}) of a table: by its defined names, else by its header row; None when neither.
+
+    also: more columns to read in the same pass (the Notes columns, read again from the cache by notes_in)."""
+    areas = named_columns(book, names)
     if areas is not None:  # only these columns are read; a formula with no saved value is told from a blank
         area = next(iter(areas.values()))
         cols = {k: a.first_col for k, a in areas.items()}
-        return rows_of(area.sheet, frozenset(cols.values()), True)[area.first_row:area.last_row + 1], cols
-    rows = rows_of(sheet)
+        return book.rows(area.sheet, frozenset(cols.values()) | also, True)[area.first_row:area.last_row + 1], cols
+    rows = book.rows(sheet)
     at = _header_index(rows, list(headers.values()), scan)
     if at is None:
         return None
@@ -120,13 +164,15 @@ def _located(wb, rows_of: Callable[[str], list[list[Any]]], names: dict[str, str
     return body, cols
 
 
-def _read_block(wb, rows_of, entry: EditSheet) -> dict[tuple, Any] | None:
-    """{raw key tuple: value} of every non-blank typed cell of a table; None when the table was not found."""
+def _read_block(book: SavedBook, entry: EditSheet, sheet: str, by_name: bool = True) -> dict[tuple, Any] | None:
+    """{raw key tuple: value} of every non-blank typed cell of a table (on sheet when not found by its defined
+    names, or not by_name: a copy); None when the table was not found."""
     decl = entry.decl
     wanted = (*decl.keys, decl.value)
-    names = {k: decl.name_of(k) for k in wanted}
+    names = {k: decl.name_of(k) for k in wanted} if by_name else {}
     headers = {k: decl.headers[k] for k in wanted}
-    found = _located(wb, rows_of, names, headers, decl.sheet, entry.scan_rows, decl.value)
+    found = _located(book, names, headers, sheet, entry.scan_rows, decl.value,
+                     _notes_columns(book, decl) if by_name else frozenset())
     if found is None:
         return None
     body, cols = found
@@ -148,39 +194,36 @@ def _as_built_column(rows: list[list[Any]]) -> int | None:
     return None
 
 
-def _settings_cells(wb, rows_of: Callable[[str], list[list[Any]]]) -> dict[str, Any]:
+def _settings_cells(book: SavedBook) -> dict[str, Any]:
     """{key: value} of every live setting typed apart from its As built value, read from its typed Value
     cell (its defined name; an older workbook's formulas read that cell under the setting's own name)."""
     out: dict[str, Any] = {}
     for spec in SETTINGS:
-        name = typed_name(spec.key) if typed_name(spec.key) in wb.defined_names else spec.key
-        if not spec.live or name not in wb.defined_names:
+        area = (book.area(typed_name(spec.key)) or book.area(spec.key)) if spec.live else None
+        if area is None:
             continue
-        for sheet, coord in wb.defined_names[name].destinations:
-            if sheet not in wb.sheetnames:
-                continue
-            r, c = coordinate_to_tuple(coord.replace("$", ""))
-            rows = rows_of(sheet)
-            value = rows[r - 1][c - 1] if r <= len(rows) and c <= len(rows[r - 1]) else None
-            at = _as_built_column(rows)
-            built = rows[r - 1][at] if at is not None and r <= len(rows) and at < len(rows[r - 1]) else None
-            if at is not None and same_value(value, built):
-                break  # not typed by the user: this week's settings.toml decides
-            out[spec.key] = value
-            break
+        r, c = area.first_row, area.first_col
+        rows = book.rows(area.sheet)
+        value = rows[r][c] if r < len(rows) and c < len(rows[r]) else None
+        at = _as_built_column(rows)
+        built = rows[r][at] if at is not None and r < len(rows) and at < len(rows[r]) else None
+        if at is not None and same_value(value, built):
+            continue  # not typed by the user: this week's settings.toml decides
+        out[spec.key] = value
     return out
 
 
-def _catalog_cells(wb, rows_of) -> dict[tuple[str, str], Any]:
-    """{(product_id, column): value} of every in_catalog input cell that differs from its exported_ twin."""
+def _catalog_cells(book: SavedBook, sheet: str, by_name: bool = True) -> dict[tuple[str, str], Any]:
+    """{(product_id, column): value} of every in_catalog input cell that differs from its exported_ twin
+    (found by its defined names, else on sheet by its header; only by header when not by_name: a copy)."""
     wanted = ("product_id", *CATALOG_COLUMNS, *(EXPORTED + c for c in CATALOG_COLUMNS))
-    areas = named_columns(wb, {c: f"{CATALOG_NAME}_{c}" for c in wanted})
+    areas = named_columns(book, {c: f"{CATALOG_NAME}_{c}" for c in wanted}) if by_name else None
     if areas is not None:
         area = areas["product_id"]
         cols = {k: a.first_col for k, a in areas.items()}
-        body = rows_of(area.sheet, frozenset(cols.values()))[area.first_row:]  # and rows the user added below
+        body = book.rows(area.sheet, frozenset(cols.values()))[area.first_row:]  # and rows the user added below
     else:  # no names: by header text; an older layout without exported_ columns compares with the export
-        rows = rows_of(CATALOG_SHEET)
+        rows = book.rows(sheet)
         at = _header_index(rows, ["product_id"], SCAN_ROWS)
         if at is None:
             return {}
@@ -209,51 +252,106 @@ def read_edits(path: Path) -> Edits:
     """Everything a user types in the workbook at path; the file is only read.
 
     Raises:
-        PreviousWorkbookUnreadable: path is missing or not a readable .xlsx file.
+        PreviousWorkbookUnreadable: path is missing or not a readable .xlsx or .ods file.
     """
     with SavedBook(path) as book:
         return edits_in(book)
 
 
-def _was_built(wb, rows_of, entry: EditSheet) -> bool:
+def _was_built(book: SavedBook, entry: EditSheet, sheet: str) -> bool:
     """Whether a typed column that could not be found was in the workbook (its name exists but is broken,
-    or a header row holds its key headers): a table the build did not write (no rows) is not lost."""
-    if entry.decl.name_of(entry.decl.value) in wb.defined_names:
+    or a header row of sheet holds its key headers): a table the build did not write (no rows) is not lost."""
+    if book.has_name(entry.decl.name_of(entry.decl.value)):
         return True
-    if entry.sheet not in wb.sheetnames:
+    if sheet not in book.sheetnames:
         return False
-    return _header_index(rows_of(entry.sheet), [k.header for k in entry.keys], entry.scan_rows) is not None
+    return _header_index(book.rows(sheet), [k.header for k in entry.keys], entry.scan_rows) is not None
 
 
 def edits_in(book: SavedBook) -> Edits:
     """Everything a user typed in an opened saved workbook (see :func:`read_edits`)."""
-    wb, rows_of = book.wb, book.rows
-    settings = _settings_cells(wb, rows_of)
-    catalog = _catalog_cells(wb, rows_of)
+    settings = _settings_cells(book)
+    catalog_sheet = book.sheet(CATALOG_SHEET) or CATALOG_SHEET
+    catalog = _catalog_cells(book, catalog_sheet)
+    copied = _copied(book, CATALOG_SHEET, "costs and prices", catalog,
+                     lambda copy: _catalog_cells(book, copy, by_name=False))
     lost: list[tuple[str, str]] = []
     decisions: dict[str, dict] = {}
     targets: dict[str, Any] = {}
     for entry in (*DECISION_SHEETS, PROFIT_TARGET):
-        found = _read_block(wb, rows_of, entry)
+        sheet = book.sheet(entry.sheet) or entry.sheet  # its tab may have been renamed
+        found = _read_block(book, entry, sheet)
+        copied += _copied(book, entry.sheet, "Decisions" if entry.value_header == "Decision" else
+                          f"{entry.value_header!r} values", found or {},
+                          lambda copy, entry=entry: _read_block(book, entry, copy, by_name=False) or {})
         if found is None:
-            if _was_built(wb, rows_of, entry):
+            if _was_built(book, entry, sheet):
                 lost.append((entry.label, f"its {entry.value_header!r} column was not found: the workbook "
                                           f"has no defined name {entry.decl.name_of(entry.decl.value)} and no "
                                           f"header row reading {', '.join(entry.decl.headers.values())}"))
             continue
         if entry is PROFIT_TARGET:
             targets = {key_text(k[0]): v for k, v in found.items()}
+            targets.update({key_text(k[0]): v for k, v in typed_over_figure(book, entry, sheet).items()})
         elif found:
             decisions.setdefault(entry.label, {}).update(found)
     built = book.named_value("built_on")
+    notes, own, own_refused = notes_in(book)
     return Edits(str(book.path), settings, catalog, targets, decisions, lost, _first_typed(book),
-                 built.date() if isinstance(built, dt.datetime) else built)
+                 built.date() if isinstance(built, dt.datetime) else built, notes, own, own_refused, copied)
+
+
+def _copied(book: SavedBook, built: str, what: str, original: Mapping, read: Callable[[str], Mapping]) -> list[Copied]:
+    """A Copied record per copy of the sheet built as built whose typed cells differ from the original's."""
+    out = []
+    for copy in book.tabs.copies.get(built, []):
+        typed = read(copy)
+        differ = {k: v for k, v in typed.items() if k not in original or not same_value(original[k], v)}
+        differ.update({k: None for k in original if k not in typed})  # cleared on the copy
+        if differ:
+            out.append(Copied(built, book.sheet(built) or built, copy, what, differ))
+    return out
+
+
+def typed_over_figure(book: SavedBook, entry: EditSheet, sheet: str) -> dict[tuple, Any]:
+    """{raw key tuple: value} of every value typed over the formula column showing the same figure as the
+    entry's typed column (Profit's "Target ACoS" beside "Your target ACoS"): the sheet computes with it."""
+    decl = entry.decl
+    if not decl.same_figure:
+        return {}
+    areas = named_columns(book, {k: decl.name_of(k) for k in decl.keys})
+    if areas is not None:
+        area = next(iter(areas.values()))
+        sheet, header_at, last = area.sheet, area.first_row - 1, area.last_row
+        keys = {k: a.first_col for k, a in areas.items()}
+        header = book.head(sheet, header_at + 1)[header_at] if header_at >= 0 else []
+    else:
+        rows = book.head(sheet, entry.scan_rows)
+        header_at = _header_index(rows, [decl.headers[k] for k in decl.keys], entry.scan_rows)
+        if header_at is None:
+            return {}
+        header, last = rows[header_at], None
+        keys = {k: [key_text(v) for v in header].index(decl.headers[k]) for k in decl.keys}
+    texts = [key_text(v) for v in header]
+    if decl.same_figure_header not in texts:
+        return {}
+    col = texts.index(decl.same_figure_header)
+    out: dict[tuple, Any] = {}
+
+    def keep(row: int, cells: dict[int, tuple[Any, bool]]) -> bool:
+        value, formula = cells.get(col, (None, False))
+        parts = tuple(cells.get(keys[k], (None, False))[0] for k in decl.keys)
+        if row > header_at and not formula and not is_blank(value) and not all(is_blank(p) for p in parts):
+            out[parts] = value
+        return last is not None and row >= last
+    book.stream(sheet, keep, {col, *keys.values()})
+    return out
 
 
 def _first_typed(book: SavedBook) -> dict[tuple[str, str, str], Any]:
     """{(sheet, key, column): date first typed} from the Carried edits sheet, found by its defined names."""
     keys = ("sheet", "key", "column", "first_typed")
-    areas = named_columns(book.wb, {k: f"{CARRIED_NAME}_{k}" for k in keys})
+    areas = named_columns(book, {k: f"{CARRIED_NAME}_{k}" for k in keys})
     if areas is None:
         return {}
     area = areas["sheet"]
@@ -455,11 +553,163 @@ def apply_edits(edits: Edits, inputs_tables: Any, settings: Settings) -> CarryRe
     decisions = _carry_decisions(edits, tables, fold, carried, unmatched, applied)
     for label, why in edits.lost:
         unmatched.append(CarryRecord(label, "(the whole column)", "", None, why))
+    notes, own = carry_notes(edits, tables, fold, carried, unmatched)
+    for copied in edits.copied:  # typed on a copy of the sheet: listed, never carried
+        unmatched += [CarryRecord(copied.copy, _key_text(_parts(key)), copied.what, value,
+                                  f"typed on a copy of {copied.original}, not read; type it on {copied.original}")
+                      for key, value in copied.differ.items()]
     def dated(records: list[CarryRecord]) -> list[CarryRecord]:
         return [replace(r, first_typed=edits.first_typed.get((r.sheet, r.key, r.column), edits.built_on))
                 for r in records]
     return CarryResult(new_settings, changed, catalog, targets, decisions, dated(carried), unmatched, settings,
-                       source=edits.source, applied=dated(applied))
+                       source=edits.source, applied=dated(applied), notes=notes, own_columns=own)
+
+
+# ------------------------------------------------------------------------------ notes and the user's own columns
+
+OWN_SCAN = 2 * OWN_COLUMNS_CAP  # columns right of Notes looked at: those beyond the cap are listed, not carried
+
+
+def _keyed_rows(rows: list[list[Any]], areas: dict, decl) -> list[tuple[tuple, list[Any]]]:
+    """(raw key, row) of every body row of a table whose keys are not all blank."""
+    body = []
+    for row in rows[areas[decl.keys[0]].first_row:areas[decl.keys[0]].last_row + 1]:
+        parts = tuple(_cell(row, areas[k].first_col) for k in decl.keys)
+        if not all(is_blank(p) for p in parts):
+            body.append((parts, row))
+    return body
+
+
+def _own_in(header: list[Any], body: list[tuple[tuple, list[Any]]], label: str, notes_col: int,
+            after: str = NOTES_HEADER) -> tuple[list[OwnColumn], list[CarryRecord]]:
+    """The user's columns right of Notes (or of after, the last column built) ({raw key: value} each), and those
+    that cannot be carried."""
+    own: list[OwnColumn] = []
+    refused: list[CarryRecord] = []
+    for offset in range(1, OWN_SCAN + 1):
+        col = notes_col + offset
+        title = _cell(header, col)
+        values = {parts: v for parts, row in body if not is_blank(v := _cell(row, col))}
+        if is_blank(title) and not values:
+            continue
+        where = f"column {offset} right of {after}"
+        if offset > OWN_COLUMNS_CAP:
+            refused.append(CarryRecord(label, f"({where})", key_text(title), f"{len(values)} value(s)",
+                                       f"beyond the {OWN_COLUMNS_CAP} columns of your own carried right of "
+                                       f"{after}; move it nearer"))
+        elif is_blank(title):
+            refused.append(CarryRecord(label, f"({where})", "", f"{len(values)} value(s)",
+                                       "a column without a header is not carried; give it one"))
+        else:
+            own.append(OwnColumn(offset, title, values))
+    return own, refused
+
+
+def _notes_columns(book: SavedBook, decl) -> frozenset:
+    """A table's Notes column and the OWN_SCAN columns right of it (none without its defined name), read in the
+    same pass as its keys and typed column."""
+    area = book.area(decl.name_of(decl.notes)) if decl.notes else None
+    return frozenset() if area is None else frozenset(range(area.first_col, area.first_col + OWN_SCAN + 1))
+
+
+def _notes_of(book: SavedBook, label: str, decl) -> tuple[dict, list[OwnColumn], list[CarryRecord]] | None:
+    """(notes by raw key, own columns, refused columns) of one table, found by its defined names; None without."""
+    areas = (named_columns(book, {k: decl.name_of(k) for k in (*decl.keys, decl.value, decl.notes)})
+             or named_columns(book, {k: decl.name_of(k) for k in (*decl.keys, decl.notes)}))
+    if areas is None:
+        return _own_of_older(book, label, decl)
+    area = areas[decl.notes]
+    notes_col = area.first_col
+    wanted = frozenset(a.first_col for k, a in areas.items() if k != decl.notes) | _notes_columns(book, decl)
+    rows = book.rows(area.sheet, wanted, True)  # the pass that read the typed column (see _located)
+    header = rows[area.first_row - 1] if 0 < area.first_row <= len(rows) else []
+    body = _keyed_rows(rows, areas, decl)
+    notes = {parts: v for parts, row in body if not is_blank(v := _cell(row, notes_col))}
+    own, refused = _own_in(header, body, label, notes_col)
+    return notes, own, refused
+
+
+def _own_of_older(book: SavedBook, label: str, decl) -> tuple[dict, list[OwnColumn], list[CarryRecord]] | None:
+    """A workbook built before Notes columns: the columns right of the last header the table was built with,
+    found through its key and typed columns' defined names, are the user's own (no notes)."""
+    areas = named_columns(book, {k: decl.name_of(k) for k in (*decl.keys, decl.value)})
+    if areas is None or not decl.all_headers:
+        return None
+    area = areas[decl.value]
+    rows = book.rows(area.sheet, None, True)  # every column: the table's width is unknown (once, an older workbook)
+    header = rows[area.first_row - 1] if 0 < area.first_row <= len(rows) else []
+    ours = {h for h in decl.all_headers if h != NOTES_HEADER}
+    last = max((i for i, v in enumerate(header) if key_text(v) in ours), default=None)
+    if last is None:
+        return None
+    own, refused = _own_in(header, _keyed_rows(rows, areas, decl), label, last, key_text(header[last]))
+    return {}, own, refused
+
+
+def notes_in(book: SavedBook) -> tuple[dict, dict, list[CarryRecord]]:
+    """Every table's Notes ({label: {raw key: value}}), the user's own columns right of them, and the own
+    columns that cannot be carried. A table built without a Notes column (an older workbook) gives none."""
+    notes: dict[str, dict] = {}
+    own: dict[str, list[OwnColumn]] = {}
+    refused: list[CarryRecord] = []
+    for decl in EDITABLE_TABLES:
+        found = _notes_of(book, decl.label, decl) if decl.notes else None
+        if found is None:
+            continue
+        if found[0]:
+            notes[decl.label] = found[0]
+        if found[1]:
+            own[decl.label] = found[1]
+        refused += found[2]
+    return notes, own, refused
+
+
+def _keyed(entry: EditSheet, typed: dict, existing: set | None, fold: bool, column: str, unmatched: list,
+           gone: str) -> dict[tuple, Any]:
+    """{compared key: value} of the typed cells whose row still exists; the others listed on unmatched."""
+    out: dict[tuple, Any] = {}
+    for parts, value in typed.items():
+        key = entry.key_of(parts, fold)
+        if value is NO_SAVED_VALUE:
+            why = "the cell holds a formula with no saved value; type the text itself"
+        elif existing is None or key not in existing:
+            why = gone
+        elif key in out and out[key] != value:
+            why = f"another row with the same key already carries {shown(out[key])}"
+        else:
+            out[key] = value
+            continue
+        unmatched.append(CarryRecord(entry.label, _key_text(parts), column, value, why))
+    return out
+
+
+def carry_notes(edits: Edits, tables, fold: bool, carried: list, unmatched: list) -> tuple[dict, dict]:
+    """Notes and own columns matched to the new rows by key: ({label: {key: note}}, {label: [OwnColumn]}).
+
+    Each note carried is listed on carried (never a Decision: it carries no compared key, so no typed cell
+    is marked by it); each own column once, with how many values it carries; a note or value whose row is
+    gone, and a column that cannot be carried, on unmatched.
+    """
+    notes: dict[str, dict] = {}
+    own: dict[str, list[OwnColumn]] = {}
+    unmatched += edits.own_refused
+    for label in dict.fromkeys([*edits.notes, *edits.own]):
+        entry = edit_sheet_of(label)
+        existing = _existing(entry, tables, fold)
+        gone = (f"the new exports have no {' or '.join(entry.tables)} table" if existing is None
+                else f"its row is no longer in the {' or '.join(entry.tables)} export")
+        kept = _keyed(entry, edits.notes.get(label, {}), existing, fold, NOTES_HEADER, unmatched, gone)
+        if kept:
+            notes[label] = kept
+        by_key = {entry.key_of(p, fold): p for p in edits.notes.get(label, {})}
+        for key, value in kept.items():
+            carried.append(CarryRecord(label, _key_text(by_key[key]), NOTES_HEADER, value, "your note, carried by key"))
+        for column in edits.own.get(label, []):
+            values = _keyed(entry, column.values, existing, fold, key_text(column.header), unmatched, gone)
+            own.setdefault(label, []).append(replace(column, values=values))
+            carried.append(CarryRecord(label, "(your own column)", key_text(column.header),
+                                       f"{len(values)} value(s)", "your own column, carried by key"))
+    return notes, own
 
 
 # ------------------------------------------------------------------------------------ helpers for the build

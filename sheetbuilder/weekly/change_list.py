@@ -11,16 +11,13 @@ from __future__ import annotations
 
 from typing import Any
 
-from sheetbuilder.assemble import plan_workbook
-from sheetbuilder.sheets.typed import DECISION_SHEETS, PROFIT_TARGET, CarryResult, key_text
 from sheetbuilder.sheets.decisions import INVALID
 from sheetbuilder.errors import WARNING, Problem
 from sheetbuilder.sheets.followup import Followup
 from sheetbuilder.weekly.applied import followup_rows, number_or_none, same_exports, span_of
 from sheetbuilder.sheets.actions import ADDS, DEFS as ACTION_DEFS, KINDS, SHEET
-from sheetbuilder.reading.readers import Inputs
 from sheetbuilder.values import is_blank, is_number
-from sheetbuilder.weekly.record import FIRST_ROW, SavedWorkbook
+from sheetbuilder.weekly.record import FIRST_ROW, SavedWorkbook, plan_saved
 from sheetbuilder.reading.settings import Settings
 
 # The CSV layout is the Actions list's visible columns, as plan_actions declares them.
@@ -30,32 +27,11 @@ CHANGE_KEY = ("kind", "campaign", "ad_group", "target", "match_type")  # what a 
 
 def computed_actions(saved: SavedWorkbook) -> tuple[list[tuple[int, list[Any]]], list[Problem], dict, bool]:
     """([(sheet row, visible values)] of the computed change list, input problems, planned tables, fold_plurals)."""
-    settings, edits = saved.settings, saved.edits
-    problems = list(saved.problems)
-    fold = settings.fold_plurals
-    decisions: dict[str, dict] = {}
-    for entry in DECISION_SHEETS:
-        for parts, value in edits.decisions.get(entry.label, {}).items():
-            decisions.setdefault(entry.label, {})[entry.key_of(parts, fold)] = value
-            why = entry.decl.problem(value)
-            if why is not None:
-                problems.append(Problem(entry.sheet, None, entry.value_header,
-                                        f"{' / '.join(key_text(p) for p in parts)}: {why}; the change is not written"))
-    targets: dict[str, float] = {}
-    for pid, value in edits.targets.items():
-        if is_number(value):
-            targets[pid] = float(value)
-        else:
-            problems.append(Problem(PROFIT_TARGET.sheet, None, PROFIT_TARGET.value_header,
-                                    f"{pid}: {value!r} is not a target ACoS; the product's other target is used"))
-    for label, why in edits.lost:
-        problems.append(Problem(label, None, "Decision", why))
-    carry = CarryResult(settings, targets=targets, decisions=decisions, source=str(saved.path), inputs_as_saved=True)
-    plan = plan_workbook(Inputs(dict(saved.tables)), settings, saved.built_on, [], carry)
+    plan, problems = (saved.planned, saved.plan_problems) if saved.planned is not None else plan_saved(saved)
     frame = plan.tables["Actions"].frame
     records = frame[list(KEYS)].itertuples(index=False, name=None)
     rows = [(FIRST_ROW + i, list(record)) for i, record in enumerate(records) if not is_blank(record[0])]
-    return rows, problems, plan.tables, fold
+    return rows, list(problems), plan.tables, saved.settings.fold_plurals
 
 
 def check_change(row: int, values: list[Any], context: dict[str, Any]) -> list[Problem]:

@@ -4,9 +4,9 @@
 list from the inputs the workbook holds (the ``in_`` sheets with any corrections, the
 Settings, the typed Decisions and target ACoS overrides) with the same planning code that
 builds the workbook (:func:`sheetbuilder.pipeline.plan_workbook`): no formula engine, so a
-file saved without formula values reads as fast as one with them. The values the file saved
-are used only to find cells a user overwrote by hand (a formula on Actions replaced by a
-typed value), which are reported. Each change is checked and the valid ones are written as
+file saved without formula values reads as fast as one with them. The values its formulas saved
+are not used: cells a user typed over a formula, on any sheet, are found by the formula missing
+(:mod:`sheetbuilder.weekly.typed_over`) and reported. Each change is checked and the valid ones are written as
 CSV (every text cell escaped against formula injection, :mod:`sheetbuilder.workbook.csv_safe`) or
 as .xlsx (text always written as text). Inconsistent changes and invalid Decisions are
 reported with their row, not written.
@@ -22,14 +22,12 @@ from typing import Any
 
 from sheetbuilder.workbook.atomic import atomic_output, scratch_dir
 from sheetbuilder.weekly.change_list import CHANGE_KEY, KEYS, SHEET, check_change, computed_actions
-from sheetbuilder.sheets.decisions import NO_SAVED_VALUE
 from sheetbuilder.workbook.csv_safe import write_csv
 from sheetbuilder.errors import OutputExists, Problem, SheetbuilderError, UnsafeOutput
 from sheetbuilder.reading.guard import text_problem
 from sheetbuilder.sheets.actions import HEADERS
 from sheetbuilder.workbook.render import render_rows
-from sheetbuilder.sheets.typed import DECISION_SHEETS
-from sheetbuilder.values import is_blank, is_number, same_value
+from sheetbuilder.values import is_blank, is_number
 from sheetbuilder.weekly.record import NoActionsSheet, SavedWorkbook, read_saved_workbook  # noqa: F401 (re-exported)
 from sheetbuilder.weekly.saved import NotAWorkbook, WorkbookNotFound  # noqa: F401 (re-exported)
 
@@ -49,8 +47,9 @@ class ChangesResult:
         refused: the Actions rows not written.
         rows: the rows written (columns as COLUMNS).
         computed: True when the list was computed from the workbook's inputs (False: read from saved values).
-        overwritten: one Problem per Actions cell whose saved value differs from the computed one.
-        unchecked: True when the file stores no formula values, so overwritten cells could not be looked for.
+        overwritten: one Problem per cell holding a typed value where the build wrote a formula, on any sheet.
+        unchecked: True when the file stores no formula values (saved by a program that drops them); the list
+            was computed from its inputs, and cells typed over a formula found by the formulas they replaced.
     """
 
     output: Path
@@ -63,61 +62,6 @@ class ChangesResult:
     unchecked: bool = False
 
 
-def _overwritten_results(saved: SavedWorkbook, tables: dict, fold: bool) -> list[Problem]:
-    """A Problem per Final cell on Bids, Terms or Budget whose saved value is not what its formula gives."""
-    out = []
-    for entry in DECISION_SHEETS:
-        decl = entry.decl
-        planned = tables.get(decl.table)
-        if planned is None or entry.label not in saved.results:
-            continue
-        wanted = (*decl.keys, decl.result)
-        computed = {entry.key_of(parts, fold): value for *parts, value in
-                    planned.frame[list(wanted)].itertuples(index=False, name=None)}
-        for row, parts, got in saved.results[entry.label]:
-            key = entry.key_of(parts, fold)
-            if key in computed and not is_blank(got) and not same_value(computed[key], got):
-                out.append(Problem(decl.sheet, row, decl.result_header or decl.result,
-                                   f"holds {got!r} where its formula gives {computed[key]!r}: a formula was typed "
-                                   "over by hand; the exported list uses the formula's value (type your decision "
-                                   "in Decision instead)"))
-    return out
-
-
-def _change_key(values: list[Any]) -> tuple:
-    """What a change row changes: kind, campaign, ad group, target or term, match type (as compared text)."""
-    named = dict(zip(KEYS, values))
-    return tuple("" if is_blank(named[k]) else str(named[k]).strip() for k in CHANGE_KEY)
-
-
-def _overwritten(saved: list[tuple[int, list[Any]]], computed: list[tuple[int, list[Any]]]) -> list[Problem]:
-    """A Problem per saved Actions cell whose value is not the computed one (a formula typed over by hand)."""
-    want = dict(computed)
-    by_change: dict[tuple, list[list[Any]]] = {}  # the saved list may order a kind differently (money at build time)
-    for _, values in computed:
-        by_change.setdefault(_change_key(values), []).append(values)
-    out = []
-    for r, values in saved:
-        same_change = by_change.get(_change_key(values))
-        expected = same_change.pop(0) if same_change else want.get(r, [None] * len(values))
-        for header, got, exp in zip(HEADERS, values, expected):
-            if not same_value(exp, got):
-                out.append(Problem(SHEET, r, header, f"holds {got!r} where the workbook's own change list has "
-                                                     f"{'blank' if is_blank(exp) else repr(exp)}: a formula was "
-                                                     "overwritten by hand; the exported list uses the computed "
-                                                     "change (type your decision in a Decision column instead)"))
-    return out
-
-
-def _typed_over(saved: list[tuple[int, list[Any]]]) -> list[Problem]:
-    """A Problem per Actions cell holding a typed value where the build wrote a formula (a file with no saved values)."""
-    return [Problem(SHEET, r, header, f"holds {got!r} where the workbook has a formula: it was typed over by hand; "
-                                      "the exported list uses the computed change (type your decision in a Decision "
-                                      "column instead)")
-            for r, values in saved for header, got in zip(HEADERS, values)
-            if got is not NO_SAVED_VALUE and not is_blank(got)]
-
-
 @dataclass
 class Noticed:
     """What reading a change list noticed besides the rows.
@@ -125,8 +69,8 @@ class Noticed:
     Attributes:
         computed: the list was computed from the workbook's inputs (False: read from its saved values).
         problems: the input problems of that computation.
-        overwritten: one Problem per cell typed over a formula by hand.
-        unchecked: the file stores no formula values, so overwritten cells could not be looked for.
+        overwritten: one Problem per cell typed over a formula by hand (any sheet).
+        unchecked: the file stores no formula values (saved by a program that drops them).
     """
 
     computed: bool = False
@@ -154,15 +98,11 @@ def actions_of(record: SavedWorkbook) -> tuple[list[tuple[int, list[Any]]], dict
     notes = Noticed()
     if not record.holds_inputs:
         return [(r, v) for r, v in saved if not is_blank(v[0])], context, notes
-    no_values = all(is_blank(values[0]) for _, values in saved)
-    typed = record.typed_actions
-    computed, problems, tables, fold = computed_actions(record)
+    computed, problems, _, _ = computed_actions(record)
     notes.computed, notes.problems = True, problems
-    if no_values:
-        notes.unchecked = bool(computed)  # no saved values: a program that drops them saved it
-        notes.overwritten = _typed_over(typed)
-    else:
-        notes.overwritten = _overwritten(saved, computed) + _overwritten_results(record, tables, fold)
+    # no saved values: a program that drops them saved it (typed-over cells are still found, by their formulas)
+    notes.unchecked = bool(computed) and all(is_blank(values[0]) for _, values in saved)
+    notes.overwritten = list(record.typed_over)
     return computed, context, notes
 
 

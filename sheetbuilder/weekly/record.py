@@ -3,8 +3,11 @@
 ``build --previous`` and ``changes`` each open the workbook once (:func:`read_saved_workbook`,
 under the reading guard: a damaged file is the user's problem) and read everything they use
 from it: the inputs, settings and typed edits it holds, the values it saved, its History and,
-for ``changes``, its Actions and Follow-up lists. What they compute from the record (the change
-list, the carry, the follow-up) runs after the file is closed, so a failure there is a bug.
+for ``changes``, its Actions and Follow-up lists. The workbook is then planned again from the
+record (:func:`plan_saved`, outside the guard, so a failure there is a bug) while it is still open,
+and its cells typed over a formula are read against that plan under the guard
+(:mod:`sheetbuilder.weekly.typed_over`). What they compute from the record (the change list, the
+carry, the follow-up) runs after the file is closed, so a failure there is a bug too.
 """
 from __future__ import annotations
 
@@ -12,17 +15,20 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from sheetbuilder.assemble import Plan, plan_workbook
 from sheetbuilder.errors import Problem, SheetbuilderError
 from sheetbuilder.reading.account import ACCOUNT_NAME
 from sheetbuilder.reading.guard import reading
+from sheetbuilder.reading.readers import Inputs
 from sheetbuilder.reading.settings import Settings
 from sheetbuilder.sheets.actions import HEADER_ROW as ACTIONS_HEADER_ROW, HEADERS, SHEET
 from sheetbuilder.sheets.followup import CHANGE_DEFS, NAME as FOLLOWUP_NAME
-from sheetbuilder.sheets.typed import ACTIONS_NAME, DECISION_SHEETS
-from sheetbuilder.values import is_blank
-from sheetbuilder.weekly.carry import Edits, edits_in
-from sheetbuilder.weekly.saved import (NotAWorkbook, SavedBook, named_area, named_columns, read_history, saved_inputs,
-                                       saved_settings)
+from sheetbuilder.sheets.typed import ACTIONS_NAME, DECISION_SHEETS, PROFIT_TARGET, CarryResult, key_text
+from sheetbuilder.values import is_blank, is_number
+from sheetbuilder.weekly.carry import Edits, copy_problems, edits_in
+from sheetbuilder.weekly.keyword_weeks import read_keyword_history
+from sheetbuilder.weekly.saved import NotAWorkbook, SavedBook, read_history, saved_inputs, saved_settings
+from sheetbuilder.weekly.typed_over import typed_over
 
 HEADER_ROW = ACTIONS_HEADER_ROW + 1  # 1-based, as a spreadsheet shows it
 FIRST_ROW = HEADER_ROW + 1
@@ -32,14 +38,12 @@ class NoActionsSheet(SheetbuilderError):
     """The workbook has no Actions sheet, or its header row is not the expected one."""
 
 
-def _saved_actions(book: SavedBook, formulas: bool = False) -> list[tuple[int, list[Any]]]:
-    """[(sheet row, visible values)] of the Actions list as the file saved it (blank Kind = an empty row).
-
-    With formulas, a formula cell that stores no value reads as NO_SAVED_VALUE (a typed value reads as itself).
-    """
-    area = named_area(book.wb, ACTIONS_NAME)
+def _saved_actions(book: SavedBook) -> list[tuple[int, list[Any]]]:
+    """[(sheet row, visible values)] of the Actions list as the file saved it (blank Kind = an empty row)."""
+    area = book.area(ACTIONS_NAME)
     first_col = area.first_col if area else 0
-    rows = book.rows(area.sheet if area else SHEET, frozenset(range(first_col, first_col + len(HEADERS))), formulas)
+    rows = book.rows(area.sheet if area else book.sheet(SHEET) or SHEET,
+                     frozenset(range(first_col, first_col + len(HEADERS))))
     first_row = area.first_row if area else FIRST_ROW - 1
     width = len(HEADERS)
     header = [rows[first_row - 1][first_col + i] if first_row - 1 < len(rows) and first_col + i < len(
@@ -69,14 +73,15 @@ class SavedWorkbook:
         problems: cells that could not be read as their column's kind.
         context: what the checks of a change read besides the change (see
             :func:`sheetbuilder.weekly.change_list.check_change`).
-        results: {decision sheet label: [(sheet row, key cells, saved Final value)]}, for overwritten Finals.
         history, history_problems: its History rows and why they could not be read (read for ``build
             --previous``).
         actions: [(sheet row, visible values)] of its Actions list as saved (read for ``changes``).
-        typed_actions: the same with a formula that stores no value read as NO_SAVED_VALUE (read when
-            the file stores no values on Actions).
         followup: [(sheet row, {column key: value})] of its Follow-up's "Last week's changes" (read for
             ``changes --include-unapplied``).
+        planned, plan_problems: the workbook planned again from its inputs and typed edits (as the build
+            planned it), and the problems of those edits; None without inputs.
+        typed_over: one Problem per cell holding a typed value where the plan has a formula
+            (:mod:`sheetbuilder.weekly.typed_over`).
     """
 
     path: Path
@@ -87,13 +92,16 @@ class SavedWorkbook:
     edits: Edits
     problems: list[Problem]
     context: dict[str, Any]
-    results: dict[str, list[tuple[int, list[Any], Any]]]
     history: list[dict] = field(default_factory=list)
     history_problems: list[Problem] = field(default_factory=list)
     actions: list[tuple[int, list[Any]]] = field(default_factory=list)
-    typed_actions: list[tuple[int, list[Any]]] = field(default_factory=list)
     followup: list[tuple[int, dict[str, Any]]] = field(default_factory=list)
     account_name: str = ""
+    keyword_history: Any = None  # its Keyword history (sheets.keyword_weeks.KeywordHistory), None when it holds none
+    keyword_history_problems: list[Problem] = field(default_factory=list)
+    planned: Plan | None = None
+    plan_problems: list[Problem] = field(default_factory=list)
+    typed_over: list[Problem] = field(default_factory=list)
 
     @property
     def holds_inputs(self) -> bool:
@@ -102,8 +110,9 @@ class SavedWorkbook:
 
 
 def _column_values(book: SavedBook, sheet: str, header: str) -> set[str]:
-    """The texts of the column headed header (row 1) of sheet, or empty when absent."""
-    rows = book.rows(sheet)
+    """The texts of the column headed header (row 1) of the in_ sheet built as sheet, or empty when absent."""
+    sheet = book.sheet(sheet)
+    rows = book.rows(sheet) if sheet is not None else []
     if not rows:
         return set()
     head = [str(v).strip() if v is not None else "" for v in rows[0]]
@@ -115,37 +124,19 @@ def _column_values(book: SavedBook, sheet: str, header: str) -> set[str]:
 
 def read_context(book: SavedBook) -> dict[str, Any]:
     """What the checks read besides a change: bid floor and ceiling, the campaigns in the exports."""
-    sheets = book.wb.sheetnames
     return {
         "bid_floor": book.named_value("bid_floor"),
         "bid_ceiling": book.named_value("bid_ceiling"),
         "campaigns": (_column_values(book, "in_campaigns", "campaign")
                       | _column_values(book, "in_ad_products", "campaign")),
-        "has_campaign_sheets": "in_campaigns" in sheets or "in_ad_products" in sheets,
+        "has_campaign_sheets": any(book.sheet(s) is not None for s in ("in_campaigns", "in_ad_products")),
     }
-
-
-def _saved_results(book: SavedBook) -> dict[str, list[tuple[int, list[Any], Any]]]:
-    """{label: [(sheet row, key cells, saved Final)]} of each Decision table whose names are in the file."""
-    out = {}
-    for entry in DECISION_SHEETS:
-        decl = entry.decl
-        wanted = (*decl.keys, decl.result)
-        areas = named_columns(book.wb, {k: decl.name_of(k) for k in wanted}) if decl.result else None
-        if areas is None:
-            continue
-        first = next(iter(areas.values())).first_row
-        rows = book.rows(areas[decl.result].sheet, frozenset(a.first_col for a in areas.values()))
-        result = areas[decl.result]
-        out[entry.label] = [(r + 1, [rows[r][areas[k].first_col] for k in decl.keys], rows[r][result.first_col])
-                            for r in range(first, min(result.last_row, len(rows) - 1) + 1)]
-    return out
 
 
 def _followup_rows(book: SavedBook) -> list[tuple[int, dict[str, Any]]]:
     """[(sheet row, {column key: value})] of the Follow-up's Last week's changes, found by its defined name."""
     visible = [d.key for d in CHANGE_DEFS]
-    area = named_area(book.wb, FOLLOWUP_NAME)
+    area = book.area(FOLLOWUP_NAME)
     if area is None:
         return []
     rows = book.rows(area.sheet, frozenset(range(area.first_col, area.first_col + len(visible))))
@@ -153,9 +144,44 @@ def _followup_rows(book: SavedBook) -> list[tuple[int, dict[str, Any]]]:
             for r in range(area.first_row, min(area.last_row, len(rows) - 1) + 1)]
 
 
+def plan_saved(saved: SavedWorkbook) -> tuple[Plan, list[Problem]]:
+    """The saved workbook planned again from the inputs and typed edits it holds, as the build planned it,
+    and the problems of its typed edits (a Decision that is not valid, a column lost, a copy not read).
+
+    Pure: the record was read and the file may be closed; a failure here is a bug, not a damaged file.
+    """
+    settings, edits = saved.settings, saved.edits
+    problems = list(saved.problems)
+    fold = settings.fold_plurals
+    decisions: dict[str, dict] = {}
+    for entry in DECISION_SHEETS:
+        for parts, value in edits.decisions.get(entry.label, {}).items():
+            decisions.setdefault(entry.label, {})[entry.key_of(parts, fold)] = value
+            why = entry.decl.problem(value)
+            if why is not None:
+                problems.append(Problem(entry.sheet, None, entry.value_header,
+                                        f"{' / '.join(key_text(p) for p in parts)}: {why}; the change is not written"))
+    targets: dict[str, float] = {}
+    for pid, value in edits.targets.items():
+        if is_number(value):
+            targets[pid] = float(value)
+        else:
+            problems.append(Problem(PROFIT_TARGET.sheet, None, PROFIT_TARGET.value_header,
+                                    f"{pid}: {value!r} is not a target ACoS; the product's other target is used"))
+    for label, why in edits.lost:
+        problems.append(Problem(label, None, "Decision", why))
+    problems += copy_problems(edits)
+    carry = CarryResult(settings, targets=targets, decisions=decisions, source=str(saved.path), inputs_as_saved=True)
+    tables = {k: None if v is None else v.copy() for k, v in saved.tables.items()}  # the record's stay as read
+    return plan_workbook(Inputs(tables), settings, saved.built_on, [], carry), problems
+
+
 def read_saved_workbook(path: Path, unreadable: type[SheetbuilderError] = NotAWorkbook,
                         for_changes: bool = False, followup: bool = False) -> SavedWorkbook:
     """Read a saved workbook of ours once, under the reading guard, and close it.
+
+    A workbook holding inputs is planned again (:func:`plan_saved`, outside the guard: a failure there
+    is a bug) while it is open, and its cells typed over a formula are then read under the guard.
 
     Args:
         path: the workbook (only read).
@@ -168,27 +194,39 @@ def read_saved_workbook(path: Path, unreadable: type[SheetbuilderError] = NotAWo
         WorkbookNotFound, unreadable: the file is missing or cannot be read.
         NoActionsSheet: for_changes, and the workbook has no Actions list to read.
     """
-    with reading(path, unreadable), SavedBook(Path(path)) as book:
-        names = list(book.wb.sheetnames)
-        if for_changes and SHEET not in names:
-            raise NoActionsSheet(f"{book.path.name} has no {SHEET} sheet; build it with a sheetbuilder that writes one")
-        actions = _saved_actions(book) if for_changes else []
-        holds_inputs = not for_changes or ("in_catalog" in names and "Settings" in names)
-        if not holds_inputs:
-            if actions and all(is_blank(v) for _, values in actions for v in values):
-                raise NoActionsSheet(f"{book.path.name} stores no values on {SHEET} and holds no inputs to "
-                                     "compute them from; open and save it in a spreadsheet program first")
-            return SavedWorkbook(book.path, names, tables=None, settings=Settings(), built_on=None,
-                                 edits=Edits(str(book.path)), problems=[], context=read_context(book), results={},
-                                 actions=actions)
-        tables, problems = saved_inputs(book)
-        settings, built_on, setting_problems = saved_settings(book)
-        problems += [Problem("Settings", None, p.column, p.message) for p in setting_problems]
-        history, history_problems = ([], []) if for_changes else read_history(book)
-        no_values = for_changes and all(is_blank(values[0]) for _, values in actions)
-        return SavedWorkbook(book.path, names, tables=tables, settings=settings, built_on=built_on,
-                             edits=edits_in(book), problems=problems, context=read_context(book),
-                             results=_saved_results(book), history=history, history_problems=history_problems,
-                             actions=actions, typed_actions=_saved_actions(book, formulas=True) if no_values else [],
-                             followup=_followup_rows(book) if followup else [],
-                             account_name=str(book.named_value(ACCOUNT_NAME) or ""))
+    with reading(path, unreadable):
+        book = SavedBook(Path(path))
+    with book:
+        with reading(path, unreadable):
+            record = _record(book, for_changes, followup)
+        if record.holds_inputs:
+            record.planned, record.plan_problems = plan_saved(record)
+            with reading(path, unreadable):
+                record.typed_over = typed_over(book, record.planned.spec, record.planned.tables)
+    return record
+
+
+def _record(book: SavedBook, for_changes: bool, followup: bool) -> SavedWorkbook:
+    """Everything the commands read from the opened workbook (see :func:`read_saved_workbook`)."""
+    names = list(book.sheetnames)
+    if for_changes and book.sheet(SHEET) is None:
+        raise NoActionsSheet(f"{book.path.name} has no {SHEET} sheet; build it with a sheetbuilder that writes one")
+    actions = _saved_actions(book) if for_changes else []
+    holds_inputs = not for_changes or all(book.sheet(s) is not None for s in ("in_catalog", "Settings"))
+    if not holds_inputs:
+        if actions and all(is_blank(v) for _, values in actions for v in values):
+            raise NoActionsSheet(f"{book.path.name} stores no values on {SHEET} and holds no inputs to "
+                                 "compute them from; open and save it in a spreadsheet program first")
+        return SavedWorkbook(book.path, names, tables=None, settings=Settings(), built_on=None,
+                             edits=Edits(str(book.path)), problems=[], context=read_context(book), actions=actions)
+    tables, problems = saved_inputs(book)
+    settings, built_on, setting_problems = saved_settings(book)
+    problems += [Problem("Settings", None, p.column, p.message) for p in setting_problems]
+    history, history_problems = ([], []) if for_changes else read_history(book)
+    keywords, keyword_problems = (None, []) if for_changes else read_keyword_history(book)
+    return SavedWorkbook(book.path, names, tables=tables, settings=settings, built_on=built_on,
+                         edits=edits_in(book), problems=problems, context=read_context(book),
+                         history=history, history_problems=history_problems, actions=actions,
+                         followup=_followup_rows(book) if followup else [],
+                         account_name=str(book.named_value(ACCOUNT_NAME) or ""),
+                         keyword_history=keywords, keyword_history_problems=keyword_problems)

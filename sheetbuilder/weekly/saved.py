@@ -1,4 +1,4 @@
-"""Reading a workbook of ours after a user saved it: one opener, and our tables found by name.
+"""Reading a workbook of ours after a user saved it (.xlsx or .ods): one opener, and our tables found by name.
 
 Every table that ``--previous`` (:mod:`sheetbuilder.weekly.carry`) and ``changes``
 (:mod:`sheetbuilder.weekly.changes`) read back is covered by workbook-level defined names written
@@ -13,17 +13,14 @@ from __future__ import annotations
 import datetime as dt
 import math
 import zipfile
-from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import Any, Callable
 
 import pandas as pd
-from openpyxl.utils.cell import range_boundaries
-from openpyxl.utils.datetime import from_excel
 
 from sheetbuilder.reading import contract as c
 from sheetbuilder.sheets.decisions import NO_SAVED_VALUE
-from sheetbuilder.reading.guard import UnreadableWorkbook, guard_saved_workbook
+from sheetbuilder.reading.guard import UnreadableWorkbook, UnsafeWorkbook, guard_saved_workbook
 from sheetbuilder.errors import WARNING, Problem, SheetbuilderError
 from sheetbuilder.sheets.inputs import sheet_name
 from sheetbuilder.sheets.settings_sheet import not_valid_text, setting_text, typed_name, typed_problem
@@ -31,10 +28,15 @@ from sheetbuilder.reading.settings import SETTINGS, Settings, coerce_setting
 from sheetbuilder.sheets.history import (COLUMNS as HISTORY_COLUMNS, HEADER_ROW as HISTORY_HEADER_ROW,
                                          NAME as HISTORY_NAME, NUMBERS as HISTORY_NUMBERS, SHEET as HISTORY_SHEET)
 from sheetbuilder.values import is_blank
-from sheetbuilder.weekly.sheet_xml import CellReader, DamagedSheet, read_cells
+from sheetbuilder.weekly.names import Area
+from sheetbuilder.weekly.ods import OdsFile, is_ods
+from sheetbuilder.weekly.sheet_xml import DamagedSheet
+from sheetbuilder.weekly.tabs import Tabs, find_tabs
+from sheetbuilder.weekly.xlsx import XlsxFile, named_area  # noqa: F401 (named_area re-exported for openpyxl workbooks)
+
 
 class SavedWorkbookUnreadable(SheetbuilderError):
-    """The workbook is missing or is not an .xlsx file that can be read."""
+    """The workbook is missing or is not an .xlsx or .ods file that can be read."""
 
 
 class WorkbookNotFound(SavedWorkbookUnreadable):
@@ -42,63 +44,57 @@ class WorkbookNotFound(SavedWorkbookUnreadable):
 
 
 class NotAWorkbook(SavedWorkbookUnreadable):
-    """The file is not an .xlsx workbook that can be read."""
+    """The file is not an .xlsx or .ods workbook that can be read."""
 
 
-def open_workbook(path: Path, data_only: bool = True):
+SAVE_AS = "save it as .xlsx or .ods from your spreadsheet program"
+
+
+def _format(path: Path) -> str | None:
+    """'ods' or 'xlsx' by the file's content (an OpenDocument mimetype part, a workbook part), else None."""
+    try:
+        with zipfile.ZipFile(path) as archive:
+            if is_ods(archive):
+                return "ods"
+            return "xlsx" if "xl/workbook.xml" in archive.namelist() else None
+    except (zipfile.BadZipFile, OSError, ValueError, EOFError, KeyError, NotImplementedError, RuntimeError):
+        return None
+
+
+def open_workbook(path: Path) -> XlsxFile | OdsFile:
     """The workbook at path opened read-only (never written), or WorkbookNotFound / NotAWorkbook saying why not.
 
-    The one place a saved workbook of ours is opened: ``carry`` and ``changes`` both call it.
+    The one place a saved workbook of ours is opened. Its format is found by its content, not its
+    name: an OpenDocument spreadsheet (.ods) or an .xlsx; each opens as an object offering
+    ``sheetnames``, ``area(name)``, ``has_name(name)``, ``read(sheet, columns, formulas,
+    no_saved_value)`` and ``close()`` (:class:`sheetbuilder.weekly.xlsx.XlsxFile`,
+    :class:`sheetbuilder.weekly.ods.OdsFile`). Both pass the same guard first.
     """
-    import openpyxl
-    from openpyxl.utils.exceptions import InvalidFileException
     path = Path(path)
     if not path.exists():
         raise WorkbookNotFound(f"the workbook {path} does not exist")
     if not path.is_file():
-        raise NotAWorkbook(f"{path} is not a workbook file (a folder, a pipe or a device); give the .xlsx file itself")
-    guard_saved_workbook(path, NotAWorkbook)  # zip, XML and link limits before openpyxl inflates anything
+        raise NotAWorkbook(f"{path} is not a workbook file (a folder, a pipe or a device); give the .xlsx or .ods "
+                           "file itself")
+    kind = _format(path)
+    if kind is None:
+        raise NotAWorkbook(f"{path} cannot be read: it is not an .xlsx or .ods workbook; {SAVE_AS}")
+    guard_saved_workbook(path, NotAWorkbook)  # zip, XML and link limits before anything is inflated
     try:
-        return openpyxl.load_workbook(path, read_only=True, data_only=data_only)
-    except (zipfile.BadZipFile, InvalidFileException, KeyError, OSError, ValueError) as exc:
-        raise NotAWorkbook(f"{path} is not an .xlsx workbook that can be read: {exc}") from None
+        return OdsFile(path) if kind == "ods" else XlsxFile(path)
+    except UnsafeWorkbook as exc:
+        raise NotAWorkbook(f"{path}: {exc}") from None
+    except DamagedSheet as exc:
+        raise NotAWorkbook(f"{path} is not a workbook that can be read: {exc}; open it in your spreadsheet program "
+                           f"and {SAVE_AS}") from None
+    except (zipfile.BadZipFile, KeyError, OSError, ValueError, EOFError, TypeError) as exc:
+        raise NotAWorkbook(f"{path} cannot be read as a workbook; open it in your spreadsheet program and "
+                           f"{SAVE_AS}") from exc
 
 
-@dataclass(frozen=True)
-class Area:
-    """Where a defined name points: a sheet and 0-based, inclusive column and row bounds."""
-
-    sheet: str
-    first_col: int
-    last_col: int
-    first_row: int
-    last_row: int
-
-
-def named_area(wb: Any, name: str) -> Area | None:
-    """The area a workbook-level defined name covers, or None when it is missing, broken or off-sheet."""
-    try:
-        if name not in wb.defined_names:
-            return None
-        destinations = list(wb.defined_names[name].destinations)
-    except (KeyError, ValueError, TypeError, AttributeError):
-        return None
-    for sheet, ref in destinations:
-        if sheet not in wb.sheetnames:
-            continue
-        try:
-            min_col, min_row, max_col, max_row = range_boundaries(ref.replace("$", ""))
-        except (ValueError, TypeError):
-            return None
-        if None in (min_col, min_row, max_col, max_row):
-            return None
-        return Area(sheet, min_col - 1, max_col - 1, min_row - 1, max_row - 1)
-    return None
-
-
-def named_columns(wb: Any, names: dict[str, str]) -> dict[str, Area] | None:
+def named_columns(book: "SavedBook", names: dict[str, str]) -> dict[str, Area] | None:
     """{key: area} for every key's defined name, when all exist as single columns over the same rows of one sheet."""
-    areas = {key: named_area(wb, name) for key, name in names.items()}
+    areas = {key: book.area(name) for key, name in names.items()}
     if any(a is None or a.first_col != a.last_col for a in areas.values()):
         return None
     bounds = {(a.sheet, a.first_row, a.last_row) for a in areas.values()}
@@ -106,42 +102,93 @@ def named_columns(wb: Any, names: dict[str, str]) -> dict[str, Area] | None:
 
 
 class SavedBook:
-    """A saved workbook opened by :func:`open_workbook`, each sheet's cells read once, fast.
+    """A saved workbook opened by :func:`open_workbook` (.xlsx or .ods), each sheet's cells read once, fast.
 
-    Cells are read by a streaming XML parser (:mod:`sheetbuilder.weekly.sheet_xml`: every spelling
-    ECMA-376 allows; values as openpyxl gives them in read-only, values-only mode: shared, inline
-    and formula strings, numbers, booleans, error text, dates by their number format or as ISO
-    text), keeping only the columns a caller asks for, so a wide sheet costs what its wanted
-    columns cost in memory. A formula cell with no saved value
-    reads as :data:`sheetbuilder.sheets.decisions.NO_SAVED_VALUE` when ``formulas`` is asked for.
+    Cells are read by a streaming XML parser (:mod:`sheetbuilder.weekly.sheet_xml` for .xlsx: every
+    spelling ECMA-376 allows; :mod:`sheetbuilder.weekly.ods` for .ods; values as openpyxl gives them
+    in read-only, values-only mode: text, numbers, booleans, error text, dates as datetimes),
+    keeping only the columns a caller asks for, so a wide sheet costs what its wanted columns cost
+    in memory. A formula cell with no saved value reads as
+    :data:`sheetbuilder.sheets.decisions.NO_SAVED_VALUE` when ``formulas`` is asked for.
     """
 
     def __init__(self, path: Path):
         self.path = Path(path)
-        self.wb = open_workbook(self.path)
+        self.file = open_workbook(self.path)
+        self.sheetnames: list[str] = list(self.file.sheetnames)
         self._cache: dict[tuple, list[list[Any]]] = {}
+        self._tabs: Tabs | None = None
+
+    def area(self, name: str) -> Area | None:
+        """The area a workbook-level defined name covers, or None when it is missing, broken or off-sheet."""
+        return self.file.area(name)
+
+    def has_name(self, name: str) -> bool:
+        """Whether the workbook defines name, even if it no longer points at cells."""
+        return self.file.has_name(name)
 
     def rows(self, sheet: str, columns: frozenset[int] | None = None, formulas: bool = False) -> list[list[Any]]:
         """The rows of sheet as lists of values (padded to one width); only columns when given; none if absent."""
         key = (sheet, columns, formulas)
         if key not in self._cache:
-            self._cache[key] = self._read(sheet, columns, formulas) if sheet in self.wb.sheetnames else []
+            self._cache[key] = self._read(sheet, columns, formulas) if sheet in self.sheetnames else []
         return self._cache[key]
 
+    def stream(self, sheet: str, on_row: Callable[[int, dict[int, tuple[Any, bool]]], bool | None],
+               columns: set[int] | None = None) -> None:
+        """Hand each row of sheet to on_row as it is read, holding one row at a time (see
+        :func:`sheetbuilder.weekly.sheet_xml.stream_cells`: (0-based row, {column: (value, holds a formula)}),
+        only columns when given; on_row returns True to stop). Nothing when the sheet is absent."""
+        if sheet in self.sheetnames:
+            try:  # a damaged sheet is refused whole, as a read refuses it
+                self.file.stream(sheet, on_row, columns, NO_SAVED_VALUE)
+            except DamagedSheet as exc:
+                raise NotAWorkbook(f"{self.path} is not a workbook that can be read: its sheet '{sheet}' is damaged "
+                                   f"({exc}); open it in a spreadsheet program and save it again") from None
+
+    def head(self, sheet: str, n: int) -> list[list[Any]]:
+        """The first n rows of sheet (values, padded to one width), reading no further."""
+        if (sheet, None, False) in self._cache:
+            return self._cache[(sheet, None, False)][:n]
+        found: dict[int, dict[int, Any]] = {}
+
+        def keep(row: int, cells: dict[int, tuple[Any, bool]]) -> bool:
+            if row < n:
+                found[row] = {c: v for c, (v, _) in cells.items()}
+            return row >= n - 1
+        self.stream(sheet, keep)
+        width = 1 + max((c for cells in found.values() for c in cells), default=-1)
+        return [[found.get(r, {}).get(c) for c in range(width)] for r in range(max(found, default=-1) + 1)]
+
+    def sheet(self, built: str) -> str | None:
+        """The sheet that holds what the build wrote on the sheet called built, whatever it is called now
+        (:mod:`sheetbuilder.weekly.tabs`: by our defined names, else its own name, else its header); None if gone."""
+        return self.tabs.found.get(built)
+
+    def _name_sheet(self, name: str) -> str | None:
+        """The sheet a workbook-level defined name points at (any area), or None."""
+        area = self.file.area(name)
+        return area.sheet if area else None
+
+    @property
+    def tabs(self) -> Tabs:
+        """Where each of our sheets is now, and the copies of our typed tables (found once)."""
+        if self._tabs is None:
+            self._tabs = find_tabs(list(self.sheetnames), self._name_sheet, self.head)
+        return self._tabs
+
     def _read(self, sheet: str, columns: frozenset[int] | None, formulas: bool) -> list[list[Any]]:
-        ws = self.wb[sheet]
-        reader = CellReader(ws._shared_strings, self.wb._date_formats, lambda n: from_excel(n, self.wb.epoch),
-                            NO_SAVED_VALUE)
         try:  # a truncated or damaged sheet is refused whole, never read in part
-            with self.wb._archive.open(ws._worksheet_path) as fh:  # openpyxl's own handle on the file
-                return read_cells(fh, reader, columns, formulas)
+            return self.file.read(sheet, columns, formulas, NO_SAVED_VALUE)
         except DamagedSheet as exc:
             raise NotAWorkbook(f"{self.path} is not a workbook that can be read: its sheet '{sheet}' is damaged "
                                f"({exc}); open it in a spreadsheet program and save it again") from None
+        except UnsafeWorkbook as exc:
+            raise NotAWorkbook(f"{self.path}: {exc}") from None
 
     def named_value(self, name: str) -> Any:
         """The value of the single cell a defined name points at, or None."""
-        area = named_area(self.wb, name)
+        area = self.area(name)
         if area is None:
             return None
         rows = self.rows(area.sheet)
@@ -151,7 +198,7 @@ class SavedBook:
 
     def close(self) -> None:
         """Close the file."""
-        self.wb.close()
+        self.file.close()
 
     def __enter__(self) -> "SavedBook":
         return self
@@ -170,9 +217,9 @@ def saved_inputs(book: SavedBook) -> tuple[dict[str, Any], list]:
     tables: dict[str, Any] = {}
     problems: list = []
     for rule in c.TABLES:
-        sheet = sheet_name(rule.name)
-        rows = book.rows(sheet)
-        if sheet not in book.wb.sheetnames or not rows:
+        sheet = book.sheet(sheet_name(rule.name))  # its tab may have been renamed
+        rows = book.rows(sheet) if sheet is not None else []
+        if not rows:
             tables[rule.name] = None
             continue
         header = ["" if v is None else str(v) for v in rows[0]]
@@ -283,9 +330,9 @@ def _history_value(key: str, v: Any) -> Any:
 
 def read_history(book: SavedBook) -> tuple[list[dict], list[Problem]]:
     """The History rows of an opened previous workbook (none when it has no History sheet), and problems."""
-    area = named_area(book.wb, HISTORY_NAME)
-    sheet = area.sheet if area else HISTORY_SHEET
-    if sheet not in book.wb.sheetnames:
+    area = book.area(HISTORY_NAME)
+    sheet = area.sheet if area else book.sheet(HISTORY_SHEET)
+    if sheet is None:
         return [], []
     rows = book.rows(sheet)
     first = area.first_row if area else HISTORY_HEADER_ROW + 1

@@ -15,12 +15,19 @@ from dataclasses import dataclass, field
 from typing import IO, Any, Callable
 from xml.parsers import expat
 
+from sheetbuilder.reading import guard
+from sheetbuilder.reading.guard import UnsafeWorkbook
+
 MAIN_NS = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
 CHUNK = 1 << 16
 
 
 class DamagedSheet(ValueError):
     """The part is not well-formed XML, or a cell reference cannot be read."""
+
+
+class _Stop(Exception):
+    """A row handler asked to read no further."""
 
 
 def column_index(letters: str) -> int:
@@ -54,7 +61,7 @@ def iso_datetime(text: str) -> dt.datetime | dt.time | str:
         return text
 
 
-def _number(text: str) -> int | float:
+def number(text: str) -> int | float:
     """A stored number as openpyxl reads it: int when written without a point or exponent."""
     text = text.strip()
     if any(ch in text for ch in ".eE") or text.lower() in ("inf", "-inf", "nan"):
@@ -103,15 +110,15 @@ class CellReader:
         if kind == "d":
             return iso_datetime(text)
         try:
-            number = _number(text)
+            value = number(text)
         except ValueError:
             raise DamagedSheet(f"a number cell holds {text[:40]!r}") from None
         if cell.style in self.date_styles:
             try:
-                return self.from_serial(number)
+                return self.from_serial(value)
             except (OverflowError, ValueError):
                 return "#VALUE!"
-        return number
+        return value
 
 
 _C, _ROW, _V, _F, _IS, _RPH, _T = range(1, 8)
@@ -209,14 +216,24 @@ class _SheetParser:
         elif self.in_t and not self.depth_rph:
             cell.inline.append(data)
 
-    def rows(self) -> list[list[Any]]:
-        found = self.found
-        width = 1 + max((c for cells in found.values() for c in cells), default=-1)
-        empty: dict[int, Any] = {}
-        return [[found.get(r, empty).get(c) for c in range(width)] for r in range(max(found, default=-1) + 1)]
-
 
 _UNWANTED = _Cell()
+
+
+def padded_rows(found: dict[int, dict[int, Any]]) -> list[list[Any]]:
+    """{row: {column: value}} as rows of one width, from row 0 to the last row found.
+
+    Raises:
+        UnsafeWorkbook: the rows times the width exceed guard.MAX_SAVED_CELLS (a cell far from the rest).
+    """
+    width = 1 + max((c for cells in found.values() for c in cells), default=-1)
+    height = max(found, default=-1) + 1
+    if height * width > guard.MAX_SAVED_CELLS:
+        raise UnsafeWorkbook(f"refused: a sheet's cells reach row {height:,} and column {width:,}, more than "
+                             f"{guard.MAX_SAVED_CELLS:,} cells to read; delete what lies far below or right of "
+                             "its tables and save it again")
+    empty: dict[int, Any] = {}
+    return [[found.get(r, empty).get(c) for c in range(width)] for r in range(height)]
 
 
 def read_cells(handle: IO[bytes], reader: CellReader, columns: frozenset[int] | None = None,
@@ -227,6 +244,12 @@ def read_cells(handle: IO[bytes], reader: CellReader, columns: frozenset[int] | 
         DamagedSheet: the part is not well-formed XML or a reference cannot be read.
     """
     sheet = _SheetParser(reader, columns, formulas)
+    _parse(handle, sheet)
+    return padded_rows(sheet.found)
+
+
+def _parse(handle: IO[bytes], sheet: _SheetParser) -> None:
+    """Run expat over the part with the sheet's handlers, chunk by chunk (a handler's _Stop ends it early)."""
     parser = expat.ParserCreate(namespace_separator="}")
     parser.buffer_text = True
     parser.StartElementHandler, parser.EndElementHandler, parser.CharacterDataHandler = sheet.start, sheet.end, sheet.text
@@ -234,8 +257,49 @@ def read_cells(handle: IO[bytes], reader: CellReader, columns: frozenset[int] | 
         while chunk := handle.read(CHUNK):
             parser.Parse(chunk, False)
         parser.Parse(b"", True)
+    except _Stop:
+        return
     except expat.ExpatError as exc:
         raise DamagedSheet(str(exc)) from None
     except (ValueError, OverflowError) as exc:
         raise DamagedSheet(str(exc)) from None
-    return sheet.rows()
+
+
+class _RowStream(_SheetParser):
+    """The expat handlers of a streamed read: each row handed over as it ends, then forgotten."""
+
+    def __init__(self, reader: CellReader, columns: set[int] | frozenset[int] | None,
+                 on_row: Callable[[int, dict[int, tuple[Any, bool]]], bool | None]):
+        super().__init__(reader, columns, False)
+        self.on_row = on_row
+        self.cells: dict[int, tuple[Any, bool]] = {}
+
+    def end(self, name: str) -> None:
+        code = self.tags.get(name) or self.tag(name)
+        if code == _ROW:
+            if self.cells:
+                cells, self.cells = self.cells, {}
+                if self.on_row(self.row, cells):
+                    raise _Stop
+            return
+        cell = self.cell
+        if code == _C and cell.wanted:  # a formula's saved value is not read: only its presence is asked for
+            self.cells[cell.col] = (None, True) if cell.formula else (self.reader.value(cell, False), False)
+            self.cell = _UNWANTED
+        elif cell.wanted:
+            super().end(name)
+
+
+def stream_cells(handle: IO[bytes], reader: CellReader,
+                 on_row: Callable[[int, dict[int, tuple[Any, bool]]], bool | None],
+                 columns: set[int] | frozenset[int] | None = None) -> None:
+    """Hand each row of a worksheet part to on_row as it is read: (0-based row, {column: (value, holds a formula)}).
+
+    Only the cells of columns are read when given (a set on_row may change between rows); rows
+    without such cells are not handed over. A formula cell reads as (None, True), its saved value unread.
+    on_row returns True to stop reading. Memory holds one row at a time.
+
+    Raises:
+        DamagedSheet: the part is not well-formed XML or a reference cannot be read.
+    """
+    _parse(handle, _RowStream(reader, columns, on_row))

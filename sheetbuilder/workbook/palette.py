@@ -50,6 +50,7 @@ NUMBER_FORMATS = {
     "percent": "0.0%_0",
     "ratio": "0.00_0",
     "date": "yyyy-mm-dd",
+    "freetext": "@",  # text: what is typed stays text (=1+1 is not a formula), as in a Notes column
 }
 
 STYLES: dict[str, dict] = {
@@ -74,6 +75,7 @@ for _name, _fmt in NUMBER_FORMATS.items():
     STYLES[_name + "_total"] = {**_num, **_TOTAL}
     STYLES[_name + "_export"] = {**_num, **_EXPORT}
     STYLES[_name + "_left"] = {**_num, "align": "left", "bold": True}
+STYLES["own"] = {"locked": False}  # the empty columns right of a table, where a user adds columns of their own
 for _state in STATES.values():
     STYLES["state_" + _state.name] = {"bg_color": _state.fill, "font_color": _state.font}
 

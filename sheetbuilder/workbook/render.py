@@ -382,6 +382,9 @@ def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress:
     widths, hidden = _widths(sheet)
     for col, width in sorted(widths.items()):
         ws.set_column(col, col, width, None, {"hidden": col in hidden})
+    if sheet.open_columns and sheet.table:  # unlocked on the protected sheet: the user's own columns go there
+        first = len(sheet.table.columns)
+        ws.set_column(first, first + sheet.open_columns - 1, OPEN_WIDTH, formats["own"])
     placed.append(("rows", 0, sheet.above))
     row = _write_rows(ws, 0, sheet.above, formats, sheet.heights)
     if sheet.sortable:  # its tables' cells unlocked: sorting locked cells is refused even where sort is allowed
@@ -410,6 +413,8 @@ def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress:
                     "select_locked_cells": True, "select_unlocked_cells": True, "objects": True})
     return ws
 
+
+OPEN_WIDTH = 14  # the width of the empty unlocked columns right of a table
 
 APPLICATION = f"sheetbuilder/{__version__}"  # the program that made the file, as its app.xml names it
 _WRITERS_APPLICATION = "<Application>Microsoft Excel</Application>"  # what the writer's packager puts there

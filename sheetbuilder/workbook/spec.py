@@ -210,6 +210,8 @@ class Sheet:
     # unlocked, since LibreOffice and Excel both refuse to sort locked cells on a protected sheet whatever the
     # protection allows; the sheet stays protected, so rows cannot be deleted (type skip or keep instead).
     sortable: bool = False
+    # Columns right of its main table left unlocked, where the user may add columns of their own (carried by key).
+    open_columns: int = 0
 
     def page_setup(self) -> PageSetup:
         """How this sheet prints: its declared page setup, or its tables stacked (see stacked_pages)."""

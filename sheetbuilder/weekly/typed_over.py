@@ -1,0 +1,152 @@
+"""Cells typed over a formula, anywhere: found by the formula missing where the build wrote one.
+
+The saved workbook's change list is planned again from the inputs it holds (the same plan the build
+made); every table column the plan fills with formulas is then read in the saved sheet, one row at a
+time, and a cell there holding a typed value instead of a formula is reported with its sheet, column
+header and the row's key (product ID, or campaign / ad group / target / match type).
+
+The test is the formula's presence, never its value: a file saved by a program that does not
+recalculate (formulas kept, values dropped or stale) reports nothing, and sorted rows report nothing
+(the columns are checked, the key only names the row). Each table is found by its header row,
+whatever the tab is called now (:mod:`sheetbuilder.weekly.tabs`) and wherever the user moved its
+columns (found by their header text, else where the plan put them).
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+from sheetbuilder.errors import WARNING, Problem
+from sheetbuilder.sheets.decisions import EditableColumns
+from sheetbuilder.sheets.typed import DECISION_TABLES, EDITABLE_TABLES, key_text
+from sheetbuilder.values import is_blank, shown
+from sheetbuilder.workbook.spec import FORMULA, Table, WorkbookSpec
+
+NUMERIC_STYLES = ("int", "money", "percent", "ratio")
+MAX_KEYS = 4  # a table without a declared key is named by its first text columns, at most these
+HEADER_SHARE = 0.6  # a row holding this share of a table's headers is taken for its header row
+INSERTED_COLUMNS = 64  # columns a user may insert into a table and still have its header row found
+
+
+@dataclass
+class _Layout:
+    """One planned table as the check reads it."""
+
+    headers: list[str]
+    formulas: list[int]  # planned columns holding formulas
+    keys: list[int]  # planned columns naming a row
+    rows: int
+    decl: EditableColumns | None
+
+
+def _layout(table: Table, decl: EditableColumns | None) -> _Layout:
+    headers = [c.header for c in table.columns]
+    if decl is not None:
+        keys = [headers.index(decl.headers[k]) for k in decl.keys if decl.headers[k] in headers]
+    else:
+        keys = []
+        for i, c in enumerate(table.columns):
+            if c.kind == FORMULA or c.style.split("_")[0] in NUMERIC_STYLES or len(keys) == MAX_KEYS:
+                break
+            keys.append(i)
+    return _Layout(headers, [i for i, c in enumerate(table.columns) if c.kind == FORMULA], keys, table.n_rows, decl)
+
+
+def _decls(spec_tables: dict[int, str]) -> dict[int, EditableColumns]:
+    """{id of a planned table's columns: the declaration of its typed column}."""
+    by_key = {decl.table: decl for decl in EDITABLE_TABLES}
+    return {ident: by_key[key] for ident, key in spec_tables.items() if key in by_key}
+
+
+class _SheetCheck:
+    """The streamed check of one saved sheet: its tables' header rows found in order, then their bodies read."""
+
+    def __init__(self, sheet: str, layouts: list[_Layout]):
+        self.sheet, self.layouts = sheet, layouts
+        self.next = 0  # the next table whose header row is looked for
+        self.current: _Layout | None = None
+        self.last = -1  # the current table's last body row (0-based), as planned
+        self.at: dict[int, int] = {}  # planned column -> saved column
+        self.saved_headers: dict[int, str] = {}
+        # Read until the last table's header row is found: the columns a header row can reach (tables start at
+        # column A; a user may insert columns); then only the columns checked.
+        self.columns = set(range(max(len(t.headers) for t in layouts) + INSERTED_COLUMNS))
+        self.found: list[Problem] = []
+
+    def _header(self, r: int, cells: dict[int, tuple[Any, bool]]) -> bool:
+        """Whether the row is the next table's header row (and if so, map its columns)."""
+        if self.next >= len(self.layouts):
+            return False
+        layout = self.layouts[self.next]
+        texts = {c: key_text(v) for c, (v, formula) in cells.items() if isinstance(v, str) and not formula}
+        present = set(texts.values())
+        if sum(h in present for h in layout.headers) < max(1, HEADER_SHARE * len(layout.headers)):
+            return False
+        where: dict[str, int] = {}
+        for c, t in sorted(texts.items()):
+            where.setdefault(t, c)
+        self.at = {i: where[h] for i, h in enumerate(layout.headers) if h in where}
+        taken, planned = set(self.at.values()), set(layout.headers)
+        for i in range(len(layout.headers)):  # a header renamed where it stands, its place taken by no other
+            if i not in self.at and i not in taken and texts.get(i) not in planned:
+                self.at[i] = i
+        self.saved_headers = texts
+        self.current, self.last = layout, r + layout.rows
+        self.next += 1
+        if self.next == len(self.layouts):  # no header left to look for: only the checked columns are read
+            self.columns.clear()
+            self.columns.update(self.at.get(i, -1) for i in (*layout.formulas, *layout.keys))
+        return True
+
+    def row(self, r: int, cells: dict[int, tuple[Any, bool]]) -> bool:
+        """Check one saved row; True once every table was read (nothing more to read)."""
+        if self._header(r, cells) or self.current is None or r > self.last:
+            return self.next >= len(self.layouts) and r >= self.last
+        layout = self.current
+        for i in layout.formulas:
+            c = self.at.get(i)
+            if c is None:
+                continue
+            value, formula = cells.get(c, (None, False))
+            if formula or is_blank(value):
+                continue
+            key = " / ".join(key_text(cells.get(self.at.get(k, -1), (None, False))[0]) for k in layout.keys)
+            header = self.saved_headers.get(c) or layout.headers[i]
+            self.found.append(Problem(self.sheet, r + 1, header, _message(layout, i, key, value), WARNING))
+        return self.next >= len(self.layouts) and r >= self.last
+
+
+def _message(layout: _Layout, column: int, key: str, value: Any) -> str:
+    """What the report says of one typed-over cell, and where to type instead."""
+    decl = layout.decl
+    named = f"{key}: " if key.strip(" /") else ""
+    if decl is not None and decl.same_figure_header == layout.headers[column]:
+        return (f"{named}holds {shown(value)} typed over its formula; read as typed in "
+                f"'{decl.headers[decl.value]}' (the sheet computes with it) and carried next week: "
+                f"type your {decl.numeric or 'value'} in '{decl.headers[decl.value]}'")
+    text = (f"{named}holds {shown(value)} where the build wrote a formula: typed over by hand, it is not read "
+            "(the change list and next week's workbook use the formula's value)")
+    if decl is not None and decl in DECISION_TABLES:
+        text += f"; type your decision in '{decl.headers[decl.value]}'"
+    return text
+
+
+def typed_over(book: Any, spec: WorkbookSpec, tables: dict[str, Any]) -> list[Problem]:
+    """A Problem per cell of the saved workbook holding a typed value where the plan has a formula.
+
+    Args:
+        book: the opened saved workbook (:class:`sheetbuilder.weekly.saved.SavedBook`).
+        spec: the workbook planned again from the inputs it holds.
+        tables: the plan's tables ({key: PlannedTable}), which tell each table's typed column.
+    """
+    decls = _decls({id(t.columns): key for key, t in tables.items()})
+    out: list[Problem] = []
+    for sheet in spec.sheets:
+        planned = [t for t in (sheet.table, *sheet.more) if t is not None and any(c.kind == FORMULA for c in t.columns)]
+        now = book.sheet(sheet.name)
+        if not planned or now is None:
+            continue
+        check = _SheetCheck(now, [_layout(t, decls.get(id(t.columns))) for t in sorted(planned, key=lambda t: t.first_row)])
+        book.stream(now, check.row, check.columns)
+        out += check.found
+    return out

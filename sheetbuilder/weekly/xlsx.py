@@ -1,0 +1,86 @@
+"""A saved .xlsx workbook, opened: its sheet names and defined names by openpyxl (read-only), its cells streamed.
+
+openpyxl reads the workbook part (sheet names, defined names, shared strings, date styles); each
+sheet's cells are read by :mod:`sheetbuilder.weekly.sheet_xml` from openpyxl's own handle on the file.
+"""
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any, Callable
+
+from openpyxl.utils.datetime import from_excel
+
+from sheetbuilder.weekly.names import Area, a1_area
+from sheetbuilder.weekly.sheet_xml import CellReader, read_cells, stream_cells
+
+
+def named_area(wb: Any, name: str) -> Area | None:
+    """The area an openpyxl workbook's workbook-level defined name covers, or None when missing, broken or off-sheet."""
+    try:
+        if name not in wb.defined_names:
+            return None
+        destinations = list(wb.defined_names[name].destinations)
+    except (KeyError, ValueError, TypeError, AttributeError):
+        return None
+    for sheet, ref in destinations:
+        if sheet in wb.sheetnames:
+            return a1_area(sheet, ref)
+    return None
+
+
+class XlsxFile:
+    """An .xlsx saved workbook, opened read-only: the interface :class:`sheetbuilder.weekly.ods.OdsFile` offers too.
+
+    Raises:
+        what openpyxl raises on a file it cannot read (the opener turns it into a plain refusal).
+    """
+
+    def __init__(self, path: Path):
+        import openpyxl
+        self.path = Path(path)
+        self._handle = open(self.path, "rb")  # a handle, not a name: its content says .xlsx, whatever it is called
+        try:
+            self.wb = openpyxl.load_workbook(self._handle, read_only=True, data_only=True)
+        except BaseException:
+            self._handle.close()
+            raise
+        self.sheetnames: list[str] = list(self.wb.sheetnames)
+
+    def has_name(self, name: str) -> bool:
+        """Whether the workbook defines name (at workbook level), broken or not."""
+        return name in self.wb.defined_names
+
+    def area(self, name: str) -> Area | None:
+        """The area a workbook-level name covers, or None when it is missing, broken or off-sheet."""
+        return named_area(self.wb, name)
+
+    def read(self, sheet: str, columns: frozenset[int] | None = None, formulas: bool = False,
+             no_saved_value: Any = None) -> list[list[Any]]:
+        """Every row of sheet as a list of values, padded to one width (only ``columns`` when given).
+
+        Raises:
+            DamagedSheet: the sheet's XML is not well-formed or a cell cannot be read.
+        """
+        return self._parse(sheet, no_saved_value, lambda fh, reader: read_cells(fh, reader, columns, formulas))
+
+    def stream(self, sheet: str, on_row: Callable[[int, dict[int, tuple[Any, bool]]], bool | None],
+               columns: set[int] | None = None, no_saved_value: Any = None) -> None:
+        """Hand each row of sheet to on_row as it is read (:func:`sheetbuilder.weekly.sheet_xml.stream_cells`).
+
+        Raises:
+            DamagedSheet: the sheet's XML is not well-formed or a cell cannot be read.
+        """
+        self._parse(sheet, no_saved_value, lambda fh, reader: stream_cells(fh, reader, on_row, columns))
+
+    def _parse(self, sheet: str, no_saved_value: Any, parse: Callable[[Any, CellReader], Any]) -> Any:
+        """parse(handle on the sheet's part, its CellReader)."""
+        ws = self.wb[sheet]
+        reader = CellReader(ws._shared_strings, self.wb._date_formats, lambda n: from_excel(n, self.wb.epoch),
+                            no_saved_value)
+        with self.wb._archive.open(ws._worksheet_path) as fh:  # openpyxl's own handle on the file
+            return parse(fh, reader)
+
+    def close(self) -> None:
+        """Close the file."""
+        self.wb.close()
+        self._handle.close()
