@@ -289,7 +289,7 @@ def saved_settings(book: SavedBook):
     values: dict[str, Any] = {}
     problems: list = []
     for spec in SETTINGS:
-        typed = spec.live and named_area(book.wb, typed_name(spec.key)) is not None  # else an older layout
+        typed = spec.live and book.area(typed_name(spec.key)) is not None  # else an older layout
         raw = book.named_value(typed_name(spec.key) if typed else spec.key)
         if typed and (why := typed_problem(spec, raw)) is not None:
             used = book.named_value(spec.key)  # the In use cell: the as-built value the formulas used
