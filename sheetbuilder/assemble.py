@@ -21,7 +21,7 @@ from sheetbuilder.sheets.typed import ACTIONS_NAME, EDITABLE_TABLES, CarryResult
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable
 from sheetbuilder.workbook.formula import check_names
 from sheetbuilder.errors import Problem
-from sheetbuilder.sheets.history import applied_rows, plan_history
+from sheetbuilder.sheets.history import applied_rows, plan_history, week_of
 from sheetbuilder.sheets.keyword_weeks import PackedHistory, plan_keyword_history
 from sheetbuilder.sheets.actions import DEFS as ACTION_DEFS, SEGMENTS as ACTION_SEGMENTS, plan_actions
 from sheetbuilder.sheets.bids import DEFS as BIDS_DEFS, plan_bids
@@ -30,13 +30,13 @@ from sheetbuilder.sheets.dashboard import Figure, dashboard, first_look
 from sheetbuilder.sheets.followup import (CHANGE_DEFS as FOLLOWUP_DEFS, NAME as FOLLOWUP_NAME, SHEET as FOLLOWUP_SHEET,
                                           SUMMARY as FOLLOWUP_SUMMARY, Followup, plan_followup)
 from sheetbuilder.sheets.groups import DEFS as GROUPS_DEFS, plan_groups
-from sheetbuilder.sheets.guide import plan_guide
+from sheetbuilder.sheets.guide import SETTINGS_FIGURE, plan_guide
 from sheetbuilder.sheets.inputs import InputSheet, catalog_names, plan_input_sheets
 from sheetbuilder.sheets.lists import HARVEST, NEGATIVES, plan_list
 from sheetbuilder.sheets.mix import MATCH_DEFS, TYPE_DEFS as MIX_DEFS, plan_mix
 from sheetbuilder.sheets.notes import place_notes
 from sheetbuilder.sheets.profit import DEFS as PROFIT_DEFS, plan_profit
-from sheetbuilder.sheets.settings_sheet import plan_settings
+from sheetbuilder.sheets.settings_sheet import NOT_VALID_NAME, plan_settings
 from sheetbuilder.sheets.terms import DEFS as TERMS_DEFS, plan_terms
 from sheetbuilder.sheets.unmatched import carried_marks, marked_column, plan_carried, plan_unmatched
 from sheetbuilder.reading.account import account_of_inputs
@@ -221,7 +221,11 @@ def _followup(a: Assembly) -> None:
 
 
 def _history(a: Assembly) -> None:
-    rows = a.history + (applied_rows(a.followup.rows, a.built_on) if a.followup is not None else [])
+    if a.followup is not None:
+        end = a.followup.current.end if a.followup.current is not None else None
+        rows = a.history + applied_rows(a.followup.rows, week_of(end, a.built_on))
+    else:
+        rows = a.history
     sheet, names = plan_history(rows)
     a.place("history", sheet)
     a.names += names
@@ -236,6 +240,7 @@ def _keyword_history(a: Assembly) -> None:
 def _guide(a: Assembly) -> None:
     """The dashboard's figures, read from the anchors, then the Guide."""
     figures = dashboard(a.tables, a.anchors, (a.anchors["budget.shifted"], a.anchors.value("budget.shifted")))
+    figures.append(Figure(SETTINGS_FIGURE, "=" + NOT_VALID_NAME, 0.0, "int"))  # a build types only valid values
     counts = [name for name in a.anchors if name.startswith("actions_count.")]
     figures.append(Figure("Changes in the Actions list", "=" + "+".join(a.anchors[n] for n in counts),
                           float(sum(a.anchors.value(n) for n in counts)), "int"))

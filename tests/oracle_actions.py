@@ -12,7 +12,7 @@ from __future__ import annotations
 from collections import defaultdict
 
 from oracle import bids_oracle, profit_oracle
-from oracle_mix import budget_oracle
+from oracle_mix import budget_oracle, to_cents
 from oracle_terms import terms_oracle
 
 KINDS = ("bid", "add", "source negative", "add negative", "budget")
@@ -55,6 +55,6 @@ def actions_oracle(tables, settings) -> dict[str, list[tuple]]:
                 out["budget"].append(("budget", name, None, None, None, c["Daily budget"], c["Final budget"],
                                       "follows its products' spend", ", ".join(sorted(products[name])),
                                       # no money at stake where the Final is not a number (an invalid Decision)
-                                      abs(c["Final budget"] - c["Daily budget"])
+                                      to_cents(abs(c["Final budget"] - c["Daily budget"]))
                                       if isinstance(c["Final budget"], (int, float)) else None))
     return out

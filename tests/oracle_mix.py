@@ -15,6 +15,12 @@ BLANK = None
 MATCHES = ["exact", "phrase", "broad", "product", "auto"]
 
 
+def to_cents(value):
+    """A money difference to the cent as a spreadsheet's ROUND(value, 2) gives it: half away from zero on the
+    value's 15-digit decimal form (Excel's ROUND documentation; LibreOffice Calc the same)."""
+    return float(Decimal(f"{value:.15g}").quantize(Decimal("0.01"), rounding=ROUND_HALF_UP)) + 0.0
+
+
 def _div(a, b):
     return BLANK if b == 0 or b is BLANK or a is BLANK else a / b
 
@@ -130,7 +136,7 @@ def budget_oracle(tables, settings, profit_rows, product_decisions=None):
         else:
             final = float(typed)
         products[pid] = {"Direction": r["Direction"], "Revenue": r["Revenue"], "Current spend": spend,
-                         "Proposed spend": proposed, "Change": proposed - spend, "Final spend": final,
+                         "Proposed spend": proposed, "Change": to_cents(proposed - spend), "Final spend": final,
                          "_ratio": 1.0 if spend == 0 or final == "invalid" else final / spend}
     campaigns = {}
     if tables.get("campaigns") is not None:
@@ -149,6 +155,6 @@ def budget_oracle(tables, settings, profit_rows, product_decisions=None):
             factor = min(1 + settings.max_budget_change, max(1 - settings.max_budget_change, scale))
             proposed = float(Decimal(f"{c['daily_budget'] * factor:.15g}").quantize(Decimal(1), rounding=ROUND_HALF_UP))
             campaigns[c["campaign"]] = {"Daily budget": c["daily_budget"], "Ad spend": total, "Spend change": scale,
-                                        "Proposed budget": proposed, "Change": proposed - c["daily_budget"],
+                                        "Proposed budget": proposed, "Change": to_cents(proposed - c["daily_budget"]),
                                         "Final budget": proposed}
     return products, campaigns

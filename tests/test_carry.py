@@ -11,6 +11,7 @@ import pytest
 
 from conftest import BUILT_ON, DEMO
 from sheetbuilder.cli import carried_summary
+from sheetbuilder.sheets.settings_sheet import typed_name
 from sheetbuilder.sheets.typed import CarryRecord, decision_column
 from sheetbuilder.sheets.unmatched import unmatched_sheet_rows
 from sheetbuilder.weekly.carry import Edits, PreviousWorkbookUnreadable, apply_edits, carried_catalog, read_edits
@@ -46,7 +47,7 @@ def edited(tmp_path_factory):
     ws = wb["Profit"]
     row = _find_row(ws, 5, "Product ID", PRODUCT)
     row[_header(ws, 5).index("Your target ACoS")].value = NEW_TARGET
-    sheet, coord = next(iter(wb.defined_names["thin_margin"].destinations))
+    sheet, coord = next(iter(wb.defined_names[typed_name("thin_margin")].destinations))
     wb[sheet][coord.replace("$", "")].value = NEW_THIN
     ws = wb["Bids"]
     h = _header(ws, 4)
@@ -154,7 +155,8 @@ def test_invalid_values_are_unmatched_with_the_reason():
                                        "margin": [float("nan")]})}
     result = apply_edits(edits, tables, Settings())
     why = {(r.key, r.column): r.why for r in result.unmatched}
-    assert why[("thin_margin", "Value")].startswith("expected a number")
+    assert "'lots' typed for Thin-margin threshold is not a number; the as-built value was kept" == why[
+        ("thin_margin", "Value")]
     assert "above bid_ceiling" in why[("bid_floor", "Value")]
     assert why[("P1", "unit_cost")] == "not a number"
     assert "negative" in why[("P1", "price")]
@@ -235,3 +237,73 @@ def test_keys_with_a_tab_or_longer_than_a_cell_still_match_their_rows(tmp_path):
     assert 3 == len(result.carried)
     frame = build(folder, tmp_path / "w2.xlsx", built_on=BUILT_ON, previous=tmp_path / "edited.xlsx").plan.tables["Bids"].frame
     assert [0.33, 0.33, 0.33] == frame["decision"].tolist()
+
+
+def _spend_week(spend_now: float) -> dict:
+    import pandas as pd
+    return {"catalog": pd.DataFrame({"product_id": ["P1", "P2"]}),
+            "ad_products": pd.DataFrame({"product_id": ["P1", "P1", "P2"], "campaign": ["C1", "C2", "C1"],
+                                         "spend": [spend_now / 2, spend_now / 2, 50.0]})}
+
+
+@pytest.mark.parametrize("spend_now, applied", [(100.0, True), (95.0, True), (104.9, True), (94.0, False),
+                                                (106.0, False)])
+def test_a_typed_product_spend_expires_once_the_export_is_within_5_percent_or_one_unit(spend_now, applied):
+    # The rule (README, "Decisions and carried edits"): within the larger of 5% of the typed spend and 1.
+    from sheetbuilder.reading.settings import Settings
+    edits = Edits("w1.xlsx", decisions={"Budget": {("P1",): 100.0}})
+    result = apply_edits(edits, _spend_week(spend_now), Settings())
+    assert applied == any(r.key == "P1" for r in result.applied)
+    assert (not applied) == any(r.key == "P1" for r in result.carried)
+
+
+def test_a_small_typed_spend_expires_within_one_currency_unit():
+    from sheetbuilder.reading.settings import Settings
+    result = apply_edits(Edits("w1.xlsx", decisions={"Budget": {("P1",): 4.0}}), _spend_week(4.9), Settings())
+    assert ["applied: this export's spend is 4.9, within 5% or 1 of it"] == [r.why for r in result.applied]
+
+
+def test_a_typed_bid_still_expires_only_when_applied_to_the_cent():
+    import pandas as pd
+    from sheetbuilder.reading.settings import Settings
+    targets = pd.DataFrame({"campaign": ["C1"], "ad_group": ["G1"], "target": ["pot"], "match_type": ["exact"],
+                            "bid": [0.99]})
+    result = apply_edits(Edits("w1.xlsx", decisions={"Bids": {("C1", "G1", "pot", "exact"): 1.0}}),
+                         {"targets": targets}, Settings())
+    assert [] == result.applied and 1 == len(result.carried)
+
+
+def _exported_spend(product: str) -> float:
+    """The product's ad spend in the demo's ad_products export (its Cost column, written as $24.65)."""
+    with (DEMO / "ad_products.csv").open(newline="", encoding="utf-8") as f:
+        return sum(float(r["Cost"].replace("$", "").replace(",", "")) for r in csv.DictReader(f)
+                   if r["Product ID"] == product)
+
+
+def _budget_decisions(path) -> tuple[dict[str, str], dict[str, object]]:
+    """({product: its Decision cell}, {product: what the cell holds}) of the Budget products table, by header."""
+    ws = openpyxl.load_workbook(path)["Budget"]
+    top = next(r for r in range(1, ws.max_row + 1) if ws.cell(r, 1).value == "Product ID")
+    col = _header(ws, top).index("Decision") + 1
+    rows = {}
+    for r in range(top + 1, ws.max_row + 1):
+        if ws.cell(r, 1).value in (None, "Total"):
+            break
+        rows[ws.cell(r, 1).value] = r
+    return ({p: ws.cell(r, col).coordinate for p, r in rows.items()}, {p: ws.cell(r, col).value for p, r in rows.items()})
+
+
+@pytest.mark.slow
+def test_a_typed_product_spend_the_export_comes_within_5_percent_of_expires_next_week(tmp_path):
+    from conftest import edit_workbook
+    week1 = build(DEMO, tmp_path / "week1.xlsx", built_on=BUILT_ON)
+    near, far = round(_exported_spend("LF-1001") * 1.04, 2), round(_exported_spend("LF-1002") * 1.5, 2)
+    cells, _ = _budget_decisions(week1.output)
+    edited = edit_workbook(week1.output, tmp_path / "typed.xlsx", [("Budget", cells["LF-1001"], near),
+                                                                    ("Budget", cells["LF-1002"], far)])
+    week2 = build(DEMO, tmp_path / "week2.xlsx", built_on=BUILT_ON, previous=edited)
+    assert [("Budget", "LF-1001", near)] == [(r.sheet, r.key, r.value) for r in week2.carry.applied]
+    assert [("Budget", "LF-1002", far)] == [(r.sheet, r.key, r.value) for r in week2.carry.carried
+                                            if r.sheet == "Budget"]
+    _, typed = _budget_decisions(week2.output)
+    assert (None, far) == (typed["LF-1001"], typed["LF-1002"])

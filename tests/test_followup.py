@@ -19,6 +19,7 @@ import openpyxl
 import pytest
 
 from conftest import BUILT_ON, DEMO, ROOT, require_libreoffice
+from oracle_mix import to_cents
 from oracle_followup import expected_row
 from workbook_io import same
 from sheetbuilder.weekly.changes import COLUMNS, export_changes
@@ -160,7 +161,7 @@ def test_products_then_are_last_weeks_profit_figures_and_now_this_weeks(scenario
     headers = [c.value for c in ws[start]]
     then = scenario["week1"].plan.tables["Profit"].frame.set_index("product_id")
     now = scenario["week2"].plan.tables["Profit"].frame.set_index("product_id")
-    checked = 0
+    checked = unchanged = 0
     for row in ws.iter_rows(min_row=start + 1, values_only=True):
         if row[0] in (None, ""):
             break
@@ -168,11 +169,14 @@ def test_products_then_are_last_weeks_profit_figures_and_now_this_weeks(scenario
         pid = got["Product ID"]
         assert same(float(then.loc[pid, "net_profit"]), got["Net profit after ads then"]), pid
         assert same(float(now.loc[pid, "net_profit"]), got["Net profit after ads now"]), pid
-        assert same(float(now.loc[pid, "net_profit"]) - float(then.loc[pid, "net_profit"]),
+        assert same(to_cents(float(now.loc[pid, "net_profit"]) - float(then.loc[pid, "net_profit"])),
                     got["Net profit after ads change"]), pid
+        assert to_cents(float(now.loc[pid, "ad_spend"]) - float(then.loc[pid, "ad_spend"])) == got["Ad spend change"]
+        unchanged += round(float(now.loc[pid, "ad_spend"]), 2) == round(float(then.loc[pid, "ad_spend"]), 2)
         assert now.loc[pid, "status"] == got["Status now"]
         checked += 1
     assert len(now) == checked
+    assert unchanged > 0  # the products whose spend did not move read exactly 0, never -5.7e-14
 
 
 def test_the_guide_dashboard_shows_the_follow_up_summary(scenario):
@@ -215,8 +219,11 @@ def _truth(keys: list[tuple], week: dt.date) -> list[tuple]:
 def test_history_after_weeks_two_and_three_holds_exactly_the_applied_changes(scenario):
     require_libreoffice()
     work = scenario["work"]
-    week2 = BUILT_ON + dt.timedelta(days=7)
-    week3 = BUILT_ON + dt.timedelta(days=14)
+    # Week is the period end of the exports that showed the change applied: demo_inputs/settings.toml ends
+    # the demo's period on 2026-11-29 and tools/make_week2.py moves it on by seven days each week. Week 3 is
+    # built on the same day as week 2, and still reads its own week.
+    week2 = dt.date(2026, 12, 6)
+    week3 = dt.date(2026, 12, 13)
     applied2 = [_key(c) for c in scenario["changes"] if _key(c) in scenario["applied"]]
     assert _truth(applied2, week2) == _history(scenario["week2"].output)
     (saved2,) = libreoffice_convert([scenario["week2"].output], work / "saved2")  # as a user's program saves it
@@ -225,7 +232,7 @@ def test_history_after_weeks_two_and_three_holds_exactly_the_applied_changes(sce
         changes2 = list(csv.DictReader(f))
     applied, elsewhere = choose(changes2)
     exports3 = make_week2(scenario["exports2"], work / "exports3", applied, elsewhere)
-    third = build(exports3, work / "week3.xlsx", built_on=week3, previous=saved2)
+    third = build(exports3, work / "week3.xlsx", built_on=BUILT_ON + dt.timedelta(days=7), previous=saved2)
     applied3 = [_key(c) for c in changes2 if _key(c) in {_key(a) for a in applied}]
     assert _truth(applied2, week2) + _truth(applied3, week3) == _history(third.output)
 
@@ -319,3 +326,18 @@ def test_the_periods_come_from_the_exports_dates_when_they_carry_them(tmp_path):
     assert ("Last period: 2026-11-23 to 2026-11-29 (7 days). This period: 2026-11-23 to 2026-11-29 (7 days)."
             == ws["A2"].value)
     assert ws["A3"].value.startswith("The periods overlap by 7 days")
+
+
+def test_four_weeks_built_on_one_day_read_four_weeks_in_history():
+    from sheetbuilder.sheets.history import applied_rows, week_of
+    one_day = dt.date(2026, 12, 20)
+    ends = [dt.date(2026, 11, 29) + dt.timedelta(days=7 * i) for i in range(4)]
+    row = {"applied": "yes", "kind": "bid", "campaign": "c", "ad_group": "g", "target": "t", "match_type": "exact",
+           "was": 1.0, "planned": 1.2}
+    weeks = [applied_rows([row], week_of(end, one_day))[0]["week"] for end in ends]
+    assert ["2026-11-29", "2026-12-06", "2026-12-13", "2026-12-20"] == weeks
+
+
+def test_history_week_without_dates_in_the_exports_is_the_build_date_said_plainly():
+    from sheetbuilder.sheets.history import week_of
+    assert "built 2026-12-02 (no dates in the exports)" == week_of(None, dt.date(2026, 12, 2))

@@ -25,6 +25,7 @@ from terms_io import (HARVEST_HEADERS, LIST_HEADER_ROW, NEGATIVE_HEADERS, TERMS_
                       terms_oracle_for, terms_table)
 from profit_io import HEADER_ROW as PROFIT_HEADER_ROW, PROFIT_HEADERS, oracle_for, profit_table
 from workbook_io import mismatches, open_values, same
+from sheetbuilder.sheets.settings_sheet import typed_name
 from sheetbuilder.workbook.palette import EXPORT_FONT
 from sheetbuilder.pipeline import build, load, write_atomically
 from sheetbuilder.sheets.terms import DEFS as TERMS_DEFS
@@ -79,8 +80,9 @@ def _first_promote(demo_build):
 
 
 def _named_cell(path, name):
+    """The typed Value cell of the setting name (its formulas read the checked In use cell beside it)."""
     wb = openpyxl.load_workbook(path)
-    sheet, coord = wb.defined_names[name].attr_text.split("!")
+    sheet, coord = wb.defined_names[typed_name(name)].attr_text.split("!")
     return sheet, coord.replace("$", "")
 
 

@@ -12,6 +12,7 @@ import shutil
 import openpyxl
 import pytest
 
+from sheetbuilder.sheets.settings_sheet import HEADERS
 from sheetbuilder.cli import main
 from sheetbuilder.errors import AnotherAccount
 from sheetbuilder.pipeline import build
@@ -32,7 +33,7 @@ def test_the_settings_sheet_records_the_account_it_was_built_for(small_week1):
     row = book[destination[0]][destination[1].replace("$", "")].row
     cells = [c.value for c in book["Settings"][row]]
     assert "shop_a" == cells[1]
-    assert "2 products, 1 campaigns, fingerprint " in cells[2]
+    assert "2 products, 1 campaigns, fingerprint " in cells[HEADERS.index("What it does")]
 
 
 def test_another_accounts_workbook_as_previous_is_refused_naming_both(demo_build, tmp_path):

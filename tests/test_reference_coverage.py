@@ -13,6 +13,7 @@ from conftest import BUILT_ON, DEMO
 from reference_columns import COMPARED, UNCOVERED, formula_columns
 from workbook_io import mismatches
 from sheetbuilder.pipeline import load, plan_workbook
+from sheetbuilder.reading.settings import SETTINGS
 
 
 @pytest.fixture(scope="module")
@@ -41,3 +42,14 @@ def test_a_column_the_reference_does_not_compute_is_a_mismatch():
     expected = {"P1": {"Units": 3}}
     assert ["demo: P1 / Revenue: the reference has no value for this column"] == mismatches(
         expected, {"P1": {"Units": 3, "Revenue": 9.5}}, ["Units", "Revenue"], "demo")
+
+
+def test_every_formula_cell_on_settings_is_an_in_use_check_or_the_count_the_reference_covers(demo_plan):
+    # In use and Check are compared with tests/oracle_settings.py (test_settings_guarded, and after a paste in
+    # LibreOffice in test_survives_real_hands); the count is checked there against the pasted values.
+    from sheetbuilder.sheets.settings_sheet import CHECK, USED, VALUE
+    sheet = next(s for s in demo_plan.spec.sheets if s.name == "Settings")
+    places = {(r, c) for r, row in enumerate(sheet.above) for c, cell in enumerate(row)
+              if cell is not None and cell.formula}
+    live = [i for i, s in enumerate(SETTINGS) if s.live]
+    assert {(2, VALUE)} | {(4 + i, col) for i in live for col in (USED, CHECK)} == places

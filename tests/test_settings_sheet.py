@@ -4,6 +4,7 @@ from __future__ import annotations
 import openpyxl
 
 from sheetbuilder.reading.settings import SETTINGS, Settings
+from sheetbuilder.sheets.settings_sheet import typed_name
 
 
 def test_every_declared_default_is_the_settings_default():
@@ -29,7 +30,8 @@ def test_every_live_setting_cell_is_an_unlocked_validated_input(demo_build):
         for rng in dv.sqref.ranges:
             validated.add(rng.coord)
     for spec in SETTINGS:
-        coord = wb.defined_names[spec.key].attr_text.split("!")[1].replace("$", "")
+        name = typed_name(spec.key) if spec.live else spec.key  # the formulas read the checked In use cell
+        coord = wb.defined_names[name].attr_text.split("!")[1].replace("$", "")
         cell = ws[coord]
         if spec.live:
             assert cell.protection.locked is False, spec.key

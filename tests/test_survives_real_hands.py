@@ -8,6 +8,7 @@ each row holds (its key and its figures), not by where it stands.
 """
 from __future__ import annotations
 
+import datetime as dt
 import json
 import shutil
 import subprocess
@@ -20,6 +21,9 @@ import pytest
 
 from conftest import BUILT_ON, DEMO, require_libreoffice
 from sheetbuilder.pipeline import build
+from oracle_settings import settings_oracle
+from sheetbuilder.reading.settings import SETTINGS, SPEC_BY_KEY
+from sheetbuilder.values import ERROR_VALUES
 from sheetbuilder.values import is_number, same_value
 from sheetbuilder.weekly.changes import export_changes
 
@@ -111,7 +115,26 @@ def plan_actions(demo: Path) -> dict[str, list[dict]]:
         "notes_and_own_columns": _notes_steps(wb),
         **{f"{PROFIT_BY}{by}": [_sort_step(profit, "Product ID", by, ascending=False)] for by in _headers(profit)},
         **_tab_actions(wb),
+        **{label: [{"op": "set", "sheet": "Settings", "cell": _typed_setting_cell(wb, key), "value": value}
+                   for key, value in pasted.items()] for label, pasted in PASTES.items()},
     }
+
+
+# Values pasted into live settings (a paste skips data validation): text into a percentage, and one of each
+# kind the In use cell checks (a count, money, a choice, a date, a percentage typed as a whole number).
+PASTES = {"text_in_a_setting": {"default_target_acos": "thirty percent"},
+          "bad_paste_of_each_kind": {"min_clicks": "ten", "bid_floor": "0,10", "cap_target_at_break_even": "maybe",
+                                     "period_end": "last Sunday", "max_bid_cut": 30}}
+# {setting: (the words its Check starts with, the as-built value it names)}: demo_inputs/settings.toml and
+# the declared defaults (README, "Settings").
+FLAGS = {"default_target_acos": ("not a number", "30%"), "min_clicks": ("not a number", "10"),
+         "bid_floor": ("not a number", "0.10"), "cap_target_at_break_even": ("not one of yes, no", "yes"),
+         "period_end": ("not a date", "2026-11-29"), "max_bid_cut": ("outside 0% to 95%", "30%")}
+
+
+def _typed_setting_cell(wb, key: str) -> str:
+    """The typed Value cell of a live setting on Settings (its defined name), as A1 text."""
+    return wb.defined_names[key + "_typed"].attr_text.split("!")[1].replace("$", "")
 
 
 PROFIT_BY = "profit_by_column:"  # one action per column of Profit's table: Data > Sort by it, descending
@@ -268,6 +291,13 @@ def test_deleting_a_row_of_bids_or_terms_is_refused_so_no_list_turns_to_ref_erro
     assert hands["refused"][action].startswith("LibreOffice refused to delete row")
 
 
+def _errors(path: Path) -> list[str]:
+    """Every cell of every sheet that holds an error value, as Sheet!A1."""
+    wb = openpyxl.load_workbook(path, data_only=True)
+    return [f"{ws.title}!{c.coordinate}" for ws in wb.worksheets for row in ws.iter_rows() for c in row
+            if isinstance(c.value, str) and c.value in ERROR_VALUES]
+
+
 # Saving as .ods: a person types a Bids, Terms and Budget Decision, a unit cost on in_catalog, a target on Profit
 # and two settings, then saves in OpenDocument (File > Save As, "calc8"); the same typing saved as .xlsx is the
 # reference, for the format must change nothing that is read back. Two Terms Decisions are text a Decision
@@ -279,8 +309,8 @@ ODD_TEXT = ("  two  spaces and\na line ", "=SUM(1,2)")
 TYPED_BY_HAND = (  # (defined name of the column or setting, body row offset, value typed)
     ("sb_bids_decision", 0, 0.55), ("sb_bids_decision", 1, "keep"), ("sb_terms_decision", 0, "block"),
     ("sb_terms_decision", 1, ODD_TEXT[0]), ("sb_terms_decision", 2, ODD_TEXT[1]), ("sb_budget_decision", 0, "keep"),
-    ("sb_catalog_unit_cost", 1, 30.5), ("sb_profit_target_override", 0, 0.22), ("default_target_acos", 0, 0.27),
-    ("thin_margin", 0, 0.1))
+    ("sb_catalog_unit_cost", 1, 30.5), ("sb_profit_target_override", 0, 0.22), ("default_target_acos_typed", 0, 0.27),
+    ("thin_margin_typed", 0, 0.1))  # the typed Value cells (the names without _typed: In use)
 
 
 def _typed_steps(wb) -> list[dict]:
@@ -314,6 +344,47 @@ def _carried(path: Path, out: Path):
 
 @pytest.mark.libreoffice
 @pytest.mark.slow
+@pytest.mark.parametrize("action", list(PASTES))
+def test_text_pasted_into_a_setting_costs_one_flag_not_errors(hands, work, action):
+    path, pasted = hands[action], PASTES[action]
+    assert [] == _errors(path)
+    wb = openpyxl.load_workbook(path, data_only=True)
+    settings = wb["Settings"]
+    for key in pasted:
+        row = [c.value for c in settings[int(_typed_setting_cell(wb, key)[1:])]]
+        words, as_built = FLAGS[key]
+        assert (pasted[key], f"{words}: using the as-built value {as_built}") == (row[1], row[3]), key
+    for spec in (s for s in SETTINGS if s.live):  # every row's In use and Check, as the reference has them
+        row = [c.value for c in settings[int(_typed_setting_cell(wb, spec.key)[1:])]]
+        typed = row[1].date() if isinstance(row[1], dt.datetime) else row[1]
+        built = row[6].date() if isinstance(row[6], dt.datetime) else row[6]
+        used, flagged = settings_oracle(spec, typed, built)
+        in_use = row[2].date() if isinstance(row[2], dt.datetime) else row[2]
+        assert (_norm(used), flagged) == (_norm(in_use), row[3] not in (None, "")), spec.key
+    assert len(pasted) == settings["B3"].value
+    guide = {ws_row[0]: ws_row[1] for ws_row in wb["Guide"].iter_rows(max_row=30, values_only=True)}
+    assert ("A typed setting is not valid: its as-built value is in use instead (see the key figure below and the "
+            "Check column on Settings).") == guide["Settings"]
+    assert len(pasted) == guide["Typed settings not valid (as-built value in use)"]
+    # Every figure elsewhere is the as-built workbook's: the pasted values cost nothing but their flags.
+    before, after = sheet_rows(hands["as_built"]), sheet_rows(path)
+    assert {n: before[n] for n in before if n not in ("Settings", "Guide")} == \
+           {n: after[n] for n in after if n not in ("Settings", "Guide")}
+    # changes re-plans with the as-built values and says which typed values it could not use.
+    result = export_changes(path, work / f"changes_{action}.csv")
+    said = {p.column: p.message for p in result.problems if p.file == "Settings"}
+    assert {key: f"the workbook's formulas use the as-built value {FLAGS[key][1]}" for key in pasted} == {
+        key: message.split("; ")[-1] for key, message in said.items()}
+    assert _actions_sheet(hands["as_built"]) == _actions_sheet(path)
+    assert Counter() == Counter(_change(r) for r in result.rows) - _actions_sheet(path)
+    # Next week nothing typed is lost without a word: each pasted value is listed as not carried.
+    week2 = build(DEMO, work / f"week2_{action}.xlsx", built_on=BUILT_ON, previous=path)
+    listed = {r.key: r.why for r in week2.carry.unmatched if r.sheet == "Settings"}
+    typed = {k: repr(v) if isinstance(v, str) else f"{v:g}" for k, v in pasted.items()}  # as a message quotes it
+    assert {key: f"{typed[key]} typed for {SPEC_BY_KEY[key].label} is {FLAGS[key][0]}; the as-built value "
+                 "was kept" for key in pasted} == listed
+
+
 def test_saving_as_ods_keeps_changes_and_carries_every_typed_value(hands, work):
     from sheetbuilder.weekly.saved import SavedBook
     ods, xlsx = hands["saving_as_ods"], hands["typed_then_saved_as_xlsx"]

@@ -16,6 +16,7 @@ import openpyxl
 import pytest
 
 from conftest import BUILT_ON, DEMO, require_libreoffice
+from sheetbuilder.sheets.settings_sheet import typed_name
 from sheetbuilder.cli import carried_summary
 from sheetbuilder.pipeline import build
 from tools.recalc import libreoffice_convert
@@ -40,7 +41,8 @@ def _bid_key(row) -> dict:
 
 
 def _setting_cell(wb, name):
-    sheet, coord = next(iter(wb.defined_names[name].destinations))
+    """The typed Value cell of the setting name (its formulas read the checked In use cell beside it)."""
+    sheet, coord = next(iter(wb.defined_names[typed_name(name)].destinations))
     return wb[sheet][coord.replace("$", "")]
 
 
@@ -109,7 +111,7 @@ def test_a_changed_threshold_is_still_there_in_week_three_and_as_built_is_the_to
     wb = openpyxl.load_workbook(weeks["third"].output)
     cell = _setting_cell(wb, "thin_margin")
     assert NEW_THIN == cell.value
-    assert 0.08 == wb[cell.parent.title].cell(cell.row, 5).value  # "As built": the demo settings.toml
+    assert 0.08 == wb[cell.parent.title].cell(cell.row, 7).value  # "As built": the demo settings.toml
     assert NEW_THIN == weeks["third"].carry.settings.thin_margin
 
 

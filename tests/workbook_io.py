@@ -1,11 +1,21 @@
 """Reading tables back out of a built workbook, and comparing values as the tests need."""
 from __future__ import annotations
 
+import datetime as dt
 import math
 
 import openpyxl
 
 REL = 1e-9
+
+
+def _day_number(value):
+    """A date or datetime as a spreadsheet's day number (days since 1899-12-30); anything else as it is."""
+    if isinstance(value, dt.datetime):
+        return (value - dt.datetime(1899, 12, 30)).total_seconds() / 86400
+    if isinstance(value, dt.date):
+        return (value - dt.date(1899, 12, 30)).days
+    return value
 
 
 def same(expected, actual, rel: float = REL) -> bool:
@@ -16,6 +26,8 @@ def same(expected, actual, rel: float = REL) -> bool:
         return True
     if isinstance(expected, bool) or isinstance(actual, bool):
         return expected == actual
+    # A date-formatted cell is read back as a date; an engine gives its day number (1900 date system).
+    expected, actual = (_day_number(v) for v in (expected, actual))
     if isinstance(expected, (int, float)) and isinstance(actual, (int, float)):
         return math.isclose(expected, actual, rel_tol=rel, abs_tol=1e-9)
     return expected == actual

@@ -167,3 +167,18 @@ def round_half_away(value: float, digits: int = 2) -> float:
 # spreadsheet program: the `formulas` library rounds the binary value, Excel and LibreOffice
 # the decimal one.
 ROUNDING_NUDGE = 1e-9
+
+
+def cents(value: float) -> float:
+    """A money difference to the cent, as cents_formula computes it: an unchanged figure is 0, never -5.7e-14.
+
+    The nudge goes away from zero, so a half cent rounds away from zero in every engine (see ROUNDING_NUDGE).
+    """
+    if value is None or (isinstance(value, float) and math.isnan(value)):
+        return value
+    return round_half_away(value + (-ROUNDING_NUDGE if value < 0 else ROUNDING_NUDGE), 2) + 0.0
+
+
+def cents_formula(expr: str) -> str:
+    """Formula text of a money difference expr to the cent (cents is its value)."""
+    return f"ROUND({expr}+IF({expr}<0,-{ROUNDING_NUDGE:g},{ROUNDING_NUDGE:g}),2)"

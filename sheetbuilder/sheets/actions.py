@@ -21,6 +21,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from sheetbuilder.reading.numbers import cents, cents_formula
 from sheetbuilder.sheets.anchors import without_absent
 from sheetbuilder.values import is_empty
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, plan_table
@@ -149,8 +150,9 @@ def defs(totals: list[str]) -> list[ColumnDef]:
                   "Last period's spend of the target or term, or the size of the budget change.", _num("Money at stake"),
                   _field({1: "INDEX({rng:bids.spend},{c:pos})", 2: "INDEX({rng:harvest.spend},{c:pos})",
                           3: "INDEX({rng:harvest.spend},{c:pos})", 4: "INDEX({rng:negative_list.spend},{c:pos})",
-                          5: "IF(ISNUMBER(INDEX({rng:budget_campaigns.final},{c:pos})),ABS(INDEX("
-                             "{rng:budget_campaigns.final},{c:pos})-INDEX({rng:budget_campaigns.budget},{c:pos})),\"\")"}),
+                          5: "IF(ISNUMBER(INDEX({rng:budget_campaigns.final},{c:pos})),"
+                             + cents_formula("ABS(INDEX({rng:budget_campaigns.final},{c:pos})-INDEX("
+                                             "{rng:budget_campaigns.budget},{c:pos}))") + ",\"\")"}),
                   width=11),
         ColumnDef("k", "Number", "int", "Helper: the row's number.", lambda df, ctx: df["k"], kind=DATA, width=6,
                   hidden=True),
@@ -210,7 +212,7 @@ def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
             counts[4] += 1
             out.append({"_seg": 5, "_pos": r["cpos"], "Kind": "budget", "Campaign": r["campaign"],
                         "Current": r["budget"], "New": r["final"], "Product ID": r["products"],
-                        "Money at stake": "" if isinstance(r["final"], str) else abs(r["final"] - r["budget"]),
+                        "Money at stake": "" if isinstance(r["final"], str) else cents(abs(r["final"] - r["budget"])),
                         "Reason": "follows its products' spend" if is_empty(r["decision"]) else "your decision"})
     return out, counts
 

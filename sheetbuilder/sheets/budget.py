@@ -22,7 +22,7 @@ from sheetbuilder.sheets.decisions import NOTES, apply_decision, decision_formul
 from sheetbuilder.sheets.lists import running_key
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, plan_table
 from sheetbuilder.workbook.formula import block_sum, col_letter, keyed_row, quote_sheet
-from sheetbuilder.reading.numbers import ROUNDING_NUDGE, round_half_away
+from sheetbuilder.reading.numbers import ROUNDING_NUDGE, cents, cents_formula, round_half_away
 from sheetbuilder.sheets.inputs import InputSheet
 from sheetbuilder.reading.settings import Settings
 from sheetbuilder.workbook.spec import DATA, INPUT, Cell, Highlight, Sheet, Table
@@ -80,8 +80,8 @@ PRODUCT_DEFS: list[ColumnDef] = [
               '{c:spend}*(1-budget_shift_share),IF({c:direction}="grow",{c:spend}+budget_shift_share*'
               '{tot:cut_spend}*{c:revenue}/{tot:grow_rev},{c:spend})))', width=12, total="={sum:proposed}",
               total_reference=lambda df, ctx: float(df["proposed"].sum())),
-    ColumnDef("change", "Change", "money", "Proposed minus current spend.",
-              lambda df, ctx: df["proposed"] - df["spend"], "={c:proposed}-{c:spend}", width=11),
+    ColumnDef("change", "Change", "money", "Proposed minus current spend, to the cent.",
+              lambda df, ctx: (df["proposed"] - df["spend"]).map(cents), "=" + cents_formula("{c:proposed}-{c:spend}"), width=11),
     ColumnDef("change_pct", "Change %", "percent", "Proposed / current spend - 1.",
               lambda df, ctx: (df["proposed"] / df["spend"].where(df["spend"] != 0)) - 1,
               '=IF({c:spend}=0,"",{c:proposed}/{c:spend}-1)', width=9),
@@ -147,8 +147,8 @@ CAMPAIGN_DEFS: list[ColumnDef] = [
               "Daily budget x spend change, within the maximum change, rounded to the currency unit.",
               _proposed_budget, '=ROUND({c:budget}*MIN(1+max_budget_change,MAX(1-max_budget_change,{c:scale}))'
                                 '+0.000000001,0)', width=11),
-    ColumnDef("change", "Change", "money", "Proposed minus current budget.",
-              lambda df, ctx: df["proposed"] - df["budget"], "={c:proposed}-{c:budget}", width=10),
+    ColumnDef("change", "Change", "money", "Proposed minus current budget, to the cent.",
+              lambda df, ctx: (df["proposed"] - df["budget"]).map(cents), "=" + cents_formula("{c:proposed}-{c:budget}"), width=10),
     ColumnDef("decision", "Decision", "text_input", "Input: blank follows the proposal; a budget; or keep.",
               lambda df, ctx: df["decision"], kind=INPUT, width=10),
     ColumnDef("final", "Final budget", "money", "The Decision if given, else the proposal.",
@@ -175,10 +175,17 @@ LINK_DEFS: list[ColumnDef] = [
               lambda df, ctx: df["spend"] * df["ratio"], "={c:spend}*{c:ratio}", width=10),
 ]
 
+# A product's spend is an outcome of bids and budgets, never set to the cent: a typed spend counts as applied
+# (and stops being carried) once the export's spend is within 5% of it or one currency unit, whichever is larger.
+# 5% is about the week-to-week noise of a steady product's ad spend; the unit keeps a small spend from never
+# expiring over cents. A campaign's daily budget is typed into the ad console as it is: equal to the cent.
+SPEND_APPLIED_WITHIN = (0.05, 1.0)
+
 # What a user types on Budget (products, then campaigns) and the keys that find its row again.
 EDITABLE_COLUMNS = editable(PRODUCT_DEFS, "Budget", SHEET, "sb_budget", ("product_id",), "decision",
                             ("catalog", "store_sales", "ad_products"), table="Budget products", numeric="spend",
-                            words=("keep",), current="spend", input_current="spend", notes=NOTES)
+                            words=("keep",), current="spend", input_current="spend", notes=NOTES,
+                            applied_within=SPEND_APPLIED_WITHIN)
 CAMPAIGN_EDITABLE_COLUMNS = editable(CAMPAIGN_DEFS, "Budget campaigns", SHEET, "sb_budget_campaigns", ("campaign",),
                                      "decision", ("campaigns",), numeric="budget", words=("keep",), current="budget",
                                      input_current="daily_budget")

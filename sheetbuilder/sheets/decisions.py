@@ -41,6 +41,10 @@ class EditableColumns:
         input_current: the input tables' column holding that value (summed over a key's rows).
         result: the formula column showing what the typed value decides ('' when none); named too, so
             ``changes`` can report a result typed over by hand.
+        applied_within: (share, currency units) when a typed number is an outcome the export can only come
+            near (a product's spend): next week's value within the larger of share x the typed number and
+            the units counts as applied. Empty: applied only when equal to the cent (a bid or budget is
+            typed into the ad console as it is).
         notes: the key of the table's Notes column (:func:`notes_column`, '' when none): the user's own text,
             carried by key with the columns the user adds to its right, never read as a Decision.
         all_headers: every column's header as built (a workbook built before Notes columns: what lies right of
@@ -66,6 +70,16 @@ class EditableColumns:
     input_current: str = ""
     result: str = "final"
     result_header: str = ""
+    applied_within: tuple[float, float] | tuple = ()
+
+    def applied(self, typed: Any, current: Any) -> bool:
+        """Whether this week's exported value shows a typed number applied (see applied_within)."""
+        if current is None or not is_number(typed) or not is_number(current):
+            return False
+        if not self.applied_within:
+            return round(float(typed) * 100) == round(float(current) * 100)
+        share, units = self.applied_within
+        return abs(float(current) - float(typed)) <= max(share * abs(float(typed)), units) + 1e-9
     notes: str = ""
     all_headers: tuple[str, ...] = ()
     same_figure: str = ""

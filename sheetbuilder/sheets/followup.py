@@ -21,6 +21,7 @@ from typing import Any
 
 import pandas as pd
 
+from sheetbuilder.reading.numbers import cents, cents_formula
 from sheetbuilder.reading.periods import Period
 from sheetbuilder.sheets.actions import ADDS
 from sheetbuilder.sheets.anchors import without_absent
@@ -214,11 +215,17 @@ def _now(key: str):
     return compute
 
 
-def _change(key: str):
+def _change(key: str, money: bool):
+    """Now minus then; a money change to the cent (an unchanged figure reads 0, never -5.7e-14)."""
     def compute(df: pd.DataFrame, ctx: Any) -> pd.Series:
-        return pd.Series([n - t if is_number(n) and is_number(t) else "" for t, n in zip(df[f"{key}_then"], df[f"{key}_now"])],
-                         index=df.index, dtype=object)
+        return pd.Series([(cents(n - t) if money else n - t) if is_number(n) and is_number(t) else ""
+                          for t, n in zip(df[f"{key}_then"], df[f"{key}_now"])], index=df.index, dtype=object)
     return compute
+
+
+def _change_formula(key: str, money: bool) -> str:
+    difference = "{c:%s_now}-{c:%s_then}" % (key, key)
+    return '=IF(OR({c:%s_then}="",{c:%s_now}=""),"",%s)' % (key, key, cents_formula(difference) if money else difference)
 
 
 def product_defs() -> list[ColumnDef]:
@@ -229,8 +236,9 @@ def product_defs() -> list[ColumnDef]:
         out += [_data(f"{key}_then", f"{header} then", style, f"{header} last period (last week's workbook)."),
                 ColumnDef(f"{key}_now", f"{header} now", style, f"{header} this period (Profit, live).", _now(key),
                           live % key),
-                ColumnDef(f"{key}_chg", f"{header} change", style, f"{header} now minus then.", _change(key),
-                          '=IF(OR({c:%s_then}="",{c:%s_now}=""),"",{c:%s_now}-{c:%s_then})' % ((key,) * 4))]
+                ColumnDef(f"{key}_chg", f"{header} change", style,
+                          f"{header} now minus then" + (", to the cent." if style == "money" else "."),
+                          _change(key, style == "money"), _change_formula(key, style == "money"))]
     for key, header in _PRODUCT_WORDS:
         out += [_data(f"{key}_then", f"{header} then", "label", f"{header} last period."),
                 ColumnDef(f"{key}_now", f"{header} now", "label", f"{header} this period (Profit, live).", _now(key),

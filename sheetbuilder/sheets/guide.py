@@ -10,6 +10,7 @@ from sheetbuilder.errors import Problem
 from sheetbuilder.workbook.palette import STATES
 from sheetbuilder.sheets.profit import CAUTION, warning_formula, warning_value
 from sheetbuilder.sheets.decisions import OWN_COLUMNS_CAP
+from sheetbuilder.sheets.settings_sheet import NOT_VALID_NAME
 from sheetbuilder.reading.settings import Settings
 from sheetbuilder.workbook.spec import INPUT, Cell, PageSetup, Sheet
 
@@ -24,7 +25,9 @@ EXPORT_LEGEND = ("Grey text: a figure copied from your exports (the row it came 
 
 SHEETS_TEXT = [
     ("Guide", "This page: how to use the workbook, what each column means, sources and cautions."),
-    ("Settings", "Thresholds and targets. Change a cream cell and every sheet updates."),
+    ("Settings", "Thresholds and targets. Change a cream cell and every sheet updates. A typed value the formulas "
+                 "cannot use (text pasted into a number, a value out of range) is flagged in its row's Check, and "
+                 "In use keeps the as-built value."),
     ("Profit", "Profit after advertising for every product: margin, TACoS, ACoS, net profit, status and "
                "a direction for its ad spend."),
     ("Bids", "A proposed bid for every enabled keyword and product target in an enabled campaign, largest "
@@ -84,8 +87,9 @@ FOLLOWUP_TEXT = [
 DECISIONS_TEXT = [
     "Words (keep, skip, promote, block, watch) are standing instructions: they are carried into every "
     "rebuild with --previous until you clear the cell.",
-    "A typed number (a bid, a spend, a budget) is a one-off: once a week's export shows it applied (the current "
-    "value equals it to the cent) it expires, the cell is left blank and Carried edits lists it as applied; "
+    "A typed number (a bid, a spend, a budget) is a one-off: once a week's export shows it applied (a bid or "
+    "budget equal to it to the cent; a product's spend within 5% of it or 1 currency unit, whichever is larger, "
+    "as spend never lands on the cent) it expires, the cell is left blank and Carried edits lists it as applied; "
     "until then it is carried and its note says so.",
     "A corrected cost on in_catalog, a changed setting and 'Your target ACoS' are carried until you type the "
     "export's (or settings.toml's) value back, or the export itself changes to your value.",
@@ -220,6 +224,14 @@ def _column_rows(title: str, defs: list[ColumnDef]) -> list[list[Cell | None]]:
     return rows + [[None]]
 
 
+# Lights up when a typed setting is not valid (the Settings sheet's count; the formulas use its as-built value).
+# The count itself is a key figure (SETTINGS_FIGURE): no & on a bare number (DEVELOPERS.md).
+SETTINGS_WARNING = ("A typed setting is not valid: its as-built value is in use instead (see the key figure below and "
+                    "the Check column on Settings).")
+SETTINGS_CHECK = f'=IF({NOT_VALID_NAME}=0,"","{SETTINGS_WARNING}")'
+SETTINGS_FIGURE = "Typed settings not valid (as-built value in use)"
+
+
 def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tuple[str, list[ColumnDef]]],
                warnings: list[Problem], checksums: dict[str, str], sources: dict[str, str],
                figures: list | None = None, looks: list | None = None,
@@ -242,6 +254,7 @@ def plan_guide(settings: Settings, built_on: dt.date, column_sections: list[tupl
               style="warning")],
         [Cell("Data freshness", style="subtitle"),
          Cell(warning_value(settings, built_on), warning_formula(), "alert")],
+        [Cell("Settings", style="subtitle"), Cell("", SETTINGS_CHECK, "alert")],
         [None],
         [Cell("Key figures", style="subtitle"), Cell("Live: they follow every change you make.", style="note")],
         *[[Cell(f.label), Cell(f.value, f.formula, f.style + "_left")] for f in (figures or [])],

@@ -24,13 +24,24 @@ HEADER_ROW = 3  # 0-based: title, note, blank, then the header
 NUMBERS = ("from", "to")
 
 
-def applied_rows(followup_rows: list[dict], week: dt.date) -> list[dict]:
-    """History rows for the follow-up rows found applied this week (from: last week's value, to: the planned)."""
+def week_of(period_end: dt.date | None, built_on: dt.date) -> str:
+    """The Week a build's History rows read: the end of the period its exports cover (ISO date), or, when
+    neither the exports' dates nor the settings give that end, the build date labelled as such."""
+    if period_end is not None:
+        return period_end.isoformat()
+    return f"built {built_on.isoformat()} (no dates in the exports)"
+
+
+def applied_rows(followup_rows: list[dict], week: str) -> list[dict]:
+    """History rows for the follow-up rows found applied this week (from: last week's value, to: the planned).
+
+    week is the text of the Week column (week_of).
+    """
     out = []
     for r in followup_rows:
         if r["applied"] != "yes":
             continue
-        out.append({"week": week.isoformat(), "kind": r["kind"], "campaign": r["campaign"],
+        out.append({"week": week, "kind": r["kind"], "campaign": r["campaign"],
                     "ad_group": r["ad_group"], "target": r["target"], "match_type": r["match_type"],
                     "from": None if r.get("was") is None or is_blank(r.get("was")) else float(r["was"]),
                     "to": None if r.get("planned") is None or is_blank(r.get("planned")) else float(r["planned"])})
@@ -43,7 +54,8 @@ def plan_history(rows: list[dict]) -> tuple[Sheet, list[tuple[str, str]]]:
                       key in NUMBERS else [r[key] for r in rows], width=width)
                for key, header, style, width in COLUMNS]
     above = [[Cell("History: every change found applied, week by week", style="title")],
-             [Cell("Week is the build that found the change applied in its exports; rows are carried into every "
+             [Cell("Week is the last day of the period whose exports showed the change applied (the build date, "
+                   "labelled, when the exports carry no dates); rows are carried into every "
                    "rebuild with --previous and never dropped. Filter by Target or term for a keyword's history.",
                    style="note")]]
     sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, columns), freeze=(HEADER_ROW + 1, 0),

@@ -29,7 +29,8 @@ from typing import Any, Iterable, Mapping, Sequence
 import pandas as pd
 
 from sheetbuilder.sheets.inputs import CATALOG_NAME, EDITABLE, EXPORTED
-from sheetbuilder.sheets.settings_sheet import AS_BUILT, HEADERS as SETTINGS_HEADERS, SHEET as SETTINGS_SHEET
+from sheetbuilder.sheets.settings_sheet import (AS_BUILT, SHEET as SETTINGS_SHEET, not_valid_text, typed_name,
+                                                typed_problem)
 from sheetbuilder.sheets.decisions import NO_SAVED_VALUE, NOTES_HEADER, OWN_COLUMNS_CAP
 from sheetbuilder.sheets.typed import (CARRIED_NAME, DECISION_SHEETS, EDITABLE_TABLES, PROFIT_TARGET, SCAN_ROWS,
                                        CarryRecord, CarryResult, EditSheet, OwnColumn, edit_sheet_of, key_text)
@@ -185,25 +186,28 @@ def _read_block(book: SavedBook, entry: EditSheet, sheet: str, by_name: bool = T
     return out
 
 
-AS_BUILT_COLUMN = SETTINGS_HEADERS.index(AS_BUILT)  # the Settings column keeping each value as built
-
-
-def _has_as_built(rows: list[list[Any]]) -> bool:
-    return any(len(r) > AS_BUILT_COLUMN and r[AS_BUILT_COLUMN] == AS_BUILT for r in rows[:SCAN_ROWS])
+def _as_built_column(rows: list[list[Any]]) -> int | None:
+    """The 0-based column of the Settings header reading As built (None in a workbook without one)."""
+    for r in rows[:SCAN_ROWS]:
+        if AS_BUILT in r:
+            return r.index(AS_BUILT)
+    return None
 
 
 def _settings_cells(book: SavedBook) -> dict[str, Any]:
-    """{key: value} of every live setting whose defined name points at a cell."""
+    """{key: value} of every live setting typed apart from its As built value, read from its typed Value
+    cell (its defined name; an older workbook's formulas read that cell under the setting's own name)."""
     out: dict[str, Any] = {}
     for spec in SETTINGS:
-        area = book.area(spec.key) if spec.live else None
+        area = (book.area(typed_name(spec.key)) or book.area(spec.key)) if spec.live else None
         if area is None:
             continue
         r, c = area.first_row, area.first_col
         rows = book.rows(area.sheet)
         value = rows[r][c] if r < len(rows) and c < len(rows[r]) else None
-        built = rows[r][AS_BUILT_COLUMN] if r < len(rows) and AS_BUILT_COLUMN < len(rows[r]) else None
-        if _has_as_built(rows) and same_value(value, built):
+        at = _as_built_column(rows)
+        built = rows[r][at] if at is not None and r < len(rows) and at < len(rows[r]) else None
+        if at is not None and same_value(value, built):
             continue  # not typed by the user: this week's settings.toml decides
         out[spec.key] = value
     return out
@@ -391,6 +395,11 @@ def _carry_settings(edits: Edits, settings: Settings, carried: list, unmatched: 
         if not spec.live or spec.key not in edits.settings:
             continue
         raw = edits.settings[spec.key]
+        why = typed_problem(spec, raw)  # the Settings sheet's own rule: its formulas used the as-built value
+        if why is not None:
+            unmatched.append(CarryRecord(SETTINGS_SHEET, spec.key, "Value", raw,
+                                         f"{not_valid_text(spec, raw, why)}; the as-built value was kept"))
+            continue
         if spec.kind == "date" and is_blank(raw):
             value = None
         else:
@@ -482,11 +491,6 @@ def _current_values(entry: EditSheet, tables, fold: bool) -> dict[tuple, float]:
     return {}
 
 
-def _applied(typed: Any, current: float | None) -> bool:
-    """Whether this week's export shows a typed number applied: the current value equals it to the cent."""
-    return current is not None and is_number(typed) and round(float(typed) * 100) == round(float(current) * 100)
-
-
 def _carry_decisions(edits: Edits, tables, fold: bool, carried: list, unmatched: list, applied: list) -> dict:
     out: dict[str, dict] = {}
     for entry in DECISION_SHEETS:
@@ -507,9 +511,11 @@ def _carry_decisions(edits: Edits, tables, fold: bool, carried: list, unmatched:
                 why = f"the new exports have no {' or '.join(entry.tables)} table"
             elif key not in existing:
                 why = f"no longer in the {' or '.join(entry.tables)} export"
-            elif is_number(value) and _applied(value, current.get(key)):
+            elif is_number(value) and entry.decl.applied(value, current.get(key)):
+                near = entry.decl.applied_within
                 applied.append(CarryRecord(entry.label, text, entry.value_header, value,
-                                           f"applied: this export's {entry.decl.numeric} is {shown(current[key])}",
+                                           f"applied: this export's {entry.decl.numeric} is {shown(current[key])}"
+                                           + (f", within {near[0]:.0%} or {near[1]:g} of it" if near else ""),
                                            current[key], compared=key))
                 continue
             else:

@@ -23,6 +23,7 @@ from sheetbuilder.sheets.decisions import NO_SAVED_VALUE
 from sheetbuilder.reading.guard import UnreadableWorkbook, UnsafeWorkbook, guard_saved_workbook
 from sheetbuilder.errors import WARNING, Problem, SheetbuilderError
 from sheetbuilder.sheets.inputs import sheet_name
+from sheetbuilder.sheets.settings_sheet import not_valid_text, setting_text, typed_name, typed_problem
 from sheetbuilder.reading.settings import SETTINGS, Settings, coerce_setting
 from sheetbuilder.sheets.history import (COLUMNS as HISTORY_COLUMNS, HEADER_ROW as HISTORY_HEADER_ROW,
                                          NAME as HISTORY_NAME, NUMBERS as HISTORY_NUMBERS, SHEET as HISTORY_SHEET)
@@ -288,7 +289,16 @@ def saved_settings(book: SavedBook):
     values: dict[str, Any] = {}
     problems: list = []
     for spec in SETTINGS:
-        raw = book.named_value(spec.key)
+        typed = spec.live and book.area(typed_name(spec.key)) is not None  # else an older layout
+        raw = book.named_value(typed_name(spec.key) if typed else spec.key)
+        if typed and (why := typed_problem(spec, raw)) is not None:
+            used = book.named_value(spec.key)  # the In use cell: the as-built value the formulas used
+            problems.append(Problem("Settings", None, spec.key, f"{not_valid_text(spec, raw, why)}; the workbook's "
+                                                                f"formulas use the as-built value "
+                                                                f"{setting_text(spec, used)}", WARNING))
+            raw = used
+        if raw == "" and spec.kind == "date":
+            raw = None
         if spec.kind == "bool" and isinstance(raw, str):
             raw = {"yes": True, "no": False}.get(raw.strip().lower(), raw)
         if raw is None and spec.kind == "date":
