@@ -385,6 +385,8 @@ def test_text_pasted_into_a_setting_costs_one_flag_not_errors(hands, work, actio
                  "was kept" for key in pasted} == listed
 
 
+@pytest.mark.libreoffice
+@pytest.mark.slow
 def test_saving_as_ods_keeps_changes_and_carries_every_typed_value(hands, work):
     from sheetbuilder.weekly.saved import SavedBook
     ods, xlsx = hands["saving_as_ods"], hands["typed_then_saved_as_xlsx"]
