@@ -140,6 +140,7 @@ def _only_bid_row(folder, tmp_path):
     return rows[key], {h: recalculated.get(("BIDS", c)) for h, c in coords[key].items()}
 
 
+@pytest.mark.slow  # moved out of the fast lane, which must stay under two minutes
 def test_worked_example_value_bid_is_target_times_cvr_times_order_value(tmp_path):
     # Varian (2007), value per click: CVR 10%, order value 25.00, target 30%, CPC = bid = 1.00 -> 0.75.
     folder = _tiny_account(tmp_path, "widget,exact,enabled,1.00,5000,100,100,250,10", "")
@@ -148,6 +149,7 @@ def test_worked_example_value_bid_is_target_times_cvr_times_order_value(tmp_path
     assert 0.75 == pytest.approx(recalculated["Value bid"], abs=1e-12)
 
 
+@pytest.mark.slow  # moved out of the fast lane, which must stay under two minutes
 def test_worked_example_bid_scales_by_target_over_acos(tmp_path):
     # With k = 0 (no smoothing), bid 1.20 at ACoS 40% and target 30% -> 1.20 x 0.30 / 0.40 = 0.90.
     folder = _tiny_account(tmp_path, "widget,exact,enabled,1.20,5000,50,50,125,5", "prior_clicks = 0\n")
@@ -183,6 +185,7 @@ def test_zero_order_threshold_matches_the_binomial(demo_build):
         assert stats.binom.pmf(0, n - 1, p) > 1 - s.zero_order_confidence
 
 
+@pytest.mark.slow  # moved out of the fast lane, which must stay under two minutes
 def test_zero_order_threshold_agrees_with_the_rule_of_three(tmp_path):
     # Hanley and Lippman-Hand (1983): at 95% confidence, n is about 3 / p; at p = 10%, about 30.
     folder = _tiny_account(tmp_path, "widget,exact,enabled,1.00,5000,40,30,0,0", "zero_order_confidence = 0.95\n")

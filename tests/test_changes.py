@@ -110,6 +110,7 @@ def test_inconsistent_changes_are_reported_with_their_row_and_not_written(tmp_pa
     assert not {"cheap kw", "no home", "lost"} & set(written)
 
 
+@pytest.mark.slow  # moved out of the fast lane, which must stay under two minutes
 def test_a_built_workbook_without_saved_values_gives_the_same_list_computed_from_its_inputs(tmp_path):
     """No formula engine: the list is computed from the in_ sheets, Settings and Decisions the file holds."""
     from conftest import BUILT_ON, DEMO
@@ -193,6 +194,7 @@ def test_cli_exit_codes(tmp_path, capsys):
     assert main(["changes", str(tmp_path / "missing.xlsx"), "-o", str(tmp_path / "d.csv")]) == 1
 
 
+@pytest.mark.slow  # moved out of the fast lane, which must stay under two minutes
 def test_cli_build_passes_previous_through(tmp_path):
     from conftest import DEMO
     old = tmp_path / "old.xlsx"

@@ -56,6 +56,7 @@ def canonical(tmp_path_factory) -> Path:
     return build(folder, root / "canonical.xlsx", built_on=BUILT_ON).output
 
 
+@pytest.mark.slow  # moved out of the fast lane, which must stay under two minutes
 def test_the_canonical_build_equals_the_reference_and_its_recalculation(canonical, tmp_path):
     """The workbook every shape is compared with, checked three ways (reference, cached, recalculated)."""
     folder = canonical.parent / "in"

@@ -237,6 +237,7 @@ def test_history_after_weeks_two_and_three_holds_exactly_the_applied_changes(sce
     assert _truth(applied2, week2) + _truth(applied3, week3) == _history(third.output)
 
 
+@pytest.mark.slow  # moved out of the fast lane, which must stay under two minutes
 def test_changes_include_unapplied_writes_last_weeks_unapplied_rows_this_week_does_not_change_again(scenario):
     work = scenario["work"]
     plain = export_changes(scenario["week2"].output, work / "changes2_plain.csv")
@@ -259,6 +260,7 @@ def test_periods_a_week_apart_are_both_stated_with_their_overlap(scenario):
     assert ws["A3"].value.startswith("The periods overlap by 23 days, so each comparison is diluted")
 
 
+@pytest.mark.slow  # moved out of the fast lane, which must stay under two minutes
 def test_a_previous_workbook_of_a_later_period_says_so_and_writes_no_follow_up(scenario):
     later = build(scenario["exports2"], scenario["work"] / "later.xlsx", built_on=BUILT_ON)
     out = build(DEMO, scenario["work"] / "earlier.xlsx", built_on=BUILT_ON, previous=later.output)

@@ -67,7 +67,6 @@ PROFIT_ROW_1 = {
     "Spend share": '=IF($E$8=0,"",E6/$E$8)',
     "Spend-to-sales ratio": '=IF(N6="","",IF(N6=0,"",IF(O6="","",O6/N6)))',
     # Days of cover (issue 25): units available / (units sold / period days), blank when the stock is unknown.
-    "Days of cover": '=IF(AL6="","",IF(C6=0,"no sales",AL6*period_days/C6))',
     # Ad spend with no sales is a loss (issue 9), and so is ad spend with no units available (issue 25); a product
     # with no ad spend reads "no ads"; no sales with spend is cut.
     "Status": '=IF(AND(E6>0,OR(D6=0,AND(AL6<>"",AL6=0))),"loss",IF(D6=0,"no sales",IF(I6="","no margin",'
@@ -87,9 +86,20 @@ PROFIT_ROW_1 = {
     "Product price": f'=IF(W6="",AE6,IF({_cat("C")}>0,{_cat("C")},AE6))',
     "Gross profit before ads": '=IF(I6="","",D6*I6)',
     "Revenue with a margin": '=IF(I6="",0,D6)',
-    "Low stock": '=IF(ISNUMBER(Q6),IF(Q6<min_days_of_cover,1,0),0)',
     "Catalog row now": f'=IF(W6="","",{AT_CATALOG})',
 }
+# With an inventory export (in_inventory rows 2-3: P1, P2), the stock columns are formulas: Days of cover (Q) from
+# Units available (AL, the block sum of the product's in_inventory rows AJ..AK) and Low stock from Days of cover.
+# Without one they are written as values (blank, blank, 0): no product can be low on stock.
+STOCK_ROW_1 = {
+    "Days of cover": '=IF(AL6="","",IF(C6=0,"no sales",AL6*period_days/C6))',
+    "Units available": '=IF(AJ6="","",SUM(INDEX(in_inventory!$B$2:$B$3,AJ6):INDEX(in_inventory!$B$2:$B$3,AK6)))',
+    "Low stock": '=IF(ISNUMBER(Q6),IF(Q6<min_days_of_cover,1,0),0)',
+}
+INVENTORY = """product_id,units_available
+P1,40
+P2,3
+"""
 # Profit's totals row 8: {header: formula} of every column with a formula total.
 PROFIT_TOTALS = {
     "Units": "=SUM(C6:C7)", "Revenue": "=SUM(D6:D7)", "Ad spend": "=SUM(E6:E7)", "Ad sales": "=SUM(F6:F7)",
@@ -131,9 +141,19 @@ def test_profit_columns_write_the_documented_formula_in_their_first_row(two_prod
 
 def test_profit_value_columns_hold_no_formula(two_products):
     table = two_products.spec.sheet("Profit").table
-    assert ["Product ID", "Product name", "Your target ACoS", "Catalog row", "Sales first row", "Sales last row",
-            "Ad first row", "Ad last row", "Position", "Stock first row", "Stock last row", "Units available", "Notes"] == [
-        c.header for c in table.columns if c.formula is None]
+    assert ["Product ID", "Product name", "Days of cover", "Your target ACoS", "Catalog row", "Sales first row",
+            "Sales last row", "Ad first row", "Ad last row", "Position", "Stock first row", "Stock last row",
+            "Units available", "Low stock", "Notes"] == [c.header for c in table.columns if c.formula is None]
+
+
+def test_with_an_inventory_export_the_stock_columns_write_the_documented_formulas(tmp_path):
+    for name, text in (("catalog.csv", CATALOG), ("store_sales.csv", STORE_SALES),
+                       ("ad_products.csv", AD_PRODUCTS), ("inventory.csv", INVENTORY)):
+        (tmp_path / name).write_text(text, encoding="utf-8")
+    inputs, settings, _ = load(tmp_path)
+    table = plan_workbook(inputs, settings, dt.date(2026, 12, 2)).spec.sheet("Profit").table
+    written = {c.header: _row_1(c) for c in table.columns if c.header in STOCK_ROW_1}
+    assert STOCK_ROW_1 == written
 
 
 def test_profit_totals_row_writes_the_documented_formulas(two_products):

@@ -481,6 +481,7 @@ def test_running_out_of_memory_while_reading_says_so(tmp_path, monkeypatch):
 
 @hsettings(max_examples=int(os.environ.get("SAVED_FUZZ_EXAMPLES", "12")), deadline=None, database=None,
            suppress_health_check=list(HealthCheck))
+@pytest.mark.slow  # moved out of the fast lane, which must stay under two minutes
 @given(damaged_workbooks())
 def test_a_damaged_saved_workbook_is_exported_carried_or_refused_never_a_crash(data):
     assert check_saved_case(data) in {f"{a}/{b}" for a in ("written", "refused") for b in ("written", "refused")}

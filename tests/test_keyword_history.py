@@ -219,6 +219,7 @@ def test_a_past_export_stating_no_period_is_refused_by_name(tmp_path):
 
 @pytest.mark.parametrize("cell, text", [("Clicks by week", "3; x"), ("Periods", "2026-11-02 to 2026-11-08; soon"),
                                         ("Spend by week", "1.11")])
+@pytest.mark.slow  # moved out of the fast lane, which must stay under two minutes
 def test_a_keyword_history_the_build_cannot_read_stops_the_build_naming_its_row_and_column(tmp_path, cell, text):
     build(_week_folder(tmp_path, "w1", _week_rows(1), dt.date(2026, 11, 8)), tmp_path / "w1.xlsx", built_on=BUILT_ON)
     build(_week_folder(tmp_path, "w2", _week_rows(2), dt.date(2026, 11, 15)), tmp_path / "w2.xlsx",

@@ -262,6 +262,7 @@ def test_measures_of_a_run_follow_their_definitions(small_runs):
     assert in_band(market, market.start_bid) == found["in_band"]
 
 
+@pytest.mark.slow  # moved out of the fast lane, which must stay under two minutes
 def test_the_method_with_its_own_default_spelled_out_differs_by_nothing():
     lines = confirm("max_bid_raise", Settings().max_bid_raise, range(1, 2), 2)
     rows = [line for line in lines if line.startswith("| ") and "---" not in line][1:]

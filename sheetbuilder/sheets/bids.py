@@ -27,7 +27,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from sheetbuilder.sheets.blends import attach_groups, blends_row_column, fetch
+from sheetbuilder.sheets.blends import attach_groups, blends_row_column, fetch, stock_as_values
 from sheetbuilder.sheets.decisions import NOTES, apply_decision, decision_formula, decision_validation, editable, notes_column
 from sheetbuilder.sheets.lists import running_key
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, blank_div, exports_only, plan_table
@@ -274,7 +274,7 @@ def plan_bids(targets: InputSheet, campaigns: pd.DataFrame | None, groups: Plann
         base["decision"] = decide("Bids", list(zip(base["campaign"], base["ad_group"], base["target"],
                                                    base["match_type"])))
     ctx = BidsContext(settings, blends.frame)
-    planned = plan_table(DEFS, base, ctx, HEADER_ROW + 1, ranges, with_totals=False)
+    planned = plan_table(stock_as_values(DEFS, {"p_low"}, ranges), base, ctx, HEADER_ROW + 1, ranges, with_totals=False)
     keys = [d.key for d in DEFS]
     n = len(base)
     decision_col = keys.index("decision")

@@ -16,7 +16,7 @@ the account's values stand in.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any, Callable
 
 import numpy as np
@@ -183,3 +183,18 @@ def zero_order_column() -> ColumnDef:
                      "Working: clicks after which zero orders are unlikely at the product's CVR.",
                      compute, '=IF(OR({c:p_cvr}<=0,{c:p_cvr}>=1),"",'
                               'ROUNDUP(LN(1-zero_order_confidence)/LN(1-{c:p_cvr}),0))', width=9, hidden=True)
+
+
+STOCK_RANGE = "inventory.units_available"  # the units on in_inventory: provided only with an inventory export
+
+
+def stock_as_values(defs: list[ColumnDef], keys: set[str], ranges) -> list[ColumnDef]:
+    """defs, with the stock columns named by keys written as values when the build has no inventory export.
+
+    Without one (ranges lack STOCK_RANGE) no product is low on stock and no cell can make one so:
+    the columns' formulas would give the same value on every row, so they are written as those
+    values and cost no recalculation (a 10k-keyword account keeps its formula count).
+    """
+    if STOCK_RANGE in ranges:
+        return list(defs)
+    return [replace(d, formula=None, kind=DATA) if d.key in keys else d for d in defs]

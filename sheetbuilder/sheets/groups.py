@@ -14,7 +14,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from sheetbuilder.sheets.blends import BLEND_TITLE, BlendContext, blend_columns, blend_frame
+from sheetbuilder.sheets.blends import BLEND_TITLE, BlendContext, blend_columns, blend_frame, stock_as_values
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, plan_table
 from sheetbuilder.workbook.formula import block_sum, keyed_row
 from sheetbuilder.sheets.inputs import InputSheet
@@ -118,11 +118,12 @@ def plan_groups(ad_layout: InputSheet | None, profit: PlannedTable, ranges: dict
                 ) -> tuple[Sheet, PlannedTable, PlannedTable]:
     """The Groups sheet, its reference frame, and its ad-group blends table (below it) that Bids and Terms read."""
     base = group_frame(ad_layout, profit.frame)
-    planned = plan_table(DEFS, base, GroupsContext(profit.frame), HEADER_ROW + 1, ranges, with_totals=False)
+    planned = plan_table(stock_as_values(DEFS, {"low"}, ranges), base, GroupsContext(profit.frame), HEADER_ROW + 1,
+                         ranges, with_totals=False)
     blend_first = HEADER_ROW + max(len(base), 1) + 3  # a blank row and the title between the two tables
     ctx = BlendContext(planned.frame, settings, float(profit.totals_values["prod_cvr"]),
                        float(profit.totals_values["prod_aov"]))
-    blends = plan_table(BLEND_DEFS, blend_frame(planned.frame), ctx, blend_first + 1,
+    blends = plan_table(stock_as_values(BLEND_DEFS, {"p_low"}, ranges), blend_frame(planned.frame), ctx, blend_first + 1,
                         {**ranges, **planned.ranges(SHEET, "groups")}, with_totals=False)
     above = [[Cell("Ad groups and the products they advertise", style="title")],
              [Cell("A target in an ad group with several products uses their blend, weighted by ad spend "

@@ -13,13 +13,14 @@ SUM(INDEX(..):INDEX(..)), so the sheet's cost grows with rows, not rows x produc
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
 from sheetbuilder.sheets.decisions import NOTES, editable, notes_column
+from sheetbuilder.sheets.blends import stock_as_values
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, blank_div, plan_table
 from sheetbuilder.workbook.formula import block_sum, keyed_row
 from sheetbuilder.sheets.inputs import InputSheet
@@ -322,7 +323,7 @@ DEFS: list[ColumnDef] = [
               width=8, hidden=True),
     notes_column(),  # the user's notes at the right end
 ]
-STOCK = ("stock",)  # without an inventory export these are written blank: no in_inventory range to read
+STOCK = ("stock", "cover", "low")  # without an inventory export written as values (blank, blank, 0): see stock_as_values
 
 # What a user types on Profit (a product's own target ACoS) and the key that finds its row again.
 EDITABLE_COLUMNS = editable(DEFS, "Profit", SHEET, "sb_profit", ("product_id",), "target_override",
@@ -402,8 +403,7 @@ def plan_profit(inputs: Inputs, layouts: dict[str, InputSheet], settings: Settin
     catalog = layouts["catalog"].frame if "catalog" in layouts else None
     ctx = ProfitContext(settings, catalog)
     ranges = {f"{t}.{col}": r for t, layout in layouts.items() for col, r in layout.ranges.items()}
-    defs = DEFS if "inventory.units_available" in ranges else [
-        replace(d, formula=None, kind=DATA) if d.key in STOCK else d for d in DEFS]
+    defs = stock_as_values(DEFS, set(STOCK), ranges)
     planned = plan_table(defs, base, ctx, HEADER_ROW + 1, ranges, with_totals=True)
     for key, compute in _LATE_TOTALS.items():
         i = [d.key for d in DEFS].index(key)

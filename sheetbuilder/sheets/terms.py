@@ -33,7 +33,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from sheetbuilder.sheets.blends import attach_groups, blends_row_column, fetch
+from sheetbuilder.sheets.blends import attach_groups, blends_row_column, fetch, stock_as_values
 from sheetbuilder.sheets.decisions import (NOTES, apply_word_decision, decision_validation, editable, notes_column,
                                           word_decision_formula)
 from sheetbuilder.sheets.lists import running_key
@@ -519,7 +519,8 @@ def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, t
     base["tkey"] = base["tkey_t"].map(lambda k: keys.ids.get(k, np.nan) if k else np.nan)
     base["nkey"] = base["nkey_t"].map(lambda k: keys.ids.get(k, np.nan))
     ctx = TermsContext(settings, blends.frame, keys.found, pairs)
-    planned = plan_table(DEFS, base, ctx, HEADER_ROW + 1, {**ranges, **key_ranges}, with_totals=False)
+    planned = plan_table(stock_as_values(DEFS, {"p_low"}, ranges), base, ctx, HEADER_ROW + 1, {**ranges, **key_ranges},
+                         with_totals=False)
     for key, compute in LIST_WORKING:  # computed live on the list rows that show them, not on every term
         planned.frame[key] = compute(planned.frame, ctx)
     clashes = plan_table(CLASH_DEFS, pairs, ClashContext(planned.frame, settings), clash_first + 1,
