@@ -41,7 +41,8 @@ def test_the_build_writes_a_row_to_fill_on_in_catalog_for_a_product_the_catalog_
     assert row["unit_cost"].protection.locked is False  # an input cell, typed by the user
     cost_column = row["unit_cost"].column_letter
     rules = [(str(cf.sqref), r.formula) for cf in ws.conditional_formatting for r in cf.rules]
-    assert [(f"{cost_column}2:{cost_column}{ws.max_row}", ['""'])] == rules  # a blank unit cost is highlighted
+    last = max(r for r in range(1, ws.max_row + 1) if ws.cell(r, 1).value not in (None, ""))  # the open rows below
+    assert [(f"{cost_column}2:{cost_column}{last}", ['""'])] == rules  # a blank unit cost is highlighted
 
 
 @pytest.mark.slow  # builds the demo twice
@@ -58,11 +59,11 @@ def test_a_cost_typed_on_the_added_row_is_carried_next_week_and_gives_the_produc
     assert (20.0 - 8.0 - 2.0) / 20.0 == _profit_row(second.output, MISSING)["Margin before ads"]
 
 
-@pytest.mark.slow  # builds the demo twice
-def test_a_row_the_user_adds_below_in_catalog_is_read_by_changes_and_by_previous(work):
+@pytest.mark.slow  # builds the demo three times
+def test_a_row_the_user_adds_below_in_catalog_is_read_by_changes_and_kept_on_next_weeks_catalog(work):
     first = build(DEMO, work / "below_first.xlsx", built_on=BUILT_ON)
     ws = openpyxl.load_workbook(first.output)["in_catalog"]
-    below = ws.max_row + 1
+    below = max(r for r in range(1, ws.max_row + 1) if ws.cell(r, 1).value not in (None, "")) + 1
     header = [c.value for c in ws[1]]
     typed = {"product_id": "LF-2001", "product_name": "Added by hand", "price": 30.0, "unit_cost": 12.0,
              "fees_per_unit": 3.0}
@@ -72,11 +73,18 @@ def test_a_row_the_user_adds_below_in_catalog_is_read_by_changes_and_by_previous
     result = export_changes(edited, work / "below_changes.csv")  # was: "not a workbook that can be read (TypeError)"
     assert result.written > 0
     second = build(DEMO, work / "below_second.xlsx", built_on=BUILT_ON, previous=edited)
-    unmatched = openpyxl.load_workbook(second.output)["Unmatched edits"]
-    rows = [r for r in unmatched.iter_rows(values_only=True) if r[1] == "LF-2001"]
-    # The exports do not name LF-2001, so its typed cells are listed, never dropped without a word.
-    assert 1 == len(rows) and "unit_cost 12" in rows[0][3]
-
+    # The exports do not name LF-2001: its row stays on in_catalog with its name and typed cells, listed on
+    # Carried edits (never dropped, so the cost is there the week it starts to sell) ...
+    kept = _catalog_row(openpyxl.load_workbook(second.output)["in_catalog"], "LF-2001")
+    assert ["Added by hand", 30.0, 12.0, 3.0] == [kept[k].value for k in ("product_name", "price", "unit_cost",
+                                                                           "fees_per_unit")]
+    assert {"price", "unit_cost", "fees_per_unit"} == {r.column for r in second.carry.carried if r.key == "LF-2001"}
+    assert [] == [r for r in second.carry.unmatched if r.key == "LF-2001"]
+    # ... and again the week after, from the workbook that carried it.
+    third = build(DEMO, work / "below_third.xlsx", built_on=BUILT_ON, previous=second.output)
+    again = _catalog_row(openpyxl.load_workbook(third.output)["in_catalog"], "LF-2001")
+    assert ["Added by hand", 30.0, 12.0, 3.0] == [again[k].value for k in ("product_name", "price", "unit_cost",
+                                                                            "fees_per_unit")]
 
 
 def test_a_unit_cost_cleared_by_hand_is_carried_as_missing_not_as_zero(tmp_path):

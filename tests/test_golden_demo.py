@@ -51,6 +51,7 @@ def test_the_demo_workbook_equals_the_saved_sample_after_normalisation(demo_snap
         pytest.fail(report(diffs), pytrace=False)
 
 
+@pytest.mark.slow  # moved out of the fast lane, which must stay under two minutes
 def test_a_build_on_another_date_and_version_differs_only_in_what_the_normalisation_replaces(
         demo_raw, demo_snapshot, tmp_path, monkeypatch):
     import sheetbuilder.sheets.guide as plan_guide

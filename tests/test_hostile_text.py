@@ -159,7 +159,8 @@ def cells_by_source_row(ws) -> dict[tuple[int, str], object]:
     header = [c.value for c in rows[0]]
     source = header.index("source_row")
     wanted = [h for h in header if h in TEXT_COLUMNS[ws.title]]
-    return {(int(r[source].value), h): r[header.index(h)] for r in rows[1:] for h in wanted}
+    return {(int(r[source].value), h): r[header.index(h)] for r in rows[1:] for h in wanted
+            if r[source].value is not None}  # not the open rows below in_catalog's table
 
 
 def located(expected: dict, wb) -> list[tuple[str, str, str]]:

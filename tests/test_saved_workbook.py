@@ -40,6 +40,7 @@ def opened(monkeypatch) -> dict[str, list[str]]:
     return calls
 
 
+@pytest.mark.slow  # moved out of the fast lane, which must stay under two minutes
 def test_build_with_previous_and_changes_each_open_the_saved_workbook_once(demo_build, tmp_path, opened):
     week1 = demo_build.output  # the demo, built from exports: no workbook opened
     opened["opener"].clear()

@@ -609,3 +609,33 @@ def test_a_number_typed_over_a_formula_is_reported_with_where_to_type(hands, wor
     built = _next_week(hands, work, "number_over_target_acos")
     assert {product: TAB_TARGET} == built.carry.targets
     assert [result.overwritten[0].message] == [w.message for w in built.warnings if w.file == "Profit"]
+
+
+# ---- a product typed on a row below in_catalog's table (issue 21) ---------------------------------------------------
+
+BELOW = {"product_id": "LF-2001", "product_name": "Added by hand", "price": 30.0, "unit_cost": 12.0,
+         "fees_per_unit": 3.0}  # a product no export names yet: its costs typed before it sells
+
+
+def _row_below_steps(catalog) -> list[dict]:
+    """Typing BELOW into the first row under in_catalog's table (left unlocked for rows a user adds)."""
+    header = [c.value for c in catalog[1]]
+    below = max(r for r in range(1, catalog.max_row + 1) if catalog.cell(r, 1).value not in (None, "")) + 1
+    return [{"op": "set", "sheet": "in_catalog", "cell": f"{catalog.cell(1, header.index(k) + 1).column_letter}{below}",
+             "value": v} for k, v in BELOW.items()]
+
+
+@pytest.mark.libreoffice
+@pytest.mark.slow
+def test_a_product_typed_on_a_row_below_in_catalog_is_kept_next_week(hands, work):
+    # LibreOffice lets a person type there (the sheet stays protected; those rows are unlocked) ...
+    assert "product_row_added_below" in hands
+    _changes_equal_the_actions_sheet(hands, work, "product_row_added_below")
+    # ... and next week's build keeps the row, its name and every typed cell, listed on Carried edits.
+    built = _next_week(hands, work, "product_row_added_below")
+    ws = openpyxl.load_workbook(built.output)["in_catalog"]
+    header = [c.value for c in ws[1]]
+    kept = [dict(zip(header, r)) for r in ws.iter_rows(min_row=2, values_only=True) if r[0] == BELOW["product_id"]]
+    assert [BELOW] == [{k: row[k] for k in BELOW} for row in kept]
+    assert {"price", "unit_cost", "fees_per_unit"} == {r.column for r in built.carry.carried
+                                                       if r.key == BELOW["product_id"]}

@@ -124,7 +124,8 @@ STEPS = [
     "rows cannot be deleted anywhere: to leave a row out, type keep (Bids) or skip (Terms) in its Decision. "
     "Sort the columns you added right of Notes with the table (select them too), so they stay with their rows.",
     "New products: a product your exports name but your catalog lacks has a row on in_catalog with its unit cost "
-    "highlighted; type its price, unit cost and fees there and Profit follows.",
+    "highlighted; type its price, unit cost and fees there and Profit follows. A product no export names yet can "
+    "be typed on a row just below in_catalog's table: it is kept week after week until it sells.",
 ]
 
 BID_METHOD = [

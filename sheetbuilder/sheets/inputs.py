@@ -21,6 +21,7 @@ CATALOG_NAME = "sb_catalog"  # defined names <this>_<column> over product_id, ea
 EXPORTED = "exported_"  # prefix of the hidden columns holding an editable column as exported
 EDITABLE = {"catalog": {"price", "unit_cost", "fees_per_unit", "target_acos", "margin"},
             "inventory": {"units_available"}}  # a what-if for this week: next week's export replaces it, not carried
+OPEN_CATALOG_ROWS = 200  # unlocked rows below in_catalog's table: products a user adds (kept week after week)
 CARRIED = ("catalog",)  # the tables whose edits are carried by --previous (their exported_ twins tell edits apart)
 SORT_KEYS = {
     "catalog": ["product_id"],
@@ -164,6 +165,9 @@ def plan_input_sheets(inputs: Inputs, fold_plurals: bool = False,
             source = frame
             if exported and exported.get(rule.name) is not None:
                 source = sorted_rows(rule.name, exported[rule.name])
+                if len(source) != len(frame):  # rows kept from last week that the export lacks: nothing exported
+                    by_id = source.drop_duplicates("product_id").set_index("product_id")
+                    source = pd.DataFrame({c: frame["product_id"].map(by_id[c]).tolist() for c in editable})
             for col in rule.columns:
                 if col.name in editable:
                     ranges[EXPORTED + col.name] = range_ref(name, len(columns), HEADER_ROW + 1, HEADER_ROW + len(frame))
@@ -176,7 +180,8 @@ def plan_input_sheets(inputs: Inputs, fold_plurals: bool = False,
         columns.append(Column("source_row", "int", DATA, frame["_row"].tolist(), width=10))
         highlights = [Highlight(i, "", TO_FILL) for i, col in enumerate(columns) if col.header == "unit_cost"]
         sheets.append(Sheet(name, table=Table(HEADER_ROW, columns, highlights=highlights), freeze=(1, 0),
-                            tab_color="#8C8C8C", sortable=rule.name == "catalog"))  # Profit finds each catalog row by source_row
+                            tab_color="#8C8C8C", sortable=rule.name == "catalog",  # Profit finds each row by key
+                            open_rows=OPEN_CATALOG_ROWS if rule.name == "catalog" else 0))
         layouts[rule.name] = InputSheet(rule.name, name, frame, ranges)
     return sheets, layouts
 

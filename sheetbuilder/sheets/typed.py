@@ -146,6 +146,8 @@ class CarryResult:
             the form a cell stores), not from exports.
         notes: {label: {compared key: value}} of the Notes typed last week whose row still exists.
         own_columns: {label: [OwnColumn]} the columns a user added right of a table's Notes, values by key.
+        catalog_rows: {product_id: name} of the rows a user added on in_catalog that this week's catalog
+            lacks: kept on in_catalog as rows of their own (their typed cells are in catalog).
     """
 
     settings: Settings
@@ -162,6 +164,7 @@ class CarryResult:
     inputs_as_saved: bool = False
     notes: dict = field(default_factory=dict)
     own_columns: dict = field(default_factory=dict)
+    catalog_rows: dict = field(default_factory=dict)
 
 
 def entry_for(sheet: str) -> EditSheet:

@@ -89,6 +89,7 @@ class Edits:
         source: the workbook read.
         settings: {setting key: cell value} for every live setting found by its defined name.
         catalog: {(product_id, column): cell value} for every in_catalog input cell (blank as None).
+        catalog_names: {product_id: product name} of every in_catalog row (a row the user added keeps its name).
         targets: {product_id: value} for every non-blank Profit "Your target ACoS".
         decisions: {label: {raw key tuple: value}} for every non-blank typed cell, per
             :data:`DECISION_SHEETS` entry.
@@ -100,6 +101,8 @@ class Edits:
         own: {label: [OwnColumn]} the columns a user added right of a table's Notes (values by raw key).
         own_refused: CarryRecords of own columns that cannot be carried (no header, beyond the cap).
         copied: the copies of our sheets whose typed cells differ from the original's (never read as edits).
+        catalog_names: {product_id: product name} of the in_catalog rows no export filled (added below the
+            table by the user, or by the build for the user to fill): kept next week even if no export names them.
     """
 
     source: str
@@ -114,6 +117,7 @@ class Edits:
     own: dict[str, list[OwnColumn]] = field(default_factory=dict)
     own_refused: list[CarryRecord] = field(default_factory=list)
     copied: list[Copied] = field(default_factory=list)
+    catalog_names: dict[str, Any] = field(default_factory=dict)
 
 
 # ---------------------------------------------------------------------------------------------- reading
@@ -213,14 +217,20 @@ def _settings_cells(book: SavedBook) -> dict[str, Any]:
     return out
 
 
-def _catalog_cells(book: SavedBook, sheet: str, by_name: bool = True) -> dict[tuple[str, str], Any]:
+def _catalog_cells(book: SavedBook, sheet: str, by_name: bool = True, names: dict | None = None
+                   ) -> dict[tuple[str, str], Any]:
     """{(product_id, column): value} of every in_catalog input cell that differs from its exported_ twin
-    (found by its defined names, else on sheet by its header; only by header when not by_name: a copy)."""
+    (found by its defined names, else on sheet by its header; only by header when not by_name: a copy);
+    names, when given, gets {product_id: product name} of every row no export filled (its exported_ twins
+    all blank: a row the user added below the table, or one the build added for the user to fill)."""
     wanted = ("product_id", *CATALOG_COLUMNS, *(EXPORTED + c for c in CATALOG_COLUMNS))
     areas = named_columns(book, {c: f"{CATALOG_NAME}_{c}" for c in wanted}) if by_name else None
     if areas is not None:
         area = areas["product_id"]
         cols = {k: a.first_col for k, a in areas.items()}
+        header = [key_text(v) for v in (book.head(area.sheet, area.first_row)[-1:] or [[]])[0]]
+        if "product_name" in header:  # no defined name: found by its header, beside the named columns
+            cols["product_name"] = header.index("product_name")
         body = book.rows(area.sheet, frozenset(cols.values()))[area.first_row:]  # and rows the user added below
     else:  # no names: by header text; an older layout without exported_ columns compares with the export
         rows = book.rows(sheet)
@@ -228,7 +238,7 @@ def _catalog_cells(book: SavedBook, sheet: str, by_name: bool = True) -> dict[tu
         if at is None:
             return {}
         texts = [key_text(v) for v in rows[at]]
-        cols = {c: texts.index(c) for c in wanted if c in texts}
+        cols = {c: texts.index(c) for c in (*wanted, "product_name") if c in texts}
         body = rows[at + 1:]
     out: dict[tuple[str, str], Any] = {}
     for row in body:
@@ -237,6 +247,9 @@ def _catalog_cells(book: SavedBook, sheet: str, by_name: bool = True) -> dict[tu
             if areas is None:
                 break
             continue
+        twins = [cols[EXPORTED + c] for c in CATALOG_COLUMNS if EXPORTED + c in cols]
+        if names is not None and twins and all(is_blank(_cell(row, t)) for t in twins):  # not from an export
+            names[key_text(pid)] = _cell(row, cols["product_name"]) if "product_name" in cols else None
         for column in CATALOG_COLUMNS:
             if column not in cols:
                 continue
@@ -272,7 +285,8 @@ def edits_in(book: SavedBook) -> Edits:
     """Everything a user typed in an opened saved workbook (see :func:`read_edits`)."""
     settings = _settings_cells(book)
     catalog_sheet = book.sheet(CATALOG_SHEET) or CATALOG_SHEET
-    catalog = _catalog_cells(book, catalog_sheet)
+    catalog_names: dict[str, Any] = {}
+    catalog = _catalog_cells(book, catalog_sheet, names=catalog_names)
     copied = _copied(book, CATALOG_SHEET, "costs and prices", catalog,
                      lambda copy: _catalog_cells(book, copy, by_name=False))
     lost: list[tuple[str, str]] = []
@@ -298,7 +312,8 @@ def edits_in(book: SavedBook) -> Edits:
     built = book.named_value("built_on")
     notes, own, own_refused = notes_in(book)
     return Edits(str(book.path), settings, catalog, targets, decisions, lost, _first_typed(book),
-                 built.date() if isinstance(built, dt.datetime) else built, notes, own, own_refused, copied)
+                 built.date() if isinstance(built, dt.datetime) else built, notes, own, own_refused, copied,
+                 catalog_names=catalog_names)
 
 
 def _copied(book: SavedBook, built: str, what: str, original: Mapping, read: Callable[[str], Mapping]) -> list[Copied]:
@@ -424,37 +439,69 @@ def _carry_settings(edits: Edits, settings: Settings, carried: list, unmatched: 
     return settings.replace(**values), changed
 
 
-def _carry_catalog(edits: Edits, tables, carried: list, unmatched: list) -> dict:
+def _carry_catalog(edits: Edits, tables, carried: list, unmatched: list) -> tuple[dict, dict]:
+    """({(product_id, column): value} carried onto this week's catalog rows, {product_id: name} of the rows
+    kept on in_catalog although this week's catalog lacks them).
+
+    A row no export filled (edits.catalog_names: added below the table by the user, or by the build for
+    the user to fill) whose product this week's catalog (the export, plus the rows the build adds for
+    products the exports name) does not hold keeps its typed cells and name on in_catalog as a row of
+    its own, listed on Carried edits, so a cost typed for a product that sells later is never lost; a
+    row whose typed cells are all blank is not kept. A product the catalog export held last week and
+    no longer does is listed on Unmatched edits with its cells (the product has left the catalog).
+    """
     frame = tables.get("catalog")
     if frame is None:
         frame = pd.DataFrame(columns=["product_id"])
     by_id = {key_text(p): i for i, p in enumerate(frame["product_id"])}
     out: dict[tuple[str, str], Any] = {}
-    gone: dict[str, list[str]] = {}
+    kept: dict[str, dict[str, Any]] = {}
+    gone: dict[str, dict[str, Any]] = {}
     for (pid, column), value in edits.catalog.items():
         if pid not in by_id:
             if not is_blank(value):
-                gone.setdefault(pid, []).append(f"{column} {shown(value)}")
+                (kept.setdefault(pid, {}) if pid in edits.catalog_names else gone.setdefault(pid, {}))[column] = value
             continue
         new = frame[column].iloc[by_id[pid]] if column in frame.columns else None
         if is_blank(value) and column in MONEY_COLUMNS:
             value = 0.0
         if same_value(value, new):
             continue
-        if not is_blank(value) and not is_number(value):
-            unmatched.append(CarryRecord(CATALOG_SHEET, pid, column, value, "not a number"))
-            continue
-        if is_number(value) and value < 0 and column != "margin":
-            unmatched.append(CarryRecord(CATALOG_SHEET, pid, column, value, "negative; only a margin may be"))
+        if _catalog_refused(pid, column, value, unmatched):
             continue
         value = None if is_blank(value) else float(value)
         out[(pid, column)] = value
         carried.append(CarryRecord(CATALOG_SHEET, pid, column, value,
                                    f"differs from this export's {shown(new)}", exported=new))
+    rows: dict[str, Any] = {}
+    if tables.get("catalog") is None:  # no catalog this week: nothing to keep the rows on
+        gone.update(kept)
+        kept = {}
     for pid, cells in gone.items():  # one record per product: the old cells cannot tell typed from exported
-        unmatched.append(CarryRecord(CATALOG_SHEET, pid, "catalog inputs", "; ".join(cells),
-                                     "the product is no longer in the catalog"))
-    return out
+        unmatched.append(CarryRecord(CATALOG_SHEET, pid, "catalog inputs", "; ".join(
+            f"{c} {shown(v)}" for c, v in cells.items()), "the product is no longer in the catalog"))
+    for pid, cells in kept.items():
+        good = {c: float(v) for c, v in cells.items() if not _catalog_refused(pid, c, v, unmatched)}
+        if not good:
+            continue
+        rows[pid] = edits.catalog_names.get(pid, "")
+        for column, value in good.items():
+            out[(pid, column)] = value
+            carried.append(CarryRecord(CATALOG_SHEET, pid, column, value,
+                                       "a row you added on in_catalog (this week's catalog lacks the product): "
+                                       "kept as its own row"))
+    return out, rows
+
+
+def _catalog_refused(pid: str, column: str, value: Any, unmatched: list) -> bool:
+    """Whether a typed catalog value cannot be carried (listed on unmatched with why)."""
+    if not is_blank(value) and not is_number(value):
+        unmatched.append(CarryRecord(CATALOG_SHEET, pid, column, value, "not a number"))
+        return True
+    if is_number(value) and value < 0 and column != "margin":
+        unmatched.append(CarryRecord(CATALOG_SHEET, pid, column, value, "negative; only a margin may be"))
+        return True
+    return False
 
 
 def _carry_targets(edits: Edits, tables, fold: bool, carried: list, unmatched: list) -> dict:
@@ -547,7 +594,7 @@ def apply_edits(edits: Edits, inputs_tables: Any, settings: Settings) -> CarryRe
     unmatched: list[CarryRecord] = []
     new_settings, changed = _carry_settings(edits, settings, carried, unmatched)
     fold = new_settings.fold_plurals
-    catalog = _carry_catalog(edits, tables, carried, unmatched)
+    catalog, catalog_rows = _carry_catalog(edits, tables, carried, unmatched)
     targets = _carry_targets(edits, tables, fold, carried, unmatched)
     applied: list[CarryRecord] = []
     decisions = _carry_decisions(edits, tables, fold, carried, unmatched, applied)
@@ -562,7 +609,8 @@ def apply_edits(edits: Edits, inputs_tables: Any, settings: Settings) -> CarryRe
         return [replace(r, first_typed=edits.first_typed.get((r.sheet, r.key, r.column), edits.built_on))
                 for r in records]
     return CarryResult(new_settings, changed, catalog, targets, decisions, dated(carried), unmatched, settings,
-                       source=edits.source, applied=dated(applied), notes=notes, own_columns=own)
+                       source=edits.source, applied=dated(applied), notes=notes, own_columns=own,
+                       catalog_rows=catalog_rows)
 
 
 # ------------------------------------------------------------------------------ notes and the user's own columns
@@ -715,10 +763,28 @@ def carry_notes(edits: Edits, tables, fold: bool, carried: list, unmatched: list
 # ------------------------------------------------------------------------------------ helpers for the build
 
 def carried_catalog(frame: pd.DataFrame, result: CarryResult) -> pd.DataFrame:
-    """A copy of the catalog frame with the carried overrides in place (blank as NaN)."""
+    """A copy of the catalog frame with the carried overrides in place (blank as NaN), and the rows the user
+    added on in_catalog last week (result.catalog_rows) appended below: their ID, name and typed cells."""
     out = frame.copy()
+    if result.catalog_rows:
+        added = pd.DataFrame({col: [math.nan] * len(result.catalog_rows) for col in out.columns})
+        for col in out.columns:
+            if out[col].dtype == object:
+                added[col] = ""
+        added["product_id"] = list(result.catalog_rows)
+        if "product_name" in added.columns:
+            added["product_name"] = [("" if is_blank(n) else str(n)) for n in result.catalog_rows.values()]
+        attrs = dict(out.attrs)
+        out = pd.concat([out, added.astype({k: v for k, v in out.dtypes.items() if k in added.columns})],
+                        ignore_index=True)
+        out.attrs = attrs
     if not result.catalog:
         return out
+    index = {key_text(p): i for i, p in zip(out.index, out["product_id"])}
+    for (pid, column), value in result.catalog.items():
+        if pid in index and column in out.columns:
+            out.loc[index[pid], column] = math.nan if value is None else value
+    return out
     index = {key_text(p): i for i, p in zip(out.index, out["product_id"])}
     for (pid, column), value in result.catalog.items():
         if pid in index and column in out.columns:

@@ -387,6 +387,7 @@ def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress:
         ws.set_column(first, first + sheet.open_columns - 1, OPEN_WIDTH, formats["own"])
     placed.append(("rows", 0, sheet.above))
     row = _write_rows(ws, 0, sheet.above, formats, sheet.heights)
+    open_format = formats["own"]
     if sheet.sortable:  # its tables' cells unlocked: sorting locked cells is refused even where sort is allowed
         formats = formats["unlocked"]
     last_col = max([len(cells) - 1 for cells in [*sheet.above, *sheet.below]] +
@@ -394,6 +395,9 @@ def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress:
     if sheet.table:
         placed.append(("table", sheet.table.first_row, sheet.table))
         row = _write_table(ws, sheet.table, row, formats, state_formats, progress, sheet.name, True)
+        for r in range(row, row + sheet.open_rows):  # unlocked on the protected sheet: rows the user adds go there
+            for c in range(len(sheet.table.columns)):  # blank cells written (constant_memory writes no bare row style)
+                ws.write_blank(r, c, None, open_format)
     for table in sheet.more:
         placed.append(("table", table.first_row, table))
         row = _write_table(ws, table, row, formats, state_formats, progress, sheet.name, False)

@@ -212,6 +212,8 @@ class Sheet:
     sortable: bool = False
     # Columns right of its main table left unlocked, where the user may add columns of their own (carried by key).
     open_columns: int = 0
+    # Rows below its main table left unlocked, where the user may add rows of their own (in_catalog: products).
+    open_rows: int = 0
 
     def page_setup(self) -> PageSetup:
         """How this sheet prints: its declared page setup, or its tables stacked (see stacked_pages)."""
