@@ -117,6 +117,7 @@ def plan_actions(demo: Path) -> dict[str, list[dict]]:
         **_tab_actions(wb),
         **{label: [{"op": "set", "sheet": "Settings", "cell": _typed_setting_cell(wb, key), "value": value}
                    for key, value in pasted.items()] for label, pasted in PASTES.items()},
+        "product_row_added_below": _row_below_steps(catalog),
     }
 
 
