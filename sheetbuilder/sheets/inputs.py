@@ -57,13 +57,19 @@ def with_missing_products(catalog: pd.DataFrame | None, tables: dict) -> pd.Data
     known = set(catalog["product_id"])
     missing = sorted({p for name in ("store_sales", "ad_products") if tables.get(name) is not None
                       for p in tables[name]["product_id"] if p != "" and p not in known})
-    if not missing:
-        return catalog
-    added = pd.DataFrame({col: [math.nan] * len(missing) for col in catalog.columns})
+    return with_catalog_rows(catalog, missing) if missing else catalog
+
+
+def with_catalog_rows(catalog: pd.DataFrame, ids: list[str], names: list[str] | None = None) -> pd.DataFrame:
+    """The catalog with a row appended for each product ID in ids: its name from names (else blank), every
+    other cell blank (text "" and numbers NaN) for the user to type, and no source row."""
+    added = pd.DataFrame({col: [math.nan] * len(ids) for col in catalog.columns})
     for col in next(t for t in c.TABLES if t.name == "catalog").columns:
         if col.kind not in c.NUMERIC_KINDS:
             added[col.name] = ""
-    added["product_id"] = missing
+    added["product_id"] = list(ids)
+    if names is not None and "product_name" in added.columns:
+        added["product_name"] = list(names)
     out = pd.concat([catalog, added.astype({k: v for k, v in catalog.dtypes.items() if k != "_row"})],
                     ignore_index=True)
     out.attrs = dict(catalog.attrs)

@@ -28,7 +28,7 @@ from typing import Any, Iterable, Mapping, Sequence
 
 import pandas as pd
 
-from sheetbuilder.sheets.inputs import CATALOG_NAME, EDITABLE, EXPORTED
+from sheetbuilder.sheets.inputs import CATALOG_NAME, EDITABLE, EXPORTED, with_catalog_rows
 from sheetbuilder.sheets.settings_sheet import (AS_BUILT, SHEET as SETTINGS_SHEET, not_valid_text, typed_name,
                                                 typed_problem)
 from sheetbuilder.sheets.decisions import NO_SAVED_VALUE, NOTES_HEADER, OWN_COLUMNS_CAP
@@ -767,17 +767,8 @@ def carried_catalog(frame: pd.DataFrame, result: CarryResult) -> pd.DataFrame:
     added on in_catalog last week (result.catalog_rows) appended below: their ID, name and typed cells."""
     out = frame.copy()
     if result.catalog_rows:
-        added = pd.DataFrame({col: [math.nan] * len(result.catalog_rows) for col in out.columns})
-        for col in out.columns:
-            if out[col].dtype == object:
-                added[col] = ""
-        added["product_id"] = list(result.catalog_rows)
-        if "product_name" in added.columns:
-            added["product_name"] = [("" if is_blank(n) else str(n)) for n in result.catalog_rows.values()]
-        attrs = dict(out.attrs)
-        out = pd.concat([out, added.astype({k: v for k, v in out.dtypes.items() if k in added.columns})],
-                        ignore_index=True)
-        out.attrs = attrs
+        out = with_catalog_rows(out, list(result.catalog_rows),
+                                ["" if is_blank(n) else str(n) for n in result.catalog_rows.values()])
     if not result.catalog:
         return out
     index = {key_text(p): i for i, p in zip(out.index, out["product_id"])}
