@@ -776,9 +776,4 @@ def carried_catalog(frame: pd.DataFrame, result: CarryResult) -> pd.DataFrame:
         if pid in index and column in out.columns:
             out.loc[index[pid], column] = math.nan if value is None else value
     return out
-    index = {key_text(p): i for i, p in zip(out.index, out["product_id"])}
-    for (pid, column), value in result.catalog.items():
-        if pid in index and column in out.columns:
-            out.loc[index[pid], column] = math.nan if value is None else value
-    return out
 
