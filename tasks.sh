@@ -6,7 +6,8 @@
 # Also: ./tasks.sh samples (PNG renders and the demo workbook into output_samples/),
 #       ./tasks.sh golden (output_samples/demo.xlsx only, the golden file of tests/test_golden_demo.py),
 #       ./tasks.sh bench (the benchmark, benchmarks/), ./tasks.sh soak (the long fuzz soak of the readers),
-#       ./tasks.sh study (the simulated-market study of the bid method; writes study/results.md).
+#       ./tasks.sh study (the simulated-market study of the bid method; writes study/results.md),
+#       ./tasks.sh largest (the largest benchmark account built, saved by LibreOffice and read back; about 90 minutes).
 set -euo pipefail
 cd "$(dirname "$0")"
 PY=${PYTHON:-python3}
@@ -98,6 +99,12 @@ EOF
     venv test
     shift
     "$VENV/bin/python" -m benchmarks.soak "$@"
+    ;;
+  largest)
+    venv test
+    libreoffice
+    shift
+    SB_LARGEST=1 "$VENV/bin/python" -m pytest -q -p no:cacheprovider tests/test_largest_account.py "$@"
     ;;
   study)
     venv test

@@ -30,11 +30,17 @@ GENERATED = 6
 SLOW_MARKERS = ("libreoffice", "gnumeric")  # tier 3: an outside engine recalculates whole workbooks
 
 
-def pytest_collection_modifyitems(items):
-    """Mark every test that recalculates with LibreOffice or Gnumeric as slow (left out of the fast lane)."""
+def pytest_collection_modifyitems(config, items):
+    """Mark every test that recalculates with LibreOffice or Gnumeric as slow (left out of the fast lane);
+    deselect the tests marked largest (hours on the largest benchmark account) unless SB_LARGEST=1."""
     for item in items:
         if any(item.get_closest_marker(m) for m in SLOW_MARKERS) or set(SLOW_MARKERS) & set(item.fixturenames):
             item.add_marker(pytest.mark.slow)
+    if os.environ.get("SB_LARGEST") != "1":
+        largest = [item for item in items if item.get_closest_marker("largest")]
+        if largest:
+            config.hook.pytest_deselected(items=largest)
+            items[:] = [item for item in items if not item.get_closest_marker("largest")]
 
 
 def require_libreoffice():
