@@ -63,9 +63,11 @@ def simulate(market: Market, policy, weeks: int = 12, window_weeks: int = 4) -> 
     bids = market.start_bid.copy()
     path, aims = [bids], [market.keyword_target()]
     results: list[dict] = []
+    reports: list[dict] = []  # as the exports credit them (later than results with attribution delay)
     for week in range(1, weeks + 1):
         results.append(market.week(week, bids))
-        recent = results[-window_weeks:]
+        reports.append(market.credited(results[-1], results[-2]["late"] if week > 1 else 0))
+        recent = reports[-window_weeks:]
         window = Window(week, len(recent), *(np.sum([r[k] for r in recent], axis=0)
                                              for k in ("clicks", "orders", "spend", "sales")), bids)
         decided = policy(market, window)
@@ -144,5 +146,9 @@ def ratio_bootstrap(gain: np.ndarray, ceiling_gain: np.ndarray, draws: int = 400
     pick = rng.integers(0, len(gain), size=(draws, len(gain)))
     with np.errstate(divide="ignore", invalid="ignore"):
         shares = gain[pick].sum(axis=1) / ceiling_gain[pick].sum(axis=1)
-    low, high = np.nanpercentile(shares, [2.5, 97.5])
-    return float(gain.sum() / ceiling_gain.sum()), float(low), float(high)
+        share = gain.sum() / ceiling_gain.sum() if ceiling_gain.sum() != 0 else np.nan
+    shares = shares[np.isfinite(shares)]
+    if not len(shares):  # the ceiling gained nothing over the baseline (a run too short to tell them apart)
+        return float(share), float("nan"), float("nan")
+    low, high = np.percentile(shares, [2.5, 97.5])
+    return float(share), float(low), float(high)
