@@ -86,6 +86,8 @@ def write_exports(folder: Path, market: Market, window: Window, settings: dict |
            [[*market.names[i], "enabled", f"{window.bids[i]:.2f}", int(window.clicks[i]) * 25, int(window.clicks[i]),
              f"{window.spend[i]:.2f}", f"{window.sales[i]:.2f}", int(window.orders[i])] for i in range(market.size)])
     lines = [f"period_days = {7 * window.weeks}", f"period_end = {period_end(window.week).isoformat()}"]
+    if market.scenario.lag_share > 0:  # a week's report credits orders of last week's clicks, as late credit does
+        lines.append('orders_above_clicks = "accept"')
     lines += [f"{key} = {value!r}" for key, value in (settings or {}).items()]
     (folder / "settings.toml").write_text("\n".join(lines) + "\n", encoding="utf-8")
 
