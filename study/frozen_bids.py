@@ -26,6 +26,7 @@ from __future__ import annotations
 
 import json
 import math
+import tempfile
 from decimal import ROUND_HALF_UP, Decimal
 from pathlib import Path
 
@@ -34,7 +35,8 @@ import pandas as pd
 
 from sheetbuilder.reading.settings import Settings
 
-from .market import Market
+from .market import EXTRA_SCENARIOS, SCENARIOS, Market, draw_market
+from .policies import Window, planned_final_bids, write_exports
 
 PINNED = Path(__file__).with_name("todays_bids_pinned.json")
 NUDGE = 1e-9
@@ -151,10 +153,6 @@ class TodaysMethod:
 def pin(cases: list[tuple[str, int, int]], out: Path = PINNED) -> dict:
     """Run the frozen port on the rolling loop of each (scenario, seed, weeks) and record, week by week, the report
     and the Final bids plan_workbook gives on it; refuse when the port and plan_workbook disagree."""
-    from .market import EXTRA_SCENARIOS, SCENARIOS, draw_market
-    from .policies import Window, planned_final_bids, write_exports
-    import tempfile
-
     scenarios = {**SCENARIOS, **EXTRA_SCENARIOS}
     records = []
     for name, seed, weeks in cases:
