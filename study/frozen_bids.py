@@ -177,8 +177,14 @@ def pin(cases: list[tuple[str, int, int]], out: Path = PINNED) -> dict:
             bids = ported
     pinned = {"source": "plan_workbook on main at commit 375a362 (Bids' Final bid, no Decision typed)",
               "records": records}
-    out.write_text(json.dumps(pinned, indent=0) + "\n", encoding="utf-8")
+    out.write_text(pinned_text(pinned), encoding="utf-8")
     return pinned
+
+
+def pinned_text(pinned: dict) -> str:
+    """The pinned file's text: one record a line."""
+    records = ",\n".join(json.dumps(r) for r in pinned["records"])
+    return f'{{"source": {json.dumps(pinned["source"])},\n"records": [\n{records}\n]}}\n'
 
 
 PIN_CASES = [("small account", 1, 6), ("large account", 2, 6), ("low CVR", 3, 8), ("high CVR", 4, 6),
