@@ -15,10 +15,13 @@ Model (every assumption is a parameter of :class:`Scenario`):
 - Cost per click below the bid, as in a second-price auction: CPC = bid x d, rounded to the
   cent, with the discount d ~ Beta(``discount_a``, ``discount_b``) drawn once per keyword.
 - Orders ~ Binomial(clicks, q); ad sales = orders x the keyword's order value.
+- Attribution delay (off by default): each order is credited in the report of the following week
+  with probability ``lag_share`` (the rest in its own week); profit counts every order in the
+  week it happened.
 - Target ACoS: ``target_acos`` for every product, or with ``target_at_optimum`` each product's
   profit-maximising ACoS under this click response, e x margin / (1 + e) (maximising
   clicks x (q x order value x margin - CPC) over the bid when clicks grow as bid ^ e).
-- Not modelled: competitors reacting, seasonality, attribution delay, budget caps, impressions
+- Not modelled: competitors reacting, seasonality, budget caps, impressions
   (written as a fixed multiple of clicks), organic sales changing with ads.
 
 Every draw comes from numpy's Generator (PCG64) seeded from a SeedSequence. A market is drawn
@@ -57,6 +60,7 @@ class Scenario:
     target_acos: float = 0.30
     target_at_optimum: bool = False
     organic_units: int = 40
+    lag_share: float = 0.0
 
     def but(self, **changes) -> "Scenario":
         """A copy with some parameters changed."""
@@ -71,6 +75,14 @@ SCENARIOS = {
 }
 EXTRA_SCENARIOS = {
     "profit-optimal target": Scenario("profit-optimal target", target_at_optimum=True),
+}
+# Market variants around the middle default (6 products x 10 keywords, 12 clicks a week, 8% CVR).
+VARIANTS = {
+    "CVR 2%": Scenario("CVR 2%", cvr=0.02),
+    "CVR 20%": Scenario("CVR 20%", cvr=0.20),
+    "elasticity 0.3": Scenario("elasticity 0.3", elasticity=0.3),
+    "elasticity 1.0": Scenario("elasticity 1.0", elasticity=1.0),
+    "lagged conversions": Scenario("lagged conversions", lag_share=0.3),
 }
 
 
@@ -124,18 +136,28 @@ class Market:
         return np.where(value > 0, self.keyword_target() * value / self.discount, np.nan)
 
     def week(self, week: int, bid: np.ndarray) -> dict[str, np.ndarray]:
-        """One week's results at the given bids: clicks, spend, orders, ad sales per keyword."""
+        """One week's results at the given bids: clicks, spend, orders, ad sales per keyword, and the orders
+        whose credit comes a week late ("late"; none without attribution delay)."""
         bid = np.asarray(bid, dtype=float)
         lam = self.mean_clicks(bid)
         clicks = np.empty(self.size, dtype=np.int64)
         orders = np.empty(self.size, dtype=np.int64)
+        late = np.zeros(self.size, dtype=np.int64)
+        lag = self.scenario.lag_share
         for i in range(self.size):
             rng = np.random.Generator(np.random.PCG64(np.random.SeedSequence([self.seed, 1, i, week])))
             clicks[i] = rng.poisson(lam[i])
             orders[i] = rng.binomial(clicks[i], self.cvr[i])
+            if lag > 0:
+                late[i] = rng.binomial(orders[i], lag)
         spend = np.round(clicks * self.cpc(bid), 2)
         sales = np.round(orders * self.order_value, 2)
-        return {"clicks": clicks, "orders": orders, "spend": spend, "sales": sales}
+        return {"clicks": clicks, "orders": orders, "spend": spend, "sales": sales, "late": late}
+
+    def credited(self, result: dict[str, np.ndarray], earlier_late: np.ndarray) -> dict[str, np.ndarray]:
+        """A week's results as its report credits them: its orders less its late ones, plus last week's late ones."""
+        orders = result["orders"] - result["late"] + earlier_late
+        return {**result, "orders": orders, "sales": np.round(orders * self.order_value, 2)}
 
 
 def draw_market(scenario: Scenario, seed: int) -> Market:

@@ -9,7 +9,12 @@
   and the target, in points taken as a percentage of the bid and rounded by eye to the
   nearest 10 (46% against a 30% target: 16 points, cut 20%); a keyword with no sales is cut
   by the largest step. No smoothing; no cap but a 50% step; the bid floor and ceiling apply.
+- :func:`ceiling`: a policy that knows every true rate (a ceiling no seller reaches): each week
+  every keyword runs at its true profit-maximising bid, :func:`ceiling_bids`.
 - :func:`hold`: bids never change (a control).
+
+A policy returns next week's bids, or (bids, the ACoS each bid aims at) when it aims elsewhere
+than the seller's target.
 """
 from __future__ import annotations
 
@@ -81,21 +86,32 @@ def write_exports(folder: Path, market: Market, window: Window, settings: dict |
            [[*market.names[i], "enabled", f"{window.bids[i]:.2f}", int(window.clicks[i]) * 25, int(window.clicks[i]),
              f"{window.spend[i]:.2f}", f"{window.sales[i]:.2f}", int(window.orders[i])] for i in range(market.size)])
     lines = [f"period_days = {7 * window.weeks}", f"period_end = {period_end(window.week).isoformat()}"]
+    if market.scenario.lag_share > 0:  # a week's report credits orders of last week's clicks, as late credit does
+        lines.append('orders_above_clicks = "accept"')
     lines += [f"{key} = {value!r}" for key, value in (settings or {}).items()]
     (folder / "settings.toml").write_text("\n".join(lines) + "\n", encoding="utf-8")
+
+
+def built_on(week: int) -> dt.date:
+    """The day the study builds week's workbook (some days after the week's end, as a seller would)."""
+    return period_end(week) + dt.timedelta(days=10)
+
+
+def bids_column(plan, market: Market, column: str) -> np.ndarray:
+    """One column of the plan's Bids table per keyword, in market order (Final bid: "final")."""
+    frame = plan.tables["Bids"].frame
+    found = {key: float(v) for key, v in zip(zip(frame["campaign"], frame["ad_group"], frame["target"],
+                                                 frame["match_type"]), frame[column])}
+    missing = [name for name in market.names if name not in found]
+    if missing:
+        raise RuntimeError(f"the Bids sheet lacks {len(missing)} keywords, first {missing[0]}")
+    return np.array([found[name] for name in market.names])
 
 
 def planned_final_bids(folder: Path, market: Market, week: int) -> np.ndarray:
     """Read and plan the exports in folder with sheetbuilder; the Final bid of each keyword, in market order."""
     inputs, settings, _ = load(Path(folder))
-    plan = plan_workbook(inputs, settings, period_end(week) + dt.timedelta(days=10))
-    frame = plan.tables["Bids"].frame
-    final = {key: float(v) for key, v in zip(zip(frame["campaign"], frame["ad_group"], frame["target"],
-                                                 frame["match_type"]), frame["final"])}
-    missing = [name for name in market.names if name not in final]
-    if missing:
-        raise RuntimeError(f"the Bids sheet lacks {len(missing)} keywords, first {missing[0]}")
-    return np.array([final[name] for name in market.names])
+    return bids_column(plan_workbook(inputs, settings, built_on(week)), market, "final")
 
 
 @dataclass
@@ -123,6 +139,32 @@ def manual_rule(market: Market, window: Window, settings: Settings = Settings())
     bounded = np.where(moved < bids, np.maximum(moved, np.minimum(settings.bid_floor, bids)),
                        np.minimum(moved, np.maximum(settings.bid_ceiling, bids)))
     return np.where(window.clicks >= settings.min_clicks, bounded, bids)
+
+
+def ceiling_bids(market: Market, settings: Settings = Settings()) -> np.ndarray:
+    """Each keyword's true profit-maximising bid, rounded to the cent, within the bid floor and ceiling.
+
+    Weekly profit at bid b is clicks(b) x (margin x CVR x order value - CPC(b)) with clicks(b) = L x (b / b_ref) ^ e
+    and CPC(b) = d x b (study/market.py; the cent rounding of the CPC left out). Setting the derivative of
+    b ^ e x (m - d x b) to zero gives b* = e x m / ((1 + e) x d), where the ACoS is e x margin / (1 + e); the
+    profit rises below b* and falls above it, so the best bid within the floor and ceiling is b* clipped to
+    them (the bid floor for a keyword that never converts). tests/test_study.py checks it against
+    scipy.optimize.minimize_scalar.
+    """
+    e = market.scenario.elasticity
+    value = market.margin[market.product] * market.cvr * market.order_value
+    return np.clip(np.round(e * value / ((1 + e) * market.discount), 2), settings.bid_floor, settings.bid_ceiling)
+
+
+def ceiling_aim(market: Market) -> np.ndarray:
+    """The ACoS the ceiling aims at per keyword: its product's e x margin / (1 + e)."""
+    e = market.scenario.elasticity
+    return (e * market.margin / (1 + e))[market.product]
+
+
+def ceiling(market: Market, window: Window) -> tuple[np.ndarray, np.ndarray]:
+    """The policy that knows every true rate: every keyword at its profit-maximising bid (see ceiling_bids)."""
+    return ceiling_bids(market), ceiling_aim(market)
 
 
 def hold(market: Market, window: Window) -> np.ndarray:

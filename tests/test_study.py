@@ -1,13 +1,18 @@
 """The simulated-market study: its draws against scipy.stats, the manual rule from its definition,
-and a small, fast run checking what must hold in any honest run (paired markets, hold holds, the
-method's proposals are what `build` writes).
+the ceiling's bid against scipy.optimize, today's frozen bid rule against the Final bids main's
+plan_workbook gave, and a small, fast run checking what must hold in any honest run (paired
+markets, hold holds, the weekly loop carries every week, the method's proposals and history are
+what `build --previous` writes).
 
-Outside source for the distribution checks: scipy.stats documentation (scipy.stats.poisson,
-binom, beta, lognorm; scipy.stats.chisquare and kstest for goodness of fit).
+Outside sources: scipy.stats documentation (scipy.stats.poisson, binom, beta, lognorm;
+scipy.stats.chisquare and kstest for goodness of fit); scipy.optimize.minimize_scalar
+documentation (bounded scalar minimisation); study/todays_bids_pinned.json, the Final bids that
+sheetbuilder's plan_workbook gave on main at commit 375a362 (before issue 23's method changes).
 """
 from __future__ import annotations
 
 import datetime as dt
+import json
 import sys
 from pathlib import Path
 
@@ -20,11 +25,15 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
 from sheetbuilder.pipeline import build  # noqa: E402
 from sheetbuilder.reading.settings import Settings  # noqa: E402
-from study.market import Scenario, draw_market  # noqa: E402
-from study.measures import MEASURES, acos_gap, in_band, reachable, measure, paired_bootstrap, simulate  # noqa: E402
-from study.policies import Window, WorkbookMethod, hold, manual_rule, period_end, planned_final_bids, \
-    write_exports  # noqa: E402
-from study.run_study import aims, comparison_table, confirm, run_policies  # noqa: E402
+from study.frozen_bids import PINNED, TodaysMethod, todays_bids  # noqa: E402
+from study.market import EXTRA_SCENARIOS, SCENARIOS, Scenario, draw_market  # noqa: E402
+from study.measures import MEASURES, acos_gap, in_band, reachable, measure, paired_bootstrap, ratio_bootstrap, \
+    simulate  # noqa: E402
+from study.policies import Window, ceiling, ceiling_aim, ceiling_bids, hold, manual_rule, period_end, \
+    planned_final_bids, write_exports  # noqa: E402
+from study.run_study import AIM_TEXTS, POLICIES, aims, comparison_table, confirm, run_policies, \
+    summary_table  # noqa: E402
+from study.weekly_loop import WeeklyMethod  # noqa: E402
 
 ALPHA = 0.001  # goodness-of-fit tests fail only when the draws are very unlikely under the stated law
 ONE_PRODUCT = Scenario("one product", products=1, keywords_per_product=20000, dead_share=0.0)
@@ -185,19 +194,20 @@ def test_the_same_seed_draws_the_same_market_and_another_seed_another():
 
 @pytest.fixture(scope="module")
 def small_runs():
-    """Each policy for four weeks on one small market (the workbook policies planned by sheetbuilder)."""
+    """Each policy for three weeks on one small market (the method planned by sheetbuilder on the weekly loop)."""
     market = draw_market(SMALL, 21)
-    policies = {"method": WorkbookMethod(), "manual": manual_rule, "hold": hold}
-    return market, {name: simulate(market, policy, weeks=4) for name, policy in policies.items()}
+    policies = {"method": WeeklyMethod(), "today": TodaysMethod(), "manual": manual_rule, "hold": hold,
+                "ceiling": ceiling}
+    return market, policies, {name: simulate(market, policy, weeks=3) for name, policy in policies.items()}
 
 
 def test_hold_never_changes_a_bid(small_runs):
-    market, runs = small_runs
+    market, _, runs = small_runs
     assert np.all(runs["hold"].bids == market.start_bid)
 
 
 def test_paired_policies_see_identical_weeks_where_their_bids_agree(small_runs):
-    market, runs = small_runs
+    market, _, runs = small_runs
     agree = runs["method"].bids[:-1] == runs["hold"].bids[:-1]
     assert agree.any() and not agree.all()  # the check below compares something and not everything
     for key in ("clicks", "orders", "spend", "sales"):
@@ -206,8 +216,9 @@ def test_paired_policies_see_identical_weeks_where_their_bids_agree(small_runs):
     assert runs["manual"].clicks[0].tolist() == runs["hold"].clicks[0].tolist()
 
 
-def test_the_method_moves_bids_and_stays_within_floor_ceiling_and_caps(small_runs):
-    _, runs = small_runs
+def test_the_method_moves_bids_and_stays_within_floor_ceiling_and_raise_cap(small_runs):
+    # Cuts are not checked against max_bid_cut: issue 23 lets a cut on evidence go further.
+    _, _, runs = small_runs
     bids = runs["method"].bids
     s = Settings()
     assert np.any(bids[1:] != bids[:-1])
@@ -215,22 +226,42 @@ def test_the_method_moves_bids_and_stays_within_floor_ceiling_and_caps(small_run
     moved = new != old
     assert np.all(new[moved] >= s.bid_floor) and np.all(new[moved] <= s.bid_ceiling)
     assert np.all(new <= np.round(old * (1 + s.max_bid_raise), 2) + 0.005)
-    assert np.all(new >= np.round(old * (1 - s.max_bid_cut), 2) - 0.005)
 
 
-def test_the_planned_final_bids_are_what_build_writes_in_the_workbook(tmp_path):
+def test_the_weekly_loop_carries_every_week_of_every_keyword(small_runs):
+    market, policies, runs = small_runs
+    run, history = runs["method"], policies["method"].stored
+    assert 3 == len(history.periods)
+    assert [period_end(w) for w in range(1, 4)] == [p.end for p in history.periods]
+    assert all(7 == (p.end - p.start).days + 1 for p in history.periods)
+    rows = {(r["campaign"], r["ad_group"], r["target"], r["match_type"]): r for r in history.rows}
+    assert set(market.names) == set(rows)
+    for i, name in enumerate(market.names):
+        row = rows[name]
+        assert run.clicks[:, i].sum() == row["clicks"]  # the sum of weekly clicks is the history's clicks
+        assert run.orders[:, i].sum() == row["orders"]
+        assert run.spend[:, i].sum() == pytest.approx(row["spend"], abs=1e-6)
+        assert [str(c) for c in run.clicks[:, i]] == row["clicks_packed"].split("; ")
+        assert [f"{b:.2f}" for b in run.bids[:3, i]] == [f"{float(b):.2f}" for b in row["bid_packed"].split("; ")]
+
+
+def test_the_weekly_method_plans_and_carries_what_build_with_previous_writes(tmp_path):
     market = draw_market(SMALL, 31)
-    first = market.week(1, market.start_bid)
-    second = market.week(2, market.start_bid)
-    sums = {k: first[k] + second[k] for k in ("clicks", "orders", "spend", "sales")}
-    window = Window(2, 2, sums["clicks"], sums["orders"], sums["spend"], sums["sales"], market.start_bid)
-    folder = tmp_path / "exports"
-    folder.mkdir()
-    write_exports(folder, market, window)
-    planned = planned_final_bids(folder, market, 2)
-    built = build(folder, tmp_path / "week2.xlsx", built_on=period_end(2) + dt.timedelta(days=10))
-    sheet = openpyxl.load_workbook(built.output, data_only=True, read_only=True)["Bids"]
-    rows = list(sheet.iter_rows(min_row=4, values_only=True))  # title, note, blank, header
+    method = WeeklyMethod()
+    method.start(market)
+    bids, previous = market.start_bid, None
+    for week in (1, 2):
+        result = market.week(week, bids)
+        window = Window(week, 1, result["clicks"], result["orders"], result["spend"], result["sales"], bids)
+        folder = tmp_path / f"week{week}"
+        folder.mkdir()
+        write_exports(folder, market, window)
+        built = build(folder, tmp_path / f"week{week}.xlsx", built_on=period_end(week) + dt.timedelta(days=10),
+                      previous=previous)
+        planned, _ = method(market, window)
+        previous, bids = built.output, planned
+    book = openpyxl.load_workbook(previous, data_only=True, read_only=True)
+    rows = list(book["Bids"].iter_rows(min_row=4, values_only=True))  # title, note, blank, header
     header = list(rows[0])
     at = {name: header.index(name) for name in ("Campaign", "Ad group", "Target", "Match type", "Final bid")}
     cached = {(r[at["Campaign"]], r[at["Ad group"]], r[at["Target"]], r[at["Match type"]]): r[at["Final bid"]]
@@ -238,28 +269,115 @@ def test_the_planned_final_bids_are_what_build_writes_in_the_workbook(tmp_path):
     assert len(market.names) == len(cached)
     assert [cached[name] for name in market.names] == pytest.approx(planned.tolist(), abs=1e-9)
     assert np.any(planned != market.start_bid)  # some proposal moves, so the comparison is not trivial
+    written = [tuple(r[:4]) + tuple(r[-7:]) for r in book["Keyword history"].iter_rows(min_row=5, values_only=True)
+               if r[0]]
+    carried = [(r["campaign"], r["ad_group"], r["target"], r["match_type"], r["periods"],
+                *(r[m + "_packed"] for m in ("impressions", "clicks", "orders", "spend", "ad_sales", "bid")))
+               for r in method.stored.rows]
+    assert 2 == len(method.stored.periods) and ";" in carried[0][4]  # two weeks carried, not one
+    assert written == carried
 
 
-def test_a_small_study_writes_a_row_per_measure_and_an_aim_per_scenario():
-    results = run_policies({"method": WorkbookMethod(), "manual rule": manual_rule, "no smoothing": hold,
-                            "hold": hold}, range(1, 3), 2, {"tiny": SMALL})
+def test_the_ceiling_bids_each_keyword_at_its_most_profitable_bid():
+    # Checked numerically with scipy.optimize.minimize_scalar (scipy documentation), not from the closed form.
+    from scipy.optimize import minimize_scalar
+    s = Settings()
+    market = draw_market(Scenario("ceiling", products=4, keywords_per_product=10, price_median=60.0), 17)
+    bids = ceiling_bids(market)
+    assert np.any(bids == s.bid_floor) and np.any((bids > s.bid_floor) & (bids < s.bid_ceiling))
+    for i in range(market.size):
+        value = market.cvr[i] * market.order_value[i] * market.margin[market.product[i]]
+
+        def loss(bid):
+            clicks = market.base_clicks[i] * (bid / market.ref_bid[i]) ** market.scenario.elasticity
+            return -clicks * (value - bid * market.discount[i])
+
+        best = minimize_scalar(loss, bounds=(s.bid_floor, s.bid_ceiling), method="bounded",
+                               options={"xatol": 1e-7}).x
+        assert best == pytest.approx(bids[i], abs=0.005 + 1e-6)  # the ceiling bids in cents
+
+
+def test_the_ceiling_is_in_band_around_its_own_aim_and_earns_most(small_runs):
+    market, _, runs = small_runs
+    assert 1.0 == in_band(market, ceiling_bids(market), target=ceiling_aim(market))
+    assert 1.0 == measure(market, runs["ceiling"])["in_aim"]
+    # Its expected profit is the highest of any bids: check against every other policy's final bids.
+    e, margin = market.scenario.elasticity, market.margin[market.product]
+
+    def expected(bids):
+        return float(np.sum(market.mean_clicks(bids) * (margin * market.cvr * market.order_value - market.cpc(bids))))
+    assert all(expected(ceiling_bids(market)) >= expected(run.bids[-1]) for run in runs.values())
+    assert e > 0
+
+
+def test_todays_frozen_port_gives_the_final_bids_plan_workbook_gave_on_main():
+    pinned = json.loads(PINNED.read_text(encoding="utf-8"))
+    scenarios = {**SCENARIOS, **EXTRA_SCENARIOS}
+    records = pinned["records"]
+    assert len({r["scenario"] for r in records}) >= 4 and len(records) >= 25
+    moved = 0
+    for r in records:
+        market = draw_market(scenarios[r["scenario"]], r["seed"])
+        found = todays_bids(market, *(np.array(r[k]) for k in ("clicks", "orders", "spend", "sales", "bids")))
+        assert r["final"] == found.tolist(), (r["scenario"], r["seed"], r["week"])
+        moved += int(np.sum(np.array(r["final"]) != np.array(r["bids"])))
+    assert moved > 500  # most rows move: the comparison is not of held bids
+
+
+@pytest.mark.slow  # LIVE: holds only while plan_workbook runs today's method; replace by the pinned test at merge
+def test_todays_frozen_port_equals_todays_plan_workbook(tmp_path):
+    scenarios = {**SCENARIOS, **EXTRA_SCENARIOS}
+    for r in json.loads(PINNED.read_text(encoding="utf-8"))["records"][::4]:
+        market = draw_market(scenarios[r["scenario"]], r["seed"])
+        window = Window(r["week"], r["weeks"], *(np.array(r[k]) for k in ("clicks", "orders", "spend", "sales",
+                                                                         "bids")))
+        folder = tmp_path / f"{r['scenario']}-{r['seed']}-{r['week']}"
+        folder.mkdir()
+        write_exports(folder, market, window)
+        planned = planned_final_bids(folder, market, r["week"])
+        assert planned.tolist() == todays_bids(market, window.clicks, window.orders, window.spend, window.sales,
+                                               window.bids).tolist()
+
+
+def test_late_credited_orders_move_to_the_next_weeks_report():
+    lagged = draw_market(SMALL.but(lag_share=0.5), 5)
+    plain = draw_market(SMALL, 5)
+    first, second = lagged.week(1, lagged.start_bid), lagged.week(2, lagged.start_bid)
+    assert first["clicks"].tolist() == plain.week(1, plain.start_bid)["clicks"].tolist()  # same draws otherwise
+    assert first["late"].sum() > 0
+    report = lagged.credited(second, first["late"])
+    assert (second["orders"] - second["late"] + first["late"]).tolist() == report["orders"].tolist()
+    run = simulate(lagged, hold, weeks=3)
+    assert run.orders.sum() == sum(lagged.week(w, lagged.start_bid)["orders"].sum() for w in (1, 2, 3))
+
+
+def test_a_small_study_writes_every_measure_and_one_verdict_per_aim_and_scenario():
+    results = run_policies(POLICIES, range(1, 2), 1, {"tiny": SMALL})
     table = comparison_table(results)
-    assert len(MEASURES) == sum(1 for line in table if line.startswith("| ") and "---" not in line) - 1
-    rows = aims(results)[2:]
-    assert 4 == len(rows)
-    assert all(row.count("met") == 1 for row in rows)  # one verdict per scenario (one scenario here)
-    assert (2, len(MEASURES)) == results["tiny"]["method"].shape
+    body = [line for line in table if line.startswith("| ") and "---" not in line]
+    assert len(MEASURES) + 1 == len(body) - 1  # every measure and the share of the ceiling's gain
+    rows = aims(results, ("tiny",))[2:]
+    assert len(AIM_TEXTS) == len(rows)
+    verdicts = [[cell.split(" (")[0] for cell in row.strip("| ").split(" | ")[1:]] for row in rows]
+    assert all(2 == len(v) and set(v) <= {"met", "not met"} for v in verdicts)  # the scenario's, every scenario's
+    assert len(POLICIES) == len(summary_table(results)) - 2
+    assert (1, len(MEASURES)) == results["tiny"]["method"].shape
+
+
+def test_a_gain_as_a_share_of_the_ceilings_gain():
+    assert (0.5, 0.5, 0.5) == pytest.approx(ratio_bootstrap(np.array([1.0, 2.0, 3.0]), np.array([2.0, 4.0, 6.0])))
+    assert 0.25 == pytest.approx(ratio_bootstrap(np.array([1.0, 0.0]), np.array([2.0, 2.0]))[0])
 
 
 def test_measures_of_a_run_follow_their_definitions(small_runs):
-    market, runs = small_runs
+    market, _, runs = small_runs
     run = runs["hold"]
     found = measure(market, run)
     margin = market.margin[market.product]
     assert float(np.sum(run.sales * margin - run.spend)) == pytest.approx(found["profit"])
     assert float(run.spend[:, market.cvr == 0].sum()) == pytest.approx(found["dead_spend"])
     assert 0.0 == found["bid_change"]
-    assert in_band(market, market.start_bid) == found["in_band"]
+    assert in_band(market, market.start_bid) == found["in_band"] == found["in_band_8"] == found["in_aim"]
 
 
 @pytest.mark.slow  # moved out of the fast lane, which must stay under two minutes
