@@ -127,3 +127,22 @@ def test_weeks_without_a_bid_are_left_out():
     with_gap = [dict(r, bid_packed="; " + r["bid_packed"].split("; ", 1)[1]) for r in rows]
     got = estimate_elasticity(with_gap)
     assert 30 * 5 == got.weeks
+
+
+def test_the_estimate_stands_beside_the_setting_on_settings_and_in_the_guides_build_record(tmp_path):
+    from minimal import write_account
+    from sheetbuilder.pipeline import load, plan_workbook
+    from sheetbuilder.sheets.keyword_weeks import PackedHistory
+
+    rows, _, _ = _history(np.random.default_rng(8), keywords=40, weeks=8)
+    got = estimate_elasticity(rows)
+    inputs, settings, _ = load(write_account(tmp_path / "account"))
+    plan = plan_workbook(inputs, settings, dt.date(2026, 3, 10), keyword_history=PackedHistory(rows, []))
+    low, high = got.interval
+    words = f"estimates e = {got.estimate:.2f} (95% interval {low:.2f} to {high:.2f}), from 40 keywords"
+    settings_rows = [[c.value if c is not None else None for c in row] for row in plan.spec.sheet("Settings").above]
+    beside = next(row for row in settings_rows if row and row[0] == "Click elasticity (e)")
+    assert words in beside[4]
+    assert 0.6 == beside[1]  # the setting itself is not changed by the estimate
+    guide = [[c.value for c in row if c is not None] for row in plan.spec.sheet("Guide").above]
+    assert any(row[:1] == ["Click elasticity in the keyword history"] and words in row[1] for row in guide)

@@ -56,8 +56,9 @@ SETTINGS: tuple[SettingSpec, ...] = (
     SettingSpec("default_target_acos", "Default target ACoS", 0.30, "percent",
                 "Target ACoS for products whose catalog row gives none.", 0.0, 5.0),
     SettingSpec("cap_target_at_break_even", "Cap target ACoS at break-even", "yes", "choice",
-                "yes: bids aim at the lower of a product's target ACoS and its break-even ACoS (above break-even, "
-                "each ad-driven sale loses money before any other cost); no: at the target as given.",
+                "While Aim bids at profit is no: yes: bids aim at the lower of a product's target ACoS and its "
+                "break-even ACoS (above break-even, each ad-driven sale loses money before any other cost); no: at "
+                "the target as given.",
                 choices=("yes", "no")),
     SettingSpec("seek_profit", "Aim bids at profit", "yes", "choice",
                 "yes: each product's bids aim at the lowest of its target ACoS, its break-even ACoS and the ACoS that "
