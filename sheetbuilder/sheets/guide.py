@@ -75,7 +75,7 @@ FOLLOWUP_TEXT = [
     "budget when the campaign's daily budget equals the planned one. Without a negatives or campaigns export, "
     "those rows read 'cannot tell'.",
     "Outcome compares the move with its intent: a bid cut hopes for lower CPC and ACoS; a raise for more clicks "
-    "with ACoS at or under the target; a negative for no spend on the term; a new keyword for its first clicks and "
+    "with ACoS at or under the aim its product's bids had last week (Profit's Aim ACoS then); a negative for no spend on the term; a new keyword for its first clicks and "
     "orders. 'as intended' means both hoped-for effects happened, 'mixed' one, 'not as intended' neither; 'too "
     "few clicks' where either period has fewer than min_clicks.",
     "Compare periods that do not overlap: weekly 7-day exports. Two 30-day exports a week apart share 23 days, "
