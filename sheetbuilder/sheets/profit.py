@@ -291,7 +291,8 @@ DEFS: list[ColumnDef] = [
               'IF(AND(OR({c:status}="loss",{c:status}="thin"),{c:ratio}>1),"cut",IF({c:low}=1,"%s",'
               'IF(AND({c:status}="strong",{c:ratio}<1),"grow","hold"))))))' % (LOW_STOCK, LOW_STOCK), width=10),
     ColumnDef("target_override", "Your target ACoS", "percent_input",
-              "Input: type a target ACoS for the product to override the catalog and the default; its bids follow.",
+              "Input: type a target ACoS for the product to override the catalog and the default; its Aim ACoS and "
+              "bids follow (up to the profit-seeking aim while seek_profit is yes).",
               lambda df, ctx: df["target_override"], kind=INPUT, width=10),
     ColumnDef("target_check", "Target check", "label",
               "Where your target ACoS is above break-even, each ad-driven sale at that target loses money before any "
