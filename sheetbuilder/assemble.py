@@ -27,6 +27,7 @@ from sheetbuilder.sheets.actions import DEFS as ACTION_DEFS, SEGMENTS as ACTION_
 from sheetbuilder.sheets.bids import DEFS as BIDS_DEFS, plan_bids
 from sheetbuilder.sheets.budget import CAMPAIGN_DEFS, PRODUCT_DEFS as BUDGET_DEFS, plan_budget
 from sheetbuilder.sheets.dashboard import Figure, dashboard, first_look
+from sheetbuilder.sheets.elasticity import ElasticityEstimate, estimate_elasticity
 from sheetbuilder.sheets.followup import (CHANGE_DEFS as FOLLOWUP_DEFS, NAME as FOLLOWUP_NAME, SHEET as FOLLOWUP_SHEET,
                                           SUMMARY as FOLLOWUP_SUMMARY, Followup, plan_followup)
 from sheetbuilder.sheets.groups import DEFS as GROUPS_DEFS, plan_groups
@@ -87,6 +88,7 @@ class Assembly:
     layouts: dict[str, InputSheet]
     decide: Decisions
     keyword_history: PackedHistory | None = None
+    elasticity: ElasticityEstimate | None = None  # the click elasticity estimated from the keyword history
     anchors: Anchors = field(default_factory=Anchors)
     groups: PlannedTable | None = None  # the ad-group blends Bids and Terms read (a sheet only when one of them is)
     blends: PlannedTable | None = None  # the per-ad-group blends table on Groups, fetched by INDEX
@@ -125,8 +127,12 @@ def _inputs(a: Assembly) -> None:
 
 
 def _settings(a: Assembly) -> None:
+    if a.keyword_history is not None:
+        a.elasticity = estimate_elasticity(a.keyword_history.rows)
+    beside = {"click_elasticity": a.elasticity.text()} if a.elasticity is not None else None
     sheet, names = plan_settings(a.settings, a.built_on, a.inputs.period,
-                                 a.carry.as_built if a.carry is not None else None, account_of_inputs(a.inputs))
+                                 a.carry.as_built if a.carry is not None else None, account_of_inputs(a.inputs),
+                                 beside)
     a.place("settings", sheet)
     a.names += names
 
@@ -254,6 +260,8 @@ def _guide(a: Assembly) -> None:
     sections = [a.sections[k] for k in SECTION_ORDER if k in a.sections]
     exports = [("Currency in the exports", a.inputs.currency or "no currency marked; amounts read as written"),
                ("Period in the exports", str(a.inputs.period) if a.inputs.period else "no dates; period_days applies")]
+    if a.elasticity is not None:
+        exports.append(("Click elasticity in the keyword history", a.elasticity.text()))
     a.place("guide", plan_guide(a.settings, a.built_on, sections, a.warnings, a.inputs.checksums, sources, figures,
                                 first_look(a.tables, "inventory" in a.layouts), exports))
 

@@ -8,7 +8,7 @@ from workbook_io import open_values, read_table
 from sheetbuilder.pipeline import load
 
 BIDS_HEADERS = ["Campaign", "Ad group", "Target", "Match type", "Product ID", "Impressions", "Clicks", "Spend",
-                "Ad sales", "Orders", "CPC", "CVR", "ACoS", "Target ACoS", "Current bid", "Value bid",
+                "Ad sales", "Orders", "CPC", "CVR", "ACoS", "Aim ACoS", "Current bid", "Value bid",
                 "Proposed bid", "Change", "Reason", "Decision", "Final bid"]
 CHECKED = [h for h in BIDS_HEADERS if h != "Decision"] + ["Smoothed CVR", "Smoothed ACoS", "Zero-order clicks",
                                                           "Product CVR", "Target check", "Low stock"]

@@ -122,10 +122,10 @@ def profit_oracle(tables, settings, catalog_edits=None, target_overrides=None):
             # Break-even rule, common practice in the trade (no single source): above a target ACoS equal to
             # the margin before ads, each ad-driven sale loses money before any other cost.
             "Target check": "" if margin is BLANK or target <= margin else (
+                "above break-even: bids use the aim" if settings.seek_profit == "yes" else
                 "above break-even: bids use break-even" if settings.cap_target_at_break_even == "yes"
                 else "above break-even: each ad sale loses money"),
-            "Bid target ACoS": max(0.0, margin) if (settings.cap_target_at_break_even == "yes" and margin is not BLANK
-                                                    and target > margin) else target,
+            **aim_oracle(margin, target, settings),
         }
     with_margin = [r for r in out.values() if r["Margin before ads"] is not BLANK]
     rev_m = sum(r["Revenue"] for r in with_margin)
@@ -143,6 +143,36 @@ def profit_oracle(tables, settings, catalog_edits=None, target_overrides=None):
     }
     totals["Net margin after ads"] = _div(totals["Net profit after ads"], rev_m)
     return out, totals
+
+
+def aim_oracle(margin, target, settings) -> dict:
+    """{"Aim ACoS": ..., "Why this aim": ...} of one product, from the README's rule.
+
+    Profit after ads at a bid b, with clicks k b^e, each click worth v in sales and costing about the bid
+    (cost per click proportional to the bid), is pi(b) = m v k b^e - k b^(e+1), m the margin before ads.
+    pi'(b) = k b^(e-1) (m v e - (e+1) b) = 0 at b* = m v e / (1 + e), and the ACoS there is spend / sales =
+    b* / v = m e / (1 + e) (the inverse-elasticity rule; tests/test_aim.py checks it numerically with
+    scipy.optimize). seek_profit yes aims at the lowest of target, break-even (m) and m e / (1 + e), never below
+    0; no: at the target, capped at break-even (never below 0) when cap_target_at_break_even is yes.
+    """
+    e = settings.click_elasticity
+    if margin is BLANK:
+        return {"Aim ACoS": target, "Why this aim": "your target (no margin known)"}
+    if settings.seek_profit == "yes":
+        seeking = margin * e / (1 + e)
+        aim = max(0.0, min(target, margin, seeking))
+        if margin <= 0:
+            why = "no positive margin: aim 0, bids cut"
+        else:
+            why = "your target" if target <= seeking else "profit-seeking (click elasticity on Settings)"
+        return {"Aim ACoS": aim, "Why this aim": why}
+    capped = settings.cap_target_at_break_even == "yes"
+    if capped and margin <= 0:
+        return {"Aim ACoS": max(0.0, margin) if target > margin else target,
+                "Why this aim": "no positive margin: aim 0, bids cut"}
+    if capped and target > margin:
+        return {"Aim ACoS": margin, "Why this aim": "break-even"}
+    return {"Aim ACoS": target, "Why this aim": "your target"}
 
 
 def _half_away(x, digits=2):
@@ -197,11 +227,11 @@ def bids_oracle(tables, settings, profit_rows, decisions=None):
             total = sum(weights.values())
             w = {p: (weights[p] / total if total else 1 / len(products)) for p in products}
             if total:
-                target = sum(weights[p] * profit_rows[p]["Bid target ACoS"] for p in products) / total
+                target = sum(weights[p] * profit_rows[p]["Aim ACoS"] for p in products) / total
                 cvr_p = sum(weights[p] * product_cvr(p) for p in products) / total
                 aov_p = sum(weights[p] * product_aov(p) for p in products) / total
             else:
-                target = sum(profit_rows[p]["Bid target ACoS"] for p in products) / len(products)
+                target = sum(profit_rows[p]["Aim ACoS"] for p in products) / len(products)
                 cvr_p = sum(product_cvr(p) for p in products) / len(products)
                 aov_p = sum(product_aov(p) for p in products) / len(products)
             del w
@@ -268,10 +298,11 @@ def bids_oracle(tables, settings, profit_rows, decisions=None):
                                                    else "shared: " + ", ".join(products)),
             "Impressions": t["impressions"], "Clicks": clicks, "Spend": spend, "Ad sales": sales, "Orders": orders,
             "CPC": cpc, "CVR": orders / clicks if clicks else BLANK, "ACoS": spend / sales if sales else BLANK,
-            "Target ACoS": target, "Current bid": bid, "Value bid": value, "Proposed bid": proposed,
+            "Aim ACoS": target, "Current bid": bid, "Value bid": value, "Proposed bid": proposed,
             "Change": proposed / bid - 1 if bid else BLANK, "Reason": reason, "Final bid": final,
             "Target check": "" if not any(profit_rows[p]["Target check"] for p in products) else (
-                "target capped at break-even" if s.cap_target_at_break_even == "yes" else "target above break-even"),
+                "target above break-even: aim used" if s.seek_profit == "yes" else "target capped at break-even"
+                if s.cap_target_at_break_even == "yes" else "target above break-even"),
             "Smoothed CVR": s_cvr, "Smoothed ACoS": s_acos, "Zero-order clicks": n, "Product CVR": cvr_p,
             "Low stock": 1.0 if any(profit_rows[p]["Low stock"] == 1 for p in products) else 0.0,
 

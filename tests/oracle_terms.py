@@ -112,7 +112,7 @@ def terms_oracle(tables, settings, profit_rows, decisions=None):
         cvr_p = blend(group, lambda p: p_cvr[p], account_cvr)
         aov_p = blend(group, lambda p: p_aov[p], account_aov)
         price_p = blend(group, price, account_aov)
-        target = blend(group, lambda p: profit_rows[p]["Bid target ACoS"], s.default_target_acos)
+        target = blend(group, lambda p: profit_rows[p]["Aim ACoS"], s.default_target_acos)
         n0 = (math.ceil(math.log(1 - s.zero_order_confidence) / math.log(1 - cvr_p)) if 0 < cvr_p < 1 else BLANK)
         own_exact = top["match_type"] == "exact" and normalise(top["target"], fold) == norm
         spent = m["spend"] >= price_p * s.block_spend_multiple

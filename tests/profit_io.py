@@ -11,7 +11,7 @@ PROFIT_HEADERS = ["Product ID", "Product name", "Units", "Revenue", "Ad spend", 
                   "Margin before ads", "Break-even ACoS", "Target ACoS", "Net margin after ads",
                   "Net profit after ads", "Sales share", "Spend share", "Spend-to-sales ratio", "Days of cover",
                   "Status", "Direction"]
-PROFIT_CHECKED = PROFIT_HEADERS + ["Target check", "Bid target ACoS", "Units available", "Low stock"]
+PROFIT_CHECKED = PROFIT_HEADERS + ["Target check", "Aim ACoS", "Why this aim", "Units available", "Low stock"]
 HEADER_ROW = 5  # 1-based: title, caution, warning, blank, header
 
 

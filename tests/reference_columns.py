@@ -51,7 +51,7 @@ UNCOVERED = {
     **{("Bids", h): _HELPER for h in ("Rule", "Moves")},
     ("Bids", "Changes key"): _LIST_KEY,
     **{("Terms", h): _EXPORT_HELPER for h in ("Targeted position", "Negated position")},
-    **{("Blends", h): _BLENDS for h in ("Target ACoS", "Product CVR", "Product order value", "Product price",
+    **{("Blends", h): _BLENDS for h in ("Aim ACoS", "Product CVR", "Product order value", "Product price",
                                         "Zero-order clicks", "Target check", "Low stock")},
     ("Blends", "Group weight"): _NO_ORACLE,
     **{("Terms", h): _LIST_KEY for h in ("Promoted terms key", "Blocked terms key")},
@@ -63,7 +63,7 @@ UNCOVERED = {
     **{("Budget products", h): _HELPER for h in ("Spend to cut", "Revenue to grow", "Final / current")},
     ("Budget campaigns", "Changes key"): _LIST_KEY,
     **{("Budget links", h): _NO_ORACLE for h in ("Ad spend", "Spend change", "Spend x change")},
-    **{("Groups", h): _NO_ORACLE for h in ("Ad spend", "Blend weight", "Weight x target ACoS", "Weight x CVR",
+    **{("Groups", h): _NO_ORACLE for h in ("Ad spend", "Blend weight", "Weight x aim ACoS", "Weight x CVR",
                                            "Weight x order value", "Weight x price")},
     **{("Actions", h): "compared with the independent tests/oracle_actions.py in tests/test_change_list.py "
                        "(cached and LibreOffice values, rows matched by the change they make)"

@@ -115,7 +115,7 @@ def test_proposals_keep_the_method_properties(account, tmp_path_factory):
 
 
 def _tiny_account(tmp_path, target_row, settings_text, ad_row="P1,100,10,100,250"):
-    """One product, one ad row (clicks, orders, spend, sales), one target."""
+    """One product, one ad row (clicks, orders, spend, sales), one target; bids aim at the target (seek_profit no)."""
     folder = tmp_path / "tiny"
     folder.mkdir()
     (folder / "catalog.csv").write_text("product_id,product_name,price,unit_cost,fees_per_unit,target_acos\n"
@@ -128,7 +128,8 @@ def _tiny_account(tmp_path, target_row, settings_text, ad_row="P1,100,10,100,250
     (folder / "targets.csv").write_text(
         "campaign,ad_group,target,match_type,state,bid,impressions,clicks,spend,ad_sales,orders\n"
         f"C1,G1,{target_row}\n")
-    (folder / "settings.toml").write_text(textwrap.dedent(settings_text))
+    # The worked examples are of the seller's own target (30%), not of the profit-seeking aim (tests/test_aim.py).
+    (folder / "settings.toml").write_text('seek_profit = "no"\n' + textwrap.dedent(settings_text))
     return folder
 
 

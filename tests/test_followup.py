@@ -83,7 +83,7 @@ def scenario(tmp_path_factory):
     profit = week1.plan.tables["Profit"].frame
     return {"work": work, "week1": week1, "week2": week2, "blind": week2_blind, "changes": changes,
             "applied": {_key(c) for c in applied}, "exports2": exports2,
-            "targets": dict(zip(profit["product_id"], profit["target_acos"]))}
+            "targets": dict(zip(profit["product_id"], profit["aim_acos"]))}
 
 
 def _change(row: dict, changes_by_key: dict) -> dict:

@@ -46,7 +46,7 @@ def _cat(letter: str) -> str:
 
 
 # Profit, body row 6: {header: formula}. Columns A Product ID ... P Spend-to-sales ratio, Q Days of cover, R Status,
-# S Direction, T Your target ACoS, U Target check, V Bid target ACoS, then the hidden helpers W catalog row, X/Y
+# S Direction, T Your target ACoS, U Target check, V Aim ACoS, then the hidden helpers W catalog row, X/Y
 # store-sales block, Z/AA ad block, AB ad clicks ... AH revenue with a margin, AI position, AJ/AK in_inventory block,
 # AL units available (a value here: the account has no inventory export), AM low stock.
 PROFIT_ROW_1 = {
@@ -75,10 +75,20 @@ PROFIT_ROW_1 = {
     "Direction": '=IF(E6=0,"no ads",IF(D6=0,"cut",IF(P6="",IF(AM6=1,"low stock","hold"),'
                  'IF(AND(OR(R6="loss",R6="thin"),P6>1),"cut",IF(AM6=1,"low stock",'
                  'IF(AND(R6="strong",P6<1),"grow","hold"))))))',
-    # U and V: a target above break-even (K > I) is flagged, and with the cap on the bids aim at break-even.
-    "Target check": '=IF(I6="","",IF(K6>I6,IF(cap_target_at_break_even="yes","above break-even: bids use '
-                    'break-even","above break-even: each ad sale loses money"),""))',
-    "Bid target ACoS": '=IF(AND(cap_target_at_break_even="yes",I6<>""),IF(K6>I6,MAX(0,I6),K6),K6)',
+    # U and V: a target above break-even (K > I) is flagged with what the bids use instead; V, the aim: with
+    # seek_profit yes the lowest of target, break-even and break-even x e / (1 + e) (never below 0), else the
+    # target capped at break-even while cap_target_at_break_even is yes; the target where no margin is known.
+    "Target check": '=IF(I6="","",IF(K6>I6,IF(seek_profit="yes","above break-even: bids use the aim",'
+                    'IF(cap_target_at_break_even="yes","above break-even: bids use break-even",'
+                    '"above break-even: each ad sale loses money")),""))',
+    "Aim ACoS": '=IF(I6="",K6,IF(seek_profit="yes",MAX(0,MIN(K6,I6,I6*click_elasticity/(1+click_elasticity))),'
+                'IF(AND(cap_target_at_break_even="yes",K6>I6),MAX(0,I6),K6)))',
+    # AO, after the hidden helpers (so it shows beside V): which rule set the aim.
+    "Why this aim": '=IF(I6="","your target (no margin known)",IF(AND(I6<=0,OR(seek_profit="yes",'
+                    'cap_target_at_break_even="yes")),"no positive margin: aim 0, bids cut",IF(seek_profit="yes",'
+                    'IF(K6<=I6*click_elasticity/(1+click_elasticity),"your target",'
+                    '"profit-seeking (click elasticity on Settings)"),IF(AND(cap_target_at_break_even="yes",K6>I6),'
+                    '"break-even","your target"))))',
     "Ad clicks": _block("Z", "AA", "in_ad_products!$F$2:$F$3"),
     "Ad orders": _block("Z", "AA", "in_ad_products!$I$2:$I$3"),
     "Product CVR": "=IF(OR(AB6=0,AC6=0),$AD$8,AC6/AB6)",
@@ -198,7 +208,7 @@ def _first_row(column, row: int) -> str | None:
 
 
 def test_ad_group_blends_are_computed_once_on_groups_from_weight_times_value_sums(with_targets):
-    # Groups: header row 3, C1/G1's products P1 and P2 on rows 4-5; D spend, E weight, F weight x Bid target ACoS
+    # Groups: header row 3, C1/G1's products P1 and P2 on rows 4-5; D spend, E weight, F weight x Aim ACoS
     # (Profit V), G above break-even, H/I/J weight x CVR / order value / price, K Profit row as built, L the
     # Profit row now (computed once per row, read by every lookup). The blends table:
     # header row 8 (a blank row and its title between), row 9 the account's values, row 10 C1/G1.
@@ -206,14 +216,14 @@ def test_ad_group_blends_are_computed_once_on_groups_from_weight_times_value_sum
     groups = {c.header: _first_row(c, 4) for c in sheet.table.columns}
     # K4 is checked against Profit's Position column (AI, after AH Revenue with a margin): Profit may be sorted.
     assert "=IF(INDEX(Profit!$AI$6:$AI$7,K4)=K4,K4,MATCH(K4,Profit!$AI$6:$AI$7,0))" == groups["Profit row now"]
-    assert "=E4*INDEX(Profit!$V$6:$V$7,L4)" == groups["Weight x target ACoS"]
+    assert "=E4*INDEX(Profit!$V$6:$V$7,L4)" == groups["Weight x aim ACoS"]
     assert "=E4*INDEX(Profit!$AD$6:$AD$7,L4)" == groups["Weight x CVR"]
     assert None is groups["Ad spend"] is groups["Blend weight"]  # export-only: plain values
     blends = sheet.more[0]
     assert 8 - 1 == blends.first_row
     row = {c.header: _first_row(c, 9) for c in blends.columns}
     block = "SUM(INDEX(Groups!$%s$4:$%s$5,C9):INDEX(Groups!$%s$4:$%s$5,D9))"
-    assert '=IF(C9="",default_target_acos,%s/E9)' % (block % (("F",) * 4)) == row["Target ACoS"]
+    assert '=IF(C9="",default_target_acos,%s/E9)' % (block % (("F",) * 4)) == row["Aim ACoS"]
     assert '=IF(C9="",Profit!$AD$8,%s/E9)' % (block % (("H",) * 4)) == row["Product CVR"]
     assert '=IF(OR(G9<=0,G9>=1),"",ROUNDUP(LN(1-zero_order_confidence)/LN(1-G9),0))' == row["Zero-order clicks"]
     values = {c.header: list(c.values) for c in blends.columns}
@@ -228,7 +238,7 @@ def test_a_bids_row_fetches_its_ad_group_blend_with_one_index_and_copies_its_exp
                for i, c in enumerate(table.columns)}
     row = {c.header: _first_row(c, 5) for c in table.columns}
     brow = letters["Blends row"]
-    assert f"=INDEX(Groups!$F$9:$F$10,{brow}5)" == row["Target ACoS"]
+    assert f"=INDEX(Groups!$F$9:$F$10,{brow}5)" == row["Aim ACoS"]
     assert f"=INDEX(Groups!$G$9:$G$10,{brow}5)" == row["Product CVR"]
     assert [2.0] == next(c.values for c in table.columns if c.header == "Blends row")
     assert {h: None for h in ("Impressions", "Clicks", "Spend", "Ad sales", "Orders", "CPC", "CVR", "ACoS",

@@ -34,7 +34,9 @@ from sheetbuilder.workbook.spec import FORMULA
 
 COST_PRODUCT = "LF-1012"  # strong with a spend-to-sales ratio above 1 in the demo
 NEW_THIN = 0.19
-TARGET_PRODUCT, NEW_TARGET = "LF-1012", 0.45  # its catalog target is 35%, its break-even 48% (so not capped)
+# Its catalog target is 35%, its break-even 48%, its profit-seeking aim 48% x 0.6 / 1.6 = 18%: a target of 10% is
+# below every cap, so the aim and the bids follow it down.
+TARGET_PRODUCT, NEW_TARGET = "LF-1012", 0.10
 TYPED = {"keep": "keep", "bid": 0.55}
 NEW_MULTIPLE = 0.5  # the demo uses the default 1.0
 
@@ -121,6 +123,8 @@ def make_edits(demo_build, work):
     out["edit_shift"] = edit_workbook(src, work / "edit_shift.xlsx", [(*_named_cell(src, "budget_shift_share"), 0)])
     from test_stock import stock_edits  # units available typed on in_inventory (issue 25), checked there
     out["edit_stock"] = edit_workbook(src, work / "edit_stock.xlsx", stock_edits(src))
+    from test_aim_live import aim_edits  # the click elasticity and seek_profit typed on Settings, checked there
+    out.update(aim_edits(src, work))
     spec = copy.deepcopy(demo_build.plan.spec)
     for column in spec.sheet("Profit").table.columns:
         if column.kind == FORMULA:
@@ -161,14 +165,14 @@ def test_libreoffice_replaces_wrong_cached_values(libreoffice, demo_build):
 
 
 @pytest.mark.libreoffice
-def test_raising_a_products_target_acos_raises_only_its_bids(libreoffice):
+def test_lowering_a_products_target_acos_below_its_aim_lowers_only_its_bids(libreoffice):
     before = bids_oracle_for(DEMO)
     expected = bids_oracle_for(DEMO, target_overrides={TARGET_PRODUCT: NEW_TARGET})
     rows, _ = bids_table(libreoffice["edit_target"])
     assert [] == mismatches(expected, rows, BIDS_CHECKED, "after target edit")
     mine = [k for k, r in rows.items() if TARGET_PRODUCT in r["Product ID"]]
-    assert all(rows[k]["Proposed bid"] >= before[k]["Proposed bid"] for k in mine)
-    assert any(rows[k]["Proposed bid"] > before[k]["Proposed bid"] for k in mine)
+    assert all(rows[k]["Proposed bid"] <= before[k]["Proposed bid"] for k in mine)
+    assert any(rows[k]["Proposed bid"] < before[k]["Proposed bid"] for k in mine)
     others = [k for k in rows if k not in mine]
     assert [before[k]["Proposed bid"] for k in others] == [rows[k]["Proposed bid"] for k in others]
 

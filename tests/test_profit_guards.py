@@ -4,8 +4,9 @@ values worked out by hand from the rules:
 - ad spend with no sales is a loss: Status loss, Direction cut, counted on the dashboard,
   its spend moved by the budget shift like any other cut product's;
 - a product with no ad spend reads `no ads` and receives nothing from the shift;
-- a target ACoS above break-even ACoS is flagged on Profit and Bids, and with
-  cap_target_at_break_even on (the default) the bids aim at break-even. The break-even rule
+- a target ACoS above break-even ACoS is flagged on Profit and Bids; with seek_profit off and
+  cap_target_at_break_even on the bids aim at break-even, with seek_profit on (the default) at
+  break-even x e / (1 + e). The break-even rule
   (above it, each ad-driven sale loses money before any other cost) is common practice in
   the trade, no single source.
 """
@@ -42,11 +43,13 @@ C1,G3,doohickey,exact,enabled,0.50,100,10,2.50,25.00,2
 """
 
 
-@pytest.fixture(scope="module", params=["yes", "no"])
+@pytest.fixture(scope="module", params=[("yes", "no"), ("no", "no"), ("yes", "yes")], ids=lambda p: "cap %s, seek %s" % p)
 def built(request, tmp_path_factory):
+    cap, seek = request.param
     folder = write_account(tmp_path_factory.mktemp("guards"), {
         "catalog.csv": CATALOG, "store_sales.csv": STORE_SALES, "ad_products.csv": AD_PRODUCTS,
-        "targets.csv": TARGETS, "settings.toml": f'cap_target_at_break_even = "{request.param}"\n'})
+        "targets.csv": TARGETS,
+        "settings.toml": f'cap_target_at_break_even = "{cap}"\nseek_profit = "{seek}"\n'})
     return request.param, build(folder, folder / "book.xlsx", built_on=BUILT_ON)
 
 
@@ -72,21 +75,31 @@ def test_a_product_without_ads_reads_no_ads_and_gets_no_budget(built):
     assert 5.0 == pytest.approx(budget.loc["P4", "proposed"])
 
 
-def test_a_target_above_break_even_is_flagged_and_capped_when_the_setting_is_on(built):
-    cap, result = built
+# By hand: P4's margin (10 - 7 - 1) / 10 = 20% under the default 30% target; P1's (20 - 8 - 2) / 20 = 50% over it.
+# With seek_profit yes and e = 0.6 the aims are 20% x 0.6 / 1.6 = 7.5% and 50% x 0.6 / 1.6 = 18.75% (< 30%).
+EXPECTED = {  # (cap, seek): (P4 aim, P4 why, P4 check, doohickey's check on Bids, P1 aim, P1 why)
+    ("yes", "no"): (0.20, "break-even", "above break-even: bids use break-even", "target capped at break-even",
+                    0.30, "your target"),
+    ("no", "no"): (0.30, "your target", "above break-even: each ad sale loses money", "target above break-even",
+                   0.30, "your target"),
+    ("yes", "yes"): (0.075, "profit-seeking (click elasticity on Settings)", "above break-even: bids use the aim",
+                     "target above break-even: aim used", 0.1875, "profit-seeking (click elasticity on Settings)"),
+}
+
+
+def test_a_target_above_break_even_is_flagged_and_the_aim_follows_the_settings(built):
+    settings, result = built
+    p4_aim, p4_why, p4_check, group_check, p1_aim, p1_why = EXPECTED[settings]
     rows, _, _ = profit_table(result.output)
-    p4 = rows["P4"]  # margin before ads (10 - 7 - 1) / 10 = 20%, default target 30%
+    p4 = rows["P4"]
     assert 0.20 == pytest.approx(p4["Break-even ACoS"])
     assert 0.30 == pytest.approx(p4["Target ACoS"])
-    expected_target = 0.20 if cap == "yes" else 0.30
-    assert expected_target == pytest.approx(p4["Bid target ACoS"])
-    assert ("above break-even: bids use break-even" if cap == "yes"
-            else "above break-even: each ad sale loses money") == p4["Target check"]
+    assert (p4_aim, p4_why, p4_check) == (pytest.approx(p4["Aim ACoS"]), p4["Why this aim"], p4["Target check"])
+    assert (p1_aim, p1_why) == (pytest.approx(rows["P1"]["Aim ACoS"]), rows["P1"]["Why this aim"])
     assert rows["P1"]["Target check"] in (None, "")  # 30% target under a 50% margin
     bids, _ = bids_table(result.output)
     by_target = {r["Target"]: r for r in bids.values()}
-    assert expected_target == pytest.approx(by_target["doohickey"]["Target ACoS"])
-    assert ("target capped at break-even" if cap == "yes" else "target above break-even") == \
-        by_target["doohickey"]["Target check"]
-    assert 0.30 == pytest.approx(by_target["widget"]["Target ACoS"])
+    assert p4_aim == pytest.approx(by_target["doohickey"]["Aim ACoS"])
+    assert group_check == by_target["doohickey"]["Target check"]
+    assert p1_aim == pytest.approx(by_target["widget"]["Aim ACoS"])
     assert by_target["widget"]["Target check"] in (None, "")

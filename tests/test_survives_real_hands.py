@@ -132,6 +132,10 @@ FLAGS = {"default_target_acos": ("not a number", "30%"), "min_clicks": ("not a n
          "bid_floor": ("not a number", "0.10"), "cap_target_at_break_even": ("not one of yes, no", "yes"),
          "period_end": ("not a date", "2026-11-29"), "max_bid_cut": ("outside 0% to 95%", "30%")}
 
+# The two settings of the profit-seeking aim (issue 23): a number outside 0.05 to 3 and a word not yes or no.
+PASTES["aim_settings_pasted"] = {"click_elasticity": 7, "seek_profit": "maybe"}
+FLAGS.update({"click_elasticity": ("outside 0.05 to 3", "0.6"), "seek_profit": ("not one of yes, no", "yes")})
+
 
 def _typed_setting_cell(wb, key: str) -> str:
     """The typed Value cell of a live setting on Settings (its defined name), as A1 text."""

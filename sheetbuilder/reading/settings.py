@@ -56,9 +56,18 @@ SETTINGS: tuple[SettingSpec, ...] = (
     SettingSpec("default_target_acos", "Default target ACoS", 0.30, "percent",
                 "Target ACoS for products whose catalog row gives none.", 0.0, 5.0),
     SettingSpec("cap_target_at_break_even", "Cap target ACoS at break-even", "yes", "choice",
-                "yes: bids aim at the lower of a product's target ACoS and its break-even ACoS (above break-even, "
-                "each ad-driven sale loses money before any other cost); no: at the target as given.",
+                "While Aim bids at profit is no: yes: bids aim at the lower of a product's target ACoS and its "
+                "break-even ACoS (above break-even, each ad-driven sale loses money before any other cost); no: at "
+                "the target as given.",
                 choices=("yes", "no")),
+    SettingSpec("seek_profit", "Aim bids at profit", "yes", "choice",
+                "yes: each product's bids aim at the lowest of its target ACoS, its break-even ACoS and the ACoS that "
+                "earns the most profit after ads (break-even x e / (1 + e), e the click elasticity below); no: at the "
+                "target (a seller who wants growth, more sales at less profit, says no).",
+                choices=("yes", "no")),
+    SettingSpec("click_elasticity", "Click elasticity (e)", 0.6, "number",
+                "How clicks answer a bid: a bid 10% higher brings about e x 10% more clicks (clicks grow as bid^e). "
+                "Used by the profit-seeking aim; lower e aims lower.", 0.05, 3.0),
     SettingSpec("period_days", "Period length (days)", 30, "int",
                 "How many days the exports cover.", 1, 3660),
     SettingSpec("period_end", "Period end date", None, "date",
@@ -156,6 +165,8 @@ class Settings:
     strong_margin: float = 0.20
     default_target_acos: float = 0.30
     cap_target_at_break_even: str = "yes"
+    seek_profit: str = "yes"
+    click_elasticity: float = 0.6
     period_days: int = 30
     period_end: dt.date | None = None
     attribution_days: int = 7

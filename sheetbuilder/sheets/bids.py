@@ -182,13 +182,14 @@ DEFS: list[ColumnDef] = [
     ColumnDef("acos", "ACoS", "percent", "Spend / ad sales.",
               lambda df, ctx: blank_div(df["spend"], df["ad_sales"]), '=IF({c:ad_sales}=0,"",{c:spend}/{c:ad_sales})',
               width=8),
-    fetch("target_acos", "Target ACoS", "percent",
-          "The product's target ACoS (Profit), or the ad group's spend-weighted blend (from Groups' blends).",
+    fetch("target_acos", "Aim ACoS", "percent",
+          "The ACoS the bids aim at: the product's Aim ACoS (Profit: your target, or lower where seek_profit "
+          "aims at profit), or the ad group's spend-weighted blend (from Groups' blends).",
           hidden=False),
     ColumnDef("bid", "Current bid", "money", "The bid now (in_targets).", lambda df, ctx: df["bid"], _in("bid"),
               width=9),
     ColumnDef("value_bid", "Value bid", "money",
-              "Current bid x target ACoS / smoothed ACoS: the bid at which a click costs what it is worth.",
+              "Current bid x aim ACoS / smoothed ACoS: the bid at which a click costs what it is worth.",
               _value_bid, '=IF(OR({c:s_acos}="",{c:s_acos}=0),"",{c:bid}*{c:target_acos}/{c:s_acos})', width=9),
     ColumnDef("proposed", "Proposed bid", "money",
               "A step from the current bid toward the value bid, within the caps, floor and ceiling; or the "

@@ -2,7 +2,7 @@
 
 The blends table on the Groups sheet holds one row per ad group (after a first row with
 the account's values): its block of product rows on Groups, its spend, and the blended
-target ACoS, CVR, order value, price, zero-order clicks, low stock (1 where any of its
+aim ACoS, CVR, order value, price, zero-order clicks, low stock (1 where any of its
 products is low on stock, whatever its spend) and target check. A Bids or Terms
 row fetches what it needs with one INDEX on its blends row, written as data, so no blend
 is recomputed per keyword or per search term.
@@ -103,10 +103,14 @@ def blend_frame(groups: pd.DataFrame) -> pd.DataFrame:
     return out.astype({"campaign": object, "ad_group": object, "gfirst": float, "glast": float})
 
 
+GROUP_ABOVE = ("target above break-even: aim used", "target capped at break-even", "target above break-even")
+
+
 def _target_check(df: pd.DataFrame, ctx: Any) -> pd.Series:
     above = block_sums(df, ctx.groups, "above").fillna(0.0) > 0
-    text = "target capped at break-even" if ctx.settings.cap_target_at_break_even == "yes" else \
-        "target above break-even"
+    s = ctx.settings
+    text = GROUP_ABOVE[0] if s.seek_profit == "yes" else GROUP_ABOVE[1] if s.cap_target_at_break_even == "yes" \
+        else GROUP_ABOVE[2]
     return pd.Series(np.where(above, text, ""), index=df.index, dtype=object)
 
 
@@ -136,8 +140,8 @@ def blend_columns() -> list[ColumnDef]:
         zero_order_column(),
         ColumnDef("target_check", "Target check", "label",
                   "Where a product of the ad group has a target ACoS above its break-even ACoS (see Profit).",
-                  _target_check, '=IF({c:gfirst}="","",IF(%s>0,IF(cap_target_at_break_even="yes",'
-                                 '"target capped at break-even","target above break-even"),""))' % block_sum("above"),
+                  _target_check, '=IF({c:gfirst}="","",IF(%s>0,IF(seek_profit="yes","%s",IF(cap_target_at_break_even='
+                                 '"yes","%s","%s")),""))' % (block_sum("above"), *GROUP_ABOVE),
                   width=22),
         ColumnDef("p_low", "Low stock", "int",
                   "1 where any product of the ad group is low on stock (Profit's Days of cover below the minimum): "
@@ -164,9 +168,9 @@ def blends_row_column() -> ColumnDef:
 
 
 def target_acos_column() -> ColumnDef:
-    """The blended target ACoS of an ad group."""
-    return ColumnDef("target_acos", "Target ACoS", "percent",
-                     "The product's target ACoS (Profit), or the ad group's spend-weighted blend.",
+    """The blended aim ACoS of an ad group (the default target ACoS where it advertises no product)."""
+    return ColumnDef("target_acos", "Aim ACoS", "percent",
+                     "The ACoS the product's bids aim at (Profit's Aim ACoS), or the ad group's spend-weighted blend.",
                      blend("w_target", lambda ctx: ctx.settings.default_target_acos),
                      blend_formula("w_target", "default_target_acos"), width=10)
 

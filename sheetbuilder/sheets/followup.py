@@ -198,7 +198,8 @@ CHANGE_DEFS = [
     _data("ad_sales_b", "Ad sales before", "money", "Working: ad sales last period.", hidden=True),
     _live_now("ad_sales", "Ad sales now", "money", "Working: ad sales this period.", hidden=True),
     _data("was", "Was", "money", "Working: the bid or budget when last week's list was made.", hidden=True),
-    _data("target_acos", "Target ACoS then", "percent", "Working: the product's target ACoS last week.",
+    _data("target_acos", "Aim ACoS then", "percent", "Working: the ACoS the product's bids aimed at last week "
+          "(Profit's Aim ACoS).",
           hidden=True),
     *[_data(f"{m}_nx", f"{m} now as read", "int", "Working: the figure this period as read from the exports.",
             hidden=True) for m in NOW_METRICS],

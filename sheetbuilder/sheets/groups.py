@@ -2,7 +2,7 @@
 
 One row per campaign, ad group and product (from in_ad_products), sorted so each ad
 group's products form one block. A target in an ad group that advertises several
-products uses their spend-weighted blend of target ACoS, conversion rate, order value
+products uses their spend-weighted blend of aim ACoS, conversion rate, order value
 and price (equal weights where the ad group has no spend); the weighted columns here are
 what the ad-group blends table below sums over each block, once per ad group.
 """
@@ -65,9 +65,9 @@ DEFS: list[ColumnDef] = [
     ColumnDef("weight", "Blend weight", "money",
               "The product's weight in its ad group's blend: its ad spend, or 1 each where the ad group has no spend "
               "(equal weights).", lambda df, ctx: df["weight"], kind=DATA, width=10, export=True),
-    _weighted("w_target", "Weight x target ACoS", "bid_target",
-              "Blend weight x the product's target ACoS (Profit's Bid target ACoS, live)."),
-    ColumnDef("above", "Above break-even", "int", "1 where the product's target ACoS is above its break-even ACoS.",
+    _weighted("w_target", "Weight x aim ACoS", "aim_acos",
+              "Blend weight x the ACoS the product's bids aim at (Profit's Aim ACoS, live)."),
+    ColumnDef("above", "Above break-even", "int", "1 where your target ACoS of the product is above its break-even ACoS.",
               lambda df, ctx: pd.Series([1.0 if ctx.profit["target_check"].iloc[int(r) - 1] else 0.0
                                          for r in df["prow"]], index=df.index, dtype=float),
               '=IF(INDEX({rng:profit.target_check},%s)<>"",1,0)' % _AT_PROFIT, width=8),

@@ -53,7 +53,7 @@ SHEETS_TEXT = [
                         "spend, ad sales, bid in force), one row each with its weeks listed oldest first and totals; "
                         "carried into every rebuild with --previous, a week never counted twice."),
     ("Groups", "Which products each ad group advertises, the spend weights used where it advertises several, and "
-               "below, each ad group's blended target ACoS, CVR, order value and price, computed once and fetched "
+               "below, each ad group's blended aim ACoS, CVR, order value and price, computed once and fetched "
                "by the Bids and Terms rows."),
     ("Keys", "A lookup table: existing exact keywords and negatives, by number (the Terms sheet looks them up), "
              "and the Clashes table: where a new negative would block a keyword the list adds or a term that sells."),
@@ -75,7 +75,7 @@ FOLLOWUP_TEXT = [
     "budget when the campaign's daily budget equals the planned one. Without a negatives or campaigns export, "
     "those rows read 'cannot tell'.",
     "Outcome compares the move with its intent: a bid cut hopes for lower CPC and ACoS; a raise for more clicks "
-    "with ACoS at or under the target; a negative for no spend on the term; a new keyword for its first clicks and "
+    "with ACoS at or under the aim its product's bids had last week (Profit's Aim ACoS then); a negative for no spend on the term; a new keyword for its first clicks and "
     "orders. 'as intended' means both hoped-for effects happened, 'mixed' one, 'not as intended' neither; 'too "
     "few clicks' where either period has fewer than min_clicks.",
     "Compare periods that do not overlap: weekly 7-day exports. Two 30-day exports a week apart share 23 days, "
@@ -108,7 +108,8 @@ STEPS = [
     "2. On Profit, sort or filter by Status and Direction; loss and thin products come first to review.",
     "3. Correct any unit cost, fee or price on in_catalog, or a threshold on Settings: everything recalculates.",
     "4. On Bids, review the proposed bids; type a bid or 'keep' in Decision where you disagree.",
-    "5. Raise or lower a product's target ACoS in 'Your target ACoS' on Profit: its bids follow.",
+    "5. Raise or lower a product's target ACoS in 'Your target ACoS' on Profit: its Aim ACoS and bids follow "
+    "(up to the profit-seeking aim while seek_profit is yes).",
     "6. On Terms, check the verdicts; Harvest lists the terms to add, Negatives the terms to block.",
     "7. On Mix and Budget, see where spend goes and the proposed shift; type a Decision where you disagree.",
     "8. Actions lists every change you have settled on; export it with the changes command and apply it.",
@@ -145,9 +146,15 @@ BID_METHOD = [
     "minimum days of cover) is never raised (low stock: not raised); its cuts still apply.",
     "Target above break-even: break-even ACoS equals the margin before ads; above it, each ad-driven sale "
     "loses money before any other cost (common practice in the trade, no single source). Profit and Bids say so "
-    "in Target check, and while cap_target_at_break_even is yes (Settings) the bids aim at the lower of the two "
-    "(Profit's Bid target ACoS).",
-    "Shared ad groups: where an ad group advertises several products, their target ACoS, conversion rate and "
+    "in Target check.",
+    "The aim: bids aim at Profit's Aim ACoS, not always at your target. With seek_profit yes (the default) it is "
+    "the lowest of your target, break-even and break-even x e / (1 + e), the ACoS that earns the most profit "
+    "after ads when clicks grow as bid^e (e: click elasticity on Settings, 0.6 unless you type another); at "
+    "e = 0.6 that is 37.5% of the margin. A seller who wants growth, more sales at less profit, sets seek_profit "
+    "to no: the bids then aim at the target, capped at break-even while cap_target_at_break_even is yes. Why "
+    "this aim says which rule decided; a product with no positive margin aims at 0 (its bids are cut toward the "
+    "floor), one without a known margin at its target.",
+    "Shared ad groups: where an ad group advertises several products, their aim ACoS, conversion rate and "
     "order value are blended, weighted by each product's ad spend in the group (see Groups).",
     "Working columns: unhide the columns right of Final bid on Bids to see each step (product CVR, smoothed "
     "CVR and ACoS, the zero-order clicks, the rule number 1-11 and the unrounded bid).",
@@ -187,6 +194,10 @@ SOURCES = [
     "above 1 it is given more than it brings.",
     "Value-per-click bidding: H. R. Varian, 'Position auctions', International Journal of Industrial "
     "Organization 25 (2007).",
+    "Profit-seeking aim: profit m v b^e - b^(e+1) is highest at an ACoS of m e / (1 + e), the inverse-elasticity "
+    "rule of pricing applied to the bid (derived in the README). Click elasticity from the keyword history: a "
+    "Poisson regression with one fixed effect per keyword, fitted by its conditional likelihood (J. A. Hausman, "
+    "B. H. Hall and Z. Griliches, Econometrica 52, 1984).",
     "Smoothing: a Beta prior worth k clicks, the empirical-Bayes shrinkage used for rare-event click and "
     "conversion rates; its posterior mean is (orders + k p) / (clicks + k).",
     "Zero-order threshold: the binomial chance of no orders in n clicks, (1 - p)^n; at 95% it is close to the "

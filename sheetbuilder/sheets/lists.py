@@ -183,7 +183,7 @@ HARVEST_DEFS: list[ColumnDef] = [
               *_derived(lambda r, s: "choose destination" if r["dest_campaign"] == "" else "",
                         '=IF({c:pos}="","",IF({c:dest_campaign}="","choose destination",""))'), width=18),
     ColumnDef("value_bid", "Value bid", "money",
-              "Working: target ACoS x smoothed CVR x order value (the ad group's blends from Groups; the order value "
+              "Working: aim ACoS x smoothed CVR x order value (the ad group's blends from Groups; the order value "
               "is the term's own where it has orders): what a click on the term is worth.",
               *_from_terms("value_bid", formula=_VALUE_BID), width=9, hidden=True),
     _pos_column("promote"),

@@ -118,20 +118,56 @@ def _low(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
     return (number & below).astype(float)
 
 
-def _bid_target(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
-    above = df["margin"].notna() & (df["target_acos"] > df["margin"])
-    capped = above & (ctx.settings.cap_target_at_break_even == "yes")
-    return df["target_acos"].where(~capped, df["margin"].clip(lower=0.0)).astype(float)
+def _seeking(margin, ctx: ProfitContext):
+    """Break-even x e / (1 + e): the ACoS of most profit after ads (in the formula's order of operations)."""
+    e = ctx.settings.click_elasticity
+    return margin * e / (1 + e)
+
+
+def _aim(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
+    s = ctx.settings
+    margin, target = df["margin"], df["target_acos"]
+    known = margin.notna()
+    if s.seek_profit == "yes":
+        seeking = np.maximum(0.0, np.minimum(np.minimum(target, margin), _seeking(margin, ctx)))
+        return target.where(~known, seeking).astype(float)
+    capped = known & (target > margin) & (s.cap_target_at_break_even == "yes")
+    return target.where(~capped, margin.clip(lower=0.0)).astype(float)
+
+
+def _aim_why(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
+    s = ctx.settings
+    out = []
+    for margin, target in zip(df["margin"], df["target_acos"]):
+        if pd.isna(margin):
+            out.append(AIM_NO_MARGIN)
+        elif margin <= 0 and (s.seek_profit == "yes" or s.cap_target_at_break_even == "yes"):
+            out.append(AIM_LOSS)
+        elif s.seek_profit == "yes":
+            out.append(AIM_TARGET if target <= _seeking(margin, ctx) else AIM_PROFIT)
+        else:
+            out.append(AIM_BREAK_EVEN if target > margin and s.cap_target_at_break_even == "yes" else AIM_TARGET)
+    return pd.Series(out, index=df.index, dtype=object)
 
 
 def _target_check(df: pd.DataFrame, ctx: ProfitContext) -> pd.Series:
     above = df["margin"].notna() & (df["target_acos"] > df["margin"])
-    text = ABOVE_CAPPED if ctx.settings.cap_target_at_break_even == "yes" else ABOVE_UNCAPPED
+    s = ctx.settings
+    text = ABOVE_AIMED if s.seek_profit == "yes" else ABOVE_CAPPED if s.cap_target_at_break_even == "yes" \
+        else ABOVE_UNCAPPED
     return pd.Series(np.where(above, text, ""), index=df.index, dtype=object)
 
 
+ABOVE_AIMED = "above break-even: bids use the aim"
 ABOVE_CAPPED = "above break-even: bids use break-even"
 ABOVE_UNCAPPED = "above break-even: each ad sale loses money"
+AIM_TARGET = "your target"
+AIM_BREAK_EVEN = "break-even"
+AIM_PROFIT = "profit-seeking (click elasticity on Settings)"
+AIM_LOSS = "no positive margin: aim 0, bids cut"
+AIM_NO_MARGIN = "your target (no margin known)"
+# The profit-seeking aim: break-even x e / (1 + e), e the click elasticity in use on Settings.
+_SEEKING = "{c:margin}*click_elasticity/(1+click_elasticity)"
 
 
 def _account_cvr(df: pd.DataFrame, ctx: ProfitContext) -> float:
@@ -255,17 +291,23 @@ DEFS: list[ColumnDef] = [
               'IF(AND(OR({c:status}="loss",{c:status}="thin"),{c:ratio}>1),"cut",IF({c:low}=1,"%s",'
               'IF(AND({c:status}="strong",{c:ratio}<1),"grow","hold"))))))' % (LOW_STOCK, LOW_STOCK), width=10),
     ColumnDef("target_override", "Your target ACoS", "percent_input",
-              "Input: type a target ACoS for the product to override the catalog and the default; its bids follow.",
+              "Input: type a target ACoS for the product to override the catalog and the default; its Aim ACoS and "
+              "bids follow (up to the profit-seeking aim while seek_profit is yes).",
               lambda df, ctx: df["target_override"], kind=INPUT, width=10),
     ColumnDef("target_check", "Target check", "label",
-              "Where the target ACoS is above break-even, each ad-driven sale loses money before any other cost.",
-              _target_check, '=IF({c:margin}="","",IF({c:target_acos}>{c:margin},IF(cap_target_at_break_even="yes",'
-              '"%s","%s"),""))' % (ABOVE_CAPPED, ABOVE_UNCAPPED), width=40),
-    ColumnDef("bid_target", "Bid target ACoS", "percent",
-              "The target the bids aim at: the lower of target and break-even ACoS (never below 0) when "
-              "cap_target_at_break_even is yes, else the target.", _bid_target,
-              '=IF(AND(cap_target_at_break_even="yes",{c:margin}<>""),IF({c:target_acos}>{c:margin},'
-              'MAX(0,{c:margin}),{c:target_acos}),{c:target_acos})', width=9),
+              "Where your target ACoS is above break-even, each ad-driven sale at that target loses money before any "
+              "other cost; says what the bids use instead.",
+              _target_check, '=IF({c:margin}="","",IF({c:target_acos}>{c:margin},IF(seek_profit="yes","%s",'
+              'IF(cap_target_at_break_even="yes","%s","%s")),""))' % (ABOVE_AIMED, ABOVE_CAPPED, ABOVE_UNCAPPED),
+              width=40),
+    ColumnDef("aim_acos", "Aim ACoS", "percent",
+              "The ACoS the product's bids aim at. With seek_profit yes: the lowest of Target ACoS, break-even and "
+              "break-even x e / (1 + e), the ACoS that earns the most profit after ads when clicks grow as bid^e "
+              "(e: click elasticity on Settings), never below 0. With seek_profit no: Target ACoS, capped at "
+              "break-even (never below 0) when cap_target_at_break_even is yes. Target ACoS where no margin is known.",
+              _aim, '=IF({c:margin}="",{c:target_acos},IF(seek_profit="yes",MAX(0,MIN({c:target_acos},{c:margin},'
+              '%s)),IF(AND(cap_target_at_break_even="yes",{c:target_acos}>{c:margin}),MAX(0,{c:margin}),'
+              '{c:target_acos})))' % _SEEKING, width=9),
     # Helper columns: row positions written as data, and two sums for the margin totals.
     ColumnDef("cat_row", "Catalog row", "int", "Helper: the product's position on in_catalog.",
               lambda df, ctx: df["cat_row"], kind=DATA, width=8, hidden=True),
@@ -321,6 +363,15 @@ DEFS: list[ColumnDef] = [
               "position column (found again when in_catalog was sorted); computed once for every catalog lookup.",
               lambda df, ctx: df["cat_row"], '=IF({c:cat_row}="","",%s)' % keyed_row("{rng:catalog.position}", "{c:cat_row}"),
               width=8, hidden=True),
+    # Shown beside Aim ACoS while the helpers between them are hidden (placed here, the helpers keep their letters).
+    ColumnDef("aim_why", "Why this aim", "label",
+              "Which rule set Aim ACoS: your target; break-even (the cap); profit-seeking (break-even x e / (1 + e) "
+              "is below your target); no positive margin (every ad sale loses money: aim 0, so the bids are cut "
+              "step by step toward the floor); or your target where no margin is known.",
+              _aim_why, '=IF({c:margin}="","%s",IF(AND({c:margin}<=0,OR(seek_profit="yes",'
+              'cap_target_at_break_even="yes")),"%s",IF(seek_profit="yes",IF({c:target_acos}<=%s,"%s","%s"),'
+              'IF(AND(cap_target_at_break_even="yes",{c:target_acos}>{c:margin}),"%s","%s"))))'
+              % (AIM_NO_MARGIN, AIM_LOSS, _SEEKING, AIM_TARGET, AIM_PROFIT, AIM_BREAK_EVEN, AIM_TARGET), width=30),
     notes_column(),  # the user's notes at the right end
 ]
 STOCK = ("stock", "cover", "low")  # without an inventory export written as values (blank, blank, 0): see stock_as_values

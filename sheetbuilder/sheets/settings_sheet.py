@@ -153,14 +153,16 @@ def _shown(spec, value):
 
 
 def plan_settings(settings: Settings, built_on: dt.date, period=None,
-                  as_built: Settings | None = None, account: Account | None = None
-                  ) -> tuple[Sheet, list[tuple[str, str]]]:
+                  as_built: Settings | None = None, account: Account | None = None,
+                  beside: dict[str, str] | None = None) -> tuple[Sheet, list[tuple[str, str]]]:
     """The Settings sheet and the workbook names pointing at its cells.
 
     period, when the exports carry dates, is the periods.Period read from them; a row says so.
     as_built holds the values from settings.toml or the defaults when settings carries
     last week's typed values; the "As built" column records those, so a typed value is
     told apart from the built one in every later week.
+    beside: {setting key: text} added after the setting's explanation (the click elasticity estimated
+    from the keyword history).
     """
     as_built = settings if as_built is None else as_built
     rows: list[list[Cell | None]] = [
@@ -180,8 +182,9 @@ def plan_settings(settings: Settings, built_on: dt.date, period=None,
         style = _STYLE[spec.kind]
         value = _shown(spec, settings.value(spec.key))
         built = _shown(spec, as_built.value(spec.key))
+        help_text = spec.help + (" " + beside[spec.key] if beside and spec.key in beside else "")
         cells: list[Cell | None] = [Cell(spec.label), None, None, None,
-                                    Cell(spec.help, style="text" if spec.live else "note"),
+                                    Cell(help_text, style="text" if spec.live else "note"),
                                     Cell(spec.key, style="note"), Cell(built, style=style)]
         if not spec.live:
             cells[VALUE] = Cell(value, style=style, kind=DATA)

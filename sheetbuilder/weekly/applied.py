@@ -173,7 +173,7 @@ def followup_rows(changes: list[dict], before: dict, now: dict, targets: dict[st
         changes: last week's change list (kind, campaign, ad_group, target, match_type, product_id,
             current, new).
         before, now: the two periods' input tables.
-        targets: the target ACoS of each product last week (for a raised bid's outcome).
+        targets: the aim ACoS of each product last week (for a raised bid's outcome).
     """
     out = []
     for ch in changes:

@@ -114,7 +114,7 @@ def followup_of(saved: SavedWorkbook, tables: dict, settings: Settings, period: 
     products = {str(r["product_id"]): {k: r[k] for k in ("revenue", "ad_spend", "tacos", "net_profit", "status",
                                                          "direction")}
                 for r in profit.to_dict("records")}
-    targets = {str(p): float(t) for p, t in zip(profit["product_id"], profit["target_acos"])
+    targets = {str(p): float(t) for p, t in zip(profit["product_id"], profit["aim_acos"])  # what its bids aimed at
                if number_or_none(t) is not None}
     rows = followup_rows(changes, before, tables, targets)
     return Followup(rows, products, last, current, name, settings.min_clicks), []
