@@ -218,6 +218,7 @@ class _SheetParser:
 
 
 _UNWANTED = _Cell()
+_FORMULA_CELL = (None, True)  # a formula cell as a stream hands it over, its saved value unread
 
 
 def padded_rows(found: dict[int, dict[int, Any]]) -> list[list[Any]]:
@@ -284,10 +285,47 @@ class _RowStream(_SheetParser):
             return
         cell = self.cell
         if code == _C and cell.wanted:  # a formula's saved value is not read: only its presence is asked for
-            self.cells[cell.col] = (None, True) if cell.formula else (self.reader.value(cell, False), False)
+            self.cells[cell.col] = _FORMULA_CELL if cell.formula else (self.reader.value(cell, False), False)
             self.cell = _UNWANTED
         elif cell.wanted:
             super().end(name)
+
+
+class _RecordingRead(_RowStream):
+    """A read of some columns that also keeps every row as a stream of all columns would hand it over."""
+
+    def __init__(self, reader: CellReader, columns: frozenset[int] | None, formulas: bool,
+                 streamed: list[tuple[int, dict[int, tuple[Any, bool]]]]):
+        super().__init__(reader, None, lambda r, cells: streamed.append((r, cells)))
+        self.kept_columns, self.formulas = columns, formulas
+
+    def end(self, name: str) -> None:
+        cell = self.cell
+        if cell.wanted and (self.tags.get(name) or self.tag(name)) == _C:
+            kept = self.kept_columns is None or cell.col in self.kept_columns
+            if kept:
+                value = self.reader.value(cell, self.formulas)
+                self.found.setdefault(cell.row, {})[cell.col] = value
+            self.cells[cell.col] = _FORMULA_CELL if cell.formula else (
+                value if kept else self.reader.value(cell, False), False)
+            self.cell = _UNWANTED
+            return
+        super().end(name)
+
+
+def read_recording(handle: IO[bytes], reader: CellReader, columns: frozenset[int] | None = None,
+                   formulas: bool = False) -> tuple[list[list[Any]], list[tuple[int, dict[int, tuple[Any, bool]]]]]:
+    """:func:`read_cells` and, in the same pass, every row as :func:`stream_cells` hands it over (all columns).
+
+    A later stream of the sheet replays the rows kept instead of reading the part again.
+
+    Raises:
+        DamagedSheet: the part is not well-formed XML or a reference cannot be read.
+    """
+    streamed: list[tuple[int, dict[int, tuple[Any, bool]]]] = []
+    sheet = _RecordingRead(reader, columns, formulas, streamed)
+    _parse(handle, sheet)
+    return padded_rows(sheet.found), streamed
 
 
 def stream_cells(handle: IO[bytes], reader: CellReader,
