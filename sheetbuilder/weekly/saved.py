@@ -119,7 +119,7 @@ class SavedBook:
         self._cache: dict[tuple, list[list[Any]]] = {}
         self._tabs: Tabs | None = None
         self.streamed_again: set[str] = set()  # sheets (as built) whose first read keeps its rows for a later stream
-        self._streamed: dict[str, list[tuple[int, dict[int, tuple[Any, bool]]]]] = {}
+        self._streamed: dict[str, Any] = {}  # {sheet: its rows kept by its first read (sheet_xml.KeptRows)}
 
     def area(self, name: str) -> Area | None:
         """The area a workbook-level defined name covers, or None when it is missing, broken or off-sheet."""
@@ -142,10 +142,7 @@ class SavedBook:
         :func:`sheetbuilder.weekly.sheet_xml.stream_cells`: (0-based row, {column: (value, holds a formula)}),
         only columns when given; on_row returns True to stop). Nothing when the sheet is absent."""
         if sheet in self._streamed:  # kept by the sheet's first read: not read again
-            for r, cells in self._streamed[sheet]:
-                wanted = dict(cells) if columns is None else {c: v for c, v in cells.items() if c in columns}
-                if wanted and on_row(r, wanted):
-                    return
+            self._streamed[sheet].stream(on_row, columns)
         elif sheet in self.sheetnames:
             try:  # a damaged sheet is refused whole, as a read refuses it
                 self.file.stream(sheet, on_row, columns, NO_SAVED_VALUE)

@@ -64,7 +64,7 @@ class XlsxFile:
         return self._parse(sheet, no_saved_value, lambda fh, reader: read_cells(fh, reader, columns, formulas))
 
     def read_recording(self, sheet: str, columns: frozenset[int] | None = None, formulas: bool = False,
-                       no_saved_value: Any = None) -> tuple[list[list[Any]], list[tuple[int, dict]]]:
+                       no_saved_value: Any = None) -> tuple[list[list[Any]], Any]:
         """:meth:`read`, and every row as :meth:`stream` would hand it over (all columns), in one pass.
 
         Raises:
