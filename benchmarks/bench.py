@@ -41,7 +41,7 @@ from .attribution import attribute, report_attribution
 from .libreoffice import lo_convert_seconds, uno_available, uno_times
 from .twin import count_cells, input_rows, make_twin
 
-AIMS = ("aims: build <= 1.5x plain write; LO recalc <= 1.5x loading the values-only twin; <= 10 formula cells "
+AIMS = ("aims: build <= 1.5x plain write; changes <= 5 s and <= 500 MB at 10k; --previous <= 1.2x a build; LO recalc <= 1.5x loading the values-only twin; <= 10 formula cells "
         "per input row; --previous carrying 52 weeks of keyword history < 2x --previous; < 10 million cells and "
         "< 100 MB at 100k keywords; 10x rows <= 11x time; one unit-cost edit <= 1 s at 10k; peak build memory "
         "<= 2 GB at 1 million search-term rows")
@@ -84,6 +84,9 @@ def measure_size(n: int, base: Path, libreoffice: bool, uno: bool, terms_ratio: 
     row.update(_child(["plain", str(base / "inputs"), str(plain)]))
     row.update(_child(["previous", str(base / "inputs"), str(book)]))
     row.update(_child(["changes", str(book), str(base / "changes.csv")]))
+    bare = base / "no_values.xlsx"
+    _child(["no_values", str(book), str(bare)])
+    row.update(_child(["changes_no_values", str(bare), str(base / "changes.csv")]))
     t = time.perf_counter()
     make_twin(book, twin)
     row["twin_s"] = time.perf_counter() - t
@@ -95,6 +98,7 @@ def measure_size(n: int, base: Path, libreoffice: bool, uno: bool, terms_ratio: 
     row["formulas_per_input_row"] = _ratio(row["formula_cells"], row["input_rows"])
     row["cells_vs_mark"] = row["grid_cells"] / CELL_MARK
     row["previous_build_ratio"] = _ratio(row["previous_s"], row["build_s"])
+    row["previous_build_cpu_ratio"] = _ratio(row.get("previous_cpu_s"), row.get("build_cpu_s"))
     if history_weeks > 0:
         measure_history(row, base, history_weeks)
     row["build_plain_ratio"] = _ratio(row["build_s"], row["plain_s"])
@@ -127,14 +131,21 @@ COLUMNS = [("search-term rows", "st_rows", "d"), ("Terms rows", "terms_rows", "d
            ("values-only twin MB", "twin_mb", ".2f"), ("build s", "build_s", ".2f"), ("render s", "render_s", ".2f"),
            ("plain write s", "plain_s", ".2f"), ("build/plain", "build_plain_ratio", ".2f"),
            ("render/plain", "render_plain_ratio", ".2f"), ("build peak MB", "peak_mb", ".0f"),
+           ("build CPU s", "build_cpu_s", ".2f"),
            ("--previous s", "previous_s", ".2f"), ("previous/build", "previous_build_ratio", ".2f"),
+           ("--previous CPU s", "previous_cpu_s", ".2f"), ("previous/build CPU", "previous_build_cpu_ratio", ".2f"),
+           ("--previous peak MB", "previous_peak_mb", ".0f"),
            ("keyword history weeks", "kh_weeks", "d"),
            ("build --history s (weeks recorded)", "kh_history_build_s", ".2f"),
            ("--previous with the history s", "kh_previous_s", ".2f"),
            ("... / --previous", "kh_previous_ratio", ".2f"),
            ("... CPU s / --previous CPU s", "kh_previous_cpu_ratio", ".2f"),
            ("workbook with the history MB", "kh_file_mb", ".2f"),
-           ("changes s", "changes_s", ".2f"), ("changes (no cached values) s", "changes_no_values_s", ".2f"),
+           ("changes s", "changes_s", ".2f"), ("changes CPU s", "changes_cpu_s", ".2f"),
+           ("changes peak MB", "changes_peak_mb", ".0f"),
+           ("changes (no cached values) s", "changes_no_values_s", ".2f"),
+           ("changes (no cached values) CPU s", "changes_no_values_cpu_s", ".2f"),
+           ("changes (no cached values) peak MB", "changes_no_values_peak_mb", ".0f"),
            ("twin made s", "twin_s", ".2f"),
            ("LO convert with recalc s", "lo_recalc_s", ".2f"), ("LO convert twin s", "lo_twin_s", ".2f"),
            ("LO recalc/twin (convert)", "recalc_twin_ratio", ".2f"),

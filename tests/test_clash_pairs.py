@@ -63,3 +63,18 @@ def test_terms_sharing_a_leading_word_are_not_compared_pairwise(monkeypatch):
     monkeypatch.setattr(terms_module, "contains_phrase", lambda t, p: calls.append(1) or real(t, p))
     assert 0 == len(clash_pairs(frame))
     assert len(calls) <= 300
+
+
+def test_many_terms_sharing_a_leading_word_give_every_pair_compared():
+    # 300 generated terms, every one starting with "lamp", most of them holding another's words in order
+    # ("lamp desk" in "lamp desk led"): the index must find exactly the pairs the brute force finds.
+    import random
+    rnd = random.Random(24)
+    tails = ["desk", "led", "warm", "white", "desk led", "warm white", "led desk", "white desk led"]
+    rows = [(rnd.choice(["C1", "C2"]), rnd.choice(["G1", "G2"]), rnd.choice(["", "C1", "C2"]),
+             rnd.choice(["", "G1", "G2"]), "lamp " + rnd.choice(tails) + rnd.choice(["", "", " k%d" % rnd.randrange(40)]),
+             rnd.choice([0.0, 1.0])) for _ in range(300)]
+    frame = _frame(rows)
+    expected = _every_pair(frame)
+    assert len(expected) > 1000  # the set really clashes a lot
+    assert expected == sorted(map(tuple, clash_pairs(frame).to_numpy().tolist()))

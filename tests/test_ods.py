@@ -161,6 +161,23 @@ def test_a_formula_without_a_saved_value_is_marked_when_formulas_are_asked_for(t
     assert [[MISSING, MISSING, 4]] == read(tmp_path, rows, formulas=True)  # as the .xlsx reader reads <v></v>
 
 
+@pytest.mark.parametrize("columns", [None, frozenset({1, 4})])
+def test_a_read_that_keeps_its_rows_gives_the_read_and_the_stream_of_two_passes(tmp_path, columns):
+    # Expected: the two separate passes it stands for (read, then stream), on repeats, formulas and text.
+    rows = (row(number("1"), number("2", repeat=3), '<table:table-cell table:formula="of:=1+1"/>')
+            + row(text("a"), EMPTY, text("b"), repeat=2)
+            + row('<table:table-cell table:number-columns-repeated="3"/>',
+                  '<table:table-cell table:formula="of:=2" office:value-type="float" office:value="2"/>', number("5")))
+    with OdsFile(ods_file(tmp_path / "book.ods", table("S", rows))) as book:
+        streamed = []
+        book.stream("S", lambda r, cells: streamed.append((r, dict(cells))) and None, None, MISSING)
+        expected = book.read("S", columns, True, MISSING), streamed
+        got, kept = book.read_recording("S", columns, True, MISSING)
+    again = []
+    kept.stream(lambda r, cells: again.append((r, dict(cells))) and None)
+    assert expected == (got, again)
+
+
 NAMES = ('<table:named-expressions>'
          '<table:named-range table:name="costs" table:base-cell-address="$Profit.$A$1" '
          'table:cell-range-address="$Profit.$A$6:.$A$31"/>'

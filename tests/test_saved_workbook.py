@@ -64,3 +64,30 @@ def test_the_record_holds_what_both_commands_read(demo_build):
     assert BUILT_ON == record.built_on
     assert set(week1.plan.tables["Actions"].frame["kind"]) - {""} == {v[0] for _, v in record.actions} - {None, ""}
     assert [] == record.followup  # the first week has no Follow-up sheet
+
+
+def test_changes_reads_the_sheets_it_checks_twice_in_one_pass_each(demo_build, monkeypatch):
+    # Bids, Terms and Actions are read for their typed columns and list, then checked for cells typed over
+    # a formula: the first read keeps the rows the check streams, so each part is parsed once.
+    from sheetbuilder.weekly import xlsx
+    parsed: list[str] = []
+    real = xlsx.XlsxFile._parse
+    monkeypatch.setattr(xlsx.XlsxFile, "_parse", lambda self, sheet, *a: parsed.append(sheet) or real(self, sheet, *a))
+    read_saved_workbook(demo_build.output, for_changes=True)
+    assert [1, 1, 1] == [parsed.count(s) for s in ("Bids", "Terms", "Actions")]
+
+
+@pytest.mark.parametrize("columns", [None, {0, 5, 9}])
+def test_a_stream_replayed_from_the_first_read_hands_over_what_the_file_does(demo_build, columns):
+    # Expected: the rows a stream of the file itself hands over (the same sheets, a book that keeps nothing).
+    def streamed(book, sheet):
+        rows = []
+        book.stream(sheet, lambda r, cells: rows.append((r, cells)) and None, None if columns is None else set(columns))
+        return rows
+    with saved.SavedBook(demo_build.output) as plain:
+        expected = {s: streamed(plain, s) for s in ("Bids", "Terms", "Actions")}
+    with saved.SavedBook(demo_build.output) as book:
+        book.streamed_again = {"Bids", "Terms", "Actions"}
+        for s in expected:
+            book.rows(s, frozenset({1}))
+        assert expected == {s: streamed(book, s) for s in expected}

@@ -53,6 +53,12 @@ def _weighted(key: str, header: str, profit_key: str, help: str) -> ColumnDef:
                      width=11)
 
 
+def _above(df: pd.DataFrame, profit: pd.DataFrame) -> pd.Series:
+    """1 where the row's product (its Profit row) has a target ACoS above break-even."""
+    checks = profit["target_check"].to_numpy()
+    return pd.Series([1.0 if checks[int(r) - 1] else 0.0 for r in df["prow"]], index=df.index, dtype=float)
+
+
 DEFS: list[ColumnDef] = [
     ColumnDef("campaign", "Campaign", "text", "The campaign.", lambda df, ctx: df["campaign"], kind=DATA, width=24),
     ColumnDef("ad_group", "Ad group", "text", "The ad group.", lambda df, ctx: df["ad_group"], kind=DATA, width=22),
@@ -68,8 +74,7 @@ DEFS: list[ColumnDef] = [
     _weighted("w_target", "Weight x aim ACoS", "aim_acos",
               "Blend weight x the ACoS the product's bids aim at (Profit's Aim ACoS, live)."),
     ColumnDef("above", "Above break-even", "int", "1 where your target ACoS of the product is above its break-even ACoS.",
-              lambda df, ctx: pd.Series([1.0 if ctx.profit["target_check"].iloc[int(r) - 1] else 0.0
-                                         for r in df["prow"]], index=df.index, dtype=float),
+              lambda df, ctx: _above(df, ctx.profit),
               '=IF(INDEX({rng:profit.target_check},%s)<>"",1,0)' % _AT_PROFIT, width=8),
     _weighted("w_cvr", "Weight x CVR", "prod_cvr", "Blend weight x the product's ad conversion rate (Profit)."),
     _weighted("w_aov", "Weight x order value", "prod_aov", "Blend weight x the product's ad sales per order (Profit)."),

@@ -89,10 +89,14 @@ def _pick(column: str, text: bool = False):
 def _derived(fn, formula: str):
     """A list column computed from the row's own values and its Terms row (_<column>) (blank where it is empty)."""
     def compute(df: pd.DataFrame, ctx: ListContext) -> pd.Series:
+        rows = df.to_dict("records")
+        at = sorted({int(r["pos"]) - 1 for r in rows if not pd.isna(r["pos"])})
+        terms = dict(zip(at, ctx.terms.iloc[at].to_dict("records")))  # the Terms rows shown, each taken once
+
         def row(r: dict) -> dict:
-            term = ctx.terms.iloc[int(r["pos"]) - 1]
+            term = terms[int(r["pos"]) - 1]
             return {**r, **{"_" + k: v for k, v in term.items()}, "_src_ad_group": term["ad_group"]}
-        return pd.Series([fn(row(r), ctx.settings) if not pd.isna(r["pos"]) else "" for r in df.to_dict("records")],
+        return pd.Series([fn(row(r), ctx.settings) if not pd.isna(r["pos"]) else "" for r in rows],
                          index=df.index, dtype=object)
     return compute, formula
 

@@ -77,7 +77,7 @@ def same_exports(before: dict, now: dict) -> bool:
     for name in COMPARED_TABLES:
         cols = tuple(col.name for col in c.TABLE_BY_NAME[name].columns)
         a, b = before.get(name), now.get(name)
-        if (a is None) != (b is None):
+        if (a is None) != (b is None) or (a is not None and len(a) != len(b)):  # a row more: not the same
             return False
         if a is not None and _rows_of(a, tuple(k for k in cols if k in a)) != _rows_of(
                 b, tuple(k for k in cols if k in a)):

@@ -38,7 +38,7 @@ from xml.sax.saxutils import quoteattr
 from sheetbuilder.reading import guard
 from sheetbuilder.reading.guard import UnsafeWorkbook, saved_limits
 from sheetbuilder.weekly.names import Area, odf_area
-from sheetbuilder.weekly.sheet_xml import CHUNK, DamagedSheet, iso_datetime, number, padded_rows
+from sheetbuilder.weekly.sheet_xml import CHUNK, DamagedSheet, KeptRows, iso_datetime, number, padded_rows
 
 MIMETYPE = "application/vnd.oasis.opendocument.spreadsheet"
 CONTENT = "content.xml"
@@ -199,7 +199,8 @@ class OdsFile:
     """An .ods saved workbook, opened: sheet names, defined names, and each sheet's cells on request.
 
     Offers what :class:`sheetbuilder.weekly.saved.SavedBook` reads from an .xlsx: ``sheetnames``,
-    ``area(name)``, ``has_name(name)``, ``read(sheet, columns, formulas, no_saved_value)`` and ``close()``.
+    ``area(name)``, ``has_name(name)``, ``read(sheet, columns, formulas, no_saved_value)``, ``read_recording``
+    (the read and the rows a stream hands over, in one pass), ``stream`` and ``close()``.
 
     Raises:
         DamagedSheet: content.xml is not well-formed or holds no spreadsheet.
@@ -248,6 +249,19 @@ class OdsFile:
         """
         return padded_rows(self._cells(sheet, columns, formulas, no_saved_value).found)
 
+    def read_recording(self, sheet: str, columns: frozenset[int] | None = None, formulas: bool = False,
+                       no_saved_value: Any = None) -> tuple[list[list[Any]], KeptRows]:
+        """:meth:`read`, and every row as :meth:`stream` would hand it over (all columns), in one pass.
+
+        Raises:
+            DamagedSheet, UnsafeWorkbook: as :meth:`read`.
+        """
+        cells = self._cells(sheet, columns, formulas, no_saved_value, recording=True)
+        kept = KeptRows()
+        for r in sorted(cells.streamed):
+            kept.keep(r, dict(cells.streamed[r]))
+        return padded_rows(cells.found), kept
+
     def stream(self, sheet: str, on_row: Callable[[int, dict[int, tuple[Any, bool]]], bool | None],
                columns: set[int] | None = None, no_saved_value: Any = None) -> None:
         """Hand each row of sheet to on_row, as the .xlsx reader does: (0-based row, {column: (value, holds a
@@ -264,11 +278,11 @@ class OdsFile:
                 return
 
     def _cells(self, sheet: str, columns: frozenset[int] | None, formulas: bool, no_saved_value: Any,
-               with_formulas: bool = False) -> "_Cells":
-        """The handlers after one read of sheet (their rows found)."""
+               with_formulas: bool = False, recording: bool = False) -> "_Cells":
+        """The handlers after one read of sheet (their rows found; recording: also every row as streamed)."""
         span = self._spans[sheet]
         cells = _Cells(columns, formulas, no_saved_value, guard.MAX_REPEATED_CELLS + span.end - span.start, sheet,
-                       with_formulas)
+                       with_formulas, recording)
         if span.empty or span.end <= span.start:
             return cells
         parser = expat.ParserCreate(namespace_separator="}")
@@ -342,9 +356,14 @@ class _Cells:
     """The expat handlers of one sheet's read: the rows kept, the cell and paragraph being read."""
 
     def __init__(self, columns: frozenset[int] | None, formulas: bool, no_saved_value: Any, budget: int, sheet: str,
-                 with_formulas: bool = False):
+                 with_formulas: bool = False, recording: bool = False):
         self.columns, self.formulas, self.no_saved_value = columns, formulas, no_saved_value
         self.with_formulas = with_formulas  # keep (value, holds a formula) pairs, a formula as (None, True)
+        # recording: also keep every column's cells as a stream hands them over (a formula as KeptRows.FORMULA)
+        self.recording, self.passed_over = recording, None if recording else columns
+        self.streamed: dict[int, dict[int, Any]] = {}
+        self.kept_streamed: dict[int, Any] = {}
+        self.copies_streamed = 0
         self.budget, self.sheet = budget, sheet
         self.found: dict[int, dict[int, Any]] = {}
         self.row = 0          # the row the next table:table-row is
@@ -373,10 +392,10 @@ class _Cells:
                                       else " " * _repeat(attrs.get(TEXT + "c"), "space"))
         elif name == _ROW:
             self.rows_repeated = _repeat(attrs.get(TABLE + "number-rows-repeated"), "row")
-            self.col, self.kept = 0, {}
+            self.col, self.kept, self.kept_streamed = 0, {}, {}
         elif name in _CELLS:
             repeat = _repeat(attrs.get(_COLUMNS_REPEATED), "column")
-            columns, self.depth, self.skip = self.columns, 0, 0
+            columns, self.depth, self.skip = self.passed_over, 0, 0
             if columns is not None and (self.col not in columns if repeat == 1 else
                                         not any(self.col <= c < self.col + repeat for c in columns)):
                 self.col += repeat  # not wanted: passed over
@@ -442,34 +461,51 @@ class _Cells:
         first = self.col
         self.col += cell.repeat
         held, value = self._value(cell)
+        if self.recording:
+            self._put(self.kept_streamed, first, None, held or cell.formula,
+                      KeptRows.FORMULA if cell.formula else value, True)
         if self.with_formulas:
             held, value = held or cell.formula, (None, True) if cell.formula else (value, False)
+        self._put(self.kept, first, self.columns, held, value)
+
+    def _put(self, kept: dict[int, Any], first: int, columns: frozenset[int] | None, held: bool, value: Any,
+             streamed: bool = False) -> None:
+        """Put the cell's value in every column of columns it covers."""
         if not held:
             return
         if self.col > MAX_COLUMNS:
             raise DamagedSheet(f"a cell of row {self.row + 1} lies beyond column {MAX_COLUMNS:,}")
-        columns = range(first, self.col) if self.columns is None else [
-            c for c in self.columns if first <= c < self.col]
-        self._spend(len(columns) - 1)
-        for c in columns:
-            self.kept[c] = value
+        covered = range(first, self.col) if columns is None else [c for c in columns if first <= c < self.col]
+        self._spend(len(covered) - 1, streamed)
+        for c in covered:
+            kept[c] = value
 
     def _keep_row(self) -> None:
         """Keep the row's cells in every row it repeats into."""
         first, repeat = self.row, self.rows_repeated
         self.row += repeat
-        if not self.kept:
+        if self.recording:
+            self._repeat_row(self.kept_streamed, self.streamed, first, repeat, True)
+        self._repeat_row(self.kept, self.found, first, repeat)
+
+    def _repeat_row(self, kept: dict[int, Any], found: dict[int, dict[int, Any]], first: int, repeat: int,
+                    streamed: bool = False) -> None:
+        if not kept:
             return
         if self.row > MAX_ROWS:
             raise DamagedSheet(f"a row holding values lies beyond row {MAX_ROWS:,}")
-        self._spend(len(self.kept) * (repeat - 1))
+        self._spend(len(kept) * (repeat - 1), streamed)
         for r in range(first, self.row):
-            self.found[r] = self.kept
+            found[r] = kept
 
-    def _spend(self, copies: int) -> None:
-        """Count cells made by repeats; refuse a sheet whose repeats would make far more cells than it writes."""
-        self.copies += copies
-        if self.copies > self.budget:
+    def _spend(self, copies: int, streamed: bool = False) -> None:
+        """Count cells made by repeats (a read's and a stream's apart); refuse a sheet whose repeats would make far
+        more cells than it writes."""
+        if streamed:
+            self.copies_streamed += copies
+        else:
+            self.copies += copies
+        if max(self.copies, self.copies_streamed) > self.budget:
             raise UnsafeWorkbook(f"refused: the sheet '{self.sheet}' repeats its cells into more than "
                                  f"{self.budget:,} cells beyond those it writes; it may be a zip bomb: "
                                  f"{saved_limits().instead}")

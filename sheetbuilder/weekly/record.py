@@ -6,7 +6,8 @@ from it: the inputs, settings and typed edits it holds, the values it saved, its
 for ``changes``, its Actions and Follow-up lists. The workbook is then planned again from the
 record (:func:`plan_saved`, outside the guard, so a failure there is a bug) while it is still open,
 and its cells typed over a formula are read against that plan under the guard
-(:mod:`sheetbuilder.weekly.typed_over`). What they compute from the record (the change list, the
+(:mod:`sheetbuilder.weekly.typed_over`); the sheets read before that check (:data:`READ_TWICE`) keep
+their rows from their first read, so no sheet part is parsed twice for it. What they compute from the record (the change list, the
 carry, the follow-up) runs after the file is closed, so a failure there is a bug too.
 """
 from __future__ import annotations
@@ -23,13 +24,17 @@ from sheetbuilder.reading.readers import Inputs
 from sheetbuilder.reading.settings import Settings
 from sheetbuilder.sheets.actions import HEADER_ROW as ACTIONS_HEADER_ROW, HEADERS, SHEET
 from sheetbuilder.sheets.followup import CHANGE_DEFS, NAME as FOLLOWUP_NAME
-from sheetbuilder.sheets.typed import ACTIONS_NAME, DECISION_SHEETS, PROFIT_TARGET, CarryResult, key_text
+from sheetbuilder.sheets.typed import (ACTIONS_NAME, DECISION_SHEETS, EDITABLE_TABLES, PROFIT_TARGET, CarryResult,
+                                      key_text)
 from sheetbuilder.values import is_blank, is_number
 from sheetbuilder.weekly.carry import Edits, copy_problems, edits_in
 from sheetbuilder.weekly.keyword_weeks import read_keyword_history
 from sheetbuilder.weekly.saved import NotAWorkbook, SavedBook, read_history, saved_inputs, saved_settings
 from sheetbuilder.weekly.typed_over import typed_over
 
+# The sheets read (their typed columns, the Actions list) before the typed-over check streams them: their first
+# read keeps their rows for that stream, so each is read once. The others are read once by the check alone.
+READ_TWICE = frozenset({decl.sheet for decl in EDITABLE_TABLES if not decl.sheet.startswith("in_")} | {SHEET})
 HEADER_ROW = ACTIONS_HEADER_ROW + 1  # 1-based, as a spreadsheet shows it
 FIRST_ROW = HEADER_ROW + 1
 
@@ -197,6 +202,7 @@ def read_saved_workbook(path: Path, unreadable: type[SheetbuilderError] = NotAWo
     with reading(path, unreadable):
         book = SavedBook(Path(path))
     with book:
+        book.streamed_again = set(READ_TWICE)
         with reading(path, unreadable):
             record = _record(book, for_changes, followup)
         if record.holds_inputs:

@@ -110,6 +110,8 @@ class SavedBook:
     keeping only the columns a caller asks for, so a wide sheet costs what its wanted columns cost
     in memory. A formula cell with no saved value reads as
     :data:`sheetbuilder.sheets.decisions.NO_SAVED_VALUE` when ``formulas`` is asked for.
+    The first read of a sheet named in ``streamed_again`` (as built; an .xlsx) also keeps its rows as a
+    stream hands them over, and a later :meth:`stream` of it replays them instead of parsing the part again.
     """
 
     def __init__(self, path: Path):
@@ -118,6 +120,8 @@ class SavedBook:
         self.sheetnames: list[str] = list(self.file.sheetnames)
         self._cache: dict[tuple, list[list[Any]]] = {}
         self._tabs: Tabs | None = None
+        self.streamed_again: set[str] = set()  # sheets (as built) whose first read keeps its rows for a later stream
+        self._streamed: dict[str, Any] = {}  # {sheet: its rows kept by its first read (sheet_xml.KeptRows)}
 
     def area(self, name: str) -> Area | None:
         """The area a workbook-level defined name covers, or None when it is missing, broken or off-sheet."""
@@ -139,7 +143,9 @@ class SavedBook:
         """Hand each row of sheet to on_row as it is read, holding one row at a time (see
         :func:`sheetbuilder.weekly.sheet_xml.stream_cells`: (0-based row, {column: (value, holds a formula)}),
         only columns when given; on_row returns True to stop). Nothing when the sheet is absent."""
-        if sheet in self.sheetnames:
+        if sheet in self._streamed:  # kept by the sheet's first read: not read again
+            self._streamed[sheet].stream(on_row, columns)
+        elif sheet in self.sheetnames:
             try:  # a damaged sheet is refused whole, as a read refuses it
                 self.file.stream(sheet, on_row, columns, NO_SAVED_VALUE)
             except DamagedSheet as exc:
@@ -179,6 +185,10 @@ class SavedBook:
 
     def _read(self, sheet: str, columns: frozenset[int] | None, formulas: bool) -> list[list[Any]]:
         try:  # a truncated or damaged sheet is refused whole, never read in part
+            if sheet not in self._streamed and hasattr(self.file, "read_recording") and sheet in {
+                    self.sheet(s) for s in self.streamed_again}:
+                rows, self._streamed[sheet] = self.file.read_recording(sheet, columns, formulas, NO_SAVED_VALUE)
+                return rows
             return self.file.read(sheet, columns, formulas, NO_SAVED_VALUE)
         except DamagedSheet as exc:
             raise NotAWorkbook(f"{self.path} is not a workbook that can be read: its sheet '{sheet}' is damaged "

@@ -218,6 +218,7 @@ class _SheetParser:
 
 
 _UNWANTED = _Cell()
+_FORMULA_CELL = (None, True)  # a formula cell as a stream hands it over, its saved value unread
 
 
 def padded_rows(found: dict[int, dict[int, Any]]) -> list[list[Any]]:
@@ -284,10 +285,75 @@ class _RowStream(_SheetParser):
             return
         cell = self.cell
         if code == _C and cell.wanted:  # a formula's saved value is not read: only its presence is asked for
-            self.cells[cell.col] = (None, True) if cell.formula else (self.reader.value(cell, False), False)
+            self.cells[cell.col] = _FORMULA_CELL if cell.formula else (self.reader.value(cell, False), False)
             self.cell = _UNWANTED
         elif cell.wanted:
             super().end(name)
+
+
+class KeptRows:
+    """The rows of a sheet as a stream of all its columns hands them over, kept compactly for a later stream.
+
+    Each row is kept as its columns (one tuple shared by every row with the same columns) and its values,
+    a formula cell as a marker: about a pointer per cell besides the values themselves.
+    """
+
+    FORMULA = object()  # a formula cell, its saved value unread
+
+    def __init__(self) -> None:
+        self.rows: list[tuple[int, tuple[int, ...], tuple[Any, ...]]] = []
+        self._columns: dict[tuple[int, ...], tuple[int, ...]] = {}
+
+    def keep(self, row: int, cells: dict[int, Any]) -> None:
+        """Keep one row: {column: value, or FORMULA}."""
+        columns = tuple(cells)
+        self.rows.append((row, self._columns.setdefault(columns, columns), tuple(cells.values())))
+
+    def stream(self, on_row: Callable[[int, dict[int, tuple[Any, bool]]], bool | None],
+               columns: set[int] | frozenset[int] | None = None) -> None:
+        """Hand the rows kept to on_row exactly as :func:`stream_cells` would hand over the sheet's."""
+        formula = self.FORMULA
+        for r, cols, values in self.rows:
+            cells = {c: _FORMULA_CELL if v is formula else (v, False) for c, v in zip(cols, values)
+                     if columns is None or c in columns}
+            if cells and on_row(r, cells):
+                return
+
+
+class _RecordingRead(_RowStream):
+    """A read of some columns that also keeps every row as a stream of all columns would hand it over."""
+
+    def __init__(self, reader: CellReader, columns: frozenset[int] | None, formulas: bool, kept: KeptRows):
+        super().__init__(reader, None, kept.keep)
+        self.kept_columns, self.formulas = columns, formulas
+
+    def end(self, name: str) -> None:
+        cell = self.cell
+        if cell.wanted and (self.tags.get(name) or self.tag(name)) == _C:
+            read = self.kept_columns is None or cell.col in self.kept_columns
+            if read:
+                value = self.reader.value(cell, self.formulas)
+                self.found.setdefault(cell.row, {})[cell.col] = value
+            self.cells[cell.col] = KeptRows.FORMULA if cell.formula else (
+                value if read else self.reader.value(cell, False))
+            self.cell = _UNWANTED
+            return
+        super().end(name)
+
+
+def read_recording(handle: IO[bytes], reader: CellReader, columns: frozenset[int] | None = None,
+                   formulas: bool = False) -> tuple[list[list[Any]], KeptRows]:
+    """:func:`read_cells` and, in the same pass, every row as :func:`stream_cells` hands it over (all columns).
+
+    A later stream of the sheet replays the rows kept (:meth:`KeptRows.stream`) instead of reading the part again.
+
+    Raises:
+        DamagedSheet: the part is not well-formed XML or a reference cannot be read.
+    """
+    kept = KeptRows()
+    sheet = _RecordingRead(reader, columns, formulas, kept)
+    _parse(handle, sheet)
+    return padded_rows(sheet.found), kept
 
 
 def stream_cells(handle: IO[bytes], reader: CellReader,
