@@ -206,7 +206,8 @@ def test_paired_policies_see_identical_weeks_where_their_bids_agree(small_runs):
     assert runs["manual"].clicks[0].tolist() == runs["hold"].clicks[0].tolist()
 
 
-def test_the_method_moves_bids_and_stays_within_floor_ceiling_and_caps(small_runs):
+def test_the_method_moves_bids_and_stays_within_floor_ceiling_and_raise_cap(small_runs):
+    # A cut may pass the maximum cut: the cut on evidence goes to the value bid (or the floor) at once.
     _, runs = small_runs
     bids = runs["method"].bids
     s = Settings()
@@ -215,7 +216,6 @@ def test_the_method_moves_bids_and_stays_within_floor_ceiling_and_caps(small_run
     moved = new != old
     assert np.all(new[moved] >= s.bid_floor) and np.all(new[moved] <= s.bid_ceiling)
     assert np.all(new <= np.round(old * (1 + s.max_bid_raise), 2) + 0.005)
-    assert np.all(new >= np.round(old * (1 - s.max_bid_cut), 2) - 0.005)
 
 
 def test_the_planned_final_bids_are_what_build_writes_in_the_workbook(tmp_path):
