@@ -29,6 +29,7 @@ from oracle_pooled import kleinman, zero_inflated_prior
 from workbook_io import mismatches
 from sheetbuilder.pipeline import build, load
 from sheetbuilder.sheets.pooled import fit_prior, moments_fit
+from sheetbuilder.weekly.record import read_saved_workbook
 from tools.recalc import libreoffice_convert
 
 
@@ -205,3 +206,14 @@ def test_three_weeks_each_saved_by_libreoffice_cut_the_keyword_and_keep_the_refe
         _check_against_oracle(out, tmp_path / f"w{n}", n, f"week {n}")
     assert (18, 0) == (_slow_row(outputs[2])["History clicks"], _slow_row(outputs[2])["History orders"])
     assert _slow_row(outputs[1])["Reason"] in ("cut on evidence: likely waste", "held at bid floor")
+
+
+def test_a_saved_workbook_is_planned_again_with_the_history_its_bids_read(tmp_path):
+    # `changes` and the next week's follow-up plan a saved workbook again: its Bids must read the same history.
+    _, second = _weeks_in_a_row(tmp_path, 2, lambda out, n: out)
+    saved = read_saved_workbook(second, for_changes=True)
+    replanned = saved.planned.tables["Bids"].frame.set_index("target")
+    rows, _ = bids_table(second)
+    assert {r["Target"]: (r["History clicks"], r["Proposed bid"]) for r in rows.values()} == {
+        t: (replanned.at[t, "h_clicks"], replanned.at[t, "proposed"]) for t in replanned.index}
+    assert 12 == replanned.at[SLOW, "h_clicks"]
