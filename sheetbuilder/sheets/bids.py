@@ -35,6 +35,7 @@ from typing import Any, Callable
 
 import numpy as np
 import pandas as pd
+from scipy.special import betainc  # the regularised incomplete beta: BETADIST's definition
 
 from sheetbuilder.sheets.blends import attach_groups, blends_row_column, fetch, stock_as_values
 from sheetbuilder.sheets.decisions import NOTES, apply_decision, decision_formula, decision_validation, editable, notes_column
@@ -97,8 +98,6 @@ def _value_bid(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
 
 
 def _p_waste(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
-    from scipy.special import betainc  # the regularised incomplete beta: BETADIST's definition
-
     a, b = _prior(df, ctx)
     a, b = a + df["h_orders"], b + df["h_clicks"] - df["h_orders"]
     value = _order_value(df, ctx) * df["target_acos"]

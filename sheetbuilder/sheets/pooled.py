@@ -25,9 +25,9 @@ ACoS, a setting or a Decision reaches stays a live formula on Bids.
 """
 from __future__ import annotations
 
-import math
 import numpy as np
 import pandas as pd
+from scipy.special import gammaln
 
 MIN_KEYWORDS = 5  # keywords with clicks a product needs before its prior is fitted (else prior_clicks)
 HISTORY = ("h_clicks", "h_orders", "h_spend", "h_sales", "h_bid_clicks", "h_bid_spend")
@@ -61,8 +61,7 @@ def cpc_to_bid(df: pd.DataFrame) -> tuple[pd.Series, pd.Series]:
 
 def zero_chance(alpha: float, beta: float, n: np.ndarray) -> np.ndarray:
     """P(0|n) = B(alpha, beta + n) / B(alpha, beta): the beta-binomial chance of no order in n clicks."""
-    lg = np.vectorize(math.lgamma, otypes=[float])
-    return np.exp(lg(beta + n) + math.lgamma(alpha + beta) - math.lgamma(beta) - lg(alpha + beta + n))
+    return np.exp(gammaln(beta + n) + gammaln(alpha + beta) - gammaln(beta) - gammaln(alpha + beta + n))
 
 
 def moments_fit(n: np.ndarray, o: np.ndarray, c: np.ndarray) -> tuple[float, float] | None:
