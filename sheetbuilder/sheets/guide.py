@@ -51,7 +51,8 @@ SHEETS_TEXT = [
                 "carried into every rebuild and never dropped."),
     ("Keyword history", "Every keyword's and product target's results week by week (impressions, clicks, orders, "
                         "spend, ad sales, bid in force), one row each with its weeks listed oldest first and totals; "
-                        "carried into every rebuild with --previous, a week never counted twice."),
+                        "carried into every rebuild with --previous, a week never counted twice. Bids reads each "
+                        "keyword's totals over these weeks when this build's week is among them."),
     ("Groups", "Which products each ad group advertises, the spend weights used where it advertises several, and "
                "below, each ad group's blended target ACoS, CVR, order value and price, computed once and fetched "
                "by the Bids and Terms rows."),
