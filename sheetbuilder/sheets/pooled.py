@@ -117,15 +117,19 @@ def posterior(df: pd.DataFrame) -> pd.DataFrame:
 
     df holds product_id (Bids' product label), h_clicks and h_orders.
     """
-    out = pd.DataFrame({"fit_a": np.nan, "fit_b": np.nan, "fit_pi": 0.0, "w": 1.0}, index=df.index)
-    for _, rows in df.groupby("product_id", sort=False):
-        n, o = rows["h_clicks"].to_numpy(dtype=float), rows["h_orders"].to_numpy(dtype=float)
+    size = len(df)
+    fit_a, fit_b, fit_pi, w = np.full(size, np.nan), np.full(size, np.nan), np.zeros(size), np.ones(size)
+    clicks, orders = df["h_clicks"].to_numpy(dtype=float), df["h_orders"].to_numpy(dtype=float)
+    codes, _ = pd.factorize(df["product_id"])
+    order = np.argsort(codes, kind="stable")
+    for rows in np.split(order, np.flatnonzero(np.diff(codes[order])) + 1) if size else []:
+        n, o = clicks[rows], orders[rows]
         fit = fit_prior(n, o)
         if fit is None:
             continue
         alpha, beta, pi = fit
-        p0 = zero_chance(alpha, beta, n)
-        w = np.where(o > 0, 1.0, (1 - pi) * p0 / (pi + (1 - pi) * p0)) if pi > 0 else np.ones(len(n))
-        out.loc[rows.index, ["fit_a", "fit_b", "fit_pi"]] = [alpha, beta, pi]
-        out.loc[rows.index, "w"] = w
-    return out
+        fit_a[rows], fit_b[rows], fit_pi[rows] = alpha, beta, pi
+        if pi > 0:
+            p0 = zero_chance(alpha, beta, n)
+            w[rows] = np.where(o > 0, 1.0, (1 - pi) * p0 / (pi + (1 - pi) * p0))
+    return pd.DataFrame({"fit_a": fit_a, "fit_b": fit_b, "fit_pi": fit_pi, "w": w}, index=df.index)
