@@ -158,8 +158,10 @@ def _groups(a: Assembly) -> None:
 
 
 def _bids(a: Assembly) -> None:
+    as_saved = a.carry is not None and a.carry.inputs_as_saved  # a saved workbook planned again: keys as it stores them
+    history = a.keyword_history.lookup(not as_saved) if a.keyword_history is not None else None
     sheet, bids = plan_bids(a.layouts["targets"], a.inputs.get("campaigns"), a.groups, a.tables["Profit"],
-                            a.settings, a.anchors, a.decide.column, blends=a.blends)
+                            a.settings, a.anchors, a.decide.column, blends=a.blends, history=history)
     a.table("bids", "Bids", bids, "Bids", "bids")
     a.place("bids", sheet)
     a.sections["bids"] = ("Bids columns", BIDS_DEFS)

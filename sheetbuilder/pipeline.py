@@ -151,7 +151,7 @@ def build(folder: Path, output: Path, force: bool = False, built_on: dt.date | N
             keyword_problems += saved.keyword_history_problems
     keywords, dropped, found = joined_history(saved_keywords, past, exported_tables.get("targets"), period, settings,
                                               keyword_source)
-    keyword_sheet = packed(keywords, dropped)
+    keyword_sheet = packed(keywords, dropped, period)  # Bids reads its totals when it holds this week
     keyword_problems += found + too_long(keyword_sheet.rows)
     problems += keyword_problems
     if any(p.severity == ERROR for p in keyword_problems):  # a keyword history that cannot be read or joined

@@ -42,7 +42,7 @@ class StoredSheet:
         sheet, _ = plan_keyword_history(history)
         table = sheet.table
         body = [list(row) for row in zip(*(column.values for column in table.columns))]
-        above = [[cell.value for cell in row] for row in sheet.above]
+        above = [[None if cell is None else cell.value for cell in row] for row in sheet.above]
         self._rows = above + [[]] * (table.first_row - len(above)) + [[c.header for c in table.columns]] + body
         self.sheetnames = [SHEET]
         self.path = Path(PREVIOUS)
@@ -65,7 +65,7 @@ def carried(stored: PackedHistory | None, targets, period, settings) -> PackedHi
             raise RuntimeError(f"last week's keyword history did not read back: {problems}")
     history, dropped, problems = joined_history(saved, [], targets, period, settings,
                                                 PREVIOUS if stored is not None else None)
-    history_sheet = packed(history, dropped)
+    history_sheet = packed(history, dropped, period)  # Bids reads the totals when they hold this week, as build does
     problems += too_long(history_sheet.rows)
     if any(p.severity == ERROR for p in problems):
         raise RuntimeError(f"the keyword history could not be carried: {problems}")

@@ -125,6 +125,9 @@ def accounts(draw, max_products: int = 8, max_ad_rows: int = 18, max_targets: in
         account["targets"] = targets
     if (targets or terms) and draw(st.integers(0, 3)):
         account["campaigns"] = campaigns  # with paused and archived campaigns, and automatic ones
+    # Drawn last, so the accounts drawn before these settings existed stay the same; written first, above any table.
+    account["settings"] = (f"waste_confidence = {draw(st.integers(50, 99)) / 100}\n"
+                           f"exploration_orders = {draw(st.integers(0, 30)) / 10}\n") + account["settings"]
     return account
 
 

@@ -9,9 +9,12 @@ from sheetbuilder.pipeline import load
 
 BIDS_HEADERS = ["Campaign", "Ad group", "Target", "Match type", "Product ID", "Impressions", "Clicks", "Spend",
                 "Ad sales", "Orders", "CPC", "CVR", "ACoS", "Aim ACoS", "Current bid", "Value bid",
-                "Proposed bid", "Change", "Reason", "Decision", "Final bid"]
-CHECKED = [h for h in BIDS_HEADERS if h != "Decision"] + ["Smoothed CVR", "Smoothed ACoS", "Zero-order clicks",
-                                                          "Product CVR", "Target check", "Low stock"]
+                "Waste probability", "Proposed bid", "Change", "Reason", "Decision", "Final bid"]
+# The pooled conversion rates' working columns (values computed from the exports and the keyword history).
+POOLED = ["History clicks", "History orders", "History spend", "History ad sales", "CPC-to-bid ratio", "Ratio source",
+          "Prior a", "Prior b", "Never-converting share", "Converts probability", "Posterior CVR"]
+CHECKED = [h for h in BIDS_HEADERS if h != "Decision"] + POOLED + ["Zero-order clicks", "Product CVR",
+                                                                   "Target check", "Low stock"]
 HEADER_ROW = 4  # 1-based: title, note, blank, header
 
 

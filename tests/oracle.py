@@ -182,15 +182,22 @@ def _half_away(x, digits=2):
     return float(Decimal(f"{x:.15g}").quantize(Decimal(1).scaleb(-digits), rounding=ROUND_HALF_UP))
 
 
-def bids_oracle(tables, settings, profit_rows, decisions=None):
+def bids_oracle(tables, settings, profit_rows, decisions=None, history=None):
     """{target's row in targets.csv: {header: value}} for every live target.
 
-    Written from the method in the README: value per click (Varian 2007) applied as a
-    ratio to the current bid, CVR shrunk by a Beta prior worth k clicks, the zero-order
-    click threshold n = ceil(ln(1 - confidence) / ln(1 - CVR)), steps capped per run.
+    Written from the method in the README: each keyword's history summed over its weeks; its
+    product's Beta prior of keyword CVR (Kleinman's moments, zero-inflated: tests/oracle_pooled.py),
+    or the product's CVR worth k clicks; the posterior mean CVR; value per click (Varian 2007) x
+    target ACoS / CPC-to-bid ratio; the waste probability from the posterior (scipy.stats.beta);
+    the zero-order click threshold n = ceil(ln(1 - confidence) / ln(1 - CVR)); steps capped per run
+    except the cut on evidence.
     profit_rows: the Profit oracle's rows (for each product's target ACoS).
     decisions: {target's row in targets.csv: typed Decision}.
+    history: {(campaign, ad group, target, match type), texts trimmed: [(clicks, orders, spend, ad sales, bid)
+        per week]} over every recorded week, this week included; None: each keyword's history is this week's row.
     """
+    from oracle_pooled import converts, waste, zero_inflated_prior
+
     s = settings
     ads = tables["ad_products"].to_dict("records")
     clicks_p, orders_p, sales_p = defaultdict(float), defaultdict(float), defaultdict(float)
@@ -214,18 +221,29 @@ def bids_oracle(tables, settings, profit_rows, decisions=None):
     if tables.get("campaigns") is not None:
         for r in tables["campaigns"].to_dict("records"):
             campaign_state.setdefault(r["campaign"], r["state"])
-    out = {}
+    live = []
     for t in tables["targets"].to_dict("records"):
-        i = t["_row"]
         if t["state"] != "enabled" or campaign_state.get(t["campaign"], "enabled") != "enabled":
             continue
+        weeks = (history or {}).get(tuple(str(t[k]).strip() for k in ("campaign", "ad_group", "target", "match_type")))
+        if weeks is None:  # no history: this week's row is the keyword's history
+            weeks = [(t["clicks"], t["orders"], t["spend"], t["ad_sales"], t["bid"])]
+        products = sorted(group_spend.get((t["campaign"], t["ad_group"]), {}))
+        label = "" if not products else (products[0] if len(products) == 1 else "shared: " + ", ".join(products))
+        live.append((t, weeks, products, label))
+    priors = {}
+    for label in {x[3] for x in live}:
+        n = [sum(w[0] for w in x[1]) for x in live if x[3] == label]
+        o = [sum(w[1] for w in x[1]) for x in live if x[3] == label]
+        priors[label] = zero_inflated_prior(n, o)
+    out = {}
+    for t, weeks, products, label in live:
+        i = t["_row"]
         weights = group_spend.get((t["campaign"], t["ad_group"]), {})
-        products = sorted(weights)
         if not products:
             target, cvr_p, aov_p = s.default_target_acos, account_cvr, account_aov
         else:
             total = sum(weights.values())
-            w = {p: (weights[p] / total if total else 1 / len(products)) for p in products}
             if total:
                 target = sum(weights[p] * profit_rows[p]["Aim ACoS"] for p in products) / total
                 cvr_p = sum(weights[p] * product_cvr(p) for p in products) / total
@@ -234,36 +252,60 @@ def bids_oracle(tables, settings, profit_rows, decisions=None):
                 target = sum(profit_rows[p]["Aim ACoS"] for p in products) / len(products)
                 cvr_p = sum(product_cvr(p) for p in products) / len(products)
                 aov_p = sum(product_aov(p) for p in products) / len(products)
-            del w
         clicks, orders, spend, sales, bid = t["clicks"], t["orders"], t["spend"], t["ad_sales"], t["bid"]
-        cpc = spend / clicks if clicks else BLANK
-        order_value = sales / orders if orders > 0 else aov_p
-        k = s.prior_clicks
-        s_cvr = (orders + k * cvr_p) / (clicks + k) if clicks + k else BLANK
-        if cpc is BLANK or s_cvr is BLANK or s_cvr * order_value == 0:
-            s_acos = BLANK
+        n = sum(w[0] for w in weeks)
+        o = sum(w[1] for w in weeks)
+        h_spend = sum(w[2] for w in weeks)
+        h_sales = sum(w[3] for w in weeks)
+        priced = [w for w in weeks if not _is_blank(w[4])]
+        at_bids = sum(w[0] * w[4] for w in priced)
+        if at_bids > 0 and sum(w[2] for w in priced) > 0:
+            ratio, source = sum(w[2] for w in priced) / at_bids, "history"
+        elif clicks * bid > 0 and spend > 0:
+            ratio, source = spend / (clicks * bid), "this week"
         else:
-            s_acos = cpc / (s_cvr * order_value)
-        value = BLANK if s_acos is BLANK or s_acos == 0 else bid * target / s_acos
-        n = math.ceil(math.log(1 - s.zero_order_confidence) / math.log(1 - cvr_p)) if 0 < cvr_p < 1 else BLANK
+            ratio, source = 1.0, "none: 1 assumed"
+        prior = priors[label]
+        if prior is None:  # the fallback: the product's CVR worth k clicks
+            k = s.prior_clicks
+            a0, b0 = k * cvr_p, k * (1 - cvr_p)
+        else:
+            a0, b0 = prior[0], prior[1]
+        w = converts(prior, n, o)
+        post_cvr = w * (a0 + o) / (a0 + b0 + n) if a0 + b0 + n else BLANK
+        order_value = h_sales / o if o > 0 else aov_p
+        value = BLANK if post_cvr is BLANK or post_cvr * order_value == 0 else \
+            post_cvr * order_value * target / ratio
+        a, b = a0 + o, b0 + n - o
+        p_waste = BLANK if value is BLANK or target <= 0 or a <= 0 or b <= 0 else \
+            waste(w, a, b, ratio * bid / (order_value * target))
+        evidence = p_waste is not BLANK and p_waste >= s.waste_confidence and value < bid
+        n0 = math.ceil(math.log(1 - s.zero_order_confidence) / math.log(1 - cvr_p)) if 0 < cvr_p < 1 else BLANK
         cut_to, raise_to = bid * (1 - s.max_bid_cut), bid * (1 + s.max_bid_raise)
+        low = any(profit_rows[p]["Low stock"] == 1 for p in products)
         moved = None  # the unrounded new bid where a rule moves it
-        if clicks == 0:
+        if n == 0:
             reason = "no clicks"
-        elif orders == 0 and clicks < s.min_clicks:
+        elif o == 0 and h_spend < s.exploration_orders * target * order_value:
+            reason = "exploring: within allowance"
+        elif o == 0 and n < s.min_clicks:
             reason = "not enough data"
-        elif orders == 0 and n is not BLANK and clicks >= n:
-            reason, moved = f"no orders after {n} clicks", cut_to
+        elif o == 0 and evidence:
+            reason, moved = "cut on evidence: likely waste", value
+        elif o == 0 and n0 is not BLANK and n >= n0:
+            reason, moved = f"no orders after {n0} clicks", cut_to
         elif value is BLANK:
             reason = "no order value yet"
         elif value < bid:
-            if value < cut_to:
+            if evidence:
+                reason, moved = "cut on evidence: likely waste", value
+            elif value < cut_to:
                 reason, moved = "lower, capped at maximum cut", cut_to
             else:
                 reason, moved = "lower to value bid", value
-        elif orders == 0:
+        elif o == 0:
             reason = "no orders yet: not raised"
-        elif value > bid and any(profit_rows[p]["Low stock"] == 1 for p in products):
+        elif value > bid and low:
             reason = "low stock: not raised"  # a product of the ad group runs short: no raise, whatever its spend
         elif value > bid:
             if value > raise_to:
@@ -293,18 +335,21 @@ def bids_oracle(tables, settings, profit_rows, decisions=None):
             final = "invalid"  # any other typed value is shown as invalid, never as the proposal
         out[i] = {
             "Campaign": t["campaign"], "Ad group": t["ad_group"], "Target": t["target"],
-            "Match type": t["match_type"],
-            "Product ID": "" if not products else (products[0] if len(products) == 1
-                                                   else "shared: " + ", ".join(products)),
+            "Match type": t["match_type"], "Product ID": label,
             "Impressions": t["impressions"], "Clicks": clicks, "Spend": spend, "Ad sales": sales, "Orders": orders,
-            "CPC": cpc, "CVR": orders / clicks if clicks else BLANK, "ACoS": spend / sales if sales else BLANK,
-            "Aim ACoS": target, "Current bid": bid, "Value bid": value, "Proposed bid": proposed,
+            "CPC": spend / clicks if clicks else BLANK, "CVR": orders / clicks if clicks else BLANK,
+            "ACoS": spend / sales if sales else BLANK,
+            "Aim ACoS": target, "Current bid": bid, "Value bid": value, "Waste probability": p_waste,
+            "Proposed bid": proposed,
             "Change": proposed / bid - 1 if bid else BLANK, "Reason": reason, "Final bid": final,
             "Target check": "" if not any(profit_rows[p]["Target check"] for p in products) else (
                 "target above break-even: aim used" if s.seek_profit == "yes" else "target capped at break-even"
                 if s.cap_target_at_break_even == "yes" else "target above break-even"),
-            "Smoothed CVR": s_cvr, "Smoothed ACoS": s_acos, "Zero-order clicks": n, "Product CVR": cvr_p,
-            "Low stock": 1.0 if any(profit_rows[p]["Low stock"] == 1 for p in products) else 0.0,
-
+            "History clicks": n, "History orders": o, "History spend": h_spend, "History ad sales": h_sales,
+            "CPC-to-bid ratio": ratio, "Ratio source": source,
+            "Prior a": BLANK if prior is None else prior[0], "Prior b": BLANK if prior is None else prior[1],
+            "Never-converting share": 0.0 if prior is None else prior[2], "Converts probability": w,
+            "Posterior CVR": post_cvr, "Zero-order clicks": n0, "Product CVR": cvr_p,
+            "Low stock": 1.0 if low else 0.0,
         }
     return out

@@ -247,3 +247,25 @@ def test_a_bids_row_fetches_its_ad_group_blend_with_one_index_and_copies_its_exp
     key = letters["Changes key"]
     final, bid = letters["Final bid"], letters["Current bid"]
     assert f"=INT(SUM({key}4))+IF({final}5<>{bid}5,1,1/2)" == row["Changes key"]
+
+
+def test_a_bids_row_writes_the_value_bid_and_waste_probability_by_hand_and_its_pooled_figures_as_values(with_targets):
+    # Hand-written from the method (README, Bids): the order value is the history's sales per order, else the
+    # blend's (Groups' blends table, column H, rows 9-10); the prior's shapes are the fitted ones, else the
+    # product's CVR worth prior_clicks clicks; BETADIST(x, a, b) is the beta distribution's cumulative probability.
+    from openpyxl.utils import get_column_letter
+    table = with_targets.spec.sheet("Bids").table
+    c = {col.header: get_column_letter(i + 1) + "5" for i, col in enumerate(table.columns)}
+    row = {col.header: _first_row(col, 5) for col in table.columns}
+    cvr, ho, hc, hs = c["Posterior CVR"], c["History orders"], c["History clicks"], c["History ad sales"]
+    fa, fb, w, pc = c["Prior a"], c["Prior b"], c["Converts probability"], c["Product CVR"]
+    target, ratio, bid = c["Aim ACoS"], c["CPC-to-bid ratio"], c["Current bid"]
+    value = f"IF({ho}>0,{hs}/{ho},INDEX(Groups!$H$9:$H$10,{c['Blends row']}))"
+    assert f'=IF({cvr}="","",IF({cvr}*{value}=0,"",{cvr}*{value}*{target}/{ratio}))' == row["Value bid"]
+    a = f'IF({fa}="",prior_clicks*{pc},{fa})+{ho}'
+    b = f'IF({fa}="",prior_clicks*(1-{pc}),{fb})+{hc}-{ho}'
+    assert (f'=IF(OR({c["Value bid"]}="",{target}<=0),"",IF(OR({a}<=0,{b}<=0),"",'
+            f'1-{w}+{w}*BETADIST(MIN(1,{ratio}*{bid}/({value}*{target})),{a},{b})))') == row["Waste probability"]
+    pooled = ("History clicks", "History orders", "History spend", "History ad sales", "CPC-to-bid ratio",
+              "Ratio source", "Prior a", "Prior b", "Never-converting share", "Converts probability")
+    assert {h: None for h in pooled} == {h: row[h] for h in pooled}

@@ -78,10 +78,16 @@ SETTINGS: tuple[SettingSpec, ...] = (
                 "A target's conversion rate is shrunk toward its product's, as if it had this many more clicks "
                 "at the product's rate (Beta prior).", 0, 10000),
     SettingSpec("min_clicks", "Minimum clicks", 10, "int",
-                "A target with fewer clicks than this and no orders is held: not enough data.", 0, 100000),
+                "A target with fewer clicks than this in its history and no orders is held: not enough data.", 0, 100000),
     SettingSpec("zero_order_confidence", "Zero-order confidence", 0.90, "percent",
                 "How sure zero orders must be unlikely at the product's conversion rate before a bid is cut "
                 "for having no orders.", 0.5, 0.999),
+    SettingSpec("waste_confidence", "Waste confidence", 0.90, "percent",
+                "How sure the keyword history must make it that a click is worth less than it costs at the target "
+                "before a bid is cut to its value bid at once, past the maximum cut.", 0.5, 0.999),
+    SettingSpec("exploration_orders", "Exploration allowance (orders)", 1.0, "number",
+                "A keyword with no orders yet is not cut while its history spend is below this many orders' "
+                "worth of target cost (allowance x target ACoS x order value).", 0.0, 100.0),
     SettingSpec("max_bid_cut", "Maximum bid cut", 0.30, "percent",
                 "The most a bid is lowered in one run.", 0.0, 0.95),
     SettingSpec("max_bid_raise", "Maximum bid raise", 0.20, "percent",
@@ -173,6 +179,8 @@ class Settings:
     prior_clicks: int = 20
     min_clicks: int = 10
     zero_order_confidence: float = 0.90
+    waste_confidence: float = 0.90
+    exploration_orders: float = 1.0
     max_bid_cut: float = 0.30
     max_bid_raise: float = 0.20
     bid_floor: float = 0.10

@@ -1,20 +1,29 @@
 """The Bids sheet: a proposed bid for every live keyword and product target.
 
 Method (sources on the Guide):
-- Value per click: a click is worth CVR x order value; the bid that meets the target
-  ACoS is target ACoS x that value (H. R. Varian, "Position auctions", 2007). Applied
-  as a ratio that keeps the bid-to-CPC relation: value bid = current bid x target ACoS /
-  smoothed ACoS, where smoothed ACoS = CPC / (smoothed CVR x order value).
-- Small samples: smoothed CVR = (orders + k x product CVR) / (clicks + k), a Beta prior
-  worth k clicks (empirical-Bayes smoothing of rare-event rates).
-- Steps, not jumps: the proposal moves toward the value bid, never past it, by at most
-  the maximum cut or raise, rounded to the cent; a raise stops at the bid ceiling and a
-  cut at the bid floor (a bid already beyond one is not pushed the other way).
-- Data guards: no clicks, or fewer than the minimum clicks with no orders, hold; zero
-  orders after n = ceil(ln(1 - confidence) / ln(1 - product CVR)) clicks (and at least
-  the minimum) cuts by the maximum cut; a row with no orders never rises.
-- Stock: a target whose ad group advertises a product low on stock (Profit's Days of cover
-  below the minimum) is never raised (rule 11, "low stock: not raised"); cuts still apply.
+- History: each keyword's clicks, orders, spend, ad sales and clicks x bid summed over every week of
+  the keyword history, this week included (this week's row alone without one); see sheets/pooled.py.
+- Pooled conversion rates: per product, a Beta prior of keyword conversion rates fitted by the method
+  of moments with clicks as weights (Kleinman 1973), with a share of never-converting keywords fitted
+  by one reweighting round; each keyword's posterior mean CVR from its history (empirical Bayes).
+  Fallback: the product's CVR worth prior_clicks clicks (live). Values: the history, the prior, the
+  probability the keyword converts at all and the CPC-to-bid ratio depend only on exported figures.
+- Value per click: a click is worth CVR x order value (H. R. Varian, "Position auctions", 2007);
+  value bid = posterior CVR x order value x target ACoS / CPC-to-bid ratio.
+- Cutting waste on evidence: P(waste), the posterior probability that a click is worth less than it
+  costs at the target, = (1 - w) + w x BETADIST(MIN(1, CPC / (order value x target ACoS)), a, b), the
+  CPC being the ratio x the current bid; at or above waste_confidence the cut goes to the value bid at
+  once (past the maximum cut, down to the floor).
+- Steps, not jumps: otherwise the proposal moves toward the value bid, never past it, by at most the
+  maximum cut or raise, rounded to the cent; a raise stops at the bid ceiling and a cut at the bid
+  floor (a bid already beyond one is not pushed the other way).
+- Data guards, on history clicks and orders: no clicks hold; no orders and history spend below the
+  exploration allowance (exploration_orders x target ACoS x order value) hold ("exploring"); fewer
+  than the minimum clicks with no orders hold; zero orders after n = ceil(ln(1 - confidence) /
+  ln(1 - product CVR)) clicks (and at least the minimum) cuts by the maximum cut; a row with no
+  orders never rises.
+- Stock: a target whose ad group advertises a product low on stock (Profit's Days of cover below the
+  minimum) is never raised (rule 11, "low stock: not raised"); cuts still apply.
 
 Each target's product values come from its ad group's block of rows on the Groups
 sheet (first and last positions written as data), so the sheet stays linear in rows.
@@ -22,14 +31,16 @@ sheet (first and last positions written as data), so the sheet stays linear in r
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, Callable
 
 import numpy as np
 import pandas as pd
+from scipy.special import betainc  # the regularised incomplete beta: BETADIST's definition
 
 from sheetbuilder.sheets.blends import attach_groups, blends_row_column, fetch, stock_as_values
 from sheetbuilder.sheets.decisions import NOTES, apply_decision, decision_formula, decision_validation, editable, notes_column
 from sheetbuilder.sheets.lists import running_key
+from sheetbuilder.sheets.pooled import cpc_to_bid, history_figures, posterior
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, blank_div, exports_only, plan_table
 from sheetbuilder.reading.numbers import ROUNDING_NUDGE, round_half_away
 from sheetbuilder.sheets.inputs import InputSheet
@@ -38,12 +49,13 @@ from sheetbuilder.workbook.spec import DATA, INPUT, Cell, Highlight, Sheet, Tabl
 
 SHEET = "Bids"
 HEADER_ROW = 3
-MOVING_RULES = (2, 6, 7, 9, 10)  # rule 11 (low stock) holds the bid
+MOVING_RULES = (2, 6, 7, 9, 10, 12)  # rules 11 (low stock) and 13 (exploring) hold the bid
 RAISING_RULES = (6, 9)
 REASONS = {
     1: "no clicks", 2: "no orders after {n} clicks", 3: "not enough data", 4: "no order value yet",
     5: "no orders yet: not raised", 6: "raise to value bid", 7: "lower to value bid", 8: "at value bid",
     9: "raise, capped at maximum raise", 10: "lower, capped at maximum cut", 11: "low stock: not raised",
+    12: "cut on evidence: likely waste", 13: "exploring: within allowance",
 }
 
 
@@ -60,38 +72,59 @@ def _in(column: str) -> str:
     return "=INDEX({rng:targets.%s},{c:trow})" % column
 
 
-def _s_cvr(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
-    k = ctx.settings.prior_clicks
-    return blank_div(df["orders"] + k * df["p_cvr"], df["clicks"] + k)
-
-
 def _order_value(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    """The history's ad sales per order, or the ad group's blend where the history has no orders."""
     blend = ctx.blends["p_aov"].to_numpy(dtype=float)[df["brow"].to_numpy(dtype=int) - 1]
-    return blank_div(df["ad_sales"], df["orders"]).where(df["orders"] > 0, pd.Series(blend, index=df.index))
+    return blank_div(df["h_sales"], df["h_orders"]).where(df["h_orders"] > 0, pd.Series(blend, index=df.index))
 
 
-def _s_acos(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
-    value = df["s_cvr"] * _order_value(df, ctx)
-    out = blank_div(df["cpc"], value)
-    return out.where(df["cpc"].notna() & df["s_cvr"].notna())
+def _prior(df: pd.DataFrame, ctx: BidsContext) -> tuple[pd.Series, pd.Series]:
+    """The prior's shapes per row: the fitted ones, or the product's CVR worth prior_clicks clicks."""
+    k = ctx.settings.prior_clicks
+    fitted = df["fit_a"].notna()
+    return (df["fit_a"].where(fitted, k * df["p_cvr"]).astype(float),
+            df["fit_b"].where(fitted, k * (1 - df["p_cvr"])).astype(float))
+
+
+def _post_cvr(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    a, b = _prior(df, ctx)
+    out = df["w"] * (a + df["h_orders"]) / (a + b + df["h_clicks"]).where(a + b + df["h_clicks"] != 0)
+    return out.astype(float)
 
 
 def _value_bid(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
-    s = df["s_acos"]
-    return (df["bid"] * df["target_acos"] / s).where(s.notna() & (s != 0))
+    value = df["post_cvr"] * _order_value(df, ctx)
+    return (value * df["target_acos"] / df["ratio"]).where(df["post_cvr"].notna() & (value != 0))
+
+
+def _p_waste(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    a, b = _prior(df, ctx)
+    a, b = a + df["h_orders"], b + df["h_clicks"] - df["h_orders"]
+    value = _order_value(df, ctx) * df["target_acos"]
+    ok = df["value_bid"].notna() & (df["target_acos"] > 0) & (a > 0) & (b > 0)
+    x = np.minimum(1.0, df["ratio"] * df["bid"] / value.where(ok, 1.0))
+    cdf = betainc(a.where(ok, 1.0), b.where(ok, 1.0), np.clip(x, 0.0, 1.0))
+    return (1 - df["w"] + df["w"] * cdf).where(ok).astype(float)
 
 
 def _rule(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     s = ctx.settings
+    allowance = s.exploration_orders * df["target_acos"] * _order_value(df, ctx)
     out = []
-    for clicks, orders, n, value, bid, low in zip(df["clicks"], df["orders"], df["n_zero"], df["value_bid"], df["bid"],
-                                                  df["p_low"]):
+    for clicks, orders, spend, allow, n, value, bid, low, waste in zip(
+            df["h_clicks"], df["h_orders"], df["h_spend"], allowance, df["n_zero"], df["value_bid"], df["bid"],
+            df["p_low"], df["p_waste"]):
         lower = 10 if not pd.isna(value) and value < bid * (1 - s.max_bid_cut) else 7
+        evidence = not pd.isna(waste) and waste >= s.waste_confidence and value < bid
         if clicks == 0:
             rule = 1
         elif orders == 0:
-            if clicks < s.min_clicks:
+            if spend < allow:
+                rule = 13
+            elif clicks < s.min_clicks:
                 rule = 3
+            elif evidence:
+                rule = 12
             elif not pd.isna(n) and clicks >= n:
                 rule = 2
             elif pd.isna(value):
@@ -105,7 +138,7 @@ def _rule(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
         elif value > bid:
             rule = 9 if value > bid * (1 + s.max_bid_raise) else 6
         elif value < bid:
-            rule = lower
+            rule = 12 if evidence else lower
         else:
             rule = 8
         out.append(rule)
@@ -116,7 +149,7 @@ def _raw(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     s = ctx.settings
     bid, value, rule = df["bid"], df["value_bid"], df["rule"]
     cut, raise_ = bid * (1 - s.max_bid_cut), bid * (1 + s.max_bid_raise)
-    out = np.select([rule.isin([2, 10]), rule.isin([6, 7]), rule == 9], [cut, value, raise_], bid)
+    out = np.select([rule.isin([2, 10]), rule.isin([6, 7, 12]), rule == 9], [cut, value, raise_], bid)
     return pd.Series(out, index=df.index, dtype=float)
 
 
@@ -141,20 +174,42 @@ def _reason(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     return pd.Series(out, index=df.index, dtype=object)
 
 
-_RULE = ('=IF({c:clicks}=0,1,IF({c:orders}=0,IF({c:clicks}<min_clicks,3,'
-         'IF(IF({c:n_zero}="",FALSE,{c:clicks}>={c:n_zero}),2,IF({c:value_bid}="",4,IF({c:value_bid}<{c:bid},%s,5)))),'
+# The target's order value: its history's ad sales per order, or its ad group's blend when it has no orders.
+_ORDER_VALUE = "IF({c:h_orders}>0,{c:h_sales}/{c:h_orders},INDEX({rng:blends.p_aov},{c:brow}))"
+# The prior's shapes: fitted (values), or the product's CVR worth prior_clicks clicks (live setting).
+_PRIOR_A = 'IF({c:fit_a}="",prior_clicks*{c:p_cvr},{c:fit_a})'
+_PRIOR_B = 'IF({c:fit_a}="",prior_clicks*(1-{c:p_cvr}),{c:fit_b})'
+_POST_A = "%s+{c:h_orders}" % _PRIOR_A
+_POST_B = "%s+{c:h_clicks}-{c:h_orders}" % _PRIOR_B
+_POST_CVR = ('=IF(%s+%s+{c:h_clicks}=0,"",{c:w}*(%s)/(%s+%s+{c:h_clicks}))'
+             % (_PRIOR_A, _PRIOR_B, _POST_A, _PRIOR_A, _PRIOR_B))
+_VALUE_BID = ('=IF({c:post_cvr}="","",IF({c:post_cvr}*%s=0,"",{c:post_cvr}*%s*{c:target_acos}/{c:ratio}))'
+              % (_ORDER_VALUE, _ORDER_VALUE))
+# BETADIST(x, a, b): the beta distribution's cumulative probability (BETA.DIST(x, a, b, TRUE) since Excel 2010; the
+# older name every engine reads without a prefix, measured equal in LibreOffice 7.4, Gnumeric and `formulas`).
+_P_WASTE = ('=IF(OR({c:value_bid}="",{c:target_acos}<=0),"",IF(OR(%s<=0,%s<=0),"",'
+            '1-{c:w}+{c:w}*BETADIST(MIN(1,{c:ratio}*{c:bid}/(%s*{c:target_acos})),%s,%s)))'
+            % (_POST_A, _POST_B, _ORDER_VALUE, _POST_A, _POST_B))
+_EVIDENCE = 'IF({c:p_waste}="",FALSE,AND({c:p_waste}>=waste_confidence,{c:value_bid}<{c:bid}))'
+_RULE = ('=IF({c:h_clicks}=0,1,IF({c:h_orders}=0,IF({c:h_spend}<exploration_orders*{c:target_acos}*%s,13,'
+         'IF({c:h_clicks}<min_clicks,3,IF(%s,12,'
+         'IF(IF({c:n_zero}="",FALSE,{c:h_clicks}>={c:n_zero}),2,IF({c:value_bid}="",4,IF({c:value_bid}<{c:bid},%%s,5)))))),'
          'IF({c:value_bid}="",4,IF({c:value_bid}>{c:bid},IF({c:p_low}=1,11,IF({c:value_bid}>{c:bid}*(1+max_bid_raise),9,6)),'
-         'IF({c:value_bid}<{c:bid},%s,8)))))')
+         'IF({c:value_bid}<{c:bid},IF(%s,12,%%s),8)))))' % (_ORDER_VALUE, _EVIDENCE, _EVIDENCE))
 _LOWER = "IF({c:value_bid}<{c:bid}*(1-max_bid_cut),10,7)"
 # The proposal before rounding, floor and ceiling, by rule (written inside the formulas that round it).
 _RAW = ('CHOOSE({c:rule},{c:bid},{c:bid}*(1-max_bid_cut),{c:bid},{c:bid},{c:bid},{c:value_bid},'
-        '{c:value_bid},{c:bid},{c:bid}*(1+max_bid_raise),{c:bid}*(1-max_bid_cut),{c:bid})')
+        '{c:value_bid},{c:bid},{c:bid}*(1+max_bid_raise),{c:bid}*(1-max_bid_cut),{c:bid},{c:value_bid},{c:bid})')
 _ROUNDED = "ROUND(%s+0.000000001,2)" % _RAW
-# The target's order value: its own ad sales per order, or its ad group's blend when it has no orders.
-_ORDER_VALUE = "IF({c:orders}>0,{c:ad_sales}/{c:orders},INDEX({rng:blends.p_aov},{c:brow}))"
-_MOVING = "OR({c:rule}=2,{c:rule}=6,{c:rule}=7,{c:rule}=9,{c:rule}=10)"
+_MOVING = "OR({c:rule}=2,{c:rule}=6,{c:rule}=7,{c:rule}=9,{c:rule}=10,{c:rule}=12)"
 _RAISING = "OR({c:rule}=6,{c:rule}=9)"
-_REASON_CHOICES = ",".join('"' + REASONS[i].replace("{n}", '"&{c:n_zero}&"') + '"' for i in range(1, 12))
+_REASON_CHOICES = ",".join('"' + REASONS[i].replace("{n}", '"&{c:n_zero}&"') + '"' for i in range(1, len(REASONS) + 1))
+
+
+def _value(key: str, header: str, style: str, help: str, width: float = 9) -> ColumnDef:
+    """A hidden working column computed before planning from exported figures only (written as a value)."""
+    return ColumnDef(key, header, style, help, lambda df, ctx: df[key], width=width, hidden=True, export=True)
+
 
 DEFS: list[ColumnDef] = [
     ColumnDef("campaign", "Campaign", "text", "The campaign.", lambda df, ctx: df["campaign"], kind=DATA, width=22),
@@ -189,8 +244,14 @@ DEFS: list[ColumnDef] = [
     ColumnDef("bid", "Current bid", "money", "The bid now (in_targets).", lambda df, ctx: df["bid"], _in("bid"),
               width=9),
     ColumnDef("value_bid", "Value bid", "money",
-              "Current bid x aim ACoS / smoothed ACoS: the bid at which a click costs what it is worth.",
-              _value_bid, '=IF(OR({c:s_acos}="",{c:s_acos}=0),"",{c:bid}*{c:target_acos}/{c:s_acos})', width=9),
+              "Posterior CVR x order value x aim ACoS / CPC-to-bid ratio: the bid at which a click costs what "
+              "it is worth at the aim.",
+              _value_bid, _VALUE_BID, width=9),
+    ColumnDef("p_waste", "Waste probability", "percent",
+              "How likely, from the keyword's history, a click is worth less than it costs at the aim: (1 - w) + "
+              "w x BETADIST(CPC / (order value x aim ACoS), a, b), the CPC being the ratio x the current bid. At "
+              "or above waste_confidence the bid is cut to its value bid at once.",
+              _p_waste, _P_WASTE, width=9),
     ColumnDef("proposed", "Proposed bid", "money",
               "A step from the current bid toward the value bid, within the caps, floor and ceiling; or the "
               "zero-order cut; or the current bid when held.",
@@ -223,18 +284,34 @@ DEFS: list[ColumnDef] = [
               lambda df, ctx: df["trow"], kind=DATA, width=8),
     blends_row_column(),
     fetch("p_cvr", "Product CVR", "percent", "Working: the product's (or blend's) ad conversion rate."),
-    ColumnDef("s_cvr", "Smoothed CVR", "percent", "Working: (orders + k x product CVR) / (clicks + k).",
-              _s_cvr, '=IF({c:clicks}+prior_clicks=0,"",({c:orders}+prior_clicks*{c:p_cvr})/({c:clicks}+prior_clicks))',
-              width=9, hidden=True),
-    ColumnDef("s_acos", "Smoothed ACoS", "percent",
-              "Working: CPC / (smoothed CVR x order value); the order value is the target's own ad sales per order, "
-              "or its ad group's blend when it has no orders.",
-              _s_acos, '=IF(OR({c:cpc}="",{c:s_cvr}=""),"",IF({c:s_cvr}*%s=0,"",{c:cpc}/({c:s_cvr}*%s)))'
-              % (_ORDER_VALUE, _ORDER_VALUE), width=9, hidden=True),
+    _value("h_clicks", "History clicks", "int",
+           "Working (value): clicks over every week of the keyword history, this week included (this week's alone "
+           "without a history that holds this week).", width=8),
+    _value("h_orders", "History orders", "int", "Working (value): orders over the same weeks.", width=8),
+    _value("h_spend", "History spend", "money", "Working (value): spend over the same weeks.", width=10),
+    _value("h_sales", "History ad sales", "money", "Working (value): ad sales over the same weeks.", width=10),
+    _value("ratio", "CPC-to-bid ratio", "ratio",
+           "Working (value): history spend / (clicks x bid in force), over the weeks whose bid is known; else this "
+           "week's CPC / bid; else 1 (Ratio source says which)."),
+    _value("ratio_source", "Ratio source", "text", "Working (value): history, this week, or none: 1 assumed.",
+           width=14),
+    _value("fit_a", "Prior a", "ratio",
+           "Working (value): the product's fitted Beta prior of keyword CVR, first shape (Kleinman's method of "
+           "moments, clicks as weights, after one reweighting round for never-converting keywords); blank where "
+           "the fallback applies: the product's CVR worth prior_clicks clicks."),
+    _value("fit_b", "Prior b", "ratio", "Working (value): the fitted prior's second shape (blank: the fallback)."),
+    _value("fit_pi", "Never-converting share", "percent",
+           "Working (value): the product's fitted share of keywords that never convert (0 in the fallback)."),
+    _value("w", "Converts probability", "percent",
+           "Working (value): the probability the keyword converts at all: 1 with an order, else (1 - share) x "
+           "P(0 orders in its clicks) / (share + (1 - share) x that), P from the beta-binomial."),
+    ColumnDef("post_cvr", "Posterior CVR", "percent",
+              "Working: the keyword's posterior mean CVR, w x (a + orders) / (a + b + clicks) over its history.",
+              _post_cvr, _POST_CVR, width=9, hidden=True),
     fetch("n_zero", "Zero-order clicks", "int",
           "Working: clicks after which zero orders are unlikely at the product's CVR."),
     fetch("p_low", "Low stock", "int", "Working: 1 where a product of the ad group is low on stock (never raised)."),
-    ColumnDef("rule", "Rule", "int", "Working: which rule decided the row (1 to 11, see the Guide).",
+    ColumnDef("rule", "Rule", "int", "Working: which rule decided the row (1 to 13, see the Guide).",
               _rule, _RULE % (_LOWER, _LOWER), width=6, hidden=True),
 ]
 # Copied one-to-one from the target's in_targets row, or computed only from such copies: plain values.
@@ -266,11 +343,26 @@ def target_frame(targets: InputSheet, campaigns: pd.DataFrame | None, groups: pd
     return frame
 
 
+def with_history(base: pd.DataFrame, history: Callable[[list], list] | None) -> pd.DataFrame:
+    """base with each row's history figures, CPC-to-bid ratio, product prior and converting probability (values).
+
+    history: each row's totals over the keyword history from its four key texts (None where it has none;
+    PackedHistory.lookup), or None for this week's rows alone.
+    """
+    found = history(list(zip(base["campaign"], base["ad_group"], base["target"], base["match_type"]))) \
+        if history is not None else None
+    out = pd.concat([base, history_figures(base, found)], axis=1)
+    out["ratio"], out["ratio_source"] = cpc_to_bid(out)
+    fitted = posterior(out.rename(columns={"product_label": "product_id"})[["product_id", "h_clicks", "h_orders"]])
+    return pd.concat([out, fitted], axis=1)
+
+
 def plan_bids(targets: InputSheet, campaigns: pd.DataFrame | None, groups: PlannedTable, profit: PlannedTable,
-              settings: Settings, ranges: dict[str, str], decide=None, blends: PlannedTable | None = None
-              ) -> tuple[Sheet, PlannedTable]:
-    """The Bids sheet and its reference frame; decide(sheet, keys) gives carried Decisions; blends: Groups' blends."""
-    base = target_frame(targets, campaigns, groups.frame)
+              settings: Settings, ranges: dict[str, str], decide=None, blends: PlannedTable | None = None,
+              history: Callable[[list], list] | None = None) -> tuple[Sheet, PlannedTable]:
+    """The Bids sheet and its reference frame; decide(sheet, keys) gives carried Decisions; blends: Groups' blends;
+    history: as :func:`with_history` reads it."""
+    base = with_history(target_frame(targets, campaigns, groups.frame), history)
     if decide is not None:
         base["decision"] = decide("Bids", list(zip(base["campaign"], base["ad_group"], base["target"],
                                                    base["match_type"])))
@@ -289,7 +381,8 @@ def plan_bids(targets: InputSheet, campaigns: pd.DataFrame | None, groups: Plann
     highlights = [Highlight(keys.index("reason"), text, state) for text, state in (
         ("lower to value bid", "Lavender"), ("lower, capped at maximum cut", "Lavender"),
         ("raise to value bid", "Ocean"), ("raise, capped at maximum raise", "Ocean"),
-        ("not enough data", "Stone"), ("no clicks", "Stone"), ("low stock: not raised", "Stone"))]
+        ("not enough data", "Stone"), ("no clicks", "Stone"), ("low stock: not raised", "Stone"),
+        ("exploring: within allowance", "Stone"), ("cut on evidence: likely waste", "Plum"))]
     highlights.append(Highlight(keys.index("reason"), "no orders after", "Plum", begins=True))
     above = [[Cell("Bid plan: a proposed bid for every live keyword and product target", style="title")],
              [Cell("Decision aid only: review before changing a live ad account. Type a bid or 'keep' in Decision "

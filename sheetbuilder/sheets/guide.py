@@ -51,7 +51,8 @@ SHEETS_TEXT = [
                 "carried into every rebuild and never dropped."),
     ("Keyword history", "Every keyword's and product target's results week by week (impressions, clicks, orders, "
                         "spend, ad sales, bid in force), one row each with its weeks listed oldest first and totals; "
-                        "carried into every rebuild with --previous, a week never counted twice."),
+                        "carried into every rebuild with --previous, a week never counted twice. Bids reads each "
+                        "keyword's totals over these weeks when this build's week is among them."),
     ("Groups", "Which products each ad group advertises, the spend weights used where it advertises several, and "
                "below, each ad group's blended aim ACoS, CVR, order value and price, computed once and fetched "
                "by the Bids and Terms rows."),
@@ -130,18 +131,39 @@ STEPS = [
 ]
 
 BID_METHOD = [
+    "History: each keyword's clicks, orders, spend and ad sales are summed over every week of the Keyword history, "
+    "this week included (History clicks and the columns beside it, hidden). Without a history that holds this "
+    "week (no period known, or this week's export overlaps a recorded week) a keyword's history is this week's row, "
+    "so no week is ever counted twice.",
+    "Pooled conversion rates: per product (or shared ad group's blend), the keywords' conversion rates are taken "
+    "to follow a Beta prior, fitted by the method of moments with clicks as weights, with a share of keywords that "
+    "never convert fitted by one reweighting round (Prior a, Prior b, Never-converting share). Each keyword's "
+    "posterior CVR = w x (a + orders) / (a + b + clicks), w the probability it converts at all (1 once it has an "
+    "order). Where a product has fewer than 5 keywords with clicks, no orders, or no more spread than chance "
+    "gives, the prior is its CVR worth k clicks (k = Smoothing weight on Settings), as before: posterior CVR = "
+    "(orders + k x product CVR) / (clicks + k). These working figures come from the exports alone, so they are "
+    "written as values (grey); the Posterior CVR follows the Smoothing weight live.",
     "Value per click: a click is worth its conversion rate x the average order value; the bid that meets the "
-    "target ACoS is target ACoS x that value. Because a target's cost per click usually sits below its bid, the "
-    "workbook applies it as a ratio: value bid = current bid x target ACoS / smoothed ACoS, where smoothed ACoS "
-    "= CPC / (smoothed CVR x order value).",
-    "Small samples: a target's conversion rate is shrunk toward its product's, as if it had k more clicks at the "
-    "product's rate (k = Smoothing weight on Settings): smoothed CVR = (orders + k x product CVR) / (clicks + k).",
-    "Order value: the target's ad sales / orders when it has orders, else its product's.",
-    "Steps, not jumps: the proposal moves from the current bid toward the value bid and never past it, by at "
-    "most the maximum cut or raise, rounded to the cent; a raise stops at the bid ceiling and a cut at the floor.",
-    "Data guards: no clicks, or fewer than the minimum clicks with no orders, hold the bid. No orders after "
-    "n = ceil(ln(1 - confidence) / ln(1 - product CVR)) clicks (the clicks after which zero orders would be "
-    "unlikely) cuts by the maximum cut. A target with no orders is never raised.",
+    "target ACoS is target ACoS x that value, divided by the keyword's CPC-to-bid ratio (its history spend / "
+    "clicks x the bid in force each week; else this week's CPC / bid; else 1, as Ratio source says): value bid = "
+    "posterior CVR x order value x target ACoS / ratio.",
+    "Order value: the keyword's history ad sales / orders when it has orders, else its product's.",
+    "Cutting waste on evidence: Waste probability is the posterior probability that a click is worth less than it "
+    "costs at the target, (1 - w) + w x BETADIST(CPC / (order value x target ACoS), a + orders, b + clicks - "
+    "orders), the CPC being the ratio x the current bid. At or above waste_confidence (Settings, 90%), the bid "
+    "is cut to its value bid at once, past the maximum cut, down to the floor (cut on evidence: likely waste).",
+    "Steps, not jumps: otherwise the proposal moves from the current bid toward the value bid and never past it, "
+    "by at most the maximum cut or raise, rounded to the cent; a raise stops at the bid ceiling and a cut at the "
+    "floor.",
+    "Data guards, on the history's clicks and orders: no clicks hold the bid. A keyword with no orders whose "
+    "history spend is below exploration_orders x target ACoS x order value is held (exploring: within "
+    "allowance). Fewer than the minimum clicks with no orders hold the bid. No orders after n = ceil(ln(1 - "
+    "confidence) / ln(1 - product CVR)) clicks (the clicks after which zero orders would be unlikely) cuts by the "
+    "maximum cut. A target with no orders is never raised.",
+    "Rules (the hidden Rule column): 1 no clicks, 2 no orders after n clicks, 3 not enough data, 4 no order value "
+    "yet, 5 no orders yet: not raised, 6 raise to value bid, 7 lower to value bid, 8 at value bid, 9 raise capped "
+    "at the maximum raise, 10 lower capped at the maximum cut, 11 low stock: not raised, 12 cut on evidence, "
+    "13 exploring: within allowance.",
     "Stock: a target whose ad group advertises a product low on stock (Profit's Days of cover below the "
     "minimum days of cover) is never raised (low stock: not raised); its cuts still apply.",
     "Target above break-even: break-even ACoS equals the margin before ads; above it, each ad-driven sale "
@@ -156,8 +178,9 @@ BID_METHOD = [
     "floor), one without a known margin at its target.",
     "Shared ad groups: where an ad group advertises several products, their aim ACoS, conversion rate and "
     "order value are blended, weighted by each product's ad spend in the group (see Groups).",
-    "Working columns: unhide the columns right of Final bid on Bids to see each step (product CVR, smoothed "
-    "CVR and ACoS, the zero-order clicks, the rule number 1-11 and the unrounded bid).",
+    "Working columns: unhide the columns right of Final bid on Bids to see each step (the history's figures, "
+    "the CPC-to-bid ratio, the product's prior, the converting probability, the posterior CVR, the zero-order "
+    "clicks and the rule number 1-13).",
     "Evidence: README, 'How well the method works on simulated accounts' (results, assumptions and limits).",
 ]
 
@@ -198,8 +221,11 @@ SOURCES = [
     "rule of pricing applied to the bid (derived in the README). Click elasticity from the keyword history: a "
     "Poisson regression with one fixed effect per keyword, fitted by its conditional likelihood (J. A. Hausman, "
     "B. H. Hall and Z. Griliches, Econometrica 52, 1984).",
-    "Smoothing: a Beta prior worth k clicks, the empirical-Bayes shrinkage used for rare-event click and "
-    "conversion rates; its posterior mean is (orders + k p) / (clicks + k).",
+    "Pooled conversion rates: empirical-Bayes beta-binomial shrinkage; the prior fitted by the method of moments "
+    "with clicks as weights (D. Kleinman, 'Proportions with extraneous variance: single and independent samples', "
+    "Journal of the American Statistical Association 68, 1973), with a zero-inflated share of never-converting "
+    "keywords fitted by one reweighting round; the fallback, a Beta prior worth k clicks, has the posterior mean "
+    "(orders + k p) / (clicks + k).",
     "Zero-order threshold: the binomial chance of no orders in n clicks, (1 - p)^n; at 95% it is close to the "
     "rule of three, n = 3 / p (J. A. Hanley and A. Lippman-Hand, JAMA 249, 1983).",
     "Text normalisation: Unicode Standard Annex #15 (NFKC) and Unicode default case folding.",

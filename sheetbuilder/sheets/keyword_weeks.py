@@ -39,6 +39,7 @@ from sheetbuilder.workbook.spec import DATA, Cell, Column, Sheet, Table
 
 SHEET = "Keyword history"
 NAME = "sb_keyword_history"  # the defined name over the table's body (read back by weekly/keyword_weeks.py)
+WEEK_NAME = "sb_keyword_history_week"  # the build's own week, when recorded: what Bids' history totals run through
 HEADER_ROW = 3  # 0-based: title, note, blank, then the header
 KEYS = (("campaign", "Campaign", 24), ("ad_group", "Ad group", 16), ("target", "Target", 26),
         ("match_type", "Match type", 9))
@@ -75,6 +76,7 @@ class KeywordHistory:
     weeks: dict[Key, dict[Period, Week]] = field(default_factory=dict)
     recorded: set[Period] = field(default_factory=set)
     shown: dict[Key, Key] = field(default_factory=dict)  # {compared key: as the latest week spelled it} (else itself)
+    current: Period | None = None  # read back: the week its build's Bids read the totals through (None: this week's rows)
 
     def __post_init__(self) -> None:
         if not self.recorded:
@@ -216,6 +218,7 @@ def packed_rows(history: KeywordHistory) -> list[dict[str, Any]]:
         by_period = history.weeks[key]
         periods = sorted(by_period, key=order.__getitem__)
         row: dict[str, Any] = dict(zip((k for k, _, _ in KEYS), shown.get(key, key)))
+        row["key"] = key
         row["weeks"] = float(len(periods))
         row["periods"] = SEPARATOR.join([texts[p] for p in periods])
         figures = [by_period[p] for p in periods]
@@ -224,6 +227,9 @@ def packed_rows(history: KeywordHistory) -> list[dict[str, Any]]:
             row[metric + "_packed"] = SEPARATOR.join(_texts(values))
             if metric != "bid":
                 row[metric] = round(math.fsum(v for v in values if v == v), 9)
+        priced = [f for f in figures if f[5] == f[5] and f[1] == f[1]]  # weeks whose bid in force is known
+        row["bid_clicks"] = round(math.fsum(f[1] * f[5] for f in priced), 9)
+        row["bid_spend"] = round(math.fsum(f[3] for f in priced if f[3] == f[3]), 9)
         out.append(row)
     return out
 
@@ -246,11 +252,27 @@ class PackedHistory:
     rows: list[dict[str, Any]]
     periods: list[Period]
     dropped: list[Period] = ()
+    current: Period | None = None  # the build's own week when the history holds it (Bids then reads the totals)
+
+    def lookup(self, exported: bool = True):
+        """A function giving each keyword's totals over every week from its four key texts, or None.
+
+        The totals: (clicks, orders, spend, ad sales, clicks x bid, spend at a known bid), None for a keyword the
+        history lacks. None (no function) when the history does not hold the build's own week: Bids then reads
+        this week's rows alone, so no week is counted twice and none is taken for this week's.
+        exported: the key texts are as an export gives them (else as a saved workbook gives them back).
+        """
+        if self.current is None:
+            return None
+        totals = {r["key"]: (r["clicks"], r["orders"], r["spend"], r["ad_sales"], r["bid_clicks"], r["bid_spend"])
+                  for r in self.rows}
+        return lambda rows: [totals.get(history_key(tuple(map(str, parts)), exported)) for parts in rows]
 
 
-def packed(history: KeywordHistory, dropped: list[Period] = ()) -> PackedHistory:
-    """The history packed for the sheet (rows in key order)."""
-    return PackedHistory(packed_rows(history), history.periods(), list(dropped))
+def packed(history: KeywordHistory, dropped: list[Period] = (), current: Period | None = None) -> PackedHistory:
+    """The history packed for the sheet (rows in key order); current: this build's week, if recorded."""
+    return PackedHistory(packed_rows(history), history.periods(), list(dropped),
+                         current if current is not None and current in history.recorded else None)
 
 
 def plan_keyword_history(history: PackedHistory) -> tuple[Sheet, list[tuple[str, str]]]:
@@ -270,9 +292,14 @@ def plan_keyword_history(history: PackedHistory) -> tuple[Sheet, list[tuple[str,
             "limits how many weeks are kept.")
     if dropped:
         note += f" This build dropped {len(dropped)} week(s) older than history_weeks allows."
+    week = ("Bids reads each keyword's totals over these weeks, this build's week included:" if history.current
+            else "Bids reads this week's rows alone (this build's week is not recorded here):")
     above = [[Cell(f"Keyword history: every keyword's results week by week ({span})", style="title")],
-             [Cell(note, style="note")]]
+             [Cell(note, style="note")],
+             [Cell(week, style="note"), None, None,
+              Cell(period_text(history.current) if history.current else "", style="text")]]
     sheet = Sheet(SHEET, above=above, table=Table(HEADER_ROW, columns), freeze=(HEADER_ROW + 1, 3),
                   tab_color="#5A5A5A")
     last = HEADER_ROW + max(len(rows), 1) + 1  # 1-based row of the last body row
-    return sheet, [(NAME, f"={quote_sheet(SHEET)}!$A${HEADER_ROW + 2}:${col_letter(len(columns) - 1)}${last}")]
+    return sheet, [(NAME, f"={quote_sheet(SHEET)}!$A${HEADER_ROW + 2}:${col_letter(len(columns) - 1)}${last}"),
+                   (WEEK_NAME, f"={quote_sheet(SHEET)}!$D${HEADER_ROW}")]

@@ -19,7 +19,7 @@ from sheetbuilder.errors import ERROR, WARNING, Problem
 from sheetbuilder.reading.periods import Period
 from sheetbuilder.reading.settings import Settings
 from sheetbuilder.sheets.keyword_weeks import (HEADER_ROW, HEADERS, KEYS, METRICS, NAME, PACKED, SEPARATOR, SHEET,
-                                               KeywordHistory, add_week, history_key, keep_recent, read_period,
+                                               WEEK_NAME, KeywordHistory, add_week, history_key, keep_recent, read_period,
                                                week_of)
 from sheetbuilder.values import is_blank
 from sheetbuilder.weekly.saved import SavedBook
@@ -135,7 +135,18 @@ def read_keyword_history(book: SavedBook) -> tuple[KeywordHistory | None, list[P
             history.shown[key] = spelled
         history.weeks[key] = {**earlier, **weeks}
         history.recorded.update(weeks)
+    history.current = _current_week(book, sheet, rows, history)
     return history, problems
+
+
+def _current_week(book: SavedBook, sheet: str, rows: list, history: KeywordHistory) -> Period | None:
+    """The week its build's Bids read the history totals through (WEEK_NAME), when it is a recorded one."""
+    area = book.area(WEEK_NAME)
+    if area is None or area.sheet != sheet or area.first_row >= len(rows) or area.first_col >= len(rows[area.first_row]):
+        return None
+    value = rows[area.first_row][area.first_col]
+    period = read_period(value) if isinstance(value, str) else None
+    return period if period in history.recorded else None
 
 
 def this_week_period(inputs_period: Period | None, settings: Settings) -> Period | None:

@@ -17,13 +17,14 @@ from pathlib import Path
 from typing import Any
 
 from sheetbuilder.assemble import Plan, plan_workbook
-from sheetbuilder.errors import Problem, SheetbuilderError
+from sheetbuilder.errors import ERROR, Problem, SheetbuilderError
 from sheetbuilder.reading.account import ACCOUNT_NAME
 from sheetbuilder.reading.guard import reading
 from sheetbuilder.reading.readers import Inputs
 from sheetbuilder.reading.settings import Settings
 from sheetbuilder.sheets.actions import HEADER_ROW as ACTIONS_HEADER_ROW, HEADERS, SHEET
 from sheetbuilder.sheets.followup import CHANGE_DEFS, NAME as FOLLOWUP_NAME
+from sheetbuilder.sheets.keyword_weeks import packed
 from sheetbuilder.sheets.typed import (ACTIONS_NAME, DECISION_SHEETS, EDITABLE_TABLES, PROFIT_TARGET, CarryResult,
                                       key_text)
 from sheetbuilder.values import is_blank, is_number
@@ -178,7 +179,11 @@ def plan_saved(saved: SavedWorkbook) -> tuple[Plan, list[Problem]]:
     problems += copy_problems(edits)
     carry = CarryResult(settings, targets=targets, decisions=decisions, source=str(saved.path), inputs_as_saved=True)
     tables = {k: None if v is None else v.copy() for k, v in saved.tables.items()}  # the record's stay as read
-    return plan_workbook(Inputs(tables), settings, saved.built_on, [], carry), problems
+    # Bids read its keyword history's totals when the build recorded its own week: planned again from the same
+    history = saved.keyword_history
+    problems += [p for p in saved.keyword_history_problems if p.severity == ERROR]
+    keywords = packed(history, current=history.current) if history is not None else None
+    return plan_workbook(Inputs(tables), settings, saved.built_on, [], carry, keyword_history=keywords), problems
 
 
 def read_saved_workbook(path: Path, unreadable: type[SheetbuilderError] = NotAWorkbook,
@@ -229,7 +234,7 @@ def _record(book: SavedBook, for_changes: bool, followup: bool) -> SavedWorkbook
     settings, built_on, setting_problems = saved_settings(book)
     problems += [Problem("Settings", None, p.column, p.message) for p in setting_problems]
     history, history_problems = ([], []) if for_changes else read_history(book)
-    keywords, keyword_problems = (None, []) if for_changes else read_keyword_history(book)
+    keywords, keyword_problems = read_keyword_history(book)  # Bids read its totals: `changes` plans with it
     return SavedWorkbook(book.path, names, tables=tables, settings=settings, built_on=built_on,
                          edits=edits_in(book), problems=problems, context=read_context(book),
                          history=history, history_problems=history_problems, actions=actions,
