@@ -157,6 +157,7 @@ def demo_seller_target(tmp_path_factory):
     return build(folder, folder.parent / "off.xlsx", built_on=BUILT_ON)
 
 
+@pytest.mark.slow  # several seconds: the fast lane stays under two minutes
 def test_the_demo_with_seek_profit_off_bids_at_the_sellers_target_capped_at_break_even(demo_seller_target):
     rows, _ = bids_table(demo_seller_target.output)
     expected = bids_oracle_for(DEMO, settings_changes={"seek_profit": "no"})
@@ -167,6 +168,7 @@ def test_the_demo_with_seek_profit_off_bids_at_the_sellers_target_capped_at_brea
                for r in profit.values() if r["Break-even ACoS"] not in (None, ""))
 
 
+@pytest.mark.slow  # several seconds: the fast lane stays under two minutes
 def test_the_demo_with_seek_profit_on_bids_at_the_aim_and_value_bids_scale_with_it(demo_build, demo_seller_target):
     on, _ = bids_table(demo_build.output)
     off, _ = bids_table(demo_seller_target.output)

@@ -40,6 +40,7 @@ def test_each_product_without_a_cost_is_named_with_what_to_do(built):
             "profit") == message
 
 
+@pytest.mark.slow  # several seconds: the fast lane stays under two minutes
 def test_filling_the_cost_on_in_catalog_gives_the_margin_live(built, tmp_path):
     edited = edit_workbook(built.output, tmp_path / "edited.xlsx", [("in_catalog", "D2", 8.0)])
     values = formulas_values(edited)

@@ -123,6 +123,7 @@ def test_cached_bids_equal_the_reference_of_the_summed_week(week):
     assert [] == mismatches(want, by_key, [h for h in next(iter(want.values())) if h != "Target row"], "daily")
 
 
+@pytest.mark.slow  # several seconds: the fast lane stays under two minutes
 def test_formulas_engine_equals_cached_values_of_the_daily_build(week):
     _, daily_xlsx, _, _ = week
     problems, checked = engine_disagreements(daily_xlsx, formulas_values(daily_xlsx))

@@ -98,6 +98,7 @@ def test_demo_first_look_lists_the_biggest_changes_as_the_reference_does(demo_bu
     assert [] == change_mismatches(demo_build.output, DEMO)
 
 
+@pytest.mark.slow  # several seconds: the fast lane stays under two minutes
 def test_generated_first_looks_equal_the_references(generated, work):
     for i, (_, result) in enumerate(generated):
         folder = work / f"gen{i}"

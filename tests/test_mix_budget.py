@@ -82,6 +82,7 @@ def test_demo_mix_and_budget_cached_values_equal_reference(demo_build):
     _check(demo_build.output, DEMO, "demo cached")
 
 
+@pytest.mark.slow  # several seconds: the fast lane stays under two minutes
 def test_demo_mix_says_which_ad_types_do_not_run(tmp_path):
     import shutil
     from sheetbuilder.pipeline import build

@@ -181,6 +181,7 @@ def _weeks_in_a_row(tmp_path: Path, weeks: int, save) -> list[Path]:
     return outputs
 
 
+@pytest.mark.slow  # several seconds: the fast lane stays under two minutes
 def test_a_low_traffic_keyword_that_never_converts_is_cut_once_its_history_has_the_clicks(tmp_path):
     # 6 clicks and 6.00 a week: one week is within the exploration allowance (1 order x 30% x 25.00 = 7.50) and
     # below min_clicks (10); two weeks hold 12 clicks and 12.00 without an order.

@@ -92,6 +92,7 @@ def test_renamed_tabs_keep_changes_and_carrying_working(demo, tmp_path):
     assert [] == carry.unmatched
 
 
+@pytest.mark.slow  # several seconds: the fast lane stays under two minutes
 def test_renamed_tabs_whose_defined_names_are_gone_are_found_by_their_header_row(demo, tmp_path):
     key = {}
 
@@ -177,6 +178,7 @@ def test_a_number_typed_over_a_formula_is_reported_with_where_to_type(demo, tmp_
     assert "1 cell(s) typed over a formula" in capsys.readouterr().err
 
 
+@pytest.mark.slow  # several seconds: the fast lane stays under two minutes
 def test_values_typed_over_formulas_on_any_sheet_are_reported_by_sheet_column_and_key(demo, tmp_path):
     typed = {("Bids", "Campaign", "Proposed bid", 2): 1.23, ("Terms", "Campaign", "Verdict", 0): "promote",
              ("Budget", "Product ID", "Final spend", 1): 99.0, ("Harvest", "Number", "Search term", 0): "my term",
