@@ -175,11 +175,12 @@ def test_lowering_a_products_target_acos_below_its_aim_lowers_only_its_bids(libr
     assert any(rows[k]["Proposed bid"] < before[k]["Proposed bid"] for k in mine)
     others = [k for k in rows if k not in mine]
     assert [before[k]["Proposed bid"] for k in others] == [rows[k]["Proposed bid"] for k in others]
-    # A higher target ACoS makes a click worth more: its value bids rise and its waste probabilities fall.
+    # A lower aim makes a click worth less at the aim: its value bids fall and its waste probabilities rise.
     priced = [k for k in mine if before[k]["Waste probability"] is not None]
-    assert all(rows[k]["Value bid"] > before[k]["Value bid"] for k in priced)
-    assert all(rows[k]["Waste probability"] <= before[k]["Waste probability"] for k in priced)
-    assert any(rows[k]["Waste probability"] < before[k]["Waste probability"] - 1e-6 for k in priced)
+    assert priced
+    assert all(rows[k]["Value bid"] < before[k]["Value bid"] for k in priced)
+    assert all(rows[k]["Waste probability"] >= before[k]["Waste probability"] for k in priced)
+    assert any(rows[k]["Waste probability"] > before[k]["Waste probability"] + 1e-6 for k in priced)
 
 
 @pytest.mark.libreoffice
