@@ -7,7 +7,7 @@
 #       ./tasks.sh golden (output_samples/demo.xlsx only, the golden file of tests/test_golden_demo.py),
 #       ./tasks.sh bench (the benchmark, benchmarks/), ./tasks.sh soak (the long fuzz soak of the readers),
 #       ./tasks.sh study (the simulated-market study of the bid method; writes study/results.md),
-#       ./tasks.sh largest (the largest benchmark account built, saved by LibreOffice and read back; about 90 minutes).
+#       ./tasks.sh largest (the largest benchmark account built, saved by LibreOffice and read back; about an hour).
 set -euo pipefail
 cd "$(dirname "$0")"
 PY=${PYTHON:-python3}

@@ -3,7 +3,7 @@ search-term rows) reads back through ``changes`` and ``build --previous``, as bu
 saves it after a person opens it and saves it (a plain open and save: LibreOffice's default for .xlsx
 is not to recalculate on load, so the cached values are the ones it keeps).
 
-Opt-in: it takes about an hour and a half on the project's 2-core machine and several GB of memory,
+Opt-in: it takes about an hour on the project's 2-core machine and several GB of memory,
 more than CI's time allows, so it is deselected unless SB_LARGEST=1 (``./tasks.sh largest`` sets it).
 Each step runs the command a user types, in its own process.
 """
