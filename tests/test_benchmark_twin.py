@@ -3,6 +3,8 @@ removed and every cached value kept, and its partial twins that keep one part's 
 """
 from __future__ import annotations
 
+import pytest
+
 import zipfile
 
 from benchmarks.twin import count_cells, idiom, make_twin, sheet_parts
@@ -15,6 +17,7 @@ def _values(path):
             if c.value not in (None, "")}
 
 
+@pytest.mark.slow  # several seconds: the fast lane stays under two minutes
 def test_the_twin_holds_no_formula_and_every_cached_value(demo_build, tmp_path):
     twin = tmp_path / "twin.xlsx"
     make_twin(demo_build.output, twin)

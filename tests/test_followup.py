@@ -140,6 +140,7 @@ def test_every_figure_recalculated_by_libreoffice_equals_the_independent_referen
     assert [] == [k for k in cached if not same(cached[k], recalculated[k])]
 
 
+@pytest.mark.slow  # several seconds: the fast lane stays under two minutes
 def test_the_summary_counts_and_sums_the_rows_below(scenario):
     rows = followup_rows(scenario["week2"].output)
     summary = _summary(scenario["week2"].output)
@@ -179,6 +180,7 @@ def test_products_then_are_last_weeks_profit_figures_and_now_this_weeks(scenario
     assert unchanged > 0  # the products whose spend did not move read exactly 0, never -5.7e-14
 
 
+@pytest.mark.slow  # several seconds: the fast lane stays under two minutes
 def test_the_guide_dashboard_shows_the_follow_up_summary(scenario):
     ws = openpyxl.load_workbook(scenario["week2"].output, data_only=True)["Guide"]
     labels = {ws.cell(r, 1).value: ws.cell(r, 2).value for r in range(1, 40)}
@@ -310,6 +312,7 @@ def test_follow_up_formulas_recalculated_by_the_formulas_library_equal_the_cache
     assert "The periods do not overlap." == openpyxl.load_workbook(week2.output, data_only=True)[SHEET]["A3"].value
 
 
+@pytest.mark.slow  # several seconds: the fast lane stays under two minutes
 def test_the_periods_come_from_the_exports_dates_when_they_carry_them(tmp_path):
     folder = _tiny_week1(tmp_path / "w1")
     (folder / "settings.toml").write_text("", encoding="utf-8")  # no period in the settings

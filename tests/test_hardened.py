@@ -247,6 +247,7 @@ def test_stale_partials_are_recognised_by_name_and_live_ones_kept(tmp_path):
     assert sorted(tmp_path / n for n, stale in names.items() if stale) == atomic.stale_partials(tmp_path / "book.xlsx")
 
 
+@pytest.mark.slow  # several seconds: the fast lane stays under two minutes
 def test_a_changes_export_writes_nothing_in_the_system_temp_folder(tmp_path, hostile_book):
     systmp = tmp_path / "systmp"
     systmp.mkdir()

@@ -94,6 +94,7 @@ def test_any_generated_account_caches_the_reference_values(account, tmp_path_fac
     _check_against_oracle(result.output, folder, "property")
 
 
+@pytest.mark.slow  # several seconds: the fast lane stays under two minutes
 def test_warning_is_blank_once_the_attribution_window_has_passed(tmp_path):
     result = build(DEMO, tmp_path / "later.xlsx", built_on=dt.date(2026, 12, 20))
     assert "" == (open_values(result.output)["Profit"]["A3"].value or "")

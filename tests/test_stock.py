@@ -205,6 +205,7 @@ def _guide_low(path: Path) -> tuple[object, list[str]]:
     return count, names[:int(count)] if isinstance(count, (int, float)) else names
 
 
+@pytest.mark.slow  # several seconds: the fast lane stays under two minutes
 def test_the_demo_guide_lists_its_low_stock_products_on_its_first_screen(demo_build):
     # The demo (tools/make_demo.py): LF-1002 has 2 units, LF-1019 none, LF-1014 twelve days' worth.
     count, names = _guide_low(demo_build.output)

@@ -33,6 +33,7 @@ def test_terms_headers_are_the_documented_ones(demo_build):
     assert TERMS_HEADERS == [c.value for c in ws[TERMS_HEADER_ROW]][: len(TERMS_HEADERS)]
 
 
+@pytest.mark.slow  # several seconds: the fast lane stays under two minutes
 def test_demo_terms_and_lists_cached_values_equal_reference(demo_build):
     _check(demo_build.output, DEMO, "demo cached")
 
