@@ -172,7 +172,7 @@ def test_a_read_that_keeps_its_rows_gives_the_read_and_the_stream_of_two_passes(
         streamed = []
         book.stream("S", lambda r, cells: streamed.append((r, dict(cells))) and None, None, MISSING)
         expected = book.read("S", columns, True, MISSING), streamed
-        got, kept = book.read_recording("S", columns, True, MISSING)
+        got, kept = book.read_keeping_rows("S", columns, True, MISSING)
     again = []
     kept.stream(lambda r, cells: again.append((r, dict(cells))) and None)
     assert expected == (got, again)

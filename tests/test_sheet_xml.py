@@ -14,7 +14,7 @@ import random
 import pytest
 from hypothesis import given, settings as hsettings, strategies as st
 
-from sheetbuilder.weekly.sheet_xml import CellReader, DamagedSheet, read_cells, read_recording, stream_cells
+from sheetbuilder.weekly.sheet_xml import CellReader, DamagedSheet, read_cells, read_keeping_rows, stream_cells
 
 NS = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
 MISSING = object()
@@ -92,7 +92,7 @@ def test_a_read_that_keeps_its_rows_gives_the_read_and_the_stream_of_two_passes(
     # and a prefixed one without row numbers.
     for xml in (CANONICAL, _sheet('<x:row><x:c t="s"><x:v>0</x:v></x:c><x:c><x:f>B1*2</x:f></x:c></x:row>'
                                   '<x:row><x:c/><x:c r="B2"><x:v>3</x:v></x:c></x:row>', prefix="x")):
-        rows, kept = read_recording(io.BytesIO(xml.encode("utf-8")), _reader(), columns, True)
+        rows, kept = read_keeping_rows(io.BytesIO(xml.encode("utf-8")), _reader(), columns, True)
         assert _read(xml, columns=columns, formulas=True) == rows
         again = []
         kept.stream(lambda r, cells: again.append((r, dict(cells))) and None)

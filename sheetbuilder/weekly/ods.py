@@ -199,7 +199,7 @@ class OdsFile:
     """An .ods saved workbook, opened: sheet names, defined names, and each sheet's cells on request.
 
     Offers what :class:`sheetbuilder.weekly.saved.SavedBook` reads from an .xlsx: ``sheetnames``,
-    ``area(name)``, ``has_name(name)``, ``read(sheet, columns, formulas, no_saved_value)``, ``read_recording``
+    ``area(name)``, ``has_name(name)``, ``read(sheet, columns, formulas, no_saved_value)``, ``read_keeping_rows``
     (the read and the rows a stream hands over, in one pass), ``stream`` and ``close()``.
 
     Raises:
@@ -249,14 +249,14 @@ class OdsFile:
         """
         return padded_rows(self._cells(sheet, columns, formulas, no_saved_value).found)
 
-    def read_recording(self, sheet: str, columns: frozenset[int] | None = None, formulas: bool = False,
+    def read_keeping_rows(self, sheet: str, columns: frozenset[int] | None = None, formulas: bool = False,
                        no_saved_value: Any = None) -> tuple[list[list[Any]], KeptRows]:
         """:meth:`read`, and every row as :meth:`stream` would hand it over (all columns), in one pass.
 
         Raises:
             DamagedSheet, UnsafeWorkbook: as :meth:`read`.
         """
-        cells = self._cells(sheet, columns, formulas, no_saved_value, recording=True)
+        cells = self._cells(sheet, columns, formulas, no_saved_value, keep_rows=True)
         kept = KeptRows()
         for r in sorted(cells.streamed):
             kept.keep(r, dict(cells.streamed[r]))
@@ -278,11 +278,11 @@ class OdsFile:
                 return
 
     def _cells(self, sheet: str, columns: frozenset[int] | None, formulas: bool, no_saved_value: Any,
-               with_formulas: bool = False, recording: bool = False) -> "_Cells":
-        """The handlers after one read of sheet (their rows found; recording: also every row as streamed)."""
+               with_formulas: bool = False, keep_rows: bool = False) -> "_Cells":
+        """The handlers after one read of sheet (their rows found; keep_rows: also every row as streamed)."""
         span = self._spans[sheet]
         cells = _Cells(columns, formulas, no_saved_value, guard.MAX_REPEATED_CELLS + span.end - span.start, sheet,
-                       with_formulas, recording)
+                       with_formulas, keep_rows)
         if span.empty or span.end <= span.start:
             return cells
         parser = expat.ParserCreate(namespace_separator="}")
@@ -356,11 +356,11 @@ class _Cells:
     """The expat handlers of one sheet's read: the rows kept, the cell and paragraph being read."""
 
     def __init__(self, columns: frozenset[int] | None, formulas: bool, no_saved_value: Any, budget: int, sheet: str,
-                 with_formulas: bool = False, recording: bool = False):
+                 with_formulas: bool = False, keep_rows: bool = False):
         self.columns, self.formulas, self.no_saved_value = columns, formulas, no_saved_value
         self.with_formulas = with_formulas  # keep (value, holds a formula) pairs, a formula as (None, True)
-        # recording: also keep every column's cells as a stream hands them over (a formula as KeptRows.FORMULA)
-        self.recording, self.passed_over = recording, None if recording else columns
+        # keep_rows: also keep every column's cells as a stream hands them over (a formula as KeptRows.FORMULA)
+        self.keep_rows, self.passed_over = keep_rows, None if keep_rows else columns
         self.streamed: dict[int, dict[int, Any]] = {}
         self.kept_streamed: dict[int, Any] = {}
         self.copies_streamed = 0
@@ -461,7 +461,7 @@ class _Cells:
         first = self.col
         self.col += cell.repeat
         held, value = self._value(cell)
-        if self.recording:
+        if self.keep_rows:
             self._put(self.kept_streamed, first, None, held or cell.formula,
                       KeptRows.FORMULA if cell.formula else value, True)
         if self.with_formulas:
@@ -484,7 +484,7 @@ class _Cells:
         """Keep the row's cells in every row it repeats into."""
         first, repeat = self.row, self.rows_repeated
         self.row += repeat
-        if self.recording:
+        if self.keep_rows:
             self._repeat_row(self.kept_streamed, self.streamed, first, repeat, True)
         self._repeat_row(self.kept, self.found, first, repeat)
 

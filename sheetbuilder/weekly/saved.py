@@ -185,9 +185,9 @@ class SavedBook:
 
     def _read(self, sheet: str, columns: frozenset[int] | None, formulas: bool) -> list[list[Any]]:
         try:  # a truncated or damaged sheet is refused whole, never read in part
-            if sheet not in self._streamed and hasattr(self.file, "read_recording") and sheet in {
+            if sheet not in self._streamed and hasattr(self.file, "read_keeping_rows") and sheet in {
                     self.sheet(s) for s in self.streamed_again}:
-                rows, self._streamed[sheet] = self.file.read_recording(sheet, columns, formulas, NO_SAVED_VALUE)
+                rows, self._streamed[sheet] = self.file.read_keeping_rows(sheet, columns, formulas, NO_SAVED_VALUE)
                 return rows
             return self.file.read(sheet, columns, formulas, NO_SAVED_VALUE)
         except DamagedSheet as exc:

@@ -320,7 +320,7 @@ class KeptRows:
                 return
 
 
-class _RecordingRead(_RowStream):
+class _KeepingRead(_RowStream):
     """A read of some columns that also keeps every row as a stream of all columns would hand it over."""
 
     def __init__(self, reader: CellReader, columns: frozenset[int] | None, formulas: bool, kept: KeptRows):
@@ -341,7 +341,7 @@ class _RecordingRead(_RowStream):
         super().end(name)
 
 
-def read_recording(handle: IO[bytes], reader: CellReader, columns: frozenset[int] | None = None,
+def read_keeping_rows(handle: IO[bytes], reader: CellReader, columns: frozenset[int] | None = None,
                    formulas: bool = False) -> tuple[list[list[Any]], KeptRows]:
     """:func:`read_cells` and, in the same pass, every row as :func:`stream_cells` hands it over (all columns).
 
@@ -351,7 +351,7 @@ def read_recording(handle: IO[bytes], reader: CellReader, columns: frozenset[int
         DamagedSheet: the part is not well-formed XML or a reference cannot be read.
     """
     kept = KeptRows()
-    sheet = _RecordingRead(reader, columns, formulas, kept)
+    sheet = _KeepingRead(reader, columns, formulas, kept)
     _parse(handle, sheet)
     return padded_rows(sheet.found), kept
 

@@ -11,7 +11,7 @@ from typing import Any, Callable
 from openpyxl.utils.datetime import from_excel
 
 from sheetbuilder.weekly.names import Area, a1_area
-from sheetbuilder.weekly.sheet_xml import CellReader, read_cells, read_recording, stream_cells
+from sheetbuilder.weekly.sheet_xml import CellReader, read_cells, read_keeping_rows, stream_cells
 
 
 def named_area(wb: Any, name: str) -> Area | None:
@@ -63,14 +63,14 @@ class XlsxFile:
         """
         return self._parse(sheet, no_saved_value, lambda fh, reader: read_cells(fh, reader, columns, formulas))
 
-    def read_recording(self, sheet: str, columns: frozenset[int] | None = None, formulas: bool = False,
+    def read_keeping_rows(self, sheet: str, columns: frozenset[int] | None = None, formulas: bool = False,
                        no_saved_value: Any = None) -> tuple[list[list[Any]], Any]:
         """:meth:`read`, and every row as :meth:`stream` would hand it over (all columns), in one pass.
 
         Raises:
             DamagedSheet: the sheet's XML is not well-formed or a cell cannot be read.
         """
-        return self._parse(sheet, no_saved_value, lambda fh, reader: read_recording(fh, reader, columns, formulas))
+        return self._parse(sheet, no_saved_value, lambda fh, reader: read_keeping_rows(fh, reader, columns, formulas))
 
     def stream(self, sheet: str, on_row: Callable[[int, dict[int, tuple[Any, bool]]], bool | None],
                columns: set[int] | None = None, no_saved_value: Any = None) -> None:
