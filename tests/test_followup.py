@@ -31,6 +31,10 @@ from tools.recalc import libreoffice_convert
 sys.path.insert(0, str(ROOT / "tools"))
 from make_week2 import choose, make_week2  # noqa: E402
 
+# Every test here builds the demo several times: the whole module runs in the slow lane, so the fast
+# lane stays under two minutes; CI runs both.
+pytestmark = pytest.mark.slow
+
 KEY = ("Kind", "Campaign", "Ad group", "Target or term", "Match type")
 FIGURES = ("Applied", "Clicks before", "Clicks now", "CPC before", "CPC now", "Spend before", "Spend now",
            "Orders before", "Orders now", "ACoS before", "ACoS now", "Outcome")
@@ -140,7 +144,6 @@ def test_every_figure_recalculated_by_libreoffice_equals_the_independent_referen
     assert [] == [k for k in cached if not same(cached[k], recalculated[k])]
 
 
-@pytest.mark.slow  # several seconds: the fast lane stays under two minutes
 def test_the_summary_counts_and_sums_the_rows_below(scenario):
     rows = followup_rows(scenario["week2"].output)
     summary = _summary(scenario["week2"].output)
@@ -180,7 +183,6 @@ def test_products_then_are_last_weeks_profit_figures_and_now_this_weeks(scenario
     assert unchanged > 0  # the products whose spend did not move read exactly 0, never -5.7e-14
 
 
-@pytest.mark.slow  # several seconds: the fast lane stays under two minutes
 def test_the_guide_dashboard_shows_the_follow_up_summary(scenario):
     ws = openpyxl.load_workbook(scenario["week2"].output, data_only=True)["Guide"]
     labels = {ws.cell(r, 1).value: ws.cell(r, 2).value for r in range(1, 40)}
@@ -239,7 +241,6 @@ def test_history_after_weeks_two_and_three_holds_exactly_the_applied_changes(sce
     assert _truth(applied2, week2) + _truth(applied3, week3) == _history(third.output)
 
 
-@pytest.mark.slow  # moved out of the fast lane, which must stay under two minutes
 def test_changes_include_unapplied_writes_last_weeks_unapplied_rows_this_week_does_not_change_again(scenario):
     work = scenario["work"]
     plain = export_changes(scenario["week2"].output, work / "changes2_plain.csv")
@@ -262,7 +263,6 @@ def test_periods_a_week_apart_are_both_stated_with_their_overlap(scenario):
     assert ws["A3"].value.startswith("The periods overlap by 23 days, so each comparison is diluted")
 
 
-@pytest.mark.slow  # moved out of the fast lane, which must stay under two minutes
 def test_a_previous_workbook_of_a_later_period_says_so_and_writes_no_follow_up(scenario):
     later = build(scenario["exports2"], scenario["work"] / "later.xlsx", built_on=BUILT_ON)
     out = build(DEMO, scenario["work"] / "earlier.xlsx", built_on=BUILT_ON, previous=later.output)
@@ -293,7 +293,6 @@ def _tiny_week1(folder):
     return folder
 
 
-@pytest.mark.slow  # recalculates a whole workbook with formulas
 def test_follow_up_formulas_recalculated_by_the_formulas_library_equal_the_cached_values(tmp_path):
     from tools.recalc import formulas_values
     from workbook_io import engine_disagreements
@@ -312,7 +311,6 @@ def test_follow_up_formulas_recalculated_by_the_formulas_library_equal_the_cache
     assert "The periods do not overlap." == openpyxl.load_workbook(week2.output, data_only=True)[SHEET]["A3"].value
 
 
-@pytest.mark.slow  # several seconds: the fast lane stays under two minutes
 def test_the_periods_come_from_the_exports_dates_when_they_carry_them(tmp_path):
     folder = _tiny_week1(tmp_path / "w1")
     (folder / "settings.toml").write_text("", encoding="utf-8")  # no period in the settings

@@ -328,7 +328,7 @@ def _parts(path: Path) -> dict[str, bytes]:
 
 
 def _zip_bomb(path: Path, base: dict[str, bytes]) -> None:
-    """base with its first sheet replaced by 1 GiB of spaces that stores in about a MiB."""
+    """base with its first sheet padded by 32 MiB of spaces that store in about 32 KiB (a ratio near 1000)."""
     with zipfile.ZipFile(path, "w", zipfile.ZIP_DEFLATED) as z:
         for name, data in base.items():
             if name == "xl/worksheets/sheet1.xml":
@@ -337,7 +337,7 @@ def _zip_bomb(path: Path, base: dict[str, bytes]) -> None:
                 with z.open(info, "w", force_zip64=True) as fh:
                     fh.write(data[:data.index(b"<sheetData>")])
                     chunk = b" " * (16 * 2**20)
-                    for _ in range(64):
+                    for _ in range(2):
                         fh.write(chunk)
                     fh.write(data[data.index(b"<sheetData>"):])
             else:

@@ -18,6 +18,10 @@ from sheetbuilder.sheets.unmatched import unmatched_sheet_rows
 from sheetbuilder.weekly.carry import Edits, apply_edits, read_edits
 from sheetbuilder.weekly.changes import export_changes
 
+# Every test here builds the demo several times: the whole module runs in the slow lane, so the fast
+# lane stays under two minutes; CI runs both.
+pytestmark = pytest.mark.slow
+
 # Text a spreadsheet would read as a formula or trim, and text with nothing special: each must come back as typed.
 HOSTILE = ("=HYPERLINK(\"http://example.invalid\",\"x\")", "+1+2", "  two spaces each side  ", "-3", "@SUM(A1)")
 TARGETS = pd.DataFrame({"campaign": ["C1", "C1", "C2"], "ad_group": ["G1", "G1", "G2"],
@@ -196,7 +200,6 @@ def test_a_notes_column_is_plain_unlocked_text_at_the_right_end_of_each_table_wi
         assert ("@", False) == (cell.number_format, cell.protection.locked)  # text format: =... stays text
 
 
-@pytest.mark.slow  # moved out of the fast lane, which must stay under two minutes
 def test_a_column_of_ones_own_beside_a_table_built_before_notes_columns_is_carried(demo_build, tmp_path):
     # A workbook built before this version: no Notes column and no defined name over one (simulated by removing
     # them); the user's column right of the table's last built column still comes back, by key.
