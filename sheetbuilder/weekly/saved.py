@@ -187,7 +187,9 @@ class SavedBook:
         try:  # a truncated or damaged sheet is refused whole, never read in part
             if sheet not in self._streamed and hasattr(self.file, "read_keeping_rows") and sheet in {
                     self.sheet(s) for s in self.streamed_again}:
-                rows, self._streamed[sheet] = self.file.read_keeping_rows(sheet, columns, formulas, NO_SAVED_VALUE)
+                rows, kept = self.file.read_keeping_rows(sheet, columns, formulas, NO_SAVED_VALUE)
+                if kept is not None:  # None: the part is streamed again faster than its rows are kept
+                    self._streamed[sheet] = kept
                 return rows
             return self.file.read(sheet, columns, formulas, NO_SAVED_VALUE)
         except DamagedSheet as exc:

@@ -16,6 +16,7 @@ from typing import IO, Any, Callable
 from xml.parsers import expat
 
 from sheetbuilder.reading import guard
+from sheetbuilder.weekly import fast_cells
 from sheetbuilder.reading.guard import UnsafeWorkbook
 
 MAIN_NS = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
@@ -89,15 +90,47 @@ class CellReader:
     date_styles: frozenset[int] | set[int]
     from_serial: Callable[[float], Any]
     no_saved_value: Any = None
+    checked: set[str] | None = None  # parts the regular-expression reader read to their end (not checked again)
+    part: str = ""  # the part read, as checked names it
+
+    def __post_init__(self) -> None:
+        self.dated: dict[str, bool] = {}  # {a cell's s attribute as written: whether it is a date style}
 
     def value(self, cell: _Cell, formulas: bool) -> Any:
         """The cell's value as openpyxl gives it in values-only mode."""
-        if cell.kind == "inlineStr":
-            return "".join(cell.inline)
-        text = "".join(cell.value) if cell.value else None
-        if text is None or text == "":
-            return self.no_saved_value if formulas and cell.formula else None
-        kind = cell.kind
+        return self.value_of(cell.kind, cell.style, cell.formula, "".join(cell.value) if cell.value else None,
+                             "".join(cell.inline), formulas)
+
+    def raw_value(self, raw: tuple, formulas: bool) -> Any:
+        """The value of a cell as :func:`sheetbuilder.weekly.fast_cells.scan` hands it over."""
+        _, _, style, kind, formula, text, inline = raw
+        dated = self.dated.get(style)
+        if dated is None:
+            dated = self.dated[style] = (int(style) if style else 0) in self.date_styles
+        if not dated and text and (not kind or kind == "n"):  # a number, the commonest cell: at once
+            try:
+                return float(text) if "." in text else number(text)
+            except ValueError:
+                pass  # value_of refuses it the one way
+        return self.value_of(kind or "n", int(style) if style else 0, bool(formula), text, inline, formulas)
+
+    def value_of(self, kind: str, style: int, formula: bool, text: str | None, inline: str, formulas: bool) -> Any:
+        """A cell's value from its type, style, whether it holds a formula, its saved value text and inline text."""
+        if kind == "inlineStr":
+            return inline
+        if not text:
+            return self.no_saved_value if formulas and formula else None
+        if kind == "n":
+            try:
+                value = float(text) if "." in text else number(text)
+            except ValueError:
+                raise DamagedSheet(f"a number cell holds {text[:40]!r}") from None
+            if style in self.date_styles:
+                try:
+                    return self.from_serial(value)
+                except (OverflowError, ValueError):
+                    return "#VALUE!"
+            return value
         if kind == "s":
             try:
                 return self.shared[int(text)]
@@ -109,16 +142,7 @@ class CellReader:
             return text
         if kind == "d":
             return iso_datetime(text)
-        try:
-            value = number(text)
-        except ValueError:
-            raise DamagedSheet(f"a number cell holds {text[:40]!r}") from None
-        if cell.style in self.date_styles:
-            try:
-                return self.from_serial(value)
-            except (OverflowError, ValueError):
-                return "#VALUE!"
-        return value
+        return self.value_of("n", style, formula, text, inline, formulas)  # any other type reads as a number
 
 
 _C, _ROW, _V, _F, _IS, _RPH, _T = range(1, 8)
@@ -218,6 +242,14 @@ class _SheetParser:
 
 
 _UNWANTED = _Cell()
+
+
+class _Letters(dict):
+    """{column letters: 0-based column}, filled as letters are met."""
+
+    def __missing__(self, letters: str) -> int:
+        col = self[letters] = column_index(letters)
+        return col
 _FORMULA_CELL = (None, True)  # a formula cell as a stream hands it over, its saved value unread
 
 
@@ -244,9 +276,23 @@ def read_cells(handle: IO[bytes], reader: CellReader, columns: frozenset[int] | 
     Raises:
         DamagedSheet: the part is not well-formed XML or a reference cannot be read.
     """
+    try:  # the regular-expression reader first; the expat reader whenever it does not read the part
+        return _fast_read(handle, reader, columns, formulas)
+    except fast_cells.NotFast:
+        handle.seek(0)
     sheet = _SheetParser(reader, columns, formulas)
     _parse(handle, sheet)
     return padded_rows(sheet.found)
+
+
+def _fast_read(handle: IO[bytes], reader: CellReader, columns: frozenset[int] | None,
+               formulas: bool) -> list[list[Any]]:
+    """:func:`read_cells` by :func:`sheetbuilder.weekly.fast_cells.scan` (NotFast: the part is not for it)."""
+    found: dict[int, dict[int, Any]] = {}
+    value = reader.raw_value
+    for row, cells in fast_cells.scan(handle, _Letters(), columns, reader.checked, reader.part):
+        found[row] = {c: value(raw, formulas) for c, raw in cells.items()}
+    return padded_rows(found)
 
 
 def _parse(handle: IO[bytes], sheet: _SheetParser) -> None:
@@ -342,14 +388,20 @@ class _KeepingRead(_RowStream):
 
 
 def read_keeping_rows(handle: IO[bytes], reader: CellReader, columns: frozenset[int] | None = None,
-                   formulas: bool = False) -> tuple[list[list[Any]], KeptRows]:
+                      formulas: bool = False) -> tuple[list[list[Any]], KeptRows | None]:
     """:func:`read_cells` and, in the same pass, every row as :func:`stream_cells` hands it over (all columns).
 
     A later stream of the sheet replays the rows kept (:meth:`KeptRows.stream`) instead of reading the part again.
+    A part the regular-expression reader reads (:mod:`sheetbuilder.weekly.fast_cells`) keeps nothing (None):
+    streaming it again with the few columns a stream asks for costs less than keeping every cell of it.
 
     Raises:
         DamagedSheet: the part is not well-formed XML or a reference cannot be read.
     """
+    try:  # the regular-expression reader first; the expat reader whenever it does not read the part
+        return _fast_read(handle, reader, columns, formulas), None
+    except fast_cells.NotFast:
+        handle.seek(0)
     kept = KeptRows()
     sheet = _KeepingRead(reader, columns, formulas, kept)
     _parse(handle, sheet)
@@ -368,4 +420,20 @@ def stream_cells(handle: IO[bytes], reader: CellReader,
     Raises:
         DamagedSheet: the part is not well-formed XML or a reference cannot be read.
     """
+    delivered = -1  # the last row handed over by the regular-expression reader
+    try:
+        value = reader.raw_value
+        for row, cells in fast_cells.scan(handle, _Letters(), columns, reader.checked, reader.part):
+            delivered = row
+            if on_row(row, {c: _FORMULA_CELL if raw[4] else (value(raw, False), False)
+                            for c, raw in cells.items()}):
+                return
+        return
+    except fast_cells.NotFast:
+        handle.seek(0)
+    if delivered >= 0:  # those rows were read right and handed over: the expat reader hands over the rest
+        given = on_row
+
+        def on_row(row: int, cells: dict[int, tuple[Any, bool]]) -> bool | None:
+            return given(row, cells) if row > delivered else None
     _parse(handle, _RowStream(reader, columns, on_row))
