@@ -42,15 +42,15 @@ _FORMULA_ATTRIBUTES = "".join(f"(?: {name}={_VALUE})?" for name in (
     "t", "aca", "ref", "dt2D", "dtr", "del1", "del2", "r1", "r2", "ca", "si", "bx"))
 _T_START = '<t(?: xml:space="preserve")?'
 # A cell of the row whose number the group 'row' holds (its reference's digits are the row's).
-_CELL = (r'<c r="[A-Z]{1,3}(?P=row)"(?: s="[0-9]+")?(?: t="[a-zA-Z]+")?(?:/>|>'
-         rf'(?:<f{_FORMULA_ATTRIBUTES}(?:/>|>{_TEXT}</f>))?(?:<v>{_TEXT}</v>|<v ?/>)?'
-         rf'(?:<is>(?:{_T_START}/>|{_T_START}>{_TEXT}</t>)</is>)?</c>)')
+_CELL = (r'<c r="[A-Z]{1,3}(?P=row)"(?: s="[0-9]+")?(?: t="[a-zA-Z]+")?(?: ?/>|>'
+         rf'(?:<f{_FORMULA_ATTRIBUTES}(?: ?/>|>{_TEXT}</f>))?(?:<v>{_TEXT}</v>|<v ?/>)?'
+         rf'(?:<is>(?:{_T_START} ?/>|{_T_START}>{_TEXT}</t>)</is>)?</c>)')
 # One token of sheetData: a row of such cells only (or an empty row), else any one character, which is unknown.
-_ROW = re.compile(rf'<row r="(?P<row>[0-9]+)"((?: [a-zA-Z][\w.:-]*={_VALUE})*)(?:/>|>((?:{_CELL})*+)</row>)|(.)',
+_ROW = re.compile(rf'<row r="(?P<row>[0-9]+)"((?: [a-zA-Z][\w.:-]*={_VALUE})*)(?: ?/>|>((?:{_CELL})*+)</row>)|(.)',
                   re.S)
 # The cells of a part _ROW read: (letters, row digits, style, type, '<f' when it holds a formula, saved value,
 # inline text), '' for what a cell lacks.
-_FIND = (r'<c r="({})([0-9]+)"(?: s="([0-9]+)")?(?: t="([a-zA-Z]+)")?(?:/>|>(?:(<f)[^>]*?(?:/>|>[^<]*</f>))?'
+_FIND = (r'<c r="({})([0-9]+)"(?: s="([0-9]+)")?(?: t="([a-zA-Z]+)")?(?: ?/>|>(?:(<f)[^>]*?(?:/>|>[^<]*</f>))?'
          r'(?:<v>([^<]*)</v>|<v ?/>)?(?:<is><t[^>]*?(?:/>|>([^<]*)</t>)</is>)?</c>)')
 _ALL = re.compile(_FIND.format("[A-Z]{1,3}"))
 FEW = 16  # a read of at most this many columns finds only their cells (one pattern per set of columns)
@@ -177,8 +177,11 @@ def _cells(found: list[Cell], columns_of: dict[str, int], columns: frozenset[int
 
 
 def scan(handle: IO[bytes], columns_of: dict[str, int], columns: set[int] | frozenset[int] | None,
-         checked: set[str] | None = None, part: str = "") -> Iterator[tuple[int, dict[int, Cell]]]:
-    """Each row of the part as (0-based row, {0-based column: raw cell}), only the cells of columns when given.
+         checked: set[str] | None = None, part: str = "") -> Iterator[tuple[int, dict[int, Cell], int | None]]:
+    """Each row of the part as (0-based row, {0-based column: raw cell}, ordinal), only the cells of columns when given.
+
+    The ordinal counts the row elements of the part up to this one (empty rows too); None when the part was
+    checked before, its rows then known to be in increasing order.
 
     Rows without such a cell are not handed over. ``columns`` is asked at each row (a set the caller may
     change between rows). ``columns_of`` maps column letters to 0-based columns (a dict that fills itself).
@@ -217,7 +220,7 @@ def scan(handle: IO[bytes], columns_of: dict[str, int], columns: set[int] | froz
     head = buffer[:at + 11]
     _outside(head, wellformed)
     attributes = _Attributes(set(_PREFIXES.findall(head.decode("utf-8"))) | {"xml"})
-    last_row = -1
+    last_row, ordinal = -1, 0
     for data, tail in _blocks(buffer[at + 11:], handle):
         if "&" in data and _BAD_AMP.search(data):
             raise NotFast("an entity that is not predefined")
@@ -233,6 +236,7 @@ def scan(handle: IO[bytes], columns_of: dict[str, int], columns: set[int] | froz
             if row <= last_row:
                 raise NotFast("rows not in increasing order")
             last_row = row
+            ordinal += 1
             if attrs:
                 attributes.check(attrs, ("r",))
             if not body:
@@ -242,7 +246,7 @@ def scan(handle: IO[bytes], columns_of: dict[str, int], columns: set[int] | froz
             if cells:
                 if "&" in body or "\r" in body:
                     _decoded(cells)
-                yield row, cells
+                yield row, cells, ordinal
         if tail is not None:
             _outside(tail + handle.read(), lambda part: wellformed(part, True))
     if checked is not None:
@@ -273,7 +277,7 @@ def _blocks(buffer: bytes, handle: IO[bytes]) -> Iterator[tuple[str, bytes | Non
 
 
 def _again(handle: IO[bytes], columns_of: dict[str, int],
-           columns: set[int] | frozenset[int] | None) -> Iterator[tuple[int, dict[int, Cell]]]:
+           columns: set[int] | frozenset[int] | None) -> Iterator[tuple[int, dict[int, Cell], None]]:
     """:func:`scan` of a part it read to its end before: its cells found without checking the part again."""
     buffer = b""
     while b"<sheetData>" not in buffer:
@@ -291,7 +295,7 @@ def _again(handle: IO[bytes], columns_of: dict[str, int],
                         cells = _cells(found, columns_of, used)
                         if cells:
                             _decoded(cells)
-                            yield int(digits) - 1, cells
+                            yield int(digits) - 1, cells, None
                             if columns is not None and used != columns:  # the columns wanted changed: find again
                                 restart = m.start()
                                 found = []
@@ -303,5 +307,5 @@ def _again(handle: IO[bytes], columns_of: dict[str, int],
                 cells = _cells(found, columns_of, used)
                 if cells:
                     _decoded(cells)
-                    yield int(digits) - 1, cells
+                    yield int(digits) - 1, cells, None
             pos = restart

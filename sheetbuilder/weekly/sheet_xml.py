@@ -290,7 +290,7 @@ def _fast_read(handle: IO[bytes], reader: CellReader, columns: frozenset[int] | 
     """:func:`read_cells` by :func:`sheetbuilder.weekly.fast_cells.scan` (NotFast: the part is not for it)."""
     found: dict[int, dict[int, Any]] = {}
     value = reader.raw_value
-    for row, cells in fast_cells.scan(handle, _Letters(), columns, reader.checked, reader.part):
+    for row, cells, _ in fast_cells.scan(handle, _Letters(), columns, reader.checked, reader.part):
         found[row] = {c: value(raw, formulas) for c, raw in cells.items()}
     return padded_rows(found)
 
@@ -320,11 +320,15 @@ class _RowStream(_SheetParser):
         super().__init__(reader, columns, False)
         self.on_row = on_row
         self.cells: dict[int, tuple[Any, bool]] = {}
+        self.skip_rows = 0  # row elements not handed over (another reader handed them over)
 
     def end(self, name: str) -> None:
         code = self.tags.get(name) or self.tag(name)
         if code == _ROW:
-            if self.cells:
+            if self.skip_rows:
+                self.skip_rows -= 1
+                self.cells = {}
+            elif self.cells:
                 cells, self.cells = self.cells, {}
                 if self.on_row(self.row, cells):
                     raise _Stop
@@ -420,20 +424,22 @@ def stream_cells(handle: IO[bytes], reader: CellReader,
     Raises:
         DamagedSheet: the part is not well-formed XML or a reference cannot be read.
     """
-    delivered = -1  # the last row handed over by the regular-expression reader
+    delivered = (-1, 0)  # the last row the regular-expression reader handed over, and its ordinal
     try:
         value = reader.raw_value
-        for row, cells in fast_cells.scan(handle, _Letters(), columns, reader.checked, reader.part):
-            delivered = row
-            if on_row(row, {c: _FORMULA_CELL if raw[4] else (value(raw, False), False)
-                            for c, raw in cells.items()}):
+        for row, cells, ordinal in fast_cells.scan(handle, _Letters(), columns, reader.checked, reader.part):
+            delivered = (row, ordinal)
+            if on_row(row, {c: _FORMULA_CELL if raw[4] else (value(raw, False), False) for c, raw in cells.items()}):
                 return
         return
     except fast_cells.NotFast:
         handle.seek(0)
-    if delivered >= 0:  # those rows were read right and handed over: the expat reader hands over the rest
-        given = on_row
-
-        def on_row(row: int, cells: dict[int, tuple[Any, bool]]) -> bool | None:
-            return given(row, cells) if row > delivered else None
-    _parse(handle, _RowStream(reader, columns, on_row))
+    # The rows handed over were read right: the expat reader hands over the rest, from the row element after the
+    # last one handed over (counted by ordinal; by row number in a part checked before, its rows in increasing order)
+    sheet = _RowStream(reader, columns, on_row)
+    if delivered[1] is None:
+        last = delivered[0]
+        sheet.on_row = lambda row, cells: on_row(row, cells) if row > last else None
+    else:
+        sheet.skip_rows = delivered[1]
+    _parse(handle, sheet)
