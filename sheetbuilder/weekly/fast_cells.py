@@ -23,6 +23,8 @@ predefined entities; 4.1 character references), so ``&#13;`` stays a carriage re
 from __future__ import annotations
 
 import re
+from itertools import groupby
+from operator import itemgetter
 from typing import IO, Callable, Iterator
 from xml.parsers import expat
 
@@ -53,7 +55,7 @@ _ROW = re.compile(rf'<row r="(?P<row>[0-9]+)"((?: [a-zA-Z][\w.:-]*={_VALUE})*)(?
 _FIND = (r'<c r="({})([0-9]+)"(?: s="([0-9]+)")?(?: t="([a-zA-Z]+)")?(?: ?/>|>(?:(<f)[^>]*?(?:/>|>[^<]*</f>))?'
          r'(?:<v>([^<]*)</v>|<v ?/>)?(?:<is><t[^>]*?(?:/>|>([^<]*)</t>)</is>)?</c>)')
 _ALL = re.compile(_FIND.format("[A-Z]{1,3}"))
-FEW = 16  # a read of at most this many columns finds only their cells (one pattern per set of columns)
+FEW = 48  # a read of at most this many columns finds only their cells (one pattern per set of columns)
 _BAD_AMP = re.compile(r"&(?!(?:lt|gt|amp|quot|apos|#[0-9]+|#x[0-9a-fA-F]+);)")
 _REF = re.compile(r"&(?:(lt)|(gt)|(amp)|(quot)|(apos)|#([0-9]+)|#x([0-9a-fA-F]+));")
 _PREDEFINED = (None, "<", ">", "&", '"', "'")
@@ -284,28 +286,17 @@ def _again(handle: IO[bytes], columns_of: dict[str, int],
         buffer += handle.read(CHUNK)
     buffer = buffer[buffer.index(b"<sheetData>") + 11:]
     for data, _ in _blocks(buffer, handle):
-        pos = 0
+        pos: int | None = 0
         while pos is not None:
             pattern, used = _pattern(columns)
-            restart, digits, found = None, None, []
-            for m in pattern.finditer(data, pos):
-                cell = m.groups("")
-                if cell[1] != digits:
-                    if found:
-                        cells = _cells(found, columns_of, used)
-                        if cells:
-                            _decoded(cells)
-                            yield int(digits) - 1, cells, None
-                            if columns is not None and used != columns:  # the columns wanted changed: find again
-                                restart = m.start()
-                                found = []
-                                break
-                        found = []
-                    digits = cell[1]
-                found.append(cell)
-            if found:
-                cells = _cells(found, columns_of, used)
-                if cells:
-                    _decoded(cells)
-                    yield int(digits) - 1, cells, None
-            pos = restart
+            rows = groupby(pattern.findall(data, pos), key=itemgetter(1))  # a checked part: rows in increasing order
+            pos = None
+            for digits, found in rows:
+                cells = _cells(list(found), columns_of, used)
+                if not cells:
+                    continue
+                _decoded(cells)
+                yield int(digits) - 1, cells, None
+                if columns is not None and used != columns:  # the columns wanted changed: find again after this row
+                    pos = data.find("</row>", data.find(f'<row r="{digits}"')) + 6
+                    break
