@@ -64,6 +64,12 @@ def iso_datetime(text: str) -> dt.datetime | dt.time | str:
 
 def number(text: str) -> int | float:
     """A stored number as openpyxl reads it: int when written without a point or exponent."""
+    if "." in text:
+        return float(text)  # (float strips the spaces str.strip strips)
+    try:
+        return int(text)  # int reads no point, exponent, inf or nan: what it reads is what the rest reads as an int
+    except ValueError:
+        pass
     text = text.strip()
     if any(ch in text for ch in ".eE") or text.lower() in ("inf", "-inf", "nan"):
         return float(text)
@@ -109,7 +115,7 @@ class CellReader:
             dated = self.dated[style] = (int(style) if style else 0) in self.date_styles
         if not dated and text and (not kind or kind == "n"):  # a number, the commonest cell: at once
             try:
-                return float(text) if "." in text else number(text)
+                return number(text)
             except ValueError:
                 pass  # value_of refuses it the one way
         return self.value_of(kind or "n", int(style) if style else 0, bool(formula), text, inline, formulas)
@@ -122,7 +128,7 @@ class CellReader:
             return self.no_saved_value if formulas and formula else None
         if kind == "n":
             try:
-                value = float(text) if "." in text else number(text)
+                value = number(text)
             except ValueError:
                 raise DamagedSheet(f"a number cell holds {text[:40]!r}") from None
             if style in self.date_styles:
