@@ -156,6 +156,8 @@ LEFT_TO_EXPAT = {
     "a truncated part": '<row r="1"><c r="A1"><v>1</v></c></row><row r="2"><c r="A2"><v>',
     "a shared string the workbook lacks, then rich text": '<row r="1"><c r="A1" t="s"><v>99</v></c></row>'
                                                           '<row r="2"><c r="A2" t="inlineStr"><is><r><t>x</t></r></is></c></row>',
+    "a comment around sheetData": '</sheetData><!-- <sheetData><row r="1"><c r="A1"><v>5</v></c></row></sheetData> -->'
+                                  '<sheetData>',
     "a number cell holding text, then a comment": '<row r="1"><c r="A1"><v>infinity</v></c></row><!-- x -->',
 }
 

@@ -60,7 +60,9 @@ _BAD_AMP = re.compile(r"&(?!(?:lt|gt|amp|quot|apos|#[0-9]+|#x[0-9a-fA-F]+);)")
 _REF = re.compile(r"&(?:(lt)|(gt)|(amp)|(quot)|(apos)|#([0-9]+)|#x([0-9a-fA-F]+));")
 _PREDEFINED = (None, "<", ">", "&", '"', "'")
 _ATTR_NAME = re.compile(r' ([^=]+)="')
-_OUTSIDE = re.compile(r"<(?:[^\s/>!?]+:)?(?:c|row)[\s/>]|<!DOCTYPE")  # a cell or row the expat reader would read
+# Outside sheetData: a cell or row the expat reader would read, a document type, and a comment, CDATA section or
+# processing instruction (which could hide a sheetData of their own from this reader).
+_OUTSIDE = re.compile(r"<(?:[^\s/>!?]+:)?(?:c|row)[\s/>]|<!|(?<=.)<\?", re.S)
 _DECLARATION = re.compile(rb"<\?xml[^>]*?encoding\s*=\s*[\"']([^\"']*)[\"']")
 _PREFIXES = re.compile(r'xmlns:([^\s=]+)\s*=')
 
@@ -116,11 +118,11 @@ def _head(data: bytes) -> None:
 def _outside(part: bytes, wellformed: Callable[[bytes], None]) -> None:
     """Check a stretch outside sheetData: well-formed (expat, no handlers) and holding no cell or row."""
     try:
-        found = _OUTSIDE.search(part.decode("utf-8"))
+        found = _OUTSIDE.search(part.decode("utf-8").removeprefix("\ufeff"))
     except UnicodeDecodeError:
         raise NotFast("not UTF-8") from None
     if found:
-        raise NotFast("a cell or row outside sheetData, or a document type declaration")
+        raise NotFast("a cell or row outside sheetData, a document type, comment, CDATA or processing instruction")
     wellformed(part)
 
 
