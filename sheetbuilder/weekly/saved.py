@@ -110,8 +110,9 @@ class SavedBook:
     keeping only the columns a caller asks for, so a wide sheet costs what its wanted columns cost
     in memory. A formula cell with no saved value reads as
     :data:`sheetbuilder.sheets.decisions.NO_SAVED_VALUE` when ``formulas`` is asked for.
-    The first read of a sheet named in ``streamed_again`` (as built; an .xlsx) also keeps its rows as a
-    stream hands them over, and a later :meth:`stream` of it replays them instead of parsing the part again.
+    The first read of a sheet named in ``streamed_again`` (as built; an .xlsx) by the expat reader also keeps
+    its rows as a stream hands them over, and a later :meth:`stream` of it replays them instead of parsing the
+    part again (a part the regular-expression reader reads is read again, not checked again: it costs less).
     """
 
     def __init__(self, path: Path):

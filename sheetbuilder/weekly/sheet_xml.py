@@ -7,6 +7,10 @@ shared, inline (plain or in rich-text runs, phonetic runs excluded) or the cache
 formula, a date as a serial number in a date format or as ISO 8601 text (``t="d"``), booleans
 and error values. Expat (the C parser Python ships) reads the part as a stream, so memory grows
 with the cells kept, not with the sheet; no DTD is allowed (the guard refuses them before this).
+
+Each read first tries :mod:`sheetbuilder.weekly.fast_cells`, a regular expression over the shapes
+xlsxwriter, LibreOffice and openpyxl write (three to five times faster); it gives up on anything else
+(NotFast), and the part is then read here by expat from its start, so both give the same values.
 """
 from __future__ import annotations
 
