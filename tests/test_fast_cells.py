@@ -294,6 +294,7 @@ def test_our_build_reads_fast_to_the_same_values_on_every_sheet(demo_build):
     _same_workbook_both_ways(demo_build.output)
 
 
+@pytest.mark.slow  # a few seconds: openpyxl loads and saves the demo
 def test_an_openpyxl_saved_workbook_without_saved_values_reads_fast_to_the_same_values(demo_build, tmp_path):
     bare = tmp_path / "bare.xlsx"
     openpyxl.load_workbook(demo_build.output).save(bare)  # formulas kept, their values dropped
