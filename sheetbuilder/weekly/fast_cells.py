@@ -28,6 +28,8 @@ from operator import itemgetter
 from typing import IO, Callable, Iterator
 from xml.parsers import expat
 
+from sheetbuilder.workbook.formula import col_letter
+
 CHUNK = 1 << 20
 
 
@@ -129,22 +131,12 @@ def _outside(part: bytes, wellformed: Callable[[bytes], None]) -> None:
 Cell = tuple  # (letters, row digits, style, type, '<f' or '', saved value text, inline text), '' for what it lacks
 
 
-def column_letters(col: int) -> str:
-    """'A' for 0, 'AB' for 27 ..."""
-    letters = ""
-    col += 1
-    while col:
-        col, rest = divmod(col - 1, 26)
-        letters = chr(65 + rest) + letters
-    return letters
-
-
 class _Patterns(dict):
     """{frozenset of columns: the pattern finding only their cells}."""
 
     def __missing__(self, columns: frozenset[int]) -> re.Pattern:
         found = self[columns] = re.compile(_FIND.format("|".join(
-            column_letters(c) for c in sorted(columns, reverse=True) if 0 <= c < 16384) or "(?!)"))
+            col_letter(c) for c in sorted(columns, reverse=True) if 0 <= c < 16384) or "(?!)"))
         return found
 
 
