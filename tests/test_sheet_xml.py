@@ -95,7 +95,10 @@ def test_a_read_that_keeps_its_rows_gives_the_read_and_the_stream_of_two_passes(
         rows, kept = read_keeping_rows(io.BytesIO(xml.encode("utf-8")), _reader(), columns, True)
         assert _read(xml, columns=columns, formulas=True) == rows
         again = []
-        kept.stream(lambda r, cells: again.append((r, dict(cells))) and None)
+        if kept is None:  # the regular-expression reader keeps nothing: the part is streamed again
+            stream_cells(io.BytesIO(xml.encode("utf-8")), _reader(), lambda r, cells: again.append((r, dict(cells))) and None)
+        else:
+            kept.stream(lambda r, cells: again.append((r, dict(cells))) and None)
         assert _streamed(xml) == again
 
 

@@ -6,8 +6,8 @@ from it: the inputs, settings and typed edits it holds, the values it saved, its
 for ``changes``, its Actions and Follow-up lists. The workbook is then planned again from the
 record (:func:`plan_saved`, outside the guard, so a failure there is a bug) while it is still open,
 and its cells typed over a formula are read against that plan under the guard
-(:mod:`sheetbuilder.weekly.typed_over`); the sheets read before that check (:data:`READ_TWICE`) keep
-their rows from their first read, so no sheet part is parsed twice for it. What they compute from the record (the change list, the
+(:mod:`sheetbuilder.weekly.typed_over`); the sheets read before that check (:data:`READ_TWICE`) are
+checked (their XML) once, by their first read. What they compute from the record (the change list, the
 carry, the follow-up) runs after the file is closed, so a failure there is a bug too.
 """
 from __future__ import annotations
@@ -33,8 +33,10 @@ from sheetbuilder.weekly.keyword_weeks import read_keyword_history
 from sheetbuilder.weekly.saved import NotAWorkbook, SavedBook, read_history, saved_inputs, saved_settings
 from sheetbuilder.weekly.typed_over import typed_over
 
-# The sheets read (their typed columns, the Actions list) before the typed-over check streams them: their first
-# read keeps their rows for that stream, so each is read once. The others are read once by the check alone.
+# The sheets read (their typed columns, the Actions list) before the typed-over check streams them: a first read by
+# the expat reader keeps their rows for that stream, so each is parsed once; a part the regular-expression reader
+# reads (weekly/fast_cells.py) is read again for the stream, without being checked again, which costs less than
+# keeping every cell. The others are read once by the check alone.
 READ_TWICE = frozenset({decl.sheet for decl in EDITABLE_TABLES if not decl.sheet.startswith("in_")} | {SHEET})
 HEADER_ROW = ACTIONS_HEADER_ROW + 1  # 1-based, as a spreadsheet shows it
 FIRST_ROW = HEADER_ROW + 1

@@ -110,8 +110,9 @@ class SavedBook:
     keeping only the columns a caller asks for, so a wide sheet costs what its wanted columns cost
     in memory. A formula cell with no saved value reads as
     :data:`sheetbuilder.sheets.decisions.NO_SAVED_VALUE` when ``formulas`` is asked for.
-    The first read of a sheet named in ``streamed_again`` (as built; an .xlsx) also keeps its rows as a
-    stream hands them over, and a later :meth:`stream` of it replays them instead of parsing the part again.
+    The first read of a sheet named in ``streamed_again`` (as built; an .xlsx) by the expat reader also keeps
+    its rows as a stream hands them over, and a later :meth:`stream` of it replays them instead of parsing the
+    part again (a part the regular-expression reader reads is read again, not checked again: it costs less).
     """
 
     def __init__(self, path: Path):
@@ -187,7 +188,9 @@ class SavedBook:
         try:  # a truncated or damaged sheet is refused whole, never read in part
             if sheet not in self._streamed and hasattr(self.file, "read_keeping_rows") and sheet in {
                     self.sheet(s) for s in self.streamed_again}:
-                rows, self._streamed[sheet] = self.file.read_keeping_rows(sheet, columns, formulas, NO_SAVED_VALUE)
+                rows, kept = self.file.read_keeping_rows(sheet, columns, formulas, NO_SAVED_VALUE)
+                if kept is not None:  # None: the part is streamed again faster than its rows are kept
+                    self._streamed[sheet] = kept
                 return rows
             return self.file.read(sheet, columns, formulas, NO_SAVED_VALUE)
         except DamagedSheet as exc:

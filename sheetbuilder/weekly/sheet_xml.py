@@ -7,6 +7,10 @@ shared, inline (plain or in rich-text runs, phonetic runs excluded) or the cache
 formula, a date as a serial number in a date format or as ISO 8601 text (``t="d"``), booleans
 and error values. Expat (the C parser Python ships) reads the part as a stream, so memory grows
 with the cells kept, not with the sheet; no DTD is allowed (the guard refuses them before this).
+
+Each read first tries :mod:`sheetbuilder.weekly.fast_cells`, a regular expression over the shapes
+xlsxwriter, LibreOffice and openpyxl write (three to five times faster); it gives up on anything else
+(NotFast), and the part is then read here by expat from its start, so both give the same values.
 """
 from __future__ import annotations
 
@@ -16,6 +20,7 @@ from typing import IO, Any, Callable
 from xml.parsers import expat
 
 from sheetbuilder.reading import guard
+from sheetbuilder.weekly import fast_cells
 from sheetbuilder.reading.guard import UnsafeWorkbook
 
 MAIN_NS = "http://schemas.openxmlformats.org/spreadsheetml/2006/main"
@@ -63,6 +68,12 @@ def iso_datetime(text: str) -> dt.datetime | dt.time | str:
 
 def number(text: str) -> int | float:
     """A stored number as openpyxl reads it: int when written without a point or exponent."""
+    if "." in text:
+        return float(text)  # (float strips the spaces str.strip strips)
+    try:
+        return int(text)  # int reads no point, exponent, inf or nan: what it reads is what the rest reads as an int
+    except ValueError:
+        pass
     text = text.strip()
     if any(ch in text for ch in ".eE") or text.lower() in ("inf", "-inf", "nan"):
         return float(text)
@@ -89,15 +100,47 @@ class CellReader:
     date_styles: frozenset[int] | set[int]
     from_serial: Callable[[float], Any]
     no_saved_value: Any = None
+    checked: set[str] | None = None  # parts the regular-expression reader read to their end (not checked again)
+    part: str = ""  # the part read, as checked names it
+
+    def __post_init__(self) -> None:
+        self.dated: dict[str, bool] = {}  # {a cell's s attribute as written: whether it is a date style}
 
     def value(self, cell: _Cell, formulas: bool) -> Any:
         """The cell's value as openpyxl gives it in values-only mode."""
-        if cell.kind == "inlineStr":
-            return "".join(cell.inline)
-        text = "".join(cell.value) if cell.value else None
-        if text is None or text == "":
-            return self.no_saved_value if formulas and cell.formula else None
-        kind = cell.kind
+        return self.value_of(cell.kind, cell.style, cell.formula, "".join(cell.value) if cell.value else None,
+                             "".join(cell.inline), formulas)
+
+    def raw_value(self, raw: tuple, formulas: bool) -> Any:
+        """The value of a cell as :func:`sheetbuilder.weekly.fast_cells.scan` hands it over."""
+        _, _, style, kind, formula, text, inline = raw
+        dated = self.dated.get(style)
+        if dated is None:
+            dated = self.dated[style] = (int(style) if style else 0) in self.date_styles
+        if not dated and text and (not kind or kind == "n"):  # a number, the commonest cell: at once
+            try:
+                return number(text)
+            except ValueError:
+                pass  # value_of refuses it the one way
+        return self.value_of(kind or "n", int(style) if style else 0, bool(formula), text, inline, formulas)
+
+    def value_of(self, kind: str, style: int, formula: bool, text: str | None, inline: str, formulas: bool) -> Any:
+        """A cell's value from its type, style, whether it holds a formula, its saved value text and inline text."""
+        if kind == "inlineStr":
+            return inline
+        if not text:
+            return self.no_saved_value if formulas and formula else None
+        if kind == "n":
+            try:
+                value = number(text)
+            except ValueError:
+                raise DamagedSheet(f"a number cell holds {text[:40]!r}") from None
+            if style in self.date_styles:
+                try:
+                    return self.from_serial(value)
+                except (OverflowError, ValueError):
+                    return "#VALUE!"
+            return value
         if kind == "s":
             try:
                 return self.shared[int(text)]
@@ -109,16 +152,7 @@ class CellReader:
             return text
         if kind == "d":
             return iso_datetime(text)
-        try:
-            value = number(text)
-        except ValueError:
-            raise DamagedSheet(f"a number cell holds {text[:40]!r}") from None
-        if cell.style in self.date_styles:
-            try:
-                return self.from_serial(value)
-            except (OverflowError, ValueError):
-                return "#VALUE!"
-        return value
+        return self.value_of("n", style, formula, text, inline, formulas)  # any other type reads as a number
 
 
 _C, _ROW, _V, _F, _IS, _RPH, _T = range(1, 8)
@@ -218,6 +252,14 @@ class _SheetParser:
 
 
 _UNWANTED = _Cell()
+
+
+class _Letters(dict):
+    """{column letters: 0-based column}, filled as letters are met."""
+
+    def __missing__(self, letters: str) -> int:
+        col = self[letters] = column_index(letters)
+        return col
 _FORMULA_CELL = (None, True)  # a formula cell as a stream hands it over, its saved value unread
 
 
@@ -244,9 +286,23 @@ def read_cells(handle: IO[bytes], reader: CellReader, columns: frozenset[int] | 
     Raises:
         DamagedSheet: the part is not well-formed XML or a reference cannot be read.
     """
+    try:  # the regular-expression reader first; the expat reader whenever it does not read the part
+        return _fast_read(handle, reader, columns, formulas)
+    except fast_cells.NotFast:
+        handle.seek(0)
     sheet = _SheetParser(reader, columns, formulas)
     _parse(handle, sheet)
     return padded_rows(sheet.found)
+
+
+def _fast_read(handle: IO[bytes], reader: CellReader, columns: frozenset[int] | None,
+               formulas: bool) -> list[list[Any]]:
+    """:func:`read_cells` by :func:`sheetbuilder.weekly.fast_cells.scan` (NotFast: the part is not for it)."""
+    found: dict[int, dict[int, Any]] = {}
+    value = reader.raw_value
+    for row, cells, _ in fast_cells.scan(handle, _Letters(), columns, reader.checked, reader.part):
+        found[row] = {c: value(raw, formulas) for c, raw in cells.items()}
+    return padded_rows(found)
 
 
 def _parse(handle: IO[bytes], sheet: _SheetParser) -> None:
@@ -274,11 +330,15 @@ class _RowStream(_SheetParser):
         super().__init__(reader, columns, False)
         self.on_row = on_row
         self.cells: dict[int, tuple[Any, bool]] = {}
+        self.skip_rows = 0  # row elements not handed over (another reader handed them over)
 
     def end(self, name: str) -> None:
         code = self.tags.get(name) or self.tag(name)
         if code == _ROW:
-            if self.cells:
+            if self.skip_rows:
+                self.skip_rows -= 1
+                self.cells = {}
+            elif self.cells:
                 cells, self.cells = self.cells, {}
                 if self.on_row(self.row, cells):
                     raise _Stop
@@ -342,14 +402,20 @@ class _KeepingRead(_RowStream):
 
 
 def read_keeping_rows(handle: IO[bytes], reader: CellReader, columns: frozenset[int] | None = None,
-                   formulas: bool = False) -> tuple[list[list[Any]], KeptRows]:
+                      formulas: bool = False) -> tuple[list[list[Any]], KeptRows | None]:
     """:func:`read_cells` and, in the same pass, every row as :func:`stream_cells` hands it over (all columns).
 
     A later stream of the sheet replays the rows kept (:meth:`KeptRows.stream`) instead of reading the part again.
+    A part the regular-expression reader reads (:mod:`sheetbuilder.weekly.fast_cells`) keeps nothing (None):
+    streaming it again with the few columns a stream asks for costs less than keeping every cell of it.
 
     Raises:
         DamagedSheet: the part is not well-formed XML or a reference cannot be read.
     """
+    try:  # the regular-expression reader first; the expat reader whenever it does not read the part
+        return _fast_read(handle, reader, columns, formulas), None
+    except fast_cells.NotFast:
+        handle.seek(0)
     kept = KeptRows()
     sheet = _KeepingRead(reader, columns, formulas, kept)
     _parse(handle, sheet)
@@ -368,4 +434,22 @@ def stream_cells(handle: IO[bytes], reader: CellReader,
     Raises:
         DamagedSheet: the part is not well-formed XML or a reference cannot be read.
     """
-    _parse(handle, _RowStream(reader, columns, on_row))
+    delivered = (-1, 0)  # the last row the regular-expression reader handed over, and its ordinal
+    try:
+        value = reader.raw_value
+        for row, cells, ordinal in fast_cells.scan(handle, _Letters(), columns, reader.checked, reader.part):
+            delivered = (row, ordinal)
+            if on_row(row, {c: _FORMULA_CELL if raw[4] else (value(raw, False), False) for c, raw in cells.items()}):
+                return
+        return
+    except fast_cells.NotFast:
+        handle.seek(0)
+    # The rows handed over were read right: the expat reader hands over the rest, from the row element after the
+    # last one handed over (counted by ordinal; by row number in a part checked before, its rows in increasing order)
+    sheet = _RowStream(reader, columns, on_row)
+    if delivered[1] is None:
+        last = delivered[0]
+        sheet.on_row = lambda row, cells: on_row(row, cells) if row > last else None
+    else:
+        sheet.skip_rows = delivered[1]
+    _parse(handle, sheet)

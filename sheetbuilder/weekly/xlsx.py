@@ -45,6 +45,7 @@ class XlsxFile:
             self._handle.close()
             raise
         self.sheetnames: list[str] = list(self.wb.sheetnames)
+        self._checked: set[str] = set()  # parts read to their end by the regular-expression reader
 
     def has_name(self, name: str) -> bool:
         """Whether the workbook defines name (at workbook level), broken or not."""
@@ -85,7 +86,7 @@ class XlsxFile:
         """parse(handle on the sheet's part, its CellReader)."""
         ws = self.wb[sheet]
         reader = CellReader(ws._shared_strings, self.wb._date_formats, lambda n: from_excel(n, self.wb.epoch),
-                            no_saved_value)
+                            no_saved_value, self._checked, ws._worksheet_path)
         with self.wb._archive.open(ws._worksheet_path) as fh:  # openpyxl's own handle on the file
             return parse(fh, reader)
 
