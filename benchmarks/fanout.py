@@ -29,7 +29,8 @@ _FORMULA_CELL = re.compile(r'<c r="([A-Z]+)(\d+)"[^>]*?><f>([^<]*)</f>')
 _DEFINED = re.compile(r'<definedName name="([^"]+)"(?: [^>]*)?>([^<]+)<')
 _STRING = re.compile(r'"(?:[^"]|"")*"')
 _SHEET = r"(?:'((?:[^']|'')+)'|([A-Za-z_][A-Za-z0-9_.]*))"
-_REF = re.compile(_SHEET + r"?(!)?\$?([A-Z]{1,3})\$?(\d+)(?::\$?([A-Z]{1,3})\$?(\d+))?(?![A-Za-z0-9_(])")
+_REF = re.compile(r"(?<![A-Za-z0-9_.$'])(?:" + _SHEET + r"(!))?\$?([A-Z]{1,3})\$?(\d+)(?::\$?([A-Z]{1,3})\$?(\d+))?"
+                  r"(?![A-Za-z0-9_(])")
 _COLUMNS = re.compile(_SHEET + r"!\$?([A-Z]{1,3}):\$?([A-Z]{1,3})(?![0-9])")
 _NAME = re.compile(r"(?<![A-Za-z0-9_.!'$])([A-Za-z_][A-Za-z0-9_.]*)(?![A-Za-z0-9_(!])")
 WHOLE_COLUMN = 1_048_576
@@ -73,8 +74,6 @@ def references(sheet: str, formula: str, names: dict[str, Rect]) -> list[Rect]:
     body = _STRING.sub('""', formula)
     out = [names[m.group(1)] for m in _NAME.finditer(body) if m.group(1) in names]
     for m in _REF.finditer(body):
-        if (m.group(1) or m.group(2)) and not m.group(3):
-            continue  # a word before a cell-like token that is not a sheet name
         on = (m.group(1) or m.group(2) or "").replace("''", "'") if m.group(3) else sheet
         c1, r1 = col_number(m.group(4)), int(m.group(5))
         c2, r2 = (col_number(m.group(6)), int(m.group(7))) if m.group(6) else (c1, r1)

@@ -24,6 +24,8 @@ def _book(path):
     p["A4"] = '="in_catalog!B2"'                 # text that looks like a reference
     p["A5"] = "=first_cost+1"                    # a defined name for P1's cost
     p["A6"] = "=A2+A5"
+    p["AB1"] = "=A3*3"                           # a two-letter column, read in turn by A7
+    p["A7"] = "=IF(AB1>0,AB1,0)"
     wb.defined_names["first_cost"] = DefinedName("first_cost", attr_text="in_catalog!$B$2")
     wb.save(path)
 
@@ -35,6 +37,8 @@ def test_an_edit_reaches_every_formula_naming_its_range_or_its_cell_and_their_de
     edited = unit_cost_cell(path)
     assert ("in_catalog", 1, 2) == edited  # column B (0-based 1), the first product's row
     reached = fan_out(formulas, names, edited)
-    # A1 through its 2-cell range, A3 through A1, A5 through the name, A6 through A5; A2 and A4 not at all.
+    # A1 through its 2-cell range, A3 through A1, A5 through the name, A6 through A5, AB1 (column 27) through A3
+    # and A7 through AB1; A2 and A4 not at all.
     assert {("Profit", 0, 1): ("range2", "in_catalog", 1), ("Profit", 0, 3): ("cell", "Profit", 0),
-            ("Profit", 0, 5): ("cell", "in_catalog", 1), ("Profit", 0, 6): ("cell", "Profit", 0)} == reached
+            ("Profit", 0, 5): ("cell", "in_catalog", 1), ("Profit", 0, 6): ("cell", "Profit", 0),
+            ("Profit", 27, 1): ("cell", "Profit", 0), ("Profit", 0, 7): ("cell", "Profit", 27)} == reached
