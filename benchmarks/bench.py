@@ -19,7 +19,8 @@ keyword exports (benchmarks/history.py), builds it with --history (W weeks recor
 with --previous (W weeks carried), and reports both times, the file size and the ratio of the
 carrying build to the plain --previous build above.
 --attribution adds where recalculation time goes: partial twins that keep one sheet's
-formulas, or one idiom's, each loaded and recalculated apart (benchmarks/attribution.py).
+formulas, or one idiom's, each loaded and recalculated apart (benchmarks/attribution.py), and
+the unit-cost edit's dependency fan-out read from the formulas (benchmarks/fanout.py).
 --large builds one account of --large-terms search-term rows and reports its build time and
 peak memory (no LibreOffice). Sizes of 100000 and --large take long; they are opt-in.
 Figures are printed and written to bench_results.json.
@@ -38,6 +39,7 @@ from pathlib import Path
 from .accounts import TERMS_RATIO, make_account
 from .history import make_past_weeks
 from .attribution import attribute, report_attribution
+from .fanout import edit_fanout, print_summary
 from .libreoffice import lo_convert_seconds, uno_available, uno_times
 from .twin import count_cells, input_rows, make_twin
 
@@ -114,12 +116,15 @@ def measure_size(n: int, base: Path, libreoffice: bool, uno: bool, terms_ratio: 
         row["uno_load_book_s"] = times["book"]["load_s"]
         row["uno_calc_s"] = times["book"]["calc_s"]
         row["uno_edit_s"] = times["book"].get("edit_s")
+        row["uno_edit_set_s"] = times["book"].get("edit_set_s")
         row["uno_save_s"] = times["book"].get("save_s")
         row["uno_edit_probe"] = times["book"].get("edit_probe")
         row["uno_load_ratio"] = _ratio(row["uno_load_book_s"], row["uno_load_twin_s"])
         row["uno_open_recalc_ratio"] = _ratio(row["uno_load_book_s"] + row["uno_calc_s"], row["uno_load_twin_s"])
         if attribution:
             row["attribution"] = attribute(book, base / "parts", counts)
+    if attribution:
+        row["edit_fanout"] = edit_fanout(book)
     return row
 
 
@@ -152,7 +157,9 @@ COLUMNS = [("search-term rows", "st_rows", "d"), ("Terms rows", "terms_rows", "d
            ("UNO load twin s", "uno_load_twin_s", ".2f"), ("UNO load workbook s", "uno_load_book_s", ".2f"),
            ("UNO full recalc s", "uno_calc_s", ".2f"), ("UNO load/twin", "uno_load_ratio", ".2f"),
            ("UNO (load+recalc)/twin", "uno_open_recalc_ratio", ".2f"),
-           ("UNO unit-cost edit + recalc s", "uno_edit_s", ".3f"), ("UNO save after edit s", "uno_save_s", ".2f")]
+           ("UNO unit-cost edit + recalc s", "uno_edit_s", ".3f"),
+           ("... of it setting the value (marking dependents) s", "uno_edit_set_s", ".3f"),
+           ("UNO save after edit s", "uno_save_s", ".2f")]
 
 
 def _fmt(value, spec: str) -> str:
@@ -194,6 +201,9 @@ def report(results: list[dict], large: dict | None, micro: dict | None) -> dict:
             print(f"size {r['size']}: the edit reached Profit: {r['uno_edit_probe'][1]} -> {r['uno_edit_probe'][2]}")
         if r.get("attribution"):
             report_attribution(r["size"], r["attribution"])
+        if r.get("edit_fanout"):
+            print(f"size {r['size']}: ", end="")
+            print_summary(r["edit_fanout"])
     if large:
         print(f"large account: {large['size']} ad rows, {large['st_rows_written']} search-term rows: build "
               f"{large['build_s']:.1f} s, peak {large['peak_mb']:.0f} MB, workbook {large['file_mb']:.1f} MB")
