@@ -102,10 +102,7 @@ class GapMethod(WeeklyMethod):
         if self.swaps.true_cvr:
             worth = df["post_cvr"] * self._order_value(df, ctx) * self._yardstick(df)
             return (worth < self._ratio(df) * df["bid"]).astype(float)
-        if self.swaps.waste_at == "aim":
-            return bids_module._p_waste(df, ctx)
-        # The library's formula with the break-even ACoS in place of the aim.
-        return bids_module._p_waste(df.assign(target_acos=self._yardstick(df)), ctx)
+        return bids_module.waste_at(df, ctx, self._yardstick(df))
 
     def _rule(self, df, ctx):
         if not (self.swaps.oracle or self.swaps.no_guards):
