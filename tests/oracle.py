@@ -188,8 +188,7 @@ def bids_oracle(tables, settings, profit_rows, decisions=None, history=None):
     Written from the method in the README: each keyword's history summed over its weeks; its
     product's Beta prior of keyword CVR (Kleinman's moments, zero-inflated: tests/oracle_pooled.py),
     or the product's CVR worth k clicks; the posterior mean CVR; value per click (Varian 2007) x
-    target ACoS / CPC-to-bid ratio; the waste probability from the posterior (scipy.stats.beta), the chance
-    a click earns less than it costs at the ad group's break-even ACoS (its aim where no margin is known);
+    target ACoS / CPC-to-bid ratio; the waste probability from the posterior (scipy.stats.beta);
     the zero-order click threshold n = ceil(ln(1 - confidence) / ln(1 - CVR)); steps capped per run
     except the cut on evidence.
     profit_rows: the Profit oracle's rows (for each product's target ACoS).
@@ -241,25 +240,18 @@ def bids_oracle(tables, settings, profit_rows, decisions=None, history=None):
     for t, weeks, products, label in live:
         i = t["_row"]
         weights = group_spend.get((t["campaign"], t["ad_group"]), {})
-        def break_even(p):  # the waste yardstick: break-even ACoS, the aim where no margin is known
-            given = profit_rows[p]["Break-even ACoS"]
-            return profit_rows[p]["Aim ACoS"] if _is_blank(given) else given
-
         if not products:
             target, cvr_p, aov_p = s.default_target_acos, account_cvr, account_aov
-            even = s.default_target_acos
         else:
             total = sum(weights.values())
             if total:
                 target = sum(weights[p] * profit_rows[p]["Aim ACoS"] for p in products) / total
                 cvr_p = sum(weights[p] * product_cvr(p) for p in products) / total
                 aov_p = sum(weights[p] * product_aov(p) for p in products) / total
-                even = sum(weights[p] * break_even(p) for p in products) / total
             else:
                 target = sum(profit_rows[p]["Aim ACoS"] for p in products) / len(products)
                 cvr_p = sum(product_cvr(p) for p in products) / len(products)
                 aov_p = sum(product_aov(p) for p in products) / len(products)
-                even = sum(break_even(p) for p in products) / len(products)
         clicks, orders, spend, sales, bid = t["clicks"], t["orders"], t["spend"], t["ad_sales"], t["bid"]
         n = sum(w[0] for w in weeks)
         o = sum(w[1] for w in weeks)
@@ -285,8 +277,8 @@ def bids_oracle(tables, settings, profit_rows, decisions=None, history=None):
         value = BLANK if post_cvr is BLANK or post_cvr * order_value == 0 else \
             post_cvr * order_value * target / ratio
         a, b = a0 + o, b0 + n - o
-        p_waste = BLANK if value is BLANK or even <= 0 or a <= 0 or b <= 0 else \
-            waste(w, a, b, ratio * bid / (order_value * even))
+        p_waste = BLANK if value is BLANK or target <= 0 or a <= 0 or b <= 0 else \
+            waste(w, a, b, ratio * bid / (order_value * target))
         evidence = p_waste is not BLANK and p_waste >= s.waste_confidence and value < bid
         n0 = math.ceil(math.log(1 - s.zero_order_confidence) / math.log(1 - cvr_p)) if 0 < cvr_p < 1 else BLANK
         cut_to, raise_to = bid * (1 - s.max_bid_cut), bid * (1 + s.max_bid_raise)

@@ -37,7 +37,7 @@ _EXPORT_HELPER = ("hidden export-only position (a value written when building); 
                   "negated columns it finds are compared")
 _BLENDS = ("the ad-group blends table, computed once per ad group; compared through every Bids and Terms row that "
            "fetches it (Target ACoS, Product CVR, Zero-order clicks, Target check, Product price, Low stock) or uses it "
-           "(Value bid, Waste probability, Starting bid)")
+           "(Value bid, Starting bid)")
 _NO_ORACLE = "no independent reference exists for this table yet; only the planner's pandas twin and the engines check it"
 
 _ROW_NOW = ("hidden row helper: the row a sort may have moved a product or term to, equal to the build position "
@@ -52,8 +52,7 @@ UNCOVERED = {
     ("Bids", "Changes key"): _LIST_KEY,
     **{("Terms", h): _EXPORT_HELPER for h in ("Targeted position", "Negated position")},
     **{("Blends", h): _BLENDS for h in ("Aim ACoS", "Product CVR", "Product order value", "Product price",
-                                        "Zero-order clicks", "Target check", "Low stock",
-                                        "Break-even ACoS")},
+                                        "Zero-order clicks", "Target check", "Low stock")},
     ("Blends", "Group weight"): _NO_ORACLE,
     **{("Terms", h): _LIST_KEY for h in ("Promoted terms key", "Blocked terms key")},
     **{("Harvest", h): _HELPER for h in ("Value bid", "Terms row")},
@@ -65,7 +64,7 @@ UNCOVERED = {
     ("Budget campaigns", "Changes key"): _LIST_KEY,
     **{("Budget links", h): _NO_ORACLE for h in ("Ad spend", "Spend change", "Spend x change")},
     **{("Groups", h): _NO_ORACLE for h in ("Ad spend", "Blend weight", "Weight x aim ACoS", "Weight x CVR",
-                                           "Weight x order value", "Weight x price", "Weight x break-even")},
+                                           "Weight x order value", "Weight x price")},
     **{("Actions", h): "compared with the independent tests/oracle_actions.py in tests/test_change_list.py "
                        "(cached and LibreOffice values, rows matched by the change they make)"
        for h in ("Kind", "Campaign", "Ad group", "Target or term", "Match type", "Current", "New", "Reason",

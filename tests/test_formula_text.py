@@ -226,10 +226,6 @@ def test_ad_group_blends_are_computed_once_on_groups_from_weight_times_value_sum
     assert '=IF(C9="",default_target_acos,%s/E9)' % (block % (("F",) * 4)) == row["Aim ACoS"]
     assert '=IF(C9="",Profit!$AD$8,%s/E9)' % (block % (("H",) * 4)) == row["Product CVR"]
     assert '=IF(OR(G9<=0,G9>=1),"",ROUNDUP(LN(1-zero_order_confidence)/LN(1-G9),0))' == row["Zero-order clicks"]
-    # P: weight x break-even ACoS (Profit's J, "=I6", the margin), the aim (V) where no margin is known; blends' M.
-    assert ('=E4*IF(INDEX(Profit!$J$6:$J$7,L4)="",INDEX(Profit!$V$6:$V$7,L4),INDEX(Profit!$J$6:$J$7,L4))'
-            == groups["Weight x break-even"])
-    assert '=IF(C9="",default_target_acos,%s/E9)' % (block % (("P",) * 4)) == row["Break-even ACoS"]
     values = {c.header: list(c.values) for c in blends.columns}
     # Row 9 has no block (the account's values); C1/G1 owns Groups positions 1-2, weights 25 + 10 (their spend).
     assert ([1.0], [2.0], [0.0, 35.0]) == (values["Group first row"][1:], values["Group last row"][1:],
@@ -265,12 +261,11 @@ def test_a_bids_row_writes_the_value_bid_and_waste_probability_by_hand_and_its_p
     fa, fb, w, pc = c["Prior a"], c["Prior b"], c["Converts probability"], c["Product CVR"]
     target, ratio, bid = c["Aim ACoS"], c["CPC-to-bid ratio"], c["Current bid"]
     value = f"IF({ho}>0,{hs}/{ho},INDEX(Groups!$H$9:$H$10,{c['Blends row']}))"
-    even = f"INDEX(Groups!$M$9:$M$10,{c['Blends row']})"  # the blend's break-even ACoS (blends column M)
     assert f'=IF({cvr}="","",IF({cvr}*{value}=0,"",{cvr}*{value}*{target}/{ratio}))' == row["Value bid"]
     a = f'IF({fa}="",prior_clicks*{pc},{fa})+{ho}'
     b = f'IF({fa}="",prior_clicks*(1-{pc}),{fb})+{hc}-{ho}'
-    assert (f'=IF(OR({c["Value bid"]}="",{even}<=0),"",IF(OR({a}<=0,{b}<=0),"",'
-            f'1-{w}+{w}*BETADIST(MIN(1,{ratio}*{bid}/({value}*{even})),{a},{b})))') == row["Waste probability"]
+    assert (f'=IF(OR({c["Value bid"]}="",{target}<=0),"",IF(OR({a}<=0,{b}<=0),"",'
+            f'1-{w}+{w}*BETADIST(MIN(1,{ratio}*{bid}/({value}*{target})),{a},{b})))') == row["Waste probability"]
     pooled = ("History clicks", "History orders", "History spend", "History ad sales", "CPC-to-bid ratio",
               "Ratio source", "Prior a", "Prior b", "Never-converting share", "Converts probability")
     assert {h: None for h in pooled} == {h: row[h] for h in pooled}

@@ -83,8 +83,8 @@ SETTINGS: tuple[SettingSpec, ...] = (
                 "How sure zero orders must be unlikely at the product's conversion rate before a bid is cut "
                 "for having no orders.", 0.5, 0.999),
     SettingSpec("waste_confidence", "Waste confidence", 0.90, "percent",
-                "How sure the keyword history must make it that a click earns less than it costs (at break-even "
-                "ACoS) before a bid is cut to its value bid at once, past the maximum cut.", 0.5, 0.999),
+                "How sure the keyword history must make it that a click is worth less than it costs at the target "
+                "before a bid is cut to its value bid at once, past the maximum cut.", 0.5, 0.999),
     SettingSpec("exploration_orders", "Exploration allowance (orders)", 1.0, "number",
                 "A keyword with no orders yet is not cut while its history spend is below this many orders' "
                 "worth of target cost (allowance x target ACoS x order value).", 0.0, 100.0),

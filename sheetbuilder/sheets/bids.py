@@ -10,12 +10,10 @@ Method (sources on the Guide):
   probability the keyword converts at all and the CPC-to-bid ratio depend only on exported figures.
 - Value per click: a click is worth CVR x order value (H. R. Varian, "Position auctions", 2007);
   value bid = posterior CVR x order value x target ACoS / CPC-to-bid ratio.
-- Cutting waste on evidence: P(waste), the posterior probability that a click earns less than it
-  costs, = (1 - w) + w x BETADIST(MIN(1, CPC / (order value x break-even ACoS)), a, b), the CPC being
-  the ratio x the current bid and the break-even ACoS the ad group's blend (its aim ACoS where no
-  margin is known); at or above waste_confidence the cut goes to the value bid at once (past the
-  maximum cut, down to the floor). Measured at break-even, not at the aim: at the aim a keyword at
-  its value bid is a coin toss by construction, and the uncapped cut would chase the noise.
+- Cutting waste on evidence: P(waste), the posterior probability that a click is worth less than it
+  costs at the target, = (1 - w) + w x BETADIST(MIN(1, CPC / (order value x target ACoS)), a, b), the
+  CPC being the ratio x the current bid; at or above waste_confidence the cut goes to the value bid at
+  once (past the maximum cut, down to the floor).
 - Steps, not jumps: otherwise the proposal moves toward the value bid, never past it, by at most the
   maximum cut or raise, rounded to the cent; a raise stops at the bid ceiling and a cut at the bid
   floor (a bid already beyond one is not pushed the other way).
@@ -99,17 +97,13 @@ def _value_bid(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     return (value * df["target_acos"] / df["ratio"]).where(df["post_cvr"].notna() & (value != 0))
 
 
-def _break_even(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
-    """The ad group's break-even ACoS (its aim where no margin is known), from Groups' blends."""
-    return pd.Series(ctx.blends["p_be"].to_numpy(dtype=float)[df["brow"].to_numpy(dtype=int) - 1], index=df.index)
-
-
 def _p_waste(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
-    return waste_at(df, ctx, _break_even(df, ctx))
+    return waste_at(df, ctx, df["target_acos"])
 
 
 def waste_at(df: pd.DataFrame, ctx: BidsContext, acos: pd.Series) -> pd.Series:
-    """The posterior probability that a click is worth less than it costs at the ACoS given per row."""
+    """The posterior probability that a click is worth less than it costs at the ACoS given per row (Bids: the
+    aim; study/gap.py measures it at break-even too)."""
     a, b = _prior(df, ctx)
     a, b = a + df["h_orders"], b + df["h_clicks"] - df["h_orders"]
     value = _order_value(df, ctx) * acos
@@ -199,10 +193,9 @@ _VALUE_BID = ('=IF({c:post_cvr}="","",IF({c:post_cvr}*%s=0,"",{c:post_cvr}*%s*{c
               % (_ORDER_VALUE, _ORDER_VALUE))
 # BETADIST(x, a, b): the beta distribution's cumulative probability (BETA.DIST(x, a, b, TRUE) since Excel 2010; the
 # older name every engine reads without a prefix, measured equal in LibreOffice 7.4, Gnumeric and `formulas`).
-_BREAK_EVEN = "INDEX({rng:blends.p_be},{c:brow})"  # the ad group's break-even ACoS (its aim without a margin)
-_P_WASTE = ('=IF(OR({c:value_bid}="",%s<=0),"",IF(OR(%s<=0,%s<=0),"",'
-            '1-{c:w}+{c:w}*BETADIST(MIN(1,{c:ratio}*{c:bid}/(%s*%s)),%s,%s)))'
-            % (_BREAK_EVEN, _POST_A, _POST_B, _ORDER_VALUE, _BREAK_EVEN, _POST_A, _POST_B))
+_P_WASTE = ('=IF(OR({c:value_bid}="",{c:target_acos}<=0),"",IF(OR(%s<=0,%s<=0),"",'
+            '1-{c:w}+{c:w}*BETADIST(MIN(1,{c:ratio}*{c:bid}/(%s*{c:target_acos})),%s,%s)))'
+            % (_POST_A, _POST_B, _ORDER_VALUE, _POST_A, _POST_B))
 _EVIDENCE = 'IF({c:p_waste}="",FALSE,AND({c:p_waste}>=waste_confidence,{c:value_bid}<{c:bid}))'
 _RULE = ('=IF({c:h_clicks}=0,1,IF({c:h_orders}=0,IF({c:h_spend}<exploration_orders*{c:target_acos}*%s,13,'
          'IF({c:h_clicks}<min_clicks,3,IF(%s,12,'
@@ -261,10 +254,9 @@ DEFS: list[ColumnDef] = [
               "it is worth at the aim.",
               _value_bid, _VALUE_BID, width=9),
     ColumnDef("p_waste", "Waste probability", "percent",
-              "How likely, from the keyword's history, a click earns less than it costs (at break-even ACoS): "
-              "(1 - w) + w x BETADIST(CPC / (order value x break-even ACoS), a, b), the CPC being the ratio x the "
-              "current bid and break-even the ad group's (Groups' blends; its aim ACoS where no margin is "
-              "known). At or above waste_confidence the bid is cut to its value bid at once.",
+              "How likely, from the keyword's history, a click is worth less than it costs at the aim: (1 - w) + "
+              "w x BETADIST(CPC / (order value x aim ACoS), a, b), the CPC being the ratio x the current bid. At "
+              "or above waste_confidence the bid is cut to its value bid at once.",
               _p_waste, _P_WASTE, width=9),
     ColumnDef("proposed", "Proposed bid", "money",
               "A step from the current bid toward the value bid, within the caps, floor and ceiling; or the "

@@ -2,8 +2,8 @@
 
 The blends table on the Groups sheet holds one row per ad group (after a first row with
 the account's values): its block of product rows on Groups, its spend, and the blended
-aim ACoS, CVR, order value, price, zero-order clicks, target check, low stock (1 where any of
-its products is low on stock, whatever its spend) and break-even ACoS. A Bids or Terms
+aim ACoS, CVR, order value, price, zero-order clicks, low stock (1 where any of its
+products is low on stock, whatever its spend) and target check. A Bids or Terms
 row fetches what it needs with one INDEX on its blends row, written as data, so no blend
 is recomputed per keyword or per search term.
 
@@ -148,11 +148,6 @@ def blend_columns() -> list[ColumnDef]:
                   "its targets are not raised and its search terms not promoted.",
                   lambda df, ctx: (block_sums(df, ctx.groups, "low").fillna(0.0) > 0).astype(float),
                   '=IF({c:gfirst}="",0,IF(%s>0,1,0))' % block_sum("low"), width=8),
-        ColumnDef("p_be", "Break-even ACoS", "percent",
-                  "The product's (or blend's) break-even ACoS, its aim ACoS where no margin is known (the default "
-                  "target ACoS for an ad group without products): the waste probability's yardstick on Bids.",
-                  blend("w_be", lambda ctx: ctx.settings.default_target_acos),
-                  blend_formula("w_be", "default_target_acos"), width=10),
     ]
 
 

@@ -53,12 +53,6 @@ def _weighted(key: str, header: str, profit_key: str, help: str) -> ColumnDef:
                      width=11)
 
 
-def _weighted_break_even(df: pd.DataFrame, ctx: GroupsContext) -> pd.Series:
-    """Blend weight x the product's break-even ACoS, or its aim ACoS where its margin is unknown."""
-    break_even = _profit_value("breakeven")(df, ctx)
-    return df["weight"] * break_even.where(break_even.notna(), _profit_value("aim_acos")(df, ctx))
-
-
 def _above(df: pd.DataFrame, profit: pd.DataFrame) -> pd.Series:
     """1 where the row's product (its Profit row) has a target ACoS above break-even."""
     checks = profit["target_check"].to_numpy()
@@ -98,11 +92,6 @@ DEFS: list[ColumnDef] = [
     ColumnDef("low", "Low stock", "int", "1 where the product is low on stock (Profit's Low stock: Days of cover "
               "below the minimum on Settings).", _profit_value("low"), "=INDEX({rng:profit.low},%s)" % _AT_PROFIT,
               width=8),
-    ColumnDef("w_be", "Weight x break-even", "ratio",
-              "Blend weight x the product's break-even ACoS (Profit), or its aim ACoS where no margin is known: "
-              "the yardstick of the waste probability on Bids.", _weighted_break_even,
-              '={c:weight}*IF(INDEX({rng:profit.breakeven},%s)="",INDEX({rng:profit.aim_acos},%s),'
-              'INDEX({rng:profit.breakeven},%s))' % (_AT_PROFIT, _AT_PROFIT, _AT_PROFIT), width=11),
 ]
 
 

@@ -148,10 +148,9 @@ BID_METHOD = [
     "clicks x the bid in force each week; else this week's CPC / bid; else 1, as Ratio source says): value bid = "
     "posterior CVR x order value x target ACoS / ratio.",
     "Order value: the keyword's history ad sales / orders when it has orders, else its product's.",
-    "Cutting waste on evidence: Waste probability is the posterior probability that a click earns less than it "
-    "costs, at break-even ACoS: (1 - w) + w x BETADIST(CPC / (order value x break-even ACoS), a + orders, b + "
-    "clicks - orders), the CPC being the ratio x the current bid and break-even the ad group's (Profit, blended "
-    "on Groups; the aim ACoS where no margin is known). At or above waste_confidence (Settings, 90%), the bid "
+    "Cutting waste on evidence: Waste probability is the posterior probability that a click is worth less than it "
+    "costs at the target, (1 - w) + w x BETADIST(CPC / (order value x target ACoS), a + orders, b + clicks - "
+    "orders), the CPC being the ratio x the current bid. At or above waste_confidence (Settings, 90%), the bid "
     "is cut to its value bid at once, past the maximum cut, down to the floor (cut on evidence: likely waste).",
     "Steps, not jumps: otherwise the proposal moves from the current bid toward the value bid and never past it, "
     "by at most the maximum cut or raise, rounded to the cent; a raise stops at the bid ceiling and a cut at the "
