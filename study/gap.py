@@ -17,6 +17,7 @@ what the study reads, and they come from the references):
   enough data, no orders yet: not raised) and without the zero-order cut: every keyword steps toward its
   posterior value bid, and the waste cut applies as it is;
 - ``no step caps``: max_bid_raise 5 and max_bid_cut 0.95 (settings);
+- ``steps up to x2 and /2``: max_bid_raise 1.0 and max_bid_cut 0.5 (settings);
 - ``ceiling's aim``: click_elasticity 0.7, the market's own (settings).
 
 Each row is measured against the manual rule and the ceiling on the same markets (paired by seed), as in
@@ -131,6 +132,7 @@ def variants() -> dict[str, GapMethod]:
         "method (defaults)": GapMethod(),
         "waste at break-even": GapMethod(swaps=Swaps(waste_at="break-even")),
         "no step caps": GapMethod(dict(NO_CAPS)),
+        "steps up to x2 and /2": GapMethod({"max_bid_raise": 1.0, "max_bid_cut": 0.5}),
         "no data guards": GapMethod(swaps=Swaps(no_guards=True)),
         "waste at break-even, no data guards": GapMethod(swaps=Swaps(waste_at="break-even", no_guards=True)),
         "ceiling's aim (e 0.7)": GapMethod({"click_elasticity": 0.7}),
@@ -166,8 +168,23 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--weeks", type=int, default=12)
     parser.add_argument("--only", default="", help="variant names separated by ; (default: all)")
     parser.add_argument("--scenarios", default="", help="comma-separated scenario names (default: all five)")
+    parser.add_argument("--first-seed", type=int, default=1, help="the first seed (seeds run from it on)")
+    parser.add_argument("--merge", type=Path, nargs="*", default=[], metavar="NPY",
+                        help="instead of running, join the per-seed results saved by earlier runs (.npy) and "
+                             "write their table")
     parser.add_argument("--out", type=Path, default=Path(__file__).with_name("gap_results.md"))
     args = parser.parse_args(argv)
+    if args.merge:
+        parts = [np.load(path, allow_pickle=True).item() for path in args.merge]
+        results = {s: {p: np.concatenate([part[s][p] for part in parts]) for p in parts[0][s]
+                       if all(p in part[s] for part in parts)} for s in parts[0]}  # the policies every part ran
+        names = [n for n in next(iter(results.values())) if n not in (MANUAL, CEILING)]
+        seeds = len(next(iter(next(iter(results.values())).values())))
+        lines = [f"{seeds} seeds per scenario, joined from {', '.join(str(p) for p in args.merge)}", ""]
+        lines += table(results, names)
+        args.out.write_text("\n".join(lines) + "\n", encoding="utf-8")
+        print("\n".join(lines))
+        return 0
     every = variants()
     names = [n for n in every if not args.only or n in args.only.split(";") or n == "method (defaults)"]
     scenarios = {**SCENARIOS, **EXTRA_SCENARIOS}
@@ -178,8 +195,10 @@ def main(argv: list[str] | None = None) -> int:
     def log(text: str) -> None:
         print(f"{dt.datetime.now():%H:%M:%S} {text}", file=sys.stderr, flush=True)
 
-    results = run_policies(policies, range(1, args.seeds + 1), args.weeks, scenarios, log)
-    lines = [f"`python -m study.gap --seeds {args.seeds} --weeks {args.weeks}`", ""] + table(results, names)
+    seeds = range(args.first_seed, args.first_seed + args.seeds)
+    results = run_policies(policies, seeds, args.weeks, scenarios, log)
+    lines = [f"`python -m study.gap --seeds {args.seeds} --first-seed {args.first_seed} --weeks {args.weeks}`", ""]
+    lines += table(results, names)
     args.out.write_text("\n".join(lines) + "\n", encoding="utf-8")
     np.save(args.out.with_suffix(".npy"), {s: {p: v for p, v in r.items()} for s, r in results.items()},
             allow_pickle=True)
