@@ -83,8 +83,8 @@ def test_a_product_with_two_units_left_that_would_grow_reads_low_stock_and_its_s
 
 # Bids and Terms (issue 25: a low-stock product is never told to grow). P1 (ad group G1) and P3 (G3) sell alike;
 # each ad group has a keyword worth raising and one worth cutting, and a search term with an order. By hand, with
-# the defaults (target ACoS 30%, k = 20 clicks), with steps of at most +20% and -30% (settings.toml): "kw good" (40 clicks, CPC
-# 0.50, 8 orders of 20.00) has smoothed CVR (8 + 20 x 1/3) / 60 = 0.244, smoothed ACoS 0.50 / (0.244 x 20) = 0.102,
+# the defaults (target ACoS 30%, k = 20 clicks), steps of at most +20% and -30% (settings.toml): "kw good" (40
+# clicks, CPC 0.50, 8 orders of 20.00) has smoothed CVR (8 + 20 x 1/3) / 60 = 0.244, smoothed ACoS 0.50 / (0.244 x 20) = 0.102,
 # value bid 0.50 x 0.30 / 0.102 = 1.47: a raise, capped at 0.60. "kw poor" (40 clicks, CPC 1.00, 1 order of 10.00)
 # has smoothed CVR (1 + 6.67) / 60 = 0.128, smoothed ACoS 1.00 / (0.128 x 10) = 0.78, value bid 1.00 x 0.30 / 0.78
 # = 0.38 < 1.00 x 0.70: a cut, capped at 0.70.
