@@ -375,6 +375,7 @@ def test_the_method_with_its_own_default_spelled_out_differs_by_nothing():
         assert all(cell.startswith("+0.0 [+0.0, +0.0]") for cell in cells), row
 
 
+@pytest.mark.slow  # a few seconds: the fast lane stays under two minutes
 def test_the_gap_diagnostic_without_swaps_is_the_method_and_puts_the_bids_sheet_back(small_runs):
     # study/gap.py swaps Bids references only while it plans: with nothing swapped (waste at the aim, as the library
     # measures it) its bids are the method's, and afterwards the library's column definitions are its own again.
