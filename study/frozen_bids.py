@@ -39,6 +39,9 @@ from .market import EXTRA_SCENARIOS, SCENARIOS, Market, draw_market
 from .policies import Window, planned_final_bids, write_exports
 
 PINNED = Path(__file__).with_name("todays_bids_pinned.json")
+# The settings as they stood at commit 375a362 (the defaults the library has since changed are pinned here), so
+# "today's method" keeps its meaning when the library's defaults move.
+FROZEN = Settings(max_bid_cut=0.30, max_bid_raise=0.20)
 NUDGE = 1e-9
 MOVING = (2, 6, 7, 9, 10)
 RAISING = (6, 9)
@@ -112,7 +115,7 @@ def _rule(clicks: float, orders: float, n: float, value: float, bid: float, s: S
 
 
 def todays_bids(market: Market, clicks: np.ndarray, orders: np.ndarray, spend: np.ndarray, sales: np.ndarray,
-                bids: np.ndarray, settings: Settings = Settings()) -> np.ndarray:
+                bids: np.ndarray, settings: Settings = FROZEN) -> np.ndarray:
     """Today's Final bids (no Decision typed) for a report of the summed clicks, orders, spend and sales."""
     s = settings
     per_product = product_values(market, clicks, orders, spend, sales, s)

@@ -46,9 +46,22 @@ def test_demo_bids_cover_every_rule(demo_build):
     # One week of the demo: its zero-order keywords are either within the exploration allowance or cut on
     # evidence; "not enough data" and the zero-order cut are shown by the tiny accounts below and the properties.
     reasons = {r["Reason"].split(" after ")[0] for r in bids_table(demo_build.output)[0].values()}
+    # The capped cut needs a cut larger than the default maximum cut (50%) short of the evidence: see below.
     assert {"no clicks", "exploring: within allowance", "cut on evidence: likely waste", "lower to value bid",
-            "lower, capped at maximum cut", "raise, capped at maximum raise", "low stock: not raised",
-            "held at bid floor"} <= reasons
+            "raise, capped at maximum raise", "low stock: not raised", "held at bid floor"} <= reasons
+
+
+def test_a_cut_larger_than_the_maximum_cut_stops_at_it_short_of_the_evidence():
+    # The demo planned with a maximum cut of 20%: a keyword whose value bid lies further below its bid, without
+    # the cut on evidence, is cut by exactly 20% (rounded to the cent).
+    from dataclasses import replace
+    inputs, s, _ = load(DEMO)
+    frame = plan_workbook(inputs, replace(s, max_bid_cut=0.20), BUILT_ON).tables["Bids"].frame
+    capped = frame[frame["reason"] == "lower, capped at maximum cut"]
+    assert len(capped) >= 1
+    for r in capped.to_dict("records"):
+        assert r["value_bid"] < r["bid"] * 0.80 and r["p_waste"] < s.waste_confidence
+        assert round(r["bid"] * 0.80, 2) == pytest.approx(r["proposed"], abs=CENT)
 
 
 def test_demo_bids_only_live_targets_in_live_campaigns(demo_build):
@@ -203,4 +216,4 @@ def test_zero_order_threshold_agrees_with_the_rule_of_three(tmp_path):
     assert 29 == cached["Zero-order clicks"] == recalculated["Zero-order clicks"]
     assert abs(cached["Zero-order clicks"] - 3 / 0.10) / (3 / 0.10) < 0.05
     assert "no orders after 29 clicks" == cached["Reason"]
-    assert 0.70 == pytest.approx(cached["Proposed bid"])  # cut by the default maximum cut, 30%
+    assert 0.50 == pytest.approx(cached["Proposed bid"])  # cut by the default maximum cut, 50%

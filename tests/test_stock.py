@@ -83,8 +83,8 @@ def test_a_product_with_two_units_left_that_would_grow_reads_low_stock_and_its_s
 
 # Bids and Terms (issue 25: a low-stock product is never told to grow). P1 (ad group G1) and P3 (G3) sell alike;
 # each ad group has a keyword worth raising and one worth cutting, and a search term with an order. By hand, with
-# the defaults (target ACoS 30%, k = 20 clicks, maximum raise 20%, maximum cut 30%): "kw good" (40 clicks, CPC
-# 0.50, 8 orders of 20.00) has smoothed CVR (8 + 20 x 1/3) / 60 = 0.244, smoothed ACoS 0.50 / (0.244 x 20) = 0.102,
+# the defaults (target ACoS 30%, k = 20 clicks), steps of at most +20% and -30% (settings.toml): "kw good" (40
+# clicks, CPC 0.50, 8 orders of 20.00) has smoothed CVR (8 + 20 x 1/3) / 60 = 0.244, smoothed ACoS 0.50 / (0.244 x 20) = 0.102,
 # value bid 0.50 x 0.30 / 0.102 = 1.47: a raise, capped at 0.60. "kw poor" (40 clicks, CPC 1.00, 1 order of 10.00)
 # has smoothed CVR (1 + 6.67) / 60 = 0.128, smoothed ACoS 1.00 / (0.128 x 10) = 0.78, value bid 1.00 x 0.30 / 0.78
 # = 0.38 < 1.00 x 0.70: a cut, capped at 0.70.
@@ -103,6 +103,7 @@ C1,G3,kw poor,exact,kw poor cheap,100,5,5.00,20.00,1
 def _with_targets(folder: Path) -> Path:
     (folder / "targets.csv").write_text(TARGETS, encoding="utf-8")
     (folder / "search_terms.csv").write_text(SEARCH_TERMS, encoding="utf-8")
+    (folder / "settings.toml").write_text("max_bid_raise = 0.20\nmax_bid_cut = 0.30\n", encoding="utf-8")
     return folder
 
 
@@ -263,7 +264,8 @@ def test_changing_units_available_moves_direction_budget_and_the_guide(libreoffi
     bids, _ = bids_table(path)
     assert [] == mismatches(bids_expected, bids, BIDS_CHECKED, "bids after a stock edit")
     # LF-1002 restocked: its auto targets that read "low stock: not raised" as built are raised again, live.
-    assert "raise, capped at maximum raise" in {r["Reason"] for r in bids.values() if r["Product ID"] == "LF-1002"}
+    raised = {"raise to value bid", "raise, capped at maximum raise"}
+    assert raised & {r["Reason"] for r in bids.values() if r["Product ID"] == "LF-1002"}
     count, names = _guide_low(path)
     assert 2 == count
     assert ["LF-1019  Glass Food Storage Set 10pc", "LF-1021  Stainless Spice Rack 20 Jars"] == names

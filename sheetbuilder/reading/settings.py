@@ -88,9 +88,9 @@ SETTINGS: tuple[SettingSpec, ...] = (
     SettingSpec("exploration_orders", "Exploration allowance (orders)", 1.0, "number",
                 "A keyword with no orders yet is not cut while its history spend is below this many orders' "
                 "worth of target cost (allowance x target ACoS x order value).", 0.0, 100.0),
-    SettingSpec("max_bid_cut", "Maximum bid cut", 0.30, "percent",
+    SettingSpec("max_bid_cut", "Maximum bid cut", 0.50, "percent",
                 "The most a bid is lowered in one run.", 0.0, 0.95),
-    SettingSpec("max_bid_raise", "Maximum bid raise", 0.20, "percent",
+    SettingSpec("max_bid_raise", "Maximum bid raise", 1.00, "percent",
                 "The most a bid is raised in one run.", 0.0, 5.0),
     SettingSpec("bid_floor", "Bid floor", 0.10, "money",
                 "No proposed bid goes below this.", 0.0, 1000.0),
@@ -181,8 +181,8 @@ class Settings:
     zero_order_confidence: float = 0.90
     waste_confidence: float = 0.90
     exploration_orders: float = 1.0
-    max_bid_cut: float = 0.30
-    max_bid_raise: float = 0.20
+    max_bid_cut: float = 0.50
+    max_bid_raise: float = 1.00
     bid_floor: float = 0.10
     bid_ceiling: float = 5.00
     min_promote_orders: int = 1

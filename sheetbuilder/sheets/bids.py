@@ -98,10 +98,16 @@ def _value_bid(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
 
 
 def _p_waste(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    return waste_at(df, ctx, df["target_acos"])
+
+
+def waste_at(df: pd.DataFrame, ctx: BidsContext, acos: pd.Series) -> pd.Series:
+    """The posterior probability that a click is worth less than it costs at the ACoS given per row (Bids: the
+    aim; study/gap.py measures it at break-even too)."""
     a, b = _prior(df, ctx)
     a, b = a + df["h_orders"], b + df["h_clicks"] - df["h_orders"]
-    value = _order_value(df, ctx) * df["target_acos"]
-    ok = df["value_bid"].notna() & (df["target_acos"] > 0) & (a > 0) & (b > 0)
+    value = _order_value(df, ctx) * acos
+    ok = df["value_bid"].notna() & (acos > 0) & (a > 0) & (b > 0)
     x = np.minimum(1.0, df["ratio"] * df["bid"] / value.where(ok, 1.0))
     cdf = betainc(a.where(ok, 1.0), b.where(ok, 1.0), np.clip(x, 0.0, 1.0))
     return (1 - df["w"] + df["w"] * cdf).where(ok).astype(float)
