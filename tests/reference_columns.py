@@ -68,7 +68,7 @@ UNCOVERED = {
     **{("Actions", h): "compared with the independent tests/oracle_actions.py in tests/test_change_list.py "
                        "(cached and LibreOffice values, rows matched by the change they make)"
        for h in ("Kind", "Campaign", "Ad group", "Target or term", "Match type", "Current", "New", "Reason",
-                 "Product ID", "Money at stake", "Segment", "Source row")},
+                 "Product ID", "Money at stake", "Source row")},
     ("Groups", "Above break-even"): _NO_ORACLE,
     ("Groups", "Low stock"): ("Profit's Low stock fetched per product (Profit's is compared); its ad group's "
                               "blend is compared through every Bids and Terms row's Low stock"),
