@@ -314,8 +314,9 @@ DEFS: list[ColumnDef] = [
     ColumnDef("rule", "Rule", "int", "Working: which rule decided the row (1 to 13, see the Guide).",
               _rule, _RULE % (_LOWER, _LOWER), width=6, hidden=True),
 ]
-# Copied one-to-one from the target's in_targets row, or computed only from such copies: plain values.
-EXPORTS = ("impressions", "clicks", "spend", "ad_sales", "orders", "cpc", "cvr", "acos", "bid")
+# Copied one-to-one from the target's in_targets row, or computed only from such copies: plain values. So is the
+# product's CVR (its ad group's blend on Groups, from the ad export's clicks, orders and spend alone).
+EXPORTS = ("impressions", "clicks", "spend", "ad_sales", "orders", "cpc", "cvr", "acos", "bid", "p_cvr")
 DEFS = exports_only(DEFS, EXPORTS) + [notes_column()]  # the user's notes at the right end
 
 # What a user types on Bids and the keys that find its row again (carry, changes and the tests read these).
