@@ -48,7 +48,7 @@ _ROW_NOW = ("hidden row helper: the row a sort may have moved a product or term 
 UNCOVERED = {
     **{("Profit", h): _HELPER for h in ("Ad clicks", "Ad orders", "Product CVR", "Product order value",
                                         "Product price", "Gross profit before ads", "Revenue with a margin")},
-    **{("Bids", h): _HELPER for h in ("Rule", "Moves")},
+    ("Bids", "Rule"): _HELPER,
     ("Bids", "Changes key"): _LIST_KEY,
     **{("Terms", h): _EXPORT_HELPER for h in ("Targeted position", "Negated position")},
     **{("Blends", h): _BLENDS for h in ("Aim ACoS", "Product CVR", "Product order value", "Product price",
