@@ -28,7 +28,7 @@ from sheetbuilder.sheets.anchors import without_absent
 from sheetbuilder.values import is_empty
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, plan_table
 from sheetbuilder.workbook.formula import cell_ref
-from sheetbuilder.sheets.lists import SPARE_ROWS, count_formula
+from sheetbuilder.sheets.lists import SPARE_ROWS, count_formula, count_of as list_count
 from sheetbuilder.reading.settings import Settings
 from sheetbuilder.workbook.spec import DATA, Cell, Sheet, Table, stacked_pages
 
@@ -37,6 +37,7 @@ HEADER_ROW = 3  # 0-based: title, counts, a note, then the header (the layout th
 HEADERS = ("Kind", "Campaign", "Ad group", "Target or term", "Match type", "Current", "New", "Reason", "Product ID",
            "Money at stake")
 SOURCES = ("bids", "harvest", "negative_list", "budget_campaigns")  # the tables the list reads (each may be absent)
+QUALIFYING = "qualifying"  # the planned table's count of the changes that qualify (listed or not: the list has a cap)
 NO_DESTINATION = "choose destination: a live campaign and ad group for this product"
 
 
@@ -231,6 +232,36 @@ def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
     return out, counts
 
 
+def unlisted(tables: dict[str, PlannedTable]) -> list[tuple[str, str]]:
+    """[(sheet, sentence)] for each list holding fewer rows than qualify now (its cap reached): those changes are
+    in neither the sheet nor the change list `changes` writes. Empty when every change is listed.
+
+    What brings a row in: a Bids row whose Final bid differs from its Current bid; a Terms row whose Final is
+    promote (not already a keyword of its product) or block (in a live campaign, not negated, blocking nothing
+    the list adds), each through its Harvest or Negatives row; a source negative of a listed promotion; a
+    campaign whose Final budget differs. Each list holds what qualified at build plus SPARE_ROWS, within its
+    cap, so the room runs out only at list_cap or actions_cap, or after more than SPARE_ROWS rows qualify
+    since the build (the sheets say so above each list; a rebuild makes room).
+    """
+    out = []
+    if "Terms" in tables:
+        terms = tables["Terms"].frame
+        for sheet, word, noun in (("Harvest", "p", "terms to promote"), ("Negatives", "b", "terms to block")):
+            if sheet in tables:
+                qualify, rows = int(list_count(terms, word)), len(tables[sheet].frame)
+                if qualify > rows:
+                    out.append((sheet, f"{qualify - rows} of the {qualify} {noun} are beyond the {sheet} list's "
+                                       f"{rows} rows (list_cap in settings.toml): they and their changes are not "
+                                       "listed; raise list_cap, rebuild the workbook and export again"))
+    if SHEET in tables:
+        changes, rows = int(tables[SHEET].totals_values.get(QUALIFYING, 0)), len(tables[SHEET].frame)
+        if changes > rows:
+            out.append((SHEET, f"{changes - rows} of the {changes} changes are beyond the {SHEET} list's {rows} rows "
+                               "(actions_cap in settings.toml): they are not listed; raise actions_cap, rebuild the "
+                               "workbook and export again"))
+    return out
+
+
 def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settings: Settings,
                  sizes: dict[str, int]) -> tuple[Sheet, PlannedTable, list[int], list[str]]:
     """The Actions sheet, its reference frame, the count of changes of each kind and the cells that count them."""
@@ -270,6 +301,7 @@ def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settin
     # A source this workbook lacks has a count of 0, so its branch is never taken: it reads as blank.
     columns = without_absent(defs(local_refs), ranges, SOURCES)
     planned = plan_table(columns, base, ctx, HEADER_ROW + 1, ranges, with_totals=False)
+    planned.totals_values[QUALIFYING] = float(len(changes))
     above = [[Cell("Actions: every change whose final value differs from today", style="title")],
              count_cells,
              [Cell(note_value, note_formula, "alert" if len(changes) > n_rows else "note")]]
