@@ -161,6 +161,19 @@ def fetch(key: str, header: str, style: str, help: str, hidden: bool = True, wid
                      hidden=hidden)
 
 
+def blended(key: str) -> str:
+    """Formula text of the row's ad-group blend of key, read where a formula needs it (no column of its own)."""
+    return "INDEX({rng:blends.%s},{c:brow})" % key
+
+
+def with_blended(frame: pd.DataFrame, blends: pd.DataFrame, keys: tuple[str, ...]) -> pd.DataFrame:
+    """frame with each row's ad-group blend of keys, for the references (the sheet reads them with blended)."""
+    if not len(frame):
+        return frame.assign(**{key: pd.Series(dtype=float) for key in keys})
+    at = frame["brow"].to_numpy(dtype=int) - 1
+    return frame.assign(**{key: blends[key].to_numpy(dtype=float)[at] for key in keys})
+
+
 def blends_row_column() -> ColumnDef:
     """The row's position on the blends table (data): where its ad group's blended values are."""
     return ColumnDef("brow", "Blends row", "int", "Helper: the ad group's row in the ad-group blends table on Groups.",

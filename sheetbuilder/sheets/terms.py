@@ -33,7 +33,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from sheetbuilder.sheets.blends import attach_groups, blends_row_column, fetch, stock_as_values
+from sheetbuilder.sheets.blends import attach_groups, blended, blends_row_column, fetch, stock_as_values, with_blended
 from sheetbuilder.sheets.decisions import (NOTES, apply_word_decision, decision_validation, editable, notes_column,
                                           word_decision_formula)
 from sheetbuilder.sheets.lists import running_key
@@ -164,15 +164,7 @@ EXPORTS = ("impressions", "clicks", "spend", "ad_sales", "orders", "cpc", "cvr",
 
 # The ad group's blended price and zero-order clicks, read where the verdict needs them (no column of their own).
 BLENDED = ("p_price", "n_zero")
-_PRICE, _N_ZERO = ("INDEX({rng:blends.%s},{c:brow})" % key for key in BLENDED)
-
-
-def with_blended(frame: pd.DataFrame, blends: pd.DataFrame) -> pd.DataFrame:
-    """frame with each row's ad-group blend of BLENDED, for the references (the sheet reads them on Groups)."""
-    if not len(frame):
-        return frame.assign(**{key: pd.Series(dtype=float) for key in BLENDED})
-    at = frame["brow"].to_numpy(dtype=int) - 1
-    return frame.assign(**{key: blends[key].to_numpy(dtype=float)[at] for key in BLENDED})
+_PRICE, _N_ZERO = (blended(key) for key in BLENDED)
 
 
 def _all_defs() -> list[ColumnDef]:
@@ -529,7 +521,7 @@ def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, t
     base["tkey"] = base["tkey_t"].map(lambda k: keys.ids.get(k, np.nan) if k else np.nan)
     base["nkey"] = base["nkey_t"].map(lambda k: keys.ids.get(k, np.nan))
     ctx = TermsContext(settings, blends.frame, keys.found, pairs)
-    base = with_blended(base, blends.frame)
+    base = with_blended(base, blends.frame, BLENDED)
     planned = plan_table(stock_as_values(DEFS, {"p_low"}, ranges), base, ctx, HEADER_ROW + 1, {**ranges, **key_ranges},
                          with_totals=False)
     for key, compute in LIST_WORKING:  # computed live on the list rows that show them, not on every term
