@@ -88,11 +88,23 @@ def _branch(part: str, seg: int) -> str:
 
 
 def _field(parts: dict[int, str]) -> str:
-    """A formula choosing, by the row's segment (read from its Source row), one of parts; blank for the others."""
-    out = '""'
-    for seg in range(max(parts), 0, -1):
+    """A formula choosing, by the row's segment (read from its Source row), one of parts; blank for the others.
+
+    Neighbouring segments with the same branch (a blank, a fixed word) share one test.
+    """
+    runs: list[tuple[int, str]] = []  # (last segment of the run, its branch), in segment order
+    for seg in range(1, max(parts) + 1):
         branch = _branch(parts.get(seg, '""'), seg)
-        out = branch if seg == len(SEGMENTS) else f"IF({{c:pos}}<{seg * SPAN},{branch},{out})"
+        if runs and runs[-1][1] == branch:
+            runs[-1] = (seg, branch)
+        else:
+            runs.append((seg, branch))
+    out = '""'
+    for last, branch in reversed(runs):
+        if last == len(SEGMENTS):
+            out = branch
+        elif not branch == out == '""':
+            out = f"IF({{c:pos}}<{last * SPAN},{branch},{out})"
     return f'=IF({{c:pos}}="","",{out})'
 
 
