@@ -13,8 +13,8 @@ BIDS_HEADERS = ["Campaign", "Ad group", "Target", "Match type", "Product ID", "I
 # The pooled conversion rates' working columns (values computed from the exports and the keyword history).
 POOLED = ["History clicks", "History orders", "History spend", "History ad sales", "CPC-to-bid ratio", "Ratio source",
           "Prior a", "Prior b", "Never-converting share", "Converts probability", "Posterior CVR"]
-CHECKED = [h for h in BIDS_HEADERS if h != "Decision"] + POOLED + ["Zero-order clicks", "Product CVR",
-                                                                   "Target check", "Low stock"]
+# The zero-order clicks the Rule reads (the ad group's blend on Groups) are compared through the Reason's text.
+CHECKED = [h for h in BIDS_HEADERS if h != "Decision"] + POOLED + ["Product CVR", "Target check", "Low stock"]
 HEADER_ROW = 4  # 1-based: title, note, blank, header
 
 
@@ -34,3 +34,16 @@ def bids_oracle_for(folder: Path, settings_changes=None, target_overrides=None, 
         settings = settings.replace(**settings_changes)
     profit, _ = profit_oracle(inputs.tables, settings, target_overrides=target_overrides)
     return bids_oracle(inputs.tables, settings, profit, decisions)
+
+
+def blends_table(path: Path) -> dict[int, dict]:
+    """The ad-group blends table on Groups (below its first table, from its header row), rows by their position."""
+    rows = list(open_values(path)["Groups"].iter_rows(values_only=True))
+    header = next(i for i, r in enumerate(rows) if r and r[0] == "Campaign" and "Group first row" in r)
+    names = rows[header]
+    out = {}
+    for k, r in enumerate(rows[header + 1:], start=1):
+        if r is None or r[0] is None:
+            break
+        out[k] = dict(zip(names, r))
+    return out

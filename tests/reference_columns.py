@@ -48,7 +48,7 @@ _ROW_NOW = ("hidden row helper: the row a sort may have moved a product or term 
 UNCOVERED = {
     **{("Profit", h): _HELPER for h in ("Ad clicks", "Ad orders", "Product CVR", "Product order value",
                                         "Product price", "Gross profit before ads", "Revenue with a margin")},
-    **{("Bids", h): _HELPER for h in ("Rule", "Moves")},
+    ("Bids", "Rule"): _HELPER,
     ("Bids", "Changes key"): _LIST_KEY,
     **{("Terms", h): _EXPORT_HELPER for h in ("Targeted position", "Negated position")},
     **{("Blends", h): _BLENDS for h in ("Aim ACoS", "Product CVR", "Product order value", "Product price",
@@ -68,7 +68,7 @@ UNCOVERED = {
     **{("Actions", h): "compared with the independent tests/oracle_actions.py in tests/test_change_list.py "
                        "(cached and LibreOffice values, rows matched by the change they make)"
        for h in ("Kind", "Campaign", "Ad group", "Target or term", "Match type", "Current", "New", "Reason",
-                 "Product ID", "Money at stake", "Segment", "Source row")},
+                 "Product ID", "Money at stake", "Source row")},
     ("Groups", "Above break-even"): _NO_ORACLE,
     ("Groups", "Low stock"): ("Profit's Low stock fetched per product (Profit's is compared); its ad group's "
                               "blend is compared through every Bids and Terms row's Low stock"),

@@ -12,7 +12,8 @@ TERMS_HEADERS = ["Campaign", "Ad group", "From target", "From match type", "Sear
                  "Impressions", "Clicks", "Spend", "Ad sales", "Orders", "CPC", "CVR", "ACoS", "Already targeted",
                  "Already negated", "Verdict", "Decision", "Final"]
 # Starting bid is compared on Harvest, the list that computes it.
-TERMS_CHECKED = [h for h in TERMS_HEADERS if h != "Decision"] + ["Zero-order clicks", "Product price", "Low stock"]
+# The blended price and zero-order clicks the Verdict reads are compared through the Negatives' Rule and Threshold.
+TERMS_CHECKED = [h for h in TERMS_HEADERS if h != "Decision"] + ["Low stock"]
 HARVEST_HEADERS = ["Number", "Search term", "Kind", "Match type", "Destination campaign", "Destination ad group",
                    "Starting bid", "Negative in source", "Source campaign", "Source ad group", "Product ID", "Orders",
                    "Spend", "ACoS", "Reason"]

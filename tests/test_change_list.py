@@ -23,12 +23,12 @@ from conftest import BUILT_ON, DEMO, require_libreoffice
 from oracle_actions import actions_oracle
 from sheetbuilder.reading.normalise import contains_phrase, normalise
 from sheetbuilder.pipeline import build, load
-from sheetbuilder.sheets.actions import HEADER_ROW, HEADERS
+from sheetbuilder.sheets.actions import HEADER_ROW, HEADERS, SPAN
 
 ADDS = ("add keyword", "add product target")
 KEYS = {"Kind": "kind", "Campaign": "campaign", "Ad group": "ad_group", "Target or term": "target",
         "Match type": "match_type", "Current": "current", "New": "new", "Reason": "reason",
-        "Product ID": "product_id", "Money at stake": "money", "Segment": "seg"}
+        "Product ID": "product_id", "Money at stake": "money", "Source row": "pos"}
 GROUPS = {1: "bid", 2: "add", 3: "source negative", 4: "add negative", 5: "budget"}
 
 
@@ -51,6 +51,7 @@ def workbook_actions(path) -> list[dict]:
     for values in rows:
         row = {KEYS[h]: v for h, v in zip(header, values) if h in KEYS}
         if _text(row.get("kind")):
+            row["seg"] = int(row["pos"] // SPAN) + 1  # Source row: (kind's number - 1) x SPAN + its source row
             out.append(row)
     return out
 

@@ -217,14 +217,17 @@ def test_ad_group_blends_are_computed_once_on_groups_from_weight_times_value_sum
     # K4 is checked against Profit's Position column (AI, after AH Revenue with a margin): Profit may be sorted.
     assert "=IF(INDEX(Profit!$AI$6:$AI$7,K4)=K4,K4,MATCH(K4,Profit!$AI$6:$AI$7,0))" == groups["Profit row now"]
     assert "=E4*INDEX(Profit!$V$6:$V$7,L4)" == groups["Weight x aim ACoS"]
-    assert "=E4*INDEX(Profit!$AD$6:$AD$7,L4)" == groups["Weight x CVR"]
-    assert None is groups["Ad spend"] is groups["Blend weight"]  # export-only: plain values
+    # export-only: plain values (spend, and spend x CVR or order value, all from the ad export)
+    assert None is groups["Ad spend"] is groups["Blend weight"] is groups["Weight x CVR"] is groups[
+        "Weight x order value"]
+    assert "=E4*INDEX(Profit!$AF$6:$AF$7,L4)" == groups["Weight x price"]  # the catalog price is an input
     blends = sheet.more[0]
     assert 8 - 1 == blends.first_row
     row = {c.header: _first_row(c, 9) for c in blends.columns}
     block = "SUM(INDEX(Groups!$%s$4:$%s$5,C9):INDEX(Groups!$%s$4:$%s$5,D9))"
     assert '=IF(C9="",default_target_acos,%s/E9)' % (block % (("F",) * 4)) == row["Aim ACoS"]
-    assert '=IF(C9="",Profit!$AD$8,%s/E9)' % (block % (("H",) * 4)) == row["Product CVR"]
+    assert None is row["Product CVR"] is row["Product order value"]  # blends of export-only columns: values
+    assert '=IF(C9="",Profit!$AE$8,%s/E9)' % (block % (("J",) * 4)) == row["Product price"]
     assert '=IF(OR(G9<=0,G9>=1),"",ROUNDUP(LN(1-zero_order_confidence)/LN(1-G9),0))' == row["Zero-order clicks"]
     values = {c.header: list(c.values) for c in blends.columns}
     # Row 9 has no block (the account's values); C1/G1 owns Groups positions 1-2, weights 25 + 10 (their spend).
@@ -239,7 +242,7 @@ def test_a_bids_row_fetches_its_ad_group_blend_with_one_index_and_copies_its_exp
     row = {c.header: _first_row(c, 5) for c in table.columns}
     brow = letters["Blends row"]
     assert f"=INDEX(Groups!$F$9:$F$10,{brow}5)" == row["Aim ACoS"]
-    assert f"=INDEX(Groups!$G$9:$G$10,{brow}5)" == row["Product CVR"]
+    assert None is row["Product CVR"]  # its blend comes from the ad export alone: a plain value
     assert [2.0] == next(c.values for c in table.columns if c.header == "Blends row")
     assert {h: None for h in ("Impressions", "Clicks", "Spend", "Ad sales", "Orders", "CPC", "CVR", "ACoS",
                               "Current bid")} == {h: row[h] for h in ("Impressions", "Clicks", "Spend", "Ad sales",

@@ -3,10 +3,12 @@
 Five kinds of change, in this order: bid changes (Bids, Final bid different from the bid),
 keywords and product targets to add (Harvest), negatives to add in the source ad groups of
 promoted terms (Harvest), negatives to add (Negatives), daily budget changes (Budget).
-The k-th row finds its kind from the running totals, then its row on the source sheet:
-directly for the Harvest and Negatives lists (their k-th rows), or by MATCH on the source
-sheet's strictly increasing helper key (the same macro-free method as those lists). The
-`changes` command exports this sheet as CSV.
+The k-th row finds its kind from the running totals of the counts above the list, then its row
+on the source sheet: directly for the Harvest and Negatives lists (their k-th rows), or by
+MATCH on the source sheet's strictly increasing helper key (the same macro-free method as
+those lists). One hidden working column (Source row) holds both, the kind as an offset of
+SPAN rows, so each row costs its ten visible cells and one lookup. The `changes` command
+exports this list as CSV.
 
 Every row carries its product and the money at stake (the target's or term's spend, or the
 size of the budget change). Within a kind the rows follow their source sheets, which are
@@ -26,7 +28,7 @@ from sheetbuilder.sheets.anchors import without_absent
 from sheetbuilder.values import is_empty
 from sheetbuilder.workbook.columns import ColumnDef, PlannedTable, plan_table
 from sheetbuilder.workbook.formula import cell_ref
-from sheetbuilder.sheets.lists import SPARE_ROWS, count_formula
+from sheetbuilder.sheets.lists import SPARE_ROWS, count_formula, count_of as list_count
 from sheetbuilder.reading.settings import Settings
 from sheetbuilder.workbook.spec import DATA, Cell, Sheet, Table, stacked_pages
 
@@ -35,6 +37,7 @@ HEADER_ROW = 3  # 0-based: title, counts, a note, then the header (the layout th
 HEADERS = ("Kind", "Campaign", "Ad group", "Target or term", "Match type", "Current", "New", "Reason", "Product ID",
            "Money at stake")
 SOURCES = ("bids", "harvest", "negative_list", "budget_campaigns")  # the tables the list reads (each may be absent)
+QUALIFYING = "qualifying"  # the planned table's count of the changes that qualify (listed or not: the list has a cap)
 NO_DESTINATION = "choose destination: a live campaign and ad group for this product"
 
 
@@ -43,7 +46,7 @@ class Segment:
     """One part of the list, in list order: the changes of one kind read from one source table.
 
     Attributes:
-        number: its number in the hidden Segment column (1 to 5).
+        number: its number (1 to 5); the hidden Source row holds (number - 1) x SPAN + the source row.
         label: its count's label above the list.
         table: the planned table its changes come from.
         kinds: the Kind words its rows show.
@@ -76,12 +79,33 @@ def _blank_safe(ref: str) -> str:
     return f'IF({ref}="","",{ref})'
 
 
+SPAN = 10_000_000  # Source row holds (segment - 1) x SPAN + the row: a sheet has fewer rows than SPAN
+
+
+def _branch(part: str, seg: int) -> str:
+    """part reading its segment's source row: the Source row less the segment's offset."""
+    return part if seg == 1 else part.replace("{c:pos}", f"({{c:pos}}-{(seg - 1) * SPAN})")
+
+
 def _field(parts: dict[int, str]) -> str:
-    """A formula choosing, by the row's segment (1-5), one of parts; blank for other segments."""
+    """A formula choosing, by the row's segment (read from its Source row), one of parts; blank for the others.
+
+    Neighbouring segments with the same branch (a blank, a fixed word) share one test.
+    """
+    runs: list[tuple[int, str]] = []  # (last segment of the run, its branch), in segment order
+    for seg in range(1, max(parts) + 1):
+        branch = _branch(parts.get(seg, '""'), seg)
+        if runs and runs[-1][1] == branch:
+            runs[-1] = (seg, branch)
+        else:
+            runs.append((seg, branch))
     out = '""'
-    for seg in sorted(parts, reverse=True):
-        out = f"IF({{c:seg}}={seg},{parts[seg]},{out})"
-    return f'=IF({{c:seg}}=0,"",{out})'
+    for last, branch in reversed(runs):
+        if last == len(SEGMENTS):
+            out = branch
+        elif not branch == out == '""':
+            out = f"IF({{c:pos}}<{last * SPAN},{branch},{out})"
+    return f'=IF({{c:pos}}="","",{out})'
 
 
 def _idx(rng: str) -> str:
@@ -103,18 +127,24 @@ def _num(key: str):
     return compute
 
 
-def defs(totals: list[str]) -> list[ColumnDef]:
-    """The Actions columns, given each segment's count formula (absolute references), in SEGMENTS' order."""
-    t = totals
-    cum = [t[0], f"{t[0]}+{t[1]}", f"{t[0]}+{t[1]}+{t[2]}", f"{t[0]}+{t[1]}+{t[2]}+{t[3]}",
-           f"{t[0]}+{t[1]}+{t[2]}+{t[3]}+{t[4]}"]
-    seg = "=" + "".join(f"IF({{c:k}}<={c},{i + 1}," for i, c in enumerate(cum)) + "0" + ")" * 5
+def defs(counts: list[str]) -> list[ColumnDef]:
+    """The Actions columns, given the cells holding each segment's count (absolute references), in SEGMENTS' order.
+
+    The hidden Source row is the only working column: the row's segment follows from k against the running
+    totals of the counts, and it holds (segment - 1) x SPAN + the change's row on its source sheet (the k-th
+    of Bids' changes, Harvest's rows, Harvest's source negatives, Negatives' rows, Budget's changes), so
+    each visible column finds both the segment and the row in it.
+    """
+    cum = ["+".join(counts[:i + 1]) for i in range(len(counts))]
     # The change's number within its kind is k less the kinds before it; the source row follows from it.
-    pos = ('=IF({c:seg}=0,"",IF({c:seg}=1,MATCH({c:k},{rng:bids.a_key},1),IF({c:seg}=2,{c:k}-(%s),'
-           'IF({c:seg}=3,MATCH({c:k}-(%s),{rng:harvest.n_key},1),IF({c:seg}=4,{c:k}-(%s),'
-           'MATCH({c:k}-(%s),{rng:budget_campaigns.c_key},1))))))' % tuple(cum[:4]))
-    kind = ('=IF({c:seg}=0,"",IF({c:seg}=1,"bid",IF({c:seg}=2,IF(INDEX({rng:harvest.kind},{c:pos})="product target",'
-            '"add product target","add keyword"),IF({c:seg}=5,"budget","add negative"))))')
+    pos = ('=IF({c:k}<=%s,MATCH({c:k},{rng:bids.a_key},1),IF({c:k}<=%s,%d+{c:k}-(%s),'
+           'IF({c:k}<=%s,%d+MATCH({c:k}-(%s),{rng:harvest.n_key},1),IF({c:k}<=%s,%d+{c:k}-(%s),'
+           'IF({c:k}<=%s,%d+MATCH({c:k}-(%s),{rng:budget_campaigns.c_key},1),"")))))'
+           % (cum[0], cum[1], SPAN, cum[0], cum[2], 2 * SPAN, cum[1], cum[3], 3 * SPAN, cum[2],
+              cum[4], 4 * SPAN, cum[3]))
+    kind = ('=IF({c:pos}="","",IF({c:pos}<%d,"bid",IF({c:pos}<%d,IF(INDEX({rng:harvest.kind},{c:pos}-%d)='
+            '"product target","add product target","add keyword"),IF({c:pos}<%d,"add negative","budget"))))'
+            % (SPAN, 2 * SPAN, SPAN, 4 * SPAN))
     return [
         ColumnDef("kind", "Kind", "text", "bid, add keyword, add product target, add negative or budget.",
                   _ref("Kind"), kind, width=16),
@@ -156,11 +186,8 @@ def defs(totals: list[str]) -> list[ColumnDef]:
                   width=11),
         ColumnDef("k", "Number", "int", "Helper: the row's number.", lambda df, ctx: df["k"], kind=DATA, width=6,
                   hidden=True),
-        ColumnDef("seg", "Segment", "int", "Working: which kind of change (1 to 5).",
-                  lambda df, ctx: pd.Series([ctx.changes[int(k) - 1]["_seg"] if k <= len(ctx.changes) else 0
-                                             for k in df["k"]], index=df.index, dtype=float), seg, width=6,
-                  hidden=True),
-        ColumnDef("pos", "Source row", "int", "Working: the change's row on its source sheet.",
+        ColumnDef("pos", "Source row", "int",
+                  "Working: the change's kind and its row on its source sheet, (kind's number - 1) x 10,000,000 + row.",
                   _num("_pos"), pos, width=6, hidden=True),
     ]
 
@@ -187,7 +214,7 @@ def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
         filled = h.loc[h["pos"].notna()]
         for r in filled.to_dict("records"):
             counts[1] += 1
-            out.append({"_seg": 2, "_pos": r["k"],
+            out.append({"_seg": 2, "_pos": SPAN + r["k"],
                         "Kind": "add product target" if r["kind"] == "product target" else "add keyword",
                         "Campaign": r["dest_campaign"], "Ad group": r["dest_ad_group"], "Target or term": r["term"],
                         "Match type": r["match"], "New": r["start_bid"], "Product ID": r["product_id"],
@@ -195,7 +222,7 @@ def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
                         "Reason": NO_DESTINATION if r["dest_campaign"] == "" else "search term that sells"})
         for r in filled.loc[filled["source_negative"] != ""].to_dict("records"):
             counts[2] += 1
-            out.append({"_seg": 3, "_pos": r["k"], "Kind": "add negative",
+            out.append({"_seg": 3, "_pos": 2 * SPAN + r["k"], "Kind": "add negative",
                         "Campaign": r["campaign"], "Ad group": r["ad_group"], "Target or term": r["term"],
                         "Match type": "negative exact", "Product ID": r["product_id"], "Money at stake": r["spend"],
                         "Reason": "so the new keyword does not compete with its source"})
@@ -203,18 +230,48 @@ def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
         n = tables["Negatives"].frame
         for r in n.loc[n["pos"].notna()].to_dict("records"):
             counts[3] += 1
-            out.append({"_seg": 4, "_pos": r["k"], "Kind": "add negative", "Campaign": r["campaign"],
+            out.append({"_seg": 4, "_pos": 3 * SPAN + r["k"], "Kind": "add negative", "Campaign": r["campaign"],
                         "Ad group": r["ad_group"], "Target or term": r["term"], "Match type": r["neg_match"],
                         "Product ID": r["product_id"], "Money at stake": r["spend"], "Reason": r["rule"]})
     if "Budget campaigns" in tables:
         c = tables["Budget campaigns"].frame
         for r in c.loc[(c["final"] != c["budget"]) & (c["state"] == "enabled")].to_dict("records"):
             counts[4] += 1
-            out.append({"_seg": 5, "_pos": r["cpos"], "Kind": "budget", "Campaign": r["campaign"],
+            out.append({"_seg": 5, "_pos": 4 * SPAN + r["cpos"], "Kind": "budget", "Campaign": r["campaign"],
                         "Current": r["budget"], "New": r["final"], "Product ID": r["products"],
                         "Money at stake": "" if isinstance(r["final"], str) else cents(abs(r["final"] - r["budget"])),
                         "Reason": "follows its products' spend" if is_empty(r["decision"]) else "your decision"})
     return out, counts
+
+
+def unlisted(tables: dict[str, PlannedTable]) -> list[tuple[str, str]]:
+    """[(sheet, sentence)] for each list holding fewer rows than qualify now (its cap reached): those changes are
+    in neither the sheet nor the change list `changes` writes. Empty when every change is listed.
+
+    What brings a row in: a Bids row whose Final bid differs from its Current bid; a Terms row whose Final is
+    promote (not already a keyword of its product) or block (in a live campaign, not negated, blocking nothing
+    the list adds), each through its Harvest or Negatives row; a source negative of a listed promotion; a
+    campaign whose Final budget differs. Each list holds what qualified at build plus SPARE_ROWS, within its
+    cap, so the room runs out only at list_cap or actions_cap, or after more than SPARE_ROWS rows qualify
+    since the build (the sheets say so above each list; a rebuild makes room).
+    """
+    out = []
+    if "Terms" in tables:
+        terms = tables["Terms"].frame
+        for sheet, word, noun in (("Harvest", "p", "terms to promote"), ("Negatives", "b", "terms to block")):
+            if sheet in tables:
+                qualify, rows = int(list_count(terms, word)), len(tables[sheet].frame)
+                if qualify > rows:
+                    out.append((sheet, f"{qualify - rows} of the {qualify} {noun} are beyond the {sheet} list's "
+                                       f"{rows} rows (list_cap in settings.toml): they and their changes are not "
+                                       "listed; raise list_cap, rebuild the workbook and export again"))
+    if SHEET in tables:
+        changes, rows = int(tables[SHEET].totals_values.get(QUALIFYING, 0)), len(tables[SHEET].frame)
+        if changes > rows:
+            out.append((SHEET, f"{changes - rows} of the {changes} changes are beyond the {SHEET} list's {rows} rows "
+                               "(actions_cap in settings.toml): they are not listed; raise actions_cap, rebuild the "
+                               "workbook and export again"))
+    return out
 
 
 def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settings: Settings,
@@ -231,9 +288,10 @@ def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settin
     for segment in SEGMENTS:
         table = segment.table
         totals.append(count_of[segment.number]() if table in tables and len(tables[table].frame) else "0")
-    count_refs = []
+    count_refs, local_refs = [], []
     for label, total, value in zip((s.label for s in SEGMENTS), totals, counts):
-        count_refs.append(f"{SHEET}!{cell_ref(1, len(count_cells) + 1, True)}")  # row 2, beside its label
+        local_refs.append(cell_ref(1, len(count_cells) + 1, True))  # row 2, beside its label
+        count_refs.append(f"{SHEET}!{local_refs[-1]}")
         count_cells += [Cell(label, style="note"), Cell(float(value), "=" + total if total != "0" else "=0", "int_left")]
     rows = sum(sizes.values())
     static = ("Decision aid only: review every change before applying it to a live ad account. "
@@ -241,9 +299,11 @@ def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settin
     # Sized to the changes at build plus SPARE_ROWS of room (a Decision or threshold changed later), within
     # every candidate row and actions_cap; the note says when more changes qualify than the list holds.
     n_rows = max(0, min(rows, settings.actions_cap, len(changes) + SPARE_ROWS))
-    base = pd.DataFrame({"k": np.arange(1, n_rows + 1, dtype=float)})
+    # seg (each row's segment, 0 when empty) stays in the reference frame only: the sheet reads it from Source row.
+    base = pd.DataFrame({"k": np.arange(1, n_rows + 1, dtype=float),
+                         "seg": [float(changes[i]["_seg"]) if i < len(changes) else 0.0 for i in range(n_rows)]})
     ctx = ActionsContext(changes)
-    total = "+".join(totals)
+    total = "+".join(local_refs)
     how = "raise actions_cap in settings.toml and rebuild" if n_rows >= settings.actions_cap else \
         "rebuild the workbook"
     note_formula = (f'=IF({total}>{n_rows},"Showing the first {n_rows} of "&({total})&" changes; {how} '
@@ -251,8 +311,9 @@ def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settin
     note_value = (f"Showing the first {n_rows} of {len(changes)} changes; {how} to see them all."
                   if len(changes) > n_rows else static)
     # A source this workbook lacks has a count of 0, so its branch is never taken: it reads as blank.
-    columns = without_absent(defs(totals), ranges, SOURCES)
+    columns = without_absent(defs(local_refs), ranges, SOURCES)
     planned = plan_table(columns, base, ctx, HEADER_ROW + 1, ranges, with_totals=False)
+    planned.totals_values[QUALIFYING] = float(len(changes))
     above = [[Cell("Actions: every change whose final value differs from today", style="title")],
              count_cells,
              [Cell(note_value, note_formula, "alert" if len(changes) > n_rows else "note")]]

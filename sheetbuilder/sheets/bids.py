@@ -37,7 +37,7 @@ import numpy as np
 import pandas as pd
 from scipy.special import betainc  # the regularised incomplete beta: BETADIST's definition
 
-from sheetbuilder.sheets.blends import attach_groups, blends_row_column, fetch, stock_as_values
+from sheetbuilder.sheets.blends import attach_groups, blended, blends_row_column, fetch, stock_as_values, with_blended
 from sheetbuilder.sheets.decisions import NOTES, apply_decision, decision_formula, decision_validation, editable, notes_column
 from sheetbuilder.sheets.lists import running_key
 from sheetbuilder.sheets.pooled import cpc_to_bid, history_figures, posterior
@@ -210,6 +210,8 @@ _ROUNDED = "ROUND(%s+0.000000001,2)" % _RAW
 _MOVING = "OR({c:rule}=2,{c:rule}=6,{c:rule}=7,{c:rule}=9,{c:rule}=10,{c:rule}=12)"
 _RAISING = "OR({c:rule}=6,{c:rule}=9)"
 _REASON_CHOICES = ",".join('"' + REASONS[i].replace("{n}", '"&{c:n_zero}&"') + '"' for i in range(1, len(REASONS) + 1))
+# The zero-order clicks are the ad group's blend, read on Groups where the rule and its reason need them.
+_RULE, _REASON_CHOICES = (text.replace("{c:n_zero}", blended("n_zero")) for text in (_RULE, _REASON_CHOICES))
 
 
 def _value(key: str, header: str, style: str, help: str, width: float = 9) -> ColumnDef:
@@ -282,9 +284,6 @@ DEFS: list[ColumnDef] = [
     ColumnDef("pos", "Position", "int", "Helper: the row's position on this sheet.", lambda df, ctx: df["pos"],
               kind=DATA, width=6, hidden=True),
     *running_key("a", "Changes", "{c:final}<>{c:bid}", lambda df: df["final"] != df["bid"]),
-    ColumnDef("moves", "Moves", "int", "Working: 1 where the proposal changes the bid (for the dashboard).",
-              lambda df, ctx: (df["proposed"] != df["bid"]).astype(float), '=IF({c:proposed}<>{c:bid},1,0)',
-              width=6, hidden=True),
     ColumnDef("trow", "Target row", "int",
               "The target's row number among in_targets' data rows: where its grey figures were copied from.",
               lambda df, ctx: df["trow"], kind=DATA, width=8),
@@ -314,14 +313,13 @@ DEFS: list[ColumnDef] = [
     ColumnDef("post_cvr", "Posterior CVR", "percent",
               "Working: the keyword's posterior mean CVR, w x (a + orders) / (a + b + clicks) over its history.",
               _post_cvr, _POST_CVR, width=9, hidden=True),
-    fetch("n_zero", "Zero-order clicks", "int",
-          "Working: clicks after which zero orders are unlikely at the product's CVR."),
     fetch("p_low", "Low stock", "int", "Working: 1 where a product of the ad group is low on stock (never raised)."),
     ColumnDef("rule", "Rule", "int", "Working: which rule decided the row (1 to 13, see the Guide).",
               _rule, _RULE % (_LOWER, _LOWER), width=6, hidden=True),
 ]
-# Copied one-to-one from the target's in_targets row, or computed only from such copies: plain values.
-EXPORTS = ("impressions", "clicks", "spend", "ad_sales", "orders", "cpc", "cvr", "acos", "bid")
+# Copied one-to-one from the target's in_targets row, or computed only from such copies: plain values. So is the
+# product's CVR (its ad group's blend on Groups, from the ad export's clicks, orders and spend alone).
+EXPORTS = ("impressions", "clicks", "spend", "ad_sales", "orders", "cpc", "cvr", "acos", "bid", "p_cvr")
 DEFS = exports_only(DEFS, EXPORTS) + [notes_column()]  # the user's notes at the right end
 
 # What a user types on Bids and the keys that find its row again (carry, changes and the tests read these).
@@ -373,6 +371,7 @@ def plan_bids(targets: InputSheet, campaigns: pd.DataFrame | None, groups: Plann
         base["decision"] = decide("Bids", list(zip(base["campaign"], base["ad_group"], base["target"],
                                                    base["match_type"])))
     ctx = BidsContext(settings, blends.frame)
+    base = with_blended(base, blends.frame, ("n_zero",))
     planned = plan_table(stock_as_values(DEFS, {"p_low"}, ranges), base, ctx, HEADER_ROW + 1, ranges, with_totals=False)
     keys = [d.key for d in DEFS]
     n = len(base)

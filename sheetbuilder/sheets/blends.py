@@ -130,10 +130,10 @@ def blend_columns() -> list[ColumnDef]:
         target_acos_column(),
         ColumnDef("p_cvr", "Product CVR", "percent", "The product's (or blend's) ad conversion rate.",
                   blend("w_cvr", lambda ctx: ctx.account_cvr),
-                  blend_formula("w_cvr", "{rng:profit_total.prod_cvr}"), width=10),
+                  blend_formula("w_cvr", "{rng:profit_total.prod_cvr}"), export=True, width=10),
         ColumnDef("p_aov", "Product order value", "money", "The product's (or blend's) ad sales per order.",
                   blend("w_aov", lambda ctx: ctx.account_aov),
-                  blend_formula("w_aov", "{rng:profit_total.prod_aov}"), width=12),
+                  blend_formula("w_aov", "{rng:profit_total.prod_aov}"), export=True, width=12),
         ColumnDef("p_price", "Product price", "money", "The product's (or blend's) price: the block rule's yardstick.",
                   blend("w_price", lambda ctx: ctx.account_aov),
                   blend_formula("w_price", "{rng:profit_total.prod_aov}"), width=10),
@@ -159,6 +159,19 @@ def fetch(key: str, header: str, style: str, help: str, hidden: bool = True, wid
         return pd.Series(out, index=df.index, dtype=object if style == "label" else float)
     return ColumnDef(key, header, style, help, compute, "=INDEX({rng:blends.%s},{c:brow})" % key, width=width,
                      hidden=hidden)
+
+
+def blended(key: str) -> str:
+    """Formula text of the row's ad-group blend of key, read where a formula needs it (no column of its own)."""
+    return "INDEX({rng:blends.%s},{c:brow})" % key
+
+
+def with_blended(frame: pd.DataFrame, blends: pd.DataFrame, keys: tuple[str, ...]) -> pd.DataFrame:
+    """frame with each row's ad-group blend of keys, for the references (the sheet reads them with blended)."""
+    if not len(frame):
+        return frame.assign(**{key: pd.Series(dtype=float) for key in keys})
+    at = frame["brow"].to_numpy(dtype=int) - 1
+    return frame.assign(**{key: blends[key].to_numpy(dtype=float)[at] for key in keys})
 
 
 def blends_row_column() -> ColumnDef:

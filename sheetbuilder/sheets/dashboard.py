@@ -45,8 +45,9 @@ def dashboard(tables: dict[str, PlannedTable], ranges: dict[str, str], budget_sh
         out.append(Figure("Products low on stock",
                           f"=SUM({ranges['profit.low']})", float(profit.frame["low"].sum()), "int"))
     if "Bids" in tables:
-        out.append(Figure("Proposed bid changes", f"=SUM({ranges['bids.moves']})",
-                          float(tables["Bids"].frame["moves"].sum()), "int"))
+        bids = tables["Bids"].frame  # one comparison over the two columns: no working column per row
+        out.append(Figure("Proposed bid changes", f"=SUMPRODUCT(({ranges['bids.proposed']}<>{ranges['bids.bid']})*1)",
+                          float((bids["proposed"] != bids["bid"]).sum()), "int"))
     if "Terms" in tables:
         frame = tables["Terms"].frame
         out.append(Figure("Search terms to promote", "=" + count_formula(ranges, "terms", "p"),

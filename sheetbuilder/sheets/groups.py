@@ -8,7 +8,7 @@ what the ad-group blends table below sums over each block, once per ad group.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
@@ -76,8 +76,12 @@ DEFS: list[ColumnDef] = [
     ColumnDef("above", "Above break-even", "int", "1 where your target ACoS of the product is above its break-even ACoS.",
               lambda df, ctx: _above(df, ctx.profit),
               '=IF(INDEX({rng:profit.target_check},%s)<>"",1,0)' % _AT_PROFIT, width=8),
-    _weighted("w_cvr", "Weight x CVR", "prod_cvr", "Blend weight x the product's ad conversion rate (Profit)."),
-    _weighted("w_aov", "Weight x order value", "prod_aov", "Blend weight x the product's ad sales per order (Profit)."),
+    # Weight x CVR and x order value: the ad export's figures (Profit's ad clicks, orders and sales) times the
+    # ad export's spend, so no input can change them: plain values, as the blends they feed.
+    replace(_weighted("w_cvr", "Weight x CVR", "prod_cvr", "Blend weight x the product's ad conversion rate (Profit)."),
+            export=True),
+    replace(_weighted("w_aov", "Weight x order value", "prod_aov",
+                      "Blend weight x the product's ad sales per order (Profit)."), export=True),
     _weighted("w_price", "Weight x price", "prod_price",
               "Blend weight x the product's price (its order value without one) (Profit)."),
     ColumnDef("prow", "Profit row", "int", "Helper: the product's position on Profit.",

@@ -145,11 +145,11 @@ _VALUE_BID = ('=IF({c:pos}="","",IF(%(clicks)s+prior_clicks=0,"",%(target)s*(%(o
 _START_BID = ('=IF({c:pos}="","",IF(OR(%(cpc)s="",{c:value_bid}=""),"",MIN(bid_ceiling,MAX(bid_floor,ROUND('
               'IF(starting_bid="cpc",%(cpc)s,IF(starting_bid="value",{c:value_bid},MIN(%(cpc)s,{c:value_bid})))'
               '+0.000000001,2)))))' % {"cpc": _t("cpc")})
-_SPENT = "%s>=%s*block_spend_multiple" % (_t("spend"), _t("p_price"))
+_SPENT = "%s>=%s*block_spend_multiple" % (_t("spend"), _b("p_price"))
 _RULE = ('=IF({c:pos}="","",IF(%s<>"block","your decision",IF(%s,"spend reached price x multiple",'
-         '"no orders after "&%s&" clicks")))' % (_t("verdict"), _SPENT, _t("n_zero")))
+         '"no orders after "&%s&" clicks")))' % (_t("verdict"), _SPENT, _b("n_zero")))
 _THRESHOLD = ('=IF({c:pos}="","",IF(%s<>"block","",IF(%s,%s*block_spend_multiple,%s)))'
-              % (_t("verdict"), _SPENT, _t("p_price"), _t("n_zero")))
+              % (_t("verdict"), _SPENT, _b("p_price"), _b("n_zero")))
 
 
 HARVEST_DEFS: list[ColumnDef] = [

@@ -33,7 +33,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from sheetbuilder.sheets.blends import attach_groups, blends_row_column, fetch, stock_as_values
+from sheetbuilder.sheets.blends import attach_groups, blended, blends_row_column, fetch, stock_as_values, with_blended
 from sheetbuilder.sheets.decisions import (NOTES, apply_word_decision, decision_validation, editable, notes_column,
                                           word_decision_formula)
 from sheetbuilder.sheets.lists import running_key
@@ -162,6 +162,11 @@ EXPORTS = ("impressions", "clicks", "spend", "ad_sales", "orders", "cpc", "cvr",
            "tpos", "npos")
 
 
+# The ad group's blended price and zero-order clicks, read where the verdict needs them (no column of their own).
+BLENDED = ("p_price", "n_zero")
+_PRICE, _N_ZERO = (blended(key) for key in BLENDED)
+
+
 def _all_defs() -> list[ColumnDef]:
     """The Terms columns, every one with its formula (the method as written)."""
     return [
@@ -198,8 +203,8 @@ def _all_defs() -> list[ColumnDef]:
                   "group is low on stock (see the Guide).", _verdict,
                   '=IF(AND({c:orders}>=min_promote_orders,{c:targeted}="",{c:self}=0),IF({c:p_low}=1,"%s","promote"),'
                   'IF({c:orders}>0,IF(OR({c:targeted}<>"",{c:self}=1),"keep","watch"),IF({c:negated}<>"","keep",'
-                  'IF(OR({c:spend}>={c:p_price}*block_spend_multiple,IF({c:n_zero}="",FALSE,{c:clicks}>={c:n_zero})),'
-                  '"block","watch"))))' % LOW_STOCK, width=9),
+                  'IF(OR({c:spend}>=%s*block_spend_multiple,IF(%s="",FALSE,{c:clicks}>=%s)),'
+                  '"block","watch"))))' % (LOW_STOCK, _PRICE, _N_ZERO, _N_ZERO), width=9),
         ColumnDef("decision", "Decision", "text_input",
                   "Input: blank follows the verdict; or type promote, block, watch, keep or skip.",
                   lambda df, ctx: df["decision"], kind=INPUT, width=9),
@@ -233,9 +238,6 @@ def _all_defs() -> list[ColumnDef]:
         ColumnDef("npos", "Negated position", "int", "Working: MATCH of the negated key on Keys.",
                   _NPOS_REF, _NPOS, width=8, hidden=True),
         blends_row_column(),
-        fetch("p_price", "Product price", "money", "Working: the product's (or blend's) price."),
-        fetch("n_zero", "Zero-order clicks", "int",
-              "Working: clicks after which zero orders are unlikely at the product's CVR."),
         fetch("p_low", "Low stock", "int", "Working: 1 where a product of the ad group is low on stock (not promoted)."),
         ColumnDef("live", "Campaign live", "int", "Helper: 1 where the term's campaign is enabled (in_campaigns).",
                   lambda df, ctx: df["live"], kind=DATA, width=8, hidden=True),
@@ -519,6 +521,7 @@ def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, t
     base["tkey"] = base["tkey_t"].map(lambda k: keys.ids.get(k, np.nan) if k else np.nan)
     base["nkey"] = base["nkey_t"].map(lambda k: keys.ids.get(k, np.nan))
     ctx = TermsContext(settings, blends.frame, keys.found, pairs)
+    base = with_blended(base, blends.frame, BLENDED)
     planned = plan_table(stock_as_values(DEFS, {"p_low"}, ranges), base, ctx, HEADER_ROW + 1, {**ranges, **key_ranges},
                          with_totals=False)
     for key, compute in LIST_WORKING:  # computed live on the list rows that show them, not on every term

@@ -15,7 +15,7 @@ from sheetbuilder.sheets.decisions import INVALID
 from sheetbuilder.errors import WARNING, Problem
 from sheetbuilder.sheets.followup import Followup
 from sheetbuilder.weekly.applied import followup_rows, number_or_none, same_exports, span_of
-from sheetbuilder.sheets.actions import ADDS, DEFS as ACTION_DEFS, KINDS, SHEET
+from sheetbuilder.sheets.actions import ADDS, DEFS as ACTION_DEFS, KINDS, SHEET, unlisted
 from sheetbuilder.values import is_blank, is_number
 from sheetbuilder.weekly.record import FIRST_ROW, SavedWorkbook, plan_saved
 from sheetbuilder.reading.settings import Settings
@@ -31,7 +31,9 @@ def computed_actions(saved: SavedWorkbook) -> tuple[list[tuple[int, list[Any]]],
     frame = plan.tables["Actions"].frame
     records = frame[list(KEYS)].itertuples(index=False, name=None)
     rows = [(FIRST_ROW + i, list(record)) for i, record in enumerate(records) if not is_blank(record[0])]
-    return rows, list(problems), plan.tables, saved.settings.fold_plurals
+    # A list whose cap is reached holds fewer changes than qualify: said, never dropped in silence.
+    beyond = [Problem(sheet, None, None, message) for sheet, message in unlisted(plan.tables)]
+    return rows, list(problems) + beyond, plan.tables, saved.settings.fold_plurals
 
 
 def check_change(row: int, values: list[Any], context: dict[str, Any]) -> list[Problem]:
