@@ -18,6 +18,7 @@ import openpyxl
 import pytest
 
 from sheetbuilder.reading.guard import UnsafeWorkbook
+from sheetbuilder.values import is_blank
 from sheetbuilder.weekly import fast_cells, sheet_xml
 from sheetbuilder.weekly.sheet_xml import CellReader, DamagedSheet, read_cells, read_keeping_rows, stream_cells
 from sheetbuilder.weekly.xlsx import XlsxFile
@@ -321,3 +322,40 @@ def test_libreoffice_saved_workbooks_read_to_the_same_values(libreoffice):
     for path in libreoffice.values():
         assert [] == _every_part_fast(path), path.name
         _same_workbook_both_ways(path)
+
+
+class _TypedOnly(set):
+    typed_only = True
+
+
+@pytest.mark.parametrize("name", sorted(READ_FAST))
+def test_a_stream_asking_for_typed_cells_alone_hands_over_every_typed_value_the_full_stream_does(name):
+    # Expected: the cells holding no formula and a value that are not blank, as the expat reader's full stream
+    # hands them over. The typed-only stream (the typed-over check's, once its header rows are found) is read
+    # fresh (checked) and again (a part checked before): each gives those cells, with the same values.
+    data = _sheet(READ_FAST[name])
+
+    def stream(columns, checked=None) -> dict:
+        cells: dict = {}
+        reader = _reader()
+        reader.checked, reader.part = checked, "sheet"
+        stream_cells(io.BytesIO(data), reader,
+                     lambda r, found: cells.update({(r, c): v for c, v in found.items()}) and None, columns)
+        return {at: value for at, (value, formula) in cells.items() if not formula and not is_blank(value)}
+    wanted = set(range(16))
+    with expat_only():
+        expected = stream(set(wanted))
+    checked: set = set()
+    assert expected == stream(_TypedOnly(wanted), checked)
+    assert expected == stream(_TypedOnly(wanted), checked)  # read again, not checked again
+    assert {"sheet"} == checked
+
+
+def test_a_stream_asking_for_typed_cells_alone_leaves_formula_and_empty_cells_unread():
+    # The point of asking: a row holding formulas and empty cells only is not handed over at all.
+    data = _sheet('<row r="1"><c r="A1"><f>B1</f><v>2</v></c><c r="B1" s="3"/><c r="C1"><v>7</v></c></row>'
+                  '<row r="2"><c r="A2"><f>B2</f><v>2</v></c><c r="B2" s="3"/></row>')
+    rows: list = []
+    stream_cells(io.BytesIO(data), _reader(), lambda r, cells: rows.append((r, dict(cells))) and None,
+                 _TypedOnly({0, 1, 2}))
+    assert [(0, {2: (7, False)})] == rows

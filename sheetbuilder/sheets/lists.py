@@ -68,6 +68,7 @@ class ListContext:
     terms: pd.DataFrame
     settings: Settings
     totals: dict[str, Any] = field(default_factory=dict)
+    term_rows: dict[int, dict] = field(default_factory=dict)  # {0-based Terms row: its values}, each taken once
 
 
 def _pick(column: str, text: bool = False):
@@ -90,8 +91,10 @@ def _derived(fn, formula: str):
     """A list column computed from the row's own values and its Terms row (_<column>) (blank where it is empty)."""
     def compute(df: pd.DataFrame, ctx: ListContext) -> pd.Series:
         rows = df.to_dict("records")
-        at = sorted({int(r["pos"]) - 1 for r in rows if not pd.isna(r["pos"])})
-        terms = dict(zip(at, ctx.terms.iloc[at].to_dict("records")))  # the Terms rows shown, each taken once
+        taken = ctx.term_rows  # the Terms rows shown, each taken once for all the list's columns
+        at = sorted({p for r in rows if not pd.isna(r["pos"]) and (p := int(r["pos"]) - 1) not in taken})
+        taken.update(zip(at, ctx.terms.iloc[at].to_dict("records")))
+        terms = taken
 
         def row(r: dict) -> dict:
             term = terms[int(r["pos"]) - 1]

@@ -183,8 +183,17 @@ def decision_column(result: CarryResult, sheet: str, rows: Iterable[Sequence[Any
     entry = entry_for(sheet)
     typed = result.decisions.get(sheet, {})
     fold = result.settings.fold_plurals
-    key_of = entry.key_of if result.inputs_as_saved else entry.export_key
-    return [typed.get(key_of(parts, fold)) for parts in rows]
+    return _looked_up(typed, entry.key_of if result.inputs_as_saved else entry.export_key, fold, rows)
+
+
+def _looked_up(typed: dict, key_of: Callable[[Sequence[Any], bool], tuple], fold: bool,
+               rows: Iterable[Sequence[Any]]) -> list[Any]:
+    """typed's value of each row's compared key (None where none); a row's whole key is made only when its first
+    part is one a value was typed for (most rows have none)."""
+    if not typed:
+        return [None for _ in rows]
+    firsts = {key[0] for key in typed if key}
+    return [typed.get(key_of(parts, fold)) if key_of(parts[:1], fold)[0] in firsts else None for parts in rows]
 
 
 @dataclass(frozen=True)
@@ -207,5 +216,4 @@ def keyed_column(result: CarryResult, label: str, typed: dict, rows: Iterable[Se
     rows as raw key tuples in key order (as :func:`decision_column` takes them)."""
     entry = edit_sheet_of(label)
     fold = result.settings.fold_plurals
-    key_of = entry.key_of if result.inputs_as_saved else entry.export_key
-    return [typed.get(key_of(parts, fold)) for parts in rows]
+    return _looked_up(typed, entry.key_of if result.inputs_as_saved else entry.export_key, fold, rows)

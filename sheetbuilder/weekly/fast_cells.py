@@ -57,6 +57,11 @@ _ROW = re.compile(rf'<row r="(?P<row>[0-9]+)"((?: [a-zA-Z][\w.:-]*={_VALUE})*)(?
 _FIND = (r'<c r="({})([0-9]+)"(?: s="([0-9]+)")?(?: t="([a-zA-Z]+)")?(?: ?/>|>(?:(<f)[^>]*?(?:/>|>[^<]*</f>))?'
          r'(?:<v>([^<]*)</v>|<v ?/>)?(?:<is><t[^>]*?(?:/>|>([^<]*)</t>)</is>)?</c>)')
 _ALL = re.compile(_FIND.format("[A-Z]{1,3}"))
+# The same for a caller asking for typed cells alone (see _pattern): a cell holding no formula and not written
+# empty (<c ../>), its formula group always ''.
+_FIND_TYPED = (r'<c r="({})([0-9]+)"(?: s="([0-9]+)")?(?: t="([a-zA-Z]+)")?>()(?!<f)'
+               r'(?:<v>([^<]*)</v>|<v ?/>)?(?:<is><t[^>]*?(?:/>|>([^<]*)</t>)</is>)?</c>')
+_ALL_TYPED = re.compile(_FIND_TYPED.format("[A-Z]{1,3}"))
 FEW = 48  # a read of at most this many columns finds only their cells (one pattern per set of columns)
 _BAD_AMP = re.compile(r"&(?!(?:lt|gt|amp|quot|apos|#[0-9]+|#x[0-9a-fA-F]+);)")
 _REF = re.compile(r"&(?:(lt)|(gt)|(amp)|(quot)|(apos)|#([0-9]+)|#x([0-9a-fA-F]+));")
@@ -132,10 +137,11 @@ Cell = tuple  # (letters, row digits, style, type, '<f' or '', saved value text,
 
 
 class _Patterns(dict):
-    """{frozenset of columns: the pattern finding only their cells}."""
+    """{(frozenset of columns, typed cells alone): the pattern finding only their cells}."""
 
-    def __missing__(self, columns: frozenset[int]) -> re.Pattern:
-        found = self[columns] = re.compile(_FIND.format("|".join(
+    def __missing__(self, key: tuple[frozenset[int], bool]) -> re.Pattern:
+        columns, typed = key
+        found = self[key] = re.compile((_FIND_TYPED if typed else _FIND).format("|".join(
             col_letter(c) for c in sorted(columns, reverse=True) if 0 <= c < 16384) or "(?!)"))
         return found
 
@@ -143,12 +149,21 @@ class _Patterns(dict):
 _PATTERNS = _Patterns()
 
 
+def typed_only(columns: set[int] | frozenset[int] | None) -> bool:
+    """Whether a caller asks for the typed cells of columns alone: a set whose attribute ``typed_only`` is true
+    (cells holding a formula, and cells written empty, need not be handed over; a reader may all the same)."""
+    return bool(getattr(columns, "typed_only", False))
+
+
 def _pattern(columns: set[int] | frozenset[int] | None) -> tuple[re.Pattern, frozenset[int] | None]:
-    """The pattern finding the cells of columns (all cells for None or many columns), and the columns it stands for."""
+    """The pattern finding the cells of columns (all cells for None or many columns; only the typed ones when the
+    caller asks, see :func:`typed_only`), and the columns it stands for."""
     if columns is None:
         return _ALL, None
-    used = frozenset(columns)
-    return (_ALL if len(used) > FEW else _PATTERNS[used]), used
+    used, typed = frozenset(columns), typed_only(columns)
+    if len(used) > FEW:
+        return (_ALL_TYPED if typed else _ALL), used
+    return _PATTERNS[(used, typed)], used
 
 
 def _decoded(cells: dict[int, Cell]) -> None:
@@ -283,6 +298,7 @@ def _again(handle: IO[bytes], columns_of: dict[str, int],
         pos: int | None = 0
         while pos is not None:
             pattern, used = _pattern(columns)
+            typed = typed_only(columns)
             rows = groupby(pattern.findall(data, pos), key=itemgetter(1))  # a checked part: rows in increasing order
             pos = None
             for digits, found in rows:
@@ -291,6 +307,7 @@ def _again(handle: IO[bytes], columns_of: dict[str, int],
                     continue
                 _decoded(cells)
                 yield int(digits) - 1, cells, None
-                if columns is not None and used != columns:  # the columns wanted changed: find again after this row
+                if columns is not None and (used != columns or typed != typed_only(columns)):
+                    # the columns wanted changed: find again after this row
                     pos = data.find("</row>", data.find(f'<row r="{digits}"')) + 6
                     break

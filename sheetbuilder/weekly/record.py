@@ -46,14 +46,19 @@ class NoActionsSheet(SheetbuilderError):
     """The workbook has no Actions sheet, or its header row is not the expected one."""
 
 
-def _saved_actions(book: SavedBook) -> list[tuple[int, list[Any]]]:
-    """[(sheet row, visible values)] of the Actions list as the file saved it (blank Kind = an empty row)."""
+def _saved_actions(book: SavedBook, kinds_only: bool = False) -> list[tuple[int, list[Any]]]:
+    """[(sheet row, visible values)] of the Actions list as the file saved it (blank Kind = an empty row).
+
+    kinds_only: read only the Kind column of a list its defined name finds (the other values None): a workbook
+    holding its inputs has its change list computed, and its saved Kinds only tell whether the file stores
+    formula values. A list found without its name is read whole, its header row checked.
+    """
     area = book.area(ACTIONS_NAME)
     first_col = area.first_col if area else 0
-    rows = book.rows(area.sheet if area else book.sheet(SHEET) or SHEET,
-                     frozenset(range(first_col, first_col + len(HEADERS))))
-    first_row = area.first_row if area else FIRST_ROW - 1
     width = len(HEADERS)
+    rows = book.rows(area.sheet if area else book.sheet(SHEET) or SHEET,
+                     frozenset({first_col} if kinds_only and area else range(first_col, first_col + width)))
+    first_row = area.first_row if area else FIRST_ROW - 1
     header = [rows[first_row - 1][first_col + i] if first_row - 1 < len(rows) and first_col + i < len(
         rows[first_row - 1]) else None for i in range(width)]
     got = tuple("" if h is None else str(h).strip() for h in header)
@@ -83,7 +88,8 @@ class SavedWorkbook:
             :func:`sheetbuilder.weekly.change_list.check_change`).
         history, history_problems: its History rows and why they could not be read (read for ``build
             --previous``).
-        actions: [(sheet row, visible values)] of its Actions list as saved (read for ``changes``).
+        actions: [(sheet row, visible values)] of its Actions list as saved (read for ``changes``; only the Kind
+            of each row when it holds inputs: its list is then computed).
         followup: [(sheet row, {column key: value})] of its Follow-up's "Last week's changes" (read for
             ``changes --include-unapplied``).
         planned, plan_problems: the workbook planned again from its inputs and typed edits (as the build
@@ -224,8 +230,8 @@ def _record(book: SavedBook, for_changes: bool, followup: bool) -> SavedWorkbook
     names = list(book.sheetnames)
     if for_changes and book.sheet(SHEET) is None:
         raise NoActionsSheet(f"{book.path.name} has no {SHEET} sheet; build it with a sheetbuilder that writes one")
-    actions = _saved_actions(book) if for_changes else []
     holds_inputs = not for_changes or all(book.sheet(s) is not None for s in ("in_catalog", "Settings"))
+    actions = _saved_actions(book, kinds_only=holds_inputs) if for_changes else []
     if not holds_inputs:
         if actions and all(is_blank(v) for _, values in actions for v in values):
             raise NoActionsSheet(f"{book.path.name} stores no values on {SHEET} and holds no inputs to "

@@ -428,7 +428,10 @@ def stream_cells(handle: IO[bytes], reader: CellReader,
     """Hand each row of a worksheet part to on_row as it is read: (0-based row, {column: (value, holds a formula)}).
 
     Only the cells of columns are read when given (a set on_row may change between rows); rows
-    without such cells are not handed over. A formula cell reads as (None, True), its saved value unread.
+    without such cells are not handed over. A set asking for typed cells alone (its attribute ``typed_only``,
+    :func:`sheetbuilder.weekly.fast_cells.typed_only`) may also go without its formula and empty cells: the
+    regular-expression reader leaves them unread, the expat reader hands them over all the same.
+    A formula cell reads as (None, True), its saved value unread.
     on_row returns True to stop reading. Memory holds one row at a time.
 
     Raises:

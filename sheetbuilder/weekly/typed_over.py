@@ -38,6 +38,18 @@ class _Layout:
     rows: int
     decl: EditableColumns | None
 
+    @property
+    def fewest(self) -> int:
+        """The fewest text cells a row holds to be taken for this table's header row (a header text may stand more
+        than once); a row with fewer is not compared with the headers at all."""
+        need = max(1, HEADER_SHARE * len(self.headers))
+        reached = 0
+        for n, count in enumerate(sorted((self.headers.count(h) for h in set(self.headers)), reverse=True), 1):
+            reached += count
+            if reached >= need:
+                return n
+        return len(self.headers) + 1  # no row can be taken for it
+
 
 def _layout(table: Table, decl: EditableColumns | None) -> _Layout:
     headers = [c.header for c in table.columns]
@@ -58,6 +70,13 @@ def _decls(spec_tables: dict[int, str]) -> dict[int, EditableColumns]:
     return {ident: by_key[key] for ident, key in spec_tables.items() if key in by_key}
 
 
+class _Wanted(set):
+    """The columns a stream of the check reads; ``typed_only`` once only their typed cells matter (a reader may then
+    leave formula cells unread, :func:`sheetbuilder.weekly.fast_cells.typed_only`)."""
+
+    typed_only = False
+
+
 class _SheetCheck:
     """The streamed check of one saved sheet: its tables' header rows found in order, then their bodies read."""
 
@@ -70,14 +89,18 @@ class _SheetCheck:
         self.saved_headers: dict[int, str] = {}
         # Read until the last table's header row is found: the columns a header row can reach (tables start at
         # column A; a user may insert columns); then only the columns checked.
-        self.columns = set(range(max(len(t.headers) for t in layouts) + INSERTED_COLUMNS))
-        self.found: list[Problem] = []
+        self.columns = _Wanted(range(max(len(t.headers) for t in layouts) + INSERTED_COLUMNS))
+        self.found: list[Problem | None] = []  # None: a typed cell whose row's keys are read after the stream
+        self.unnamed: dict[int, tuple[int, list[int], _Layout, int, Any, str]] = {}  # {index in found: its cell}
+        self.fewest = [t.fewest for t in layouts]
 
     def _header(self, r: int, cells: dict[int, tuple[Any, bool]]) -> bool:
         """Whether the row is the next table's header row (and if so, map its columns)."""
         if self.next >= len(self.layouts):
             return False
         layout = self.layouts[self.next]
+        if len(cells) < self.fewest[self.next]:  # too few cells to hold enough of its headers
+            return False
         texts = {c: key_text(v) for c, (v, formula) in cells.items() if isinstance(v, str) and not formula}
         present = set(texts.values())
         if sum(h in present for h in layout.headers) < max(1, HEADER_SHARE * len(layout.headers)):
@@ -93,9 +116,10 @@ class _SheetCheck:
         self.saved_headers = texts
         self.current, self.last = layout, r + layout.rows
         self.next += 1
-        if self.next == len(self.layouts):  # no header left to look for: only the checked columns are read
-            self.columns.clear()
-            self.columns.update(self.at.get(i, -1) for i in (*layout.formulas, *layout.keys))
+        if self.next == len(self.layouts):  # no header left to look for: only the typed cells of its formula
+            self.columns.clear()           # columns are read (the keys of a row holding one are read after)
+            self.columns.update(self.at.get(i, -1) for i in layout.formulas)
+            self.columns.typed_only = True
         return True
 
     def row(self, r: int, cells: dict[int, tuple[Any, bool]]) -> bool:
@@ -110,10 +134,34 @@ class _SheetCheck:
             value, formula = cells.get(c, (None, False))
             if formula or is_blank(value):
                 continue
-            key = " / ".join(key_text(cells.get(self.at.get(k, -1), (None, False))[0]) for k in layout.keys)
             header = self.saved_headers.get(c) or layout.headers[i]
+            keys = [self.at.get(k, -1) for k in layout.keys]
+            if self.columns.typed_only:
+                self.unnamed[len(self.found)] = (r, keys, layout, i, value, header)
+                self.found.append(None)
+                continue
+            key = " / ".join(key_text(cells.get(k, (None, False))[0]) for k in keys)
             self.found.append(Problem(self.sheet, r + 1, header, _message(layout, i, key, value), WARNING))
         return self.next >= len(self.layouts) and r >= self.last
+
+    def named(self, book: Any) -> list[Problem]:
+        """The problems found, each typed cell read without its row's keys named by them (the sheet read again
+        for those rows' key cells alone: only when a cell was typed over)."""
+        if self.unnamed:
+            rows = {r for r, *_ in self.unnamed.values()}
+            last, columns = max(rows), {k for _, keys, *_ in self.unnamed.values() for k in keys}
+            found: dict[int, dict[int, tuple[Any, bool]]] = {}
+
+            def keep(r: int, cells: dict[int, tuple[Any, bool]]) -> bool:
+                if r in rows:
+                    found[r] = cells
+                return r >= last
+            if columns:
+                book.stream(self.sheet, keep, columns)
+            for at, (r, keys, layout, i, value, header) in self.unnamed.items():
+                key = " / ".join(key_text(found.get(r, {}).get(k, (None, False))[0]) for k in keys)
+                self.found[at] = Problem(self.sheet, r + 1, header, _message(layout, i, key, value), WARNING)
+        return [p for p in self.found if p is not None]
 
 
 def _message(layout: _Layout, column: int, key: str, value: Any) -> str:
@@ -148,5 +196,5 @@ def typed_over(book: Any, spec: WorkbookSpec, tables: dict[str, Any]) -> list[Pr
             continue
         check = _SheetCheck(now, [_layout(t, decls.get(id(t.columns))) for t in sorted(planned, key=lambda t: t.first_row)])
         book.stream(now, check.row, check.columns)
-        out += check.found
+        out += check.named(book)
     return out
