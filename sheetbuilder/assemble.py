@@ -88,6 +88,7 @@ class Assembly:
     layouts: dict[str, InputSheet]
     decide: Decisions
     keyword_history: PackedHistory | None = None
+    leave_out: frozenset[str] = frozenset()  # the steps not run (see plan_workbook)
     elasticity: ElasticityEstimate | None = None  # the click elasticity estimated from the keyword history
     anchors: Anchors = field(default_factory=Anchors)
     groups: PlannedTable | None = None  # the ad-group blends Bids and Terms read (a sheet only when one of them is)
@@ -127,7 +128,7 @@ def _inputs(a: Assembly) -> None:
 
 
 def _settings(a: Assembly) -> None:
-    if a.keyword_history is not None:
+    if a.keyword_history is not None and "keyword_history" not in a.leave_out:  # shown beside it, used by none
         a.elasticity = estimate_elasticity(a.keyword_history.rows)
     beside = {"click_elasticity": a.elasticity.text()} if a.elasticity is not None else None
     sheet, names = plan_settings(a.settings, a.built_on, a.inputs.period,
@@ -285,6 +286,11 @@ def _carried(a: Assembly) -> None:
     _with_marks(a, carried_marks(a.carry, a.tables, catalog, a.layouts))
 
 
+# The steps a change list and the check of cells typed over a formula need none of (``changes`` leaves them out):
+# they plan no table holding formulas and provide no anchor another step reads; the Keyword history's packed weeks
+# and the click elasticity estimated from them are shown, never used.
+NOT_FOR_CHANGES = frozenset({"keyword_history", "guide"})
+
 # The steps in the order they must run: each reads only anchors the steps before it provide.
 STEPS: tuple[Step, ...] = (
     Step("inputs", _inputs),
@@ -310,7 +316,7 @@ STEPS: tuple[Step, ...] = (
 def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
                   warnings: list[Problem] | None = None, carry: CarryResult | None = None,
                   followup: Followup | None = None, history: list[dict] | None = None,
-                  keyword_history: PackedHistory | None = None) -> Plan:
+                  keyword_history: PackedHistory | None = None, leave_out: frozenset[str] = frozenset()) -> Plan:
     """Plan every sheet from validated inputs: pure, writes nothing.
 
     Args:
@@ -322,6 +328,8 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
         followup: last week's changes looked up in this week's exports (a Follow-up sheet after Actions).
         history: the History rows carried from the previous workbook (a History sheet; None: no sheet).
         keyword_history: the keyword history to write (a Keyword history sheet; None: no sheet).
+        leave_out: names of steps not to run (``NOT_FOR_CHANGES``: a plan for a change list, not for a workbook;
+            the keyword history's totals alone are then read, :func:`sheetbuilder.sheets.keyword_weeks.packed`).
 
     Returns:
         The plan: the workbook spec and each computed table's reference frame.
@@ -329,10 +337,10 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
     exported = carry.exported if carry is not None else {}
     input_sheets, layouts = plan_input_sheets(inputs, settings.fold_plurals, exported)
     a = Assembly(inputs, settings, built_on, warnings or [], carry, followup, history, layouts, Decisions(carry),
-                 keyword_history)
+                 keyword_history, frozenset(leave_out))
     a.place("inputs", *input_sheets)
     for step in STEPS:
-        if all(need in a.anchors.tables() for need in step.needs) and step.when(a):
+        if step.name not in a.leave_out and all(need in a.anchors.tables() for need in step.needs) and step.when(a):
             step.run(a)
     names = [*a.names, *catalog_names(layouts), *edit_names(a.tables)]
     sheets = [s for where in SHEET_ORDER for s in a.sheets.get(where, [])]

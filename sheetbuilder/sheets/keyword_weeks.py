@@ -208,10 +208,14 @@ def _texts(values: list[float]) -> list[str]:
     return ["" if v != v else (str(int(v)) if v.is_integer() and -1e15 < v < 1e15 else repr(v)) for v in values]
 
 
-def packed_rows(history: KeywordHistory) -> list[dict[str, Any]]:
-    """One record per keyword and product target: its keys, totals and packed weeks (oldest first), in key order."""
+def packed_rows(history: KeywordHistory, texts: bool = True) -> list[dict[str, Any]]:
+    """One record per keyword and product target: its keys, totals and packed weeks (oldest first), in key order.
+
+    texts: False leaves out the packed weeks (the periods and each metric's items): the totals alone, which is
+    all Bids reads (``changes`` plans no Keyword history sheet).
+    """
     order = {p: i for i, p in enumerate(history.periods())}
-    texts = {p: period_text(p) for p in order}
+    period_texts = {p: period_text(p) for p in order}
     out = []
     shown = history.shown
     for key in sorted(history.weeks, key=lambda k: (shown.get(k, k), k)):
@@ -220,11 +224,13 @@ def packed_rows(history: KeywordHistory) -> list[dict[str, Any]]:
         row: dict[str, Any] = dict(zip((k for k, _, _ in KEYS), shown.get(key, key)))
         row["key"] = key
         row["weeks"] = float(len(periods))
-        row["periods"] = SEPARATOR.join([texts[p] for p in periods])
+        if texts:
+            row["periods"] = SEPARATOR.join([period_texts[p] for p in periods])
         figures = [by_period[p] for p in periods]
         for i, metric in enumerate(METRICS):
             values = [f[i] for f in figures]
-            row[metric + "_packed"] = SEPARATOR.join(_texts(values))
+            if texts:
+                row[metric + "_packed"] = SEPARATOR.join(_texts(values))
             if metric != "bid":
                 row[metric] = round(math.fsum(v for v in values if v == v), 9)
         priced = [f for f in figures if f[5] == f[5] and f[1] == f[1]]  # weeks whose bid in force is known
@@ -269,9 +275,11 @@ class PackedHistory:
         return lambda rows: [totals.get(history_key(tuple(map(str, parts)), exported)) for parts in rows]
 
 
-def packed(history: KeywordHistory, dropped: list[Period] = (), current: Period | None = None) -> PackedHistory:
-    """The history packed for the sheet (rows in key order); current: this build's week, if recorded."""
-    return PackedHistory(packed_rows(history), history.periods(), list(dropped),
+def packed(history: KeywordHistory, dropped: list[Period] = (), current: Period | None = None,
+           texts: bool = True) -> PackedHistory:
+    """The history packed for the sheet (rows in key order); current: this build's week, if recorded; texts:
+    False for the totals alone (see :func:`packed_rows`)."""
+    return PackedHistory(packed_rows(history, texts), history.periods(), list(dropped),
                          current if current is not None and current in history.recorded else None)
 
 

@@ -16,7 +16,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from sheetbuilder.assemble import Plan, plan_workbook
+from sheetbuilder.assemble import NOT_FOR_CHANGES, Plan, plan_workbook
 from sheetbuilder.errors import ERROR, Problem, SheetbuilderError
 from sheetbuilder.reading.account import ACCOUNT_NAME
 from sheetbuilder.reading.guard import reading
@@ -158,10 +158,12 @@ def _followup_rows(book: SavedBook) -> list[tuple[int, dict[str, Any]]]:
             for r in range(area.first_row, min(area.last_row, len(rows) - 1) + 1)]
 
 
-def plan_saved(saved: SavedWorkbook) -> tuple[Plan, list[Problem]]:
+def plan_saved(saved: SavedWorkbook, for_changes: bool = False) -> tuple[Plan, list[Problem]]:
     """The saved workbook planned again from the inputs and typed edits it holds, as the build planned it,
     and the problems of its typed edits (a Decision that is not valid, a column lost, a copy not read).
 
+    for_changes: plan what the change list and the typed-over check read, not the sheets only shown
+    (:data:`sheetbuilder.assemble.NOT_FOR_CHANGES`): the same tables, formulas and values.
     Pure: the record was read and the file may be closed; a failure here is a bug, not a damaged file.
     """
     settings, edits = saved.settings, saved.edits
@@ -190,8 +192,9 @@ def plan_saved(saved: SavedWorkbook) -> tuple[Plan, list[Problem]]:
     # Bids read its keyword history's totals when the build recorded its own week: planned again from the same
     history = saved.keyword_history
     problems += [p for p in saved.keyword_history_problems if p.severity == ERROR]
-    keywords = packed(history, current=history.current) if history is not None else None
-    return plan_workbook(Inputs(tables), settings, saved.built_on, [], carry, keyword_history=keywords), problems
+    keywords = packed(history, current=history.current, texts=not for_changes) if history is not None else None
+    return plan_workbook(Inputs(tables), settings, saved.built_on, [], carry, keyword_history=keywords,
+                         leave_out=NOT_FOR_CHANGES if for_changes else frozenset()), problems
 
 
 def read_saved_workbook(path: Path, unreadable: type[SheetbuilderError] = NotAWorkbook,
@@ -219,7 +222,7 @@ def read_saved_workbook(path: Path, unreadable: type[SheetbuilderError] = NotAWo
         with reading(path, unreadable):
             record = _record(book, for_changes, followup)
         if record.holds_inputs:
-            record.planned, record.plan_problems = plan_saved(record)
+            record.planned, record.plan_problems = plan_saved(record, for_changes)
             with reading(path, unreadable):
                 record.typed_over = typed_over(book, record.planned.spec, record.planned.tables)
     return record
