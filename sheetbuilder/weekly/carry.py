@@ -168,15 +168,17 @@ def _located(book: SavedBook, names: dict[str, str], headers: dict[str, str], sh
     return body, cols
 
 
-def _read_block(book: SavedBook, entry: EditSheet, sheet: str, by_name: bool = True) -> dict[tuple, Any] | None:
+def _read_block(book: SavedBook, entry: EditSheet, sheet: str, by_name: bool = True,
+                notes: bool = True) -> dict[tuple, Any] | None:
     """{raw key tuple: value} of every non-blank typed cell of a table (on sheet when not found by its defined
-    names, or not by_name: a copy); None when the table was not found."""
+    names, or not by_name: a copy); None when the table was not found. notes: read its Notes and own columns in
+    the same pass (for notes_in)."""
     decl = entry.decl
     wanted = (*decl.keys, decl.value)
     names = {k: decl.name_of(k) for k in wanted} if by_name else {}
     headers = {k: decl.headers[k] for k in wanted}
     found = _located(book, names, headers, sheet, entry.scan_rows, decl.value,
-                     _notes_columns(book, decl) if by_name else frozenset())
+                     _notes_columns(book, decl) if by_name and notes else frozenset())
     if found is None:
         return None
     body, cols = found
@@ -281,8 +283,9 @@ def _was_built(book: SavedBook, entry: EditSheet, sheet: str) -> bool:
     return _header_index(book.rows(sheet), [k.header for k in entry.keys], entry.scan_rows) is not None
 
 
-def edits_in(book: SavedBook) -> Edits:
-    """Everything a user typed in an opened saved workbook (see :func:`read_edits`)."""
+def edits_in(book: SavedBook, notes: bool = True) -> Edits:
+    """Everything a user typed in an opened saved workbook (see :func:`read_edits`); notes: False leaves the Notes
+    and own columns unread (``changes`` plans its change list from the typed values alone)."""
     settings = _settings_cells(book)
     catalog_sheet = book.sheet(CATALOG_SHEET) or CATALOG_SHEET
     catalog_names: dict[str, Any] = {}
@@ -294,7 +297,7 @@ def edits_in(book: SavedBook) -> Edits:
     targets: dict[str, Any] = {}
     for entry in (*DECISION_SHEETS, PROFIT_TARGET):
         sheet = book.sheet(entry.sheet) or entry.sheet  # its tab may have been renamed
-        found = _read_block(book, entry, sheet)
+        found = _read_block(book, entry, sheet, notes=notes)
         copied += _copied(book, entry.sheet, "Decisions" if entry.value_header == "Decision" else
                           f"{entry.value_header!r} values", found or {},
                           lambda copy, entry=entry: _read_block(book, entry, copy, by_name=False) or {})
@@ -310,9 +313,9 @@ def edits_in(book: SavedBook) -> Edits:
         elif found:
             decisions.setdefault(entry.label, {}).update(found)
     built = book.named_value("built_on")
-    notes, own, own_refused = notes_in(book)
+    kept, own, own_refused = notes_in(book) if notes else ({}, {}, [])
     return Edits(str(book.path), settings, catalog, targets, decisions, lost, _first_typed(book),
-                 built.date() if isinstance(built, dt.datetime) else built, notes, own, own_refused, copied,
+                 built.date() if isinstance(built, dt.datetime) else built, kept, own, own_refused, copied,
                  catalog_names=catalog_names)
 
 

@@ -247,7 +247,7 @@ def _record(book: SavedBook, for_changes: bool, followup: bool) -> SavedWorkbook
     history, history_problems = ([], []) if for_changes else read_history(book)
     keywords, keyword_problems = read_keyword_history(book)  # Bids read its totals: `changes` plans with it
     return SavedWorkbook(book.path, names, tables=tables, settings=settings, built_on=built_on,
-                         edits=edits_in(book), problems=problems, context=read_context(book),
+                         edits=edits_in(book, notes=not for_changes), problems=problems, context=read_context(book),
                          history=history, history_problems=history_problems, actions=actions,
                          followup=_followup_rows(book) if followup else [],
                          account_name=str(book.named_value(ACCOUNT_NAME) or ""),
