@@ -71,10 +71,11 @@ def _decls(spec_tables: dict[int, str]) -> dict[int, EditableColumns]:
 
 
 class _Wanted(set):
-    """The columns a stream of the check reads; ``typed_only`` once only their typed cells matter (a reader may then
-    leave formula cells unread, :func:`sheetbuilder.weekly.fast_cells.typed_only`)."""
+    """The columns a stream of the check reads, their typed cells alone: a header row holds typed text, and a
+    cell typed over a formula is typed (a reader may leave formula cells unread,
+    :func:`sheetbuilder.weekly.fast_cells.typed_only`; one that hands them over is read the same)."""
 
-    typed_only = False
+    typed_only = True
 
 
 class _SheetCheck:
@@ -88,11 +89,12 @@ class _SheetCheck:
         self.at: dict[int, int] = {}  # planned column -> saved column
         self.saved_headers: dict[int, str] = {}
         # Read until the last table's header row is found: the columns a header row can reach (tables start at
-        # column A; a user may insert columns); then only the columns checked.
+        # column A; a user may insert columns), their typed cells; then only the typed cells of the columns checked.
         self.columns = _Wanted(range(max(len(t.headers) for t in layouts) + INSERTED_COLUMNS))
         self.found: list[Problem | None] = []  # None: a typed cell whose row's keys are read after the stream
         self.unnamed: dict[int, tuple[int, list[int], _Layout, int, Any, str]] = {}  # {index in found: its cell}
         self.fewest = [t.fewest for t in layouts]
+        self.keys_read = True  # the columns read hold the current table's keys (until its last header row is found)
 
     def _header(self, r: int, cells: dict[int, tuple[Any, bool]]) -> bool:
         """Whether the row is the next table's header row (and if so, map its columns)."""
@@ -119,7 +121,7 @@ class _SheetCheck:
         if self.next == len(self.layouts):  # no header left to look for: only the typed cells of its formula
             self.columns.clear()           # columns are read (the keys of a row holding one are read after)
             self.columns.update(self.at.get(i, -1) for i in layout.formulas)
-            self.columns.typed_only = True
+            self.keys_read = False
         return True
 
     def row(self, r: int, cells: dict[int, tuple[Any, bool]]) -> bool:
@@ -136,7 +138,7 @@ class _SheetCheck:
                 continue
             header = self.saved_headers.get(c) or layout.headers[i]
             keys = [self.at.get(k, -1) for k in layout.keys]
-            if self.columns.typed_only:
+            if not self.keys_read:
                 self.unnamed[len(self.found)] = (r, keys, layout, i, value, header)
                 self.found.append(None)
                 continue
