@@ -229,3 +229,29 @@ def test_a_sheet_streams_row_by_row_with_formula_presence_not_values_and_stops_w
     stream_cells(io.BytesIO(part), CellReader([], set(), float), lambda r, cells: seen.append((r, cells)) or r >= 2,
                  columns={0, 1})
     assert [(0, {0: ("Key", False), 1: (None, True)}), (2, {0: (4, False), 1: (None, True)})] == seen
+
+
+@pytest.mark.parametrize("moved", [-8, 3])
+def test_a_value_typed_in_a_table_below_a_table_of_rows_deleted_or_inserted_is_still_reported(demo, tmp_path, moved):
+    # The check compares few of the rows above the clash table with its headers (too short to be its header row): it is
+    # still found wherever rows deleted (-8) or inserted (3) in the key table above have moved it.
+    where = []
+
+    def edit(wb):
+        ws = wb["Keys"]
+        top, _ = _header(ws, "Key")
+        if moved < 0:
+            ws.delete_rows(top + 2, -moved)
+        else:
+            ws.insert_rows(top + 2, moved)
+            for r in range(top + 2, top + 2 + moved):
+                ws.cell(r, 1).value, ws.cell(r, 2).value = 9000 + r, "typed key"
+        header = next(r for r in range(top + 1, ws.max_row + 1) if ws.cell(r, 1).value == "Negative from term")
+        headers = [c.value for c in ws[header]]
+        cell = ws.cell(header + 1, headers.index("Blocks") + 1)
+        assert str(cell.value).startswith("=")
+        cell.value = 1
+        where.append(("Keys", cell.row, "Blocks"))
+    edited = _edited(demo, tmp_path / "moved.xlsx", edit)
+    result = export_changes(edited, tmp_path / "changes.csv")
+    assert where == [(p.file, p.row, p.column) for p in result.overwritten]
