@@ -219,3 +219,22 @@ def test_zero_order_threshold_agrees_with_the_rule_of_three(tmp_path):
     n = int(cached["Reason"].split()[3])  # the zero-order clicks the rule read on Groups
     assert abs(n - 3 / 0.10) / (3 / 0.10) < 0.05
     assert 0.50 == pytest.approx(cached["Proposed bid"])  # cut by the default maximum cut, 50%
+
+
+@pytest.mark.slow  # a build and a recalculation: out of the fast lane, which must stay under two minutes
+def test_a_keyword_whose_history_has_decided_is_cut_within_its_exploration_allowance(tmp_path):
+    # 9 clicks, no order, 15.00 spent at a 3.00 bid: well within an allowance of 3 orders x 30% x 25.00 = 22.50, so
+    # the allowance alone would hold it ("exploring"). Its posterior (the fallback prior: 20 clicks at the product's
+    # 10%, Beta(2, 18), then 9 clicks without an order) makes a click worth less than it costs with probability
+    # scipy.stats.beta.cdf(CPC / (order value x target), 2, 27) >= 90%: the history has decided, and the cut on
+    # evidence comes first, to the value bid, past the maximum cut (study/gap.md).
+    folder = _tiny_account(tmp_path, "widget,exact,enabled,3.00,5000,9,15,0,0", "exploration_orders = 3\n")
+    cached, recalculated = _only_bid_row(folder, tmp_path)
+    ratio = 15 / (9 * 3.00)
+    p_waste = stats.beta.cdf(ratio * 3.00 / (25.0 * 0.30), 2, 27)
+    assert p_waste >= 0.90
+    assert p_waste == pytest.approx(cached["Waste probability"], rel=1e-9)
+    value_bid = stats.beta(2, 27).mean() * 25.0 * 0.30 / ratio
+    assert "cut on evidence: likely waste" == cached["Reason"] == recalculated["Reason"]
+    assert round(value_bid, 2) == pytest.approx(cached["Proposed bid"]) == pytest.approx(recalculated["Proposed bid"])
+    assert cached["Proposed bid"] < 3.00 * 0.5  # past the maximum cut
