@@ -18,7 +18,10 @@ what the study reads, and they come from the references):
   posterior value bid, and the waste cut applies as it is;
 - ``no step caps``: max_bid_raise 5 and max_bid_cut 0.95 (settings);
 - ``steps up to x2 and /2``: max_bid_raise 1.0 and max_bid_cut 0.5 (settings);
-- ``ceiling's aim``: click_elasticity 0.7, the market's own (settings).
+- ``ceiling's aim``: click_elasticity 0.7, the market's own (settings);
+- ``history: ...``: the rule's branch for a keyword with no orders yet read in another order (HISTORY_RULES: the
+  cut on evidence before the minimum-clicks hold or before the exploration allowance, with or without the
+  minimum-clicks hold and the zero-order cut). "evidence before allowance" is what Bids now does.
 
 Each row is measured against the manual rule and the ceiling on the same markets (paired by seed), as in
 study/run_study.py.
@@ -201,38 +204,43 @@ def variants() -> dict[str, GapMethod]:
     }
 
 
+def _per_variant(results: dict, names: list[str], cells) -> list[str]:
+    """One Markdown row per scenario and variant; cells(by_policy, name, base) gives the cells after the names (base:
+    the method with its defaults, None on its own row)."""
+    return [f"| {scenario} | {name} | " + " | ".join(cells(by_policy, name, None if name == names[0] else names[0]))
+            + " |" for scenario, by_policy in results.items() for name in names]
+
+
+def _paired(by_policy: dict, name: str, base: str | None, key: str) -> str:
+    """name's mean paired difference from base in one measure and its 95% interval ("" without a base)."""
+    j = MEASURES.index(key)
+    return "" if base is None else _interval(by_policy[name][:, j] - by_policy[base][:, j], key)
+
+
 def table(results: dict, names: list[str]) -> list[str]:
     """Per scenario and variant: share of the ceiling's gain, in band of the aim at week 8, never-converting spend,
     and the profit difference against the method with its defaults (paired, 95% interval)."""
-    j_profit, j_aim, j_dead = (MEASURES.index(k) for k in ("profit", "in_aim_8", "dead_spend"))
-    lines = ["| scenario | variant | share of ceiling's gain [95% CI] | in band of aim, wk 8 | never-converting spend "
-             "(manual rule) | profit - method defaults [95% CI] |", "| --- | --- | ---: | ---: | ---: | ---: |"]
-    for scenario, by_policy in results.items():
-        base = by_policy[names[0]]
-        for name in names:
-            values = by_policy[name]
-            dead = f"{values[:, j_dead].mean():,.0f} ({by_policy[MANUAL][:, j_dead].mean():,.0f})"
-            diff = "" if name == names[0] else _interval(values[:, j_profit] - base[:, j_profit], "profit")
-            lines.append(f"| {scenario} | {name} | {_share_text(ceiling_share(by_policy, name))} | "
-                         f"{values[:, j_aim].mean() * 100:.1f}% | {dead} | {diff} |")
-    return lines
+    j_aim, j_dead = (MEASURES.index(k) for k in ("in_aim_8", "dead_spend"))
+
+    def cells(by_policy, name, base):
+        values = by_policy[name]
+        return [_share_text(ceiling_share(by_policy, name)), f"{values[:, j_aim].mean() * 100:.1f}%",
+                f"{values[:, j_dead].mean():,.0f} ({by_policy[MANUAL][:, j_dead].mean():,.0f})",
+                _paired(by_policy, name, base, "profit")]
+    return ["| scenario | variant | share of ceiling's gain [95% CI] | in band of aim, wk 8 | never-converting spend "
+            "(manual rule) | profit - method defaults [95% CI] |", "| --- | --- | ---: | ---: | ---: | ---: |"] + \
+        _per_variant(results, names, cells)
 
 
 def changes_table(results: dict, names: list[str]) -> list[str]:
     """Per scenario and variant, paired against the method with its defaults (95% intervals): the never-converting
     spend, the same against the manual rule, and the keywords in band of the aim at week 8 (points)."""
-    j_aim, j_dead = (MEASURES.index(k) for k in ("in_aim_8", "dead_spend"))
-    lines = ["| scenario | variant | never-converting spend - method defaults [95% CI] | never-converting spend - "
-             "manual rule [95% CI] | in band of aim, wk 8 - method defaults [95% CI] |", "| --- | --- | ---: | ---: | ---: |"]
-    for scenario, by_policy in results.items():
-        base = by_policy[names[0]]
-        for name in names:
-            values = by_policy[name]
-            own = "" if name == names[0] else _interval(values[:, j_dead] - base[:, j_dead], "dead_spend")
-            aim = "" if name == names[0] else _interval(values[:, j_aim] - base[:, j_aim], "in_aim_8")
-            lines.append(f"| {scenario} | {name} | {own} | "
-                         f"{_interval(values[:, j_dead] - by_policy[MANUAL][:, j_dead], 'dead_spend')} | {aim} |")
-    return lines
+    def cells(by_policy, name, base):
+        return [_paired(by_policy, name, base, "dead_spend"), _paired(by_policy, name, MANUAL, "dead_spend"),
+                _paired(by_policy, name, base, "in_aim_8")]
+    return ["| scenario | variant | never-converting spend - method defaults [95% CI] | never-converting spend - "
+            "manual rule [95% CI] | in band of aim, wk 8 - method defaults [95% CI] |",
+            "| --- | --- | ---: | ---: | ---: |"] + _per_variant(results, names, cells)
 
 
 def main(argv: list[str] | None = None) -> int:
