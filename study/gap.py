@@ -18,7 +18,10 @@ what the study reads, and they come from the references):
   posterior value bid, and the waste cut applies as it is;
 - ``no step caps``: max_bid_raise 5 and max_bid_cut 0.95 (settings);
 - ``steps up to x2 and /2``: max_bid_raise 1.0 and max_bid_cut 0.5 (settings);
-- ``ceiling's aim``: click_elasticity 0.7, the market's own (settings).
+- ``ceiling's aim``: click_elasticity 0.7, the market's own (settings);
+- ``history: ...``: the rule's branch for a keyword with no orders yet read in another order (HISTORY_RULES: the
+  cut on evidence before the minimum-clicks hold or before the exploration allowance, with or without the
+  minimum-clicks hold and the zero-order cut). "evidence before allowance" is what Bids now does.
 
 Each row is measured against the manual rule and the ceiling on the same markets (paired by seed), as in
 study/run_study.py.
@@ -60,6 +63,7 @@ class Swaps:
     true_cvr: bool = False
     oracle: bool = False  # true order value and ratio, rules without data guards
     no_guards: bool = False  # the rules without their data guards (posterior values as they are)
+    history: str = ""  # a history-aware rule order (see HISTORY_RULES), or "" for the library's
 
 
 @dataclass
@@ -106,6 +110,8 @@ class GapMethod(WeeklyMethod):
         return bids_module.waste_at(df, ctx, self._yardstick(df))
 
     def _rule(self, df, ctx):
+        if self.swaps.history:
+            return history_rule(df, ctx, self.swaps.history)
         if not (self.swaps.oracle or self.swaps.no_guards):
             return bids_module._rule(df, ctx)
         s, value, bid = ctx.settings, df["value_bid"], df["bid"]
@@ -126,6 +132,58 @@ class GapMethod(WeeklyMethod):
             bids_module.DEFS[:] = saved
 
 
+# History-aware rule orders tried for the zero-order keywords (keywords with orders keep the library's rules):
+# "evidence first": the waste cut applies before the minimum-clicks hold (only the exploration allowance and
+#   no clicks at all still hold before it);
+# "no minimum clicks": also no hold for fewer than min_clicks history clicks: past the allowance, a zero-order
+#   keyword steps toward its value bid (down) or is held where that is above its bid (no orders yet: not raised);
+# "no zero-order cut": also no binomial zero-order cut: the posterior (the waste cut, the value bid) decides;
+# "evidence before allowance": "no minimum clicks" with the waste cut also before the exploration allowance;
+# "allowance steps down": "no minimum clicks", and within the allowance a keyword whose value bid (from its
+#   posterior, mostly the prior) lies below its bid steps toward it like any other; the allowance holds it only
+#   from the waste cut and the zero-order cut, and from a raise.
+HISTORY_RULES = {"evidence first": (True, False, False, False, False),
+                 "no minimum clicks": (True, True, False, False, False),
+                 "no zero-order cut": (True, True, True, False, False),
+                 "evidence before allowance": (True, True, False, True, False),
+                 "allowance steps down": (True, True, False, False, True)}
+
+
+def history_rule(df: pd.DataFrame, ctx, name: str) -> pd.Series:
+    """The Bids rule with the zero-order branch reordered as HISTORY_RULES[name] says."""
+    evidence_first, no_min, no_zero_cut, before_allowance, steps_down = HISTORY_RULES[name]
+    s = ctx.settings
+    base = bids_module._rule(df, ctx)
+    allowance = s.exploration_orders * df["target_acos"] * bids_module._order_value(df, ctx)
+    out = []
+    for rule, clicks, orders, spend, allow, n, value, bid, waste in zip(
+            base, df["h_clicks"], df["h_orders"], df["h_spend"], allowance, df["n_zero"], df["value_bid"],
+            df["bid"], df["p_waste"]):
+        if clicks == 0 or orders > 0:
+            out.append(rule)
+            continue
+        evidence = not pd.isna(waste) and waste >= s.waste_confidence and value < bid
+        lower = 10 if not pd.isna(value) and value < bid * (1 - s.max_bid_cut) else 7
+        if before_allowance and evidence:
+            rule = 12
+        elif spend < allow:
+            rule = lower if steps_down and not pd.isna(value) and value < bid else 13
+        elif evidence_first and evidence:
+            rule = 12
+        elif clicks < s.min_clicks and not no_min:
+            rule = 3
+        elif evidence:
+            rule = 12
+        elif not no_zero_cut and not pd.isna(n) and clicks >= n:
+            rule = 2
+        elif pd.isna(value):
+            rule = 4
+        else:
+            rule = lower if value < bid else 5
+        out.append(rule)
+    return pd.Series(out, index=df.index, dtype=float)
+
+
 def variants() -> dict[str, GapMethod]:
     """The diagnostic variants, in the order the table shows them."""
     return {
@@ -134,6 +192,7 @@ def variants() -> dict[str, GapMethod]:
         "no step caps": GapMethod(dict(NO_CAPS)),
         "steps up to x2 and /2": GapMethod({"max_bid_raise": 1.0, "max_bid_cut": 0.5}),
         "no data guards": GapMethod(swaps=Swaps(no_guards=True)),
+        **{f"history: {name}": GapMethod(swaps=Swaps(history=name)) for name in HISTORY_RULES},
         "waste at break-even, no data guards": GapMethod(swaps=Swaps(waste_at="break-even", no_guards=True)),
         "ceiling's aim (e 0.7)": GapMethod({"click_elasticity": 0.7}),
         "true CVR": GapMethod(swaps=Swaps(true_cvr=True)),
@@ -145,21 +204,43 @@ def variants() -> dict[str, GapMethod]:
     }
 
 
+def _per_variant(results: dict, names: list[str], cells) -> list[str]:
+    """One Markdown row per scenario and variant; cells(by_policy, name, base) gives the cells after the names (base:
+    the method with its defaults, None on its own row)."""
+    return [f"| {scenario} | {name} | " + " | ".join(cells(by_policy, name, None if name == names[0] else names[0]))
+            + " |" for scenario, by_policy in results.items() for name in names]
+
+
+def _paired(by_policy: dict, name: str, base: str | None, key: str) -> str:
+    """name's mean paired difference from base in one measure and its 95% interval ("" without a base)."""
+    j = MEASURES.index(key)
+    return "" if base is None else _interval(by_policy[name][:, j] - by_policy[base][:, j], key)
+
+
 def table(results: dict, names: list[str]) -> list[str]:
     """Per scenario and variant: share of the ceiling's gain, in band of the aim at week 8, never-converting spend,
     and the profit difference against the method with its defaults (paired, 95% interval)."""
-    j_profit, j_aim, j_dead = (MEASURES.index(k) for k in ("profit", "in_aim_8", "dead_spend"))
-    lines = ["| scenario | variant | share of ceiling's gain [95% CI] | in band of aim, wk 8 | never-converting spend "
-             "(manual rule) | profit - method defaults [95% CI] |", "| --- | --- | ---: | ---: | ---: | ---: |"]
-    for scenario, by_policy in results.items():
-        base = by_policy[names[0]]
-        for name in names:
-            values = by_policy[name]
-            dead = f"{values[:, j_dead].mean():,.0f} ({by_policy[MANUAL][:, j_dead].mean():,.0f})"
-            diff = "" if name == names[0] else _interval(values[:, j_profit] - base[:, j_profit], "profit")
-            lines.append(f"| {scenario} | {name} | {_share_text(ceiling_share(by_policy, name))} | "
-                         f"{values[:, j_aim].mean() * 100:.1f}% | {dead} | {diff} |")
-    return lines
+    j_aim, j_dead = (MEASURES.index(k) for k in ("in_aim_8", "dead_spend"))
+
+    def cells(by_policy, name, base):
+        values = by_policy[name]
+        return [_share_text(ceiling_share(by_policy, name)), f"{values[:, j_aim].mean() * 100:.1f}%",
+                f"{values[:, j_dead].mean():,.0f} ({by_policy[MANUAL][:, j_dead].mean():,.0f})",
+                _paired(by_policy, name, base, "profit")]
+    return ["| scenario | variant | share of ceiling's gain [95% CI] | in band of aim, wk 8 | never-converting spend "
+            "(manual rule) | profit - method defaults [95% CI] |", "| --- | --- | ---: | ---: | ---: | ---: |"] + \
+        _per_variant(results, names, cells)
+
+
+def changes_table(results: dict, names: list[str]) -> list[str]:
+    """Per scenario and variant, paired against the method with its defaults (95% intervals): the never-converting
+    spend, the same against the manual rule, and the keywords in band of the aim at week 8 (points)."""
+    def cells(by_policy, name, base):
+        return [_paired(by_policy, name, base, "dead_spend"), _paired(by_policy, name, MANUAL, "dead_spend"),
+                _paired(by_policy, name, base, "in_aim_8")]
+    return ["| scenario | variant | never-converting spend - method defaults [95% CI] | never-converting spend - "
+            "manual rule [95% CI] | in band of aim, wk 8 - method defaults [95% CI] |",
+            "| --- | --- | ---: | ---: | ---: |"] + _per_variant(results, names, cells)
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -172,16 +253,28 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--merge", type=Path, nargs="*", default=[], metavar="NPY",
                         help="instead of running, join the per-seed results saved by earlier runs (.npy) and "
                              "write their table")
+    parser.add_argument("--side-by-side", action="store_true",
+                        help="with --merge: the runs hold the same seeds and different variants; join the variants "
+                             "(the policies they share must agree, seed by seed)")
     parser.add_argument("--out", type=Path, default=Path(__file__).with_name("gap_results.md"))
     args = parser.parse_args(argv)
     if args.merge:
         parts = [np.load(path, allow_pickle=True).item() for path in args.merge]
-        results = {s: {p: np.concatenate([part[s][p] for part in parts]) for p in parts[0][s]
-                       if all(p in part[s] for part in parts)} for s in parts[0]}  # the policies every part ran
+        if args.side_by_side:
+            results = {s: {} for s in parts[0]}
+            for part in parts:
+                for s, by_policy in part.items():
+                    for p, v in by_policy.items():
+                        if p in results[s] and not np.allclose(results[s][p], v):
+                            raise SystemExit(f"{s}: {p} differs between the runs")
+                        results[s].setdefault(p, v)
+        else:
+            results = {s: {p: np.concatenate([part[s][p] for part in parts]) for p in parts[0][s]
+                           if all(p in part[s] for part in parts)} for s in parts[0]}  # the policies every part ran
         names = [n for n in next(iter(results.values())) if n not in (MANUAL, CEILING)]
         seeds = len(next(iter(next(iter(results.values())).values())))
         lines = [f"{seeds} seeds per scenario, joined from {', '.join(str(p) for p in args.merge)}", ""]
-        lines += table(results, names)
+        lines += table(results, names) + [""] + changes_table(results, names)
         args.out.write_text("\n".join(lines) + "\n", encoding="utf-8")
         print("\n".join(lines))
         return 0
@@ -198,7 +291,7 @@ def main(argv: list[str] | None = None) -> int:
     seeds = range(args.first_seed, args.first_seed + args.seeds)
     results = run_policies(policies, seeds, args.weeks, scenarios, log)
     lines = [f"`python -m study.gap --seeds {args.seeds} --first-seed {args.first_seed} --weeks {args.weeks}`", ""]
-    lines += table(results, names)
+    lines += table(results, names) + [""] + changes_table(results, names)
     args.out.write_text("\n".join(lines) + "\n", encoding="utf-8")
     np.save(args.out.with_suffix(".npy"), {s: {p: v for p, v in r.items()} for s, r in results.items()},
             allow_pickle=True)

@@ -286,12 +286,10 @@ def bids_oracle(tables, settings, profit_rows, decisions=None, history=None):
         moved = None  # the unrounded new bid where a rule moves it
         if n == 0:
             reason = "no clicks"
+        elif o == 0 and evidence:  # the history has decided: cut before any allowance (study/gap.md)
+            reason, moved = "cut on evidence: likely waste", value
         elif o == 0 and h_spend < s.exploration_orders * target * order_value:
             reason = "exploring: within allowance"
-        elif o == 0 and n < s.min_clicks:
-            reason = "not enough data"
-        elif o == 0 and evidence:
-            reason, moved = "cut on evidence: likely waste", value
         elif o == 0 and n0 is not BLANK and n >= n0:
             reason, moved = f"no orders after {n0} clicks", cut_to
         elif value is BLANK:

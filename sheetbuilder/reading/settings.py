@@ -78,7 +78,8 @@ SETTINGS: tuple[SettingSpec, ...] = (
                 "A target's conversion rate is shrunk toward its product's, as if it had this many more clicks "
                 "at the product's rate (Beta prior).", 0, 10000),
     SettingSpec("min_clicks", "Minimum clicks", 10, "int",
-                "A target with fewer clicks than this in its history and no orders is held: not enough data.", 0, 100000),
+                "Follow-up: a change whose keyword had fewer clicks than this before or after it is 'too few clicks' "
+                "to judge (Bids holds no keyword for lack of clicks: its history decides).", 0, 100000),
     SettingSpec("zero_order_confidence", "Zero-order confidence", 0.90, "percent",
                 "How sure zero orders must be unlikely at the product's conversion rate before a bid is cut "
                 "for having no orders.", 0.5, 0.999),

@@ -17,11 +17,12 @@ Method (sources on the Guide):
 - Steps, not jumps: otherwise the proposal moves toward the value bid, never past it, by at most the
   maximum cut or raise, rounded to the cent; a raise stops at the bid ceiling and a cut at the bid
   floor (a bid already beyond one is not pushed the other way).
-- Data guards, on history clicks and orders: no clicks hold; no orders and history spend below the
-  exploration allowance (exploration_orders x target ACoS x order value) hold ("exploring"); fewer
-  than the minimum clicks with no orders hold; zero orders after n = ceil(ln(1 - confidence) /
-  ln(1 - product CVR)) clicks (and at least the minimum) cuts by the maximum cut; a row with no
-  orders never rises.
+- Data guards, on history clicks and orders, after the cut on evidence (a keyword whose history has
+  decided is never held for lack of clicks or spend): no clicks hold; no orders and history spend below
+  the exploration allowance (exploration_orders x target ACoS x order value) hold ("exploring"); zero
+  orders after n = ceil(ln(1 - confidence) / ln(1 - product CVR)) clicks cuts by the maximum cut; a row
+  with no orders never rises. Rule 3 (not enough data: fewer than min_clicks) is no longer chosen
+  (study/gap.md: holding for the minimum clicks bought waste and no profit); its number is kept.
 - Stock: a target whose ad group advertises a product low on stock (Profit's Days of cover below the
   minimum) is never raised (rule 11, "low stock: not raised"); cuts still apply.
 
@@ -125,12 +126,10 @@ def _rule(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
         if clicks == 0:
             rule = 1
         elif orders == 0:
-            if spend < allow:
-                rule = 13
-            elif clicks < s.min_clicks:
-                rule = 3
-            elif evidence:
+            if evidence:  # the history has decided: cut, whatever the allowance or the clicks
                 rule = 12
+            elif spend < allow:
+                rule = 13
             elif not pd.isna(n) and clicks >= n:
                 rule = 2
             elif pd.isna(value):
@@ -197,11 +196,10 @@ _P_WASTE = ('=IF(OR({c:value_bid}="",{c:target_acos}<=0),"",IF(OR(%s<=0,%s<=0),"
             '1-{c:w}+{c:w}*BETADIST(MIN(1,{c:ratio}*{c:bid}/(%s*{c:target_acos})),%s,%s)))'
             % (_POST_A, _POST_B, _ORDER_VALUE, _POST_A, _POST_B))
 _EVIDENCE = 'IF({c:p_waste}="",FALSE,AND({c:p_waste}>=waste_confidence,{c:value_bid}<{c:bid}))'
-_RULE = ('=IF({c:h_clicks}=0,1,IF({c:h_orders}=0,IF({c:h_spend}<exploration_orders*{c:target_acos}*%s,13,'
-         'IF({c:h_clicks}<min_clicks,3,IF(%s,12,'
-         'IF(IF({c:n_zero}="",FALSE,{c:h_clicks}>={c:n_zero}),2,IF({c:value_bid}="",4,IF({c:value_bid}<{c:bid},%%s,5)))))),'
+_RULE = ('=IF({c:h_clicks}=0,1,IF({c:h_orders}=0,IF(%s,12,IF({c:h_spend}<exploration_orders*{c:target_acos}*%s,13,'
+         'IF(IF({c:n_zero}="",FALSE,{c:h_clicks}>={c:n_zero}),2,IF({c:value_bid}="",4,IF({c:value_bid}<{c:bid},%%s,5))))),'
          'IF({c:value_bid}="",4,IF({c:value_bid}>{c:bid},IF({c:p_low}=1,11,IF({c:value_bid}>{c:bid}*(1+max_bid_raise),9,6)),'
-         'IF({c:value_bid}<{c:bid},IF(%s,12,%%s),8)))))' % (_ORDER_VALUE, _EVIDENCE, _EVIDENCE))
+         'IF({c:value_bid}<{c:bid},IF(%s,12,%%s),8)))))' % (_EVIDENCE, _ORDER_VALUE, _EVIDENCE))
 _LOWER = "IF({c:value_bid}<{c:bid}*(1-max_bid_cut),10,7)"
 # The proposal before rounding, floor and ceiling, by rule (written inside the formulas that round it).
 _RAW = ('CHOOSE({c:rule},{c:bid},{c:bid}*(1-max_bid_cut),{c:bid},{c:bid},{c:bid},{c:value_bid},'
@@ -386,7 +384,7 @@ def plan_bids(targets: InputSheet, campaigns: pd.DataFrame | None, groups: Plann
     highlights = [Highlight(keys.index("reason"), text, state) for text, state in (
         ("lower to value bid", "Lavender"), ("lower, capped at maximum cut", "Lavender"),
         ("raise to value bid", "Ocean"), ("raise, capped at maximum raise", "Ocean"),
-        ("not enough data", "Stone"), ("no clicks", "Stone"), ("low stock: not raised", "Stone"),
+        ("no clicks", "Stone"), ("low stock: not raised", "Stone"),
         ("exploring: within allowance", "Stone"), ("cut on evidence: likely waste", "Plum"))]
     highlights.append(Highlight(keys.index("reason"), "no orders after", "Plum", begins=True))
     above = [[Cell("Bid plan: a proposed bid for every live keyword and product target", style="title")],

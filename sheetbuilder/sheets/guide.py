@@ -155,12 +155,12 @@ BID_METHOD = [
     "Steps, not jumps: otherwise the proposal moves from the current bid toward the value bid and never past it, "
     "by at most the maximum cut or raise, rounded to the cent; a raise stops at the bid ceiling and a cut at the "
     "floor.",
-    "Data guards, on the history's clicks and orders: no clicks hold the bid. A keyword with no orders whose "
-    "history spend is below exploration_orders x target ACoS x order value is held (exploring: within "
-    "allowance). Fewer than the minimum clicks with no orders hold the bid. No orders after n = ceil(ln(1 - "
-    "confidence) / ln(1 - product CVR)) clicks (the clicks after which zero orders would be unlikely) cuts by the "
-    "maximum cut. A target with no orders is never raised.",
-    "Rules (the hidden Rule column): 1 no clicks, 2 no orders after n clicks, 3 not enough data, 4 no order value "
+    "Data guards, on the history's clicks and orders, after the cut on evidence (a keyword whose history has "
+    "decided is cut, however few its clicks and whatever it has spent): no clicks hold the bid. A keyword with no "
+    "orders whose history spend is below exploration_orders x target ACoS x order value is held (exploring: "
+    "within allowance). No orders after n = ceil(ln(1 - confidence) / ln(1 - product CVR)) clicks (the clicks "
+    "after which zero orders would be unlikely) cuts by the maximum cut. A target with no orders is never raised.",
+    "Rules (the hidden Rule column): 1 no clicks, 2 no orders after n clicks, 3 (no longer used), 4 no order value "
     "yet, 5 no orders yet: not raised, 6 raise to value bid, 7 lower to value bid, 8 at value bid, 9 raise capped "
     "at the maximum raise, 10 lower capped at the maximum cut, 11 low stock: not raised, 12 cut on evidence, "
     "13 exploring: within allowance.",
