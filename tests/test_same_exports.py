@@ -36,9 +36,10 @@ BASE = _sales([3, 0, 5], [29.97, 0.0, math.nan])
 
 
 @pytest.mark.parametrize("other", [BASE.copy(), _reversed(BASE), _as_objects(BASE), _reversed(_as_objects(BASE)),
-                                   _sales([3, 0, 5], [29.97 + 4e-7, 0.0, math.nan])],
+                                   _sales([3, 0, 5], [29.97 + 4e-7, 0.0, math.nan]),
+                                   _reversed(_sales([3, 0, 5], [29.9699996, 0.0, math.nan]))],
                          ids=["identical", "other order", "as objects", "as objects, other order",
-                              "within the sixth decimal"])
+                              "within the sixth decimal", "other order, rounded alike from below"])
 def test_the_same_rows_are_the_same_exports(other):
     assert True is same_exports({"store_sales": BASE}, {"store_sales": other})
 
