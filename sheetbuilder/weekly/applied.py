@@ -17,6 +17,7 @@ import datetime as dt
 import math
 from typing import Any
 
+import numpy as np
 import pandas as pd
 
 from sheetbuilder.reading import contract as c
@@ -57,19 +58,68 @@ def _cents(value: Any) -> int | None:
     return None if n is None else int(round(n * 100))
 
 
+def _compared(value: Any, numeric: bool) -> Any:
+    """One cell as two builds' exports are compared: a number rounded (numeric columns), else its text."""
+    if numeric and number_or_none(value) is not None:
+        return round(float(value), 6)
+    return "" if is_blank(value) else str(value)
+
+
+def _column_of(series: pd.Series, numeric: bool) -> list:
+    """A column's cells as :func:`_compared` gives them; a column of floats (every reader's numeric column) in one
+    pass without the per-cell type tests (a NaN is blank, as number_or_none says)."""
+    if numeric and series.dtype.kind == "f":
+        return ["" if v != v else round(v, 6) for v in series.tolist()]
+    return [_compared(v, numeric) for v in series.tolist()]
+
+
 def _rows_of(table: pd.DataFrame | None, columns: tuple[str, ...]) -> list[tuple]:
-    """A table's rows over the contract's columns, numbers rounded, for comparing two builds' exports."""
+    """A table's rows over the contract's columns, numbers rounded, for comparing two builds' exports (in the
+    table's order)."""
     if table is None or not len(table):
         return []
     rule = c.TABLE_BY_NAME
-    out = []
-    kinds = {}
+    numeric = {name: next((col.kind for t in rule.values() for col in t.columns if col.name == name), c.TEXT)
+               in c.NUMERIC_KINDS for name in columns}
+    return list(zip(*(_column_of(table[name], numeric[name]) for name in columns)))
+
+
+def _identical(a: pd.DataFrame, b: pd.DataFrame, columns: tuple[str, ...]) -> bool:
+    """Whether two tables hold the same cells in the same order over columns (numbers of one type equal, NaN as
+    NaN; texts equal): then their rows compare the same (:func:`_rows_of`), with no rounding or sorting."""
     for name in columns:
-        kinds[name] = next((col.kind for t in rule.values() for col in t.columns if col.name == name), c.TEXT)
-    for record in table[list(columns)].itertuples(index=False, name=None):
-        out.append(tuple(round(float(v), 6) if kinds[k] in c.NUMERIC_KINDS and number_or_none(v) is not None
-                         else ("" if is_blank(v) else str(v)) for k, v in zip(columns, record)))
-    return sorted(out)
+        if name not in b:
+            return False
+        x, y = a[name].to_numpy(), b[name].to_numpy()
+        if x.dtype.kind == y.dtype.kind and x.dtype.kind in "iuf":
+            if not np.array_equal(x, y, equal_nan=x.dtype.kind == "f"):
+                return False
+        elif x.dtype.kind != "O" or y.dtype.kind != "O":
+            return False
+        else:  # texts: an equal text is compared the same (1 == 1.0 would not be: str gives '1' and '1.0')
+            xs = x.tolist()
+            if xs != y.tolist() or not all(type(v) is str for v in xs):
+                return False
+    return True
+
+
+def _numbers_differ(a: pd.DataFrame, b: pd.DataFrame, columns: tuple[str, ...]) -> bool:
+    """Whether a column of floats in both tables surely holds other numbers: rounding to 6 places keeps order, so
+    the same rounded numbers sorted differ by at most 1e-6 at each place (any count of blanks apart: not the same).
+    False says nothing; the rows are then compared in full."""
+    for name in columns:
+        if name not in b:
+            continue
+        x, y = a[name].to_numpy(), b[name].to_numpy()
+        if x.dtype.kind != "f" or y.dtype.kind != "f":
+            continue
+        blank_x, blank_y = np.isnan(x), np.isnan(y)
+        if blank_x.sum() != blank_y.sum():
+            return True
+        gap = np.abs(np.sort(x[~blank_x]) - np.sort(y[~blank_y]))
+        if gap.size and gap.max() > 2e-6:
+            return True
+    return False
 
 
 def same_exports(before: dict, now: dict) -> bool:
@@ -79,8 +129,12 @@ def same_exports(before: dict, now: dict) -> bool:
         a, b = before.get(name), now.get(name)
         if (a is None) != (b is None) or (a is not None and len(a) != len(b)):  # a row more: not the same
             return False
-        if a is not None and _rows_of(a, tuple(k for k in cols if k in a)) != _rows_of(
-                b, tuple(k for k in cols if k in a)):
+        if a is None or _identical(a, b, tuple(k for k in cols if k in a)):
+            continue
+        if _numbers_differ(a, b, tuple(k for k in cols if k in a)):
+            return False
+        rows_a, rows_b = _rows_of(a, tuple(k for k in cols if k in a)), _rows_of(b, tuple(k for k in cols if k in a))
+        if rows_a != rows_b and sorted(rows_a) != sorted(rows_b):  # the same rows in the same order need no sort
             return False
     return True
 

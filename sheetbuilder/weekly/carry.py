@@ -637,10 +637,11 @@ def _own_in(header: list[Any], body: list[tuple[tuple, list[Any]]], label: str, 
     that cannot be carried."""
     own: list[OwnColumn] = []
     refused: list[CarryRecord] = []
+    width = max((len(row) for _, row in body), default=0)  # a column no body row reaches holds no value
     for offset in range(1, OWN_SCAN + 1):
         col = notes_col + offset
         title = _cell(header, col)
-        values = {parts: v for parts, row in body if not is_blank(v := _cell(row, col))}
+        values = {parts: v for parts, row in body if not is_blank(v := _cell(row, col))} if col < width else {}
         if is_blank(title) and not values:
             continue
         where = f"column {offset} right of {after}"

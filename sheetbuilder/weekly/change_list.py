@@ -103,7 +103,6 @@ def followup_of(saved: SavedWorkbook, tables: dict, settings: Settings, period: 
     """
     name = saved.path.name
     before = {k: None if v is None else v.copy() for k, v in saved.tables.items()}  # planning reads the other
-    changes, planned = previous_changes(saved)
     current = span_of(settings, period)
     last = span_of(saved.settings, None)
     if same_exports(before, tables):
@@ -112,6 +111,7 @@ def followup_of(saved: SavedWorkbook, tables: dict, settings: Settings, period: 
     if last and current and (last.end > current.end or last.start > current.start):
         return None, [Problem(name, None, None, f"the previous workbook's period ({last}) is later than this one's "
                                                 f"({current}); no Follow-up sheet", WARNING)]
+    changes, planned = previous_changes(saved)  # only once a follow-up is made
     profit = planned["Profit"].frame
     products = {str(r["product_id"]): {k: r[k] for k in ("revenue", "ad_spend", "tacos", "net_profit", "status",
                                                          "direction")}

@@ -12,6 +12,8 @@ carry, the follow-up) runs after the file is closed, so a failure there is a bug
 """
 from __future__ import annotations
 
+import gc
+from contextlib import contextmanager
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -197,6 +199,20 @@ def plan_saved(saved: SavedWorkbook, for_changes: bool = False) -> tuple[Plan, l
                          leave_out=NOT_FOR_CHANGES if for_changes else frozenset()), problems
 
 
+@contextmanager
+def _no_cycle_collection():
+    """Python's collector of reference cycles paused while the workbook is read and planned: the read makes
+    millions of rows and cells that are never cycles, and the collector's passes over them cost about 6% of the
+    read (measured at 10k keywords). Whatever the read leaves is collected as usual once it resumes."""
+    paused = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if paused:
+            gc.enable()
+
+
 def read_saved_workbook(path: Path, unreadable: type[SheetbuilderError] = NotAWorkbook,
                         for_changes: bool = False, followup: bool = False) -> SavedWorkbook:
     """Read a saved workbook of ours once, under the reading guard, and close it.
@@ -217,7 +233,7 @@ def read_saved_workbook(path: Path, unreadable: type[SheetbuilderError] = NotAWo
     """
     with reading(path, unreadable):
         book = SavedBook(Path(path))
-    with book:
+    with book, _no_cycle_collection():
         book.streamed_again = set(READ_TWICE)
         with reading(path, unreadable):
             record = _record(book, for_changes, followup)
