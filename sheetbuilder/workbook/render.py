@@ -19,7 +19,7 @@ import pandas as pd
 import xlsxwriter
 from xlsxwriter.exceptions import FileCreateError
 from xlsxwriter.packager import Packager
-from xlsxwriter.worksheet import CellFormulaTuple, CellRichStringTuple
+from xlsxwriter.worksheet import CellFormulaTuple, CellRichStringTuple, Worksheet
 from xlsxwriter.xmlwriter import XMLwriter
 
 from sheetbuilder.values import ERROR_VALUES
@@ -84,6 +84,58 @@ def put_formula(ws, row: int, col: int, formula: str, fmt, value: Any) -> None:
     if ws.constant_memory and row > ws.previous_row:
         ws._write_single_row(row)
     ws.table[row][col] = CellFormulaTuple(formula[1:] if formula.startswith("=") else formula, fmt, value)
+
+
+def _put_shared(ws, row: int, col: int, formula: SharedFormula, fmt, value: Any) -> None:
+    """Store one cell of a shared formula group (its formula already checked and stripped of '=')."""
+    if ws._check_dimensions(row, col):
+        raise ValueError(f"cell {row},{col} is outside the sheet")
+    if ws.constant_memory and row > ws.previous_row:
+        ws._write_single_row(row)
+    ws.table[row][col] = CellFormulaTuple(formula, fmt, value)
+
+
+class SharedFormula(str):
+    """A formula of a shared group (ECMA-376 Part 1, 18.3.1.40 f, t="shared"): the group's first cell holds the
+    text and the range (ref); every other cell holds only the group's number (si) and is the first cell's formula
+    with its relative references moved down by the rows between them."""
+
+    def __new__(cls, text: str, si: int, ref: str | None) -> "SharedFormula":
+        out = super().__new__(cls, text)
+        out.si, out.ref = si, ref
+        return out
+
+
+class _Worksheet(Worksheet):
+    """The writer's worksheet, which also writes a shared formula's <f> element (the writer has none)."""
+
+    def _xml_formula_element(self, formula, result, attributes=[]) -> None:
+        if type(formula) is not SharedFormula:
+            super()._xml_formula_element(formula, result, attributes)
+            return
+        attr = "".join(f' {key}="{self._escape_attributes(value)}"' for key, value in attributes)
+        if formula.ref:
+            f = f'<f t="shared" ref="{formula.ref}" si="{formula.si}">{self._escape_data(str(formula))}</f>'
+        else:
+            f = f'<f t="shared" si="{formula.si}"/>'
+        self.fh.write(f"<c{attr}>{f}<v>{self._escape_data(result)}</v></c>")
+
+
+_QUOTED = re.compile(r'"(?:[^"]|"")*"')
+_THIS_ROW = re.compile(r"(?<![A-Za-z0-9_.])\$?[A-Za-z]{1,3}\{[rp]\}")
+_RELATIVE_ROW = re.compile(r"(?<![A-Za-z0-9_.])\$?[A-Za-z]{1,3}[0-9]+(?![0-9A-Za-z_(])|"
+                           r"(?<![A-Za-z0-9_.$])[0-9]+:\$?[0-9]+")
+
+
+def shareable(template: str) -> bool:
+    """True when a column's formula template may be written as one shared formula: every reference whose row
+    is relative is to the cell's own row ({r}) or the row above ({p}), so moving the first row's formula down
+    gives each row's own; any other relative row, or {r} or {p} used as a number or inside text, says no."""
+    bare = _QUOTED.sub('""', template)
+    if bare.count("{r}") + bare.count("{p}") != template.count("{r}") + template.count("{p}"):
+        return False
+    rest = _THIS_ROW.sub("", bare)
+    return "{r}" not in rest and "{p}" not in rest and _RELATIVE_ROW.search(rest) is None
 
 
 def _cached(value: Any) -> Any:
@@ -202,11 +254,22 @@ def _write_table(ws, table: Table, row: int, formats: dict, state_formats: dict,
     n = table.n_rows
     step = max(1, n // 50)
     marked = [(col, c) for col, c in enumerate(table.columns) if c.kind != FORMULA and (c.cell_styles or c.notes)]
+    shared: dict[int, tuple[SharedFormula, SharedFormula]] = {}  # column: (its first cell's formula, the others')
+    if n > 1 and ws._check_dimensions(row + n - 1, len(columns) - 1, True, True) == 0:
+        for col, c, _, formula, _ in columns:
+            if c.kind == FORMULA and isinstance(formula, str) and shareable(formula):
+                si = ws.shared_groups = getattr(ws, "shared_groups", -1) + 1
+                text = formula.replace("{r}", str(row + 1)).replace("{p}", str(row))
+                letter = cell_ref(row, col).rstrip("0123456789")
+                shared[col] = (SharedFormula(text[1:] if text.startswith("=") else text, si,
+                                             f"{letter}{row + 1}:{letter}{row + n}"), SharedFormula("", si, None))
     for i in range(n):
         r = row + i
         rs, ps = str(r + 1), str(r)
         for col, c, fmt, formula, values in columns:
-            if c.kind == FORMULA:
+            if col in shared:
+                _put_shared(ws, r, col, shared[col][i > 0], fmt, _cached(values[i]))
+            elif c.kind == FORMULA:
                 text = (formula[i] if isinstance(formula, list) else formula).replace("{r}", rs)
                 if "{p}" in text:  # the previous row, for running counts
                     text = text.replace("{p}", ps)
@@ -378,7 +441,7 @@ def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress:
 
     placed receives where each block went, for the charts' data caches.
     """
-    ws = wb.add_worksheet(sheet.name)
+    ws = wb.add_worksheet(sheet.name, worksheet_class=_Worksheet)
     widths, hidden = _widths(sheet)
     for col, width in sorted(widths.items()):
         ws.set_column(col, col, width, None, {"hidden": col in hidden})
