@@ -19,6 +19,7 @@ import pandas as pd
 import xlsxwriter
 from xlsxwriter.exceptions import FileCreateError
 from xlsxwriter.packager import Packager
+from xlsxwriter.utility import xl_rowcol_to_cell_fast
 from xlsxwriter.worksheet import CellFormulaTuple, CellRichStringTuple, Worksheet
 from xlsxwriter.xmlwriter import XMLwriter
 
@@ -106,8 +107,20 @@ class SharedFormula(str):
         return out
 
 
+class _SharedString(tuple):
+    """A text cell stored once in the workbook's shared strings (the writer stores text inline in its
+    constant_memory mode): (index in the table, format)."""
+
+
 class _Worksheet(Worksheet):
-    """The writer's worksheet, which also writes a shared formula's <f> element (the writer has none)."""
+    """The writer's worksheet, which also writes a shared formula's <f> element and a shared string's cell
+    in constant_memory mode (the writer has neither)."""
+
+    def _write_cell(self, row: int, col: int, cell) -> None:
+        if type(cell) is not _SharedString:
+            super()._write_cell(row, col, cell)
+            return
+        self._xml_string_element(cell[0], [("r", xl_rowcol_to_cell_fast(row, col)), ("s", cell[1]._get_xf_index())])
 
     def _xml_formula_element(self, formula, result, attributes=[]) -> None:
         if type(formula) is not SharedFormula:
@@ -186,6 +199,12 @@ def put_value(ws, row: int, col: int, value: Any, fmt) -> None:
                 ws._write_single_row(row)
             ws.table[row][col] = CellRichStringTuple(
                 run if ws.constant_memory else ws.str_table._get_shared_string_index(run), fmt, text)
+        elif fmt is not None and type(ws) is _Worksheet:
+            if ws._check_dimensions(row, col):
+                raise ValueError(f"cell {row},{col} is outside the sheet")
+            if ws.constant_memory and row > ws.previous_row:
+                ws._write_single_row(row)
+            ws.table[row][col] = _SharedString((ws.str_table._get_shared_string_index(text), fmt))
         else:
             ws.write_string(row, col, text, fmt)
     elif isinstance(value, bool):
