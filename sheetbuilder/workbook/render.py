@@ -11,12 +11,14 @@ from __future__ import annotations
 import datetime as dt
 import math
 import re
+import zipfile
 from contextlib import contextmanager
 from pathlib import Path
 from typing import Any, Callable, Iterator
 
 import pandas as pd
 import xlsxwriter
+import xlsxwriter.workbook
 from xlsxwriter.exceptions import FileCreateError
 from xlsxwriter.packager import Packager
 from xlsxwriter.utility import xl_rowcol_to_cell_fast
@@ -529,11 +531,31 @@ class _Packager(Packager):
             part.write(xml)
 
 
+ZIP_LEVEL = 7  # deflate level of the package's parts: 3% smaller than the writer's 6 for a tenth more time (8: 6%, 6x)
+
+
+class _Zip(zipfile.ZipFile):
+    """The package's zip file, compressed at ZIP_LEVEL unless told otherwise."""
+
+    def __init__(self, *args, **kwargs) -> None:
+        kwargs.setdefault("compresslevel", ZIP_LEVEL)
+        super().__init__(*args, **kwargs)
+
+
 class _Workbook(xlsxwriter.Workbook):
-    """The writer's workbook, packaged by :class:`_Packager` (the writer's documented way to replace its packager)."""
+    """The writer's workbook, packaged by :class:`_Packager` (the writer's documented way to replace its packager)
+    into a zip file compressed at ZIP_LEVEL."""
 
     def _get_packager(self) -> Packager:
         return _Packager()
+
+    def _store_workbook(self) -> None:
+        writers_zip = xlsxwriter.workbook.ZipFile  # the name the writer's _store_workbook opens the package with
+        xlsxwriter.workbook.ZipFile = _Zip
+        try:
+            super()._store_workbook()
+        finally:
+            xlsxwriter.workbook.ZipFile = writers_zip
 
 
 @contextmanager
