@@ -118,6 +118,8 @@ class _Worksheet(Worksheet):
     """The writer's worksheet, which also writes a shared formula's <f> element and a shared string's cell
     in constant_memory mode (the writer has neither)."""
 
+    shared_groups = 0  # shared formula groups written so far: the next group's number (si)
+
     def _write_cell(self, row: int, col: int, cell) -> None:
         if type(cell) is not _SharedString:
             super()._write_cell(row, col, cell)
@@ -279,7 +281,7 @@ def _write_table(ws, table: Table, row: int, formats: dict, state_formats: dict,
     if n > 1 and ws._check_dimensions(row + n - 1, len(columns) - 1, True, True) == 0:
         for col, c, _, formula, _ in columns:
             if c.kind == FORMULA and isinstance(formula, str) and shareable(formula):
-                si = ws.shared_groups = getattr(ws, "shared_groups", -1) + 1
+                si, ws.shared_groups = ws.shared_groups, ws.shared_groups + 1
                 text = formula.replace("{r}", str(row + 1)).replace("{p}", str(row))
                 letter = cell_ref(row, col).rstrip("0123456789")
                 shared[col] = (SharedFormula(text[1:] if text.startswith("=") else text, si,
