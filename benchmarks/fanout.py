@@ -20,12 +20,16 @@ import zipfile
 from collections import Counter, defaultdict, deque
 from pathlib import Path
 
+from openpyxl.formula.translate import Translator
+
+from benchmarks.twin import SHARED_ID, formula_texts
 from sheetbuilder.workbook.formula import col_letter, col_number
 
 Cell = tuple[str, int, int]  # (sheet, 0-based column, 1-based row)
 Rect = tuple[str, int, int, int, int]  # (sheet, first column, first row, last column, last row)
 
-_FORMULA_CELL = re.compile(r'<c r="([A-Z]+)(\d+)"[^>]*?><f>([^<]*)</f>')
+_CELL_AT = re.compile(r'\br="([A-Z]+\d+)"')
+_CELL_REF = re.compile(r"([A-Z]+)(\d+)$")
 _DEFINED = re.compile(r'<definedName name="([^"]+)"(?: [^>]*)?>([^<]+)<')
 _STRING = re.compile(r'"(?:[^"]|"")*"')
 _SHEET = r"(?:'((?:[^']|'')+)'|([A-Za-z_][A-Za-z0-9_.]*))"
@@ -64,8 +68,17 @@ def read_formulas(path: Path) -> tuple[dict[Cell, str], dict[str, Rect]]:
             if len(rects) == 1 and not name.startswith("_xlnm"):
                 names[name] = rects[0]
         for sheet, part in sheet_parts(z).items():
-            for col, row, text in _FORMULA_CELL.findall(z.read(part).decode("utf-8")):
-                formulas[(sheet, col_number(col), int(row))] = html.unescape(text)
+            first: dict[str, tuple[str, str]] = {}  # a shared group's number: its first cell and formula
+            for m, text in formula_texts(z.read(part).decode("utf-8")):
+                at = _CELL_AT.search(m.group(1)).group(1)
+                col, row = _CELL_REF.match(at).groups()
+                si = SHARED_ID.search(m.group(2))
+                if si is not None and m.group(3) is None:  # a later cell of a shared group: the first one's, moved
+                    origin, base = first[si.group(1)]
+                    text = Translator("=" + base, origin).translate_formula(at)[1:]
+                elif si is not None:
+                    first[si.group(1)] = (at, text)
+                formulas[(sheet, col_number(col), int(row))] = text
     return formulas, names
 
 

@@ -14,16 +14,19 @@ import re
 import zipfile
 from collections import Counter
 from pathlib import Path
-from typing import Callable
+from typing import Callable, Iterator
 
 from sheetbuilder.workbook.formula import col_number
 
 Keep = Callable[[str, str], bool]  # (sheet name, formula text) -> keep the formula
 
-_CELL = re.compile(r'<c ([^>]*?)><f>([^<]*)</f>(?:<v>([^<]*)</v>|<v/>)?</c>')
+# A formula cell: its attributes, its <f> element's attributes, its formula text (none in a shared group's
+# later cells), its cached value.
+_CELL = re.compile(r'<c ([^>]*?)><f((?: [^>]*?)?)(?: ?/>|>([^<]*)</f>)(?:<v>([^<]*)</v>|<v ?/>)?</c>')
+SHARED_ID = re.compile(r'\bsi="(\d+)"')
 _TYPE = re.compile(r'\s+t="(\w+)"')
 _ANY_CELL = re.compile(rb"<c ")
-_FORMULA = re.compile(rb"<f>")
+_FORMULA = re.compile(rb"<f[ >/]")
 _DIMENSION = re.compile(rb'<dimension ref="([A-Z]+)(\d+)(?::([A-Z]+)(\d+))?"')
 _SHEET = re.compile(r'<sheet name="([^"]*)" sheetId="\d+" r:id="(rId\d+)"')
 _REL = re.compile(r'<Relationship Id="(rId\d+)" Type="[^"]*/worksheet" Target="([^"]+)"')
@@ -74,19 +77,37 @@ def _as_value(attrs: str, value: str | None) -> str:
     return f"<c {attrs}><v>{value}</v></c>"
 
 
+def formula_texts(xml: str) -> Iterator[tuple[re.Match, str]]:
+    """Each formula cell of a sheet's XML and its formula text as written (a shared group's later cells
+    give the group's first formula: the same text, moved down, which is all a predicate on idioms reads)."""
+    groups: dict[str, str] = {}
+    for m in _CELL.finditer(xml):
+        text = m.group(3)
+        si = SHARED_ID.search(m.group(2))
+        if si is not None:
+            text = groups.setdefault(si.group(1), text or "")
+        yield m, html.unescape(text or "")
+
+
 def make_twin(src: Path, dst: Path, keep: Keep | None = None) -> None:
-    """Write dst: src with every formula that keep does not choose turned into its cached value."""
+    """Write dst: src with every formula that keep does not choose turned into its cached value.
+
+    A shared formula group is kept or turned into values whole (its cells share one text)."""
     with zipfile.ZipFile(src) as zin, zipfile.ZipFile(dst, "w", zipfile.ZIP_DEFLATED) as zout:
         by_part = {part: name for name, part in sheet_parts(zin).items()}
         for info in zin.infolist():
             data = zin.read(info.filename)
             sheet = by_part.get(info.filename)
             if sheet is not None:
-                def sub(m: re.Match, sheet: str = sheet) -> str:
-                    if keep is not None and keep(sheet, html.unescape(m.group(2))):
-                        return m.group(0)
-                    return _as_value(m.group(1), m.group(3))
-                data = _CELL.sub(sub, data.decode("utf-8")).encode("utf-8")
+                xml = data.decode("utf-8")
+                out, at = [], 0
+                for m, text in formula_texts(xml):
+                    out.append(xml[at:m.start()])
+                    kept = keep is not None and keep(sheet, text)
+                    out.append(m.group(0) if kept else _as_value(m.group(1), m.group(4)))
+                    at = m.end()
+                out.append(xml[at:])
+                data = "".join(out).encode("utf-8")
             zout.writestr(info, data, compress_type=zipfile.ZIP_DEFLATED)
 
 
@@ -112,7 +133,7 @@ def count_cells(path: Path) -> dict:
                 c1, r1, c2, r2 = dim.groups()
                 c2, r2 = (c2 or c1), (r2 or r1)
                 grid += (int(r2) - int(r1) + 1) * (col_number(c2.decode()) - col_number(c1.decode()) + 1)
-            counts = Counter(idiom(html.unescape(f.decode("utf-8"))) for f in re.findall(rb"<f>([^<]*)</f>", data))
+            counts = Counter(idiom(text) for _, text in formula_texts(data.decode("utf-8")))
             idioms.update(counts)
             idioms_by_sheet[name] = counts
     return {"formula_cells": sum(formulas.values()), "stored_cells": sum(stored.values()), "grid_cells": grid,

@@ -33,8 +33,6 @@ _HELPER = ("hidden working column; its value reaches a compared column (the engi
            "against `formulas`, LibreOffice and Gnumeric, but no reference computes it on its own)")
 _LIST_KEY = ("hidden binary-search key of a live list (its whole part the running count); what it selects is compared row by row "
              "(the list's rows and their order equal the reference's)")
-_EXPORT_HELPER = ("hidden export-only position (a value written when building); the Already targeted and Already "
-                  "negated columns it finds are compared")
 _BLENDS = ("the ad-group blends table, computed once per ad group; compared through every Bids and Terms row that "
            "fetches it (Target ACoS, Product CVR, Zero-order clicks, Target check, Product price, Low stock) or uses it "
            "(Value bid, Starting bid)")
@@ -50,7 +48,6 @@ UNCOVERED = {
                                         "Product price", "Gross profit before ads", "Revenue with a margin")},
     ("Bids", "Rule"): _HELPER,
     ("Bids", "Changes key"): _LIST_KEY,
-    **{("Terms", h): _EXPORT_HELPER for h in ("Targeted position", "Negated position")},
     **{("Blends", h): _BLENDS for h in ("Aim ACoS", "Product CVR", "Product order value", "Product price",
                                         "Zero-order clicks", "Target check", "Low stock")},
     ("Blends", "Group weight"): _NO_ORACLE,
@@ -73,12 +70,12 @@ UNCOVERED = {
     ("Groups", "Low stock"): ("Profit's Low stock fetched per product (Profit's is compared); its ad group's "
                               "blend is compared through every Bids and Terms row's Low stock"),
     ("Profit", "Catalog row now"): _ROW_NOW, ("Groups", "Profit row now"): _ROW_NOW,
-    **{("Keys table 2 (not in Plan.tables)", h): _ROW_NOW for h in ("Negative from term row now",
+    **{("Keys table 1 (not in Plan.tables)", h): _ROW_NOW for h in ("Negative from term row now",
                                                                   "Blocked term row now")},
     **{("Terms", h): "working column of the safe-change rules; checked through the Harvest, Negatives and "
                      "Actions lists it feeds (oracle_terms, oracle_actions) and the change-list properties"
        for h in ("Adds a keyword", "Negative in source", "Would block another term")},
-    ("Keys table 2 (not in Plan.tables)", "Blocks"): "the Clashes table: checked through the Terms columns and "
+    ("Keys table 1 (not in Plan.tables)", "Blocks"): "the Clashes table: checked through the Terms columns and "
                                                      "lists it feeds and the change-list properties",
 }
 

@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import pytest
 
+import re
 import zipfile
 
 from benchmarks.twin import count_cells, idiom, make_twin, sheet_parts
@@ -39,3 +40,20 @@ def test_formula_idioms_are_named_for_their_heaviest_function():
     assert "block SUM(INDEX:INDEX)" == idiom("IF(W6=\"\",0,SUM(INDEX(x!$B$2:$B$9,W6):INDEX(x!$B$2:$B$9,X6)))")
     assert "INDEX" == idiom("INDEX(in_catalog!$C$2:$C$9,V6)")
     assert "IF/arithmetic" == idiom('IF(D6=0,"",E6/D6)')
+
+
+def test_a_shared_formula_group_is_counted_in_every_cell_and_kept_or_turned_into_values_whole(demo_build, tmp_path):
+    with zipfile.ZipFile(demo_build.output) as z:
+        xml = z.read(sheet_parts(z)["Profit"]).decode("utf-8")
+    written = xml.count("<f>") + xml.count('<f t="shared"')  # every formula cell: its own text or a group's
+    assert xml.count('<f t="shared" si="') > xml.count(' ref="')  # the build writes groups (their first cells: ref)
+    assert written == count_cells(demo_build.output)["formulas_by_sheet"]["Profit"]
+    by_idiom = count_cells(demo_build.output)["idioms_by_sheet"]["Profit"]
+    part = tmp_path / "index_only.xlsx"
+    make_twin(demo_build.output, part, keep=lambda sheet, formula: sheet == "Profit" and idiom(formula) == "INDEX")
+    assert {"INDEX": by_idiom["INDEX"]} == count_cells(part)["idioms_by_sheet"]["Profit"]
+    with zipfile.ZipFile(part) as z:
+        kept = z.read(sheet_parts(z)["Profit"]).decode("utf-8")
+    # each group kept has its first cell (the formula text) in the part
+    groups = set(re.findall(r'<f t="shared" ref="[^"]*" si="(\d+)"', kept))
+    assert groups and groups == set(re.findall(r'<f t="shared" si="(\d+)"/>', kept))

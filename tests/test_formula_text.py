@@ -248,8 +248,9 @@ def test_a_bids_row_fetches_its_ad_group_blend_with_one_index_and_copies_its_exp
                               "Current bid")} == {h: row[h] for h in ("Impressions", "Clicks", "Spend", "Ad sales",
                                                                        "Orders", "CPC", "CVR", "ACoS", "Current bid")}
     key = letters["Changes key"]
-    final, bid = letters["Final bid"], letters["Current bid"]
-    assert f"=INT(SUM({key}4))+IF({final}5<>{bid}5,1,1/2)" == row["Changes key"]
+    final, bid, pos = letters["Final bid"], letters["Current bid"], letters["Position"]
+    # the fraction is the row's Position (its own cell) over rows + 1: one formula for every row (shared)
+    assert f"=INT(SUM({key}4))+IF({final}5<>{bid}5,1,{pos}5/2)" == row["Changes key"]
 
 
 def test_a_bids_row_writes_the_value_bid_and_waste_probability_by_hand_and_its_pooled_figures_as_values(with_targets):

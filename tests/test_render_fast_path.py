@@ -5,13 +5,15 @@ import datetime as dt
 import zipfile
 from pathlib import Path
 
+import openpyxl
 import pytest
 import xlsxwriter
+from openpyxl.formula.translate import Translator
 
-from sheetbuilder.pipeline import load, plan_workbook
+from sheetbuilder.pipeline import build, load, plan_workbook
 from sheetbuilder.errors import FormulaNotPortable
 from sheetbuilder.workbook.formula import check_portable
-from sheetbuilder.workbook.render import _cached, put_formula, workbook_options
+from sheetbuilder.workbook.render import _cached, put_formula, shareable, workbook_options
 from sheetbuilder.workbook.spec import FORMULA
 
 DEMO = Path(__file__).resolve().parent.parent / "demo_inputs"
@@ -169,3 +171,55 @@ def test_check_portable_accepts_every_formula_of_the_demo_workbook(plan):
             rejected.append(str(exc))
 
     assert [] == rejected
+
+
+# Shared formulas (ECMA-376 Part 1, 18.3.1.40: a group's later cells hold the first cell's formula with its
+# relative references moved by the rows between them). openpyxl's Translator implements that moving; it is
+# the outside check here.
+@pytest.mark.parametrize("template, expected", [
+    ("=IF(D{r}=0,\"\",E{r}/D{r})", True),
+    ("=INT(SUM(AP{p}))+IF(S{r}=\"promote\",1,0)", True),
+    ("=INDEX(Groups!$F$9:$F$20,AA{r})*min_promote_orders", True),
+    ("=LOG10(B{r})+ATAN2(1,2)", True),
+    ("=IF(A{r}=\"B{r}\",1,0)", False),          # {r} inside text is not a reference
+    ("=A{r}+{r}", False),                       # {r} as a number does not move
+    ("=A{r}+Settings!B5", False),               # a relative row that is not the cell's own
+    ("=A{r}+Settings!$B5", False),
+    ("=A{r}+Settings!B$5", True),
+    ("=SUM(3:3)+A{r}", False),                  # a relative row range
+    ("=INT(SUM(Y{p}))+IF(V{r}<>O{r},1,6/9128)", True),
+], ids=lambda v: str(v))
+def test_a_template_is_shared_only_when_every_relative_row_is_its_own_or_the_one_above(template, expected):
+    assert expected == shareable(template)
+
+
+def test_every_shared_column_of_the_demo_reads_on_each_row_as_its_own_formula(plan):
+    checked = 0
+    for sheet in plan.spec.sheets:
+        for table in [t for t in [sheet.table, *sheet.more] if t]:
+            first = table.first_row + 2  # the 1-based row of the first body row
+            for c in table.columns:
+                if c.kind != FORMULA or not isinstance(c.formula, str) or not shareable(c.formula):
+                    continue
+                origin = c.formula.replace("{r}", str(first)).replace("{p}", str(first - 1))
+                for row in (first + 1, first + 7, first + 500):
+                    want = c.formula.replace("{r}", str(row)).replace("{p}", str(row - 1))
+                    assert want == Translator(origin, f"A{first}").translate_formula(f"A{row}"), (sheet.name, c.header)
+                checked += 1
+    assert checked > 50
+
+
+def test_a_built_workbook_writes_shared_groups_that_read_back_as_every_row_s_formula(tmp_path):
+    path = tmp_path / "demo.xlsx"
+    build(DEMO, path, built_on=dt.date(2026, 12, 2))
+    with zipfile.ZipFile(path) as z:
+        xml = b"".join(z.read(n) for n in z.namelist() if n.startswith("xl/worksheets/sheet"))
+    assert b'<f t="shared" si="0"/>' in xml
+    inputs, settings, _ = load(DEMO)
+    profit = plan_workbook(inputs, settings, dt.date(2026, 12, 2)).spec.sheet("Profit").table
+    ws = openpyxl.load_workbook(path)["Profit"]
+    for col, c in enumerate(profit.columns, start=1):
+        if c.kind == FORMULA and isinstance(c.formula, str):
+            for i in range(profit.n_rows):
+                r = profit.first_row + 2 + i
+                assert c.formula.replace("{r}", str(r)).replace("{p}", str(r - 1)) == ws.cell(r, col).value

@@ -56,8 +56,8 @@ SHEETS_TEXT = [
     ("Groups", "Which products each ad group advertises, the spend weights used where it advertises several, and "
                "below, each ad group's blended aim ACoS, CVR, order value and price, computed once and fetched "
                "by the Bids and Terms rows."),
-    ("Keys", "A lookup table: existing exact keywords and negatives, by number (the Terms sheet looks them up), "
-             "and the Clashes table: where a new negative would block a keyword the list adds or a term that sells."),
+    ("Keys", "The Clashes table: where a new negative would block a keyword the list adds or a term that sells "
+             "(Already targeted and Already negated on Terms are found among the exports when building)."),
     ("in_ sheets", "The rows of your exports as read, sorted by product. Catalog prices, costs, fees, "
                    "margins and target ACoS are inputs you may correct there, and so are units available on "
                    "in_inventory (a what-if for this week: next week's build reads the new export's stock)."),

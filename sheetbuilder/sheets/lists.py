@@ -34,7 +34,8 @@ def running_key(prefix: str, what: str, condition: str, qualifies: Callable[[pd.
     INT of the key (INT of the previous row's key, plus 1 on a qualifying row), and MATCH(k, key, 1),
     a binary search, lands on the k-th qualifying row. condition is the formula test of a qualifying
     row, qualifies its pandas twin; position names the frame column holding the row's 1-based
-    position, and the frame's n_plus column holds rows + 1 (both written into the formula per row).
+    position (read from its cell where the table has that column, else written into each row's formula), and
+    the frame's n_plus column holds rows + 1 (written into the formula).
     The count of qualifying rows is INT of the last key (:func:`count_formula`, :func:`count_of`).
     """
     key = f"{prefix}_key"
@@ -46,7 +47,7 @@ def running_key(prefix: str, what: str, condition: str, qualifies: Callable[[pd.
         ColumnDef(key, f"{what} key", "ratio",
                   f"Working: running count of {what.lower()} (whole part); a strictly increasing key, so "
                   "MATCH(k) finds the k-th.", helper,
-                  "=INT(SUM({cp:%s}))+IF(%s,1,{row:%s}/{row:n_plus})" % (key, condition, position), width=6,
+                  "=INT(SUM({cp:%s}))+IF(%s,1,{at:%s}/{row:n_plus})" % (key, condition, position), width=6,
                   hidden=True),
     ]
 

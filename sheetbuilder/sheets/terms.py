@@ -12,10 +12,10 @@ Verdicts (the thresholds are settings):
 - keep: selling and already targeted, or already negated.
 
 Terms are compared after normalisation (NFKC, case folding, trimmed and collapsed
-whitespace). "Already targeted" and "Already negated" are lookups: each term's key is a
-number written as data, looked up by binary-search MATCH in the sorted Keys sheet, so the
-cost grows with terms x log(keys), never terms x targets. No term text is ever used as a
-criterion (MATCH, COUNTIFS and SUMIFS read * ? ~ in text as wildcards).
+whitespace). "Already targeted" and "Already negated" are found when building, each term's key
+looked up among the existing exact keywords and negatives of the exports, and written as plain
+values (no input cell can change them). No term text is ever used as a criterion (MATCH,
+COUNTIFS and SUMIFS read * ? ~ in text as wildcards).
 
 Rows come largest spend first (as built), so the lists and Actions show the most money at
 stake first. The lists only take what is safe to apply: a promoted term that is new for its
@@ -59,7 +59,7 @@ class TermsContext:
 
     settings: Settings
     blends: pd.DataFrame
-    lookup: dict[float, str]
+    lookup: dict[tuple, str]
     clashes: pd.DataFrame = field(default_factory=pd.DataFrame)
     totals: dict[str, Any] = field(default_factory=dict)
 
@@ -69,26 +69,11 @@ def _block(column: str) -> str:
     return "=" + block_sum(rng, "{c:first}", "{c:last}")
 
 
-def _found(key: str, pos: str):
-    """Formula and reference of a lookup column: the Keys sheet's text where the key is found."""
-    formula = '=IF({c:%s}=0,"",IF(INDEX({rng:keys.key},{c:%s})={c:%s},INDEX({rng:keys.found},{c:%s}),""))' % (
-        pos, pos, key, pos)
-
+def _found(key: str):
+    """Reference of a lookup column: what the existing exact keyword or negative of the term's key says."""
     def compute(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
-        return df[key].map(lambda k: ctx.lookup.get(k, "")).astype(object)
-    return formula, compute
-
-
-def _position(key: str):
-    """Formula and reference of a MATCH position on the sorted Keys sheet (0 when below every key)."""
-    formula = '=IF({c:%s}="",0,IFERROR(MATCH({c:%s},{rng:keys.key},1),0))' % (key, key)
-
-    def compute(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
-        keys = np.array(sorted(ctx.lookup), dtype=float)
-        values = df[key].to_numpy(dtype=float)
-        pos = np.searchsorted(keys, values, side="right").astype(float)
-        return pd.Series(np.where(np.isnan(values), 0.0, pos), index=df.index)
-    return formula, compute
+        return df[key].map(lambda k: ctx.lookup.get(k, "") if k else "").astype(object)
+    return compute
 
 
 def _verdict(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
@@ -150,16 +135,12 @@ def _block_threshold(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
 LIST_WORKING = (("value_bid", _value_bid), ("start_bid", _start_bid), ("block_rule", _block_rule),
                 ("block_threshold", _block_threshold))
 
-_TPOS, _TPOS_REF = _position("tkey")
-_NPOS, _NPOS_REF = _position("nkey")
-_TARGETED, _TARGETED_REF = _found("tkey", "tpos")
-_NEGATED, _NEGATED_REF = _found("nkey", "npos")
+_TARGETED_REF, _NEGATED_REF = _found("tkey_t"), _found("nkey_t")
 
 
-# Summed from the term's in_search_terms rows, computed only from such sums, or looked up on Keys (built from
-# the exports): plain values, since no input can change them.
-EXPORTS = ("impressions", "clicks", "spend", "ad_sales", "orders", "cpc", "cvr", "acos", "targeted", "negated",
-           "tpos", "npos")
+# Summed from the term's in_search_terms rows, computed only from such sums, or found among the exports' exact
+# keywords and negatives: plain values, since no input can change them.
+EXPORTS = ("impressions", "clicks", "spend", "ad_sales", "orders", "cpc", "cvr", "acos", "targeted", "negated")
 
 
 # The ad group's blended price and zero-order clicks, read where the verdict needs them (no column of their own).
@@ -195,9 +176,9 @@ def _all_defs() -> list[ColumnDef]:
                   '=IF({c:ad_sales}=0,"",{c:spend}/{c:ad_sales})', width=8),
         ColumnDef("targeted", "Already targeted", "text",
                   "Where the term already runs as an exact keyword for the same product (campaign / ad group).",
-                  _TARGETED_REF, _TARGETED, width=30),
+                  _TARGETED_REF, width=30),
         ColumnDef("negated", "Already negated", "text", "The negative that already blocks the term here, if any.",
-                  _NEGATED_REF, _NEGATED, width=30),
+                  _NEGATED_REF, width=30),
         ColumnDef("verdict", "Verdict", "label",
                   "promote, block, watch or keep; low stock where it would be promoted but a product of its ad "
                   "group is low on stock (see the Guide).", _verdict,
@@ -229,14 +210,6 @@ def _all_defs() -> list[ColumnDef]:
                   lambda df, ctx: df["dest_campaign"], kind=DATA, width=12, hidden=True),
         ColumnDef("dest_ad_group", "Destination ad group", "text", "Helper: where a promoted term goes.",
                   lambda df, ctx: df["dest_ad_group"], kind=DATA, width=12, hidden=True),
-        ColumnDef("tkey", "Targeted key", "int", "Helper: the number standing for (product, term) on Keys.",
-                  lambda df, ctx: df["tkey"], kind=DATA, width=8, hidden=True),
-        ColumnDef("tpos", "Targeted position", "int", "Working: MATCH of the targeted key on Keys.",
-                  _TPOS_REF, _TPOS, width=8, hidden=True),
-        ColumnDef("nkey", "Negated key", "int", "Helper: the number standing for the negative that applies, on Keys.",
-                  lambda df, ctx: df["nkey"], kind=DATA, width=8, hidden=True),
-        ColumnDef("npos", "Negated position", "int", "Working: MATCH of the negated key on Keys.",
-                  _NPOS_REF, _NPOS, width=8, hidden=True),
         blends_row_column(),
         fetch("p_low", "Low stock", "int", "Working: 1 where a product of the ad group is low on stock (not promoted)."),
         ColumnDef("live", "Campaign live", "int", "Helper: 1 where the term's campaign is enabled (in_campaigns).",
@@ -329,17 +302,9 @@ def _norm_or_blank(value: Any, fold: bool) -> str:
     return normalise(value, fold) if isinstance(value, str) else ""
 
 
-@dataclass
-class KeyTable:
-    """The numbers standing for (product, term) and negative keys, and what each found key says."""
-
-    ids: dict[tuple, float]
-    found: dict[float, str]
-
-
-def build_keys(terms: pd.DataFrame, targets: pd.DataFrame | None, negatives: pd.DataFrame | None,
-               groups: pd.DataFrame, settings: Settings) -> KeyTable:
-    """Number every key, and record which exist as exact keywords or negatives."""
+def existing_keys(targets: pd.DataFrame | None, negatives: pd.DataFrame | None, groups: pd.DataFrame,
+                  settings: Settings) -> dict[tuple, str]:
+    """{key: what it says} of every existing exact keyword (per product it advertises) and negative."""
     fold = settings.fold_plurals
     entries: dict[tuple, str] = {}
     if targets is not None and len(targets):
@@ -355,9 +320,7 @@ def build_keys(terms: pd.DataFrame, targets: pd.DataFrame | None, negatives: pd.
             kind = "NP" if n.match_type == "negative phrase" else "N"
             text = f"{n.match_type}, {level}" + (f": {n.term}" if kind == "NP" else "")
             entries.setdefault((kind, n.campaign, n.ad_group or "", _norm_or_blank(n.term, fold)), text)
-    used = set(entries) | set(terms["tkey_t"].dropna()) | set(terms["nkey_t"].dropna())
-    ids = {key: float(i) for i, key in enumerate(sorted(used, key=repr), start=1)}
-    return KeyTable(ids, {ids[k]: v for k, v in entries.items()})
+    return entries
 
 
 def _negative_key(row, phrases: dict, exact: set) -> tuple:
@@ -498,12 +461,13 @@ def _holding_every_word(index: dict[tuple, set], campaign: str, key: str) -> set
 def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, targets: pd.DataFrame | None,
                campaigns: pd.DataFrame | None, negatives: pd.DataFrame | None, settings: Settings,
                ranges: dict[str, str], decide=None, blends: PlannedTable | None = None
-               ) -> tuple[Sheet, PlannedTable, Sheet, KeyTable]:
-    """The Terms sheet, its reference frame, and the Keys sheet its lookups read (blends: Groups' blends)."""
+               ) -> tuple[Sheet, PlannedTable, Sheet, dict[tuple, str]]:
+    """The Terms sheet, its reference frame, the Keys sheet of its clashes, and the existing keys its Already
+    targeted and Already negated found (blends: Groups' blends)."""
     base = term_frame(layout, groups.frame, campaigns, negatives, settings)
     if decide is not None and len(base):
         base["decision"] = decide("Terms", list(zip(base["campaign"], base["ad_group"], base["term"])))
-    keys = build_keys(base, targets, negatives, groups.frame, settings)
+    keys = existing_keys(targets, negatives, groups.frame, settings)
     existing = set()
     if targets is not None and len(targets):
         live = targets.loc[(targets["match_type"] == "exact") & (targets["state"] != "archived")]
@@ -515,20 +479,17 @@ def plan_terms(layout: InputSheet, groups: PlannedTable, profit: PlannedTable, t
     if len(pairs):
         block = pd.DataFrame({"i": pairs["i"], "at": np.arange(1, len(pairs) + 1, dtype=float)}).groupby("i")["at"]
         base["cfirst"], base["clast"] = base["pos"].map(block.min()), base["pos"].map(block.max())
-    clash_first = 2 + max(len(keys.found), 1) + 3  # the Clashes table's header row on the Keys sheet
-    key_ranges = {**plan_keys(keys)[1], "clashes.hit": range_ref(
-        KEYS_SHEET, [d.key for d in CLASH_DEFS].index("hit"), clash_first + 1, clash_first + len(pairs))}
-    base["tkey"] = base["tkey_t"].map(lambda k: keys.ids.get(k, np.nan) if k else np.nan)
-    base["nkey"] = base["nkey_t"].map(lambda k: keys.ids.get(k, np.nan))
-    ctx = TermsContext(settings, blends.frame, keys.found, pairs)
+    key_ranges = {"clashes.hit": range_ref(KEYS_SHEET, [d.key for d in CLASH_DEFS].index("hit"), CLASH_FIRST + 1,
+                                           CLASH_FIRST + len(pairs))}
+    ctx = TermsContext(settings, blends.frame, keys, pairs)
     base = with_blended(base, blends.frame, BLENDED)
     planned = plan_table(stock_as_values(DEFS, {"p_low"}, ranges), base, ctx, HEADER_ROW + 1, {**ranges, **key_ranges},
                          with_totals=False)
     for key, compute in LIST_WORKING:  # computed live on the list rows that show them, not on every term
         planned.frame[key] = compute(planned.frame, ctx)
-    clashes = plan_table(CLASH_DEFS, pairs, ClashContext(planned.frame, settings), clash_first + 1,
+    clashes = plan_table(CLASH_DEFS, pairs, ClashContext(planned.frame, settings), CLASH_FIRST + 1,
                          planned.ranges(SHEET, "terms"), with_totals=False)
-    keys_sheet, _ = plan_keys(keys, Table(clash_first, clashes.columns, autofilter=False, title=CLASH_TITLE))
+    keys_sheet = plan_keys(Table(CLASH_FIRST, clashes.columns, autofilter=False, title=CLASH_TITLE))
     keys_list = [d.key for d in DEFS]
     n = len(base)
     first = HEADER_ROW + 1
@@ -561,6 +522,7 @@ class ClashContext:
     totals: dict[str, Any] = field(default_factory=dict)
 
 
+CLASH_FIRST = 2  # the Clashes table's header row on the Keys sheet (0-based), under its title
 CLASH_TITLE = ("Clashes: where a negative from one term (left) could block the keyword another term adds, or "
                "another term where it sells; Blocks = 1 keeps that negative off the lists")
 # Terms rows i and j, checked against Terms' Position column (a user may sort Terms): computed once per clash
@@ -594,13 +556,8 @@ CLASH_DEFS: list[ColumnDef] = [
 ]
 
 
-def plan_keys(keys: KeyTable, clashes: Table | None = None) -> tuple[Sheet, dict[str, str]]:
-    """The Keys sheet: found keys sorted by number, with what each says (a lookup table), then the clashes."""
-    from sheetbuilder.workbook.spec import Column
-    numbers = sorted(keys.found)
-    columns = [Column("Key", "int", DATA, numbers, width=10),
-               Column("Found", "text", DATA, [keys.found[k] for k in numbers], width=40)]
-    sheet = Sheet(KEYS_SHEET, above=[[Cell("Lookup keys: existing exact keywords and negatives, by number", style="title")]],
-                  table=Table(2, columns), freeze=(3, 0), tab_color="#8C8C8C", more=[clashes] if clashes else [])
-    first, last = 3, 2 + max(len(numbers), 1)
-    return sheet, {"keys.key": range_ref(KEYS_SHEET, 0, first, last), "keys.found": range_ref(KEYS_SHEET, 1, first, last)}
+def plan_keys(clashes: Table) -> Sheet:
+    """The Keys sheet: the Clashes table, whose Blocks column keeps a negative off the lists."""
+    return Sheet(KEYS_SHEET, above=[[Cell("Clashes between the lists: negatives that could block a keyword added "
+                                          "or a term that sells", style="title")]],
+                 table=clashes, freeze=(CLASH_FIRST + 1, 0), tab_color="#8C8C8C")

@@ -89,7 +89,7 @@ def as_cell_values(series: pd.Series) -> list:
     return series.tolist()
 
 
-_READS = re.compile(r"\{(?:c|tot|cp):(\w+)\}")
+_READS = re.compile(r"\{(?:c|tot|cp|at):(\w+)\}")
 
 
 def compute_order(defs: list[ColumnDef]) -> list[ColumnDef]:
@@ -114,11 +114,19 @@ def compute_order(defs: list[ColumnDef]) -> list[ColumnDef]:
 
 
 _ROW_VALUE = re.compile(r"\{row:(\w+)\}")
+_AT = re.compile(r"\{at:(\w+)\}")  # the row's own cell of a column where the table has it, else its number
 
 
-def _per_row(formula: str, frame: pd.DataFrame) -> list[str]:
-    """One formula per row, each {row:key} replaced by that row's whole number from the frame."""
+def _per_row(formula: str, frame: pd.DataFrame) -> str | list[str]:
+    """One formula per row, each {row:key} replaced by that row's whole number from the frame; the one formula
+    of every row when each such number is the same on every row (written once: the renderer may share it)."""
+    for key in set(_ROW_VALUE.findall(formula)):
+        values = frame[key].to_numpy()
+        if len(values) and (values == values[0]).all():
+            formula = formula.replace("{row:%s}" % key, str(int(values[0])))
     keys = _ROW_VALUE.findall(formula)
+    if not keys:
+        return formula
     columns = {k: frame[k].to_numpy() for k in keys}
     out = []
     for i in range(len(frame)):
@@ -189,7 +197,8 @@ def plan_table(defs: list[ColumnDef], base: pd.DataFrame, ctx: Any, first_body_r
             columns.append(Column(d.header, d.style.split("_")[0] + EXPORT_STYLE, DATA, as_cell_values(frame[d.key]),
                                   None, d.width, d.hidden))
             continue
-        formula = resolve(d.formula, lookup) if d.formula else None
+        template = _AT.sub(lambda m: ("{c:%s}" if m.group(1) in letters else "{row:%s}") % m.group(1), d.formula or "")
+        formula = resolve(template, lookup) if template else None
         if formula and "{row:" in formula:  # per-row numbers written into the formula (a direct reference)
             formula = _per_row(formula, frame)
         columns.append(Column(d.header, d.style, d.kind if d.formula is None else FORMULA,

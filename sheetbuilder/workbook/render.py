@@ -11,15 +11,18 @@ from __future__ import annotations
 import datetime as dt
 import math
 import re
+import zipfile
 from contextlib import contextmanager
 from pathlib import Path
 from typing import Any, Callable, Iterator
 
 import pandas as pd
 import xlsxwriter
+import xlsxwriter.workbook
 from xlsxwriter.exceptions import FileCreateError
 from xlsxwriter.packager import Packager
-from xlsxwriter.worksheet import CellFormulaTuple, CellRichStringTuple
+from xlsxwriter.utility import xl_rowcol_to_cell_fast
+from xlsxwriter.worksheet import CellFormulaTuple, CellRichStringTuple, Worksheet
 from xlsxwriter.xmlwriter import XMLwriter
 
 from sheetbuilder.values import ERROR_VALUES
@@ -86,6 +89,72 @@ def put_formula(ws, row: int, col: int, formula: str, fmt, value: Any) -> None:
     ws.table[row][col] = CellFormulaTuple(formula[1:] if formula.startswith("=") else formula, fmt, value)
 
 
+def _put_shared(ws, row: int, col: int, formula: SharedFormula, fmt, value: Any) -> None:
+    """Store one cell of a shared formula group (its formula already checked and stripped of '=')."""
+    if ws._check_dimensions(row, col):
+        raise ValueError(f"cell {row},{col} is outside the sheet")
+    if ws.constant_memory and row > ws.previous_row:
+        ws._write_single_row(row)
+    ws.table[row][col] = CellFormulaTuple(formula, fmt, value)
+
+
+class SharedFormula(str):
+    """A formula of a shared group (ECMA-376 Part 1, 18.3.1.40 f, t="shared"): the group's first cell holds the
+    text and the range (ref); every other cell holds only the group's number (si) and is the first cell's formula
+    with its relative references moved down by the rows between them."""
+
+    def __new__(cls, text: str, si: int, ref: str | None) -> "SharedFormula":
+        out = super().__new__(cls, text)
+        out.si, out.ref = si, ref
+        return out
+
+
+class _SharedString(tuple):
+    """A text cell stored once in the workbook's shared strings (the writer stores text inline in its
+    constant_memory mode): (index in the table, format)."""
+
+
+class _Worksheet(Worksheet):
+    """The writer's worksheet, which also writes a shared formula's <f> element and a shared string's cell
+    in constant_memory mode (the writer has neither)."""
+
+    shared_groups = 0  # shared formula groups written so far: the next group's number (si)
+
+    def _write_cell(self, row: int, col: int, cell) -> None:
+        if type(cell) is not _SharedString:
+            super()._write_cell(row, col, cell)
+            return
+        self._xml_string_element(cell[0], [("r", xl_rowcol_to_cell_fast(row, col)), ("s", cell[1]._get_xf_index())])
+
+    def _xml_formula_element(self, formula, result, attributes=[]) -> None:
+        if type(formula) is not SharedFormula:
+            super()._xml_formula_element(formula, result, attributes)
+            return
+        attr = "".join(f' {key}="{self._escape_attributes(value)}"' for key, value in attributes)
+        if formula.ref:
+            f = f'<f t="shared" ref="{formula.ref}" si="{formula.si}">{self._escape_data(str(formula))}</f>'
+        else:
+            f = f'<f t="shared" si="{formula.si}"/>'
+        self.fh.write(f"<c{attr}>{f}<v>{self._escape_data(result)}</v></c>")
+
+
+_QUOTED = re.compile(r'"(?:[^"]|"")*"')
+_THIS_ROW = re.compile(r"(?<![A-Za-z0-9_.])\$?[A-Za-z]{1,3}\{[rp]\}")
+_RELATIVE_ROW = re.compile(r"(?<![A-Za-z0-9_.])\$?[A-Za-z]{1,3}[0-9]+(?![0-9A-Za-z_(])|"
+                           r"(?<![A-Za-z0-9_.$])[0-9]+:\$?[0-9]+")
+
+
+def shareable(template: str) -> bool:
+    """True when a column's formula template may be written as one shared formula: every reference whose row
+    is relative is to the cell's own row ({r}) or the row above ({p}), so moving the first row's formula down
+    gives each row's own; any other relative row, or {r} or {p} used as a number or inside text, says no."""
+    bare = _QUOTED.sub('""', template)
+    if bare.count("{r}") + bare.count("{p}") != template.count("{r}") + template.count("{p}"):
+        return False
+    rest = _THIS_ROW.sub("", bare)
+    return "{r}" not in rest and "{p}" not in rest and _RELATIVE_ROW.search(rest) is None
+
+
 def _cached(value: Any) -> Any:
     """A cached result as the file stores it: NaN and None become blank text."""
     if value is None or value is pd.NA or (isinstance(value, float) and math.isnan(value)):
@@ -134,6 +203,12 @@ def put_value(ws, row: int, col: int, value: Any, fmt) -> None:
                 ws._write_single_row(row)
             ws.table[row][col] = CellRichStringTuple(
                 run if ws.constant_memory else ws.str_table._get_shared_string_index(run), fmt, text)
+        elif fmt is not None and type(ws) is _Worksheet:
+            if ws._check_dimensions(row, col):
+                raise ValueError(f"cell {row},{col} is outside the sheet")
+            if ws.constant_memory and row > ws.previous_row:
+                ws._write_single_row(row)
+            ws.table[row][col] = _SharedString((ws.str_table._get_shared_string_index(text), fmt))
         else:
             ws.write_string(row, col, text, fmt)
     elif isinstance(value, bool):
@@ -202,11 +277,22 @@ def _write_table(ws, table: Table, row: int, formats: dict, state_formats: dict,
     n = table.n_rows
     step = max(1, n // 50)
     marked = [(col, c) for col, c in enumerate(table.columns) if c.kind != FORMULA and (c.cell_styles or c.notes)]
+    shared: dict[int, tuple[SharedFormula, SharedFormula]] = {}  # column: (its first cell's formula, the others')
+    if n > 1 and ws._check_dimensions(row + n - 1, len(columns) - 1, True, True) == 0:
+        for col, c, _, formula, _ in columns:
+            if c.kind == FORMULA and isinstance(formula, str) and shareable(formula):
+                si, ws.shared_groups = ws.shared_groups, ws.shared_groups + 1
+                text = formula.replace("{r}", str(row + 1)).replace("{p}", str(row))
+                letter = cell_ref(row, col).rstrip("0123456789")
+                shared[col] = (SharedFormula(text[1:] if text.startswith("=") else text, si,
+                                             f"{letter}{row + 1}:{letter}{row + n}"), SharedFormula("", si, None))
     for i in range(n):
         r = row + i
         rs, ps = str(r + 1), str(r)
         for col, c, fmt, formula, values in columns:
-            if c.kind == FORMULA:
+            if col in shared:
+                _put_shared(ws, r, col, shared[col][i > 0], fmt, _cached(values[i]))
+            elif c.kind == FORMULA:
                 text = (formula[i] if isinstance(formula, list) else formula).replace("{r}", rs)
                 if "{p}" in text:  # the previous row, for running counts
                     text = text.replace("{p}", ps)
@@ -378,7 +464,7 @@ def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress:
 
     placed receives where each block went, for the charts' data caches.
     """
-    ws = wb.add_worksheet(sheet.name)
+    ws = wb.add_worksheet(sheet.name, worksheet_class=_Worksheet)
     widths, hidden = _widths(sheet)
     for col, width in sorted(widths.items()):
         ws.set_column(col, col, width, None, {"hidden": col in hidden})
@@ -447,11 +533,31 @@ class _Packager(Packager):
             part.write(xml)
 
 
+ZIP_LEVEL = 7  # deflate level of the package's parts: 3% smaller than the writer's 6 for a tenth more time (8: 6%, 6x)
+
+
+class _Zip(zipfile.ZipFile):
+    """The package's zip file, compressed at ZIP_LEVEL unless told otherwise."""
+
+    def __init__(self, *args, **kwargs) -> None:
+        kwargs.setdefault("compresslevel", ZIP_LEVEL)
+        super().__init__(*args, **kwargs)
+
+
 class _Workbook(xlsxwriter.Workbook):
-    """The writer's workbook, packaged by :class:`_Packager` (the writer's documented way to replace its packager)."""
+    """The writer's workbook, packaged by :class:`_Packager` (the writer's documented way to replace its packager)
+    into a zip file compressed at ZIP_LEVEL."""
 
     def _get_packager(self) -> Packager:
         return _Packager()
+
+    def _store_workbook(self) -> None:
+        writers_zip = xlsxwriter.workbook.ZipFile  # the name the writer's _store_workbook opens the package with
+        xlsxwriter.workbook.ZipFile = _Zip
+        try:
+            super()._store_workbook()
+        finally:
+            xlsxwriter.workbook.ZipFile = writers_zip
 
 
 @contextmanager
