@@ -1,14 +1,17 @@
-"""The Actions sheet: one live list of every change whose Final value differs from today.
+"""The Actions sheet: a live review page of the changes whose Final value differs from today.
 
 Five kinds of change, in this order: bid changes (Bids, Final bid different from the bid),
 keywords and product targets to add (Harvest), negatives to add in the source ad groups of
 promoted terms (Harvest), negatives to add (Negatives), daily budget changes (Budget).
-The k-th row finds its kind from the running totals of the counts above the list, then its row
-on the source sheet: directly for the Harvest and Negatives lists (their k-th rows), or by
-MATCH on the source sheet's strictly increasing helper key (the same macro-free method as
-those lists). One hidden working column (Source row) holds both, the kind as an offset of
-SPAN rows, so each row costs its ten visible cells and one lookup. The `changes` command
-exports this list as CSV.
+The sheet is two blocks of rows. The first shows the first actions_cap bid changes (every one is
+on Bids, and `changes` writes them all, from :func:`every_change`): its k-th row finds the k-th
+change by MATCH on Bids' strictly increasing Changes key (the same macro-free method as the term
+lists), and its formulas name only Bids ranges, so an edit that moves every bid marks only these
+rows. The second lists every change of the other kinds: its k-th row finds its kind from the running
+totals of their counts, then its row on the source sheet, directly for the Harvest and Negatives
+lists (their k-th rows) or by MATCH on Harvest's or Budget's key. One hidden working column (Source
+row) holds both, the kind as an offset of SPAN rows, so each row costs its ten visible cells and one
+lookup.
 
 Every row carries its product and the money at stake (the target's or term's spend, or the
 size of the budget change). Within a kind the rows follow their source sheets, which are
