@@ -87,22 +87,39 @@ def test_changes_writes_every_bid_change_in_bids_order_then_the_other_kinds(page
     assert [b[:4] + (round(b[4], 2),) for b in _bids_changed(path)] == written  # in the Bids sheet's order
 
 
-def test_a_decision_typed_on_a_bids_row_beyond_the_page_is_written(paged, tmp_path):
-    path, reference = paged
+def _typed_beyond_the_page(path, tmp_path, decision=None):
+    """(the edited copy, the row's keys, what was typed): a Decision on the last Bids row whose bid does not
+    change (beyond the page, which holds the first PAGE changes); by default its bid plus 0.07."""
     values = openpyxl.load_workbook(path, data_only=True)["Bids"]
     header = [c.value for c in values[4]]
     current, final = header.index("Current bid"), header.index("Final bid")
-    # The last Bids row whose bid does not change (beyond the page: the page holds the first PAGE changes).
     row = max(r for r in range(5, values.max_row + 1)
               if values.cell(r, 1).value and values.cell(r, final + 1).value == values.cell(r, current + 1).value)
-    typed = round(values.cell(row, current + 1).value + 0.07, 2)
+    typed = round(values.cell(row, current + 1).value + 0.07, 2) if decision is None else decision
     key = tuple(values.cell(row, header.index(h) + 1).value for h in BID_KEY)
     wb = openpyxl.load_workbook(path)
     wb["Bids"].cell(row, header.index("Decision") + 1).value = typed
     edited = tmp_path / "edited.xlsx"
     wb.save(edited)
+    return edited, key, typed
+
+
+def test_a_decision_typed_on_a_bids_row_beyond_the_page_is_written(paged, tmp_path):
+    path, reference = paged
+    edited, key, typed = _typed_beyond_the_page(path, tmp_path)
     result = export_changes(edited, tmp_path / "changes.csv")
     bids = [r for r in result.rows if r[0] == "bid"]
     assert len(reference["bid"]) + 1 == len(bids)
     assert [key + (typed, "your decision")] == [tuple(r[1:5]) + (r[6], r[7]) for r in bids if tuple(r[1:5]) == key]
     assert [] == [p for p in result.problems if p.file == "Actions"]
+
+
+def test_an_invalid_decision_beyond_the_page_is_refused_on_bids_naming_its_target(paged, tmp_path):
+    path, _ = paged
+    edited, key, _ = _typed_beyond_the_page(path, tmp_path, decision="a lot")
+    result = export_changes(edited, tmp_path / "changes.csv")
+    campaign, group, target, match = key
+    assert [("Bids", None, "Final bid")] == [(p.file, p.row, p.column) for p in result.problems
+                                            if f"{target} ({match}) in {campaign} / {group}" in p.message]
+    assert 1 == len(result.refused)
+    assert key not in [tuple(r[1:5]) for r in result.rows]

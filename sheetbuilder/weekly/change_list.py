@@ -56,16 +56,19 @@ class OffPage:
     target: str
 
 
+ON_BIDS = {"New": "Final bid", "Current": "Current bid", "Target or term": "Target", "Money at stake": "Spend"}
+
+
 def problem_at(where: Any, column: str | None, message: str) -> Problem:
-    """The problem of a change: on its Actions row, or on Bids for a bid change beyond the page."""
+    """The problem of a change: on its Actions row, or on Bids (its column there) for a bid change beyond the page."""
     if isinstance(where, OffPage):
-        return Problem(BIDS_SHEET, None, "Final bid", f"the bid change of {where.target} (beyond the Actions page, "
-                                                        f"{column}): {message}")
+        return Problem(BIDS_SHEET, None, ON_BIDS.get(column, column),
+                       f"{message} (the bid change of {where.target}, beyond the Actions page)")
     return Problem(SHEET, where, column, message)
 
 
-def check_change(row: int, values: list[Any], context: dict[str, Any]) -> list[Problem]:
-    """The problems of one change (none when it can be written)."""
+def check_change(row: Any, values: list[Any], context: dict[str, Any]) -> list[Problem]:
+    """The problems of one change at row (an Actions row, or :class:`OffPage`); none when it can be written."""
     named = dict(zip(KEYS, values))
     kind, campaign, group, term, new = (named.get(k) for k in ("kind", "campaign", "ad_group", "target", "new"))
     kind = str(kind).strip().lower()
