@@ -204,8 +204,8 @@ def defs(counts: list[str], bids: bool = False) -> list[ColumnDef]:
                              + cents_formula("ABS(INDEX({rng:budget_campaigns.final},{c:pos})-INDEX("
                                              "{rng:budget_campaigns.budget},{c:pos}))") + ",\"\")"}),
                   width=11),
-        ColumnDef("k", "Number", "int", "Helper: the row's number within its block (bid changes, other changes).", lambda df, ctx: df["k"], kind=DATA, width=6,
-                  hidden=True),
+        ColumnDef("k", "Number", "int", "Helper: the row's number within its block (bid changes, other changes).",
+                  lambda df, ctx: df["k"], kind=DATA, width=6, hidden=True),
         ColumnDef("pos", "Source row", "int",
                   "Working: the change's kind and its row on its source sheet, (kind's number - 1) x 10,000,000 + row.",
                   _num("_pos"), pos, width=6, hidden=True),
@@ -368,9 +368,10 @@ def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settin
              count_cells,
              [Cell(note_value, note_formula, "alert" if short else "note")]]
     table = Table(HEADER_ROW, planned.columns)
-    # Printed: the rows filled when built (changes settled later print once rebuilt).
+    # Printed: the rows filled when built (changes settled later print once rebuilt), the bid block's room between.
+    filled = p + len(others) if others else min(len(bids), p)
     sheet = Sheet(SHEET, above=above, table=table, freeze=(HEADER_ROW + 1, 1), tab_color="#0B5C8A",
-                  page=stacked_pages([table], last_row=HEADER_ROW + min(len(bids), p) + min(len(others), q)))
+                  page=stacked_pages([table], last_row=HEADER_ROW + filled))
     return sheet, planned, counts, count_refs
 
 
