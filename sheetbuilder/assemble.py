@@ -251,7 +251,8 @@ def _guide(a: Assembly) -> None:
     figures = dashboard(a.tables, a.anchors, (a.anchors["budget.shifted"], a.anchors.value("budget.shifted")))
     figures.append(Figure(SETTINGS_FIGURE, "=" + NOT_VALID_NAME, 0.0, "int"))  # a build types only valid values
     counts = [name for name in a.anchors if name.startswith("actions_count.")]
-    figures.append(Figure("Changes in the Actions list", "=" + "+".join(a.anchors[n] for n in counts),
+    figures.append(Figure("Changes to apply (all written by the changes command)",
+                          "=" + "+".join(a.anchors[n] for n in counts),
                           float(sum(a.anchors.value(n) for n in counts)), "int"))
     for label, style in FOLLOWUP_SUMMARY:
         name = f"followup_summary.{label}"

@@ -232,28 +232,26 @@ def test_a_final_bid_typed_over_by_hand_is_reported_and_the_formula_value_export
 
 
 def test_changes_beyond_a_full_list_are_said_on_the_sheet_and_by_changes_never_dropped_in_silence(tmp_path):
-    # A list holds what qualified at build plus its room, within actions_cap (settings.toml); capped at 3, the
-    # Actions sheet shows 3 of the demo's changes and `changes`, which plans the same list, reports the rest.
+    # Harvest holds what qualified at build plus its room, within list_cap (settings.toml); capped at 3, the
+    # terms to promote beyond it are in no list, so `changes`, which plans the same lists, reports them.
+    # (The Actions sheet's bid page leaves nothing out: tests/test_actions_page.py.)
     import shutil
 
     from conftest import DEMO
-    from oracle_actions import actions_oracle
+    from oracle_terms import terms_oracle
+    from oracle import profit_oracle
     from sheetbuilder.pipeline import build, load
-    from workbook_io import open_values
 
     folder = tmp_path / "capped"
     shutil.copytree(DEMO, folder)
     with open(folder / "settings.toml", "a", encoding="utf-8") as fh:
-        fh.write("actions_cap = 3\n")
+        fh.write("list_cap = 3\n")
     inputs, settings, _ = load(folder)
-    total = sum(len(rows) for rows in actions_oracle(inputs.tables, settings).values())
-    assert total > 3
+    promote = len(terms_oracle(inputs.tables, settings, profit_oracle(inputs.tables, settings)[0])[1])
+    assert promote > 3
     built = build(folder, tmp_path / "capped.xlsx")
-    note = open_values(built.output)["Actions"]["A3"].value
-    assert note.startswith(f"Showing the first 3 of {total} changes; raise actions_cap")
     result = export_changes(built.output, tmp_path / "changes.csv")
-    assert 3 >= result.written + len(result.refused)
-    beyond = [p for p in result.problems if p.file == "Actions" and p.row is None]
-    assert [f"{total - 3} of the {total} changes are beyond the Actions list's 3 rows"] == [
-        p.message.split(" (")[0] for p in beyond]
+    beyond = [(p.file, p.message.split(" (")[0]) for p in result.problems if p.row is None]
+    assert ("Harvest", f"{promote - 3} of the {promote} terms to promote are beyond the Harvest list's 3 rows") in beyond
+    assert [] == [p for p in beyond if p[0] == "Actions"]
     assert 0 != main(["changes", str(built.output), "-o", str(tmp_path / "again.csv")])

@@ -118,6 +118,7 @@ def plan_actions(demo: Path) -> dict[str, list[dict]]:
         **{label: [{"op": "set", "sheet": "Settings", "cell": _typed_setting_cell(wb, key), "value": value}
                    for key, value in pasted.items()] for label, pasted in PASTES.items()},
         "product_row_added_below": _row_below_steps(catalog),
+        "bid_page_of_three": _beyond_page_steps(demo),
     }
 
 
@@ -182,7 +183,8 @@ def hands(work, demo_build):
     out.mkdir()
     actions = plan_actions(demo_build.output)
     saved = {k: out / f"{k}{SAVED_AS.get(k, '.xlsx')}" for k in actions}
-    jobs = [{"label": k, "src": str(demo_build.output), "dst": str(saved[k]), "steps": steps}
+    sources = {k: make(work) for k, make in OWN_SOURCE.items()}  # actions done on a workbook of their own
+    jobs = [{"label": k, "src": str(sources.get(k, demo_build.output)), "dst": str(saved[k]), "steps": steps}
             for k, steps in actions.items()]
     results = run_driver(jobs, work)
     refused = {k: results.pop(k)["error"] for k in REFUSED}
@@ -645,3 +647,68 @@ def test_a_product_typed_on_a_row_below_in_catalog_is_kept_next_week(hands, work
     assert [BELOW] == [{k: row[k] for k in BELOW} for row in kept]
     assert {"price", "unit_cost", "fees_per_unit"} == {r.column for r in built.carry.carried
                                                        if r.key == BELOW["product_id"]}
+
+
+# The Actions page (README, Settings: actions_cap): the demo built with a bid page of 3 rows and no term promoted
+# (no add without a destination, which `changes` refuses), a Decision typed in LibreOffice on a Bids row beyond
+# the page, saved; `changes` then writes every bid change LibreOffice's own Bids sheet shows.
+PAGE_SETTINGS = "actions_cap = 3\nmin_promote_orders = 1000\n"
+
+
+def _paged_demo(work: Path) -> Path:
+    """The demo built with PAGE_SETTINGS appended to its settings.toml."""
+    folder = work / "paged_demo"
+    shutil.copytree(DEMO, folder)
+    with open(folder / "settings.toml", "a", encoding="utf-8") as fh:
+        fh.write("\n" + PAGE_SETTINGS)
+    return build(folder, work / "paged_demo.xlsx", built_on=BUILT_ON).output
+
+
+OWN_SOURCE = {"bid_page_of_three": _paged_demo}
+
+
+def _bids_values(path: Path) -> tuple[list[str], list[tuple]]:
+    """Bids' headers and its rows' cached values, in sheet order."""
+    ws = openpyxl.load_workbook(path, data_only=True)["Bids"]
+    top, last, headers = _table(ws, "Campaign")
+    return headers, [tuple(ws.cell(r, c + 1).value for c in range(len(headers))) for r in range(top + 1, last + 1)]
+
+
+def _beyond_page(demo: Path) -> tuple[str, tuple, float]:
+    """(the Decision cell, the row's keys, the bid typed) on the last Bids row whose bid does not change."""
+    headers, rows = _bids_values(demo)
+    top = _table(openpyxl.load_workbook(demo)["Bids"], "Campaign")[0]
+    current, final = headers.index("Current bid"), headers.index("Final bid")
+    i = max(i for i, r in enumerate(rows) if r[0] and r[final] == r[current])
+    cell = openpyxl.utils.get_column_letter(headers.index("Decision") + 1) + str(top + 1 + i)
+    return cell, rows[i][:4], round(rows[i][current] + 0.07, 2)
+
+
+def _beyond_page_steps(demo: Path) -> list[dict]:
+    """A bid typed in Decision on the last Bids row whose bid does not change (beyond a page of 3 bid changes)."""
+    cell, _, value = _beyond_page(demo)
+    return [{"op": "set", "sheet": "Bids", "cell": cell, "value": value}]
+
+
+@pytest.mark.libreoffice
+@pytest.mark.slow
+def test_bid_changes_beyond_the_actions_page_are_all_written_after_libreoffice_saves(hands, work, demo_build):
+    from sheetbuilder.cli import main
+    from sheetbuilder.workbook.csv_safe import read_csv_rows
+    saved = hands["bid_page_of_three"]
+    headers, rows = _bids_values(saved)  # as LibreOffice recalculated them, the typed Decision included
+    at = [headers.index(h) for h in ("Campaign", "Ad group", "Target", "Match type", "Final bid")]
+    changed = [tuple(r[i] for i in at[:4]) + (round(r[at[4]], 2),) for r in rows
+               if r[0] and r[at[4]] != r[headers.index("Current bid")]]
+    _, key, typed = _beyond_page(demo_build.output)
+    assert key + (typed,) in changed  # LibreOffice's Bids took the typed bid
+    assert changed.index(key + (typed,)) >= 3  # beyond the page
+    ws = openpyxl.load_workbook(saved, data_only=True)["Actions"]
+    shown = [r for r in ws.iter_rows(min_row=5, values_only=True) if r[0]]
+    assert 3 == sum(1 for r in shown if r[0] == "bid")
+    assert (f"Showing the first 3 of {len(changed)} bid changes; every one is on Bids (its Final bid) and "
+            "sheetbuilder changes writes them all.") == ws["A3"].value
+    out = work / "changes_bid_page.csv"
+    assert 0 == main(["changes", str(saved), "-o", str(out)])
+    written = [(r[1], r[2], r[3], r[4], round(float(r[6]), 2)) for r in read_csv_rows(out)[1:] if r[0] == "bid"]
+    assert changed == written

@@ -136,9 +136,10 @@ SETTINGS: tuple[SettingSpec, ...] = (
     SettingSpec("list_cap", "Rows in each list", 2000, "int",
                 "The most rows the Harvest and Negatives lists hold; the sheet says when more qualify "
                 "(used when building).", 1, 1000000, live=False),
-    SettingSpec("actions_cap", "Rows in the Actions list", 200000, "int",
-                "The most rows the Actions list holds; the sheet says when more changes qualify (used when building).",
-                1, 1000000, live=False),
+    SettingSpec("actions_cap", "Bid changes on the Actions page", 500, "int",
+                "The most bid changes the Actions sheet shows, first in Bids' order (by spend when built); every one "
+                "is on Bids and the changes command writes them all, and every change of the other kinds is listed "
+                "(used when building).", 1, 1000000, live=False),
     SettingSpec("currency_symbol", "Currency symbol", "$", "text",
                 "Shown in money formats (used when building).", live=False),
     SettingSpec("decimal_comma", "Decimal comma", False, "bool",
@@ -200,7 +201,7 @@ class Settings:
     product_id_pattern: str = r"[a-z]{1,4}-?\d{3,}|item=.+"
     fold_plurals: bool = False
     list_cap: int = 2000
-    actions_cap: int = 200000
+    actions_cap: int = 500
     history_weeks: int = 0
     currency_symbol: str = "$"
     decimal_comma: bool = False

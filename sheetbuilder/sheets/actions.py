@@ -1,14 +1,17 @@
-"""The Actions sheet: one live list of every change whose Final value differs from today.
+"""The Actions sheet: a live review page of the changes whose Final value differs from today.
 
 Five kinds of change, in this order: bid changes (Bids, Final bid different from the bid),
 keywords and product targets to add (Harvest), negatives to add in the source ad groups of
 promoted terms (Harvest), negatives to add (Negatives), daily budget changes (Budget).
-The k-th row finds its kind from the running totals of the counts above the list, then its row
-on the source sheet: directly for the Harvest and Negatives lists (their k-th rows), or by
-MATCH on the source sheet's strictly increasing helper key (the same macro-free method as
-those lists). One hidden working column (Source row) holds both, the kind as an offset of
-SPAN rows, so each row costs its ten visible cells and one lookup. The `changes` command
-exports this list as CSV.
+The sheet is two blocks of rows. The first shows the first actions_cap bid changes (every one is
+on Bids, and `changes` writes them all, from :func:`every_change`): its k-th row finds the k-th
+change by MATCH on Bids' strictly increasing Changes key (the same macro-free method as the term
+lists), and its formulas name only Bids ranges, so an edit that moves every bid marks only these
+rows. The second lists every change of the other kinds: its k-th row finds its kind from the running
+totals of their counts, then its row on the source sheet, directly for the Harvest and Negatives
+lists (their k-th rows) or by MATCH on Harvest's or Budget's key. One hidden working column (Source
+row) holds both, the kind as an offset of SPAN rows, so each row costs its ten visible cells and one
+lookup.
 
 Every row carries its product and the money at stake (the target's or term's spend, or the
 size of the budget change). Within a kind the rows follow their source sheets, which are
@@ -17,7 +20,7 @@ change): a Decision typed later changes which rows are listed, not their order.
 """
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
@@ -37,7 +40,7 @@ HEADER_ROW = 3  # 0-based: title, counts, a note, then the header (the layout th
 HEADERS = ("Kind", "Campaign", "Ad group", "Target or term", "Match type", "Current", "New", "Reason", "Product ID",
            "Money at stake")
 SOURCES = ("bids", "harvest", "negative_list", "budget_campaigns")  # the tables the list reads (each may be absent)
-QUALIFYING = "qualifying"  # the planned table's count of the changes that qualify (listed or not: the list has a cap)
+BID_ROWS = "bid_rows"  # the planned table's count of the rows of its bid block (the page), in totals_values
 NO_DESTINATION = "choose destination: a live campaign and ad group for this product"
 
 
@@ -87,13 +90,14 @@ def _branch(part: str, seg: int) -> str:
     return part if seg == 1 else part.replace("{c:pos}", f"({{c:pos}}-{(seg - 1) * SPAN})")
 
 
-def _field(parts: dict[int, str]) -> str:
+def _field(parts: dict[int, str], first: int = 1) -> str:
     """A formula choosing, by the row's segment (read from its Source row), one of parts; blank for the others.
 
-    Neighbouring segments with the same branch (a blank, a fixed word) share one test.
+    Segments before first never reach the rows the formula is written in. Neighbouring segments with the same
+    branch (a blank, a fixed word) share one test.
     """
     runs: list[tuple[int, str]] = []  # (last segment of the run, its branch), in segment order
-    for seg in range(1, max(parts) + 1):
+    for seg in range(first, max(parts) + 1):
         branch = _branch(parts.get(seg, '""'), seg)
         if runs and runs[-1][1] == branch:
             runs[-1] = (seg, branch)
@@ -127,45 +131,61 @@ def _num(key: str):
     return compute
 
 
-def defs(counts: list[str]) -> list[ColumnDef]:
-    """The Actions columns, given the cells holding each segment's count (absolute references), in SEGMENTS' order.
+def _bid_formula(part: str) -> str:
+    """A column of the bid rows: part read at the row's Bids position (these rows name only Bids ranges)."""
+    return f'=IF({{c:pos}}="","",{part})'
 
-    The hidden Source row is the only working column: the row's segment follows from k against the running
-    totals of the counts, and it holds (segment - 1) x SPAN + the change's row on its source sheet (the k-th
-    of Bids' changes, Harvest's rows, Harvest's source negatives, Negatives' rows, Budget's changes), so
+
+def defs(counts: list[str], bids: bool = False) -> list[ColumnDef]:
+    """The Actions columns of one block of rows, given the cells holding each segment's count (absolute
+    references), in SEGMENTS' order.
+
+    The list is two blocks, each row numbered (k) within its block. The first block (bids True) holds the
+    first bid changes, each row the k-th of Bids' changes (MATCH over Bids' Changes key): its formulas name
+    only Bids ranges, so an edit that moves every bid marks only these rows. The second block holds the other
+    kinds, its row's segment following from k against the running totals of their counts. The hidden Source
+    row is the only working column: it holds (segment - 1) x SPAN + the change's row on its source sheet (the
+    k-th of Bids' changes, Harvest's rows, Harvest's source negatives, Negatives' rows, Budget's changes), so
     each visible column finds both the segment and the row in it.
     """
-    cum = ["+".join(counts[:i + 1]) for i in range(len(counts))]
-    # The change's number within its kind is k less the kinds before it; the source row follows from it.
-    pos = ('=IF({c:k}<=%s,MATCH({c:k},{rng:bids.a_key},1),IF({c:k}<=%s,%d+{c:k}-(%s),'
-           'IF({c:k}<=%s,%d+MATCH({c:k}-(%s),{rng:harvest.n_key},1),IF({c:k}<=%s,%d+{c:k}-(%s),'
-           'IF({c:k}<=%s,%d+MATCH({c:k}-(%s),{rng:budget_campaigns.c_key},1),"")))))'
-           % (cum[0], cum[1], SPAN, cum[0], cum[2], 2 * SPAN, cum[1], cum[3], 3 * SPAN, cum[2],
-              cum[4], 4 * SPAN, cum[3]))
-    kind = ('=IF({c:pos}="","",IF({c:pos}<%d,"bid",IF({c:pos}<%d,IF(INDEX({rng:harvest.kind},{c:pos}-%d)='
-            '"product target","add product target","add keyword"),IF({c:pos}<%d,"add negative","budget"))))'
-            % (SPAN, 2 * SPAN, SPAN, 4 * SPAN))
+    if bids:
+        pos = '=IF({c:k}<=%s,MATCH({c:k},{rng:bids.a_key},1),"")' % counts[0]
+        kind = '=IF({c:pos}="","","bid")'
+    else:
+        cum = ["+".join(counts[1:i + 1]) for i in range(1, len(counts))]  # the other kinds' running totals
+        # The change's number within its kind is k less the kinds before it; the source row follows from it.
+        pos = ('=IF({c:k}<=%s,%d+{c:k},IF({c:k}<=%s,%d+MATCH({c:k}-(%s),{rng:harvest.n_key},1),'
+               'IF({c:k}<=%s,%d+{c:k}-(%s),IF({c:k}<=%s,%d+MATCH({c:k}-(%s),{rng:budget_campaigns.c_key},1),""))))'
+               % (cum[0], SPAN, cum[1], 2 * SPAN, cum[0], cum[2], 3 * SPAN, cum[1], cum[3], 4 * SPAN, cum[2]))
+        kind = ('=IF({c:pos}="","",IF({c:pos}<%d,IF(INDEX({rng:harvest.kind},{c:pos}-%d)="product target",'
+                '"add product target","add keyword"),IF({c:pos}<%d,"add negative","budget")))'
+                % (2 * SPAN, SPAN, 4 * SPAN))
+
+    def pick(parts: dict[int, str]) -> str:
+        """The column's formula in this block: its bid branch, or the other kinds' chain."""
+        return _bid_formula(parts[1]) if bids else _field(parts, first=2)
+
     return [
         ColumnDef("kind", "Kind", "text", "bid, add keyword, add product target, add negative or budget.",
                   _ref("Kind"), kind, width=16),
-        ColumnDef("campaign", "Campaign", "text", "Where the change goes.", _ref("Campaign"), _field({
+        ColumnDef("campaign", "Campaign", "text", "Where the change goes.", _ref("Campaign"), pick({
             1: _idx("bids.campaign"), 2: _idx("harvest.dest_campaign"), 3: _idx("harvest.campaign"),
             4: _idx("negative_list.campaign"), 5: _idx("budget_campaigns.campaign")}), width=26),
-        ColumnDef("ad_group", "Ad group", "text", "Blank for a campaign-level change.", _ref("Ad group"), _field({
+        ColumnDef("ad_group", "Ad group", "text", "Blank for a campaign-level change.", _ref("Ad group"), pick({
             1: _idx("bids.ad_group"), 2: _idx("harvest.dest_ad_group"), 3: _idx("harvest.ad_group"),
             4: _idx("negative_list.ad_group")}), width=18),
         ColumnDef("target", "Target or term", "text", "The keyword, target or search term.", _ref("Target or term"),
-                  _field({1: _idx("bids.target"), 2: _idx("harvest.term"), 3: _idx("harvest.term"),
+                  pick({1: _idx("bids.target"), 2: _idx("harvest.term"), 3: _idx("harvest.term"),
                           4: _idx("negative_list.term")}), width=28),
-        ColumnDef("match_type", "Match type", "text", "The match type to use.", _ref("Match type"), _field({
+        ColumnDef("match_type", "Match type", "text", "The match type to use.", _ref("Match type"), pick({
             1: _idx("bids.match_type"), 2: _idx("harvest.match"), 3: '"negative exact"',
             4: _idx("negative_list.neg_match")}), width=15),
-        ColumnDef("current", "Current", "money", "The bid or daily budget now.", _num("Current"), _field({
+        ColumnDef("current", "Current", "money", "The bid or daily budget now.", _num("Current"), pick({
             1: "INDEX({rng:bids.bid},{c:pos})", 5: "INDEX({rng:budget_campaigns.budget},{c:pos})"}), width=10),
-        ColumnDef("new", "New", "money", "The new bid, starting bid or daily budget.", _num("New"), _field({
+        ColumnDef("new", "New", "money", "The new bid, starting bid or daily budget.", _num("New"), pick({
             1: "INDEX({rng:bids.final},{c:pos})", 2: "INDEX({rng:harvest.start_bid},{c:pos})",
             5: "INDEX({rng:budget_campaigns.final},{c:pos})"}), width=10),
-        ColumnDef("reason", "Reason", "label", "Why: the rule, or your decision.", _ref("Reason"), _field({
+        ColumnDef("reason", "Reason", "label", "Why: the rule, or your decision.", _ref("Reason"), pick({
             1: 'IF(INDEX({rng:bids.decision},{c:pos})="",INDEX({rng:bids.reason},{c:pos}),"your decision")',
             2: 'IF(INDEX({rng:harvest.dest_campaign},{c:pos})="","%s","search term that sells")' % NO_DESTINATION,
             3: '"so the new keyword does not compete with its source"',
@@ -173,19 +193,19 @@ def defs(counts: list[str]) -> list[ColumnDef]:
             5: 'IF(INDEX({rng:budget_campaigns.decision},{c:pos})="","follows its products\' spend","your decision")'}),
                   width=34),
         ColumnDef("product_id", "Product ID", "text", "The product (or the campaign's products) the change is for.",
-                  _ref("Product ID"), _field({
+                  _ref("Product ID"), pick({
                       1: _idx("bids.product_id"), 2: _idx("harvest.product_id"), 3: _idx("harvest.product_id"),
                       4: _idx("negative_list.product_id"), 5: _idx("budget_campaigns.products")}), width=16),
         ColumnDef("money", "Money at stake", "money",
                   "Last period's spend of the target or term, or the size of the budget change.", _num("Money at stake"),
-                  _field({1: "INDEX({rng:bids.spend},{c:pos})", 2: "INDEX({rng:harvest.spend},{c:pos})",
+                  pick({1: "INDEX({rng:bids.spend},{c:pos})", 2: "INDEX({rng:harvest.spend},{c:pos})",
                           3: "INDEX({rng:harvest.spend},{c:pos})", 4: "INDEX({rng:negative_list.spend},{c:pos})",
                           5: "IF(ISNUMBER(INDEX({rng:budget_campaigns.final},{c:pos})),"
                              + cents_formula("ABS(INDEX({rng:budget_campaigns.final},{c:pos})-INDEX("
                                              "{rng:budget_campaigns.budget},{c:pos}))") + ",\"\")"}),
                   width=11),
-        ColumnDef("k", "Number", "int", "Helper: the row's number.", lambda df, ctx: df["k"], kind=DATA, width=6,
-                  hidden=True),
+        ColumnDef("k", "Number", "int", "Helper: the row's number within its block (bid changes, other changes).",
+                  lambda df, ctx: df["k"], kind=DATA, width=6, hidden=True),
         ColumnDef("pos", "Source row", "int",
                   "Working: the change's kind and its row on its source sheet, (kind's number - 1) x 10,000,000 + row.",
                   _num("_pos"), pos, width=6, hidden=True),
@@ -194,6 +214,7 @@ def defs(counts: list[str]) -> list[ColumnDef]:
 
 # The columns as the Guide describes them and the change list reads their keys (no counts needed).
 DEFS: list[ColumnDef] = defs(["0"] * len(SEGMENTS))
+VISIBLE = tuple(d for d in DEFS if not d.hidden)  # the columns the sheet shows and `changes` writes
 
 
 def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
@@ -244,16 +265,28 @@ def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
     return out, counts
 
 
+def every_change(tables: dict[str, PlannedTable]) -> tuple[pd.DataFrame, int]:
+    """Every change the planned tables hold, in list order (every bid change, then the other kinds), as the
+    visible columns' references compute them (keyed as DEFS), and how many are bid changes.
+
+    What `changes` writes: the Actions sheet shows only the first actions_cap bid changes, this all of them.
+    """
+    changes, counts = _changes(tables)
+    frame = pd.DataFrame({"k": np.arange(1, len(changes) + 1, dtype=float)})
+    ctx = ActionsContext(changes)
+    return pd.DataFrame({d.key: d.reference(frame, ctx) for d in VISIBLE}, index=frame.index), counts[0]
+
+
 def unlisted(tables: dict[str, PlannedTable]) -> list[tuple[str, str]]:
     """[(sheet, sentence)] for each list holding fewer rows than qualify now (its cap reached): those changes are
     in neither the sheet nor the change list `changes` writes. Empty when every change is listed.
 
-    What brings a row in: a Bids row whose Final bid differs from its Current bid; a Terms row whose Final is
-    promote (not already a keyword of its product) or block (in a live campaign, not negated, blocking nothing
-    the list adds), each through its Harvest or Negatives row; a source negative of a listed promotion; a
-    campaign whose Final budget differs. Each list holds what qualified at build plus SPARE_ROWS, within its
-    cap, so the room runs out only at list_cap or actions_cap, or after more than SPARE_ROWS rows qualify
-    since the build (the sheets say so above each list; a rebuild makes room).
+    What brings a row in: a Terms row whose Final is promote (not already a keyword of its product) or block
+    (in a live campaign, not negated, blocking nothing the list adds), each through its Harvest or Negatives
+    row. Each list holds what qualified at build plus SPARE_ROWS, within list_cap, so the room runs out only at
+    list_cap, or after more than SPARE_ROWS rows qualify since the build (the sheets say so above each list; a
+    rebuild makes room). The Actions sheet is not one of them: `changes` writes every change (every bid
+    change, the page showing only the first actions_cap), whatever the sheet's room.
     """
     out = []
     if "Terms" in tables:
@@ -265,18 +298,37 @@ def unlisted(tables: dict[str, PlannedTable]) -> list[tuple[str, str]]:
                     out.append((sheet, f"{qualify - rows} of the {qualify} {noun} are beyond the {sheet} list's "
                                        f"{rows} rows (list_cap in settings.toml): they and their changes are not "
                                        "listed; raise list_cap, rebuild the workbook and export again"))
-    if SHEET in tables:
-        changes, rows = int(tables[SHEET].totals_values.get(QUALIFYING, 0)), len(tables[SHEET].frame)
-        if changes > rows:
-            out.append((SHEET, f"{changes - rows} of the {changes} changes are beyond the {SHEET} list's {rows} rows "
-                               "(actions_cap in settings.toml): they are not listed; raise actions_cap, rebuild the "
-                               "workbook and export again"))
     return out
+
+
+def _note(counts: list[str], listed: tuple[int, int], values: tuple[int, int]) -> tuple[str, str, bool]:
+    """The line above the list: (its value, its formula, whether it says that rows are left out).
+
+    counts are the cells of the segment counts, listed the rows of each block, values the changes of each
+    block at build (bid changes, the other kinds).
+    """
+    static = ("Decision aid only: review every change before applying it to a live ad account. "
+              "Export every change with: sheetbuilder changes WORKBOOK -o changes.csv")
+    bids, others = counts[0], "+".join(counts[1:])
+    (p, q), (m, n) = listed, values
+    bid_text = ("Showing the first %d of {m} bid changes; every one is on Bids (its Final bid) and sheetbuilder "
+                "changes writes them all." % p)
+    other_text = "Showing the first %d of {n} other changes; rebuild the workbook to see them all." % q
+    formula = (f'=IF(AND({bids}<={p},{others}<={q}),"{static}",IF({bids}>{p},"'
+               + bid_text.replace("{m}", f'"&{bids}&"') + f'","")&IF({others}>{q},IF({bids}>{p}," ","")&"'
+               + other_text.replace("{n}", f'"&({others})&"') + '",""))')
+    said = " ".join(([bid_text.replace("{m}", str(m))] if m > p else [])
+                    + ([other_text.replace("{n}", str(n))] if n > q else []))
+    return (said or static), formula, bool(said)
 
 
 def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settings: Settings,
                  sizes: dict[str, int]) -> tuple[Sheet, PlannedTable, list[int], list[str]]:
-    """The Actions sheet, its reference frame, the count of changes of each kind and the cells that count them."""
+    """The Actions sheet, its reference frame, the count of changes of each kind and the cells that count them.
+
+    The list is a review page: its first block shows the first actions_cap bid changes (every one is on Bids,
+    and `changes` writes them all), its second every change of the other kinds.
+    """
     changes, counts = _changes(tables)  # counts in SEGMENTS' order
     count_cells = []
     totals = []
@@ -293,32 +345,43 @@ def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settin
         local_refs.append(cell_ref(1, len(count_cells) + 1, True))  # row 2, beside its label
         count_refs.append(f"{SHEET}!{local_refs[-1]}")
         count_cells += [Cell(label, style="note"), Cell(float(value), "=" + total if total != "0" else "=0", "int_left")]
-    rows = sum(sizes.values())
-    static = ("Decision aid only: review every change before applying it to a live ad account. "
-              "Export this list with: sheetbuilder changes WORKBOOK -o changes.csv")
-    # Sized to the changes at build plus SPARE_ROWS of room (a Decision or threshold changed later), within
-    # every candidate row and actions_cap; the note says when more changes qualify than the list holds.
-    n_rows = max(0, min(rows, settings.actions_cap, len(changes) + SPARE_ROWS))
-    # seg (each row's segment, 0 when empty) stays in the reference frame only: the sheet reads it from Source row.
-    base = pd.DataFrame({"k": np.arange(1, n_rows + 1, dtype=float),
-                         "seg": [float(changes[i]["_seg"]) if i < len(changes) else 0.0 for i in range(n_rows)]})
-    ctx = ActionsContext(changes)
-    total = "+".join(local_refs)
-    how = "raise actions_cap in settings.toml and rebuild" if n_rows >= settings.actions_cap else \
-        "rebuild the workbook"
-    note_formula = (f'=IF({total}>{n_rows},"Showing the first {n_rows} of "&({total})&" changes; {how} '
-                    f'to see them all.","{static}")')
-    note_value = (f"Showing the first {n_rows} of {len(changes)} changes; {how} to see them all."
-                  if len(changes) > n_rows else static)
+    # Each block sized to its changes at build plus SPARE_ROWS of room (a Decision or threshold changed later),
+    # within its candidate rows; the bid block within actions_cap too. The note says when more qualify.
+    bids, others = changes[:counts[0]], changes[counts[0]:]
+    candidates = [sizes.get(s.label, 0) for s in SEGMENTS]
+    p = max(0, min(candidates[0], settings.actions_cap, len(bids) + SPARE_ROWS))
+    q = max(0, min(sum(candidates[1:]), len(others) + SPARE_ROWS))
     # A source this workbook lacks has a count of 0, so its branch is never taken: it reads as blank.
-    columns = without_absent(defs(local_refs), ranges, SOURCES)
-    planned = plan_table(columns, base, ctx, HEADER_ROW + 1, ranges, with_totals=False)
-    planned.totals_values[QUALIFYING] = float(len(changes))
-    above = [[Cell("Actions: every change whose final value differs from today", style="title")],
+    blocks = []
+    for block, n, bid_block, first in ((bids[:p], p, True, HEADER_ROW + 1), (others, q, False, HEADER_ROW + 1 + p)):
+        # seg (each row's segment, 0 when empty) stays in the reference frame only: the sheet reads it from Source row.
+        base = pd.DataFrame({"k": np.arange(1, n + 1, dtype=float),
+                             "seg": [float(block[i]["_seg"]) if i < len(block) else 0.0 for i in range(n)]})
+        columns = without_absent(defs(local_refs, bids=bid_block), ranges, SOURCES)
+        blocks.append(plan_table(columns, base, ActionsContext(block), first, ranges, with_totals=False))
+    planned = _joined(*blocks)
+    planned.totals_values[BID_ROWS] = p
+    note_value, note_formula, short = _note(local_refs, (p, q), (len(bids), len(others)))
+    above = [[Cell("Actions: every change whose final value differs from today (bid changes: the first "
+                   f"{p:,}, all on Bids)" if len(bids) > p else
+                   "Actions: every change whose final value differs from today", style="title")],
              count_cells,
-             [Cell(note_value, note_formula, "alert" if len(changes) > n_rows else "note")]]
+             [Cell(note_value, note_formula, "alert" if short else "note")]]
     table = Table(HEADER_ROW, planned.columns)
-    # Printed: the rows filled when built (changes settled later print once rebuilt).
+    # Printed: the rows filled when built (changes settled later print once rebuilt), the bid block's room between.
+    filled = p + len(others) if others else min(len(bids), p)
     sheet = Sheet(SHEET, above=above, table=table, freeze=(HEADER_ROW + 1, 1), tab_color="#0B5C8A",
-                  page=stacked_pages([table], last_row=HEADER_ROW + min(len(changes), n_rows)))
+                  page=stacked_pages([table], last_row=HEADER_ROW + filled))
     return sheet, planned, counts, count_refs
+
+
+def _joined(bids: PlannedTable, others: PlannedTable) -> PlannedTable:
+    """The two blocks as one table: each column's values one after the other, a formula per row where they differ."""
+    columns = []
+    for a, b in zip(bids.columns, others.columns):
+        formula = a.formula if not b.values or a.formula is None else b.formula if not a.values else (
+            ([a.formula] * len(a.values) if isinstance(a.formula, str) else list(a.formula))
+            + ([b.formula] * len(b.values) if isinstance(b.formula, str) else list(b.formula)))
+        columns.append(replace(a, values=list(a.values) + list(b.values), formula=formula))
+    frame = pd.concat([bids.frame, others.frame], ignore_index=True)
+    return PlannedTable(columns, None, frame, {}, bids.letters, bids.first_body_row)

@@ -43,8 +43,9 @@ SHEETS_TEXT = [
             "trim and expand signals, and charts."),
     ("Budget", "A budget-neutral shift of spend from products to cut to products to grow, and each campaign's "
                "daily budget scaled to follow its products."),
-    ("Actions", "Every change whose final value differs from today: bids, keywords and targets to add, "
-                "negatives, budgets. Export it with: sheetbuilder changes WORKBOOK -o changes.csv"),
+    ("Actions", "The changes to review: the first bid changes (500 by default, actions_cap; every bid change is "
+                "on Bids, its Final bid), then every keyword and target to add, negative and budget change. "
+                "Export every change, bids beyond the page too, with: sheetbuilder changes WORKBOOK -o changes.csv"),
     ("Follow-up", "Built with --previous: what became of last week's changes (applied or not, each target's or "
                   "term's figures in both periods, the outcome in words) and how each product moved since."),
     ("History", "Built with --previous: every change found applied, week by week (week, kind, keys, from, to), "
@@ -113,7 +114,8 @@ STEPS = [
     "(up to the profit-seeking aim while seek_profit is yes).",
     "6. On Terms, check the verdicts; Harvest lists the terms to add, Negatives the terms to block.",
     "7. On Mix and Budget, see where spend goes and the proposed shift; type a Decision where you disagree.",
-    "8. Actions lists every change you have settled on; export it with the changes command and apply it.",
+    "8. Actions shows the changes you have settled on (bids: the first ones, all on Bids); export every one "
+    "with the changes command and apply it.",
     "9. Next week, build from the new exports with --previous this workbook: your edits come along "
     "(see 'Decisions and carried edits' below).",
     "10. The proposals are starting points, not orders: check them before changing your ad account.",
@@ -206,7 +208,8 @@ TERMS_METHOD = [
     "to another ad group of a live campaign. No negative is proposed in a paused or archived campaign, where a "
     "negative already blocks the term, or where it would block a keyword the same list adds or a term that sells "
     "(the Clashes table on Keys). Actions lists each kind largest money at stake first, by the build's figures: "
-    "a Decision typed later changes which rows are listed, not their order.",
+    "a Decision typed later changes which rows are listed, not their order. Its bid changes are a page, the "
+    "first actions_cap of them in Bids' order; the changes command writes every one.",
 ]
 
 SOURCES = [

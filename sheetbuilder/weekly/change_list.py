@@ -9,13 +9,16 @@ error).
 """
 from __future__ import annotations
 
+from dataclasses import dataclass
 from typing import Any
 
 from sheetbuilder.sheets.decisions import INVALID
 from sheetbuilder.errors import WARNING, Problem
 from sheetbuilder.sheets.followup import Followup
 from sheetbuilder.weekly.applied import followup_rows, number_or_none, same_exports, span_of
-from sheetbuilder.sheets.actions import ADDS, DEFS as ACTION_DEFS, KINDS, SHEET, unlisted
+from sheetbuilder.sheets.actions import (ADDS, DEFS as ACTION_DEFS, BID_ROWS, KINDS, SHEET, every_change,
+                                         unlisted)
+from sheetbuilder.sheets.bids import SHEET as BIDS_SHEET
 from sheetbuilder.values import is_blank, is_number
 from sheetbuilder.weekly.record import FIRST_ROW, SavedWorkbook, plan_saved
 from sheetbuilder.reading.settings import Settings
@@ -25,26 +28,54 @@ KEYS = tuple(d.key for d in ACTION_DEFS if not d.hidden)
 CHANGE_KEY = ("kind", "campaign", "ad_group", "target", "match_type")  # what a change row changes
 
 
-def computed_actions(saved: SavedWorkbook) -> tuple[list[tuple[int, list[Any]]], list[Problem], dict, bool]:
-    """([(sheet row, visible values)] of the computed change list, input problems, planned tables, fold_plurals)."""
+def computed_actions(saved: SavedWorkbook) -> tuple[list[tuple[Any, list[Any]]], list[Problem], dict, bool]:
+    """([(where, visible values)] of the computed change list, input problems, planned tables, fold_plurals).
+
+    Every change, the bid changes beyond the Actions page too (each where its Bids row is, :class:`OffPage`);
+    where is the Actions row of the others.
+    """
     plan, problems = (saved.planned, saved.plan_problems) if saved.planned is not None else plan_saved(saved)
-    frame = plan.tables["Actions"].frame
-    records = frame[list(KEYS)].itertuples(index=False, name=None)
-    rows = [(FIRST_ROW + i, list(record)) for i, record in enumerate(records) if not is_blank(record[0])]
+    frame, n_bids = every_change(plan.tables)
+    block = int(plan.tables[SHEET].totals_values[BID_ROWS])  # the page's bid rows (blank ones included)
+    page = min(block, n_bids)  # the bid changes the page shows
+    rows: list[tuple[Any, list[Any]]] = []
+    for i, record in enumerate(frame[list(KEYS)].itertuples(index=False, name=None)):
+        named = dict(zip(KEYS, record))
+        where = (FIRST_ROW + i if i < page else FIRST_ROW + block + i - n_bids if i >= n_bids else
+                 OffPage(f"{named['target']} ({named['match_type']}) in {named['campaign']} / {named['ad_group']}"))
+        rows.append((where, list(record)))
     # A list whose cap is reached holds fewer changes than qualify: said, never dropped in silence.
     beyond = [Problem(sheet, None, None, message) for sheet, message in unlisted(plan.tables)]
     return rows, list(problems) + beyond, plan.tables, saved.settings.fold_plurals
 
 
-def check_change(row: int, values: list[Any], context: dict[str, Any]) -> list[Problem]:
-    """The problems of one change (none when it can be written)."""
+@dataclass(frozen=True)
+class OffPage:
+    """A bid change beyond the Actions page, named by its target (on Bids it may have been sorted anywhere)."""
+
+    target: str
+
+
+ON_BIDS = {"New": "Final bid", "Current": "Current bid", "Target or term": "Target", "Money at stake": "Spend"}
+
+
+def problem_at(where: Any, column: str | None, message: str) -> Problem:
+    """The problem of a change: on its Actions row, or on Bids (its column there) for a bid change beyond the page."""
+    if isinstance(where, OffPage):
+        return Problem(BIDS_SHEET, None, ON_BIDS.get(column, column),
+                       f"{message} (the bid change of {where.target}, beyond the Actions page)")
+    return Problem(SHEET, where, column, message)
+
+
+def check_change(row: Any, values: list[Any], context: dict[str, Any]) -> list[Problem]:
+    """The problems of one change at row (an Actions row, or :class:`OffPage`); none when it can be written."""
     named = dict(zip(KEYS, values))
     kind, campaign, group, term, new = (named.get(k) for k in ("kind", "campaign", "ad_group", "target", "new"))
     kind = str(kind).strip().lower()
     out: list[Problem] = []
 
     def bad(column: str, message: str) -> None:
-        out.append(Problem(SHEET, row, column, message))
+        out.append(problem_at(row, column, message))
 
     if kind not in KINDS:
         bad("Kind", f"unknown kind {values[0]!r}; expected one of {', '.join(KINDS)}")

@@ -21,7 +21,7 @@ from pathlib import Path
 from typing import Any
 
 from sheetbuilder.workbook.atomic import atomic_output, scratch_dir
-from sheetbuilder.weekly.change_list import CHANGE_KEY, KEYS, SHEET, check_change, computed_actions
+from sheetbuilder.weekly.change_list import CHANGE_KEY, KEYS, check_change, computed_actions, problem_at
 from sheetbuilder.workbook.csv_safe import write_csv
 from sheetbuilder.errors import OutputExists, Problem, SheetbuilderError, UnsafeOutput
 from sheetbuilder.reading.guard import text_problem
@@ -199,7 +199,7 @@ def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool =
     kept: list[list[Any]] = []
     for r, values in rows:
         found = check_change(r, values, context) + [
-            Problem(SHEET, r, h, m) for h, v in zip(HEADERS, values) if isinstance(v, str) and (m := text_problem(v))]
+            problem_at(r, h, m) for h, v in zip(HEADERS, values) if isinstance(v, str) and (m := text_problem(v))]
         if found:
             problems += found
             refused.append(r)
