@@ -104,6 +104,7 @@ def _typed_beyond_the_page(path, tmp_path, decision=None):
     return edited, key, typed
 
 
+@pytest.mark.slow  # two more builds; the page itself is checked in the fast lane
 def test_a_decision_typed_on_a_bids_row_beyond_the_page_is_written(paged, tmp_path):
     path, reference = paged
     edited, key, typed = _typed_beyond_the_page(path, tmp_path)
@@ -114,6 +115,7 @@ def test_a_decision_typed_on_a_bids_row_beyond_the_page_is_written(paged, tmp_pa
     assert [] == [p for p in result.problems if p.file == "Actions"]
 
 
+@pytest.mark.slow  # two more builds; the page itself is checked in the fast lane
 def test_an_invalid_decision_beyond_the_page_is_refused_on_bids_naming_its_target(paged, tmp_path):
     path, _ = paged
     edited, key, _ = _typed_beyond_the_page(path, tmp_path, decision="a lot")

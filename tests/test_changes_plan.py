@@ -81,6 +81,7 @@ def test_the_demo_planned_for_its_change_list_gives_the_full_plans_tables(demo_b
     assert 0.77 in [r[6] for r in result.rows if r[0] == "bid"]  # the typed Decision is the new bid
 
 
+@pytest.mark.slow  # the demo case runs in the fast lane
 def test_generated_accounts_planned_for_their_change_lists_give_the_full_plans_tables(generated, tmp_path):
     for i, (_, built) in enumerate(generated[:4]):
         _same_as_the_full_plan(_edited(built.output, tmp_path / f"gen{i}.xlsx"))

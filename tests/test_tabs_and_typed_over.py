@@ -231,6 +231,7 @@ def test_a_sheet_streams_row_by_row_with_formula_presence_not_values_and_stops_w
     assert [(0, {0: ("Key", False), 1: (None, True)}), (2, {0: (4, False), 1: (None, True)})] == seen
 
 
+@pytest.mark.slow  # two edited copies; the fast lane keeps the other typed-over checks
 @pytest.mark.parametrize("moved", [-1, 3])
 def test_a_value_typed_in_a_table_whose_header_rows_moved_is_still_reported(demo, tmp_path, moved):
     # Rows deleted (-1: the note) or inserted (3, short typed rows) above the Clashes table move its header row: the
