@@ -59,3 +59,27 @@ def test_inspect_on_the_raw_demo_reports_each_shape(capsys):
     assert "rows: 33 read, 0 summed into others, 1 skipped as totals, 0 refused" in out
     assert "bid <- Bid (USD)" in out
     assert "period found: 2026-10-31 to 2026-11-29 (30 days)" in out
+
+
+@pytest.mark.slow
+def test_a_decimal_comma_sales_download_builds_the_demo_and_the_terminal_says_how_it_read_it(demo_build, tmp_path,
+                                                                                                capsys, monkeypatch):
+    # A download from a decimal-comma locale: a title line, ';' between fields, 2708,10 for 2708.10 (Unicode CLDR
+    # decimal symbols; ';' beside a decimal comma is common practice, no source).
+    folder = tmp_path / "in"
+    folder.mkdir()
+    for p in DEMO.iterdir():
+        (folder / p.name).write_bytes(p.read_bytes())
+    lines = (DEMO / "store_sales.csv").read_text(encoding="utf-8").splitlines()
+    assert "LF-1001,44,2708.10" == lines[1]
+    (folder / "store_sales.csv").write_text("Store sales by product\n" + "\n".join(
+        line.replace(",", ";").replace(".", ",") for line in lines) + "\n", encoding="utf-8")
+    out = tmp_path / "comma.xlsx"
+    warnings = build(folder, out, built_on=BUILT_ON).warnings
+    assert [] == computed_differences(demo_build.output, out)
+    expected = ("store_sales.csv", 3, "revenue", "amounts are read with a decimal comma (the file's values write a "
+                "decimal comma): '2708,10' is read as 2708.1")
+    assert [expected] == [(p.file, p.row, p.column, p.message) for p in warnings if "decimal comma" in p.message]
+    monkeypatch.setenv("COLUMNS", "400")  # a wide terminal: each problem on one line of the table
+    assert 0 == main(["build", str(folder), "-o", str(tmp_path / "cli.xlsx")])
+    assert expected[3] in capsys.readouterr().err

@@ -65,6 +65,35 @@ def test_a_fraction_and_a_percent_with_a_decimal_comma_read_as_written(tmp_path)
     assert [0.125, 0.125] == inputs.get("catalog")["target_acos"].tolist()
 
 
+def _notes(problems) -> list[tuple[str, int | None, str | None, str]]:
+    return [(p.file, p.row, p.column, p.message) for p in problems if "read with a decimal comma" in p.message]
+
+
+def test_a_file_read_with_a_decimal_comma_says_so_naming_its_first_such_value(tmp_path):
+    catalog = "product_id;product_name;price;unit_cost;fees_per_unit\nP1;Widget;20;8,50;2\nP2;Gadget;10;4;1\n"
+    inputs, _, problems = load(minimal.write_account(tmp_path, {"catalog.csv": catalog}))
+    assert [8.5, 4.0] == inputs.get("catalog")["unit_cost"].tolist()
+    assert [("catalog.csv", 2, "unit_cost", "amounts are read with a decimal comma (the file's values write a decimal "
+             "comma): '8,50' is read as 8.5")] == _notes(problems)
+
+
+def test_a_lone_three_digit_group_read_by_the_semicolon_delimiter_names_both_readings(tmp_path):
+    # A ';' delimiter means a decimal comma (common practice, no source); 8,500 alone could still group thousands.
+    catalog = "product_id;product_name;price;unit_cost;fees_per_unit\nP1;Widget;20;8,500;2\nP2;Gadget;10;4;1\n"
+    inputs, _, problems = load(minimal.write_account(tmp_path, {"catalog.csv": catalog}))
+    assert [8.5, 4.0] == inputs.get("catalog")["unit_cost"].tolist()
+    assert [("catalog.csv", 2, "unit_cost", "amounts are read with a decimal comma (a ';' delimiter (common practice "
+             "in decimal-comma locales)): '8,500' is read as 8.5; it could be 8500 (a comma grouping thousands) or "
+             "8.500 (a decimal comma): set decimal_comma = true or false in settings.toml to say which")
+            ] == _notes(problems)
+
+
+def test_a_file_written_with_decimal_points_has_no_decimal_comma_note(tmp_path):
+    catalog = "product_id,product_name,price,unit_cost,fees_per_unit\nP1,Widget,20,8.50,2\nP2,Gadget,10,4,1\n"
+    _, _, problems = load(minimal.write_account(tmp_path, {"catalog.csv": catalog}))
+    assert [] == _notes(problems)
+
+
 @pytest.mark.parametrize("text, form", [("1,234.56", "point"), ("1.234,56", "comma"), ("0,125", "comma"),
                                         ("12,5 %", "comma"), ("1.234.567", "comma"), ("3,911", "ambiguous"),
                                         ("3.911", "ambiguous"), ("$12", None), ("12.3456", "point")])

@@ -21,7 +21,7 @@ from sheetbuilder.errors import ERROR, WARNING, Problem
 from sheetbuilder.reading.guard import UnsafeWorkbook, check_csv, check_workbook, read_delimited, text_problem
 from sheetbuilder.reading.agreement import (account_currency, currency_of, grouped_problems, orders_above_clicks,
                                             same_product_ids, view_through_campaigns)
-from sheetbuilder.reading.evidence import Decision, both_readings, currency_mark, decide_separators, separator_form
+from sheetbuilder.reading.evidence import COMMA, Decision, both_readings, currency_mark, decide_separators, separator_form
 from sheetbuilder.reading.headers import MAX_TITLE_ROWS, currency_warnings, find_header, map_headers, two_row_header
 from sheetbuilder.reading.ours import built_by_us, our_workbook_message
 from sheetbuilder.reading.numbers import MAX_MAGNITUDE, NotANumber, parse_count, parse_number
@@ -297,6 +297,35 @@ def _decide_numbers(body: list[list[str]], found: dict[str, int], table: c.Table
     return decide_separators(texts, delimiter, setting)
 
 
+def _comma_note(body: list[list[str]], first_row: int, found: dict[str, int], header: list[str], numbers: Decision,
+                file: str) -> list[Problem]:
+    """Say plainly that amounts were read with a decimal comma: the first such value and what decided it.
+
+    A value such as 2708,10 shows its decimal comma; one such as 2708,100 could group thousands, and is
+    named with both readings unless decimal_comma in settings.toml decided it (that has its own note).
+    """
+    for name, comma in numbers.comma.items():
+        if not comma:
+            continue
+        i = found[name]
+        for n, row in enumerate(body):
+            t = row[i] if i < len(row) else ""
+            if isinstance(t, CellNumber):
+                continue
+            form = separator_form(t)
+            if form == COMMA or (form == "ambiguous" and name not in numbers.by_setting):
+                value, _ = parse_number(t, decimal_comma=True)
+                shown = "" if "%" in t else f" is read as {value:g}"
+                if form == "ambiguous":
+                    shown += (f"; it could be {both_readings(t)}: set decimal_comma = true or false in settings.toml "
+                              "to say which")
+                elif "the file's values" not in numbers.why:
+                    shown += "; if this file writes commas between thousands, set decimal_comma = false in settings.toml"
+                return [Problem(file, first_row + n + 1, header[i],
+                                f"amounts are read with a {numbers.why}: '{t.strip()}'{shown}", WARNING)]
+    return []
+
+
 def _map_visible_first(header: list[str], hidden: set[int], table: c.TableRule, settings: Settings, file: str,
                        row: int) -> tuple[dict[str, int], list[Problem]]:
     """map_headers on the visible columns; hidden ones only where no visible column holds a required field,
@@ -404,6 +433,7 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
                                                 f"{MAX_SHEET_ROWS - 1:,} below its header, so the workbook cannot "
                                                 "hold this table. Export a shorter period")]
     numbers = _decide_numbers(rows[start + 1:], found, table, settings, meta.get("delimiter", ""))
+    problems += _comma_note(rows[start + 1:], start + 1, found, header, numbers, file)
     marks: dict[str, dict[str, int]] = {}  # money column -> currency mark -> first row
     plan = [(rule, found.get(rule.name), numbers.comma.get(rule.name), rule.name in numbers.undecided,
              rule.kind in (c.MONEY, c.AMOUNT)) for rule in table.columns]
