@@ -321,7 +321,7 @@ def bids_oracle(tables, settings, profit_rows, decisions=None, history=None):
             else:  # a cut stops at the floor (or at the bid, if already below it)
                 proposed = min(s.bid_ceiling, max(rounded, min(s.bid_floor, bid)))
             if proposed != rounded:
-                reason = "held at bid ceiling" if rounded > proposed else "held at bid floor"
+                reason = "limited by bid ceiling" if rounded > proposed else "limited by bid floor"
         decision = (decisions or {}).get(i)
         if decision is None or decision == "":
             final = proposed

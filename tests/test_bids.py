@@ -48,7 +48,7 @@ def test_demo_bids_cover_every_rule(demo_build):
     reasons = {r["Reason"].split(" after ")[0] for r in bids_table(demo_build.output)[0].values()}
     # The capped cut needs a cut larger than the default maximum cut (50%) short of the evidence: see below.
     assert {"no clicks", "exploring: within allowance", "cut on evidence: likely waste", "lower to value bid",
-            "raise, capped at maximum raise", "low stock: not raised", "held at bid floor"} <= reasons
+            "raise, capped at maximum raise", "low stock: not raised", "limited by bid floor"} <= reasons
 
 
 def test_a_cut_larger_than_the_maximum_cut_stops_at_it_short_of_the_evidence():

@@ -173,7 +173,7 @@ def _reason(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     for rule, raw, proposed, n in zip(df["rule"], _raw(df, ctx), df["proposed"], df["n_zero"]):
         rounded = round_half_away(raw + ROUNDING_NUDGE, 2)
         if rule in MOVING_RULES and proposed != rounded:
-            out.append("held at bid ceiling" if rounded > proposed else "held at bid floor")
+            out.append("limited by bid ceiling" if rounded > proposed else "limited by bid floor")
         else:
             out.append(REASONS[int(rule)].format(n="" if pd.isna(n) else int(n)))
     return pd.Series(out, index=df.index, dtype=object)
@@ -268,8 +268,8 @@ DEFS: list[ColumnDef] = [
               lambda df, ctx: blank_div(df["proposed"], df["bid"]) - 1,
               '=IF({c:bid}=0,"",{c:proposed}/{c:bid}-1)', width=8),
     ColumnDef("reason", "Reason", "label", "Which rule decided the row.", _reason,
-              '=IF(AND(%s,{c:proposed}<>%s),IF(%s>{c:proposed},"held at bid ceiling",'
-              '"held at bid floor"),CHOOSE({c:rule},%s))' % (_MOVING, _ROUNDED, _ROUNDED, _REASON_CHOICES), width=30),
+              '=IF(AND(%s,{c:proposed}<>%s),IF(%s>{c:proposed},"limited by bid ceiling",'
+              '"limited by bid floor"),CHOOSE({c:rule},%s))' % (_MOVING, _ROUNDED, _ROUNDED, _REASON_CHOICES), width=30),
     ColumnDef("decision", "Decision", "text_input",
               "Input: leave blank to follow the proposal, type a bid to use it, or 'keep' to keep the current bid.",
               lambda df, ctx: df["decision"], kind=INPUT, width=10),
