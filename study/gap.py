@@ -22,6 +22,19 @@ what the study reads, and they come from the references):
 - ``history: ...``: the rule's branch for a keyword with no orders yet read in another order (HISTORY_RULES: the
   cut on evidence before the minimum-clicks hold or before the exploration allowance, with or without the
   minimum-clicks hold and the zero-order cut). "evidence before allowance" is what Bids now does.
+- ``true prior``: the product's prior and never-converting share replaced by the market's generating ones
+  (Beta(c s, (1 - c) s) with c the product's CVR and s the concentration, and the dead share): the posterior
+  (w, the posterior mean, the waste probability) is then the exact Bayes posterior of each keyword's history.
+  With ``oracle inputs, no caps, e 0.7`` it is the myopic Bayes bid, e / (1 + e) x margin x posterior mean CVR
+  x order value / discount: the best a policy that bids on a posterior mean can do in this market;
+- ``optimistic quantile L`` (Bayes-UCB; Kaufmann, Cappe & Garivier 2012, after Auer, Cesa-Bianchi & Fischer
+  2002): the value bid on w x the L-quantile of the keyword's converting Beta posterior instead of its mean (the
+  bonus vanishes as the history pins the rate);
+- ``Thompson sampling`` (Thompson 1933; Agrawal & Goyal 2012): the value bid on one draw from the posterior
+  (converts with probability w, then a Beta(a, b) draw; else a rate of zero), seeded by market, keyword, week;
+- ``caps lifted when sure (cv X)``: the step caps lifted (NO_CAPS) for a keyword whose posterior CVR has a
+  coefficient of variation (sd / mean, the zero-inflated posterior) at or below X; the method's caps elsewhere;
+- ``first week uncapped``: the first build (no previous workbook) moves every bid straight to its value bid.
 
 Each row is measured against the manual rule and the ceiling on the same markets (paired by seed), as in
 study/run_study.py.
@@ -37,8 +50,10 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
+from scipy.special import betaincinv
 
 from sheetbuilder.sheets import bids as bids_module
+from sheetbuilder.sheets.pooled import zero_chance
 
 from .market import EXTRA_SCENARIOS, SCENARIOS, Market
 from .measures import MEASURES
@@ -64,6 +79,11 @@ class Swaps:
     oracle: bool = False  # true order value and ratio, rules without data guards
     no_guards: bool = False  # the rules without their data guards (posterior values as they are)
     history: str = ""  # a history-aware rule order (see HISTORY_RULES), or "" for the library's
+    true_prior: bool = False  # the market's generating prior and never-converting share (exact Bayes posterior)
+    quantile: float = 0.0  # bid on this quantile of the converting posterior (x w) instead of the mean; 0: mean
+    thompson: bool = False  # bid on one posterior draw
+    sure_cv: float = 0.0  # lift the step caps where the posterior CVR's sd / mean is at or below this; 0: never
+    first_uncapped: bool = False  # the first build moves straight to the value bid
 
 
 @dataclass
@@ -72,11 +92,39 @@ class GapMethod(WeeklyMethod):
 
     swaps: Swaps = field(default_factory=Swaps)
     market: Market | None = field(default=None, repr=False)
+    week: int = 0
+    first: bool = False
 
     def __call__(self, market, window):
-        self.market = market
+        self.market, self.week, self.first = market, window.week, self.stored is None
         with self._swapped():
             return super().__call__(market, window)
+
+    def _true_prior(self, df: pd.DataFrame) -> tuple[np.ndarray, np.ndarray, float]:
+        """The market's generating prior per row: (alpha, beta, never-converting share)."""
+        m = self.market
+        c = m.product_cvr[m.product[_keyword_index(df, m)]]
+        s = m.scenario.cvr_concentration
+        return c * s, (1 - c) * s, m.scenario.dead_share
+
+    def _fit(self, key: str):
+        """The reference of fit_a, fit_b, fit_pi or w: the library's value, or the truth's with true_prior."""
+        def reference(df, ctx):
+            if not self.swaps.true_prior:
+                return df[key]
+            alpha, beta, pi = self._true_prior(df)
+            if key == "w":
+                p0 = zero_chance(alpha, beta, df["h_clicks"].to_numpy(dtype=float))
+                w = np.where(df["h_orders"] > 0, 1.0, (1 - pi) * p0 / (pi + (1 - pi) * p0))
+                return pd.Series(w, index=df.index)
+            return pd.Series({"fit_a": alpha, "fit_b": beta, "fit_pi": np.full(len(df), pi)}[key], index=df.index)
+        return reference
+
+    def _shapes(self, df, ctx) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """The converting posterior's shapes (a, b) and w per row."""
+        a, b = bids_module._prior(df, ctx)
+        return ((a + df["h_orders"]).to_numpy(dtype=float), (b + df["h_clicks"] - df["h_orders"]).to_numpy(dtype=float),
+                df["w"].to_numpy(dtype=float))
 
     # The swapped references (signature of ColumnDef.reference: frame so far, BidsContext).
     def _truth(self, df: pd.DataFrame) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
@@ -85,8 +133,24 @@ class GapMethod(WeeklyMethod):
         return m.cvr[i], m.order_value[i], m.discount[i], m.margin[m.product[i]]
 
     def _post_cvr(self, df, ctx):
-        return pd.Series(self._truth(df)[0], index=df.index) if self.swaps.true_cvr else \
-            bids_module._post_cvr(df, ctx)
+        if self.swaps.true_cvr:
+            return pd.Series(self._truth(df)[0], index=df.index)
+        if not (self.swaps.quantile or self.swaps.thompson):
+            return bids_module._post_cvr(df, ctx)
+        a, b, w = self._shapes(df, ctx)
+        ok = (a > 0) & (b > 0)
+        a, b = np.where(ok, a, 1.0), np.where(ok, b, 1.0)
+        if self.swaps.quantile:
+            out = w * betaincinv(a, b, self.swaps.quantile)
+        else:
+            m = self.market
+            out = []
+            for i, ai, bi, wi in zip(_keyword_index(df, m), a, b, w):
+                rng = np.random.Generator(np.random.PCG64(np.random.SeedSequence([m.seed, 7, int(i), self.week])))
+                converts = rng.uniform() < wi
+                out.append(max(1e-9, rng.beta(ai, bi)) if converts else 1e-9)  # a dead draw: a value bid near 0
+            out = np.array(out)
+        return pd.Series(np.where(ok, out, np.nan), index=df.index)
 
     def _order_value(self, df, ctx):
         return pd.Series(self._truth(df)[1], index=df.index) if self.swaps.oracle else bids_module._order_value(df, ctx)
@@ -95,7 +159,7 @@ class GapMethod(WeeklyMethod):
         return pd.Series(self._truth(df)[2], index=df.index) if self.swaps.oracle else df["ratio"]
 
     def _value_bid(self, df, ctx):
-        if not self.swaps.true_cvr:
+        if not (self.swaps.true_cvr or self.swaps.oracle):
             return bids_module._value_bid(df, ctx)
         return df["post_cvr"] * self._order_value(df, ctx) * df["target_acos"] / self._ratio(df)
 
@@ -108,6 +172,30 @@ class GapMethod(WeeklyMethod):
             worth = df["post_cvr"] * self._order_value(df, ctx) * self._yardstick(df)
             return (worth < self._ratio(df) * df["bid"]).astype(float)
         return bids_module.waste_at(df, ctx, self._yardstick(df))
+
+    def _loose(self, df, ctx) -> np.ndarray:
+        """The rows whose step caps are lifted (sure_cv, first_uncapped)."""
+        if self.swaps.first_uncapped and self.first:
+            return np.ones(len(df), dtype=bool)
+        if not self.swaps.sure_cv:
+            return np.zeros(len(df), dtype=bool)
+        a, b, w = self._shapes(df, ctx)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            mean = a / (a + b)
+            var = w * (mean ** 2 + mean * (1 - mean) / (a + b + 1)) - (w * mean) ** 2
+            cv = np.sqrt(np.maximum(var, 0.0)) / (w * mean)
+        return np.nan_to_num(cv, nan=np.inf) <= self.swaps.sure_cv
+
+    def _per_row_caps(self, fn):
+        """fn(df, ctx) with the step caps lifted on the rows _loose picks."""
+        def reference(df, ctx):
+            loose = self._loose(df, ctx)
+            out = fn(df, ctx)
+            if loose.any():
+                wide = replace(ctx, settings=replace(ctx.settings, **NO_CAPS))
+                out = pd.Series(np.where(loose, fn(df, wide), out), index=df.index)
+            return out
+        return reference
 
     def _rule(self, df, ctx):
         if self.swaps.history:
@@ -123,7 +211,8 @@ class GapMethod(WeeklyMethod):
     @contextlib.contextmanager
     def _swapped(self):
         swaps = {"post_cvr": self._post_cvr, "value_bid": self._value_bid, "p_waste": self._p_waste,
-                 "rule": self._rule}
+                 "rule": self._per_row_caps(self._rule), "proposed": self._per_row_caps(bids_module._proposed),
+                 **{key: self._fit(key) for key in ("fit_a", "fit_b", "fit_pi", "w")}}
         saved = list(bids_module.DEFS)
         bids_module.DEFS[:] = [replace(d, reference=swaps[d.key]) if d.key in swaps else d for d in saved]
         try:
@@ -201,6 +290,13 @@ def variants() -> dict[str, GapMethod]:
                                                                         oracle=True)),
         "oracle inputs, no caps, e 0.7": GapMethod({**NO_CAPS, "click_elasticity": 0.7},
                                                    swaps=Swaps(waste_at="break-even", true_cvr=True, oracle=True)),
+        "true prior, no caps": GapMethod(dict(NO_CAPS), swaps=Swaps(true_prior=True)),
+        "true prior, oracle inputs, no caps, e 0.7": GapMethod(
+            {**NO_CAPS, "click_elasticity": 0.7}, swaps=Swaps(waste_at="break-even", true_prior=True, oracle=True)),
+        **{f"optimistic quantile {q}": GapMethod(swaps=Swaps(quantile=q)) for q in (0.7, 0.9)},
+        "Thompson sampling": GapMethod(swaps=Swaps(thompson=True)),
+        **{f"caps lifted when sure (cv {cv})": GapMethod(swaps=Swaps(sure_cv=cv)) for cv in (0.2, 0.35)},
+        "first week uncapped": GapMethod(swaps=Swaps(first_uncapped=True)),
     }
 
 
