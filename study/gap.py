@@ -33,8 +33,10 @@ what the study reads, and they come from the references):
 - ``Thompson sampling`` (Thompson 1933; Agrawal & Goyal 2012): the value bid on one draw from the posterior
   (converts with probability w, then a Beta(a, b) draw; else a rate of zero), seeded by market, keyword, week;
 - ``caps lifted when sure (cv X)``: the step caps lifted (NO_CAPS) for a keyword whose posterior CVR has a
-  coefficient of variation (sd / mean, the zero-inflated posterior) at or below X; the method's caps elsewhere;
-- ``first week uncapped``: the first build (no previous workbook) moves every bid straight to its value bid.
+  coefficient of variation (sd / mean, the zero-inflated posterior) at or below X and whose history alone pins
+  it as well (at least 1 / X^2 orders: a tight fitted prior alone does not count); the method's caps elsewhere;
+- ``first week to value bid``: the first build (no previous workbook) moves every bid straight to its value
+  bid, no caps, rows held as exploring or "no orders yet: not raised" included when their value bid is lower.
 
 Each row is measured against the manual rule and the ceiling on the same markets (paired by seed), as in
 study/run_study.py.
@@ -57,7 +59,7 @@ from sheetbuilder.sheets.pooled import zero_chance
 
 from .market import EXTRA_SCENARIOS, SCENARIOS, Market
 from .measures import MEASURES
-from .policies import ceiling, manual_rule
+from .policies import ceiling, ceiling_aim, manual_rule
 from .run_study import CEILING, MANUAL, _interval, _share_text, ceiling_share, run_policies
 from .weekly_loop import WeeklyMethod
 
@@ -143,13 +145,8 @@ class GapMethod(WeeklyMethod):
         if self.swaps.quantile:
             out = w * betaincinv(a, b, self.swaps.quantile)
         else:
-            m = self.market
-            out = []
-            for i, ai, bi, wi in zip(_keyword_index(df, m), a, b, w):
-                rng = np.random.Generator(np.random.PCG64(np.random.SeedSequence([m.seed, 7, int(i), self.week])))
-                converts = rng.uniform() < wi
-                out.append(max(1e-9, rng.beta(ai, bi)) if converts else 1e-9)  # a dead draw: a value bid near 0
-            out = np.array(out)
+            out = np.array([_draw(self.market.seed, i, self.week, wi, ai, bi)
+                            for i, ai, bi, wi in zip(_keyword_index(df, self.market), a, b, w)])
         return pd.Series(np.where(ok, out, np.nan), index=df.index)
 
     def _order_value(self, df, ctx):
@@ -184,7 +181,8 @@ class GapMethod(WeeklyMethod):
             mean = a / (a + b)
             var = w * (mean ** 2 + mean * (1 - mean) / (a + b + 1)) - (w * mean) ** 2
             cv = np.sqrt(np.maximum(var, 0.0)) / (w * mean)
-        return np.nan_to_num(cv, nan=np.inf) <= self.swaps.sure_cv
+        pinned = df["h_orders"].to_numpy(dtype=float) >= 1 / self.swaps.sure_cv ** 2  # the history alone pins it
+        return (np.nan_to_num(cv, nan=np.inf) <= self.swaps.sure_cv) & pinned
 
     def _per_row_caps(self, fn):
         """fn(df, ctx) with the step caps lifted on the rows _loose picks."""
@@ -198,6 +196,12 @@ class GapMethod(WeeklyMethod):
         return reference
 
     def _rule(self, df, ctx):
+        rule = self._rule_as_swapped(df, ctx)
+        if self.swaps.first_uncapped and self.first:  # the first build: held rows above their value bid go to it
+            rule = rule.where(~(rule.isin([5, 13]) & (df["value_bid"] < df["bid"])), 7.0)
+        return rule
+
+    def _rule_as_swapped(self, df, ctx):
         if self.swaps.history:
             return history_rule(df, ctx, self.swaps.history)
         if not (self.swaps.oracle or self.swaps.no_guards):
@@ -273,7 +277,59 @@ def history_rule(df: pd.DataFrame, ctx, name: str) -> pd.Series:
     return pd.Series(out, index=df.index, dtype=float)
 
 
-def variants() -> dict[str, GapMethod]:
+@dataclass
+class BayesBid:
+    """A numpy policy outside the library that knows each product's true prior and every keyword's true order
+    value and discount, but not the keywords' rates: each week every keyword at e / (1 + e) x margin x CVR x order
+    value / discount (the ceiling's bid, study/policies.py) with CVR its exact posterior mean from its whole history
+    (the myopic Bayes bid), or an optimistic quantile of it, or a posterior draw. A fast check of the library-based
+    "true prior, oracle inputs, no caps, e 0.7" and a cheap screen of exploration against the myopic bid."""
+
+    quantile: float = 0.0  # w x this quantile of the converting Beta posterior; 0: the posterior mean
+    thompson: bool = False
+    capped: bool = False  # steps of at most x2 and /2 (the method's max_bid_raise 1.00 and max_bid_cut 0.50)
+    sure_cv: float = 0.0  # with capped: no caps where the posterior's sd / mean <= sure_cv and orders >= 1 / sure_cv^2
+    window_weeks = 1
+    clicks: np.ndarray | None = field(default=None, repr=False)
+    orders: np.ndarray | None = field(default=None, repr=False)
+
+    def start(self, market: Market) -> None:
+        self.clicks, self.orders = np.zeros(market.size), np.zeros(market.size)
+
+    def __call__(self, market: Market, window) -> tuple[np.ndarray, np.ndarray]:
+        self.clicks, self.orders = self.clicks + window.clicks, self.orders + window.orders
+        s, c = market.scenario, market.product_cvr[market.product]
+        alpha, beta, pi = c * s.cvr_concentration, (1 - c) * s.cvr_concentration, s.dead_share
+        p0 = zero_chance(alpha, beta, self.clicks)
+        w = np.where(self.orders > 0, 1.0, (1 - pi) * p0 / (pi + (1 - pi) * p0))
+        a, b = alpha + self.orders, beta + self.clicks - self.orders
+        if self.thompson:
+            cvr = np.array([_draw(market.seed, i, window.week, w[i], a[i], b[i]) for i in range(market.size)])
+        elif self.quantile:
+            cvr = w * betaincinv(a, b, self.quantile)
+        else:
+            cvr = w * a / (a + b)
+        e, value = s.elasticity, market.margin[market.product] * market.order_value
+        bids = e * value * cvr / ((1 + e) * market.discount)
+        if self.capped:
+            stepped = np.clip(bids, window.bids / 2, window.bids * 2)
+            if self.sure_cv:
+                mean = a / (a + b)
+                sd = np.sqrt(w * (mean ** 2 + mean * (1 - mean) / (a + b + 1)) - (w * mean) ** 2)
+                sure = (sd <= self.sure_cv * w * mean) & (self.orders >= 1 / self.sure_cv ** 2)
+                stepped = np.where(sure, bids, stepped)
+            bids = stepped
+        return np.clip(np.round(bids, 2), 0.10, 5.00), ceiling_aim(market)  # the default floor and ceiling
+
+
+def _draw(seed: int, keyword: int, week: int, w: float, a: float, b: float) -> float:
+    """One draw from a keyword's zero-inflated posterior (converts with probability w, then Beta(a, b)); a dead draw
+    is a rate just above 0 (a value bid near 0, not a blank), seeded by market, keyword and week."""
+    rng = np.random.Generator(np.random.PCG64(np.random.SeedSequence([seed, 7, int(keyword), week])))
+    return max(1e-9, rng.beta(a, b)) if rng.uniform() < w else 1e-9
+
+
+def variants() -> dict[str, GapMethod | BayesBid]:
     """The diagnostic variants, in the order the table shows them."""
     return {
         "method (defaults)": GapMethod(),
@@ -295,8 +351,13 @@ def variants() -> dict[str, GapMethod]:
             {**NO_CAPS, "click_elasticity": 0.7}, swaps=Swaps(waste_at="break-even", true_prior=True, oracle=True)),
         **{f"optimistic quantile {q}": GapMethod(swaps=Swaps(quantile=q)) for q in (0.7, 0.9)},
         "Thompson sampling": GapMethod(swaps=Swaps(thompson=True)),
-        **{f"caps lifted when sure (cv {cv})": GapMethod(swaps=Swaps(sure_cv=cv)) for cv in (0.2, 0.35)},
-        "first week uncapped": GapMethod(swaps=Swaps(first_uncapped=True)),
+        **{f"caps lifted when sure (cv {cv})": GapMethod(swaps=Swaps(sure_cv=cv)) for cv in (0.25, 0.35)},
+        "first week to value bid": GapMethod(swaps=Swaps(first_uncapped=True)),
+        "myopic Bayes bid (numpy)": BayesBid(),
+        **{f"myopic Bayes, quantile {q} (numpy)": BayesBid(quantile=q) for q in (0.6, 0.7, 0.8, 0.9)},
+        "myopic Bayes, Thompson (numpy)": BayesBid(thompson=True),
+        "myopic Bayes, steps x2 and /2 (numpy)": BayesBid(capped=True),
+        "myopic Bayes, steps x2 and /2 lifted when sure (cv 0.35) (numpy)": BayesBid(capped=True, sure_cv=0.35),
     }
 
 
@@ -305,6 +366,11 @@ def _per_variant(results: dict, names: list[str], cells) -> list[str]:
     the method with its defaults, None on its own row)."""
     return [f"| {scenario} | {name} | " + " | ".join(cells(by_policy, name, None if name == names[0] else names[0]))
             + " |" for scenario, by_policy in results.items() for name in names]
+
+
+def _base(names: list[str]) -> str:
+    """The row the others are paired against (the first)."""
+    return "method defaults" if names[0] == "method (defaults)" else names[0]
 
 
 def _paired(by_policy: dict, name: str, base: str | None, key: str) -> str:
@@ -324,7 +390,7 @@ def table(results: dict, names: list[str]) -> list[str]:
                 f"{values[:, j_dead].mean():,.0f} ({by_policy[MANUAL][:, j_dead].mean():,.0f})",
                 _paired(by_policy, name, base, "profit")]
     return ["| scenario | variant | share of ceiling's gain [95% CI] | in band of aim, wk 8 | never-converting spend "
-            "(manual rule) | profit - method defaults [95% CI] |", "| --- | --- | ---: | ---: | ---: | ---: |"] + \
+            f"(manual rule) | profit - {_base(names)} [95% CI] |", "| --- | --- | ---: | ---: | ---: | ---: |"] + \
         _per_variant(results, names, cells)
 
 
@@ -334,8 +400,8 @@ def changes_table(results: dict, names: list[str]) -> list[str]:
     def cells(by_policy, name, base):
         return [_paired(by_policy, name, base, "dead_spend"), _paired(by_policy, name, MANUAL, "dead_spend"),
                 _paired(by_policy, name, base, "in_aim_8")]
-    return ["| scenario | variant | never-converting spend - method defaults [95% CI] | never-converting spend - "
-            "manual rule [95% CI] | in band of aim, wk 8 - method defaults [95% CI] |",
+    return ["| scenario | variant | never-converting spend - %s [95%% CI] | never-converting spend - "
+            "manual rule [95%% CI] | in band of aim, wk 8 - %s [95%% CI] |" % (_base(names), _base(names)),
             "| --- | --- | ---: | ---: | ---: |"] + _per_variant(results, names, cells)
 
 
@@ -352,6 +418,9 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--side-by-side", action="store_true",
                         help="with --merge: the runs hold the same seeds and different variants; join the variants "
                              "(the policies they share must agree, seed by seed)")
+    parser.add_argument("--without-baseline", action="store_true",
+                        help="leave out the method with its defaults (to be joined with --merge --side-by-side to a "
+                             "run that has it)")
     parser.add_argument("--out", type=Path, default=Path(__file__).with_name("gap_results.md"))
     args = parser.parse_args(argv)
     if args.merge:
@@ -375,7 +444,8 @@ def main(argv: list[str] | None = None) -> int:
         print("\n".join(lines))
         return 0
     every = variants()
-    names = [n for n in every if not args.only or n in args.only.split(";") or n == "method (defaults)"]
+    names = [n for n in every if not args.only or n in args.only.split(";")
+             or (n == "method (defaults)" and not args.without_baseline)]
     scenarios = {**SCENARIOS, **EXTRA_SCENARIOS}
     if args.scenarios:
         scenarios = {k: v for k, v in scenarios.items() if k in args.scenarios.split(",")}
