@@ -36,7 +36,14 @@ what the study reads, and they come from the references):
   coefficient of variation (sd / mean, the zero-inflated posterior) at or below X and whose history alone pins
   it as well (at least 1 / X^2 orders: a tight fitted prior alone does not count); the method's caps elsewhere;
 - ``first week to value bid``: the first build (no previous workbook) moves every bid straight to its value
-  bid, no caps, rows held as exploring or "no orders yet: not raised" included when their value bid is lower.
+  bid, no caps, rows held as exploring or "no orders yet: not raised" included when their value bid is lower;
+- ``myopic Bayes ... (numpy)``: :class:`BayesBid`, a policy outside the library (fast: no workbook is planned)
+  that knows each product's true prior, every keyword's order value and discount and the market's elasticity,
+  and bids the ceiling's bid at the keyword's exact posterior mean CVR (the bound of a myopic posterior-mean
+  method), or at an optimistic quantile, or a posterior draw, or with the method's x2 and /2 steps.
+
+``--without-baseline`` leaves the method out (its runs are deterministic: join the run to one that has it with
+``--merge --side-by-side`` on the same seeds); the tables then pair every row with the first one.
 
 Each row is measured against the manual rule and the ceiling on the same markets (paired by seed), as in
 study/run_study.py.
@@ -351,7 +358,7 @@ def variants() -> dict[str, GapMethod | BayesBid]:
             {**NO_CAPS, "click_elasticity": 0.7}, swaps=Swaps(waste_at="break-even", true_prior=True, oracle=True)),
         **{f"optimistic quantile {q}": GapMethod(swaps=Swaps(quantile=q)) for q in (0.7, 0.9)},
         "Thompson sampling": GapMethod(swaps=Swaps(thompson=True)),
-        **{f"caps lifted when sure (cv {cv})": GapMethod(swaps=Swaps(sure_cv=cv)) for cv in (0.25, 0.35)},
+        **{f"caps lifted when sure (cv {cv})": GapMethod(swaps=Swaps(sure_cv=cv)) for cv in (0.25, 0.35, 0.5)},
         "first week to value bid": GapMethod(swaps=Swaps(first_uncapped=True)),
         "myopic Bayes bid (numpy)": BayesBid(),
         **{f"myopic Bayes, quantile {q} (numpy)": BayesBid(quantile=q) for q in (0.6, 0.7, 0.8, 0.9)},
@@ -405,6 +412,31 @@ def changes_table(results: dict, names: list[str]) -> list[str]:
             "| --- | --- | ---: | ---: | ---: |"] + _per_variant(results, names, cells)
 
 
+def merged(parts: list[dict], side_by_side: bool) -> dict:
+    """Runs saved by earlier runs joined, scenario by scenario (a scenario from the parts that ran it, in their order).
+
+    side_by_side: the parts hold different variants of the same markets: the variants are joined, over the seeds all
+    the parts have (each part's first seeds: runs that start at the same seed), and the policies they share must agree
+    seed by seed. Otherwise the parts hold further seeds of the same variants: the seeds are joined, for the policies
+    every part ran.
+    """
+    results = {}
+    for s in dict.fromkeys(s for part in parts for s in part):
+        having = [part[s] for part in parts if s in part]
+        if side_by_side:
+            n = min(len(v) for by_policy in having for v in by_policy.values())
+            results[s] = {}
+            for by_policy in having:
+                for p, v in by_policy.items():
+                    if p in results[s] and not np.allclose(results[s][p], v[:n]):
+                        raise SystemExit(f"{s}: {p} differs between the runs")
+                    results[s].setdefault(p, v[:n])
+        else:
+            results[s] = {p: np.concatenate([by_policy[p] for by_policy in having]) for p in having[0]
+                          if all(p in by_policy for by_policy in having)}
+    return results
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(prog="python -m study.gap", description=__doc__.splitlines()[0])
     parser.add_argument("--seeds", type=int, default=10)
@@ -416,31 +448,22 @@ def main(argv: list[str] | None = None) -> int:
                         help="instead of running, join the per-seed results saved by earlier runs (.npy) and "
                              "write their table")
     parser.add_argument("--side-by-side", action="store_true",
-                        help="with --merge: the runs hold the same seeds and different variants; join the variants "
-                             "(the policies they share must agree, seed by seed)")
+                        help="with --merge: the runs hold the same markets (first seed) and different variants; join "
+                             "the variants over the seeds every run has (the policies they share must agree, seed by "
+                             "seed); runs of different scenarios are joined either way")
     parser.add_argument("--without-baseline", action="store_true",
                         help="leave out the method with its defaults (to be joined with --merge --side-by-side to a "
                              "run that has it)")
     parser.add_argument("--out", type=Path, default=Path(__file__).with_name("gap_results.md"))
     args = parser.parse_args(argv)
     if args.merge:
-        parts = [np.load(path, allow_pickle=True).item() for path in args.merge]
-        if args.side_by_side:
-            results = {s: {} for s in parts[0]}
-            for part in parts:
-                for s, by_policy in part.items():
-                    for p, v in by_policy.items():
-                        if p in results[s] and not np.allclose(results[s][p], v):
-                            raise SystemExit(f"{s}: {p} differs between the runs")
-                        results[s].setdefault(p, v)
-        else:
-            results = {s: {p: np.concatenate([part[s][p] for part in parts]) for p in parts[0][s]
-                           if all(p in part[s] for part in parts)} for s in parts[0]}  # the policies every part ran
+        results = merged([np.load(path, allow_pickle=True).item() for path in args.merge], args.side_by_side)
         names = [n for n in next(iter(results.values())) if n not in (MANUAL, CEILING)]
         seeds = len(next(iter(next(iter(results.values())).values())))
-        lines = [f"{seeds} seeds per scenario, joined from {', '.join(str(p) for p in args.merge)}", ""]
+        lines = [f"{seeds} seeds per scenario (the first seeds of each run), joined from {', '.join(str(p) for p in args.merge)}", ""]
         lines += table(results, names) + [""] + changes_table(results, names)
         args.out.write_text("\n".join(lines) + "\n", encoding="utf-8")
+        np.save(args.out.with_suffix(".npy"), results, allow_pickle=True)
         print("\n".join(lines))
         return 0
     every = variants()
