@@ -460,7 +460,8 @@ def main(argv: list[str] | None = None) -> int:
         results = merged([np.load(path, allow_pickle=True).item() for path in args.merge], args.side_by_side)
         names = [n for n in next(iter(results.values())) if n not in (MANUAL, CEILING)]
         seeds = len(next(iter(next(iter(results.values())).values())))
-        lines = [f"{seeds} seeds per scenario (the first seeds of each run), joined from {', '.join(str(p) for p in args.merge)}", ""]
+        runs = ", ".join(str(p) for p in args.merge)
+        lines = [f"{seeds} seeds per scenario (the first seeds of each run), joined from {runs}", ""]
         lines += table(results, names) + [""] + changes_table(results, names)
         args.out.write_text("\n".join(lines) + "\n", encoding="utf-8")
         np.save(args.out.with_suffix(".npy"), results, allow_pickle=True)
