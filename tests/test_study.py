@@ -388,3 +388,60 @@ def test_the_gap_diagnostic_without_swaps_is_the_method_and_puts_the_bids_sheet_
     # The true CVR swapped in moves some bid away from the method's (the swap reaches the Final bids).
     swapped = simulate(market, GapMethod(swaps=Swaps(true_cvr=True)), weeks=3)
     assert runs["method"].bids.tolist() != swapped.bids.tolist()
+
+
+def _exact_posterior(alpha: float, beta: float, pi: float, n: int, o: int) -> tuple[float, float]:
+    """(P(the keyword converts), posterior mean CVR) after o orders in n clicks under the prior "0 with probability
+    pi, else Beta(alpha, beta)": the likelihoods from scipy.stats.betabinom and the mean by numerical integration
+    (scipy.integrate.quad), not from the conjugate formulas the study uses."""
+    from scipy import integrate
+    converts = (1 - pi) * stats.betabinom.pmf(o, n, alpha, beta)
+    w = converts / (converts + (pi if o == 0 else 0.0))
+    kernel = lambda q, k: q ** k * stats.binom.pmf(o, n, q) * stats.beta.pdf(q, alpha, beta)  # noqa: E731
+    mean = integrate.quad(kernel, 0, 1, args=(1,))[0] / integrate.quad(kernel, 0, 1, args=(0,))[0]
+    return w, w * mean
+
+
+def test_the_myopic_bayes_bound_bids_the_ceilings_bid_at_the_exact_posterior_mean():
+    # study/gap.py's BayesBid: the ceiling's bid e / (1 + e) x margin x CVR x order value / discount (study/policies.py)
+    # with the CVR the exact posterior mean under the market's own prior (scipy.stats and scipy.integrate above).
+    from study.gap import BayesBid
+    market = draw_market(SMALL, 5)
+    s = market.scenario
+    clicks = np.array([0, 3, 40, 40, 12, 7, 90, 1, 25, 60, 5, 30])
+    orders = np.array([0, 0, 0, 3, 1, 0, 8, 1, 0, 2, 0, 4])
+    policy = BayesBid()
+    policy.start(market)
+    window = Window(1, 1, clicks, orders, clicks * 0.5, orders * 30.0, market.start_bid)
+    bids, aims = policy(market, window)
+    e = s.elasticity
+    for i in range(market.size):
+        c = market.product_cvr[market.product[i]]
+        _, cvr = _exact_posterior(c * s.cvr_concentration, (1 - c) * s.cvr_concentration, s.dead_share,
+                                  int(clicks[i]), int(orders[i]))
+        value = market.margin[market.product[i]] * market.order_value[i]
+        expected = min(5.0, max(0.10, round(e / (1 + e) * value * cvr / market.discount[i], 2)))
+        assert expected == pytest.approx(bids[i], abs=1e-9), i
+    assert ceiling_aim(market).tolist() == aims.tolist()
+
+
+def test_the_gap_diagnostics_true_prior_gives_the_exact_converting_probability():
+    # Swaps(true_prior=True) replaces the fitted prior's columns of Bids with the market's generating ones: w, the
+    # chance a keyword converts, is then the exact posterior one (scipy.stats.betabinom above).
+    import pandas as pd
+    from study.gap import GapMethod, Swaps
+    market = draw_market(SMALL, 5)
+    s = market.scenario
+    rows = [0, 4, 7, 11]
+    df = pd.DataFrame([market.names[i] for i in rows], columns=["campaign", "ad_group", "target", "match_type"])
+    df["h_clicks"], df["h_orders"] = [0.0, 25.0, 60.0, 30.0], [0.0, 0.0, 0.0, 2.0]
+    method = GapMethod(swaps=Swaps(true_prior=True))
+    method.market = market
+    found = method._fit("w")(df, None)
+    for j, i in enumerate(rows):
+        c = market.product_cvr[market.product[i]]
+        w, _ = _exact_posterior(c * s.cvr_concentration, (1 - c) * s.cvr_concentration, s.dead_share,
+                                int(df["h_clicks"][j]), int(df["h_orders"][j]))
+        assert w == pytest.approx(found[j], rel=1e-9)
+    assert (market.product_cvr[market.product[rows]] * s.cvr_concentration).tolist() == \
+        method._fit("fit_a")(df, None).tolist()
