@@ -27,6 +27,7 @@ Keys sheet's Clashes table, whose Blocks column is live.
 """
 from __future__ import annotations
 
+from collections import defaultdict
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -313,8 +314,9 @@ def existing_keys(targets: pd.DataFrame | None, negatives: pd.DataFrame | None, 
                                                                                 "match_type", "state"))):
             if match != "exact" or state == "archived":
                 continue
+            norm = _norm_or_blank(target, fold)  # once per keyword, not once per product its ad group advertises
             for product in products.get((campaign, group), []):
-                entries.setdefault(("T", product, _norm_or_blank(target, fold)), f"{campaign} / {group}")
+                entries.setdefault(("T", product, norm), f"{campaign} / {group}")
     if negatives is not None and len(negatives):
         for n in negatives.itertuples():
             level = "ad group" if n.ad_group else "campaign"
@@ -427,12 +429,14 @@ def clash_pairs(frame: pd.DataFrame) -> pd.DataFrame:
     columns = ["i", "j", "kw_in", "kw_group", "src_in", "src_group", "same_term"]
     if not len(frame):
         return pd.DataFrame(columns=columns, dtype=float)
-    index: dict[tuple, set] = {}
+    index: dict[tuple, set] = defaultdict(set)  # {(campaign, word): the terms j holding it there}
     for j, c, dc, key, orders in zip(frame["pos"], frame["campaign"], frame["dest_campaign"], frame["term_key"],
                                      frame["orders"]):
-        for campaign in {dc} - {""} | ({c} if orders > 0 else set()):
-            for w in set(key.split(" ")):
-                index.setdefault((campaign, w), set()).add(int(j))
+        j, held = int(j), set(key.split(" "))
+        for campaign in (dc, c) if orders > 0 and c != dc else (dc,):  # its destination, and its own campaign if sold
+            if campaign != "":
+                for w in held:
+                    index[(campaign, w)].add(j)
     c_, g_, dc_, dg_, k_, o_ = (frame[k].to_numpy() for k in ("campaign", "ad_group", "dest_campaign",
                                                               "dest_ad_group", "term_key", "orders"))
     rows = []
