@@ -3,7 +3,8 @@ history's totals without its packed weeks): the same change list, tables and for
 
 Expected values: the full plan of the same record (the build's own planning, which the three-way tests check
 against the independent reference), on the demo, the generated accounts and a benchmark account, each with a
-Decision typed on Bids and on Terms, a target typed on Profit and a value typed over a Bids formula.
+Decision typed on Bids and on Terms, a target typed on Profit and a value typed over a Bids formula. The change
+list is made once, by plan_actions, and kept on the planned Actions table: it must equal one made afresh.
 """
 from __future__ import annotations
 
@@ -17,6 +18,7 @@ import pytest
 from benchmarks.accounts import make_account
 from sheetbuilder.assemble import NOT_FOR_CHANGES
 from sheetbuilder.pipeline import build
+from sheetbuilder.sheets.actions import every_change
 from sheetbuilder.weekly.changes import export_changes
 from sheetbuilder.weekly.record import plan_saved, read_saved_workbook
 from sheetbuilder.workbook.spec import FORMULA
@@ -69,6 +71,11 @@ def _same_as_the_full_plan(workbook: Path) -> None:
     assert expected == {k: v for k, v in _formula_tables(narrow).items() if v}
     left_out = {s.name for s in full.spec.sheets} - {s.name for s in narrow.spec.sheets}
     assert not left_out & set(expected)  # the sheets left out hold no formula table
+    # The change list `changes` writes is the one plan_actions kept: the same as one made afresh from the tables.
+    fresh, fresh_bids = every_change({k: v for k, v in full.tables.items() if k != "Actions"})
+    kept, kept_bids = every_change(narrow.tables)
+    assert fresh_bids == kept_bids
+    assert fresh.equals(kept)
 
 
 def test_the_demo_planned_for_its_change_list_gives_the_full_plans_tables(demo_build, tmp_path):

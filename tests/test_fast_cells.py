@@ -359,3 +359,63 @@ def test_a_stream_asking_for_typed_cells_alone_leaves_formula_and_empty_cells_un
     stream_cells(io.BytesIO(data), _reader(), lambda r, cells: rows.append((r, dict(cells))) and None,
                  _TypedOnly({0, 1, 2}))
     assert [(0, {2: (7, False)})] == rows
+
+
+SST = ('<?xml version="1.0" encoding="UTF-8" standalone="yes"?>\n'
+       f'<sst xmlns="{NS}" count="{{n}}" uniqueCount="{{n}}">{{body}}</sst>')
+
+
+def _sst(*items: str) -> bytes:
+    return SST.format(n=len(items), body="".join(items)).encode("utf-8")
+
+
+def _openpyxl_strings(data: bytes) -> list:
+    from openpyxl.reader.strings import read_string_table
+    return read_string_table(io.BytesIO(data))
+
+
+def _escaped(text: str) -> str:
+    """Text as a writer escapes it in a shared string: &, < and > as entities, a CR as a character reference (XML 1.0
+    2.11 reads a raw CR as LF; 4.1 keeps a reference's CR)."""
+    return text.replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;").replace("\r", "&#13;")
+
+
+def test_a_shared_string_table_of_the_plain_shape_reads_fast_to_openpyxls_strings(demo_build):
+    # Expected: openpyxl's own reading of the same bytes (the reader the workbook part is otherwise read by).
+    import zipfile
+    built = zipfile.ZipFile(demo_build.output).read("xl/sharedStrings.xml")
+    hostile = _sst(*(f'<si><t xml:space="preserve">{_escaped(t)}</t></si>' for t in HOSTILE),
+                   "<si><t>raw CR LF\r\nand CR\ronly</t></si>", "<si><t>_x005F_x000D_ escaped</t></si>",
+                   "<si><t>&#x1F600;&#233;&quot;&apos;</t></si>")
+    for data in (built, hostile, _sst()):
+        expected = _openpyxl_strings(data)
+        assert expected == fast_cells.shared_strings(data)
+    assert len(HOSTILE) + 3 == len(fast_cells.shared_strings(hostile))
+
+
+@pytest.mark.parametrize("data", [
+    _sst("<si><r><t>rich</t></r><r><t> text</t></r></si>"),  # runs (ECMA-376 18.4.12 r)
+    _sst("<si><t/></si>"), _sst("<si><t>a</t></si>\n<si><t>b</t></si>"), _sst("<x:si><x:t>a</x:t></x:si>"),
+    SST.replace(NS, "http://purl.oclc.org/ooxml/spreadsheetml/main").format(n=1, body="<si><t>a</t></si>").encode(),
+    _sst("<si><t>a</t></si>") + b"<!-- after -->",
+    _sst("<si><t>a&bogus;</t></si>"), _sst("<si><t>a]]>b</t></si>"), _sst("<si><t>a&#1;</t></si>"),
+    _sst("<si><t>a</t>")[:-6], _sst("<si><t>\u00e9</t></si>").replace(b"UTF-8", b"ISO-8859-1"),
+], ids=["runs", "empty_t", "whitespace_between", "prefixed", "strict_namespace", "comment_after", "entity",
+        "cdata_end", "forbidden_reference", "truncated", "latin1"])
+def test_a_shared_string_table_of_any_other_shape_is_left_to_openpyxl(data):
+    # None: openpyxl reads the part (or refuses it, as before: XML 1.0 2.4, 4.1 and 4.6 make the last ones errors).
+    assert None is fast_cells.shared_strings(data)
+
+
+def test_an_opened_workbook_holds_the_shared_strings_openpyxl_reads(demo_build):
+    wb = openpyxl.load_workbook(demo_build.output, read_only=True)
+    try:
+        expected = list(wb.worksheets[0]._shared_strings)
+    finally:
+        wb.close()
+    book = XlsxFile(demo_build.output)
+    try:
+        assert expected == book.wb.worksheets[0]._shared_strings
+        assert 1000 < len(expected)
+    finally:
+        book.close()

@@ -217,13 +217,19 @@ DEFS: list[ColumnDef] = defs(["0"] * len(SEGMENTS))
 VISIBLE = tuple(d for d in DEFS if not d.hidden)  # the columns the sheet shows and `changes` writes
 
 
+def _records(frame: pd.DataFrame, columns: tuple[str, ...]) -> list[dict]:
+    """The rows of frame as {column: value} for the columns named only (the frames are wide: Bids has 60 columns)."""
+    return frame[list(columns)].to_dict("records")
+
+
 def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
     """The changes in list order as the reference computes them, and the count of each segment."""
     out: list[dict] = []
     counts = [0] * len(SEGMENTS)
     if "Bids" in tables:
         b = tables["Bids"].frame
-        for r in b.loc[b["final"] != b["bid"]].to_dict("records"):
+        for r in _records(b.loc[b["final"] != b["bid"]], ("pos", "campaign", "ad_group", "target", "match_type",
+                                                           "bid", "final", "product_id", "spend", "reason", "decision")):
             counts[0] += 1
             out.append({"_seg": 1, "_pos": r["pos"], "Kind": "bid", "Campaign": r["campaign"],
                         "Ad group": r["ad_group"], "Target or term": r["target"], "Match type": r["match_type"],
@@ -233,7 +239,8 @@ def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
     if "Harvest" in tables:
         h = tables["Harvest"].frame
         filled = h.loc[h["pos"].notna()]
-        for r in filled.to_dict("records"):
+        for r in _records(filled, ("k", "kind", "dest_campaign", "dest_ad_group", "term", "match", "start_bid",
+                                   "product_id", "spend")):
             counts[1] += 1
             out.append({"_seg": 2, "_pos": SPAN + r["k"],
                         "Kind": "add product target" if r["kind"] == "product target" else "add keyword",
@@ -241,7 +248,8 @@ def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
                         "Match type": r["match"], "New": r["start_bid"], "Product ID": r["product_id"],
                         "Money at stake": r["spend"],
                         "Reason": NO_DESTINATION if r["dest_campaign"] == "" else "search term that sells"})
-        for r in filled.loc[filled["source_negative"] != ""].to_dict("records"):
+        for r in _records(filled.loc[filled["source_negative"] != ""], ("k", "campaign", "ad_group", "term",
+                                                                       "product_id", "spend")):
             counts[2] += 1
             out.append({"_seg": 3, "_pos": 2 * SPAN + r["k"], "Kind": "add negative",
                         "Campaign": r["campaign"], "Ad group": r["ad_group"], "Target or term": r["term"],
@@ -249,14 +257,16 @@ def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
                         "Reason": "so the new keyword does not compete with its source"})
     if "Negatives" in tables:
         n = tables["Negatives"].frame
-        for r in n.loc[n["pos"].notna()].to_dict("records"):
+        for r in _records(n.loc[n["pos"].notna()], ("k", "campaign", "ad_group", "term", "neg_match", "product_id",
+                                                     "spend", "rule")):
             counts[3] += 1
             out.append({"_seg": 4, "_pos": 3 * SPAN + r["k"], "Kind": "add negative", "Campaign": r["campaign"],
                         "Ad group": r["ad_group"], "Target or term": r["term"], "Match type": r["neg_match"],
                         "Product ID": r["product_id"], "Money at stake": r["spend"], "Reason": r["rule"]})
     if "Budget campaigns" in tables:
         c = tables["Budget campaigns"].frame
-        for r in c.loc[(c["final"] != c["budget"]) & (c["state"] == "enabled")].to_dict("records"):
+        for r in _records(c.loc[(c["final"] != c["budget"]) & (c["state"] == "enabled")],
+                          ("cpos", "campaign", "budget", "final", "products", "decision")):
             counts[4] += 1
             out.append({"_seg": 5, "_pos": 4 * SPAN + r["cpos"], "Kind": "budget", "Campaign": r["campaign"],
                         "Current": r["budget"], "New": r["final"], "Product ID": r["products"],
@@ -270,8 +280,10 @@ def every_change(tables: dict[str, PlannedTable]) -> tuple[pd.DataFrame, int]:
     visible columns' references compute them (keyed as DEFS), and how many are bid changes.
 
     What `changes` writes: the Actions sheet shows only the first actions_cap bid changes, this all of them.
+    The list is the one plan_actions made (kept on the planned Actions table), else made here.
     """
-    changes, counts = _changes(tables)
+    kept = tables[SHEET].kept if SHEET in tables else None
+    changes, counts = kept if kept is not None else _changes(tables)
     frame = pd.DataFrame({"k": np.arange(1, len(changes) + 1, dtype=float)})
     ctx = ActionsContext(changes)
     return pd.DataFrame({d.key: d.reference(frame, ctx) for d in VISIBLE}, index=frame.index), counts[0]
@@ -361,6 +373,7 @@ def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settin
         blocks.append(plan_table(columns, base, ActionsContext(block), first, ranges, with_totals=False))
     planned = _joined(*blocks)
     planned.totals_values[BID_ROWS] = p
+    planned.kept = (changes, counts)  # the change list, made once: every_change reads it
     note_value, note_formula, short = _note(local_refs, (p, q), (len(bids), len(others)))
     above = [[Cell("Actions: every change whose final value differs from today (bid changes: the first "
                    f"{p:,}, all on Bids)" if len(bids) > p else

@@ -203,7 +203,7 @@ def read_period(text: str) -> Period | None:
     return Period(start, end) if start <= end else None
 
 
-def _texts(values: list[float]) -> list[str]:
+def _texts(values: list[float] | tuple[float, ...]) -> list[str]:
     """number_text of each value, inlined for speed (a history of 10,000 keywords packs millions of figures)."""
     return ["" if v != v else (str(int(v)) if v.is_integer() and -1e15 < v < 1e15 else repr(v)) for v in values]
 
@@ -227,12 +227,11 @@ def packed_rows(history: KeywordHistory, texts: bool = True) -> list[dict[str, A
         if texts:
             row["periods"] = SEPARATOR.join([period_texts[p] for p in periods])
         figures = [by_period[p] for p in periods]
-        for i, metric in enumerate(METRICS):
-            values = [f[i] for f in figures]
+        for metric, values in zip(METRICS, zip(*figures) if figures else [()] * len(METRICS)):  # each metric's weeks
             if texts:
                 row[metric + "_packed"] = SEPARATOR.join(_texts(values))
             if metric != "bid":
-                row[metric] = round(math.fsum(v for v in values if v == v), 9)
+                row[metric] = round(math.fsum([v for v in values if v == v]), 9)
         priced = [f for f in figures if f[5] == f[5] and f[1] == f[1]]  # weeks whose bid in force is known
         row["bid_clicks"] = round(math.fsum(f[1] * f[5] for f in priced), 9)
         row["bid_spend"] = round(math.fsum(f[3] for f in priced if f[3] == f[3]), 9)

@@ -88,13 +88,17 @@ def _pick(column: str, text: bool = False):
     return formula, compute
 
 
-def _derived(fn, formula: str):
-    """A list column computed from the row's own values and its Terms row (_<column>) (blank where it is empty)."""
+def _derived(fn, formula: str, reads: tuple[str, ...] = ()):
+    """A list column computed from the row's own values and its Terms row (_<column>) (blank where it is empty).
+
+    fn reads only the row's columns named in reads and the Terms columns of TERM_READS (as _<column>; _src_ad_group
+    is the Terms ad group): a name it reads beyond them is a KeyError, never a blank.
+    """
     def compute(df: pd.DataFrame, ctx: ListContext) -> pd.Series:
-        rows = df.to_dict("records")
+        rows = df[["pos", *reads]].to_dict("records")
         taken = ctx.term_rows  # the Terms rows shown, each taken once for all the list's columns
         at = sorted({p for r in rows if not pd.isna(r["pos"]) and (p := int(r["pos"]) - 1) not in taken})
-        taken.update(zip(at, ctx.terms.iloc[at].to_dict("records")))
+        taken.update(zip(at, ctx.terms.iloc[at][list(TERM_READS)].to_dict("records")))
         terms = taken
 
         def row(r: dict) -> dict:
@@ -103,6 +107,9 @@ def _derived(fn, formula: str):
         return pd.Series([fn(row(r), ctx.settings) if not pd.isna(r["pos"]) else "" for r in rows],
                          index=df.index, dtype=object)
     return compute, formula
+
+
+TERM_READS = ("ad_group", "words")  # the Terms columns a derived list column reads (see _derived)
 
 
 def _pos_column(word: str) -> ColumnDef:
@@ -164,7 +171,8 @@ HARVEST_DEFS: list[ColumnDef] = [
                                          if not pd.isna(p) else "" for p in df["pos"]], index=df.index, dtype=object),
               '=IF({c:pos}="","",IF(%s=1,"product target","keyword"))' % _t("pid_like"), width=14),
     ColumnDef("match", "Match type", "text", "The match type to add it with (Settings), or product.",
-              *_derived(_match, '=IF({c:pos}="","",IF({c:kind}="product target","product",harvest_match_type))'),
+              *_derived(_match, '=IF({c:pos}="","",IF({c:kind}="product target","product",harvest_match_type))',
+                        ("kind",)),
               width=10),
     ColumnDef("dest_campaign", "Destination campaign", "text",
               "The same campaign for manual sources; the destination named in settings.toml for the product; else "
@@ -189,7 +197,8 @@ HARVEST_DEFS: list[ColumnDef] = [
     ColumnDef("acos", "ACoS", "percent", "The term's ACoS.", *reversed(_pick("acos")), width=8),
     ColumnDef("reason", "Reason", "label", "choose destination, where none could be proposed.",
               *_derived(lambda r, s: "choose destination" if r["dest_campaign"] == "" else "",
-                        '=IF({c:pos}="","",IF({c:dest_campaign}="","choose destination",""))'), width=18),
+                        '=IF({c:pos}="","",IF({c:dest_campaign}="","choose destination",""))', ("dest_campaign",)),
+              width=18),
     ColumnDef("value_bid", "Value bid", "money",
               "Working: aim ACoS x smoothed CVR x order value (the ad group's blends from Groups; the order value "
               "is the term's own where it has orders): what a click on the term is worth.",

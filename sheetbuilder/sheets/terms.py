@@ -27,6 +27,7 @@ Keys sheet's Clashes table, whose Blocks column is live.
 """
 from __future__ import annotations
 
+from collections import defaultdict
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -309,11 +310,13 @@ def existing_keys(targets: pd.DataFrame | None, negatives: pd.DataFrame | None, 
     entries: dict[tuple, str] = {}
     if targets is not None and len(targets):
         products = groups.groupby(["campaign", "ad_group"])["product_id"].apply(list).to_dict() if len(groups) else {}
-        for t in targets.itertuples():
-            if t.match_type != "exact" or t.state == "archived":
+        for campaign, group, target, match, state in zip(*(targets[k] for k in ("campaign", "ad_group", "target",
+                                                                                "match_type", "state"))):
+            if match != "exact" or state == "archived":
                 continue
-            for product in products.get((t.campaign, t.ad_group), []):
-                entries.setdefault(("T", product, _norm_or_blank(t.target, fold)), f"{t.campaign} / {t.ad_group}")
+            norm = _norm_or_blank(target, fold)  # once per keyword, not once per product its ad group advertises
+            for product in products.get((campaign, group), []):
+                entries.setdefault(("T", product, norm), f"{campaign} / {group}")
     if negatives is not None and len(negatives):
         for n in negatives.itertuples():
             level = "ad group" if n.ad_group else "campaign"
@@ -323,16 +326,16 @@ def existing_keys(targets: pd.DataFrame | None, negatives: pd.DataFrame | None, 
     return entries
 
 
-def _negative_key(row, phrases: dict, exact: set) -> tuple:
+def _negative_key(campaign: str, group: str, term_key: str, phrases: dict, exact: set) -> tuple:
     """The key of the negative that blocks the term in its ad group, else its ad-group exact key."""
-    for key in (("N", row.campaign, row.ad_group, row.term_key), ("N", row.campaign, "", row.term_key)):
+    for key in (("N", campaign, group, term_key), ("N", campaign, "", term_key)):
         if key in exact:
             return key
-    for scope in ((row.campaign, row.ad_group), (row.campaign, "")):
+    for scope in ((campaign, group), (campaign, "")):
         for phrase in phrases.get(scope, ()):
-            if contains_phrase(row.term_key, phrase):
+            if contains_phrase(term_key, phrase):
                 return ("NP", scope[0], scope[1], phrase)
-    return ("N", row.campaign, row.ad_group, row.term_key)
+    return ("N", campaign, group, term_key)
 
 
 DEFS: list[ColumnDef] = exports_only(_all_defs(), EXPORTS) + [notes_column()]  # the Terms columns, the user's notes last
@@ -380,14 +383,15 @@ def term_frame(layout: InputSheet, groups: pd.DataFrame, campaigns: pd.DataFrame
         states = campaigns.drop_duplicates("campaign").set_index("campaign")["state"]
         paused = set(states.index[states != "enabled"])
     dest_c, dest_g = [], []
-    for r in frame.itertuples():
-        product = r.products[0] if r.products else None
+    for products, campaign, group, from_match in zip(frame["products"], frame["campaign"], frame["ad_group"],
+                                                     frame["from_match"]):
+        product = products[0] if products else None
         if product in settings.destinations:
             c, a = settings.destinations[product]
-        elif r.campaign in automatic or r.from_match == "auto":
+        elif campaign in automatic or from_match == "auto":
             c, a = "", ""
         else:
-            c, a = r.campaign, r.ad_group
+            c, a = campaign, group
         if c in paused:  # nothing is added to a paused or archived campaign: choose a live one
             c, a = "", ""
         dest_c.append(c)
@@ -406,7 +410,8 @@ def term_frame(layout: InputSheet, groups: pd.DataFrame, campaigns: pd.DataFrame
                 phrases.setdefault((n.campaign, n.ad_group or ""), []).append(norm)
             else:
                 exact.add(("N", n.campaign, n.ad_group or "", norm))
-    frame["nkey_t"] = [_negative_key(r, phrases, exact) for r in frame.itertuples()]
+    frame["nkey_t"] = [_negative_key(c, g, k, phrases, exact)
+                       for c, g, k in zip(frame["campaign"], frame["ad_group"], frame["term_key"])]
     frame["decision"] = None
     frame["cfirst"], frame["clast"] = np.nan, np.nan
     return frame
@@ -424,12 +429,14 @@ def clash_pairs(frame: pd.DataFrame) -> pd.DataFrame:
     columns = ["i", "j", "kw_in", "kw_group", "src_in", "src_group", "same_term"]
     if not len(frame):
         return pd.DataFrame(columns=columns, dtype=float)
-    index: dict[tuple, set] = {}
+    index: dict[tuple, set] = defaultdict(set)  # {(campaign, word): the terms j holding it there}
     for j, c, dc, key, orders in zip(frame["pos"], frame["campaign"], frame["dest_campaign"], frame["term_key"],
                                      frame["orders"]):
-        for campaign in {dc} - {""} | ({c} if orders > 0 else set()):
-            for w in set(key.split(" ")):
-                index.setdefault((campaign, w), set()).add(int(j))
+        j, held = int(j), set(key.split(" "))
+        for campaign in (dc, c) if orders > 0 and c != dc else (dc,):  # its destination, and its own campaign if sold
+            if campaign != "":
+                for w in held:
+                    index[(campaign, w)].add(j)
     c_, g_, dc_, dg_, k_, o_ = (frame[k].to_numpy() for k in ("campaign", "ad_group", "dest_campaign",
                                                               "dest_ad_group", "term_key", "orders"))
     rows = []

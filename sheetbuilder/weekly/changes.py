@@ -28,7 +28,8 @@ from sheetbuilder.reading.guard import text_problem
 from sheetbuilder.sheets.actions import HEADERS
 from sheetbuilder.workbook.render import render_rows
 from sheetbuilder.values import is_blank, is_number
-from sheetbuilder.weekly.record import NoActionsSheet, SavedWorkbook, read_saved_workbook  # noqa: F401 (re-exported)
+from sheetbuilder.weekly.record import (NoActionsSheet, SavedWorkbook, no_cycle_collection,  # noqa: F401 (re-exported)
+                                        read_saved_workbook)
 from sheetbuilder.weekly.saved import NotAWorkbook, WorkbookNotFound  # noqa: F401 (re-exported)
 
 COLUMNS = tuple({"target": "target_or_term", "money": "money_at_stake"}.get(k, k) for k in KEYS)
@@ -188,6 +189,12 @@ def export_changes(workbook: Path, output: Path, fmt: str = "csv", force: bool =
     """
     workbook, output = Path(workbook), Path(output)
     _check_output(workbook, output, fmt, force)
+    with no_cycle_collection():  # the plan's millions of objects hold no cycle: the collector would only walk them
+        return _export(workbook, output, fmt, force, include_unapplied)
+
+
+def _export(workbook: Path, output: Path, fmt: str, force: bool, include_unapplied: bool) -> ChangesResult:
+    """export_changes once its output was checked."""
     saved = read_saved_workbook(workbook, NotAWorkbook, for_changes=True, followup=include_unapplied)  # one read
     rows, context, notes = actions_of(saved)
     if include_unapplied:

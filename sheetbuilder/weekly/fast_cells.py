@@ -113,13 +113,21 @@ class _Attributes:
         self.seen[attrs] = True
 
 
-def _head(data: bytes) -> None:
-    """Refuse a prolog this reader does not read: another encoding than UTF-8, a byte-order mark of UTF-16."""
+def _not_utf8(data: bytes) -> str | None:
+    """Why a part's prolog is not one this reader reads (another encoding than UTF-8, a byte-order mark of UTF-16)."""
     if data.startswith((b"\xff\xfe", b"\xfe\xff", b"\x00")) or data[1:2] == b"\x00":
-        raise NotFast("not UTF-8")
+        return "not UTF-8"
     declared = _DECLARATION.match(data.removeprefix(b"\xef\xbb\xbf"))
     if declared and declared.group(1).lower() != b"utf-8":
-        raise NotFast("an encoding other than UTF-8")
+        return "an encoding other than UTF-8"
+    return None
+
+
+def _head(data: bytes) -> None:
+    """Refuse a prolog this reader does not read (:func:`_not_utf8`)."""
+    why = _not_utf8(data)
+    if why is not None:
+        raise NotFast(why)
 
 
 def _outside(part: bytes, wellformed: Callable[[bytes], None]) -> None:
@@ -311,3 +319,34 @@ def _again(handle: IO[bytes], columns_of: dict[str, int],
                     # the columns wanted changed: find again after this row
                     pos = data.find("</row>", data.find(f'<row r="{digits}"')) + 6
                     break
+
+
+# The shared-string table (ECMA-376 Part 1, 18.4.9 sst) as xlsxwriter and LibreOffice write it: each string an <si>
+# holding one <t> (no runs, no phonetic text), the root in the main namespace, unprefixed.
+_SST = re.compile(r'<sst xmlns="http://schemas\.openxmlformats\.org/spreadsheetml/2006/main"'
+                  rf'(?: [a-zA-Z][\w.:-]*={_VALUE})*(?:/>|>(.*)</sst>)\s*\Z', re.S)
+_SI = re.compile(rf'<si>{_T_START}>({_TEXT})</t></si>|(.)', re.S)
+_PROLOG = re.compile(r'(?:<\?xml [^<>]*\?>)?\s*')
+
+
+def shared_strings(data: bytes) -> list[str] | None:
+    """The strings of a shared-string part as openpyxl reads them (each <si>'s text, 'x005F_' removed), or None when
+    the part holds any other shape (runs, phonetic text, an empty <t/>, a prefix, another namespace ...): openpyxl
+    then reads it. The part is checked well-formed by expat (no handlers) first."""
+    if _not_utf8(data) is not None:
+        return None
+    try:
+        body = data.decode("utf-8").removeprefix("\ufeff")
+    except UnicodeDecodeError:
+        return None
+    try:
+        expat.ParserCreate(namespace_separator="}").Parse(data, True)
+    except expat.ExpatError:
+        return None
+    root = _SST.match(body, _PROLOG.match(body).end())
+    if root is None:
+        return None
+    found = _SI.findall(root.group(1) or "")
+    if any(other for _, other in found):
+        return None
+    return [text(t).replace("x005F_", "") for t, _ in found]

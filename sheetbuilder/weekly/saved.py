@@ -13,6 +13,7 @@ from __future__ import annotations
 import datetime as dt
 import math
 import zipfile
+from operator import itemgetter
 from pathlib import Path
 from typing import Any, Callable
 
@@ -237,13 +238,17 @@ def saved_inputs(book: SavedBook) -> tuple[dict[str, Any], list]:
             continue
         header = ["" if v is None else str(v) for v in rows[0]]
         at = {h: i for i, h in enumerate(header) if h}
-        body = [r for r in rows[1:] if any(v is not None and v != "" for v in r)]
+        body = [r for r in rows[1:] if r.count(None) + r.count("") < len(r)]  # a row of blank cells is not read
         data: dict[str, list] = {"_row": _source_rows(body, at.get("source_row"))}
         for col in rule.columns:
             i = at.get(col.name)
-            values = [None if i is None else r[i] for r in body]
+            values = [None] * len(body) if i is None else list(map(itemgetter(i), body))
+            kinds = set(map(type, values))  # a column of numbers, or of texts, is read at once
             if col.kind in c.NUMERIC_KINDS:
                 blank = 0.0 if col.kind in (c.COUNT, c.MONEY) else math.nan
+                if kinds <= _NUMBERS:
+                    data[col.name] = [blank if v is None else float(v) for v in values]
+                    continue
                 out = []
                 for n, v in enumerate(values):
                     if v is None or v == "":
@@ -254,6 +259,8 @@ def saved_inputs(book: SavedBook) -> tuple[dict[str, Any], list]:
                         problems.append(Problem(sheet, n + 2, col.name, f"holds {v!r}; expected a number"))
                         out.append(math.nan)
                 data[col.name] = out
+            elif kinds <= _TEXTS:
+                data[col.name] = ["" if v is None else v for v in values]
             else:
                 data[col.name] = ["" if v is None else (v if isinstance(v, str) else _as_text(v)) for v in values]
         frame = pd.DataFrame(data).sort_values("_row", kind="stable").reset_index(drop=True)
@@ -272,6 +279,10 @@ def saved_inputs(book: SavedBook) -> tuple[dict[str, Any], list]:
         raise UnreadableWorkbook(f"{book.path}: its {names} missing or empty, so the exports it was built from cannot be read; open it in the "
                                  "spreadsheet program and save it again, or build a new one")
     return tables, problems
+
+
+_NUMBERS = frozenset({int, float, type(None)})  # the cell types a number column reads without a word (a bool does not)
+_TEXTS = frozenset({str, type(None)})
 
 
 def _source_rows(body: list[list[Any]], at: int | None) -> list[int]:

@@ -112,16 +112,28 @@ class CellReader:
                              "".join(cell.inline), formulas)
 
     def raw_value(self, raw: tuple, formulas: bool) -> Any:
-        """The value of a cell as :func:`sheetbuilder.weekly.fast_cells.scan` hands it over."""
+        """The value of a cell as :func:`sheetbuilder.weekly.fast_cells.scan` hands it over: the commonest cells (a
+        number, a shared string, an inline string) at once, every other one, and any that does not read, by
+        :meth:`value_of`."""
         _, _, style, kind, formula, text, inline = raw
-        dated = self.dated.get(style)
-        if dated is None:
-            dated = self.dated[style] = (int(style) if style else 0) in self.date_styles
-        if not dated and text and (not kind or kind == "n"):  # a number, the commonest cell: at once
-            try:
-                return number(text)
-            except ValueError:
-                pass  # value_of refuses it the one way
+        if kind == "s":
+            if text:
+                try:
+                    return self.shared[int(text)]
+                except (ValueError, IndexError):
+                    pass  # value_of refuses it the one way
+        elif not kind or kind == "n":
+            if text:
+                dated = self.dated.get(style)
+                if dated is None:
+                    dated = self.dated[style] = (int(style) if style else 0) in self.date_styles
+                if not dated:
+                    try:  # as number() reads it: a point makes a float, else an int (an exponent: number() below)
+                        return float(text) if "." in text else int(text)
+                    except ValueError:
+                        pass
+        elif kind == "inlineStr":
+            return inline
         return self.value_of(kind or "n", int(style) if style else 0, bool(formula), text, inline, formulas)
 
     def value_of(self, kind: str, style: int, formula: bool, text: str | None, inline: str, formulas: bool) -> Any:
@@ -275,8 +287,14 @@ def padded_rows(found: dict[int, dict[int, Any]]) -> list[list[Any]]:
         raise UnsafeWorkbook(f"refused: a sheet's cells reach row {height:,} and column {width:,}, more than "
                              f"{guard.MAX_SAVED_CELLS:,} cells to read; delete what lies far below or right of "
                              "its tables and save it again")
-    empty: dict[int, Any] = {}
-    return [[found.get(r, empty).get(c) for c in range(width)] for r in range(height)]
+    blank = [None] * width
+    rows = []
+    for r in range(height):
+        row = blank.copy()
+        for c, value in found.get(r, {}).items():
+            row[c] = value
+        rows.append(row)
+    return rows
 
 
 def read_cells(handle: IO[bytes], reader: CellReader, columns: frozenset[int] | None = None,

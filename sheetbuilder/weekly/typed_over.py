@@ -101,8 +101,9 @@ class _SheetCheck:
         if self.next >= len(self.layouts):
             return False
         layout = self.layouts[self.next]
-        if len(cells) < self.fewest[self.next]:  # too few cells to hold enough of its headers
-            return False
+        fewest = self.fewest[self.next]
+        if len(cells) < fewest or sum(isinstance(v, str) and not formula for v, formula in cells.values()) < fewest:
+            return False  # too few cells, or too few texts, to hold enough of its headers
         texts = {c: key_text(v) for c, (v, formula) in cells.items() if isinstance(v, str) and not formula}
         present = set(texts.values())
         if sum(h in present for h in layout.headers) < max(1, HEADER_SHARE * len(layout.headers)):

@@ -8,8 +8,10 @@ from __future__ import annotations
 from pathlib import Path
 from typing import Any, Callable
 
+from openpyxl.reader.excel import SHARED_STRINGS, ExcelReader
 from openpyxl.utils.datetime import from_excel
 
+from sheetbuilder.weekly.fast_cells import shared_strings
 from sheetbuilder.weekly.names import Area, a1_area
 from sheetbuilder.weekly.sheet_xml import CellReader, read_cells, read_keeping_rows, stream_cells
 
@@ -28,6 +30,21 @@ def named_area(wb: Any, name: str) -> Area | None:
     return None
 
 
+class _Reader(ExcelReader):
+    """openpyxl's workbook reader, the shared strings read by :func:`sheetbuilder.weekly.fast_cells.shared_strings`
+    when they have the plain shape it reads (about ten times faster on a large table), else by openpyxl."""
+
+    def read_strings(self) -> None:
+        found = self.package.find(SHARED_STRINGS)
+        if found is not None and not self.rich_text:
+            with self.archive.open(found.PartName[1:]) as src:
+                strings = shared_strings(src.read())
+            if strings is not None:
+                self.shared_strings = strings
+                return
+        super().read_strings()
+
+
 class XlsxFile:
     """An .xlsx saved workbook, opened read-only: the interface :class:`sheetbuilder.weekly.ods.OdsFile` offers too.
 
@@ -36,11 +53,12 @@ class XlsxFile:
     """
 
     def __init__(self, path: Path):
-        import openpyxl
         self.path = Path(path)
         self._handle = open(self.path, "rb")  # a handle, not a name: its content says .xlsx, whatever it is called
         try:
-            self.wb = openpyxl.load_workbook(self._handle, read_only=True, data_only=True)
+            reader = _Reader(self._handle, read_only=True, data_only=True)
+            reader.read()  # as openpyxl.load_workbook does
+            self.wb = reader.wb
         except BaseException:
             self._handle.close()
             raise

@@ -147,6 +147,7 @@ class PlannedTable:
     totals_values: dict[str, Any]
     letters: dict[str, str]
     first_body_row: int = 0
+    kept: Any = None  # what its planner made beside the frame for later readers (Actions: its change list)
 
     def body_range(self, sheet: str) -> str:
         """The absolute range of the whole body, every column (one row when it has none)."""
