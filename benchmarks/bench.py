@@ -121,6 +121,12 @@ def measure_size(n: int, base: Path, libreoffice: bool, uno: bool, terms_ratio: 
         row["uno_edit_probe"] = times["book"].get("edit_probe")
         row["uno_load_ratio"] = _ratio(row["uno_load_book_s"], row["uno_load_twin_s"])
         row["uno_open_recalc_ratio"] = _ratio(row["uno_load_book_s"] + row["uno_calc_s"], row["uno_load_twin_s"])
+        # soffice's CPU seconds: other work on a shared machine stretches them less than wall seconds, but the
+        # twin's load runs on several threads and the formulas' on one, so the CPU ratio is below the wall one
+        cpu = (times["twin"].get("load_cpu_s"), times["book"].get("load_cpu_s"), times["book"].get("calc_cpu_s"))
+        row["uno_load_twin_cpu_s"], row["uno_load_book_cpu_s"], row["uno_calc_cpu_s"] = cpu
+        if None not in cpu:
+            row["uno_open_recalc_cpu_ratio"] = _ratio(cpu[1] + cpu[2], cpu[0])
         if attribution:
             row["attribution"] = attribute(book, base / "parts", counts)
     if attribution:
@@ -157,6 +163,10 @@ COLUMNS = [("search-term rows", "st_rows", "d"), ("Terms rows", "terms_rows", "d
            ("UNO load twin s", "uno_load_twin_s", ".2f"), ("UNO load workbook s", "uno_load_book_s", ".2f"),
            ("UNO full recalc s", "uno_calc_s", ".2f"), ("UNO load/twin", "uno_load_ratio", ".2f"),
            ("UNO (load+recalc)/twin", "uno_open_recalc_ratio", ".2f"),
+           ("UNO load twin CPU s", "uno_load_twin_cpu_s", ".2f"),
+           ("UNO load workbook CPU s", "uno_load_book_cpu_s", ".2f"),
+           ("UNO full recalc CPU s", "uno_calc_cpu_s", ".2f"),
+           ("UNO (load+recalc)/twin in CPU s", "uno_open_recalc_cpu_ratio", ".2f"),
            ("UNO unit-cost edit + recalc s", "uno_edit_s", ".3f"),
            ("... of it setting the value (marking dependents) s", "uno_edit_set_s", ".3f"),
            ("UNO save after edit s", "uno_save_s", ".2f")]

@@ -7,9 +7,10 @@ script imports nothing of sheetbuilder's and talks JSON: it reads a list of jobs
 ({"path", "label", "edit", "calc_repeat"}), starts one headless soffice listening on a pipe with a private
 profile that never recalculates on load, and for each file times:
 
-- load_s: opening the file (formulas parsed and linked, cached values trusted);
+- load_s: opening the file (formulas parsed and linked, cached values trusted); load_cpu_s the CPU seconds
+  soffice spent on it (every thread), which other work on a shared machine stretches less than wall time;
 - calc_s: `calculateAll()` on the open document (every formula recalculated), the least of
-  calc_repeat runs;
+  calc_repeat runs (default 1; 0 times the load alone), and calc_cpu_s its CPU seconds;
 - with "edit": edit_s, one unit cost on in_catalog raised by 1 and `calculate()` (the dirty
   cells recalculated), with the Profit sheet's first dependent value read before and after;
   edit_set_s, the part of it that setting the value takes (LibreOffice marks every dependent
@@ -87,18 +88,56 @@ def _profit_probe(doc):
     return None
 
 
+_OFFICE_PIDS: list[int] = []  # soffice's processes (the launcher and what it starts), found once it listens
+
+
+def _descendants(pid: int) -> list[int]:
+    """pid and every process below it, read from /proc (Linux)."""
+    children: dict[int, list[int]] = {}
+    for entry in os.listdir("/proc"):
+        if entry.isdigit():
+            try:
+                stat = Path(f"/proc/{entry}/stat").read_text()
+            except OSError:
+                continue
+            ppid = int(stat.rsplit(")", 1)[1].split()[1])
+            children.setdefault(ppid, []).append(int(entry))
+    out, todo = [], [pid]
+    while todo:
+        p = todo.pop()
+        out.append(p)
+        todo += children.get(p, [])
+    return out
+
+
+def office_cpu_s() -> float:
+    """CPU seconds (user + system, every thread) soffice's processes have used so far: unlike wall time, other
+    work on a shared machine stretches it little."""
+    total = 0
+    for pid in _OFFICE_PIDS:
+        try:
+            fields = Path(f"/proc/{pid}/stat").read_text().rsplit(")", 1)[1].split()
+        except OSError:
+            continue
+        total += int(fields[11]) + int(fields[12])  # utime, stime (fields 14 and 15 of proc(5))
+    return total / os.sysconf("SC_CLK_TCK")
+
+
 def time_file(desktop, job: dict, scratch: Path) -> dict:
     url = uno.systemPathToFileUrl(str(Path(job["path"]).resolve()))
-    t = time.perf_counter()
+    t, cpu = time.perf_counter(), office_cpu_s()
     doc = desktop.loadComponentFromURL(url, "_blank", 0, (_prop("Hidden", True),))
-    out = {"load_s": time.perf_counter() - t}
+    out = {"load_s": time.perf_counter() - t, "load_cpu_s": office_cpu_s() - cpu}
     try:
         runs = []
-        for _ in range(max(1, int(job.get("calc_repeat", 1)))):  # the least of a few: the machine is shared
-            t = time.perf_counter()
+        cpus = []
+        for _ in range(int(job.get("calc_repeat", 1))):  # the least of a few: the machine is shared; 0: load only
+            t, cpu = time.perf_counter(), office_cpu_s()
             doc.calculateAll()
             runs.append(time.perf_counter() - t)
-        out["calc_s"] = min(runs)
+            cpus.append(office_cpu_s() - cpu)
+        out["calc_s"] = min(runs) if runs else None
+        out["calc_cpu_s"] = min(cpus) if cpus else None
         if job.get("edit"):
             cell, probe = _unit_cost_cell(doc), _profit_probe(doc)
             if cell is not None:
@@ -136,6 +175,7 @@ def run_jobs(jobs: list[dict], do_job, name: str = "sbbench") -> dict:
         results = {}
         try:
             desktop = _connect(pipe, proc)
+            _OFFICE_PIDS[:] = _descendants(proc.pid)
             for job in jobs:
                 results[job["label"]] = do_job(desktop, job, Path(tmp))
             try:

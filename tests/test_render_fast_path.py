@@ -223,3 +223,31 @@ def test_a_built_workbook_writes_shared_groups_that_read_back_as_every_row_s_for
             for i in range(profit.n_rows):
                 r = profit.first_row + 2 + i
                 assert c.formula.replace("{r}", str(r)).replace("{p}", str(r - 1)) == ws.cell(r, col).value
+
+
+def test_a_column_of_per_row_formulas_is_written_as_one_shared_group_per_run_of_equal_formulas(tmp_path):
+    # Actions holds two blocks of rows, each with its own formula per column: each block's run of equal
+    # formulas is one group (ECMA-376 Part 1, 18.3.1.40), and every row reads back as its planned formula.
+    path = tmp_path / "demo.xlsx"
+    build(DEMO, path, built_on=dt.date(2026, 12, 2))
+    inputs, settings, _ = load(DEMO)
+    actions = plan_workbook(inputs, settings, dt.date(2026, 12, 2)).spec.sheet("Actions").table
+    ws = openpyxl.load_workbook(path)["Actions"]
+    listed, runs = 0, 0
+    for col, c in enumerate(actions.columns, start=1):
+        if c.kind != FORMULA:
+            continue
+        if isinstance(c.formula, str):  # a block left empty: the other's formula down the whole column
+            runs += actions.n_rows > 1 and shareable(c.formula)
+            continue
+        for i, template in enumerate(c.formula):
+            r = actions.first_row + 2 + i
+            assert template.replace("{r}", str(r)).replace("{p}", str(r - 1)) == ws.cell(r, col).value
+            listed += 1
+            runs += i + 1 < len(c.formula) and c.formula[i + 1] == template and (i == 0 or c.formula[i - 1] != template)
+    assert listed > 100 and runs > 10
+    with zipfile.ZipFile(path) as z:
+        book = z.read("xl/workbook.xml").decode()
+        sheet_id = book.split('<sheet name="Actions" sheetId="')[1].split('"')[0]
+        xml = z.read(f"xl/worksheets/sheet{sheet_id}.xml")
+    assert runs == xml.count(b'<f t="shared" ref=')

@@ -250,6 +250,44 @@ class OverlappingBlocks(RuntimeError):
     """Two blocks of a sheet were planned over the same rows (an internal error, never the user's)."""
 
 
+def _runs(formula: str | list[str], n: int) -> Iterator[tuple[int, int, str]]:
+    """(first row index, rows, template) of each run of rows sharing one formula template: the whole column for
+    one template, each stretch of equal templates for a list (a table of blocks, such as Actions)."""
+    if isinstance(formula, str):
+        yield 0, n, formula
+        return
+    start = 0
+    for i in range(1, n + 1):
+        if i == n or formula[i] != formula[start]:
+            yield start, i - start, formula[start]
+            start = i
+
+
+def _shared_groups(ws, columns: list, row: int, n: int) -> dict[int, dict[int, SharedFormula]]:
+    """{column: {row index: its cell's shared formula}} for the table's body of n rows from row: one group per run
+    of two or more rows with one shareable template (LibreOffice then compiles the run's formula once)."""
+    shared: dict[int, dict[int, SharedFormula]] = {}
+    if n < 2 or ws._check_dimensions(row + n - 1, len(columns) - 1, True, True) != 0:
+        return shared
+    for col, c, _, formula, _ in columns:
+        if c.kind != FORMULA or not formula:
+            continue
+        letter = cell_ref(row, col).rstrip("0123456789")
+        for start, length, template in _runs(formula, n):
+            if length < 2 or not shareable(template):
+                continue
+            si, ws.shared_groups = ws.shared_groups, ws.shared_groups + 1
+            top = row + start
+            text = template.replace("{r}", str(top + 1)).replace("{p}", str(top))
+            cells = shared.setdefault(col, {})
+            cells[start] = SharedFormula(text[1:] if text.startswith("=") else text, si,
+                                         f"{letter}{top + 1}:{letter}{top + length}")
+            later = SharedFormula("", si, None)
+            for i in range(start + 1, start + length):
+                cells[i] = later
+    return shared
+
+
 def _write_table(ws, table: Table, row: int, formats: dict, state_formats: dict, progress: Progress | None,
                  sheet_name: str, first: bool) -> int:
     """Write a table's title, header, body and totals at its planned first row; return the next free row.
@@ -277,21 +315,13 @@ def _write_table(ws, table: Table, row: int, formats: dict, state_formats: dict,
     n = table.n_rows
     step = max(1, n // 50)
     marked = [(col, c) for col, c in enumerate(table.columns) if c.kind != FORMULA and (c.cell_styles or c.notes)]
-    shared: dict[int, tuple[SharedFormula, SharedFormula]] = {}  # column: (its first cell's formula, the others')
-    if n > 1 and ws._check_dimensions(row + n - 1, len(columns) - 1, True, True) == 0:
-        for col, c, _, formula, _ in columns:
-            if c.kind == FORMULA and isinstance(formula, str) and shareable(formula):
-                si, ws.shared_groups = ws.shared_groups, ws.shared_groups + 1
-                text = formula.replace("{r}", str(row + 1)).replace("{p}", str(row))
-                letter = cell_ref(row, col).rstrip("0123456789")
-                shared[col] = (SharedFormula(text[1:] if text.startswith("=") else text, si,
-                                             f"{letter}{row + 1}:{letter}{row + n}"), SharedFormula("", si, None))
+    shared = _shared_groups(ws, columns, row, n)
     for i in range(n):
         r = row + i
         rs, ps = str(r + 1), str(r)
         for col, c, fmt, formula, values in columns:
-            if col in shared:
-                _put_shared(ws, r, col, shared[col][i > 0], fmt, _cached(values[i]))
+            if col in shared and i in shared[col]:
+                _put_shared(ws, r, col, shared[col][i], fmt, _cached(values[i]))
             elif c.kind == FORMULA:
                 text = (formula[i] if isinstance(formula, list) else formula).replace("{r}", rs)
                 if "{p}" in text:  # the previous row, for running counts
