@@ -9,8 +9,8 @@ from __future__ import annotations
 import datetime as dt
 from pathlib import Path
 
-import openpyxl
 import pytest
+from openpyxl.reader.excel import ExcelReader
 
 from sheetbuilder.pipeline import build
 from sheetbuilder.weekly import saved
@@ -23,20 +23,21 @@ BUILT_ON = dt.date(2026, 12, 2)
 
 @pytest.fixture()
 def opened(monkeypatch) -> dict[str, list[str]]:
-    """The file names passed to the package's one opener, and to openpyxl's loader by anyone."""
+    """The file names passed to the package's one opener, and read by openpyxl's workbook reader by anyone
+    (``ExcelReader.read``, which ``openpyxl.load_workbook`` calls, and so does the opener's own reader)."""
     calls: dict[str, list[str]] = {"opener": [], "openpyxl": []}
-    opener, loader = saved.open_workbook, openpyxl.load_workbook
+    opener, read = saved.open_workbook, ExcelReader.read
 
     def counted_opener(path, *args, **kwargs):
         calls["opener"].append(Path(path).name)
         return opener(path, *args, **kwargs)
 
-    def counted_loader(path, *args, **kwargs):
-        calls["openpyxl"].append(Path(getattr(path, "name", path)).name)  # a path or an open file
-        return loader(path, *args, **kwargs)
+    def counted_read(reader, *args, **kwargs):
+        calls["openpyxl"].append(Path(reader.archive.filename).name)  # a path or an open file
+        return read(reader, *args, **kwargs)
 
     monkeypatch.setattr(saved, "open_workbook", counted_opener)
-    monkeypatch.setattr(openpyxl, "load_workbook", counted_loader)
+    monkeypatch.setattr(ExcelReader, "read", counted_read)
     return calls
 
 

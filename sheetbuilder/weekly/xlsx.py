@@ -2,14 +2,22 @@
 
 openpyxl reads the workbook part (sheet names, defined names, shared strings, date styles); each
 sheet's cells are read by :mod:`sheetbuilder.weekly.sheet_xml` from openpyxl's own handle on the file.
+The shared strings are read by one regular expression when the part holds plain strings alone, as xlsxwriter
+writes them (:func:`plain_strings`); openpyxl's own reader reads any other part.
 """
 from __future__ import annotations
 
+import re
 from pathlib import Path
-from typing import Any, Callable
+from typing import IO, Any, Callable
+from xml.parsers import expat
 
+from openpyxl.reader.excel import ExcelReader
+from openpyxl.reader.strings import read_string_table
 from openpyxl.utils.datetime import from_excel
+from openpyxl.xml.constants import SHARED_STRINGS, SHEET_MAIN_NS
 
+from sheetbuilder.weekly import fast_cells
 from sheetbuilder.weekly.names import Area, a1_area
 from sheetbuilder.weekly.sheet_xml import CellReader, read_cells, read_keeping_rows, stream_cells
 
@@ -28,6 +36,54 @@ def named_area(wb: Any, name: str) -> Area | None:
     return None
 
 
+# The shared-strings part as xlsxwriter writes it: an XML declaration, the sst root in the main namespace (no
+# prefix), then plain strings alone (ECMA-376 Part 1, 18.4.8 si: one t, no runs, no phonetic text), no space
+# between elements.
+_SST_START = re.compile(r'\A(?:<\?xml [^>]*\?>)?[ \t\r\n]*<sst xmlns="' + re.escape(SHEET_MAIN_NS) +
+                        r'"(?: (?:count|uniqueCount)="[0-9]+")*>')
+_DECLARED = re.compile(rb"(?:\xef\xbb\xbf)?<\?xml[^>]*?encoding\s*=\s*[\"']([^\"']*)[\"']")
+_PLAIN = '<si><t(?: xml:space="preserve")?(?:/>|>[^<]*</t>)</si>'
+_PLAIN_ALL = re.compile(f"(?:{_PLAIN})*+")
+_PLAIN_TEXT = re.compile('<si><t(?: xml:space="preserve")?(?:/>|>([^<]*)</t>)</si>')
+
+
+def plain_strings(source: IO[bytes]) -> list[str] | None:
+    """The shared strings of a part holding plain strings alone (see _SST_START), as openpyxl's reader gives them
+    (:func:`openpyxl.reader.strings.read_string_table`: the text as an XML parser hands it over, its 'x005F_'
+    escapes removed); None for any other part, or one that is not well-formed XML (openpyxl's reader then reads it
+    and says why)."""
+    data = source.read()
+    declared = _DECLARED.match(data)
+    if declared and declared.group(1).lower() != b"utf-8":
+        return None
+    try:
+        text = data.decode("utf-8")  # (UTF-16, with or without its byte-order mark, does not decode)
+        expat.ParserCreate().Parse(data, True)  # well-formed: no forbidden character, entity or reference
+    except (expat.ExpatError, UnicodeDecodeError):
+        return None
+    text = text.removeprefix("\ufeff")
+    start = _SST_START.match(text)
+    end = text.rfind("</sst>")
+    if start is None or end < 0 or text[end + 6:].strip(" \t\r\n") or not _PLAIN_ALL.fullmatch(text, start.end(), end):
+        return None
+    return [fast_cells.text(t).replace("x005F_", "") for t in _PLAIN_TEXT.findall(text, start.end(), end)]
+
+
+class _Reader(ExcelReader):
+    """openpyxl's reader, its shared strings read by :func:`plain_strings` when the part is of that shape."""
+
+    def read_strings(self) -> None:
+        found = self.package.find(SHARED_STRINGS)
+        if found is not None:
+            with self.archive.open(found.PartName[1:]) as src:
+                strings = plain_strings(src)
+            if strings is not None:
+                self.shared_strings = strings
+                return
+            with self.archive.open(found.PartName[1:]) as src:
+                self.shared_strings = read_string_table(src)
+
+
 class XlsxFile:
     """An .xlsx saved workbook, opened read-only: the interface :class:`sheetbuilder.weekly.ods.OdsFile` offers too.
 
@@ -36,11 +92,12 @@ class XlsxFile:
     """
 
     def __init__(self, path: Path):
-        import openpyxl
         self.path = Path(path)
         self._handle = open(self.path, "rb")  # a handle, not a name: its content says .xlsx, whatever it is called
-        try:
-            self.wb = openpyxl.load_workbook(self._handle, read_only=True, data_only=True)
+        try:  # openpyxl.load_workbook(read_only=True, data_only=True), the shared strings read faster
+            reader = _Reader(self._handle, read_only=True, data_only=True)
+            reader.read()
+            self.wb = reader.wb
         except BaseException:
             self._handle.close()
             raise
