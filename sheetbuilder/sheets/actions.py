@@ -223,7 +223,9 @@ def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
     counts = [0] * len(SEGMENTS)
     if "Bids" in tables:
         b = tables["Bids"].frame
-        for r in b.loc[b["final"] != b["bid"]].to_dict("records"):
+        wanted = ["pos", "campaign", "ad_group", "target", "match_type", "bid", "final", "product_id", "spend", "reason",
+                  "decision"]  # only the columns read: a row's every column made a dict cost most of the list
+        for r in b.loc[b["final"] != b["bid"], wanted].to_dict("records"):
             counts[0] += 1
             out.append({"_seg": 1, "_pos": r["pos"], "Kind": "bid", "Campaign": r["campaign"],
                         "Ad group": r["ad_group"], "Target or term": r["target"], "Match type": r["match_type"],
@@ -232,7 +234,8 @@ def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
                         "Reason": r["reason"] if is_empty(r["decision"]) else "your decision"})
     if "Harvest" in tables:
         h = tables["Harvest"].frame
-        filled = h.loc[h["pos"].notna()]
+        filled = h.loc[h["pos"].notna(), ["k", "kind", "dest_campaign", "dest_ad_group", "term", "match", "start_bid",
+                                          "product_id", "spend", "source_negative", "campaign", "ad_group"]]
         for r in filled.to_dict("records"):
             counts[1] += 1
             out.append({"_seg": 2, "_pos": SPAN + r["k"],
@@ -249,7 +252,8 @@ def _changes(tables: dict[str, PlannedTable]) -> tuple[list[dict], list[int]]:
                         "Reason": "so the new keyword does not compete with its source"})
     if "Negatives" in tables:
         n = tables["Negatives"].frame
-        for r in n.loc[n["pos"].notna()].to_dict("records"):
+        for r in n.loc[n["pos"].notna(), ["k", "campaign", "ad_group", "term", "neg_match", "product_id", "spend",
+                                          "rule"]].to_dict("records"):
             counts[3] += 1
             out.append({"_seg": 4, "_pos": 3 * SPAN + r["k"], "Kind": "add negative", "Campaign": r["campaign"],
                         "Ad group": r["ad_group"], "Target or term": r["term"], "Match type": r["neg_match"],

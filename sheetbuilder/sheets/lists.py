@@ -11,6 +11,7 @@ room, and a line above each says when more qualify than it holds (rebuild to see
 """
 from __future__ import annotations
 
+from collections import ChainMap
 from dataclasses import dataclass, field
 from typing import Any, Callable
 
@@ -69,7 +70,7 @@ class ListContext:
     terms: pd.DataFrame
     settings: Settings
     totals: dict[str, Any] = field(default_factory=dict)
-    term_rows: dict[int, dict] = field(default_factory=dict)  # {0-based Terms row: its values}, each taken once
+    term_rows: dict[int, dict] = field(default_factory=dict)  # {0-based Terms row: its values, keys as _column}
 
 
 def _pick(column: str, text: bool = False):
@@ -92,14 +93,13 @@ def _derived(fn, formula: str):
     """A list column computed from the row's own values and its Terms row (_<column>) (blank where it is empty)."""
     def compute(df: pd.DataFrame, ctx: ListContext) -> pd.Series:
         rows = df.to_dict("records")
-        taken = ctx.term_rows  # the Terms rows shown, each taken once for all the list's columns
+        taken = ctx.term_rows  # the Terms rows shown, each taken once, as fn reads them, for all the list's columns
         at = sorted({p for r in rows if not pd.isna(r["pos"]) and (p := int(r["pos"]) - 1) not in taken})
-        taken.update(zip(at, ctx.terms.iloc[at].to_dict("records")))
-        terms = taken
+        taken.update((p, {**{"_" + k: v for k, v in term.items()}, "_src_ad_group": term["ad_group"]})
+                     for p, term in zip(at, ctx.terms.iloc[at].to_dict("records")))
 
-        def row(r: dict) -> dict:
-            term = terms[int(r["pos"]) - 1]
-            return {**r, **{"_" + k: v for k, v in term.items()}, "_src_ad_group": term["ad_group"]}
+        def row(r: dict) -> ChainMap:
+            return ChainMap(taken[int(r["pos"]) - 1], r)  # its Terms values first, as a dict merged after r
         return pd.Series([fn(row(r), ctx.settings) if not pd.isna(r["pos"]) else "" for r in rows],
                          index=df.index, dtype=object)
     return compute, formula

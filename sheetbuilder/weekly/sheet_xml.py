@@ -276,7 +276,8 @@ def padded_rows(found: dict[int, dict[int, Any]]) -> list[list[Any]]:
                              f"{guard.MAX_SAVED_CELLS:,} cells to read; delete what lies far below or right of "
                              "its tables and save it again")
     empty: dict[int, Any] = {}
-    return [[found.get(r, empty).get(c) for c in range(width)] for r in range(height)]
+    columns = range(width)
+    return [list(map(found.get(r, empty).get, columns)) for r in range(height)]  # (the row's look-ups in C)
 
 
 def read_cells(handle: IO[bytes], reader: CellReader, columns: frozenset[int] | None = None,
