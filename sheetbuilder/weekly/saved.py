@@ -13,9 +13,11 @@ from __future__ import annotations
 import datetime as dt
 import math
 import zipfile
+from operator import itemgetter
 from pathlib import Path
 from typing import Any, Callable
 
+import numpy as np
 import pandas as pd
 
 from sheetbuilder.reading import contract as c
@@ -241,8 +243,13 @@ def saved_inputs(book: SavedBook) -> tuple[dict[str, Any], list]:
         data: dict[str, list] = {"_row": _source_rows(body, at.get("source_row"))}
         for col in rule.columns:
             i = at.get(col.name)
-            values = [None if i is None else r[i] for r in body]
-            if col.kind in c.NUMERIC_KINDS:
+            values = [None] * len(body) if i is None else list(map(itemgetter(i), body))
+            types = set(map(type, values))
+            if col.kind in c.NUMERIC_KINDS and types <= {int, float}:  # numbers alone (no bool): at once
+                data[col.name] = np.asarray(values, dtype=float)
+            elif col.kind not in c.NUMERIC_KINDS and types <= {str}:  # text alone: as read
+                data[col.name] = values
+            elif col.kind in c.NUMERIC_KINDS:
                 blank = 0.0 if col.kind in (c.COUNT, c.MONEY) else math.nan
                 out = []
                 for n, v in enumerate(values):

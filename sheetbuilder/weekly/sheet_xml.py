@@ -122,6 +122,11 @@ class CellReader:
                 return number(text)
             except ValueError:
                 pass  # value_of refuses it the one way
+        elif kind == "s" and text:  # a shared string, the next commonest
+            try:
+                return self.shared[int(text)]
+            except (ValueError, IndexError):
+                pass  # value_of refuses it the one way
         return self.value_of(kind or "n", int(style) if style else 0, bool(formula), text, inline, formulas)
 
     def value_of(self, kind: str, style: int, formula: bool, text: str | None, inline: str, formulas: bool) -> Any:
