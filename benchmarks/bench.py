@@ -2,6 +2,7 @@
 
     python -m benchmarks.bench [--sizes 1000,10000] [--terms-ratio 2] [--no-libreoffice]
                                [--attribution] [--large] [--large-terms 1000000] [--history-weeks 52]
+                               [--next-week]
 
 For each size N (ad rows, about as many keywords and product targets) it writes a synthetic
 account (benchmarks/accounts.py), then in fresh subprocesses (so peak memory is each step's
@@ -18,6 +19,9 @@ and saved.
 keyword exports (benchmarks/history.py), builds it with --history (W weeks recorded) and again
 with --previous (W weeks carried), and reports both times, the file size and the ratio of the
 carrying build to the plain --previous build above.
+--next-week adds a real week: the account's next week's exports (figures drawn afresh, one bid in ten
+moved, the period a week later: benchmarks/history.make_next_week) built plainly and with --previous of the
+built workbook, whose change list is then followed up (the rebuild above is from the same exports: no Follow-up).
 --attribution adds where recalculation time goes: partial twins that keep one sheet's
 formulas, or one idiom's, each loaded and recalculated apart (benchmarks/attribution.py), and
 the unit-cost edit's dependency fan-out read from the formulas (benchmarks/fanout.py).
@@ -37,7 +41,7 @@ import time
 from pathlib import Path
 
 from .accounts import TERMS_RATIO, make_account
-from .history import make_past_weeks
+from .history import make_next_week, make_past_weeks
 from .attribution import attribute, report_attribution
 from .fanout import edit_fanout, print_summary
 from .libreoffice import lo_convert_seconds, uno_available, uno_times
@@ -75,8 +79,17 @@ def measure_history(row: dict, base: Path, weeks: int) -> None:
     row["kh_previous_cpu_ratio"] = _ratio(row["kh_previous_cpu_s"], row.get("previous_cpu_s"))
 
 
+def measure_next_week(row: dict, base: Path, book: Path) -> None:
+    """A real week: next week's exports (benchmarks/history.make_next_week) built plainly, then with --previous of
+    this week's workbook (its edits carried, its change list followed up): row gains the figures prefixed next_."""
+    make_next_week(base / "inputs", base / "next_week")
+    row.update({"next_" + k: v for k, v in _child(["build", str(base / "next_week"), str(base / "next.xlsx")]).items()})
+    row.update({"next_" + k: v for k, v in _child(["previous", str(base / "next_week"), str(book)]).items()})
+    row["next_previous_build_cpu_ratio"] = _ratio(row.get("next_previous_cpu_s"), row.get("next_build_cpu_s"))
+
+
 def measure_size(n: int, base: Path, libreoffice: bool, uno: bool, terms_ratio: float, attribution: bool,
-                 history_weeks: int = 0) -> dict:
+                 history_weeks: int = 0, next_week: bool = False) -> dict:
     """Every figure of one account size."""
     t = time.perf_counter()
     make_account(base / "inputs", n, terms_ratio=terms_ratio)
@@ -101,6 +114,8 @@ def measure_size(n: int, base: Path, libreoffice: bool, uno: bool, terms_ratio: 
     row["cells_vs_mark"] = row["grid_cells"] / CELL_MARK
     row["previous_build_ratio"] = _ratio(row["previous_s"], row["build_s"])
     row["previous_build_cpu_ratio"] = _ratio(row.get("previous_cpu_s"), row.get("build_cpu_s"))
+    if next_week:
+        measure_next_week(row, base, book)
     if history_weeks > 0:
         measure_history(row, base, history_weeks)
     row["build_plain_ratio"] = _ratio(row["build_s"], row["plain_s"])
@@ -146,6 +161,10 @@ COLUMNS = [("search-term rows", "st_rows", "d"), ("Terms rows", "terms_rows", "d
            ("--previous s", "previous_s", ".2f"), ("previous/build", "previous_build_ratio", ".2f"),
            ("--previous CPU s", "previous_cpu_s", ".2f"), ("previous/build CPU", "previous_build_cpu_ratio", ".2f"),
            ("--previous peak MB", "previous_peak_mb", ".0f"),
+           ("next week: build CPU s", "next_build_cpu_s", ".2f"),
+           ("next week: --previous CPU s (Follow-up made)", "next_previous_cpu_s", ".2f"),
+           ("next week: previous/build CPU", "next_previous_build_cpu_ratio", ".2f"),
+           ("next week: Follow-up rows", "next_previous_followup_rows", "d"),
            ("keyword history weeks", "kh_weeks", "d"),
            ("build --history s (weeks recorded)", "kh_history_build_s", ".2f"),
            ("--previous with the history s", "kh_previous_s", ".2f"),
@@ -239,6 +258,9 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--micro-cells", type=int, default=200_000, help="formulas in the write-rate micro-benchmark")
     ap.add_argument("--history-weeks", type=int, default=52,
                     help="weeks of keyword history built with --history and carried with --previous (0: skip)")
+    ap.add_argument("--next-week", action="store_true",
+                    help="also build next week's exports (figures drawn afresh, a few bids moved, a week later) plainly "
+                         "and with --previous of this week's workbook: a real week, its Follow-up made")
     ap.add_argument("--out", default="bench_results.json", help="where the figures go (JSON)")
     args = ap.parse_args(argv)
     sizes = sorted(int(s) for s in args.sizes.split(",") if s.strip())
@@ -259,7 +281,7 @@ def main(argv: list[str] | None = None) -> int:
             lo_convert_seconds(Path(tmp) / "warm.xlsx", Path(tmp) / "lo_warm")
         for n in sizes:
             results.append(measure_size(n, Path(tmp) / str(n), libreoffice, uno, args.terms_ratio, args.attribution,
-                                        args.history_weeks))
+                                        args.history_weeks, args.next_week))
             Path(args.out).write_text(json.dumps({"partial": True, "results": results}, indent=2) + "\n",
                                       encoding="utf-8")  # kept if a later size fails
             print(f"  size {n}: done", file=sys.stderr, flush=True)

@@ -42,9 +42,10 @@ def child_previous(folder: Path, old: Path) -> dict:
     from sheetbuilder.pipeline import build
     out = old.with_name(old.stem + "_next.xlsx")
     t, cpu = time.perf_counter(), time.process_time()
-    build(folder, out, force=True, built_on=BUILT_ON, previous=old)
+    result = build(folder, out, force=True, built_on=BUILT_ON, previous=old)
+    followup = result.plan.tables.get("Follow-up")
     return {"previous_s": time.perf_counter() - t, "previous_cpu_s": time.process_time() - cpu,
-            "previous_peak_mb": _peak_mb()}
+            "previous_peak_mb": _peak_mb(), "previous_followup_rows": len(followup.frame) if followup else 0}
 
 
 def child_changes(workbook: Path, csv_out: Path, label: str = "changes") -> dict:

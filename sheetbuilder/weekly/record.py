@@ -95,7 +95,8 @@ class SavedWorkbook:
         followup: [(sheet row, {column key: value})] of its Follow-up's "Last week's changes" (read for
             ``changes --include-unapplied``).
         planned, plan_problems: the workbook planned again from its inputs and typed edits (as the build
-            planned it), and the problems of those edits; None without inputs.
+            planned it, without the sheets only shown: :data:`sheetbuilder.assemble.NOT_FOR_CHANGES`), and the
+            problems of those edits; None without inputs.
         typed_over: one Problem per cell holding a typed value where the plan has a formula
             (:mod:`sheetbuilder.weekly.typed_over`).
     """
@@ -219,7 +220,10 @@ def read_saved_workbook(path: Path, unreadable: type[SheetbuilderError] = NotAWo
     """Read a saved workbook of ours once, under the reading guard, and close it.
 
     A workbook holding inputs is planned again (:func:`plan_saved`, outside the guard: a failure there
-    is a bug) while it is open, and its cells typed over a formula are then read under the guard.
+    is a bug) while it is open, and its cells typed over a formula are then read under the guard. Both commands
+    read from that plan only its change list, its Profit table and its formula tables (the follow-up of
+    ``build --previous``, the typed-over check), so it leaves out the sheets only shown
+    (:data:`sheetbuilder.assemble.NOT_FOR_CHANGES`), as ``changes`` always did.
 
     Args:
         path: the workbook (only read).
@@ -238,8 +242,8 @@ def read_saved_workbook(path: Path, unreadable: type[SheetbuilderError] = NotAWo
         book.streamed_again = set(READ_TWICE)
         with reading(path, unreadable):
             record = _record(book, for_changes, followup)
-        if record.holds_inputs:
-            record.planned, record.plan_problems = plan_saved(record, for_changes)
+        if record.holds_inputs:  # planned for what is read from the plan: the change list and the typed-over check
+            record.planned, record.plan_problems = plan_saved(record, for_changes=True)
             with reading(path, unreadable):
                 record.typed_over = typed_over(book, record.planned.spec, record.planned.tables)
     return record
