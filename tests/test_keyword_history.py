@@ -66,7 +66,7 @@ def _history(path: Path) -> dict[tuple, dict]:
         if r[0] is None:
             continue
         row = dict(zip(header, r))
-        for h in header[10:]:
+        for h in header[header.index("Periods"):]:
             row[h] = str(row[h]).split("; ")
         out[tuple(r[:4])] = row
     return out
@@ -92,12 +92,11 @@ def _check(path: Path, weeks: list[tuple[Period, list[list]]]) -> None:
         row = got[key]
         periods = sorted(by_period, key=lambda p: p.start)
         assert [f"{p.start} to {p.end}" for p in periods] == row["Periods"]
-        assert len(periods) == row["Weeks"]
         for i, header in enumerate(("Impressions by week", "Clicks by week", "Orders by week", "Spend by week",
                                     "Ad sales by week", "Bid by week")):
             assert [by_period[p][i] for p in periods] == [Decimal(v) for v in row[header]], (key, header)
-        for i, header in enumerate(("Impressions", "Clicks", "Orders", "Spend", "Ad sales")):
-            assert float(sum(by_period[p][i] for p in periods)) == pytest.approx(row[header], abs=1e-9), (key, header)
+        # The totals over the weeks are Bids' history columns, not written on this sheet a second time.
+        assert not {"Weeks", "Impressions", "Clicks", "Orders", "Spend", "Ad sales"} & set(row), key
 
 
 def _period(end: dt.date, days: int = 7) -> Period:
@@ -290,10 +289,9 @@ def test_a_keyword_spelled_with_a_trailing_space_one_week_and_without_the_next_k
     got = _history(tmp_path / "w2.xlsx")
     assert [("C1", "G1", "widget", "exact")] == list(got)  # one row, spelled as the latest export spells it
     row = got[("C1", "G1", "widget", "exact")]
-    assert (["2026-11-02 to 2026-11-08", "2026-11-09 to 2026-11-15"], 2, ["100", "200"], ["3.7", "4.81"],
-            ["0.45", "0.5"]) == (row["Periods"], row["Weeks"], row["Impressions by week"], row["Spend by week"],
-                                 row["Bid by week"])
-    assert (300, 23, pytest.approx(8.51, abs=1e-9)) == (row["Impressions"], row["Clicks"], row["Spend"])
+    assert (["2026-11-02 to 2026-11-08", "2026-11-09 to 2026-11-15"], ["100", "200"], ["10", "13"], ["3.7", "4.81"],
+            ["0.45", "0.5"]) == (row["Periods"], row["Impressions by week"], row["Clicks by week"],
+                                 row["Spend by week"], row["Bid by week"])
     build(_week_folder(tmp_path, "w3", [[" C1", "G1", " widget  ", "exact", "enabled", "0.50", "50", "5", "1.00",
                                          "0.00", "0"]], dt.date(2026, 11, 22)),
           tmp_path / "w3.xlsx", built_on=BUILT_ON, previous=tmp_path / "w2.xlsx")
@@ -318,10 +316,9 @@ def test_two_rows_of_one_export_that_differ_only_by_surrounding_spaces_are_summe
 class _SavedSheet:
     """A saved workbook holding only a Keyword history sheet, as the reader asks for it (no defined name left)."""
 
-    def __init__(self, rows: list[list]):
-        from sheetbuilder.sheets.keyword_weeks import HEADERS
+    def __init__(self, rows: list[list], headers: tuple[str, ...]):
         self.path, self.sheetnames = Path("last week.xlsx"), ["Keyword history"]
-        self._rows = [[None] * len(HEADERS)] * 3 + [list(HEADERS)] + rows
+        self._rows = [[None] * len(headers)] * 3 + [list(headers)] + rows
 
     def area(self, name):
         return None
@@ -330,20 +327,45 @@ class _SavedSheet:
         return self._rows
 
 
-def _saved_row(target: str, period: str, impressions: str) -> list:
-    return ["C1", "G1", target, "exact", 1, float(impressions), 1, 0, 0.5, 0.0, period, impressions, "1", "0",
-            "0.5", "0", "0.4"]
+def _saved_row(target: str, period: str, impressions: str, totals: bool) -> list:
+    """A saved row: keys, (in a workbook built before the totals left the sheet: weeks and totals), packed weeks."""
+    return ["C1", "G1", target, "exact", *([1, float(impressions), 1, 0, 0.5, 0.0] if totals else []),
+            period, impressions, "1", "0", "0.5", "0", "0.4"]
 
 
-def test_rows_an_earlier_build_split_by_surrounding_spaces_are_read_back_as_one_keyword():
+@pytest.mark.parametrize("totals", [False, True], ids=["this layout", "built before, with totals"])
+def test_rows_an_earlier_build_split_by_surrounding_spaces_are_read_back_as_one_keyword(totals):
+    from sheetbuilder.sheets.keyword_weeks import EARLIER_HEADERS, HEADERS
     from sheetbuilder.weekly.keyword_weeks import read_keyword_history
     first, second = _period(dt.date(2026, 11, 8)), _period(dt.date(2026, 11, 15))
-    history, problems = read_keyword_history(_SavedSheet([_saved_row("widget", "2026-11-09 to 2026-11-15", "200"),
-                                                          _saved_row("widget ", "2026-11-02 to 2026-11-08", "100")]))
+    headers = EARLIER_HEADERS if totals else HEADERS
+    history, problems = read_keyword_history(_SavedSheet(
+        [_saved_row("widget", "2026-11-09 to 2026-11-15", "200", totals),
+         _saved_row("widget ", "2026-11-02 to 2026-11-08", "100", totals)], headers))
     key = ("C1", "G1", "widget", "exact")
     assert ([], [key], {first: 100.0, second: 200.0}) == (
         problems, list(history.weeks), {p: w[0] for p, w in history.weeks[key].items()})
     assert ("C1", "G1", "widget", "exact") == history.shown[key]  # the spelling of the row with the newest week
-    _, problems = read_keyword_history(_SavedSheet([_saved_row("widget", "2026-11-09 to 2026-11-15", "200"),
-                                                    _saved_row(" widget", "2026-11-09 to 2026-11-15", "100")]))
+    _, problems = read_keyword_history(_SavedSheet([_saved_row("widget", "2026-11-09 to 2026-11-15", "200", totals),
+                                                    _saved_row(" widget", "2026-11-09 to 2026-11-15", "100", totals)],
+                                                   headers))
     assert [(ERROR, 6)] == [(p.severity, p.row) for p in problems]  # the same week twice: which is right is unknown
+
+
+def test_a_workbook_built_with_the_totals_on_the_sheet_keeps_every_week(tmp_path):
+    """A workbook built before the totals left the sheet (its defined name six columns wider) is read by its layout."""
+    week1, week2 = _week_rows(1), _week_rows(2)
+    build(_week_folder(tmp_path, "w1", week1, dt.date(2026, 11, 8)), tmp_path / "w1.xlsx", built_on=BUILT_ON)
+    wb = openpyxl.load_workbook(tmp_path / "w1.xlsx")
+    ws = wb["Keyword history"]
+    ws.insert_cols(5, 6)  # the earlier layout: Weeks and the five totals between the keys and the packed weeks
+    for i, header in enumerate(("Weeks", "Impressions", "Clicks", "Orders", "Spend", "Ad sales")):
+        ws.cell(4, 5 + i).value = header
+        for r in range(5, ws.max_row + 1):
+            ws.cell(r, 5 + i).value = 999  # totals the reader must not take for weeks
+    name = wb.defined_names["sb_keyword_history"]
+    name.attr_text = f"'Keyword history'!$A$5:$Q${ws.max_row}"
+    wb.save(tmp_path / "earlier.xlsx")
+    build(_week_folder(tmp_path, "w2", week2, dt.date(2026, 11, 15)), tmp_path / "w2.xlsx", built_on=BUILT_ON,
+          previous=tmp_path / "earlier.xlsx")
+    _check(tmp_path / "w2.xlsx", [(_period(dt.date(2026, 11, 8)), week1), (_period(dt.date(2026, 11, 15)), week2)])

@@ -24,7 +24,7 @@ from bids_io import CHECKED as BIDS_CHECKED, HEADER_ROW as BIDS_HEADER_ROW, bids
 from terms_io import (HARVEST_HEADERS, LIST_HEADER_ROW, NEGATIVE_HEADERS, TERMS_CHECKED, TERMS_HEADER_ROW, list_table,
                       terms_oracle_for, terms_table)
 from profit_io import HEADER_ROW as PROFIT_HEADER_ROW, PROFIT_HEADERS, oracle_for, profit_table
-from workbook_io import mismatches, open_values, same
+from workbook_io import mismatches, open_values, same, styled
 from sheetbuilder.sheets.settings_sheet import typed_name
 from sheetbuilder.workbook.palette import EXPORT_FONT
 from sheetbuilder.pipeline import build, load, write_atomically
@@ -277,6 +277,7 @@ def test_export_only_cells_are_values_in_the_export_style_and_everything_else_st
             cell = ws.cell(header_row + 1, headers.index(d.header) + 1)
             is_formula = isinstance(cell.value, str) and cell.value.startswith("=")
             if d.export:
-                assert (False, EXPORT_FONT[1:]) == (is_formula, cell.font.color.rgb[-6:]), (sheet, d.header)
+                font = styled(ws, header_row + 1, headers.index(d.header) + 1).font
+                assert (False, EXPORT_FONT[1:]) == (is_formula, font.color.rgb[-6:]), (sheet, d.header)
             elif d.formula is not None:
                 assert is_formula, (sheet, d.header)

@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import openpyxl
 
+from workbook_io import styled
 from sheetbuilder.reading.settings import SETTINGS, Settings
 from sheetbuilder.sheets.settings_sheet import typed_name
 
@@ -58,5 +59,6 @@ def test_sheets_are_protected_and_formula_cells_locked_except_on_the_sortable_ta
     for name in SORTABLE:
         ws = wb[name]
         header = 1 if name == "in_catalog" else 5 if name == "Profit" else 4
-        assert [False] * ws.max_column == [c.protection.locked for c in ws[header + 1]], name
+        assert [False] * ws.max_column == [styled(ws, header + 1, c).protection.locked
+                                           for c in range(1, ws.max_column + 1)], name
     assert wb["Profit"]["G6"].value.startswith("=")

@@ -97,3 +97,18 @@ def engine_disagreements(path, recalculated: dict) -> tuple[list[str], int]:
         if not same(cached, value):
             out.append(f"{sheet}!{coord}: cached {cached!r}, recalculated {value!r}")
     return out, checked
+
+
+def styled(ws, row: int, col: int):
+    """The cell at (row, col) as a spreadsheet shows it: itself when written, else its column's format.
+
+    A blank of a plain style is not written (workbook/render.py): the column's format (ECMA-376 18.3.1.13, the
+    col element's style) is what such a cell is formatted and protected by. openpyxl gives an unwritten cell the
+    default style, so read the column's instead."""
+    cell = ws.cell(row, col)
+    if cell.has_style or cell.value is not None:
+        return cell
+    for dim in list(ws.column_dimensions.values()):
+        if dim.min is not None and dim.min <= col <= dim.max:
+            return dim
+    return cell

@@ -51,9 +51,10 @@ SHEETS_TEXT = [
     ("History", "Built with --previous: every change found applied, week by week (week, kind, keys, from, to), "
                 "carried into every rebuild and never dropped."),
     ("Keyword history", "Every keyword's and product target's results week by week (impressions, clicks, orders, "
-                        "spend, ad sales, bid in force), one row each with its weeks listed oldest first and totals; "
+                        "spend, ad sales, bid in force), one row each with its weeks listed oldest first; "
                         "carried into every rebuild with --previous, a week never counted twice. Bids reads each "
-                        "keyword's totals over these weeks when this build's week is among them."),
+                        "keyword's totals over these weeks when this build's week is among them (its hidden History "
+                        "columns)."),
     ("Groups", "Which products each ad group advertises, the spend weights used where it advertises several, and "
                "below, each ad group's blended aim ACoS, CVR, order value and price, computed once and fetched "
                "by the Bids and Terms rows."),

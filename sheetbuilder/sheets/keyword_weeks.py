@@ -5,12 +5,12 @@ match type, compared as Bids compares them, trimmed, and shown as the latest exp
 periods, then impressions, clicks, orders, spend, ad sales and the bid in force, one item per
 week separated by ``; `` (a week whose export gave no bid shows an empty item). Plain values,
 records of what happened (as the History sheet), so they cost no recalculation; the totals over
-the recorded weeks stand beside them as numbers.
+the recorded weeks are Bids' history columns (not written here twice).
 
 Why packed rather than one row per keyword per week: 52 weeks of a 10,000-keyword account are
 520,000 rows of 12 cells, which took about 80 s to write and 65 s to read back on the project's
 benchmark machine, far above the aim of carrying the history in under twice a ``--previous``
-build; one row per keyword keeps 10,000 rows of 16 cells at any number of weeks (a cell holds
+build; one row per keyword keeps 10,000 rows of 11 cells at any number of weeks (a cell holds
 32,767 characters: about 1,200 weeks).
 
 The rule for periods (:func:`add_week`): a week is a period (first and last day). A period
@@ -49,7 +49,11 @@ TOTALS = (("weeks", "Weeks", "int"), ("impressions", "Impressions", "int"), ("cl
 PACKED = (("periods", "Periods"), ("impressions", "Impressions by week"), ("clicks", "Clicks by week"),
           ("orders", "Orders by week"), ("spend", "Spend by week"), ("ad_sales", "Ad sales by week"),
           ("bid", "Bid by week"))
-HEADERS = tuple([h for _, h, _ in KEYS] + [h for _, h, _ in TOTALS] + [h for _, h in PACKED])
+# The sheet's columns: the keys, then the packed weeks. The totals over the weeks (TOTALS) are computed for Bids
+# (its history columns hold them) but not written: a workbook built before held them between the keys and the
+# packed columns (EARLIER_HEADERS), and is read back by its width or its header (weekly/keyword_weeks.py).
+HEADERS = tuple([h for _, h, _ in KEYS] + [h for _, h in PACKED])
+EARLIER_HEADERS = tuple([h for _, h, _ in KEYS] + [h for _, h, _ in TOTALS] + [h for _, h in PACKED])
 SEPARATOR = "; "
 CELL_TEXT_LIMIT = 32_767  # Microsoft, "Excel specifications and limits": characters in a cell
 _PERIOD = re.compile(r"(\d{4}-\d{2}-\d{2}) to (\d{4}-\d{2}-\d{2})")
@@ -286,15 +290,13 @@ def plan_keyword_history(history: PackedHistory) -> tuple[Sheet, list[tuple[str,
     """The Keyword history sheet and the defined name over its body."""
     rows, dropped = history.rows, history.dropped
     columns = [Column(header, "text", DATA, [r[key] for r in rows], width=width) for key, header, width in KEYS]
-    columns += [Column(header, style, DATA, [r[key] for r in rows], width=10 if style == "money" else 8)
-                for key, header, style in TOTALS]
     columns += [Column(header, "text", DATA, [r["periods" if key == "periods" else key + "_packed"] for r in rows],
                        width=30 if key == "periods" else 18) for key, header in PACKED]
     periods = history.periods
     span = f"{len(periods)} week(s), {periods[0].start.isoformat()} to {periods[-1].end.isoformat()}" if periods \
         else "no week recorded yet"
     note = ("Each row is a keyword or product target; its weeks are listed oldest first, one item per week "
-            "separated by '; ' (Periods says which days each item covers). Totals are over the weeks listed. "
+            "separated by '; ' (Periods says which days each item covers); their totals are Bids' hidden History columns. "
             "Rows are carried into every rebuild with --previous and never dropped; history_weeks on Settings "
             "limits how many weeks are kept.")
     if dropped:

@@ -18,9 +18,9 @@ import pandas as pd
 from sheetbuilder.errors import ERROR, WARNING, Problem
 from sheetbuilder.reading.periods import Period
 from sheetbuilder.reading.settings import Settings
-from sheetbuilder.sheets.keyword_weeks import (HEADER_ROW, HEADERS, KEYS, METRICS, NAME, PACKED, SEPARATOR, SHEET,
-                                               WEEK_NAME, KeywordHistory, add_week, history_key, keep_recent, read_period,
-                                               week_of)
+from sheetbuilder.sheets.keyword_weeks import (EARLIER_HEADERS, HEADER_ROW, HEADERS, KEYS, METRICS, NAME, PACKED,
+                                               SEPARATOR, SHEET, WEEK_NAME, KeywordHistory, add_week, history_key,
+                                               keep_recent, read_period, week_of)
 from sheetbuilder.values import is_blank
 from sheetbuilder.weekly.saved import SavedBook
 
@@ -70,12 +70,12 @@ def _figures(items: list[str], metric: str) -> list[float | None]:
 
 
 def _row_weeks(values: list[Any], periods_of: dict[str, Period | None]) -> tuple[dict[Period, tuple], str | None]:
-    """The weeks one saved row holds, or the header of the first packed column that does not read.
+    """The weeks one saved row holds (its packed cells, the last of values), or the header of the first packed
+    column that does not read.
 
     periods_of caches each period item's reading (a history repeats the same few dozen periods on every row).
     """
-    first = len(HEADERS) - len(PACKED)
-    packed = values[first:first + len(PACKED)]
+    packed = values[len(values) - len(PACKED):]
     periods = []
     for text in _items(packed[0]):
         if text not in periods_of:
@@ -92,6 +92,18 @@ def _row_weeks(values: list[Any], periods_of: dict[str, Period | None]) -> tuple
     return dict(zip(periods, zip(*columns))), None
 
 
+def _layout(header: tuple[str, ...], area) -> tuple[str, ...] | None:
+    """The saved sheet's columns: this build's (HEADERS) or, from a workbook built before, with the totals between
+    the keys and the packed weeks (EARLIER_HEADERS); told by the defined name's width, else by the header row.
+    None: no defined name and a header that is neither."""
+    if area is not None:
+        width = area.last_col - area.first_col + 1
+        return EARLIER_HEADERS if width == len(EARLIER_HEADERS) or header == EARLIER_HEADERS else HEADERS
+    if header[:len(HEADERS)] == HEADERS:
+        return HEADERS
+    return EARLIER_HEADERS if header == EARLIER_HEADERS else None
+
+
 def read_keyword_history(book: SavedBook) -> tuple[KeywordHistory | None, list[Problem]]:
     """The Keyword history of an opened previous workbook (None when it has none), and why it could not be read."""
     area = book.area(NAME)
@@ -99,11 +111,13 @@ def read_keyword_history(book: SavedBook) -> tuple[KeywordHistory | None, list[P
     if sheet not in book.sheetnames:
         return None, []
     first_col = area.first_col if area else 0
-    rows = book.rows(sheet, frozenset(range(first_col, first_col + len(HEADERS))))
+    rows = book.rows(sheet, frozenset(range(first_col, first_col + len(EARLIER_HEADERS))))
     first = area.first_row if area else HEADER_ROW + 1
-    header = [rows[first - 1][first_col + i] if first - 1 < len(rows) and first_col + i < len(rows[first - 1])
-              else None for i in range(len(HEADERS))]
-    if tuple("" if h is None else str(h).strip() for h in header) != HEADERS and area is None:
+    header = tuple("" if h is None else str(h).strip() for h in (
+        rows[first - 1][first_col + i] if first - 1 < len(rows) and first_col + i < len(rows[first - 1]) else None
+        for i in range(len(EARLIER_HEADERS))))
+    layout = _layout(header, area)
+    if layout is None:
         return None, [Problem(book.path.name, first, SHEET,
                               f"the {SHEET} sheet's row {first} should read {', '.join(HEADERS)}; the keyword history "
                               "it holds could not be read, and it is never started afresh without a word. Restore "
@@ -113,7 +127,7 @@ def read_keyword_history(book: SavedBook) -> tuple[KeywordHistory | None, list[P
     history = KeywordHistory()
     problems, periods_of = [], {}
     for r in range(first, min(last, len(rows) - 1) + 1):
-        values = [rows[r][first_col + i] if first_col + i < len(rows[r]) else None for i in range(len(HEADERS))]
+        values = [rows[r][first_col + i] if first_col + i < len(rows[r]) else None for i in range(len(layout))]
         if all(is_blank(v) for v in values):
             continue
         weeks, bad = _row_weeks(values, periods_of)

@@ -80,6 +80,12 @@ for _state in STATES.values():
     STYLES["state_" + _state.name] = {"bg_color": _state.fill, "font_color": _state.font}
 
 
+def shows_when_blank(key: str) -> bool:
+    """Whether a blank cell of this style looks different from no cell: a fill or a border (an input box, a total)."""
+    props = STYLES[key]
+    return any(k in props for k in ("bg_color", "border", "top", "bottom", "left", "right"))
+
+
 def style_properties(key: str, currency_symbol: str) -> dict:
     """The xlsxwriter format properties of a style key, with the currency symbol filled in."""
     props = {**_BASE, **STYLES[key]}

@@ -27,8 +27,9 @@ from xlsxwriter.xmlwriter import XMLwriter
 
 from sheetbuilder.values import ERROR_VALUES
 from sheetbuilder.version import __version__
+from sheetbuilder.workbook.columns import EXPORT_STYLE
 from sheetbuilder.workbook.formula import cell_ref, check_portable, col_number
-from sheetbuilder.workbook.palette import STATES, STYLES, style_properties
+from sheetbuilder.workbook.palette import STATES, STYLES, shows_when_blank, style_properties
 from sheetbuilder.workbook.spec import FORMULA, Cell, Chart, PageSetup, Sheet, Table, Validation, WorkbookSpec
 
 CELL_TEXT_LIMIT = 32_767  # Microsoft, "Excel specifications and limits": characters in a cell
@@ -220,6 +221,22 @@ def put_value(ws, row: int, col: int, value: Any, fmt) -> None:
         ws.write_number(row, col, float(value), fmt)
 
 
+def _unwritten(value: Any, empty_text: bool) -> bool:
+    """A body value left unwritten: a blank, or (empty_text) empty text."""
+    if value is None or value is pd.NA or (isinstance(value, float) and math.isnan(value)):
+        return True
+    return empty_text and isinstance(value, str) and value == ""
+
+
+def _column_formats(sheet: Sheet, formats: dict) -> dict[int, Any]:
+    """The column formats of a sortable sheet's table: each column unlocked in its body style (a cell left unwritten
+    then sorts as the written ones do, and looks as they would blank); an input box's column unlocked and plain."""
+    if not sheet.sortable or sheet.table is None:
+        return {}
+    return {col: formats["own"] if shows_when_blank(c.style) else formats["unlocked"][c.style]
+            for col, c in enumerate(sheet.table.columns)}
+
+
 def _put_cell(ws, row: int, col: int, cell: Cell | None, formats: dict) -> None:
     """Write one free-standing cell."""
     if cell is None:
@@ -309,6 +326,11 @@ def _write_table(ws, table: Table, row: int, formats: dict, state_formats: dict,
     ws.set_row(row, 30)
     row += 1
     columns = [(col, c, formats[c.style], c.formula, c.values) for col, c in enumerate(table.columns)]
+    # A blank value of a plain style is not written (it would be a stored cell that looks like no cell): the
+    # column's own format stands for it where it matters (the unlocked cells of a sortable sheet, _column_formats);
+    # so is the empty text of a grey export figure. A blank input box, or a total's border, is written.
+    unwritten = {col: c.style.endswith(EXPORT_STYLE) for col, c in enumerate(table.columns)
+                 if c.kind != FORMULA and not shows_when_blank(c.style)}
     for _, c, _, formula, _ in columns:
         for text in ([formula] if isinstance(formula, str) else formula or []):
             check_portable(text)
@@ -327,7 +349,7 @@ def _write_table(ws, table: Table, row: int, formats: dict, state_formats: dict,
                 if "{p}" in text:  # the previous row, for running counts
                     text = text.replace("{p}", ps)
                 put_formula(ws, r, col, text, fmt, _cached(values[i]))
-            else:
+            elif col not in unwritten or not _unwritten(values[i], unwritten[col]):
                 put_value(ws, r, col, values[i], fmt)
         for col, c in marked:  # cells styled apart (carried values) and their notes, rewritten in the same row
             if i in c.cell_styles:
@@ -496,8 +518,9 @@ def _write_sheet(wb, sheet: Sheet, formats: dict, state_formats: dict, progress:
     """
     ws = wb.add_worksheet(sheet.name, worksheet_class=_Worksheet)
     widths, hidden = _widths(sheet)
+    column_formats = _column_formats(sheet, formats)
     for col, width in sorted(widths.items()):
-        ws.set_column(col, col, width, None, {"hidden": col in hidden})
+        ws.set_column(col, col, width, column_formats.get(col), {"hidden": col in hidden})
     if sheet.open_columns and sheet.table:  # unlocked on the protected sheet: the user's own columns go there
         first = len(sheet.table.columns)
         ws.set_column(first, first + sheet.open_columns - 1, OPEN_WIDTH, formats["own"])
