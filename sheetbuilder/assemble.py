@@ -287,10 +287,11 @@ def _carried(a: Assembly) -> None:
     _with_marks(a, carried_marks(a.carry, a.tables, catalog, a.layouts))
 
 
-# The steps a change list and the check of cells typed over a formula need none of (``changes`` leaves them out):
+# The steps only shown: a change list, the follow-up and the check of cells typed over a formula need none of them
+# (a saved workbook is planned again without them, for ``changes`` and ``build --previous``):
 # they plan no table holding formulas and provide no anchor another step reads; the Keyword history's packed weeks
 # and the click elasticity estimated from them are shown, never used.
-NOT_FOR_CHANGES = frozenset({"keyword_history", "guide"})
+SHOWN_ONLY = frozenset({"keyword_history", "guide"})
 
 # The steps in the order they must run: each reads only anchors the steps before it provide.
 STEPS: tuple[Step, ...] = (
@@ -329,7 +330,7 @@ def plan_workbook(inputs: Inputs, settings: Settings, built_on: dt.date,
         followup: last week's changes looked up in this week's exports (a Follow-up sheet after Actions).
         history: the History rows carried from the previous workbook (a History sheet; None: no sheet).
         keyword_history: the keyword history to write (a Keyword history sheet; None: no sheet).
-        leave_out: names of steps not to run (``NOT_FOR_CHANGES``: a plan for a change list, not for a workbook;
+        leave_out: names of steps not to run (``SHOWN_ONLY``: a saved workbook planned again, not a workbook to write;
             the keyword history's totals alone are then read, :func:`sheetbuilder.sheets.keyword_weeks.packed`).
 
     Returns:

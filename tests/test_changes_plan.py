@@ -1,4 +1,4 @@
-"""`changes` plans a saved workbook for its change list alone (assemble.NOT_FOR_CHANGES left out, the keyword
+"""`changes` plans a saved workbook for its change list alone (assemble.SHOWN_ONLY left out, the keyword
 history's totals without its packed weeks): the same change list, tables and formula columns as the full plan.
 
 Expected values: the full plan of the same record (the build's own planning, which the three-way tests check
@@ -16,7 +16,7 @@ import pandas as pd
 import pytest
 
 from benchmarks.accounts import make_account
-from sheetbuilder.assemble import NOT_FOR_CHANGES
+from sheetbuilder.assemble import SHOWN_ONLY
 from sheetbuilder.pipeline import build
 from sheetbuilder.sheets.actions import every_change
 from sheetbuilder.weekly.changes import export_changes
@@ -79,7 +79,7 @@ def _same_as_the_full_plan(workbook: Path) -> None:
 
 
 def test_the_demo_planned_for_its_change_list_gives_the_full_plans_tables(demo_build, tmp_path):
-    assert {"guide", "keyword_history"} == NOT_FOR_CHANGES
+    assert {"guide", "keyword_history"} == SHOWN_ONLY
     _same_as_the_full_plan(demo_build.output)
     edited = _edited(demo_build.output, tmp_path / "edited.xlsx")
     _same_as_the_full_plan(edited)

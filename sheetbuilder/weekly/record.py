@@ -18,7 +18,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
-from sheetbuilder.assemble import NOT_FOR_CHANGES, Plan, plan_workbook
+from sheetbuilder.assemble import SHOWN_ONLY, Plan, plan_workbook
 from sheetbuilder.errors import ERROR, Problem, SheetbuilderError
 from sheetbuilder.reading.account import ACCOUNT_NAME
 from sheetbuilder.reading.guard import reading
@@ -95,7 +95,7 @@ class SavedWorkbook:
         followup: [(sheet row, {column key: value})] of its Follow-up's "Last week's changes" (read for
             ``changes --include-unapplied``).
         planned, plan_problems: the workbook planned again from its inputs and typed edits (as the build
-            planned it, without the sheets only shown: :data:`sheetbuilder.assemble.NOT_FOR_CHANGES`), and the
+            planned it, without the sheets only shown: :data:`sheetbuilder.assemble.SHOWN_ONLY`), and the
             problems of those edits; None without inputs.
         typed_over: one Problem per cell holding a typed value where the plan has a formula
             (:mod:`sheetbuilder.weekly.typed_over`).
@@ -161,12 +161,12 @@ def _followup_rows(book: SavedBook) -> list[tuple[int, dict[str, Any]]]:
             for r in range(area.first_row, min(area.last_row, len(rows) - 1) + 1)]
 
 
-def plan_saved(saved: SavedWorkbook, for_changes: bool = False) -> tuple[Plan, list[Problem]]:
+def plan_saved(saved: SavedWorkbook, without_shown: bool = False) -> tuple[Plan, list[Problem]]:
     """The saved workbook planned again from the inputs and typed edits it holds, as the build planned it,
     and the problems of its typed edits (a Decision that is not valid, a column lost, a copy not read).
 
-    for_changes: plan what the change list and the typed-over check read, not the sheets only shown
-    (:data:`sheetbuilder.assemble.NOT_FOR_CHANGES`): the same tables, formulas and values.
+    without_shown: plan what the change list, the follow-up and the typed-over check read, not the sheets only shown
+    (:data:`sheetbuilder.assemble.SHOWN_ONLY`): the same tables, formulas and values.
     Pure: the record was read and the file may be closed; a failure here is a bug, not a damaged file.
     """
     settings, edits = saved.settings, saved.edits
@@ -195,9 +195,9 @@ def plan_saved(saved: SavedWorkbook, for_changes: bool = False) -> tuple[Plan, l
     # Bids read its keyword history's totals when the build recorded its own week: planned again from the same
     history = saved.keyword_history
     problems += [p for p in saved.keyword_history_problems if p.severity == ERROR]
-    keywords = packed(history, current=history.current, texts=not for_changes) if history is not None else None
+    keywords = packed(history, current=history.current, texts=not without_shown) if history is not None else None
     return plan_workbook(Inputs(tables), settings, saved.built_on, [], carry, keyword_history=keywords,
-                         leave_out=NOT_FOR_CHANGES if for_changes else frozenset()), problems
+                         leave_out=SHOWN_ONLY if without_shown else frozenset()), problems
 
 
 @contextmanager
@@ -223,7 +223,7 @@ def read_saved_workbook(path: Path, unreadable: type[SheetbuilderError] = NotAWo
     is a bug) while it is open, and its cells typed over a formula are then read under the guard. Both commands
     read from that plan only its change list, its Profit table and its formula tables (the follow-up of
     ``build --previous``, the typed-over check), so it leaves out the sheets only shown
-    (:data:`sheetbuilder.assemble.NOT_FOR_CHANGES`), as ``changes`` always did.
+    (:data:`sheetbuilder.assemble.SHOWN_ONLY`), as ``changes`` always did.
 
     Args:
         path: the workbook (only read).
@@ -243,7 +243,7 @@ def read_saved_workbook(path: Path, unreadable: type[SheetbuilderError] = NotAWo
         with reading(path, unreadable):
             record = _record(book, for_changes, followup)
         if record.holds_inputs:  # planned for what is read from the plan: the change list and the typed-over check
-            record.planned, record.plan_problems = plan_saved(record, for_changes=True)
+            record.planned, record.plan_problems = plan_saved(record, without_shown=True)
             with reading(path, unreadable):
                 record.typed_over = typed_over(book, record.planned.spec, record.planned.tables)
     return record
