@@ -182,7 +182,8 @@ def _changes(args: argparse.Namespace, console: Console) -> int:
                       "by the formulas they replaced")
     if result.problems:
         console.print(f"[bold]{len(result.refused)} change(s) refused, not written; "
-                      f"{len(result.overwritten)} cell(s) typed over a formula; other problems below:[/bold]")
+                      f"{sum(p.row is not None for p in result.overwritten)} cell(s) typed over a formula; other problems "
+                      "below:[/bold]")
         print_problems(console, result.problems)
     console.print(f"wrote {result.written} change(s) to {result.output}")
     return EXIT_SOME_REFUSED if result.problems else 0

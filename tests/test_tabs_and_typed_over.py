@@ -257,3 +257,30 @@ def test_a_value_typed_in_a_table_whose_header_rows_moved_is_still_reported(demo
     edited = _edited(demo, tmp_path / "moved.xlsx", edit)
     result = export_changes(edited, tmp_path / "changes.csv")
     assert where == [(p.file, p.row, p.column) for p in result.overwritten]
+
+
+@pytest.mark.slow  # an edited copy of the demo and a changes run: several seconds
+def test_a_value_typed_on_a_renamed_list_tab_is_reported_under_its_new_name(demo, tmp_path):
+    # Harvest has no typed column and no defined name of ours: its tab renamed is found by its header row alone.
+    where = []
+
+    def edit(wb):
+        cell = _cell(wb["Harvest"], "Number", "Search term")
+        assert str(cell.value).startswith("=")
+        cell.value = "my own term"
+        where.append(("Promote these", cell.row, "Search term"))
+        _rename(wb, "Harvest", "Promote these")
+    result = export_changes(_edited(demo, tmp_path / "renamed.xlsx", edit), tmp_path / "changes.csv")
+    assert where == [(p.file, p.row, p.column) for p in result.overwritten]
+    assert "my own term" in result.overwritten[0].message
+
+
+@pytest.mark.slow  # an edited copy of the demo and a changes run: several seconds
+def test_a_sheet_of_formulas_that_cannot_be_found_is_named_as_not_checked(demo, tmp_path):
+    # Keys deleted: nothing typed on it can be looked for, and the user is told so instead of hearing nothing.
+    def edit(wb):
+        del wb["Keys"]
+    result = export_changes(_edited(demo, tmp_path / "no_keys.xlsx", edit), tmp_path / "changes.csv")
+    assert [("Keys", None, None, "warning")] == [(p.file, p.row, p.column, p.severity) for p in result.overwritten]
+    assert "could not be looked for" in result.overwritten[0].message
+    assert result.written == export_changes(demo, tmp_path / "original.csv").written  # the list itself is unchanged

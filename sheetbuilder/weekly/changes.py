@@ -48,7 +48,8 @@ class ChangesResult:
         refused: the Actions rows not written.
         rows: the rows written (columns as COLUMNS).
         computed: True when the list was computed from the workbook's inputs (False: read from saved values).
-        overwritten: one Problem per cell holding a typed value where the build wrote a formula, on any sheet.
+        overwritten: one Problem per cell holding a typed value where the build wrote a formula, on any sheet, and
+            one (row None) per sheet with formulas that could not be found to look.
         unchecked: True when the file stores no formula values (saved by a program that drops them); the list
             was computed from its inputs, and cells typed over a formula found by the formulas they replaced.
     """

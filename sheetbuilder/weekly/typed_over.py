@@ -193,11 +193,37 @@ def typed_over(book: Any, spec: WorkbookSpec, tables: dict[str, Any]) -> list[Pr
     decls = _decls({id(t.columns): key for key, t in tables.items()})
     out: list[Problem] = []
     for sheet in spec.sheets:
-        planned = [t for t in (sheet.table, *sheet.more) if t is not None and any(c.kind == FORMULA for c in t.columns)]
-        now = book.sheet(sheet.name)
-        if not planned or now is None:
+        planned = sorted((t for t in (sheet.table, *sheet.more) if t is not None and any(c.kind == FORMULA for c in
+                                                                                          t.columns)),
+                         key=lambda t: t.first_row)
+        if not planned:
             continue
-        check = _SheetCheck(now, [_layout(t, decls.get(id(t.columns))) for t in sorted(planned, key=lambda t: t.first_row)])
+        layouts = [_layout(t, decls.get(id(t.columns))) for t in planned]
+        now = book.sheet(sheet.name) or _renamed(book, layouts, planned[0].first_row)
+        if now is None:
+            out.append(Problem(sheet.name, None, None, NOT_FOUND, WARNING))
+            continue
+        check = _SheetCheck(now, layouts)
         book.stream(now, check.row, check.columns)
         out += check.named(book)
     return out
+
+
+NOT_FOUND = ("this sheet is not in the workbook under its name, and no other sheet holds its header row (deleted, "
+             "or renamed and its headers changed): values typed over its formulas could not be looked for. Its "
+             "figures are computed again from the other sheets, so anything typed on it is not carried.")
+INSERTED_ROWS = 20  # rows a user may insert above a table whose renamed tab is found by its header row
+
+
+def _renamed(book: Any, layouts: list[_Layout], header_row: int) -> str | None:
+    """The one sheet, among those no sheet we built was found on, whose top rows hold the first table's header row
+    (a tab renamed that nothing else finds: the sheets without a typed column); None when none or several do."""
+    tabs = book.tabs
+    claimed = set(tabs.found.values()) | {s for copies in tabs.copies.values() for s in copies}
+    holding = []
+    for name in (s for s in book.sheetnames if s not in claimed):
+        check = _SheetCheck(name, layouts)
+        if any(check._header(r, {c: (v, False) for c, v in enumerate(row) if not is_blank(v)})
+               for r, row in enumerate(book.head(name, header_row + 1 + INSERTED_ROWS))):
+            holding.append(name)
+    return holding[0] if len(holding) == 1 else None
