@@ -295,8 +295,7 @@ def _clash(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
 
 
 def _src_neg(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
-    ok = ((df["adds"] == 1) & (ctx.settings.source_negative == "yes") & df["from_match"].isin(["broad", "phrase", "auto"])
-          & (df["moved"] == 1) & (df["live"] == 1) & (df["negated"] == "") & (df["clash"] == 0))
+    ok = (df["adds"] == 1) & (ctx.settings.source_negative == "yes") & (df["src_fits"] == 1) & (df["clash"] == 0)
     return pd.Series(np.where(ok, "negative exact", ""), index=df.index, dtype=object)
 
 
