@@ -14,7 +14,10 @@ BIDS_HEADERS = ["Campaign", "Ad group", "Target", "Match type", "Product ID", "I
 POOLED = ["History clicks", "History orders", "History spend", "History ad sales", "CPC-to-bid ratio", "Ratio source",
           "Prior a", "Prior b", "Never-converting share", "Converts probability", "Posterior CVR"]
 # The zero-order clicks the Rule reads (the ad group's blend on Groups) are compared through the Reason's text.
-CHECKED = [h for h in BIDS_HEADERS if h != "Decision"] + POOLED + ["Product CVR", "Target check", "Low stock"]
+# The working values the long formulas share (order value, the prior's shapes in use, the step bid before the floor
+# and ceiling), each computed by the oracle on its own.
+SHARED = ["Order value", "Prior a in use", "Prior b in use", "Step bid"]
+CHECKED = [h for h in BIDS_HEADERS if h != "Decision"] + POOLED + ["Product CVR", "Target check", "Low stock"] + SHARED
 HEADER_ROW = 4  # 1-based: title, note, blank, header
 
 

@@ -312,10 +312,11 @@ def bids_oracle(tables, settings, profit_rows, decisions=None, history=None):
                 reason, moved = "raise to value bid", value
         else:
             reason = "at value bid"
+        step = BLANK  # the moved bid rounded to the cent, before the floor and the ceiling
         if moved is None:
             proposed = bid
         else:
-            rounded = _half_away(moved)
+            rounded = step = _half_away(moved)
             if reason.startswith("raise"):  # a raise stops at the ceiling (or at the bid, if already above it)
                 proposed = max(s.bid_floor, min(rounded, max(s.bid_ceiling, bid)))
             else:  # a cut stops at the floor (or at the bid, if already below it)
@@ -349,5 +350,6 @@ def bids_oracle(tables, settings, profit_rows, decisions=None, history=None):
             "Never-converting share": 0.0 if prior is None else prior[2], "Converts probability": w,
             "Posterior CVR": post_cvr, "Zero-order clicks": n0, "Product CVR": cvr_p,
             "Low stock": 1.0 if low else 0.0,
+            "Order value": order_value, "Prior a in use": a0, "Prior b in use": b0, "Step bid": step,
         }
     return out

@@ -158,6 +158,13 @@ def terms_oracle(tables, settings, profit_rows, decisions=None):
             "Already targeted": targeted, "Already negated": negated, "Verdict": verdict, "Final": final,
             "Position": pos, "Starting bid": start, "Zero-order clicks": n0, "Product price": price_p,
             "Low stock": 1.0 if low else 0.0,
+            # 0 targeted or its own keyword; 1 new, but an exact keyword at its destination; 2 new, no destination;
+            # 3 new, and promoting it adds a keyword there
+            "New keyword": 0.0 if targeted or own_exact else 1.0 if (dest[0], dest[1], norm) in exact_at else
+            2.0 if not dest[0] else 3.0,
+            "Source negative fits": 1.0 if (top["match_type"] in ("broad", "phrase", "auto") and dest[0] != ""
+                                            and dest != (campaign, ad_group) and live(campaign) and not negated)
+            else 0.0,
             "_dest": dest, "_pid_like": looks_like_product_id(a["term"], s.product_id_pattern),
             "_words": words(a["term"]), "_spent": spent, "_norm": norm, "_live": live(campaign),
             "_new": not targeted and not own_exact and (dest[0], dest[1], norm) not in exact_at,

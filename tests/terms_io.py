@@ -13,7 +13,8 @@ TERMS_HEADERS = ["Campaign", "Ad group", "From target", "From match type", "Sear
                  "Already negated", "Verdict", "Decision", "Final"]
 # Starting bid is compared on Harvest, the list that computes it.
 # The blended price and zero-order clicks the Verdict reads are compared through the Negatives' Rule and Threshold.
-TERMS_CHECKED = [h for h in TERMS_HEADERS if h != "Decision"] + ["Low stock"]
+# What the long formulas test of the exported figures alone, each a plain value the oracle computes on its own.
+TERMS_CHECKED = [h for h in TERMS_HEADERS if h != "Decision"] + ["Low stock", "New keyword", "Source negative fits"]
 HARVEST_HEADERS = ["Number", "Search term", "Kind", "Match type", "Destination campaign", "Destination ad group",
                    "Starting bid", "Negative in source", "Source campaign", "Source ad group", "Product ID", "Orders",
                    "Spend", "ACoS", "Reason"]

@@ -57,3 +57,10 @@ def test_a_shared_formula_group_is_counted_in_every_cell_and_kept_or_turned_into
     # each group kept has its first cell (the formula text) in the part
     groups = set(re.findall(r'<f t="shared" ref="[^"]*" si="(\d+)"', kept))
     assert groups and groups == set(re.findall(r'<f t="shared" si="(\d+)"/>', kept))
+
+
+def test_formula_tokens_count_names_numbers_strings_operators_and_brackets():
+    from benchmarks.tokens import tokens_in
+    # IF ( A1 = "" , 0 , Groups!$B$2 : B$9 ): 12, a leading $ opening no token of its own (counted by hand)
+    assert 12 == tokens_in('IF(A1="",0,Groups!$B$2:$B$9)')
+    assert 6 == tokens_in("ROUND(0.000000001,2)")  # ROUND ( 0.000000001 , 2 )

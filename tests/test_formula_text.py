@@ -255,8 +255,9 @@ def test_a_bids_row_fetches_its_ad_group_blend_with_one_index_and_copies_its_exp
 
 def test_a_bids_row_writes_the_value_bid_and_waste_probability_by_hand_and_its_pooled_figures_as_values(with_targets):
     # Hand-written from the method (README, Bids): the order value is the history's sales per order, else the
-    # blend's (Groups' blends table, column H, rows 9-10); the prior's shapes are the fitted ones, else the
-    # product's CVR worth prior_clicks clicks; BETADIST(x, a, b) is the beta distribution's cumulative probability.
+    # blend's (Groups' blends table, column H, rows 9-10), a plain value (exported figures only); the prior's shapes
+    # are the fitted ones, else the product's CVR worth prior_clicks clicks, each in its working column; BETADIST(x,
+    # a, b) is the beta distribution's cumulative probability.
     from openpyxl.utils import get_column_letter
     table = with_targets.spec.sheet("Bids").table
     c = {col.header: get_column_letter(i + 1) + "5" for i, col in enumerate(table.columns)}
@@ -264,12 +265,16 @@ def test_a_bids_row_writes_the_value_bid_and_waste_probability_by_hand_and_its_p
     cvr, ho, hc, hs = c["Posterior CVR"], c["History orders"], c["History clicks"], c["History ad sales"]
     fa, fb, w, pc = c["Prior a"], c["Prior b"], c["Converts probability"], c["Product CVR"]
     target, ratio, bid = c["Aim ACoS"], c["CPC-to-bid ratio"], c["Current bid"]
-    value = f"IF({ho}>0,{hs}/{ho},INDEX(Groups!$H$9:$H$10,{c['Blends row']}))"
+    value, pa, pb = c["Order value"], c["Prior a in use"], c["Prior b in use"]
+    assert None is row["Order value"]
+    assert f'=IF({fa}="",prior_clicks*{pc},{fa})' == row["Prior a in use"]
+    assert f'=IF({fa}="",prior_clicks*(1-{pc}),{fb})' == row["Prior b in use"]
+    assert f'=IF({pa}+{pb}+{hc}=0,"",{w}*({pa}+{ho})/({pa}+{pb}+{hc}))' == row["Posterior CVR"]
     assert f'=IF({cvr}="","",IF({cvr}*{value}=0,"",{cvr}*{value}*{target}/{ratio}))' == row["Value bid"]
-    a = f'IF({fa}="",prior_clicks*{pc},{fa})+{ho}'
-    b = f'IF({fa}="",prior_clicks*(1-{pc}),{fb})+{hc}-{ho}'
+    a = f'{pa}+{ho}'
+    b = f'{pb}+{hc}-{ho}'
     assert (f'=IF(OR({c["Value bid"]}="",{target}<=0),"",IF(OR({a}<=0,{b}<=0),"",'
             f'1-{w}+{w}*BETADIST(MIN(1,{ratio}*{bid}/({value}*{target})),{a},{b})))') == row["Waste probability"]
     pooled = ("History clicks", "History orders", "History spend", "History ad sales", "CPC-to-bid ratio",
-              "Ratio source", "Prior a", "Prior b", "Never-converting share", "Converts probability")
+              "Ratio source", "Prior a", "Prior b", "Never-converting share", "Converts probability", "Order value")
     assert {h: None for h in pooled} == {h: row[h] for h in pooled}

@@ -158,6 +158,12 @@ def _raw(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     return pd.Series(out, index=df.index, dtype=float)
 
 
+def _step(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
+    """The new bid rounded to the cent where the rule moves it (before the floor and ceiling), else blank."""
+    rounded = _raw(df, ctx).map(lambda v: round_half_away(v + ROUNDING_NUDGE, 2))
+    return rounded.where(df["rule"].isin(MOVING_RULES)).astype(float)
+
+
 def _proposed(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     s = ctx.settings
     rounded = _raw(df, ctx).map(lambda v: round_half_away(v + ROUNDING_NUDGE, 2))
@@ -179,37 +185,46 @@ def _reason(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     return pd.Series(out, index=df.index, dtype=object)
 
 
-# The target's order value: its history's ad sales per order, or its ad group's blend when it has no orders.
-_ORDER_VALUE = "IF({c:h_orders}>0,{c:h_sales}/{c:h_orders},INDEX({rng:blends.p_aov},{c:brow}))"
-# The prior's shapes: fitted (values), or the product's CVR worth prior_clicks clicks (live setting).
-_PRIOR_A = 'IF({c:fit_a}="",prior_clicks*{c:p_cvr},{c:fit_a})'
-_PRIOR_B = 'IF({c:fit_a}="",prior_clicks*(1-{c:p_cvr}),{c:fit_b})'
-_POST_A = "%s+{c:h_orders}" % _PRIOR_A
-_POST_B = "%s+{c:h_clicks}-{c:h_orders}" % _PRIOR_B
-_POST_CVR = ('=IF(%s+%s+{c:h_clicks}=0,"",{c:w}*(%s)/(%s+%s+{c:h_clicks}))'
-             % (_PRIOR_A, _PRIOR_B, _POST_A, _PRIOR_A, _PRIOR_B))
-_VALUE_BID = ('=IF({c:post_cvr}="","",IF({c:post_cvr}*%s=0,"",{c:post_cvr}*%s*{c:target_acos}/{c:ratio}))'
-              % (_ORDER_VALUE, _ORDER_VALUE))
+# The target's order value: its history's ad sales per order, or its ad group's blend when it has no orders. Exported
+# figures only, so a plain value in its own working column (Order value), which the formulas below read.
+_ORDER_VALUE = "=IF({c:h_orders}>0,{c:h_sales}/{c:h_orders},INDEX({rng:blends.p_aov},{c:brow}))"
+# The prior's shapes in use (working columns): fitted (values), or the product's CVR worth prior_clicks clicks (live).
+_PRIOR_A = '=IF({c:fit_a}="",prior_clicks*{c:p_cvr},{c:fit_a})'
+_PRIOR_B = '=IF({c:fit_a}="",prior_clicks*(1-{c:p_cvr}),{c:fit_b})'
+_POST_A = "{c:prior_a}+{c:h_orders}"
+_POST_B = "{c:prior_b}+{c:h_clicks}-{c:h_orders}"
+_POST_CVR = ('=IF({c:prior_a}+{c:prior_b}+{c:h_clicks}=0,"",{c:w}*(%s)/({c:prior_a}+{c:prior_b}+{c:h_clicks}))'
+             % _POST_A)
+_VALUE_BID = ('=IF({c:post_cvr}="","",IF({c:post_cvr}*{c:order_value}=0,"",'
+              '{c:post_cvr}*{c:order_value}*{c:target_acos}/{c:ratio}))')
 # BETADIST(x, a, b): the beta distribution's cumulative probability (BETA.DIST(x, a, b, TRUE) since Excel 2010; the
 # older name every engine reads without a prefix, measured equal in LibreOffice 7.4, Gnumeric and `formulas`).
 _P_WASTE = ('=IF(OR({c:value_bid}="",{c:target_acos}<=0),"",IF(OR(%s<=0,%s<=0),"",'
-            '1-{c:w}+{c:w}*BETADIST(MIN(1,{c:ratio}*{c:bid}/(%s*{c:target_acos})),%s,%s)))'
-            % (_POST_A, _POST_B, _ORDER_VALUE, _POST_A, _POST_B))
+            '1-{c:w}+{c:w}*BETADIST(MIN(1,{c:ratio}*{c:bid}/({c:order_value}*{c:target_acos})),%s,%s)))'
+            % (_POST_A, _POST_B, _POST_A, _POST_B))
 _EVIDENCE = 'IF({c:p_waste}="",FALSE,AND({c:p_waste}>=waste_confidence,{c:value_bid}<{c:bid}))'
-_RULE = ('=IF({c:h_clicks}=0,1,IF({c:h_orders}=0,IF(%s,12,IF({c:h_spend}<exploration_orders*{c:target_acos}*%s,13,'
-         'IF(IF({c:n_zero}="",FALSE,{c:h_clicks}>={c:n_zero}),2,IF({c:value_bid}="",4,IF({c:value_bid}<{c:bid},%%s,5))))),'
-         'IF({c:value_bid}="",4,IF({c:value_bid}>{c:bid},IF({c:p_low}=1,11,IF({c:value_bid}>{c:bid}*(1+max_bid_raise),9,6)),'
-         'IF({c:value_bid}<{c:bid},IF(%s,12,%%s),8)))))' % (_EVIDENCE, _ORDER_VALUE, _EVIDENCE))
-_LOWER = "IF({c:value_bid}<{c:bid}*(1-max_bid_cut),10,7)"
-# The proposal before rounding, floor and ceiling, by rule (written inside the formulas that round it).
+# The rules in their order (see _rule). The cut on evidence is tested once, right after "no clicks": with orders it
+# applies only where the value bid is below the bid, which the evidence itself requires.
+_RULE = ('=IF({c:h_clicks}=0,1,IF(%s,12,IF(IF({c:h_orders}=0,{c:h_spend}<exploration_orders*{c:target_acos}*'
+         '{c:order_value},FALSE),13,IF(IF({c:h_orders}=0,IF({c:n_zero}="",FALSE,{c:h_clicks}>={c:n_zero}),FALSE),2,'
+         'IF({c:value_bid}="",4,IF({c:value_bid}<{c:bid},IF({c:value_bid}<{c:bid}*(1-max_bid_cut),10,7),'
+         'IF({c:h_orders}=0,5,IF({c:value_bid}>{c:bid},IF({c:p_low}=1,11,IF({c:value_bid}>{c:bid}*(1+max_bid_raise),'
+         '9,6)),8))))))))' % _EVIDENCE)
+# The proposal before rounding, floor and ceiling, by rule.
 _RAW = ('CHOOSE({c:rule},{c:bid},{c:bid}*(1-max_bid_cut),{c:bid},{c:bid},{c:bid},{c:value_bid},'
         '{c:value_bid},{c:bid},{c:bid}*(1+max_bid_raise),{c:bid}*(1-max_bid_cut),{c:bid},{c:value_bid},{c:bid})')
-_ROUNDED = "ROUND(%s+0.000000001,2)" % _RAW
 _MOVING = "OR({c:rule}=2,{c:rule}=6,{c:rule}=7,{c:rule}=9,{c:rule}=10,{c:rule}=12)"
 _RAISING = "OR({c:rule}=6,{c:rule}=9)"
+# The step bid (working column): the proposal rounded to the cent where the rule moves the bid, before the floor and
+# the ceiling; blank where the rule holds it.
+_STEP = '=IF(%s,ROUND(%s+0.000000001,2),"")' % (_MOVING, _RAW)
+_PROPOSED = ('=IF({c:step}="",{c:bid},MIN(IF(%s,MAX(bid_ceiling,{c:bid}),bid_ceiling),MAX(IF(%s,bid_floor,'
+             'MIN(bid_floor,{c:bid})),{c:step})))' % (_RAISING, _RAISING))
 _REASON_CHOICES = ",".join('"' + REASONS[i].replace("{n}", '"&{c:n_zero}&"') + '"' for i in range(1, len(REASONS) + 1))
+_REASON = ('=IF(IF({c:step}="",FALSE,{c:proposed}<>{c:step}),IF({c:step}>{c:proposed},"limited by bid ceiling",'
+           '"limited by bid floor"),CHOOSE({c:rule},%s))' % _REASON_CHOICES)
 # The zero-order clicks are the ad group's blend, read on Groups where the rule and its reason need them.
-_RULE, _REASON_CHOICES = (text.replace("{c:n_zero}", blended("n_zero")) for text in (_RULE, _REASON_CHOICES))
+_RULE, _REASON = (text.replace("{c:n_zero}", blended("n_zero")) for text in (_RULE, _REASON))
 
 
 def _value(key: str, header: str, style: str, help: str, width: float = 9) -> ColumnDef:
@@ -261,15 +276,11 @@ DEFS: list[ColumnDef] = [
     ColumnDef("proposed", "Proposed bid", "money",
               "A step from the current bid toward the value bid, within the caps, floor and ceiling; or the "
               "zero-order cut; or the current bid when held.",
-              _proposed, '=IF(%s,MIN(IF(%s,MAX(bid_ceiling,{c:bid}),bid_ceiling),MAX(IF(%s,bid_floor,'
-                         'MIN(bid_floor,{c:bid})),%s)),{c:bid})'
-              % (_MOVING, _RAISING, _RAISING, _ROUNDED), width=9),
+              _proposed, _PROPOSED, width=9),
     ColumnDef("change", "Change", "percent", "Proposed bid / current bid - 1.",
               lambda df, ctx: blank_div(df["proposed"], df["bid"]) - 1,
               '=IF({c:bid}=0,"",{c:proposed}/{c:bid}-1)', width=8),
-    ColumnDef("reason", "Reason", "label", "Which rule decided the row.", _reason,
-              '=IF(AND(%s,{c:proposed}<>%s),IF(%s>{c:proposed},"limited by bid ceiling",'
-              '"limited by bid floor"),CHOOSE({c:rule},%s))' % (_MOVING, _ROUNDED, _ROUNDED, _REASON_CHOICES), width=30),
+    ColumnDef("reason", "Reason", "label", "Which rule decided the row.", _reason, _REASON, width=30),
     ColumnDef("decision", "Decision", "text_input",
               "Input: leave blank to follow the proposal, type a bid to use it, or 'keep' to keep the current bid.",
               lambda df, ctx: df["decision"], kind=INPUT, width=10),
@@ -313,11 +324,24 @@ DEFS: list[ColumnDef] = [
               _post_cvr, _POST_CVR, width=9, hidden=True),
     fetch("p_low", "Low stock", "int", "Working: 1 where a product of the ad group is low on stock (never raised)."),
     ColumnDef("rule", "Rule", "int", "Working: which rule decided the row (1 to 13, see the Guide).",
-              _rule, _RULE % (_LOWER, _LOWER), width=6, hidden=True),
+              _rule, _RULE, width=6, hidden=True),
+    # The working values the long formulas share, each computed once per row.
+    ColumnDef("order_value", "Order value", "money",
+              "Working (value): the history's ad sales per order, or the ad group's blended order value (Groups) "
+              "where the history has no orders.", _order_value, _ORDER_VALUE, width=9, hidden=True),
+    ColumnDef("prior_a", "Prior a in use", "ratio",
+              "Working: the prior's first shape: Prior a, or the product's CVR x prior_clicks where it is blank.",
+              lambda df, ctx: _prior(df, ctx)[0], _PRIOR_A, width=9, hidden=True),
+    ColumnDef("prior_b", "Prior b in use", "ratio",
+              "Working: the prior's second shape: Prior b, or (1 - the product's CVR) x prior_clicks where Prior a "
+              "is blank.", lambda df, ctx: _prior(df, ctx)[1], _PRIOR_B, width=9, hidden=True),
+    ColumnDef("step", "Step bid", "money",
+              "Working: where the rule moves the bid, its new bid rounded to the cent, before the bid floor and "
+              "ceiling; blank where the rule holds the bid.", _step, _STEP, width=9, hidden=True),
 ]
 # Copied one-to-one from the target's in_targets row, or computed only from such copies: plain values. So is the
 # product's CVR (its ad group's blend on Groups, from the ad export's clicks, orders and spend alone).
-EXPORTS = ("impressions", "clicks", "spend", "ad_sales", "orders", "cpc", "cvr", "acos", "bid", "p_cvr")
+EXPORTS = ("impressions", "clicks", "spend", "ad_sales", "orders", "cpc", "cvr", "acos", "bid", "p_cvr", "order_value")
 DEFS = exports_only(DEFS, EXPORTS) + [notes_column()]  # the user's notes at the right end
 
 # What a user types on Bids and the keys that find its row again (carry, changes and the tests read these).

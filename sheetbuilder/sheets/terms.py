@@ -141,7 +141,8 @@ _TARGETED_REF, _NEGATED_REF = _found("tkey_t"), _found("nkey_t")
 
 # Summed from the term's in_search_terms rows, computed only from such sums, or found among the exports' exact
 # keywords and negatives: plain values, since no input can change them.
-EXPORTS = ("impressions", "clicks", "spend", "ad_sales", "orders", "cpc", "cvr", "acos", "targeted", "negated")
+EXPORTS = ("impressions", "clicks", "spend", "ad_sales", "orders", "cpc", "cvr", "acos", "targeted", "negated", "new_kw",
+           "src_fits")
 
 
 # The ad group's blended price and zero-order clicks, read where the verdict needs them (no column of their own).
@@ -183,8 +184,8 @@ def _all_defs() -> list[ColumnDef]:
         ColumnDef("verdict", "Verdict", "label",
                   "promote, block, watch or keep; low stock where it would be promoted but a product of its ad "
                   "group is low on stock (see the Guide).", _verdict,
-                  '=IF(AND({c:orders}>=min_promote_orders,{c:targeted}="",{c:self}=0),IF({c:p_low}=1,"%s","promote"),'
-                  'IF({c:orders}>0,IF(OR({c:targeted}<>"",{c:self}=1),"keep","watch"),IF({c:negated}<>"","keep",'
+                  '=IF(AND({c:orders}>=min_promote_orders,{c:new_kw}>0),IF({c:p_low}=1,"%s","promote"),'
+                  'IF({c:orders}>0,IF({c:new_kw}=0,"keep","watch"),IF({c:negated}<>"","keep",'
                   'IF(OR({c:spend}>=%s*block_spend_multiple,IF(%s="",FALSE,{c:clicks}>=%s)),'
                   '"block","watch"))))' % (LOW_STOCK, _PRICE, _N_ZERO, _N_ZERO), width=9),
         ColumnDef("decision", "Decision", "text_input",
@@ -223,7 +224,7 @@ def _all_defs() -> list[ColumnDef]:
                   lambda df, ctx: df["moved"], kind=DATA, width=8, hidden=True),
         ColumnDef("adds", "Adds a keyword", "int",
                   "Working: 1 where the term is promoted to a destination, new for its product.", _adds,
-                  '=IF(AND({c:final}="promote",{c:targeted}="",{c:self}=0,{c:at_dest}=0,{c:dest_campaign}<>""),1,0)',
+                  '=IF(AND({c:final}="promote",{c:new_kw}=3),1,0)',
                   width=8, hidden=True),
         ColumnDef("cfirst", "Clash first row", "int", "Helper: first of the term's rows on Clashes.",
                   lambda df, ctx: df["cfirst"], kind=DATA, width=8, hidden=True),
@@ -238,13 +239,37 @@ def _all_defs() -> list[ColumnDef]:
         ColumnDef("src_neg", "Negative in source", "text",
                   "Working: negative exact where a promoted term goes to another ad group of a live campaign, its "
                   "source is broad, phrase or automatic, and no negative there blocks it yet.", _src_neg,
-                  '=IF(AND({c:adds}=1,source_negative="yes",OR({c:from_match}="broad",{c:from_match}="phrase",'
-                  '{c:from_match}="auto"),{c:moved}=1,{c:live}=1,{c:negated}="",{c:clash}=0),"negative exact","")',
+                  '=IF(AND({c:adds}=1,source_negative="yes",{c:src_fits}=1,{c:clash}=0),"negative exact","")',
                   width=8, hidden=True),
-        *running_key("p", "Promoted terms", 'AND({c:final}="promote",{c:targeted}="",{c:self}=0,{c:at_dest}=0)',
-                     _promoted),
+        *running_key("p", "Promoted terms", 'AND({c:final}="promote",{c:new_kw}>=2)', _promoted),
         *running_key("b", "Blocked terms", 'AND({c:final}="block",{c:live}=1,{c:negated}="",{c:clash}=0)', _blocked),
+        # What the long formulas above test of the exported figures alone, once per row (plain values).
+        ColumnDef("new_kw", "New keyword", "int",
+                  "Working (value): 0 where the term is already an exact keyword for its product or is the exact "
+                  "keyword it came from; 1 where it is new for its product but its destination ad group already has "
+                  "it as an exact keyword; 2 where it is new there too but has no destination; 3 where promoting it "
+                  "adds a keyword at its destination.", _new_kw,
+                  '=IF(OR({c:targeted}<>"",{c:self}=1),0,IF({c:at_dest}=1,1,IF({c:dest_campaign}="",2,3)))',
+                  width=8, hidden=True),
+        ColumnDef("src_fits", "Source negative fits", "int",
+                  "Working (value): 1 where a negative exact in the term's source would fit a promotion: the source "
+                  "is broad, phrase or automatic, the destination is another ad group, the campaign is live and no "
+                  "negative there blocks the term yet.", _src_fits,
+                  '=IF(AND(OR({c:from_match}="broad",{c:from_match}="phrase",{c:from_match}="auto"),{c:moved}=1,'
+                  '{c:live}=1,{c:negated}=""),1,0)', width=8, hidden=True),
     ]
+
+
+def _new_kw(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+    fresh = (df["targeted"] == "") & (df["self"] == 0)
+    code = np.where(~fresh, 0.0, np.where(df["at_dest"] == 1, 1.0, np.where(df["dest_campaign"] == "", 2.0, 3.0)))
+    return pd.Series(code, index=df.index, dtype=float)
+
+
+def _src_fits(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
+    ok = (df["from_match"].isin(["broad", "phrase", "auto"]) & (df["moved"] == 1) & (df["live"] == 1)
+          & (df["negated"] == ""))
+    return ok.astype(float)
 
 
 def _promoted(df: pd.DataFrame) -> pd.Series:
@@ -270,8 +295,7 @@ def _clash(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
 
 
 def _src_neg(df: pd.DataFrame, ctx: TermsContext) -> pd.Series:
-    ok = ((df["adds"] == 1) & (ctx.settings.source_negative == "yes") & df["from_match"].isin(["broad", "phrase", "auto"])
-          & (df["moved"] == 1) & (df["live"] == 1) & (df["negated"] == "") & (df["clash"] == 0))
+    ok = (df["adds"] == 1) & (ctx.settings.source_negative == "yes") & (df["src_fits"] == 1) & (df["clash"] == 0)
     return pd.Series(np.where(ok, "negative exact", ""), index=df.index, dtype=object)
 
 

@@ -113,7 +113,10 @@ class _SheetCheck:
             where.setdefault(t, c)
         self.at = {i: where[h] for i, h in enumerate(layout.headers) if h in where}
         taken, planned = set(self.at.values()), set(layout.headers)
-        for i in range(len(layout.headers)):  # a header renamed where it stands, its place taken by no other
+        # Right of where the table's last column was found stand the user's own columns (a workbook built when the
+        # table had fewer columns has them where today's plan puts its last ones): never taken for a planned one.
+        end = self.at.get(len(layout.headers) - 1, len(layout.headers))
+        for i in range(min(end, len(layout.headers))):  # a header renamed where it stands, its place taken by no other
             if i not in self.at and i not in taken and texts.get(i) not in planned:
                 self.at[i] = i
         self.saved_headers = texts
