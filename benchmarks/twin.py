@@ -89,6 +89,22 @@ def formula_texts(xml: str) -> Iterator[tuple[re.Match, str]]:
         yield m, html.unescape(text or "")
 
 
+_TOKEN = re.compile(r"[A-Za-z_][A-Za-z_0-9.!$]*|\d+\.?\d*|\"[^\"]*\"|[-+*/<>=&,()^:]")
+
+
+def formula_tokens(path: Path) -> dict[str, tuple[int, int]]:
+    """{sheet: (tokens, formula cells)}: the tokens of each formula cell's text (names and references, numbers,
+    strings, operators; a range A1:B2 is three), a shared group's later cells counted with the group's text, which
+    LibreOffice copies into each of them on load."""
+    out = {}
+    with zipfile.ZipFile(path) as z:
+        for name, part in sheet_parts(z).items():
+            counts = [len(_TOKEN.findall(text)) for _, text in formula_texts(z.read(part).decode("utf-8"))]
+            if counts:
+                out[name] = (sum(counts), len(counts))
+    return out
+
+
 def make_twin(src: Path, dst: Path, keep: Keep | None = None) -> None:
     """Write dst: src with every formula that keep does not choose turned into its cached value.
 

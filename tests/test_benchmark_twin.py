@@ -8,7 +8,7 @@ import pytest
 import re
 import zipfile
 
-from benchmarks.twin import count_cells, idiom, make_twin, sheet_parts
+from benchmarks.twin import count_cells, formula_tokens, idiom, make_twin, sheet_parts
 from workbook_io import open_values
 
 
@@ -57,3 +57,17 @@ def test_a_shared_formula_group_is_counted_in_every_cell_and_kept_or_turned_into
     # each group kept has its first cell (the formula text) in the part
     groups = set(re.findall(r'<f t="shared" ref="[^"]*" si="(\d+)"', kept))
     assert groups and groups == set(re.findall(r'<f t="shared" si="(\d+)"/>', kept))
+
+
+def test_formula_tokens_count_each_cell_of_a_shared_group_with_the_groups_text(demo_build, tmp_path):
+    # Counted by hand: IF ( A1 = "" , "" , A1 & "" ) is 12 tokens; SUM ( B$2 : C3 ) is 6 (a range is three).
+    import xlsxwriter
+    path = tmp_path / "t.xlsx"
+    wb = xlsxwriter.Workbook(str(path))
+    ws = wb.add_worksheet("S")
+    ws.write_formula("D1", '=IF(A1="","",A1&"")', None, "")
+    ws.write_formula("E1", "=SUM(B$2:C3)", None, 0)
+    wb.close()
+    assert {"S": (18, 2)} == formula_tokens(path)
+    # the demo writes shared groups: each of their cells is counted
+    assert count_cells(demo_build.output)["formulas_by_sheet"]["Profit"] == formula_tokens(demo_build.output)["Profit"][1]
