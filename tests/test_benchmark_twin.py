@@ -8,6 +8,7 @@ import pytest
 import re
 import zipfile
 
+from benchmarks.tokens import count_tokens, tokens_in
 from benchmarks.twin import count_cells, idiom, make_twin, sheet_parts
 from workbook_io import open_values
 
@@ -60,7 +61,21 @@ def test_a_shared_formula_group_is_counted_in_every_cell_and_kept_or_turned_into
 
 
 def test_formula_tokens_count_names_numbers_strings_operators_and_brackets():
-    from benchmarks.tokens import tokens_in
     # IF ( A1 = "" , 0 , Groups!$B$2 : B$9 ): 12, a leading $ opening no token of its own (counted by hand)
     assert 12 == tokens_in('IF(A1="",0,Groups!$B$2:$B$9)')
     assert 6 == tokens_in("ROUND(0.000000001,2)")  # ROUND ( 0.000000001 , 2 )
+
+
+def test_formula_tokens_count_each_cell_of_a_shared_group_with_the_groups_text(demo_build, tmp_path):
+    # Counted by hand: IF ( A1 = "" , "" , A1 & "" ) is 12 tokens; SUM ( B$2 : C3 ) is 6 (a range is three).
+    import xlsxwriter
+    path = tmp_path / "t.xlsx"
+    wb = xlsxwriter.Workbook(str(path))
+    ws = wb.add_worksheet("S")
+    ws.write_formula("D1", '=IF(A1="","",A1&"")', None, "")
+    ws.write_formula("E1", "=SUM(B$2:C3)", None, 0)
+    wb.close()
+    c = count_tokens(path)
+    assert ({"S": 18}, {"S": 2}) == (dict(c["tokens"]), dict(c["cells"]))
+    # the demo writes shared groups: each of their cells is counted
+    assert count_cells(demo_build.output)["formulas_by_sheet"]["Profit"] == count_tokens(demo_build.output)["cells"]["Profit"]

@@ -158,3 +158,68 @@ def test_generated_gnumeric_equals_cached_values(gnumeric, generated):
         problems, checked, _ = _gnumeric_disagreements(result.output, gnumeric[result.output.stem])
         assert [] == problems, f"generated account {i}"
         assert checked > 0
+
+
+# The three ways a list cell reads a source cell (sheets/lists.py, sheets/actions.py), on every kind of source
+# cell. Expected values from the definitions of the & operator and of = against "" (ECMA-376 Part 1, 18.17.2.2
+# and 18.17.7: a blank cell is "" to text operators and equal to ""), the same in Excel and Google Sheets by
+# common practice; the engines below are checked, not trusted.
+_SOURCES = [  # (what the source cell holds, how it is written, long form IF(x="","",x), x&"", x alone)
+    ("a blank cell", None, "", "", None),
+    ("text", "abc", "abc", "abc", "abc"),
+    ("text that looks like a number", "007", "007", "007", "007"),
+    ("text in E notation", "1E5", "1E5", "1E5", "1E5"),
+    ("a space", " ", " ", " ", " "),
+    ("a formula's empty text", '=""', "", "", ""),
+    ("an error", "=NA()", "#N/A", "#N/A", "#N/A"),
+    ("a number", 5, 5, "5", 5),  # why a column that may hold a number keeps the long form
+]
+
+
+def _forms_workbook(path):
+    wb = xlsxwriter.Workbook(str(path))
+    ws = wb.add_worksheet("Data")
+    n = len(_SOURCES)
+    for i, (_, source, long_form, joined, alone) in enumerate(_SOURCES):
+        if isinstance(source, str) and source.startswith("="):
+            ws.write_formula(i, 0, source, None, long_form)
+        elif isinstance(source, str):
+            ws.write_string(i, 0, source)
+        elif source is not None:
+            ws.write_number(i, 0, source)
+        x = f"INDEX($A$1:$A${n},{i + 1})"
+        ws.write_formula(i, 1, f'=IF({x}="","",{x})', None, "")
+        ws.write_formula(i, 2, f'={x}&""', None, "")
+        ws.write_formula(i, 3, f"={x}", None, "")
+    wb.close()
+    return path
+
+
+def _forms(values) -> list[tuple]:
+    """[(source, long form, &"" form, INDEX alone)] as an engine computed them; an empty result as ""."""
+    def plain(v):
+        v = str(v) if type(v) not in (str, int, float, type(None)) and not isinstance(v, float) else v  # an error
+        return "" if v is None else int(v) if isinstance(v, float) and v.is_integer() else v
+    return [(name, *(plain(values.get(("DATA", f"{c}{i + 1}"))) for c in "BCD"))
+            for i, (name, *_) in enumerate(_SOURCES)]
+
+
+EXPECTED_FORMS = [(name, long_form, joined, alone) for name, _, long_form, joined, alone in _SOURCES]
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("convert, require", CONVERTERS)
+def test_a_blank_source_shows_blank_by_either_form_in_libreoffice_and_gnumeric(convert, require, tmp_path):
+    require()
+    path = _forms_workbook(tmp_path / "forms.xlsx")
+    got = _forms(_stored_values(convert([path], tmp_path / "out")[0]))
+    # INDEX alone on a blank cell is 0 or blank by engine: only a source that is never blank is read so
+    assert EXPECTED_FORMS[1:] == got[1:]
+    assert EXPECTED_FORMS[0][:3] == got[0][:3]
+
+
+def test_a_blank_source_shows_blank_by_either_form_in_formulas(tmp_path):
+    path = _forms_workbook(tmp_path / "forms.xlsx")
+    got = _forms(formulas_values(path))
+    assert EXPECTED_FORMS[1:] == got[1:]
+    assert EXPECTED_FORMS[0][:3] == got[0][:3]

@@ -179,6 +179,9 @@ def cents(value: float) -> float:
     return round_half_away(value + (-ROUNDING_NUDGE if value < 0 else ROUNDING_NUDGE), 2) + 0.0
 
 
-def cents_formula(expr: str) -> str:
-    """Formula text of a money difference expr to the cent (cents is its value)."""
+def cents_formula(expr: str, never_negative: bool = False) -> str:
+    """Formula text of a money difference expr to the cent (cents is its value); never_negative where expr cannot be
+    below zero (an ABS), so the nudge's sign needs no test."""
+    if never_negative:
+        return f"ROUND({expr}+{ROUNDING_NUDGE:g},2)"
     return f"ROUND({expr}+IF({expr}<0,-{ROUNDING_NUDGE:g},{ROUNDING_NUDGE:g}),2)"

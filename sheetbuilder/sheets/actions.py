@@ -79,7 +79,18 @@ class ActionsContext:
 
 
 def _blank_safe(ref: str) -> str:
+    """ref as shown, a blank cell as blank: the long form, for a value column that may hold a number."""
     return f'IF({ref}="","",{ref})'
+
+
+# How a column of the bid block or of the other kinds reads its source row, by what the source cell holds. The
+# three forms give the value the long form gives in every engine (tests/test_recalc_engines.py checks each case):
+# - a formula column of Harvest or Negatives (_idx): never a blank cell (every row of those lists holds its
+#   formulas, and the list's count keeps the row within them), so INDEX alone gives its value, "" included;
+# - a column of imported text (_text: campaigns, ad groups, terms, match types), which the build writes as text or
+#   leaves blank: INDEX(..)&"" turns a blank cell into "" and leaves text (and an error) as it is;
+# - a value column that may hold a number (_any: product IDs, written as text, can be digits a spreadsheet
+#   turns into a number when typed again): the long form, a number stays a number.
 
 
 SPAN = 10_000_000  # Source row holds (segment - 1) x SPAN + the row: a sheet has fewer rows than SPAN
@@ -87,17 +98,22 @@ SPAN = 10_000_000  # Source row holds (segment - 1) x SPAN + the row: a sheet ha
 
 def _branch(part: str, seg: int) -> str:
     """part reading its segment's source row: the Source row less the segment's offset."""
-    return part if seg == 1 else part.replace("{c:pos}", f"({{c:pos}}-{(seg - 1) * SPAN})")
+    return part if seg == 1 else part.replace("{c:pos}", f"{{c:pos}}-{(seg - 1) * SPAN}")
 
 
-def _field(parts: dict[int, str], first: int = 1) -> str:
+def _field(parts: dict[int, str], first: int = 1, never: frozenset[int] = frozenset()) -> str:
     """A formula choosing, by the row's segment (read from its Source row), one of parts; blank for the others.
 
-    Segments before first never reach the rows the formula is written in. Neighbouring segments with the same
-    branch (a blank, a fixed word) share one test.
+    Segments before first never reach the rows the formula is written in, nor do those in never (a kind whose
+    count is a constant 0: its source is not in this workbook), so each of those joins the run before it (or the
+    one after, at the start). Neighbouring segments with the same branch (a blank, a fixed word) share one test.
     """
     runs: list[tuple[int, str]] = []  # (last segment of the run, its branch), in segment order
-    for seg in range(first, max(parts) + 1):
+    for seg in range(first, len(SEGMENTS) + 1):
+        if seg in never:
+            if runs:
+                runs[-1] = (seg, runs[-1][1])
+            continue
         branch = _branch(parts.get(seg, '""'), seg)
         if runs and runs[-1][1] == branch:
             runs[-1] = (seg, branch)
@@ -113,7 +129,18 @@ def _field(parts: dict[int, str], first: int = 1) -> str:
 
 
 def _idx(rng: str) -> str:
-    return _blank_safe(f"INDEX({{rng:{rng}}},{{c:pos}})")
+    """A formula column of Harvest or Negatives at the row's source row (never a blank cell)."""
+    return f"INDEX({{rng:{rng}}},{{c:pos}})"
+
+
+def _text(rng: str) -> str:
+    """A column of imported text at the row's source row, a blank cell read as ""."""
+    return f'{_idx(rng)}&""'
+
+
+def _any(rng: str) -> str:
+    """A value column that may hold a number at the row's source row, a blank cell read as "" (the long form)."""
+    return _blank_safe(_idx(rng))
 
 
 def _ref(key: str):
@@ -136,7 +163,7 @@ def _bid_formula(part: str) -> str:
     return f'=IF({{c:pos}}="","",{part})'
 
 
-def defs(counts: list[str], bids: bool = False) -> list[ColumnDef]:
+def defs(counts: list[str], bids: bool = False, never: frozenset[int] = frozenset()) -> list[ColumnDef]:
     """The Actions columns of one block of rows, given the cells holding each segment's count (absolute
     references), in SEGMENTS' order.
 
@@ -146,7 +173,8 @@ def defs(counts: list[str], bids: bool = False) -> list[ColumnDef]:
     kinds, its row's segment following from k against the running totals of their counts. The hidden Source
     row is the only working column: it holds (segment - 1) x SPAN + the change's row on its source sheet (the
     k-th of Bids' changes, Harvest's rows, Harvest's source negatives, Negatives' rows, Budget's changes), so
-    each visible column finds both the segment and the row in it.
+    each visible column finds both the segment and the row in it. never holds the segments whose count is a
+    constant 0 (their source is not in this workbook): no row reaches them, so the columns leave them out.
     """
     if bids:
         pos = '=IF({c:k}<=%s,MATCH({c:k},{rng:bids.a_key},1),"")' % counts[0]
@@ -154,31 +182,34 @@ def defs(counts: list[str], bids: bool = False) -> list[ColumnDef]:
     else:
         cum = ["+".join(counts[1:i + 1]) for i in range(1, len(counts))]  # the other kinds' running totals
         # The change's number within its kind is k less the kinds before it; the source row follows from it.
+        # The budget kind last: where the workbook lacks it (never), no row reaches it and its test goes.
+        budget = ('IF({c:k}<=%s,%d+MATCH({c:k}-(%s),{rng:budget_campaigns.c_key},1),"")' % (cum[3], 4 * SPAN, cum[2])
+                  if 5 not in never else '""')
         pos = ('=IF({c:k}<=%s,%d+{c:k},IF({c:k}<=%s,%d+MATCH({c:k}-(%s),{rng:harvest.n_key},1),'
-               'IF({c:k}<=%s,%d+{c:k}-(%s),IF({c:k}<=%s,%d+MATCH({c:k}-(%s),{rng:budget_campaigns.c_key},1),""))))'
-               % (cum[0], SPAN, cum[1], 2 * SPAN, cum[0], cum[2], 3 * SPAN, cum[1], cum[3], 4 * SPAN, cum[2]))
+               'IF({c:k}<=%s,%d+{c:k}-(%s),%s)))'
+               % (cum[0], SPAN, cum[1], 2 * SPAN, cum[0], cum[2], 3 * SPAN, cum[1], budget))
+        negative = 'IF({c:pos}<%d,"add negative","budget")' % (4 * SPAN) if 5 not in never else '"add negative"'
         kind = ('=IF({c:pos}="","",IF({c:pos}<%d,IF(INDEX({rng:harvest.kind},{c:pos}-%d)="product target",'
-                '"add product target","add keyword"),IF({c:pos}<%d,"add negative","budget")))'
-                % (2 * SPAN, SPAN, 4 * SPAN))
+                '"add product target","add keyword"),%s))' % (2 * SPAN, SPAN, negative))
 
     def pick(parts: dict[int, str]) -> str:
         """The column's formula in this block: its bid branch, or the other kinds' chain."""
-        return _bid_formula(parts[1]) if bids else _field(parts, first=2)
+        return _bid_formula(parts[1]) if bids else _field(parts, first=2, never=never)
 
     return [
         ColumnDef("kind", "Kind", "text", "bid, add keyword, add product target, add negative or budget.",
                   _ref("Kind"), kind, width=16),
         ColumnDef("campaign", "Campaign", "text", "Where the change goes.", _ref("Campaign"), pick({
-            1: _idx("bids.campaign"), 2: _idx("harvest.dest_campaign"), 3: _idx("harvest.campaign"),
-            4: _idx("negative_list.campaign"), 5: _idx("budget_campaigns.campaign")}), width=26),
+            1: _text("bids.campaign"), 2: _idx("harvest.dest_campaign"), 3: _idx("harvest.campaign"),
+            4: _idx("negative_list.campaign"), 5: _text("budget_campaigns.campaign")}), width=26),
         ColumnDef("ad_group", "Ad group", "text", "Blank for a campaign-level change.", _ref("Ad group"), pick({
-            1: _idx("bids.ad_group"), 2: _idx("harvest.dest_ad_group"), 3: _idx("harvest.ad_group"),
+            1: _text("bids.ad_group"), 2: _idx("harvest.dest_ad_group"), 3: _idx("harvest.ad_group"),
             4: _idx("negative_list.ad_group")}), width=18),
         ColumnDef("target", "Target or term", "text", "The keyword, target or search term.", _ref("Target or term"),
-                  pick({1: _idx("bids.target"), 2: _idx("harvest.term"), 3: _idx("harvest.term"),
+                  pick({1: _text("bids.target"), 2: _idx("harvest.term"), 3: _idx("harvest.term"),
                           4: _idx("negative_list.term")}), width=28),
         ColumnDef("match_type", "Match type", "text", "The match type to use.", _ref("Match type"), pick({
-            1: _idx("bids.match_type"), 2: _idx("harvest.match"), 3: '"negative exact"',
+            1: _text("bids.match_type"), 2: _idx("harvest.match"), 3: '"negative exact"',
             4: _idx("negative_list.neg_match")}), width=15),
         ColumnDef("current", "Current", "money", "The bid or daily budget now.", _num("Current"), pick({
             1: "INDEX({rng:bids.bid},{c:pos})", 5: "INDEX({rng:budget_campaigns.budget},{c:pos})"}), width=10),
@@ -194,15 +225,16 @@ def defs(counts: list[str], bids: bool = False) -> list[ColumnDef]:
                   width=34),
         ColumnDef("product_id", "Product ID", "text", "The product (or the campaign's products) the change is for.",
                   _ref("Product ID"), pick({
-                      1: _idx("bids.product_id"), 2: _idx("harvest.product_id"), 3: _idx("harvest.product_id"),
-                      4: _idx("negative_list.product_id"), 5: _idx("budget_campaigns.products")}), width=16),
+                      1: _any("bids.product_id"), 2: _idx("harvest.product_id"), 3: _idx("harvest.product_id"),
+                      4: _idx("negative_list.product_id"), 5: _any("budget_campaigns.products")}), width=16),
         ColumnDef("money", "Money at stake", "money",
                   "Last period's spend of the target or term, or the size of the budget change.", _num("Money at stake"),
                   pick({1: "INDEX({rng:bids.spend},{c:pos})", 2: "INDEX({rng:harvest.spend},{c:pos})",
                           3: "INDEX({rng:harvest.spend},{c:pos})", 4: "INDEX({rng:negative_list.spend},{c:pos})",
                           5: "IF(ISNUMBER(INDEX({rng:budget_campaigns.final},{c:pos})),"
                              + cents_formula("ABS(INDEX({rng:budget_campaigns.final},{c:pos})-INDEX("
-                                             "{rng:budget_campaigns.budget},{c:pos}))") + ",\"\")"}),
+                                             "{rng:budget_campaigns.budget},{c:pos}))", never_negative=True)
+                             + ",\"\")"}),
                   width=11),
         ColumnDef("k", "Number", "int", "Helper: the row's number within its block (bid changes, other changes).",
                   lambda df, ctx: df["k"], kind=DATA, width=6, hidden=True),
@@ -363,13 +395,15 @@ def plan_actions(tables: dict[str, PlannedTable], ranges: dict[str, str], settin
     candidates = [sizes.get(s.label, 0) for s in SEGMENTS]
     p = max(0, min(candidates[0], settings.actions_cap, len(bids) + SPARE_ROWS))
     q = max(0, min(sum(candidates[1:]), len(others) + SPARE_ROWS))
-    # A source this workbook lacks has a count of 0, so its branch is never taken: it reads as blank.
+    # A source this workbook lacks has a count of 0, so its branch is never taken: the columns leave it out, and
+    # what else reads it (the Source row's own chain) reads it as blank.
+    never = frozenset(seg.number for seg, total in zip(SEGMENTS, totals) if total == "0")
     blocks = []
     for block, n, bid_block, first in ((bids[:p], p, True, HEADER_ROW + 1), (others, q, False, HEADER_ROW + 1 + p)):
         # seg (each row's segment, 0 when empty) stays in the reference frame only: the sheet reads it from Source row.
         base = pd.DataFrame({"k": np.arange(1, n + 1, dtype=float),
                              "seg": [float(block[i]["_seg"]) if i < len(block) else 0.0 for i in range(n)]})
-        columns = without_absent(defs(local_refs, bids=bid_block), ranges, SOURCES)
+        columns = without_absent(defs(local_refs, bids=bid_block, never=never), ranges, SOURCES)
         blocks.append(plan_table(columns, base, ActionsContext(block), first, ranges, with_totals=False))
     planned = _joined(*blocks)
     planned.totals_values[BID_ROWS] = p

@@ -72,11 +72,19 @@ class ListContext:
     term_rows: dict[int, dict] = field(default_factory=dict)  # {0-based Terms row: its values}, each taken once
 
 
-def _pick(column: str, text: bool = False):
-    """A list column copying a Terms column from the matched row: formula and reference."""
+def _pick(column: str, text: bool = False, digits: bool = False):
+    """A list column copying a Terms column from the matched row: formula and reference.
+
+    A text column shows a blank Terms cell as blank: imported text (written as text, or left blank) reads as
+    INDEX(..)&"", which gives "" for a blank cell and the text (or an error) as it is; a text column that may hold
+    a number (digits: a product ID, which a spreadsheet turns into a number when it is typed again) keeps the long
+    form IF(x="","",x), a number staying a number. Both give the same value in every engine
+    (tests/test_recalc_engines.py checks each case).
+    """
     inner = "INDEX({rng:terms.%s},{c:pos})" % column
-    formula = ('=IF({c:pos}="","",IF(%s="","",%s))' % (inner, inner)) if text else \
-        '=IF({c:pos}="","",%s)' % inner
+    shown = ('IF(%s="","",%s)' % (inner, inner)) if digits else f'{inner}&""' if text else inner
+    formula = '=IF({c:pos}="","",%s)' % shown
+    text = text or digits
 
     def compute(df: pd.DataFrame, ctx: ListContext) -> pd.Series:
         values = ctx.terms[column].to_numpy(dtype=object)
@@ -157,10 +165,13 @@ _START_BID = ('=IF({c:pos}="","",IF(OR(%(cpc)s="",{c:value_bid}=""),"",MIN(bid_c
               'IF(starting_bid="cpc",%(cpc)s,IF(starting_bid="value",{c:value_bid},MIN(%(cpc)s,{c:value_bid})))'
               '+0.000000001,2)))))' % {"cpc": _t("cpc")})
 _SPENT = "%s>=%s*block_spend_multiple" % (_t("spend"), _b("p_price"))
-_RULE = ('=IF({c:pos}="","",IF(%s<>"block","your decision",IF(%s,"spend reached price x multiple",'
-         '"no orders after "&%s&" clicks")))' % (_t("verdict"), _SPENT, _b("n_zero")))
-_THRESHOLD = ('=IF({c:pos}="","",IF(%s<>"block","",IF(%s,%s*block_spend_multiple,%s)))'
-              % (_t("verdict"), _SPENT, _b("p_price"), _b("n_zero")))
+_DECIDED, _SPEND_RULE = "your decision", "spend reached price x multiple"  # two of the Rule's three texts
+_RULE = ('=IF({c:pos}="","",IF(%s<>"block","%s",IF(%s,"%s",'
+         '"no orders after "&%s&" clicks")))' % (_t("verdict"), _DECIDED, _SPENT, _SPEND_RULE, _b("n_zero")))
+# The threshold follows the row's Rule, which tells the three cases apart (an error in the verdict or the test
+# reaches the Rule as it reached the threshold).
+_THRESHOLD = ('=IF({c:pos}="","",IF({c:rule}="%s","",IF({c:rule}="%s",%s*block_spend_multiple,%s)))'
+              % (_DECIDED, _SPEND_RULE, _b("p_price"), _b("n_zero")))
 
 
 HARVEST_DEFS: list[ColumnDef] = [
@@ -190,7 +201,7 @@ HARVEST_DEFS: list[ColumnDef] = [
               *reversed(_pick("campaign", text=True)), width=22),
     ColumnDef("ad_group", "Source ad group", "text", "Where the term was found.",
               *reversed(_pick("ad_group", text=True)), width=16),
-    ColumnDef("product_id", "Product ID", "text", "The product.", *reversed(_pick("product_id", text=True)),
+    ColumnDef("product_id", "Product ID", "text", "The product.", *reversed(_pick("product_id", digits=True)),
               width=12),
     ColumnDef("orders", "Orders", "int", "The term's orders.", *reversed(_pick("orders")), width=7),
     ColumnDef("spend", "Spend", "money", "The term's spend: the money at stake.", *reversed(_pick("spend")), width=9),
@@ -218,8 +229,7 @@ NEGATIVE_DEFS: list[ColumnDef] = [
               width=22),
     ColumnDef("ad_group", "Ad group", "text", "The ad group, or blank where the negative goes on the whole campaign.",
               *_derived(lambda r, s: "" if s.negative_level == "campaign" else r["_src_ad_group"],
-                        '=IF({c:pos}="","",IF(negative_level="campaign","",IF(%s="","",%s)))'
-                        % (_t("ad_group"), _t("ad_group"))), width=16),
+                        '=IF({c:pos}="","",IF(negative_level="campaign","",%s&""))' % _t("ad_group")), width=16),
     ColumnDef("level", "Level", "text", "ad group or campaign (Settings).",
               *_derived(_level, '=IF({c:pos}="","",negative_level)'), width=10),
     ColumnDef("neg_match", "Negative match type", "text",
@@ -232,7 +242,7 @@ NEGATIVE_DEFS: list[ColumnDef] = [
               *_from_terms("block_threshold", formula=_THRESHOLD), width=10),
     ColumnDef("spend", "Spend", "money", "The term's spend.", *reversed(_pick("spend")), width=9),
     ColumnDef("clicks", "Clicks", "int", "The term's clicks.", *reversed(_pick("clicks")), width=7),
-    ColumnDef("product_id", "Product ID", "text", "The product.", *reversed(_pick("product_id", text=True)),
+    ColumnDef("product_id", "Product ID", "text", "The product.", *reversed(_pick("product_id", digits=True)),
               width=12),
     _pos_column("block"),
 ]
