@@ -29,3 +29,19 @@ def test_the_stream_after_a_first_read_hands_over_that_sheets_rows_from_the_byte
     assert expected["Bids"] == _streamed(book, "Bids")  # and a later stream reads the file again
     assert len(expected["Bids"]) > 90
     book.close()
+
+
+def test_a_part_beyond_the_bytes_kept_at_once_is_inflated_again_and_read_the_same(demo_build, monkeypatch):
+    import sheetbuilder.weekly.xlsx as xlsx
+    fresh = XlsxFile(demo_build.output)
+    expected = _streamed(fresh, "Terms")
+    fresh.close()
+    book = XlsxFile(demo_build.output)
+    book.read_keeping_rows("Bids", frozenset({0}), True, NO_SAVED_VALUE)
+    kept = len(book._inflated["xl/worksheets/sheet4.xml"])
+    monkeypatch.setattr(xlsx, "KEPT_BYTES", kept + 1000)  # Bids kept; Terms (larger) would pass the bound
+    book.read_keeping_rows("Terms", frozenset({0}), True, NO_SAVED_VALUE)
+    assert ["xl/worksheets/sheet4.xml"] == list(book._inflated)
+    assert expected == _streamed(book, "Terms")
+    book.close()
+    assert {} == book._inflated

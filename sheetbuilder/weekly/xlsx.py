@@ -16,6 +16,8 @@ from sheetbuilder.weekly.fast_cells import shared_strings
 from sheetbuilder.weekly.names import Area, a1_area
 from sheetbuilder.weekly.sheet_xml import CellReader, read_cells, read_keeping_rows, stream_cells
 
+KEPT_BYTES = 128 * 2 ** 20  # the inflated parts kept at once for a later stream, at most (a part beyond: inflated again)
+
 
 def named_area(wb: Any, name: str) -> Area | None:
     """The area an openpyxl workbook's workbook-level defined name covers, or None when missing, broken or off-sheet."""
@@ -91,7 +93,8 @@ class XlsxFile:
         A part the regular-expression reader reads keeps no rows (None: they are found again by the stream after it,
         without checking the part again); its inflated bytes are kept instead, for that one stream (inflating a part
         costs about as much as finding its cells again: 0.05 s for Bids' 17 MB, 0.13 s for its 46 MB saved without
-        cached values).
+        cached values). At most :data:`KEPT_BYTES` are kept at once: memory grows by that much at most, whatever the
+        account's size (a part beyond it is inflated again, as before).
 
         Raises:
             DamagedSheet: the sheet's XML is not well-formed or a cell cannot be read.
@@ -101,7 +104,8 @@ class XlsxFile:
         def parse(fh: Any, reader: CellReader) -> tuple[list[list[Any]], Any]:
             data = fh.read()
             rows, kept = read_keeping_rows(io.BytesIO(data), reader, columns, formulas)
-            if kept is None and part in self._checked:
+            if kept is None and part in self._checked and \
+                    sum(map(len, self._inflated.values())) + len(data) <= KEPT_BYTES:
                 self._inflated[part] = data
             return rows, kept
         return self._parse(sheet, no_saved_value, parse)
