@@ -114,3 +114,26 @@ def test_a_bids_applied_value_is_the_last_matching_targets_bid_this_week(two_wee
         assert ("yes" if applied else "no") == row["applied"], change
         yes += applied
     assert yes > 10
+
+
+def test_a_negatives_applied_is_yes_exactly_when_a_mask_over_this_weeks_negatives_finds_it(two_weeks):
+    before, now = two_weeks
+    negatives = now["negatives"]
+    assert len(negatives) > 5
+    changes = []
+    for r in negatives.head(6).to_dict("records"):  # held: spelled in another case and spacing, or as exported
+        changes.append({"kind": "add negative", "campaign": r["campaign"], "ad_group": r["ad_group"],
+                        "target": "  " + str(r["term"]).upper(), "match_type": r["match_type"], "product_id": ""})
+        changes.append({**changes[-1], "target": r["term"] + " more"})  # another term: not held
+        changes.append({**changes[-2], "match_type": "negative phrase" if r["match_type"] == "negative exact"
+                        else "negative exact"})  # another match type: not held
+        changes.append({**changes[-3], "ad_group": "" if r["ad_group"] else "a group"})  # another ad group
+    rows = followup_rows(changes, before, now, {})
+    for change, row in zip(changes, rows):
+        group = change["ad_group"]
+        mask = ((negatives["campaign"] == change["campaign"])
+                & (negatives["ad_group"].map(lambda g: "" if pd.isna(g) else g) == group)
+                & (negatives["term"].map(fold) == fold(change["target"]))
+                & (negatives["match_type"] == change["match_type"]))
+        assert ("yes" if mask.any() else "no") == row["applied"], change
+    assert ["yes", "no", "no", "no"] * 6 == [row["applied"] for row in rows]

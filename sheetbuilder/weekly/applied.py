@@ -186,16 +186,37 @@ class _Period:
         """The positions of the search-term rows a negative (exact: the same term; phrase: its words in order) stops."""
         if self.table("search_terms") is None:
             return []
-        index = self._indexed("search_terms", lambda t: t["campaign"])
         if "search_terms words" not in self._index:
             t = self.tables["search_terms"]
-            self._index["search_terms words"] = {"words": [fold(v).split() for v in t["search_term"]],
-                                                 "groups": t["ad_group"].tolist()}
-        words_of, groups = self._index["search_terms words"]["words"], self._index["search_terms words"]["groups"]
+            words_of = [fold(v).split() for v in t["search_term"]]
+            by_word: dict = {}  # {(campaign, a word): the positions of the campaign's terms holding it}
+            for i, (c, words) in enumerate(zip(t["campaign"], words_of)):
+                for word in dict.fromkeys(words):
+                    by_word.setdefault((c, word), []).append(i)
+            self._index["search_terms words"] = {"words": words_of, "groups": t["ad_group"].tolist(),
+                                                 "by_word": by_word}
+        held = self._index["search_terms words"]
+        words_of, groups = held["words"], held["groups"]
         words, any_group = fold(term).split(), is_blank(group)
         exact = str(match).endswith("exact")
-        return [i for i in index.get(campaign, []) if (any_group or groups[i] == group)
+        if words:  # a term stopped holds every word of the negative: the campaign's terms holding its rarest one
+            candidates = min((held["by_word"].get((campaign, w), []) for w in words), key=len)
+        else:
+            candidates = self._indexed("search_terms", lambda t: t["campaign"]).get(campaign, [])
+        return [i for i in candidates if (any_group or groups[i] == group)
                 and (words_of[i] == words if exact else _phrase_in(words, words_of[i]))]
+
+    def negative_held(self, campaign, group, term, match) -> bool:
+        """Whether the negatives table holds a negative: campaign and match type equal, the ad group equal (a blank as
+        blank), the term equal once folded (the set built once; a NaN equals nothing, as in a mask)."""
+        if "negatives held" not in self._index:
+            t = self.tables["negatives"]
+            self._index["negatives held"] = {
+                key for key in zip(t["campaign"], t["ad_group"].map(lambda g: "" if is_blank(g) else g),
+                                   t["term"].map(fold), t["match_type"]) if all(v == v for v in key)}
+        group = "" if is_blank(group) else group
+        key = (campaign, group, fold(term), match)
+        return all(v == v for v in key) and key in self._index["negatives held"]
 
     def bids(self) -> list:
         """The targets table's bids, as a list (taken once: a table's column taken per look-up costs a copy)."""
@@ -246,12 +267,8 @@ def _applied(change: dict, now: _Period) -> tuple[str, Any]:
     if kind == "add negative":
         if negatives is None:
             return CANNOT_TELL, None
-        group = "" if is_blank(change["ad_group"]) else change["ad_group"]
-        hit = ((negatives["campaign"] == change["campaign"])
-               & (negatives["ad_group"].map(lambda g: "" if is_blank(g) else g) == group)
-               & (negatives["term"].map(fold) == fold(change["target"]))
-               & (negatives["match_type"] == change["match_type"]))
-        return (YES if bool(hit.any()) else NO), None
+        held = now.negative_held(change["campaign"], change["ad_group"], change["target"], change["match_type"])
+        return (YES if held else NO), None
     if kind == "budget":
         if campaigns is None:
             return CANNOT_TELL, None

@@ -37,6 +37,7 @@ class _Layout:
     keys: list[int]  # planned columns naming a row
     rows: int
     decl: EditableColumns | None
+    first_row: int = 0  # its header row as planned (0-based)
 
     @property
     def fewest(self) -> int:
@@ -61,7 +62,8 @@ def _layout(table: Table, decl: EditableColumns | None) -> _Layout:
             if c.kind == FORMULA or c.style.split("_")[0] in NUMERIC_STYLES or len(keys) == MAX_KEYS:
                 break
             keys.append(i)
-    return _Layout(headers, [i for i, c in enumerate(table.columns) if c.kind == FORMULA], keys, table.n_rows, decl)
+    return _Layout(headers, [i for i, c in enumerate(table.columns) if c.kind == FORMULA], keys, table.n_rows, decl,
+                   table.first_row)
 
 
 def _decls(spec_tables: dict[int, str]) -> dict[int, EditableColumns]:
@@ -79,10 +81,22 @@ class _Wanted(set):
 
 
 class _SheetCheck:
-    """The streamed check of one saved sheet: its tables' header rows found in order, then their bodies read."""
+    """The streamed check of one saved sheet: its tables' header rows found in order, then their bodies read.
 
-    def __init__(self, sheet: str, layouts: list[_Layout]):
+    narrow: the body of a table with another below it is read in its formula and key columns alone (Groups' first
+    table holds ten typed columns a row), the columns a header row can reach read again after its last planned row.
+    This holds only while the sheet is laid out as planned: every body row handed over (each holds a key), and the
+    next table's header row found where the plan put it, as far below; otherwise :attr:`redo` is set and the sheet is
+    read again without narrowing (a row inserted or deleted by hand), so the check finds what reading every column
+    finds.
+    """
+
+    def __init__(self, sheet: str, layouts: list[_Layout], narrow: bool = True):
         self.sheet, self.layouts = sheet, layouts
+        self.narrow = narrow
+        self.narrowed: tuple[int, int] | None = None  # (the next body row expected, the next header row expected)
+        self.expect_header: int | None = None  # the row the next table's header must be found on (narrowed before)
+        self.redo = False  # the sheet is not laid out as planned: read it again without narrowing
         self.next = 0  # the next table whose header row is looked for
         self.current: _Layout | None = None
         self.last = -1  # the current table's last body row (0-based), as planned
@@ -90,7 +104,8 @@ class _SheetCheck:
         self.saved_headers: dict[int, str] = {}
         # Read until the last table's header row is found: the columns a header row can reach (tables start at
         # column A; a user may insert columns), their typed cells; then only the typed cells of the columns checked.
-        self.columns = _Wanted(range(max(len(t.headers) for t in layouts) + INSERTED_COLUMNS))
+        self.wide = range(max(len(t.headers) for t in layouts) + INSERTED_COLUMNS)
+        self.columns = _Wanted(self.wide)
         self.found: list[Problem | None] = []  # None: a typed cell whose row's keys are read after the stream
         self.unnamed: dict[int, tuple[int, list[int], _Layout, int, Any, str]] = {}  # {index in found: its cell}
         self.fewest = [t.fewest for t in layouts]
@@ -119,19 +134,48 @@ class _SheetCheck:
         for i in range(min(end, len(layout.headers))):  # a header renamed where it stands, its place taken by no other
             if i not in self.at and i not in taken and texts.get(i) not in planned:
                 self.at[i] = i
+        if self.expect_header is not None and r != self.expect_header:
+            self.redo = True  # not where the plan put it, as far below the table above: read the sheet in full
+        self.expect_header = None
         self.saved_headers = texts
         self.current, self.last = layout, r + layout.rows
         self.next += 1
-        if self.next == len(self.layouts):  # no header left to look for: only the typed cells of its formula
+        keys = [self.at.get(k) for k in layout.keys]
+        if self.next < len(self.layouts) and self.narrow and keys and None not in keys and layout.rows:
+            self.columns.clear()  # the body: its formula and key columns (each body row holds a key)
+            self.columns.update({self.at[i] for i in layout.formulas if i in self.at} | set(keys))
+            self.narrowed = (r + 1, r + self.layouts[self.next].first_row - layout.first_row)
+        elif self.next == len(self.layouts):  # no header left to look for: only the typed cells of its formula
             self.columns.clear()           # columns are read (the keys of a row holding one are read after)
             self.columns.update(self.at.get(i, -1) for i in layout.formulas)
             self.keys_read = False
         return True
 
     def row(self, r: int, cells: dict[int, tuple[Any, bool]]) -> bool:
-        """Check one saved row; True once every table was read (nothing more to read)."""
+        """Check one saved row; True once every table was read (nothing more to read), or once the sheet is found
+        not laid out as planned while narrowed (:attr:`redo`)."""
+        if self.redo:
+            return True
+        if self.narrowed is not None:
+            expected, header = self.narrowed
+            if r != expected:  # a body row without a key, or rows deleted: read it again in full
+                self.redo = True
+                return True
+            if r >= self.last:  # its last body row: the columns a header row can reach, from the next row on
+                self.narrowed, self.expect_header = None, header
+                self.columns.clear()
+                self.columns.update(self.wide)
+            else:
+                self.narrowed = (r + 1, header)
+            self._body(r, cells)
+            return False
         if self._header(r, cells) or self.current is None or r > self.last:
             return self.next >= len(self.layouts) and r >= self.last
+        self._body(r, cells)
+        return self.next >= len(self.layouts) and r >= self.last
+
+    def _body(self, r: int, cells: dict[int, tuple[Any, bool]]) -> None:
+        """Check one body row of the current table: a typed value in a formula column is reported."""
         layout = self.current
         for i in layout.formulas:
             c = self.at.get(i)
@@ -148,7 +192,6 @@ class _SheetCheck:
                 continue
             key = " / ".join(key_text(cells.get(k, (None, False))[0]) for k in keys)
             self.found.append(Problem(self.sheet, r + 1, header, _message(layout, i, key, value), WARNING))
-        return self.next >= len(self.layouts) and r >= self.last
 
     def named(self, book: Any) -> list[Problem]:
         """The problems found, each typed cell read without its row's keys named by them (the sheet read again
@@ -208,6 +251,9 @@ def typed_over(book: Any, spec: WorkbookSpec, tables: dict[str, Any]) -> list[Pr
             continue
         check = _SheetCheck(now, layouts)
         book.stream(now, check.row, check.columns)
+        if check.redo or check.narrowed is not None or check.expect_header is not None:
+            check = _SheetCheck(now, layouts, narrow=False)  # not laid out as planned: every column read
+            book.stream(now, check.row, check.columns)
         out += check.named(book)
     return out
 
