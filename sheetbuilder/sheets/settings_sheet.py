@@ -29,6 +29,10 @@ DATES = (dt.date(2000, 1, 1), dt.date(2100, 12, 31))  # the dates a date setting
 _STYLE = {"percent": "percent", "number": "ratio", "money": "money", "choice": "text", "int": "int", "date": "date", "text": "text", "bool": "text"}
 
 
+DESTINATIONS_NAME = "sb_destinations"  # the defined name over the destinations the build used (product, campaign,
+# ad group): settings.toml is not in the workbook, so `changes` reads them here to plan the adds as the build did
+
+
 def typed_name(key: str) -> str:
     """The defined name of a live setting's typed Value cell."""
     return key + TYPED_SUFFIX
@@ -231,6 +235,14 @@ def plan_settings(settings: Settings, built_on: dt.date, period=None,
         rows.append([Cell("Period in the exports"), Cell(str(period), style="text"), None, None,
                      Cell("Read from the exports' dates; " + (f"used for {' and '.join(used)}." if used else
                           "settings.toml sets the period, so it was not used."), style="note")])
+    if settings.destinations:  # read back by `changes`, which plans the workbook again from what it holds
+        rows.append([None])
+        rows.append([Cell("Destinations used (settings.toml [destinations]): product, campaign, ad group",
+                          style="subtitle")])
+        first = len(rows)
+        for product, (campaign, group) in sorted(settings.destinations.items()):
+            rows.append([Cell(product), Cell(campaign), Cell(group)])
+        names.append((DESTINATIONS_NAME, f"=Settings!$A${first + 1}:$C${len(rows)}"))
     mapped = [(table, canon, source) for table, cols in sorted(settings.columns.items())
               for canon, source in sorted(cols.items())]
     if mapped:

@@ -94,8 +94,12 @@ def check_change(row: Any, values: list[Any], context: dict[str, Any]) -> list[P
                 bad("New", f"the bid {new:g} is above the bid ceiling {ceiling:g}")
     if kind in ADDS:
         if is_blank(campaign) or is_blank(group):
+            product = named.get("product_id")
             bad("Campaign" if is_blank(campaign) else "Ad group",
-                "no destination: choose the campaign and ad group to add it to")
+                f"no destination for the term {str(term)!r}"
+                + ("" if is_blank(product) else f" (product {str(product)!r})")
+                + ": name the product's campaign and ad group under [destinations] in settings.toml and build "
+                  "again, or type watch or skip in the term's Decision on Terms")
         elif context.get("has_campaign_sheets") and str(campaign).strip() not in context.get("campaigns", set()):
             bad("Campaign", f"the campaign {str(campaign)!r} is not in the exports (in_campaigns, in_ad_products)")
     if kind in ADDS or kind == "add negative":

@@ -15,6 +15,7 @@ import math
 import zipfile
 from operator import itemgetter
 from pathlib import Path
+from types import MappingProxyType
 from typing import Any, Callable
 
 import pandas as pd
@@ -24,7 +25,8 @@ from sheetbuilder.sheets.decisions import NO_SAVED_VALUE
 from sheetbuilder.reading.guard import UnreadableWorkbook, UnsafeWorkbook, guard_saved_workbook
 from sheetbuilder.errors import WARNING, Problem, SheetbuilderError
 from sheetbuilder.sheets.inputs import sheet_name
-from sheetbuilder.sheets.settings_sheet import not_valid_text, setting_text, typed_name, typed_problem
+from sheetbuilder.sheets.settings_sheet import (DESTINATIONS_NAME, not_valid_text, setting_text, typed_name,
+                                               typed_problem)
 from sheetbuilder.reading.settings import SETTINGS, Settings, coerce_setting
 from sheetbuilder.sheets.history import (COLUMNS as HISTORY_COLUMNS, HEADER_ROW as HISTORY_HEADER_ROW,
                                          NAME as HISTORY_NAME, NUMBERS as HISTORY_NUMBERS, SHEET as HISTORY_SHEET)
@@ -335,10 +337,25 @@ def saved_settings(book: SavedBook):
             problems.append(problem)
             continue
         values[spec.key] = value
+    values["destinations"] = saved_destinations(book)
     built = book.named_value("built_on")
     built_on = built.date() if isinstance(built, dt.datetime) else (built if isinstance(built, dt.date) else
                                                                     dt.date.today())
     return Settings().replace(**values), built_on, problems
+
+
+def saved_destinations(book: SavedBook) -> MappingProxyType:
+    """{product: (campaign, ad group)}: the [destinations] of settings.toml the build used, as the Settings sheet
+    records them (none in a workbook built without them, or before they were recorded)."""
+    area = book.area(DESTINATIONS_NAME)
+    out: dict[str, tuple[str, str]] = {}
+    if area is not None:
+        for row in book.rows(area.sheet)[area.first_row:area.last_row + 1]:
+            product, campaign, group = (row[area.first_col:area.last_col + 1] + [None] * 3)[:3]
+            if not is_blank(product):
+                out[_as_text(product)] = ("" if is_blank(campaign) else _as_text(campaign),
+                                          "" if is_blank(group) else _as_text(group))
+    return MappingProxyType(out)
 
 
 def _history_value(key: str, v: Any) -> Any:

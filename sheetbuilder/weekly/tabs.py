@@ -26,7 +26,8 @@ from sheetbuilder.sheets.actions import HEADER_ROW as ACTIONS_HEADER_ROW, HEADER
 from sheetbuilder.sheets.followup import NAME as FOLLOWUP_NAME, SHEET as FOLLOWUP
 from sheetbuilder.sheets.history import COLUMNS as HISTORY_COLUMNS, NAME as HISTORY_NAME, SHEET as HISTORY
 from sheetbuilder.sheets.inputs import CATALOG_NAME, EDITABLE, EXPORTED, sheet_name
-from sheetbuilder.sheets.settings_sheet import HEADERS as SETTINGS_HEADERS, SHEET as SETTINGS_SHEET
+from sheetbuilder.sheets.settings_sheet import (DESTINATIONS_NAME, HEADERS as SETTINGS_HEADERS,
+                                                SHEET as SETTINGS_SHEET)
 from sheetbuilder.sheets.typed import ACTIONS_NAME, CARRIED_NAME, EDITABLE_TABLES, SCAN_ROWS, key_text
 from sheetbuilder.sheets.unmatched import CARRIED_SHEET, SHEET as UNMATCHED
 
@@ -36,7 +37,7 @@ CATALOG = sheet_name("catalog")
 def _homes() -> dict[str, str]:
     """{defined name: the sheet the build writes it on}."""
     out = {spec.key: SETTINGS_SHEET for spec in SETTINGS}
-    out.update({"built_on": SETTINGS_SHEET, ACCOUNT_NAME: SETTINGS_SHEET, ACTIONS_NAME: ACTIONS,
+    out.update({"built_on": SETTINGS_SHEET, ACCOUNT_NAME: SETTINGS_SHEET, DESTINATIONS_NAME: SETTINGS_SHEET, ACTIONS_NAME: ACTIONS,
                 FOLLOWUP_NAME: FOLLOWUP, HISTORY_NAME: HISTORY, f"{CARRIED_NAME}_sheet": CARRIED_SHEET})
     for decl in EDITABLE_TABLES:
         out.update({decl.name_of(k): decl.sheet for k in (*decl.keys, decl.value)})
