@@ -322,7 +322,7 @@ def bids_oracle(tables, settings, profit_rows, decisions=None, history=None):
             else:  # a cut stops at the floor (or at the bid, if already below it)
                 proposed = min(s.bid_ceiling, max(rounded, min(s.bid_floor, bid)))
             if proposed != rounded:
-                reason = "limited by bid ceiling" if rounded > proposed else "limited by bid floor"
+                reason += " (stopped at the bid ceiling)" if rounded > proposed else " (stopped at the bid floor)"
         decision = (decisions or {}).get(i)
         if decision is None or decision == "":
             final = proposed

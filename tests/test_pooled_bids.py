@@ -114,7 +114,7 @@ def test_the_waste_probability_is_the_posterior_chance_a_click_costs_more_than_i
         x = min(1.0, r["CPC-to-bid ratio"] * r["Current bid"] / (order_value * r["Aim ACoS"]))
         assert stats.beta.cdf(x, a, b) == pytest.approx(r["Waste probability"], rel=1e-9, abs=1e-12)
         if r["Waste probability"] >= s.waste_confidence and r["Value bid"] < r["Current bid"]:
-            assert r["Reason"] in ("cut on evidence: likely waste", "limited by bid floor")
+            assert r["Reason"] in ("cut on evidence: likely waste", "cut on evidence: likely waste (stopped at the bid floor)")
         checked += 1
     assert checked >= 10
 
@@ -192,7 +192,7 @@ def test_a_low_traffic_keyword_that_never_converts_is_cut_once_its_history_has_t
     assert "exploring: within allowance" == _slow_row(alone)["Reason"]
     row = _slow_row(second)
     assert (12, 0) == (row["History clicks"], row["History orders"])
-    assert row["Reason"] in ("cut on evidence: likely waste", "limited by bid floor")
+    assert row["Reason"] in ("cut on evidence: likely waste", "cut on evidence: likely waste (stopped at the bid floor)")
     assert row["Proposed bid"] < 1.0 * 0.5  # past the maximum cut (50%)
     _check_against_oracle(first, tmp_path / "w1", 1, "week 1")
     _check_against_oracle(second, tmp_path / "w2", 2, "week 2")
@@ -213,7 +213,7 @@ def test_three_weeks_each_saved_by_libreoffice_cut_the_keyword_and_keep_the_refe
     for n, out in enumerate(outputs, start=1):
         _check_against_oracle(out, tmp_path / f"w{n}", n, f"week {n}")
     assert (18, 0) == (_slow_row(outputs[2])["History clicks"], _slow_row(outputs[2])["History orders"])
-    assert _slow_row(outputs[1])["Reason"] in ("cut on evidence: likely waste", "limited by bid floor")
+    assert _slow_row(outputs[1])["Reason"] in ("cut on evidence: likely waste", "cut on evidence: likely waste (stopped at the bid floor)")
 
 
 def test_a_saved_workbook_is_planned_again_with_the_history_its_bids_read(tmp_path):

@@ -174,14 +174,17 @@ def _proposed(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     return pd.Series(np.where(df["rule"].isin(MOVING_RULES), clamped, df["bid"]), index=df.index)
 
 
+STOPPED_AT_CEILING, STOPPED_AT_FLOOR = " (stopped at the bid ceiling)", " (stopped at the bid floor)"
+
+
 def _reason(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     out = []
     for rule, raw, proposed, n in zip(df["rule"], _raw(df, ctx), df["proposed"], df["n_zero"]):
         rounded = round_half_away(raw + ROUNDING_NUDGE, 2)
-        if rule in MOVING_RULES and proposed != rounded:
-            out.append("limited by bid ceiling" if rounded > proposed else "limited by bid floor")
-        else:
-            out.append(REASONS[int(rule)].format(n="" if pd.isna(n) else int(n)))
+        reason = REASONS[int(rule)].format(n="" if pd.isna(n) else int(n))
+        if rule in MOVING_RULES and proposed != rounded:  # the rule's move, stopped short by the floor or ceiling
+            reason += STOPPED_AT_CEILING if rounded > proposed else STOPPED_AT_FLOOR
+        out.append(reason)
     return pd.Series(out, index=df.index, dtype=object)
 
 
@@ -221,8 +224,8 @@ _STEP = '=IF(%s,ROUND(%s+0.000000001,2),"")' % (_MOVING, _RAW)
 _PROPOSED = ('=IF({c:step}="",{c:bid},MIN(IF(%s,MAX(bid_ceiling,{c:bid}),bid_ceiling),MAX(IF(%s,bid_floor,'
              'MIN(bid_floor,{c:bid})),{c:step})))' % (_RAISING, _RAISING))
 _REASON_CHOICES = ",".join('"' + REASONS[i].replace("{n}", '"&{c:n_zero}&"') + '"' for i in range(1, len(REASONS) + 1))
-_REASON = ('=IF(IF({c:step}="",FALSE,{c:proposed}<>{c:step}),IF({c:step}>{c:proposed},"limited by bid ceiling",'
-           '"limited by bid floor"),CHOOSE({c:rule},%s))' % _REASON_CHOICES)
+_REASON = ('=CHOOSE({c:rule},%s)&IF(IF({c:step}="",FALSE,{c:proposed}<>{c:step}),IF({c:step}>{c:proposed},"%s",'
+           '"%s"),"")' % (_REASON_CHOICES, STOPPED_AT_CEILING, STOPPED_AT_FLOOR))
 # The zero-order clicks are the ad group's blend, read on Groups where the rule and its reason need them.
 _RULE, _REASON = (text.replace("{c:n_zero}", blended("n_zero")) for text in (_RULE, _REASON))
 

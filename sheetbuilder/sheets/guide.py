@@ -182,8 +182,11 @@ BID_METHOD = [
     "Shared ad groups: where an ad group advertises several products, their aim ACoS, conversion rate and "
     "order value are blended, weighted by each product's ad spend in the group (see Groups).",
     "Working columns: unhide the columns right of Final bid on Bids to see each step (the history's figures, "
-    "the CPC-to-bid ratio, the product's prior, the converting probability, the posterior CVR, the zero-order "
-    "clicks and the rule number 1-13).",
+    "the CPC-to-bid ratio, the product's prior, the converting probability, the posterior CVR and the rule "
+    "number 1-13; the zero-order clicks are the ad group's, on Groups), then what the long formulas share, "
+    "computed once per row: the order value, the prior's shapes in use (Prior a and Prior b as they apply, "
+    "from prior_clicks when the product's prior is blank) and the step bid (the moved bid rounded to the cent, "
+    "before the floor and the ceiling).",
     "Evidence: README, 'How well the method works on simulated accounts' (results, assumptions and limits).",
 ]
 

@@ -259,8 +259,10 @@ def typed_over(book: Any, spec: WorkbookSpec, tables: dict[str, Any]) -> list[Pr
 
 
 NOT_FOUND = ("this sheet is not in the workbook under its name, and no other sheet holds its header row (deleted, "
-             "or renamed and its headers changed): values typed over its formulas could not be looked for. Its "
-             "figures are computed again from the other sheets, so anything typed on it is not carried.")
+             "or renamed and its headers changed): values typed over its formulas could not be looked for. If it "
+             "was deleted, the formulas that read it show #REF! in this workbook; the change list and next week's "
+             "workbook are computed from the inputs and are not affected, and build --previous writes the sheet "
+             "again. Anything typed on it is not carried.")
 INSERTED_ROWS = 20  # rows a user may insert above a table whose renamed tab is found by its header row
 
 
