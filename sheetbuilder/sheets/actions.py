@@ -222,7 +222,7 @@ def defs(counts: list[str], bids: bool = False, never: frozenset[int] = frozense
             3: '"so the new keyword does not compete with its source"',
             4: _idx("negative_list.rule"),
             5: 'IF(INDEX({rng:budget_campaigns.decision},{c:pos})="","follows its products\' spend","your decision")'}),
-                  width=34),
+                  width=40),
         ColumnDef("product_id", "Product ID", "text", "The product (or the campaign's products) the change is for.",
                   _ref("Product ID"), pick({
                       1: _any("bids.product_id"), 2: _idx("harvest.product_id"), 3: _idx("harvest.product_id"),

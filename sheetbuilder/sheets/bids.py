@@ -283,7 +283,7 @@ DEFS: list[ColumnDef] = [
     ColumnDef("change", "Change", "percent", "Proposed bid / current bid - 1.",
               lambda df, ctx: blank_div(df["proposed"], df["bid"]) - 1,
               '=IF({c:bid}=0,"",{c:proposed}/{c:bid}-1)', width=8),
-    ColumnDef("reason", "Reason", "label", "Which rule decided the row.", _reason, _REASON, width=30),
+    ColumnDef("reason", "Reason", "label", "Which rule decided the row.", _reason, _REASON, width=40),
     ColumnDef("decision", "Decision", "text_input",
               "Input: leave blank to follow the proposal, type a bid to use it, or 'keep' to keep the current bid.",
               lambda df, ctx: df["decision"], kind=INPUT, width=10),
