@@ -88,13 +88,13 @@ def _prior(df: pd.DataFrame, ctx: BidsContext) -> tuple[pd.Series, pd.Series]:
 
 
 def _post_cvr(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
-    a, b = _prior(df, ctx)
+    a, b = df["prior_a"], df["prior_b"]  # the working columns, computed before (the formula reads them)
     out = df["w"] * (a + df["h_orders"]) / (a + b + df["h_clicks"]).where(a + b + df["h_clicks"] != 0)
     return out.astype(float)
 
 
 def _value_bid(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
-    value = df["post_cvr"] * _order_value(df, ctx)
+    value = df["post_cvr"] * df["order_value"]
     return (value * df["target_acos"] / df["ratio"]).where(df["post_cvr"].notna() & (value != 0))
 
 
@@ -116,7 +116,7 @@ def waste_at(df: pd.DataFrame, ctx: BidsContext, acos: pd.Series) -> pd.Series:
 
 def _rule(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     s = ctx.settings
-    allowance = s.exploration_orders * df["target_acos"] * _order_value(df, ctx)
+    allowance = s.exploration_orders * df["target_acos"] * df["order_value"]
     out = []
     for clicks, orders, spend, allow, n, value, bid, low, waste in zip(
             df["h_clicks"], df["h_orders"], df["h_spend"], allowance, df["n_zero"], df["value_bid"], df["bid"],
@@ -166,7 +166,7 @@ def _step(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
 
 def _proposed(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     s = ctx.settings
-    rounded = _raw(df, ctx).map(lambda v: round_half_away(v + ROUNDING_NUDGE, 2))
+    rounded = df["step"]  # the working column, computed before (the formula reads it)
     raising = df["rule"].isin(RAISING_RULES)
     low = np.where(raising, s.bid_floor, np.minimum(s.bid_floor, df["bid"]))
     high = np.where(raising, np.maximum(s.bid_ceiling, df["bid"]), s.bid_ceiling)
@@ -179,8 +179,7 @@ STOPPED_AT_CEILING, STOPPED_AT_FLOOR = " (stopped at the bid ceiling)", " (stopp
 
 def _reason(df: pd.DataFrame, ctx: BidsContext) -> pd.Series:
     out = []
-    for rule, raw, proposed, n in zip(df["rule"], _raw(df, ctx), df["proposed"], df["n_zero"]):
-        rounded = round_half_away(raw + ROUNDING_NUDGE, 2)
+    for rule, rounded, proposed, n in zip(df["rule"], df["step"], df["proposed"], df["n_zero"]):
         reason = REASONS[int(rule)].format(n="" if pd.isna(n) else int(n))
         if rule in MOVING_RULES and proposed != rounded:  # the rule's move, stopped short by the floor or ceiling
             reason += STOPPED_AT_CEILING if rounded > proposed else STOPPED_AT_FLOOR

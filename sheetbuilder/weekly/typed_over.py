@@ -245,7 +245,7 @@ def typed_over(book: Any, spec: WorkbookSpec, tables: dict[str, Any]) -> list[Pr
         if not planned:
             continue
         layouts = [_layout(t, decls.get(id(t.columns))) for t in planned]
-        now = book.sheet(sheet.name) or _renamed(book, layouts, planned[0].first_row)
+        now = book.sheet(sheet.name) or _renamed(book, layouts)
         if now is None:
             out.append(Problem(sheet.name, None, None, NOT_FOUND, WARNING))
             continue
@@ -266,7 +266,7 @@ NOT_FOUND = ("this sheet is not in the workbook under its name, and no other she
 INSERTED_ROWS = 20  # rows a user may insert above a table whose renamed tab is found by its header row
 
 
-def _renamed(book: Any, layouts: list[_Layout], header_row: int) -> str | None:
+def _renamed(book: Any, layouts: list[_Layout]) -> str | None:
     """The one sheet, among those no sheet we built was found on, whose top rows hold the first table's header row
     (a tab renamed that nothing else finds: the sheets without a typed column); None when none or several do."""
     tabs = book.tabs
@@ -275,6 +275,6 @@ def _renamed(book: Any, layouts: list[_Layout], header_row: int) -> str | None:
     for name in (s for s in book.sheetnames if s not in claimed):
         check = _SheetCheck(name, layouts)
         if any(check._header(r, {c: (v, False) for c, v in enumerate(row) if not is_blank(v)})
-               for r, row in enumerate(book.head(name, header_row + 1 + INSERTED_ROWS))):
+               for r, row in enumerate(book.head(name, layouts[0].first_row + 1 + INSERTED_ROWS))):
             holding.append(name)
     return holding[0] if len(holding) == 1 else None
