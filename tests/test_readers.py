@@ -209,6 +209,16 @@ def test_fraction_in_a_count_column_is_a_problem(tmp_path):
     assert "is not a whole number" in problems[0].message
 
 
+def test_a_header_row_pasted_among_the_data_is_one_problem_naming_its_row(tmp_path):
+    # Two exports pasted into one file bring the second one's header along: said once, as what it is, not as a
+    # wrong number in each of its cells.
+    lines = AD_PRODUCTS.strip().splitlines()
+    pasted = "\n".join([lines[0], lines[1], " " + lines[0].upper(), lines[2]]) + "\n"
+    problems = problems_of(write_account(tmp_path, {"ad_products.csv": pasted}))
+    assert [("ad_products.csv", 3, None, "error")] == [(p.file, p.row, p.column, p.severity) for p in problems]
+    assert problems[0].message.startswith("this row repeats the header row")
+
+
 # Encodings, delimiters, .xlsx
 
 CAFE_CATALOG = ("product_id,product_name,price,unit_cost,fees_per_unit,target_acos\n"

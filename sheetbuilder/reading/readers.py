@@ -371,6 +371,13 @@ def _skip_hidden_rows(records: list[dict], raw: list[tuple], hidden: set[int], t
     return [records[k] for k in kept], [raw[k] for k in kept]
 
 
+def _repeats_header(row: list[str], header: list[str], found: dict[str, int]) -> bool:
+    """Whether a data row holds the header's text in every column read (at least two), case and spaces aside."""
+    columns = [col for col in found.values() if col is not None and col < len(header) and header[col].strip()]
+    return len(columns) >= 2 and all(col < len(row) and row[col].strip().casefold() == header[col].strip().casefold()
+                                     for col in columns)
+
+
 def _layout_notes(file: str, sheets: list, sheet: str, rows: list[list[str]], start: int) -> list[Problem]:
     """Notes saying which sheet was read and which row held the header, when not the obvious ones."""
     notes = []
@@ -445,6 +452,11 @@ def read_table(path: Path, table: c.TableRule, settings: Settings) -> tuple[pd.D
     for i in range(start + 1, len(rows)):
         row = rows[i]
         if not any(x.strip() for x in row):
+            continue
+        if _repeats_header(row, header, found):
+            problems.append(Problem(file, i + 1, None, "this row repeats the header row: two exports pasted into one "
+                                                       "file? Delete the row, and keep one export per period (the "
+                                                       "rows below it may repeat rows above it, or cover other days)"))
             continue
         record: dict[str, object] = {"_row": i + 1}
         cell_problems = []
